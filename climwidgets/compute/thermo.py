@@ -1,0 +1,81 @@
+"""Moist thermodynamics used by the warming what-if and the orographic model.
+
+Saturation vapour pressure over water uses the Magnus form with the coefficients of
+Alduchov & Eskridge (1996, J. Appl. Meteor. 35, 601-609, eq. 21):
+``e_s = 610.94 * exp(17.625 T / (T + 243.04))`` Pa, T in degrees Celsius.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+# Alduchov & Eskridge (1996), eq. 21 (over water); a in Pa, b dimensionless, c in degC.
+MAGNUS_A_PA = 610.94
+MAGNUS_B = 17.625
+MAGNUS_C_DEGC = 243.04
+
+# Physical constants (common textbook values).
+R_DRY = 287.04  # J kg-1 K-1, gas constant of dry air
+R_VAPOUR = 461.5  # J kg-1 K-1, gas constant of water vapour
+LATENT_HEAT_VAPORISATION = 2.501e6  # J kg-1 at 0 degC
+CP_DRY = 1004.0  # J kg-1 K-1
+GRAVITY = 9.80665  # m s-2 (standard gravity)
+EPSILON = R_DRY / R_VAPOUR
+
+
+def _apply(func, temperature_c):
+    """Apply a numpy formula to scalars, arrays or xarray objects alike."""
+    try:
+        import xarray as xr
+
+        if isinstance(temperature_c, xr.DataArray):
+            return xr.apply_ufunc(func, temperature_c, dask="allowed", keep_attrs=False)
+    except ImportError:  # pragma: no cover
+        pass
+    return func(np.asarray(temperature_c, dtype=float))
+
+
+def saturation_vapor_pressure(temperature_c):
+    """Saturation vapour pressure over liquid water, in Pa.
+
+    Magnus form with the Alduchov & Eskridge (1996) coefficients; accurate to about
+    0.3 % against the IAPWS formulation between 0 and 30 degC.
+    """
+    def f(t):
+        return MAGNUS_A_PA * np.exp(MAGNUS_B * t / (t + MAGNUS_C_DEGC))
+
+    out = _apply(f, temperature_c)
+    if hasattr(out, "attrs"):
+        out.attrs.update(units="Pa", long_name="saturation vapour pressure over water",
+                         formula="Magnus form, Alduchov & Eskridge (1996) eq. 21")
+    return out
+
+
+def clausius_clapeyron_rate(temperature_c):
+    """Fractional increase of saturation vapour pressure per kelvin, d ln(e_s)/dT (1/K).
+
+    Analytic derivative of the Magnus form: ``b c / (T + c)^2``; about 0.062 per K at 20 degC.
+    """
+    return _apply(lambda t: MAGNUS_B * MAGNUS_C_DEGC / (t + MAGNUS_C_DEGC) ** 2, temperature_c)
+
+
+def saturation_vapor_density(temperature_c):
+    """Saturation water-vapour density in kg m-3 (ideal gas: e_s / (R_v T))."""
+    return _apply(lambda t: saturation_vapor_pressure(t) / (R_VAPOUR * (t + 273.15)), temperature_c)
+
+
+def moist_adiabatic_lapse_rate(temperature_c, pressure_pa=101325.0):
+    """Saturated (pseudo-)adiabatic lapse rate in K m-1.
+
+    Gamma_m = g (1 + L r_s / (R_d T)) / (c_p + L^2 r_s eps / (R_d T^2)), the usual textbook
+    form (for example Wallace & Hobbs, Atmospheric Science, 2nd ed., eq. 3.89 — from memory),
+    with r_s the saturation mixing ratio at the given pressure.
+    """
+    def f(t):
+        tk = t + 273.15
+        es = MAGNUS_A_PA * np.exp(MAGNUS_B * t / (t + MAGNUS_C_DEGC))
+        rs = EPSILON * es / (pressure_pa - es)
+        lv = LATENT_HEAT_VAPORISATION
+        return GRAVITY * (1 + lv * rs / (R_DRY * tk)) / (CP_DRY + lv**2 * rs * EPSILON / (R_DRY * tk**2))
+
+    return _apply(f, temperature_c)
