@@ -1,0 +1,120 @@
+"""Find the time, latitude and longitude of a variable and bring them to the house layout.
+
+Rectilinear grids end up with 1-D ``lat`` ascending and ``lon`` in [-180, 180) sorted, and
+carry their cell bounds as 1-D coordinates ``lat_lower``/``lat_upper`` and
+``lon_lower``/``lon_upper``.  Curvilinear grids keep their 2-D ``lat(y, x)``/``lon(y, x)``
+as they are, with the dims renamed to ``y``/``x``.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import xarray as xr
+
+from ..errors import GridError
+
+_LAT_NAMES = ("lat", "latitude", "nav_lat", "lat_rho", "xlat", "y_lat")
+_LON_NAMES = ("lon", "longitude", "nav_lon", "lon_rho", "xlong", "x_lon")
+_TIME_NAMES = ("time", "t", "valid_time", "date", "times")
+
+
+def _is_lat(var) -> bool:
+    a = var.attrs
+    return (a.get("standard_name") == "latitude" or str(a.get("units", "")).lower() in
+            ("degrees_north", "degree_north", "degree_n", "degrees_n", "degreen", "degreesn")
+            or a.get("axis") == "Y" and "deg" in str(a.get("units", "")).lower())
+
+
+def _is_lon(var) -> bool:
+    a = var.attrs
+    return (a.get("standard_name") == "longitude" or str(a.get("units", "")).lower() in
+            ("degrees_east", "degree_east", "degree_e", "degrees_e", "degreee", "degreese")
+            or a.get("axis") == "X" and "deg" in str(a.get("units", "")).lower())
+
+
+def find_coord(ds: xr.Dataset, da: xr.DataArray, which: str):
+    """Name of the variable in ``ds`` serving as ``which`` ("lat", "lon", "time") for ``da``."""
+    test = {"lat": _is_lat, "lon": _is_lon}.get(which)
+    names = {"lat": _LAT_NAMES, "lon": _LON_NAMES, "time": _TIME_NAMES}[which]
+    candidates = list(da.coords) + list(da.dims) + [n for n in ds.variables if n not in da.coords]
+    seen = []
+    for name in candidates:
+        if name in seen or name not in ds.variables:
+            continue
+        seen.append(name)
+        var = ds[name]
+        if not set(var.dims) <= set(da.dims) or var.ndim == 0:
+            continue
+        if which == "time":
+            units = str(var.attrs.get("units", ""))
+            if (" since " in units or var.attrs.get("standard_name") == "time" or var.attrs.get("axis") == "T"
+                    or np.issubdtype(var.dtype, np.datetime64) or var.dtype == object):
+                return name
+        elif test(var):
+            return name
+    for name in names:  # fall back to conventional names
+        if name in ds.variables and set(ds[name].dims) <= set(da.dims) and ds[name].ndim > 0:
+            return name
+    return None
+
+
+def bounds_to_edges(bounds: np.ndarray, centres: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Lower and upper edge of each cell from a CF (n, 2) bounds array, in centre order."""
+    b = np.asarray(bounds, dtype=float)
+    return np.minimum(b[:, 0], b[:, 1]), np.maximum(b[:, 0], b[:, 1])
+
+
+def infer_edges(centres: np.ndarray, clip: float | None = None) -> tuple[np.ndarray, np.ndarray]:
+    """Cell edges half-way between centres; the outer edges mirror the first and last gaps."""
+    c = np.asarray(centres, dtype=float)
+    if c.size == 1:
+        return c - 0.5, c + 0.5  # a single cell: assume 1 degree, stated in attrs by the caller
+    mid = (c[1:] + c[:-1]) / 2
+    edges = np.concatenate([[c[0] - (mid[0] - c[0])], mid, [c[-1] + (c[-1] - mid[-1])]])
+    if clip is not None:
+        edges = np.clip(edges, -clip, clip)
+    lower, upper = np.minimum(edges[:-1], edges[1:]), np.maximum(edges[:-1], edges[1:])
+    return lower, upper
+
+
+def normalise_rectilinear(da: xr.DataArray, lat_edges=None, lon_edges=None, *, source=None) -> xr.DataArray:
+    """Rename to lat/lon, make lat ascending and lon [-180, 180) sorted, attach bounds.
+
+    Reordering uses ``isel``/``sortby`` so it stays lazy on dask arrays.
+    """
+    lat = np.asarray(da["lat"].values, dtype=float)
+    lon = np.asarray(da["lon"].values, dtype=float)
+    if np.any(~np.isfinite(lat)) or np.any(~np.isfinite(lon)):
+        raise GridError("has missing (NaN) latitude or longitude values", source=source, variable="lat/lon",
+                        expected="finite coordinates", fix="repair the coordinate variables in the file")
+    if np.any(np.abs(lat) > 90):
+        raise GridError(f"has latitudes outside -90..90 (min {lat.min():g}, max {lat.max():g})", source=source,
+                        variable="lat", expected="degrees_north within -90..90",
+                        fix="check whether lat and lon are swapped or in radians")
+    bounds_from = "file"
+    if lat_edges is None:
+        lat_edges = infer_edges(lat, clip=90.0)
+        bounds_from = "inferred from cell centres"
+    if lon_edges is None:
+        lon_edges = infer_edges(lon)
+        bounds_from = "inferred from cell centres"
+    wrapped = ((lon + 180.0) % 360.0) - 180.0
+    shift = wrapped - lon
+    da = da.assign_coords(
+        lon=("lon", wrapped, da["lon"].attrs),
+        lat_lower=("lat", lat_edges[0]), lat_upper=("lat", lat_edges[1]),
+        lon_lower=("lon", lon_edges[0] + shift), lon_upper=("lon", lon_edges[1] + shift),
+    )
+    if len(np.unique(wrapped)) != wrapped.size:
+        raise GridError("has duplicated longitudes after wrapping to -180..180", source=source, variable="lon",
+                        expected="each longitude once", fix="drop the repeated (cyclic) column from the grid")
+    order_lat = np.argsort(lat, kind="stable")
+    order_lon = np.argsort(wrapped, kind="stable")
+    if not np.array_equal(order_lat, np.arange(lat.size)):
+        da = da.isel(lat=order_lat)
+    if not np.array_equal(order_lon, np.arange(lon.size)):
+        da = da.isel(lon=order_lon)
+    da["lat"].attrs.update(standard_name="latitude", units="degrees_north", axis="Y")
+    da["lon"].attrs.update(standard_name="longitude", units="degrees_east", axis="X")
+    da.attrs["cell_bounds"] = bounds_from
+    return da

@@ -1,0 +1,149 @@
+"""Precipitation units: parse a units string and say how to turn it into mm per time step.
+
+A units string is read as a product of powers of mass, length and time units with an
+optional numeric scale ("kg m-2 s-1", "kg/m^2/s", "mm d-1", "mm/day", "1e-3 m", "in/day").
+Two kinds are precipitation-like:
+
+* a depth (amount per step): length, or mass per area (1 kg m-2 of water is 1 mm with the
+  conventional water density of 1000 kg m-3);
+* a rate: depth per time, multiplied by the true length of each time step in the file's
+  calendar to give the depth that fell in the step.
+
+A monthly rate ("mm/month") is a depth per step only when the data are monthly.
+"""
+
+from __future__ import annotations
+
+import re
+from dataclasses import dataclass
+
+from ..errors import UnitsError
+
+# metres per unit of length
+_LENGTH = {
+    "m": 1.0, "meter": 1.0, "meters": 1.0, "metre": 1.0, "metres": 1.0,
+    "mm": 1e-3, "millimeter": 1e-3, "millimeters": 1e-3, "millimetre": 1e-3, "millimetres": 1e-3,
+    "cm": 1e-2, "centimeter": 1e-2, "centimeters": 1e-2, "centimetre": 1e-2, "centimetres": 1e-2,
+    "km": 1e3,
+    "in": 0.0254, "inch": 0.0254, "inches": 0.0254,  # international inch, exactly 25.4 mm
+    "ft": 0.3048, "foot": 0.3048, "feet": 0.3048,  # international foot
+}
+# kilograms per unit of mass
+_MASS = {"kg": 1.0, "kilogram": 1.0, "kilograms": 1.0, "g": 1e-3, "gram": 1e-3, "grams": 1e-3}
+# seconds per unit of time; "month" has no fixed length and is handled separately
+_TIME = {
+    "s": 1.0, "sec": 1.0, "second": 1.0, "seconds": 1.0,
+    "min": 60.0, "minute": 60.0, "minutes": 60.0,
+    "h": 3600.0, "hr": 3600.0, "hour": 3600.0, "hours": 3600.0,
+    "d": 86400.0, "day": 86400.0, "days": 86400.0,
+    "month": None, "months": None, "mon": None,
+}
+WATER_DENSITY = 1000.0  # kg m-3, the convention behind "1 kg m-2 = 1 mm"
+
+_TOKEN = re.compile(r"^([a-z]+)(-?\d+)?$")
+
+
+@dataclass(frozen=True)
+class UnitInfo:
+    """What a units string means for precipitation.
+
+    ``kind`` is "depth" (per step) or "rate"; ``to_mm`` converts one unit of depth to mm,
+    or one unit of rate to mm per second (or mm per month when ``per_month``).
+    """
+
+    text: str
+    kind: str
+    to_mm: float
+    per_month: bool = False
+
+    def describe(self) -> str:
+        if self.kind == "depth":
+            return f"depth per step; x {self.to_mm:g} to mm"
+        if self.per_month:
+            return f"rate per month; x {self.to_mm:g} to mm per month (monthly data only)"
+        return f"rate; x {self.to_mm:g} to mm/s, then x step length in seconds"
+
+
+def _normalise(text: str) -> str:
+    t = text.strip().lower()
+    t = t.replace("**", "").replace("^", "").replace("·", " ").replace("*", " ")
+    t = re.sub(r"(?<=[a-z0-9])\.(?=[a-z])", " ", t)  # "kg.m-2.s-1"
+    t = t.replace("per ", "/ ")
+    return re.sub(r"\s+", " ", t)
+
+
+def parse_units(text, *, source=None, variable=None) -> UnitInfo:
+    """Read a units string as a precipitation depth or rate, or raise :class:`UnitsError`."""
+    fix = ("set the variable's 'units' attribute to one of: kg m-2 s-1, kg m-2, mm, mm/day, "
+           "mm/h, m, m/s, cm, in, in/day (or pass the data through xarray and set attrs['units'])")
+    if text is None or str(text).strip() == "":
+        raise UnitsError("has no units attribute, so its depth per time step cannot be known",
+                         source=source, variable=variable, expected="a precipitation depth or rate unit", fix=fix)
+    t = _normalise(str(text))
+    scale, mass, length, time = 1.0, 0, 0, 0
+    per_month = False
+    denominator = False
+    for part in re.split(r"(/)|\s+", t):
+        if not part:
+            continue
+        if part == "/":
+            denominator = True
+            continue
+        sign = -1 if denominator else 1
+        try:
+            scale *= float(part) ** sign
+            denominator = False
+            continue
+        except ValueError:
+            pass
+        m = _TOKEN.match(part)
+        if not m:
+            raise UnitsError(f"has units '{text}', which are not understood", source=source,
+                             variable=variable, expected="a precipitation depth or rate unit", fix=fix)
+        name, power = m.group(1), int(m.group(2) or 1) * sign
+        # "m2" with no sign means squared metres; a trailing number is the power
+        if name in _LENGTH:
+            scale *= _LENGTH[name] ** power
+            length += power
+        elif name in _MASS:
+            scale *= _MASS[name] ** power
+            mass += power
+        elif name in _TIME:
+            if _TIME[name] is None:
+                if power != -1:
+                    raise UnitsError(f"has units '{text}' with a month power other than -1", source=source,
+                                     variable=variable, fix=fix)
+                per_month = True
+            else:
+                scale *= _TIME[name] ** power
+            time += power
+        else:
+            raise UnitsError(f"has units '{text}'; '{name}' is not a unit of mass, length or time",
+                             source=source, variable=variable,
+                             expected="a precipitation depth or rate unit", fix=fix)
+        denominator = False  # "a/b c" is (a/b)·c, as in UDUNITS
+    if mass == 1 and length == -2:
+        to_mm = scale / WATER_DENSITY * 1000.0  # kg m-2 -> m of water -> mm
+    elif mass == 0 and length == 1:
+        to_mm = scale * 1000.0
+    else:
+        raise UnitsError(f"has units '{text}', which are not a precipitation depth or rate",
+                         source=source, variable=variable,
+                         expected="length (mm, m, in), mass per area (kg m-2), or either per time", fix=fix)
+    if time == 0:
+        return UnitInfo(str(text), "depth", to_mm)
+    if time == -1:
+        return UnitInfo(str(text), "rate", to_mm, per_month=per_month)
+    raise UnitsError(f"has units '{text}' with time to the power {time}", source=source, variable=variable,
+                     expected="a depth or a depth per time", fix=fix)
+
+
+def length_to_metres(text, *, source=None, variable=None) -> float:
+    """Factor from a length unit (m, km, ft, …) to metres, for elevation grids."""
+    t = _normalise(str(text or ""))
+    if t in ("metre", "meter", "m", "metres", "meters", "m above sea level", "m asl"):
+        return 1.0
+    if t in _LENGTH:
+        return _LENGTH[t]
+    raise UnitsError(f"has units '{text}', not a length", source=source, variable=variable,
+                     expected="m, km or ft", fix="set the elevation variable's 'units' attribute to 'm' or 'ft'")
