@@ -1,0 +1,141 @@
+"""Climate normals of precipitation: monthly, annual and seasonal normal totals.
+
+Rules, after WMO-No. 1203 (2017) *Guidelines on the Calculation of Climate Normals* (read
+through secondary sources that cite it):
+
+* a monthly total is missing if any day (step) of the month is missing (rule for sums);
+* a monthly normal is computed only if at least 80 % of the baseline years are present
+  (24 of 30), otherwise it is missing;
+* the annual normal is the sum of the 12 monthly normals (missing if any is missing).
+
+The completeness fraction is a parameter (``min_fraction``) so that a stricter or looser
+local rule can be used; the rule applied is recorded in attrs.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+import xarray as xr
+
+from ..errors import ParameterError
+from ..provenance import with_history
+from ._time import (
+    check_months,
+    check_precip,
+    check_year_range,
+    is_dask,
+    monthly_with_coverage,
+    select_years,
+    source_name,
+    year_blocks,
+)
+from .seasonal import season_label
+
+__all__ = ["normals", "annual_normal", "seasonal_normal", "baseline_stats"]
+
+
+def _check_fraction(min_fraction, func):
+    if isinstance(min_fraction, bool) or not isinstance(min_fraction, (int, float)) \
+            or not 0 < min_fraction <= 1:
+        raise ParameterError(f"min_fraction={min_fraction!r} is not a fraction in (0, 1]",
+                             source=func, variable="min_fraction",
+                             expected="a number in (0, 1]; 0.8 is the WMO 80 % rule",
+                             fix="pass min_fraction=0.8")
+    return float(min_fraction)
+
+
+def baseline_stats(values, baseline, min_fraction, func, src, dim="year"):
+    """Mean and sample standard deviation (ddof=1) over the baseline years along ``dim``.
+
+    Returns ``(mean, sd, n, required, nyears)``; mean and sd are NaN where fewer than
+    ``required`` = ceil(min_fraction * nyears) baseline years are present.
+    """
+    min_fraction = _check_fraction(min_fraction, func)
+    first, last = check_year_range(baseline, func, "baseline")
+    base = select_years(values, (first, last), func, "baseline", src, dim)
+    nyears = last - first + 1
+    # 1e-9 guards against 0.8 * 30 = 24.000000000000004 asking for 25 years.
+    required = max(1, math.ceil(min_fraction * nyears - 1e-9))
+    n = base.count(dim)
+    ok = n >= required
+    mean = base.sum(dim, skipna=True) / n.where(ok)
+    var = ((base - mean) ** 2).sum(dim, skipna=True) / (n - 1).where(ok & (n > 1))
+    return mean, np.sqrt(var), n, required, nyears
+
+
+def _completeness_attrs(n, required, per_cell_dims):
+    """Counts of cells that fail the completeness rule (only for in-memory results)."""
+    if is_dask(n):
+        note = "not counted for lazy input; see coordinate n_years"
+        return {"cells_failing_completeness": note, "cells_without_data": note}
+    has_data = (n > 0).any(per_cell_dims)
+    failing = (n < required).any(per_cell_dims) & has_data
+    return {"cells_failing_completeness": int(np.asarray(failing).sum()),
+            "cells_without_data": int(np.asarray(~has_data).sum())}
+
+
+def normals(pr: xr.DataArray, baseline=(1991, 2020), min_fraction: float = 0.8) -> xr.DataArray:
+    """Monthly normal precipitation totals (mm) on a ``month`` dimension 1..12.
+
+    Parameters
+    ----------
+    pr
+        Precipitation depth per step in mm (hourly, daily or monthly).
+    baseline
+        (first, last) calendar years of the normal period; must lie inside the data.
+    min_fraction
+        Share of baseline years that must have a complete monthly total (0.8 = 24 of 30).
+
+    Returns
+    -------
+    DataArray (month, ...) of mean monthly totals over the baseline.  NaN where the
+    completeness rule fails.  Coordinate ``n_years`` holds the valid years per month and
+    cell; ``attrs["cells_failing_completeness"]`` counts cells with at least one monthly
+    normal withheld for incompleteness (for in-memory input).
+    """
+    func = "normals"
+    step = check_precip(pr, func)
+    src = source_name(pr)
+    monthly, covered = monthly_with_coverage(pr, step)
+    blocks = year_blocks(monthly, covered, 1, src)
+    mean, _, n, required, nyears = baseline_stats(blocks, baseline, min_fraction, func, src)
+    out = mean.assign_coords(n_years=n)
+    out.name = pr.name
+    out.attrs = {"standard_name": "lwe_thickness_of_precipitation_amount", "units": "mm",
+                 "long_name": "monthly normal precipitation total",
+                 "cell_methods": "time: sum within months time: mean over years",
+                 "baseline": list(check_year_range(baseline, func, "baseline")),
+                 "min_fraction": float(min_fraction), "years_required": required,
+                 "completeness_rule": f"a monthly normal needs >= {required} of {nyears} "
+                                      "baseline years with a complete monthly total (a month "
+                                      "with any missing day is missing); WMO-No. 1203 (2017)",
+                 **_completeness_attrs(n, required, ["month"])}
+    return with_history(out, func, pr.attrs, baseline=baseline, min_fraction=min_fraction)
+
+
+def annual_normal(pr: xr.DataArray, baseline=(1991, 2020), min_fraction: float = 0.8) -> xr.DataArray:
+    """Annual normal total (mm): the sum of the 12 monthly normals, NaN if any is NaN."""
+    mon = normals(pr, baseline, min_fraction)
+    out = mon.sum("month", skipna=False).drop_vars("n_years", errors="ignore")
+    out.name = pr.name
+    out.attrs = {**{k: v for k, v in mon.attrs.items() if k != "history"},
+                 "long_name": "annual normal precipitation total",
+                 "method": "sum of the 12 monthly normals (WMO-No. 1203)"}
+    return with_history(out, "annual_normal", pr.attrs, baseline=baseline, min_fraction=min_fraction)
+
+
+def seasonal_normal(pr: xr.DataArray, months, baseline=(1991, 2020),
+                    min_fraction: float = 0.8) -> xr.DataArray:
+    """Seasonal normal total (mm): the sum of the season's monthly normals, NaN if any is NaN."""
+    months = check_months(months, "seasonal_normal")
+    mon = normals(pr, baseline, min_fraction)
+    out = mon.sel(month=list(months)).sum("month", skipna=False).drop_vars("n_years", errors="ignore")
+    out.name = pr.name
+    out.attrs = {**{k: v for k, v in mon.attrs.items() if k != "history"},
+                 "long_name": f"seasonal normal precipitation total ({season_label(months)})",
+                 "season_months": list(months),
+                 "method": "sum of the season's monthly normals"}
+    return with_history(out, "seasonal_normal", pr.attrs, months=months, baseline=baseline,
+                        min_fraction=min_fraction)
