@@ -1,0 +1,93 @@
+"""Cell areas on the sphere.
+
+All areas use a sphere of the authalic radius R = 6 371 007.2 m (the sphere with the
+surface of the WGS84 ellipsoid, DESIGN.md §3); ``radius=`` changes it.
+
+* Rectilinear cell between parallels φ1 < φ2 and meridians Δλ apart:
+  A = R²·Δλ·(sin φ2 − sin φ1), from the spherical-cap area 2πR²(1 − sin φ).
+  Evaluated as 2R²·Δλ·cos φm·sin(Δφ/2), which is the same number without cancellation.
+* Any polygon whose edges are straight lines in lon/lat (a curvilinear cell, a piece of a
+  basin): the area of the region on the sphere is ∬ R² cos φ dφ dλ, which Green's theorem
+  turns into −R² ∮ sin φ dλ.  Along a straight lon/lat edge φ is linear in λ, so each edge
+  contributes exactly Δλ·sin φm·sin(Δφ/2)/(Δφ/2).  This is exact (no densification) and
+  agrees with the rectilinear formula on rectangles, so Σ cell_area × coverage is the
+  spherical area of the basin's lon/lat polygon.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import xarray as xr
+
+from ..provenance import with_history
+from ._cache import area_cache
+from .grid import cell_bounds, grid_token, horizontal_dims
+
+__all__ = ["AUTHALIC_RADIUS_M", "cell_area", "ring_area", "lonlat_polygon_area"]
+
+AUTHALIC_RADIUS_M = 6_371_007.2
+
+
+def ring_area(lon, lat, radius: float = AUTHALIC_RADIUS_M) -> np.ndarray:
+    """Spherical area (m²) enclosed by rings with straight lon/lat edges.
+
+    ``lon``/``lat`` are degrees with the ring vertices on the last axis (closing vertex
+    optional); leading axes are vectorised.  Orientation does not matter.
+    """
+    lam = np.radians(np.asarray(lon, dtype=float))
+    phi = np.radians(np.asarray(lat, dtype=float))
+    dlam = np.roll(lam, -1, axis=-1) - lam
+    dphi = np.roll(phi, -1, axis=-1) - phi
+    phim = phi + 0.5 * dphi
+    # sin(Δφ/2)/(Δφ/2) = np.sinc(Δφ/(2π)); stable for horizontal edges.
+    contrib = dlam * np.sin(phim) * np.sinc(dphi / (2.0 * np.pi))
+    return np.abs(contrib.sum(axis=-1)) * radius**2
+
+
+def lonlat_polygon_area(geometry, radius: float = AUTHALIC_RADIUS_M) -> float:
+    """Spherical area (m²) of a shapely (Multi)Polygon with straight lon/lat edges."""
+    total = 0.0
+    for poly in getattr(geometry, "geoms", [geometry]):
+        if poly.is_empty or poly.geom_type != "Polygon":
+            continue
+        ext = np.asarray(poly.exterior.coords)
+        total += float(ring_area(ext[:, 0], ext[:, 1], radius))
+        for hole in poly.interiors:
+            h = np.asarray(hole.coords)
+            total -= float(ring_area(h[:, 0], h[:, 1], radius))
+    return total
+
+
+def _area_values(bounds, radius: float) -> np.ndarray:
+    if bounds.kind == "rectilinear":
+        dlam = np.radians(bounds.lon_upper - bounds.lon_lower)
+        p1, p2 = np.radians(bounds.lat_lower), np.radians(bounds.lat_upper)
+        band = 2.0 * np.cos(0.5 * (p1 + p2)) * np.sin(0.5 * (p2 - p1))  # sin φ2 − sin φ1
+        return radius**2 * band[:, None] * dlam[None, :]
+    return ring_area(bounds.lon_corners, bounds.lat_corners, radius)
+
+
+def cell_area(grid, radius: float = AUTHALIC_RADIUS_M) -> xr.DataArray:
+    """Area of every grid cell in m² on a sphere of radius ``radius`` (default authalic).
+
+    Returns a DataArray on the grid's (lat, lon) or curvilinear (y, x) dims with
+    ``units="m2"`` and the radius in ``attrs["radius_m"]``.
+    """
+    key = (grid_token(grid), float(radius))
+    values = area_cache.get(key)
+    if values is None:
+        bounds = cell_bounds(grid)
+        values = _area_values(bounds, float(radius))
+        values.setflags(write=False)
+        area_cache.put(key, values)
+    bounds_dims = horizontal_dims(grid)
+    coords = {k: v.variable for k, v in grid.coords.items() if set(v.dims) <= set(bounds_dims)}
+    out = xr.DataArray(values.copy(), dims=bounds_dims, coords=coords, name="cell_area")
+    out.attrs.update(
+        units="m2",
+        long_name="cell area on the sphere",
+        radius_m=float(radius),
+        radius_note="authalic sphere of WGS84 (DESIGN.md §3)" if radius == AUTHALIC_RADIUS_M else "user radius",
+    )
+    return with_history(out, "cell_area", radius=float(radius))
+

@@ -1,0 +1,364 @@
+"""Basins: named polygons in lon/lat.
+
+Edges are straight lines in lon/lat (as in GeoJSON, RFC 7946).  Every constructor goes
+through the same checks, so a basin that exists is valid:
+
+* each ring has at least 3 distinct vertices, all finite, with |lat| ≤ 90;
+* a ring whose consecutive vertices jump by more than 180° of longitude is taken to cross
+  the antimeridian: it is unwrapped, and the polygon is split into parts inside
+  [-180, 180) (a MultiPolygon).  Longitudes given in [0, 360) are moved the same way;
+* a self-intersecting ring is repaired with ``shapely.make_valid`` only when the repair
+  keeps ≥ 99.9 % of its area in one polygon (a tiny loop where a vertex was clicked twice);
+  a figure-of-eight is rejected, since which part was meant is a guess;
+* the result must have a non-zero area.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import json
+import os
+import tempfile
+from functools import cached_property
+from pathlib import Path
+
+import numpy as np
+import shapely
+from shapely.geometry import MultiPolygon, Polygon, mapping, shape
+
+from ..errors import BasinError, ParameterError, SourceError
+
+__all__ = ["Basin", "write_geojson"]
+
+_REPAIR_KEEP = 0.999  # share of the area a self-intersection repair must keep in one polygon
+
+
+def _err(problem, name, fix, expected=None):
+    return BasinError(problem, source=f"basin {name!r}", expected=expected, fix=fix)
+
+
+def _clean_ring(coords, name) -> np.ndarray:
+    try:
+        ring = np.asarray(coords, dtype=float)
+    except (TypeError, ValueError):
+        raise _err("vertices are not numbers", name, "give vertices as (lon, lat) pairs of numbers",
+                   expected="a sequence of (lon, lat) pairs") from None
+    if ring.ndim != 2 or ring.shape[1] < 2:
+        raise _err(f"vertices have shape {ring.shape}", name, "give vertices as (lon, lat) pairs",
+                   expected="a sequence of (lon, lat) pairs")
+    ring = ring[:, :2]
+    if not np.all(np.isfinite(ring)):
+        raise _err("a vertex is NaN or infinite", name, "remove or correct the missing vertex",
+                   expected="finite lon/lat in degrees")
+    if np.any(np.abs(ring[:, 1]) > 90.0):
+        bad = ring[np.abs(ring[:, 1]) > 90.0][0]
+        raise _err(f"latitude {bad[1]:g} is beyond ±90 (vertex ({bad[0]:g}, {bad[1]:g}))", name,
+                   "check the vertex order is (lon, lat), not (lat, lon)", expected="|lat| ≤ 90")
+    if len(ring) > 1 and np.array_equal(ring[0], ring[-1]):
+        ring = ring[:-1]
+    distinct = np.unique(ring, axis=0)
+    if len(distinct) < 3:
+        raise _err(f"a ring has {len(distinct)} distinct vertices", name,
+                   "draw at least three corners", expected="at least 3 distinct vertices")
+    # Unwrap: consecutive vertices more than 180° apart cross the antimeridian.
+    ring[:, 0] = np.unwrap(ring[:, 0], period=360.0)
+    return ring
+
+
+def _split_antimeridian(geom):
+    """Cut a geometry drawn in unwrapped longitudes into parts within [-180, 180)."""
+    minx, _, maxx, _ = geom.bounds
+    if minx >= -180.0 and maxx <= 180.0:
+        return geom
+    parts = []
+    for k in range(int(np.floor((minx + 180.0) / 360.0)), int(np.floor((maxx + 180.0) / 360.0)) + 1):
+        lo = -180.0 + 360.0 * k
+        piece = shapely.clip_by_rect(geom, lo, -90.0, lo + 360.0, 90.0)
+        piece = shapely.make_valid(piece) if not piece.is_valid else piece
+        piece = shapely.transform(piece, lambda xy: xy - np.array([360.0 * k, 0.0]))
+        parts.extend(p for p in _polygons(piece) if p.area > 0)
+    return shapely.union_all(parts)
+
+
+def _polygons(geom) -> list:
+    if geom.is_empty:
+        return []
+    if geom.geom_type == "Polygon":
+        return [geom]
+    if geom.geom_type in ("MultiPolygon", "GeometryCollection"):
+        return [p for g in geom.geoms for p in _polygons(g)]
+    return []
+
+
+def _repair(poly: Polygon, name) -> Polygon:
+    if poly.is_valid:
+        return poly
+    reason = shapely.is_valid_reason(poly)
+    fixed = _polygons(shapely.make_valid(poly))
+    total = sum(p.area for p in fixed)
+    if total > 0:
+        largest = max(fixed, key=lambda p: p.area)
+        if largest.area >= _REPAIR_KEEP * total:
+            return largest
+        share = largest.area / total
+        raise _err(
+            f"the outline crosses itself ({reason}) and splits into {len(fixed)} parts; the largest holds "
+            f"only {share:.1%} of the area, so a repair would have to guess which part was meant",
+            name, "redraw the outline so that its edges do not cross",
+            expected=f"a simple ring (a repair must keep ≥ {_REPAIR_KEEP:.1%} of the area in one polygon)")
+    raise _err("the outline encloses zero area (its vertices lie on one line)", name,
+               "add a vertex off the line", expected="a polygon with non-zero area")
+
+
+def _build(polygons_rings, name):
+    """Validated (Multi)Polygon from [[exterior, hole, ...], ...] coordinate lists."""
+    parts = []
+    for rings in polygons_rings:
+        if not rings:
+            continue
+        ext = _clean_ring(rings[0], name)
+        holes = []
+        for h in rings[1:]:
+            h = _clean_ring(h, name)
+            h[:, 0] += 360.0 * np.round((ext[:, 0].mean() - h[:, 0].mean()) / 360.0)  # same frame as exterior
+            holes.append(h)
+        poly = _repair(Polygon(ext, holes), name)
+        if poly.area <= 0.0:
+            raise _err("the outline encloses zero area (all vertices on one line)", name,
+                       "add a vertex off the line", expected="a polygon with non-zero area")
+        parts.append(poly)
+    if not parts:
+        raise _err("no polygon given", name, "give at least one ring of (lon, lat) vertices")
+    geom = parts[0] if len(parts) == 1 else shapely.union_all(parts)
+    geom = _split_antimeridian(geom)
+    geom = shapely.normalize(shapely.make_valid(geom) if not geom.is_valid else geom)
+    polys = _polygons(geom)
+    if not polys or sum(p.area for p in polys) <= 0.0:
+        raise _err("the outline encloses zero area", name, "draw a polygon with an interior",
+                   expected="a polygon with non-zero area")
+    return polys[0] if len(polys) == 1 else MultiPolygon(polys)
+
+
+def _rings_from_geometry(geom: dict, name) -> list:
+    kind = geom.get("type") if isinstance(geom, dict) else None
+    if kind == "Polygon":
+        return [geom["coordinates"]]
+    if kind == "MultiPolygon":
+        return list(geom["coordinates"])
+    raise _err(f"geometry type {kind!r} is not a polygon", name,
+               "give a Polygon or MultiPolygon (points and lines have no area)",
+               expected="Polygon, MultiPolygon, Feature or FeatureCollection")
+
+
+class Basin:
+    """A named polygon or multipolygon (holes allowed) in lon/lat degrees.
+
+    Build with :meth:`from_vertices`, :meth:`from_geojson`, :meth:`from_shapefile` or
+    :meth:`from_wkt`; the constructor takes an already valid shapely geometry.
+    """
+
+    def __init__(self, geometry, name: str = "basin"):
+        if geometry is None or geometry.is_empty or geometry.geom_type not in ("Polygon", "MultiPolygon"):
+            raise _err("geometry is empty or not a polygon", name, "use one of the Basin.from_* constructors")
+        self._geometry = geometry
+        self._name = str(name)
+
+    # ---------------------------------------------------------------- constructors
+    @classmethod
+    def from_vertices(cls, vertices, name: str = "basin") -> "Basin":
+        """A basin from one ring of (lon, lat) vertices (closing vertex optional)."""
+        return cls(_build([[vertices]], name), name)
+
+    @classmethod
+    def _from_rings(cls, rings, name) -> "Basin":
+        return cls(_build(rings, name), name)
+
+    @classmethod
+    def from_geojson(cls, path_or_mapping, name_property: str = "name") -> list["Basin"]:
+        """Basins from a GeoJSON file, JSON text or mapping: one Basin per feature.
+
+        A bare Polygon/MultiPolygon gives a one-element list.  Names come from
+        ``properties[name_property]``, else "basin 1", "basin 2", …
+        """
+        obj, stem = path_or_mapping, "basin"
+        if isinstance(obj, (str, os.PathLike)):
+            text = str(obj)
+            if text.lstrip().startswith("{"):
+                obj = json.loads(text)
+            else:
+                path = Path(obj)
+                if not path.is_file():
+                    raise SourceError("file not found", source=path, expected="a GeoJSON file",
+                                      fix="check the path")
+                try:
+                    obj = json.loads(path.read_text(encoding="utf-8"))
+                except (json.JSONDecodeError, UnicodeDecodeError) as exc:
+                    raise SourceError(f"not valid JSON ({exc})", source=path, expected="a GeoJSON file",
+                                      fix="check the file is GeoJSON text") from None
+        if not isinstance(obj, dict):
+            raise BasinError(f"got {type(obj).__name__}", source="GeoJSON input",
+                             expected="a GeoJSON mapping, file path or JSON text",
+                             fix="pass the path to a .geojson file")
+        kind = obj.get("type")
+        if kind in ("Polygon", "MultiPolygon"):
+            return [cls._from_rings(_rings_from_geometry(obj, stem), stem)]
+        features = obj.get("features") if kind == "FeatureCollection" else [obj] if kind == "Feature" else None
+        if features is None:
+            raise BasinError(f"GeoJSON type {kind!r} is not supported", source="GeoJSON input",
+                             expected="Polygon, MultiPolygon, Feature or FeatureCollection",
+                             fix="wrap the polygons in a FeatureCollection")
+        if not features:
+            raise BasinError("the FeatureCollection holds no features", source="GeoJSON input",
+                             expected="at least one polygon feature", fix="add a basin outline")
+        basins = []
+        for i, feat in enumerate(features):
+            props = feat.get("properties") or {}
+            name = props.get(name_property)
+            name = f"basin {i + 1}" if name in (None, "") else str(name)
+            if not feat.get("geometry"):
+                raise _err("feature has no geometry", name, "give the feature a Polygon geometry")
+            basins.append(cls._from_rings(_rings_from_geometry(feat["geometry"], name), name))
+        return basins
+
+    @classmethod
+    def from_wkt(cls, text: str, name: str = "basin") -> "Basin":
+        """A basin from WKT text (POLYGON or MULTIPOLYGON, lon/lat order)."""
+        try:
+            geom = shapely.from_wkt(text)
+        except (shapely.errors.GEOSException, TypeError) as exc:
+            raise _err(f"could not read WKT ({exc})", name, "give POLYGON((lon lat, ...)) text",
+                       expected="WKT POLYGON or MULTIPOLYGON") from None
+        return cls._from_rings(_rings_from_geometry(mapping(geom), name), name)
+
+    @classmethod
+    def from_shapefile(cls, path, name_field: str | None = None) -> list["Basin"]:
+        """Basins from an ESRI shapefile (read with pyshp), one per polygon record.
+
+        When a ``.prj`` file names a CRS other than WGS84 lon/lat, the outlines are
+        densified in that CRS (so that straight projected edges stay faithful) and
+        transformed to lon/lat with pyproj.  Names come from ``name_field``, else from a
+        field called "name" (any case), else "<file stem> 1", …
+        """
+        import shapefile  # pyshp
+
+        path = Path(path)
+        shp = path.with_suffix(".shp")
+        if not shp.is_file():
+            raise SourceError("file not found", source=shp, expected="a .shp file with its .shx and .dbf",
+                              fix="check the path")
+        try:
+            reader = shapefile.Reader(str(shp))
+        except shapefile.ShapefileException as exc:
+            raise SourceError(f"cannot read the shapefile ({exc})", source=shp,
+                              expected="a .shp with its .shx and .dbf", fix="copy all parts of the shapefile") from None
+        with reader:
+            fields = [f[0] for f in reader.fields[1:]]
+            if name_field is not None and name_field not in fields:
+                raise BasinError(f"no field {name_field!r}", source=shp, expected=f"one of {fields}",
+                                 fix="pass name_field= one of the listed fields")
+            if name_field is None:
+                name_field = next((f for f in fields if f.lower() == "name"), None)
+            transform = _prj_transform(shp.with_suffix(".prj"))
+            basins = []
+            for i, rec in enumerate(reader.iterShapeRecords()):
+                name = str(rec.record[name_field]) if name_field else f"{shp.stem} {i + 1}"
+                geo = rec.shape.__geo_interface__
+                if geo.get("type") not in ("Polygon", "MultiPolygon"):
+                    raise _err(f"shape type {geo.get('type')!r} is not a polygon", name,
+                               "save the outlines as a polygon layer", expected="Polygon records")
+                if transform is not None:
+                    geo = mapping(transform(shape(geo)))
+                basins.append(cls._from_rings(_rings_from_geometry(geo, name), name))
+        if not basins:
+            raise BasinError("the shapefile holds no records", source=shp, expected="at least one polygon",
+                             fix="add a basin outline")
+        return basins
+
+    # ---------------------------------------------------------------- properties
+    @property
+    def name(self) -> str:
+        return self._name
+
+    @property
+    def geometry(self):
+        """The shapely (Multi)Polygon in lon/lat degrees, within [-180, 180)."""
+        return self._geometry
+
+    @property
+    def bounds(self) -> tuple:
+        """(min lon, min lat, max lon, max lat)."""
+        return tuple(self._geometry.bounds)
+
+    @cached_property
+    def area_m2(self) -> float:
+        """Geodesic area on the WGS84 ellipsoid (pyproj.Geod), edges densified to ≤ 0.01°.
+
+        Densifying keeps the straight lon/lat edges (rather than geodesics between
+        vertices) to about 1e-8 relative.
+        """
+        from pyproj import Geod
+
+        dense = shapely.segmentize(self._geometry, max_segment_length=0.01)
+        area, _ = Geod(ellps="WGS84").geometry_area_perimeter(dense)
+        return abs(float(area))
+
+    @cached_property
+    def token(self) -> str:
+        """Hash of the geometry (not the name): equal outlines, equal tokens."""
+        return hashlib.blake2b(shapely.to_wkb(self._geometry), digest_size=16).hexdigest()
+
+    def to_geojson(self) -> dict:
+        """A GeoJSON Feature mapping with the name in ``properties``."""
+        geom = json.loads(json.dumps(mapping(self._geometry)))  # tuples -> lists
+        return {"type": "Feature", "properties": {"name": self._name}, "geometry": geom}
+
+    def __repr__(self) -> str:
+        w, s, e, n = self.bounds
+        return f"Basin({self._name!r}, {self._geometry.geom_type}, lon {w:g}..{e:g}, lat {s:g}..{n:g})"
+
+
+def _prj_transform(prj: Path):
+    """A shapely transform to WGS84 lon/lat for the .prj's CRS, or None when not needed."""
+    if not prj.is_file():
+        return None
+    from pyproj import CRS, Transformer
+    from pyproj.exceptions import CRSError
+
+    try:
+        crs = CRS.from_wkt(prj.read_text(encoding="utf-8", errors="replace"))
+    except CRSError as exc:
+        raise SourceError(f"cannot read the projection ({exc})", source=prj, expected="ESRI/OGC WKT",
+                          fix="re-export the shapefile with its .prj, or delete a broken .prj if the data is lon/lat") from None
+    target = CRS.from_epsg(4326)
+    if crs.equals(target, ignore_axis_order=True) or (crs.is_geographic and crs.ellipsoid == target.ellipsoid
+                                                      and not crs.is_projected and crs.datum == target.datum):
+        return None
+    tr = Transformer.from_crs(crs, target, always_xy=True)
+    # Densify in the source units: 1/200 of the outline's extent per segment.
+    step_fn = (lambda g: max(g.bounds[2] - g.bounds[0], g.bounds[3] - g.bounds[1]) / 200.0 or 1.0)
+
+    def transform(geom):
+        dense = shapely.segmentize(geom, max_segment_length=step_fn(geom))
+        return shapely.transform(dense, lambda xy: np.column_stack(tr.transform(xy[:, 0], xy[:, 1])))
+
+    return transform
+
+
+def write_geojson(basins, path, overwrite: bool = False) -> Path:
+    """Write basins to a GeoJSON FeatureCollection, atomically (temp file, then rename)."""
+    basins = [basins] if isinstance(basins, Basin) else list(basins)
+    path = Path(path)
+    if path.exists() and not overwrite:
+        raise ParameterError("file exists", source=path, expected="a new file name",
+                             fix="pass overwrite=True to replace it")
+    data = {"type": "FeatureCollection", "features": [b.to_geojson() for b in basins]}
+    fd, tmp = tempfile.mkstemp(dir=path.parent, prefix=f".{path.name}.", suffix=".tmp")
+    try:
+        with os.fdopen(fd, "w", encoding="utf-8") as fh:
+            json.dump(data, fh)
+        os.replace(tmp, path)
+    except BaseException:
+        if os.path.exists(tmp):
+            os.unlink(tmp)
+        raise
+    return path
