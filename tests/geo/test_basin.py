@@ -1,0 +1,167 @@
+"""Basin polygons: constructors, validation, antimeridian, export (climwidgets/geo/basin.py)."""
+
+import json
+
+import numpy as np
+import pytest
+import shapefile
+import shapely
+from pyproj import CRS, Geod, Transformer
+
+import climwidgets as cw
+from climwidgets.errors import BasinError, ParameterError, SourceError
+from climwidgets.geo.basin import write_geojson
+
+SQUARE = [(-140.0, 20.0), (-139.0, 20.0), (-139.0, 21.0), (-140.0, 21.0)]
+
+
+def _wgs84_strip_area(lat1, lat2, dlon_deg):
+    # Ellipsoidal area between two parallels: A = Δλ·b²/2·[q(φ2) − q(φ1)],
+    # q(φ) = sin φ/(1 − e² sin²φ) + (1/2e)·ln((1 + e sin φ)/(1 − e sin φ))
+    # (Bagratuni 1967, as implemented in PostGIS lwspheroid.c spheroid_boundingbox_area).
+    g = Geod(ellps="WGS84")
+    e = np.sqrt(g.es)
+
+    def q(phi):
+        s = np.sin(np.radians(phi))
+        return s / (1 - e**2 * s**2) + np.log((1 + e * s) / (1 - e * s)) / (2 * e)
+
+    return np.radians(dlon_deg) * g.b**2 / 2 * (q(lat2) - q(lat1))
+
+
+def test_from_vertices_and_geodesic_area():
+    b = cw.Basin.from_vertices(SQUARE, name="square")
+    assert b.name == "square" and b.bounds == (-140.0, 20.0, -139.0, 21.0)
+    closed = cw.Basin.from_vertices(SQUARE + [SQUARE[0]], name="other name")
+    assert closed.token == b.token  # token ignores the name and the closing vertex
+    np.testing.assert_allclose(b.area_m2, _wgs84_strip_area(20.0, 21.0, 1.0), rtol=1e-8)
+    moved = cw.Basin.from_vertices([(x + 0.5, y) for x, y in SQUARE])
+    assert moved.token != b.token
+
+
+@pytest.mark.parametrize(
+    ("verts", "pattern"),
+    [
+        ([(0, 0), (1, 0)], r"basin 'bad': a ring has 2 distinct vertices.*at least 3"),
+        ([(0, 0), (1, 0), (0, 0), (1, 0)], r"2 distinct vertices"),
+        ([(0, 0), (1, np.nan), (1, 1)], r"vertex is NaN.*Fix: remove or correct"),
+        ([(0, 0), (1, 95), (1, 1)], r"latitude 95 is beyond ±90.*\(lon, lat\), not \(lat, lon\)"),
+        ([(0, 0), (1, 1), (2, 2)], r"zero area.*on one line"),
+        ([(0, 0), (1, 1), (1, 0), (0, 1)], r"crosses itself.*2 parts.*50\.0%.*redraw"),
+    ],
+)
+def test_validation_messages(verts, pattern):
+    with pytest.raises(BasinError, match=pattern):
+        cw.Basin.from_vertices(verts, name="bad")
+
+
+def test_tiny_self_intersection_is_repaired():
+    # A double click that doubles back a hair: make_valid keeps > 99.9 % in one polygon.
+    verts = [(0, 0), (10, 0), (10, 10), (0, 10), (0.001, 10.001), (0, 10.0005)]
+    b = cw.Basin.from_vertices(verts, name="loop")
+    assert b.geometry.is_valid and b.geometry.geom_type == "Polygon"
+    np.testing.assert_allclose(b.geometry.area, 100.0, rtol=1e-4)
+
+
+def test_antimeridian_is_split():
+    b = cw.Basin.from_vertices([(179.0, -10), (-179.0, -10), (-179.0, -8), (179.0, -8)], name="dateline")
+    g = b.geometry
+    assert g.geom_type == "MultiPolygon" and len(g.geoms) == 2
+    assert b.bounds[0] == -180.0 and b.bounds[2] == 180.0
+    np.testing.assert_allclose(g.area, 4.0)
+    # Same basin given in 0..360 longitudes
+    b360 = cw.Basin.from_vertices([(179.0, -10), (181.0, -10), (181.0, -8), (179.0, -8)])
+    assert b360.token == b.token
+    # The geodesic area is that of the 2° × 2° box, on whichever side of 180° it lies.
+    ref = cw.Basin.from_vertices([(10.0, -10), (12.0, -10), (12.0, -8), (10.0, -8)])
+    np.testing.assert_allclose(b.area_m2, ref.area_m2, rtol=1e-9)
+
+
+def test_geojson_feature_collection_with_holes(tmp_path):
+    fc = {
+        "type": "FeatureCollection",
+        "features": [
+            {"type": "Feature", "properties": {"name": "upper"},
+             "geometry": {"type": "Polygon", "coordinates": [
+                 [[-140, 20], [-136, 20], [-136, 24], [-140, 24], [-140, 20]],
+                 [[-139, 21], [-138, 21], [-138, 22], [-139, 22], [-139, 21]]]}},
+            {"type": "Feature", "properties": {"label": "x"},
+             "geometry": {"type": "MultiPolygon", "coordinates": [
+                 [[[-130, 20], [-129, 20], [-129, 21], [-130, 20]]],
+                 [[[-128, 20], [-127, 20], [-127, 21], [-128, 20]]]]}},
+        ],
+    }
+    path = tmp_path / "basins.geojson"
+    path.write_text(json.dumps(fc))
+    basins = cw.Basin.from_geojson(path)
+    assert [b.name for b in basins] == ["upper", "basin 2"]
+    assert basins[0].geometry.area == 15.0 and len(basins[0].geometry.interiors) == 1
+    assert basins[1].geometry.geom_type == "MultiPolygon"
+    single = cw.Basin.from_geojson(fc["features"][0])
+    assert len(single) == 1 and single[0].token == basins[0].token
+    bare = cw.Basin.from_geojson(fc["features"][0]["geometry"])
+    assert bare[0].token == basins[0].token
+
+
+def test_geojson_errors(tmp_path):
+    with pytest.raises(SourceError, match="file not found"):
+        cw.Basin.from_geojson(tmp_path / "none.geojson")
+    with pytest.raises(BasinError, match="'LineString' is not a polygon"):
+        cw.Basin.from_geojson({"type": "Feature", "properties": {},
+                               "geometry": {"type": "LineString", "coordinates": [[0, 0], [1, 1]]}})
+    with pytest.raises(BasinError, match="'Point' is not supported"):
+        cw.Basin.from_geojson({"type": "Point", "coordinates": [0, 0]})
+    with pytest.raises(BasinError, match="holds no features"):
+        cw.Basin.from_geojson({"type": "FeatureCollection", "features": []})
+
+
+def test_wkt_and_geojson_round_trip(tmp_path):
+    b = cw.Basin.from_wkt("POLYGON((-140 20, -136 20, -136 24, -140 24, -140 20))", name="w")
+    feat = b.to_geojson()
+    assert feat["properties"] == {"name": "w"} and feat["geometry"]["type"] == "Polygon"
+    json.dumps(feat)
+    out = write_geojson([b, cw.Basin.from_vertices(SQUARE, name="sq")], tmp_path / "out.geojson")
+    back = cw.Basin.from_geojson(out)
+    assert [x.name for x in back] == ["w", "sq"] and back[0].token == b.token
+    with pytest.raises(ParameterError, match="file exists.*overwrite=True"):
+        write_geojson([b], out)
+    write_geojson([b], out, overwrite=True)
+    assert len(cw.Basin.from_geojson(out)) == 1
+    assert not [p for p in tmp_path.iterdir() if p.name.endswith(".tmp")]
+    with pytest.raises(BasinError, match="could not read WKT"):
+        cw.Basin.from_wkt("POLYGON((1 2, 3", name="w")
+
+
+def _write_shp(path, rings_list, names, prj_wkt=None):
+    with shapefile.Writer(str(path), shapeType=shapefile.POLYGON) as w:
+        w.field("NAME", "C")
+        for rings, name in zip(rings_list, names):
+            w.poly(rings)
+            w.record(name)
+    if prj_wkt:
+        path.with_suffix(".prj").write_text(prj_wkt)
+
+
+def test_shapefile_lonlat(tmp_path):
+    ring = [list(p) for p in SQUARE[::-1]] + [list(SQUARE[-1])]  # clockwise outer ring for ESRI
+    _write_shp(tmp_path / "b.shp", [[ring]], ["first"])
+    (b,) = cw.Basin.from_shapefile(tmp_path / "b.shp")
+    assert b.name == "first" and b.geometry.area == 1.0
+
+
+def test_shapefile_projected_is_reprojected(tmp_path):
+    # A square drawn in lon/lat, stored in UTM zone 5N (EPSG:32605) with an ESRI .prj;
+    # pyproj is the outside reference for the transform.
+    utm = CRS.from_epsg(32605)
+    to_utm = Transformer.from_crs(4326, utm, always_xy=True)
+    dense = shapely.segmentize(shapely.Polygon(SQUARE[::-1]), 0.01)
+    xy = np.column_stack(to_utm.transform(*np.asarray(dense.exterior.coords).T))
+    _write_shp(tmp_path / "p.shp", [[xy.tolist()]], ["projected"], utm.to_wkt("WKT1_ESRI"))
+    (b,) = cw.Basin.from_shapefile(tmp_path / "p.shp", name_field="NAME")
+    np.testing.assert_allclose(b.bounds, (-140.0, 20.0, -139.0, 21.0), atol=1e-6)
+    ref = cw.Basin.from_vertices(SQUARE)
+    np.testing.assert_allclose(b.area_m2, ref.area_m2, rtol=1e-6)
+    with pytest.raises(BasinError, match="no field 'ID'"):
+        cw.Basin.from_shapefile(tmp_path / "p.shp", name_field="ID")
+    with pytest.raises(SourceError, match="file not found"):
+        cw.Basin.from_shapefile(tmp_path / "missing.shp")
