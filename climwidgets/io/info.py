@@ -1,0 +1,52 @@
+"""A plain-text description of what the loader sees in a source (used by `climwidgets info`)."""
+
+from __future__ import annotations
+
+import numpy as np
+
+from .loader import open_precip
+
+
+def _fmt_time(value) -> str:
+    text = str(value)
+    return text[:19].replace("T", " ")
+
+
+def describe(source, var=None, scan=False) -> str:
+    src = source[0] if isinstance(source, (list, tuple)) and len(source) == 1 else source
+    pr = open_precip(src, var=var, validate=False)
+    a = pr.attrs
+    lines = [
+        f"sources:      {a['sources']}",
+        f"variable:     {a['original_variable']} (units '{a['original_units']}')",
+        f"conversion:   {a['conversion']}",
+        f"time step:    {a['step']}  calendar: {a['calendar']}",
+        f"period:       {_fmt_time(pr.time.values[0])} to {_fmt_time(pr.time.values[-1])} ({pr.sizes['time']} steps)",
+    ]
+    if a.get("time_gaps_filled_with_missing"):
+        lines.append(f"gaps:         {a['time_gaps_filled_with_missing']} missing time steps filled with missing values")
+    if "lat" in pr.dims:
+        lat, lon = pr.lat.values, pr.lon.values
+        dlat = float(np.median(np.diff(lat))) if lat.size > 1 else float("nan")
+        dlon = float(np.median(np.diff(lon))) if lon.size > 1 else float("nan")
+        lines.append(f"grid:         rectilinear {lat.size} x {lon.size} (lat x lon), spacing {dlat:.4g} x {dlon:.4g} deg")
+        lines.append(f"extent:       lat {pr.lat_lower.values.min():.4g}..{pr.lat_upper.values.max():.4g}, "
+                     f"lon {pr.lon_lower.values.min():.4g}..{pr.lon_upper.values.max():.4g}")
+    else:
+        lines.append(f"grid:         curvilinear {pr.sizes['y']} x {pr.sizes['x']} (y x x), 2-D lat/lon")
+        lines.append(f"extent:       lat {float(pr.lat.min()):.4g}..{float(pr.lat.max()):.4g}, "
+                     f"lon {float(pr.lon.min()):.4g}..{float(pr.lon.max()):.4g}")
+    lines.append(f"cell bounds:  {a.get('cell_bounds', '?')}")
+    if pr.chunks is not None:
+        shape = tuple(c[0] for c in pr.chunks)
+        n = int(np.prod([len(c) for c in pr.chunks]))
+        lines.append(f"dask chunks:  {shape} x {n} chunks; {pr.nbytes / 1e9:.3g} GB as float64 in memory")
+    if a.get("missing_value_heuristics"):
+        lines.append(f"missing:      {a['missing_value_heuristics']}")
+    if scan:
+        import dask
+
+        total, valid, lowest, highest = dask.compute(pr.size, pr.count(), pr.min(), pr.max())
+        frac = 1 - int(valid) / total
+        lines.append(f"missing data: {frac:.2%} of values; range {float(lowest):.4g}..{float(highest):.4g} mm per step")
+    return "\n".join(lines)
