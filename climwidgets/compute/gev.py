@@ -32,6 +32,8 @@ the year axis is sorted per cell with missing years (NaN) left out of that cell'
 
 from __future__ import annotations
 
+import warnings
+
 import numpy as np
 import xarray as xr
 from scipy import special, stats
@@ -140,6 +142,12 @@ def _cdf(x, loc, scale, k):
     return np.where(k == 0, gum, gev)
 
 
+def _period(x, loc, scale, k):
+    """Return period 1 / (1 - F(x)); infinite above a bounded upper tail."""
+    with np.errstate(divide="ignore"):
+        return 1.0 / (1.0 - _cdf(x, loc, scale, k))
+
+
 def _fit_block(x, dist, min_years):
     """Fit every row of x (..., year).  Returns loc, scale, shape, n, l1, l2, t3, t4."""
     n, l1, l2, t3, t4 = _sample_lmoments(x)
@@ -177,7 +185,8 @@ def _bootstrap_block(x, F, dist, min_years, ci, n_boot, seed):
         sample = np.where(col[None, None, :] < n[rows, None, None], sample, np.nan)
         bl, bs, bk = _fit_block(sample, dist, min_years)[:3]
         xt = _quantile(F[None, None, :], bl[..., None], bs[..., None], bk[..., None])
-        with np.errstate(invalid="ignore"):
+        with warnings.catch_warnings():  # a cell whose every refit failed stays NaN
+            warnings.simplefilter("ignore", RuntimeWarning)
             lo, hi = np.nanquantile(xt, [q_lo, q_hi], axis=1)
         lower[rows] = lo
         upper[rows] = hi
@@ -389,10 +398,8 @@ def return_period(annual_max_or_params, depth, dist="gev", min_years=10, dim="ye
     else:
         params = gev_lmoments(annual_max_or_params, dist=dist, min_years=min_years, dim=dim)
     depth = depth if isinstance(depth, xr.DataArray) else xr.DataArray(np.asarray(depth, dtype=float))
-    F = xr.apply_ufunc(_cdf, depth, params["loc"], params["scale"], params["shape"], dask="parallelized",
+    T = xr.apply_ufunc(_period, depth, params["loc"], params["scale"], params["shape"], dask="parallelized",
                        output_dtypes=[float])
-    with np.errstate(divide="ignore"):
-        T = 1.0 / (1.0 - F)
     T = T.rename("return_period")
     T.attrs.update(units="years", long_name="return period", sign_convention=SIGN_CONVENTION,
                    cautions=DESIGN_DEPTH_CAUTIONS)
