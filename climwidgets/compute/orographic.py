@@ -429,8 +429,9 @@ def elevation_gradient(field: xr.DataArray, elevation: xr.DataArray, mask=None, 
     ds["n"] = n.assign_attrs(units="1", long_name="cells used")
 
     lo_edge = np.floor(z[sel].min() / band_m) * band_m
-    edges = np.arange(lo_edge, z[sel].max() + band_m, band_m)
-    edges = edges[: int(np.searchsorted(edges, z[sel].max(), side="right")) + 1]
+    # half-open bands [lo, hi); the last one holds the highest cell
+    n_bands = int(np.floor((z[sel].max() - lo_edge) / band_m)) + 1
+    edges = lo_edge + band_m * np.arange(n_bands + 1)
     lower, upper = edges[:-1], edges[1:]
     member = sel & (z >= lower[:, None, None]) & (z < upper[:, None, None])
     centre = 0.5 * (lower + upper)
