@@ -83,7 +83,7 @@ def _reduce(field, basin, weights):
     num = xr.dot(sub.fillna(0.0), w, dim=list(dims))
     den = xr.dot(valid.astype(float), w, dim=list(dims))
     mean = num / den.where(den > 0)
-    covered = den / total
+    covered = (den / total).clip(0.0, 1.0)  # rounding can push a full slice to 1 + 1e-16
     return mean, covered, total
 
 
