@@ -136,6 +136,10 @@ def test_missing_years_and_short_cells():
     np.testing.assert_allclose(ds["shape"][1], ref["shape"], rtol=1e-12)
     np.testing.assert_allclose(ds["n_years"], [40, 37, 5])
     assert np.isnan(ds["loc"][2]) and ds.attrs["n_cells_insufficient"] == 1
+    # dask in -> dask out, same numbers
+    lazy = cw.gev_lmoments(da.chunk(cell=1, year=10))
+    assert lazy["shape"].chunks is not None
+    xr.testing.assert_allclose(lazy.compute(), ds.drop_attrs(deep=False))
 
 
 def test_parameter_recovery_both_signs():
