@@ -99,6 +99,39 @@ def _pick_grid(products: dict, grid):
     return grid
 
 
+def _common_months(products: dict, period, func: str):
+    """Monthly totals of every product on standard month starts over the common complete
+    years (or ``period``, which must lie inside them); returns (dict, (first, last))."""
+    from .totals import monthly_totals
+
+    years = {n: _complete_years(da) for n, da in products.items()}
+    common = set.intersection(*years.values())
+    spans = "; ".join(f"{n}: {min(y)}-{max(y)}" if y else f"{n}: none" for n, y in years.items())
+    if not common:
+        raise MismatchError("the products share no complete year (disjoint periods)", source=func,
+                            expected="at least one calendar year fully covered by every product",
+                            fix=f"choose products that overlap in time (complete years {spans})")
+    if period is not None:
+        try:
+            first, last = (int(v) for v in period)
+        except (TypeError, ValueError):
+            raise ParameterError(f"period={period!r} is not a pair of years", source=func,
+                                 expected="(first_year, last_year)", fix="e.g. period=(1991, 2020)") from None
+        wanted = set(range(first, last + 1))
+        if first > last or not wanted <= common:
+            raise MismatchError(f"period {first}-{last} is not covered by every product", source=func,
+                                expected=f"years within the common complete years {min(common)}-{max(common)}",
+                                fix=f"choose a period inside the common years ({spans})")
+        common = wanted
+    out = {}
+    for name, da in products.items():
+        monthly = monthly_totals(da)
+        labels = _month_labels(monthly["time"])
+        keep = np.flatnonzero(np.isin(labels.year, sorted(common)))
+        out[name] = monthly.isel(time=keep).assign_coords(time=labels[keep])
+    return out, (min(common), max(common))
+
+
 def align(datasets: dict, grid=None, period=None, method: str = "conservative", **regrid_kwargs) -> dict:
     """Bring several precipitation products to a common period, time index and grid.
 
@@ -123,44 +156,22 @@ def align(datasets: dict, grid=None, period=None, method: str = "conservative", 
     starts, the same years and the same grid.  Lazy on dask input.
     """
     from .regrid import regrid
-    from .totals import monthly_totals
 
     products = _check_products(datasets, "align")
-    years = {n: _complete_years(da) for n, da in products.items()}
-    common = set.intersection(*years.values())
-    spans = "; ".join(f"{n}: {min(y)}-{max(y)}" if y else f"{n}: none" for n, y in years.items())
-    if not common:
-        raise MismatchError("the products share no complete year (disjoint periods)", source="align",
-                            expected="at least one calendar year fully covered by every product",
-                            fix=f"choose products that overlap in time (complete years {spans})")
-    if period is not None:
-        try:
-            first, last = (int(v) for v in period)
-        except (TypeError, ValueError):
-            raise ParameterError(f"period={period!r} is not a pair of years", source="align",
-                                 expected="(first_year, last_year)", fix="e.g. period=(1991, 2020)") from None
-        wanted = set(range(first, last + 1))
-        if first > last or not wanted <= common:
-            raise MismatchError(f"period {first}-{last} is not covered by every product", source="align",
-                                expected=f"years within the common complete years {min(common)}-{max(common)}",
-                                fix=f"choose a period inside the common years ({spans})")
-        common = wanted
+    monthly, (first, last) = _common_months(products, period, "align")
     target = _pick_grid(products, grid)
     target_key = None if target is None or isinstance(target, dict) else _grid_key(target)
 
     out = {}
     for name, da in products.items():
-        monthly = monthly_totals(da)
-        labels = _month_labels(monthly["time"])
-        keep = np.flatnonzero(np.isin(labels.year, sorted(common)))
-        monthly = monthly.isel(time=keep).assign_coords(time=labels[keep])
+        m = monthly[name]
         if target is not None and (target_key is None or _grid_key(da) != target_key):
-            monthly = regrid(monthly, target, method=method, **regrid_kwargs)
-        monthly.attrs["source_calendar"] = _calendar(da)
-        monthly.attrs["period"] = f"{min(common)}-{max(common)}"
-        monthly.name = da.name if da.name is not None else name
-        out[name] = with_history(monthly, "align", monthly.attrs, product=name,
-                                 period=(min(common), max(common)), grid="native" if target is None else "common")
+            m = regrid(m, target, method=method, **regrid_kwargs)
+            m.attrs.pop("history", None)  # the chain is rebuilt below from the product's own
+        m.attrs.update(source_calendar=_calendar(da), period=f"{first}-{last}")
+        m.name = da.name if da.name is not None else name
+        out[name] = with_history(m, "align", da.attrs, product=name, period=(first, last),
+                                 grid="native" if target is None else "common", method=method)
     return out
 
 
@@ -271,3 +282,89 @@ def compare(a: xr.DataArray, b: xr.DataArray, dim: str = "time", kge: str = "200
     ds.attrs = {"reference": str(a.name), "other": str(b.name), "kge_form": kge,
                 "convention": "bias, ratio and efficiencies are of 'other' (b) against the reference (a)"}
     return with_history(ds, "compare", a.attrs, dim=dim, kge=kge, reference=str(a.name), other=str(b.name))
+
+
+# ---------------------------------------------------------------- basin table
+_SPREAD_RANGE = "spread: max - min"
+_SPREAD_CV = "spread: coefficient of variation"
+_COLUMNS = {
+    "annual_mean_mm": "mean annual total over the common period (mm)",
+    "seasonal_share": "share of the annual total falling in the season (ratio of sums, fraction)",
+    "normal_mm": "annual normal: sum of the 12 monthly normals over the baseline (mm)",
+    "trend_mm_per_year": "Sen slope of the annual totals (mm/yr)",
+    "trend_pvalue": "Mann-Kendall two-sided p-value of the annual totals",
+}
+
+
+def _basin_list(basins) -> list:
+    if isinstance(basins, dict):
+        basins = list(basins.values())
+    elif not isinstance(basins, (list, tuple)):
+        basins = [basins]
+    if not basins or not all(hasattr(b, "geometry") and hasattr(b, "name") for b in basins):
+        raise ParameterError("basins must be Basin objects", source="products_basin_table",
+                             expected="a Basin, or a list or dict of Basin",
+                             fix="build them with cw.Basin.from_vertices or cw.Basin.from_geojson")
+    names = [b.name for b in basins]
+    if len(set(names)) != len(names):
+        raise ParameterError(f"basin names repeat: {names}", source="products_basin_table",
+                             expected="one name per basin", fix="give every basin its own name")
+    return list(basins)
+
+
+def products_basin_table(datasets: dict, basins, months=(7, 8), baseline=None) -> pd.DataFrame:
+    """Basin climatology per product, with the spread across products.
+
+    Each product is summarized on its own grid (area-weighted basin mean, no regridding)
+    over the complete years common to all products.  Per basin and product: mean annual
+    total, seasonal share of ``months`` (ratio of sums), annual normal over ``baseline``
+    (default: the whole common period) and the Sen slope / Mann-Kendall p-value of the
+    annual totals.  After the products of each basin come two rows: ``"spread: max - min"``
+    and ``"spread: coefficient of variation"`` (population standard deviation / mean
+    across products; left empty for the trend, whose mean can be near zero, and for the
+    p-value).
+
+    Returns a DataFrame indexed by (basin, product); ``attrs`` holds the column
+    descriptions, the period, the season, the baseline and a history line.
+    """
+    import dask
+
+    from ..geo.aggregate import basin_mean
+    from .normals import annual_normal
+    from .seasonal import seasonal_fraction
+    from .totals import annual_totals
+    from .trend import trend
+
+    products = _check_products(datasets, "products_basin_table")
+    basins = _basin_list(basins)
+    monthly, (first, last) = _common_months(products, None, "products_basin_table")
+    base = (first, last) if baseline is None else tuple(int(v) for v in baseline)
+
+    lazy = {}
+    for basin in basins:
+        for name, m in monthly.items():
+            series = basin_mean(m, basin)
+            annual = annual_totals(series)
+            tr = trend(annual, dim="year")
+            lazy[(basin.name, name)] = (annual.mean("year"), seasonal_fraction(series, months),
+                                        annual_normal(series, baseline=base), tr["slope"], tr["pvalue"])
+    (values,) = dask.compute(lazy)
+
+    rows, index = [], []
+    for basin in basins:
+        block = np.array([[float(v) for v in values[(basin.name, n)]] for n in products])
+        rows.extend(block)
+        index.extend((basin.name, n) for n in products)
+        mean = block.mean(axis=0)
+        cv = block.std(axis=0) / np.where(mean != 0, mean, np.nan)
+        cv[3:] = np.nan
+        rows.extend([block.max(axis=0) - block.min(axis=0), cv])
+        index.extend([(basin.name, _SPREAD_RANGE), (basin.name, _SPREAD_CV)])
+    table = pd.DataFrame(rows, index=pd.MultiIndex.from_tuples(index, names=["basin", "product"]),
+                         columns=list(_COLUMNS))
+    table.loc[(slice(None), _SPREAD_RANGE), "trend_pvalue"] = np.nan
+    table.attrs = {"columns": dict(_COLUMNS), "period": f"{first}-{last}", "season_months": tuple(months),
+                   "baseline": base,
+                   "spread": "max - min and coefficient of variation (population sd / mean) across products"}
+    return with_history(table, "products_basin_table", None, products=tuple(products),
+                        basins=tuple(b.name for b in basins), months=tuple(months), baseline=base)
