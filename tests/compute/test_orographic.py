@@ -161,10 +161,11 @@ def _yearly(rep_values_west, rep_values_east):
 def test_bootstrap_interval_covers_at_about_nominal_rate():
     """Percentile bootstrap over years (Efron & Tibshirani 1993, An Introduction to the
     Bootstrap, ch. 13 — from memory): with independent yearly noise the 90 % interval of
-    the ratio of means should cover the true ratio in roughly 90 % of simulations
-    (somewhat less for 15 years; binomial sd over 200 runs ≈ 2 %)."""
+    the ratio of means should cover the true ratio in roughly 90 % of simulations.
+    Percentile intervals run a little short in small samples (about 0.87 here with 30
+    years); the binomial sd over 300 runs is about 1.7 %."""
     rng = np.random.default_rng(42)
-    n_rep, n_year = 200, 15
+    n_rep, n_year = 300, 30
     west = 100.0 + 12.0 * rng.standard_normal((n_rep, n_year))
     east = 60.0 + 9.0 * rng.standard_normal((n_rep, n_year))
     ds = cw.rain_shadow(_yearly(west, east), 270.0, ridge=RIDGE, band_km=(0, 60),
@@ -173,7 +174,7 @@ def test_bootstrap_interval_covers_at_about_nominal_rate():
     np.testing.assert_allclose(ds.ratio_per_year, east / west, rtol=1e-12)
     np.testing.assert_allclose(ds.ratio, east.mean(1) / west.mean(1), rtol=1e-12)
     covered = ((ds.ratio_lower <= 0.6) & (ds.ratio_upper >= 0.6)).mean()
-    assert 0.8 <= float(covered) <= 0.97
+    assert 0.82 <= float(covered) <= 0.96
     assert np.all(ds.ratio_lower < ds.ratio) and np.all(ds.ratio < ds.ratio_upper)
 
 
