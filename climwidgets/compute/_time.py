@@ -12,7 +12,6 @@ import numpy as np
 import xarray as xr
 
 from ..errors import (
-    DataValueError,
     InsufficientDataError,
     ParameterError,
     TimeAxisError,
@@ -210,8 +209,3 @@ def is_dask(obj) -> bool:
 def safe_divide(num, den):
     """num / den with NaN where den is zero or missing, without RuntimeWarnings."""
     return num / den.where(den != 0)
-
-
-def no_data_error(src, func):
-    return DataValueError(f"{func}: no valid values", source=src,
-                          expected="some non-missing precipitation", fix="check the input")
