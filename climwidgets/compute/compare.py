@@ -40,8 +40,8 @@ def _check_products(datasets, func: str) -> dict:
 
 def _month_labels(time: xr.DataArray) -> pd.DatetimeIndex:
     """Standard-calendar month starts for any calendar's time coordinate."""
-    return pd.DatetimeIndex(pd.to_datetime(pd.DataFrame({"year": time.dt.year.values, "month": time.dt.month.values,
-                                                         "day": 1})))
+    frame = pd.DataFrame({"year": time.dt.year.values, "month": time.dt.month.values, "day": 1})
+    return pd.DatetimeIndex(pd.to_datetime(frame))
 
 
 def _complete_years(da: xr.DataArray) -> set:

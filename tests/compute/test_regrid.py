@@ -24,13 +24,9 @@ def _field(lat, lon, nt=2, seed=0, bounds=None):
 
 
 def _area(da):
-    """Cell areas on the unit sphere, Δλ (sin φ2 − sin φ1), from the field's bounds."""
-    from climwidgets.geo.grid import cell_bounds
-
-    g = cell_bounds(da)
-    dlat = np.sin(np.deg2rad(g.lat_upper)) - np.sin(np.deg2rad(g.lat_lower))
-    dlon = np.deg2rad(g.lon_upper - g.lon_lower)
-    return xr.DataArray(np.outer(dlat, dlon), dims=("lat", "lon"))
+    """Cell areas (m²) from climwidgets.geo.area.cell_area, an implementation independent
+    of the regridding weights."""
+    return cw.cell_area(da)
 
 
 def _total(da):
@@ -107,6 +103,10 @@ def test_separable_weights_equal_analytic_spherical_areas():
     wlat, wlon = separable_weights((e[:-1], e[1:]), (el[:-1], el[1:]), (e[:-1], e[1:]), (el[:-1], el[1:]))
     assert wlat.nnz == 180 and wlon.nnz == 360  # same grid: diagonal only
     np.testing.assert_allclose(wlat.sum() * wlon.sum(), 4 * np.pi, rtol=1e-12)
+    # and cell by cell they equal geo.area.cell_area on the same grid
+    grid = xr.Dataset(coords={"lat": np.arange(-89.5, 90.0), "lon": np.arange(-179.5, 180.0)})
+    np.testing.assert_allclose(R1**2 * np.outer(wlat.diagonal(), wlon.diagonal()),
+                               cw.cell_area(grid, radius=R1).values, rtol=1e-10)
 
 
 # ------------------------------------------------------------------ missing values
@@ -202,7 +202,8 @@ def test_curvilinear_rotated_grid_conserves_total():
     g = cell_bounds(src)
     xy = np.stack([np.deg2rad(g.lon_corners), np.sin(np.deg2rad(g.lat_corners))], -1).reshape(-1, 4, 2)
     quad_area = shapely.area(shapely.polygons(xy)).reshape(12, 14)
-    tgt_total = float((out.fillna(0) * cov * _area(out).values).sum())
+    unit = _area(out) / _area(out).attrs["radius_m"] ** 2  # unit-sphere areas, as the quads
+    tgt_total = float((out.fillna(0) * cov * unit.values).sum())
     np.testing.assert_allclose(tgt_total, float((src[0] * quad_area).sum()), rtol=1e-10)
     # a constant field stays constant wherever it is covered at all
     const = cw.regrid(xr.full_like(src, 7.0), tgt, min_coverage=1e-12)
