@@ -329,7 +329,7 @@ def _rain_shadow_attrs(ds, units, w, has_years, ci):
 
 
 def elevation_gradient(field: xr.DataArray, elevation: xr.DataArray, mask=None, side=None,
-                       distance_km=None, band_m: float = 250.0, ci: float = 0.9,
+                       band_m: float = 250.0, ci: float = 0.9, *, distance_km=None,
                        weighted: bool = True) -> xr.Dataset:
     """Change of precipitation with height: least-squares slope in mm per 100 m.
 

@@ -110,7 +110,7 @@ def test_constant_sides_recover_ratio_exactly():
 
 
 def test_means_are_area_weighted_and_basin_restricted():
-    field = _grid(np.cos(np.deg2rad(LAT))[:, None] * 0 + LAT[:, None] * 10.0 + 0 * LON[None, :])
+    field = _grid(LAT[:, None] * 10.0 + 0 * LON[None, :])
     ds = cw.rain_shadow(field, 270.0, ridge=RIDGE, band_km=(0, 60))
     area = _cell_areas()
     d = ds.distance_km.values
@@ -245,6 +245,7 @@ def test_gradient_recovers_linear_rise():
     assert float(g.r2) == pytest.approx(1.0, abs=1e-9)
     assert float(g.intercept) == pytest.approx(400.0, rel=1e-6)
     assert g.slope.attrs["units"] == "mm (100 m)-1"
+    assert "elevation_gradient" in g.attrs["history"]
     # band means of a linear field sit on the line at the band's mean elevation
     ok = g.band_cells > 0
     np.testing.assert_allclose(g.band_mean.where(ok, drop=True),
@@ -286,6 +287,9 @@ def test_gradient_by_side_and_mask_and_dask():
     lw = cw.elevation_gradient(field, z, side="leeward", distance_km=d)
     assert float(ww.slope) == pytest.approx(100.0, rel=1e-9)
     assert float(lw.slope) == pytest.approx(20.0, rel=1e-9)
+    near = cw.rain_shadow(field, ridge=RIDGE, band_km=(0, 30))
+    assert int(side_mask(d, "windward", band_km=(0, 30)).sum()) == int(near.n_windward)
+    assert int(side_mask(d, "leeward", band_km=(0, 30)).sum()) == int(near.n_leeward)
     masked = cw.elevation_gradient(field, z, mask=side_mask(d, "windward"))
     assert float(masked.slope) == pytest.approx(100.0, rel=1e-9)
     lazy = cw.elevation_gradient(field.chunk({"lat": 5}), z, side="leeward", distance_km=d)
