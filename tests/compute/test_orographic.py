@@ -123,6 +123,11 @@ def test_means_are_area_weighted_and_basin_restricted():
     manual_b = (area * field.values)[mb].sum() / area[mb].sum()
     assert float(basin.windward_mean) == pytest.approx(manual_b, rel=1e-9)
     assert float(basin.n_windward) == mb.sum()
+    # the same restriction drawn as a basin polygon (coverage from climwidgets.geo)
+    poly = cw.Basin.from_vertices([(-1.05, 39.95), (2.05, 39.95), (2.05, 40.45), (-1.05, 40.45)],
+                                  name="southern strip")
+    drawn = cw.rain_shadow(field, 270.0, ridge=RIDGE, band_km=(0, 60), basin=poly)
+    assert float(drawn.windward_mean) == pytest.approx(manual_b, rel=1e-9)
 
 
 def test_crest_from_elevation_and_rain_shadow_with_terrain():
