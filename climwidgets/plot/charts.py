@@ -44,7 +44,7 @@ def series_with_trend(series, trend=None, ax=None, label=None, scale=1.0, units=
         intercept = float(trend["intercept"]) * scale
         p = float(trend["pvalue"])
         fit = intercept + slope * years
-        text = f"Sen slope {slope * 10:+.3g} {units} per decade (Mann-Kendall p = {p:.2f})"
+        text = f"Sen slope {slope * 10:+.3g} {'% points' if units == '%' else units} per decade (Mann-Kendall p = {p:.2f})"
         artists += ax.plot(years, fit, "--", color="#d95f02", lw=1.5, label=text)
     ax.set_xlabel("year")
     ax.set_ylabel(f"{series.attrs.get('long_name', series.name or 'value')} [{units}]", fontsize=8)

@@ -29,7 +29,8 @@ Subclass :class:`BaseWidget` and fill in four small methods; the base does the r
 
         def render(self, result, params):         # show the computed numbers
             self.map.show_field(result, kind="total")
-            self.show_table(some_dataframe)
+            self.show_table(some_dataframe)        # results table (a DataFrame)
+            self.show_chart(some_figure)           # optional chart (a matplotlib Figure)
 
 ``compute`` runs in a worker thread and returns anything ``dask.compute`` understands
 (a DataArray, a dict or tuple of them, pandas objects...); the base computes it with a
@@ -51,6 +52,7 @@ runs only if no newer request arrived meanwhile.
 
 from __future__ import annotations
 
+import contextlib
 import html
 import os
 import tempfile
@@ -171,6 +173,7 @@ class BaseWidget(widgets.VBox):
         self.error = None
         self.export_dir = Path(export_dir)
         self._gen = 0
+        self._quiet = 0
         self._lock = threading.Lock()
         self._render_lock = threading.RLock()
         self._done = {0: threading.Event()}
@@ -179,7 +182,7 @@ class BaseWidget(widgets.VBox):
                                               layout=widgets.Layout(visibility="hidden", width="320px"))
         self.message = widgets.HTML("")
         self.table_html = widgets.HTML(_CSS + "<i>No rows yet.</i>")
-        self.chart = widgets.Output() if chart else None
+        self.chart = widgets.Image(format="png", layout=widgets.Layout(max_width="640px")) if chart else None
         self.exports = widgets.HBox([])
         self.add_export("Table as CSV", self._write_csv, "csv")
         if self.map is not None:
@@ -221,11 +224,22 @@ class BaseWidget(widgets.VBox):
         for control in controls:
             control.observe(self.refresh, names=names)
 
+    @contextlib.contextmanager
+    def quiet(self):
+        """Change several controls without starting a computation for each change."""
+        self._quiet += 1
+        try:
+            yield
+        finally:
+            self._quiet -= 1
+
     def _is_current(self, gen):
         return gen == self._gen
 
     def refresh(self, *_ignored, background=True):
         """Start a computation for the current parameters (supersedes any running one)."""
+        if self._quiet:
+            return
         try:
             params = self.parameters()
         except InputError as exc:
@@ -278,8 +292,9 @@ class BaseWidget(widgets.VBox):
                 if not self._is_current(gen):
                     return
                 self.result = result
-                self.error = None
-                self.message.value = ""
+                if self.error is not None:  # clear an old error, keep plain notes
+                    self.error = None
+                    self.message.value = ""
                 self.render(result, params)
         except Superseded:
             return
@@ -312,6 +327,20 @@ class BaseWidget(widgets.VBox):
         """Show a DataFrame in the results table and keep it as ``self.table``."""
         self.table = df
         self.table_html.value = _CSS + df_to_html(df)
+
+    def show_chart(self, figure, dpi=100):
+        """Show a static matplotlib Figure as a PNG image (safe from worker threads)."""
+        if self.chart is None:
+            return
+        import io
+
+        from matplotlib.backends.backend_agg import FigureCanvasAgg
+
+        FigureCanvasAgg(figure)
+        buf = io.BytesIO()
+        figure.savefig(buf, format="png", dpi=dpi, bbox_inches="tight")
+        self.chart.value = buf.getvalue()
+        self.chart_figure = figure
 
     # ------------------------------------------------------------ exports
     def add_export(self, label, write, suffix, stem=None):
