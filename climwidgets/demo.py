@@ -194,7 +194,7 @@ def _patterns(lat, lon):
     reach = reach * reach * (3 - 2 * reach)
     shadow = 1 - 0.65 * reach * (1 - np.exp(-lee / 12.0)) * np.exp(-np.maximum(lee - 40.0, 0.0) / 120.0)
     winter = base * uplift * shadow
-    summer = np.clip(130.0 - 75.0 * y / 140.0, 15.0, None) * (1 + 0.4 * h)
+    summer = np.clip(100.0 - 130.0 * y / 140.0, 10.0, None) * (1 + 0.4 * h)
     return winter, summer
 
 
