@@ -78,35 +78,69 @@ def _boundary_cells(geom, xe, ye) -> np.ndarray:
     return mask
 
 
+def _rect_fractions(pieces, piece_of_cell, x0, y0, x1, y1) -> np.ndarray:
+    """Covered fraction of rectangles [x0, x1] × [y0, y1] by polygonal ``pieces[piece_of_cell]``.
+
+    Exact and vectorised: clamping a closed curve onto a rectangle (x → clip(x, x0, x1),
+    y → clip(y, y0, y1)) keeps its winding number at every interior point of the rectangle
+    (the straight homotopy to the clamped curve never crosses the interior), so the area of
+    polygon ∩ rectangle is ∮ x dy along the clamped boundary (Green's theorem).  Each edge
+    is first split where it crosses the rectangle's four lines, so that every clamped piece
+    is straight and the shoelace sum is exact.
+    """
+    parts, part_piece = shapely.get_parts(pieces, return_index=True)
+    keep = shapely.get_type_id(parts) == 3  # polygons only (drop touching lines/points)
+    parts, part_piece = shapely.orient_polygons(parts[keep]), part_piece[keep]
+    rings, ring_part = shapely.get_rings(parts, return_index=True)
+    xy, ring_id = shapely.get_coordinates(rings, return_index=True)
+    same = ring_id[1:] == ring_id[:-1]
+    ax, ay, bx, by = xy[:-1, 0][same], xy[:-1, 1][same], xy[1:, 0][same], xy[1:, 1][same]
+    edge_piece = part_piece[ring_part[ring_id[:-1][same]]]
+    # Pair every cell with every edge of its piece (ragged expansion, all in numpy).
+    counts = np.bincount(edge_piece, minlength=pieces.size)
+    first = np.concatenate([[0], np.cumsum(counts)[:-1]])
+    n_pairs = counts[piece_of_cell]
+    cell = np.repeat(np.arange(piece_of_cell.size), n_pairs)
+    pair_start = np.concatenate([[0], np.cumsum(n_pairs)[:-1]])
+    edge = np.arange(n_pairs.sum()) - np.repeat(pair_start - first[piece_of_cell], n_pairs)
+    ax, ay, bx, by = ax[edge], ay[edge], bx[edge], by[edge]
+    cx0, cy0, cx1, cy1 = x0[cell], y0[cell], x1[cell], y1[cell]
+    dx, dy = bx - ax, by - ay
+    with np.errstate(divide="ignore", invalid="ignore"):
+        t = np.stack([(cx0 - ax) / dx, (cx1 - ax) / dx, (cy0 - ay) / dy, (cy1 - ay) / dy], axis=1)
+    t = np.clip(np.nan_to_num(t, nan=0.0, posinf=0.0, neginf=0.0), 0.0, 1.0)
+    t = np.sort(np.concatenate([np.zeros((t.shape[0], 1)), t, np.ones((t.shape[0], 1))], axis=1), axis=1)
+    px = np.clip(ax[:, None] + t * dx[:, None], cx0[:, None], cx1[:, None]) - cx0[:, None]
+    py = np.clip(ay[:, None] + t * dy[:, None], cy0[:, None], cy1[:, None])
+    contrib = (0.5 * (px[:, 1:] + px[:, :-1]) * np.diff(py, axis=1)).sum(axis=1)
+    area = np.bincount(cell, weights=contrib, minlength=piece_of_cell.size)
+    return area / ((x1 - x0) * (y1 - y0))
+
+
 def _fast_rectilinear(geom, ylo, yhi, xlo, xhi) -> np.ndarray:
     xe = np.append(xlo, xhi[-1])
     ye = np.append(ylo, yhi[-1])
     boundary = _boundary_cells(geom, xe, ye)
     ny, nx = boundary.shape
-    weights = np.zeros((ny, nx))
-    # Runs of non-boundary cells along each row share one inside/outside state.
-    free = ~boundary
-    prev = np.zeros_like(free)
-    prev[:, 1:] = free[:, :-1]
-    starts = free & ~prev
-    run_id = np.cumsum(starts.ravel()) - 1
+    # Runs of non-boundary cells along each row share one inside/outside state: test the
+    # centre of each run's first cell and spread it (boundary cells are overwritten below).
+    starts = ~boundary
+    starts[:, 1:] &= boundary[:, :-1]
+    run_id = np.cumsum(starts.ravel(), dtype=np.int32) - 1
     sr, sc = np.nonzero(starts)
-    if sr.size:
-        inside = shapely.contains_xy(geom, 0.5 * (xlo[sc] + xhi[sc]), 0.5 * (ylo[sr] + yhi[sr]))
-        flat_free = free.ravel()
-        weights.ravel()[flat_free] = inside[run_id[flat_free]].astype(float)
+    inside = shapely.contains_xy(geom, 0.5 * (xlo[sc] + xhi[sc]), 0.5 * (ylo[sr] + yhi[sr]))
+    weights = np.append(inside, False).astype(float)[run_id].reshape(ny, nx)
     br, bc = np.nonzero(boundary)
     if br.size:
-        # Clip the outline to tiles of cells first: each cell is then cut against a small
-        # local piece instead of the whole outline.
-        tr, tc = br // _TILE, bc // _TILE
-        tiles, tile_of_cell = np.unique(tr * (nx // _TILE + 1) + tc, return_inverse=True)
-        t_r, t_c = tiles // (nx // _TILE + 1), tiles % (nx // _TILE + 1)
+        # Clip the outline to tiles of cells first, so each cell is cut against the few
+        # edges of a small local piece instead of the whole outline.
+        stride = nx // _TILE + 1
+        tiles, tile_of_cell = np.unique((br // _TILE) * stride + bc // _TILE, return_inverse=True)
+        t_r, t_c = tiles // stride, tiles % stride
         r_hi, c_hi = np.minimum((t_r + 1) * _TILE, ny) - 1, np.minimum((t_c + 1) * _TILE, nx) - 1
         tile_boxes = shapely.box(xlo[t_c * _TILE], ylo[t_r * _TILE], xhi[c_hi], yhi[r_hi])
         pieces = shapely.intersection(tile_boxes, geom)
-        boxes = shapely.box(xlo[bc], ylo[br], xhi[bc], yhi[br])
-        weights[br, bc] = _exact(boxes, pieces[tile_of_cell.ravel()], (xhi[bc] - xlo[bc]) * (yhi[br] - ylo[br]))
+        weights[br, bc] = _rect_fractions(pieces, tile_of_cell.ravel(), xlo[bc], ylo[br], xhi[bc], yhi[br])
     return weights
 
 

@@ -5,7 +5,6 @@ from fractions import Fraction
 import dask.array
 import numpy as np
 import pytest
-import xarray as xr
 
 import climwidgets as cw
 from climwidgets.errors import MismatchError, ParameterError, UnitsError
