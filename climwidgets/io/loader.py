@@ -13,7 +13,9 @@ time-chunked tiles keep their tiles).  Contiguous files are chunked along time o
 from __future__ import annotations
 
 import math
+import os
 
+import dask.base
 import numpy as np
 import xarray as xr
 
@@ -122,7 +124,24 @@ def _decode_time(ds: xr.Dataset, tname: str, source) -> tuple[xr.DataArray, xr.D
     return decoded[tname], bounds
 
 
-def _open_part(path, var, kind):
+def _user_plan(plan: dict, chunks: dict, da, ds, tname, latn, lonn) -> dict:
+    """Apply chunk sizes given with house names (time, lat, lon, y, x) to the file's own dims."""
+    names = {}
+    if tname:
+        names["time"] = ds[tname].dims[0]
+    lat, lon = ds[latn], ds[lonn]
+    if lat.ndim == 1:
+        names["lat"], names["lon"] = lat.dims[0], lon.dims[0]
+    else:
+        names["y"], names["x"] = lat.dims
+    for key, size in chunks.items():
+        dim = names.get(key, key)
+        if dim in plan:
+            plan[dim] = da.sizes[dim] if size in (-1, None) else int(size)
+    return plan
+
+
+def _open_part(path, var, kind, chunks="auto"):
     """One file: choose the variable, decode time, find lat/lon, normalise the grid."""
     ds = open_raw(path)
     sn, names = (PRECIP_STANDARD_NAMES, PRECIP_NAMES) if kind == "precipitation" else (ELEVATION_STANDARD_NAMES, ELEVATION_NAMES)
@@ -146,8 +165,14 @@ def _open_part(path, var, kind):
                             expected="dimensions time, lat, lon (singleton extras are dropped)",
                             fix=f"select one {d} first, e.g. xr.open_dataset(path)['{name}'].isel({d}=0)")
     plan = _chunk_plan(da.variable, da.dims, ds[tname].dims[0] if tname else None)
+    if isinstance(chunks, dict):
+        plan = _user_plan(plan, chunks, da, ds, tname, latn, lonn)
     da = da.isel({d: 0 for d in extra}, drop=True)
-    da = da.chunk({d: plan[d] for d in da.dims})
+    # a token from the file's identity (path, size, mtime), so reopening an unchanged file
+    # gives the same dask names and caches keyed on them are hit
+    stat = os.stat(path) if os.path.exists(path) else None
+    ident = dask.base.tokenize(path, name, plan, stat.st_size if stat else None, stat.st_mtime_ns if stat else None)
+    da = da.chunk({d: plan[d] for d in da.dims}, name_prefix=f"open_precip-{name}-", token=ident)
     da = da.reset_coords(drop=True)
     if tname is not None:
         time, tb = _decode_time(ds, tname, path)
@@ -288,7 +313,7 @@ def open_precip(source, var=None, chunks="auto", validate="auto") -> xr.DataArra
     {"hour", "day", "month"}, and the original units, conversion and sources in attrs.
     """
     sources = resolve(source)
-    parts = [_open_part(p, var, "precipitation") for p in sources]
+    parts = [_open_part(p, var, "precipitation", chunks) for p in sources]
     da, tbounds = _combine(parts, sources)
     info = parts[0][1]
     name, attrs = info["name"], info["attrs"]
@@ -305,9 +330,7 @@ def open_precip(source, var=None, chunks="auto", validate="auto") -> xr.DataArra
         gaps = 0  # irregular stamps (mixed times of day): leave the axis as it is
     if gaps > 0:
         da = da.reindex(time=full)  # missing steps become NaN (lazy), so no period is silently short
-    if isinstance(chunks, dict):
-        da = da.chunk(chunks)
-    elif chunks is None:
+    if chunks is None:
         da = da.compute()
     eager = validate is True or (validate == "auto" and da.size <= EAGER_CHECK_MAX_VALUES)
     if eager:

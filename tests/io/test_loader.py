@@ -128,7 +128,7 @@ def test_glob_and_list_combine_along_time(tmp_path):
 
 def test_zarr_store(tmp_path):
     nc = write_cf(tmp_path / "z.nc", np.full((10, 3, 4), 3.0), units="mm")
-    xr.open_dataset(nc).to_zarr(tmp_path / "z.zarr")
+    xr.open_dataset(nc).to_zarr(tmp_path / "z.zarr", consolidated=False)
     pr = cw.open_precip(tmp_path / "z.zarr")
     np.testing.assert_allclose(pr.values, 3.0)
 

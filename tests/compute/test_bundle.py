@@ -1,0 +1,82 @@
+"""One read of the data for many statistics (climatology_bundle)."""
+
+import numpy as np
+import pandas as pd
+import pytest
+import xarray as xr
+import xarray.backends.netCDF4_ as nc_backend
+
+import climwidgets as cw
+from climwidgets import cache
+from climwidgets.compute.bundle import climatology_bundle
+
+
+def _write(path, years=4, chunks=(30, 4, 5)):
+    t = pd.date_range("2001-01-01", f"{2000 + years}-12-31", freq="D")
+    rng = np.random.default_rng(1)
+    data = rng.gamma(0.6, 5.0, size=(t.size, 4, 5)).astype("f4")
+    ds = xr.Dataset({"pr": (("time", "lat", "lon"), data, {"units": "mm", "standard_name": "precipitation_amount"})},
+                    coords={"time": t, "lat": ("lat", np.arange(4.0), {"units": "degrees_north"}),
+                            "lon": ("lon", np.arange(5.0), {"units": "degrees_east"})})
+    ds.to_netcdf(path, encoding={"pr": {"chunksizes": chunks, "zlib": True}})
+    return path
+
+
+@pytest.fixture
+def counted_reads(monkeypatch):
+    calls = []
+    original = nc_backend.NetCDF4ArrayWrapper._getitem
+
+    def counting(self, key):
+        calls.append(key)
+        return original(self, key)
+
+    monkeypatch.setattr(nc_backend.NetCDF4ArrayWrapper, "_getitem", counting)
+    return calls
+
+
+def test_bundle_reads_every_stored_chunk_once(tmp_path, counted_reads):
+    path = _write(tmp_path / "d.nc")
+    pr = cw.open_precip(path, chunks={"time": 90}, validate=False)
+    n_chunks = len(pr.chunks[0])
+    counted_reads.clear()
+    ds = climatology_bundle(pr, months=(7, 8), baseline=(2001, 2004), maxima_days=(1, 3), compute=True)
+    # one read per dask chunk of the variable, for all six statistics together
+    data_reads = [k for k in counted_reads if isinstance(k, tuple) and len(k) == 3]
+    assert len(data_reads) == n_chunks
+    assert set(ds.data_vars) >= {"monthly_totals", "annual_totals", "seasonal_share", "normals", "annual_max_3day"}
+
+
+def test_bundle_matches_the_separate_functions(tmp_path):
+    pr = cw.open_precip(_write(tmp_path / "d.nc"), validate=False)
+    ds = climatology_bundle(pr, months=(11, 12, 1, 2, 3), baseline=(2001, 2004), compute=True)
+    xr.testing.assert_allclose(ds["annual_totals"], cw.annual_totals(pr).compute().drop_attrs(), check_dim_order=False)
+    np.testing.assert_allclose(ds["seasonal_share"], cw.seasonal_fraction(pr, months=(11, 12, 1, 2, 3)))
+    np.testing.assert_allclose(ds["normals"], cw.normals(pr, baseline=(2001, 2004)))
+    np.testing.assert_allclose(ds["annual_max_1day"], cw.annual_maxima(pr, duration_days=1))
+
+
+def test_cache_is_hit_on_second_call(tmp_path):
+    path = _write(tmp_path / "d.nc")
+    cache.clear()
+    first = climatology_bundle(cw.open_precip(path, validate=False), use_cache=True)
+    # reopening the same unchanged file gives the same token: no recomputation
+    second = climatology_bundle(cw.open_precip(path, validate=False), use_cache=True)
+    assert cache.stats() == {"hits": 1, "misses": 1, "disk_hits": 0}
+    assert second is first
+    climatology_bundle(cw.open_precip(path, validate=False), months=(6, 7, 8), use_cache=True)
+    assert cache.stats()["misses"] == 2  # other parameters: another entry
+
+
+def test_disk_cache_survives_memory_loss(tmp_path):
+    path = _write(tmp_path / "d.nc", years=2)
+    cache.configure(directory=tmp_path / "cache")
+    try:
+        cache.clear()
+        a = climatology_bundle(cw.open_precip(path, validate=False), use_cache=True)
+        cache.clear()  # forget the in-memory copy, as a restarted kernel would
+        b = climatology_bundle(cw.open_precip(path, validate=False), use_cache=True)
+        assert cache.stats()["disk_hits"] == 1
+        xr.testing.assert_allclose(a["seasonal_share"], b["seasonal_share"])
+    finally:
+        cache.configure(directory=None)
