@@ -145,20 +145,29 @@ def _fast_rectilinear(geom, ylo, yhi, xlo, xhi) -> np.ndarray:
 
 
 def _general(geom, lon_corners, lat_corners) -> np.ndarray:
-    """Test every cell polygon: inside → 1, outside → 0, the rest clipped exactly."""
+    """Cells as polygons: those the outline touches are clipped exactly, the rest are
+    wholly inside or outside and take the state of their first corner."""
     shape = lon_corners.shape[:-1]
     coords = np.stack([lon_corners, lat_corners], axis=-1).reshape(-1, lon_corners.shape[-1], 2)
     cells = shapely.polygons(coords)
-    bad = ~shapely.is_valid(cells)
-    if bad.any():  # twisted quadrilaterals (corner order) are made valid before clipping
-        cells[bad] = shapely.make_valid(cells[bad])
-    weights = np.zeros(cells.size)
-    inside = shapely.contains(geom, cells)
-    weights[inside] = 1.0
-    edge = ~inside & shapely.intersects(geom, cells)
-    if edge.any():
-        weights[edge] = _exact(cells[edge], geom, shapely.area(cells[edge]))
+    # A cell whose closure misses the outline lies on one side of it; its corner too.
+    weights = shapely.contains_xy(geom, coords[:, 0, 0], coords[:, 0, 1]).astype(float)
+    edges = shapely.get_parts(shapely.boundary(shapely.get_parts(geom)))  # rings as lines
+    _, hit = shapely.STRtree(cells).query(shapely.segmentize(edges, _long_edge(coords)), predicate="intersects")
+    hit = np.unique(hit)
+    if hit.size:
+        clip = cells[hit]
+        bad = ~shapely.is_valid(clip)
+        if bad.any():  # twisted quadrilaterals (corner order) are made valid before clipping
+            clip[bad] = shapely.make_valid(clip[bad])
+        weights[hit] = _exact(clip, geom, shapely.area(clip))
     return weights.reshape(shape)
+
+
+def _long_edge(coords) -> float:
+    """Split outline edges longer than ~50 cells so tree queries stay local."""
+    span = np.ptp(coords[..., 0], axis=-1).mean() + np.ptp(coords[..., 1], axis=-1).mean()
+    return max(50.0 * span, 1e-6)
 
 
 def _compute_block(basin, bounds):

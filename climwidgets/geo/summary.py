@@ -13,6 +13,7 @@ import pandas as pd
 import xarray as xr
 
 from ..errors import ParameterError
+from ..provenance import history_line
 from .aggregate import ACRE_FOOT_M3, basin_mean, basin_weights
 from .basin import Basin
 
@@ -110,6 +111,8 @@ def basin_summary(pr: xr.DataArray, basins, months=(7, 8), baseline=(1991, 2020)
         months=list(months), baseline=list(baseline), year_start=year_start,
         season_year_start=season_start,
         note="areas on a sphere of the authalic radius 6371007.2 m; planning-level figures from gridded data",
+        history=history_line("basin_summary", basins=[b.name for b in basins], months=tuple(months),
+                             baseline=tuple(baseline), year_start=year_start),
     )
     return table
 
@@ -158,5 +161,7 @@ def scenario_delta(pr: xr.DataArray, basin, months=(11, 12, 1, 2, 3), percent: f
                      "delta_volume_per_year_acre_ft": delta / ACRE_FOOT_M3})
     table = pd.DataFrame(rows).set_index("basin")
     table.attrs.update(months=list(months), percent=percent, year_start=year_start,
-                       note="planning-level estimate: only the season's precipitation is scaled")
+                       note="planning-level estimate: only the season's precipitation is scaled",
+                       history=history_line("scenario_delta", basins=[b.name for b in basins],
+                                            months=tuple(months), percent=percent, year_start=year_start))
     return table

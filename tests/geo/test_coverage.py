@@ -156,3 +156,18 @@ def test_property_weights_bounded_and_area_consistent(cx, cy, rmax, n, seed):
     off = cw.Basin.from_vertices([(x + 20.0, y) for x, y in verts], name="moved")
     with pytest.raises(BasinError, match="outside the grid"):
         cw.coverage_weights(off, _GRID)
+
+
+def test_curvilinear_grid_and_basin_across_antimeridian():
+    # Translation invariance: the same grid and basin 10° west of 180° give the same weights.
+    ring = [(179.3, -27.5), (-178.9, -27.0), (-179.2, -24.8), (178.8, -25.3)]
+    west = [((x - 10.0 + 180.0) % 360.0) - 180.0 for x, _ in ring]
+    crossing = cw.Basin.from_vertices(ring, name="across")
+    assert crossing.geometry.geom_type == "MultiPolygon"
+    near = cw.Basin.from_vertices(list(zip(west, [y for _, y in ring])), name="west of it")
+    grid = rotated_grid(ny=14, nx=16, lat0=-29.0, lon0=177.0)
+    grid = grid.assign_coords(lon=((grid.lon + 180.0) % 360.0) - 180.0)
+    moved = grid.assign_coords(lon=grid.lon - 10.0)
+    moved = moved.assign_coords(lon=((moved.lon + 180.0) % 360.0) - 180.0)
+    np.testing.assert_allclose(cw.coverage_weights(crossing, grid).values,
+                               cw.coverage_weights(near, moved).values, atol=1e-9)

@@ -99,3 +99,13 @@ def test_scenario_delta():
                                    0.05 * seasonal_mm / 1000 * area / 1233.48183754752, rtol=1e-12)
     with pytest.raises(ParameterError, match="percent=-150.0 is not a usable change"):
         cw.scenario_delta(pr, WEST, percent=-150)
+
+
+def test_summary_with_cftime_noleap_calendar():
+    pr = _pr()
+    time = xr.date_range("1991-01-01", periods=pr.sizes["time"], freq="MS", calendar="noleap", use_cftime=True)
+    table = cw.basin_summary(pr.assign_coords(time=time), EAST)
+    annual, summer, _ = _expected(pr, EAST)
+    np.testing.assert_allclose(table.loc["east", "seasonal_share_1"], summer / annual, rtol=1e-12)
+    np.testing.assert_allclose(table.loc["east", "latest_year_percent_of_normal"], 150.0, rtol=1e-12)
+    assert "basin_summary" in table.attrs["history"]
