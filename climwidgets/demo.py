@@ -27,9 +27,7 @@ from __future__ import annotations
 import argparse
 import json
 import os
-import shutil
 import sys
-import tempfile
 import time as _time
 from dataclasses import dataclass
 from pathlib import Path
@@ -37,6 +35,8 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 import xarray as xr
+from scipy.ndimage import gaussian_filter
+from scipy.special import ndtr
 
 from ._version import __version__
 from .errors import ParameterError
@@ -84,6 +84,7 @@ GEV_SCALE_RATIO = 0.25  # scale = ratio × location
 _P_WINTER = np.array([0.50, 0.47, 0.42, 0.28, 0.15, 0.06, 0.02, 0.02, 0.08, 0.22, 0.40, 0.50])
 _P_SUMMER = np.array([0.0, 0.0, 0.0, 0.0, 0.0, 0.04, 0.30, 0.32, 0.08, 0.0, 0.0, 0.0])
 _WET_THRESHOLD_MM = 0.1  # lighter amounts are set to zero (dry days)
+_NOLEAP_DAYS = np.array([31, 28, 31, 30, 31, 30, 31, 31, 30, 31, 30, 31])
 
 
 @dataclass(frozen=True)
@@ -222,27 +223,28 @@ def _smooth_fields(rng, n, lat, lon, spacing):
 
 
 # --------------------------------------------------------------------------- simulation
-def _gev_params(lat, lon):
+def _storm_depths(lat, lon):
+    """Mean depth (mm) of a winter and of a summer storm day, per cell."""
     winter, summer = _patterns(lat, lon)
-    cond_w = winter / _expected_days(_P_WINTER, (11, 12, 1, 2, 3))
-    cond_s = summer / _expected_days(_P_SUMMER, (7, 8))
+    return winter / _expected_days(_P_WINTER, (11, 12, 1, 2, 3)), summer / _expected_days(_P_SUMMER, (7, 8))
+
+
+def _gev_params(cond_w, cond_s):
+    """GEV location and scale (mm): well above an ordinary year's largest storm day."""
     loc = 40.0 + 6.0 * cond_w + 3.0 * cond_s
     return loc, GEV_SCALE_RATIO * loc
 
 
 def _simulate(size: _Size):
-    """Daily depths (mm, float64) for the whole period, plus the GEV bookkeeping."""
+    """Daily depths (mm, float32) for the whole period, plus the GEV bookkeeping."""
     lat, _ = _axis(*LAT_RANGE, size.res)
     lon, _ = _axis(*LON_RANGE, size.res)
-    winter, summer = _patterns(lat, lon)
-    cond_w = winter / _expected_days(_P_WINTER, (11, 12, 1, 2, 3))
-    cond_s = summer / _expected_days(_P_SUMMER, (7, 8))
-    loc, scale = _gev_params(lat, lon)
+    cond_w, cond_s = _storm_depths(lat, lon)
+    loc, scale = _gev_params(cond_w, cond_s)
     k = GEV_SHAPE
-    area = np.cos(np.deg2rad(lat))[:, None] * np.ones(len(lon))
     all_months = range(1, 13)
-    expected_cell = (cond_w * _expected_days(_P_WINTER, all_months) + cond_s * _expected_days(_P_SUMMER, all_months))
-    expected = (expected_cell * area).sum() / area.sum()
+    expected = _domain_mean(cond_w * _expected_days(_P_WINTER, all_months)
+                            + cond_s * _expected_days(_P_SUMMER, all_months), lat)
     y0, y1 = size.years
     days = pd.date_range(f"{y0}-01-01", f"{y1}-12-31", freq="D")
     out = np.empty((len(days), len(lat), len(lon)), dtype=np.float32)
@@ -265,12 +267,12 @@ def _simulate(size: _Size):
         depth = (wet_w * g_w)[:, None, None] * mod_w * cond_w + (wet_s * g_s)[:, None, None] * mod_s * cond_s
         # rescale so that the year's domain-mean total is exactly factor × the expected
         # total: notable years then stand out by the documented amount
-        depth *= factor * expected / ((depth.sum(axis=0) * area).sum() / area.sum())
+        depth *= factor * expected / _domain_mean(depth.sum(axis=0), lat)
         depth[depth < _WET_THRESHOLD_MM] = 0.0
         # The year's big storm: GEV margins at every cell, spatially coherent through a
         # Gaussian copula (smooth field + independent part, unit variance).
         z = np.sqrt(0.6) * _smooth_fields(rng, 1, lat, lon, 1.0)[0] + np.sqrt(0.4) * rng.standard_normal(loc.shape)
-        u = np.clip(0.5 * (1 + _erf(z / np.sqrt(2))), 1e-12, 1 - 1e-12)
+        u = np.clip(ndtr(z), 1e-12, 1 - 1e-12)
         am = loc + scale / k * (1 - (-np.log(u)) ** k)  # GEV quantile, Hosking (1990)
         season = np.flatnonzero(np.isin(month, (11, 12, 1, 2, 3)))
         day = int(season[rng.integers(len(season))])
@@ -284,12 +286,6 @@ def _simulate(size: _Size):
     n_cells = out.shape[0] * out.shape[1] * out.shape[2]
     return dict(lat=lat, lon=lon, days=days, depth=out, annual_max=annual_max, loc=loc, scale=scale,
                 storm_dates=storm_dates, factors=factors, capped_fraction=capped / n_cells)
-
-
-def _erf(x):
-    from scipy.special import erf
-
-    return erf(x)
 
 
 # --------------------------------------------------------------------------- datasets
@@ -321,26 +317,24 @@ def _scenario_attrs() -> dict:
     }
 
 
-def _coords(lat, lon) -> dict:
-    return {
+def _grid_ds(lat, lat_b, lon, lon_b, **data_vars) -> xr.Dataset:
+    ds = xr.Dataset(data_vars, coords={
         "lat": ("lat", lat, {"standard_name": "latitude", "long_name": "latitude", "units": "degrees_north",
                              "axis": "Y", "bounds": "lat_bnds"}),
         "lon": ("lon", lon, {"standard_name": "longitude", "long_name": "longitude", "units": "degrees_east",
-                             "axis": "X", "bounds": "lon_bnds"}),
-    }
-
-
-def _grid_ds(lat, lat_b, lon, lon_b, **data_vars) -> xr.Dataset:
-    ds = xr.Dataset(data_vars, coords=_coords(lat, lon))
+                             "axis": "X", "bounds": "lon_bnds"})})
     ds["lat_bnds"] = (("lat", "bnds"), lat_b)
     ds["lon_bnds"] = (("lon", "bnds"), lon_b)
     return ds
 
 
-def _time_vars(starts, ends):
-    return {"time": ("time", starts, {"standard_name": "time", "long_name": "time", "axis": "T",
-                                       "bounds": "time_bnds"}),
-            "time_bnds": (("time", "bnds"), np.stack([starts, ends], axis=1))}
+def _series_ds(lat, lat_b, lon, lon_b, starts, ends, values, pr_attrs: dict) -> xr.Dataset:
+    """A "pr" series on the grid, time stamped at interval starts with CF time bounds."""
+    ds = _grid_ds(lat, lat_b, lon, lon_b, pr=(("time", "lat", "lon"), values.astype(np.float32), pr_attrs))
+    ds = ds.assign_coords(time=("time", starts, {"standard_name": "time", "long_name": "time", "axis": "T",
+                                                 "bounds": "time_bnds"}))
+    ds["time_bnds"] = (("time", "bnds"), np.stack([starts, ends], axis=1))
+    return ds
 
 
 def _time_encoding(calendar: str) -> dict:
@@ -360,12 +354,10 @@ def _daily_ds(sim, lat_b, lon_b) -> xr.Dataset:
     days = sim["days"].to_numpy()
     ends = (sim["days"] + pd.Timedelta(days=1)).to_numpy()
     flux = (sim["depth"] / np.float32(86400.0)).astype(np.float32)
-    ds = _grid_ds(sim["lat"], lat_b, sim["lon"], lon_b, pr=(("time", "lat", "lon"), flux, {
+    ds = _series_ds(sim["lat"], lat_b, sim["lon"], lon_b, days, ends, flux, {
         "standard_name": "precipitation_flux", "long_name": "precipitation (daily mean rate)",
         "units": "kg m-2 s-1", "cell_methods": "time: mean",
-        "comment": "multiply by 86400 s for the day's depth in mm"}))
-    ds = ds.assign_coords({k: v for k, v in _time_vars(days, ends).items() if k == "time"})
-    ds["time_bnds"] = _time_vars(days, ends)["time_bnds"]
+        "comment": "multiply by 86400 s for the day's depth in mm"})
     y0, y1 = sim["days"][0].year, sim["days"][-1].year
     ds.attrs = _attrs(f"{ISLAND} demo: daily precipitation {y0}-{y1} (invented)") | _scenario_attrs()
     return ds
@@ -380,20 +372,15 @@ def _monthly_totals(daily_flux, days):
 
 def _monthly_ds(totals, y0, y1, lat, lat_b, lon, lon_b) -> xr.Dataset:
     s, e = _month_starts(y0, y1, "standard")
-    ds = _grid_ds(lat, lat_b, lon, lon_b, pr=(("time", "lat", "lon"), totals.astype(np.float32), {
+    ds = _series_ds(lat, lat_b, lon, lon_b, s, e, totals, {
         "standard_name": "lwe_thickness_of_precipitation_amount", "long_name": "monthly precipitation total",
-        "units": "mm", "cell_methods": "time: sum"}))
-    tv = _time_vars(s, e)
-    ds = ds.assign_coords(time=tv["time"])
-    ds["time_bnds"] = tv["time_bnds"]
+        "units": "mm", "cell_methods": "time: sum"})
     ds.attrs = _attrs(f"{ISLAND} demo: monthly precipitation totals {y0}-{y1} (invented)") | _scenario_attrs()
     return ds
 
 
 def _coarse_ds(totals, y0, y1, lat, lat_b, lon, lon_b, size: _Size):
     """Coarse product: conservative average, smoothing, seasonal bias, noleap monthly rates."""
-    from scipy.ndimage import gaussian_filter
-
     clat, clat_b = _axis(*LAT_RANGE, size.coarse_res)
     clon, clon_b = _axis(*LON_RANGE, size.coarse_res)
     s = np.sin(np.deg2rad(lat_b))
@@ -407,16 +394,12 @@ def _coarse_ds(totals, y0, y1, lat, lat_b, lon, lon_b, size: _Size):
     months = np.tile(np.arange(1, 13), y1 - y0 + 1)
     coarse *= np.array([COARSE_BIAS[m] for m in months])[:, None, None]
     starts, ends = _month_starts(y0, y1, "noleap")
-    noleap_days = np.array([31, 28, 31, 30, 31, 30, 31, 31, 30, 31, 30, 31])[months - 1]
-    rate = coarse / (noleap_days * 86400.0)[:, None, None]
-    ds = _grid_ds(clat, clat_b, clon, clon_b, pr=(("time", "lat", "lon"), rate.astype(np.float32), {
+    rate = coarse / (_NOLEAP_DAYS[months - 1] * 86400.0)[:, None, None]
+    ds = _series_ds(clat, clat_b, clon, clon_b, starts, ends, rate, {
         "standard_name": "precipitation_flux", "long_name": "precipitation (monthly mean rate)",
         "units": "kg m-2 s-1", "cell_methods": "time: mean",
         "comment": ("monthly total = rate × 86400 × days in the noleap month; February totals include the "
-                    "29th of leap years, spread over 28 days")}))
-    tv = _time_vars(starts, ends)
-    ds = ds.assign_coords(time=tv["time"])
-    ds["time_bnds"] = tv["time_bnds"]
+                    "29th of leap years, spread over 28 days")})
     ds.attrs = _attrs(f"{ISLAND} demo: second product, coarse grid, noleap calendar (invented, biased)")
     ds.attrs["bias"] = ("monthly totals × 1.08 in Nov-Mar, × 0.95 in Jun-Aug, × 1.00 otherwise, after conservative "
                         f"averaging to {size.coarse_res} deg and Gaussian smoothing (sigma {COARSE_SMOOTHING_SIGMA} cells)")
@@ -485,24 +468,26 @@ def _encoding(ds: xr.Dataset, tile: tuple[int, int, int] | None = None) -> dict:
     return enc
 
 
+def _part_path(path: Path) -> Path:
+    # a hidden sibling (same folder, so the rename is atomic) created with the user's umask
+    return path.with_name(f".{path.name}.{os.getpid()}.part")
+
+
 def _write_atomic(ds: xr.Dataset, path: Path, calendar: str = "standard", tile=None) -> None:
     enc = _encoding(ds, tile)
     if "time" in ds.variables:
         enc.update(_time_encoding(calendar))
-    fd, tmp = tempfile.mkstemp(suffix=".nc.part", dir=path.parent)
-    os.close(fd)
+    tmp = _part_path(path)
     try:
         ds.to_netcdf(tmp, engine="netcdf4", format="NETCDF4", encoding=enc)
         os.replace(tmp, path)
     finally:
-        if os.path.exists(tmp):
-            os.unlink(tmp)
+        tmp.unlink(missing_ok=True)
 
 
 def _write_text_atomic(text: str, path: Path) -> None:
-    fd, tmp = tempfile.mkstemp(suffix=".part", dir=path.parent)
-    with os.fdopen(fd, "w", encoding="utf-8") as f:
-        f.write(text)
+    tmp = _part_path(path)
+    tmp.write_text(text, encoding="utf-8")
     os.replace(tmp, path)
 
 
@@ -519,17 +504,20 @@ def default_directory() -> Path:
     return cache / "climwidgets" / "demo_grids"
 
 
+def _domain_mean(field, lat):
+    """Area-weighted mean over the last two (lat, lon) axes."""
+    w = np.cos(np.deg2rad(lat))[:, None] * np.ones(field.shape[-1])
+    return (field * w).sum(axis=(-2, -1)) / w.sum()
+
+
 def _scenario_summary(sim, totals, size: _Size, coarse: xr.Dataset) -> dict:
     y0, y1 = size.years
-    lat_w = np.cos(np.deg2rad(sim["lat"]))[:, None] * np.ones(len(sim["lon"]))
-    annual = totals.reshape(y1 - y0 + 1, 12, *totals.shape[1:]).sum(axis=1)
-    domain = (annual * lat_w).sum(axis=(1, 2)) / lat_w.sum()
+    n_years = y1 - y0 + 1
+    annual = totals.reshape(n_years, 12, *totals.shape[1:]).sum(axis=1)
+    domain = _domain_mean(annual, sim["lat"])
     mean = domain.mean()
-    ctot = coarse["pr"].values.astype(np.float64) * 86400.0
-    ndays = np.array([31, 28, 31, 30, 31, 30, 31, 31, 30, 31, 30, 31])
-    ctot = ctot * np.tile(ndays, y1 - y0 + 1)[:, None, None]
-    cw_ = np.cos(np.deg2rad(coarse.lat.values))[:, None] * np.ones(coarse.lon.size)
-    cmean = (ctot.sum(axis=0) * cw_).sum() / cw_.sum() / (y1 - y0 + 1)
+    ctot = coarse["pr"].values.astype(np.float64) * 86400.0 * np.tile(_NOLEAP_DAYS, n_years)[:, None, None]
+    cmean = _domain_mean(ctot.sum(axis=0), coarse.lat.values) / n_years
     return {
         "scenario_version": DEMO_VERSION, "climwidgets_version": __version__, "seed": SEED, "size": _size_meta(size),
         "invented": True, "island": ISLAND, "range": RANGE,
