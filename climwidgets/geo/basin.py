@@ -160,6 +160,9 @@ class Basin:
     def __init__(self, geometry, name: str = "basin"):
         if geometry is None or geometry.is_empty or geometry.geom_type not in ("Polygon", "MultiPolygon"):
             raise _err("geometry is empty or not a polygon", name, "use one of the Basin.from_* constructors")
+        if not geometry.is_valid:
+            raise _err(f"geometry is not valid ({shapely.is_valid_reason(geometry)})", name,
+                       "build it with Basin.from_wkt or Basin.from_geojson, which check and repair outlines")
         self._geometry = geometry
         self._name = str(name)
 

@@ -42,12 +42,12 @@ def test_from_vertices_and_geodesic_area():
 @pytest.mark.parametrize(
     ("verts", "pattern"),
     [
-        ([(0, 0), (1, 0)], r"basin 'bad': a ring has 2 distinct vertices.*at least 3"),
-        ([(0, 0), (1, 0), (0, 0), (1, 0)], r"2 distinct vertices"),
-        ([(0, 0), (1, np.nan), (1, 1)], r"vertex is NaN.*Fix: remove or correct"),
-        ([(0, 0), (1, 95), (1, 1)], r"latitude 95 is beyond ±90.*\(lon, lat\), not \(lat, lon\)"),
-        ([(0, 0), (1, 1), (2, 2)], r"zero area.*on one line"),
-        ([(0, 0), (1, 1), (1, 0), (0, 1)], r"crosses itself.*2 parts.*50\.0%.*redraw"),
+        ([(-30, 0), (-29, 0)], r"basin 'bad': a ring has 2 distinct vertices.*at least 3"),
+        ([(-30, 0), (-29, 0), (-30, 0), (-29, 0)], r"2 distinct vertices"),
+        ([(-30, 0), (-29, np.nan), (-29, 1)], r"vertex is NaN.*Fix: remove or correct"),
+        ([(-30, 0), (-29, 95), (-29, 1)], r"latitude 95 is beyond ±90.*\(lon, lat\), not \(lat, lon\)"),
+        ([(-30, 0), (-29, 1), (-28, 2)], r"zero area.*on one line"),
+        ([(-30, 0), (-29, 1), (-29, 0), (-30, 1)], r"crosses itself.*2 parts.*50\.0%.*redraw"),
     ],
 )
 def test_validation_messages(verts, pattern):
@@ -57,7 +57,7 @@ def test_validation_messages(verts, pattern):
 
 def test_tiny_self_intersection_is_repaired():
     # A double click that doubles back a hair: make_valid keeps > 99.9 % in one polygon.
-    verts = [(0, 0), (10, 0), (10, 10), (0, 10), (0.001, 10.001), (0, 10.0005)]
+    verts = [(-30, -20), (-20, -20), (-20, -10), (-30, -10), (-29.999, -9.999), (-30, -9.9995)]
     b = cw.Basin.from_vertices(verts, name="loop")
     assert b.geometry.is_valid and b.geometry.geom_type == "Polygon"
     np.testing.assert_allclose(b.geometry.area, 100.0, rtol=1e-4)
@@ -73,7 +73,7 @@ def test_antimeridian_is_split():
     b360 = cw.Basin.from_vertices([(179.0, -10), (181.0, -10), (181.0, -8), (179.0, -8)])
     assert b360.token == b.token
     # The geodesic area is that of the 2° × 2° box, on whichever side of 180° it lies.
-    ref = cw.Basin.from_vertices([(10.0, -10), (12.0, -10), (12.0, -8), (10.0, -8)])
+    ref = cw.Basin.from_vertices([(-30.0, -10), (-28.0, -10), (-28.0, -8), (-30.0, -8)])
     np.testing.assert_allclose(b.area_m2, ref.area_m2, rtol=1e-9)
 
 

@@ -114,7 +114,7 @@ def test_antimeridian_basin_on_global_grid():
 
 def test_outside_grid_raises_and_cache_is_used():
     grid = rect_grid(-35, -30, -150, -144, 0.5)
-    far = cw.Basin.from_vertices([(10, 10), (11, 10), (11, 11)], name="far away")
+    far = cw.Basin.from_vertices([(-30, -40), (-29, -40), (-29, -39)], name="far away")
     with pytest.raises(BasinError, match=r"basin 'far away': lies entirely outside the grid.*\(lon, lat\)"):
         cw.coverage_weights(far, grid)
     basin = cw.Basin.from_vertices([(-149, -34), (-146, -34), (-147, -31)])
