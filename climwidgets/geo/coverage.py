@@ -13,10 +13,13 @@ Fast path (rectilinear, contiguous bounds):
 3. every other cell is entirely inside or entirely outside; within a row, a run of such
    cells cannot change state, so one centre per run is tested (prepared geometry,
    ``shapely.contains_xy``);
-4. only boundary cells are intersected exactly (vectorised ``shapely.intersection``).
+4. only boundary cells are cut exactly: the outline is clipped to tiles of 16 × 16 cells
+   (``shapely.intersection``), then each cell's covered area comes from its tile's piece by
+   a vectorised Green's-theorem sum (see ``_rect_fractions``).
 
-Curvilinear grids (and rectilinear ones with gaps between cells) test every cell in the
-bounding box with vectorised ``contains``/``intersects`` and clip the rest.
+Curvilinear grids (and rectilinear ones with gaps between cells) build every cell polygon
+in the bounding box, find the cells the outline touches with an ``STRtree`` query, clip
+those exactly and give the others the inside/outside state of a corner.
 
 Results are cached by (grid token, basin token).  A basin that lies entirely outside the
 grid raises :class:`~climwidgets.errors.BasinError` (rather than returning zeros, which
