@@ -1,7 +1,7 @@
 """Standardized Precipitation Index (climwidgets/compute/spi.py).
 
 Sources: McKee, Doesken & Kleist (1993) and the WMO (2012) SPI User Guide (WMO-No. 1090)
-for the method and classes; Edwards & McKee (1997), Colorado State Univ. Climatology
+for the method and classes; Edwards & McKee (1997), Climatology
 Report 97-2, eqs. 3.6-3.8, for the Thom (1958) estimator; xclim 0.62.0 and scipy 1.17.1
 as reference libraries.
 """
