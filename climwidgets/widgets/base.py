@@ -62,6 +62,7 @@ from pathlib import Path
 
 import ipywidgets as widgets
 import pandas as pd
+from dask.callbacks import Callback
 
 from ..errors import InputError
 
@@ -72,44 +73,45 @@ class Superseded(Exception):
     """Raised inside a stale computation to stop it (never shown to users)."""
 
 
-class DaskProgress:
+class DaskProgress(Callback):
     """A dask local-scheduler callback that moves a progress bar and stops stale work.
 
-    Passed per computation (``dask.compute(obj, callbacks=[cb.callbacks])``) rather than
-    registered globally, so that two computations in two threads never mix counts.
+    Registered with ``with DaskProgress(...):`` around the whole computation, so that
+    compute functions that call ``dask.compute`` themselves are followed too.  Dask calls
+    these hooks from the thread that asked for the computation; hooks from other threads
+    (another widget computing at the same time) are ignored.  With a ``dask.distributed``
+    client the hooks are not called: the bar then only shows start and end.
     """
 
     def __init__(self, bar: widgets.FloatProgress, is_current):
+        super().__init__()
         self.bar = bar
         self.is_current = is_current
+        self.thread = threading.get_ident()
         self.total = 1
         self.done = 0
-        self.callbacks = (None, self._start_state, self._pretask, self._posttask, None)
+
+    def _mine(self):
+        return threading.get_ident() == self.thread
 
     def _start_state(self, dsk, state):
+        if not self._mine():
+            return
         self.total = max(1, len(state["ready"]) + len(state["waiting"]) + len(state.get("running", ())))
         self.done = 0
         if self.is_current():
             self.bar.value = 0.0
 
     def _pretask(self, key, dsk, state):
-        if not self.is_current():
+        if self._mine() and not self.is_current():
             raise Superseded(key)
 
     def _posttask(self, key, result, dsk, state, worker_id):
+        if not self._mine():
+            return
         self.done += 1
         if self.is_current():
             self.bar.value = min(1.0, self.done / self.total)
-
-
-def _has_distributed_client():
-    try:
-        from distributed import default_client
-
-        default_client()
-        return True
-    except (ImportError, ValueError):
-        return False
 
 
 def atomic_write(path, write, mode="wb"):
@@ -281,10 +283,9 @@ class BaseWidget(widgets.VBox):
         import dask
 
         try:
-            lazy = self.compute(**params)
-            cb = DaskProgress(self.progress, lambda: self._is_current(gen))
-            kwargs = {} if _has_distributed_client() else {"callbacks": [cb.callbacks]}
-            (computed,) = dask.compute(lazy, **kwargs)
+            with DaskProgress(self.progress, lambda: self._is_current(gen)):
+                lazy = self.compute(**params)
+                (computed,) = dask.compute(lazy)
             if not self._is_current(gen):
                 return
             result = self.finish(computed, params)
@@ -356,9 +357,10 @@ class BaseWidget(widgets.VBox):
                 path = self.export(write, suffix, stem)
             except InputError as exc:
                 self._show_error(exc)
-            except OSError as exc:
-                self._show_error(InputError(f"could not write the file ({exc})", source=str(self.export_dir),
-                                            fix="choose a writable export folder (widget.export_dir)"))
+            except Exception as exc:  # a message in the widget, not a silent failure in a callback
+                self._show_error(InputError(f"could not export ({type(exc).__name__}: {exc})",
+                                            source=str(self.export_dir),
+                                            fix="check the export folder (widget.export_dir) and try again"))
             else:
                 self.say(f"Saved {path}")
 

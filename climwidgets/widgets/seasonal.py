@@ -7,7 +7,8 @@ Controls, in plain words:
   second, inclusive, and may run over the new year (November to March is five months).
 * **Year starts in**: January (calendar year) or October (water year); the season is
   measured against the 12-month year that contains it (``cw.seasonal_fraction``).
-* **Years**: the range of year labels used.
+* **Years**: the range of year labels used; the slider's full range means "all complete
+  years" (a season over the new year has no year labelled with the record's first year).
 * **Averaging**: "ratio of sums" (sum of seasonal totals over sum of annual totals) or
   "mean of ratios" (average of each year's share).
 * **Chart basin**: the basin whose per-year share and Sen slope are charted.
@@ -139,7 +140,10 @@ class SeasonalShareWidget(BaseWidget):
         wraps = months[-1] < months[0]
         self.season_note.value = (f"<small>{len(months)} months ({label})"
                                   f"{', over the new year' if wraps else ''}</small>")
-        return {"months": months, "how": self.how.value, "years": tuple(self.years.value),
+        years = tuple(self.years.value)
+        if years == (self.years.min, self.years.max):
+            years = None  # the whole record: every complete season-year, whatever its label
+        return {"months": months, "how": self.how.value, "years": years,
                 "year_start": self.year_start.value, "basins": list(self.tools.basins),
                 "chart_basin": self.chart_basin.value}
 
@@ -179,7 +183,9 @@ class SeasonalShareWidget(BaseWidget):
             ds["basin_share"].attrs = {"units": "1", "long_name": "basin seasonal share",
                                        "method": "cw.seasonal_fraction of the cw.basin_mean series", "how": how}
             ds["per_year"].attrs = {"units": "1", "long_name": "basin seasonal share, per year"}
-        ds.attrs = {"season_months": list(months), "how": how, "years": list(years), "year_start": ys}
+        used = computed["share"].attrs.get("years", [None, None])
+        ds.attrs = {"season_months": list(months), "how": how, "first_year": used[0], "last_year": used[1],
+                    "year_start": ys}
         return ds
 
     # ------------------------------------------------------------ display
@@ -205,7 +211,7 @@ class SeasonalShareWidget(BaseWidget):
         self.map.show_field(result["share"], kind="share", vmin=0.0,
                             label=f"seasonal share {label} [fraction of the year's total]",
                             title=f"Share of annual precipitation falling {label}, "
-                                  f"{params['years'][0]}–{params['years'][1]}")
+                                  f"{result.attrs['first_year']}–{result.attrs['last_year']}")
         self.show_table(self.basin_table(result))
         name = params["chart_basin"]
         if name is not None and "basin_share" in result and name in list(result["basin"].values):

@@ -1,0 +1,109 @@
+"""BaseWidget machinery: stale computations are dropped, errors become messages, exports."""
+
+from __future__ import annotations
+
+import threading
+
+import ipywidgets as widgets
+import pytest
+
+from climwidgets.compute.totals import annual_totals
+from climwidgets.errors import ParameterError
+from climwidgets.widgets.base import BaseWidget, unique_path
+
+from ._data import monthly_pr
+
+
+class _Totals(BaseWidget):
+    """A minimal widget: mean annual total for a chosen year start."""
+
+    title = "test <widget>"
+
+    def __init__(self, pr, gate=None, **kwargs):
+        self.pr = pr
+        self.gate = gate
+        self.year_start = widgets.IntSlider(value=1, min=1, max=13)
+        self.rendered = []
+        super().__init__(**kwargs)
+        self.watch(self.year_start)
+        self.refresh()
+
+    def build_controls(self):
+        return [self.year_start]
+
+    def parameters(self):
+        return {"year_start": self.year_start.value}
+
+    def compute(self, year_start):
+        if self.gate is not None and year_start == 2:
+            self.gate.wait(10)  # hold this (soon stale) computation until a newer one finished
+        return annual_totals(self.pr, year_start=year_start).mean("year")
+
+    def render(self, result, params):
+        self.rendered.append(params["year_start"])
+        self.show_table(result.to_dataframe(name="mean").head(3))
+
+
+def test_result_matches_the_compute_function_and_dask_is_computed():
+    pr = monthly_pr(dask=True)
+    w = _Totals(pr)
+    result = w.wait()
+    expected = annual_totals(pr, year_start=1).mean("year").compute()
+    assert result.chunks is None
+    assert (result == expected).all()
+    assert w.table is not None and "<h3" in w.children[0].value and "&lt;widget&gt;" in w.children[0].value
+
+
+def test_a_stale_computation_is_discarded():
+    gate = threading.Event()
+    w = _Totals(monthly_pr(), gate=gate)
+    w.wait()
+    w.year_start.value = 2  # blocks in compute until released
+    w.year_start.value = 3  # supersedes it
+    w.wait()
+    gate.set()
+    import time
+
+    for _ in range(100):  # let the stale thread run to its end
+        if not any(t.name.endswith("-2") for t in threading.enumerate()):
+            break
+        time.sleep(0.05)
+    assert w.rendered[-1] == 3 and 2 not in w.rendered
+    assert w.result.equals(annual_totals(w.pr, year_start=3).mean("year"))
+
+
+def test_bad_parameter_is_a_message_not_a_traceback():
+    w = _Totals(monthly_pr())
+    w.wait()
+    w.year_start.value = 13
+    w.wait()
+    assert isinstance(w.error, ParameterError)
+    assert "year_start" in w.message.value and "Traceback" not in w.message.value
+    w.year_start.value = 10
+    w.wait()
+    assert w.error is None and w.message.value == ""
+
+
+def test_compute_now_runs_in_the_calling_thread():
+    w = _Totals(monthly_pr())
+    w.year_start.value = 10
+    assert w.compute_now().equals(annual_totals(w.pr, year_start=10).mean("year"))
+
+
+def test_csv_export_is_written_and_never_overwrites(tmp_path):
+    w = _Totals(monthly_pr(), export_dir=tmp_path)
+    w.wait()
+    csv_button = w.exports.children[0]
+    csv_button.click()
+    csv_button.click()
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["climwidgets-2.csv", "climwidgets.csv"]
+    assert "Saved" in w.message.value
+    assert unique_path(tmp_path, "climwidgets.csv").name == "climwidgets-3.csv"
+
+
+def test_export_before_any_result_is_a_message(tmp_path):
+    w = BaseWidget(export_dir=tmp_path)
+    w.exports.children[0].click()
+    assert "no table to export" in w.message.value
+    with pytest.raises(NotImplementedError):
+        w.compute()
