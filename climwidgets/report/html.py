@@ -54,6 +54,7 @@ footer { margin-top: 2.5rem; font-size: .8rem; color: var(--muted); border-top: 
 @media print {
   body { max-width: none; padding: 0; font-size: 11pt; }
   section { break-before: page; page-break-before: always; }
+  section#inputs { break-before: auto; page-break-before: auto; }  /* keep the title page full */
   table, figure, .notice, pre { break-inside: avoid; page-break-inside: avoid; }
   thead { display: table-header-group; }
   tr { break-inside: avoid; page-break-inside: avoid; }
@@ -190,7 +191,7 @@ def render_html(content: ReportContent, figures: bool = True) -> str:
     parts.append(_section("parameters", "Parameters", _kv_table(params)))
     parts.append(_section("basins", "Basin summary",
                           "<div id='basin-table'>" + _table_html(content.table) + "</div>"
-                          + "".join(f"<p>{_e(n)}</p>" for n in content.notes)))
+                          + "".join(f"<p>{_e(str(n)[:1].upper() + str(n)[1:])}</p>" for n in content.notes)))
     if figures and content.maps:
         body = []
         for caption, (field, kind) in content.maps.items():
