@@ -236,29 +236,48 @@ def _combine(parts, source_list):
     return da, tb
 
 
-def _mask_fill_heuristics(da: xr.DataArray, attrs: dict) -> tuple[xr.DataArray, str | None]:
-    """Files without a _FillValue sometimes store 1e20 or -9999 for missing; treat them as missing."""
-    if "_FillValue" in da.encoding or "missing_value" in da.encoding or "_FillValue" in attrs:
-        return da, None
-    bad = (abs(da) >= 1e15)
-    for v in _LIKELY_FILL:
-        bad = bad | (da == v)
-    return da.where(~bad), "values >= 1e15 and -9999/-999/-99999 treated as missing (no _FillValue in the file)"
+def _needs_fill_heuristics(da: xr.DataArray, attrs: dict) -> bool:
+    """Files without a _FillValue sometimes store 1e20 or -9999 for missing values."""
+    return not ("_FillValue" in da.encoding or "missing_value" in da.encoding or "_FillValue" in attrs)
 
 
-def _to_mm(da: xr.DataArray, units: UnitInfo, step: str, source, name) -> tuple[xr.DataArray, str]:
+def _conversion(da: xr.DataArray, units: UnitInfo, step: str, source, name):
+    """Factor per time step that turns stored values into mm per step, and its description."""
     if units.kind == "depth":
-        return da * units.to_mm, f"depth in '{units.text}' x {units.to_mm:g} -> mm"
+        return units.to_mm, f"depth in '{units.text}' x {units.to_mm:g} -> mm"
     if units.per_month:
         if step != "month":
             raise UnitsError(f"has per-month units '{units.text}' but {step}ly time steps", source=source,
                              variable=name, expected="monthly data for per-month units",
                              fix="set the units to the actual rate (for example mm/day)")
-        return da * units.to_mm, f"monthly depth in '{units.text}' x {units.to_mm:g} -> mm"
+        return units.to_mm, f"monthly depth in '{units.text}' x {units.to_mm:g} -> mm"
     seconds = timeaxis.step_seconds(da["time"], step)
     how = ("x days in each month of the file's calendar x 86400 s" if step == "month"
            else f"x {timeaxis.STEP_SECONDS[step]:g} s per {step}")
-    return da * (seconds * units.to_mm), f"rate in '{units.text}' x {units.to_mm:g} -> mm/s, {how}"
+    return seconds * units.to_mm, f"rate in '{units.text}' x {units.to_mm:g} -> mm/s, {how}"
+
+
+def _convert_block(block, factor, mask_fill: bool, guard: bool):
+    """Stored values -> mm per step in one pass over a chunk (float64 for accurate sums).
+
+    ``guard`` raises on negatives beyond the tolerance and zeroes the tiny ones; it runs as
+    each chunk is read, so large inputs are checked without a separate pass.
+    """
+    x = np.array(block, dtype=np.float64)
+    if mask_fill:
+        bad = np.abs(x) >= 1e15
+        for v in _LIKELY_FILL:
+            bad |= x == v
+        x[bad] = np.nan
+    x *= factor
+    if guard:
+        lowest = np.nanmin(x, initial=0.0)
+        if lowest < -NEGATIVE_TOLERANCE_MM:
+            raise DataValueError(f"has negative precipitation (lowest {lowest:.4g} mm) in a chunk read from disk",
+                                 expected="precipitation depths >= 0",
+                                 fix="open with validate=True to find where, and check scale_factor/add_offset and units")
+        x[x < 0] = 0.0
+    return x
 
 
 def _check_values(da: xr.DataArray, source, name):
@@ -278,14 +297,6 @@ def _check_values(da: xr.DataArray, source, name):
                              f"first at {loc})", source=source, variable=name,
                              expected="precipitation depths >= 0", fix="check the scale_factor/add_offset and units; "
                              "clip small negatives with .clip(min=0) if they are interpolation noise")
-
-
-def _negative_guard(block: np.ndarray) -> np.ndarray:
-    if np.nanmin(block, initial=0.0) < -NEGATIVE_TOLERANCE_MM:
-        raise DataValueError(f"has negative precipitation (lowest {np.nanmin(block):.4g} mm) in a chunk read from disk",
-                             expected="precipitation depths >= 0",
-                             fix="open with validate=True to find where, and check scale_factor/add_offset and units")
-    return np.where(block < 0, 0.0, block)
 
 
 def open_precip(source, var=None, chunks="auto", validate="auto") -> xr.DataArray:
@@ -320,8 +331,18 @@ def open_precip(source, var=None, chunks="auto", validate="auto") -> xr.DataArra
     where = sources[0] if len(sources) == 1 else f"{sources[0]} (+{len(sources) - 1} more)"
     step = timeaxis.infer_step(da["time"], tbounds, source=where)
     units = parse_units(attrs.get("units"), source=where, variable=name)
-    da, fill_note = _mask_fill_heuristics(da, attrs)
-    da, conversion = _to_mm(da, units, step, where, name)
+    mask_fill = _needs_fill_heuristics(da, attrs)
+    fill_note = ("values >= 1e15 and -9999/-999/-99999 treated as missing (no _FillValue in the file)"
+                 if mask_fill else None)
+    factor, conversion = _conversion(da, units, step, where, name)
+    if chunks is None:
+        da = da.compute()
+    eager = validate is True or (validate == "auto" and da.size <= EAGER_CHECK_MAX_VALUES)
+    da = xr.apply_ufunc(_convert_block, da, factor, kwargs={"mask_fill": mask_fill, "guard": not eager},
+                        dask="parallelized", output_dtypes=[np.float64], keep_attrs=False)
+    if eager:
+        _check_values(da, where, name)
+        da = da.where(~(da < 0), 0.0)  # tiny negatives within tolerance
     if step == "month":
         da = da.assign_coords(time=timeaxis.month_starts(da["time"]))
     full = timeaxis.full_axis(da["time"], step)
@@ -330,14 +351,6 @@ def open_precip(source, var=None, chunks="auto", validate="auto") -> xr.DataArra
         gaps = 0  # irregular stamps (mixed times of day): leave the axis as it is
     if gaps > 0:
         da = da.reindex(time=full)  # missing steps become NaN (lazy), so no period is silently short
-    if chunks is None:
-        da = da.compute()
-    eager = validate is True or (validate == "auto" and da.size <= EAGER_CHECK_MAX_VALUES)
-    if eager:
-        _check_values(da, where, name)
-        da = da.where(~(da < 0), 0.0)  # tiny negatives within tolerance
-    elif da.chunks is not None:
-        da = da.copy(data=da.data.map_blocks(_negative_guard, dtype=da.dtype))
     out_attrs = {
         "units": "mm",
         "standard_name": "lwe_thickness_of_precipitation_amount",
