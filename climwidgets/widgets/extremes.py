@@ -1,0 +1,220 @@
+"""ExtremesWidget: design-storm depths (return levels) with uncertainty and a warming what-if.
+
+Controls: duration (days, or hours for hourly data), return period, confidence level,
+calendar or water year, bootstrap size, and a warming what-if (ΔT in °C and the rate in
+% per °C).  The map shows the return level of every cell (``cw.annual_maxima`` then
+``cw.return_levels``); the basin table gives the areal depth of each basin — the return
+level of the basin-mean n-day maxima — with its interval.  The design-depth cautions
+(``cw.DESIGN_DEPTH_CAUTIONS``) stay visible at the top of the widget.
+
+``widget.levels`` is the Dataset of ``cw.return_levels`` for all return periods in
+:data:`PERIODS`; ``widget.result`` is the same after ``cw.warming_scaling`` with the
+chosen ΔT and rate (identical numbers at ΔT = 0).  Changing the return period, the map
+layer or the warming only redraws; the other controls refit.  Fitting every cell with a
+bootstrap is the heavy part: ``n_boot`` defaults to 200 here (1000 or more for final
+numbers) and a progress bar runs meanwhile.
+"""
+
+from __future__ import annotations
+
+import html
+
+import ipywidgets as widgets
+import numpy as np
+import pandas as pd
+import xarray as xr
+
+from ..compute.extremes import DAY_DURATIONS, HOUR_DURATIONS, annual_maxima
+from ..compute.gev import return_levels
+from ..compute.warming import DESIGN_DEPTH_CAUTIONS, warming_scaling
+from ..errors import ParameterError
+from ..geo.aggregate import basin_mean
+from .anomaly import whole_grid_basin
+from .base import BaseWidget
+from .mapframe import MapFrame
+
+__all__ = ["ExtremesWidget", "PERIODS", "cautions_html"]
+
+PERIODS = (2, 5, 10, 25, 50, 100)
+LEVELS = (0.8, 0.9, 0.95)
+AREAL_NOTE = ("Basin depths are areal: the return level of the basin-mean maxima. "
+              "Areal depths are lower than point (gauge) depths of the same return period.")
+
+
+def cautions_html(cautions=DESIGN_DEPTH_CAUTIONS) -> str:
+    items = "".join(f"<li>{html.escape(c)}</li>" for c in cautions)
+    return ("<div style='border:1px solid #c9a227;background:#fff8e1;padding:4px 10px;"
+            "font-size:12px;margin:4px 0'><b>Design-depth cautions</b><ul style='margin:2px 0'>"
+            f"{items}</ul></div>")
+
+
+class ExtremesWidget(BaseWidget):
+    """Return levels per cell and per basin, with intervals and a warming what-if.
+
+    Parameters
+    ----------
+    pr : DataArray
+        Daily or hourly precipitation depth per step in mm (dims time, lat, lon).
+    basins : list of Basin, optional
+        Basins for the table; without them the whole grid is used.
+    n_boot : int, default 200
+        Bootstrap resamples for the intervals (kept modest so the widget stays quick).
+    export_dir : folder for the export buttons.
+    """
+
+    title = "Design-storm depths: return levels"
+    export_stem = "return_levels"
+
+    def __init__(self, pr, basins=None, n_boot=200, export_dir="out"):
+        step = getattr(pr, "attrs", {}).get("step") if isinstance(pr, xr.DataArray) else None
+        if step not in ("day", "hour"):
+            raise ParameterError(f"the precipitation step is {step!r}", source="ExtremesWidget", variable="pr",
+                                 expected="daily or hourly precipitation (attrs['step'] 'day' or 'hour')",
+                                 fix="open the daily or hourly file with cw.open_precip")
+        self.pr = pr
+        self.step_kind = step
+        self.basins = list(basins or [])
+        whole = whole_grid_basin(pr) if not self.basins else None
+        self._table_basins = self.basins or ([whole] if whole is not None else [])
+        self.levels = None
+        self.basin_levels = {}
+        self._pending = {}
+        self._basin_pr = None
+        style = {"description_width": "120px"}
+        lay = widgets.Layout(width="300px")
+        if step == "day":
+            opts = [(f"{d} day{'s' if d > 1 else ''}", d) for d in DAY_DURATIONS]
+        else:
+            opts = [(f"{h} hour{'s' if h > 1 else ''}", h) for h in HOUR_DURATIONS]
+        self.duration = widgets.Dropdown(options=opts, value=opts[0][1] if step == "day" else 24,
+                                         description="Duration", style=style, layout=lay)
+        self.period = widgets.Dropdown(options=[(f"{t} years", t) for t in PERIODS], value=100,
+                                       description="Return period", style=style, layout=lay)
+        self.level = widgets.Dropdown(options=[(f"{c:.0%}", c) for c in LEVELS], value=0.9,
+                                      description="Confidence level", style=style, layout=lay)
+        self.year = widgets.Dropdown(options=[("calendar (Jan-Dec)", 1), ("water year (Oct-Sep)", 10)], value=1,
+                                     description="Year", style=style, layout=lay)
+        self.n_boot = widgets.BoundedIntText(value=int(n_boot), min=50, max=20000, step=50,
+                                             description="Bootstrap samples", style=style, layout=lay)
+        self.layer = widgets.Dropdown(options=[("estimate", "estimate"), ("lower bound", "lower"),
+                                               ("upper bound", "upper")], value="estimate",
+                                      description="Map shows", style=style, layout=lay)
+        self.delta_t = widgets.FloatSlider(value=0.0, min=0.0, max=5.0, step=0.5, description="Warming ΔT (°C)",
+                                           style=style, layout=lay, continuous_update=False)
+        self.rate = widgets.FloatSlider(value=7.0, min=0.0, max=14.0, step=0.5, description="Rate (% per °C)",
+                                        style=style, layout=lay, continuous_update=False)
+        super().__init__(map_frame=MapFrame(basins=self.basins, kind="total"), export_dir=export_dir)
+        # the cautions sit under the title and never go away
+        self.cautions = widgets.HTML(cautions_html())
+        self.areal_note = widgets.HTML(f"<small>{html.escape(AREAL_NOTE)}</small>")
+        kids = list(self.children)
+        at = 1 if self.title else 0
+        kids.insert(at, self.cautions)
+        kids.insert(kids.index(self.table_html), self.areal_note)
+        self.children = kids
+        self.watch(self.duration, self.level, self.year, self.n_boot)
+        for control in (self.period, self.layer, self.delta_t, self.rate):
+            control.observe(self._redraw, names="value")
+        self.refresh()
+
+    # ------------------------------------------------------------ BaseWidget hooks
+    def build_controls(self):
+        what_if = widgets.HTML("<small>Warming what-if: depths scaled by (1 + rate)<sup>ΔT</sup>, "
+                               "about 7 % per °C from the Clausius-Clapeyron relation.</small>")
+        return [self.duration, self.period, self.level, self.year, self.n_boot, self.layer,
+                self.delta_t, self.rate, what_if]
+
+    def parameters(self):
+        n_boot = int(self.n_boot.value)
+        if n_boot < 50:
+            raise ParameterError(f"{n_boot} bootstrap samples are too few", source="ExtremesWidget",
+                                 variable="n_boot", expected="at least 50 (1000 for final numbers)",
+                                 fix="raise the bootstrap samples")
+        key = "duration_days" if self.step_kind == "day" else "duration_hours"
+        return {key: int(self.duration.value), "year_start": int(self.year.value),
+                "ci": float(self.level.value), "n_boot": n_boot}
+
+    def _maxima(self, pr, year_start, **duration):
+        return annual_maxima(pr, year_start=year_start, **duration)
+
+    def compute(self, ci, n_boot, year_start, **duration):
+        if self._basin_pr is None:  # basin means do not depend on the parameters: read once
+            import dask
+
+            (self._basin_pr,) = dask.compute({b.name: basin_mean(self.pr, b) for b in self._table_basins})
+        kw = dict(periods=PERIODS, ci=ci, n_boot=n_boot)
+        levels = return_levels(self._maxima(self.pr, year_start, **duration), **kw)
+        basins = {name: return_levels(self._maxima(s, year_start, **duration), **kw)
+                  for name, s in self._basin_pr.items()}
+        return {"levels": levels, "basins": basins}
+
+    def finish(self, computed, params):
+        levels = computed["levels"]
+        self._pending = {id(levels): computed["basins"]}
+        return levels
+
+    def render(self, levels, params):
+        self.levels = levels
+        self.basin_levels = self._pending.pop(id(levels), {})
+        self._show()
+
+    # ------------------------------------------------------------ redraw only
+    def _warm(self, ds):
+        return warming_scaling(ds, float(self.delta_t.value), rate=float(self.rate.value) / 100.0)
+
+    def _redraw(self, *_):
+        if self.levels is None:
+            return
+        with self._render_lock:
+            self._show()
+
+    def _show(self):
+        self.result = self._warm(self.levels)
+        t = int(self.period.value)
+        field = self.result[self.layer.value].sel(period=t)
+        dur = self.levels.attrs.get("duration", "")
+        warm = f", +{self.delta_t.value:g} °C" if self.delta_t.value else ""
+        self.map.show_field(field, kind="total",
+                            label=f"{self.layer.value}, {t}-year {dur} depth [mm]",
+                            title=f"{t}-year {dur} precipitation depth{warm}")
+        self.show_table(self._table(t))
+        self.show_chart(self._chart())
+
+    def _table(self, t):
+        ci = self.levels.attrs.get("ci", 0.9)
+        rows = []
+        for name, ds in self.basin_levels.items():
+            warm = self._warm(ds).sel(period=t)
+            rows.append({"basin": name, "return period [years]": t,
+                         "areal depth [mm]": float(warm["estimate"]),
+                         f"lower {ci:.0%} [mm]": float(warm["lower"]),
+                         f"upper {ci:.0%} [mm]": float(warm["upper"]),
+                         "warming factor": float((1 + self.rate.value / 100.0) ** self.delta_t.value)})
+        return pd.DataFrame(rows).set_index("basin") if rows else None
+
+    def _chart(self):
+        from matplotlib.figure import Figure
+
+        fig = Figure(figsize=(6.5, 3.2))
+        ax = fig.add_subplot(1, 1, 1)
+        periods = np.asarray(PERIODS, dtype=float)
+        for i, (name, ds) in enumerate(self.basin_levels.items()):
+            colour = f"C{i % 10}"
+            ax.fill_between(periods, ds["lower"].values, ds["upper"].values, color=colour, alpha=0.15, lw=0)
+            ax.plot(periods, ds["estimate"].values, "o-", color=colour, ms=3, lw=1.2, label=str(name))
+            if self.delta_t.value:
+                ax.plot(periods, self._warm(ds)["estimate"].values, "--", color=colour, lw=1.0)
+        ax.axvline(self.period.value, color="k", ls=":", lw=0.8)
+        ax.set_xscale("log")
+        ax.set_xticks(periods, [f"{int(p)}" for p in periods])
+        ax.set_xlabel("return period [years]")
+        ax.set_ylabel(f"areal {self.levels.attrs.get('duration', '')} depth [mm]", fontsize=8)
+        ci = self.levels.attrs.get("ci", 0.9)
+        text = f"shaded: {ci:.0%} interval"
+        if self.delta_t.value:
+            text += f"; dashed: +{self.delta_t.value:g} °C at {self.rate.value:g} % per °C"
+        ax.set_title(text, fontsize=8)
+        ax.grid(alpha=0.3, which="both")
+        ax.legend(fontsize=7, loc="upper left")
+        fig.tight_layout()
+        return fig
