@@ -1,0 +1,174 @@
+"""ComparisonWidget: how two precipitation products agree, and basin climatology across all.
+
+Pick a reference and another product and an agreement metric (bias, ratio, RMSE,
+correlation, KGE, NSE).  The products are brought to common years, months and grid by
+``cw.align`` and compared by ``cw.compare``; the map shows the chosen metric (diverging
+brown-green for the bias, sequential for the others).  The table is
+``cw.products_basin_table`` over every product, with the spread across products; a bar
+chart shows each basin's mean annual total per product.
+
+``widget.result`` is the Dataset of ``cw.compare(aligned[reference], aligned[other])``;
+``widget.basin_table`` the DataFrame of ``cw.products_basin_table``.  Changing the metric
+only redraws; the season of the table is a constructor parameter.
+"""
+
+from __future__ import annotations
+
+import ipywidgets as widgets
+import numpy as np
+
+from ..compute.compare import align, compare, products_basin_table
+from ..errors import ParameterError
+from .anomaly import whole_grid_basin
+from .base import BaseWidget
+from .mapframe import MapFrame
+
+__all__ = ["ComparisonWidget", "METRICS"]
+
+METRICS = {
+    "bias": "bias (other - reference)",
+    "ratio": "ratio of means (other / reference)",
+    "rmse": "RMSE of monthly totals",
+    "corr": "correlation of monthly totals",
+    "kge": "Kling-Gupta efficiency",
+    "nse": "Nash-Sutcliffe efficiency",
+}
+_MONTHS = ["Jan", "Feb", "Mar", "Apr", "May", "Jun", "Jul", "Aug", "Sep", "Oct", "Nov", "Dec"]
+_UNITS = {"mm/yr": "mm per year", "mm": "mm per month", "1": "no unit"}
+
+
+class ComparisonWidget(BaseWidget):
+    """Agreement map of two products and the basin table across all products.
+
+    Parameters
+    ----------
+    datasets : dict of {name: DataArray}
+        Precipitation products (mm per step, any step, calendar and grid); at least two.
+    basins : list of Basin, optional
+        Basins of the table; without them the whole common grid is used.
+    months : tuple of int, default (7, 8)
+        Season whose share the table reports.
+    export_dir : folder for the export buttons.
+    """
+
+    title = "Comparing precipitation products"
+    export_stem = "comparison"
+
+    def __init__(self, datasets, basins=None, months=(7, 8), export_dir="out"):
+        if not isinstance(datasets, dict) or len(datasets) < 2:
+            raise ParameterError("a comparison needs at least two products", source="ComparisonWidget",
+                                 variable="datasets", expected="{'name': DataArray, ...} with two or more entries",
+                                 fix="pass e.g. {'gauge grid': pr_a, 'reanalysis': pr_b}")
+        self.datasets = dict(datasets)
+        self.basins = list(basins or [])
+        self.months = tuple(months)
+        self.basin_table = None
+        self._aligned = None
+        self._pending = {}
+        names = list(self.datasets)
+        style = {"description_width": "90px"}
+        lay = widgets.Layout(width="300px")
+        self.reference = widgets.Dropdown(options=names, value=names[0], description="Reference",
+                                          style=style, layout=lay)
+        self.other = widgets.Dropdown(options=names, value=names[1], description="Other",
+                                      style=style, layout=lay)
+        self.metric = widgets.Dropdown(options=[(label, key) for key, label in METRICS.items()], value="bias",
+                                       description="Metric", style=style, layout=lay)
+        super().__init__(map_frame=MapFrame(basins=self.basins, kind="difference"), export_dir=export_dir)
+        self.watch(self.reference, self.other)
+        self.metric.observe(self._redraw, names="value")
+        self.refresh()
+
+    # ------------------------------------------------------------ BaseWidget hooks
+    def build_controls(self):
+        note = widgets.HTML("<small>Products are compared as monthly totals over their common complete "
+                            "years, on the coarsest product's grid (conservative regridding).</small>")
+        return [self.reference, self.other, self.metric, note]
+
+    def parameters(self):
+        ref, other = self.reference.value, self.other.value
+        if ref == other:
+            raise ParameterError(f"reference and other are both {ref!r}", source="ComparisonWidget",
+                                 variable="other", expected="two different products",
+                                 fix="choose another product as 'Other'")
+        return {"reference": ref, "other": other}
+
+    def compute(self, reference, other):
+        if self._aligned is None:  # the common period and grid do not depend on the choice
+            self._aligned = align(self.datasets)
+        out = {"compare": compare(self._aligned[reference], self._aligned[other])}
+        if self.basin_table is None:
+            basins = self.basins or [b for b in [whole_grid_basin(self._aligned[reference])] if b is not None]
+            if basins:
+                out["table"] = products_basin_table(self.datasets, basins, months=self.months)
+        return out
+
+    def finish(self, computed, params):
+        ds = computed["compare"]
+        self._pending = {id(ds): computed.get("table")}
+        return ds
+
+    def render(self, result, params):
+        table = self._pending.pop(id(result), None)
+        if table is not None:
+            self.basin_table = table
+        self._params = params
+        self._show()
+
+    # ------------------------------------------------------------ redraw only
+    def _redraw(self, *_):
+        if self.result is None:
+            return
+        with self._render_lock:
+            self._show()
+
+    def _show(self):
+        metric = self.metric.value
+        field = self.result[metric]
+        units = field.attrs.get("units", "")
+        kind = "difference" if metric == "bias" else "sequential"
+        ref, other = self._params["reference"], self._params["other"]
+        mean = float(np.nanmean(np.asarray(field.values, dtype=float)))
+        self.map.show_field(field, kind=kind, label=f"{metric} [{_UNITS.get(units, units)}]",
+                            title=f"{other} against {ref}: {metric} (grid mean {mean:.3g})")
+        self.show_table(self._display_table())
+        if self.basin_table is not None:
+            self.show_chart(self._chart())
+
+    def _display_table(self):
+        """The basin table with column names in words (``widget.basin_table`` keeps the originals)."""
+        if self.basin_table is None:
+            return None
+        season = "-".join(_MONTHS[m - 1] for m in (self.months[0], self.months[-1])) \
+            if len(self.months) > 1 else _MONTHS[self.months[0] - 1]
+        names = {"annual_mean_mm": "mean annual total [mm]",
+                 "seasonal_share": f"seasonal share {season} [fraction]",
+                 "normal_mm": "annual normal [mm]", "trend_mm_per_year": "Sen slope [mm per year]",
+                 "trend_pvalue": "Mann-Kendall p-value"}
+        return self.basin_table.rename(columns=names)
+
+    def domain_mean(self, metric="bias") -> float:
+        """Plain mean over the grid cells of one metric map (cells without data left out)."""
+        return float(self.result[metric].mean(skipna=True))
+
+    def _chart(self):
+        from matplotlib.figure import Figure
+
+        table = self.basin_table
+        products = list(self.datasets)
+        basins = list(dict.fromkeys(table.index.get_level_values("basin")))
+        fig = Figure(figsize=(6.5, 3.0))
+        ax = fig.add_subplot(1, 1, 1)
+        width = 0.8 / len(products)
+        x = np.arange(len(basins))
+        for i, name in enumerate(products):
+            values = [table.loc[(b, name), "annual_mean_mm"] for b in basins]
+            ax.bar(x + (i - (len(products) - 1) / 2) * width, values, width, label=str(name),
+                   color=f"C{i % 10}")
+        ax.set_xticks(x, basins, fontsize=8)
+        ax.set_ylabel("mean annual total [mm]", fontsize=8)
+        ax.set_title(f"basin means per product, {table.attrs.get('period', '')}", fontsize=9)
+        ax.legend(fontsize=7)
+        ax.grid(alpha=0.3, axis="y")
+        fig.tight_layout()
+        return fig

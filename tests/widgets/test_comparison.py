@@ -1,0 +1,93 @@
+"""ComparisonWidget: each control gives the numbers of the public compute functions.
+
+References are the public functions called directly with the same parameters
+(cw.align, cw.compare, cw.products_basin_table), which are checked against published
+formulas in tests/compute.
+"""
+
+import numpy as np
+import pandas as pd
+import pytest
+import xarray as xr
+
+import climwidgets as cw
+
+pytest.importorskip("ipympl")
+
+
+def _product(res, calendar="standard", factor=1.0, seed=0, years=(2001, 2006)):
+    rng = np.random.default_rng(seed)
+    lat = np.arange(-5.0 + res / 2, -3.0, res)
+    lon = np.arange(60.0 + res / 2, 62.0, res)
+    time = xr.date_range(f"{years[0]}-01-01", periods=12 * (years[1] - years[0] + 1), freq="MS",
+                         calendar=calendar, use_cftime=calendar != "standard")
+    data = factor * rng.gamma(3.0, 25.0, size=(time.size, lat.size, lon.size))
+    return xr.DataArray(data, coords={"time": time, "lat": lat, "lon": lon}, dims=("time", "lat", "lon"),
+                        name="pr", attrs={"units": "mm", "step": "month"})
+
+
+@pytest.fixture(scope="module")
+def setup():
+    products = {"fine": _product(0.5, seed=1), "coarse": _product(1.0, "noleap", 1.1, seed=2),
+                "third": _product(0.5, seed=3, factor=0.9)}
+    basins = [cw.Basin.from_vertices([(60.0, -5.0), (61.0, -5.0), (61.0, -4.0), (60.0, -4.0)], name="south-west"),
+              cw.Basin.from_vertices([(61.0, -4.0), (62.0, -4.0), (62.0, -3.0), (61.0, -3.0)], name="north-east")]
+    w = cw.ComparisonWidget(products, basins=basins, export_dir="unused")
+    w.wait()
+    return products, basins, w
+
+
+def test_default_pair_and_basin_table(setup):
+    products, basins, w = setup
+    assert w.error is None
+    aligned = cw.align(products)
+    xr.testing.assert_allclose(w.result, cw.compare(aligned["fine"], aligned["coarse"]))
+    expected = cw.products_basin_table(products, basins)
+    pd.testing.assert_frame_equal(w.basin_table, expected)
+    assert w.table.columns[0] == "mean annual total [mm]"
+    assert w.table.columns[1] == "seasonal share Jul-Aug [fraction]"
+
+
+def test_swapping_products_recomputes(setup):
+    products, basins, w = setup
+    w.reference.value = "third"
+    w.wait()
+    aligned = cw.align(products)
+    xr.testing.assert_allclose(w.result, cw.compare(aligned["third"], aligned["coarse"]))
+    assert w.domain_mean("bias") == pytest.approx(float(w.result["bias"].mean()))
+    w.reference.value = "fine"
+    w.wait()
+
+
+@pytest.mark.parametrize("metric, kind, units", [("bias", "difference", "mm per year"),
+                                                 ("kge", "sequential", "no unit"),
+                                                 ("rmse", "sequential", "mm per month")])
+def test_metric_redraws_without_recomputing(setup, metric, kind, units):
+    products, basins, w = setup
+    gen = w._gen
+    w.metric.value = metric
+    assert w._gen == gen
+    shown = np.asarray(w.map.mesh.get_array()).reshape(w.result[metric].shape)
+    np.testing.assert_allclose(shown, w.result[metric].values)
+    assert w.map.mesh.climwidgets_kind == kind
+    assert w.map.cbar.ax.get_ylabel() == f"{metric} [{units}]"
+    if kind == "difference":  # diverging map centred on zero
+        lo, hi = w.map.mesh.get_clim()
+        assert lo == pytest.approx(-hi)
+
+
+def test_same_product_twice_is_a_message(setup):
+    products, basins, w = setup
+    before = w.result
+    w.other.value = "fine"
+    assert isinstance(w.error, cw.InputError)
+    assert "two different products" in w.message.value
+    assert w.result is before
+    w.other.value = "coarse"
+    w.wait()
+    assert w.error is None and w.message.value == ""
+
+
+def test_needs_two_products():
+    with pytest.raises(cw.InputError, match="at least two products"):
+        cw.ComparisonWidget({"only": _product(1.0)})
