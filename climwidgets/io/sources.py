@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import glob
 import os
+import warnings
 from pathlib import Path
 
 import xarray as xr
@@ -62,7 +63,9 @@ def open_raw(source: str) -> xr.Dataset:
     """Open one source lazily with times left undecoded (they are checked before decoding)."""
     try:
         if is_zarr(source):
-            return xr.open_dataset(source, engine="zarr", decode_times=False, chunks=None)
+            with warnings.catch_warnings():  # stores without consolidated metadata are fine
+                warnings.simplefilter("ignore", RuntimeWarning)
+                return xr.open_dataset(source, engine="zarr", decode_times=False, chunks=None)
         return xr.open_dataset(source, engine="netcdf4", decode_times=False, chunks=None, cache=False)
     except Exception as exc:  # every backend failure becomes one readable error
         if is_zarr(source):

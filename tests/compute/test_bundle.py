@@ -8,6 +8,7 @@ import xarray.backends.netCDF4_ as nc_backend
 
 import climwidgets as cw
 from climwidgets import cache
+from climwidgets.io import chunkreader, loader
 from climwidgets.compute.bundle import climatology_bundle
 
 
@@ -22,16 +23,25 @@ def _write(path, years=4, chunks=(30, 4, 5)):
     return path
 
 
-@pytest.fixture
-def counted_reads(monkeypatch):
+@pytest.fixture(params=[True, False], ids=["direct-reads", "xarray-backend"])
+def counted_reads(request, monkeypatch):
+    """Count reads of the variable through whichever reader the loader uses."""
     calls = []
-    original = nc_backend.NetCDF4ArrayWrapper._getitem
+    monkeypatch.setattr(loader, "DIRECT_CHUNK_READS", request.param)
+    original_backend = nc_backend.NetCDF4ArrayWrapper._getitem
+    original_direct = chunkreader.read_region
 
-    def counting(self, key):
-        calls.append(key)
-        return original(self, key)
+    def counting_backend(self, key):
+        if isinstance(key, tuple) and len(key) == 3:
+            calls.append(key)
+        return original_backend(self, key)
 
-    monkeypatch.setattr(nc_backend.NetCDF4ArrayWrapper, "_getitem", counting)
+    def counting_direct(index, region):
+        calls.append(region)
+        return original_direct(index, region)
+
+    monkeypatch.setattr(nc_backend.NetCDF4ArrayWrapper, "_getitem", counting_backend)
+    monkeypatch.setattr(chunkreader, "read_region", counting_direct)
     return calls
 
 
@@ -42,8 +52,7 @@ def test_bundle_reads_every_stored_chunk_once(tmp_path, counted_reads):
     counted_reads.clear()
     ds = climatology_bundle(pr, months=(7, 8), baseline=(2001, 2004), maxima_days=(1, 3), compute=True)
     # one read per dask chunk of the variable, for all six statistics together
-    data_reads = [k for k in counted_reads if isinstance(k, tuple) and len(k) == 3]
-    assert len(data_reads) == n_chunks
+    assert len(counted_reads) == n_chunks
     assert set(ds.data_vars) >= {"monthly_totals", "annual_totals", "seasonal_share", "normals", "annual_max_3day"}
 
 
