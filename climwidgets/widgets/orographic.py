@@ -1,0 +1,306 @@
+"""OrographicContrastWidget: windward versus leeward precipitation across a mountain crest.
+
+Controls: the wind direction (degrees the wind blows from), the crest (derived from the
+terrain, or drawn by clicking on the map), the distance bands from the crest (km), the
+confidence level and bootstrap size of the leeward/windward ratio, and the wind speed and
+temperature of the linear orographic model.
+
+The observed contrast comes from ``cw.rain_shadow`` on the per-year annual totals
+(``cw.annual_totals``), so the ratio carries a bootstrap interval over years; the
+height dependence from ``cw.elevation_gradient`` on each side; the physical expectation
+from ``cw.linear_orographic_precip`` (Smith & Barstad 2004) passed through the same
+``cw.rain_shadow`` with the same crest and bands, so that the observed and modelled
+ratios sit side by side in the table.
+
+``widget.result`` is the observed ``cw.rain_shadow`` Dataset; ``widget.model`` the
+modelled rate field, ``widget.model_contrast`` its ``cw.rain_shadow`` Dataset,
+``widget.gradients`` the ``cw.elevation_gradient`` Dataset per side and ``widget.crest``
+the crest used.
+"""
+
+from __future__ import annotations
+
+import ipywidgets as widgets
+import numpy as np
+import pandas as pd
+import xarray as xr
+
+from ..compute.linear_model import linear_orographic_precip
+from ..compute.orographic import crest_from_elevation, elevation_gradient, rain_shadow
+from ..compute.totals import annual_totals
+from ..errors import InsufficientDataError, ParameterError
+from .base import BaseWidget
+from .mapframe import MapFrame
+
+__all__ = ["OrographicContrastWidget", "parse_bands"]
+
+LAYERS = [("signed distance from the crest", "distance"), ("observed mean annual total", "observed"),
+          ("linear model (rate)", "model"), ("terrain", "terrain")]
+_MODEL_COLOUR = "#762a83"
+_SIDE_COLOURS = {"windward": "#1b7837", "leeward": "#b35806"}
+
+
+def parse_bands(text: str) -> tuple[float, ...]:
+    """'0, 25, 50' -> (0.0, 25.0, 50.0): band edges in km from the crest."""
+    try:
+        edges = tuple(float(v) for v in str(text).replace(";", ",").split(",") if v.strip())
+    except ValueError:
+        edges = ()
+    if len(edges) < 2 or any(b <= a for a, b in zip(edges, edges[1:])) or edges[0] < 0:
+        raise ParameterError(f"distance bands {text!r} are not increasing distances", source="OrographicContrastWidget",
+                             variable="distance bands", expected="two or more increasing distances in km, "
+                             "starting at 0 or more, e.g. '0, 25, 50'", fix="type the band edges separated by commas")
+    return edges
+
+
+class OrographicContrastWidget(BaseWidget):
+    """Windward/leeward contrast, profiles and the linear orographic model, side by side.
+
+    Parameters
+    ----------
+    pr : DataArray
+        Precipitation depth per step in mm (dims time, lat, lon).
+    elevation : DataArray
+        Terrain height in metres on the same (lat, lon) grid.
+    basins : list of Basin, optional
+        Outlines drawn on the map.
+    n_boot : int, default 500
+        Bootstrap resamples of years for the ratio's interval.
+    export_dir : folder for the export buttons.
+    """
+
+    title = "Windward and leeward: orographic contrast"
+    export_stem = "orographic_contrast"
+
+    def __init__(self, pr, elevation, basins=None, n_boot=500, export_dir="out"):
+        for name, obj in (("pr", pr), ("elevation", elevation)):
+            if not isinstance(obj, xr.DataArray):
+                raise ParameterError(f"{name} is a {type(obj).__name__}", source="OrographicContrastWidget",
+                                     variable=name, expected="an xarray DataArray",
+                                     fix="open it with cw.open_precip / cw.open_elevation")
+        self.pr = pr
+        self.elevation = elevation
+        self.basins = list(basins or [])
+        self.model = self.model_contrast = None
+        self.gradients = {}
+        self.crest = None
+        self.drawn_crest = []
+        self._annual = None
+        self._pending = {}
+        top = float(np.nanmax(np.asarray(elevation.values, dtype=float)))
+        style = {"description_width": "130px"}
+        lay = widgets.Layout(width="310px")
+        self.wind_from = widgets.FloatSlider(value=270.0, min=0.0, max=355.0, step=5.0, description="Wind from (°)",
+                                             style=style, layout=lay, continuous_update=False)
+        self.crest_mode = widgets.ToggleButtons(options=[("from terrain", "terrain"), ("drawn on map", "drawn")],
+                                                value="terrain", description="Crest", style=style)
+        self.min_height = widgets.BoundedFloatText(value=round(0.1 * top, -1), min=0.0, max=max(top, 1.0),
+                                                   description="Lowest crest (m)", style=style, layout=lay)
+        self.draw = widgets.ToggleButton(value=False, description="Draw crest", icon="pencil",
+                                         tooltip="click on the map to add crest points",
+                                         layout=widgets.Layout(width="auto"))
+        self.clear = widgets.Button(description="Clear crest", icon="times", layout=widgets.Layout(width="auto"))
+        self.bands = widgets.Text(value="0, 25, 50", description="Bands (km)", style=style, layout=lay,
+                                  continuous_update=False)
+        self.level = widgets.Dropdown(options=[("80%", 0.8), ("90%", 0.9), ("95%", 0.95)], value=0.9,
+                                      description="Confidence level", style=style, layout=lay)
+        self.n_boot = widgets.BoundedIntText(value=int(n_boot), min=50, max=20000, step=50,
+                                             description="Bootstrap samples", style=style, layout=lay)
+        self.wind_speed = widgets.FloatSlider(value=10.0, min=2.0, max=30.0, step=1.0, description="Wind speed (m/s)",
+                                              style=style, layout=lay, continuous_update=False)
+        self.temperature = widgets.FloatSlider(value=10.0, min=-10.0, max=30.0, step=1.0,
+                                               description="Temperature (°C)", style=style, layout=lay,
+                                               continuous_update=False)
+        self.layer = widgets.Dropdown(options=LAYERS, value="distance", description="Map shows",
+                                      style=style, layout=lay)
+        super().__init__(map_frame=MapFrame(basins=self.basins, kind="difference"), export_dir=export_dir)
+        self.watch(self.wind_from, self.crest_mode, self.min_height, self.bands, self.level, self.n_boot,
+                   self.wind_speed, self.temperature)
+        self.layer.observe(self._redraw, names="value")
+        self.clear.on_click(lambda _: self.clear_crest())
+        self.map.on_click(self._on_map_click)
+        self.refresh()
+
+    # ------------------------------------------------------------ BaseWidget hooks
+    def build_controls(self):
+        head = widgets.HTML("<b>Observed contrast</b>")
+        model = widgets.HTML("<b>Linear orographic model</b> <small>(Smith &amp; Barstad 2004)</small>")
+        return [head, self.wind_from, self.crest_mode, self.min_height, widgets.HBox([self.draw, self.clear]),
+                self.bands, self.level, self.n_boot, model, self.wind_speed, self.temperature, self.layer]
+
+    def parameters(self):
+        params = {"wind_from": float(self.wind_from.value), "band_km": parse_bands(self.bands.value),
+                  "ci": float(self.level.value), "n_boot": int(self.n_boot.value),
+                  "wind_speed": float(self.wind_speed.value), "temperature_c": float(self.temperature.value)}
+        if self.crest_mode.value == "drawn":
+            if len(self.drawn_crest) < 2:
+                raise ParameterError(f"the drawn crest has {len(self.drawn_crest)} point(s)",
+                                     source="OrographicContrastWidget", variable="crest",
+                                     expected="at least two points along the crest",
+                                     fix="switch on 'Draw crest' and click along the crest on the map")
+            params["ridge"] = list(self.drawn_crest)
+        else:
+            params["min_height"] = float(self.min_height.value)
+        return params
+
+    def compute(self, wind_from, band_km, ci, n_boot, wind_speed, temperature_c, ridge=None, min_height=None):
+        if self._annual is None:  # per-year totals do not depend on the parameters: once
+            self._annual = annual_totals(self.pr).compute()
+        annual = self._annual
+        crest = ridge if ridge is not None else crest_from_elevation(self.elevation, wind_from,
+                                                                     min_height=min_height)
+        observed = rain_shadow(annual, wind_from=wind_from, ridge=crest, band_km=band_km, n_boot=n_boot, ci=ci)
+        model = linear_orographic_precip(self.elevation, wind_speed=wind_speed, wind_from=wind_from,
+                                         temperature_c=temperature_c)
+        model_contrast = rain_shadow(model, wind_from=wind_from, ridge=crest, band_km=band_km)
+        mean = annual.mean("year", keep_attrs=True)
+        # sea-level cells (open water, or missing terrain read as 0 m) would pile up at 0 m
+        land = self.elevation > 0
+        gradients = {}
+        for side in ("windward", "leeward"):
+            try:
+                gradients[side] = elevation_gradient(mean, self.elevation, mask=land, side=side,
+                                                     distance_km=observed["distance_km"])
+            except InsufficientDataError:
+                pass  # too few cells on that side: no fit, the chart says so
+        return {"observed": observed, "model": model, "model_contrast": model_contrast, "mean": mean,
+                "gradients": gradients, "crest": crest}
+
+    def finish(self, computed, params):
+        observed = computed.pop("observed")
+        self._pending = {id(observed): computed}
+        return observed
+
+    def render(self, result, params):
+        extra = self._pending.pop(id(result), {})
+        self.model = extra.get("model")
+        self.model_contrast = extra.get("model_contrast")
+        self.gradients = extra.get("gradients", {})
+        self.crest = [tuple(map(float, p)) for p in extra.get("crest", [])]
+        self._mean = extra.get("mean")
+        self._params = params
+        self._show()
+
+    # ------------------------------------------------------------ crest drawing
+    def add_crest_point(self, lon, lat):
+        """Add a point to the drawn crest (what a click on the map does in drawing mode)."""
+        self.drawn_crest.append((float(lon), float(lat)))
+        self.map.set_overlay(self.drawn_crest)
+        if len(self.drawn_crest) < 2:
+            self.say("Crest point added: click at least one more.")
+        elif self.crest_mode.value != "drawn":
+            self.crest_mode.value = "drawn"  # recomputes
+        else:
+            self.refresh()
+
+    def clear_crest(self):
+        """Forget the drawn crest and go back to the crest derived from the terrain."""
+        self.drawn_crest = []
+        self.draw.value = False
+        if self.crest_mode.value == "drawn":
+            self.crest_mode.value = "terrain"
+        else:
+            self.map.set_overlay(self.crest or [])
+
+    def _on_map_click(self, lon, lat, event=None):
+        if self.draw.value:
+            self.add_crest_point(lon, lat)
+
+    # ------------------------------------------------------------ display
+    def _redraw(self, *_):
+        if self.result is None:
+            return
+        with self._render_lock:
+            self._show()
+
+    def _show(self):
+        layer = self.layer.value
+        if layer == "distance":
+            field = self.result["distance_km"]
+            self.map.show_field(field, kind="difference", label="distance from crest [km], < 0 windward",
+                                title=f"windward (< 0) and leeward (> 0), wind from {self._params['wind_from']:g}°")
+            with self.map.lock:  # sides, not wetness: a neutral purple-orange scale
+                self.map.mesh.set_cmap("PuOr_r")
+        elif layer == "observed":
+            self.map.show_field(self._mean, kind="total", label="mean annual total [mm]",
+                                title="observed mean annual total")
+        elif layer == "model":
+            self.map.show_field(self.model, kind="total", label="linear model rate [mm per hour]",
+                                title=f"linear model, {self._params['wind_speed']:g} m/s, "
+                                      f"{self._params['temperature_c']:g} °C")
+        else:
+            self.map.show_field(self.elevation, kind="total", label="terrain height [m]", title="terrain")
+        self.map.set_overlay(self.crest)
+        self.show_table(self._table())
+        self.show_chart(self._chart())
+
+    def _table(self):
+        obs, mod = self.result, self.model_contrast
+        ci = self._params["ci"]
+        one = "band" not in obs.dims
+        rows = []
+        for i in range(1 if one else obs.sizes["band"]):
+            o = obs if one else obs.isel(band=i)
+            m = mod if one else mod.isel(band=i)
+            rows.append({
+                "band [km]": f"{float(o['band_lower_km']):g}-{float(o['band_upper_km']):g}",
+                "windward mean [mm per year]": float(o["windward_mean"]),
+                "leeward mean [mm per year]": float(o["leeward_mean"]),
+                "leeward / windward": float(o["ratio"]),
+                f"lower {ci:.0%}": float(o["ratio_lower"]),
+                f"upper {ci:.0%}": float(o["ratio_upper"]),
+                "linear model leeward / windward": float(m["ratio"]),
+            })
+        return pd.DataFrame(rows).set_index("band [km]")
+
+    def _chart(self):
+        from matplotlib.figure import Figure
+
+        fig = Figure(figsize=(9.0, 3.4))
+        ax_d, ax_z = fig.add_subplot(1, 2, 1), fig.add_subplot(1, 2, 2)
+        dist = np.asarray(self.result["distance_km"].values, dtype=float).ravel()
+        obs = np.asarray(self._mean.values, dtype=float).ravel()
+        model = np.asarray(self.model.values, dtype=float).ravel()
+        z = np.asarray(self.elevation.transpose("lat", "lon").values, dtype=float).ravel()
+        ok = np.isfinite(dist)
+        ax_d.scatter(dist[ok], obs[ok], s=6, color="#2166ac", alpha=0.6, label="observed cells")
+        self._band_steps(ax_d)
+        ax_d.axvline(0.0, color="k", lw=0.8)
+        ax_d.set_xlabel("along-wind distance from the crest [km] (< 0 windward)")
+        ax_d.set_ylabel("mean annual total [mm]", fontsize=8)
+        twin = ax_d.twinx()
+        twin.scatter(dist[ok], model[ok], s=5, marker="x", color=_MODEL_COLOUR, alpha=0.6, label="linear model")
+        twin.set_ylabel("linear model rate [mm per hour]", fontsize=8, color=_MODEL_COLOUR)
+        handles = ax_d.get_legend_handles_labels()[0] + twin.get_legend_handles_labels()[0]
+        ax_d.legend(handles=handles, fontsize=7, loc="upper right")
+        ax_d.set_title("profile along the wind", fontsize=9)
+        for side, sign in (("windward", (dist < 0) & (z > 0)), ("leeward", (dist > 0) & (z > 0))):
+            ax_z.scatter(z[sign], obs[sign], s=6, color=_SIDE_COLOURS[side], alpha=0.6)
+            g = self.gradients.get(side)
+            if g is None:
+                ax_z.plot([], [], color=_SIDE_COLOURS[side], label=f"{side}: too few cells for a fit")
+                continue
+            zz = np.linspace(np.nanmin(z[sign]), np.nanmax(z[sign]), 2)
+            slope = float(g["slope"])
+            ax_z.plot(zz, float(g["intercept"]) + slope / 100.0 * zz, color=_SIDE_COLOURS[side],
+                      label=f"{side}: {slope:+.0f} mm per 100 m ({float(g['lower']):+.0f} to "
+                            f"{float(g['upper']):+.0f})")
+        ax_z.set_xlabel("terrain height [m]")
+        ax_z.set_ylabel("mean annual total [mm]", fontsize=8)
+        ax_z.legend(fontsize=7, loc="upper left")
+        ax_z.set_title("against elevation (cells above 0 m)", fontsize=9)
+        for ax in (ax_d, ax_z):
+            ax.grid(alpha=0.3)
+        fig.tight_layout()
+        return fig
+
+    def _band_steps(self, ax):
+        obs = self.result
+        one = "band" not in obs.dims
+        for i in range(1 if one else obs.sizes["band"]):
+            o = obs if one else obs.isel(band=i)
+            lo, hi = float(o["band_lower_km"]), float(o["band_upper_km"])
+            ax.hlines(float(o["windward_mean"]), -hi, -lo, color=_SIDE_COLOURS["windward"], lw=2.5,
+                      label="windward band mean" if i == 0 else None)
+            ax.hlines(float(o["leeward_mean"]), lo, hi, color=_SIDE_COLOURS["leeward"], lw=2.5,
+                      label="leeward band mean" if i == 0 else None)
