@@ -1,7 +1,11 @@
 """The ``climwidgets`` command: the notebook's jobs without a browser.
 
-Exit codes: 0 ok, 2 bad input (the InputError message is printed), 1 internal error.
-Progress goes to stderr; ``--quiet`` silences it.
+A thin argparse layer over :mod:`climwidgets.jobs` (the headless demo runs the same job
+functions).  Written paths go to stdout, one per line; progress goes to stderr unless
+``--quiet``; cautions for design depths are always printed to stderr.
+
+Exit codes: 0 ok, 2 bad input (bad arguments, missing or unreadable files, existing
+outputs: the InputError message is printed on one line), 1 internal error.
 """
 
 from __future__ import annotations
@@ -12,101 +16,274 @@ from pathlib import Path
 
 from .errors import InputError, ParameterError
 
+EXIT_OK, EXIT_INTERNAL, EXIT_INPUT = 0, 1, 2
 
-class _Progress:
-    def __init__(self, quiet: bool):
-        self.quiet = quiet
+_EXAMPLES = """\
+examples:
+  climwidgets demo --headless --out out
+  climwidgets info demo_grids/generated/pr_daily.nc
+  climwidgets summary --data pr_daily.nc --basins basins.geojson --months 7,8 --baseline 1991-2020 --out out
+  climwidgets extremes --data pr_daily.nc --basins basins.geojson --duration 1 --periods 2,10,100 --out out
+  climwidgets compare --data gauge=pr_monthly.nc coarse=pr_coarse.nc --basins basins.geojson --out out
 
-    def __call__(self, text: str):
-        if not self.quiet:
-            print(text, file=sys.stderr, flush=True)
+exit codes: 0 ok, 2 bad input (the message says what and how to fix it), 1 internal error
+"""
 
 
+def _stderr(text: str):
+    print(text, file=sys.stderr, flush=True)
+
+
+# ------------------------------------------------------------------ argument values
 def _months(text: str) -> tuple[int, ...]:
+    fix = "give month numbers 1-12 separated by commas, e.g. --months 7,8 or --months 11,12,1,2,3"
     try:
         months = tuple(int(m) for m in text.split(",") if m.strip())
     except ValueError:
-        raise ParameterError(f"--months '{text}' is not a list of month numbers", expected="e.g. 7,8 or 11,12,1,2,3",
-                             fix="give month numbers 1-12 separated by commas") from None
+        raise ParameterError(f"--months {text!r} is not a list of month numbers", expected="month numbers 1-12",
+                             fix=fix) from None
+    bad = [m for m in months if not 1 <= m <= 12]
+    if not months or bad:
+        what = f"{bad[0]} is not a month number" if bad else "no month given"
+        raise ParameterError(f"--months {text!r}: {what}", expected="month numbers 1-12", fix=fix)
     return months
 
 
-def _years(text: str) -> tuple[int, int]:
+def _years(text: str, option: str = "--baseline") -> tuple[int, int]:
+    fix = f"give two years joined by a hyphen, first year first, e.g. {option} 1991-2020"
     try:
         a, b = (int(x) for x in text.split("-"))
     except ValueError:
-        raise ParameterError(f"--baseline '{text}' is not a year range", expected="FIRST-LAST, e.g. 1991-2020",
-                             fix="give two years joined by a hyphen") from None
+        raise ParameterError(f"{option} {text!r} is not a year range", expected="FIRST-LAST", fix=fix) from None
+    if a > b:
+        raise ParameterError(f"{option} {text!r} ends before it starts", expected="FIRST-LAST with FIRST <= LAST",
+                             fix=fix)
     return a, b
 
 
-def _cmd_info(args, say):
+def _numbers(text: str, option: str, kind=float) -> tuple:
+    try:
+        values = tuple(kind(v) for v in text.split(",") if v.strip())
+    except ValueError:
+        values = ()
+    if not values:
+        raise ParameterError(f"{option} {text!r} is not a list of numbers", expected="numbers separated by commas",
+                             fix=f"e.g. {option} 2,10,25,50,100")
+    return values
+
+
+# ------------------------------------------------------------------ commands
+def _progress(args):
+    return None if args.quiet else _stderr
+
+
+def _print_result(result, cautions_title=None):
+    for path in result.paths.values():
+        print(path)
+    if result.cautions and cautions_title:
+        _stderr(cautions_title)
+        for c in result.cautions:
+            _stderr(f"  - {c}")
+
+
+def _cmd_info(args):
     from .io.info import describe
 
     print(describe(args.path, var=args.var, scan=args.scan))
-    return 0
+    return EXIT_OK
 
 
-def _cmd_demo(args, say):
+def _cmd_summary(args):
+    from .jobs import run_summary
+
+    result = run_summary(args.data, args.basins, months=_months(args.months), baseline=_years(args.baseline),
+                         out_dir=args.out, overwrite=args.overwrite, progress=_progress(args), var=args.var,
+                         year_start=args.year_start, title=args.title)
+    _print_result(result)
+    return EXIT_OK
+
+
+def _cmd_extremes(args):
+    from .jobs import run_extremes
+
+    periods = _numbers(args.periods, "--periods")
+    result = run_extremes(args.data, args.basins, duration_days=args.duration, periods=periods, ci=args.ci,
+                          n_boot=args.n_boot, out_dir=args.out, overwrite=args.overwrite,
+                          progress=_progress(args), var=args.var, year_start=args.year_start,
+                          duration_hours=args.hours, seed=args.seed)
+    _print_result(result, "Cautions for these design-storm depths:")
+    return EXIT_OK
+
+
+def _cmd_compare(args):
+    from .jobs import run_compare
+
+    result = run_compare(args.data, args.basins, months=_months(args.months),
+                         baseline=None if args.baseline is None else _years(args.baseline), out_dir=args.out,
+                         overwrite=args.overwrite, progress=_progress(args),
+                         period=None if args.period is None else _years(args.period, "--period"),
+                         grid=args.grid, method=args.method, var=args.var, kge=args.kge)
+    _print_result(result)
+    return EXIT_OK
+
+
+def _cmd_demo(args):
     from . import demo
 
-    paths = demo.generate(force=args.force, quiet=args.quiet)
-    for key, path in paths.items():
-        say(f"{key}: {path}")
+    say = _progress(args)
     if args.headless:
-        out = demo.run_headless(Path(args.out), progress=say)
-        for path in out:
-            print(path)
-        return 0
+        from .jobs import run_demo_headless
+
+        result = run_demo_headless(args.out, progress=say, directory=args.dir, size=args.size, force=args.force)
+        _print_result(result)
+        return EXIT_OK
+    paths = demo.generate(args.dir, force=args.force, quiet=args.quiet, size=args.size)
+    for path in paths.values():
+        print(path)
     if args.serve:
         import subprocess
 
         notebook = Path(__file__).resolve().parent.parent / "notebooks" / "tour.ipynb"
-        say(f"Serving the tour at http://localhost:{args.port}/")
+        if not notebook.is_file():
+            raise ParameterError("the tour notebook is not here (installed without the source checkout?)",
+                                 source=notebook, fix="run from a source checkout: make demo")
+        _stderr(f"Serving the tour at http://localhost:{args.port}/ (Ctrl-C to stop)")
         return subprocess.call([sys.executable, "-m", "voila", str(notebook), f"--port={args.port}",
                                 "--no-browser", "--Voila.ip=127.0.0.1"])
-    return 0
+    return EXIT_OK
 
 
+# ------------------------------------------------------------------ parser
 def build_parser() -> argparse.ArgumentParser:
-    p = argparse.ArgumentParser(prog="climwidgets", description="Gridded precipitation climatology from the command line.")
+    fmt = argparse.RawDescriptionHelpFormatter
+    p = argparse.ArgumentParser(
+        prog="climwidgets", formatter_class=fmt, epilog=_EXAMPLES,
+        description="Gridded precipitation climatology from the command line: basin summaries, "
+                    "design-storm depths and product comparisons, written as CSV, NetCDF and HTML.")
     p.add_argument("--quiet", action="store_true", help="no progress messages on stderr")
-    sub = p.add_subparsers(dest="command", required=True)
+    # the same flag after the command name; SUPPRESS keeps a flag given before it
+    common = argparse.ArgumentParser(add_help=False)
+    common.add_argument("--quiet", action="store_true", default=argparse.SUPPRESS,
+                        help="no progress messages on stderr")
+    sub = p.add_subparsers(dest="command", required=True, metavar="COMMAND")
 
-    d = sub.add_parser("demo", help="generate the invented demo data; optionally summarize it or serve the tour")
-    d.add_argument("--force", action="store_true", help="regenerate even if the files exist")
-    d.add_argument("--headless", action="store_true", help="write the demo basin summary and report to --out and exit")
-    d.add_argument("--out", default="out", help="output folder for --headless (default: out)")
+    def data_args(q, basins_required):
+        q.add_argument("--data", nargs="+", required=True, metavar="PATH",
+                       help="precipitation NetCDF file(s), glob pattern or Zarr store; several files are "
+                            "parts of one record, joined along time")
+        q.add_argument("--basins", required=basins_required, default=None, metavar="FILE",
+                       help="basin outlines: GeoJSON (.geojson, .json) or shapefile (.shp)")
+        q.add_argument("--var", default=None, help="variable name (default: found by standard_name or units)")
+
+    def out_args(q):
+        q.add_argument("--out", default="out", metavar="DIR", help="output folder, created if absent (default: out)")
+        q.add_argument("--overwrite", action="store_true", help="replace existing outputs (default: refuse)")
+
+    d = sub.add_parser("demo", parents=[common], formatter_class=fmt,
+                       help="generate the invented demo data; optionally summarize it or serve the tour",
+                       description="Generate the invented demo grids (deterministic; skipped when present). "
+                                   "--headless then writes the demo basin summary, maps and report to --out "
+                                   "(files demo_*, replaced on every run) through the same job as "
+                                   "'climwidgets summary'; --serve serves the tour notebook.")
+    d.add_argument("--force", action="store_true", help="regenerate the demo files even if they exist")
+    d.add_argument("--dir", default=None, help="demo data folder (default: demo_grids/generated or a user cache)")
+    d.add_argument("--size", default="full", choices=("full", "test"), help="demo grid size (default: full)")
+    d.add_argument("--headless", action="store_true", help="write the demo basin summary and report to --out")
+    d.add_argument("--out", default="out", metavar="DIR", help="output folder for --headless (default: out)")
     d.add_argument("--serve", action="store_true", help="serve the tour notebook with Voila")
-    d.add_argument("--port", type=int, default=8866)
+    d.add_argument("--port", type=int, default=8866, help="port for --serve (default: 8866)")
     d.set_defaults(func=_cmd_demo)
 
-    i = sub.add_parser("info", help="what the loader sees in a file: variable, units, calendar, step, grid, chunks")
+    i = sub.add_parser("info", parents=[common], formatter_class=fmt,
+                       help="what the loader sees in a file: variable, units, calendar, step, grid, chunks",
+                       description="Describe a precipitation source as cw.open_precip sees it: variable, units "
+                                   "and conversion to mm per step, calendar, step, period, grid, chunks and "
+                                   "missing data (--scan reads the data to count it).")
     i.add_argument("path", nargs="+", help="NetCDF file(s), a glob pattern, or a Zarr store")
     i.add_argument("--var", default=None, help="variable name (default: found by standard_name or units)")
     i.add_argument("--scan", action="store_true", help="also read the data to count missing values")
     i.set_defaults(func=_cmd_info)
+
+    s = sub.add_parser("summary", parents=[common], formatter_class=fmt,
+                       help="basin summary table (CSV), seasonal share and normals (NetCDF), HTML report",
+                       description="Per basin: area, mean annual precipitation, seasonal share, annual normal, "
+                                   "volumes and the latest year against the normal. Writes basin_summary.csv, "
+                                   "seasonal_share_normals.nc and basin_report.html into --out.")
+    data_args(s, True)
+    s.add_argument("--months", default="7,8", help="the season's months, e.g. 7,8 or 11,12,1,2,3 (default: 7,8)")
+    s.add_argument("--baseline", default="1991-2020", help="normal period FIRST-LAST (default: 1991-2020)")
+    s.add_argument("--year-start", type=int, default=1, help="first month of the 12-month year (10 = water year)")
+    s.add_argument("--title", default=None, help="report title")
+    out_args(s)
+    s.set_defaults(func=_cmd_summary)
+
+    e = sub.add_parser("extremes", parents=[common], formatter_class=fmt,
+                       help="return-level maps (NetCDF) and basin design depths with intervals (CSV)",
+                       description="GEV return levels (L-moments, parametric-bootstrap intervals) of annual "
+                                   "maximum n-day precipitation per cell (return_levels.nc) and per basin "
+                                   "(basin_return_levels.csv, areal depths). Planning-level figures: the "
+                                   "cautions are printed and written into both files.")
+    data_args(e, False)
+    e.add_argument("--duration", type=int, default=1, help="duration in days: 1, 2, 3, 5, 7 or 10 (default: 1)")
+    e.add_argument("--hours", type=int, default=None, help="duration in hours for hourly data (1, 3, 6, 12, 24)")
+    e.add_argument("--periods", default="2,10,25,50,100", help="return periods in years (default: 2,10,25,50,100)")
+    e.add_argument("--ci", type=float, default=0.9, help="confidence level of the intervals (default: 0.9)")
+    e.add_argument("--n-boot", type=int, default=1000, help="bootstrap samples (default: 1000)")
+    e.add_argument("--seed", type=int, default=0, help="random seed of the bootstrap (default: 0)")
+    e.add_argument("--year-start", type=int, default=1, help="first month of the year (10 = water year)")
+    out_args(e)
+    e.set_defaults(func=_cmd_extremes)
+
+    c = sub.add_parser("compare", parents=[common], formatter_class=fmt,
+                       help="agreement maps between products (NetCDF) and a basin table across products (CSV)",
+                       description="The first --data product is the reference; name products as NAME=PATH "
+                                   "(default: file name). Products are compared as monthly totals over their "
+                                   "common complete years on one grid (the coarsest unless --grid). Writes "
+                                   "comparison_metrics.nc and, with --basins, products_basin_table.csv.")
+    c.add_argument("--data", nargs="+", required=True, metavar="[NAME=]PATH",
+                   help="two or more precipitation products, the reference first")
+    c.add_argument("--basins", default=None, metavar="FILE", help="basin outlines (GeoJSON or shapefile)")
+    c.add_argument("--var", default=None, help="variable name (default: found by standard_name or units)")
+    c.add_argument("--months", default="7,8", help="season for the basin table (default: 7,8)")
+    c.add_argument("--baseline", default=None, help="normal period FIRST-LAST (default: the common period)")
+    c.add_argument("--period", default=None, help="compare only FIRST-LAST (default: all common complete years)")
+    c.add_argument("--grid", default=None, metavar="NAME", help="product whose grid is used (default: coarsest)")
+    c.add_argument("--method", default="conservative", choices=("conservative", "bilinear"),
+                   help="regridding method (default: conservative)")
+    c.add_argument("--kge", default="2009", choices=("2009", "2012"), help="Kling-Gupta efficiency form")
+    out_args(c)
+    c.set_defaults(func=_cmd_compare)
     return p
+
+
+def _one_line(exc) -> str:
+    return " ".join(str(exc).split())
 
 
 def main(argv=None) -> int:
     parser = build_parser()
-    args = parser.parse_args(argv)
-    say = _Progress(args.quiet)
     try:
-        return args.func(args, say)
+        args = parser.parse_args(argv)
+    except SystemExit as exc:  # argparse printed usage (exit 2) or help (exit 0)
+        return exc.code if isinstance(exc.code, int) else EXIT_INPUT
+    try:
+        return args.func(args)
     except InputError as exc:
-        print(f"climwidgets: {exc}", file=sys.stderr)
-        return 2
+        _stderr(f"climwidgets {args.command}: {_one_line(exc)}")
+        return EXIT_INPUT
+    except (FileNotFoundError, PermissionError, IsADirectoryError, NotADirectoryError) as exc:
+        _stderr(f"climwidgets {args.command}: {_one_line(exc)}")
+        return EXIT_INPUT
     except KeyboardInterrupt:
-        print("climwidgets: interrupted", file=sys.stderr)
-        return 1
+        _stderr("climwidgets: interrupted")
+        return EXIT_INTERNAL
     except Exception as exc:  # an internal error: say so plainly, keep the traceback for reports
         import traceback
 
         traceback.print_exc()
-        print(f"climwidgets: internal error ({type(exc).__name__}: {exc}); please report it", file=sys.stderr)
-        return 1
+        _stderr(f"climwidgets {args.command}: internal error ({type(exc).__name__}: {_one_line(exc)}); "
+                "please report it with the traceback above")
+        return EXIT_INTERNAL
 
 
 if __name__ == "__main__":

@@ -49,4 +49,6 @@ def describe(source, var=None, scan=False) -> str:
         total, valid, lowest, highest = dask.compute(pr.size, pr.count(), pr.min(), pr.max())
         frac = 1 - int(valid) / total
         lines.append(f"missing data: {frac:.2%} of values; range {float(lowest):.4g}..{float(highest):.4g} mm per step")
+    else:
+        lines.append("missing data: not counted (add --scan to read the data and count missing values)")
     return "\n".join(lines)

@@ -1,0 +1,427 @@
+"""Batch jobs: the suite's analyses from files to files, without a browser.
+
+Each ``run_*`` function reads precipitation files and a basin outline file, computes with
+the public compute and geo functions, and writes its outputs into one folder.  The
+``climwidgets`` command (:mod:`climwidgets.cli`) and the headless demo call these
+functions and nothing else, so a script, the command line and ``make demo`` give the
+same numbers.
+
+Every job
+
+* checks its parameters and its output paths *before* reading any data, so a typo or an
+  existing output fails in a second, not after the long computation;
+* refuses to replace existing outputs unless ``overwrite=True`` (writes are atomic);
+* reads each input once for the heavy part (one dask graph, one ``compute``) and works
+  on the small results afterwards;
+* reports progress through ``progress(text)`` when a callable is given (None: silent);
+* returns a :class:`JobResult`: the written paths, the main table, and the cautions that
+  go with the figures.
+"""
+
+from __future__ import annotations
+
+import contextlib
+import os
+import time
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Callable
+
+import pandas as pd
+
+from .errors import BasinError, ParameterError, SourceError
+
+__all__ = ["JobResult", "load_basins", "run_summary", "run_extremes", "run_compare", "run_demo_headless",
+           "SUMMARY_FILES", "EXTREMES_FILES", "COMPARE_FILES"]
+
+Progress = Callable[[str], None] | None
+
+#: Output file names by key (a job's ``prefix`` is put in front of each).
+SUMMARY_FILES = {"csv": "basin_summary.csv", "netcdf": "seasonal_share_normals.nc", "report": "basin_report.html"}
+EXTREMES_FILES = {"netcdf": "return_levels.nc", "csv": "basin_return_levels.csv"}
+COMPARE_FILES = {"netcdf": "comparison_metrics.nc", "csv": "products_basin_table.csv"}
+
+_STEP_WORD = {"hour": "hourly", "day": "daily", "month": "monthly"}
+
+AREAL_NOTE = ("basin depths are areal: the return level of the basin-mean annual maxima, lower than "
+              "point (gauge) depths of the same return period; cell_mean_estimate_mm is the basin mean "
+              "of the cells' own return levels")
+
+
+@dataclass
+class JobResult:
+    """What a job wrote: ``paths`` (key -> Path, in writing order), the main ``table``
+    (as written to the CSV) and the ``cautions`` that go with the figures."""
+
+    paths: dict = field(default_factory=dict)
+    table: pd.DataFrame | None = None
+    cautions: tuple = ()
+
+
+# ------------------------------------------------------------------ progress
+class _Reporter:
+    """Stage messages with elapsed time; silent when ``progress`` is None."""
+
+    def __init__(self, progress: Progress, job: str):
+        self.progress, self.job, self.t0 = progress, job, time.perf_counter()
+
+    def __call__(self, text: str):
+        if self.progress is not None:
+            self.progress(f"{self.job}: {text} [{time.perf_counter() - self.t0:.1f} s]")
+
+    def dask(self, what: str):
+        """A context in which dask computations report 25/50/75/100 % of their tasks."""
+        if self.progress is None:
+            return contextlib.nullcontext()
+        from dask.callbacks import Callback
+
+        say = self
+
+        class _Tasks(Callback):
+            def _start_state(self, dsk, state):
+                self.total = max(1, len(state["ready"]) + len(state["waiting"]) + len(state["finished"]))
+                self.done, self.next = len(state["finished"]), 25
+
+            def _posttask(self, key, result, dsk, state, worker_id):
+                self.done += 1
+                pct = 100 * self.done // self.total
+                if pct >= self.next:
+                    say(f"{what}: {pct} % of {self.total} tasks")
+                    self.next = (pct // 25 + 1) * 25
+
+        say(f"{what} ...")
+        return _Tasks()
+
+
+# ------------------------------------------------------------------ checks and inputs
+def _check_months(months, job):
+    from .compute._time import check_months
+
+    return check_months(months, job)
+
+
+def _check_baseline(baseline, job, name="baseline"):
+    from .compute._time import check_year_range
+
+    return check_year_range(tuple(baseline) if isinstance(baseline, list) else baseline, job, name)
+
+
+def _plan_outputs(out_dir, names: dict, prefix: str, overwrite: bool, job: str) -> dict[str, Path]:
+    """The output paths; fails now if the folder is a file or an output exists."""
+    from .report._atomic import OutputExistsError
+
+    if not isinstance(out_dir, (str, os.PathLike)) or str(out_dir) == "":
+        raise ParameterError(f"out_dir={out_dir!r} is not a folder path", source=job, variable="out_dir",
+                             expected="a folder path", fix="pass e.g. out_dir='out'")
+    out = Path(out_dir)
+    if out.exists() and not out.is_dir():
+        raise ParameterError("is a file, not a folder", source=out, variable="out_dir",
+                             expected="a folder for the outputs", fix="choose another --out folder")
+    paths = {key: out / f"{prefix}{name}" for key, name in names.items()}
+    if not overwrite:
+        existing = [p.name for p in paths.values() if p.exists()]
+        if existing:
+            raise OutputExistsError(f"{', '.join(existing)} already exist(s) and was left untouched",
+                                    source=out, expected="outputs that do not exist yet",
+                                    fix="pass --overwrite (overwrite=True) to replace them, or choose another "
+                                        "output folder")
+    return paths
+
+
+def _make_folder(paths: dict):
+    for p in paths.values():
+        p.parent.mkdir(parents=True, exist_ok=True)
+
+
+def load_basins(source) -> list:
+    """Basins from a GeoJSON file (.geojson/.json) or an ESRI shapefile (.shp), or a list
+    of :class:`cw.Basin` passed through."""
+    from .geo.basin import Basin
+
+    if isinstance(source, Basin):
+        return [source]
+    if isinstance(source, (list, tuple)) and source and all(isinstance(b, Basin) for b in source):
+        return list(source)
+    if not isinstance(source, (str, os.PathLike)):
+        raise BasinError(f"got {type(source).__name__}", source="basins", expected="a GeoJSON or shapefile path",
+                         fix="pass the path of the basin outline file")
+    path = Path(source)
+    suffix = path.suffix.lower()
+    if suffix in (".shp", ".shx", ".dbf"):
+        return Basin.from_shapefile(path)
+    if not path.is_file():
+        raise SourceError("basin file not found", source=path, expected="a GeoJSON (.geojson, .json) or "
+                          "shapefile (.shp)", fix="check the --basins path")
+    if suffix not in (".geojson", ".json"):
+        with open(path, "rb") as f:
+            head = f.read(64).lstrip()
+        if not head.startswith(b"{"):
+            raise BasinError("is not a basin outline file", source=path,
+                             expected="GeoJSON (.geojson, .json) or an ESRI shapefile (.shp)",
+                             fix="save the basin outlines as GeoJSON or a shapefile")
+    return Basin.from_geojson(path)
+
+
+def _open(data, var=None):
+    from .io.loader import open_precip
+
+    if isinstance(data, (list, tuple)) and len(data) == 1:
+        data = data[0]
+    return open_precip(data, var=var)
+
+
+def _sources(pr) -> list[str]:
+    return [s for s in str(pr.attrs.get("sources", "")).split("; ") if s]
+
+
+# ------------------------------------------------------------------ summary
+def run_summary(data, basins, months=(7, 8), baseline=(1991, 2020), out_dir="out", overwrite: bool = False,
+                progress: Progress = None, *, var=None, year_start: int = 1, title: str | None = None,
+                prefix: str = "", figures: bool = True) -> JobResult:
+    """Basin summary table (CSV), seasonal-share and normals maps (NetCDF) and HTML report.
+
+    Parameters
+    ----------
+    data
+        Precipitation file(s) for :func:`cw.open_precip`: a path, a glob pattern, or a list
+        of paths that are parts of one record (joined along time).
+    basins
+        GeoJSON or shapefile path (or Basin objects).
+    months, baseline, year_start
+        The season, the normal period and the first month of the 12-month year.
+    out_dir
+        Output folder (created if absent).  Writes ``basin_summary.csv`` (the table of
+        :func:`cw.basin_summary`, units in column names, provenance header),
+        ``seasonal_share_normals.nc`` (``seasonal_share`` map and monthly ``normals``) and
+        ``basin_report.html``; ``prefix`` is put in front of each name.
+    overwrite
+        Replace existing outputs.
+
+    The daily (or hourly) data are read once: :func:`climatology_bundle` computes the
+    monthly totals, seasonal share and normals in one pass, and the table and report are
+    built from the in-memory monthly totals (sums of the same values, so the numbers equal
+    those from the original step).
+    """
+    from .compute.bundle import climatology_bundle
+    from .compute._time import check_year_start
+    from .report.content import build_report_content
+    from .report.html import write_report
+    from .report.netcdf import to_netcdf
+    from .report.tables import to_csv
+
+    job = "summary"
+    months = _check_months(months, job)
+    baseline = _check_baseline(baseline, job)
+    year_start = check_year_start(year_start, job)
+    paths = _plan_outputs(out_dir, SUMMARY_FILES, prefix, overwrite, job)
+    say = _Reporter(progress, job)
+    basin_list = load_basins(basins)
+    pr = _open(data, var)
+    sources = _sources(pr)
+    say(f"{len(basin_list)} basin(s); {_STEP_WORD.get(pr.attrs['step'], pr.attrs['step'])} data {dict(pr.sizes)}")
+
+    bundle = climatology_bundle(pr, months=months, baseline=baseline, year_start=year_start, maxima_days=())
+    with say.dask("monthly totals, seasonal share and normals in one pass"):
+        bundle = bundle.compute()
+    monthly = bundle["monthly_totals"]
+
+    say("basin table and report figures")
+    content = build_report_content(monthly, basin_list, months=months, baseline=baseline, sources=sources,
+                                   title=title or "Basin precipitation summary", year_start=year_start)
+    table = content.table  # cw.basin_summary of the monthly totals, as in the report
+
+    _make_folder(paths)
+    notes = [f"data: {pr.attrs.get('conversion', '')}".strip()]
+    to_csv(table, paths["csv"], overwrite=overwrite,
+           provenance={"inputs": sources, "notes": notes, "title": "basin summary"})
+    maps = bundle[["seasonal_share", "normals"]]
+    maps.attrs = {"months": list(months), "baseline": list(baseline), "year_start": year_start,
+                  "history": bundle.attrs.get("history", ""), "input_files": "; ".join(sources)}
+    to_netcdf(maps, paths["netcdf"], overwrite=overwrite, title="Seasonal share and monthly normals")
+    say("writing the report")
+    write_report(content, paths["report"], overwrite=overwrite, figures=figures)
+    return JobResult(paths=paths, table=table, cautions=tuple(content.cautions or ()))
+
+
+# ------------------------------------------------------------------ extremes
+def run_extremes(data, basins=None, duration_days=1, periods=(2, 10, 25, 50, 100), ci=0.9, n_boot=1000,
+                 out_dir="out", overwrite: bool = False, progress: Progress = None, *, var=None,
+                 year_start: int = 1, duration_hours=None, seed=0, prefix: str = "") -> JobResult:
+    """Return-level maps (NetCDF) and a basin table with intervals (CSV).
+
+    ``return_levels.nc`` holds :func:`cw.return_levels` of the per-cell annual maxima
+    (``estimate``, ``lower``, ``upper`` over ``period``, plus the fitted ``loc``, ``scale``,
+    ``shape``, and the design-depth cautions in its attributes).  With ``basins``,
+    ``basin_return_levels.csv`` has one row per basin and return period: the areal depth
+    (return level of the basin-mean annual maxima) with its interval, and the basin mean
+    of the cells' own return levels.  The cautions (:data:`cw.DESIGN_DEPTH_CAUTIONS`) are
+    in both files and in the result.
+    """
+    import dask
+
+    from .compute.extremes import annual_maxima
+    from .compute.gev import _check_periods, return_levels
+    from .compute.warming import DESIGN_DEPTH_CAUTIONS
+    from .geo.aggregate import basin_mean
+    from .report.netcdf import to_netcdf
+    from .report.tables import to_csv
+
+    job = "extremes"
+    periods = tuple(int(p) if float(p).is_integer() else float(p) for p in _check_periods(periods).tolist())
+    if not (isinstance(ci, (int, float)) and not isinstance(ci, bool) and 0 < ci < 1):
+        raise ParameterError(f"ci={ci!r} is not a confidence level", source=job, variable="ci",
+                             expected="a number strictly between 0 and 1", fix="e.g. 0.9 for a 90 % interval")
+    names = EXTREMES_FILES if basins is not None else {"netcdf": EXTREMES_FILES["netcdf"]}
+    paths = _plan_outputs(out_dir, names, prefix, overwrite, job)
+    say = _Reporter(progress, job)
+    basin_list = load_basins(basins) if basins is not None else []
+    pr = _open(data, var)
+    sources = _sources(pr)
+    duration = {"duration_days": duration_days} if duration_hours is None else {"duration_hours": duration_hours}
+    amax = annual_maxima(pr, year_start=year_start, **duration)  # checks step and duration before any read
+
+    # one read of the data: the cells' annual maxima and every basin's mean series
+    lazy = [amax] + [basin_mean(pr, b) for b in basin_list]
+    with say.dask("annual maxima and basin series in one pass"):
+        amax, *series = dask.compute(*lazy)
+    fit = dict(periods=periods, ci=float(ci), n_boot=int(n_boot), seed=seed)
+    with say.dask(f"return levels of {amax.size // max(1, amax.sizes['year'])} cells ({n_boot} bootstrap samples)"):
+        levels = return_levels(amax, **fit).compute()
+    _make_folder(paths)
+    to_netcdf(levels, paths["netcdf"], overwrite=overwrite,
+              title=f"Return levels of annual maximum {amax.attrs.get('duration', '')} precipitation")
+    table = None
+    if basin_list:
+        say("basin return levels")
+        rows = []
+        for b, s in zip(basin_list, series):
+            ams = annual_maxima(s.drop_vars("covered_fraction", errors="ignore"), year_start=year_start, **duration)
+            rl = return_levels(ams, **fit)
+            cell_mean = basin_mean(levels["estimate"], b)
+            n_years = int(ams.notnull().sum())
+            for t in periods:
+                rows.append({"basin": b.name, "return_period_years": t,
+                             "areal_estimate_mm": float(rl["estimate"].sel(period=t)),
+                             "areal_lower_mm": float(rl["lower"].sel(period=t)),
+                             "areal_upper_mm": float(rl["upper"].sel(period=t)),
+                             "cell_mean_estimate_mm": float(cell_mean.sel(period=t)),
+                             "n_years": n_years})
+        table = pd.DataFrame(rows).set_index("basin")
+        table.attrs = {"duration": amax.attrs.get("duration", ""), "ci": float(ci), "n_boot": int(n_boot),
+                       "seed": seed, "year_start": year_start, "periods": list(periods),
+                       "interval": levels.attrs.get("interval_method", "")}
+        to_csv(table, paths["csv"], overwrite=overwrite,
+               provenance={"inputs": sources, "notes": [AREAL_NOTE], "cautions": DESIGN_DEPTH_CAUTIONS,
+                           "title": "basin return levels"})
+    return JobResult(paths=paths, table=table, cautions=tuple(DESIGN_DEPTH_CAUTIONS))
+
+
+# ------------------------------------------------------------------ compare
+def _product_names(data) -> dict:
+    """{name: path} from a dict, 'NAME=PATH' items, or plain paths (named by file stem)."""
+    if isinstance(data, dict):
+        items = [(str(k), v) for k, v in data.items()]
+    else:
+        items = []
+        for item in ([data] if isinstance(data, (str, os.PathLike)) else list(data)):
+            text = os.fspath(item)
+            name, sep, path = text.partition("=")
+            if sep and name and not os.path.exists(text):
+                items.append((name, path))
+            else:
+                items.append((Path(text).stem, text))
+    names = [n for n, _ in items]
+    if len(items) < 2:
+        raise ParameterError(f"{len(items)} product(s) given", source="compare", variable="data",
+                             expected="at least two precipitation products (the first is the reference)",
+                             fix="pass two or more files, optionally as NAME=PATH")
+    if len(set(names)) != len(names):
+        raise ParameterError(f"product names repeat: {names}", source="compare", variable="data",
+                             expected="one name per product", fix="name them as NAME=PATH, e.g. gauge=a.nc radar=b.nc")
+    return dict(items)
+
+
+def run_compare(data, basins=None, months=(7, 8), baseline=None, out_dir="out", overwrite: bool = False,
+                progress: Progress = None, *, period=None, grid=None, method="conservative", var=None,
+                kge="2009", prefix: str = "") -> JobResult:
+    """Agreement maps of each product against the first (NetCDF) and a basin table (CSV).
+
+    ``data``: ``{name: path}``, or paths / ``NAME=PATH`` strings; the first product is the
+    reference.  Products are brought to common complete years and one grid with
+    :func:`cw.align` (``grid``: None = the coarsest, or a product name) and compared with
+    :func:`cw.compare`; ``comparison_metrics.nc`` holds ``bias``, ``ratio``, ``rmse``,
+    ``corr``, ``anomaly_corr``, ``kge``, ``nse`` and ``n`` over a ``product`` dimension
+    (the products other than the reference).  With ``basins``, ``products_basin_table.csv``
+    is :func:`cw.products_basin_table` (each product on its own grid, spread rows).
+    """
+    import dask
+    import xarray as xr
+
+    from .compute.compare import align, compare, products_basin_table
+    from .compute.totals import monthly_totals
+    from .report.netcdf import to_netcdf
+    from .report.tables import to_csv
+
+    job = "compare"
+    named = _product_names(data)
+    months = _check_months(months, job)
+    if baseline is not None:
+        baseline = _check_baseline(baseline, job)
+    if period is not None:
+        period = _check_baseline(period, job, "period")
+    if grid is not None and grid not in named:
+        raise ParameterError(f"grid {grid!r} is not one of the products", source=job, variable="grid",
+                             expected=" or ".join(repr(n) for n in named), fix="name one of the products")
+    names = COMPARE_FILES if basins is not None else {"netcdf": COMPARE_FILES["netcdf"]}
+    paths = _plan_outputs(out_dir, names, prefix, overwrite, job)
+    say = _Reporter(progress, job)
+    basin_list = load_basins(basins) if basins is not None else []
+    products = {n: _open(p, var) for n, p in named.items()}
+    sources = [s for pr in products.values() for s in _sources(pr)]
+
+    # one read per product: monthly totals, then everything from them
+    lazy = {n: monthly_totals(pr) for n, pr in products.items()}
+    with say.dask(f"monthly totals of {len(products)} products"):
+        (monthly,) = dask.compute(lazy)
+    aligned = align(monthly, grid=grid, period=period, method=method)
+    ref, others = next(iter(aligned)), list(aligned)[1:]
+    say(f"agreement maps against {ref!r}")
+    metrics = xr.concat([compare(aligned[ref].rename(ref), aligned[o].rename(o), kge=kge) for o in others],
+                        dim=pd.Index(others, name="product"), combine_attrs="drop_conflicts")
+    metrics["product"].attrs = {"long_name": f"product compared with the reference {ref!r}"}
+    metrics.attrs.pop("other", None)  # one value per product: the product coordinate says it
+    metrics.attrs.update(reference=ref, products=list(named), period=aligned[ref].attrs.get("period", ""),
+                         grid=f"grid of {grid or 'the coarsest product'}; {method} regridding where needed")
+    _make_folder(paths)
+    to_netcdf(metrics.compute(), paths["netcdf"], overwrite=overwrite,
+              title=f"Agreement of precipitation products with {ref}")
+    table = None
+    if basin_list:
+        say("basin table across products")
+        table = products_basin_table(monthly, basin_list, months=months, baseline=baseline)
+        to_csv(table, paths["csv"], overwrite=overwrite,
+               provenance={"inputs": sources, "title": "basin table across products"})
+    return JobResult(paths=paths, table=table, cautions=())
+
+
+# ------------------------------------------------------------------ demo
+DEMO_MONTHS = (7, 8)
+DEMO_BASELINE = (1991, 2020)
+
+
+def run_demo_headless(out_dir="out", progress: Progress = None, *, directory=None, size: str = "full",
+                      force: bool = False, figures: bool = True) -> JobResult:
+    """Generate the invented demo (if needed) and run :func:`run_summary` on it.
+
+    Writes ``demo_basin_summary.csv``, ``demo_seasonal_share_normals.nc`` and
+    ``demo_basin_report.html`` into ``out_dir``: the July–August share and the 1991–2020
+    normals of the demo basins from the daily demo file.  These ``demo_*`` files are the
+    demo's own and are replaced on every run; other files in the folder are not touched.
+    """
+    from . import demo
+
+    files = demo.generate(directory, force=force, quiet=progress is None, size=size)
+    return run_summary(files["daily"], files["basins"], months=DEMO_MONTHS, baseline=DEMO_BASELINE,
+                       out_dir=out_dir, overwrite=True, progress=progress, prefix="demo_",
+                       title=f"{demo.ISLAND} demo: basin precipitation summary (invented data)",
+                       figures=figures)
