@@ -55,3 +55,42 @@ def close_cluster() -> None:
         if cluster is not None and _client.scheduler is not None:
             cluster.close()
         _client = None
+
+
+def compute_on_cluster(lazy, client, on_progress=None, is_current=None, poll_seconds: float = 0.2):
+    """Compute ``lazy`` on a distributed client, reporting progress and stopping when stale.
+
+    ``on_progress(fraction)`` is called as tasks finish (from the client's event loop);
+    ``is_current()`` returning False cancels the work and raises ``Superseded``-style
+    ``CancelledComputation``.
+    """
+    from distributed import wait
+    from distributed.diagnostics.progressbar import ProgressBar
+
+    future = client.compute(lazy)
+
+    class _Bar(ProgressBar):
+        def _draw_bar(self, remaining, all, **kwargs):
+            if on_progress is not None and all:
+                on_progress((all - remaining) / all)
+
+        def _draw_stop(self, **kwargs):
+            if on_progress is not None:
+                on_progress(1.0)
+
+    if on_progress is not None:
+        bar = _Bar([future], scheduler=client.scheduler.address, complete=True)
+        client.loop.add_callback(bar.listen)
+    while True:
+        try:
+            wait([future], timeout=poll_seconds)
+            return future.result()
+        except TimeoutError:
+            pass
+        if is_current is not None and not is_current():
+            future.cancel()
+            raise CancelledComputation("a newer request replaced this computation")
+
+
+class CancelledComputation(Exception):
+    """A cluster computation cancelled because its result is no longer wanted."""

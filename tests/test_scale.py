@@ -24,3 +24,21 @@ def test_local_cluster_matches_threaded(tmp_path):
         close_cluster()
     for name in threaded.data_vars:
         np.testing.assert_allclose(on_cluster[name].values, threaded[name].values, rtol=1e-12, equal_nan=True)
+
+
+@pytest.mark.slow
+def test_cluster_progress_and_cancellation(tmp_path):
+    import dask.array as dsa
+
+    from climwidgets.scale import CancelledComputation, close_cluster, compute_on_cluster
+
+    client = cw.use_cluster(n_workers=1)
+    try:
+        seen = []
+        x = dsa.ones((400, 400), chunks=(50, 50)).sum()
+        assert compute_on_cluster(x, client, on_progress=seen.append) == 160000
+        with pytest.raises(CancelledComputation):
+            slow = dsa.ones((2000, 2000), chunks=(100, 100)).map_blocks(lambda b: (__import__("time").sleep(0.2), b)[1]).sum()
+            compute_on_cluster(slow, client, is_current=lambda: False)
+    finally:
+        close_cluster()

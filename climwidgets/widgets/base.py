@@ -283,9 +283,21 @@ class BaseWidget(widgets.VBox):
         import dask
 
         try:
-            with DaskProgress(self.progress, lambda: self._is_current(gen)):
+            from ..scale import CancelledComputation, compute_on_cluster, current_client
+
+            client = current_client()
+            if client is None:
+                with DaskProgress(self.progress, lambda: self._is_current(gen)):
+                    lazy = self.compute(**params)
+                    (computed,) = dask.compute(lazy)
+            else:  # a dask cluster is in use (cw.use_cluster): its progress feeds the same bar
                 lazy = self.compute(**params)
-                (computed,) = dask.compute(lazy)
+                try:
+                    computed = compute_on_cluster(
+                        lazy, client, on_progress=lambda f: setattr(self.progress, "value", f),
+                        is_current=lambda: self._is_current(gen))
+                except CancelledComputation:
+                    raise Superseded() from None
             if not self._is_current(gen):
                 return
             result = self.finish(computed, params)
