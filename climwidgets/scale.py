@@ -32,7 +32,7 @@ def use_cluster(address=None, n_workers=None, threads_per_worker: int = 1, memor
     else:
         n = n_workers or os.cpu_count() or 1
         cluster = LocalCluster(n_workers=n, threads_per_worker=threads_per_worker, processes=True,
-                               memory_limit=memory_limit, dashboard_address=None, **cluster_kwargs)
+                               memory_limit=memory_limit, dashboard_address=":0", **cluster_kwargs)
         _client = Client(cluster, set_as_default=True)
     return _client
 
