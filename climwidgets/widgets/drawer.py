@@ -155,6 +155,7 @@ class DrawingTools(widgets.VBox):
         self.map.set_overlay([])
         self._report(f"Added basin {name}.")
         self._changed()
+        self.select.value = name
         return basin
 
     def rename_basin(self, old, new):

@@ -241,7 +241,8 @@ class MapFrame(widgets.VBox):
         if ll is None:
             return
         value, _, _ = self.value_at(*ll)
-        shown = "no data" if not np.isfinite(value) else f"{value:.4g} {self._units}".strip()
+        units = "(fraction)" if self._units == "1" else self._units  # CF's "1" reads oddly on screen
+        shown = "no data" if not np.isfinite(value) else f"{value:.4g} {units}".strip()
         self.readout.value = f"lon {ll[0]:.3f}, lat {ll[1]:.3f}: {shown}"
 
     def on_click(self, callback, remove=False):

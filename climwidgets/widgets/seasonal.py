@@ -85,7 +85,7 @@ class SeasonalShareWidget(BaseWidget):
         t = pr["time"].dt.year.values
         lo, hi = int(t.min()), int(t.max())
         months = tuple(months)
-        lab = {"style": {"description_width": "110px"}, "layout": widgets.Layout(width="280px")}
+        lab = {"style": {"description_width": "110px"}, "layout": widgets.Layout(width="330px")}
         self.first = widgets.Dropdown(options=_MONTH_OPTIONS, value=months[0], description="Season from", **lab)
         self.last = widgets.Dropdown(options=_MONTH_OPTIONS, value=months[-1], description="to", **lab)
         self.year_start = widgets.Dropdown(options=[("January (calendar year)", 1), ("October (water year)", 10)],

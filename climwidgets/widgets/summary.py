@@ -98,7 +98,7 @@ class BasinSummaryWidget(BaseWidget):
         years = pr["time"].dt.year.values
         lo, hi = int(years.min()), int(years.max())
         b0, b1 = max(lo, int(baseline[0])), min(hi, int(baseline[1]))
-        lab = {"style": {"description_width": "120px"}, "layout": widgets.Layout(width="290px")}
+        lab = {"style": {"description_width": "120px"}, "layout": widgets.Layout(width="340px")}
         months, scenario_months = tuple(months), tuple(scenario_months)
         self.first = widgets.Dropdown(options=_MONTH_OPTIONS, value=months[0], description="Season from", **lab)
         self.last = widgets.Dropdown(options=_MONTH_OPTIONS, value=months[-1], description="to", **lab)

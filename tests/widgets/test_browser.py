@@ -1,0 +1,168 @@
+"""The seasonal-share widget in a real browser: Voilà serves a small notebook, headless
+Chromium (Debian's, driven by Playwright; never a downloaded browser) changes the season,
+reads the basin's share off the page and draws a basin with mouse clicks on the map.
+
+The expected share is computed here, in the test process, with the public functions on
+the same demo data.  In CI (CI=true) the test must run; elsewhere it is skipped when
+Chromium or Playwright is missing.
+"""
+
+from __future__ import annotations
+
+import os
+import shutil
+import socket
+import subprocess
+import sys
+import time
+import urllib.request
+from pathlib import Path
+
+import pytest
+
+import climwidgets as cw
+from climwidgets.demo import generate
+
+pytestmark = pytest.mark.browser
+
+CHROMIUM = "/usr/bin/chromium"
+IN_CI = os.environ.get("CI", "").lower() == "true"
+NOTEBOOK = Path(__file__).with_name("browser_seasonal.ipynb")
+REPO = Path(__file__).resolve().parents[2]
+CHROMIUM_ARGS = ["--headless", "--no-sandbox", "--disable-gpu", "--disable-quic", "--no-first-run",
+                 "--disable-background-networking", "--disable-component-update", "--disable-sync"]
+
+if not IN_CI and not os.path.exists(CHROMIUM):
+    pytest.skip("Chromium is not installed (the test runs in CI)", allow_module_level=True)
+if not IN_CI:
+    pytest.importorskip("playwright.sync_api")
+
+
+def _free_port() -> int:
+    with socket.socket() as s:
+        s.bind(("127.0.0.1", 0))
+        return s.getsockname()[1]
+
+
+@pytest.fixture(scope="module")
+def demo(tmp_path_factory):
+    folder = tmp_path_factory.mktemp("demo")
+    return folder, generate(directory=folder, size="test", quiet=True)
+
+
+@pytest.fixture(scope="module")
+def server(demo, tmp_path_factory):
+    folder, _ = demo
+    workdir = tmp_path_factory.mktemp("voila")
+    port = _free_port()
+    voila = Path(sys.executable).with_name("voila")
+    env = {**os.environ, "CLIMWIDGETS_DEMO_DIR": str(folder), "CLIMWIDGETS_DEMO_SIZE": "test"}
+    log = open(workdir / "voila.log", "w")
+    proc = subprocess.Popen([str(voila), str(NOTEBOOK), f"--port={port}", "--no-browser",
+                             "--Voila.ip=127.0.0.1", "--show_tracebacks=True"],
+                            cwd=workdir, env=env, stdout=log, stderr=subprocess.STDOUT)
+    url = f"http://127.0.0.1:{port}/"
+    deadline = time.monotonic() + 120
+    while True:
+        try:
+            urllib.request.urlopen(url + "api", timeout=5)
+            break
+        except OSError as exc:
+            if getattr(exc, "code", None):  # an HTTP error means the server answers
+                break
+            if proc.poll() is not None or time.monotonic() > deadline:
+                log.close()
+                proc.kill()
+                pytest.fail("Voilà did not start:\n" + (workdir / "voila.log").read_text()[-3000:])
+            time.sleep(0.5)
+    yield url
+    proc.terminate()
+    try:
+        proc.wait(20)
+    except subprocess.TimeoutExpired:
+        proc.kill()
+    log.close()
+
+
+@pytest.fixture
+def page(server, tmp_path):
+    from playwright.sync_api import sync_playwright
+
+    with sync_playwright() as p:
+        context = p.chromium.launch_persistent_context(
+            str(tmp_path / "chromium-profile"), executable_path=CHROMIUM, headless=True, args=CHROMIUM_ARGS,
+            viewport={"width": 1400, "height": 1600})
+        pg = context.new_page()
+        pg.set_default_timeout(180_000)
+        try:
+            yield pg
+        except Exception:
+            pg.screenshot(path=str(tmp_path / "failure.png"), full_page=True)
+            raise
+        finally:
+            context.close()
+
+
+_ROW_TEXT = """([name, col]) => {
+  for (const tr of document.querySelectorAll('table.cw-table tbody tr')) {
+    const th = tr.querySelector('th');
+    if (th && th.textContent.trim() === name) {
+      const cells = tr.querySelectorAll('td');
+      return cells.length > col ? cells[col].textContent.trim() : null;
+    }
+  }
+  return null;
+}"""
+
+
+def _share_text(value):
+    return "{:.4g}".format(100 * value)  # the widget's table shows shares in % with 4 digits
+
+
+def test_season_change_and_drawing_in_the_browser(page, server, demo, tmp_path):
+    from climwidgets.widgets.mapframe import MapFrame
+
+    _, paths = demo
+    pr = cw.open_precip(paths["monthly"])
+    basin = cw.Basin.from_geojson(paths["basins"])[0]
+    series = cw.basin_mean(pr, basin)
+    before = _share_text(float(cw.seasonal_fraction(series, months=(7, 8))))
+    after = _share_text(float(cw.seasonal_fraction(series, months=(7, 8, 9))))
+    assert before != after
+
+    page.goto(server, timeout=180_000)
+    # widgets rendered and the first computation shown (kernel start + first compute)
+    page.wait_for_function(f"() => ({_ROW_TEXT})([{basin.name!r}, 1]) === {before!r}", timeout=180_000)
+
+    # season July-August -> July-September: the basin's share on the page follows
+    page.locator(".widget-dropdown:has(label:text-is('to')) select").first.select_option(label="September")
+    page.wait_for_function(f"() => ({_ROW_TEXT})([{basin.name!r}, 1]) === {after!r}", timeout=120_000)
+
+    # draw a basin with mouse clicks on the map canvas
+    share_map = cw.seasonal_fraction(pr, months=(7, 8, 9)).compute()
+    frame = MapFrame(share_map, kind="share")  # same grid and figure size: same pixel layout
+    canvas = page.locator(".jupyter-matplotlib-canvas-div").first
+    canvas.scroll_into_view_if_needed()
+    box = canvas.bounding_box()
+    page.locator("button.widget-toggle-button", has_text="Draw").first.click(timeout=30_000)
+    corners = [(-149.4, 33.8), (-148.4, 33.8), (-148.4, 34.6), (-149.4, 34.6)]
+    for lon, lat in corners:
+        fx, fy = frame.figure_fraction(lon, lat)
+        page.mouse.click(box["x"] + fx * box["width"], box["y"] + (1 - fy) * box["height"])
+        page.wait_for_timeout(700)  # distinct single clicks, each sent to the kernel
+    page.get_by_placeholder("name of the new basin").first.fill("Test Hollow", timeout=30_000)
+    page.wait_for_timeout(500)
+    page.locator("button", has_text="Close basin").first.click(timeout=30_000)
+    page.wait_for_function(f"() => ({_ROW_TEXT})(['Test Hollow', 1]) !== null", timeout=120_000)
+    drawn = cw.Basin.from_vertices(corners)
+    area_text = page.evaluate(f"({_ROW_TEXT})(['Test Hollow', 0])")
+    # clicks land within a pixel of the corners: area within a few percent of the outline's
+    assert float(area_text) == pytest.approx(drawn.area_m2 / 1e6, rel=0.05)
+
+    page.wait_for_timeout(1500)  # let the map image refresh before the picture
+    shot = tmp_path / "seasonal_share_browser.png"
+    page.screenshot(path=str(shot), full_page=True)
+    assert shot.stat().st_size > 10_000
+    keep = REPO / "out" / "screenshots"
+    keep.mkdir(parents=True, exist_ok=True)
+    shutil.copy(shot, keep / shot.name)
