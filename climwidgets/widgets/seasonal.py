@@ -91,7 +91,13 @@ class SeasonalShareWidget(BaseWidget):
         self.year_start = widgets.Dropdown(options=[("January (calendar year)", 1), ("October (water year)", 10)],
                                            value=year_start, description="Year starts in", **lab)
         self.years = widgets.IntRangeSlider(value=tuple(years) if years else (lo, hi), min=lo, max=hi,
-                                            description="Years", continuous_update=False, **lab)
+                                            description="Years", continuous_update=False, readout=False,
+                                            style={"description_width": "110px"},
+                                            layout=widgets.Layout(width="240px"))
+        # the slider's own readout is too narrow for a range of two years: a label instead
+        self.years_label = widgets.Label(f"{self.years.value[0]}–{self.years.value[1]}")
+        self.years.observe(lambda c: setattr(self.years_label, "value", f"{c['new'][0]}–{c['new'][1]}"),
+                           names="value")
         self.how = widgets.RadioButtons(options=[("ratio of sums", "ratio_of_sums"),
                                                  ("mean of ratios", "mean_of_ratios")],
                                         value=how, description="Averaging", **lab)
@@ -108,8 +114,9 @@ class SeasonalShareWidget(BaseWidget):
 
     # ------------------------------------------------------------ layout and parameters
     def build_controls(self):
-        return [self.first, self.last, self.season_note, self.year_start, self.years, self.how,
-                self.chart_basin, widgets.HTML("<hr style='margin:4px 0'>"), self.tools]
+        return [self.first, self.last, self.season_note, self.year_start,
+                widgets.HBox([self.years, self.years_label]), self.how, self.chart_basin,
+                widgets.HTML("<hr style='margin:4px 0'>"), self.tools]
 
     @property
     def basins(self):

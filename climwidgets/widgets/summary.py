@@ -103,7 +103,12 @@ class BasinSummaryWidget(BaseWidget):
         self.first = widgets.Dropdown(options=_MONTH_OPTIONS, value=months[0], description="Season from", **lab)
         self.last = widgets.Dropdown(options=_MONTH_OPTIONS, value=months[-1], description="to", **lab)
         self.baseline = widgets.IntRangeSlider(value=(b0, b1), min=lo, max=hi, description="Normal period",
-                                               continuous_update=False, **lab)
+                                               continuous_update=False, readout=False,
+                                               style={"description_width": "120px"},
+                                               layout=widgets.Layout(width="250px"))
+        self.baseline_label = widgets.Label(f"{b0}–{b1}")
+        self.baseline.observe(lambda c: setattr(self.baseline_label, "value", f"{c['new'][0]}–{c['new'][1]}"),
+                              names="value")
         self.year_start = widgets.Dropdown(options=[("January (calendar year)", 1), ("October (water year)", 10)],
                                            value=year_start, description="Year starts in", **lab)
         self.s_first = widgets.Dropdown(options=_MONTH_OPTIONS, value=scenario_months[0],
@@ -131,7 +136,8 @@ class BasinSummaryWidget(BaseWidget):
         self.refresh()
 
     def build_controls(self):
-        return [widgets.HTML("<b>Summary</b>"), self.first, self.last, self.baseline, self.year_start,
+        return [widgets.HTML("<b>Summary</b>"), self.first, self.last,
+                widgets.HBox([self.baseline, self.baseline_label]), self.year_start,
                 widgets.HTML("<b>What-if</b>"), self.s_first, self.s_last, self.percent]
 
     def parameters(self):

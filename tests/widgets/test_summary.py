@@ -39,8 +39,11 @@ def test_numbers_follow_the_controls(pr, tmp_path):
     assert row["change per year [acre-feet]"] == pytest.approx(ref.loc["South", "delta_volume_per_year_m3"]
                                                                 / ACRE_FOOT_M3)
     assert "acre-feet" in w.scenario_html.value
-    w.first.value, w.last.value = 12, 2
     w.baseline.value = (2003, 2011)
+    w.wait()
+    assert np.allclose(w.result["normals"].sel(basin="South"),
+                       basin_mean(normals(pr, baseline=(2003, 2011)), south))
+    w.first.value, w.last.value = 12, 2
     w.year_start.value = 10
     w.wait()
     pd.testing.assert_frame_equal(w.result["summary"], basin_summary(pr, basins(), months=(12, 1, 2),
