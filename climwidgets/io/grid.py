@@ -95,11 +95,16 @@ def normalise_rectilinear(da: xr.DataArray, lat_edges=None, lon_edges=None, *, s
     if lat_edges is None:
         lat_edges = infer_edges(lat, clip=90.0)
         bounds_from = "inferred from cell centres"
-    if lon_edges is None:
-        lon_edges = infer_edges(lon)
-        bounds_from = "inferred from cell centres"
     wrapped = ((lon + 180.0) % 360.0) - 180.0
     shift = wrapped - lon
+    if lon_edges is None:
+        # infer on the unwrapped sequence: 350, 355, 0, 5 is 350, 355, 360, 365, so the
+        # cells either side of the jump get their true half-gaps, not a 180-degree span
+        steps = (np.diff(lon) + 180.0) % 360.0 - 180.0
+        unwrapped = lon[0] + np.concatenate([[0.0], np.cumsum(steps)]) if lon.size else lon
+        lon_edges = infer_edges(unwrapped)
+        shift = wrapped - unwrapped
+        bounds_from = "inferred from cell centres"
     da = da.assign_coords(
         lon=("lon", wrapped, da["lon"].attrs),
         lat_lower=("lat", lat_edges[0]), lat_upper=("lat", lat_edges[1]),
