@@ -118,11 +118,24 @@ def _decode_time(ds: xr.Dataset, tname: str, source) -> tuple[xr.DataArray, xr.D
     bname = tvar.attrs.get("bounds")
     keep = [tname] + ([bname] if bname in ds.variables else [])
     small = xr.Dataset({n: ds[n].variable for n in keep if n != tname}, coords={tname: tvar.variable})
+    units = str(tvar.attrs.get("units", "")).strip()
+    unit_word = units.split(" ")[0].lower()
+    if " since " not in units and not np.issubdtype(tvar.dtype, np.datetime64) and tvar.dtype != object:
+        raise TimeAxisError("has time values without CF units (" + (f"units={units!r})" if units else "no units attribute)"),
+                            source=source,
+                            variable=tname, expected="units such as 'days since 2001-01-01'",
+                            fix=f"set the units attribute of '{tname}', e.g. ds['{tname}'].attrs['units'] = "
+                                "'days since 2001-01-01', and save a copy of the file")
     try:
         decoded = xr.decode_cf(small)
     except Exception as exc:
-        raise TimeAxisError(f"has a time axis that cannot be decoded ({exc})", source=source, variable=tname,
-                            expected="CF time units such as 'days since 1990-01-01'",
+        if unit_word in ("month", "months", "year", "years", "common_year", "common_years"):
+            raise TimeAxisError(f"has time units '{units}': a {unit_word.rstrip('s')} has no fixed length in the "
+                                f"'{tvar.attrs.get('calendar', 'standard')}' calendar", source=source,
+                                variable=tname, expected="units of days, hours or seconds since a date",
+                                fix="rewrite the time as 'days since ...' (for example with cftime.date2num)") from None
+        raise TimeAxisError(f"has a time axis that cannot be decoded ({type(exc).__name__}: {exc})", source=source,
+                            variable=tname, expected="CF time units such as 'days since 1990-01-01'",
                             fix="set the time variable's units and calendar attributes") from None
     bounds = decoded[bname] if bname in decoded else None
     return decoded[tname], bounds
