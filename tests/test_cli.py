@@ -1,0 +1,222 @@
+"""Tests of the ``climwidgets`` command (climwidgets/cli.py), run in-process via main().
+
+Each command runs on the demo generated at size="test"; outputs are compared with the
+public compute functions called directly (the numbers themselves are checked against
+outside references in tests/test_jobs.py and the compute modules' own tests).  Bad input
+must exit 2 with one readable line naming the problem; an internal error exits 1.
+"""
+
+from __future__ import annotations
+
+import subprocess
+import sys
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+import pytest
+
+import climwidgets as cw
+from climwidgets import cli, demo
+from climwidgets.report.tables import read_csv
+
+
+@pytest.fixture(scope="session")
+def demo_files(tmp_path_factory):
+    # one folder per session, shared with tests/test_jobs.py: generate() skips existing files
+    return demo.generate(tmp_path_factory.getbasetemp() / "cw_demo_test", quiet=True, size="test")
+
+
+def run(capsys, *argv):
+    code = cli.main([str(a) for a in argv])
+    out, err = capsys.readouterr()
+    return code, out, err
+
+
+def _error_line(err: str) -> str:
+    lines = [line for line in err.splitlines() if line.strip()]
+    assert len(lines) == 1, err  # one readable line, no traceback
+    return lines[0]
+
+
+# ------------------------------------------------------------------ help
+def test_help_lists_commands_and_exit_codes(capsys):
+    code, out, _ = run(capsys, "--help")
+    assert code == 0
+    for word in ("demo", "info", "summary", "extremes", "compare", "exit codes"):
+        assert word in out
+    for command in ("demo", "info", "summary", "extremes", "compare"):
+        code, out, _ = run(capsys, command, "--help")
+        assert code == 0 and "--quiet" in out
+
+
+def test_installed_console_script_runs():
+    script = Path(sys.executable).parent / "climwidgets"
+    if not script.exists():
+        pytest.skip("the climwidgets console script is not installed in this environment")
+    done = subprocess.run([str(script), "--help"], capture_output=True, text=True, timeout=120)
+    assert done.returncode == 0, done.stderr
+    assert "usage: climwidgets" in done.stdout and "summary" in done.stdout
+
+
+# ------------------------------------------------------------------ info
+def test_info_describes_what_the_loader_sees(capsys, demo_files):
+    code, out, err = run(capsys, "info", demo_files["coarse_monthly"])
+    assert code == 0, err
+    assert "kg m-2 s-1" in out and "calendar: noleap" in out and "time step:    month" in out
+    assert "rectilinear 8 x 10" in out and "missing data: not counted" in out
+    code, out, _ = run(capsys, "info", demo_files["monthly"], "--scan")
+    assert code == 0 and "missing data: 0.00% of values" in out
+
+
+# ------------------------------------------------------------------ summary
+@pytest.fixture(scope="module")
+def summary_run(demo_files, tmp_path_factory):
+    out = tmp_path_factory.mktemp("cli_summary")
+    argv = ["summary", "--data", demo_files["daily"], "--basins", demo_files["basins"], "--months", "7,8",
+            "--baseline", "1991-2020", "--out", out]
+    import contextlib
+    import io
+
+    stdout, stderr = io.StringIO(), io.StringIO()
+    with contextlib.redirect_stdout(stdout), contextlib.redirect_stderr(stderr):
+        code = cli.main([str(a) for a in argv])
+    return code, stdout.getvalue(), stderr.getvalue(), argv
+
+
+def test_summary_writes_paths_on_stdout_and_progress_on_stderr(summary_run, demo_files):
+    code, out, err, _ = summary_run
+    assert code == 0, err
+    paths = [Path(p) for p in out.splitlines()]
+    assert [p.name for p in paths] == ["basin_summary.csv", "seasonal_share_normals.nc", "basin_report.html"]
+    assert all(p.is_file() for p in paths)
+    assert "summary:" in err and "one pass" in err
+    table = read_csv(paths[0], index_col=0)
+    pr = cw.open_precip(demo_files["daily"])
+    direct = cw.basin_summary(pr, cw.Basin.from_geojson(demo_files["basins"]), months=(7, 8), baseline=(1991, 2020))
+    pd.testing.assert_frame_equal(table.astype(float), direct.astype(float), rtol=1e-9, check_names=False)
+
+
+def test_summary_refuses_existing_outputs(capsys, summary_run):
+    _, out, _, argv = summary_run
+    csv = Path(out.splitlines()[0])
+    stamp = csv.stat().st_mtime_ns
+    code, _, err = run(capsys, *argv)
+    assert code == 2
+    line = _error_line(err)
+    assert "basin_summary.csv" in line and "--overwrite" in line
+    assert csv.stat().st_mtime_ns == stamp
+
+
+@pytest.mark.parametrize("change, words", [
+    ({"--months": "7,13"}, ["--months", "13 is not a month number"]),
+    ({"--months": "July"}, ["--months", "not a list of month numbers"]),
+    ({"--baseline": "2020-1991"}, ["--baseline", "ends before it starts"]),
+    ({"--baseline": "1950-1960"}, ["baseline", "outside the data"]),
+    ({"--data": "MISSING"}, ["does not exist"]),
+    ({"--basins": "NOT_GEOJSON"}, ["not valid JSON", "GeoJSON"]),
+    ({"--basins": "MISSING_BASINS"}, ["basin file not found"]),
+])
+def test_summary_bad_input_exits_2_with_one_line(capsys, demo_files, tmp_path, change, words):
+    (tmp_path / "basins.geojson").write_text("lon,lat\n1,2\n")
+    replace = {"MISSING": tmp_path / "nothing.nc", "NOT_GEOJSON": tmp_path / "basins.geojson",
+               "MISSING_BASINS": tmp_path / "nothing.geojson"}
+    opts = {"--data": demo_files["daily"], "--basins": demo_files["basins"], "--months": "7,8",
+            "--baseline": "1991-2020", "--out": tmp_path / "out"}
+    opts.update({k: replace.get(v, v) for k, v in change.items()})
+    code, out, err = run(capsys, "summary", *[x for kv in opts.items() for x in kv], "--quiet")
+    assert code == 2 and out == ""
+    line = _error_line(err)
+    assert line.startswith("climwidgets summary: ")
+    for w in words:
+        assert w in line
+    assert not (tmp_path / "out").exists()
+
+
+def test_argparse_errors_exit_2(capsys):
+    code, _, err = run(capsys, "summary", "--data", "x.nc")
+    assert code == 2 and "--basins" in err
+    code, _, err = run(capsys, "frobnicate")
+    assert code == 2 and "invalid choice" in err
+
+
+def test_internal_error_exits_1(capsys, monkeypatch, demo_files, tmp_path):
+    from climwidgets import jobs
+
+    def broken(*args, **kwargs):
+        raise RuntimeError("boom")
+
+    monkeypatch.setattr(jobs, "run_summary", broken)
+    code, _, err = run(capsys, "summary", "--data", demo_files["daily"], "--basins", demo_files["basins"],
+                       "--out", tmp_path)
+    assert code == 1 and "internal error (RuntimeError: boom)" in err
+
+
+# ------------------------------------------------------------------ extremes
+def test_extremes_prints_paths_and_cautions_even_when_quiet(capsys, demo_files, tmp_path):
+    code, out, err = run(capsys, "extremes", "--data", demo_files["daily"], "--basins", demo_files["basins"],
+                         "--periods", "2,10", "--n-boot", "60", "--out", tmp_path, "--quiet")
+    assert code == 0, err
+    paths = [Path(p) for p in out.splitlines()]
+    assert [p.name for p in paths] == ["return_levels.nc", "basin_return_levels.csv"]
+    for caution in cw.DESIGN_DEPTH_CAUTIONS:
+        assert caution in err
+    assert not any(line.startswith("extremes:") for line in err.splitlines())  # no progress with --quiet
+    table = read_csv(paths[1], index_col=0)
+    assert sorted(set(table["return_period_years"])) == [2, 10]
+    assert set(table.index) == {b["name"] for b in demo.BASINS}
+    pr = cw.open_precip(demo_files["daily"])
+    b = cw.Basin.from_geojson(demo_files["basins"])[0]
+    areal = cw.return_levels(cw.annual_maxima(cw.basin_mean(pr, b).compute()), periods=(2, 10), n_boot=60)
+    np.testing.assert_allclose(table.loc[b.name, "areal_estimate_mm"].values, areal["estimate"].values, rtol=1e-9)
+
+
+def test_extremes_bad_input(capsys, demo_files, tmp_path):
+    code, _, err = run(capsys, "extremes", "--data", demo_files["monthly"], "--out", tmp_path)
+    assert code == 2 and "daily or hourly" in _error_line(err)
+    code, _, err = run(capsys, "extremes", "--data", demo_files["daily"], "--duration", "4", "--out", tmp_path)
+    assert code == 2 and "duration_days=4" in _error_line(err)
+    code, _, err = run(capsys, "extremes", "--data", demo_files["daily"], "--periods", "2,x", "--out", tmp_path)
+    assert code == 2 and "--periods" in _error_line(err)
+
+
+# ------------------------------------------------------------------ compare
+def test_compare_writes_metrics_and_basin_table(capsys, demo_files, tmp_path):
+    code, out, err = run(capsys, "compare", "--data", f"fine={demo_files['monthly']}",
+                         f"coarse={demo_files['coarse_monthly']}", "--basins", demo_files["basins"],
+                         "--out", tmp_path, "--quiet")
+    assert code == 0, err
+    paths = [Path(p) for p in out.splitlines()]
+    assert [p.name for p in paths] == ["comparison_metrics.nc", "products_basin_table.csv"]
+    table = read_csv(paths[1], index_col=[0, 1])
+    assert set(table.index.get_level_values("product")) >= {"fine", "coarse", "spread: max - min"}
+    code, _, err = run(capsys, "compare", "--data", demo_files["monthly"], "--out", tmp_path / "x")
+    assert code == 2 and "at least two" in _error_line(err)
+
+
+def test_overwrite_replaces_and_quiet_silences(capsys, demo_files, tmp_path):
+    argv = ["compare", "--data", demo_files["monthly"], demo_files["coarse_monthly"], "--out", tmp_path]
+    code, out, err = run(capsys, *argv)
+    assert code == 0 and "compare: monthly totals" in err
+    code, _, err = run(capsys, *argv, "--quiet")
+    assert code == 2 and "comparison_metrics.nc" in _error_line(err)
+    code, out2, err = run(capsys, *argv, "--overwrite", "--quiet")
+    assert code == 0 and err == "" and out2 == out
+
+
+# ------------------------------------------------------------------ demo
+def test_demo_headless_writes_summary_and_report(capsys, demo_files, tmp_path):
+    code, out, err = run(capsys, "demo", "--headless", "--dir", demo_files["daily"].parent, "--size", "test",
+                         "--out", tmp_path, "--quiet")
+    assert code == 0, err
+    names = [Path(p).name for p in out.splitlines()]
+    assert names == ["demo_basin_summary.csv", "demo_seasonal_share_normals.nc", "demo_basin_report.html"]
+    table = read_csv(tmp_path / "demo_basin_summary.csv", index_col=0)
+    assert list(table.index) == [b["name"] for b in demo.BASINS]
+    assert "invented data" in (tmp_path / "demo_basin_report.html").read_text(encoding="utf-8")
+
+
+def test_demo_without_headless_prints_the_demo_files(capsys, demo_files):
+    code, out, _ = run(capsys, "demo", "--dir", demo_files["daily"].parent, "--size", "test", "--quiet")
+    assert code == 0
+    assert {Path(p).name for p in out.splitlines()} == {p.name for p in demo_files.values()}

@@ -1,0 +1,275 @@
+"""Tests of the batch jobs (climwidgets/jobs.py) that the CLI and the headless demo run.
+
+The demo is generated once per session at size="test" (0.25° grid).  The jobs only
+orchestrate public functions, so their outputs are checked (1) against the same public
+functions called directly, (2) against outside references: pyproj's geodesic basin area,
+the acre-foot definition, scipy.stats.genextreme quantiles of the demo's true GEV
+parameters, and (3) against a synthetic file whose totals are known by hand.
+"""
+
+from __future__ import annotations
+
+import json
+
+import numpy as np
+import pandas as pd
+import pytest
+import scipy.stats
+import xarray as xr
+
+import climwidgets as cw
+from climwidgets import demo, jobs
+from climwidgets.errors import BasinError, InputError, ParameterError, SourceError
+from climwidgets.report.tables import read_csv
+
+MONTHS, BASELINE = (7, 8), (1991, 2020)
+
+
+@pytest.fixture(scope="session")
+def demo_files(tmp_path_factory):
+    # one folder per session, shared with tests/test_cli.py: generate() skips existing files
+    return demo.generate(tmp_path_factory.getbasetemp() / "cw_demo_test", quiet=True, size="test")
+
+
+@pytest.fixture(scope="module")
+def pr(demo_files):
+    return cw.open_precip(demo_files["daily"])
+
+
+@pytest.fixture(scope="module")
+def basins(demo_files):
+    return cw.Basin.from_geojson(demo_files["basins"])
+
+
+@pytest.fixture(scope="module")
+def summary(demo_files, tmp_path_factory):
+    out = tmp_path_factory.mktemp("summary")
+    messages = []
+    result = jobs.run_summary(demo_files["daily"], demo_files["basins"], MONTHS, BASELINE, out,
+                              progress=messages.append)
+    return result, messages
+
+
+def _csv(path):
+    return read_csv(path, index_col=0)
+
+
+# ------------------------------------------------------------------ summary
+def test_summary_writes_three_files_and_reports_progress(summary):
+    result, messages = summary
+    assert list(result.paths) == ["csv", "netcdf", "report"]
+    assert all(p.is_file() and p.stat().st_size > 0 for p in result.paths.values())
+    assert any("one pass" in m for m in messages) and any("100 %" in m for m in messages)
+    html = result.paths["report"].read_text(encoding="utf-8")
+    for b in demo.BASINS:
+        assert b["name"] in html
+    assert "Cautions" in html and result.cautions  # volumes carry the planning-level cautions
+
+
+def test_summary_csv_agrees_with_basin_summary(summary, pr, basins):
+    result, _ = summary
+    table = _csv(result.paths["csv"])
+    direct = cw.basin_summary(pr, basins, months=MONTHS, baseline=BASELINE)
+    assert list(table.columns) == list(direct.columns)
+    assert all(c.endswith(("_km2", "_mm", "_1", "_m3", "_acre_ft", "_years", "_year", "_normal"))
+               for c in table.columns)  # units in the column names
+    pd.testing.assert_frame_equal(table.astype(float), direct.astype(float), rtol=1e-9, check_names=False)
+    header = result.paths["csv"].read_text(encoding="utf-8").splitlines()
+    assert header[0].startswith("# climwidgets") and any("sha256" in h for h in header)
+    assert any(h.startswith("# parameter: baseline = 1991, 2020") for h in header)
+    assert any(h.startswith("# caution:") for h in header)
+
+
+def test_summary_areas_and_volumes_against_outside_references(summary, basins):
+    import pyproj
+
+    table = _csv(summary[0].paths["csv"])
+    geod = pyproj.Geod(ellps="WGS84")
+    for b in basins:
+        # pyproj geodesic area on WGS84; the grid's area is on the authalic sphere with edges
+        # snapped to grid cells by coverage, so agreement within 1 % is expected
+        area, _ = geod.geometry_area_perimeter(b.geometry)
+        assert table.loc[b.name, "area_km2"] == pytest.approx(abs(area) / 1e6, rel=0.01)
+        # acre-foot = 43 560 ft³ with the international foot 0.3048 m (definition)
+        m3 = table.loc[b.name, "annual_mean_mm"] / 1000 * table.loc[b.name, "area_km2"] * 1e6
+        assert table.loc[b.name, "volume_per_year_m3"] == pytest.approx(m3, rel=1e-9)
+        assert table.loc[b.name, "volume_per_year_acre_ft"] == pytest.approx(m3 / (43560 * 0.3048**3), rel=1e-9)
+    # the invented scenario puts the strongest summer share in the south (demo_grids/README.md)
+    assert table["seasonal_share_1"].idxmax() == "Mirrowaith"
+
+
+def test_summary_netcdf_holds_share_map_and_normals(summary, pr):
+    with xr.open_dataset(summary[0].paths["netcdf"]) as ds:
+        share = cw.seasonal_fraction(pr, months=MONTHS).drop_vars("n_years", errors="ignore")
+        np.testing.assert_allclose(ds["seasonal_share"].values, share.values, rtol=1e-12)
+        np.testing.assert_allclose(ds["normals"].values, cw.normals(pr, baseline=BASELINE).values, rtol=1e-12)
+        assert ds["seasonal_share"].attrs["units"] == "1" and ds["normals"].attrs["units"] == "mm"
+        assert ds.attrs["Conventions"].startswith("CF") and "open_precip" in ds.attrs["history"]
+
+
+def test_summary_on_synthetic_file_with_hand_totals(tmp_path):
+    # 2 mm/day in July-August, 1 mm/day otherwise, 1991-1993 (1992 a leap year):
+    # annual totals 62*2 + 303 = 427, 428, 427 mm; seasonal share 124 / mean annual total.
+    time = pd.date_range("1991-01-01", "1993-12-31", freq="D")
+    lat, lon = np.array([10.25, 10.75]), np.array([-160.75, -160.25])
+    values = np.where(time.month.isin([7, 8]), 2.0, 1.0)[:, None, None] * np.ones((1, 2, 2))
+    da = xr.DataArray(values, dims=("time", "lat", "lon"), coords={"time": time, "lat": lat, "lon": lon},
+                      name="pr", attrs={"units": "mm", "standard_name": "lwe_thickness_of_precipitation_amount"})
+    da.to_dataset().to_netcdf(tmp_path / "synthetic.nc")
+    gj = {"type": "FeatureCollection", "features": [{"type": "Feature", "properties": {"name": "square"},
+          "geometry": {"type": "Polygon", "coordinates": [[[-161, 10], [-160, 10], [-160, 11], [-161, 11],
+                                                           [-161, 10]]]}}]}
+    (tmp_path / "b.geojson").write_text(json.dumps(gj))
+    result = jobs.run_summary(tmp_path / "synthetic.nc", tmp_path / "b.geojson", (7, 8), (1991, 1993),
+                              tmp_path / "out", figures=False)
+    row = _csv(result.paths["csv"]).loc["square"]
+    mean = (427 + 428 + 427) / 3
+    assert row["annual_mean_mm"] == pytest.approx(mean, rel=1e-12)
+    assert row["normal_annual_mm"] == pytest.approx(mean, rel=1e-12)
+    assert row["seasonal_share_1"] == pytest.approx(124 / mean, rel=1e-12)
+    assert row["latest_year"] == 1993 and row["latest_year_mm"] == pytest.approx(427, rel=1e-12)
+    assert row["n_years"] == 3
+
+
+def test_existing_outputs_are_refused_before_any_data_is_read(summary, tmp_path):
+    out = summary[0].paths["csv"].parent
+    before = {p: p.stat().st_mtime_ns for p in out.iterdir()}
+    # the data path does not exist: the output check must come first
+    with pytest.raises(FileExistsError) as err:
+        jobs.run_summary(tmp_path / "missing.nc", tmp_path / "missing.geojson", out_dir=out)
+    assert isinstance(err.value, InputError)
+    assert "basin_summary.csv" in str(err.value) and "overwrite" in str(err.value)
+    assert {p: p.stat().st_mtime_ns for p in out.iterdir()} == before
+
+
+@pytest.mark.parametrize("kwargs, words", [
+    ({"months": (7, 13)}, ["months", "13"]),
+    ({"months": (8, 7)}, ["consecutive"]),
+    ({"baseline": (2020, 1991)}, ["baseline", "ends before it starts"]),
+    ({"year_start": 0}, ["year_start"]),
+])
+def test_bad_parameters_raise_input_errors(demo_files, tmp_path, kwargs, words):
+    args = dict(months=MONTHS, baseline=BASELINE, out_dir=tmp_path / "o")
+    args.update(kwargs)
+    with pytest.raises(ParameterError) as err:
+        jobs.run_summary(demo_files["daily"], demo_files["basins"], **args)
+    for w in words:
+        assert w in str(err.value)
+    assert not (tmp_path / "o").exists()  # nothing created for a refused job
+
+
+# ------------------------------------------------------------------ basins
+def test_load_basins_from_geojson_shapefile_and_errors(demo_files, tmp_path):
+    import shapefile  # pyshp, a dependency
+
+    names = [b.name for b in jobs.load_basins(demo_files["basins"])]
+    assert names == [b["name"] for b in demo.BASINS]
+    with shapefile.Writer(str(tmp_path / "outline"), shapeType=shapefile.POLYGON) as w:
+        w.field("name", "C")
+        w.poly([[[-147.9, 35.6], [-147.9, 36.2], [-147.5, 36.2], [-147.5, 35.6], [-147.9, 35.6]]])
+        w.record("drawn")
+    assert [b.name for b in jobs.load_basins(tmp_path / "outline.shp")] == ["drawn"]
+    with pytest.raises(SourceError, match="not found"):
+        jobs.load_basins(tmp_path / "nothing.geojson")
+    with pytest.raises(BasinError, match="not a basin outline file"):
+        jobs.load_basins(demo_files["daily"])
+    (tmp_path / "bad.geojson").write_text("name,lon,lat\n")
+    with pytest.raises(SourceError, match="not valid JSON"):
+        jobs.load_basins(tmp_path / "bad.geojson")
+
+
+# ------------------------------------------------------------------ extremes
+@pytest.fixture(scope="module")
+def extremes(demo_files, tmp_path_factory):
+    out = tmp_path_factory.mktemp("extremes")
+    return jobs.run_extremes(demo_files["daily"], demo_files["basins"], duration_days=1, periods=(2, 10, 100),
+                             ci=0.9, n_boot=100, out_dir=out)
+
+
+def test_extremes_files_agree_with_return_levels(extremes, pr, basins):
+    fit = dict(periods=(2, 10, 100), ci=0.9, n_boot=100, seed=0)
+    with xr.open_dataset(extremes.paths["netcdf"]) as ds:
+        direct = cw.return_levels(cw.annual_maxima(pr, duration_days=1), **fit).compute()
+        for v in ("estimate", "lower", "upper"):
+            np.testing.assert_allclose(ds[v].values, direct[v].values, rtol=1e-9)
+        assert list(ds["period"].values) == [2, 10, 100]
+        assert "Planning-level" in ds.attrs["cautions"]
+    table = _csv(extremes.paths["csv"])
+    b = basins[0]
+    areal = cw.return_levels(cw.annual_maxima(cw.basin_mean(pr, b).compute()), **fit)
+    rows = table.loc[[b.name]].set_index("return_period_years")
+    np.testing.assert_allclose(rows["areal_estimate_mm"].values, areal["estimate"].values, rtol=1e-9)
+    np.testing.assert_allclose(rows["areal_lower_mm"].values, areal["lower"].values, rtol=1e-9)
+    assert (rows["areal_lower_mm"] <= rows["areal_estimate_mm"]).all()
+    assert (rows["areal_estimate_mm"] <= rows["areal_upper_mm"]).all()
+    text = extremes.paths["csv"].read_text(encoding="utf-8")
+    for caution in cw.DESIGN_DEPTH_CAUTIONS:
+        assert f"# caution: {caution}" in text
+    assert extremes.cautions == tuple(cw.DESIGN_DEPTH_CAUTIONS)
+
+
+def test_extremes_against_the_demo_true_gev(extremes, demo_files):
+    # True 10-year depths from the demo's GEV parameters with scipy.stats.genextreme
+    # (c equals Hosking's k, the demo's convention).  The demo's annual maxima are one
+    # 40-year sample per cell, so the fitted levels scatter around the truth; the 90 %
+    # intervals should cover it in most cells (the cells' samples are correlated, so the
+    # share is a noisy statistic and the bound is loose).
+    with xr.open_dataset(demo_files["gev"]) as g, xr.open_dataset(extremes.paths["netcdf"]) as rl:
+        true = scipy.stats.genextreme.ppf(0.9, c=g["shape"].values, loc=g["loc"].values, scale=g["scale"].values)
+        e = rl.sel(period=10)
+        covered = ((e["lower"].values <= true) & (true <= e["upper"].values)).mean()
+        assert covered >= 0.6
+        assert np.median(e["estimate"].values / true) == pytest.approx(1.0, abs=0.1)
+
+
+def test_extremes_refuses_monthly_data(demo_files, tmp_path):
+    with pytest.raises(InputError, match="daily or hourly"):
+        jobs.run_extremes(demo_files["monthly"], out_dir=tmp_path, n_boot=100)
+    with pytest.raises(ParameterError, match="return periods"):
+        jobs.run_extremes(demo_files["daily"], periods=(1,), out_dir=tmp_path)
+
+
+# ------------------------------------------------------------------ compare
+@pytest.fixture(scope="module")
+def comparison(demo_files, tmp_path_factory):
+    out = tmp_path_factory.mktemp("compare")
+    data = [f"fine={demo_files['monthly']}", f"coarse={demo_files['coarse_monthly']}"]
+    return jobs.run_compare(data, demo_files["basins"], months=MONTHS, out_dir=out)
+
+
+def test_compare_files_agree_with_compare_and_basin_table(comparison, demo_files, basins):
+    products = {"fine": cw.open_precip(demo_files["monthly"], chunks=None),
+                "coarse": cw.open_precip(demo_files["coarse_monthly"], chunks=None)}
+    aligned = cw.align(products)
+    direct = cw.compare(aligned["fine"], aligned["coarse"]).compute()
+    with xr.open_dataset(comparison.paths["netcdf"]) as ds:
+        assert list(ds["product"].values) == ["coarse"] and ds.attrs["reference"] == "fine"
+        for v in ("bias", "ratio", "rmse", "corr", "kge", "nse"):
+            np.testing.assert_allclose(ds[v].sel(product="coarse").values, direct[v].values, rtol=1e-9,
+                                       equal_nan=True)
+    table = read_csv(comparison.paths["csv"], index_col=[0, 1])
+    expected = cw.products_basin_table(products, basins, months=MONTHS)
+    np.testing.assert_allclose(table.values, expected.values, rtol=1e-9, equal_nan=True)
+    assert list(table.index) == list(expected.index)
+
+
+def test_compare_product_names(demo_files, tmp_path):
+    with pytest.raises(ParameterError, match="at least two"):
+        jobs.run_compare([demo_files["monthly"]], out_dir=tmp_path)
+    with pytest.raises(ParameterError, match="names repeat"):
+        jobs.run_compare([demo_files["monthly"], demo_files["monthly"]], out_dir=tmp_path)
+    assert list(jobs._product_names([f"a={demo_files['monthly']}", demo_files["coarse_monthly"]])) == \
+        ["a", "pr_coarse_monthly_noleap"]
+
+
+# ------------------------------------------------------------------ headless demo
+def test_demo_headless_runs_the_summary_job_and_replaces_its_own_files(demo_files, summary, tmp_path):
+    directory = demo_files["daily"].parent
+    (tmp_path / "notes.txt").write_text("mine")
+    (tmp_path / "demo_basin_summary.csv").write_text("left from an earlier run")
+    again = jobs.run_demo_headless(tmp_path, directory=directory, size="test", figures=False)  # no refusal
+    assert [p.name for p in again.paths.values()] == ["demo_basin_summary.csv", "demo_seasonal_share_normals.nc",
+                                                      "demo_basin_report.html"]
+    assert all(p.is_file() for p in again.paths.values())
+    assert (tmp_path / "notes.txt").read_text() == "mine"
+    pd.testing.assert_frame_equal(_csv(again.paths["csv"]), _csv(summary[0].paths["csv"]), rtol=1e-12)
