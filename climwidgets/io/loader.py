@@ -77,6 +77,15 @@ def _choose_variable(ds: xr.Dataset, var, source, standard_names, names, kind) -
             except UnitsError:
                 return False
     pool = by_sn or [n for n in data_vars if plausible(n)]
+    if kind == "precipitation" and not by_sn and pool:
+        # a conventionally named variable without units beside one with units is more likely
+        # a file whose units sit on the wrong variable than a choice to make silently
+        bare = [n for n in data_vars if n.lower() in names and n not in pool and not ds[n].attrs.get("units")]
+        if bare:
+            raise VariableError(f"has '{bare[0]}' without units, while {', '.join(pool)} has precipitation units",
+                                source=source, variable=bare[0], expected="units on the precipitation variable",
+                                fix=f"set the 'units' attribute of '{bare[0]}', or pass var='{pool[0]}' if that "
+                                    "is the precipitation")
     if len(pool) == 1:
         return pool[0]
     named = [n for n in (pool or data_vars) if n.lower() in names]
