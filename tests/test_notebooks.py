@@ -65,6 +65,39 @@ def _check_tour(key, pr, basins):
         assert key["drawer_mean_mm"][b.name] == pytest.approx(float(cw.basin_mean(normal, b)), rel=1e-6)
 
 
+def _check_tour_more(key, paths, pr, basins):
+    """The four later widgets in the tour report what the compute functions give."""
+    spi = cw.spi(pr, scale=3)
+    for b in basins:
+        ref = float(cw.spi(cw.basin_mean(pr, b), scale=3).isel(time=-1))
+        assert key["spi3_last"][b.name] == pytest.approx(ref, rel=1e-6, abs=1e-9)
+    assert spi.sizes["time"] == pr.sizes["time"]
+    daily = cw.open_precip(paths["daily"])
+    for b in basins:
+        levels = cw.return_levels(cw.annual_maxima(cw.basin_mean(daily, b), duration_days=1), n_boot=200)
+        assert key["areal_100yr_mm"][b.name] == pytest.approx(float(levels["estimate"].sel(period=100)), rel=1e-6)
+    products = {"fine": pr, "coarse": cw.open_precip(paths["coarse_monthly"])}
+    aligned = cw.align(products)
+    bias = float(cw.compare(aligned["fine"], aligned["coarse"])["bias"].mean())
+    assert key["bias_mm_per_year"] == pytest.approx(bias, rel=1e-9)
+    assert 0 < key["ratio_first_band"] < 1  # the demo's lee side is drier than its windward side
+
+
+def _check_data_team(key, paths, pr, basins):
+    coarse = cw.open_precip(paths["coarse_monthly"])
+    products = {"fine": pr, "coarse": coarse}
+    aligned = cw.align(products)
+    bias = float(cw.compare(aligned["fine"], aligned["coarse"])["bias"].mean())
+    assert key["domain_mean_bias_mm_per_year"] == pytest.approx(bias, rel=1e-9)
+    assert key["widget_domain_mean_bias_mm_per_year"] == pytest.approx(bias, rel=1e-9)
+    table = cw.products_basin_table(products, basins, months=(7, 8))
+    assert key["spread_mm"] == pytest.approx(table.loc[(key["basin"], "spread: max - min"), "annual_mean_mm"], rel=1e-9)
+    from climwidgets.demo import COARSE_BIAS
+
+    for month, factor in key["monthly_factor"].items():  # the bias the demo generator put in
+        assert factor == pytest.approx(COARSE_BIAS[int(month)], abs=2e-3)
+
+
 def _check_analyst(key, pr, basins):
     for b in basins:
         series = cw.basin_mean(pr, b)
@@ -84,7 +117,9 @@ def _check_planner(key, pr, basins):
         assert key["widget_delta_m3"][b.name] == pytest.approx(key["delta_m3"][b.name], rel=1e-12)
 
 
-CHECKS = {"tour": _check_tour, "analyst_summer_share": _check_analyst, "planner_basin_report": _check_planner}
+CHECKS = {"tour": _check_tour, "analyst_summer_share": _check_analyst, "planner_basin_report": _check_planner,
+          "data_team_comparison": _check_data_team}
+NEEDS_PATHS = {"data_team_comparison"}
 
 
 @pytest.mark.parametrize("path", NOTEBOOKS, ids=[p.stem for p in NOTEBOOKS])
@@ -96,4 +131,10 @@ def test_notebook_runs_and_reports_the_computed_numbers(path, demo, tmp_path):
         return  # a notebook without registered checks must still run top to bottom
     assert key is not None, f"{path.name} has no cell tagged key-numbers"
     pr = cw.open_precip(paths["monthly"])
-    check(key, pr, cw.Basin.from_geojson(paths["basins"]))
+    basins = cw.Basin.from_geojson(paths["basins"])
+    if path.stem in NEEDS_PATHS:
+        check(key, paths, pr, basins)
+    else:
+        check(key, pr, basins)
+    if path.stem == "tour":
+        _check_tour_more(key, paths, pr, basins)
