@@ -179,7 +179,7 @@ def build_parser() -> argparse.ArgumentParser:
         q.add_argument("--out", default="out", metavar="DIR", help="output folder, created if absent (default: out)")
         q.add_argument("--overwrite", action="store_true", help="replace existing outputs (default: refuse)")
 
-    d = sub.add_parser("demo", parents=[common], formatter_class=fmt,
+    d = sub.add_parser("demo", parents=[common],
                        help="generate the invented demo data; optionally summarize it or serve the tour",
                        description="Generate the invented demo grids (deterministic; skipped when present). "
                                    "--headless then writes the demo basin summary, maps and report to --out "
@@ -194,7 +194,7 @@ def build_parser() -> argparse.ArgumentParser:
     d.add_argument("--port", type=int, default=8866, help="port for --serve (default: 8866)")
     d.set_defaults(func=_cmd_demo)
 
-    i = sub.add_parser("info", parents=[common], formatter_class=fmt,
+    i = sub.add_parser("info", parents=[common],
                        help="what the loader sees in a file: variable, units, calendar, step, grid, chunks",
                        description="Describe a precipitation source as cw.open_precip sees it: variable, units "
                                    "and conversion to mm per step, calendar, step, period, grid, chunks and "
@@ -204,7 +204,7 @@ def build_parser() -> argparse.ArgumentParser:
     i.add_argument("--scan", action="store_true", help="also read the data to count missing values")
     i.set_defaults(func=_cmd_info)
 
-    s = sub.add_parser("summary", parents=[common], formatter_class=fmt,
+    s = sub.add_parser("summary", parents=[common],
                        help="basin summary table (CSV), seasonal share and normals (NetCDF), HTML report",
                        description="Per basin: area, mean annual precipitation, seasonal share, annual normal, "
                                    "volumes and the latest year against the normal. Writes basin_summary.csv, "
@@ -217,7 +217,7 @@ def build_parser() -> argparse.ArgumentParser:
     out_args(s)
     s.set_defaults(func=_cmd_summary)
 
-    e = sub.add_parser("extremes", parents=[common], formatter_class=fmt,
+    e = sub.add_parser("extremes", parents=[common],
                        help="return-level maps (NetCDF) and basin design depths with intervals (CSV)",
                        description="GEV return levels (L-moments, parametric-bootstrap intervals) of annual "
                                    "maximum n-day precipitation per cell (return_levels.nc) and per basin "
@@ -234,7 +234,7 @@ def build_parser() -> argparse.ArgumentParser:
     out_args(e)
     e.set_defaults(func=_cmd_extremes)
 
-    c = sub.add_parser("compare", parents=[common], formatter_class=fmt,
+    c = sub.add_parser("compare", parents=[common],
                        help="agreement maps between products (NetCDF) and a basin table across products (CSV)",
                        description="The first --data product is the reference; name products as NAME=PATH "
                                    "(default: file name). Products are compared as monthly totals over their "

@@ -271,6 +271,10 @@ def run_extremes(data, basins=None, duration_days=1, periods=(2, 10, 25, 50, 100
     if not (isinstance(ci, (int, float)) and not isinstance(ci, bool) and 0 < ci < 1):
         raise ParameterError(f"ci={ci!r} is not a confidence level", source=job, variable="ci",
                              expected="a number strictly between 0 and 1", fix="e.g. 0.9 for a 90 % interval")
+    if isinstance(n_boot, bool) or not isinstance(n_boot, int) or n_boot < 50:
+        raise ParameterError(f"n_boot={n_boot!r} is too small for percentile intervals", source=job,
+                             variable="n_boot", expected="an integer of at least 50 (1000 or more for final numbers)",
+                             fix="e.g. --n-boot 1000")
     names = EXTREMES_FILES if basins is not None else {"netcdf": EXTREMES_FILES["netcdf"]}
     paths = _plan_outputs(out_dir, names, prefix, overwrite, job)
     say = _Reporter(progress, job)
@@ -369,6 +373,9 @@ def run_compare(data, basins=None, months=(7, 8), baseline=None, out_dir="out", 
         baseline = _check_baseline(baseline, job)
     if period is not None:
         period = _check_baseline(period, job, "period")
+    if str(kge) not in ("2009", "2012"):
+        raise ParameterError(f"unknown KGE form {kge!r}", source=job, variable="kge",
+                             expected="'2009' (Gupta et al.) or '2012' (Kling et al.)", fix="use kge='2009'")
     if grid is not None and grid not in named:
         raise ParameterError(f"grid {grid!r} is not one of the products", source=job, variable="grid",
                              expected=" or ".join(repr(n) for n in named), fix="name one of the products")

@@ -205,13 +205,20 @@ def test_overwrite_replaces_and_quiet_silences(capsys, demo_files, tmp_path):
 
 
 # ------------------------------------------------------------------ demo
-def test_demo_headless_writes_summary_and_report(capsys, demo_files, tmp_path):
+def test_demo_headless_writes_summary_and_report(capsys, demo_files, summary_run, tmp_path):
+    # the demo_* files are the demo's own and are replaced; other files are left alone
+    (tmp_path / "notes.txt").write_text("mine")
+    (tmp_path / "demo_basin_summary.csv").write_text("left from an earlier run")
     code, out, err = run(capsys, "demo", "--headless", "--dir", demo_files["daily"].parent, "--size", "test",
                          "--out", tmp_path, "--quiet")
     assert code == 0, err
     names = [Path(p).name for p in out.splitlines()]
     assert names == ["demo_basin_summary.csv", "demo_seasonal_share_normals.nc", "demo_basin_report.html"]
+    assert (tmp_path / "notes.txt").read_text() == "mine"
+    # the same job as `climwidgets summary` on the same file: the same table
     table = read_csv(tmp_path / "demo_basin_summary.csv", index_col=0)
+    summary = read_csv(Path(summary_run[1].splitlines()[0]), index_col=0)
+    pd.testing.assert_frame_equal(table, summary, rtol=1e-12)
     assert list(table.index) == [b["name"] for b in demo.BASINS]
     assert "invented data" in (tmp_path / "demo_basin_report.html").read_text(encoding="utf-8")
 

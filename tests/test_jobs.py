@@ -33,7 +33,7 @@ def demo_files(tmp_path_factory):
 
 @pytest.fixture(scope="module")
 def pr(demo_files):
-    return cw.open_precip(demo_files["daily"])
+    return cw.open_precip(demo_files["daily"], chunks=None)  # in memory: the direct checks read it often
 
 
 @pytest.fixture(scope="module")
@@ -227,6 +227,8 @@ def test_extremes_refuses_monthly_data(demo_files, tmp_path):
         jobs.run_extremes(demo_files["monthly"], out_dir=tmp_path, n_boot=100)
     with pytest.raises(ParameterError, match="return periods"):
         jobs.run_extremes(demo_files["daily"], periods=(1,), out_dir=tmp_path)
+    with pytest.raises(ParameterError, match="n_boot=10"):
+        jobs.run_extremes(demo_files["daily"], n_boot=10, out_dir=tmp_path)
 
 
 # ------------------------------------------------------------------ compare
@@ -260,16 +262,3 @@ def test_compare_product_names(demo_files, tmp_path):
         jobs.run_compare([demo_files["monthly"], demo_files["monthly"]], out_dir=tmp_path)
     assert list(jobs._product_names([f"a={demo_files['monthly']}", demo_files["coarse_monthly"]])) == \
         ["a", "pr_coarse_monthly_noleap"]
-
-
-# ------------------------------------------------------------------ headless demo
-def test_demo_headless_runs_the_summary_job_and_replaces_its_own_files(demo_files, summary, tmp_path):
-    directory = demo_files["daily"].parent
-    (tmp_path / "notes.txt").write_text("mine")
-    (tmp_path / "demo_basin_summary.csv").write_text("left from an earlier run")
-    again = jobs.run_demo_headless(tmp_path, directory=directory, size="test", figures=False)  # no refusal
-    assert [p.name for p in again.paths.values()] == ["demo_basin_summary.csv", "demo_seasonal_share_normals.nc",
-                                                      "demo_basin_report.html"]
-    assert all(p.is_file() for p in again.paths.values())
-    assert (tmp_path / "notes.txt").read_text() == "mine"
-    pd.testing.assert_frame_equal(_csv(again.paths["csv"]), _csv(summary[0].paths["csv"]), rtol=1e-12)
