@@ -89,3 +89,18 @@ def test_disk_cache_survives_memory_loss(tmp_path):
         xr.testing.assert_allclose(a["seasonal_share"], b["seasonal_share"])
     finally:
         cache.configure(directory=None)
+
+
+def test_seasonal_share_graph_grows_linearly_with_chunks(tmp_path):
+    """One streaming pass: the task count is proportional to the number of chunks read."""
+    path = _write(tmp_path / "d.nc", years=4)
+    counts = {}
+    for days in (30, 60, 120, 240):
+        pr = cw.open_precip(path, chunks={"time": days}, validate=False)
+        share = cw.seasonal_fraction(pr, months=(7, 8))
+        counts[len(pr.chunks[0])] = len(share.__dask_graph__())
+    n = np.array(sorted(counts))
+    tasks = np.array([counts[k] for k in n])
+    slope, intercept = np.polyfit(n, tasks, 1)
+    assert np.allclose(tasks, slope * n + intercept, rtol=0.05)  # affine in the chunk count
+    assert slope < 25  # a fixed handful of tasks per chunk read (read, convert, partial sums), not per day
