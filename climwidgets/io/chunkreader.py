@@ -12,6 +12,9 @@ ordinary xarray path: ``direct_reader`` returns None.
 
 CF decoding (``_FillValue``/``missing_value`` to NaN, ``scale_factor``/``add_offset``)
 is applied here, because this path bypasses xarray's lazy decoding.
+
+Both paths turn a failing read (a damaged chunk, a file cut short) into a
+:class:`~climwidgets.errors.SourceError` naming the file, raised when the values are read.
 """
 
 from __future__ import annotations
@@ -125,10 +128,53 @@ def _decode_cf(values: np.ndarray, fills, scale, offset) -> np.ndarray:
     return x
 
 
-def _read_block(index, fills, scale, offset, block_info=None):
+def _read_error(path, varname, region, exc):
+    """A damaged or truncated file found while reading values, as a SourceError naming it."""
+    from ..errors import SourceError
+
+    where = ", ".join(f"{s.start}:{s.stop}" for s in region)
+    kind = "zlib.error" if isinstance(exc, zlib.error) else type(exc).__name__
+    return SourceError(f"could not read the values [{where}] ({kind}: {exc}); the file is damaged "
+                       "or truncated", source=path, variable=varname, expected="a complete, readable file",
+                       fix="check the file with 'ncdump' and copy or download it again")
+
+
+def _read_block(index, fills, scale, offset, varname=None, block_info=None):
     loc = block_info[None]["array-location"]
     region = tuple(slice(a, b) for a, b in loc)
-    return _decode_cf(read_region(index, region), fills, scale, offset)
+    try:
+        return _decode_cf(read_region(index, region), fills, scale, offset)
+    except (OSError, zlib.error, ValueError, RuntimeError) as exc:
+        raise _read_error(index.path, varname, region, exc) from None
+
+
+class _Backend:
+    """Holds a lazily read xarray Variable so that dask passes it to tasks as it is."""
+
+    def __init__(self, variable):
+        self.variable = variable
+
+
+def _read_backend_block(backend, path, varname, block_info=None):
+    loc = block_info[None]["array-location"]
+    region = tuple(slice(a, b) for a, b in loc)
+    try:
+        return np.asarray(backend.variable[region].values)
+    except (OSError, ValueError, RuntimeError, IndexError, KeyError) as exc:
+        raise _read_error(path, varname, region, exc) from None
+
+
+def backend_reader(variable, path, varname: str, chunks: tuple, name: str):
+    """A dask array reading ``variable`` (lazy, from xarray's backend) in ``chunks``.
+
+    Same as ``variable.chunk``, except that a failing read (damaged or truncated file)
+    raises a :class:`~climwidgets.errors.SourceError` that names the file.
+    """
+    import dask.array as dsa
+
+    normalized = dsa.core.normalize_chunks(chunks, variable.shape)
+    return dsa.map_blocks(_read_backend_block, _Backend(variable), path, varname, dtype=variable.dtype,
+                          chunks=normalized, name=name, meta=np.array((), dtype=variable.dtype))
 
 
 def direct_reader(path: str, varname: str, encoding: dict, chunks: tuple, name: str):
@@ -148,5 +194,5 @@ def direct_reader(path: str, varname: str, encoding: dict, chunks: tuple, name: 
     fills = [f for v in fills for f in np.atleast_1d(v)]
     scale, offset = encoding.get("scale_factor"), encoding.get("add_offset")
     normalized = dsa.core.normalize_chunks(chunks, index.shape)
-    return dsa.map_blocks(_read_block, index, fills, scale, offset, dtype=np.float64, chunks=normalized,
+    return dsa.map_blocks(_read_block, index, fills, scale, offset, varname, dtype=np.float64, chunks=normalized,
                           name=name, meta=np.array((), dtype=np.float64))

@@ -23,7 +23,7 @@ from ..errors import DataValueError, GridError, MismatchError, TimeAxisError, Un
 from ..provenance import with_history
 from . import grid as gridmod
 from . import timeaxis
-from .chunkreader import direct_reader
+from .chunkreader import backend_reader, direct_reader
 from .sources import open_raw, resolve
 from .units import UnitInfo, length_to_metres, parse_units
 
@@ -207,7 +207,9 @@ def _open_part(path, var, kind, chunks="auto"):
         da = da.isel({d: 0 for d in extra}, drop=True)
     else:
         da = da.isel({d: 0 for d in extra}, drop=True)
-        da = da.chunk({d: plan[d] for d in da.dims}, name_prefix=f"open_precip-{name}-", token=ident)
+        data = backend_reader(da.variable, path, name, tuple(plan[d] for d in da.dims),
+                              name=f"open_precip-{name}-{ident}")
+        da = xr.DataArray(data, dims=da.dims, coords=da.coords, attrs=da.attrs)
     info["reader"] = "direct chunk reads (parallel decompression)" if direct is not None else "xarray netCDF4 backend"
     da = da.reset_coords(drop=True)
     if tname is not None:
@@ -293,7 +295,7 @@ def _conversion(da: xr.DataArray, units: UnitInfo, step: str, source, name):
     return seconds * units.to_mm, f"rate in '{units.text}' x {units.to_mm:g} -> mm/s, {how}"
 
 
-def _convert_block(block, factor, mask_fill: bool, guard: bool):
+def _convert_block(block, factor, mask_fill: bool, guard: bool, source=None, name=None):
     """Stored values -> mm per step in one pass over a chunk (float64 for accurate sums).
 
     ``guard`` raises on negatives beyond the tolerance and zeroes the tiny ones; it runs as
@@ -310,7 +312,7 @@ def _convert_block(block, factor, mask_fill: bool, guard: bool):
         lowest = np.nanmin(x, initial=0.0)
         if lowest < -NEGATIVE_TOLERANCE_MM:
             raise DataValueError(f"has negative precipitation (lowest {lowest:.4g} mm) in a chunk read from disk",
-                                 expected="precipitation depths >= 0",
+                                 source=source, variable=name, expected="precipitation depths >= 0",
                                  fix="open with validate=True to find where, and check scale_factor/add_offset and units")
         x[x < 0] = 0.0
     return x
@@ -374,7 +376,8 @@ def open_precip(source, var=None, chunks="auto", validate="auto") -> xr.DataArra
     if chunks is None:
         da = da.compute()
     eager = validate is True or (validate == "auto" and da.size <= EAGER_CHECK_MAX_VALUES)
-    da = xr.apply_ufunc(_convert_block, da, factor, kwargs={"mask_fill": mask_fill, "guard": not eager},
+    guard = {"mask_fill": mask_fill, "guard": not eager, "source": where, "name": name}
+    da = xr.apply_ufunc(_convert_block, da, factor, kwargs=guard,
                         dask="parallelized", output_dtypes=[np.float64], keep_attrs=False)
     if eager:
         _check_values(da, where, name)
