@@ -59,8 +59,99 @@ def resolve(source) -> list[str]:
     return [expanded]
 
 
+_NC3_TYPE_SIZES = {1: 1, 2: 1, 3: 2, 4: 4, 5: 4, 6: 8, 7: 1, 8: 2, 9: 4, 10: 8, 11: 8}
+
+
+def netcdf3_min_size(head: bytes) -> int | None:
+    """The fewest bytes a NetCDF-3 file with this header must have, or None if unknown.
+
+    The netCDF library reads past the end of a short classic file as zeros without an
+    error, so a cut download would open as silent zeros; comparing the file's size with
+    what its header declares catches it.  Record sizes are summed without padding, so the
+    bound is never larger than the true size (no false alarms).
+    """
+    import struct
+
+    if len(head) < 8 or head[:3] != b"CDF" or head[3] not in (1, 2, 5):
+        return None
+    version, pos = head[3], 4
+    big = version == 5
+
+    def take(n):
+        nonlocal pos
+        if pos + n > len(head):
+            raise EOFError
+        chunk = head[pos:pos + n]
+        pos += n
+        return chunk
+
+    def count():
+        return struct.unpack(">Q", take(8))[0] if big else struct.unpack(">I", take(4))[0]
+
+    def name():
+        n = count()
+        take((n + 3) // 4 * 4)
+
+    def attrs():
+        tag, n = struct.unpack(">I", take(4))[0], count()
+        for _ in range(n if tag else 0):
+            name()
+            typ, k = struct.unpack(">I", take(4))[0], count()
+            take((k * _NC3_TYPE_SIZES.get(typ, 1) + 3) // 4 * 4)
+
+    try:
+        numrecs = count()
+        if numrecs in (0xFFFFFFFF, 0xFFFFFFFFFFFFFFFF):
+            return None  # streaming: record count not recorded
+        tag, n = struct.unpack(">I", take(4))[0], count()
+        dims = []
+        for _ in range(n if tag else 0):
+            name()
+            dims.append(count())
+        attrs()
+        tag, n = struct.unpack(">I", take(4))[0], count()
+        fixed_end, rec_begin, rec_bytes = 0, None, 0
+        for _ in range(n if tag else 0):
+            name()
+            ids = [count() for _ in range(count())]
+            attrs()
+            typ = struct.unpack(">I", take(4))[0]
+            count()  # vsize (may be a sentinel for large variables)
+            begin = struct.unpack(">Q", take(8))[0] if version in (2, 5) else struct.unpack(">I", take(4))[0]
+            is_record = bool(ids) and dims[ids[0]] == 0
+            size = _NC3_TYPE_SIZES.get(typ, 1)
+            for i in ids[1:] if is_record else ids:
+                size *= dims[i]
+            if is_record:
+                rec_begin = begin if rec_begin is None else min(rec_begin, begin)
+                rec_bytes += size
+            else:
+                fixed_end = max(fixed_end, begin + size)
+    except (EOFError, IndexError, struct.error):
+        return None
+    if rec_begin is not None and numrecs:
+        return max(fixed_end, rec_begin + numrecs * rec_bytes)
+    return fixed_end
+
+
+def _check_not_short(source: str) -> None:
+    try:
+        size = os.path.getsize(source)
+        with open(source, "rb") as fh:
+            head = fh.read(8 * 2**20)
+    except OSError:
+        return
+    need = netcdf3_min_size(head)
+    if need is not None and size < need:
+        raise SourceError(f"is shorter than its header says ({size} bytes, at least {need} needed): it is truncated",
+                          source=source, expected="a complete NetCDF file",
+                          fix="copy or download the file again; a transfer was probably cut short")
+
+
 def open_raw(source: str) -> xr.Dataset:
     """Open one source lazily with times left undecoded (they are checked before decoding)."""
+    if not is_zarr(source) and not is_url(source) and os.path.isfile(source):
+        _check_not_short(source)
     try:
         if is_zarr(source):
             with warnings.catch_warnings():  # stores without consolidated metadata are fine
