@@ -185,9 +185,15 @@ def _bootstrap_block(x, F, dist, min_years, ci, n_boot, seed):
         sample = np.where(col[None, None, :] < n[rows, None, None], sample, np.nan)
         bl, bs, bk = _fit_block(sample, dist, min_years)[:3]
         xt = _quantile(F[None, None, :], bl[..., None], bs[..., None], bk[..., None])
-        with warnings.catch_warnings():  # a cell whose every refit failed stays NaN
-            warnings.simplefilter("ignore", RuntimeWarning)
-            lo, hi = np.nanquantile(xt, [q_lo, q_hi], axis=1)
+        # np.quantile is vectorised; np.nanquantile loops over cells, so keep it for the
+        # few cells where some refit failed
+        lo, hi = np.quantile(xt, [q_lo, q_hi], axis=1)
+        gaps = ~np.isfinite(xt).all(axis=1)
+        if gaps.any():
+            with warnings.catch_warnings():  # a cell whose every refit failed stays NaN
+                warnings.simplefilter("ignore", RuntimeWarning)
+                r, c = np.nonzero(gaps)
+                lo[r, c], hi[r, c] = np.nanquantile(xt[r, :, c], [q_lo, q_hi], axis=1)
         lower[rows] = lo
         upper[rows] = hi
     shape = lead + (F.size,)
