@@ -22,6 +22,10 @@ _FREQ = {"hour": "h", "day": "D", "month": "MS"}
 
 
 def check_calendar(calendar, *, source=None, variable="time") -> str:
+    if calendar is not None and not isinstance(calendar, str):
+        raise CalendarError(f"has a calendar attribute that is not text ({calendar!r})", source=source,
+                            variable=variable, expected="a CF calendar name such as 'standard' or 'noleap'",
+                            fix="set the time variable's calendar attribute to a calendar name")
     cal = (calendar or "standard").strip().lower()
     if cal not in SUPPORTED_CALENDARS:
         raise CalendarError(
