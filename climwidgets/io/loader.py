@@ -136,7 +136,7 @@ def _decode_time(ds: xr.Dataset, tname: str, source) -> tuple[xr.DataArray, xr.D
                             fix=f"set the units attribute of '{tname}', e.g. ds['{tname}'].attrs['units'] = "
                                 "'days since 2001-01-01', and save a copy of the file")
     try:
-        decoded = xr.decode_cf(small)
+        decoded = xr.decode_cf(small).load()  # decode now, so bad stamps or bounds fail here
     except Exception as exc:
         if unit_word in ("month", "months", "year", "years", "common_year", "common_years"):
             raise TimeAxisError(f"has time units '{units}': a {unit_word.rstrip('s')} has no fixed length in the "
@@ -167,12 +167,31 @@ def _user_plan(plan: dict, chunks: dict, da, ds, tname, latn, lonn) -> dict:
     return plan
 
 
+def _check_packing(da: xr.DataArray, source, name) -> None:
+    """scale_factor, add_offset, _FillValue and missing_value must be numbers to be applied."""
+    for key in ("scale_factor", "add_offset", "_FillValue", "missing_value"):
+        for where in (da.encoding, da.attrs):
+            value = where.get(key)
+            if value is None:
+                continue
+            arr = np.asarray(value)
+            if arr.dtype.kind not in "biuf" or (key in ("scale_factor", "add_offset") and arr.size != 1):
+                raise DataValueError(f"has {key}={value!r}, which is not a number", source=source, variable=name,
+                                     expected=f"a numeric {key} attribute",
+                                     fix=f"correct or delete the {key} attribute (for example with ncatted or "
+                                         "netCDF4) in a copy of the file")
+            if key in ("scale_factor", "add_offset") and not np.all(np.isfinite(arr)):
+                raise DataValueError(f"has {key}={value!r}", source=source, variable=name,
+                                     expected=f"a finite {key}", fix=f"correct the {key} attribute in a copy of the file")
+
+
 def _open_part(path, var, kind, chunks="auto"):
     """One file: choose the variable, decode time, find lat/lon, normalise the grid."""
     ds = open_raw(path)
     sn, names = (PRECIP_STANDARD_NAMES, PRECIP_NAMES) if kind == "precipitation" else (ELEVATION_STANDARD_NAMES, ELEVATION_NAMES)
     name = _choose_variable(ds, var, path, sn, names, kind)
     da = ds[name]
+    _check_packing(da, path, name)
     tname = gridmod.find_coord(ds, da, "time")
     latn, lonn = gridmod.find_coord(ds, da, "lat"), gridmod.find_coord(ds, da, "lon")
     if latn is None or lonn is None:
