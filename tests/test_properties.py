@@ -18,7 +18,7 @@ from hypothesis import strategies as st
 
 import climwidgets as cw
 
-SETTINGS = settings(max_examples=15, deadline=None, derandomize=True, print_blob=True,
+SETTINGS = settings(max_examples=15, deadline=None, derandomize=True, print_blob=True, database=None,
                     suppress_health_check=[HealthCheck.too_slow, HealthCheck.data_too_large])
 LAT = np.array([-30.75, -30.25])
 LON = np.array([-140.75, -140.25, -139.75])
