@@ -71,10 +71,16 @@ def atomic_write(path, overwrite: bool, write, what: str) -> Path:
             raise OutputExistsError("appeared while writing and was left untouched", source=path,
                                     expected="a new file name", fix="pass overwrite=True or choose another path")
         os.replace(tmp, path)
-    except BaseException:
+    except BaseException as exc:
         try:
             os.unlink(tmp)
         except FileNotFoundError:
             pass
+        if isinstance(exc, OSError) and not isinstance(exc, InputError) and exc.errno is not None:
+            # same type and errno (disk full, permission refused), but say which output and
+            # that nothing was lost
+            raise type(exc)(exc.errno, f"{exc.strerror or exc}: {what} could not be written; the previous "
+                                       "file (if any) is untouched and no partial file was left",
+                            str(path)) from exc
         raise
     return path

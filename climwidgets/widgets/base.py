@@ -311,6 +311,11 @@ class BaseWidget(widgets.VBox):
                 self.render(result, params)
         except Superseded:
             return
+        except KeyboardInterrupt:  # Ctrl-C: stop, say so, stay usable
+            if self._is_current(gen):
+                self.message.value = "Interrupted. Change a setting to compute again."
+            if threading.current_thread() is threading.main_thread():
+                raise  # compute_now in the kernel's thread: the interrupt reaches the user
         except InputError as exc:
             if self._is_current(gen):
                 self._show_error(exc)
