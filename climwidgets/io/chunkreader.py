@@ -118,9 +118,18 @@ def read_region(index: ChunkIndex, region: tuple) -> np.ndarray:
 
 
 def _decode_cf(values: np.ndarray, fills, scale, offset) -> np.ndarray:
-    x = values.astype(np.float64)
-    for f in fills:
-        x[values == f] = np.nan
+    """CF decoding of one region; unpacked floats stay in their stored precision here."""
+    packed = scale is not None or offset is not None or values.dtype.kind != "f"
+    # the loader converts to float64 next; unpacked floats only get native byte order here
+    x = values.astype(np.float64) if packed else values.astype(values.dtype.newbyteorder("="), copy=False)
+    flat = values.reshape(-1)
+    if flat.size:
+        lo, hi = np.fmin.reduce(flat), np.fmax.reduce(flat)
+        present = [f for f in fills if lo <= f <= hi]  # skip the compare when no fill can be there
+        if present:
+            if x is values:
+                x = values.copy()  # never write into a buffer we did not allocate
+            x[np.isin(values, present)] = np.nan
     if scale is not None:
         x *= scale
     if offset is not None:
@@ -194,5 +203,7 @@ def direct_reader(path: str, varname: str, encoding: dict, chunks: tuple, name: 
     fills = [f for v in fills for f in np.atleast_1d(v)]
     scale, offset = encoding.get("scale_factor"), encoding.get("add_offset")
     normalized = dsa.core.normalize_chunks(chunks, index.shape)
-    return dsa.map_blocks(_read_block, index, fills, scale, offset, varname, dtype=np.float64, chunks=normalized,
-                          name=name, meta=np.array((), dtype=np.float64))
+    packed = scale is not None or offset is not None or index.dtype.kind != "f"
+    out = np.dtype(np.float64) if packed else index.dtype.newbyteorder("=")
+    return dsa.map_blocks(_read_block, index, fills, scale, offset, varname, dtype=out, chunks=normalized,
+                          name=name, meta=np.array((), dtype=out))

@@ -315,22 +315,31 @@ def _conversion(da: xr.DataArray, units: UnitInfo, step: str, source, name):
 
 
 def _convert_block(block, factor, mask_fill: bool, guard: bool, source=None, name=None):
-    """Stored values -> mm per step in one pass over a chunk (float64 for accurate sums).
+    """Stored values -> mm per step (float64 for accurate sums), with few passes over a chunk.
 
+    Two NaN-ignoring reductions (min, max) tell whether a chunk holds fill codes or
+    negatives at all, so the usual chunk costs those two reductions and one multiply.
     ``guard`` raises on negatives beyond the tolerance and zeroes the tiny ones; it runs as
-    each chunk is read, so large inputs are checked without a separate pass.
+    each chunk is read, so large inputs are checked without a separate pass. The input
+    block is never modified (dask may share it).
     """
-    x = np.array(block, dtype=np.float64)
-    if mask_fill:
-        bad = np.abs(x) >= 1e15
-        for v in _LIKELY_FILL:
-            bad |= x == v
+    b = np.asarray(block)
+    if b.size == 0:
+        return b.astype(np.float64)
+    flat = b.reshape(-1)
+    lo, hi = float(np.fmin.reduce(flat)), float(np.fmax.reduce(flat))
+    x = b.astype(np.float64)  # a new array: the input block is left as it is
+    if not (np.isscalar(factor) and factor == 1.0):
+        x *= factor  # (np.multiply with dtype= would take numpy's slow buffered casting path)
+    if mask_fill and (hi >= 1e15 or lo <= min(_LIKELY_FILL, key=abs) or lo <= -1e15):
+        bad = (np.abs(b) >= 1e15) | np.isin(b, _LIKELY_FILL)
         x[bad] = np.nan
-    x *= factor
-    if guard:
-        lowest = np.nanmin(x, initial=0.0)
-        if lowest < -NEGATIVE_TOLERANCE_MM:
-            raise DataValueError(f"has negative precipitation (lowest {lowest:.4g} mm) in a chunk read from disk",
+        lo = float(np.fmin.reduce(x.reshape(-1))) if (~bad).any() else 0.0
+    elif lo < 0:
+        lo = float(np.fmin.reduce(x.reshape(-1)))  # in mm, after the factor
+    if guard and lo < 0:
+        if lo < -NEGATIVE_TOLERANCE_MM:
+            raise DataValueError(f"has negative precipitation (lowest {lo:.4g} mm) in a chunk read from disk",
                                  source=source, variable=name, expected="precipitation depths >= 0",
                                  fix="open with validate=True to find where, and check scale_factor/add_offset and units")
         x[x < 0] = 0.0
