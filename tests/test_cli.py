@@ -21,12 +21,6 @@ from climwidgets import cli, demo
 from climwidgets.report.tables import read_csv
 
 
-@pytest.fixture(scope="session")
-def demo_files(tmp_path_factory):
-    # one folder per session, shared with tests/test_jobs.py: generate() skips existing files
-    return demo.generate(tmp_path_factory.getbasetemp() / "cw_demo_test", quiet=True, size="test")
-
-
 def run(capsys, *argv):
     code = cli.main([str(a) for a in argv])
     out, err = capsys.readouterr()

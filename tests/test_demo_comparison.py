@@ -10,12 +10,12 @@ import numpy as np
 import pytest
 
 import climwidgets as cw
-from climwidgets.demo import COARSE_BIAS, generate
+from climwidgets.demo import COARSE_BIAS
 
 
 @pytest.fixture(scope="module")
-def aligned(tmp_path_factory):
-    paths = generate(directory=tmp_path_factory.mktemp("demo"), size="test", quiet=True)
+def aligned(demo_files):
+    paths = demo_files
     daily = cw.open_precip(paths["daily"])
     coarse = cw.open_precip(paths["coarse_monthly"])
     assert daily.attrs["step"] == "day" and coarse.attrs["calendar"] == "noleap"

@@ -25,12 +25,6 @@ from climwidgets.report.tables import read_csv
 MONTHS, BASELINE = (7, 8), (1991, 2020)
 
 
-@pytest.fixture(scope="session")
-def demo_files(tmp_path_factory):
-    # one folder per session, shared with tests/test_cli.py: generate() skips existing files
-    return demo.generate(tmp_path_factory.getbasetemp() / "cw_demo_test", quiet=True, size="test")
-
-
 @pytest.fixture(scope="module")
 def pr(demo_files):
     return cw.open_precip(demo_files["daily"], chunks=None)  # in memory: the direct checks read it often

@@ -17,7 +17,6 @@ nbformat = pytest.importorskip("nbformat")
 nbclient = pytest.importorskip("nbclient")
 
 import climwidgets as cw  # noqa: E402
-from climwidgets.demo import generate  # noqa: E402
 
 pytestmark = pytest.mark.slow
 
@@ -25,10 +24,8 @@ NOTEBOOKS = sorted((Path(__file__).resolve().parent.parent / "notebooks").glob("
 
 
 @pytest.fixture(scope="module")
-def demo(tmp_path_factory):
-    folder = tmp_path_factory.mktemp("demo")
-    paths = generate(directory=folder, size="test", quiet=True)
-    return folder, paths
+def demo(demo_files):
+    return demo_files["daily"].parent, demo_files
 
 
 def _run(path: Path, demo_dir: Path, workdir: Path) -> dict | None:

@@ -27,6 +27,21 @@ import numpy as np
 _DEFLATE, _SHUFFLE, _FLETCHER32 = 1, 2, 3
 
 
+def _unshuffle(data: bytes, size: int):
+    """Undo HDF5's byte shuffle: stored as all first bytes, then all second bytes, ...
+
+    One contiguous column copy per byte position: several times faster than a transposed
+    copy, and numpy releases the GIL while copying.
+    """
+    if size == 1:
+        return data
+    planes = np.frombuffer(data, dtype=np.uint8).reshape(size, -1)
+    out = np.empty((planes.shape[1], size), dtype=np.uint8)
+    for i in range(size):
+        out[:, i] = planes[i]
+    return out.reshape(-1)  # flat bytes, so a following checksum strip cuts bytes, not rows
+
+
 class ChunkIndex:
     """Byte offset and size of every stored chunk of one variable, by its chunk-grid position."""
 
@@ -52,11 +67,11 @@ class ChunkIndex:
             if fid == _DEFLATE:
                 data = zlib.decompress(data)
             elif fid == _SHUFFLE:
-                size = self.dtype.itemsize
-                arr = np.frombuffer(data, dtype=np.uint8)
-                data = arr.reshape(size, -1).T.tobytes() if size > 1 else data
+                data = _unshuffle(data, self.dtype.itemsize)
             elif fid == _FLETCHER32:
                 data = data[:-4]  # checksum trailer; HDF5 verifies it, we trust the file
+        if isinstance(data, np.ndarray):
+            return data.view(self.dtype).reshape(self.chunk_shape)
         return np.frombuffer(data, dtype=self.dtype).reshape(self.chunk_shape)
 
 
