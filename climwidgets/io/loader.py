@@ -6,8 +6,12 @@ reads metadata and coordinates only; data values are read when a result is compu
 Chunking policy: dask chunks follow the file's own on-disk chunks, so that every chunk
 dask asks for is a whole number of stored chunks and nothing is read twice.  Along time
 several stored chunks are grouped until a dask chunk holds about ``TARGET_CHUNK_BYTES``
-(a (1, ny, nx)-chunked file becomes (k, ny, nx) with k stored fields per dask chunk;
-time-chunked tiles keep their tiles).  Contiguous files are chunked along time only.
+of float64, but never fewer than ``MIN_STORED_PER_TASK`` stored chunks (a (1, ny, nx)-
+chunked file becomes (k, ny, nx) with k stored fields per dask chunk; time-chunked tiles
+keep their tiles and get several years per task).  Contiguous files are chunked along time
+only.  Measured on 20 years of daily 512 x 512 data (benchmarks/RESULTS.md): 32 MiB keeps
+peak memory under 0.8 GB and is faster than 128 MiB for field-per-step files; small tiles
+need several stored chunks per task or per-task overhead dominates.
 """
 
 from __future__ import annotations
@@ -37,7 +41,8 @@ PRECIP_STANDARD_NAMES = (
 PRECIP_NAMES = ("pr", "precip", "precipitation", "prcp", "tp", "rain", "rainfall", "ppt", "rr", "prec", "apcp")
 ELEVATION_STANDARD_NAMES = ("surface_altitude", "height_above_mean_sea_level", "altitude", "height_above_geoid")
 ELEVATION_NAMES = ("elevation", "orog", "orography", "elev", "z", "hgt", "height", "topo", "dem", "altitude")
-TARGET_CHUNK_BYTES = 128 * 2**20
+TARGET_CHUNK_BYTES = 32 * 2**20
+MIN_STORED_PER_TASK = 10
 # Read deflate/shuffle-compressed NetCDF-4 chunks directly so threads decompress in parallel
 # (see chunkreader); False falls back to xarray's netCDF4 backend everywhere.
 DIRECT_CHUNK_READS = True
@@ -113,7 +118,7 @@ def _chunk_plan(var: xr.Variable, dims: tuple, time_dim: str | None) -> dict:
         plan[time_dim] = 1
     field_bytes = 8 * math.prod(v for d, v in plan.items() if d != time_dim)
     per_block = plan[time_dim] * field_bytes
-    k = max(1, TARGET_CHUNK_BYTES // max(per_block, 1))
+    k = max(MIN_STORED_PER_TASK if stored else 1, TARGET_CHUNK_BYTES // max(per_block, 1))
     plan[time_dim] = int(min(shape[time_dim], plan[time_dim] * k))
     return plan
 
