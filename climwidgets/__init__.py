@@ -102,4 +102,8 @@ def __dir__():
     return sorted(set(globals()) | set(_PUBLIC))
 
 
-__all__ = ["__version__", "InputError", *_PUBLIC]
+__all__ = [
+    "__version__", "InputError", "BasinError", "CalendarError", "DataValueError", "GridError",
+    "InsufficientDataError", "MismatchError", "ParameterError", "SourceError", "TimeAxisError",
+    "UnitsError", "VariableError", *_PUBLIC,
+]

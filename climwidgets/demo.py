@@ -39,6 +39,7 @@ from scipy.ndimage import gaussian_filter
 from scipy.special import ndtr
 
 from ._version import __version__
+from .atomic import atomic_write
 from .errors import ParameterError
 
 __all__ = [
@@ -468,27 +469,16 @@ def _encoding(ds: xr.Dataset, tile: tuple[int, int, int] | None = None) -> dict:
     return enc
 
 
-def _part_path(path: Path) -> Path:
-    # a hidden sibling (same folder, so the rename is atomic) created with the user's umask
-    return path.with_name(f".{path.name}.{os.getpid()}.part")
-
-
 def _write_atomic(ds: xr.Dataset, path: Path, calendar: str = "standard", tile=None) -> None:
     enc = _encoding(ds, tile)
     if "time" in ds.variables:
         enc.update(_time_encoding(calendar))
-    tmp = _part_path(path)
-    try:
-        ds.to_netcdf(tmp, engine="netcdf4", format="NETCDF4", encoding=enc)
-        os.replace(tmp, path)
-    finally:
-        tmp.unlink(missing_ok=True)
+    atomic_write(path, True, lambda tmp: ds.to_netcdf(tmp, engine="netcdf4", format="NETCDF4", encoding=enc),
+                 "demo.generate")
 
 
 def _write_text_atomic(text: str, path: Path) -> None:
-    tmp = _part_path(path)
-    tmp.write_text(text, encoding="utf-8")
-    os.replace(tmp, path)
+    atomic_write(path, True, lambda tmp: tmp.write_text(text, encoding="utf-8"), "demo.generate")
 
 
 def _size_meta(size: _Size) -> dict:

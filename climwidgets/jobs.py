@@ -108,7 +108,7 @@ def _check_baseline(baseline, job, name="baseline"):
 
 def _plan_outputs(out_dir, names: dict, prefix: str, overwrite: bool, job: str) -> dict[str, Path]:
     """The output paths; fails now if the folder is a file or an output exists."""
-    from .report._atomic import OutputExistsError
+    from .atomic import OutputExistsError
 
     if not isinstance(out_dir, (str, os.PathLike)) or str(out_dir) == "":
         raise ParameterError(f"out_dir={out_dir!r} is not a folder path", source=job, variable="out_dir",

@@ -18,7 +18,6 @@ from __future__ import annotations
 import hashlib
 import json
 import os
-import tempfile
 from functools import cached_property
 from pathlib import Path
 
@@ -26,7 +25,8 @@ import numpy as np
 import shapely
 from shapely.geometry import MultiPolygon, Polygon, mapping, shape
 
-from ..errors import BasinError, ParameterError, SourceError
+from ..atomic import atomic_write_file
+from ..errors import BasinError, SourceError
 
 __all__ = ["Basin", "write_geojson"]
 
@@ -350,18 +350,6 @@ def _prj_transform(prj: Path):
 def write_geojson(basins, path, overwrite: bool = False) -> Path:
     """Write basins to a GeoJSON FeatureCollection, atomically (temp file, then rename)."""
     basins = [basins] if isinstance(basins, Basin) else list(basins)
-    path = Path(path)
-    if path.exists() and not overwrite:
-        raise ParameterError("file exists", source=path, expected="a new file name",
-                             fix="pass overwrite=True to replace it")
     data = {"type": "FeatureCollection", "features": [b.to_geojson() for b in basins]}
-    fd, tmp = tempfile.mkstemp(dir=path.parent, prefix=f".{path.name}.", suffix=".tmp")
-    try:
-        with os.fdopen(fd, "w", encoding="utf-8") as fh:
-            json.dump(data, fh)
-        os.replace(tmp, path)
-    except BaseException:
-        if os.path.exists(tmp):
-            os.unlink(tmp)
-        raise
-    return path
+    return atomic_write_file(path, lambda fh: json.dump(data, fh), mode="w", overwrite=overwrite,
+                             what="write_geojson")

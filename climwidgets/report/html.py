@@ -19,7 +19,7 @@ import pandas as pd
 
 from .._version import __version__
 from ..errors import ParameterError
-from ._atomic import atomic_write, check_target
+from ..atomic import atomic_write, check_target
 from ._provenance import describe_inputs, format_value
 from .content import DEFAULT_TITLE, ReportContent, build_report_content
 

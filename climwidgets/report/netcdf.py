@@ -40,7 +40,7 @@ import xarray as xr
 from .._version import __version__
 from ..errors import GridError, ParameterError
 from ..provenance import history_line
-from ._atomic import OutputExistsError, atomic_write, check_target
+from ..atomic import OutputExistsError, atomic_write, check_target
 
 __all__ = ["to_netcdf", "prepare_cf", "OutputExistsError", "CONVENTIONS"]
 

@@ -17,7 +17,7 @@ import pandas as pd
 
 from .._version import __version__
 from ..errors import ParameterError
-from ._atomic import atomic_write, check_target
+from ..atomic import atomic_write, check_target
 from ._provenance import cautions_for_columns, describe_inputs, format_value
 
 __all__ = ["to_csv", "read_csv", "header_lines"]

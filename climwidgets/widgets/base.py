@@ -54,8 +54,6 @@ from __future__ import annotations
 
 import contextlib
 import html
-import os
-import tempfile
 import threading
 import traceback
 from pathlib import Path
@@ -64,9 +62,10 @@ import ipywidgets as widgets
 import pandas as pd
 from dask.callbacks import Callback
 
+from ..atomic import atomic_write
 from ..errors import InputError
 
-__all__ = ["BaseWidget", "DaskProgress", "Superseded", "atomic_write", "unique_path", "df_to_html"]
+__all__ = ["BaseWidget", "DaskProgress", "Superseded", "unique_path", "df_to_html"]
 
 
 class Superseded(Exception):
@@ -112,22 +111,6 @@ class DaskProgress(Callback):
         self.done += 1
         if self.is_current():
             self.bar.value = min(1.0, self.done / self.total)
-
-
-def atomic_write(path, write, mode="wb"):
-    """Write through ``write(fileobj)`` into a temporary file next to ``path``, then rename."""
-    path = Path(path)
-    path.parent.mkdir(parents=True, exist_ok=True)
-    fd, tmp = tempfile.mkstemp(dir=path.parent, prefix=f".{path.name}.", suffix=".part")
-    try:
-        with os.fdopen(fd, mode) as fh:
-            write(fh)
-        os.replace(tmp, path)
-    except BaseException:
-        if os.path.exists(tmp):
-            os.unlink(tmp)
-        raise
-    return path
 
 
 def unique_path(folder, name):
@@ -389,15 +372,7 @@ class BaseWidget(widgets.VBox):
         """Write one export now; returns its path."""
         target = unique_path(self.export_dir, f"{stem or self.export_stem}.{suffix}")
         target.parent.mkdir(parents=True, exist_ok=True)
-        fd, tmp = tempfile.mkstemp(dir=target.parent, prefix=f".{target.name}.", suffix=".part")
-        os.close(fd)
-        try:
-            write(Path(tmp))
-            os.replace(tmp, target)
-        finally:
-            if os.path.exists(tmp):
-                os.unlink(tmp)
-        return target
+        return atomic_write(target, False, write, f"{type(self).__name__} export")
 
     def _write_csv(self, path):
         if self.table is None:

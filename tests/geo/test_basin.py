@@ -123,11 +123,11 @@ def test_wkt_and_geojson_round_trip(tmp_path):
     out = write_geojson([b, cw.Basin.from_vertices(SQUARE, name="sq")], tmp_path / "out.geojson")
     back = cw.Basin.from_geojson(out)
     assert [x.name for x in back] == ["w", "sq"] and back[0].token == b.token
-    with pytest.raises(ParameterError, match="file exists.*overwrite=True"):
+    with pytest.raises(FileExistsError, match="already exists.*overwrite=True"):  # OutputExistsError
         write_geojson([b], out)
     write_geojson([b], out, overwrite=True)
     assert len(cw.Basin.from_geojson(out)) == 1
-    assert not [p for p in tmp_path.iterdir() if p.name.endswith(".tmp")]
+    assert not [p for p in tmp_path.iterdir() if p.name.endswith((".tmp", ".part"))]
     with pytest.raises(BasinError, match="could not read WKT"):
         cw.Basin.from_wkt("POLYGON((1 2, 3", name="w")
 

@@ -1,7 +1,8 @@
 """Atomic writes: a temporary file in the target folder, then ``os.replace``.
 
 A reader never sees a half-written output, a failed write leaves no stray file, and an
-existing output is only replaced when the caller asked for it (DESIGN.md §8).
+existing output is only replaced when the caller asked for it (DESIGN.md §8).  Every
+writer in the package (exports, basin files, widget buttons, the cache) goes through here.
 """
 
 from __future__ import annotations
@@ -10,9 +11,9 @@ import os
 import tempfile
 from pathlib import Path
 
-from ..errors import InputError, ParameterError
+from .errors import InputError, ParameterError
 
-__all__ = ["OutputExistsError", "atomic_write", "check_target"]
+__all__ = ["OutputExistsError", "atomic_write", "atomic_write_file", "check_target"]
 
 
 class OutputExistsError(InputError, FileExistsError):
@@ -84,3 +85,12 @@ def atomic_write(path, overwrite: bool, write, what: str) -> Path:
                             str(path)) from exc
         raise
     return path
+
+
+def atomic_write_file(path, write, mode: str = "wb", overwrite: bool = True, what: str = "file") -> Path:
+    """Like :func:`atomic_write`, with ``write(fileobj)`` given an open file (``mode``)."""
+    def to_path(tmp: Path):
+        with open(tmp, mode) as fh:
+            write(fh)
+
+    return atomic_write(path, overwrite, to_path, what)
