@@ -219,7 +219,22 @@ class DrawingTools(widgets.VBox):
         return written
 
 
-class BasinDrawer(BaseWidget):
+class HostsDrawingTools:
+    """Mixin for widgets that embed :class:`DrawingTools` as ``self.tools``."""
+
+    @property
+    def basins(self):
+        """The basins drawn or loaded, as a list of :class:`climwidgets.Basin`."""
+        return list(self.tools.basins)
+
+    def _report(self, message):
+        if isinstance(message, Exception):
+            self._show_error(message)
+        else:
+            self.say(message)
+
+
+class BasinDrawer(HostsDrawingTools, BaseWidget):
     """Draw basins on a map of ``field`` and tabulate their area and mean of the field.
 
     Parameters
@@ -247,15 +262,6 @@ class BasinDrawer(BaseWidget):
         self.tools.on_change(lambda _: self.refresh())
         self.refresh()
 
-    @property
-    def basins(self):
-        return list(self.tools.basins)
-
-    def _report(self, message):
-        if isinstance(message, Exception):
-            self._show_error(message)
-        else:
-            self.say(message)
 
     def build_controls(self):
         return [self.tools]

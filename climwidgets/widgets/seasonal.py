@@ -38,7 +38,7 @@ from ..errors import ParameterError
 from ..geo.aggregate import basin_mean
 from ..plot.charts import MONTH_LABELS, series_with_trend
 from .base import BaseWidget
-from .drawer import DrawingTools
+from .drawer import DrawingTools, HostsDrawingTools
 from .mapframe import MapFrame
 
 __all__ = ["SeasonalShareWidget", "season_months"]
@@ -54,7 +54,7 @@ def season_months(first: int, last: int) -> tuple:
     return tuple((first - 1 + k) % 12 + 1 for k in range(n))
 
 
-class SeasonalShareWidget(BaseWidget):
+class SeasonalShareWidget(HostsDrawingTools, BaseWidget):
     """Map, basin table and per-year chart of the seasonal share of annual precipitation.
 
     Parameters
@@ -118,15 +118,6 @@ class SeasonalShareWidget(BaseWidget):
                 widgets.HBox([self.years, self.years_label]), self.how, self.chart_basin,
                 widgets.HTML("<hr style='margin:4px 0'>"), self.tools]
 
-    @property
-    def basins(self):
-        return list(self.tools.basins)
-
-    def _report(self, message):
-        if isinstance(message, Exception):
-            self._show_error(message)
-        else:
-            self.say(message)
 
     def _basins_changed(self, basins, refresh=True):
         names = [b.name for b in basins]
