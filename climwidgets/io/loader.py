@@ -417,6 +417,16 @@ def open_precip(source, var=None, chunks="auto", validate="auto") -> xr.DataArra
         da = da.where(~(da < 0), 0.0)  # tiny negatives within tolerance
     if step == "month":
         da = da.assign_coords(time=timeaxis.month_starts(da["time"]))
+    label_note = None
+    if step in ("hour", "day") and tbounds is not None and tbounds.shape == (da.sizes["time"], 2):
+        # Sums are attributed by the time stamp, taken as the start of each step. Files that
+        # stamp the end of the interval (common for hourly accumulations) say so in their
+        # CF time bounds: relabel those to the interval start, so that no hour or day is
+        # counted in the next month or year.
+        lower, upper = tbounds.values[:, 0], tbounds.values[:, 1]
+        if np.all(da["time"].values == upper) and not np.all(da["time"].values == lower):
+            da = da.assign_coords(time=("time", lower, da["time"].attrs))
+            label_note = "time stamps marked the end of each step (time bounds); relabelled to the start"
     full = timeaxis.full_axis(da["time"], step)
     gaps = len(full) - da.sizes["time"]
     if gaps > 0 and not da["time"].to_index().isin(full).all():
@@ -441,6 +451,8 @@ def open_precip(source, var=None, chunks="auto", validate="auto") -> xr.DataArra
         out_attrs["time_gaps_filled_with_missing"] = int(gaps)
     if fill_note:
         out_attrs["missing_value_heuristics"] = fill_note
+    if label_note:
+        out_attrs["time_labels"] = label_note
     da.attrs = out_attrs
     da.name = "pr"
     return with_history(da, "open_precip", None, source=where, var=name)

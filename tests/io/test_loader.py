@@ -257,3 +257,23 @@ def test_error_empty_glob_and_missing_file(tmp_path):
 
 def test_input_error_is_value_error():
     assert issubclass(cw.InputError, ValueError)
+
+
+def test_end_of_hour_stamps_with_bounds_are_relabelled_to_the_start(tmp_path):
+    # 48 hourly accumulations for 2001-01-31 00:00 .. 2001-02-02 00:00, stamped at the end of
+    # each hour (CF time bounds [start, end]); January 31 must hold 24 hours, not 23.
+    start = cftime.date2num(cftime.DatetimeGregorian(2001, 1, 31), "hours since 2001-01-01", "standard")
+    ends = start + np.arange(1, 49, dtype=float)
+    ds = xr.Dataset(
+        {"pr": (("time", "lat", "lon"), np.ones((48, 2, 2)), {"units": "mm", "standard_name": "precipitation_amount"}),
+         "time_bnds": (("time", "nv"), np.stack([ends - 1, ends], axis=1))},
+        coords={"time": ("time", ends, {"units": "hours since 2001-01-01", "calendar": "standard",
+                                         "bounds": "time_bnds"}),
+                "lat": ("lat", [1.0, 2.0], {"units": "degrees_north"}),
+                "lon": ("lon", [1.0, 2.0], {"units": "degrees_east"})})
+    ds.to_netcdf(tmp_path / "h.nc")
+    pr = cw.open_precip(tmp_path / "h.nc")
+    assert pr.attrs["step"] == "hour" and "relabelled" in pr.attrs["time_labels"]
+    assert str(pr.time.values[0])[:19] == "2001-01-31T00:00:00"
+    jan = pr.sel(time=slice("2001-01-31", "2001-01-31T23:59")).sum("time")
+    np.testing.assert_allclose(jan.values, 24.0)
