@@ -389,6 +389,10 @@ def open_precip(source, var=None, chunks="auto", validate="auto") -> xr.DataArra
         20 million values and chunk by chunk as data are read for larger ones; True always
         checks at open (reads the data once); False only guards chunks as they are read.
 
+    Time stamps are taken as the start of each step. Hourly or daily files whose CF time
+    bounds show the stamp at the end of the step are relabelled to the start
+    (``attrs["time_labels"]`` says so); without bounds the two cannot be told apart.
+
     Returns
     -------
     xr.DataArray with dims (time, lat, lon) or (time, y, x), ``units="mm"``, ``step`` in
