@@ -17,9 +17,11 @@ Fast path (rectilinear, contiguous bounds):
    (``shapely.intersection``), then each cell's covered area comes from its tile's piece by
    a vectorised Green's-theorem sum (see ``_rect_fractions``).
 
-Curvilinear grids (and rectilinear ones with gaps between cells) build every cell polygon
-in the bounding box, find the cells the outline touches with an ``STRtree`` query, clip
-those exactly and give the others the inside/outside state of a corner.
+Curvilinear grids (and rectilinear ones with gaps between cells) give every cell in the
+bounding box the inside/outside state of a corner, then correct the cells the outline
+touches: a numpy pass over the cells' lon/lat extents picks the few that may meet the
+outline (``_near_outline``), only those become polygons, an ``STRtree`` query with the
+outline keeps the ones it really touches, and those are clipped exactly.
 
 Results are cached by (grid token, basin token).  A basin that lies entirely outside the
 grid raises :class:`~climwidgets.errors.BasinError` (rather than returning zeros, which
@@ -27,6 +29,8 @@ would turn into a silent NaN mean later).
 """
 
 from __future__ import annotations
+
+import functools
 
 import numpy as np
 import shapely
@@ -148,18 +152,26 @@ def _fast_rectilinear(geom, ylo, yhi, xlo, xhi) -> np.ndarray:
 
 
 def _general(geom, lon_corners, lat_corners) -> np.ndarray:
-    """Cells as polygons: those the outline touches are clipped exactly, the rest are
+    """Cells as quadrilaterals: those the outline touches are clipped exactly, the rest are
     wholly inside or outside and take the state of their first corner."""
     shape = lon_corners.shape[:-1]
     coords = np.stack([lon_corners, lat_corners], axis=-1).reshape(-1, lon_corners.shape[-1], 2)
-    cells = shapely.polygons(coords)
     # A cell whose closure misses the outline lies on one side of it; its corner too.
     weights = shapely.contains_xy(geom, coords[:, 0, 0], coords[:, 0, 1]).astype(float)
+    # Shapely polygons (and the tree over them) only for the few cells near the outline:
+    # building one per bounding-box cell was most of the cost on large grids.
+    (x0, x1), (y0, y1) = _corner_range(lon_corners), _corner_range(lat_corners)
+    near = np.flatnonzero(_near_outline(geom, x0.ravel(), x1.ravel(), y0.ravel(), y1.ravel()))
+    if near.size == 0:
+        return weights.reshape(shape)
+    cells = shapely.polygons(coords[near])
     edges = shapely.get_parts(shapely.boundary(shapely.get_parts(geom)))  # rings as lines
-    _, hit = shapely.STRtree(cells).query(shapely.segmentize(edges, _long_edge(coords)), predicate="intersects")
+    edges = shapely.segmentize(edges, _long_edge(x1 - x0, y1 - y0))
+    _, hit = shapely.STRtree(cells).query(edges, predicate="intersects")
     hit = np.unique(hit)
     if hit.size:
         clip = cells[hit]
+        hit = near[hit]
         bad = ~shapely.is_valid(clip)
         if bad.any():  # twisted quadrilaterals (corner order) are made valid before clipping
             clip[bad] = shapely.make_valid(clip[bad])
@@ -167,10 +179,53 @@ def _general(geom, lon_corners, lat_corners) -> np.ndarray:
     return weights.reshape(shape)
 
 
-def _long_edge(coords) -> float:
+def _near_outline(geom, x0, x1, y0, y1) -> np.ndarray:
+    """Cells (lon extents ``x0..x1``, lat extents ``y0..y1``) whose extent may meet the outline.
+
+    A superset of the cells the outline touches, found without building any geometry: the
+    plane is cut into square bins a little wider than the widest cell, so a cell's extent
+    spans at most 2 × 2 bins; the outline, split into pieces half a bin long, marks the
+    (at most 2 × 2) bins each piece spans.  A point shared by a cell and the outline lies in
+    a bin that both span, so every touched cell sees a marked bin.
+    """
+    ox, oy, ex, ey = x0.min(), y0.min(), x1.max(), y1.max()
+    # The floor on the size caps the bin count (a block of tiny cells spread over the globe).
+    size = max(1.01 * max((x1 - x0).max(), (y1 - y0).max()), max(ex - ox, ey - oy) / 4096, 1e-9)
+    nbx, nby = int((ex - ox) / size) + 1, int((ey - oy) / size) + 1
+
+    def bins(x, y):  # clamping keeps every bin a point inside the cells' extent falls in
+        bx = np.clip(np.floor((x - ox) / size), 0, nbx - 1).astype(np.intp)
+        return np.clip(np.floor((y - oy) / size), 0, nby - 1).astype(np.intp), bx
+
+    # Outline pieces far from the cells would only add points: cut them off one bin out.
+    rings = shapely.get_rings(shapely.get_parts(geom))
+    lines = shapely.get_parts(shapely.clip_by_rect(rings, ox - size, oy - size, ex + size, ey + size))
+    xy, line_id = shapely.get_coordinates(shapely.segmentize(lines, 0.5 * size), return_index=True)
+    by, bx = bins(xy[:, 0], xy[:, 1])
+    same = line_id[1:] == line_id[:-1]  # segments join points of the same line only
+    marked = np.zeros((nby, nbx), dtype=bool)
+    for r in (by[:-1][same], by[1:][same]):
+        for c in (bx[:-1][same], bx[1:][same]):
+            marked[r, c] = True
+    r0, c0 = bins(x0, y0)
+    r1, c1 = bins(x1, y1)
+    return marked[r0, c0] | marked[r0, c1] | marked[r1, c0] | marked[r1, c1]
+
+
+def _long_edge(width, height) -> float:
     """Split outline edges longer than ~50 cells so tree queries stay local."""
-    span = np.ptp(coords[..., 0], axis=-1).mean() + np.ptp(coords[..., 1], axis=-1).mean()
+    span = width.mean() + height.mean()
     return max(50.0 * span, 1e-6)
+
+
+def _corner_range(c):
+    """Smallest and largest value over the last (corner) axis.
+
+    Taken corner by corner: numpy reduces along a short last axis several times slower,
+    which showed on million-cell grids.
+    """
+    corners = [c[..., k] for k in range(c.shape[-1])]
+    return functools.reduce(np.minimum, corners), functools.reduce(np.maximum, corners)
 
 
 def _compute_block(basin, bounds):
@@ -208,7 +263,8 @@ def _compute_block(basin, bounds):
             block = block[::-1]
     else:
         lon_c, lat_c = bounds.lon_corners, bounds.lat_corners
-        near = ((lon_c.max(-1) > gx0) & (lon_c.min(-1) < gx1) & (lat_c.max(-1) > gy0) & (lat_c.min(-1) < gy1))
+        (x0, x1), (y0, y1) = _corner_range(lon_c), _corner_range(lat_c)
+        near = (x1 > gx0) & (x0 < gx1) & (y1 > gy0) & (y0 < gy1)
         rows, cols = np.nonzero(near.any(axis=1))[0], np.nonzero(near.any(axis=0))[0]
         if rows.size == 0:
             return (0, 0, 0, 0), np.zeros((0, 0))

@@ -77,6 +77,20 @@ def test_curvilinear_against_shapely_cell_polygons():
     assert ((w > 0) & (w < 1)).any() and w.values.max() == 1.0
 
 
+@pytest.mark.parametrize("wkt", [
+    "POLYGON((-139.8 -25.6, -139.78 -25.6, -139.78 -25.58, -139.8 -25.58, -139.8 -25.6))",  # inside one cell
+    "POLYGON((-150 -40, -120 -40, -120 -10, -150 -10, -150 -40))",  # covers the whole grid
+    "POLYGON((-142.5 -28.6, -138.6 -28.9, -138.2 -24.9, -142.8 -25.3, -142.5 -28.6),"
+    "(-141.3 -27.4, -139.6 -27.7, -140.1 -26.0, -141.3 -27.4))",  # with a hole
+])
+def test_curvilinear_small_large_and_holed_basins(wkt):
+    # Cells far from, next to and around the outline on the curvilinear path: each cell
+    # matches its own polygon's shapely intersection.
+    grid = rotated_grid()
+    w = cw.coverage_weights(cw.Basin.from_wkt(wkt, name="b"), grid)
+    np.testing.assert_allclose(w.values, _shapely_cell_by_cell(cw.Basin.from_wkt(wkt), grid), atol=1e-12)
+
+
 def test_irregular_and_descending_grids():
     rng = np.random.default_rng(11)
     basin = cw.Basin.from_vertices(star_polygon(rng, -147.0, -32.5, 0.5, 2.0, n=20), name="b")
