@@ -67,20 +67,14 @@ def _choose_variable(ds: xr.Dataset, var, source, standard_names, names, kind) -
     by_sn = [n for n in data_vars if ds[n].attrs.get("standard_name") in standard_names]
     if len(by_sn) == 1:
         return by_sn[0]
-    if kind == "precipitation":
-        def plausible(n):
-            try:
-                parse_units(ds[n].attrs.get("units"))
-                return True
-            except UnitsError:
-                return False
-    else:
-        def plausible(n):
-            try:
-                length_to_metres(ds[n].attrs.get("units"))
-                return True
-            except UnitsError:
-                return False
+    units_parser = parse_units if kind == "precipitation" else length_to_metres
+
+    def plausible(n):
+        try:
+            units_parser(ds[n].attrs.get("units"))
+            return True
+        except UnitsError:
+            return False
     pool = by_sn or [n for n in data_vars if plausible(n)]
     if kind == "precipitation" and not by_sn and pool:
         # a conventionally named variable without units beside one with units is more likely

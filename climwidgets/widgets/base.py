@@ -203,11 +203,28 @@ class BaseWidget(widgets.VBox):
     def render(self, result, params):
         """Show ``result``: map, table (:meth:`show_table`), chart."""
 
+    def _show(self):
+        """Redraw the current result for display-only controls (see :meth:`watch_display`)."""
+
+    def _can_redraw(self) -> bool:
+        return self.result is not None
+
     # ------------------------------------------------------------ machinery
     def watch(self, *controls, names="value"):
         """Recompute when any of ``controls`` changes."""
         for control in controls:
             control.observe(self.refresh, names=names)
+
+    def watch_display(self, *controls, names="value"):
+        """Redraw without recomputing when any of ``controls`` changes (layer, metric, colour...)."""
+        for control in controls:
+            control.observe(self._redraw, names=names)
+
+    def _redraw(self, *_):
+        if not self._can_redraw():
+            return
+        with self._render_lock:
+            self._show()
 
     @contextlib.contextmanager
     def quiet(self):

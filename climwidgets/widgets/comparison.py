@@ -76,7 +76,7 @@ class ComparisonWidget(BaseWidget):
                                        description="Metric", style=style, layout=lay)
         super().__init__(map_frame=MapFrame(basins=self.basins, kind="difference"), export_dir=export_dir)
         self.watch(self.reference, self.other)
-        self.metric.observe(self._redraw, names="value")
+        self.watch_display(self.metric)
         self.refresh()
 
     # ------------------------------------------------------------ BaseWidget hooks
@@ -116,11 +116,6 @@ class ComparisonWidget(BaseWidget):
         self._show()
 
     # ------------------------------------------------------------ redraw only
-    def _redraw(self, *_):
-        if self.result is None:
-            return
-        with self._render_lock:
-            self._show()
 
     def _show(self):
         metric = self.metric.value

@@ -113,8 +113,7 @@ class ExtremesWidget(BaseWidget):
         kids.insert(kids.index(self.table_html), self.areal_note)
         self.children = kids
         self.watch(self.duration, self.level, self.year, self.n_boot)
-        for control in (self.period, self.layer, self.delta_t, self.rate):
-            control.observe(self._redraw, names="value")
+        self.watch_display(self.period, self.layer, self.delta_t, self.rate)
         self.refresh()
 
     # ------------------------------------------------------------ BaseWidget hooks
@@ -162,11 +161,8 @@ class ExtremesWidget(BaseWidget):
     def _warm(self, ds):
         return warming_scaling(ds, float(self.delta_t.value), rate=float(self.rate.value) / 100.0)
 
-    def _redraw(self, *_):
-        if self.levels is None:
-            return
-        with self._render_lock:
-            self._show()
+    def _can_redraw(self):
+        return self.levels is not None
 
     def _show(self):
         self.result = self._warm(self.levels)

@@ -116,7 +116,7 @@ class OrographicContrastWidget(BaseWidget):
         super().__init__(map_frame=MapFrame(basins=self.basins, kind="difference"), export_dir=export_dir)
         self.watch(self.wind_from, self.crest_mode, self.min_height, self.bands, self.level, self.n_boot,
                    self.wind_speed, self.temperature)
-        self.layer.observe(self._redraw, names="value")
+        self.watch_display(self.layer)
         self.clear.on_click(lambda _: self.clear_crest())
         self.map.on_click(self._on_map_click)
         self.refresh()
@@ -207,11 +207,6 @@ class OrographicContrastWidget(BaseWidget):
             self.add_crest_point(lon, lat)
 
     # ------------------------------------------------------------ display
-    def _redraw(self, *_):
-        if self.result is None:
-            return
-        with self._render_lock:
-            self._show()
 
     def _show(self):
         layer = self.layer.value
