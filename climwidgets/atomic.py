@@ -1,19 +1,32 @@
-"""Atomic writes: a temporary file in the target folder, then ``os.replace``.
+"""Atomic writes: a temporary file in the target folder, then moved into place.
 
 A reader never sees a half-written output, a failed write leaves no stray file, and an
-existing output is only replaced when the caller asked for it (DESIGN.md §8).  Every
-writer in the package (exports, basin files, widget buttons, the cache) goes through here.
+existing output is only replaced when the caller asked for it.  Every writer in the
+package (exports, basin files, widget buttons, the cache) goes through here.
+
+Without ``overwrite`` the finished temporary file is *linked* to the target name, which
+the operating system refuses when the name exists, so of several writers racing for one
+path exactly one wins and every other gets :class:`OutputExistsError` — a check for
+existence followed by a rename could let two "win".  With ``overwrite`` it is renamed over
+the target (``os.replace``).  Temporary files left by a run that was killed are removed by
+the next write to the same target once nobody has touched them for ``STALE_AFTER_S``.
 """
 
 from __future__ import annotations
 
+import errno
 import os
 import tempfile
+import time
 from pathlib import Path
 
 from .errors import InputError, ParameterError
 
-__all__ = ["OutputExistsError", "atomic_write", "atomic_write_file", "check_target"]
+__all__ = ["STALE_AFTER_S", "OutputExistsError", "atomic_write", "atomic_write_file", "check_target"]
+
+# A temporary file nobody has written to for this long belongs to a killed run: a live
+# writer touches its file as it goes.
+STALE_AFTER_S = 3600.0
 
 
 class OutputExistsError(InputError, FileExistsError):
@@ -55,23 +68,58 @@ def _file_mode(path: Path) -> int:
     return 0o666 & ~mask
 
 
+def _remove_stale_temporaries(path: Path) -> None:
+    """Delete temporaries of earlier, killed writes to ``path`` (never a live writer's)."""
+    cutoff = time.time() - STALE_AFTER_S
+    for old in path.parent.glob(f".{path.name}.*.part"):
+        try:
+            if old.stat().st_mtime < cutoff:
+                old.unlink()
+        except OSError:  # gone already, or not ours to remove: leave it
+            pass
+
+
+def _move_into_place(tmp: str, path: Path, overwrite: bool) -> None:
+    if overwrite:
+        os.replace(tmp, path)
+        return
+    try:
+        os.link(tmp, path)  # refuses an existing name: exclusive even between processes
+    except FileExistsError:
+        raise OutputExistsError("appeared while writing and was left untouched", source=path,
+                                expected="a new file name",
+                                fix="pass overwrite=True or choose another path") from None
+    except OSError as exc:
+        if exc.errno not in (errno.EPERM, errno.ENOTSUP, errno.EOPNOTSUPP, errno.EMLINK):
+            raise
+        # a file system without hard links: reserve the name exclusively, then replace
+        try:
+            os.close(os.open(path, os.O_WRONLY | os.O_CREAT | os.O_EXCL, 0o600))
+        except FileExistsError:
+            raise OutputExistsError("appeared while writing and was left untouched", source=path,
+                                    expected="a new file name",
+                                    fix="pass overwrite=True or choose another path") from None
+        os.replace(tmp, path)
+        return
+    os.unlink(tmp)
+
+
 def atomic_write(path, overwrite: bool, write, what: str) -> Path:
     """Call ``write(tmp_path)`` on a temporary file beside ``path``, then move it into place.
 
     ``write`` must create the file at the given path.  On any exception the temporary
-    file is removed and the previous file at ``path`` (if any) is untouched.
+    file is removed and the previous file at ``path`` (if any) is untouched.  Without
+    ``overwrite`` the move is exclusive: if another writer created ``path`` meanwhile,
+    :class:`OutputExistsError` is raised and that writer's file is kept.
     """
     path = check_target(path, overwrite, what)
+    _remove_stale_temporaries(path)
     fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".part", dir=path.parent)
     os.close(fd)
     try:
         write(Path(tmp))
         os.chmod(tmp, _file_mode(path))
-        # Check again: another process may have created the file while we wrote.
-        if path.exists() and not overwrite:
-            raise OutputExistsError("appeared while writing and was left untouched", source=path,
-                                    expected="a new file name", fix="pass overwrite=True or choose another path")
-        os.replace(tmp, path)
+        _move_into_place(tmp, path, overwrite)
     except BaseException as exc:
         try:
             os.unlink(tmp)
