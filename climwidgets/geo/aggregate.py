@@ -118,12 +118,14 @@ def basin_mean(field: xr.DataArray, basin, weights=None) -> xr.DataArray:
 
 
 def basin_volume(field: xr.DataArray, basin, units: str = "m3", weights=None) -> xr.DataArray:
-    """Volume of water over ``basin`` from a depth field in mm: Σ depth/1000 × area × coverage.
+    """Volume of water over ``basin`` from a depth field in mm: basin mean depth × basin area.
+
+    The area is :attr:`cw.Basin.area_m2` (the outline on the authalic sphere), the one area
+    every table shows; with only ``weights`` it is Σ cell area × coverage.
 
     ``units`` is "m3" or "acre-ft" (international foot, :data:`ACRE_FOOT_M3`).  Where some
-    cells are NaN in a slice, the volume is the basin mean times the basin area (missing
-    cells take the mean of the rest); ``covered_fraction`` says how much had data.  With
-    complete data this is exactly the sum above.  Lazy on dask input.
+    cells are NaN in a slice, missing cells take the mean of the rest; ``covered_fraction``
+    says how much had data.  Lazy on dask input.
     """
     _check_field(field, "basin_volume")
     if units not in _VOLUME_UNITS:
@@ -135,7 +137,9 @@ def basin_volume(field: xr.DataArray, basin, units: str = "m3", weights=None) ->
                          expected="a depth in 'mm' (per step, a total, or a normal)",
                          fix="convert to a depth in mm first (e.g. with cw.open_precip or annual_totals)")
     mean, covered, total = _reduce(field, basin, weights)
-    volume = mean / 1000.0 * total / _VOLUME_UNITS[units]
+    # one area per basin: the outline's (Basin.area_m2), so volumes match every table
+    area = basin.area_m2 if hasattr(basin, "area_m2") else total
+    volume = mean / 1000.0 * area / _VOLUME_UNITS[units]
     out = _finish(volume, field, covered, "volume", units, "basin_volume", basin, volume_units=units)
     out.attrs["long_name"] = f"water volume over basin {getattr(basin, 'name', '')}".strip()
     out.attrs.pop("standard_name", None)

@@ -1,4 +1,4 @@
-"""Basin summary table and seasonal volume scenario (climwidgets/geo/summary.py)."""
+"""Basin table, summary and seasonal what-if (climwidgets/analyses/basins.py)."""
 
 import dask.array
 import numpy as np
