@@ -29,7 +29,8 @@ from typing import Callable
 
 import pandas as pd
 
-from .errors import BasinError, ParameterError, SourceError
+from .errors import ParameterError
+from .geo.basinset import load_basins
 
 __all__ = ["JobResult", "load_basins", "run_summary", "run_extremes", "run_compare", "run_demo_headless",
            "SUMMARY_FILES", "EXTREMES_FILES", "COMPARE_FILES"]
@@ -133,35 +134,6 @@ def _make_folder(paths: dict):
         p.parent.mkdir(parents=True, exist_ok=True)
 
 
-def load_basins(source) -> list:
-    """Basins from a GeoJSON file (.geojson/.json) or an ESRI shapefile (.shp), or a list
-    of :class:`cw.Basin` passed through."""
-    from .geo.basin import Basin
-
-    if isinstance(source, Basin):
-        return [source]
-    if isinstance(source, (list, tuple)) and source and all(isinstance(b, Basin) for b in source):
-        return list(source)
-    if not isinstance(source, (str, os.PathLike)):
-        raise BasinError(f"got {type(source).__name__}", source="basins", expected="a GeoJSON or shapefile path",
-                         fix="pass the path of the basin outline file")
-    path = Path(source)
-    suffix = path.suffix.lower()
-    if suffix in (".shp", ".shx", ".dbf"):
-        return Basin.from_shapefile(path)
-    if not path.is_file():
-        raise SourceError("basin file not found", source=path, expected="a GeoJSON (.geojson, .json) or "
-                          "shapefile (.shp)", fix="check the --basins path")
-    if suffix not in (".geojson", ".json"):
-        with open(path, "rb") as f:
-            head = f.read(64).lstrip()
-        if not head.startswith(b"{"):
-            raise BasinError("is not a basin outline file", source=path,
-                             expected="GeoJSON (.geojson, .json) or an ESRI shapefile (.shp)",
-                             fix="save the basin outlines as GeoJSON or a shapefile")
-    return Basin.from_geojson(path)
-
-
 def _open(data, var=None):
     from .io.loader import open_precip
 
@@ -197,14 +169,17 @@ def run_summary(data, basins, months=(7, 8), baseline=(1991, 2020), out_dir="out
     overwrite
         Replace existing outputs.
 
-    The daily (or hourly) data are read once: :func:`climatology_bundle` computes the
-    monthly totals, seasonal share and normals in one pass, and the table and report are
-    built from the in-memory monthly totals (sums of the same values, so the numbers equal
-    those from the original step).
+    The data are read once: :func:`cw.basin_table` (built on :func:`cw.climatology_bundle`)
+    gives the table, the report's figures and the maps in one ``compute``, and the CSV,
+    the NetCDF and the report are written from that one result.
     """
+    import dask
+
+    from .analyses.basins import basin_table
+    from .analyses.run import compute
     from .compute.bundle import climatology_bundle
     from .compute._time import check_year_start
-    from .report.content import build_report_content
+    from .report.content import _grid_detail, content_from_analysis
     from .report.html import write_report
     from .report.netcdf import to_netcdf
     from .report.tables import to_csv
@@ -221,20 +196,21 @@ def run_summary(data, basins, months=(7, 8), baseline=(1991, 2020), out_dir="out
     say(f"{len(basin_list)} basin(s); {_STEP_WORD.get(pr.attrs['step'], pr.attrs['step'])} data {dict(pr.sizes)}")
 
     bundle = climatology_bundle(pr, months=months, baseline=baseline, year_start=year_start, maxima_days=())
-    with say.dask("monthly totals, seasonal share and normals in one pass"):
-        bundle = bundle.compute()
-    monthly = bundle["monthly_totals"]
+    lazy = (basin_table(pr, basin_list, months=months, baseline=baseline, year_start=year_start, bundle=bundle),
+            bundle[["seasonal_share", "normals"]])
+    with say.dask("basin table, seasonal share and normals in one pass"):
+        analysis, maps = compute(*lazy)
 
-    say("basin table and report figures")
-    content = build_report_content(monthly, basin_list, months=months, baseline=baseline, sources=sources,
-                                   title=title or "Basin precipitation summary", year_start=year_start)
-    table = content.table  # cw.basin_summary of the monthly totals, as in the report
+    say("basin table and report")
+    content = content_from_analysis(analysis, basin_list, pr.attrs, sources=sources,
+                                    title=title or "Basin precipitation summary", pr_detail=_grid_detail(pr),
+                                    pr_name=str(pr.name or "precipitation"))
+    table = content.table
 
     _make_folder(paths)
-    notes = [f"data: {pr.attrs.get('conversion', '')}".strip()]
+    notes = [f"data: {pr.attrs.get('conversion', '')}".strip(), analysis.attrs["area"]]
     to_csv(table, paths["csv"], overwrite=overwrite,
            provenance={"inputs": sources, "notes": notes, "title": "basin summary"})
-    maps = bundle[["seasonal_share", "normals"]]
     maps.attrs = {"months": list(months), "baseline": list(baseline), "year_start": year_start,
                   "history": bundle.attrs.get("history", ""), "input_files": "; ".join(sources)}
     to_netcdf(maps, paths["netcdf"], overwrite=overwrite, title="Seasonal share and monthly normals")
@@ -361,7 +337,8 @@ def run_compare(data, basins=None, months=(7, 8), baseline=None, out_dir="out", 
     import dask
     import xarray as xr
 
-    from .compute.compare import align, compare, products_basin_table
+    from .analyses.comparison import products_basin_table
+    from .compute.compare import align, compare
     from .compute.totals import monthly_totals
     from .report.netcdf import to_netcdf
     from .report.tables import to_csv

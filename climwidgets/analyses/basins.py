@@ -57,8 +57,11 @@ def basin_series(field: xr.DataArray, basins) -> xr.DataArray:
     ``covered_fraction`` (basin, ...) is the share of each basin's weighted area with data.
     """
     basins = as_basin_list(basins, "basin_series")
-    parts = [basin_mean(field, b).reset_coords([c for c in field.coords if c not in field.dims], drop=True)
-             for b in basins]
+    parts = []
+    for b in basins:
+        mean = basin_mean(field, b)
+        parts.append(mean.reset_coords([c for c in mean.coords if c not in mean.dims and c != "covered_fraction"],
+                                       drop=True))
     out = xr.concat(parts, dim=pd.Index([b.name for b in basins], name="basin"), coords="different",
                     compat="equals", combine_attrs="drop_conflicts")
     out.attrs = {k: v for k, v in field.attrs.items() if k in ("units", "step", "standard_name", "cell_methods")}

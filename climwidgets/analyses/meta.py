@@ -60,7 +60,7 @@ CATALOGUE: dict[str, Meta] = {
     "normal_annual_mm": Meta("annual normal", "mm", "sum of the basin's 12 monthly normals over the baseline",
                              "mm", 1.0, ",.0f"),
     "volume_per_year_m3": Meta("volume per year", "m3", "annual mean depth times the basin area",
-                               "million m³", 1e-6, ",.2f"),
+                               "m³", 1.0, ",.0f"),
     "volume_per_year_acre_ft": Meta("volume per year", "acre-ft", "annual mean depth times the basin area, "
                                     "in acre-feet (international foot)", "acre-ft", 1.0, ",.0f"),
     "latest_year": Meta("latest year", "1", "the last complete year of the record", "", 1.0, ".0f"),
@@ -80,9 +80,9 @@ CATALOGUE: dict[str, Meta] = {
     "percent": Meta("change", "%", "change applied to the season's precipitation", "%", 1.0, ".1f"),
     "n_seasons": Meta("seasons used", "1", "complete seasons behind the mean", "", 1.0, ".0f"),
     "seasonal_volume_per_year_m3": Meta("season's volume per year", "m3", "mean seasonal depth times the basin "
-                                        "area", "million m³", 1e-6, ",.2f"),
+                                        "area", "m³", 1.0, ",.0f"),
     "delta_volume_per_year_m3": Meta("change in volume per year", "m3", "the season's volume times the change",
-                                     "million m³", 1e-6, ",.3f"),
+                                     "m³", 1.0, ",.0f"),
     "delta_volume_per_year_acre_ft": Meta("change in volume per year", "acre-ft", "the change in acre-feet",
                                           "acre-ft", 1.0, ",.0f"),
     # areal design depths
