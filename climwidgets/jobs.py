@@ -74,24 +74,18 @@ class _Reporter:
         """A context in which dask computations report 25/50/75/100 % of their tasks."""
         if self.progress is None:
             return contextlib.nullcontext()
-        from dask.callbacks import Callback
+        from .scale import TaskProgress
 
-        say = self
+        quarters = {"next": 25}
 
-        class _Tasks(Callback):
-            def _start_state(self, dsk, state):
-                self.total = max(1, len(state["ready"]) + len(state["waiting"]) + len(state["finished"]))
-                self.done, self.next = len(state["finished"]), 25
+        def on_fraction(fraction):
+            pct = int(100 * fraction)
+            if pct >= quarters["next"]:
+                self(f"{what}: {pct} % of the tasks")
+                quarters["next"] = (pct // 25 + 1) * 25
 
-            def _posttask(self, key, result, dsk, state, worker_id):
-                self.done += 1
-                pct = 100 * self.done // self.total
-                if pct >= self.next:
-                    say(f"{what}: {pct} % of {self.total} tasks")
-                    self.next = (pct // 25 + 1) * 25
-
-        say(f"{what} ...")
-        return _Tasks()
+        self(f"{what} ...")
+        return TaskProgress(on_fraction, step=0.01)
 
 
 # ------------------------------------------------------------------ checks and inputs

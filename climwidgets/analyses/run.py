@@ -76,3 +76,26 @@ def compute(*objs, **dask_kwargs):
         if path in by_path:
             out = _replace(out, path, _rebuild(obj, by_path[path]))
     return out
+
+
+#: Monthly totals up to this size are computed once and kept in memory for interactive use.
+IN_MEMORY_BYTES = 256 * 2**20
+
+
+def monthly_source(pr: xr.DataArray) -> xr.DataArray:
+    """Monthly totals of ``pr`` for interactive analyses.
+
+    Where they fit in memory (:data:`IN_MEMORY_BYTES`) they are computed once — one read
+    of every stored chunk — and kept in the result cache (``climwidgets.cache``), so every
+    later analysis of the same data (another season, a new basin, another widget) reads
+    nothing.  Larger ones stay lazy and each analysis reads the data again.
+    """
+    from .. import cache
+    from ..compute.totals import monthly_totals
+
+    monthly = pr if pr.attrs.get("step") == "month" else monthly_totals(pr)
+    if not dask.is_dask_collection(monthly):
+        return monthly
+    if monthly.nbytes <= IN_MEMORY_BYTES:
+        return cache.cached("monthly_totals", lambda: monthly, pr)
+    return monthly

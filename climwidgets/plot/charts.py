@@ -9,7 +9,7 @@ import numpy as np
 
 __all__ = ["series_with_trend", "monthly_normals", "MONTH_LABELS"]
 
-MONTH_LABELS = ["Jan", "Feb", "Mar", "Apr", "May", "Jun", "Jul", "Aug", "Sep", "Oct", "Nov", "Dec"]
+from ..compute._time import MONTH_NAMES as MONTH_LABELS  # noqa: E402  (the one month-name table)
 
 
 def _axes(ax, figsize):

@@ -21,6 +21,7 @@ import numpy as np
 import pandas as pd
 import xarray as xr
 
+from ..compute._time import MONTH_NAMES, season_months
 from ..compute.anomaly import anomaly
 from ..compute.spi import SPI_CLASSES, SPI_SCALES, spi, spi_category
 from ..errors import ParameterError
@@ -32,7 +33,6 @@ from .mapframe import MapFrame
 
 __all__ = ["AnomalyWidget", "whole_grid_basin", "step_labels", "decimal_time"]
 
-MONTHS = ["Jan", "Feb", "Mar", "Apr", "May", "Jun", "Jul", "Aug", "Sep", "Oct", "Nov", "Dec"]
 PERIODS = [("month", "month"), ("season", "season"), ("year (Jan-Dec)", "year"),
            ("water year (Oct-Sep)", "water_year")]
 KINDS = [("percent of normal", "percent"), ("difference from normal (mm)", "absolute"),
@@ -68,12 +68,6 @@ def decimal_time(da) -> np.ndarray:
         t = da["time"]
         return t.dt.year.values + (t.dt.month.values - 1) / 12.0
     return np.asarray(da["year"].values, dtype=float)
-
-
-def season_months(first: int, last: int) -> tuple[int, ...]:
-    """Months from ``first`` through ``last``, wrapping over the year end (11, 3 -> 11..3)."""
-    n = (last - first) % 12 + 1
-    return tuple((first - 1 + i) % 12 + 1 for i in range(n))
 
 
 class AnomalyWidget(BaseWidget):
@@ -116,7 +110,7 @@ class AnomalyWidget(BaseWidget):
         self.kind = widgets.Dropdown(options=KINDS, value="percent", description="Kind", style=style, layout=lay)
         self.scale = widgets.Dropdown(options=[(f"{s} month{'s' if s > 1 else ''}", s) for s in SPI_SCALES],
                                       value=3, description="SPI scale", style=style, layout=lay)
-        month_opts = [(name, i + 1) for i, name in enumerate(MONTHS)]
+        month_opts = [(name, i + 1) for i, name in enumerate(MONTH_NAMES)]
         self.season_from = widgets.Dropdown(options=month_opts, value=12, description="Season from",
                                             style=style, layout=lay)
         self.season_to = widgets.Dropdown(options=month_opts, value=2, description="through",
@@ -230,8 +224,7 @@ class AnomalyWidget(BaseWidget):
     def _on_step(self, change):
         if self._updating or self.result is None:
             return
-        with self._render_lock:
-            self._show_step()
+        self._show_step()
 
     @property
     def step_index(self) -> int:

@@ -17,7 +17,9 @@ from __future__ import annotations
 import ipywidgets as widgets
 import numpy as np
 
-from ..compute.compare import align, compare, products_basin_table
+from ..analyses.comparison import products_basin_table
+from ..compute._time import MONTH_NAMES
+from ..compute.compare import align, compare
 from ..errors import ParameterError
 from .anomaly import whole_grid_basin
 from .base import BaseWidget
@@ -33,7 +35,6 @@ METRICS = {
     "kge": "Kling-Gupta efficiency",
     "nse": "Nash-Sutcliffe efficiency",
 }
-_MONTHS = ["Jan", "Feb", "Mar", "Apr", "May", "Jun", "Jul", "Aug", "Sep", "Oct", "Nov", "Dec"]
 _UNITS = {"mm/yr": "mm per year", "mm": "mm per month", "1": "no unit"}
 
 
@@ -134,8 +135,8 @@ class ComparisonWidget(BaseWidget):
         """The basin table with column names in words (``widget.basin_table`` keeps the originals)."""
         if self.basin_table is None:
             return None
-        season = "-".join(_MONTHS[m - 1] for m in (self.months[0], self.months[-1])) \
-            if len(self.months) > 1 else _MONTHS[self.months[0] - 1]
+        season = "-".join(MONTH_NAMES[m - 1] for m in (self.months[0], self.months[-1])) \
+            if len(self.months) > 1 else MONTH_NAMES[self.months[0] - 1]
         names = {"annual_mean_mm": "mean annual total [mm]",
                  "seasonal_share": f"seasonal share {season} [fraction]",
                  "normal_mm": "annual normal [mm]", "trend_mm_per_year": "Sen slope [mm per year]",

@@ -214,8 +214,7 @@ class OrographicContrastWidget(BaseWidget):
             field = self.result["distance_km"]
             self.map.show_field(field, kind="difference", label="distance from crest [km], < 0 windward",
                                 title=f"windward (< 0) and leeward (> 0), wind from {self._params['wind_from']:g}°")
-            with self.map.lock:  # sides, not wetness: a neutral purple-orange scale
-                self.map.mesh.set_cmap("PuOr_r")
+            self.map.mesh.set_cmap("PuOr_r")  # sides, not wetness: a neutral purple-orange scale
         elif layer == "observed":
             self.map.show_field(self._mean, kind="total", label="mean annual total [mm]",
                                 title="observed mean annual total")
