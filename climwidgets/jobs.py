@@ -46,7 +46,7 @@ _STEP_WORD = {"hour": "hourly", "day": "daily", "month": "monthly"}
 
 AREAL_NOTE = ("basin depths are areal: the return level of the basin-mean annual maxima, lower than "
               "point (gauge) depths of the same return period; cell_mean_estimate_mm is the basin mean "
-              "of the cells' own return levels")
+              "of the cells' own return levels")  # the CSV's note: analyses.extremes.AREAL_NOTE + the extra column
 
 
 @dataclass
@@ -227,12 +227,13 @@ def run_extremes(data, basins=None, duration_days=1, periods=(2, 10, 25, 50, 100
     of the cells' own return levels.  The cautions (:data:`cw.DESIGN_DEPTH_CAUTIONS`) are
     in both files and in the result.
     """
-    import dask
-
+    from .analyses.basins import basin_series
+    from .analyses.extremes import areal_design_depths, depth_table
+    from .analyses.meta import describe
+    from .analyses.run import compute
     from .compute.extremes import annual_maxima
     from .compute.gev import _check_periods, return_levels
     from .compute.warming import DESIGN_DEPTH_CAUTIONS
-    from .geo.aggregate import basin_mean
     from .report.netcdf import to_netcdf
     from .report.tables import to_csv
 
@@ -255,9 +256,9 @@ def run_extremes(data, basins=None, duration_days=1, periods=(2, 10, 25, 50, 100
     amax = annual_maxima(pr, year_start=year_start, **duration)  # checks step and duration before any read
 
     # one read of the data: the cells' annual maxima and every basin's mean series
-    lazy = [amax] + [basin_mean(pr, b) for b in basin_list]
+    lazy = [amax, basin_series(pr, basin_list) if basin_list else None]
     with say.dask("annual maxima and basin series in one pass"):
-        amax, *series = dask.compute(*lazy)
+        amax, series = compute(*lazy)
     fit = dict(periods=periods, ci=float(ci), n_boot=int(n_boot), seed=seed)
     with say.dask(f"return levels of {amax.size // max(1, amax.sizes['year'])} cells ({n_boot} bootstrap samples)"):
         levels = return_levels(amax, **fit).compute()
@@ -267,20 +268,18 @@ def run_extremes(data, basins=None, duration_days=1, periods=(2, 10, 25, 50, 100
     table = None
     if basin_list:
         say("basin return levels")
-        rows = []
-        for b, s in zip(basin_list, series):
-            ams = annual_maxima(s.drop_vars("covered_fraction", errors="ignore"), year_start=year_start, **duration)
-            rl = return_levels(ams, **fit)
-            cell_mean = basin_mean(levels["estimate"], b)
-            n_years = int(ams.notnull().sum())
-            for t in periods:
-                rows.append({"basin": b.name, "return_period_years": t,
-                             "areal_estimate_mm": float(rl["estimate"].sel(period=t)),
-                             "areal_lower_mm": float(rl["lower"].sel(period=t)),
-                             "areal_upper_mm": float(rl["upper"].sel(period=t)),
-                             "cell_mean_estimate_mm": float(cell_mean.sel(period=t)),
-                             "n_years": n_years})
-        table = pd.DataFrame(rows).set_index("basin")
+        depths = areal_design_depths(None, basin_list, year_start=year_start, series=series, **fit, **duration)
+        depths["cell_mean_estimate_mm"] = describe(
+            basin_series(levels["estimate"], basin_list).reset_coords(drop=True).rename(period="return_period"),
+            "cell_mean_estimate_mm", label="basin mean of the cells' depths", units="mm",
+            description="area-weighted basin mean of the cells' own return levels")
+        (depths,) = compute(depths)
+        table = depth_table(depths)[["areal_estimate_mm", "areal_lower_mm", "areal_upper_mm"]]
+        table["cell_mean_estimate_mm"] = depths["cell_mean_estimate_mm"].to_series()
+        table = table.reset_index("return_period").rename(columns={"return_period": "return_period_years"})
+        table["n_years"] = depths["n_years"].to_series().reindex(table.index).astype(int)
+        table = table[["return_period_years", "areal_estimate_mm", "areal_lower_mm", "areal_upper_mm",
+                       "cell_mean_estimate_mm", "n_years"]]
         table.attrs = {"duration": amax.attrs.get("duration", ""), "ci": float(ci), "n_boot": int(n_boot),
                        "seed": seed, "year_start": year_start, "periods": list(periods),
                        "interval": levels.attrs.get("interval_method", "")}

@@ -110,12 +110,6 @@ CATALOGUE: dict[str, Meta] = {
     "trend_mm_per_year": Meta("Sen slope", "mm/yr", "Sen slope of the annual totals", "mm per year", 1.0, ".2f"),
     "trend_pvalue": Meta("Mann-Kendall p-value", "1", "two-sided Mann-Kendall p-value of the annual totals", "",
                          1.0, ".2f"),
-    # anomalies
-    "value": Meta("anomaly", "", "the anomaly at the step shown", None, 1.0, ".3g"),
-    "rank": Meta("rank (1 = driest)", "1", "rank of the step shown among all steps of the record", "", 1.0, ".0f"),
-    "n_steps": Meta("steps in record", "1", "steps with a value", "", 1.0, ".0f"),
-    "driest": Meta("driest in record", "", "lowest value in the record", None, 1.0, ".3g"),
-    "wettest": Meta("wettest in record", "", "highest value in the record", None, 1.0, ".3g"),
 }
 
 

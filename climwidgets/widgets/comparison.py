@@ -61,7 +61,7 @@ class ComparisonWidget(BaseWidget):
                                  variable="datasets", expected="{'name': DataArray, ...} with two or more entries",
                                  fix="pass e.g. {'gauge grid': pr_a, 'reanalysis': pr_b}")
         self.datasets = dict(datasets)
-        self.basins = list(basins or [])
+        self.use_basins(basins)
         self.months = tuple(months)
         self.basin_table = None
         self._aligned = None
@@ -78,6 +78,11 @@ class ComparisonWidget(BaseWidget):
         super().__init__(map_frame=MapFrame(basins=self.basins, kind="difference"), export_dir=export_dir)
         self.watch(self.reference, self.other)
         self.watch_display(self.metric)
+        self.refresh()
+
+    def basins_changed(self, event, details):
+        self.map.set_basins(self.basins)
+        self.basin_table = None  # the table across products is made again for the new basins
         self.refresh()
 
     # ------------------------------------------------------------ BaseWidget hooks

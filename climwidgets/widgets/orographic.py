@@ -80,7 +80,7 @@ class OrographicContrastWidget(BaseWidget):
                                      fix="open it with cw.open_precip / cw.open_elevation")
         self.pr = pr
         self.elevation = elevation
-        self.basins = list(basins or [])
+        self.use_basins(basins)
         self.model = self.model_contrast = None
         self.gradients = {}
         self.crest = None
@@ -120,6 +120,9 @@ class OrographicContrastWidget(BaseWidget):
         self.clear.on_click(lambda _: self.clear_crest())
         self.map.on_click(self._on_map_click)
         self.refresh()
+
+    def basins_changed(self, event, details):
+        self.map.set_basins(self.basins)  # outlines only: the contrast does not depend on basins
 
     # ------------------------------------------------------------ BaseWidget hooks
     def build_controls(self):
