@@ -26,7 +26,7 @@ from ..compute.seasonal import season_label, seasonal_fraction, seasonal_totals
 from ..compute.totals import annual_totals, monthly_totals
 from ..compute.trend import trend
 from ..errors import InsufficientDataError, ParameterError
-from ..geo.aggregate import ACRE_FOOT_M3, basin_mean
+from ..geo.aggregate import ACRE_FOOT_M3, basin_means
 from ..geo.basinset import as_basin_list
 from ..provenance import history_line
 from .meta import describe, frame
@@ -57,13 +57,9 @@ def basin_series(field: xr.DataArray, basins) -> xr.DataArray:
     ``covered_fraction`` (basin, ...) is the share of each basin's weighted area with data.
     """
     basins = as_basin_list(basins, "basin_series")
-    parts = []
-    for b in basins:
-        mean = basin_mean(field, b)
-        parts.append(mean.reset_coords([c for c in mean.coords if c not in mean.dims and c != "covered_fraction"],
-                                       drop=True))
-    out = xr.concat(parts, dim=pd.Index([b.name for b in basins], name="basin"), coords="different",
-                    compat="equals", combine_attrs="drop_conflicts")
+    out = basin_means(field, basins)  # one selection and one weighted sum: one read for all basins
+    dims = [d for d in out.dims if d != "basin"]
+    out = out.transpose("basin", *dims)
     out.attrs = {k: v for k, v in field.attrs.items() if k in ("units", "step", "standard_name", "cell_methods")}
     return out
 

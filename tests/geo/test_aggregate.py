@@ -102,3 +102,17 @@ def test_precomputed_weights_and_errors():
         cw.basin_volume(pr, BASIN, units="gallons")
     with pytest.raises(ParameterError, match="needs a DataArray"):
         cw.basin_mean(pr.to_dataset(name="pr"), BASIN)
+
+
+def test_basin_means_equal_basin_mean_of_each_basin():
+    pr = rect_grid(-35, -30, -150, -144, 0.25, ntime=3, value=10.0)
+    pr = pr + pr["lat"] * 0.1 + pr["lon"] * 0.01  # a field that varies across the basins
+    pr.attrs["units"] = "mm"
+    other = cw.Basin.from_vertices([(-146.0, -34.5), (-144.5, -34.5), (-145.0, -32.0)], name="b2")
+    from climwidgets.geo.aggregate import basin_means
+
+    both = basin_means(pr, [BASIN, other])
+    for b in (BASIN, other):
+        one = cw.basin_mean(pr, b)
+        np.testing.assert_allclose(both.sel(basin=b.name).values, one.values, rtol=1e-12)
+        np.testing.assert_allclose(both["covered_fraction"].sel(basin=b.name).values, one["covered_fraction"].values)
