@@ -166,6 +166,9 @@ def frame(ds: xr.Dataset, index=("basin",), display: bool = False, columns=None)
     """
     index = tuple(index)
     names = list(columns) if columns is not None else table_variables(ds, index)
+    # extra dimensions (member, realization ...) become further index levels
+    extra = [d for name in names for d in ds[name].dims if d not in index]
+    index = index + tuple(dict.fromkeys(extra))
     if names:
         table = ds[names].to_dataframe(dim_order=list(index))
     else:
