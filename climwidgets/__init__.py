@@ -49,8 +49,10 @@ _PUBLIC = {
     "coverage_weights": "climwidgets.geo.coverage",
     "basin_mean": "climwidgets.geo.aggregate",
     "basin_volume": "climwidgets.geo.aggregate",
-    "basin_summary": "climwidgets.geo.summary",
-    "scenario_delta": "climwidgets.geo.summary",
+    "basin_summary": "climwidgets.analyses.basins",
+    "scenario_delta": "climwidgets.analyses.basins",
+    "BasinSet": "climwidgets.geo.basinset",
+    "load_basins": "climwidgets.geo.basinset",
     "ACRE_FOOT_M3": "climwidgets.geo.aggregate",
     # orographic
     "rain_shadow": "climwidgets.compute.orographic",
@@ -70,7 +72,11 @@ _PUBLIC = {
     "regrid": "climwidgets.compute.regrid",
     "align": "climwidgets.compute.compare",
     "compare": "climwidgets.compute.compare",
-    "products_basin_table": "climwidgets.compute.compare",
+    "products_basin_table": "climwidgets.analyses.comparison",
+    # analyses: every number a user sees, as lazy Datasets with labels and units
+    "basin_table": "climwidgets.analyses.basins",
+    "basin_shares": "climwidgets.analyses.basins",
+    "what_if": "climwidgets.analyses.basins",
     # scale
     "use_cluster": "climwidgets.scale",
     "climatology_bundle": "climwidgets.compute.bundle",

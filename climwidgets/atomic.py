@@ -142,3 +142,25 @@ def atomic_write_file(path, write, mode: str = "wb", overwrite: bool = True, wha
             write(fh)
 
     return atomic_write(path, overwrite, to_path, what)
+
+
+def atomic_write_folder(path, write, what: str = "folder") -> Path:
+    """Call ``write(tmp_folder)`` on a temporary folder beside ``path``, then rename it into place.
+
+    For stores that are folders (Zarr).  When ``path`` appeared meanwhile (another process
+    wrote the same store), the temporary folder is dropped and the existing one kept.
+    """
+    import shutil
+
+    path = Path(path)
+    tmp = Path(tempfile.mkdtemp(prefix=f".{path.name}.", suffix=".part", dir=path.parent))
+    try:
+        write(tmp)
+        if path.exists():
+            shutil.rmtree(tmp, ignore_errors=True)
+        else:
+            os.replace(tmp, path)
+    except BaseException:
+        shutil.rmtree(tmp, ignore_errors=True)
+        raise
+    return path

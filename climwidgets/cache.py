@@ -1,26 +1,70 @@
 """Cache of expensive intermediate results, keyed by a token of the inputs and parameters.
 
 Climatologies are computed once per (data, parameters) and reused, so moving a basin or
-changing a colour never recomputes the grid (DESIGN.md §6).  The token of a lazily opened
+changing a colour never recomputes the grid (docs/architecture.md).  The token of a lazily opened
 file is the dask graph name, which xarray derives from the file name and modification
 time, so reopening the same unchanged file hits the cache and a rewritten file misses it.
 
 In memory by default (an LRU of computed results); ``configure(directory=...)`` adds an
-on-disk Zarr cache so results survive a kernel restart.
+on-disk Zarr cache so results survive a kernel restart.  :class:`LRUCache` is the suite's
+one bounded, locked least-recently-used store: the geometry caches (coverage weights,
+cell areas) are instances of it too, and it is safe to use from widget worker threads.
 """
 
 from __future__ import annotations
 
-import os
 import threading
+from collections import OrderedDict
 from pathlib import Path
 
 import dask.base
 import xarray as xr
 
-from .geo._cache import LRUCache
+from .atomic import atomic_write_folder
 
-__all__ = ["configure", "cached", "token", "clear", "stats"]
+__all__ = ["LRUCache", "configure", "cached", "token", "clear", "stats"]
+
+
+class LRUCache:
+    """Least-recently-used mapping with at most ``maxsize`` entries; every access is locked."""
+
+    def __init__(self, maxsize: int = 64):
+        self.maxsize = int(maxsize)
+        self._data: OrderedDict = OrderedDict()
+        self._lock = threading.Lock()
+
+    def get(self, key, default=None):
+        with self._lock:
+            if key not in self._data:
+                return default
+            self._data.move_to_end(key)
+            return self._data[key]
+
+    def put(self, key, value) -> None:
+        with self._lock:
+            self._data[key] = value
+            self._data.move_to_end(key)
+            while len(self._data) > self.maxsize:
+                self._data.popitem(last=False)
+
+    def resize(self, maxsize: int) -> None:
+        with self._lock:
+            self.maxsize = int(maxsize)
+            while len(self._data) > self.maxsize:
+                self._data.popitem(last=False)
+
+    def clear(self) -> None:
+        with self._lock:
+            self._data.clear()
+
+    def __len__(self) -> int:
+        with self._lock:
+            return len(self._data)
+
+    def __contains__(self, key) -> bool:
+        with self._lock:
+            return key in self._data
+
 
 _memory = LRUCache(maxsize=32)
 _directory: Path | None = None
@@ -31,7 +75,7 @@ _stats = {"hits": 0, "misses": 0, "disk_hits": 0}
 def configure(directory=None, max_items: int = 32) -> None:
     """Set the on-disk cache folder (None for memory only) and the in-memory size."""
     global _directory
-    _memory.maxsize = int(max_items)
+    _memory.resize(max_items)
     _directory = Path(directory).expanduser() if directory else None
     if _directory:
         _directory.mkdir(parents=True, exist_ok=True)
@@ -62,7 +106,7 @@ def cached(name: str, build, *parts, **params):
     key = f"{name}-{token(*parts, **params)}"
     hit = _memory.get(key)
     if hit is not None:
-        _stats["hits"] += 1
+        _count("hits")
         return hit
     if _directory is not None:
         store = _directory / f"{key}.zarr"
@@ -71,9 +115,9 @@ def cached(name: str, build, *parts, **params):
             if isinstance(result, xr.Dataset) and list(result.data_vars) == ["__dataarray__"]:
                 result = result["__dataarray__"].rename(result.attrs.get("__name__"))
             _memory.put(key, result)
-            _stats["disk_hits"] += 1
+            _count("disk_hits")
             return result
-    _stats["misses"] += 1
+    _count("misses")
     result = build().compute()
     _memory.put(key, result)
     if _directory is not None:
@@ -81,26 +125,32 @@ def cached(name: str, build, *parts, **params):
     return result
 
 
+def _count(what: str) -> None:
+    with _lock:
+        _stats[what] += 1
+
+
 def _write_store(result, store: Path) -> None:
-    """Write atomically: a temporary store in the same folder, then rename."""
+    """Write the store atomically (a temporary folder beside it, then rename)."""
     ds = result
     if isinstance(result, xr.DataArray):
         ds = result.to_dataset(name="__dataarray__")
         ds.attrs["__name__"] = result.name or ""
-    tmp = store.with_name(store.name + f".tmp{os.getpid()}")
     ds = ds.copy()
     for v in ds.variables.values():
         v.encoding = {}
-    with _lock:
-        ds.to_zarr(tmp, mode="w", consolidated=False)
-        os.replace(tmp, store) if not store.exists() else None
+    atomic_write_folder(store, lambda tmp: ds.to_zarr(tmp, mode="w", consolidated=False), "result cache")
 
 
 def clear() -> None:
+    """Forget the in-memory results and reset the counters (the disk cache stays)."""
     _memory.clear()
-    for k in _stats:
-        _stats[k] = 0
+    with _lock:
+        for k in _stats:
+            _stats[k] = 0
 
 
 def stats() -> dict:
-    return dict(_stats)
+    """Counts of memory hits, misses and disk hits since the last :func:`clear`."""
+    with _lock:
+        return dict(_stats)

@@ -29,7 +29,8 @@ from typing import Callable
 
 import pandas as pd
 
-from .errors import BasinError, ParameterError, SourceError
+from .errors import ParameterError
+from .geo.basinset import load_basins
 
 __all__ = ["JobResult", "load_basins", "run_summary", "run_extremes", "run_compare", "run_demo_headless",
            "SUMMARY_FILES", "EXTREMES_FILES", "COMPARE_FILES"]
@@ -45,7 +46,7 @@ _STEP_WORD = {"hour": "hourly", "day": "daily", "month": "monthly"}
 
 AREAL_NOTE = ("basin depths are areal: the return level of the basin-mean annual maxima, lower than "
               "point (gauge) depths of the same return period; cell_mean_estimate_mm is the basin mean "
-              "of the cells' own return levels")
+              "of the cells' own return levels")  # the CSV's note: analyses.extremes.AREAL_NOTE + the extra column
 
 
 @dataclass
@@ -73,24 +74,18 @@ class _Reporter:
         """A context in which dask computations report 25/50/75/100 % of their tasks."""
         if self.progress is None:
             return contextlib.nullcontext()
-        from dask.callbacks import Callback
+        from .scale import TaskProgress
 
-        say = self
+        quarters = {"next": 25}
 
-        class _Tasks(Callback):
-            def _start_state(self, dsk, state):
-                self.total = max(1, len(state["ready"]) + len(state["waiting"]) + len(state["finished"]))
-                self.done, self.next = len(state["finished"]), 25
+        def on_fraction(fraction):
+            pct = int(100 * fraction)
+            if pct >= quarters["next"]:
+                self(f"{what}: {pct} % of the tasks")
+                quarters["next"] = (pct // 25 + 1) * 25
 
-            def _posttask(self, key, result, dsk, state, worker_id):
-                self.done += 1
-                pct = 100 * self.done // self.total
-                if pct >= self.next:
-                    say(f"{what}: {pct} % of {self.total} tasks")
-                    self.next = (pct // 25 + 1) * 25
-
-        say(f"{what} ...")
-        return _Tasks()
+        self(f"{what} ...")
+        return TaskProgress(on_fraction, step=0.01)
 
 
 # ------------------------------------------------------------------ checks and inputs
@@ -133,35 +128,6 @@ def _make_folder(paths: dict):
         p.parent.mkdir(parents=True, exist_ok=True)
 
 
-def load_basins(source) -> list:
-    """Basins from a GeoJSON file (.geojson/.json) or an ESRI shapefile (.shp), or a list
-    of :class:`cw.Basin` passed through."""
-    from .geo.basin import Basin
-
-    if isinstance(source, Basin):
-        return [source]
-    if isinstance(source, (list, tuple)) and source and all(isinstance(b, Basin) for b in source):
-        return list(source)
-    if not isinstance(source, (str, os.PathLike)):
-        raise BasinError(f"got {type(source).__name__}", source="basins", expected="a GeoJSON or shapefile path",
-                         fix="pass the path of the basin outline file")
-    path = Path(source)
-    suffix = path.suffix.lower()
-    if suffix in (".shp", ".shx", ".dbf"):
-        return Basin.from_shapefile(path)
-    if not path.is_file():
-        raise SourceError("basin file not found", source=path, expected="a GeoJSON (.geojson, .json) or "
-                          "shapefile (.shp)", fix="check the --basins path")
-    if suffix not in (".geojson", ".json"):
-        with open(path, "rb") as f:
-            head = f.read(64).lstrip()
-        if not head.startswith(b"{"):
-            raise BasinError("is not a basin outline file", source=path,
-                             expected="GeoJSON (.geojson, .json) or an ESRI shapefile (.shp)",
-                             fix="save the basin outlines as GeoJSON or a shapefile")
-    return Basin.from_geojson(path)
-
-
 def _open(data, var=None):
     from .io.loader import open_precip
 
@@ -197,14 +163,17 @@ def run_summary(data, basins, months=(7, 8), baseline=(1991, 2020), out_dir="out
     overwrite
         Replace existing outputs.
 
-    The daily (or hourly) data are read once: :func:`climatology_bundle` computes the
-    monthly totals, seasonal share and normals in one pass, and the table and report are
-    built from the in-memory monthly totals (sums of the same values, so the numbers equal
-    those from the original step).
+    The data are read once: :func:`cw.basin_table` (built on :func:`cw.climatology_bundle`)
+    gives the table, the report's figures and the maps in one ``compute``, and the CSV,
+    the NetCDF and the report are written from that one result.
     """
+    import dask
+
+    from .analyses.basins import basin_table
+    from .analyses.run import compute
     from .compute.bundle import climatology_bundle
     from .compute._time import check_year_start
-    from .report.content import build_report_content
+    from .report.content import _grid_detail, content_from_analysis
     from .report.html import write_report
     from .report.netcdf import to_netcdf
     from .report.tables import to_csv
@@ -221,20 +190,21 @@ def run_summary(data, basins, months=(7, 8), baseline=(1991, 2020), out_dir="out
     say(f"{len(basin_list)} basin(s); {_STEP_WORD.get(pr.attrs['step'], pr.attrs['step'])} data {dict(pr.sizes)}")
 
     bundle = climatology_bundle(pr, months=months, baseline=baseline, year_start=year_start, maxima_days=())
-    with say.dask("monthly totals, seasonal share and normals in one pass"):
-        bundle = bundle.compute()
-    monthly = bundle["monthly_totals"]
+    lazy = (basin_table(pr, basin_list, months=months, baseline=baseline, year_start=year_start, bundle=bundle),
+            bundle[["seasonal_share", "normals"]])
+    with say.dask("basin table, seasonal share and normals in one pass"):
+        analysis, maps = compute(*lazy)
 
-    say("basin table and report figures")
-    content = build_report_content(monthly, basin_list, months=months, baseline=baseline, sources=sources,
-                                   title=title or "Basin precipitation summary", year_start=year_start)
-    table = content.table  # cw.basin_summary of the monthly totals, as in the report
+    say("basin table and report")
+    content = content_from_analysis(analysis, basin_list, pr.attrs, sources=sources,
+                                    title=title or "Basin precipitation summary", pr_detail=_grid_detail(pr),
+                                    pr_name=str(pr.name or "precipitation"))
+    table = content.table
 
     _make_folder(paths)
-    notes = [f"data: {pr.attrs.get('conversion', '')}".strip()]
+    notes = [f"data: {pr.attrs.get('conversion', '')}".strip(), analysis.attrs["area"]]
     to_csv(table, paths["csv"], overwrite=overwrite,
            provenance={"inputs": sources, "notes": notes, "title": "basin summary"})
-    maps = bundle[["seasonal_share", "normals"]]
     maps.attrs = {"months": list(months), "baseline": list(baseline), "year_start": year_start,
                   "history": bundle.attrs.get("history", ""), "input_files": "; ".join(sources)}
     to_netcdf(maps, paths["netcdf"], overwrite=overwrite, title="Seasonal share and monthly normals")
@@ -257,12 +227,13 @@ def run_extremes(data, basins=None, duration_days=1, periods=(2, 10, 25, 50, 100
     of the cells' own return levels.  The cautions (:data:`cw.DESIGN_DEPTH_CAUTIONS`) are
     in both files and in the result.
     """
-    import dask
-
+    from .analyses.basins import basin_series
+    from .analyses.extremes import areal_design_depths, depth_table
+    from .analyses.meta import describe
+    from .analyses.run import compute
     from .compute.extremes import annual_maxima
     from .compute.gev import _check_periods, return_levels
     from .compute.warming import DESIGN_DEPTH_CAUTIONS
-    from .geo.aggregate import basin_mean
     from .report.netcdf import to_netcdf
     from .report.tables import to_csv
 
@@ -285,9 +256,9 @@ def run_extremes(data, basins=None, duration_days=1, periods=(2, 10, 25, 50, 100
     amax = annual_maxima(pr, year_start=year_start, **duration)  # checks step and duration before any read
 
     # one read of the data: the cells' annual maxima and every basin's mean series
-    lazy = [amax] + [basin_mean(pr, b) for b in basin_list]
+    lazy = [amax, basin_series(pr, basin_list) if basin_list else None]
     with say.dask("annual maxima and basin series in one pass"):
-        amax, *series = dask.compute(*lazy)
+        amax, series = compute(*lazy)
     fit = dict(periods=periods, ci=float(ci), n_boot=int(n_boot), seed=seed)
     with say.dask(f"return levels of {amax.size // max(1, amax.sizes['year'])} cells ({n_boot} bootstrap samples)"):
         levels = return_levels(amax, **fit).compute()
@@ -297,20 +268,18 @@ def run_extremes(data, basins=None, duration_days=1, periods=(2, 10, 25, 50, 100
     table = None
     if basin_list:
         say("basin return levels")
-        rows = []
-        for b, s in zip(basin_list, series):
-            ams = annual_maxima(s.drop_vars("covered_fraction", errors="ignore"), year_start=year_start, **duration)
-            rl = return_levels(ams, **fit)
-            cell_mean = basin_mean(levels["estimate"], b)
-            n_years = int(ams.notnull().sum())
-            for t in periods:
-                rows.append({"basin": b.name, "return_period_years": t,
-                             "areal_estimate_mm": float(rl["estimate"].sel(period=t)),
-                             "areal_lower_mm": float(rl["lower"].sel(period=t)),
-                             "areal_upper_mm": float(rl["upper"].sel(period=t)),
-                             "cell_mean_estimate_mm": float(cell_mean.sel(period=t)),
-                             "n_years": n_years})
-        table = pd.DataFrame(rows).set_index("basin")
+        depths = areal_design_depths(None, basin_list, year_start=year_start, series=series, **fit, **duration)
+        depths["cell_mean_estimate_mm"] = describe(
+            basin_series(levels["estimate"], basin_list).reset_coords(drop=True).rename(period="return_period"),
+            "cell_mean_estimate_mm", label="basin mean of the cells' depths", units="mm",
+            description="area-weighted basin mean of the cells' own return levels")
+        (depths,) = compute(depths)
+        table = depth_table(depths)[["areal_estimate_mm", "areal_lower_mm", "areal_upper_mm"]]
+        table["cell_mean_estimate_mm"] = depths["cell_mean_estimate_mm"].to_series()
+        table = table.reset_index("return_period").rename(columns={"return_period": "return_period_years"})
+        table["n_years"] = depths["n_years"].to_series().reindex(table.index).astype(int)
+        table = table[["return_period_years", "areal_estimate_mm", "areal_lower_mm", "areal_upper_mm",
+                       "cell_mean_estimate_mm", "n_years"]]
         table.attrs = {"duration": amax.attrs.get("duration", ""), "ci": float(ci), "n_boot": int(n_boot),
                        "seed": seed, "year_start": year_start, "periods": list(periods),
                        "interval": levels.attrs.get("interval_method", "")}
@@ -361,7 +330,8 @@ def run_compare(data, basins=None, months=(7, 8), baseline=None, out_dir="out", 
     import dask
     import xarray as xr
 
-    from .compute.compare import align, compare, products_basin_table
+    from .analyses.comparison import products_basin_table
+    from .compute.compare import align, compare
     from .compute.totals import monthly_totals
     from .report.netcdf import to_netcdf
     from .report.tables import to_csv

@@ -11,9 +11,73 @@ from __future__ import annotations
 
 import os
 
-__all__ = ["use_cluster", "current_client", "close_cluster"]
+__all__ = ["use_cluster", "current_client", "close_cluster", "TaskProgress", "Superseded"]
 
 _client = None
+
+
+class Superseded(Exception):
+    """Raised inside a computation that is no longer wanted, to stop it (never shown to users)."""
+
+
+def _callback_base():
+    from dask.callbacks import Callback
+
+    return Callback
+
+
+class TaskProgress(_callback_base()):
+    """The suite's one dask progress callback (local schedulers).
+
+    ``on_fraction(done / total)`` is called as tasks finish, at most once per ``step``
+    of progress, from the thread running the computation; ``is_current()`` returning
+    False stops the computation at its next task with :class:`Superseded`.  Hooks fired
+    by computations of other threads (another widget at the same time) are ignored.
+    With a ``dask.distributed`` client these hooks are not called (see
+    :func:`compute_on_cluster`).
+    """
+
+    def __init__(self, on_fraction=None, is_current=None, step: float = 0.02):
+        import threading
+
+        super().__init__()
+        self.on_fraction = on_fraction
+        self.is_current = is_current
+        self.step = float(step)
+        self.thread = threading.get_ident()
+        self.total = 1
+        self.done = 0
+        self._last = -1.0
+
+    def _mine(self):
+        import threading
+
+        return threading.get_ident() == self.thread
+
+    def _start_state(self, dsk, state):
+        if not self._mine():
+            return
+        self.total = max(1, len(state["ready"]) + len(state["waiting"]) + len(state.get("running", ()))
+                         + len(state["finished"]))
+        self.done = len(state["finished"])
+        self._last = -1.0
+        self._report()
+
+    def _pretask(self, key, dsk, state):
+        if self._mine() and self.is_current is not None and not self.is_current():
+            raise Superseded(key)
+
+    def _posttask(self, key, result, dsk, state, worker_id):
+        if not self._mine():
+            return
+        self.done += 1
+        self._report()
+
+    def _report(self):
+        fraction = min(1.0, self.done / self.total)
+        if self.on_fraction is not None and (fraction - self._last >= self.step or fraction == 1.0):
+            self._last = fraction
+            self.on_fraction(fraction)
 
 
 def use_cluster(address=None, n_workers=None, threads_per_worker: int = 1, memory_limit="auto", **cluster_kwargs):
@@ -55,6 +119,70 @@ def close_cluster() -> None:
         if cluster is not None and _client.scheduler is not None:
             cluster.close()
         _client = None
+
+
+class Superseded(Exception):
+    """Raised inside a computation that is no longer wanted, to stop it (never shown to users)."""
+
+
+def _callback_base():
+    from dask.callbacks import Callback
+
+    return Callback
+
+
+class TaskProgress(_callback_base()):
+    """The suite's one dask progress callback (local schedulers).
+
+    ``on_fraction(done / total)`` is called as tasks finish, at most once per ``step``
+    of progress, from the thread running the computation; ``is_current()`` returning
+    False stops the computation at its next task with :class:`Superseded`.  Hooks fired
+    by computations of other threads (another widget at the same time) are ignored.
+    With a ``dask.distributed`` client these hooks are not called (see
+    :func:`compute_on_cluster`).
+    """
+
+    def __init__(self, on_fraction=None, is_current=None, step: float = 0.02):
+        import threading
+
+        super().__init__()
+        self.on_fraction = on_fraction
+        self.is_current = is_current
+        self.step = float(step)
+        self.thread = threading.get_ident()
+        self.total = 1
+        self.done = 0
+        self._last = -1.0
+
+    def _mine(self):
+        import threading
+
+        return threading.get_ident() == self.thread
+
+    def _start_state(self, dsk, state):
+        if not self._mine():
+            return
+        self.total = max(1, len(state["ready"]) + len(state["waiting"]) + len(state.get("running", ()))
+                         + len(state["finished"]))
+        self.done = len(state["finished"])
+        self._last = -1.0
+        self._report()
+
+    def _pretask(self, key, dsk, state):
+        if self._mine() and self.is_current is not None and not self.is_current():
+            raise Superseded(key)
+
+    def _posttask(self, key, result, dsk, state, worker_id):
+        if not self._mine():
+            return
+        self.done += 1
+        self._report()
+
+    def _report(self):
+        fraction = min(1.0, self.done / self.total)
+        if self.on_fraction is not None and (fraction - self._last >= self.step or fraction == 1.0):
+            self._last = fraction
+            self.on_fraction(fraction)
 
 
 def compute_on_cluster(lazy, client, on_progress=None, is_current=None, poll_seconds: float = 0.2):

@@ -19,7 +19,10 @@ from ..errors import (
 )
 
 STEPS_PER_DAY = {"hour": 24, "day": 1}
-MONTH_NAMES = ("Jan", "Feb", "Mar", "Apr", "May", "Jun", "Jul", "Aug", "Sep", "Oct", "Nov", "Dec")
+#: The suite's one table of month names (full, and the three-letter forms derived from it).
+MONTH_FULL_NAMES = ("January", "February", "March", "April", "May", "June", "July", "August", "September",
+                    "October", "November", "December")
+MONTH_NAMES = tuple(name[:3] for name in MONTH_FULL_NAMES)
 
 
 def source_name(obj) -> str:
@@ -209,3 +212,9 @@ def is_dask(obj) -> bool:
 def safe_divide(num, den):
     """num / den with NaN where den is zero or missing, without RuntimeWarnings."""
     return num / den.where(den != 0)
+
+
+def season_months(first: int, last: int) -> tuple[int, ...]:
+    """Consecutive months from ``first`` to ``last`` inclusive, wrapping over December (11, 3 -> 11..3)."""
+    n = (int(last) - int(first)) % 12 + 1
+    return tuple((int(first) - 1 + k) % 12 + 1 for k in range(n))

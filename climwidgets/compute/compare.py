@@ -1,8 +1,8 @@
-"""Comparing precipitation products: alignment, agreement maps and a basin table.
+"""Comparing precipitation products: alignment and agreement maps.
 
 ``align`` brings several products onto one period, one monthly time index and one grid;
-``compare`` maps how a product agrees with a reference; ``products_basin_table`` tabulates
-basin climatology per product with the spread across products.
+``compare`` maps how a product agrees with a reference.  The basin table across products
+is an analysis (``climwidgets.analyses.comparison.products_basin_table``).
 
 Calendars: products are compared as monthly totals labelled by (year, month).  Each
 product's monthly totals are relabelled to standard-calendar month starts
@@ -20,7 +20,7 @@ from ..errors import GridError, MismatchError, ParameterError
 from ..provenance import with_history
 from ._time import check_precip, month_coverage, safe_divide
 
-__all__ = ["align", "compare", "products_basin_table"]
+__all__ = ["align", "compare"]
 
 
 # ---------------------------------------------------------------- align
@@ -282,89 +282,3 @@ def compare(a: xr.DataArray, b: xr.DataArray, dim: str = "time", kge: str = "200
     ds.attrs = {"reference": str(a.name), "other": str(b.name), "kge_form": kge,
                 "convention": "bias, ratio and efficiencies are of 'other' (b) against the reference (a)"}
     return with_history(ds, "compare", a.attrs, dim=dim, kge=kge, reference=str(a.name), other=str(b.name))
-
-
-# ---------------------------------------------------------------- basin table
-_SPREAD_RANGE = "spread: max - min"
-_SPREAD_CV = "spread: coefficient of variation"
-_COLUMNS = {
-    "annual_mean_mm": "mean annual total over the common period (mm)",
-    "seasonal_share": "share of the annual total falling in the season (ratio of sums, fraction)",
-    "normal_mm": "annual normal: sum of the 12 monthly normals over the baseline (mm)",
-    "trend_mm_per_year": "Sen slope of the annual totals (mm/yr)",
-    "trend_pvalue": "Mann-Kendall two-sided p-value of the annual totals",
-}
-
-
-def _basin_list(basins) -> list:
-    if isinstance(basins, dict):
-        basins = list(basins.values())
-    elif not isinstance(basins, (list, tuple)):
-        basins = [basins]
-    if not basins or not all(hasattr(b, "geometry") and hasattr(b, "name") for b in basins):
-        raise ParameterError("basins must be Basin objects", source="products_basin_table",
-                             expected="a Basin, or a list or dict of Basin",
-                             fix="build them with cw.Basin.from_vertices or cw.Basin.from_geojson")
-    names = [b.name for b in basins]
-    if len(set(names)) != len(names):
-        raise ParameterError(f"basin names repeat: {names}", source="products_basin_table",
-                             expected="one name per basin", fix="give every basin its own name")
-    return list(basins)
-
-
-def products_basin_table(datasets: dict, basins, months=(7, 8), baseline=None) -> pd.DataFrame:
-    """Basin climatology per product, with the spread across products.
-
-    Each product is summarized on its own grid (area-weighted basin mean, no regridding)
-    over the complete years common to all products.  Per basin and product: mean annual
-    total, seasonal share of ``months`` (ratio of sums), annual normal over ``baseline``
-    (default: the whole common period) and the Sen slope / Mann-Kendall p-value of the
-    annual totals.  After the products of each basin come two rows: ``"spread: max - min"``
-    and ``"spread: coefficient of variation"`` (population standard deviation / mean
-    across products; left empty for the trend, whose mean can be near zero, and for the
-    p-value).
-
-    Returns a DataFrame indexed by (basin, product); ``attrs`` holds the column
-    descriptions, the period, the season, the baseline and a history line.
-    """
-    import dask
-
-    from ..geo.aggregate import basin_mean
-    from .normals import annual_normal
-    from .seasonal import seasonal_fraction
-    from .totals import annual_totals
-    from .trend import trend
-
-    products = _check_products(datasets, "products_basin_table")
-    basins = _basin_list(basins)
-    monthly, (first, last) = _common_months(products, None, "products_basin_table")
-    base = (first, last) if baseline is None else tuple(int(v) for v in baseline)
-
-    lazy = {}
-    for basin in basins:
-        for name, m in monthly.items():
-            series = basin_mean(m, basin)
-            annual = annual_totals(series)
-            tr = trend(annual, dim="year")
-            lazy[(basin.name, name)] = (annual.mean("year"), seasonal_fraction(series, months),
-                                        annual_normal(series, baseline=base), tr["slope"], tr["pvalue"])
-    (values,) = dask.compute(lazy)
-
-    rows, index = [], []
-    for basin in basins:
-        block = np.array([[float(v) for v in values[(basin.name, n)]] for n in products])
-        rows.extend(block)
-        index.extend((basin.name, n) for n in products)
-        mean = block.mean(axis=0)
-        cv = block.std(axis=0) / np.where(mean != 0, mean, np.nan)
-        cv[3:] = np.nan
-        rows.extend([block.max(axis=0) - block.min(axis=0), cv])
-        index.extend([(basin.name, _SPREAD_RANGE), (basin.name, _SPREAD_CV)])
-    table = pd.DataFrame(rows, index=pd.MultiIndex.from_tuples(index, names=["basin", "product"]),
-                         columns=list(_COLUMNS))
-    table.loc[(slice(None), _SPREAD_RANGE), "trend_pvalue"] = np.nan
-    table.attrs = {"columns": dict(_COLUMNS), "period": f"{first}-{last}", "season_months": tuple(months),
-                   "baseline": base,
-                   "spread": "max - min and coefficient of variation (population sd / mean) across products"}
-    return with_history(table, "products_basin_table", None, products=tuple(products),
-                        basins=tuple(b.name for b in basins), months=tuple(months), baseline=base)

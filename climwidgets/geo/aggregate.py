@@ -1,7 +1,7 @@
 """Basin means and volumes from gridded fields.
 
 Weights are cell area × coverage (``cell_area`` on the authalic sphere, ``coverage_weights``
-planar in lon/lat, DESIGN.md §3).  Only the basin's bounding box of the field is touched,
+planar in lon/lat, see docs/architecture.md).  Only the basin's bounding box of the field is touched,
 so on a dask-backed field only the chunks under the basin are ever read.  The weights are
 small numpy arrays; the reduction is xarray arithmetic and stays lazy.
 """
@@ -17,7 +17,7 @@ from .area import AUTHALIC_RADIUS_M, cell_area
 from .coverage import coverage_block
 from .grid import horizontal_dims
 
-__all__ = ["ACRE_FOOT_M3", "basin_mean", "basin_volume", "basin_weights"]
+__all__ = ["ACRE_FOOT_M3", "basin_mean", "basin_means", "basin_volume", "basin_weights"]
 
 #: One acre-foot in m³ with the international foot: 43 560 ft² × 1 ft × 0.3048³ m³/ft³.
 ACRE_FOOT_M3 = 43_560 * 0.3048**3  # = 1233.48183754752
@@ -71,6 +71,14 @@ def _check_field(field, func):
                              expected="a DataArray on a lat/lon grid", fix="select one variable, e.g. ds['pr']")
 
 
+def _weighted_mean(sub, w, dims):
+    """(weighted mean, weight with data) of ``sub`` over ``dims`` with weights ``w`` (positional)."""
+    valid = sub.notnull()
+    num = xr.dot(sub.fillna(0.0), w, dim=list(dims))
+    den = xr.dot(valid.astype(float), w, dim=list(dims))
+    return num / den.where(den > 0), den
+
+
 def _reduce(field, basin, weights):
     """(weighted mean, covered fraction, total weighted area m²) over the basin."""
     dims = horizontal_dims(field)
@@ -79,12 +87,45 @@ def _reduce(field, basin, weights):
     # Drop the block's coordinates from the weights so alignment is positional.
     sub = sub.drop_vars([c for c in sub.coords if set(sub[c].dims) & set(dims)])
     total = float(w.sum())
-    valid = sub.notnull()
-    num = xr.dot(sub.fillna(0.0), w, dim=list(dims))
-    den = xr.dot(valid.astype(float), w, dim=list(dims))
-    mean = num / den.where(den > 0)
+    mean, den = _weighted_mean(sub, w, dims)
     covered = (den / total).clip(0.0, 1.0)  # rounding can push a full slice to 1 + 1e-16
     return mean, covered, total
+
+
+def basin_means(field: xr.DataArray, basins) -> xr.DataArray:
+    """Area-weighted means of ``field`` over several basins at once, on a ``basin`` dimension.
+
+    The same numbers as :func:`basin_mean` for each basin, from one selection of the
+    field (the block covering every basin) and one weighted sum, so a lazy field is read
+    once for all basins.  ``covered_fraction`` (basin, ...) is as in :func:`basin_mean`.
+    """
+    _check_field(field, "basin_means")
+    basins = list(basins)
+    dims = horizontal_dims(field)
+    blocks = [basin_weights(b, field) for b in basins]
+    lo = {d: min(isel[d].start for isel, _ in blocks) for d in dims}
+    hi = {d: max(isel[d].stop for isel, _ in blocks) for d in dims}
+    shape = tuple(hi[d] - lo[d] for d in dims)
+    w = np.zeros((len(basins),) + shape)
+    for k, (isel, block) in enumerate(blocks):
+        rows = slice(isel[dims[0]].start - lo[dims[0]], isel[dims[0]].stop - lo[dims[0]])
+        cols = slice(isel[dims[1]].start - lo[dims[1]], isel[dims[1]].stop - lo[dims[1]])
+        w[k, rows, cols] = block.values
+    weights = xr.DataArray(w, dims=("basin",) + dims, coords={"basin": [b.name for b in basins]})
+    sub = field.isel({d: slice(lo[d], hi[d]) for d in dims})
+    sub = sub.drop_vars([c for c in sub.coords if set(sub[c].dims) & set(dims)])
+    mean, den = _weighted_mean(sub, weights, dims)
+    total = weights.sum(dims)
+    covered = (den / total).clip(0.0, 1.0)
+    out = mean.assign_coords(covered_fraction=covered)
+    out["covered_fraction"].attrs.update(
+        units="1", long_name="fraction of the basin's weighted area with data in this slice")
+    out.name = field.name or "basin_mean"
+    out.attrs = {k: v for k, v in field.attrs.items() if k in ("standard_name", "step", "cell_methods", "units")}
+    out.attrs.update(
+        weighting="cell area on a sphere of radius %.1f m × planar lon/lat coverage" % AUTHALIC_RADIUS_M,
+        missing_data="cells with NaN are left out per slice; see the covered_fraction coordinate")
+    return with_history(out, "basin_means", field.attrs, basins=[b.name for b in basins])
 
 
 def _finish(out, field, covered, name, units, func, basin, **params):
@@ -118,12 +159,14 @@ def basin_mean(field: xr.DataArray, basin, weights=None) -> xr.DataArray:
 
 
 def basin_volume(field: xr.DataArray, basin, units: str = "m3", weights=None) -> xr.DataArray:
-    """Volume of water over ``basin`` from a depth field in mm: Σ depth/1000 × area × coverage.
+    """Volume of water over ``basin`` from a depth field in mm: basin mean depth × basin area.
+
+    The area is :attr:`cw.Basin.area_m2` (the outline on the authalic sphere), the one area
+    every table shows; with only ``weights`` it is Σ cell area × coverage.
 
     ``units`` is "m3" or "acre-ft" (international foot, :data:`ACRE_FOOT_M3`).  Where some
-    cells are NaN in a slice, the volume is the basin mean times the basin area (missing
-    cells take the mean of the rest); ``covered_fraction`` says how much had data.  With
-    complete data this is exactly the sum above.  Lazy on dask input.
+    cells are NaN in a slice, missing cells take the mean of the rest; ``covered_fraction``
+    says how much had data.  Lazy on dask input.
     """
     _check_field(field, "basin_volume")
     if units not in _VOLUME_UNITS:
@@ -135,7 +178,9 @@ def basin_volume(field: xr.DataArray, basin, units: str = "m3", weights=None) ->
                          expected="a depth in 'mm' (per step, a total, or a normal)",
                          fix="convert to a depth in mm first (e.g. with cw.open_precip or annual_totals)")
     mean, covered, total = _reduce(field, basin, weights)
-    volume = mean / 1000.0 * total / _VOLUME_UNITS[units]
+    # one area per basin: the outline's (Basin.area_m2), so volumes match every table
+    area = basin.area_m2 if hasattr(basin, "area_m2") else total
+    volume = mean / 1000.0 * area / _VOLUME_UNITS[units]
     out = _finish(volume, field, covered, "volume", units, "basin_volume", basin, volume_units=units)
     out.attrs["long_name"] = f"water volume over basin {getattr(basin, 'name', '')}".strip()
     out.attrs.pop("standard_name", None)

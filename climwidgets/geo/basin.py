@@ -294,16 +294,16 @@ class Basin:
 
     @cached_property
     def area_m2(self) -> float:
-        """Geodesic area on the WGS84 ellipsoid (pyproj.Geod), edges densified to ≤ 0.01°.
+        """Area of the outline (m²) on the sphere of the authalic radius 6 371 007.2 m, edges
+        straight in lon/lat: the one basin area every table, volume and export uses.
 
-        Densifying keeps the straight lon/lat edges (rather than geodesics between
-        vertices) to about 1e-8 relative.
+        Exact for the polygon as drawn (Green's theorem on the sphere, see
+        :func:`climwidgets.geo.area.lonlat_polygon_area`); it differs from the ellipsoidal
+        area by about 0.1-0.5 % depending on latitude.
         """
-        from pyproj import Geod
+        from .area import lonlat_polygon_area
 
-        dense = shapely.segmentize(self._geometry, max_segment_length=0.01)
-        area, _ = Geod(ellps="WGS84").geometry_area_perimeter(dense)
-        return abs(float(area))
+        return float(lonlat_polygon_area(self._geometry))
 
     @cached_property
     def token(self) -> str:

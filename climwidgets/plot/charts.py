@@ -7,9 +7,9 @@ from __future__ import annotations
 
 import numpy as np
 
-__all__ = ["series_with_trend", "monthly_normals", "MONTH_LABELS"]
+__all__ = ["series_with_trend", "monthly_normals", "areal_depth_chart", "MONTH_LABELS"]
 
-MONTH_LABELS = ["Jan", "Feb", "Mar", "Apr", "May", "Jun", "Jul", "Aug", "Sep", "Oct", "Nov", "Dec"]
+from ..compute._time import MONTH_NAMES as MONTH_LABELS  # noqa: E402  (the one month-name table)
 
 
 def _axes(ax, figsize):
@@ -67,3 +67,40 @@ def monthly_normals(table, ax=None, units="mm", figsize=(5.5, 3.0)):
         ax.legend(fontsize=7, loc="best")
     ax.grid(alpha=0.3)
     return artists
+
+
+def areal_depth_chart(depths, warmed=None, period=None, duration="", ci=0.9, warming=None, figsize=(6.5, 3.2)):
+    """Areal depth against return period per basin, with its interval shaded.
+
+    ``depths`` is the Dataset of :func:`climwidgets.analyses.extremes.areal_design_depths`
+    (None: an empty chart); ``warmed`` the same after warming (drawn dashed); ``period``
+    the return period marked; ``warming`` (ΔT, rate in %) for the title.  Returns the Figure.
+    """
+    from matplotlib.figure import Figure
+
+    fig = Figure(figsize=figsize)
+    ax = fig.add_subplot(1, 1, 1)
+    if depths is not None:
+        periods = np.asarray(depths["return_period"].values, dtype=float)
+        for i, name in enumerate(depths["basin"].values):
+            colour = f"C{i % 10}"
+            d = depths.sel(basin=name)
+            ax.fill_between(periods, d["areal_lower_mm"].values, d["areal_upper_mm"].values, color=colour,
+                            alpha=0.15, lw=0)
+            ax.plot(periods, d["areal_estimate_mm"].values, "o-", color=colour, ms=3, lw=1.2, label=str(name))
+            if warmed is not None:
+                ax.plot(periods, warmed.sel(basin=name)["areal_estimate_mm"].values, "--", color=colour, lw=1.0)
+        ax.set_xscale("log")
+        ax.set_xticks(periods, [f"{int(p)}" for p in periods])
+        ax.legend(fontsize=7, loc="upper left")
+    if period is not None:
+        ax.axvline(period, color="k", ls=":", lw=0.8)
+    ax.set_xlabel("return period [years]")
+    ax.set_ylabel(f"areal {duration} depth [mm]", fontsize=8)
+    text = f"shaded: {ci:.0%} interval"
+    if warming is not None:
+        text += f"; dashed: +{warming[0]:g} °C at {warming[1]:g} % per °C"
+    ax.set_title(text, fontsize=8)
+    ax.grid(alpha=0.3, which="both")
+    fig.tight_layout()
+    return fig

@@ -2,8 +2,8 @@
 
 ``ReportContent`` holds numbers and text only (tables, small maps as DataArrays,
 per-basin series); :func:`climwidgets.report.html.write_report` turns it into HTML and
-draws the figures.  :func:`build_report_content` computes everything with the public
-compute and geo functions, so the report shows exactly what a notebook user would get.
+draws the figures.  The numbers come from the analyses (:func:`cw.basin_table`,
+:func:`cw.what_if`), so the report shows exactly what the widgets and the CSV show.
 """
 
 from __future__ import annotations
@@ -16,10 +16,10 @@ import numpy as np
 import pandas as pd
 import xarray as xr
 
-from ..errors import InputError, ParameterError
+from ..errors import ParameterError
 from ._provenance import InputRecord, cautions_for_columns, describe_inputs
 
-__all__ = ["ReportContent", "build_report_content"]
+__all__ = ["ReportContent", "build_report_content", "content_from_analysis"]
 
 DEFAULT_TITLE = "Basin precipitation summary"
 
@@ -106,102 +106,100 @@ def _grid_detail(pr: xr.DataArray) -> str:
     return ", ".join(parts)
 
 
-def _basin_series(lazy: dict) -> dict:
-    keys = list(lazy)
-    values = dask.compute(*[lazy[k] for k in keys])
-    return dict(zip(keys, values))
+def content_from_analysis(ds: xr.Dataset, basins, pr_attrs: dict, what: xr.Dataset | None = None,
+                          sources=None, title: str = DEFAULT_TITLE, notes=None, pr_detail: str = "",
+                          pr_name: str = "precipitation") -> ReportContent:
+    """A :class:`ReportContent` from a computed :func:`cw.basin_table` (and :func:`cw.what_if`).
 
-
-def build_report_content(pr: xr.DataArray, basins, months=(7, 8), baseline=(1991, 2020),
-                         sources=None, title: str = DEFAULT_TITLE, year_start: int = 1,
-                         scenario_percent: float | None = None, scenario_months=None,
-                         notes=None) -> ReportContent:
-    """Compute the figures of a basin report from a precipitation grid (mm per step).
-
-    Uses :func:`cw.basin_summary` (the table), :func:`cw.normals` and :func:`cw.basin_mean`
-    (monthly normals per basin), :func:`cw.seasonal_fraction` with ``per_year=True`` and
-    :func:`cw.annual_totals` (the basin's seasonal share of each year, as the ratio of the
-    basin's seasonal and annual totals), :func:`cw.trend` (Sen slope and Mann–Kendall
-    p-value of that share), :func:`cw.annual_normal` and :func:`cw.seasonal_fraction` (the
-    maps) and, with ``scenario_percent``, :func:`cw.scenario_delta` (the what-if table).
-
-    ``sources`` are the input files to list with their checksums (default: the paths in
-    ``pr.attrs["sources"]`` written by :func:`cw.open_precip`).
+    Nothing is computed here: the numbers are those of the analysis, so the report, the
+    CSV and the widgets show the same ones.
     """
-    import climwidgets as cw
-
+    from ..analyses.basins import SUMMARY_COLUMNS, WHAT_IF_COLUMNS
+    from ..analyses.meta import frame
     from ..compute.seasonal import season_label
 
-    basins = [basins] if isinstance(basins, cw.Basin) else list(basins)
-    table = cw.basin_summary(pr, basins, months=months, baseline=baseline, year_start=year_start)
+    basins = list(basins)
+    months, baseline = tuple(ds.attrs["months"]), tuple(ds.attrs["baseline"])
+    year_start = ds.attrs.get("year_start", 1)
+    table = frame(ds, columns=SUMMARY_COLUMNS)
+    table.index.name = "basin"
+    table.attrs.update({k: ds.attrs[k] for k in ("months", "baseline", "year_start", "note") if k in ds.attrs})
+    monthly = ds["monthly_normal"].transpose("month", "basin").to_pandas()
+    monthly.columns = [str(c) for c in monthly.columns]
+    share_by_year = ds["seasonal_share_per_year"].transpose("year", "basin").to_pandas()
+    share_by_year.columns = [str(c) for c in share_by_year.columns]
+    trends = {}
+    if "share_slope" in ds:
+        for name in share_by_year.columns:
+            sel = ds.sel(basin=name)
+            if np.isfinite(float(sel["share_slope"])):
+                trends[name] = (float(sel["share_slope"]), float(sel["share_intercept"]), float(sel["share_pvalue"]))
+    label = season_label(months)
+    maps = {}
+    if "annual_normal_map" in ds:
+        maps[f"Annual normal precipitation {baseline[0]}–{baseline[1]}"] = (ds["annual_normal_map"], "total")
+    maps[f"Seasonal share ({label}) of the annual total, all complete years"] = (ds["seasonal_share_map"], "share")
 
-    # per-basin monthly normals and per-year seasonal share (ratio of the basin's sums)
-    normals = cw.normals(pr, baseline=baseline)
-    share = cw.seasonal_fraction(pr, months=months, year_start=year_start, per_year=True)
-    start = int(share.attrs.get("season_year_start", year_start))
-    annual = cw.annual_totals(pr, year_start=start)
-    annual, share = xr.align(annual, share.drop_vars("n_years", errors="ignore"), join="inner")
-    seasonal = share * annual
-    lazy = {}
-    for b in basins:
-        lazy[(b.name, "normals")] = cw.basin_mean(normals.drop_vars("n_years", errors="ignore"), b)
-        lazy[(b.name, "seasonal")] = cw.basin_mean(seasonal, b)
-        lazy[(b.name, "annual")] = cw.basin_mean(annual.where(seasonal.notnull()), b)
-    done = _basin_series(lazy)
-    monthly = pd.DataFrame({b.name: done[(b.name, "normals")].to_series() for b in basins})
-    monthly.index.name = "month"
-    by_year, trends = {}, {}
-    for b in basins:
-        s, a = done[(b.name, "seasonal")], done[(b.name, "annual")]
-        ratio = (s / a.where(a > 0)).drop_vars("covered_fraction", errors="ignore")
-        ratio.name, ratio.attrs = "seasonal_share", {"units": "1", "long_name": "seasonal share"}
-        by_year[b.name] = ratio.to_series()
-        try:
-            tr = cw.trend(ratio.dropna("year"), dim="year")
-            trends[b.name] = (float(tr["slope"]), float(tr["intercept"]), float(tr["pvalue"]))
-        except InputError:
-            pass  # too few years for a trend: the chart shows the values only
-    share_by_year = pd.DataFrame(by_year)
-    share_by_year.index.name = "year"
-
-    label = season_label(tuple(months))
-    maps = {
-        f"Annual normal precipitation {baseline[0]}–{baseline[1]}":
-            (cw.annual_normal(pr, baseline=baseline).compute(), "total"),
-        f"Seasonal share ({label}) of the annual total, all complete years":
-            (cw.seasonal_fraction(pr, months=months, year_start=year_start)
-             .drop_vars("n_years", errors="ignore").compute(), "share"),
-    }
-
-    what_if, wi_title, wi_note = None, "What-if", ""
-    if scenario_percent is not None:
-        smonths = tuple(scenario_months or months)
-        what_if = cw.scenario_delta(pr, basins, months=smonths, percent=scenario_percent,
-                                    year_start=year_start)
-        wi_title = f"What-if: {season_label(smonths)} precipitation {scenario_percent:+g} %"
-        wi_note = ("The season's mean precipitation over each basin is changed by the stated percentage; "
-                   "the rest of the year is unchanged, so the annual volume changes by the same amount. "
-                   "Volumes are precipitation on the basin, not runoff.")
-
-    if sources is None:
-        sources = [s for s in str(pr.attrs.get("sources", "")).split("; ") if s]
-    inputs = describe_inputs(sources)
-    inputs.append(InputRecord(name=str(pr.name or "precipitation"), kind="object", detail=_grid_detail(pr)))
+    what_if_table, wi_title, wi_note = None, "What-if", ""
     parameters = {
         "season (months)": f"{label} ({', '.join(str(m) for m in months)})",
         "normal period (baseline)": f"{baseline[0]}–{baseline[1]}",
         "12-month year starts in month": year_start,
         "basins": len(basins),
+        "basin area": ds.attrs.get("area", ""),
     }
-    if scenario_percent is not None:
-        parameters["what-if change"] = f"{scenario_percent:+g} % in {season_label(tuple(scenario_months or months))}"
+    if what is not None:
+        what_if_table = frame(what, columns=WHAT_IF_COLUMNS)
+        what_if_table.index.name = "basin"
+        smonths, percent = tuple(what.attrs["months"]), float(what.attrs["percent"])
+        wi_title = f"What-if: {season_label(smonths)} precipitation {percent:+g} %"
+        wi_note = ("The season's mean precipitation over each basin is changed by the stated percentage; "
+                   "the rest of the year is unchanged, so the annual volume changes by the same amount. "
+                   "Volumes are precipitation on the basin, not runoff.")
+        parameters["what-if change"] = f"{percent:+g} % in {season_label(smonths)}"
+    inputs = describe_inputs(sources or [])
+    inputs.append(InputRecord(name=str(pr_name), kind="object", detail=pr_detail))
     return ReportContent(
         table=table, title=title, inputs=inputs, parameters=parameters, basins=basins, maps=maps,
         monthly_normals=monthly, share_by_year=share_by_year, share_trends=trends,
-        what_if=what_if, what_if_title=wi_title, what_if_note=wi_note,
-        notes=list(notes or []) + ([table.attrs["note"]] if "note" in table.attrs else []),
-        history=str(pr.attrs.get("history", "")),
+        what_if=what_if_table, what_if_title=wi_title, what_if_note=wi_note,
+        notes=list(notes or []) + ([ds.attrs["note"]] if "note" in ds.attrs else []),
+        history=str(pr_attrs.get("history", "")),
     )
+
+
+def build_report_content(pr: xr.DataArray, basins, months=(7, 8), baseline=(1991, 2020),
+                         sources=None, title: str = DEFAULT_TITLE, year_start: int = 1,
+                         scenario_percent: float | None = None, scenario_months=None,
+                         notes=None, bundle=None) -> ReportContent:
+    """Compute the figures of a basin report from a precipitation grid (mm per step).
+
+    The numbers are :func:`cw.basin_table` (the table, the monthly normals and the
+    per-year seasonal share of each basin with its Sen slope, and the maps) and, with
+    ``scenario_percent``, :func:`cw.what_if`, all computed in one pass over the data.
+
+    ``sources`` are the input files to list with their checksums (default: the paths in
+    ``pr.attrs["sources"]`` written by :func:`cw.open_precip`).
+    """
+    from ..analyses.basins import basin_table, what_if
+    from ..analyses.run import compute
+    from ..compute.bundle import climatology_bundle
+    from ..geo.basinset import as_basin_list
+
+    basins = as_basin_list(basins, "build_report_content")
+    if bundle is None:  # one bundle for the table and the what-if: one read of the data
+        bundle = climatology_bundle(pr, months=tuple(months), baseline=tuple(baseline), year_start=year_start,
+                                    maxima_days=())
+    ds = basin_table(pr, basins, months=months, baseline=baseline, year_start=year_start, bundle=bundle)
+    what = None
+    if scenario_percent is not None:
+        what = what_if(pr, basins, months=tuple(scenario_months or months), percent=scenario_percent,
+                       year_start=year_start, bundle=bundle)
+    ds, what = compute(ds, what)
+    if sources is None:
+        sources = [s for s in str(pr.attrs.get("sources", "")).split("; ") if s]
+    return content_from_analysis(ds, basins, pr.attrs, what=what, sources=sources, title=title, notes=notes,
+                                 pr_detail=_grid_detail(pr), pr_name=str(pr.name or "precipitation"))
 
 
 def share_years_span(content: ReportContent) -> tuple[int, int] | None:

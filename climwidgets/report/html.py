@@ -18,6 +18,8 @@ from pathlib import Path
 import pandas as pd
 
 from .._version import __version__
+from ..analyses.meta import CATALOGUE, format_cell
+from ..compute._time import MONTH_NAMES
 from ..errors import ParameterError
 from ..atomic import atomic_write, check_target
 from ._provenance import describe_inputs, format_value
@@ -62,58 +64,36 @@ footer { margin-top: 2.5rem; font-size: .8rem; color: var(--muted); border-top: 
 }
 """
 
-# column of the suite's tables -> (plain label, unit shown, scale, decimals)
-_COLUMNS = {
-    "area_km2": ("Area", "km²", 1.0, 1),
-    "annual_mean_mm": ("Mean annual precipitation", "mm", 1.0, 0),
-    "n_years": ("Complete years", "", 1.0, 0),
-    "seasonal_share_1": ("Seasonal share", "% of annual", 100.0, 1),
-    "normal_annual_mm": ("Annual normal", "mm", 1.0, 0),
-    "volume_per_year_m3": ("Mean volume per year", "m³", 1.0, 0),
-    "volume_per_year_acre_ft": ("Mean volume per year", "acre-ft", 1.0, 0),
-    "latest_year": ("Latest complete year", "", 1.0, None),
-    "latest_year_mm": ("Latest year total", "mm", 1.0, 0),
-    "latest_year_percent_of_normal": ("Latest year, percent of normal", "%", 1.0, 0),
-    "data_coverage_1": ("Area with data", "%", 100.0, 0),
-    "percent": ("Change", "%", 1.0, 1),
-    "n_seasons": ("Seasons used", "", 1.0, 0),
-    "seasonal_volume_per_year_m3": ("Mean seasonal volume per year", "m³", 1.0, 0),
-    "delta_volume_per_year_m3": ("Change in volume per year", "m³", 1.0, 0),
-    "delta_volume_per_year_acre_ft": ("Change in volume per year", "acre-ft", 1.0, 0),
-}
-
-
-_MONTHS = ("Jan", "Feb", "Mar", "Apr", "May", "Jun", "Jul", "Aug", "Sep", "Oct", "Nov", "Dec")
 
 
 def _e(text) -> str:
     return html.escape(str(text), quote=True)
 
 
-def _fmt_number(value, decimals=None) -> str:
-    if value is None or (isinstance(value, float) and math.isnan(value)) or value is pd.NA:
-        return "–"
-    if isinstance(value, bool) or not isinstance(value, numbers.Number):
-        return str(value)
-    v = float(value)
-    if not math.isfinite(v):
-        return "–"
-    if decimals is None:
-        return f"{v:.0f}" if v.is_integer() else f"{v:.4g}"
-    return f"{v:,.{decimals}f}"
-
-
-def _column_label(col, label_columns: bool):
+def _column_label(table: pd.DataFrame, col, label_columns: bool):
+    """(heading, unit, scale, attrs) of a column, from the analysis that made the table."""
     if not label_columns:
-        return str(col), "", 1.0, "auto"
-    return _COLUMNS.get(str(col), (str(col), "", 1.0, "auto"))
+        return str(col), "", 1.0, {}
+    attrs = (table.attrs.get("columns") or {}).get(col)
+    if not isinstance(attrs, dict):
+        meta = CATALOGUE.get(str(col))
+        attrs = meta.attrs() if meta is not None else None
+    if not attrs:
+        return str(col), "", 1.0, {}
+    label = str(attrs.get("label", col))
+    unit = attrs.get("display_units", attrs.get("units", ""))
+    return label[:1].upper() + label[1:], "" if unit == "1" else unit, float(attrs.get("display_scale", 1.0)), attrs
 
 
-def _cell(v, scale, dec) -> str:
+def _cell(v, scale, attrs) -> str:
     if isinstance(v, numbers.Number) and not isinstance(v, bool):
-        shown = _fmt_number(float(v) * scale, dec if dec != "auto" else None)
+        v = float(v)
+        if not attrs:  # a column the analyses do not describe: plain numbers
+            shown = "–" if not math.isfinite(v) else (f"{v:.0f}" if v.is_integer() else f"{v:.4g}")
+        else:
+            shown = format_cell(v * scale, attrs)
         return f"<td class='num'>{_e(shown)}</td>"
-    return f"<td>{_e('–' if v is None else v)}</td>"
+    return f"<td>{_e('–' if v is None or v is pd.NA else v)}</td>"
 
 
 def _head(name, unit) -> str:
@@ -125,7 +105,7 @@ def _table_html(table: pd.DataFrame, label_columns: bool = True, max_wide: int =
     (one row per quantity, one column per basin) so that it fits a printed page."""
     t = table
     show_index = t.index.name is not None or not isinstance(t.index, pd.RangeIndex)
-    labels = [_column_label(c, label_columns) for c in t.columns]
+    labels = [_column_label(t, c, label_columns) for c in t.columns]
     if max_wide is not None and len(t.columns) > max_wide and len(t) <= 6:
         first = _e(t.index.name or "") if show_index else ""
         out = ["<table class='sideways'><thead><tr><th scope='col'>" + first + "</th>"
@@ -203,7 +183,7 @@ def render_html(content: ReportContent, figures: bool = True) -> str:
     if figures and content.monthly_normals is not None and not content.monthly_normals.empty:
         fig = F.normals_figure(content.monthly_normals)
         table = content.monthly_normals.T.copy()  # one row per basin, one column per month
-        table.columns = [_MONTHS[int(m) - 1] for m in table.columns]
+        table.columns = [MONTH_NAMES[int(m) - 1] for m in table.columns]
         table.index.name = "basin (mm)"
         parts.append(_section("normals", "Monthly normals",
                               _figure(F.png_data_uri(fig), "Area-weighted monthly normal precipitation of each basin (mm).",

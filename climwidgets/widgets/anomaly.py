@@ -21,6 +21,7 @@ import numpy as np
 import pandas as pd
 import xarray as xr
 
+from ..compute._time import MONTH_NAMES, season_months
 from ..compute.anomaly import anomaly
 from ..compute.spi import SPI_CLASSES, SPI_SCALES, spi, spi_category
 from ..errors import ParameterError
@@ -32,7 +33,6 @@ from .mapframe import MapFrame
 
 __all__ = ["AnomalyWidget", "whole_grid_basin", "step_labels", "decimal_time"]
 
-MONTHS = ["Jan", "Feb", "Mar", "Apr", "May", "Jun", "Jul", "Aug", "Sep", "Oct", "Nov", "Dec"]
 PERIODS = [("month", "month"), ("season", "season"), ("year (Jan-Dec)", "year"),
            ("water year (Oct-Sep)", "water_year")]
 KINDS = [("percent of normal", "percent"), ("difference from normal (mm)", "absolute"),
@@ -40,8 +40,9 @@ KINDS = [("percent of normal", "percent"), ("difference from normal (mm)", "abso
 # colour style of the map for each kind (see climwidgets.plot.maps.KINDS)
 _MAP_KIND = {"absolute": "difference", "percent": "percent", "standardized": "standardized",
              "spi": "standardized"}
-IN_MEMORY_BYTES = 256 * 2**20  # grids up to this size are read into memory once
-_UNIT_WORDS = {"1": "standard deviations", "%": "%", "mm": "mm"}
+from ..analyses.anomalies import UNIT_WORDS as _UNIT_WORDS  # noqa: E402
+from ..analyses.anomalies import step_table  # noqa: E402
+from ..analyses.run import IN_MEMORY_BYTES  # noqa: E402
 
 
 def whole_grid_basin(field, name="whole grid") -> Basin | None:
@@ -70,12 +71,6 @@ def decimal_time(da) -> np.ndarray:
     return np.asarray(da["year"].values, dtype=float)
 
 
-def season_months(first: int, last: int) -> tuple[int, ...]:
-    """Months from ``first`` through ``last``, wrapping over the year end (11, 3 -> 11..3)."""
-    n = (last - first) % 12 + 1
-    return tuple((first - 1 + i) % 12 + 1 for i in range(n))
-
-
 class AnomalyWidget(BaseWidget):
     """Anomalies against the baseline normal: map, basin series and basin table.
 
@@ -99,9 +94,9 @@ class AnomalyWidget(BaseWidget):
                                  expected="a precipitation DataArray with a time dimension (mm per step)",
                                  fix="open the data with cw.open_precip")
         self.pr = pr
-        self.basins = list(basins or [])
-        whole = whole_grid_basin(pr) if not self.basins else None
-        self._series_basins = self.basins or ([whole] if whole is not None else [])
+        self.use_basins(basins)
+        self._whole = whole_grid_basin(pr)
+        self._series = {}
         years = pr["time"].dt.year.values
         y0, y1 = int(years.min()), int(years.max())
         if baseline is None:
@@ -116,7 +111,7 @@ class AnomalyWidget(BaseWidget):
         self.kind = widgets.Dropdown(options=KINDS, value="percent", description="Kind", style=style, layout=lay)
         self.scale = widgets.Dropdown(options=[(f"{s} month{'s' if s > 1 else ''}", s) for s in SPI_SCALES],
                                       value=3, description="SPI scale", style=style, layout=lay)
-        month_opts = [(name, i + 1) for i, name in enumerate(MONTHS)]
+        month_opts = [(name, i + 1) for i, name in enumerate(MONTH_NAMES)]
         self.season_from = widgets.Dropdown(options=month_opts, value=12, description="Season from",
                                             style=style, layout=lay)
         self.season_to = widgets.Dropdown(options=month_opts, value=2, description="through",
@@ -168,20 +163,32 @@ class AnomalyWidget(BaseWidget):
             return spi(pr, scale=scale, baseline=baseline)
         return anomaly(pr, baseline=baseline, kind=kind, period=period, months=months)
 
-    def _inputs(self):
-        """The precipitation and the basin-mean series, read once and kept (see below)."""
-        if self._cache is None:
-            import dask
+    @property
+    def _series_basins(self):
+        return self.basins or ([self._whole] if self._whole is not None else [])
 
+    def basins_changed(self, event, details):
+        self.map.set_basins(self.basins)
+        self.refresh()
+
+    def _inputs(self):
+        """The precipitation and the basin-mean series, each read once and kept."""
+        import dask
+
+        if self._cache is None:
             pr = self.pr
-            # A small grid is read into memory once: anomaly graphs over many small
-            # selections cost more in dask overhead than the arithmetic itself.
+            # A small grid is read into memory once (analyses.run.IN_MEMORY_BYTES): anomaly
+            # graphs over many small selections cost more in dask overhead than the arithmetic.
             if pr.chunks is not None and pr.nbytes <= IN_MEMORY_BYTES:
                 pr = pr.load()
-            series = {b.name: basin_mean(pr, b) for b in self._series_basins}
-            (series,) = dask.compute(series)
-            self._cache = (pr, series)
-        return self._cache
+            self._cache = pr
+        pr = self._cache
+        new = {(b.token, b.name): basin_mean(pr, b) for b in self._series_basins
+               if (b.token, b.name) not in self._series}
+        if new:  # only basins not seen before
+            (done,) = dask.compute(new)
+            self._series.update(done)
+        return pr, {b.name: self._series[(b.token, b.name)] for b in self._series_basins}
 
     def compute(self, **params):
         pr, basin_pr = self._inputs()
@@ -230,8 +237,7 @@ class AnomalyWidget(BaseWidget):
     def _on_step(self, change):
         if self._updating or self.result is None:
             return
-        with self._render_lock:
-            self._show_step()
+        self._show_step()
 
     @property
     def step_index(self) -> int:
@@ -262,24 +268,8 @@ class AnomalyWidget(BaseWidget):
         self.show_chart(self._chart())
 
     def _table(self):
-        if self.basin_series is None or self.basin_series.empty:
-            return None
-        step = self.step.value
-        units = _UNIT_WORDS.get(self.result.attrs.get("units", ""), "")
-        rows = []
-        for name in self.basin_series.columns:
-            s = self.basin_series[name]
-            value = s.loc[step]
-            valid = s.dropna()
-            row = {"basin": name, f"{step} [{units}]": value,
-                   "rank (1 = driest)": int((valid < value).sum()) + 1 if np.isfinite(value) else np.nan,
-                   "steps in record": len(valid),
-                   "driest in record": valid.min() if len(valid) else np.nan,
-                   "wettest in record": valid.max() if len(valid) else np.nan}
-            if self.basin_classes is not None:
-                row["SPI class"] = self.basin_classes[name].loc[step]
-            rows.append(row)
-        return pd.DataFrame(rows).set_index("basin")
+        return step_table(self.basin_series, self.step.value, self.result.attrs.get("units", ""),
+                          self.basin_classes)
 
     def _chart(self):
         from matplotlib.figure import Figure

@@ -32,11 +32,17 @@ Subclass :class:`BaseWidget` and fill in four small methods; the base does the r
             self.show_table(some_dataframe)        # results table (a DataFrame)
             self.show_chart(some_figure)           # optional chart (a matplotlib Figure)
 
-``compute`` runs in a worker thread and returns anything ``dask.compute`` understands
-(a DataArray, a dict or tuple of them, pandas objects...); the base computes it with a
-dask callback that feeds the progress bar, then calls ``finish(computed, params)``
-(default: identity) in the worker and stores the outcome in ``self.result``.  ``render``
-runs only if no newer request arrived meanwhile.
+``compute`` runs in a worker thread and returns lazy xarray objects (analyses), possibly
+in a dict or tuple; the base computes them in one pass (``climwidgets.analyses.run``)
+with the suite's progress callback, calls ``finish(computed, params)`` (default:
+identity) in the worker, and then hands the outcome to the kernel's thread: the kernel's
+event loop (``io_loop.add_callback``) — or :meth:`wait`, when the kernel's thread is
+waiting — stores it in ``self.result`` and calls ``render``.  So every widget and figure
+update happens on one thread; no worker touches widget state.  ``render`` runs only if
+no newer request arrived meanwhile.
+
+Basins: a widget given ``basins=`` (a list or a shared :class:`cw.BasinSet`) keeps them
+in ``self.basin_set`` and hears of every change to it (:meth:`basins_changed`).
 
 * Every parameter change bumps a generation counter.  A computation whose generation is no
   longer current is aborted at its next dask task and its result discarded, so dragging a
@@ -52,65 +58,86 @@ runs only if no newer request arrived meanwhile.
 
 from __future__ import annotations
 
+import collections
 import contextlib
 import html
 import threading
 import traceback
+import weakref
 from pathlib import Path
 
 import ipywidgets as widgets
 import pandas as pd
-from dask.callbacks import Callback
 
+from ..analyses.meta import format_cell
 from ..atomic import atomic_write
 from ..errors import InputError
+from ..geo.basinset import BasinSet
+from ..scale import Superseded, TaskProgress
 
-__all__ = ["BaseWidget", "DaskProgress", "Superseded", "unique_path", "df_to_html"]
-
-
-class Superseded(Exception):
-    """Raised inside a stale computation to stop it (never shown to users)."""
+__all__ = ["BaseWidget", "KernelThread", "Superseded", "unique_path", "df_to_html", "MONTH_OPTIONS"]
 
 
-class DaskProgress(Callback):
-    """A dask local-scheduler callback that moves a progress bar and stops stale work.
+def _kernel_loop():
+    """The running kernel's event loop (a tornado IOLoop on the kernel's thread), or None."""
+    try:
+        from ipykernel.kernelbase import Kernel
+    except ImportError:
+        return None
+    if not Kernel.initialized():
+        return None
+    return getattr(Kernel.instance(), "io_loop", None)
 
-    Registered with ``with DaskProgress(...):`` around the whole computation, so that
-    compute functions that call ``dask.compute`` themselves are followed too.  Dask calls
-    these hooks from the thread that asked for the computation; hooks from other threads
-    (another widget computing at the same time) are ignored.  With a ``dask.distributed``
-    client the hooks are not called: the bar then only shows start and end.
+
+class KernelThread:
+    """Runs widget updates on the thread that owns the widgets (the kernel's).
+
+    :meth:`call` from that thread runs at once; from any other thread it queues the call
+    and asks the kernel's event loop to run the queue.  :meth:`drain` runs what is
+    queued; :meth:`BaseWidget.wait` drains too, so that a cell waiting for a result on
+    the kernel's thread (or a script with no kernel) still gets it rendered there.
     """
 
-    def __init__(self, bar: widgets.FloatProgress, is_current):
-        super().__init__()
-        self.bar = bar
-        self.is_current = is_current
-        self.thread = threading.get_ident()
-        self.total = 1
-        self.done = 0
+    def __init__(self):
+        self.ident = threading.get_ident()
+        self.loop = _kernel_loop()
+        self._queue = collections.deque()
+        self._lock = threading.Lock()
 
-    def _mine(self):
-        return threading.get_ident() == self.thread
+    def on_owner(self) -> bool:
+        return threading.get_ident() == self.ident
 
-    def _start_state(self, dsk, state):
-        if not self._mine():
+    def call(self, fn) -> None:
+        if self.on_owner():
+            self.drain()
+            fn()
             return
-        self.total = max(1, len(state["ready"]) + len(state["waiting"]) + len(state.get("running", ())))
-        self.done = 0
-        if self.is_current():
-            self.bar.value = 0.0
+        with self._lock:
+            self._queue.append(fn)
+        if self.loop is not None:
+            self.loop.add_callback(self.drain)
 
-    def _pretask(self, key, dsk, state):
-        if self._mine() and not self.is_current():
-            raise Superseded(key)
-
-    def _posttask(self, key, result, dsk, state, worker_id):
-        if not self._mine():
+    def drain(self) -> None:
+        if not self.on_owner():
             return
-        self.done += 1
-        if self.is_current():
-            self.bar.value = min(1.0, self.done / self.total)
+        while True:
+            with self._lock:
+                if not self._queue:
+                    return
+                fn = self._queue.popleft()
+            fn()
+
+
+MONTH_OPTIONS = None  # filled below from the one month-name table
+
+
+def _month_options():
+    from ..compute._time import MONTH_FULL_NAMES
+
+    return [(name, i + 1) for i, name in enumerate(MONTH_FULL_NAMES)]
+
+
+MONTH_OPTIONS = _month_options()
 
 
 def unique_path(folder, name):
@@ -124,11 +151,18 @@ def unique_path(folder, name):
 
 
 def df_to_html(df: pd.DataFrame, float_format="{:.4g}".format) -> str:
-    """A small escaped HTML table (user text such as basin names is escaped)."""
+    """A small escaped HTML table (user text such as basin names is escaped).
+
+    Columns described by an analysis (``df.attrs["columns"]``, see
+    :func:`climwidgets.analyses.meta.frame`) use their own display format.
+    """
     if df is None or len(df) == 0:
         return "<i>No rows yet.</i>"
+    described = df.attrs.get("columns") or {}
+    formatters = {c: (lambda v, a=described[c]: "no data" if format_cell(v, a) == "–" else format_cell(v, a))
+                  for c in df.columns if isinstance(described.get(c), dict)}
     return df.to_html(escape=True, float_format=float_format, border=0, classes="cw-table",
-                      na_rep="no data")
+                      na_rep="no data", formatters=formatters or None)
 
 
 _CSS = """<style>
@@ -157,10 +191,12 @@ class BaseWidget(widgets.VBox):
         self.table = None
         self.error = None
         self.export_dir = Path(export_dir)
+        self.kernel = KernelThread()
+        if not hasattr(self, "basin_set"):
+            self.basin_set = None
         self._gen = 0
         self._quiet = 0
         self._lock = threading.Lock()
-        self._render_lock = threading.RLock()
         self._done = {0: threading.Event()}
         self._done[0].set()
         self.progress = widgets.FloatProgress(value=0.0, min=0.0, max=1.0, description="Working",
@@ -209,6 +245,37 @@ class BaseWidget(widgets.VBox):
     def _can_redraw(self) -> bool:
         return self.result is not None
 
+    # ------------------------------------------------------------ basins
+    def use_basins(self, basins):
+        """Keep ``basins`` (a list, a Basin or a shared BasinSet) and follow its changes."""
+        self.basin_set = basins if isinstance(basins, BasinSet) else BasinSet(basins or [])
+        ref = weakref.WeakMethod(self._on_basin_event)
+
+        def listener(event, details, ref=ref, basin_set=self.basin_set):
+            method = ref()
+            if method is None:  # the widget is gone
+                basin_set.unobserve(listener)
+            else:
+                method(event, details)
+
+        self.basin_set.observe(listener)
+        return self.basin_set
+
+    @property
+    def basins(self) -> list:
+        """The basins shown, as a list of :class:`cw.Basin` (see ``basin_set``)."""
+        return list(self.basin_set) if self.basin_set is not None else []
+
+    def _on_basin_event(self, event, details):
+        kernel = getattr(self, "kernel", None)
+        if kernel is None:  # still building
+            return
+        kernel.call(lambda: self.basins_changed(event, details))
+
+    def basins_changed(self, event, details):
+        """The shared basin set changed (runs on the kernel's thread): recompute by default."""
+        self.refresh()
+
     # ------------------------------------------------------------ machinery
     def watch(self, *controls, names="value"):
         """Recompute when any of ``controls`` changes."""
@@ -223,8 +290,7 @@ class BaseWidget(widgets.VBox):
     def _redraw(self, *_):
         if not self._can_redraw():
             return
-        with self._render_lock:
-            self._show()
+        self._show()
 
     @contextlib.contextmanager
     def quiet(self):
@@ -242,6 +308,7 @@ class BaseWidget(widgets.VBox):
         """Start a computation for the current parameters (supersedes any running one)."""
         if self._quiet:
             return
+        self.kernel.drain()
         try:
             params = self.parameters()
         except InputError as exc:
@@ -260,6 +327,7 @@ class BaseWidget(widgets.VBox):
                              name=f"climwidgets-{type(self).__name__}-{gen}").start()
         else:
             self._run(gen, params)
+            self.kernel.drain()
 
     def compute_now(self):
         """Compute for the current parameters in the calling thread; return ``self.result``."""
@@ -267,71 +335,112 @@ class BaseWidget(widgets.VBox):
         return self.result
 
     def wait(self, timeout=120):
-        """Block until the current computation is done; return ``self.result``.
+        """Block until the current computation is done and shown; return ``self.result``.
 
-        If the parameters change while waiting, waits for the newer computation.
+        If the parameters change while waiting, waits for the newer computation.  Called
+        on the kernel's thread, it renders finished results itself while it waits.
         """
+        import time
+
+        deadline = time.monotonic() + timeout
         while True:
             gen = self._gen
             event = self._done.get(gen)
-            if event is not None and not event.wait(timeout):
-                raise TimeoutError(f"{type(self).__name__}: computation still running after {timeout} s")
+            while event is not None and not event.is_set():
+                self.kernel.drain()
+                if time.monotonic() > deadline:
+                    raise TimeoutError(f"{type(self).__name__}: computation still running after {timeout} s")
+                event.wait(0.02)
+            self.kernel.drain()
             if gen == self._gen:
                 return self.result
 
+    def _set_progress(self, gen, fraction):
+        if self._is_current(gen):
+            self.kernel.call(lambda: self._is_current(gen) and setattr(self.progress, "value", fraction))
+
+    def _compute(self, params, gen):
+        """``self.compute(**params)`` computed in one pass, with progress (worker thread)."""
+        from ..analyses.run import compute
+        from ..scale import CancelledComputation, compute_on_cluster, current_client
+
+        client = current_client()
+        if client is None:
+            with TaskProgress(lambda f: self._set_progress(gen, f), lambda: self._is_current(gen)):
+                (computed,) = compute(self.compute(**params))
+            return computed
+        try:  # a dask cluster is in use (cw.use_cluster): its progress feeds the same bar
+            return compute_on_cluster(self.compute(**params), client,
+                                      on_progress=lambda f: self._set_progress(gen, f),
+                                      is_current=lambda: self._is_current(gen))
+        except CancelledComputation:
+            raise Superseded() from None
+
     def _run(self, gen, params):
-        import dask
-
+        """Compute in the calling (worker) thread; hand the outcome to the kernel's thread."""
         try:
-            from ..scale import CancelledComputation, compute_on_cluster, current_client
-
-            client = current_client()
-            if client is None:
-                with DaskProgress(self.progress, lambda: self._is_current(gen)):
-                    lazy = self.compute(**params)
-                    (computed,) = dask.compute(lazy)
-            else:  # a dask cluster is in use (cw.use_cluster): its progress feeds the same bar
-                lazy = self.compute(**params)
-                try:
-                    computed = compute_on_cluster(
-                        lazy, client, on_progress=lambda f: setattr(self.progress, "value", f),
-                        is_current=lambda: self._is_current(gen))
-                except CancelledComputation:
-                    raise Superseded() from None
+            computed = self._compute(params, gen)
             if not self._is_current(gen):
+                self._finished(gen)
                 return
             result = self.finish(computed, params)
-            with self._render_lock:
-                if not self._is_current(gen):
-                    return
-                self.result = result
-                if self.error is not None:  # clear an old error, keep plain notes
-                    self.error = None
-                    self.message.value = ""
-                self.render(result, params)
         except Superseded:
+            self._finished(gen)
             return
         except KeyboardInterrupt:  # Ctrl-C: stop, say so, stay usable
-            if self._is_current(gen):
-                self.message.value = "Interrupted. Change a setting to compute again."
+            self.kernel.call(lambda: self._fail(gen, None))
             if threading.current_thread() is threading.main_thread():
                 raise  # compute_now in the kernel's thread: the interrupt reaches the user
-        except InputError as exc:
-            if self._is_current(gen):
+            return
+        except Exception as exc:  # noqa: BLE001 - shown in the widget (InputError plainly)
+            tb = traceback.format_exc()
+            self.kernel.call(lambda error=exc: self._fail(gen, error, tb))
+            return
+        self.kernel.call(lambda: self._deliver(gen, params, result))
+
+    def _deliver(self, gen, params, result):
+        """Store and show a finished result (kernel's thread)."""
+        try:
+            if not self._is_current(gen):
+                return
+            self.result = result
+            if self.error is not None:  # clear an old error, keep plain notes
+                self.error = None
+                self.message.value = ""
+            self.render(result, params)
+        except Exception as exc:  # noqa: BLE001 - a rendering problem is shown, not raised into the loop
+            self._fail(gen, exc, traceback.format_exc(), finished=False)
+        finally:
+            self._finished(gen)
+
+    def _fail(self, gen, exc, tb="", finished=True):
+        """Show an error of computation ``gen`` (kernel's thread)."""
+        try:
+            if not self._is_current(gen):
+                return
+            if exc is None:
+                self.message.value = "Interrupted. Change a setting to compute again."
+            elif isinstance(exc, InputError):
                 self._show_error(exc)
-        except Exception as exc:  # shown in one line; kept for debugging
-            if self._is_current(gen):
+            else:
                 self.error = exc
-                self._traceback = traceback.format_exc()
+                self._traceback = tb
                 self.message.value = (f"<span style='color:#b30000'>Unexpected problem "
                                       f"({html.escape(type(exc).__name__)}): {html.escape(str(exc))}</span>")
         finally:
+            if finished:
+                self._finished(gen)
+
+    def _finished(self, gen):
+        def done():
             if self._is_current(gen):
                 self.progress.value = 1.0
                 self.progress.layout.visibility = "hidden"
             event = self._done.get(gen)
             if event is not None:
                 event.set()
+
+        self.kernel.call(done)
 
     def _show_error(self, exc):
         self.error = exc
@@ -347,7 +456,7 @@ class BaseWidget(widgets.VBox):
         self.table_html.value = _CSS + df_to_html(df)
 
     def show_chart(self, figure, dpi=100):
-        """Show a static matplotlib Figure as a PNG image (safe from worker threads)."""
+        """Show a static matplotlib Figure as a PNG image."""
         if self.chart is None:
             return
         import io

@@ -17,7 +17,9 @@ from __future__ import annotations
 import ipywidgets as widgets
 import numpy as np
 
-from ..compute.compare import align, compare, products_basin_table
+from ..analyses.comparison import products_basin_table
+from ..compute._time import MONTH_NAMES
+from ..compute.compare import align, compare
 from ..errors import ParameterError
 from .anomaly import whole_grid_basin
 from .base import BaseWidget
@@ -33,7 +35,6 @@ METRICS = {
     "kge": "Kling-Gupta efficiency",
     "nse": "Nash-Sutcliffe efficiency",
 }
-_MONTHS = ["Jan", "Feb", "Mar", "Apr", "May", "Jun", "Jul", "Aug", "Sep", "Oct", "Nov", "Dec"]
 _UNITS = {"mm/yr": "mm per year", "mm": "mm per month", "1": "no unit"}
 
 
@@ -60,7 +61,7 @@ class ComparisonWidget(BaseWidget):
                                  variable="datasets", expected="{'name': DataArray, ...} with two or more entries",
                                  fix="pass e.g. {'gauge grid': pr_a, 'reanalysis': pr_b}")
         self.datasets = dict(datasets)
-        self.basins = list(basins or [])
+        self.use_basins(basins)
         self.months = tuple(months)
         self.basin_table = None
         self._aligned = None
@@ -77,6 +78,11 @@ class ComparisonWidget(BaseWidget):
         super().__init__(map_frame=MapFrame(basins=self.basins, kind="difference"), export_dir=export_dir)
         self.watch(self.reference, self.other)
         self.watch_display(self.metric)
+        self.refresh()
+
+    def basins_changed(self, event, details):
+        self.map.set_basins(self.basins)
+        self.basin_table = None  # the table across products is made again for the new basins
         self.refresh()
 
     # ------------------------------------------------------------ BaseWidget hooks
@@ -134,8 +140,8 @@ class ComparisonWidget(BaseWidget):
         """The basin table with column names in words (``widget.basin_table`` keeps the originals)."""
         if self.basin_table is None:
             return None
-        season = "-".join(_MONTHS[m - 1] for m in (self.months[0], self.months[-1])) \
-            if len(self.months) > 1 else _MONTHS[self.months[0] - 1]
+        season = "-".join(MONTH_NAMES[m - 1] for m in (self.months[0], self.months[-1])) \
+            if len(self.months) > 1 else MONTH_NAMES[self.months[0] - 1]
         names = {"annual_mean_mm": "mean annual total [mm]",
                  "seasonal_share": f"seasonal share {season} [fraction]",
                  "normal_mm": "annual normal [mm]", "trend_mm_per_year": "Sen slope [mm per year]",

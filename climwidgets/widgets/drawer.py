@@ -16,26 +16,17 @@ from __future__ import annotations
 import json
 
 import ipywidgets as widgets
-import pandas as pd
+import xarray as xr
 
+from ..analyses.meta import describe, frame
 from ..errors import BasinError, InputError, SourceError
 from ..geo.aggregate import basin_mean
-from ..geo.basin import Basin, write_geojson
+from ..geo.basin import Basin
+from ..geo.basinset import BasinSet, load_basins
 from .base import BaseWidget
 from .mapframe import MapFrame
 
 __all__ = ["DrawingTools", "BasinDrawer", "load_basins"]
-
-
-def load_basins(path):
-    """Basins from a GeoJSON file (.geojson/.json) or a shapefile (.shp), chosen by suffix."""
-    text = str(path).strip()
-    if not text:
-        raise SourceError("no file given", source="basin file", expected="a .geojson or .shp path",
-                          fix="type the path of the file to load")
-    if text.lower().endswith(".shp"):
-        return Basin.from_shapefile(text)
-    return Basin.from_geojson(text)
 
 
 class DrawingTools(widgets.VBox):
@@ -44,14 +35,15 @@ class DrawingTools(widgets.VBox):
     Parameters
     ----------
     map_frame : MapFrame
-    basins : list of Basin, optional
+    basins : BasinSet (or a list of Basin, kept in a new BasinSet)
+        The set the tools change; every widget holding the same set sees the changes.
     report : callable(text_or_error)
         Where messages go (the host widget's message line); errors are InputError objects.
     """
 
     def __init__(self, map_frame: MapFrame, basins=(), report=None):
         self.map = map_frame
-        self.basins = list(basins or [])
+        self.basin_set = basins if isinstance(basins, BasinSet) else BasinSet(basins or [])
         self.vertices = []
         self._listeners = []
         self._report = report or (lambda message: None)
@@ -91,14 +83,22 @@ class DrawingTools(widgets.VBox):
         self._sync()
 
     # ------------------------------------------------------------ events
+    @property
+    def basins(self) -> list:
+        return list(self.basin_set)
+
     def on_change(self, callback):
-        """``callback(basins)`` after any change to the list of basins."""
+        """``callback(basins)`` after this toolset changed the basins."""
         self._listeners.append(callback)
 
     def _changed(self):
         self._sync()
         for callback in list(self._listeners):
             callback(list(self.basins))
+
+    def sync(self):
+        """Show the set's current basins (menu and outlines); call after the set changed."""
+        self._sync()
 
     def _sync(self):
         names = [b.name for b in self.basins]
@@ -129,27 +129,24 @@ class DrawingTools(widgets.VBox):
         self.vertices = []
         self.map.set_overlay([])
 
-    def _unique(self, name):
-        taken = {b.name for b in self.basins}
-        name = name.strip() or f"basin {len(self.basins) + 1}"
-        base, n = name, 2
-        while name in taken:
-            name = f"{base} ({n})"
+    def _default_name(self):
+        taken, n = set(self.basin_set.names), len(self.basin_set) + 1
+        while f"basin {n}" in taken:
             n += 1
-        return name
+        return f"basin {n}"
 
     def close_basin(self, name=None):
         """Close the outline being drawn into a named Basin; returns it (None on error)."""
-        name = self._unique(self.name.value if name is None else name)
+        name = (self.name.value if name is None else name).strip() or self._default_name()
         try:
             if len(self.vertices) < 3:
                 raise BasinError(f"the outline has {len(self.vertices)} vertices", source=f"basin {name!r}",
                                  expected="at least 3 corners", fix="click more corners on the map")
             basin = Basin.from_vertices(self.vertices, name=name)
+            self.basin_set.add(basin)  # a taken name is an error: the outline stays for another try
         except InputError as exc:
             self._report(exc)
             return None
-        self.basins.append(basin)
         self.vertices = []
         self.name.value = ""
         self.map.set_overlay([])
@@ -163,33 +160,38 @@ class DrawingTools(widgets.VBox):
         if not new:
             self._report(BasinError("the new name is empty", source=f"basin {old!r}", fix="type a new name"))
             return
-        for i, b in enumerate(self.basins):
-            if b.name == old:
-                self.basins[i] = Basin(b.geometry, name=self._unique(new))
-                self.new_name.value = ""
-                self._changed()
-                return
+        try:
+            self.basin_set.rename(old, new)
+        except InputError as exc:
+            self._report(exc)
+            return
+        self.new_name.value = ""
+        self._changed()
 
     def delete_basin(self, name):
-        self.basins = [b for b in self.basins if b.name != name]
+        if name in self.basin_set:
+            self.basin_set.remove(name)
         self._changed()
 
     def set_basins(self, basins):
-        self.basins = list(basins)
+        self.basin_set.replace(basins)
         self._changed()
 
     def add_basins(self, basins):
-        for b in basins:
-            self.basins.append(Basin(b.geometry, name=self._unique(b.name)))
+        self.basin_set.extend(basins)
         self._changed()
 
     def load_file(self, path):
+        if not str(path).strip():
+            self._report(SourceError("no file given", source="basin file", expected="a .geojson or .shp path",
+                                     fix="type the path of the file to load"))
+            return []
         try:
             loaded = load_basins(path)
+            self.add_basins(loaded)
         except InputError as exc:
             self._report(exc)
             return []
-        self.add_basins(loaded)
         self._report(f"Loaded {len(loaded)} basin(s) from {path}.")
         return loaded
 
@@ -209,9 +211,7 @@ class DrawingTools(widgets.VBox):
             if not path:
                 raise SourceError("no file given", source="basin file", expected="a .geojson path",
                                   fix="type where to save, e.g. out/basins.geojson")
-            if not self.basins:
-                raise BasinError("there are no basins to save", source=path, fix="draw or load a basin first")
-            written = write_geojson(self.basins, path, overwrite=overwrite)
+            written = self.basin_set.to_geojson(path, overwrite=overwrite)
         except InputError as exc:
             self._report(exc)
             return None
@@ -220,12 +220,13 @@ class DrawingTools(widgets.VBox):
 
 
 class HostsDrawingTools:
-    """Mixin for widgets that embed :class:`DrawingTools` as ``self.tools``."""
+    """Mixin for widgets that embed :class:`DrawingTools` as ``self.tools`` on their basin set."""
 
-    @property
-    def basins(self):
-        """The basins drawn or loaded, as a list of :class:`climwidgets.Basin`."""
-        return list(self.tools.basins)
+    def _make_tools(self, frame, basins):
+        """The drawing tools on ``frame``, working on this widget's (shared) basin set."""
+        self.use_basins(basins)
+        self.tools = DrawingTools(frame, self.basin_set, report=self._report)
+        return self.tools
 
     def _report(self, message):
         if isinstance(message, Exception):
@@ -256,27 +257,41 @@ class BasinDrawer(HostsDrawingTools, BaseWidget):
 
     def __init__(self, field, basins=(), kind="total", export_dir="out"):
         self.field = field
+        self._rows = {}
         frame = MapFrame(field, kind=kind)
-        self.tools = DrawingTools(frame, basins, report=self._report)
+        self._make_tools(frame, basins)
         super().__init__(map_frame=frame, export_dir=export_dir, chart=False)
-        self.tools.on_change(lambda _: self.refresh())
         self.refresh()
 
+    def basins_changed(self, event, details):
+        self.tools.sync()
+        self.refresh()
 
     def build_controls(self):
         return [self.tools]
 
     def parameters(self):
-        return {"basins": list(self.tools.basins)}
+        return {"basins": self.basins}
 
     def compute(self, basins):
-        return {b.name: basin_mean(self.field, b) for b in basins}
+        # only basins not seen before are computed; the others keep their numbers
+        return {b.name: basin_mean(self.field, b) for b in basins if (b.token, b.name) not in self._rows}
 
     def finish(self, computed, params):
         units = self.field.attrs.get("units", "")
-        rows = [{"basin": b.name, "area_km2": b.area_m2 / 1e6, f"mean [{units}]": float(computed[b.name])}
-                for b in params["basins"]]
-        return pd.DataFrame(rows, columns=["basin", "area_km2", f"mean [{units}]"]).set_index("basin")
+        for b in params["basins"]:
+            if b.name in computed:
+                self._rows[(b.token, b.name)] = float(computed[b.name])
+        basins = params["basins"]
+        names = [b.name for b in basins]
+        ds = xr.Dataset({
+            "area_km2": describe(xr.DataArray([b.area_m2 / 1e6 for b in basins], dims="basin"), "area_km2"),
+            "mean": describe(xr.DataArray([self._rows[(b.token, b.name)] for b in basins], dims="basin"), "mean",
+                             label="mean", units=units, display_units=units,
+                             description="area-weighted basin mean of the field shown"),
+        }, coords={"basin": names})
+        out = frame(ds, columns=["area_km2", "mean"])
+        return out.rename(columns={"mean": f"mean [{units}]"})
 
     def render(self, result, params):
         self.show_table(result)

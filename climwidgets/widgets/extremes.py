@@ -20,15 +20,15 @@ from __future__ import annotations
 import html
 
 import ipywidgets as widgets
-import numpy as np
-import pandas as pd
 import xarray as xr
 
+from ..analyses.basins import basin_series
+from ..analyses.extremes import areal_design_depths, depth_table, warmed_depths
+from ..cache import LRUCache
 from ..compute.extremes import DAY_DURATIONS, HOUR_DURATIONS, annual_maxima
 from ..compute.gev import return_levels
 from ..compute.warming import DESIGN_DEPTH_CAUTIONS, warming_scaling
 from ..errors import ParameterError
-from ..geo.aggregate import basin_mean
 from .anomaly import whole_grid_basin
 from .base import BaseWidget
 from .mapframe import MapFrame
@@ -73,13 +73,12 @@ class ExtremesWidget(BaseWidget):
                                  fix="open the daily or hourly file with cw.open_precip")
         self.pr = pr
         self.step_kind = step
-        self.basins = list(basins or [])
-        whole = whole_grid_basin(pr) if not self.basins else None
-        self._table_basins = self.basins or ([whole] if whole is not None else [])
+        self.use_basins(basins)
+        self._whole = whole_grid_basin(pr)
         self.levels = None
-        self.basin_levels = {}
+        self.basin_levels = None
         self._pending = {}
-        self._basin_pr = None
+        self._series = LRUCache(maxsize=256)
         style = {"description_width": "120px"}
         lay = widgets.Layout(width="300px")
         if step == "day":
@@ -104,6 +103,7 @@ class ExtremesWidget(BaseWidget):
         self.rate = widgets.FloatSlider(value=7.0, min=0.0, max=14.0, step=0.5, description="Rate (% per °C)",
                                         style=style, layout=lay, continuous_update=False)
         super().__init__(map_frame=MapFrame(basins=self.basins, kind="total"), export_dir=export_dir)
+        self.add_export("Basin depths as CSV", self._write_depths, "csv", stem="basin_return_levels")
         # the cautions sit under the title and never go away
         self.cautions = widgets.HTML(cautions_html())
         self.areal_note = widgets.HTML(f"<small>{html.escape(AREAL_NOTE)}</small>")
@@ -133,28 +133,46 @@ class ExtremesWidget(BaseWidget):
         return {key: int(self.duration.value), "year_start": int(self.year.value),
                 "ci": float(self.level.value), "n_boot": n_boot}
 
+    @property
+    def _table_basins(self):
+        return self.basins or ([self._whole] if self._whole is not None else [])
+
+    def basins_changed(self, event, details):
+        self.map.set_basins(self.basins)
+        self.refresh()
+
     def _maxima(self, pr, year_start, **duration):
         return annual_maxima(pr, year_start=year_start, **duration)
 
     def compute(self, ci, n_boot, year_start, **duration):
-        if self._basin_pr is None:  # basin means do not depend on the parameters: read once
-            import dask
-
-            (self._basin_pr,) = dask.compute({b.name: basin_mean(self.pr, b) for b in self._table_basins})
+        basins = self._table_basins
+        # basin means do not depend on the parameters: each basin's series is read once
+        new = [b for b in basins if self._series.get((b.token, b.name)) is None]
+        fresh = basin_series(self.pr, new) if new else None
         kw = dict(periods=PERIODS, ci=ci, n_boot=n_boot)
-        levels = return_levels(self._maxima(self.pr, year_start, **duration), **kw)
-        basins = {name: return_levels(self._maxima(s, year_start, **duration), **kw)
-                  for name, s in self._basin_pr.items()}
-        return {"levels": levels, "basins": basins}
+        out = {"levels": return_levels(self._maxima(self.pr, year_start, **duration), **kw), "fresh": fresh}
+        if basins:
+            parts = {b.name: self._series.get((b.token, b.name)) for b in basins}
+            series = xr.concat([parts[b.name] if parts[b.name] is not None else fresh.sel(basin=[b.name])
+                                for b in basins], dim="basin")
+            out["depths"] = areal_design_depths(None, basins, periods=PERIODS, ci=ci, n_boot=n_boot,
+                                                year_start=year_start, series=series, **duration)
+        return out
 
     def finish(self, computed, params):
+        fresh = computed["fresh"]
+        if fresh is not None:
+            basins = {b.name: b for b in self._table_basins}
+            for name in fresh["basin"].values:
+                if name in basins:
+                    self._series.put((basins[name].token, name), fresh.sel(basin=[name]))
         levels = computed["levels"]
-        self._pending = {id(levels): computed["basins"]}
+        self._pending = {id(levels): computed.get("depths")}
         return levels
 
     def render(self, levels, params):
         self.levels = levels
-        self.basin_levels = self._pending.pop(id(levels), {})
+        self.basin_levels = self._pending.pop(id(levels), None)
         self._show()
 
     # ------------------------------------------------------------ redraw only
@@ -163,6 +181,12 @@ class ExtremesWidget(BaseWidget):
 
     def _can_redraw(self):
         return self.levels is not None
+
+    def warmed(self):
+        """The areal depths of the basins with the chosen warming (analyses.extremes.warmed_depths)."""
+        if self.basin_levels is None:
+            return None
+        return warmed_depths(self.basin_levels, float(self.delta_t.value), rate=float(self.rate.value) / 100.0)
 
     def _show(self):
         self.result = self._warm(self.levels)
@@ -177,40 +201,25 @@ class ExtremesWidget(BaseWidget):
         self.show_chart(self._chart())
 
     def _table(self, t):
-        ci = self.levels.attrs.get("ci", 0.9)
-        rows = []
-        for name, ds in self.basin_levels.items():
-            warm = self._warm(ds).sel(period=t)
-            rows.append({"basin": name, "return period [years]": t,
-                         "areal depth [mm]": float(warm["estimate"]),
-                         f"lower {ci:.0%} [mm]": float(warm["lower"]),
-                         f"upper {ci:.0%} [mm]": float(warm["upper"]),
-                         "warming factor": float((1 + self.rate.value / 100.0) ** self.delta_t.value)})
-        return pd.DataFrame(rows).set_index("basin") if rows else None
+        warmed = self.warmed()
+        return None if warmed is None else depth_table(warmed, period=t, display=True)
+
+    def _write_depths(self, path):
+        from ..report.tables import to_csv
+
+        warmed = self.warmed()
+        if warmed is None:
+            raise ParameterError("there are no basin depths yet", source="design-storm depths",
+                                 fix="wait for the computation to finish")
+        to_csv(depth_table(warmed), path, overwrite=True,
+               provenance={"notes": [warmed.attrs.get("note", "")], "cautions": DESIGN_DEPTH_CAUTIONS,
+                           "title": "basin return levels"})
 
     def _chart(self):
-        from matplotlib.figure import Figure
+        from ..plot.charts import areal_depth_chart
 
-        fig = Figure(figsize=(6.5, 3.2))
-        ax = fig.add_subplot(1, 1, 1)
-        periods = np.asarray(PERIODS, dtype=float)
-        for i, (name, ds) in enumerate(self.basin_levels.items()):
-            colour = f"C{i % 10}"
-            ax.fill_between(periods, ds["lower"].values, ds["upper"].values, color=colour, alpha=0.15, lw=0)
-            ax.plot(periods, ds["estimate"].values, "o-", color=colour, ms=3, lw=1.2, label=str(name))
-            if self.delta_t.value:
-                ax.plot(periods, self._warm(ds)["estimate"].values, "--", color=colour, lw=1.0)
-        ax.axvline(self.period.value, color="k", ls=":", lw=0.8)
-        ax.set_xscale("log")
-        ax.set_xticks(periods, [f"{int(p)}" for p in periods])
-        ax.set_xlabel("return period [years]")
-        ax.set_ylabel(f"areal {self.levels.attrs.get('duration', '')} depth [mm]", fontsize=8)
-        ci = self.levels.attrs.get("ci", 0.9)
-        text = f"shaded: {ci:.0%} interval"
-        if self.delta_t.value:
-            text += f"; dashed: +{self.delta_t.value:g} °C at {self.rate.value:g} % per °C"
-        ax.set_title(text, fontsize=8)
-        ax.grid(alpha=0.3, which="both")
-        ax.legend(fontsize=7, loc="upper left")
-        fig.tight_layout()
-        return fig
+        warmed = self.warmed() if self.delta_t.value else None
+        return areal_depth_chart(self.basin_levels, warmed=warmed, period=self.period.value,
+                                 duration=self.levels.attrs.get("duration", ""),
+                                 ci=self.levels.attrs.get("ci", 0.9),
+                                 warming=(self.delta_t.value, self.rate.value) if self.delta_t.value else None)

@@ -9,7 +9,8 @@ grid rebuilds the mesh.  :meth:`MapFrame.on_click` registers a callback receivin
 
 The figure is made with ipympl's ``Canvas`` directly (not through pyplot), so no global
 figure registry is touched and the frame works headless in tests: a notebook front-end,
-Voilà or JupyterLab shows the canvas as a widget.  The axes have fixed positions in the
+Voilà or JupyterLab shows the canvas as a widget.  Every method is called on the kernel's
+thread (the widgets render there), so the figure needs no lock.  The axes have fixed positions in the
 figure (no automatic layout), so a lon/lat point always lands on the same pixel for a
 given grid and figure size (:meth:`figure_fraction`).
 """
@@ -18,7 +19,6 @@ from __future__ import annotations
 
 import io
 import itertools
-import threading
 
 import ipywidgets as widgets
 import numpy as np
@@ -64,16 +64,8 @@ class MapFrame(widgets.VBox):
 
     def __init__(self, field=None, basins=(), kind="total", figsize=(5.6, 4.2), dpi=100,
                  coastlines=True, title=None):
-        self.lock = threading.RLock()
         self.figure = Figure(figsize=figsize, dpi=dpi)
         self.canvas = _make_canvas(self.figure)
-        draw = self.canvas.draw
-
-        def locked_draw(*args, **kwargs):  # worker threads update artists under the same lock
-            with self.lock:
-                return draw(*args, **kwargs)
-
-        self.canvas.draw = locked_draw
         self.readout = widgets.Label("Point at the map to read a value.")
         self.zoom = widgets.Dropdown(options=[("whole grid", "")], value="", description="Zoom to basin",
                                      style={"description_width": "initial"},
@@ -135,22 +127,21 @@ class MapFrame(widgets.VBox):
 
     def show_field(self, field, kind=None, vmin=None, vmax=None, label=None, title=None):
         """Show ``field``; on the same grid only the numbers and colour limits change."""
-        with self.lock:
-            kind = kind or getattr(self.mesh, "climwidgets_kind", "total")
-            if self._same_grid(field):
-                maps.update_field(self.mesh, self.cbar, field, kind=kind, vmin=vmin, vmax=vmax, label=label)
-            else:
-                self._build_axes(field)
-                self.mesh, self.cbar = maps.draw_field(self.ax, field, kind=kind, vmin=vmin, vmax=vmax,
-                                                       cax=self.cax, label=label)
-                self._edges = maps._edges(field)
-                self.ax.set_extent(self._full_extent(), crs=self._pc())
-                self._draw_basins()
-            self.field = field
-            self._values = np.asarray(field.values, dtype=float)
-            self._units = field.attrs.get("units", "")
-            if title is not None or self.title:
-                self.ax.set_title(title if title is not None else self.title, fontsize=9)
+        kind = kind or getattr(self.mesh, "climwidgets_kind", "total")
+        if self._same_grid(field):
+            maps.update_field(self.mesh, self.cbar, field, kind=kind, vmin=vmin, vmax=vmax, label=label)
+        else:
+            self._build_axes(field)
+            self.mesh, self.cbar = maps.draw_field(self.ax, field, kind=kind, vmin=vmin, vmax=vmax,
+                                                   cax=self.cax, label=label)
+            self._edges = maps._edges(field)
+            self.ax.set_extent(self._full_extent(), crs=self._pc())
+            self._draw_basins()
+        self.field = field
+        self._values = np.asarray(field.values, dtype=float)
+        self._units = field.attrs.get("units", "")
+        if title is not None or self.title:
+            self.ax.set_title(title if title is not None else self.title, fontsize=9)
         self.redraw()
 
     def _pc(self):
@@ -164,11 +155,10 @@ class MapFrame(widgets.VBox):
 
     def set_basins(self, basins, highlight=None):
         """Replace the basin outlines (and the zoom menu)."""
-        with self.lock:
-            self.basins = list(basins or [])
-            self._highlight = highlight
-            if self.ax is not None:
-                self._draw_basins()
+        self.basins = list(basins or [])
+        self._highlight = highlight
+        if self.ax is not None:
+            self._draw_basins()
         names = [b.name for b in self.basins]
         current = self.zoom.value if self.zoom.value in names else ""
         self.zoom.options = [("whole grid", "")] + [(n, n) for n in names]
@@ -182,30 +172,28 @@ class MapFrame(widgets.VBox):
 
     def set_overlay(self, lonlat, closed=False):
         """Draw (or clear with an empty list) the outline being drawn: vertices and edges."""
-        with self.lock:
-            for artist in self._overlay:
-                artist.remove()
-            self._overlay = []
-            if self.ax is not None and len(lonlat):
-                pts = np.asarray(lonlat, dtype=float)
-                if closed:
-                    pts = np.vstack([pts, pts[:1]])
-                self._overlay = self.ax.plot(pts[:, 0], pts[:, 1], "o-", color="#ff7f00", ms=4, lw=1.2,
-                                             transform=self._pc())
+        for artist in self._overlay:
+            artist.remove()
+        self._overlay = []
+        if self.ax is not None and len(lonlat):
+            pts = np.asarray(lonlat, dtype=float)
+            if closed:
+                pts = np.vstack([pts, pts[:1]])
+            self._overlay = self.ax.plot(pts[:, 0], pts[:, 1], "o-", color="#ff7f00", ms=4, lw=1.2,
+                                         transform=self._pc())
         self.redraw()
 
     def zoom_to(self, name=None, pad=0.25):
         """Zoom to a basin by name (with a margin of ``pad`` × its size), or to the whole grid."""
         if self.ax is None:
             return
-        with self.lock:
-            basin = next((b for b in self.basins if b.name == name), None)
-            if basin is None:
-                self.ax.set_extent(self._full_extent(), crs=self._pc())
-            else:
-                w, s, e, n = basin.bounds
-                dx, dy = max(e - w, 0.05) * pad, max(n - s, 0.05) * pad
-                self.ax.set_extent((w - dx, e + dx, s - dy, n + dy), crs=self._pc())
+        basin = next((b for b in self.basins if b.name == name), None)
+        if basin is None:
+            self.ax.set_extent(self._full_extent(), crs=self._pc())
+        else:
+            w, s, e, n = basin.bounds
+            dx, dy = max(e - w, 0.05) * pad, max(n - s, 0.05) * pad
+            self.ax.set_extent((w - dx, e + dx, s - dy, n + dy), crs=self._pc())
         self.redraw()
 
     def redraw(self):
@@ -265,16 +253,14 @@ class MapFrame(widgets.VBox):
 
         Used to click on a given place from outside (browser tests, scripted demos).
         """
-        with self.lock:
-            self.figure.canvas.draw()  # settles the axes' aspect-ratio adjustment
-            x, y = maps.lonlat_to_map(self.projection, lon, lat)
-            px, py = self.ax.transData.transform((float(x[0]), float(y[0])))
-            w, h = self.figure.bbox.width, self.figure.bbox.height
+        self.figure.canvas.draw()  # settles the axes' aspect-ratio adjustment
+        x, y = maps.lonlat_to_map(self.projection, lon, lat)
+        px, py = self.ax.transData.transform((float(x[0]), float(y[0])))
+        w, h = self.figure.bbox.width, self.figure.bbox.height
         return px / w, py / h
 
     def png_bytes(self, dpi=150):
         """The current map as PNG bytes."""
         buf = io.BytesIO()
-        with self.lock:
-            self.figure.savefig(buf, format="png", dpi=dpi)
+        self.figure.savefig(buf, format="png", dpi=dpi)
         return buf.getvalue()

@@ -80,7 +80,7 @@ class OrographicContrastWidget(BaseWidget):
                                      fix="open it with cw.open_precip / cw.open_elevation")
         self.pr = pr
         self.elevation = elevation
-        self.basins = list(basins or [])
+        self.use_basins(basins)
         self.model = self.model_contrast = None
         self.gradients = {}
         self.crest = None
@@ -120,6 +120,9 @@ class OrographicContrastWidget(BaseWidget):
         self.clear.on_click(lambda _: self.clear_crest())
         self.map.on_click(self._on_map_click)
         self.refresh()
+
+    def basins_changed(self, event, details):
+        self.map.set_basins(self.basins)  # outlines only: the contrast does not depend on basins
 
     # ------------------------------------------------------------ BaseWidget hooks
     def build_controls(self):
@@ -214,8 +217,7 @@ class OrographicContrastWidget(BaseWidget):
             field = self.result["distance_km"]
             self.map.show_field(field, kind="difference", label="distance from crest [km], < 0 windward",
                                 title=f"windward (< 0) and leeward (> 0), wind from {self._params['wind_from']:g}°")
-            with self.map.lock:  # sides, not wetness: a neutral purple-orange scale
-                self.map.mesh.set_cmap("PuOr_r")
+            self.map.mesh.set_cmap("PuOr_r")  # sides, not wetness: a neutral purple-orange scale
         elif layer == "observed":
             self.map.show_field(self._mean, kind="total", label="mean annual total [mm]",
                                 title="observed mean annual total")

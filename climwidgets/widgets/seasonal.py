@@ -13,45 +13,44 @@ Controls, in plain words:
   "mean of ratios" (average of each year's share).
 * **Chart basin**: the basin whose per-year share and Sen slope are charted.
 
-Per-basin numbers treat the basin as one cell: the area-weighted basin-mean series
-(``cw.basin_mean(pr, basin)``) goes through ``cw.seasonal_fraction`` with the same
-season, years and averaging.  With "ratio of sums" this is the ratio of basin-mean
-seasonal and annual totals (the share of the basin's water); with "mean of ratios" it
-is the average of the basin's yearly shares.  The chart shows those yearly shares and
-their Sen slope (``cw.trend``).
+Per-basin numbers are those of :func:`cw.basin_shares` (the analysis every widget, the
+report and the CSV use): the basin is one cell, its area-weighted mean monthly series
+goes through ``cw.seasonal_fraction`` with the same season, years and averaging.  With
+"ratio of sums" this is the ratio of basin-mean seasonal and annual totals (the share of
+the basin's water); with "mean of ratios" it is the average of the basin's yearly
+shares.  The chart shows those yearly shares and their Sen slope (``cw.trend``).
 
-Basins are drawn on the map itself (the drawing tools below the controls), or passed in.
-Maps are cached per (season, years, averaging, year start) and basin series per basin
-outline, so a new basin is summarised without recomputing the grid.
+Basins are drawn on the map itself (the drawing tools below the controls), loaded, or
+passed in (a list or a shared :class:`cw.BasinSet`).  The monthly totals are read once
+(:func:`climwidgets.analyses.run.monthly_source`); maps are kept per (season, years,
+averaging, year start) and basin numbers per basin outline, so a new basin is
+summarised without recomputing the grid or the other basins.
 """
 
 from __future__ import annotations
 
-import numpy as np
 import pandas as pd
 import xarray as xr
 import ipywidgets as widgets
 
+from ..analyses.basins import basin_shares
+from ..analyses.meta import frame
+from ..analyses.run import monthly_source
+from ..cache import LRUCache
+from ..compute._time import MONTH_NAMES as MONTH_LABELS
+from ..compute._time import season_months
 from ..compute.seasonal import seasonal_fraction
-from ..compute.trend import trend
 from ..errors import ParameterError
-from ..geo.aggregate import basin_mean
-from ..plot.charts import MONTH_LABELS, series_with_trend
+from ..plot.charts import series_with_trend
+from .base import MONTH_OPTIONS as _MONTH_OPTIONS
 from .base import BaseWidget
-from .drawer import DrawingTools, HostsDrawingTools
+from .drawer import HostsDrawingTools
 from .mapframe import MapFrame
 
 __all__ = ["SeasonalShareWidget", "season_months"]
 
-_MONTH_OPTIONS = [(name, i + 1) for i, name in enumerate(
-    ["January", "February", "March", "April", "May", "June", "July", "August", "September",
-     "October", "November", "December"])]
-
-
-def season_months(first: int, last: int) -> tuple:
-    """Consecutive months from ``first`` to ``last`` inclusive, wrapping over December."""
-    n = (last - first) % 12 + 1
-    return tuple((first - 1 + k) % 12 + 1 for k in range(n))
+_BASIN_VARS = ("area_km2", "seasonal_share_1", "n_share_years", "seasonal_share_per_year", "share_slope",
+               "share_pvalue", "share_intercept")
 
 
 class SeasonalShareWidget(HostsDrawingTools, BaseWidget):
@@ -80,8 +79,8 @@ class SeasonalShareWidget(HostsDrawingTools, BaseWidget):
     def __init__(self, pr, basins=None, months=(7, 8), how="ratio_of_sums", years=None, year_start=1,
                  export_dir="out"):
         self.pr = pr
-        self._maps = {}
-        self._series = {}
+        self._maps = LRUCache(maxsize=16)
+        self._rows = LRUCache(maxsize=256)
         t = pr["time"].dt.year.values
         lo, hi = int(t.min()), int(t.max())
         months = tuple(months)
@@ -104,11 +103,10 @@ class SeasonalShareWidget(HostsDrawingTools, BaseWidget):
         self.chart_basin = widgets.Dropdown(options=[], description="Chart basin", **lab)
         self.season_note = widgets.HTML()
         frame = MapFrame(kind="share", title=None)
-        self.tools = DrawingTools(frame, basins or [], report=self._report)
+        self._make_tools(frame, basins)
         super().__init__(map_frame=frame, export_dir=export_dir)
         self.add_export("Per-year shares as CSV", self._write_per_year, "csv", stem="seasonal_share_per_year")
-        self.tools.on_change(self._basins_changed)
-        self._basins_changed(self.tools.basins, refresh=False)
+        self._basins_changed(self.basins, refresh=False)
         self.watch(self.first, self.last, self.year_start, self.years, self.how, self.chart_basin)
         self.refresh()
 
@@ -118,6 +116,10 @@ class SeasonalShareWidget(HostsDrawingTools, BaseWidget):
                 widgets.HBox([self.years, self.years_label]), self.how, self.chart_basin,
                 widgets.HTML("<hr style='margin:4px 0'>"), self.tools]
 
+
+    def basins_changed(self, event, details):
+        self.tools.sync()
+        self._basins_changed(self.basins)
 
     def _basins_changed(self, basins, refresh=True):
         names = [b.name for b in basins]
@@ -142,45 +144,44 @@ class SeasonalShareWidget(HostsDrawingTools, BaseWidget):
         if years == (self.years.min, self.years.max):
             years = None  # the whole record: every complete season-year, whatever its label
         return {"months": months, "how": self.how.value, "years": years,
-                "year_start": self.year_start.value, "basins": list(self.tools.basins),
+                "year_start": self.year_start.value, "basins": self.basins,
                 "chart_basin": self.chart_basin.value}
 
     # ------------------------------------------------------------ computation
     def compute(self, months, how, years, year_start, basins, chart_basin):
         key = (months, how, years, year_start)
+        monthly = monthly_source(self.pr)
         share = self._maps.get(key)
         if share is None:
-            share = seasonal_fraction(self.pr, months=months, how=how, years=years, year_start=year_start)
-        series = {b.token: self._series.get(b.token) for b in basins}
-        for b in basins:
-            if series[b.token] is None:
-                series[b.token] = basin_mean(self.pr, b)
-        return {"share": share, "series": series}
+            share = seasonal_fraction(monthly, months=months, how=how, years=years, year_start=year_start)
+        new = [b for b in basins if self._rows.get(key + (b.token, b.name)) is None]
+        rows = basin_shares(monthly, new, months=months, how=how, years=years, year_start=year_start) \
+            if new else None
+        return {"share": share, "rows": rows}
 
     def finish(self, computed, params):
-        key = tuple(params[k] for k in ("months", "how", "years", "year_start"))
-        self._maps[key] = computed["share"]
-        self._series.update(computed["series"])
         months, how, years, ys = params["months"], params["how"], params["years"], params["year_start"]
+        key = (months, how, years, ys)
+        self._maps.put(key, computed["share"])
+        if computed["rows"] is not None:
+            rows = computed["rows"]
+            for name in rows["basin"].values:
+                b = next(b for b in params["basins"] if b.name == name)
+                self._rows.put(key + (b.token, b.name), rows.sel(basin=[name]))
         ds = xr.Dataset({"share": computed["share"]})
         basins = params["basins"]
         if basins:
-            names = [b.name for b in basins]
-            # one (basin, time) array: two seasonal_fraction calls whatever the number of basins
-            stacked = xr.concat([computed["series"][b.token].reset_coords(drop=True) for b in basins],
-                                dim=pd.Index(names, name="basin"))
-            stacked.attrs = computed["series"][basins[0].token].attrs
-            ds["basin_share"] = seasonal_fraction(stacked, months=months, how=how, years=years,
-                                                  year_start=ys).reset_coords(drop=True)
-            ds["per_year"] = seasonal_fraction(stacked, months=months, years=years, year_start=ys,
-                                               per_year=True).reset_coords(drop=True)
-            tr = trend(ds["per_year"], dim="year")
-            ds["slope"] = tr["slope"]
-            ds["pvalue"] = tr["pvalue"]
-            ds["intercept"] = tr["intercept"]
-            ds["basin_share"].attrs = {"units": "1", "long_name": "basin seasonal share",
-                                       "method": "cw.seasonal_fraction of the cw.basin_mean series", "how": how}
-            ds["per_year"].attrs = {"units": "1", "long_name": "basin seasonal share, per year"}
+            # only the basins not seen before were computed; the others come from the cache
+            parts = [self._rows.get(key + (b.token, b.name)) for b in basins]
+            rows = xr.concat([p[[v for v in _BASIN_VARS if v in p]] for p in parts], dim="basin",
+                             combine_attrs="override")
+            ds["basin_share"] = rows["seasonal_share_1"]
+            ds["per_year"] = rows["seasonal_share_per_year"]
+            for name, var in (("slope", "share_slope"), ("pvalue", "share_pvalue"),
+                              ("intercept", "share_intercept")):
+                if var in rows:
+                    ds[name] = rows[var]
+            self._basin_rows = rows
         used = computed["share"].attrs.get("years", [None, None])
         ds.attrs = {"season_months": list(months), "how": how, "first_year": used[0], "last_year": used[1],
                     "year_start": ys}
@@ -188,20 +189,12 @@ class SeasonalShareWidget(HostsDrawingTools, BaseWidget):
 
     # ------------------------------------------------------------ display
     def basin_table(self, result) -> pd.DataFrame:
-        """The table under the map: shares and Sen slopes in %, with the basin area."""
-        cols = ["area [km²]", "seasonal share [%]", "Sen slope [% points per decade]", "Mann-Kendall p", "years"]
+        """The table under the map, rendered from the analysis' own labels and units."""
+        cols = ["area_km2", "seasonal_share_1", "share_slope", "share_pvalue", "n_share_years"]
         if "basin_share" not in result:
-            return pd.DataFrame(columns=cols, index=pd.Index([], name="basin"))
-        areas = {b.name: b.area_m2 / 1e6 for b in self.tools.basins}
-        names = [str(n) for n in result["basin"].values]
-        n_years = result["per_year"].notnull().sum("year").values
-        return pd.DataFrame({
-            "area [km²]": [areas.get(n, np.nan) for n in names],
-            "seasonal share [%]": 100 * result["basin_share"].values,
-            "Sen slope [% points per decade]": 1000 * result["slope"].values,
-            "Mann-Kendall p": result["pvalue"].values,
-            "years": n_years.astype(int),
-        }, index=pd.Index(names, name="basin"))
+            return pd.DataFrame(index=pd.Index([], name="basin"))
+        rows = self._basin_rows
+        return frame(rows, columns=[c for c in cols if c in rows], display=True)
 
     def render(self, result, params):
         months = params["months"]

@@ -1,13 +1,15 @@
 """Basin summary: the planner's page.
 
-* the table of :func:`cw.basin_summary` (area, annual mean, seasonal share, normal,
+* the basin table of :func:`cw.basin_table` (area, annual mean, seasonal share, normal,
   volumes in m³ and acre-feet, latest year as percent of normal);
-* a chart of monthly normals per basin (:func:`cw.normals` then :func:`cw.basin_mean`);
-* a what-if calculator (:func:`cw.scenario_delta`): "if the season's precipitation changed
-  by this many percent, how much water would that be per year?", in m³ and acre-feet;
-* exports: the summary as CSV, the monthly normals per basin as CF-NetCDF
-  (``cw.to_netcdf``) and a self-contained HTML report (``cw.write_report``) when
-  ``climwidgets.report`` provides them.
+* a chart of the monthly normals of each basin (the same analysis);
+* a what-if calculator (:func:`cw.what_if`): "if the season's precipitation changed by
+  this many percent, how much water would that be per year?", in m³ and acre-feet;
+* drawing and loading tools: a basin drawn or loaded here joins the widget's basin set
+  (shared with other widgets given the same :class:`cw.BasinSet`), and only its numbers
+  are computed;
+* exports: the table as CSV, the basin analysis as CF-NetCDF (``cw.to_netcdf``) and a
+  self-contained HTML report (``cw.write_report``), all from the same computed analysis.
 
 Figures are planning-level estimates from gridded data: gridded values smooth point
 extremes and assume the record is representative of the planning period.
@@ -19,49 +21,25 @@ import importlib.util
 
 import ipywidgets as widgets
 import numpy as np
-import pandas as pd
 import xarray as xr
 
-from ..compute.normals import normals
-from ..geo.aggregate import basin_mean
-from ..geo.summary import basin_summary, scenario_delta
+from ..analyses.basins import SUMMARY_COLUMNS, WHAT_IF_COLUMNS, basin_table, what_if
+from ..analyses.meta import frame
+from ..analyses.run import monthly_source
+from ..cache import LRUCache
+from ..compute._time import season_months
+from ..compute.bundle import climatology_bundle
+from ..errors import InputError
 from ..plot.charts import monthly_normals
+from .base import MONTH_OPTIONS as _MONTH_OPTIONS
 from .base import BaseWidget, _CSS, df_to_html
+from .drawer import HostsDrawingTools
 from .mapframe import MapFrame
-from .seasonal import _MONTH_OPTIONS, season_months
 
 __all__ = ["BasinSummaryWidget"]
 
-_SUMMARY_LABELS = {
-    "area_km2": "area [km²]",
-    "annual_mean_mm": "annual mean [mm]",
-    "n_years": "years",
-    "seasonal_share_1": "seasonal share [%]",
-    "normal_annual_mm": "annual normal [mm]",
-    "volume_per_year_m3": "volume per year [million m³]",
-    "volume_per_year_acre_ft": "volume per year [acre-feet]",
-    "latest_year": "latest year",
-    "latest_year_mm": "latest year [mm]",
-    "latest_year_percent_of_normal": "latest year [% of normal]",
-    "data_coverage_1": "area with data [%]",
-}
-
-_SCENARIO_LABELS = {
-    "season": "season",
-    "percent": "change [%]",
-    "n_seasons": "seasons",
-    "seasonal_volume_per_year_m3": "season's volume per year [million m³]",
-    "delta_volume_per_year_m3": "change per year [million m³]",
-    "delta_volume_per_year_acre_ft": "change per year [acre-feet]",
-}
-
-
-def _readable(df, labels, scale):
-    out = df.copy()
-    for col, factor in scale.items():
-        if col in out:
-            out[col] = out[col] * factor
-    return out.rename(columns=labels)[[labels[c] for c in labels if c in df.columns]]
+_ROW_VARS = SUMMARY_COLUMNS + ("monthly_normal", "seasonal_share_per_year", "share_slope", "share_pvalue",
+                               "share_intercept")
 
 
 def _has(module):
@@ -71,30 +49,31 @@ def _has(module):
         return False
 
 
-class BasinSummaryWidget(BaseWidget):
+class BasinSummaryWidget(HostsDrawingTools, BaseWidget):
     """Basin table, monthly normals and a seasonal what-if in m³ and acre-feet.
 
     Parameters
     ----------
     pr : DataArray (time, lat, lon), precipitation depth per step in mm
-    basins : list of Basin (at least one)
+    basins : list of Basin or a shared cw.BasinSet (may start empty: draw or load basins)
     months : season for the seasonal share column, default July–August
     baseline : (first, last) years of the normal; clipped to the data when it reaches beyond
     scenario_months, percent : the what-if season and change (default Nov–Mar, +5 %)
 
     Attributes
     ----------
-    result : dict with ``summary`` (DataFrame of cw.basin_summary), ``normals``
-        (DataArray basin × month, mm) and ``scenario`` (DataFrame of cw.scenario_delta)
+    result : dict with ``summary`` (DataFrame, as cw.basin_summary), ``normals``
+        (DataArray basin × month, mm), ``scenario`` (DataFrame, as cw.scenario_delta) and
+        ``analysis`` (the computed Dataset of cw.basin_table the others are views of)
     """
 
     title = "Basin summary"
     export_stem = "basin_summary"
 
-    def __init__(self, pr, basins, months=(7, 8), baseline=(1991, 2020), scenario_months=(11, 12, 1, 2, 3),
+    def __init__(self, pr, basins=(), months=(7, 8), baseline=(1991, 2020), scenario_months=(11, 12, 1, 2, 3),
                  percent=5.0, year_start=1, export_dir="out"):
         self.pr = pr
-        self.basins = list(basins)
+        self._rows = LRUCache(maxsize=256)
         years = pr["time"].dt.year.values
         lo, hi = int(years.min()), int(years.max())
         b0, b1 = max(lo, int(baseline[0])), min(hi, int(baseline[1]))
@@ -121,13 +100,14 @@ class BasinSummaryWidget(BaseWidget):
             "<small><i>Planning-level estimates from gridded data: gridded values smooth point extremes "
             "and assume the record represents the planning period. Defer to adopted local estimates "
             "and licensed engineering practice for design.</i></small>")
-        frame = MapFrame(kind="total")
-        super().__init__(map_frame=frame, export_dir=export_dir)
+        frame_ = MapFrame(kind="total")
+        self._make_tools(frame_, basins)
+        super().__init__(map_frame=frame_, export_dir=export_dir)
         self.children = (*self.children[:3], widgets.HTML("<b>What if the season changed?</b>"),
                          self.scenario_html, *self.children[3:], self.caution)
         self.export_formats = ["csv"]
         if _has("climwidgets.report.netcdf"):
-            self.add_export("Monthly normals as NetCDF", self._write_netcdf, "nc", stem="basin_monthly_normals")
+            self.add_export("Basin analysis as NetCDF", self._write_netcdf, "nc", stem="basin_summary")
             self.export_formats.append("netcdf")
         if _has("climwidgets.report.html"):
             self.add_export("HTML report", self._write_html, "html", stem="basin_report")
@@ -135,56 +115,107 @@ class BasinSummaryWidget(BaseWidget):
         self.watch(self.first, self.last, self.baseline, self.year_start, self.s_first, self.s_last, self.percent)
         self.refresh()
 
+    def basins_changed(self, event, details):
+        self.tools.sync()
+        self.refresh()
+
     def build_controls(self):
         return [widgets.HTML("<b>Summary</b>"), self.first, self.last,
                 widgets.HBox([self.baseline, self.baseline_label]), self.year_start,
-                widgets.HTML("<b>What-if</b>"), self.s_first, self.s_last, self.percent]
+                widgets.HTML("<b>What-if</b>"), self.s_first, self.s_last, self.percent,
+                widgets.HTML("<hr style='margin:4px 0'>"), self.tools]
 
     def parameters(self):
         return {"months": season_months(self.first.value, self.last.value),
                 "baseline": tuple(self.baseline.value), "year_start": self.year_start.value,
                 "scenario_months": season_months(self.s_first.value, self.s_last.value),
-                "percent": float(self.percent.value)}
+                "percent": float(self.percent.value), "basins": self.basins}
 
-    def compute(self, months, baseline, year_start, scenario_months, percent):
-        norm = normals(self.pr, baseline=baseline)
-        per_basin = [basin_mean(norm, b).reset_coords(drop=True) for b in self.basins]
-        return {
-            "summary": basin_summary(self.pr, self.basins, months=months, baseline=baseline,
-                                     year_start=year_start),
-            "normals": xr.concat(per_basin, dim=pd.Index([b.name for b in self.basins], name="basin")),
-            "normal_map": norm.sum("month", skipna=False),
-            "scenario": scenario_delta(self.pr, self.basins, months=scenario_months, percent=percent,
-                                       year_start=year_start),
-        }
+    @staticmethod
+    def _key(params):
+        return (params["months"], params["baseline"], params["year_start"], params["scenario_months"],
+                params["percent"])
+
+    def compute(self, months, baseline, year_start, scenario_months, percent, basins):
+        monthly = monthly_source(self.pr)  # one read of the data, kept for every later change
+        bundle = climatology_bundle(monthly, months=months, baseline=baseline, year_start=year_start,
+                                    maxima_days=())
+        key = self._key({"months": months, "baseline": baseline, "year_start": year_start,
+                         "scenario_months": scenario_months, "percent": percent})
+        new = [b for b in basins if self._rows.get(key + (b.token, b.name)) is None]
+        out = {"normal_map": bundle["normals"].sum("month", skipna=False),
+               "share_map": bundle["seasonal_share"].reset_coords(drop=True)}
+        if new:  # only basins not seen with these parameters are computed
+            out["table"] = basin_table(monthly, new, months=months, baseline=baseline, year_start=year_start,
+                                       bundle=bundle)[list(_ROW_VARS)]
+            out["what_if"] = what_if(monthly, new, months=scenario_months, percent=percent, year_start=year_start,
+                                     bundle=bundle)
+        return out
 
     def finish(self, computed, params):
-        normal_map = computed.pop("normal_map")
+        key = self._key(params)
+        if "table" in computed:
+            for name in computed["table"]["basin"].values:
+                b = next(b for b in params["basins"] if b.name == name)
+                self._rows.put(key + (b.token, b.name), (computed["table"].sel(basin=[name]),
+                                                          computed["what_if"].sel(basin=[name])))
+        normal_map = computed["normal_map"]
         normal_map.attrs = {"units": "mm", "long_name": f"annual normal {params['baseline'][0]}–"
                                                         f"{params['baseline'][1]}"}
-        computed["normals"].attrs.update(units="mm", long_name="monthly normal, basin mean")
-        self._normal_map = normal_map
-        return computed
+        result = {"normal_map": normal_map, "share_map": computed["share_map"]}
+        if params["basins"]:
+            parts = [self._rows.get(key + (b.token, b.name)) for b in params["basins"]]
+            analysis = xr.concat([p[0] for p in parts], dim="basin", combine_attrs="override")
+            what = xr.concat([p[1] for p in parts], dim="basin", combine_attrs="override")
+            result.update(analysis=analysis, what_if=what,
+                          summary=self._frame(analysis, SUMMARY_COLUMNS, params, "basin_summary"),
+                          scenario=self._frame(what, WHAT_IF_COLUMNS, params, "scenario_delta"),
+                          normals=analysis["monthly_normal"].assign_attrs(units="mm",
+                                                                            long_name="monthly normal, basin mean"))
+        return result
+
+    @staticmethod
+    def _frame(ds, columns, params, func):
+        from ..provenance import history_line
+
+        table = frame(ds, columns=columns)
+        table.index.name = "basin"
+        if func == "basin_summary":
+            keys = ("months", "baseline", "year_start", "season_year_start", "note")
+            table.attrs = {k: ds.attrs[k] for k in keys if k in ds.attrs}
+            table.attrs["history"] = history_line(func, basins=list(table.index), months=tuple(params["months"]),
+                                                  baseline=tuple(params["baseline"]),
+                                                  year_start=params["year_start"])
+        else:
+            table.attrs = {k: ds.attrs[k] for k in ("months", "percent", "year_start", "note", "history")
+                           if k in ds.attrs}
+        return table
 
     def summary_table(self, result):
-        return _readable(result["summary"], _SUMMARY_LABELS,
-                         {"seasonal_share_1": 100.0, "data_coverage_1": 100.0, "volume_per_year_m3": 1e-6})
+        """The basin table as shown (labels, units and scales of the analysis)."""
+        if "analysis" not in result:
+            return None
+        return frame(result["analysis"], columns=SUMMARY_COLUMNS, display=True)
 
     def scenario_table(self, result):
-        return _readable(result["scenario"], _SCENARIO_LABELS,
-                         {"seasonal_volume_per_year_m3": 1e-6, "delta_volume_per_year_m3": 1e-6})
+        """The what-if table as shown."""
+        if "what_if" not in result:
+            return None
+        return frame(result["what_if"], columns=WHAT_IF_COLUMNS, display=True)
 
     def render(self, result, params):
-        self.map.show_field(self._normal_map, kind="total", vmin=0.0, title="Annual normal")
-        if [b.name for b in self.map.basins] != [b.name for b in self.basins]:
-            self.map.set_basins(self.basins)
+        self.map.show_field(result["normal_map"], kind="total", vmin=0.0, title="Annual normal")
         self.show_table(self.summary_table(result))
         self.scenario_html.value = _CSS + df_to_html(self.scenario_table(result))
+        if "normals" not in result:
+            if self.chart is not None:
+                self.chart.value = b""
+            return
         from matplotlib.figure import Figure
 
         fig = Figure(figsize=(6.0, 2.8))
         ax = fig.add_subplot(1, 1, 1)
-        table = result["normals"].to_pandas().T  # month × basin
+        table = result["normals"].transpose("month", "basin").to_pandas()  # month × basin
         monthly_normals(table, ax=ax, units="mm")
         b0, b1 = params["baseline"]
         ax.set_title(f"Monthly normals {b0}–{b1}, basin means", fontsize=9)
@@ -192,23 +223,26 @@ class BasinSummaryWidget(BaseWidget):
 
     # ------------------------------------------------------------ exports
     def _need_result(self):
-        if self.result is None:
-            from ..errors import InputError
-
+        if self.result is None or "analysis" not in self.result:
             raise InputError("there is nothing to export yet", source="basin summary",
-                             fix="wait for the computation to finish")
+                             fix="draw or load a basin and wait for the computation to finish")
 
     def _write_netcdf(self, path):
         from ..report.netcdf import to_netcdf
 
         self._need_result()
-        da = self.result["normals"].rename("monthly_normal")
-        da = da.assign_coords(basin=np.array([str(v) for v in da["basin"].values]))
-        to_netcdf(da, path, overwrite=True)
+        ds = self.result["analysis"].drop_vars(["seasonal_share_per_year", "share_intercept"], errors="ignore")
+        ds = ds.assign_coords(basin=np.array([str(v) for v in ds["basin"].values]))
+        to_netcdf(ds, path, overwrite=True, title="Basin summary")
 
     def _write_html(self, path):
+        from ..report.content import content_from_analysis
         from ..report.html import write_report
 
         self._need_result()
-        write_report(self.result["summary"], path, overwrite=True)
-
+        analysis = self.result["analysis"].copy()
+        analysis["seasonal_share_map"] = self.result["share_map"]
+        analysis["annual_normal_map"] = self.result["normal_map"]
+        content = content_from_analysis(analysis, self.basins, self.pr.attrs, what=self.result["what_if"],
+                                        title="Basin precipitation summary")
+        write_report(content, path, overwrite=True)

@@ -31,15 +31,15 @@ def test_uniform_field_mean_and_volume():
     np.testing.assert_allclose(mean.values, 10.0, rtol=1e-12)
     assert mean.dims == ("time",) and mean.attrs["units"] == "mm"
     np.testing.assert_array_equal(mean.covered_fraction.values, 1.0)
-    area = _weighted_area(BASIN, pr)
     vol = cw.basin_volume(pr, BASIN)
-    # 10 mm = 0.01 m of water over the basin area (definition of depth × area).
-    np.testing.assert_allclose(vol.values, 0.01 * area, rtol=1e-12)
+    # 10 mm = 0.01 m of water over the basin area (definition of depth × area); the one basin
+    # area is the outline's on the authalic sphere (Basin.area_m2).
+    np.testing.assert_allclose(vol.values, 0.01 * BASIN.area_m2, rtol=1e-12)
     assert vol.attrs["units"] == "m3" and "history" in vol.attrs
-    # The sphere-based area is within 0.5 % of the WGS84 geodesic area (pyproj.Geod).
-    np.testing.assert_allclose(vol.values, 0.01 * BASIN.area_m2, rtol=5e-3)
+    # Σ cell area × coverage (planar lon/lat coverage) is that area to a few parts in 1e6
+    np.testing.assert_allclose(_weighted_area(BASIN, pr), BASIN.area_m2, rtol=1e-5)
     af = cw.basin_volume(pr, BASIN, units="acre-ft")
-    np.testing.assert_allclose(af.values, 0.01 * area / 1233.48183754752, rtol=1e-12)
+    np.testing.assert_allclose(af.values, 0.01 * BASIN.area_m2 / 1233.48183754752, rtol=1e-12)
     assert af.attrs["units"] == "acre-ft"
 
 
@@ -87,7 +87,7 @@ def test_curvilinear_field():
     pr = grid.copy(data=np.full(grid.shape, 3.0)).assign_attrs(units="mm")
     basin = cw.Basin.from_vertices([(-141, -28), (-139, -28.5), (-139.5, -26), (-141.2, -26.3)])
     np.testing.assert_allclose(float(cw.basin_mean(pr, basin)), 3.0)
-    np.testing.assert_allclose(float(cw.basin_volume(pr, basin)), 0.003 * _weighted_area(basin, pr), rtol=1e-12)
+    np.testing.assert_allclose(float(cw.basin_volume(pr, basin)), 0.003 * basin.area_m2, rtol=1e-12)
 
 
 def test_precomputed_weights_and_errors():
@@ -102,3 +102,17 @@ def test_precomputed_weights_and_errors():
         cw.basin_volume(pr, BASIN, units="gallons")
     with pytest.raises(ParameterError, match="needs a DataArray"):
         cw.basin_mean(pr.to_dataset(name="pr"), BASIN)
+
+
+def test_basin_means_equal_basin_mean_of_each_basin():
+    pr = rect_grid(-35, -30, -150, -144, 0.25, ntime=3, value=10.0)
+    pr = pr + pr["lat"] * 0.1 + pr["lon"] * 0.01  # a field that varies across the basins
+    pr.attrs["units"] = "mm"
+    other = cw.Basin.from_vertices([(-146.0, -34.5), (-144.5, -34.5), (-145.0, -32.0)], name="b2")
+    from climwidgets.geo.aggregate import basin_means
+
+    both = basin_means(pr, [BASIN, other])
+    for b in (BASIN, other):
+        one = cw.basin_mean(pr, b)
+        np.testing.assert_allclose(both.sel(basin=b.name).values, one.values, rtol=1e-12)
+        np.testing.assert_allclose(both["covered_fraction"].sel(basin=b.name).values, one["covered_fraction"].values)

@@ -34,7 +34,18 @@ def test_from_vertices_and_geodesic_area():
     assert b.name == "square" and b.bounds == (-140.0, 20.0, -139.0, 21.0)
     closed = cw.Basin.from_vertices(SQUARE + [SQUARE[0]], name="other name")
     assert closed.token == b.token  # token ignores the name and the closing vertex
-    np.testing.assert_allclose(b.area_m2, _wgs84_strip_area(20.0, 21.0, 1.0), rtol=1e-8)
+    # The basin area is on the authalic sphere (R = 6 371 007.2 m, Moritz 1980, GRS80):
+    # a lon/lat rectangle is R²·Δλ·(sin φ2 − sin φ1), the spherical-zone formula; pyproj.Geod on
+    # that sphere with densified (straight lon/lat) edges gives the same to 1e-8.
+    R = 6_371_007.2
+    zone = R**2 * np.radians(1.0) * (np.sin(np.radians(21.0)) - np.sin(np.radians(20.0)))
+    np.testing.assert_allclose(b.area_m2, zone, rtol=1e-12)
+    import shapely
+
+    sphere, _ = Geod(a=R, b=R).geometry_area_perimeter(shapely.segmentize(b.geometry, 0.001))
+    np.testing.assert_allclose(b.area_m2, abs(sphere), rtol=1e-6)
+    # and within 0.5 % of the WGS84 ellipsoidal area (Bagratuni 1967 strip formula)
+    np.testing.assert_allclose(b.area_m2, _wgs84_strip_area(20.0, 21.0, 1.0), rtol=5e-3)
     moved = cw.Basin.from_vertices([(x + 0.5, y) for x, y in SQUARE])
     assert moved.token != b.token
 

@@ -72,13 +72,17 @@ def test_rename_delete_and_unique_names(field):
     drawer = BasinDrawer(field, basins=basins())
     drawer.tools.select.value = "South"
     drawer.tools.new_name.value = "North"
+    drawer.tools.rename.click()  # a taken name is a clear error, not a silent "(2)"
+    assert [b.name for b in drawer.basins] == ["South", "North"]
+    assert "already in the set" in drawer.message.value
+    drawer.tools.new_name.value = "Lower"
     drawer.tools.rename.click()
-    assert [b.name for b in drawer.basins] == ["North (2)", "North"]
+    assert [b.name for b in drawer.basins] == ["Lower", "North"]
     drawer.tools.select.value = "North"
     drawer.tools.delete.click()
     drawer.wait()
-    assert [b.name for b in drawer.basins] == ["North (2)"]
-    assert list(drawer.result.index) == ["North (2)"]
+    assert [b.name for b in drawer.basins] == ["Lower"]
+    assert list(drawer.result.index) == ["Lower"]
 
 
 def test_save_and_load_geojson(tmp_path, field):
@@ -98,7 +102,7 @@ def test_save_and_load_geojson(tmp_path, field):
     other.tools.load.click()
     other.wait()
     assert [b.name for b in other.basins] == ["South", "North"]
-    assert np.allclose(other.result["area_km2"], drawer.result["area_km2"])
+    assert np.allclose(other.result["area_km2"], drawer.wait()["area_km2"])
     other.tools.path.value = str(tmp_path / "missing.geojson")
     other.tools.load.click()
     assert "file not found" in other.message.value

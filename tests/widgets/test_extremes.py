@@ -86,7 +86,7 @@ def test_period_and_warming_redraw_without_refit(setup):
     xr.testing.assert_allclose(w.result, cw.warming_scaling(levels, 2.0, rate=0.06))
     factor = 1.06 ** 2  # (1 + rate) ** delta_t
     np.testing.assert_allclose(w.result["estimate"].values, levels["estimate"].values * factor)
-    areal = w.basin_levels["upper"]["estimate"].sel(period=25)
+    areal = w.basin_levels["areal_estimate_mm"].sel(basin="upper", return_period=25)
     assert w.table.loc["upper", "areal depth [mm]"] == pytest.approx(float(areal) * factor)
     w.layer.value = "upper"
     np.testing.assert_allclose(np.asarray(w.map.mesh.get_array()).reshape(3, 3),

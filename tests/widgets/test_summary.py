@@ -9,7 +9,7 @@ import pytest
 
 from climwidgets.compute.normals import normals
 from climwidgets.geo.aggregate import ACRE_FOOT_M3, basin_mean
-from climwidgets.geo.summary import basin_summary, scenario_delta
+from climwidgets.analyses.basins import basin_summary, scenario_delta
 from climwidgets.widgets.summary import BasinSummaryWidget
 
 from ._data import basins, monthly_pr
@@ -36,9 +36,9 @@ def test_numbers_follow_the_controls(pr, tmp_path):
     ref = scenario_delta(pr, basins(), months=(6, 7, 8, 9), percent=-12.0)
     pd.testing.assert_frame_equal(w.result["scenario"], ref)
     row = w.scenario_table(w.result).loc["South"]
-    assert row["change per year [acre-feet]"] == pytest.approx(ref.loc["South", "delta_volume_per_year_m3"]
+    assert row["change in volume per year [acre-ft]"] == pytest.approx(ref.loc["South", "delta_volume_per_year_m3"]
                                                                 / ACRE_FOOT_M3)
-    assert "acre-feet" in w.scenario_html.value
+    assert "acre-ft" in w.scenario_html.value
     w.baseline.value = (2003, 2011)
     w.wait()
     assert np.allclose(w.result["normals"].sel(basin="South"),

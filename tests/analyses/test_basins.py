@@ -1,4 +1,4 @@
-"""Basin summary table and seasonal volume scenario (climwidgets/geo/summary.py)."""
+"""Basin table, summary and seasonal what-if (climwidgets/analyses/basins.py)."""
 
 import dask.array
 import numpy as np
@@ -109,3 +109,18 @@ def test_summary_with_cftime_noleap_calendar():
     np.testing.assert_allclose(table.loc["east", "seasonal_share_1"], summer / annual, rtol=1e-12)
     np.testing.assert_allclose(table.loc["east", "latest_year_percent_of_normal"], 150.0, rtol=1e-12)
     assert "basin_summary" in table.attrs["history"]
+
+
+def test_a_member_dimension_passes_through_as_an_index_level():
+    pr = _pr()
+    members = xr.concat([pr, 2.0 * pr], dim="member").assign_coords(member=["a", "b"])
+    members.attrs = pr.attrs
+    table = cw.basin_summary(members, [WEST, EAST])
+    assert table.index.names == ["basin", "member"]
+    single = cw.basin_summary(pr, [WEST, EAST])
+    np.testing.assert_allclose(table.xs("a", level="member")["annual_mean_mm"], single["annual_mean_mm"], rtol=1e-12)
+    np.testing.assert_allclose(table.xs("b", level="member")["annual_mean_mm"], 2 * single["annual_mean_mm"],
+                               rtol=1e-12)
+    # the share does not change when every month doubles
+    np.testing.assert_allclose(table.xs("b", level="member")["seasonal_share_1"], single["seasonal_share_1"],
+                               rtol=1e-12)

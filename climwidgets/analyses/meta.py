@@ -1,0 +1,197 @@
+"""What every result variable means on screen: label, units, display format, description.
+
+This is the one place where the words and units of a user-facing number are written
+down.  An analysis attaches them to its variables with :func:`describe`; the widgets,
+the CSV and NetCDF exports, the HTML report and the command line read them back with
+:func:`frame` (a table for people or for files) and :func:`column_heading`, so a column
+is called and formatted the same way everywhere.
+
+Attributes set on a described variable (all strings unless noted):
+
+``label``           plain words, lower case, no units ("seasonal share")
+``units``           CF units of the stored numbers ("1", "mm", "m3", "km2", "%")
+``display_units``   units the number is shown in ("%", "million m³")
+``display_scale``   float: shown value = stored value × scale (a fraction 0.3 shows as 30 %)
+``display_format``  a format spec for the shown value (",.0f", ".1f", ".3g")
+``description``     one sentence saying what the number is and how it was made
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+import pandas as pd
+import xarray as xr
+
+__all__ = ["Meta", "CATALOGUE", "describe", "frame", "column_heading", "format_cell", "table_variables"]
+
+
+@dataclass(frozen=True)
+class Meta:
+    """How one result variable is named and shown (see the module docstring)."""
+
+    label: str
+    units: str
+    description: str
+    display_units: str | None = None
+    display_scale: float = 1.0
+    display_format: str = ".4g"
+
+    def attrs(self) -> dict:
+        return {"label": self.label, "units": self.units, "description": self.description,
+                "display_units": self.units if self.display_units is None else self.display_units,
+                "display_scale": float(self.display_scale), "display_format": self.display_format}
+
+
+_AREA = ("area of the basin outline on the sphere of the authalic radius 6 371 007.2 m "
+         "(edges straight in lon/lat); every table, volume and export uses this one area")
+
+#: The suite's result variables by name.  An analysis may override any field per call
+#: (for example a label that names the confidence level) through :func:`describe`.
+CATALOGUE: dict[str, Meta] = {
+    # basin table
+    "area_km2": Meta("area", "km2", _AREA, "km²", 1.0, ",.1f"),
+    "annual_mean_mm": Meta("annual mean", "mm", "mean of the basin's annual totals over the complete years",
+                           "mm", 1.0, ",.0f"),
+    "n_years": Meta("complete years", "1", "number of complete years behind the annual mean", "", 1.0, ".0f"),
+    "seasonal_share_1": Meta("seasonal share", "1", "share of the annual total that falls in the season "
+                             "(ratio of the basin's seasonal and annual sums)", "%", 100.0, ".1f"),
+    "normal_annual_mm": Meta("annual normal", "mm", "sum of the basin's 12 monthly normals over the baseline",
+                             "mm", 1.0, ",.0f"),
+    "volume_per_year_m3": Meta("volume per year", "m3", "annual mean depth times the basin area",
+                               "m³", 1.0, ",.0f"),
+    "volume_per_year_acre_ft": Meta("volume per year", "acre-ft", "annual mean depth times the basin area, "
+                                    "in acre-feet (international foot)", "acre-ft", 1.0, ",.0f"),
+    "latest_year": Meta("latest year", "1", "the last complete year of the record", "", 1.0, ".0f"),
+    "latest_year_mm": Meta("latest year total", "mm", "total of the latest complete year", "mm", 1.0, ",.0f"),
+    "latest_year_percent_of_normal": Meta("latest year, percent of normal", "%",
+                                          "latest year's total against the annual normal", "%", 1.0, ".0f"),
+    "data_coverage_1": Meta("area with data", "1", "smallest share of the basin's weighted area with data "
+                            "in any month of the record (1 = complete)", "%", 100.0, ".0f"),
+    # seasonal share per basin
+    "share_slope": Meta("Sen slope of the seasonal share", "1/yr", "Sen slope of the basin's per-year share",
+                        "% points per decade", 1000.0, ".2f"),
+    "share_pvalue": Meta("Mann-Kendall p", "1", "two-sided Mann-Kendall p-value of the per-year share", "", 1.0,
+                         ".2f"),
+    "n_share_years": Meta("years", "1", "years with a seasonal share", "", 1.0, ".0f"),
+    # what-if
+    "season": Meta("season", "", "the season whose precipitation is changed", "", 1.0, ""),
+    "percent": Meta("change", "%", "change applied to the season's precipitation", "%", 1.0, ".1f"),
+    "n_seasons": Meta("seasons used", "1", "complete seasons behind the mean", "", 1.0, ".0f"),
+    "seasonal_volume_per_year_m3": Meta("season's volume per year", "m3", "mean seasonal depth times the basin "
+                                        "area", "m³", 1.0, ",.0f"),
+    "delta_volume_per_year_m3": Meta("change in volume per year", "m3", "the season's volume times the change",
+                                     "m³", 1.0, ",.0f"),
+    "delta_volume_per_year_acre_ft": Meta("change in volume per year", "acre-ft", "the change in acre-feet",
+                                          "acre-ft", 1.0, ",.0f"),
+    # areal design depths
+    "return_period": Meta("return period", "yr", "average recurrence interval", "years", 1.0, "g"),
+    "areal_estimate_mm": Meta("areal depth", "mm", "return level of the basin-mean annual maxima", "mm", 1.0,
+                              ".1f"),
+    "areal_lower_mm": Meta("lower", "mm", "lower end of the bootstrap interval", "mm", 1.0, ".1f"),
+    "areal_upper_mm": Meta("upper", "mm", "upper end of the bootstrap interval", "mm", 1.0, ".1f"),
+    "warming_factor": Meta("warming factor", "1", "(1 + rate) ** warming applied to the depths", "", 1.0, ".3f"),
+    # windward / leeward bands
+    "windward_mean": Meta("windward mean", "mm/yr", "mean annual total of the windward cells of the band",
+                          "mm per year", 1.0, ",.0f"),
+    "leeward_mean": Meta("leeward mean", "mm/yr", "mean annual total of the leeward cells of the band",
+                         "mm per year", 1.0, ",.0f"),
+    "ratio": Meta("leeward / windward", "1", "leeward mean over windward mean", "", 1.0, ".3f"),
+    "ratio_lower": Meta("lower", "1", "lower end of the bootstrap interval of the ratio", "", 1.0, ".3f"),
+    "ratio_upper": Meta("upper", "1", "upper end of the bootstrap interval of the ratio", "", 1.0, ".3f"),
+    "model_ratio": Meta("linear model leeward / windward", "1", "the same ratio for the linear orographic "
+                        "model (Smith and Barstad 2004)", "", 1.0, ".3f"),
+    # products
+    "seasonal_share": Meta("seasonal share", "1", "share of the annual total falling in the season "
+                           "(ratio of sums)", "fraction", 1.0, ".3f"),
+    "normal_mm": Meta("annual normal", "mm", "sum of the 12 monthly normals over the baseline", "mm", 1.0,
+                      ",.0f"),
+    "trend_mm_per_year": Meta("Sen slope", "mm/yr", "Sen slope of the annual totals", "mm per year", 1.0, ".2f"),
+    "trend_pvalue": Meta("Mann-Kendall p-value", "1", "two-sided Mann-Kendall p-value of the annual totals", "",
+                         1.0, ".2f"),
+}
+
+
+def describe(da: xr.DataArray, name: str, **overrides) -> xr.DataArray:
+    """``da`` named ``name`` with the display attributes of :data:`CATALOGUE` (and overrides)."""
+    meta = CATALOGUE.get(name)
+    attrs = meta.attrs() if meta is not None else {"label": name.replace("_", " "), "units": "",
+                                                   "description": "", "display_units": "",
+                                                   "display_scale": 1.0, "display_format": ".4g"}
+    attrs.update(overrides)
+    if "units" in overrides and "display_units" not in overrides and meta is not None and meta.units == "":
+        attrs["display_units"] = overrides["units"]
+    out = da.rename(name)
+    out.attrs = {**{k: v for k, v in da.attrs.items() if k in ("history", "basin")}, **attrs}
+    return out
+
+
+def column_heading(attrs: dict, name: str = "") -> str:
+    """'label [display units]', or the label alone when the number has no units."""
+    label = attrs.get("label", name)
+    units = attrs.get("display_units", attrs.get("units", ""))
+    return f"{label} [{units}]" if units and units != "1" else str(label)
+
+
+def format_cell(value, attrs: dict) -> str:
+    """One shown value as text (the display scale is already applied), '–' when missing."""
+    if value is None or value is pd.NA:
+        return "–"
+    if isinstance(value, (str, bytes)):
+        return str(value)
+    try:
+        v = float(value)
+    except (TypeError, ValueError):
+        return str(value)
+    if not np.isfinite(v):
+        return "–"
+    spec = attrs.get("display_format") or ".4g"
+    return format(v, spec)
+
+
+def table_variables(ds: xr.Dataset, index) -> list[str]:
+    """The variables of ``ds`` that are columns of a table indexed by ``index`` dims."""
+    index = tuple(index)
+    return [k for k, v in ds.data_vars.items() if set(v.dims) == set(index) and "label" in v.attrs]
+
+
+def frame(ds: xr.Dataset, index=("basin",), display: bool = False, columns=None) -> pd.DataFrame:
+    """A table of the described variables of ``ds`` over the ``index`` dims.
+
+    ``display=False`` gives the numbers as stored, with the variable names as columns
+    (what the CSV holds); ``display=True`` gives them scaled to their display units under
+    'label [units]' headings (what widgets and the report show).  ``attrs["columns"]`` of
+    the result maps each column to the variable's attributes, for formatting.
+    """
+    index = tuple(index)
+    names = list(columns) if columns is not None else table_variables(ds, index)
+    # extra dimensions (member, realization ...) become further index levels
+    extra = [d for name in names for d in ds[name].dims if d not in index]
+    index = index + tuple(dict.fromkeys(extra))
+    if names:
+        table = ds[names].to_dataframe(dim_order=list(index))
+    else:
+        table = pd.DataFrame(index=ds.indexes[index[0]])
+    table = table.drop(columns=[c for c in table.columns if c not in names])
+    for name in names:  # stored ints come back as floats where NaN is possible
+        col = table[name]
+        if (ds[name].attrs.get("units") == "1" and ds[name].attrs.get("display_format") == ".0f"
+                and pd.api.types.is_numeric_dtype(col) and col.notna().all() and (col % 1 == 0).all()):
+            table[name] = table[name].astype("int64")
+    meta = {}
+    if display:
+        renamed = {}
+        for name in names:
+            attrs = ds[name].attrs
+            scale = float(attrs.get("display_scale", 1.0))
+            if scale != 1.0:
+                table[name] = table[name] * scale
+            heading = column_heading(attrs, name)
+            renamed[name] = heading
+            meta[heading] = dict(attrs)
+        table = table.rename(columns=renamed)
+    else:
+        meta = {name: dict(ds[name].attrs) for name in names}
+    table.attrs = {"columns": meta}
+    return table

@@ -1,0 +1,101 @@
+"""Computing several analyses together, in one pass over the data.
+
+``compute(a, b, ...)`` gathers the dask arrays of every variable (and coordinate) of the
+given xarray objects and computes them in one ``dask.compute``, so chunks shared by the
+analyses (all built on one :func:`cw.climatology_bundle`) are read once.  It works on the
+arrays themselves, as ``Dataset.compute`` does, rather than on the Datasets as dask
+collections (which some dask versions fail to finalize when the graphs overlap).
+"""
+
+from __future__ import annotations
+
+import dask
+import xarray as xr
+
+__all__ = ["compute"]
+
+
+def _walk(obj, found, path=()):
+    if isinstance(obj, (xr.Dataset, xr.DataArray)):
+        found.append((path, obj))
+    elif isinstance(obj, dict):
+        for k, v in obj.items():
+            _walk(v, found, path + (k,))
+    elif isinstance(obj, (list, tuple)):
+        for i, v in enumerate(obj):
+            _walk(v, found, path + (i,))
+
+
+def _variables(obj):
+    if isinstance(obj, xr.DataArray):
+        return {**{("coord", k): v.variable for k, v in obj.coords.items()}, ("data",): obj.variable}
+    return {("var", k): v for k, v in obj.variables.items()}
+
+
+def _rebuild(obj, values: dict):
+    out = obj.copy(deep=False)
+    for key, value in values.items():
+        if key == ("data",):
+            out.variable.data = value
+        elif key[0] == "coord":
+            out[key[1]].variable.data = value
+        else:
+            out.variables[key[1]].data = value
+    return out
+
+
+def _replace(obj, path, new):
+    if not path:
+        return new
+    head, rest = path[0], path[1:]
+    if isinstance(obj, dict):
+        return {**obj, head: _replace(obj[head], rest, new)}
+    items = list(obj)
+    items[head] = _replace(items[head], rest, new)
+    return type(obj)(items) if isinstance(obj, tuple) else items
+
+
+def compute(*objs, **dask_kwargs):
+    """Compute xarray objects (possibly inside dicts, lists, tuples) in one dask pass.
+
+    Returns the objects in memory, in the same structure; other values pass through.
+    """
+    found = []
+    _walk(objs, found)
+    lazy = []
+    for path, obj in found:
+        for key, var in _variables(obj).items():
+            if dask.is_dask_collection(var.data):
+                lazy.append((path, key, var.data))
+    values = dask.compute(*[x for _, _, x in lazy], **dask_kwargs) if lazy else ()
+    by_path = {}
+    for (path, key, _), value in zip(lazy, values):
+        by_path.setdefault(path, {})[key] = value
+    out = objs
+    for path, obj in found:
+        if path in by_path:
+            out = _replace(out, path, _rebuild(obj, by_path[path]))
+    return out
+
+
+#: Monthly totals up to this size are computed once and kept in memory for interactive use.
+IN_MEMORY_BYTES = 256 * 2**20
+
+
+def monthly_source(pr: xr.DataArray) -> xr.DataArray:
+    """Monthly totals of ``pr`` for interactive analyses.
+
+    Where they fit in memory (:data:`IN_MEMORY_BYTES`) they are computed once — one read
+    of every stored chunk — and kept in the result cache (``climwidgets.cache``), so every
+    later analysis of the same data (another season, a new basin, another widget) reads
+    nothing.  Larger ones stay lazy and each analysis reads the data again.
+    """
+    from .. import cache
+    from ..compute.totals import monthly_totals
+
+    monthly = pr if pr.attrs.get("step") == "month" else monthly_totals(pr)
+    if not dask.is_dask_collection(monthly):
+        return monthly
+    if monthly.nbytes <= IN_MEMORY_BYTES:
+        return cache.cached("monthly_totals", lambda: monthly, pr)
+    return monthly

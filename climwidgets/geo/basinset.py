@@ -1,0 +1,236 @@
+"""BasinSet: the ordered, observable collection of basins that widgets share, and the one
+basin loader.
+
+Widgets given the same :class:`BasinSet` always show the same basins: a basin drawn or
+loaded in one joins the set, and every widget watching it hears of the change.  Names
+are unique within a set; adding or renaming to a name already taken is an error, not a
+silent "(2)".  Listeners are called on the thread that changed the set, with an event
+``("add" | "remove" | "rename" | "replace", details)``.
+"""
+
+from __future__ import annotations
+
+import os
+import threading
+from pathlib import Path
+
+from ..errors import BasinError, ParameterError, SourceError
+from .basin import Basin, write_geojson
+
+__all__ = ["BasinSet", "as_basin_list", "load_basins"]
+
+
+class BasinSet:
+    """An ordered set of :class:`cw.Basin` with unique names that tells listeners of changes.
+
+    Parameters
+    ----------
+    basins : iterable of Basin, optional
+
+    Examples
+    --------
+    >>> shared = cw.BasinSet(cw.Basin.from_geojson("basins.geojson"))
+    >>> a = cw.SeasonalShareWidget(pr, basins=shared)
+    >>> b = cw.BasinSummaryWidget(pr, basins=shared)   # a basin drawn in a shows in b
+    """
+
+    def __init__(self, basins=()):
+        self._basins: list[Basin] = []
+        self._listeners = []
+        self._lock = threading.RLock()
+        for b in _basins_of(basins, "BasinSet"):
+            self._check_new_name(b.name)
+            self._basins.append(b)
+
+    # ------------------------------------------------------------ reading
+    @property
+    def names(self) -> list[str]:
+        return [b.name for b in self._basins]
+
+    def __iter__(self):
+        return iter(list(self._basins))
+
+    def __len__(self) -> int:
+        return len(self._basins)
+
+    def __contains__(self, name) -> bool:
+        return (name.name if isinstance(name, Basin) else name) in self.names
+
+    def __getitem__(self, key) -> Basin:
+        if isinstance(key, int):
+            return self._basins[key]
+        for b in self._basins:
+            if b.name == key:
+                return b
+        raise KeyError(key)
+
+    def __repr__(self) -> str:
+        return f"BasinSet({self.names!r})"
+
+    # ------------------------------------------------------------ changing
+    def _check_new_name(self, name):
+        if not isinstance(name, str) or not name.strip():
+            raise BasinError("the basin name is empty", source="BasinSet", variable="name",
+                             expected="a non-empty name", fix="give the basin a name")
+        if name in self.names:
+            raise BasinError(f"a basin named {name!r} is already in the set", source="BasinSet",
+                             variable="name", expected="a name not yet used",
+                             fix="choose another name, or remove or rename the existing basin first")
+
+    def add(self, basin: Basin) -> Basin:
+        """Append ``basin``; raises BasinError when its name is taken."""
+        if not isinstance(basin, Basin):
+            raise ParameterError(f"got {type(basin).__name__}", source="BasinSet.add", variable="basin",
+                                 expected="a cw.Basin", fix="build it with cw.Basin.from_vertices or from_geojson")
+        with self._lock:
+            self._check_new_name(basin.name)
+            self._basins.append(basin)
+        self._notify("add", [basin])
+        return basin
+
+    def extend(self, basins) -> list[Basin]:
+        """Add several basins at once (all or none: a taken name adds nothing)."""
+        new = _basins_of(basins, "BasinSet.extend")
+        with self._lock:
+            seen = set(self.names)
+            for b in new:
+                if b.name in seen:
+                    raise BasinError(f"a basin named {b.name!r} is already in the set", source="BasinSet",
+                                     variable="name", expected="names not yet used",
+                                     fix="rename the basins in the file, or remove the existing ones first")
+                seen.add(b.name)
+            self._basins.extend(new)
+        if new:
+            self._notify("add", new)
+        return new
+
+    def remove(self, name) -> Basin:
+        """Remove the basin called ``name`` (or that Basin); KeyError-free: BasinError if absent."""
+        name = name.name if isinstance(name, Basin) else name
+        with self._lock:
+            basin = self._find(name)
+            self._basins.remove(basin)
+        self._notify("remove", [basin])
+        return basin
+
+    def rename(self, old: str, new: str) -> Basin:
+        """Give the basin ``old`` the name ``new`` (same outline); BasinError if ``new`` is taken."""
+        new = (new or "").strip()
+        with self._lock:
+            basin = self._find(old)
+            if new == old:
+                return basin
+            self._check_new_name(new)
+            renamed = Basin(basin.geometry, name=new)
+            self._basins[self._basins.index(basin)] = renamed
+        self._notify("rename", (old, new))
+        return renamed
+
+    def replace(self, basins) -> None:
+        """Make the set hold exactly ``basins`` (unique names)."""
+        new = BasinSet(basins)._basins
+        with self._lock:
+            self._basins = new
+        self._notify("replace", list(new))
+
+    def _find(self, name) -> Basin:
+        for b in self._basins:
+            if b.name == name:
+                return b
+        raise BasinError(f"no basin named {name!r} in the set", source="BasinSet", variable="name",
+                         expected=f"one of {self.names}", fix="pick a name from BasinSet.names")
+
+    # ------------------------------------------------------------ listeners
+    def observe(self, callback) -> None:
+        """Call ``callback(event, details)`` after every change."""
+        with self._lock:
+            if callback not in self._listeners:
+                self._listeners.append(callback)
+
+    def unobserve(self, callback) -> None:
+        with self._lock:
+            if callback in self._listeners:
+                self._listeners.remove(callback)
+
+    def _notify(self, event, details):
+        with self._lock:
+            listeners = list(self._listeners)
+        for callback in listeners:
+            callback(event, details)
+
+    # ------------------------------------------------------------ GeoJSON
+    @classmethod
+    def from_geojson(cls, path_or_mapping) -> "BasinSet":
+        """A set of the polygons of a GeoJSON file or mapping (see :meth:`cw.Basin.from_geojson`)."""
+        return cls(Basin.from_geojson(path_or_mapping))
+
+    @classmethod
+    def from_file(cls, path) -> "BasinSet":
+        """A set from a GeoJSON file or a shapefile (:func:`load_basins`)."""
+        return cls(load_basins(path))
+
+    def to_geojson(self, path=None, overwrite: bool = False):
+        """A GeoJSON FeatureCollection mapping, or with ``path`` the written file (atomic)."""
+        if path is not None:
+            if not self._basins:
+                raise BasinError("there are no basins to save", source=str(path), fix="draw or load a basin first")
+            return write_geojson(list(self._basins), path, overwrite=overwrite)
+        return {"type": "FeatureCollection", "features": [b.to_geojson() for b in self._basins]}
+
+
+def _basins_of(basins, func) -> list[Basin]:
+    if isinstance(basins, Basin):
+        return [basins]
+    if isinstance(basins, BasinSet):
+        return list(basins)
+    if isinstance(basins, dict):
+        basins = list(basins.values())
+    try:
+        out = list(basins or [])
+    except TypeError:
+        out = None
+    if out is None or not all(isinstance(b, Basin) for b in out):
+        raise ParameterError(f"basins must be Basin objects (got {type(basins).__name__})", source=func,
+                             variable="basins", expected="a Basin, a list of Basin or a cw.BasinSet",
+                             fix="build them with cw.Basin.from_vertices / from_geojson / from_shapefile")
+    return out
+
+
+def as_basin_list(basins, func: str) -> list[Basin]:
+    """A non-empty list of uniquely named basins from a Basin, a list, a dict or a BasinSet."""
+    out = _basins_of(basins, func)
+    if not out:
+        raise ParameterError("basins must be a Basin or a non-empty list of Basin objects", source=func,
+                             variable="basins", expected="Basin objects",
+                             fix="build them with cw.Basin.from_vertices / from_geojson / from_shapefile")
+    names = [b.name for b in out]
+    if len(set(names)) != len(names):
+        raise ParameterError(f"basin names repeat: {names}", source=func, variable="basins",
+                             expected="one name per basin", fix="give every basin its own name")
+    return out
+
+
+def load_basins(source) -> list[Basin]:
+    """Basins from a GeoJSON file (.geojson/.json) or an ESRI shapefile (.shp), or Basin
+    objects (a Basin, a list or a BasinSet) passed through."""
+    if isinstance(source, (Basin, BasinSet)) or (isinstance(source, (list, tuple)) and source
+                                                 and all(isinstance(b, Basin) for b in source)):
+        return _basins_of(source, "load_basins")
+    if not isinstance(source, (str, os.PathLike)) or not str(source).strip():
+        raise BasinError(f"got {type(source).__name__} {source!r}", source="basins",
+                         expected="a GeoJSON or shapefile path", fix="pass the path of the basin outline file")
+    path = Path(str(source).strip())
+    suffix = path.suffix.lower()
+    if suffix in (".shp", ".shx", ".dbf"):
+        return Basin.from_shapefile(path)
+    if not path.is_file():
+        raise SourceError("basin file not found", source=path, expected="a GeoJSON (.geojson, .json) or "
+                          "shapefile (.shp)", fix="check the basin file path")
+    if suffix not in (".geojson", ".json"):
+        with open(path, "rb") as f:
+            head = f.read(64).lstrip()
+        if not head.startswith(b"{"):
+            raise BasinError("is not a basin outline file", source=path,
+                             expected="GeoJSON (.geojson, .json) or an ESRI shapefile (.shp)",
+                             fix="save the basin outlines as GeoJSON or a shapefile")
+    return Basin.from_geojson(path)
