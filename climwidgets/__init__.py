@@ -66,6 +66,8 @@ _PUBLIC = {
     "saturation_vapor_pressure": "climwidgets.compute.thermo",
     "warming_scaling": "climwidgets.compute.warming",
     "DESIGN_DEPTH_CAUTIONS": "climwidgets.compute.warming",
+    # indices, depth-duration-frequency, regional frequency analysis
+    "precip_indices": "climwidgets.compute.indices",
     # comparison
     "regrid": "climwidgets.compute.regrid",
     "align": "climwidgets.compute.compare",
