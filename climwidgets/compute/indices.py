@@ -43,10 +43,17 @@ import xarray as xr
 
 from ..errors import DataValueError, ParameterError, TimeAxisError
 from ..provenance import with_history
-from ._time import check_precip, check_year_range, check_year_start, is_dask, source_name, safe_divide
+from ._time import (
+    check_precip,
+    check_year_range,
+    check_year_start,
+    is_dask,
+    safe_divide,
+    source_name,
+)
 from .extremes import _check_regular
 
-__all__ = ["precip_indices", "INDEX_NAMES", "WET_DAY_MM", "wet_day_percentiles"]
+__all__ = ["INDEX_NAMES", "WET_DAY_MM", "precip_indices", "wet_day_percentiles"]
 
 WET_DAY_MM = 1.0
 INDEX_NAMES = ("PRCPTOT", "SDII", "R10mm", "R20mm", "CDD", "CWD", "R95p", "R99p",

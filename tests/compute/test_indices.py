@@ -19,9 +19,9 @@ from climwidgets.compute.indices import _quantile_type8, wet_day_percentiles
 from climwidgets.errors import DataValueError, ParameterError, TimeAxisError
 
 xclim = pytest.importorskip("xclim")
-from xclim import indices as xi  # noqa: E402
-from xclim.core.missing import missing_any  # noqa: E402
-from xclim.core.utils import calc_perc  # noqa: E402
+from xclim import indices as xi
+from xclim.core.missing import missing_any
+from xclim.core.utils import calc_perc
 
 FREQ = {"year": "YS", "season": "QS-DEC", "month": "MS"}
 
