@@ -68,6 +68,10 @@ _PUBLIC = {
     "DESIGN_DEPTH_CAUTIONS": "climwidgets.compute.warming",
     # indices, depth-duration-frequency, regional frequency analysis
     "precip_indices": "climwidgets.compute.indices",
+    "depth_duration_frequency": "climwidgets.compute.ddf",
+    "areal_reduction_factor": "climwidgets.compute.arf",
+    "convert_depth": "climwidgets.compute.depth_units",
+    "MM_PER_INCH": "climwidgets.compute.depth_units",
     # comparison
     "regrid": "climwidgets.compute.regrid",
     "align": "climwidgets.compute.compare",
