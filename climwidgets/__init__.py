@@ -72,6 +72,7 @@ _PUBLIC = {
     "areal_reduction_factor": "climwidgets.compute.arf",
     "convert_depth": "climwidgets.compute.depth_units",
     "MM_PER_INCH": "climwidgets.compute.depth_units",
+    "regional_frequency": "climwidgets.compute.regional",
     # comparison
     "regrid": "climwidgets.compute.regrid",
     "align": "climwidgets.compute.compare",

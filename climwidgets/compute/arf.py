@@ -26,7 +26,7 @@ import xarray as xr
 
 from ..errors import ParameterError
 
-__all__ = ["areal_reduction_factor", "SQUARE_MILE_KM2", "ARF_RANGE", "ARF_SOURCE"]
+__all__ = ["ARF_RANGE", "ARF_SOURCE", "SQUARE_MILE_KM2", "areal_reduction_factor"]
 
 #: One square mile in km² with the international mile of 1609.344 m (exact).
 SQUARE_MILE_KM2 = 1.609344**2

@@ -43,7 +43,7 @@ from .extremes import DEFAULT_MIN_VALID_FRACTION, annual_maxima_window
 from .gev import return_levels
 from .warming import DESIGN_DEPTH_CAUTIONS
 
-__all__ = ["depth_duration_frequency", "DDF_HOUR_DURATIONS", "DDF_DAY_DURATIONS"]
+__all__ = ["DDF_DAY_DURATIONS", "DDF_HOUR_DURATIONS", "depth_duration_frequency"]
 
 DDF_HOUR_DURATIONS = (1, 2, 3, 6, 12, 24, 48, 72)
 DDF_DAY_DURATIONS = tuple(range(1, 11))

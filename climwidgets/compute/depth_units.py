@@ -11,7 +11,7 @@ import xarray as xr
 
 from ..errors import ParameterError
 
-__all__ = ["MM_PER_INCH", "DEPTH_UNITS", "convert_depth", "check_depth_units"]
+__all__ = ["DEPTH_UNITS", "MM_PER_INCH", "check_depth_units", "convert_depth"]
 
 #: Millimetres in one inch (exact by definition).
 MM_PER_INCH = 25.4

@@ -89,8 +89,8 @@ def _meta(name):
     if name in _PERCENTILE:
         p = _PERCENTILE[name]
         return ("mm", f"precipitation on days above the {p}th percentile",
-                f"sum of daily precipitation on wet days with more than the {p}th percentile of "
-                "the base period's wet days")
+                (f"sum of daily precipitation on wet days with more than the {p}th percentile of "
+                 "the base period's wet days"))
     nn = _threshold(name)
     return ("d", f"number of days with at least {nn:g} mm",
             f"count of days with daily precipitation of {nn:g} mm or more")

@@ -11,7 +11,11 @@ import numpy as np
 import pytest
 import xarray as xr
 
-from climwidgets.compute.arf import ARFExtrapolationWarning, SQUARE_MILE_KM2, areal_reduction_factor
+from climwidgets.compute.arf import (
+    SQUARE_MILE_KM2,
+    ARFExtrapolationWarning,
+    areal_reduction_factor,
+)
 from climwidgets.errors import ParameterError
 
 MI2 = SQUARE_MILE_KM2
