@@ -139,8 +139,9 @@ def _shape_from_t3(t3):
     c = 2.0 / (3.0 + t3) - np.log(2.0) / np.log(3.0)
     k = 7.8590 * c + 2.9554 * c * c
     outside = (t3 < APPROX_T3_RANGE[0]) | (t3 > APPROX_T3_RANGE[1])
-    if np.any(outside):
-        k = np.where(outside, _shape_exact(np.where(outside, t3, 0.0)), k)
+    if np.any(outside):  # the bisection runs on the few values that need it
+        k = np.array(k, dtype=float, copy=True)
+        k[outside] = _shape_exact(t3[outside])
     return k
 
 
