@@ -68,6 +68,13 @@ _PUBLIC = {
     "saturation_vapor_pressure": "climwidgets.compute.thermo",
     "warming_scaling": "climwidgets.compute.warming",
     "DESIGN_DEPTH_CAUTIONS": "climwidgets.compute.warming",
+    # indices, depth-duration-frequency, regional frequency analysis
+    "precip_indices": "climwidgets.compute.indices",
+    "depth_duration_frequency": "climwidgets.compute.ddf",
+    "areal_reduction_factor": "climwidgets.compute.arf",
+    "convert_depth": "climwidgets.compute.depth_units",
+    "MM_PER_INCH": "climwidgets.compute.depth_units",
+    "regional_frequency": "climwidgets.compute.regional",
     # comparison
     "regrid": "climwidgets.compute.regrid",
     "align": "climwidgets.compute.compare",

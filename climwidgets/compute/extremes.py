@@ -29,7 +29,7 @@ from ..errors import DataValueError, ParameterError, TimeAxisError
 from ..provenance import with_history
 from ._time import check_precip, check_year_start, is_dask, source_name
 
-__all__ = ["annual_maxima", "DAY_DURATIONS", "HOUR_DURATIONS", "DEFAULT_MIN_VALID_FRACTION"]
+__all__ = ["annual_maxima", "annual_maxima_window", "DAY_DURATIONS", "HOUR_DURATIONS", "DEFAULT_MIN_VALID_FRACTION"]
 
 DAY_DURATIONS = (1, 2, 3, 5, 7, 10)
 HOUR_DURATIONS = (1, 3, 6, 12, 24)
@@ -142,6 +142,18 @@ def annual_maxima(pr, duration_days=1, duration_hours=None, year_start=1,
     step = check_precip(pr, "annual_maxima")
     src = source_name(pr)
     n, label = _window(step, duration_days, duration_hours, src)
+    return annual_maxima_window(pr, n, label, year_start, min_valid_fraction, fixed_to_sliding, return_dates)
+
+
+def annual_maxima_window(pr, n, label, year_start=1, min_valid_fraction=DEFAULT_MIN_VALID_FRACTION,
+                         fixed_to_sliding=None, return_dates=False):
+    """:func:`annual_maxima` for a window of ``n`` steps named ``label`` (e.g. "4 day").
+
+    For callers that need durations outside the widget's short lists (the depth-duration-
+    frequency tables); ``pr`` is checked again, ``n`` and ``label`` are trusted.
+    """
+    step = check_precip(pr, "annual_maxima")
+    src = source_name(pr)
     year_start = check_year_start(year_start, "annual_maxima")
     if isinstance(min_valid_fraction, bool) or not isinstance(min_valid_fraction, numbers.Real) \
             or not 0 < min_valid_fraction <= 1:

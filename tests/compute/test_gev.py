@@ -209,3 +209,50 @@ def test_errors():
         cw.gev_lmoments(series(), dist="weibull")
     with pytest.raises(ParameterError, match="'year' dimension"):
         cw.gev_lmoments(xr.DataArray(X, dims="time"))
+
+
+# ----------------------------------------------------------------------------- heavy tails
+
+def population_t3(k):
+    """GEV L-skewness for Hosking's k (Hosking 1990): 2 (1 - 3^-k) / (1 - 2^-k) - 3."""
+    return 2 * (1 - 3.0 ** -k) / (1 - 2.0 ** -k) - 3
+
+
+@pytest.mark.parametrize("k", [-0.8, -0.7, -0.6, -0.5, -0.3, 0.3, 0.5, 0.8, 1.5])
+def test_shape_over_the_whole_range_against_lmoments3(k):
+    t3 = population_t3(k)
+    loc, scale, shape = (float(v) for v in _params_from_lmoments(50.0, 12.0, t3, "gev"))
+    # lmoments3 1.0.8 distr.gev.lmom_fit (Hosking's PELGEV: rational approximation plus
+    # Newton-Raphson for heavy tails) on the same L-moment ratios
+    ref = distr.gev.lmom_fit(lmom_ratios=[50.0, 12.0, t3, 0.3])
+    F = 1 - 1 / 100
+    ours_100 = stats.genextreme.ppf(F, c=shape, loc=loc, scale=scale)
+    ref_100 = distr.gev.ppf(F, **ref)
+    assert ours_100 == pytest.approx(ref_100, rel=0.01)  # the issue's bar: within 1 %
+    if abs(k) > 0.5:  # exact inversion outside the approximation's range
+        assert shape == pytest.approx(k, abs=1e-9)
+        assert shape == pytest.approx(ref["c"], abs=2e-4)
+    else:  # the approximation's result is kept there: |dk| < 1e-3 (Hosking, Wallis & Wood 1985)
+        c = 2 / (3 + t3) - math.log(2) / math.log(3)
+        assert shape == pytest.approx(7.8590 * c + 2.9554 * c * c, rel=1e-12)
+        assert shape == pytest.approx(k, abs=1e-3)
+
+
+def test_heavy_tailed_samples_against_lmoments3():
+    # samples from scipy.stats.genextreme with c = k = -0.7: the gridded fit and lmoments3 agree
+    x = stats.genextreme.rvs(c=-0.7, loc=40, scale=10, size=(6, 60), random_state=np.random.default_rng(5))
+    rl = cw.return_levels(xr.DataArray(x, dims=("cell", "year"), attrs={"units": "mm"}), periods=(100,), n_boot=50)
+    for i in range(6):
+        ref = distr.gev.lmom_fit(x[i])
+        assert float(rl["estimate"].isel(cell=i, period=0)) == pytest.approx(distr.gev.ppf(0.99, **ref), rel=0.01)
+
+
+def test_shape_near_the_heavy_end_and_outside_the_range():
+    # t3 = 0.98 (k near -0.97): the approximation was 77 % off in the 100-year depth there;
+    # lmoments3 1.0.8 distr.gev.lmom_fit gives the same depth within 1 %
+    loc, scale, k = (float(v) for v in _params_from_lmoments(50.0, 12.0, 0.98, "gev"))
+    assert population_t3(k) == pytest.approx(0.98, abs=1e-12) and -1 < k < -0.9
+    ref = distr.gev.lmom_fit(lmom_ratios=[50.0, 12.0, 0.98, 0.9])
+    assert stats.genextreme.ppf(0.99, c=k, loc=loc, scale=scale) == pytest.approx(distr.gev.ppf(0.99, **ref), rel=0.01)
+    # t3 >= 1 cannot come from a sample and k <= -1 has no finite mean: no fit
+    assert np.isnan(_params_from_lmoments(50.0, 12.0, 1.0, "gev")[2])

@@ -1,0 +1,56 @@
+"""Depths in millimetres or inches for design-depth tables (one home for the conversion).
+
+The inch is exactly 25.4 mm (international yard and pound agreement, 1959).  Everything
+in the suite computes in mm; tables, widgets and exports convert at the end with
+:func:`convert_depth`, which touches only variables whose ``units`` attr is "mm".
+"""
+
+from __future__ import annotations
+
+import xarray as xr
+
+from ..errors import ParameterError
+
+__all__ = ["DEPTH_UNITS", "MM_PER_INCH", "check_depth_units", "convert_depth"]
+
+#: Millimetres in one inch (exact by definition).
+MM_PER_INCH = 25.4
+DEPTH_UNITS = {"mm": 1.0, "in": MM_PER_INCH}
+
+
+def check_depth_units(units):
+    if units not in DEPTH_UNITS:
+        raise ParameterError(f"units={units!r} is not a depth unit offered here", variable="units",
+                             expected="'mm' or 'in'", fix="pass units='mm' (default) or units='in'")
+    return units
+
+
+def convert_depth(obj, units="mm"):
+    """Return ``obj`` (DataArray or Dataset) with its mm depths in ``units`` ("mm" or "in").
+
+    Variables without ``units == "mm"`` (counts, fractions, shapes) are left alone; lazy
+    data stay lazy; the input is not modified.  Converted variables get ``units`` set and
+    ``attrs["mm_per_inch"] = 25.4``.
+    """
+    check_depth_units(units)
+    if units == "mm":
+        return obj
+    factor = DEPTH_UNITS[units]
+
+    def one(da):
+        if da.attrs.get("units") != "mm":
+            return da
+        out = da / factor
+        out.attrs = {**da.attrs, "units": units, "mm_per_inch": MM_PER_INCH}
+        return out
+
+    if isinstance(obj, xr.DataArray):
+        return one(obj)
+    if isinstance(obj, xr.Dataset):
+        out = obj.copy()
+        for name in obj.data_vars:
+            out[name] = one(obj[name])
+        out.attrs = {**obj.attrs, "depth_units": units}
+        return out
+    raise ParameterError(f"cannot convert a {type(obj).__name__}", variable="obj",
+                         expected="an xarray DataArray or Dataset", fix="pass the result of a design-depth function")
