@@ -71,6 +71,13 @@ _PUBLIC = {
     "align": "climwidgets.compute.compare",
     "compare": "climwidgets.compute.compare",
     "products_basin_table": "climwidgets.compute.compare",
+    # ensembles and scenarios
+    "ensemble_summary": "climwidgets.compute.ensemble",
+    "delta_change": "climwidgets.compute.scenario",
+    "SCENARIO_CAUTIONS": "climwidgets.compute.scenario",
+    "seasonal_share_signal": "climwidgets.compute.signals",
+    "annual_normal_signal": "climwidgets.compute.signals",
+    "design_depth_signal": "climwidgets.compute.signals",
     # scale
     "use_cluster": "climwidgets.scale",
     "climatology_bundle": "climwidgets.compute.bundle",
