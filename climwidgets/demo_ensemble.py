@@ -30,8 +30,16 @@ import xarray as xr
 
 from ._version import __version__
 
-__all__ = ["MEMBERS", "CHANGE_FACTORS", "MEMBER_BIAS", "ENSEMBLE_FILES", "HISTORICAL_YEARS",
-           "FUTURE_YEARS", "write_ensemble", "ensemble_summary_json"]
+__all__ = [
+    "CHANGE_FACTORS",
+    "ENSEMBLE_FILES",
+    "FUTURE_YEARS",
+    "HISTORICAL_YEARS",
+    "MEMBERS",
+    "MEMBER_BIAS",
+    "ensemble_summary_json",
+    "write_ensemble",
+]
 
 MEMBERS = ("m1", "m2", "m3", "m4")
 HISTORICAL_YEARS = (1981, 2010)
@@ -61,7 +69,7 @@ _SEED = 31415926
 
 
 def _axis(lo, hi, res):
-    n = int(round((hi - lo) / res))
+    n = round((hi - lo) / res)
     edges = np.round(lo + res * np.arange(n + 1), 6)
     return np.round((edges[:-1] + edges[1:]) / 2, 6), np.stack([edges[:-1], edges[1:]], axis=1)
 

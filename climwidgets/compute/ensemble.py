@@ -25,7 +25,7 @@ import xarray as xr
 from ..errors import MismatchError, ParameterError
 from ..provenance import with_history
 
-__all__ = ["MEMBER_DIMS", "member_dim", "ensemble_summary", "check_members"]
+__all__ = ["MEMBER_DIMS", "check_members", "ensemble_summary", "member_dim"]
 
 # dimension names recognised as an ensemble axis, in order of preference
 MEMBER_DIMS = ("member", "realization", "ensemble", "model")

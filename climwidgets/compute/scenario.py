@@ -46,21 +46,21 @@ import numpy as np
 import scipy.stats
 import xarray as xr
 
-from ..errors import CalendarError, InputError, InsufficientDataError, MismatchError, ParameterError
+from ..errors import CalendarError, GridError, InputError, InsufficientDataError, MismatchError, ParameterError
 from ..provenance import with_history
 from ._time import check_precip, check_year_range
 from .compare import _calendar, _complete_years
 from .ensemble import MEMBER_DIMS, check_members
 
-__all__ = ["delta_change", "SCENARIO_CAUTIONS", "check_model_runs", "period_or_default"]
+__all__ = ["SCENARIO_CAUTIONS", "check_model_runs", "delta_change", "period_or_default"]
 
 SCENARIO_CAUTIONS = (
-    "Projections, not forecasts: a climate-change scenario depends on the climate models, the "
-    "emission pathway (forcing scenario) and the downscaling or adjustment method chosen.",
-    "The spread of a small ensemble understates the full range of possible futures; members "
-    "that agree are not thereby right.",
-    "Delta change keeps the observed sequence of weather and changes only monthly amounts; "
-    "quantile delta mapping keeps the model's changes in each quantile and its own sequence.",
+    ("Projections, not forecasts: a climate-change scenario depends on the climate models, the "
+     "emission pathway (forcing scenario) and the downscaling or adjustment method chosen."),
+    ("The spread of a small ensemble understates the full range of possible futures; members "
+     "that agree are not thereby right."),
+    ("Delta change keeps the observed sequence of weather and changes only monthly amounts; "
+     "quantile delta mapping keeps the model's changes in each quantile and its own sequence."),
     "For planning, defer to adopted local climate-change guidance, codes and licensed engineering practice.",
 )
 
@@ -135,7 +135,7 @@ def _check_obs(obs, func):
                              variable="obs", expected="one observed record (no member dimension)",
                              fix=f"select one observed product, e.g. obs.isel({extra[0]}=0)")
     if "lat" not in obs.coords or "lon" not in obs.coords:
-        raise MismatchError("the observations have no lat/lon coordinates", source=func, variable="obs",
+        raise GridError("the observations have no lat/lon coordinates", source=func, variable="obs",
                             expected="an observed grid with lat and lon", fix="open it with cw.open_precip")
     return step
 
@@ -324,7 +324,8 @@ def delta_change(obs: xr.DataArray, model_hist: xr.DataArray, model_future: xr.D
         ``"quantile_delta"``: quantile delta mapping of the future run (Cannon et al.
         2015), multiplicative, with the trace treatment of dry days described in the
         module notes; result on the future run's time axis.  Observations and runs must
-        share a time step.
+        share a time step; their calendars may differ (only the distributions of each
+        month's or season's values are compared).
     historical
         (first, last) years of the historical period: the baseline of the historical
         normals (monthly ratio; default all complete years of ``model_hist``) or the

@@ -24,7 +24,7 @@ from ..provenance import with_history
 from .ensemble import ensemble_summary
 from .scenario import SCENARIO_CAUTIONS, _years, check_model_runs, period_or_default
 
-__all__ = ["seasonal_share_signal", "annual_normal_signal", "design_depth_signal"]
+__all__ = ["annual_normal_signal", "design_depth_signal", "seasonal_share_signal"]
 
 
 def _periods(model_hist, model_future, historical, future, func):

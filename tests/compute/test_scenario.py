@@ -126,7 +126,7 @@ def test_quantile_delta_matches_xsdba():
     obs, hist, fut = _wet_case()
     ours = delta_change(obs, hist, fut, method="quantile_delta").compute()
     for month in (1, 2, 7, 12):  # four months keep the test quick; every month is its own mapping
-        def sel(x):
+        def sel(x, month=month):
             return x.isel(time=np.flatnonzero((x["time"].dt.month == month).values))
         ref, hst, sim = sel(obs), sel(hist), sel(fut)
         nodes = np.linspace(0.0, 1.0, sim.sizes["time"])
@@ -171,7 +171,7 @@ def test_quantile_delta_preserves_relative_change_in_each_quantile():
     fut = _smooth_sample(fut, stats.gamma(1.8, loc=1.0, scale=5.0), 3)
     adj = delta_change(obs, hist, fut, method="quantile_delta").compute()
     for month in (1, 2, 7):
-        def vals(x):
+        def vals(x, month=month):
             return np.moveaxis(x.isel(time=np.flatnonzero((x["time"].dt.month == month).values)).values,
                                x.dims.index("time"), -1)
         a, f, h, o = vals(adj), vals(fut), vals(hist), vals(obs)
@@ -219,6 +219,17 @@ def test_quantile_delta_season_groups_and_chunking():
     np.testing.assert_array_equal(lazy.compute().values, eager.values)
     assert eager.attrs["group"] == "season" and eager.sizes["time"] == fut.sizes["time"]
     assert "0.05" in eager.attrs["dry_days"] and eager.attrs["cautions"] == SCENARIO_CAUTIONS
+
+
+def test_quantile_delta_missing_values_stay_missing():
+    obs, hist, fut = _wet_case()
+    obs, fut = obs.copy(), fut.copy()
+    obs[100:160, 0, 0] = np.nan  # a gap in the observed record
+    fut[:, 40:45, 1, 0] = np.nan  # a gap in the future run
+    adj = delta_change(obs, hist, fut, method="quantile_delta").compute()
+    assert bool(adj[:, 40:45, 1, 0].isnull().all())
+    # the observed gap only shortens that cell's observed sample: no missing values follow from it
+    assert int(adj.isnull().sum()) == 2 * 5
 
 
 # ----------------------------------------------------------------------------- bad input

@@ -7,8 +7,8 @@ import pytest
 import xarray as xr
 
 from climwidgets.compute.ensemble import ensemble_summary
-from climwidgets.compute.gev import return_levels
 from climwidgets.compute.extremes import annual_maxima
+from climwidgets.compute.gev import return_levels
 from climwidgets.compute.normals import annual_normal
 from climwidgets.compute.scenario import SCENARIO_CAUTIONS
 from climwidgets.compute.seasonal import seasonal_fraction
