@@ -612,7 +612,7 @@ def generate_ensemble(directory=None, force: bool = False, quiet: bool = False, 
     out = paths["monthly"].parent
     ens = {key: out / name for key, name in _demo_ensemble.ENSEMBLE_FILES.items()}
     stale = any(not p.exists() or p.stat().st_mtime < paths["monthly"].stat().st_mtime for p in ens.values())
-    if force or stale:  # a demo folder from before the ensemble existed, or regenerated since
+    if stale:  # a demo folder from before the ensemble existed (generate() writes it otherwise)
         spec = SIZES[size]
         with xr.open_dataset(paths["monthly"]) as monthly:
             totals = monthly["pr"].values.astype(np.float64)
