@@ -263,9 +263,13 @@ def _group_ids(da, group):
     return month if group == "month" else _SEASON_OF_MONTH[month - 1]
 
 
-def _series_key(template, core):
-    """A per-series integer (position over the non-time dims), lazy-compatible and small."""
-    dims = [d for d in template.dims if d != core]
+def _cell_key(template):
+    """An integer per cell of the observed grid (its position), small and in memory.
+
+    Members share it, so a member's pseudo-random dry amounts are the same as when that
+    member is adjusted on its own.
+    """
+    dims = list(template.dims)
     key = xr.DataArray(np.int64(0))
     stride = 1
     for d in reversed(dims):
@@ -284,9 +288,7 @@ def _quantile_delta(obs, hist, fut, group, trace, max_ratio, seed, jitter):
                                     "month (season) of the future run", fix="use longer records")
     o = obs.rename(time="time_obs").drop_vars("time_obs")
     h = hist.rename(time="time_hist").drop_vars("time_hist")
-    template = xr.broadcast(o.isel(time_obs=0, drop=True), h.isel(time_hist=0, drop=True),
-                            fut.isel(time=0, drop=True))[0]
-    key = _series_key(template, None)
+    key = _cell_key(o.isel(time_obs=0, drop=True))
     if fut.chunks is not None or o.chunks is not None or h.chunks is not None:
         o, h, f = o.chunk({"time_obs": -1}), h.chunk({"time_hist": -1}), fut.chunk({"time": -1})
     else:
@@ -450,8 +452,7 @@ def delta_change(obs: xr.DataArray, model_hist: xr.DataArray, model_future: xr.D
                                    f"is below {10 * trace:g} mm"}
         params.update(historical=hist_period, group=group, trace=trace, max_ratio=max_ratio, seed=seed)
 
-    if member is not None:
-        out = out.transpose(member, "time", ...)
+    out = out.transpose(*([member] if member else []), "time", ...)
     out.name = obs.name if method == "monthly_ratio" else (model_future.name or obs.name)
     base = obs.attrs if method == "monthly_ratio" else model_future.attrs
     out.attrs = {k: v for k, v in base.items() if k != "history"}

@@ -221,6 +221,17 @@ def test_quantile_delta_season_groups_and_chunking():
     assert "0.05" in eager.attrs["dry_days"] and eager.attrs["cautions"] == SCENARIO_CAUTIONS
 
 
+@pytest.mark.parametrize("method", ["monthly_ratio", "quantile_delta"])
+def test_per_member_results_equal_per_member_computations(method):
+    obs = _series(1981, 1990, dry=0.4, seed=12)
+    hist = _series(1981, 1990, members=MEMBERS, dry=0.3, seed=13)
+    fut = _series(2041, 2050, members=MEMBERS, dry=0.5, seed=14)
+    both = delta_change(obs, hist, fut, method=method)
+    for m in MEMBERS:
+        one = delta_change(obs, hist.sel(member=m, drop=True), fut.sel(member=m, drop=True), method=method)
+        np.testing.assert_array_equal(both.sel(member=m).values, one.values)
+
+
 def test_quantile_delta_missing_values_stay_missing():
     obs, hist, fut = _wet_case()
     obs, fut = obs.copy(), fut.copy()
