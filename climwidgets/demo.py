@@ -630,7 +630,7 @@ def main(argv=None) -> int:
     parser.add_argument("--quiet", action="store_true", help="no progress messages")
     args = parser.parse_args(argv)
     paths = generate(args.dir, force=args.force, quiet=args.quiet, size=args.size)
-    paths |= generate_ensemble(args.dir, quiet=args.quiet, size=args.size)
+    generate_ensemble(args.dir, quiet=args.quiet, size=args.size)  # written, listed in demo_grids/README.md
     for key, path in paths.items():
         print(f"{key}\t{path}")
     return 0
