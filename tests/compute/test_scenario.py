@@ -232,6 +232,21 @@ def test_per_member_results_equal_per_member_computations(method):
         np.testing.assert_array_equal(both.sel(member=m).values, one.values)
 
 
+def _no_compute(*args, **kwargs):
+    raise AssertionError("the data were computed while building the lazy result")
+
+
+@pytest.mark.parametrize("method", ["monthly_ratio", "quantile_delta"])
+def test_lazy_without_computing(method):
+    dask = pytest.importorskip("dask")
+    obs = _series(1981, 1985, dry=0.4, seed=15).chunk({"time": 365})
+    hist = _series(1981, 1985, members=MEMBERS, seed=16).chunk({"time": 365})
+    fut = _series(2041, 2045, members=MEMBERS, seed=17).chunk({"time": 365})
+    with dask.config.set(scheduler=_no_compute):
+        out = delta_change(obs, hist, fut, method=method)
+    assert out.chunks is not None
+
+
 def test_quantile_delta_missing_values_stay_missing():
     obs, hist, fut = _wet_case()
     obs, fut = obs.copy(), fut.copy()

@@ -92,3 +92,17 @@ def test_single_run_and_errors():
         seasonal_share_signal(_run(1981, 1990), fut)
     with pytest.raises(CalendarError):
         annual_normal_signal(_run(1981, 1990), _run(2041, 2050, calendar="360_day"))
+
+
+def _no_compute(*args, **kwargs):
+    raise AssertionError("the data were computed while building the lazy result")
+
+
+def test_signals_are_lazy_without_computing():
+    dask = pytest.importorskip("dask")
+    hist = _run(1981, 1990, step="day", members=["m1", "m2"]).chunk({"time": 365})
+    fut = _run(2041, 2050, step="day", seed=3, members=["m1", "m2"]).chunk({"time": 365})
+    with dask.config.set(scheduler=_no_compute):
+        out = [seasonal_share_signal(hist, fut), annual_normal_signal(hist, fut),
+               design_depth_signal(hist, fut, periods=(10,), n_boot=50)]
+    assert all(ds["change_agreement"].chunks is not None for ds in out)
