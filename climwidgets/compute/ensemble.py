@@ -129,6 +129,11 @@ def ensemble_summary(field: xr.DataArray, dim=None, change=None, quantiles=(0.25
     ------
     ParameterError
         No member dimension, an unknown ``change`` kind, or bad quantiles.
+
+    References
+    ----------
+    Hyndman, R. J. and Fan, Y. (1996): Sample quantiles in statistical packages. The
+    American Statistician 50, 361–365, doi:10.1080/00031305.1996.10473566.
     """
     func = "ensemble_summary"
     if not isinstance(field, xr.DataArray):
