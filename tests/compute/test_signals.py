@@ -106,3 +106,14 @@ def test_signals_are_lazy_without_computing():
         out = [seasonal_share_signal(hist, fut), annual_normal_signal(hist, fut),
                design_depth_signal(hist, fut, periods=(10,), n_boot=50)]
     assert all(ds["change_agreement"].chunks is not None for ds in out)
+
+
+def test_signals_of_basin_series():
+    # basin tables: the signals of area-mean series (dims member, time), as cw.basin_mean gives
+    hist = _run(1981, 1990).mean(("lat", "lon")).assign_attrs(units="mm", step="month")
+    fut = _run(2041, 2050, seed=4).mean(("lat", "lon")).assign_attrs(units="mm", step="month")
+    ds = annual_normal_signal(hist, fut)
+    assert ds["change"].dims == ("member",) and ds["change_median"].dims == ()
+    expected = [annual_normal(fut.sel(member=m), baseline=(2041, 2050)).item()
+                / annual_normal(hist.sel(member=m), baseline=(1981, 1990)).item() for m in MEMBERS]
+    np.testing.assert_allclose(ds["change"].values, expected, rtol=1e-12)
