@@ -134,14 +134,27 @@ def _check_obs(obs, func):
         raise ParameterError(f"the observations have a member dimension {extra[0]!r}", source=func,
                              variable="obs", expected="one observed record (no member dimension)",
                              fix=f"select one observed product, e.g. obs.isel({extra[0]}=0)")
-    if "lat" not in obs.coords or "lon" not in obs.coords:
-        raise GridError("the observations have no lat/lon coordinates", source=func, variable="obs",
-                            expected="an observed grid with lat and lon", fix="open it with cw.open_precip")
     return step
 
 
+def _has_grid(da) -> bool:
+    return "lat" in da.coords and "lon" in da.coords
+
+
+def _check_grids(obs, model_hist, func):
+    """Gridded observations, or series (e.g. basin means) for observations and runs alike."""
+    if _has_grid(obs) != _has_grid(model_hist):
+        which = "the observations have" if not _has_grid(obs) else "the model runs have"
+        raise GridError(f"{which} no lat/lon coordinates while the other input is gridded", source=func,
+                        variable="obs" if not _has_grid(obs) else "model_hist",
+                        expected="all inputs gridded (lat/lon), or all series such as basin means",
+                        fix="open gridded data with cw.open_precip, or take cw.basin_mean of every input")
+
+
 def _same_grid(a, b) -> bool:
-    """Same lat/lon centres (and the same bounds where both carry them)."""
+    """Same lat/lon centres (and the same bounds where both carry them); series are alike."""
+    if not _has_grid(a) and not _has_grid(b):
+        return True
     for name in ("lat", "lon", "lat_lower", "lat_upper", "lon_lower", "lon_upper"):
         if name in a.coords and name in b.coords:
             x, y = np.asarray(a[name].values, dtype=float), np.asarray(b[name].values, dtype=float)
@@ -313,7 +326,9 @@ def delta_change(obs: xr.DataArray, model_hist: xr.DataArray, model_future: xr.D
     Parameters
     ----------
     obs
-        Observed precipitation, depth per step (mm), dims (time, lat, lon); no member dimension.
+        Observed precipitation, depth per step (mm), dims (time, lat, lon); no member
+        dimension.  Series without lat/lon (e.g. basin means from :func:`cw.basin_mean`)
+        are accepted when the model runs are series too.
     model_hist, model_future
         The historical and future runs (mm per step), with the same member dimension
         (``member``, ``realization``, ``ensemble`` or ``model``, or ``dim=``) or none (one
@@ -392,6 +407,7 @@ def delta_change(obs: xr.DataArray, model_hist: xr.DataArray, model_future: xr.D
                              fix="use method='monthly_ratio' (delta change) or 'quantile_delta'")
     step_obs = _check_obs(obs, func)
     member = check_model_runs(model_hist, model_future, dim, func)
+    _check_grids(obs, model_hist, func)
     fut_period = period_or_default(model_future, future, "model_future", func)
     params = dict(method=method, future=fut_period)
 
@@ -458,8 +474,8 @@ def delta_change(obs: xr.DataArray, model_hist: xr.DataArray, model_future: xr.D
     out.attrs = {k: v for k, v in base.items() if k != "history"}
     out.attrs.update(units="mm", step=base.get("step"),
                      long_name="precipitation, climate-change scenario", **attrs,
-                     grid="observed grid" + ("" if _same_grid(model_hist, obs)
-                                             else " (model runs remapped conservatively)"),
+                     grid=("series without a grid" if not _has_grid(obs) else "observed grid"
+                           + ("" if _same_grid(model_hist, obs) else " (model runs remapped conservatively)")),
                      member_dim=member or "none", cautions=SCENARIO_CAUTIONS)
     out = with_history(out, func, base, **params)
     if return_factors and method == "monthly_ratio":

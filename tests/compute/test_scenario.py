@@ -252,6 +252,24 @@ def test_lazy_without_computing(method):
     assert out.chunks is not None
 
 
+def test_basin_series():
+    # basin tables: area-mean series of observations and runs (no lat/lon) work alike
+    obs = _series(1981, 1990, calendar="standard", step="month", dry=0.0).mean(("lat", "lon"))
+    hist = _series(1981, 1990, members=MEMBERS, step="month", dry=0.0, seed=1).mean(("lat", "lon"))
+    fut = _series(2041, 2050, members=MEMBERS, step="month", dry=0.0, seed=2).mean(("lat", "lon"))
+    for da in (obs, hist, fut):
+        da.attrs.update(units="mm", step="month")
+    out, factors = delta_change(obs, hist, fut, return_factors=True)
+    assert out.dims == ("member", "time") and factors.dims == ("member", "month")
+    jan = hist["time"].dt.month == 1
+    expected = fut.where(fut["time"].dt.month == 1).mean("time") / hist.where(jan).mean("time")
+    np.testing.assert_allclose(factors.sel(month=1).values, expected.values, rtol=1e-12)
+    assert delta_change(obs, hist, fut, method="quantile_delta").dims == ("member", "time")
+    with pytest.raises(GridError, match="no lat/lon"):
+        delta_change(obs, _series(1981, 1990, members=MEMBERS, step="month"),
+                     _series(2041, 2050, members=MEMBERS, step="month"))
+
+
 def test_quantile_delta_missing_values_stay_missing():
     obs, hist, fut = _wet_case()
     obs, fut = obs.copy(), fut.copy()
