@@ -84,6 +84,13 @@ _PUBLIC = {
     "basin_table": "climwidgets.analyses.basins",
     "basin_shares": "climwidgets.analyses.basins",
     "what_if": "climwidgets.analyses.basins",
+    # ensembles and scenarios
+    "ensemble_summary": "climwidgets.compute.ensemble",
+    "delta_change": "climwidgets.compute.scenario",
+    "SCENARIO_CAUTIONS": "climwidgets.compute.scenario",
+    "seasonal_share_signal": "climwidgets.compute.signals",
+    "annual_normal_signal": "climwidgets.compute.signals",
+    "design_depth_signal": "climwidgets.compute.signals",
     # scale
     "use_cluster": "climwidgets.scale",
     "climatology_bundle": "climwidgets.compute.bundle",

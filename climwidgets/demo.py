@@ -38,6 +38,7 @@ import xarray as xr
 from scipy.ndimage import gaussian_filter
 from scipy.special import ndtr
 
+from . import demo_ensemble as _demo_ensemble
 from ._version import __version__
 from .atomic import atomic_write
 from .errors import ParameterError
@@ -53,6 +54,7 @@ __all__ = [
     "COARSE_BIAS",
     "GEV_SHAPE",
     "SIZES",
+    "generate_ensemble",
 ]
 
 DEMO_VERSION = "1"
@@ -578,10 +580,45 @@ def generate(directory=None, force: bool = False, quiet: bool = False, size: str
     _write_atomic(_elevation_ds(lat, lat_b, lon, lon_b), paths["elevation"])
     _write_atomic(_gev_ds(sim, lat_b, lon_b, y0, y1), paths["gev"])
     _write_text_atomic(json.dumps(basins_geojson(), indent=1) + "\n", paths["basins"])
+    _write_ensemble(totals, spec, lat_b, lon_b, out)
     summary = _scenario_summary(sim, totals, spec, coarse)
+    summary["ensemble"] = _demo_ensemble.ensemble_summary_json(2 * spec.coarse_res)
     _write_text_atomic(json.dumps(summary, indent=1) + "\n", paths["scenario"])
     say(f"climwidgets.demo: wrote {len(paths)} files to {out} in {_time.perf_counter() - t0:.1f} s")
     return paths
+
+
+def _write_ensemble(totals, spec: _Size, lat_b, lon_b, out: Path) -> dict[str, Path]:
+    """The invented ensemble (see :mod:`climwidgets.demo_ensemble`) on a grid twice as coarse
+    as the second product's, written next to the other demo files."""
+    paths = {key: out / name for key, name in _demo_ensemble.ENSEMBLE_FILES.items()}
+    _demo_ensemble.write_ensemble(
+        totals, spec.years, lat_b, lon_b, 2 * spec.coarse_res, LAT_RANGE, LON_RANGE, _attrs(""), paths,
+        lambda ds, path: _write_atomic(ds, path, calendar="noleap"))
+    return paths
+
+
+def generate_ensemble(directory=None, force: bool = False, quiet: bool = False, size: str = "full") -> dict[str, Path]:
+    """The demo ensemble files (historical and future runs, four members), generating the demo if needed.
+
+    Returns
+    -------
+    dict
+        Keys ``ensemble_historical``, ``ensemble_future`` → paths.  Both hold
+        ``pr(member, time, lat, lon)``, monthly totals in mm on a ``noleap`` calendar; the
+        future file also holds the known ``change_factor(member, month)``.
+    """
+    paths = generate(directory, force=force, quiet=quiet, size=size)
+    out = paths["monthly"].parent
+    ens = {key: out / name for key, name in _demo_ensemble.ENSEMBLE_FILES.items()}
+    stale = any(not p.exists() or p.stat().st_mtime < paths["monthly"].stat().st_mtime for p in ens.values())
+    if stale:  # a demo folder from before the ensemble existed (generate() writes it otherwise)
+        spec = SIZES[size]
+        with xr.open_dataset(paths["monthly"]) as monthly:
+            totals = monthly["pr"].values.astype(np.float64)
+            lat_b, lon_b = monthly["lat_bnds"].values, monthly["lon_bnds"].values
+        _write_ensemble(totals, spec, lat_b, lon_b, out)
+    return ens
 
 
 def main(argv=None) -> int:
@@ -593,6 +630,7 @@ def main(argv=None) -> int:
     parser.add_argument("--quiet", action="store_true", help="no progress messages")
     args = parser.parse_args(argv)
     paths = generate(args.dir, force=args.force, quiet=args.quiet, size=args.size)
+    generate_ensemble(args.dir, quiet=args.quiet, size=args.size)  # written, listed in demo_grids/README.md
     for key, path in paths.items():
         print(f"{key}\t{path}")
     return 0

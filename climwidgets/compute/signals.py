@@ -1,0 +1,157 @@
+"""Climate-change signals of a model ensemble, per member, with the ensemble's spread and agreement.
+
+Each function compares a historical and a future run of the same members, cell by cell:
+
+* :func:`seasonal_share_signal` — future minus historical seasonal share (units "1");
+* :func:`annual_normal_signal` — future / historical annual normal (ratio, units "1");
+* :func:`design_depth_signal` — future / historical T-year depth of n-day annual maxima
+  (ratio, units "1"), from :func:`cw.return_levels`.
+
+Every result is a Dataset with ``historical``, ``future`` and ``change`` per member, and
+the ensemble summary of ``change`` (:func:`cw.ensemble_summary`) as ``change_mean``,
+``change_median``, ``change_min``, ``change_max``, ``change_range``,
+``change_lower_quartile``, ``change_upper_quartile``, ``change_iqr``, ``change_std``,
+``change_n_members`` and ``change_agreement`` (share of members agreeing with the sign
+of the ensemble-median change).  Single runs (no member dimension) give the per-run
+variables only.  Each period is the run's complete calendar years unless given.
+"""
+
+from __future__ import annotations
+
+import xarray as xr
+
+from ..provenance import with_history
+from .ensemble import ensemble_summary
+from .scenario import SCENARIO_CAUTIONS, _years, check_model_runs, period_or_default
+
+__all__ = ["annual_normal_signal", "design_depth_signal", "seasonal_share_signal"]
+
+
+def _periods(model_hist, model_future, historical, future, func):
+    return (period_or_default(model_hist, historical, "model_hist", func),
+            period_or_default(model_future, future, "model_future", func))
+
+
+def _signal(hist_value, fut_value, change, kind, member, func, attrs, cautions, source_attrs, **params):
+    ds = xr.Dataset({"historical": hist_value, "future": fut_value, "change": change})
+    if member is not None:
+        summary = ensemble_summary(change, dim=member, change=kind)
+        for name, var in summary.data_vars.items():
+            ds[f"change_{name}"] = var
+    else:
+        attrs = dict(attrs, ensemble="single run: no member dimension, so no ensemble spread or agreement")
+    ds.attrs = dict(attrs, change_kind=kind, member_dim=member or "none", cautions=cautions)
+    return with_history(ds, func, source_attrs, **params)
+
+
+def _strip(da):
+    return da.drop_vars([c for c in da.coords if c not in da.dims])
+
+
+def seasonal_share_signal(model_hist, model_future, months=(7, 8), historical=None, future=None, dim=None,
+                          year_start: int = 1) -> xr.Dataset:
+    """Change in the seasonal share of the annual total: future minus historical, per member.
+
+    Parameters
+    ----------
+    model_hist, model_future
+        Historical and future runs, mm per step, with the same members and calendar.
+    months
+        The season, e.g. (7, 8) or (11, 12, 1, 2, 3).
+    historical, future
+        (first, last) calendar years of each period; default all complete years.
+    dim
+        Member dimension name when it is not one of the usual names.
+    year_start
+        First month of the 12-month year (see :func:`cw.seasonal_fraction`).
+
+    Returns
+    -------
+    xarray.Dataset
+        ``historical``, ``future`` (shares, ratio of sums over the period) and ``change``
+        (difference, units "1") per member, plus the ensemble summary of ``change``.
+    """
+    from .seasonal import seasonal_fraction
+
+    func = "seasonal_share_signal"
+    member = check_model_runs(model_hist, model_future, dim, func)
+    ph, pf = _periods(model_hist, model_future, historical, future, func)
+    sh = _strip(seasonal_fraction(_years(model_hist, *ph), months, year_start=year_start))
+    sf = _strip(seasonal_fraction(_years(model_future, *pf), months, year_start=year_start))
+    change = (sf - sh).assign_attrs(units="1", long_name=f"change in {sh.attrs.get('long_name', 'seasonal share')}"
+                                                         " (future − historical)")
+    attrs = {"signal": "seasonal share, future minus historical", "season_months": list(months),
+             "historical_period": list(ph), "future_period": list(pf)}
+    return _signal(sh, sf, change, "difference", member, func, attrs, SCENARIO_CAUTIONS, model_hist.attrs,
+                   months=tuple(months), historical=ph, future=pf)
+
+
+def annual_normal_signal(model_hist, model_future, historical=None, future=None, dim=None,
+                         min_fraction: float = 0.8) -> xr.Dataset:
+    """Ratio of annual normals, future / historical, per member.
+
+    The annual normal is the sum of the 12 monthly normals (:func:`cw.annual_normal`, WMO
+    completeness rule) over each run's period.
+
+    Returns
+    -------
+    xarray.Dataset
+        ``historical``, ``future`` (mm) and ``change`` (ratio future / historical, units
+        "1", NaN where the historical normal is 0) per member, plus the ensemble summary
+        of ``change`` (agreement on the sign of ratio − 1).
+    """
+    from .normals import annual_normal
+
+    func = "annual_normal_signal"
+    member = check_model_runs(model_hist, model_future, dim, func)
+    ph, pf = _periods(model_hist, model_future, historical, future, func)
+    nh = _strip(annual_normal(model_hist, baseline=ph, min_fraction=min_fraction))
+    nf = _strip(annual_normal(model_future, baseline=pf, min_fraction=min_fraction))
+    change = (nf / nh.where(nh > 0)).assign_attrs(units="1", long_name="ratio of annual normals (future / historical)")
+    attrs = {"signal": "annual normal, future / historical", "historical_period": list(ph),
+             "future_period": list(pf), "min_fraction": float(min_fraction)}
+    return _signal(nh, nf, change, "ratio", member, func, attrs, SCENARIO_CAUTIONS, model_hist.attrs,
+                   historical=ph, future=pf, min_fraction=min_fraction)
+
+
+def design_depth_signal(model_hist, model_future, periods=(2, 10, 25, 50, 100), duration_days: int = 1,
+                        historical=None, future=None, dim=None, n_boot: int = 200, ci: float = 0.9,
+                        seed: int = 0) -> xr.Dataset:
+    """Ratio of design depths (T-year n-day depths), future / historical, per member.
+
+    Annual maxima of ``duration_days`` running totals (:func:`cw.annual_maxima`, daily or
+    hourly runs) of each period are fitted by L-moments and their return levels taken
+    (:func:`cw.return_levels`); the change is the ratio of the estimates.
+
+    Returns
+    -------
+    xarray.Dataset
+        ``historical``, ``future`` (return-level estimates, mm, over ``period``) and
+        ``change`` (ratio, units "1") per member, plus the ensemble summary of ``change``.
+        ``historical_lower``/``historical_upper`` and ``future_lower``/``future_upper`` are
+        the bootstrap intervals of each fit.  ``attrs["cautions"]`` adds the design-depth
+        cautions to the scenario cautions.
+    """
+    from .extremes import annual_maxima
+    from .gev import return_levels
+    from .warming import DESIGN_DEPTH_CAUTIONS
+
+    func = "design_depth_signal"
+    member = check_model_runs(model_hist, model_future, dim, func)
+    ph, pf = _periods(model_hist, model_future, historical, future, func)
+    fits = []
+    for run, (first, last) in ((model_hist, ph), (model_future, pf)):
+        am = annual_maxima(_years(run, first, last), duration_days=duration_days)
+        fits.append(return_levels(am, periods=periods, ci=ci, n_boot=n_boot, seed=seed))
+    rh, rf = fits
+    eh, ef = _strip(rh["estimate"]), _strip(rf["estimate"])
+    change = (ef / eh.where(eh > 0)).assign_attrs(
+        units="1", long_name=f"ratio of {duration_days}-day design depths (future / historical)")
+    attrs = {"signal": f"{duration_days}-day design depth (return level), future / historical",
+             "historical_period": list(ph), "future_period": list(pf), "ci": float(ci), "n_boot": int(n_boot)}
+    ds = _signal(eh, ef, change, "ratio", member, func, attrs, SCENARIO_CAUTIONS + tuple(DESIGN_DEPTH_CAUTIONS),
+                 model_hist.attrs, periods=tuple(periods), duration_days=duration_days, historical=ph, future=pf)
+    for prefix, fit in (("historical", rh), ("future", rf)):
+        for bound in ("lower", "upper"):
+            ds[f"{prefix}_{bound}"] = _strip(fit[bound])
+    return ds
