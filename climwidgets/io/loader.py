@@ -20,6 +20,7 @@ import math
 import os
 
 import dask.base
+from dask.base import is_dask_collection
 import numpy as np
 import xarray as xr
 
@@ -28,7 +29,8 @@ from ..provenance import with_history
 from . import grid as gridmod
 from . import timeaxis
 from .chunkreader import backend_reader, direct_reader
-from .sources import open_raw, resolve
+from .projected import attach_latlon
+from .sources import is_zarr, open_raw, resolve, source_label
 from .units import UnitInfo, length_to_metres, parse_units
 
 PRECIP_STANDARD_NAMES = (
@@ -123,7 +125,7 @@ def _decode_time(ds: xr.Dataset, tname: str, source) -> tuple[xr.DataArray, xr.D
     raw = tvar.values
     if np.issubdtype(np.asarray(raw).dtype, np.number):
         timeaxis.check_monotonic(raw, source=source)
-    bname = tvar.attrs.get("bounds")
+    bname = tvar.attrs.get("bounds") or tvar.encoding.get("bounds")
     keep = [tname] + ([bname] if bname in ds.variables else [])
     small = xr.Dataset({n: ds[n].variable for n in keep if n != tname}, coords={tname: tvar.variable})
     units = str(tvar.attrs.get("units", "")).strip()
@@ -146,19 +148,18 @@ def _decode_time(ds: xr.Dataset, tname: str, source) -> tuple[xr.DataArray, xr.D
                             variable=tname, expected="CF time units such as 'days since 1990-01-01'",
                             fix="set the time variable's units and calendar attributes") from None
     bounds = decoded[bname] if bname in decoded else None
+    if not np.issubdtype(np.asarray(raw).dtype, np.number):  # given decoded (xarray objects)
+        timeaxis.check_monotonic(decoded[tname].values, source=source)
     return decoded[tname], bounds
 
 
-def _user_plan(plan: dict, chunks: dict, da, ds, tname, latn, lonn) -> dict:
+def _user_plan(plan: dict, chunks: dict, da, ds, tname, spatial) -> dict:
     """Apply chunk sizes given with house names (time, lat, lon, y, x) to the file's own dims."""
     names = {}
     if tname:
         names["time"] = ds[tname].dims[0]
-    lat, lon = ds[latn], ds[lonn]
-    if lat.ndim == 1:
-        names["lat"], names["lon"] = lat.dims[0], lon.dims[0]
-    else:
-        names["y"], names["x"] = lat.dims
+    names["lat"] = names["y"] = spatial[0]
+    names["lon"] = names["x"] = spatial[-1]
     for key, size in chunks.items():
         dim = names.get(key, key)
         if dim in plan:
@@ -184,77 +185,140 @@ def _check_packing(da: xr.DataArray, source, name) -> None:
                                      expected=f"a finite {key}", fix=f"correct the {key} attribute in a copy of the file")
 
 
-def _open_part(path, var, kind, chunks="auto"):
-    """One file: choose the variable, decode time, find lat/lon, normalise the grid."""
-    ds = open_raw(path)
-    sn, names = (PRECIP_STANDARD_NAMES, PRECIP_NAMES) if kind == "precipitation" else (ELEVATION_STANDARD_NAMES, ELEVATION_NAMES)
-    name = _choose_variable(ds, var, path, sn, names, kind)
-    da = ds[name]
-    _check_packing(da, path, name)
-    tname = gridmod.find_coord(ds, da, "time")
+MEMBER_DIMS = ("member", "realization", "ensemble", "model")  # extra dims kept as they are
+
+
+def _spatial_names(ds, da, name, source):
+    """``(latn, lonn, projected)``: lat/lon variables, or a projected (x, y, grid_mapping)."""
     latn, lonn = gridmod.find_coord(ds, da, "lat"), gridmod.find_coord(ds, da, "lon")
-    if latn is None or lonn is None:
-        raise GridError("has no latitude/longitude coordinates", source=path, variable=name,
-                        expected="lat and lon coordinate variables (CF units degrees_north/degrees_east)",
-                        fix="add lat/lon coordinates; projected grids need 2-D lat(y, x) and lon(y, x) variables")
-    info = {"name": name, "path": path, "attrs": dict(da.attrs)}
-    if kind == "precipitation" and tname is None:
-        raise TimeAxisError("has no time coordinate", source=path, variable=name,
-                            expected="a CF time coordinate", fix="open a file that has a time axis")
-    spatial = [d for d in ds[latn].dims] + [d for d in ds[lonn].dims if d not in ds[latn].dims]
-    extra = [d for d in da.dims if d not in spatial and (tname is None or d not in ds[tname].dims)]
+    if latn is not None and lonn is not None:
+        return latn, lonn, None
+    projected = gridmod.find_projected(ds, da)
+    if projected is None:
+        raise GridError("has no latitude/longitude coordinates", source=source, variable=name,
+                        expected="lat and lon coordinate variables (CF units degrees_north/degrees_east), or "
+                                 "projected x/y coordinates with a CF grid_mapping",
+                        fix="add lat/lon coordinates, or the grid_mapping attribute and its variable; "
+                            "projected grids may instead carry 2-D lat(y, x) and lon(y, x) variables")
+    return None, None, projected
+
+
+def _extra_dims(da, spatial, time_dims, source, name):
+    """Dims beyond time and space: members kept, other singletons dropped, the rest refused."""
+    extra = [d for d in da.dims if d not in spatial and d not in time_dims]
+    members = [d for d in extra if d in MEMBER_DIMS and da.sizes[d] > 1]
     for d in extra:
-        if da.sizes[d] != 1:
-            raise GridError(f"has an extra dimension '{d}' of length {da.sizes[d]}", source=path, variable=name,
-                            expected="dimensions time, lat, lon (singleton extras are dropped)",
-                            fix=f"select one {d} first, e.g. xr.open_dataset(path)['{name}'].isel({d}=0)")
-    plan = _chunk_plan(da.variable, da.dims, ds[tname].dims[0] if tname else None)
-    if isinstance(chunks, dict):
-        plan = _user_plan(plan, chunks, da, ds, tname, latn, lonn)
-    info["encoding"] = dict(da.encoding)
-    # a token from the file's identity (path, size, mtime), so reopening an unchanged file
-    # gives the same dask names and caches keyed on them are hit
-    stat = os.stat(path) if os.path.exists(path) else None
-    ident = dask.base.tokenize(path, name, plan, stat.st_size if stat else None, stat.st_mtime_ns if stat else None)
+        if d not in members and da.sizes[d] != 1:
+            raise GridError(f"has an extra dimension '{d}' of length {da.sizes[d]}", source=source, variable=name,
+                            expected="dimensions time, lat, lon, with ensemble members on one of "
+                                     f"{', '.join(MEMBER_DIMS)} (singleton extras are dropped)",
+                            fix=f"select one {d} first, e.g. ds['{name}'].isel({d}=0), or rename it to 'member' "
+                                f"if it holds ensemble members (ds.rename({d}='member'))")
+    return [d for d in extra if d not in members], members
+
+
+def _file_data(da, path, name, plan, ident, dims):
+    """A dask array that reads the file's chunks (directly where the codec allows)."""
     direct = None
     if DIRECT_CHUNK_READS and "_Unsigned" not in da.encoding and "_Unsigned" not in da.attrs:
-        direct = direct_reader(path, name, da.encoding, tuple(plan[d] for d in da.dims),
+        direct = direct_reader(path, name, da.encoding, tuple(plan[d] for d in dims),
                                name=f"open_precip-{name}-direct-{ident}")
     if direct is not None:
-        da = xr.DataArray(direct, dims=da.dims, coords=da.coords, attrs=da.attrs)
-        da = da.isel({d: 0 for d in extra}, drop=True)
+        return direct, "direct chunk reads (parallel decompression)"
+    data = backend_reader(da.variable, path, name, tuple(plan[d] for d in dims), name=f"open_precip-{name}-{ident}")
+    return data, "xarray netCDF4 backend"
+
+
+def _object_data(da, plan):
+    """A dask array over an in-memory or lazily backed variable (dask input kept as it is)."""
+    if is_dask_collection(da.data):
+        return da.data, "the given dask array"
+    return da.chunk({d: plan[d] for d in da.dims}).data, "xarray (in-memory object or fsspec store)"
+
+
+def _open_part(path, var, kind, chunks="auto"):
+    """One file or store: open it lazily, then lay it out (see _layout)."""
+    ds = open_raw(path)
+    local = isinstance(path, str) and os.path.exists(path) and not is_zarr(path)
+    return _layout(ds, var, kind, chunks, source_label(path), path if local else None)
+
+
+def _open_object(obj, var, kind, chunks="auto"):
+    """An xr.Dataset or xr.DataArray given by the user (never modified: a shallow copy is used)."""
+    if isinstance(obj, xr.DataArray):
+        name = obj.name if obj.name is not None and obj.name not in obj.coords else "__data__"
+        ds = obj.to_dataset(name=name)
+        var = name if var is None else var
     else:
-        da = da.isel({d: 0 for d in extra}, drop=True)
-        data = backend_reader(da.variable, path, name, tuple(plan[d] for d in da.dims),
-                              name=f"open_precip-{name}-{ident}")
-        da = xr.DataArray(data, dims=da.dims, coords=da.coords, attrs=da.attrs)
-    info["reader"] = "direct chunk reads (parallel decompression)" if direct is not None else "xarray netCDF4 backend"
+        ds = obj.copy(deep=False)
+    return _layout(ds, var, kind, chunks, source_label(obj), None)
+
+
+def _layout(ds, var, kind, chunks, where, path):
+    """Choose the variable, decode time, find lat/lon (or derive them), normalise the grid."""
+    sn, names = (PRECIP_STANDARD_NAMES, PRECIP_NAMES) if kind == "precipitation" else (ELEVATION_STANDARD_NAMES, ELEVATION_NAMES)
+    name = _choose_variable(ds, var, where, sn, names, kind)
+    da = ds[name]
+    _check_packing(da, where, name)
+    tname = gridmod.find_coord(ds, da, "time")
+    latn, lonn, projected = _spatial_names(ds, da, name, where)
+    info = {"name": name, "path": where, "attrs": dict(da.attrs)}
+    if kind == "precipitation" and tname is None:
+        raise TimeAxisError("has no time coordinate", source=where, variable=name,
+                            expected="a CF time coordinate", fix="open a file that has a time axis")
+    if projected is None:
+        spatial = list(ds[latn].dims) + [d for d in ds[lonn].dims if d not in ds[latn].dims]
+    else:
+        spatial = [ds[projected[1]].dims[0], ds[projected[0]].dims[0]]
+    drop, members = _extra_dims(da, spatial, ds[tname].dims if tname else (), where, name)
+    plan = _chunk_plan(da.variable, da.dims, ds[tname].dims[0] if tname else None)
+    if isinstance(chunks, dict):
+        plan = _user_plan(plan, chunks, da, ds, tname, spatial)
+    info["encoding"] = dict(da.encoding)
+    if path is not None:
+        # a token from the file's identity (path, size, mtime), so reopening an unchanged file
+        # gives the same dask names and caches keyed on them are hit
+        stat = os.stat(path)
+        ident = dask.base.tokenize(path, name, plan, stat.st_size, stat.st_mtime_ns)
+        data, info["reader"] = _file_data(da, path, name, plan, ident, da.dims)
+    else:
+        data, info["reader"] = _object_data(da, plan)
+    da = xr.DataArray(data, dims=da.dims, coords=da.coords, attrs=dict(da.attrs))
+    da = da.isel({d: 0 for d in drop}, drop=True)
+    member_coords = {d: ds[d].variable for d in members if d in ds.variables}
     da = da.reset_coords(drop=True)
+    if member_coords:
+        da = da.assign_coords(member_coords)
     if tname is not None:
-        time, tb = _decode_time(ds, tname, path)
+        time, tb = _decode_time(ds, tname, where)
         tdim = ds[tname].dims[0]
         da = da.rename({tdim: "time"}).assign_coords(time=("time", time.values, {"standard_name": "time"}))
         info["time_bounds"] = tb
         info["calendar"] = timeaxis.calendar_of(da["time"])
-    lat, lon = ds[latn], ds[lonn]
-    if lat.ndim == 1 and lon.ndim == 1:
+    head = members + (["time"] if "time" in da.dims else [])
+    if projected is not None:
+        da = attach_latlon(da, ds, *projected, source=where)
+        da.attrs["cell_bounds"] = "cell corners from the grid mapping (pyproj) at the projected cell edges"
+        da = da.transpose(*head, "y", "x")
+    elif ds[latn].ndim == 1 and ds[lonn].ndim == 1:
+        lat, lon = ds[latn], ds[lonn]
         da = da.rename({lat.dims[0]: "lat", lon.dims[0]: "lon"})
         da = da.assign_coords(lat=("lat", lat.values, dict(lat.attrs)), lon=("lon", lon.values, dict(lon.attrs)))
         edges = []
         for c in (lat, lon):
             b = c.attrs.get("bounds")
             edges.append(gridmod.bounds_to_edges(ds[b].values, c.values) if b in ds.variables else None)
-        da = gridmod.normalise_rectilinear(da, edges[0], edges[1], source=path)
-        order = ["time", "lat", "lon"] if "time" in da.dims else ["lat", "lon"]
-        da = da.transpose(*order)
-    elif lat.ndim == 2 and lon.ndim == 2:
+        da = gridmod.normalise_rectilinear(da, edges[0], edges[1], source=where)
+        da = da.transpose(*head, "lat", "lon")
+    elif ds[latn].ndim == 2 and ds[lonn].ndim == 2:
+        lat, lon = ds[latn], ds[lonn]
         ydim, xdim = lat.dims
         da = da.rename({ydim: "y", xdim: "x"})
         da = da.assign_coords(lat=(("y", "x"), lat.values, dict(lat.attrs)), lon=(("y", "x"), lon.values, dict(lon.attrs)))
         da.attrs["cell_bounds"] = "inferred from cell centres"
-        da = da.transpose(*(["time"] if "time" in da.dims else []), "y", "x")
+        da = da.transpose(*head, "y", "x")
     else:
-        raise GridError("has latitude and longitude of different shapes", source=path, variable=f"{latn}/{lonn}",
+        raise GridError("has latitude and longitude of different shapes", source=where, variable=f"{latn}/{lonn}",
                         expected="both 1-D (rectilinear) or both 2-D (curvilinear)", fix="repair the coordinates")
     info["grid"] = (da["lat"].values, da["lon"].values)
     return da, info
@@ -371,7 +435,9 @@ def open_precip(source, var=None, chunks="auto", validate="auto") -> xr.DataArra
     ----------
     source
         A NetCDF path, a glob pattern, a list of paths (combined along time), an OPeNDAP
-        URL, or a Zarr store.
+        URL, a Zarr store, an fsspec URL (``file://``, ``memory://``; ``s3://`` and
+        ``gs://`` with the ``cloud`` extra) or mapper, or an ``xr.Dataset`` /
+        ``xr.DataArray`` (numpy- or dask-backed) already in hand.
     var
         Variable name; by default the variable is found by its CF standard_name, else by
         precipitation-like units, else by a conventional name (pr, precip, tp, …).
@@ -383,21 +449,49 @@ def open_precip(source, var=None, chunks="auto", validate="auto") -> xr.DataArra
         20 million values and chunk by chunk as data are read for larger ones; True always
         checks at open (reads the data once); False only guards chunks as they are read.
 
-    Time stamps are taken as the start of each step. Hourly or daily files whose CF time
-    bounds show the stamp at the end of the step are relabelled to the start
-    (``attrs["time_labels"]`` says so); without bounds the two cannot be told apart.
+    Time stamps are taken as the start of each step. Files whose CF time bounds show the
+    stamp at the end of the step (hourly accumulations, monthly means stamped at the next
+    month's first instant) are relabelled to the start (``attrs["time_labels"]`` says so);
+    without bounds the two cannot be told apart.
+
+    Any regular step that divides a day, or a calendar month, is accepted.  Sub-hourly steps
+    (1 to 30 minutes) are summed to hourly totals on open, an hour with any missing step
+    being missing (``attrs["native_step"]`` keeps the original); n-hourly steps (2, 3, 4, 6,
+    8, 12 hours) are kept as ``"3hour"`` and so on.  Rates are multiplied by the exact step.
+
+    Variables and coordinates are found the CF way (standard_name, axis, units, as
+    cf-xarray reads them), so ``latitude``/``longitude``, ``valid_time`` and similar names
+    arrive as time/lat/lon.  Ensemble dimensions (``member``, ``realization``,
+    ``ensemble``, ``model``) are kept, in front of time.  A grid with only projected x/y
+    and a CF ``grid_mapping`` gets 2-D lat/lon from the mapping (pyproj) and is curvilinear.
+
+    Raises
+    ------
+    climwidgets.InputError
+        A subclass naming the source, the variable, what was expected and the fix, for
+        anything the checks refuse (units, time axis, grid, values, missing files).
 
     Returns
     -------
-    xr.DataArray with dims (time, lat, lon) or (time, y, x), ``units="mm"``, ``step`` in
-    {"hour", "day", "month"}, and the original units, conversion and sources in attrs.
+    xr.DataArray with dims ([member,] time, lat, lon) or ([member,] time, y, x),
+    ``units="mm"``, ``step`` in {"hour", "2hour" … "12hour", "day", "month"}, and the
+    original units, conversion and sources in attrs.  The input (file or object) is never
+    modified.
     """
-    sources = resolve(source)
-    parts = [_open_part(p, var, "precipitation", chunks) for p in sources]
+    if isinstance(source, (xr.Dataset, xr.DataArray)):
+        sources = [source_label(source)]
+        parts = [_open_object(source, var, "precipitation", chunks)]
+    else:
+        resolved = resolve(source)
+        sources = [source_label(p) for p in resolved]
+        parts = [_open_part(p, var, "precipitation", chunks) for p in resolved]
     da, tbounds = _combine(parts, sources)
     info = parts[0][1]
     name, attrs = info["name"], info["attrs"]
     where = sources[0] if len(sources) == 1 else f"{sources[0]} (+{len(sources) - 1} more)"
+    stamps, label_note = timeaxis.start_labels(da["time"], tbounds)
+    if label_note:  # before the step lengths are taken, so each step gets its own month's length
+        da = da.assign_coords(time=("time", stamps, da["time"].attrs))
     step = timeaxis.infer_step(da["time"], tbounds, source=where)
     units = parse_units(attrs.get("units"), source=where, variable=name)
     mask_fill = _needs_fill_heuristics(info["encoding"], attrs)
@@ -415,16 +509,10 @@ def open_precip(source, var=None, chunks="auto", validate="auto") -> xr.DataArra
         da = da.where(~(da < 0), 0.0)  # tiny negatives within tolerance
     if step == "month":
         da = da.assign_coords(time=timeaxis.month_starts(da["time"]))
-    label_note = None
-    if step in ("hour", "day") and tbounds is not None and tbounds.shape == (da.sizes["time"], 2):
-        # Sums are attributed by the time stamp, taken as the start of each step. Files that
-        # stamp the end of the interval (common for hourly accumulations) say so in their
-        # CF time bounds: relabel those to the interval start, so that no hour or day is
-        # counted in the next month or year.
-        lower, upper = tbounds.values[:, 0], tbounds.values[:, 1]
-        if np.all(da["time"].values == upper) and not np.all(da["time"].values == lower):
-            da = da.assign_coords(time=("time", lower, da["time"].attrs))
-            label_note = "time stamps marked the end of each step (time bounds); relabelled to the start"
+    native_step = step
+    if timeaxis.is_subhourly(step):
+        da = timeaxis.sum_to_hours(da, step)  # missing steps make the hour missing
+        step = "hour"
     full = timeaxis.full_axis(da["time"], step)
     gaps = len(full) - da.sizes["time"]
     if gaps > 0 and not da["time"].to_index().isin(full).all():
@@ -451,6 +539,10 @@ def open_precip(source, var=None, chunks="auto", validate="auto") -> xr.DataArra
         out_attrs["missing_value_heuristics"] = fill_note
     if label_note:
         out_attrs["time_labels"] = label_note
+    if native_step != step:
+        out_attrs["native_step"] = native_step
+        out_attrs["conversion"] += (f"; {native_step} steps summed to hourly totals "
+                                    "(an hour with any missing step is missing)")
     da.attrs = out_attrs
     da.name = "pr"
     return with_history(da, "open_precip", None, source=where, var=name)
