@@ -5,7 +5,8 @@ through the same checks, so a basin that exists is valid:
 
 * each ring has at least 3 distinct vertices, all finite, with |lat| ≤ 90;
 * a ring whose consecutive vertices jump by more than 180° of longitude is taken to cross
-  the antimeridian: it is unwrapped, and the polygon is split into parts inside
+  the antimeridian (an edge of exactly 360°, from -180 to 180, is an edge along a parallel
+  or the pole, as whole-globe and polar-cap outlines are drawn): it is unwrapped, and the polygon is split into parts inside
   [-180, 180) (a MultiPolygon).  Longitudes given in [0, 360) are moved the same way;
 * a self-intersecting ring is repaired with ``shapely.make_valid`` only when the repair
   keeps ≥ 99.9 % of its area in one polygon (a tiny loop where a vertex was clicked twice);
@@ -29,6 +30,26 @@ from ..atomic import atomic_write_file
 from ..errors import BasinError, SourceError
 
 __all__ = ["Basin", "write_geojson"]
+
+_WGS84_A, _WGS84_F = 6_378_137.0, 1 / 298.257223563  # WGS84 semi-major axis (m) and flattening
+_WGS84_E = np.sqrt(_WGS84_F * (2 - _WGS84_F))
+
+
+def _q(phi):
+    """The authalic function q(φ) of the WGS84 ellipsoid (Snyder 1987, Map Projections — A
+    Working Manual, USGS Professional Paper 1395, eq. 3-12), https://doi.org/10.3133/pp1395."""
+    e, sin = _WGS84_E, np.sin(phi)
+    return (1 - e**2) * (sin / (1 - (e * sin) ** 2) - np.log((1 - e * sin) / (1 + e * sin)) / (2 * e))
+
+
+_Q_POLE = float(_q(np.pi / 2))
+_WGS84_AUTHALIC_RADIUS = _WGS84_A * np.sqrt(_Q_POLE / 2)  # Snyder (1987) eq. 3-13: 6 371 007.18 m
+
+
+def _authalic_latitude(lat_deg):
+    """Authalic latitude (degrees), Snyder (1987) eq. 3-11: β = asin(q(φ) / q_p)."""
+    return np.degrees(np.arcsin(np.clip(_q(np.radians(lat_deg)) / _Q_POLE, -1.0, 1.0)))
+
 
 _REPAIR_KEEP = 0.999  # share of the area a self-intersection repair must keep in one polygon
 
@@ -60,9 +81,18 @@ def _clean_ring(coords, name) -> np.ndarray:
     if len(distinct) < 3:
         raise _err(f"a ring has {len(distinct)} distinct vertices", name,
                    "draw at least three corners", expected="at least 3 distinct vertices")
-    # Unwrap: consecutive vertices more than 180° apart cross the antimeridian.
-    ring[:, 0] = np.unwrap(ring[:, 0], period=360.0)
+    ring[:, 0] = _unwrap_lon(ring[:, 0])
     return ring
+
+
+def _unwrap_lon(lon: np.ndarray) -> np.ndarray:
+    """Consecutive vertices more than 180° apart cross the antimeridian, and are unwrapped;
+    an edge of exactly 360° (from -180 to 180, as whole-globe and polar-cap outlines are
+    drawn in GeoJSON) is a straight lon/lat edge and is kept as given."""
+    step = np.diff(lon)
+    full = np.isclose(np.abs(step), 360.0, rtol=0.0, atol=1e-9)
+    jump = np.where((np.abs(step) > 180.0) & ~full, -360.0 * np.round(step / 360.0), 0.0)
+    return lon + np.concatenate([[0.0], np.cumsum(jump)])
 
 
 def _split_antimeridian(geom):
@@ -294,16 +324,20 @@ class Basin:
 
     @cached_property
     def area_m2(self) -> float:
-        """Geodesic area on the WGS84 ellipsoid (pyproj.Geod), edges densified to ≤ 0.01°.
+        """Area on the WGS84 ellipsoid of the region inside the straight lon/lat edges.
 
-        Densifying keeps the straight lon/lat edges (rather than geodesics between
-        vertices) to about 1e-8 relative.
+        Latitudes are mapped to authalic latitudes, on which the ellipsoid's area element
+        is that of a sphere of the authalic radius, and the ring integral of
+        :func:`~climwidgets.geo.area.ring_area` is taken on edges densified to ≤ 0.01°
+        (an edge straight in lon/lat is not straight in authalic latitude).  Unlike a
+        geodesic polygon area this also holds for edges along a pole or a whole parallel
+        (whole-globe and polar-cap outlines).
         """
-        from pyproj import Geod
+        from .area import lonlat_polygon_area
 
         dense = shapely.segmentize(self._geometry, max_segment_length=0.01)
-        area, _ = Geod(ellps="WGS84").geometry_area_perimeter(dense)
-        return abs(float(area))
+        authalic = shapely.transform(dense, lambda xy: np.column_stack([xy[:, 0], _authalic_latitude(xy[:, 1])]))
+        return lonlat_polygon_area(authalic, radius=_WGS84_AUTHALIC_RADIUS)
 
     @cached_property
     def token(self) -> str:
