@@ -191,6 +191,8 @@ def sum_to_hours(da: xr.DataArray, step: str) -> xr.DataArray:
         raise TimeAxisError(f"has {step} stamps that are not whole multiples of the step after the hour",
                             variable="time", expected=f"stamps at regular {step} steps from the hour",
                             fix="resample to hourly totals before opening")
-    out = da.reindex(time=full).coarsen(time=k, boundary="trim").sum(skipna=False)
+    blocks = da.reindex(time=full).coarsen(time=k, boundary="trim").construct(time=("hour", "within"))
+    out = blocks.sum("within", skipna=False).rename(hour="time")
     hours = xr.date_range(start=start, periods=out.sizes["time"], freq="h", calendar=cal, use_cftime=use_cftime)
-    return out.assign_coords(time=("time", np.asarray(hours), da["time"].attrs))
+    out = out.drop_vars([c for c in out.coords if "time" in out[c].dims])
+    return out.assign_coords(time=("time", np.asarray(hours), da["time"].attrs)).transpose(*da.dims)
