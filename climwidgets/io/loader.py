@@ -29,7 +29,7 @@ from ..provenance import with_history
 from . import grid as gridmod
 from . import timeaxis
 from .chunkreader import backend_reader, direct_reader
-from .projected import attach_latlon
+from .projected import attach_latlon, attach_mapping
 from .sources import is_zarr, open_raw, resolve, source_label
 from .units import UnitInfo, length_to_metres, parse_units
 
@@ -316,6 +316,10 @@ def _layout(ds, var, kind, chunks, where, path):
         da = da.rename({ydim: "y", xdim: "x"})
         da = da.assign_coords(lat=(("y", "x"), lat.values, dict(lat.attrs)), lon=(("y", "x"), lon.values, dict(lon.attrs)))
         da.attrs["cell_bounds"] = "inferred from cell centres"
+        mapping = gridmod.find_projected(ds, ds[name])
+        if mapping is not None and (ds[mapping[1]].dims[0], ds[mapping[0]].dims[0]) == (ydim, xdim):
+            da = attach_mapping(da, ds, *mapping, source=where)[0]  # exact corners from the mapping
+            da.attrs["cell_bounds"] = "cell corners from the grid mapping (pyproj) at the projected cell edges"
         da = da.transpose(*head, "y", "x")
     else:
         raise GridError("has latitude and longitude of different shapes", source=where, variable=f"{latn}/{lonn}",

@@ -7,6 +7,7 @@ every cell (the projected cell edges) are transformed to longitude and latitude 
 mapping's own geodetic datum.  Downstream the grid is curvilinear: 2-D ``lat(y, x)`` and
 ``lon(y, x)``, with the 1-D projected ``x``/``y`` and a scalar ``crs`` coordinate kept so
 that cell corners can be derived again exactly (``climwidgets.geo.grid.cell_bounds``).
+The ``crs`` coordinate holds the CRS as WKT text and the CF grid-mapping attributes.
 """
 
 from __future__ import annotations
@@ -74,7 +75,13 @@ def projected_corners(grid):
         return None
     if grid["x"].ndim != 1 or grid["y"].ndim != 1 or min(grid.sizes["x"], grid.sizes["y"]) < 2:
         return None
-    crs = crs_from_attrs(grid[CRS_COORD].attrs, variable=CRS_COORD)
+    attrs = grid[CRS_COORD].attrs
+    if attrs.get("grid_mapping_name") or attrs.get("crs_wkt"):
+        crs = crs_from_attrs(attrs, variable=CRS_COORD)
+    else:  # attributes lost through arithmetic: the coordinate's value is the WKT
+        from pyproj import CRS
+
+        crs = CRS.from_wkt(str(grid[CRS_COORD].values))
     xe, ye = _edges(np.asarray(grid["x"].values, float)), _edges(np.asarray(grid["y"].values, float))
     gx, gy = np.meshgrid(xe, ye)
     lon, lat = lonlat(crs, gx, gy)
@@ -87,22 +94,33 @@ def projected_corners(grid):
     return np.clip(lat_c, -90.0, 90.0), lon_c
 
 
-def attach_latlon(da: xr.DataArray, ds: xr.Dataset, xname: str, yname: str, gm: str, *, source=None):
-    """``da`` on dims (…, y, x) with 2-D lat/lon from the grid mapping, metres x/y and ``crs``."""
-    crs = crs_from_attrs(ds[gm].attrs, source=source, variable=gm)
+def _projected_axes(ds, xname, yname, *, source=None):
     fx = to_metres(ds[xname].attrs.get("units"), source=source, variable=xname)
     fy = to_metres(ds[yname].attrs.get("units"), source=source, variable=yname)
-    x = np.asarray(ds[xname].values, float) * fx
-    y = np.asarray(ds[yname].values, float) * fy
-    gx, gy = np.meshgrid(x, y)
-    lon, lat = lonlat(crs, gx, gy)
-    da = da.rename({k: v for k, v in ((ds[yname].dims[0], "y"), (ds[xname].dims[0], "x")) if k != v})
-    gm_attrs = {k: v for k, v in ds[gm].attrs.items()}
+    return np.asarray(ds[xname].values, float) * fx, np.asarray(ds[yname].values, float) * fy
+
+
+def attach_mapping(da: xr.DataArray, ds: xr.Dataset, xname: str, yname: str, gm: str, *, source=None):
+    """``da`` on dims (…, y, x) with metres ``x``/``y`` and the scalar ``crs`` coordinate, which
+    let cell corners be derived exactly from the grid mapping."""
+    crs = crs_from_attrs(ds[gm].attrs, source=source, variable=gm)
+    x, y = _projected_axes(ds, xname, yname, source=source)
+    da = da.rename({k: v for k, v in ((ds[yname].dims[0], "y"), (ds[xname].dims[0], "x")) if k != v and k in da.dims})
+    gm_attrs = dict(ds[gm].attrs)
     gm_attrs.setdefault("crs_wkt", crs.to_wkt())
     return da.assign_coords(
         x=("x", x, {"standard_name": "projection_x_coordinate", "units": "m", "axis": "X"}),
         y=("y", y, {"standard_name": "projection_y_coordinate", "units": "m", "axis": "Y"}),
+        **{CRS_COORD: ((), crs.to_wkt(), gm_attrs)},  # the value survives where attrs are dropped
+    ), crs
+
+
+def attach_latlon(da: xr.DataArray, ds: xr.Dataset, xname: str, yname: str, gm: str, *, source=None):
+    """``da`` on dims (…, y, x) with 2-D lat/lon from the grid mapping, metres x/y and ``crs``."""
+    da, crs = attach_mapping(da, ds, xname, yname, gm, source=source)
+    gx, gy = np.meshgrid(da["x"].values, da["y"].values)
+    lon, lat = lonlat(crs, gx, gy)
+    return da.assign_coords(
         lat=(("y", "x"), lat, {"standard_name": "latitude", "units": "degrees_north"}),
         lon=(("y", "x"), lon, {"standard_name": "longitude", "units": "degrees_east"}),
-        **{CRS_COORD: ((), 0, gm_attrs)},
     )
