@@ -86,8 +86,9 @@ def _reduce(field, basin, weights):
     valid = sub.notnull()
     num = xr.dot(sub.fillna(0.0), w, dim=list(dims))
     den = xr.dot(valid.astype(float), w, dim=list(dims))
-    mean = num / den.where(den > 0)
-    covered = (den / total).clip(0.0, 1.0)  # rounding can push a full slice to 1 + 1e-16
+    order = [d for d in field.dims if d not in dims]  # other dims (members, time) in the field's order
+    mean = (num / den.where(den > 0)).transpose(*order)
+    covered = (den / total).clip(0.0, 1.0).transpose(*order)  # rounding can push a full slice to 1 + 1e-16
     return mean, covered, total
 
 

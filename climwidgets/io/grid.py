@@ -103,6 +103,16 @@ def find_projected(ds: xr.Dataset, da: xr.DataArray):
     return names["X"], names["Y"], gm
 
 
+def _holds_dates(var) -> bool:
+    if np.issubdtype(var.dtype, np.datetime64):
+        return True
+    if var.dtype != object or var.size == 0:
+        return False
+    import cftime
+
+    return isinstance(var.values.flat[0], cftime.datetime)
+
+
 def canonical_names(obj):
     """Rename CF-identified time, latitude and longitude of an in-memory object to time/lat/lon.
 
@@ -119,8 +129,11 @@ def canonical_names(obj):
         if which in obj.dims or which in obj.coords:
             continue
         name = find_coord(ds, da, which)
-        if name is not None and ds[name].ndim == 1 and ds[name].dims[0] == name:
-            rename[name] = which
+        if name is None or ds[name].ndim != 1 or ds[name].dims[0] != name:
+            continue
+        if which == "time" and not _holds_dates(ds[name]):
+            continue  # an in-memory time axis holds decoded dates; labels such as members do not
+        rename[name] = which
     return obj.rename(rename) if rename else obj
 
 
