@@ -17,13 +17,13 @@ from ..provenance import with_history
 from ._time import (
     MONTH_NAMES,
     check_months,
-    precip_mm,
     check_year_start,
     is_dask,
     monthly_with_coverage,
+    precip_mm,
     safe_divide,
-    select_years,
     season_year_start,
+    select_years,
     source_name,
     year_blocks,
 )

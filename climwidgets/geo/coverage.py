@@ -37,9 +37,9 @@ import shapely
 import xarray as xr
 
 from ..errors import BasinError
+from ..io.grid import canonical_names
 from ..provenance import with_history
 from ._cache import weights_cache
-from ..io.grid import canonical_names
 from .grid import cell_bounds, grid_token, horizontal_dims
 
 __all__ = ["coverage_weights", "coverage_block"]

@@ -20,9 +20,9 @@ import math
 import os
 
 import dask.base
-from dask.base import is_dask_collection
 import numpy as np
 import xarray as xr
+from dask.base import is_dask_collection
 
 from ..errors import DataValueError, GridError, MismatchError, TimeAxisError, UnitsError, VariableError
 from ..provenance import with_history
@@ -553,9 +553,17 @@ def open_precip(source, var=None, chunks="auto", validate="auto") -> xr.DataArra
 
 
 def open_elevation(source, var=None) -> xr.DataArray:
-    """Open a terrain grid as elevation in metres on the house grid layout (lat, lon) or (y, x)."""
-    sources = resolve(source)
-    da, info = _open_part(sources[0], var, "elevation")
+    """Open a terrain grid as elevation in metres on the house grid layout (lat, lon) or (y, x).
+
+    ``source`` is anything :func:`open_precip` takes, an ``xr.Dataset`` or ``xr.DataArray`` too.
+    """
+    if isinstance(source, (xr.Dataset, xr.DataArray)):
+        sources = [source_label(source)]
+        da, info = _open_object(source, var, "elevation")
+    else:
+        resolved = resolve(source)
+        sources = [source_label(resolved[0])]
+        da, info = _open_part(resolved[0], var, "elevation")
     name = info["name"]
     if "time" in da.dims:
         if da.sizes["time"] != 1:

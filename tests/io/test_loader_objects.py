@@ -216,3 +216,23 @@ def test_step_that_does_not_divide_a_day_is_refused():
     times = pd.date_range("2001-01-01", periods=5, freq="5D")
     with pytest.raises(TimeAxisError, match="time step of about 120 hours.*divide a day"):
         cw.open_precip(_ds(times))
+
+
+def test_elevation_from_a_dataarray_in_feet():
+    z = xr.DataArray(np.full((3, 4), 1000.0), dims=("latitude", "longitude"), name="orog",
+                     coords={"latitude": ("latitude", [10.0, 10.5, 11.0], {"standard_name": "latitude"}),
+                             "longitude": ("longitude", [20.0, 20.5, 21.0, 21.5], {"standard_name": "longitude"})},
+                     attrs={"units": "ft"})
+    elev = cw.open_elevation(z)
+    assert elev.dims == ("lat", "lon")
+    np.testing.assert_allclose(elev.values, 304.8)  # international foot = 0.3048 m exactly
+
+
+def test_info_lists_members_and_native_step():
+    from climwidgets.io.info import describe
+
+    times = pd.date_range("2001-01-01", periods=48, freq="30min")
+    ds = _ds(times, np.full((48, 3, 4), 1.0), units="mm").drop_vars("precip")
+    ds["precip"] = (("member", "time", "lat", "lon"), np.ones((2, 48, 3, 4)), {"units": "mm"})
+    text = describe(ds.assign_coords(member=["a", "b"]))
+    assert "native step:  30min" in text and "member:       2 (a, b)" in text
