@@ -18,8 +18,8 @@ from ..errors import (
     UnitsError,
 )
 from ..io.grid import canonical_names
-from ..io.timeaxis import CANONICAL_STEPS, infer_step, is_subhourly, step_seconds, steps_per_day
-from ..io.units import parse_units
+from ..io.timeaxis import CANONICAL_STEPS, infer_step, is_subhourly, steps_per_day
+from ..io.units import parse_units, step_factor
 
 _KEEP_ATTRS_FIX = ("keep the attributes through arithmetic: `with xr.set_options(keep_attrs=True): "
                    "scaled = pr * 1.05`, or `scaled = (pr * 1.05).assign_attrs(pr.attrs)`; data built by "
@@ -106,15 +106,7 @@ def precip_mm(pr, func: str):
                             fix="pass the data through climwidgets.open_precip(pr), which sums sub-hourly "
                                 "steps to hourly totals")
     if units != "mm" and step in CANONICAL_STEPS and "time" in pr.dims:
-        if info.kind == "depth" or info.per_month:
-            if info.per_month and step != "month":
-                raise UnitsError(f"has per-month units '{units}' but {step} steps", source=src,
-                                 variable=pr.name, expected="monthly data for per-month units",
-                                 fix="set the units to the actual rate (for example mm/day)")
-            factor, how = info.to_mm, f"depth in '{units}' x {info.to_mm:g} -> mm"
-        else:
-            factor = step_seconds(pr["time"], step) * info.to_mm
-            how = f"rate in '{units}' x {info.to_mm:g} -> mm/s x step length in seconds"
+        factor, how = step_factor(info, pr["time"], step, source=src, variable=pr.name)
         attrs = {**pr.attrs, "units": "mm", "step": step, "original_units": str(units), "conversion": how}
         pr = (pr * factor).assign_attrs(attrs).rename(pr.name)
     elif step is not None and pr.attrs.get("step") != step:

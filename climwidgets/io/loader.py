@@ -31,7 +31,7 @@ from . import timeaxis
 from .chunkreader import backend_reader, direct_reader
 from .projected import attach_latlon, attach_mapping
 from .sources import is_zarr, open_raw, resolve, source_label
-from .units import UnitInfo, length_to_metres, parse_units
+from .units import length_to_metres, parse_units, step_factor
 
 PRECIP_STANDARD_NAMES = (
     "lwe_thickness_of_precipitation_amount", "precipitation_amount", "precipitation_flux",
@@ -365,22 +365,6 @@ def _needs_fill_heuristics(encoding: dict, attrs: dict) -> bool:
     return not ("_FillValue" in encoding or "missing_value" in encoding or "_FillValue" in attrs)
 
 
-def _conversion(da: xr.DataArray, units: UnitInfo, step: str, source, name):
-    """Factor per time step that turns stored values into mm per step, and its description."""
-    if units.kind == "depth":
-        return units.to_mm, f"depth in '{units.text}' x {units.to_mm:g} -> mm"
-    if units.per_month:
-        if step != "month":
-            raise UnitsError(f"has per-month units '{units.text}' but {step}ly time steps", source=source,
-                             variable=name, expected="monthly data for per-month units",
-                             fix="set the units to the actual rate (for example mm/day)")
-        return units.to_mm, f"monthly depth in '{units.text}' x {units.to_mm:g} -> mm"
-    seconds = timeaxis.step_seconds(da["time"], step)
-    how = ("x days in each month of the file's calendar x 86400 s" if step == "month"
-           else f"x {timeaxis.STEP_SECONDS[step]:g} s per {step}")
-    return seconds * units.to_mm, f"rate in '{units.text}' x {units.to_mm:g} -> mm/s, {how}"
-
-
 def _convert_block(block, factor, mask_fill: bool, guard: bool, source=None, name=None):
     """Stored values -> mm per step (float64 for accurate sums), with few passes over a chunk.
 
@@ -501,7 +485,7 @@ def open_precip(source, var=None, chunks="auto", validate="auto") -> xr.DataArra
     mask_fill = _needs_fill_heuristics(info["encoding"], attrs)
     fill_note = ("values >= 1e15 and -9999/-999/-99999 treated as missing (no _FillValue in the file)"
                  if mask_fill else None)
-    factor, conversion = _conversion(da, units, step, where, name)
+    factor, conversion = step_factor(units, da["time"], step, source=where, variable=name)
     if chunks is None:
         da = da.compute()
     eager = validate is True or (validate == "auto" and da.size <= EAGER_CHECK_MAX_VALUES)
