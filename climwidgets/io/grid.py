@@ -116,8 +116,9 @@ def _holds_dates(var) -> bool:
 def canonical_names(obj):
     """Rename CF-identified time, latitude and longitude of an in-memory object to time/lat/lon.
 
-    Only 1-D coordinates that are their own dimension are renamed (``valid_time``,
-    ``latitude``, ``longitude``); names already canonical, or absent, are left alone.
+    1-D coordinates that are their own dimension are renamed with it (``valid_time``,
+    ``latitude``, ``longitude``), 2-D latitude/longitude coordinates on their own; names
+    already canonical, or absent, are left alone.
     Returns a new object; the input is not changed.
     """
     if not isinstance(obj, (xr.DataArray, xr.Dataset)):
@@ -129,7 +130,12 @@ def canonical_names(obj):
         if which in obj.dims or which in obj.coords:
             continue
         name = find_coord(ds, da, which)
-        if name is None or ds[name].ndim != 1 or ds[name].dims[0] != name:
+        if name is None or name == "__value__":
+            continue
+        if ds[name].ndim == 2 and which != "time" and name in obj.coords:
+            rename[name] = which  # curvilinear lat(y, x)/lon(y, x): the coordinate only
+            continue
+        if ds[name].ndim != 1 or ds[name].dims[0] != name:
             continue
         if which == "time" and not _holds_dates(ds[name]):
             continue  # an in-memory time axis holds decoded dates; labels such as members do not

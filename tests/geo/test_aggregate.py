@@ -142,3 +142,9 @@ def test_cf_names_and_depth_units():
         bare = pr * 1.0
     with pytest.raises(UnitsError, match="no 'units' attribute.*keep_attrs=True"):
         cw.basin_volume(bare, BASIN)
+
+
+def test_curvilinear_cf_names():
+    grid = rotated_grid(lat0=-35.0, lon0=-150.0).assign_attrs(units="mm") + 3.0
+    cf = grid.rename(lat="latitude", lon="longitude")
+    np.testing.assert_allclose(float(cw.basin_mean(cf, BASIN)), float(cw.basin_mean(grid, BASIN)), rtol=1e-12)

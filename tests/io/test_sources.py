@@ -90,3 +90,13 @@ def test_fsspec_errors_say_what_to_do(memfs):
         cw.open_precip(f"memory://{root}/*.nc4")
     with pytest.raises(SourceError, match="cloud"):
         cw.open_precip("nosuchprotocol://bucket/pr.zarr")
+
+
+def test_glob_in_memory_filesystem_combines_files(tmp_path, memfs):
+    fs, root = memfs
+    for k, start in enumerate(("2001-01-01", "2001-01-04")):
+        p = write_cf(tmp_path / f"p{k}.nc", start=start, periods=3)
+        with open(p, "rb") as fh:
+            fs.pipe(f"{root}/p{k}.nc", fh.read())
+    pr = cw.open_precip(f"memory://{root}/p*.nc")
+    assert pr.sizes["time"] == 6 and pr.attrs["sources"].count("memory://") == 2
