@@ -8,6 +8,10 @@ through secondary sources that cite it):
   (24 of 30), otherwise it is missing;
 * the annual normal is the sum of the 12 monthly normals (missing if any is missing).
 
+The rule is applied month by month and cell by cell over the baseline years, the partial
+first and last years of a record included (their months that the record covers count);
+a baseline is refused only when fewer baseline years than the rule needs lie in the data.
+
 The completeness fraction is a parameter (``min_fraction``) so that a stricter or looser
 local rule can be used; the rule applied is recorded in attrs.
 """
@@ -108,9 +112,17 @@ def normals(pr: xr.DataArray, baseline=(1991, 2020), min_fraction: float = 0.8) 
     pr
         Precipitation depth per step in mm (hourly, daily or monthly).
     baseline
-        (first, last) calendar years of the normal period; must lie inside the data.
+        (first, last) calendar years of the normal period.  It need not lie wholly inside
+        the record: each month is judged by the completeness rule on its own, so a record
+        that starts in March 1991 has 29 Januaries for a 1991-2020 normal.
     min_fraction
         Share of baseline years that must have a complete monthly total (0.8 = 24 of 30).
+
+    Raises
+    ------
+    ParameterError
+        When fewer of the baseline's years than the completeness rule needs lie in the
+        data, or for bad parameters.
 
     Returns
     -------
