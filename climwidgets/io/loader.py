@@ -229,10 +229,11 @@ def _file_data(da, path, name, plan, ident, dims):
     return data, "xarray netCDF4 backend"
 
 
-def _object_data(da, plan):
-    """A dask array over an in-memory or lazily backed variable (dask input kept as it is)."""
+def _object_data(da, plan, rechunk=False):
+    """A dask array over an in-memory or lazily backed variable (dask input kept as it is,
+    unless chunk sizes were asked for)."""
     if is_dask_collection(da.data):
-        return da.data, "the given dask array"
+        return (da.chunk({d: plan[d] for d in da.dims}).data if rechunk else da.data), "the given dask array"
     return da.chunk({d: plan[d] for d in da.dims}).data, "xarray (in-memory object or fsspec store)"
 
 
@@ -246,7 +247,7 @@ def _open_part(path, var, kind, chunks="auto"):
 def _open_object(obj, var, kind, chunks="auto"):
     """An xr.Dataset or xr.DataArray given by the user (never modified: a shallow copy is used)."""
     if isinstance(obj, xr.DataArray):
-        name = obj.name if obj.name is not None and obj.name not in obj.coords else "__data__"
+        name = obj.name if obj.name is not None and obj.name not in obj.coords else "pr"
         ds = obj.to_dataset(name=name)
         var = name if var is None else var
     else:
@@ -282,7 +283,7 @@ def _layout(ds, var, kind, chunks, where, path):
         ident = dask.base.tokenize(path, name, plan, stat.st_size, stat.st_mtime_ns)
         data, info["reader"] = _file_data(da, path, name, plan, ident, da.dims)
     else:
-        data, info["reader"] = _object_data(da, plan)
+        data, info["reader"] = _object_data(da, plan, rechunk=isinstance(chunks, dict))
     da = xr.DataArray(data, dims=da.dims, coords=da.coords, attrs=dict(da.attrs))
     da = da.isel({d: 0 for d in drop}, drop=True)
     member_coords = {d: ds[d].variable for d in members if d in ds.variables}

@@ -236,3 +236,11 @@ def test_info_lists_members_and_native_step():
     ds["precip"] = (("member", "time", "lat", "lon"), np.ones((2, 48, 3, 4)), {"units": "mm"})
     text = describe(ds.assign_coords(member=["a", "b"]))
     assert "native step:  30min" in text and "member:       2 (a, b)" in text
+
+
+def test_unnamed_dask_dataarray_and_chunks_asked_for():
+    times = pd.date_range("2001-01-01", periods=10, freq="D")
+    da = _ds(times)["precip"].rename(None).chunk({"time": 5})
+    pr = cw.open_precip(da)
+    assert pr.attrs["original_variable"] == "pr" and pr.chunks[0] == (5, 5)
+    assert cw.open_precip(da, chunks={"time": 2}).chunks[0] == (2,) * 5
