@@ -24,7 +24,7 @@ import numpy as np
 import xarray as xr
 from dask.base import is_dask_collection
 
-from ..errors import DataValueError, GridError, MismatchError, TimeAxisError, UnitsError, VariableError
+from ..errors import GridError, MismatchError, TimeAxisError, UnitsError, VariableError
 from ..provenance import with_history
 from . import grid as gridmod
 from . import timeaxis
@@ -32,6 +32,7 @@ from .chunkreader import backend_reader, direct_reader
 from .projected import attach_latlon, attach_mapping
 from .sources import is_zarr, open_raw, resolve, source_label
 from .units import length_to_metres, parse_units, step_factor
+from .values import check_packing, check_values, convert_block, needs_fill_heuristics
 
 PRECIP_STANDARD_NAMES = (
     "lwe_thickness_of_precipitation_amount", "precipitation_amount", "precipitation_flux",
@@ -48,9 +49,7 @@ MIN_STORED_PER_TASK = 10
 # Read deflate/shuffle-compressed NetCDF-4 chunks directly so threads decompress in parallel
 # (see chunkreader); False falls back to xarray's netCDF4 backend everywhere.
 DIRECT_CHUNK_READS = True
-NEGATIVE_TOLERANCE_MM = 0.01  # tiny negatives from packing or interpolation are set to 0
 EAGER_CHECK_MAX_VALUES = 20_000_000  # small inputs are checked for bad values at open
-_LIKELY_FILL = (-9999.0, -999.0, -99999.0)
 
 
 def _describe(ds, name) -> str:
@@ -167,24 +166,6 @@ def _user_plan(plan: dict, chunks: dict, da, ds, tname, spatial) -> dict:
     return plan
 
 
-def _check_packing(da: xr.DataArray, source, name) -> None:
-    """scale_factor, add_offset, _FillValue and missing_value must be numbers to be applied."""
-    for key in ("scale_factor", "add_offset", "_FillValue", "missing_value"):
-        for where in (da.encoding, da.attrs):
-            value = where.get(key)
-            if value is None:
-                continue
-            arr = np.asarray(value)
-            if arr.dtype.kind not in "biuf" or (key in ("scale_factor", "add_offset") and arr.size != 1):
-                raise DataValueError(f"has {key}={value!r}, which is not a number", source=source, variable=name,
-                                     expected=f"a numeric {key} attribute",
-                                     fix=f"correct or delete the {key} attribute (for example with ncatted or "
-                                         "netCDF4) in a copy of the file")
-            if key in ("scale_factor", "add_offset") and not np.all(np.isfinite(arr)):
-                raise DataValueError(f"has {key}={value!r}", source=source, variable=name,
-                                     expected=f"a finite {key}", fix=f"correct the {key} attribute in a copy of the file")
-
-
 MEMBER_DIMS = ("member", "realization", "ensemble", "model")  # extra dims kept as they are
 
 
@@ -260,7 +241,7 @@ def _layout(ds, var, kind, chunks, where, path):
     sn, names = (PRECIP_STANDARD_NAMES, PRECIP_NAMES) if kind == "precipitation" else (ELEVATION_STANDARD_NAMES, ELEVATION_NAMES)
     name = _choose_variable(ds, var, where, sn, names, kind)
     da = ds[name]
-    _check_packing(da, where, name)
+    check_packing(da, where, name)
     tname = gridmod.find_coord(ds, da, "time")
     latn, lonn, projected = _spatial_names(ds, da, name, where)
     info = {"name": name, "path": where, "attrs": dict(da.attrs)}
@@ -361,62 +342,6 @@ def _combine(parts, source_list):
     return da, tb
 
 
-def _needs_fill_heuristics(encoding: dict, attrs: dict) -> bool:
-    """Files without a _FillValue sometimes store 1e20 or -9999 for missing values."""
-    return not ("_FillValue" in encoding or "missing_value" in encoding or "_FillValue" in attrs)
-
-
-def _convert_block(block, factor, mask_fill: bool, guard: bool, source=None, name=None):
-    """Stored values -> mm per step (float64 for accurate sums), with few passes over a chunk.
-
-    Two NaN-ignoring reductions (min, max) tell whether a chunk holds fill codes or
-    negatives at all, so the usual chunk costs those two reductions and one multiply.
-    ``guard`` raises on negatives beyond the tolerance and zeroes the tiny ones; it runs as
-    each chunk is read, so large inputs are checked without a separate pass. The input
-    block is never modified (dask may share it).
-    """
-    b = np.asarray(block)
-    if b.size == 0:
-        return b.astype(np.float64)
-    flat = b.reshape(-1)
-    lo, hi = float(np.fmin.reduce(flat)), float(np.fmax.reduce(flat))
-    x = b.astype(np.float64)  # a new array: the input block is left as it is
-    if not (np.isscalar(factor) and factor == 1.0):
-        x *= factor  # (np.multiply with dtype= would take numpy's slow buffered casting path)
-    if mask_fill and (hi >= 1e15 or lo <= min(_LIKELY_FILL, key=abs) or lo <= -1e15):
-        bad = (np.abs(b) >= 1e15) | np.isin(b, _LIKELY_FILL)
-        x[bad] = np.nan
-        lo = float(np.fmin.reduce(x.reshape(-1))) if (~bad).any() else 0.0
-    elif lo < 0:
-        lo = float(np.fmin.reduce(x.reshape(-1)))  # in mm, after the factor
-    if guard and lo < 0:
-        if lo < -NEGATIVE_TOLERANCE_MM:
-            raise DataValueError(f"has negative precipitation (lowest {lo:.4g} mm) in a chunk read from disk",
-                                 source=source, variable=name, expected="precipitation depths >= 0",
-                                 fix="open with validate=True to find where, and check scale_factor/add_offset and units")
-        x[x < 0] = 0.0
-    return x
-
-
-def _check_values(da: xr.DataArray, source, name):
-    """Negative depths and all-missing data, checked in one pass."""
-    import dask
-
-    lowest, valid = dask.compute(da.min(skipna=True), da.count())
-    if int(valid) == 0:
-        raise DataValueError("contains no valid values (all missing)", source=source, variable=name,
-                             expected="some non-missing precipitation", fix="check _FillValue/missing_value and the period chosen")
-    if float(lowest) < -NEGATIVE_TOLERANCE_MM:
-        neg = da < -NEGATIVE_TOLERANCE_MM
-        count = int(neg.sum())
-        where = neg.argmax(dim=...)
-        loc = ", ".join(f"{k}={da[k].values[int(v)]}" for k, v in where.items())
-        raise DataValueError(f"has {count} negative value(s) below -{NEGATIVE_TOLERANCE_MM} mm (lowest {float(lowest):.4g} mm; "
-                             f"first at {loc})", source=source, variable=name,
-                             expected="precipitation depths >= 0", fix="check the scale_factor/add_offset and units; "
-                             "clip small negatives with .clip(min=0) if they are interpolation noise")
-
-
 def open_precip(source, var=None, chunks="auto", validate="auto") -> xr.DataArray:
     """Open precipitation lazily as depth per time step in mm.
 
@@ -483,7 +408,7 @@ def open_precip(source, var=None, chunks="auto", validate="auto") -> xr.DataArra
         da = da.assign_coords(time=("time", stamps, da["time"].attrs))
     step = timeaxis.infer_step(da["time"], tbounds, source=where)
     units = parse_units(attrs.get("units"), source=where, variable=name)
-    mask_fill = _needs_fill_heuristics(info["encoding"], attrs)
+    mask_fill = needs_fill_heuristics(info["encoding"], attrs)
     fill_note = ("values >= 1e15 and -9999/-999/-99999 treated as missing (no _FillValue in the file)"
                  if mask_fill else None)
     factor, conversion = step_factor(units, da["time"], step, source=where, variable=name)
@@ -491,10 +416,10 @@ def open_precip(source, var=None, chunks="auto", validate="auto") -> xr.DataArra
         da = da.compute()
     eager = validate is True or (validate == "auto" and da.size <= EAGER_CHECK_MAX_VALUES)
     guard = {"mask_fill": mask_fill, "guard": not eager, "source": where, "name": name}
-    da = xr.apply_ufunc(_convert_block, da, factor, kwargs=guard,
+    da = xr.apply_ufunc(convert_block, da, factor, kwargs=guard,
                         dask="parallelized", output_dtypes=[np.float64], keep_attrs=False)
     if eager:
-        _check_values(da, where, name)
+        check_values(da, where, name)
         da = da.where(~(da < 0), 0.0)  # tiny negatives within tolerance
     if step == "month":
         da = da.assign_coords(time=timeaxis.month_starts(da["time"]))
