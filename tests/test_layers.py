@@ -43,6 +43,8 @@ def _floor(parts: tuple[str, ...]) -> str:
     head = parts[0]
     if head in BASE:
         return "base"
+    if head.startswith("demo"):  # demo.py and its helpers (demo_ensemble.py) form one floor
+        return "demo"
     return head
 
 

@@ -17,12 +17,17 @@ from ..errors import (
     TimeAxisError,
     UnitsError,
 )
+from ..io.grid import canonical_names
+from ..io.timeaxis import CANONICAL_STEPS, infer_step, is_subhourly, steps_per_day
+from ..io.units import parse_units, step_factor
 
-STEPS_PER_DAY = {"hour": 24, "day": 1}
 #: The suite's one table of month names (full, and the three-letter forms derived from it).
 MONTH_FULL_NAMES = ("January", "February", "March", "April", "May", "June", "July", "August", "September",
                     "October", "November", "December")
 MONTH_NAMES = tuple(name[:3] for name in MONTH_FULL_NAMES)
+_KEEP_ATTRS_FIX = ("keep the attributes through arithmetic: `with xr.set_options(keep_attrs=True): "
+                   "scaled = pr * 1.05`, or `scaled = (pr * 1.05).assign_attrs(pr.attrs)`; data built by "
+                   "hand need attrs['units'] (for example 'mm' per step, 'mm/day' or 'kg m-2 s-1')")
 
 
 def source_name(obj) -> str:
@@ -50,14 +55,15 @@ def check_precip(pr, func: str) -> str:
         raise UnitsError(
             f"units are {units!r}", source=src, variable=pr.name,
             expected="attrs['units'] == 'mm' (depth per time step)",
-            fix="convert with climwidgets.open_precip or set the depth in mm per step",
+            fix="convert with climwidgets.open_precip(pr), which takes DataArrays too",
         )
     step = pr.attrs.get("step")
-    if step not in ("hour", "day", "month"):
+    if step not in CANONICAL_STEPS:
         raise TimeAxisError(
             f"attrs['step'] is {step!r}", source=src, variable=pr.name,
-            expected="attrs['step'] in {'hour', 'day', 'month'}",
-            fix="set attrs['step'] to the length of one time step",
+            expected=f"attrs['step'] in {CANONICAL_STEPS}",
+            fix="set attrs['step'] to the length of one time step, or pass the data through "
+                "climwidgets.open_precip(pr), which finds it (and sums sub-hourly steps to hours)",
         )
     tindex = pr.indexes.get("time")
     if tindex is None or len(tindex) == 0:
@@ -69,6 +75,46 @@ def check_precip(pr, func: str) -> str:
                             variable=pr.name, expected="strictly increasing time",
                             fix="use pr.sortby('time') and drop duplicated steps")
     return step
+
+
+def precip_mm(pr, func: str):
+    """``(pr in mm per step, step)``: the input converted when its units are another depth or rate.
+
+    The unit contract of the compute functions: any depth or rate units ``open_precip``
+    accepts (mm, cm, in, m, kg m-2, their rates per second, hour, day; per month for
+    monthly data) are converted lazily, with the step from ``attrs["step"]`` or, when it is
+    absent, from the spacing of the time stamps.  CF names (``valid_time``, ``latitude``,
+    ``longitude``) are renamed to time/lat/lon.  Input without units is refused with an
+    error that says how to keep attributes through arithmetic: a bare array is never taken
+    to be mm, since nothing proves it is.
+    """
+    if not isinstance(pr, xr.DataArray):
+        check_precip(pr, func)  # raises the type error
+    pr = canonical_names(pr)
+    src = source_name(pr)
+    units = pr.attrs.get("units")
+    if units is None or str(units).strip() == "":
+        lost = "has no attributes at all" if not pr.attrs else "has no 'units' attribute"
+        raise UnitsError(f"{lost}, so its depth per time step is unknown (xarray arithmetic such as "
+                         "pr * 1.05 drops attributes)", source=src, variable=pr.name,
+                         expected="attrs['units'] (a precipitation depth or rate) and attrs['step']",
+                         fix=_KEEP_ATTRS_FIX)
+    info = parse_units(units, source=src, variable=pr.name)
+    step = pr.attrs.get("step")
+    if step is None and "time" in pr.dims and pr.sizes["time"] >= 2:
+        step = infer_step(pr["time"], source=src)
+    if step is not None and is_subhourly(str(step)):
+        raise TimeAxisError(f"has {step} steps", source=src, variable=pr.name,
+                            expected="hourly or longer steps in the compute functions",
+                            fix="pass the data through climwidgets.open_precip(pr), which sums sub-hourly "
+                                "steps to hourly totals")
+    if units != "mm" and step in CANONICAL_STEPS and "time" in pr.dims:
+        factor, how = step_factor(info, pr["time"], step, source=src, variable=pr.name)
+        attrs = {**pr.attrs, "units": "mm", "step": step, "original_units": str(units), "conversion": how}
+        pr = (pr * factor).assign_attrs(attrs).rename(pr.name)
+    elif step is not None and pr.attrs.get("step") != step:
+        pr = pr.assign_attrs(step=step)
+    return pr, check_precip(pr, func)
 
 
 def check_months(months, func: str, name: str = "months") -> tuple[int, ...]:
@@ -146,7 +192,7 @@ def month_coverage(pr, step: str) -> xr.DataArray:
     if step == "month":
         expected = xr.ones_like(count)
     else:
-        expected = count["time"].dt.days_in_month * STEPS_PER_DAY[step]
+        expected = count["time"].dt.days_in_month * steps_per_day(step)
     return count == expected
 
 
@@ -164,17 +210,32 @@ def data_period(monthly) -> str:
     return f"{t.dt.strftime('%Y-%m').values[0]} to {t.dt.strftime('%Y-%m').values[-1]}"
 
 
-def year_blocks(monthly, covered: np.ndarray, start_month: int, src: str = "input DataArray"):
+def year_blocks(monthly, covered: np.ndarray, start_month: int, src: str = "input DataArray",
+                keep_partial: bool = False):
     """Reshape monthly totals into 12-month years: dims (year, month, ...).
 
     Years start in ``start_month`` and are labelled by the calendar year of their last month.
-    Leading and trailing years that the time axis does not fully cover are dropped; inside
-    the span, a year with a missing month keeps NaN in that month.  The ``month`` coordinate
-    holds calendar month numbers in the order of the 12-month year.
+    Leading and trailing years that the time axis does not fully cover are dropped, unless
+    ``keep_partial`` (used for normals, which are judged month by month): then the edge
+    years are kept with NaN in the months the record does not reach.  Inside the span, a
+    year with a missing month keeps NaN in that month.  The ``month`` coordinate holds
+    calendar month numbers in the order of the 12-month year.
     """
     months = monthly["time"].dt.month.values
     years = monthly["time"].dt.year.values
     n = months.size
+    if keep_partial and n:
+        before = int((months[0] - start_month) % 12)
+        after = int((-(n + before)) % 12)
+        seg = monthly.drop_vars("time")  # months the axis does not cover are NaN already
+        if before or after:
+            seg = seg.pad(time=(before, after))  # NaN-filled, lazy
+        blocks = seg.coarsen(time=12).construct(time=("year", "month"))
+        start_year = years[0] - (1 if months[0] < start_month else 0)
+        first_label = start_year + (0 if start_month == 1 else 1)
+        labels = first_label + np.arange(blocks.sizes["year"])
+        order = (start_month - 1 + np.arange(12)) % 12 + 1
+        return blocks.assign_coords(year=("year", labels.astype(int)), month=("month", order.astype(int)))
     starts = np.flatnonzero(months == start_month)
     starts = starts[starts + 12 <= n]
     full = [i for i in starts if covered[i:i + 12].all()]

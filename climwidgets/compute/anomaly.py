@@ -16,17 +16,16 @@ from ..errors import ParameterError
 from ..provenance import with_history
 from ._time import (
     check_months,
-    check_precip,
     check_year_range,
     check_year_start,
     is_dask,
     monthly_with_coverage,
+    precip_mm,
     safe_divide,
-    select_years,
     source_name,
     year_blocks,
 )
-from .normals import baseline_stats
+from .normals import baseline_stats, baseline_values
 from .seasonal import season_label, seasonal_totals
 from .totals import annual_totals
 
@@ -48,6 +47,7 @@ def _period_values(pr, period, months, year_start, func):
                              expected="'month', 'season', 'year' or 'water_year'",
                              fix="pass one of the listed periods")
     year_start = check_year_start(year_start, func)
+    pr, step = precip_mm(pr, func)
     if period == "season":
         if months is None:
             raise ParameterError("period='season' needs months", source=func, variable="months",
@@ -62,9 +62,8 @@ def _period_values(pr, period, months, year_start, func):
             year_start = 10
         x = annual_totals(pr, year_start)
         return x, x, lambda s: s, period.replace("_", " "), year_start
-    step = check_precip(pr, func)
     monthly, covered = monthly_with_coverage(pr, step)
-    blocks = year_blocks(monthly, covered, 1, source_name(pr))
+    blocks = year_blocks(monthly, covered, 1, source_name(pr), keep_partial=True)
     month_of = monthly["time"].dt.month
 
     def to_x(stat):
@@ -153,9 +152,8 @@ def tercile_category(pr: xr.DataArray, baseline=(1991, 2020), period: str = "mon
     """
     func = "tercile_category"
     x, values, to_x, label, ys = _period_values(pr, period, months, year_start, func)
-    _, _, n, required, _ = baseline_stats(values, baseline, min_fraction, func, source_name(pr))
-    base = select_years(values, check_year_range(baseline, func, "baseline"), func, "baseline",
-                        source_name(pr))
+    base, required, _ = baseline_values(values, baseline, min_fraction, func, source_name(pr))
+    n = base.count("year")
     if is_dask(base):
         base = base.chunk({"year": -1})
     bounds = xr.apply_ufunc(_terciles_kernel, base, input_core_dims=[["year"]],

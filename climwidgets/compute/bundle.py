@@ -13,7 +13,7 @@ import xarray as xr
 
 from .. import cache
 from ..provenance import with_history
-from ._time import check_precip
+from ._time import precip_mm
 from .extremes import annual_maxima
 from .normals import normals
 from .seasonal import seasonal_fraction
@@ -23,7 +23,7 @@ __all__ = ["climatology_bundle"]
 
 
 def _build(pr, months, baseline, year_start, maxima_days):
-    step = check_precip(pr, "climatology_bundle")
+    pr, step = precip_mm(pr, "climatology_bundle")
     monthly = monthly_totals(pr)
     out = {
         "monthly_totals": monthly,

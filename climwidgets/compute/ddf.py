@@ -36,7 +36,7 @@ import xarray as xr
 from ..errors import ParameterError, TimeAxisError
 from ..geo.aggregate import basin_mean, basin_weights
 from ..provenance import with_history
-from ._time import check_precip, source_name
+from ._time import precip_mm, source_name
 from .arf import ARF_SOURCE, ARFExtrapolationWarning, areal_reduction_factor
 from .depth_units import check_depth_units, convert_depth
 from .extremes import DEFAULT_MIN_VALID_FRACTION, annual_maxima_window
@@ -184,7 +184,7 @@ def depth_duration_frequency(pr, durations=None, periods=(2, 5, 10, 25, 50, 100)
     Hosking, J. R. M. & Wallis, J. R. (1997) Regional Frequency Analysis: An Approach Based
     on L-Moments. Cambridge University Press. doi:10.1017/CBO9780511529443
     """
-    step = check_precip(pr, "depth_duration_frequency")
+    pr, step = precip_mm(pr, "depth_duration_frequency")
     src = source_name(pr)
     if step == "month":
         raise TimeAxisError("monthly totals cannot give depth-duration-frequency tables", source=src,

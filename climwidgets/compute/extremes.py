@@ -26,15 +26,16 @@ import numpy as np
 import xarray as xr
 
 from ..errors import DataValueError, ParameterError, TimeAxisError
+from ..io.timeaxis import STEP_SECONDS
 from ..provenance import with_history
-from ._time import check_precip, check_year_start, is_dask, source_name
+from ._time import check_year_start, is_dask, precip_mm, source_name
 
 __all__ = ["annual_maxima", "annual_maxima_window", "DAY_DURATIONS", "HOUR_DURATIONS", "DEFAULT_MIN_VALID_FRACTION"]
 
 DAY_DURATIONS = (1, 2, 3, 5, 7, 10)
 HOUR_DURATIONS = (1, 3, 6, 12, 24)
 DEFAULT_MIN_VALID_FRACTION = 0.9
-_STEP = {"day": _dt.timedelta(days=1), "hour": _dt.timedelta(hours=1)}
+_STEP = {name: _dt.timedelta(seconds=seconds) for name, seconds in STEP_SECONDS.items()}
 
 
 def _check_positive_int(value, name, allowed, extra=""):
@@ -63,13 +64,15 @@ def _window(step, duration_days, duration_hours, src):
                                  variable="duration_hours", expected="one duration",
                                  fix="pass duration_hours alone, or duration_days alone")
         hours = _check_positive_int(duration_hours, "duration_hours", HOUR_DURATIONS)
-        if step != "hour":
-            raise ParameterError(f"duration_hours={hours} needs hourly input; the data step is {step!r}",
-                                 source=src, variable="duration_hours", expected="attrs['step'] == 'hour'",
+        step_hours = STEP_SECONDS.get(step, 86400.0) / 3600.0
+        if step == "day" or hours % step_hours:
+            raise ParameterError(f"duration_hours={hours} needs hourly input (or a step that divides it); "
+                                 f"the data step is {step!r}", source=src, variable="duration_hours",
+                                 expected="attrs['step'] 'hour', or an n-hour step that divides the duration",
                                  fix="use duration_days with daily data")
-        return hours, f"{hours} hour"
+        return int(hours // step_hours), f"{hours} hour"
     days = _check_positive_int(duration_days, "duration_days", DAY_DURATIONS)
-    return days * (24 if step == "hour" else 1), f"{days} day"
+    return int(round(days * 86400.0 / STEP_SECONDS[step])), f"{days} day"
 
 
 def _check_regular(times, step, src):
@@ -139,7 +142,7 @@ def annual_maxima(pr, duration_days=1, duration_hours=None, year_start=1,
     xarray.DataArray or xarray.Dataset
         Dims ``year`` plus the spatial dims; units "mm".
     """
-    step = check_precip(pr, "annual_maxima")
+    pr, step = precip_mm(pr, "annual_maxima")
     src = source_name(pr)
     n, label = _window(step, duration_days, duration_hours, src)
     return annual_maxima_window(pr, n, label, year_start, min_valid_fraction, fixed_to_sliding, return_dates)
@@ -152,7 +155,7 @@ def annual_maxima_window(pr, n, label, year_start=1, min_valid_fraction=DEFAULT_
     For callers that need durations outside the widget's short lists (the depth-duration-
     frequency tables); ``pr`` is checked again, ``n`` and ``label`` are trusted.
     """
-    step = check_precip(pr, "annual_maxima")
+    pr, step = precip_mm(pr, "annual_maxima")
     src = source_name(pr)
     year_start = check_year_start(year_start, "annual_maxima")
     if isinstance(min_valid_fraction, bool) or not isinstance(min_valid_fraction, numbers.Real) \

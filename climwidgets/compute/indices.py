@@ -44,7 +44,7 @@ import xarray as xr
 from ..errors import DataValueError, ParameterError, TimeAxisError
 from ..provenance import with_history
 from ._time import (
-    check_precip,
+    precip_mm,
     check_year_range,
     check_year_start,
     is_dask,
@@ -245,7 +245,7 @@ def wet_day_percentiles(pr, base_period=(1961, 1990), year_start=1, percentiles=
 
     Returns a DataArray with a ``percentile`` dimension, units "mm".  See the module notes.
     """
-    step = check_precip(pr, "wet_day_percentiles")
+    pr, step = precip_mm(pr, "wet_day_percentiles")
     src = source_name(pr)
     if step != "day":
         raise TimeAxisError(f"the data step is {step!r}", source=src, variable=pr.name,
@@ -327,7 +327,7 @@ def precip_indices(pr, names=None, base_period=(1961, 1990), year_start=1, freq=
     Hyndman, R. J. & Fan, Y. (1996) Sample quantiles in statistical packages. The American
     Statistician 50, 361-365. doi:10.1080/00031305.1996.10473566
     """
-    step = check_precip(pr, "precip_indices")
+    pr, step = precip_mm(pr, "precip_indices")
     src = source_name(pr)
     if step != "day":
         raise TimeAxisError(f"the data step is {step!r}; the ETCCDI indices are defined on days",

@@ -8,6 +8,10 @@ through secondary sources that cite it):
   (24 of 30), otherwise it is missing;
 * the annual normal is the sum of the 12 monthly normals (missing if any is missing).
 
+The rule is applied month by month and cell by cell over the baseline years, the partial
+first and last years of a record included (their months that the record covers count);
+a baseline is refused only when fewer baseline years than the rule needs lie in the data.
+
 The completeness fraction is a parameter (``min_fraction``) so that a stricter or looser
 local rule can be used; the rule applied is recorded in attrs.
 """
@@ -23,11 +27,10 @@ from ..errors import ParameterError
 from ..provenance import with_history
 from ._time import (
     check_months,
-    check_precip,
     check_year_range,
     is_dask,
     monthly_with_coverage,
-    select_years,
+    precip_mm,
     source_name,
     year_blocks,
 )
@@ -46,18 +49,43 @@ def _check_fraction(min_fraction, func):
     return float(min_fraction)
 
 
+def baseline_values(values, baseline, min_fraction, func, src, dim="year"):
+    """The values of the baseline years along ``dim``, every baseline year present (NaN
+    where the record has none), and ``(required, nyears)`` of the completeness rule.
+
+    The baseline is judged by the WMO-No. 1203 (2017) rule, period by period and cell by
+    cell: a normal needs ``required`` = ceil(min_fraction * nyears) years with a value (24
+    of 30 at 80 %), so a record that starts in March 1991 still has 29 Januaries for a
+    1991-2020 normal.  Only a baseline the record cannot satisfy anywhere is refused.
+    """
+    min_fraction = _check_fraction(min_fraction, func)
+    first, last = check_year_range(baseline, func, "baseline")
+    nyears = last - first + 1
+    # 1e-9 guards against 0.8 * 30 = 24.000000000000004 asking for 25 years.
+    required = max(1, math.ceil(min_fraction * nyears - 1e-9))
+    have = np.asarray(values[dim].values)
+    inside = int(((have >= first) & (have <= last)).sum())
+    if inside < required:
+        span = f"{have.min()}-{have.max()}" if have.size else "none"
+        raise ParameterError(
+            f"baseline=({first}, {last}) lies outside the data or overlaps it too little: {inside} of its "
+            f"{nyears} years are in the data (years {span}), a normal needs at least {required} "
+            f"(WMO-No. 1203: {min_fraction:.0%} of the years)",
+            source=src, variable="baseline", expected=f"at least {required} baseline years inside the data",
+            fix="choose a baseline that the record covers, supply a longer record, or lower min_fraction")
+    base = values.sel({dim: (values[dim] >= first) & (values[dim] <= last)})
+    base = base.reindex({dim: np.arange(first, last + 1)})  # absent years are missing (lazy)
+    return base, required, nyears
+
+
 def baseline_stats(values, baseline, min_fraction, func, src, dim="year"):
     """Mean and sample standard deviation (ddof=1) over the baseline years along ``dim``.
 
     Returns ``(mean, sd, n, required, nyears)``; mean and sd are NaN where fewer than
-    ``required`` = ceil(min_fraction * nyears) baseline years are present.
+    ``required`` = ceil(min_fraction * nyears) baseline years are present (see
+    :func:`baseline_values`).
     """
-    min_fraction = _check_fraction(min_fraction, func)
-    first, last = check_year_range(baseline, func, "baseline")
-    base = select_years(values, (first, last), func, "baseline", src, dim)
-    nyears = last - first + 1
-    # 1e-9 guards against 0.8 * 30 = 24.000000000000004 asking for 25 years.
-    required = max(1, math.ceil(min_fraction * nyears - 1e-9))
+    base, required, nyears = baseline_values(values, baseline, min_fraction, func, src, dim)
     n = base.count(dim)
     ok = n >= required
     mean = base.sum(dim, skipna=True) / n.where(ok)
@@ -84,9 +112,17 @@ def normals(pr: xr.DataArray, baseline=(1991, 2020), min_fraction: float = 0.8) 
     pr
         Precipitation depth per step in mm (hourly, daily or monthly).
     baseline
-        (first, last) calendar years of the normal period; must lie inside the data.
+        (first, last) calendar years of the normal period.  It need not lie wholly inside
+        the record: each month is judged by the completeness rule on its own, so a record
+        that starts in March 1991 has 29 Januaries for a 1991-2020 normal.
     min_fraction
         Share of baseline years that must have a complete monthly total (0.8 = 24 of 30).
+
+    Raises
+    ------
+    ParameterError
+        When fewer of the baseline's years than the completeness rule needs lie in the
+        data, or for bad parameters.
 
     Returns
     -------
@@ -96,10 +132,10 @@ def normals(pr: xr.DataArray, baseline=(1991, 2020), min_fraction: float = 0.8) 
     normal withheld for incompleteness (for in-memory input).
     """
     func = "normals"
-    step = check_precip(pr, func)
+    pr, step = precip_mm(pr, func)
     src = source_name(pr)
     monthly, covered = monthly_with_coverage(pr, step)
-    blocks = year_blocks(monthly, covered, 1, src)
+    blocks = year_blocks(monthly, covered, 1, src, keep_partial=True)
     mean, _, n, required, nyears = baseline_stats(blocks, baseline, min_fraction, func, src)
     out = mean.assign_coords(n_years=n)
     out.name = pr.name

@@ -17,13 +17,13 @@ from ..provenance import with_history
 from ._time import (
     MONTH_NAMES,
     check_months,
-    check_precip,
     check_year_start,
     is_dask,
     monthly_with_coverage,
+    precip_mm,
     safe_divide,
-    select_years,
     season_year_start,
+    select_years,
     source_name,
     year_blocks,
 )
@@ -40,7 +40,7 @@ def season_label(months) -> str:
 
 
 def _season_blocks(pr, months, year_start, func):
-    step = check_precip(pr, func)
+    pr, step = precip_mm(pr, func)
     months = check_months(months, func)
     year_start = check_year_start(year_start, func)
     start = season_year_start(months, year_start)

@@ -25,10 +25,10 @@ from scipy import special
 from ..errors import ParameterError
 from ..provenance import with_history
 from ._time import (
-    check_precip,
     check_year_range,
     data_period,
     monthly_with_coverage,
+    precip_mm,
     source_name,
 )
 
@@ -109,7 +109,7 @@ def spi(pr: xr.DataArray, scale: int = 3, baseline=(1991, 2020), clip: float = 8
         raise ParameterError(f"clip={clip!r} must be a positive number", source=func,
                              variable="clip", expected="a positive number, e.g. 8.21",
                              fix="pass clip=8.21")
-    step = check_precip(pr, func)
+    pr, step = precip_mm(pr, func)
     src = source_name(pr)
     first, last = check_year_range(baseline, func, "baseline")
     monthly, covered = monthly_with_coverage(pr, step)

@@ -10,7 +10,7 @@ from __future__ import annotations
 import xarray as xr
 
 from ..provenance import with_history
-from ._time import check_precip, check_year_start, monthly_with_coverage, source_name, year_blocks
+from ._time import check_year_start, monthly_with_coverage, precip_mm, source_name, year_blocks
 
 __all__ = ["monthly_totals", "annual_totals"]
 
@@ -41,7 +41,7 @@ def monthly_totals(pr: xr.DataArray) -> xr.DataArray:
     missing step, or one the time axis does not fully cover (edge months), is NaN.  Monthly
     input passes through, relabelled to month starts.  Lazy on dask input.
     """
-    step = check_precip(pr, "monthly_totals")
+    pr, step = precip_mm(pr, "monthly_totals")
     monthly, _ = monthly_with_coverage(pr, step)
     _monthly_attrs(monthly, pr)
     return with_history(monthly, "monthly_totals", pr.attrs, step=step)
@@ -49,7 +49,7 @@ def monthly_totals(pr: xr.DataArray) -> xr.DataArray:
 
 def _blocks(pr, func, year_start):
     """Monthly totals reshaped into (year, month) 12-month years starting in year_start."""
-    step = check_precip(pr, func)
+    pr, step = precip_mm(pr, func)
     monthly, covered = monthly_with_coverage(pr, step)
     return year_blocks(monthly, covered, year_start, source_name(pr))
 

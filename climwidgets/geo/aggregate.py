@@ -12,6 +12,8 @@ import numpy as np
 import xarray as xr
 
 from ..errors import BasinError, MismatchError, ParameterError, UnitsError
+from ..io.grid import canonical_names
+from ..io.units import parse_units
 from ..provenance import with_history
 from .area import AUTHALIC_RADIUS_M, cell_area
 from .coverage import coverage_block
@@ -66,9 +68,11 @@ def basin_weights(basin, grid, weights=None):
 
 
 def _check_field(field, func):
+    """The field under the house names (CF ``latitude``/``longitude`` renamed to lat/lon)."""
     if not isinstance(field, xr.DataArray):
         raise ParameterError(f"{func} needs a DataArray, got {type(field).__name__}",
                              expected="a DataArray on a lat/lon grid", fix="select one variable, e.g. ds['pr']")
+    return canonical_names(field)
 
 
 def _weighted_mean(sub, w, dims):
@@ -88,7 +92,9 @@ def _reduce(field, basin, weights):
     sub = sub.drop_vars([c for c in sub.coords if set(sub[c].dims) & set(dims)])
     total = float(w.sum())
     mean, den = _weighted_mean(sub, w, dims)
-    covered = (den / total).clip(0.0, 1.0)  # rounding can push a full slice to 1 + 1e-16
+    order = [d for d in field.dims if d not in dims]  # other dims (members, time) in the field's order
+    mean = mean.transpose(*order)
+    covered = (den / total).clip(0.0, 1.0).transpose(*order)  # rounding can push a full slice to 1 + 1e-16
     return mean, covered, total
 
 
@@ -143,6 +149,23 @@ def _finish(out, field, covered, name, units, func, basin, **params):
     return with_history(out, func, field.attrs, basin=getattr(basin, "name", "weights"), **params)
 
 
+def _depth_to_mm(field) -> float:
+    """Factor from the field's depth units (mm, cm, in, m, kg m-2 …) to mm, or a clear error."""
+    fu = field.attrs.get("units")
+    src = field.name or "field"
+    if fu is None or str(fu).strip() == "":
+        raise UnitsError("has no 'units' attribute (xarray arithmetic such as field * 1.05 drops attributes)",
+                         source=src, variable=field.name, expected="a depth such as 'mm' (per step, a total, or a normal)",
+                         fix="keep the attributes: `with xr.set_options(keep_attrs=True): ...`, or "
+                             "`.assign_attrs(units='mm')` when the values are mm")
+    info = parse_units(fu, source=src, variable=field.name)
+    if info.kind != "depth":
+        raise UnitsError(f"units are {fu!r}, a rate", source=src, variable=field.name,
+                         expected="a depth in 'mm' (per step, a total, or a normal)",
+                         fix="convert to a depth in mm first (cw.open_precip, or a total such as cw.annual_totals)")
+    return info.to_mm
+
+
 def basin_mean(field: xr.DataArray, basin, weights=None) -> xr.DataArray:
     """Area-weighted mean of ``field`` over ``basin``, keeping every other dimension.
 
@@ -152,7 +175,7 @@ def basin_mean(field: xr.DataArray, basin, weights=None) -> xr.DataArray:
     precomputed ``coverage_weights(basin, field)`` to skip the geometry.
     Lazy on dask input.
     """
-    _check_field(field, "basin_mean")
+    field = _check_field(field, "basin_mean")
     mean, covered, _ = _reduce(field, basin, weights)
     return _finish(mean, field, covered, field.name or "basin_mean", field.attrs.get("units", ""),
                    "basin_mean", basin)
@@ -168,19 +191,15 @@ def basin_volume(field: xr.DataArray, basin, units: str = "m3", weights=None) ->
     cells are NaN in a slice, missing cells take the mean of the rest; ``covered_fraction``
     says how much had data.  Lazy on dask input.
     """
-    _check_field(field, "basin_volume")
+    field = _check_field(field, "basin_volume")
     if units not in _VOLUME_UNITS:
         raise ParameterError(f"units={units!r} is not supported", expected="'m3' or 'acre-ft'",
                              fix="pass units='m3' or units='acre-ft'")
-    fu = field.attrs.get("units")
-    if fu != "mm":
-        raise UnitsError(f"units are {fu!r}", source=field.name or "field", variable=field.name,
-                         expected="a depth in 'mm' (per step, a total, or a normal)",
-                         fix="convert to a depth in mm first (e.g. with cw.open_precip or annual_totals)")
+    to_mm = _depth_to_mm(field)
     mean, covered, total = _reduce(field, basin, weights)
     # one area per basin: the outline's (Basin.area_m2), so volumes match every table
     area = basin.area_m2 if hasattr(basin, "area_m2") else total
-    volume = mean / 1000.0 * area / _VOLUME_UNITS[units]
+    volume = mean * (to_mm / 1000.0) * area / _VOLUME_UNITS[units]
     out = _finish(volume, field, covered, "volume", units, "basin_volume", basin, volume_units=units)
     out.attrs["long_name"] = f"water volume over basin {getattr(basin, 'name', '')}".strip()
     out.attrs.pop("standard_name", None)

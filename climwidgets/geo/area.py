@@ -19,6 +19,7 @@ from __future__ import annotations
 import numpy as np
 import xarray as xr
 
+from ..io.grid import canonical_names
 from ..provenance import with_history
 from ._cache import area_cache
 from .grid import cell_bounds, grid_token, horizontal_dims
@@ -71,8 +72,10 @@ def cell_area(grid, radius: float = AUTHALIC_RADIUS_M) -> xr.DataArray:
     """Area of every grid cell in m² on a sphere of radius ``radius`` (default authalic).
 
     Returns a DataArray on the grid's (lat, lon) or curvilinear (y, x) dims with
-    ``units="m2"`` and the radius in ``attrs["radius_m"]``.
+    ``units="m2"`` and the radius in ``attrs["radius_m"]``.  CF-named grids
+    (``latitude``/``longitude``) are read under the house names lat/lon.
     """
+    grid = canonical_names(grid)
     key = (grid_token(grid), float(radius))
     values = area_cache.get(key)
     if values is None:

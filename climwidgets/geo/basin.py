@@ -5,7 +5,8 @@ through the same checks, so a basin that exists is valid:
 
 * each ring has at least 3 distinct vertices, all finite, with |lat| ≤ 90;
 * a ring whose consecutive vertices jump by more than 180° of longitude is taken to cross
-  the antimeridian: it is unwrapped, and the polygon is split into parts inside
+  the antimeridian (an edge of exactly 360°, from -180 to 180, is an edge along a parallel
+  or the pole, as whole-globe and polar-cap outlines are drawn): it is unwrapped, and the polygon is split into parts inside
   [-180, 180) (a MultiPolygon).  Longitudes given in [0, 360) are moved the same way;
 * a self-intersecting ring is repaired with ``shapely.make_valid`` only when the repair
   keeps ≥ 99.9 % of its area in one polygon (a tiny loop where a vertex was clicked twice);
@@ -60,9 +61,18 @@ def _clean_ring(coords, name) -> np.ndarray:
     if len(distinct) < 3:
         raise _err(f"a ring has {len(distinct)} distinct vertices", name,
                    "draw at least three corners", expected="at least 3 distinct vertices")
-    # Unwrap: consecutive vertices more than 180° apart cross the antimeridian.
-    ring[:, 0] = np.unwrap(ring[:, 0], period=360.0)
+    ring[:, 0] = _unwrap_lon(ring[:, 0])
     return ring
+
+
+def _unwrap_lon(lon: np.ndarray) -> np.ndarray:
+    """Consecutive vertices more than 180° apart cross the antimeridian, and are unwrapped;
+    an edge of exactly 360° (from -180 to 180, as whole-globe and polar-cap outlines are
+    drawn in GeoJSON) is a straight lon/lat edge and is kept as given."""
+    step = np.diff(lon)
+    full = np.isclose(np.abs(step), 360.0, rtol=0.0, atol=1e-9)
+    jump = np.where((np.abs(step) > 180.0) & ~full, -360.0 * np.round(step / 360.0), 0.0)
+    return lon + np.concatenate([[0.0], np.cumsum(jump)])
 
 
 def _split_antimeridian(geom):

@@ -37,6 +37,7 @@ import shapely
 import xarray as xr
 
 from ..errors import BasinError
+from ..io.grid import canonical_names
 from ..provenance import with_history
 from ._cache import weights_cache
 from .grid import cell_bounds, grid_token, horizontal_dims
@@ -301,8 +302,10 @@ def coverage_weights(basin, grid) -> xr.DataArray:
     """Fraction (0–1) of each grid cell covered by ``basin``, planar in lon/lat.
 
     Returns a DataArray on the grid's (lat, lon) or (y, x) dims with ``units="1"``.
-    Raises BasinError when the basin does not overlap the grid.
+    Raises BasinError when the basin does not overlap the grid.  CF-named grids
+    (``latitude``/``longitude``) are read under the house names lat/lon.
     """
+    grid = canonical_names(grid)
     dims = horizontal_dims(grid)
     (j0, j1, i0, i1), block = coverage_block(basin, grid)
     full = np.zeros((grid.sizes[dims[0]], grid.sizes[dims[1]]))

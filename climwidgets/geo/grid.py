@@ -8,8 +8,10 @@ Rectilinear bounds are taken, in this order, from the 1-D coordinates ``lat_lowe
 (``lat_bnds``/``lon_bnds`` or whatever ``lat.attrs["bounds"]`` names) on a Dataset; else
 they are inferred from the centres (midpoints, edge cells extrapolated by half a step,
 latitudes clipped to ±90).  Curvilinear corners come from CF (y, x, 4) bounds variables
-when a Dataset carries them, else from the centres: each corner is the mean of the four
-surrounding centres after extrapolating one row/column outwards.
+when a Dataset carries them; on a projected grid (1-D ``x``/``y`` and the scalar ``crs``
+coordinate that ``open_precip`` attaches) from the grid mapping, exactly, with pyproj; else
+from the centres: each corner is the mean of the four surrounding centres after
+extrapolating one row/column outwards.
 """
 
 from __future__ import annotations
@@ -21,6 +23,7 @@ import numpy as np
 import xarray as xr
 
 from ..errors import GridError
+from ..io.projected import CRS_COORD, projected_corners
 
 __all__ = ["GridBounds", "cell_bounds", "grid_token", "horizontal_dims", "is_curvilinear"]
 
@@ -201,6 +204,11 @@ def cell_bounds(grid) -> GridBounds:
             expected="finite degrees at every cell",
             fix="mask the data instead of the coordinates",
         )
+    projected = projected_corners(grid)
+    if projected is not None and projected[0].shape == lat2.shape + (4,):
+        clat, clon = projected  # exact corners from the grid mapping (io.projected)
+        shift = np.round((clon.mean(axis=-1) - lon2) / 360.0) * 360.0
+        return GridBounds("curvilinear", dims, lat_corners=clat, lon_corners=clon - shift[..., None])
     blat, blon = _bounds_var(grid, "lat"), _bounds_var(grid, "lon")
     if blat is not None and blon is not None and blat.shape == lat2.shape + (4,) == blon.shape:
         # Unwrap each cell's corners around its centre.
@@ -218,9 +226,11 @@ def grid_token(grid) -> str:
     h = hashlib.blake2b(digest_size=16)
     h.update(repr(horizontal_dims(grid)).encode())
     parts = [lat, lon]
-    for name in ("lat_lower", "lat_upper", "lon_lower", "lon_upper"):
-        if name in grid.coords:
+    for name in ("lat_lower", "lat_upper", "lon_lower", "lon_upper", "x", "y"):
+        if name in grid.coords and grid[name].ndim == 1 and grid[name].dtype.kind in "fiu":
             parts.append(grid[name])
+    if CRS_COORD in grid.coords:
+        h.update(str(grid[CRS_COORD].values).encode())
     for coord in ("lat", "lon"):
         bnds = _bounds_var(grid, coord)
         if bnds is not None:

@@ -32,19 +32,41 @@ def _is_lon(var) -> bool:
             or a.get("axis") == "X" and "deg" in str(a.get("units", "")).lower())
 
 
+def _cf_candidates(ds: xr.Dataset, which: str) -> list:
+    """Names cf-xarray finds for ``which`` by standard_name, axis, units or _CoordinateAxisType."""
+    import cf_xarray  # noqa: F401  (registers the .cf accessor)
+
+    key = {"lat": "latitude", "lon": "longitude", "time": "time"}[which]
+    axis = {"lat": "Y", "lon": "X", "time": "T"}[which]
+    found = list(ds.cf.coordinates.get(key, []))
+    if which == "time":  # an axis "T" is time; "X"/"Y" may be projected metres, not degrees
+        found += [n for n in ds.cf.axes.get(axis, []) if n not in found]
+    return found
+
+
 def find_coord(ds: xr.Dataset, da: xr.DataArray, which: str):
-    """Name of the variable in ``ds`` serving as ``which`` ("lat", "lon", "time") for ``da``."""
+    """Name of the variable in ``ds`` serving as ``which`` ("lat", "lon", "time") for ``da``.
+
+    CF first, as cf-xarray reads it (standard_name, axis, units); then CF time units
+    ("... since ...") and degree units the accessor does not look at on undecoded files;
+    then conventional names.
+    """
     test = {"lat": _is_lat, "lon": _is_lon}.get(which)
     names = {"lat": _LAT_NAMES, "lon": _LON_NAMES, "time": _TIME_NAMES}[which]
+
+    def fits(name):
+        return name in ds.variables and set(ds[name].dims) <= set(da.dims) and ds[name].ndim > 0
+
+    for name in _cf_candidates(ds, which):
+        if fits(name):
+            return name
     candidates = list(da.coords) + list(da.dims) + [n for n in ds.variables if n not in da.coords]
     seen = []
     for name in candidates:
-        if name in seen or name not in ds.variables:
+        if name in seen or not fits(name):
             continue
         seen.append(name)
         var = ds[name]
-        if not set(var.dims) <= set(da.dims) or var.ndim == 0:
-            continue
         if which == "time":
             units = str(var.attrs.get("units", ""))
             if (" since " in units or var.attrs.get("standard_name") == "time" or var.attrs.get("axis") == "T"
@@ -53,9 +75,72 @@ def find_coord(ds: xr.Dataset, da: xr.DataArray, which: str):
         elif test(var):
             return name
     for name in names:  # fall back to conventional names
-        if name in ds.variables and set(ds[name].dims) <= set(da.dims) and ds[name].ndim > 0:
+        if fits(name):
             return name
     return None
+
+
+def find_projected(ds: xr.Dataset, da: xr.DataArray):
+    """``(x, y, grid_mapping)`` names of a projected grid for ``da``, or None.
+
+    A projected grid has 1-D coordinates with standard_name projection_x_coordinate /
+    projection_y_coordinate (or axis X / Y, as cf-xarray reads them) and a CF
+    ``grid_mapping`` attribute on the data variable that names an existing variable.
+    """
+    import cf_xarray  # noqa: F401
+
+    gm = da.attrs.get("grid_mapping") or da.encoding.get("grid_mapping")
+    if not gm or str(gm).split(":")[0].strip() not in ds.variables:
+        return None
+    gm = str(gm).split(":")[0].strip()
+    names = {}
+    for axis, sn in (("X", "projection_x_coordinate"), ("Y", "projection_y_coordinate")):
+        pool = list(ds.cf.standard_names.get(sn, [])) + list(ds.cf.axes.get(axis, []))
+        hits = [n for n in pool if n in ds.variables and ds[n].ndim == 1 and ds[n].dims[0] in da.dims]
+        if not hits:
+            return None
+        names[axis] = hits[0]
+    return names["X"], names["Y"], gm
+
+
+def _holds_dates(var) -> bool:
+    if np.issubdtype(var.dtype, np.datetime64):
+        return True
+    if var.dtype != object or var.size == 0:
+        return False
+    import cftime
+
+    return isinstance(var.values.flat[0], cftime.datetime)
+
+
+def canonical_names(obj):
+    """Rename CF-identified time, latitude and longitude of an in-memory object to time/lat/lon.
+
+    1-D coordinates that are their own dimension are renamed with it (``valid_time``,
+    ``latitude``, ``longitude``), 2-D latitude/longitude coordinates on their own; names
+    already canonical, or absent, are left alone.
+    Returns a new object; the input is not changed.
+    """
+    if not isinstance(obj, (xr.DataArray, xr.Dataset)):
+        return obj
+    ds = obj.rename(None).to_dataset(name="__value__") if isinstance(obj, xr.DataArray) else obj
+    da = ds["__value__"] if isinstance(obj, xr.DataArray) else ds
+    rename = {}
+    for which in ("time", "lat", "lon"):
+        if which in obj.dims or which in obj.coords:
+            continue
+        name = find_coord(ds, da, which)
+        if name is None or name == "__value__":
+            continue
+        if ds[name].ndim == 2 and which != "time" and name in obj.coords:
+            rename[name] = which  # curvilinear lat(y, x)/lon(y, x): the coordinate only
+            continue
+        if ds[name].ndim != 1 or ds[name].dims[0] != name:
+            continue
+        if which == "time" and not _holds_dates(ds[name]):
+            continue  # an in-memory time axis holds decoded dates; labels such as members do not
+        rename[name] = which
+    return obj.rename(rename) if rename else obj
 
 
 def bounds_to_edges(bounds: np.ndarray, centres: np.ndarray) -> tuple[np.ndarray, np.ndarray]:

@@ -22,14 +22,17 @@ import os
 import dask.base
 import numpy as np
 import xarray as xr
+from dask.base import is_dask_collection
 
-from ..errors import DataValueError, GridError, MismatchError, TimeAxisError, UnitsError, VariableError
+from ..errors import GridError, MismatchError, TimeAxisError, UnitsError, VariableError
 from ..provenance import with_history
 from . import grid as gridmod
 from . import timeaxis
 from .chunkreader import backend_reader, direct_reader
-from .sources import open_raw, resolve
-from .units import UnitInfo, length_to_metres, parse_units
+from .projected import attach_latlon, attach_mapping
+from .sources import is_zarr, open_raw, resolve, source_label
+from .units import length_to_metres, parse_units, step_factor
+from .values import check_packing, check_values, convert_block, needs_fill_heuristics
 
 PRECIP_STANDARD_NAMES = (
     "lwe_thickness_of_precipitation_amount", "precipitation_amount", "precipitation_flux",
@@ -46,9 +49,7 @@ MIN_STORED_PER_TASK = 10
 # Read deflate/shuffle-compressed NetCDF-4 chunks directly so threads decompress in parallel
 # (see chunkreader); False falls back to xarray's netCDF4 backend everywhere.
 DIRECT_CHUNK_READS = True
-NEGATIVE_TOLERANCE_MM = 0.01  # tiny negatives from packing or interpolation are set to 0
 EAGER_CHECK_MAX_VALUES = 20_000_000  # small inputs are checked for bad values at open
-_LIKELY_FILL = (-9999.0, -999.0, -99999.0)
 
 
 def _describe(ds, name) -> str:
@@ -123,7 +124,7 @@ def _decode_time(ds: xr.Dataset, tname: str, source) -> tuple[xr.DataArray, xr.D
     raw = tvar.values
     if np.issubdtype(np.asarray(raw).dtype, np.number):
         timeaxis.check_monotonic(raw, source=source)
-    bname = tvar.attrs.get("bounds")
+    bname = tvar.attrs.get("bounds") or tvar.encoding.get("bounds")
     keep = [tname] + ([bname] if bname in ds.variables else [])
     small = xr.Dataset({n: ds[n].variable for n in keep if n != tname}, coords={tname: tvar.variable})
     units = str(tvar.attrs.get("units", "")).strip()
@@ -146,19 +147,18 @@ def _decode_time(ds: xr.Dataset, tname: str, source) -> tuple[xr.DataArray, xr.D
                             variable=tname, expected="CF time units such as 'days since 1990-01-01'",
                             fix="set the time variable's units and calendar attributes") from None
     bounds = decoded[bname] if bname in decoded else None
+    if not np.issubdtype(np.asarray(raw).dtype, np.number):  # given decoded (xarray objects)
+        timeaxis.check_monotonic(decoded[tname].values, source=source)
     return decoded[tname], bounds
 
 
-def _user_plan(plan: dict, chunks: dict, da, ds, tname, latn, lonn) -> dict:
+def _user_plan(plan: dict, chunks: dict, da, ds, tname, spatial) -> dict:
     """Apply chunk sizes given with house names (time, lat, lon, y, x) to the file's own dims."""
     names = {}
     if tname:
         names["time"] = ds[tname].dims[0]
-    lat, lon = ds[latn], ds[lonn]
-    if lat.ndim == 1:
-        names["lat"], names["lon"] = lat.dims[0], lon.dims[0]
-    else:
-        names["y"], names["x"] = lat.dims
+    names["lat"] = names["y"] = spatial[0]
+    names["lon"] = names["x"] = spatial[-1]
     for key, size in chunks.items():
         dim = names.get(key, key)
         if dim in plan:
@@ -166,95 +166,145 @@ def _user_plan(plan: dict, chunks: dict, da, ds, tname, latn, lonn) -> dict:
     return plan
 
 
-def _check_packing(da: xr.DataArray, source, name) -> None:
-    """scale_factor, add_offset, _FillValue and missing_value must be numbers to be applied."""
-    for key in ("scale_factor", "add_offset", "_FillValue", "missing_value"):
-        for where in (da.encoding, da.attrs):
-            value = where.get(key)
-            if value is None:
-                continue
-            arr = np.asarray(value)
-            if arr.dtype.kind not in "biuf" or (key in ("scale_factor", "add_offset") and arr.size != 1):
-                raise DataValueError(f"has {key}={value!r}, which is not a number", source=source, variable=name,
-                                     expected=f"a numeric {key} attribute",
-                                     fix=f"correct or delete the {key} attribute (for example with ncatted or "
-                                         "netCDF4) in a copy of the file")
-            if key in ("scale_factor", "add_offset") and not np.all(np.isfinite(arr)):
-                raise DataValueError(f"has {key}={value!r}", source=source, variable=name,
-                                     expected=f"a finite {key}", fix=f"correct the {key} attribute in a copy of the file")
+MEMBER_DIMS = ("member", "realization", "ensemble", "model")  # extra dims kept as they are
+
+
+def _spatial_names(ds, da, name, source):
+    """``(latn, lonn, projected)``: lat/lon variables, or a projected (x, y, grid_mapping)."""
+    latn, lonn = gridmod.find_coord(ds, da, "lat"), gridmod.find_coord(ds, da, "lon")
+    if latn is not None and lonn is not None:
+        return latn, lonn, None
+    projected = gridmod.find_projected(ds, da)
+    if projected is None:
+        raise GridError("has no latitude/longitude coordinates", source=source, variable=name,
+                        expected="lat and lon coordinate variables (CF units degrees_north/degrees_east), or "
+                                 "projected x/y coordinates with a CF grid_mapping",
+                        fix="add lat/lon coordinates, or the grid_mapping attribute and its variable; "
+                            "projected grids may instead carry 2-D lat(y, x) and lon(y, x) variables")
+    return None, None, projected
+
+
+def _extra_dims(da, spatial, time_dims, source, name):
+    """Dims beyond time and space: members kept, other singletons dropped, the rest refused."""
+    extra = [d for d in da.dims if d not in spatial and d not in time_dims]
+    members = [d for d in extra if d in MEMBER_DIMS and da.sizes[d] > 1]
+    for d in extra:
+        if d not in members and da.sizes[d] != 1:
+            raise GridError(f"has an extra dimension '{d}' of length {da.sizes[d]}", source=source, variable=name,
+                            expected="dimensions time, lat, lon, with ensemble members on one of "
+                                     f"{', '.join(MEMBER_DIMS)} (singleton extras are dropped)",
+                            fix=f"select one {d} first, e.g. ds['{name}'].isel({d}=0), or rename it to 'member' "
+                                f"if it holds ensemble members (ds.rename({d}='member'))")
+    return [d for d in extra if d not in members], members
+
+
+def _file_data(da, path, name, plan, ident, dims):
+    """A dask array that reads the file's chunks (directly where the codec allows)."""
+    direct = None
+    if DIRECT_CHUNK_READS and "_Unsigned" not in da.encoding and "_Unsigned" not in da.attrs:
+        direct = direct_reader(path, name, da.encoding, tuple(plan[d] for d in dims),
+                               name=f"open_precip-{name}-direct-{ident}")
+    if direct is not None:
+        return direct, "direct chunk reads (parallel decompression)"
+    data = backend_reader(da.variable, path, name, tuple(plan[d] for d in dims), name=f"open_precip-{name}-{ident}")
+    return data, "xarray netCDF4 backend"
+
+
+def _object_data(da, plan, rechunk=False):
+    """A dask array over an in-memory or lazily backed variable (dask input kept as it is,
+    unless chunk sizes were asked for)."""
+    if is_dask_collection(da.data):
+        return (da.chunk({d: plan[d] for d in da.dims}).data if rechunk else da.data), "the given dask array"
+    return da.chunk({d: plan[d] for d in da.dims}).data, "xarray (in-memory object or fsspec store)"
 
 
 def _open_part(path, var, kind, chunks="auto"):
-    """One file: choose the variable, decode time, find lat/lon, normalise the grid."""
+    """One file or store: open it lazily, then lay it out (see _layout)."""
     ds = open_raw(path)
+    local = isinstance(path, str) and os.path.exists(path) and not is_zarr(path)
+    return _layout(ds, var, kind, chunks, source_label(path), path if local else None)
+
+
+def _open_object(obj, var, kind, chunks="auto"):
+    """An xr.Dataset or xr.DataArray given by the user (never modified: a shallow copy is used)."""
+    if isinstance(obj, xr.DataArray):
+        name = obj.name if obj.name is not None and obj.name not in obj.coords else "pr"
+        ds = obj.to_dataset(name=name)
+        var = name if var is None else var
+    else:
+        ds = obj.copy(deep=False)
+    return _layout(ds, var, kind, chunks, source_label(obj), None)
+
+
+def _layout(ds, var, kind, chunks, where, path):
+    """Choose the variable, decode time, find lat/lon (or derive them), normalise the grid."""
     sn, names = (PRECIP_STANDARD_NAMES, PRECIP_NAMES) if kind == "precipitation" else (ELEVATION_STANDARD_NAMES, ELEVATION_NAMES)
-    name = _choose_variable(ds, var, path, sn, names, kind)
+    name = _choose_variable(ds, var, where, sn, names, kind)
     da = ds[name]
-    _check_packing(da, path, name)
+    check_packing(da, where, name)
     tname = gridmod.find_coord(ds, da, "time")
-    latn, lonn = gridmod.find_coord(ds, da, "lat"), gridmod.find_coord(ds, da, "lon")
-    if latn is None or lonn is None:
-        raise GridError("has no latitude/longitude coordinates", source=path, variable=name,
-                        expected="lat and lon coordinate variables (CF units degrees_north/degrees_east)",
-                        fix="add lat/lon coordinates; projected grids need 2-D lat(y, x) and lon(y, x) variables")
-    info = {"name": name, "path": path, "attrs": dict(da.attrs)}
+    latn, lonn, projected = _spatial_names(ds, da, name, where)
+    info = {"name": name, "path": where, "attrs": dict(da.attrs)}
     if kind == "precipitation" and tname is None:
-        raise TimeAxisError("has no time coordinate", source=path, variable=name,
+        raise TimeAxisError("has no time coordinate", source=where, variable=name,
                             expected="a CF time coordinate", fix="open a file that has a time axis")
-    spatial = [d for d in ds[latn].dims] + [d for d in ds[lonn].dims if d not in ds[latn].dims]
-    extra = [d for d in da.dims if d not in spatial and (tname is None or d not in ds[tname].dims)]
-    for d in extra:
-        if da.sizes[d] != 1:
-            raise GridError(f"has an extra dimension '{d}' of length {da.sizes[d]}", source=path, variable=name,
-                            expected="dimensions time, lat, lon (singleton extras are dropped)",
-                            fix=f"select one {d} first, e.g. xr.open_dataset(path)['{name}'].isel({d}=0)")
+    if projected is None:
+        spatial = list(ds[latn].dims) + [d for d in ds[lonn].dims if d not in ds[latn].dims]
+    else:
+        spatial = [ds[projected[1]].dims[0], ds[projected[0]].dims[0]]
+    drop, members = _extra_dims(da, spatial, ds[tname].dims if tname else (), where, name)
     plan = _chunk_plan(da.variable, da.dims, ds[tname].dims[0] if tname else None)
     if isinstance(chunks, dict):
-        plan = _user_plan(plan, chunks, da, ds, tname, latn, lonn)
+        plan = _user_plan(plan, chunks, da, ds, tname, spatial)
     info["encoding"] = dict(da.encoding)
-    # a token from the file's identity (path, size, mtime), so reopening an unchanged file
-    # gives the same dask names and caches keyed on them are hit
-    stat = os.stat(path) if os.path.exists(path) else None
-    ident = dask.base.tokenize(path, name, plan, stat.st_size if stat else None, stat.st_mtime_ns if stat else None)
-    direct = None
-    if DIRECT_CHUNK_READS and "_Unsigned" not in da.encoding and "_Unsigned" not in da.attrs:
-        direct = direct_reader(path, name, da.encoding, tuple(plan[d] for d in da.dims),
-                               name=f"open_precip-{name}-direct-{ident}")
-    if direct is not None:
-        da = xr.DataArray(direct, dims=da.dims, coords=da.coords, attrs=da.attrs)
-        da = da.isel({d: 0 for d in extra}, drop=True)
+    if path is not None:
+        # a token from the file's identity (path, size, mtime), so reopening an unchanged file
+        # gives the same dask names and caches keyed on them are hit
+        stat = os.stat(path)
+        ident = dask.base.tokenize(path, name, plan, stat.st_size, stat.st_mtime_ns)
+        data, info["reader"] = _file_data(da, path, name, plan, ident, da.dims)
     else:
-        da = da.isel({d: 0 for d in extra}, drop=True)
-        data = backend_reader(da.variable, path, name, tuple(plan[d] for d in da.dims),
-                              name=f"open_precip-{name}-{ident}")
-        da = xr.DataArray(data, dims=da.dims, coords=da.coords, attrs=da.attrs)
-    info["reader"] = "direct chunk reads (parallel decompression)" if direct is not None else "xarray netCDF4 backend"
+        data, info["reader"] = _object_data(da, plan, rechunk=isinstance(chunks, dict))
+    da = xr.DataArray(data, dims=da.dims, coords=da.coords, attrs=dict(da.attrs))
+    da = da.isel({d: 0 for d in drop}, drop=True)
+    member_coords = {d: ds[d].variable for d in members if d in ds.variables}
     da = da.reset_coords(drop=True)
+    if member_coords:
+        da = da.assign_coords(member_coords)
     if tname is not None:
-        time, tb = _decode_time(ds, tname, path)
+        time, tb = _decode_time(ds, tname, where)
         tdim = ds[tname].dims[0]
         da = da.rename({tdim: "time"}).assign_coords(time=("time", time.values, {"standard_name": "time"}))
         info["time_bounds"] = tb
         info["calendar"] = timeaxis.calendar_of(da["time"])
-    lat, lon = ds[latn], ds[lonn]
-    if lat.ndim == 1 and lon.ndim == 1:
+    head = members + (["time"] if "time" in da.dims else [])
+    if projected is not None:
+        da = attach_latlon(da, ds, *projected, source=where)
+        da.attrs["cell_bounds"] = "cell corners from the grid mapping (pyproj) at the projected cell edges"
+        da = da.transpose(*head, "y", "x")
+    elif ds[latn].ndim == 1 and ds[lonn].ndim == 1:
+        lat, lon = ds[latn], ds[lonn]
         da = da.rename({lat.dims[0]: "lat", lon.dims[0]: "lon"})
         da = da.assign_coords(lat=("lat", lat.values, dict(lat.attrs)), lon=("lon", lon.values, dict(lon.attrs)))
         edges = []
         for c in (lat, lon):
             b = c.attrs.get("bounds")
             edges.append(gridmod.bounds_to_edges(ds[b].values, c.values) if b in ds.variables else None)
-        da = gridmod.normalise_rectilinear(da, edges[0], edges[1], source=path)
-        order = ["time", "lat", "lon"] if "time" in da.dims else ["lat", "lon"]
-        da = da.transpose(*order)
-    elif lat.ndim == 2 and lon.ndim == 2:
+        da = gridmod.normalise_rectilinear(da, edges[0], edges[1], source=where)
+        da = da.transpose(*head, "lat", "lon")
+    elif ds[latn].ndim == 2 and ds[lonn].ndim == 2:
+        lat, lon = ds[latn], ds[lonn]
         ydim, xdim = lat.dims
         da = da.rename({ydim: "y", xdim: "x"})
         da = da.assign_coords(lat=(("y", "x"), lat.values, dict(lat.attrs)), lon=(("y", "x"), lon.values, dict(lon.attrs)))
         da.attrs["cell_bounds"] = "inferred from cell centres"
-        da = da.transpose(*(["time"] if "time" in da.dims else []), "y", "x")
+        mapping = gridmod.find_projected(ds, ds[name])
+        if mapping is not None and (ds[mapping[1]].dims[0], ds[mapping[0]].dims[0]) == (ydim, xdim):
+            da = attach_mapping(da, ds, *mapping, source=where)[0]  # exact corners from the mapping
+            da.attrs["cell_bounds"] = "cell corners from the grid mapping (pyproj) at the projected cell edges"
+        da = da.transpose(*head, "y", "x")
     else:
-        raise GridError("has latitude and longitude of different shapes", source=path, variable=f"{latn}/{lonn}",
+        raise GridError("has latitude and longitude of different shapes", source=where, variable=f"{latn}/{lonn}",
                         expected="both 1-D (rectilinear) or both 2-D (curvilinear)", fix="repair the coordinates")
     info["grid"] = (da["lat"].values, da["lon"].values)
     return da, info
@@ -292,78 +342,6 @@ def _combine(parts, source_list):
     return da, tb
 
 
-def _needs_fill_heuristics(encoding: dict, attrs: dict) -> bool:
-    """Files without a _FillValue sometimes store 1e20 or -9999 for missing values."""
-    return not ("_FillValue" in encoding or "missing_value" in encoding or "_FillValue" in attrs)
-
-
-def _conversion(da: xr.DataArray, units: UnitInfo, step: str, source, name):
-    """Factor per time step that turns stored values into mm per step, and its description."""
-    if units.kind == "depth":
-        return units.to_mm, f"depth in '{units.text}' x {units.to_mm:g} -> mm"
-    if units.per_month:
-        if step != "month":
-            raise UnitsError(f"has per-month units '{units.text}' but {step}ly time steps", source=source,
-                             variable=name, expected="monthly data for per-month units",
-                             fix="set the units to the actual rate (for example mm/day)")
-        return units.to_mm, f"monthly depth in '{units.text}' x {units.to_mm:g} -> mm"
-    seconds = timeaxis.step_seconds(da["time"], step)
-    how = ("x days in each month of the file's calendar x 86400 s" if step == "month"
-           else f"x {timeaxis.STEP_SECONDS[step]:g} s per {step}")
-    return seconds * units.to_mm, f"rate in '{units.text}' x {units.to_mm:g} -> mm/s, {how}"
-
-
-def _convert_block(block, factor, mask_fill: bool, guard: bool, source=None, name=None):
-    """Stored values -> mm per step (float64 for accurate sums), with few passes over a chunk.
-
-    Two NaN-ignoring reductions (min, max) tell whether a chunk holds fill codes or
-    negatives at all, so the usual chunk costs those two reductions and one multiply.
-    ``guard`` raises on negatives beyond the tolerance and zeroes the tiny ones; it runs as
-    each chunk is read, so large inputs are checked without a separate pass. The input
-    block is never modified (dask may share it).
-    """
-    b = np.asarray(block)
-    if b.size == 0:
-        return b.astype(np.float64)
-    flat = b.reshape(-1)
-    lo, hi = float(np.fmin.reduce(flat)), float(np.fmax.reduce(flat))
-    x = b.astype(np.float64)  # a new array: the input block is left as it is
-    if not (np.isscalar(factor) and factor == 1.0):
-        x *= factor  # (np.multiply with dtype= would take numpy's slow buffered casting path)
-    if mask_fill and (hi >= 1e15 or lo <= min(_LIKELY_FILL, key=abs) or lo <= -1e15):
-        bad = (np.abs(b) >= 1e15) | np.isin(b, _LIKELY_FILL)
-        x[bad] = np.nan
-        lo = float(np.fmin.reduce(x.reshape(-1))) if (~bad).any() else 0.0
-    elif lo < 0:
-        lo = float(np.fmin.reduce(x.reshape(-1)))  # in mm, after the factor
-    if guard and lo < 0:
-        if lo < -NEGATIVE_TOLERANCE_MM:
-            raise DataValueError(f"has negative precipitation (lowest {lo:.4g} mm) in a chunk read from disk",
-                                 source=source, variable=name, expected="precipitation depths >= 0",
-                                 fix="open with validate=True to find where, and check scale_factor/add_offset and units")
-        x[x < 0] = 0.0
-    return x
-
-
-def _check_values(da: xr.DataArray, source, name):
-    """Negative depths and all-missing data, checked in one pass."""
-    import dask
-
-    lowest, valid = dask.compute(da.min(skipna=True), da.count())
-    if int(valid) == 0:
-        raise DataValueError("contains no valid values (all missing)", source=source, variable=name,
-                             expected="some non-missing precipitation", fix="check _FillValue/missing_value and the period chosen")
-    if float(lowest) < -NEGATIVE_TOLERANCE_MM:
-        neg = da < -NEGATIVE_TOLERANCE_MM
-        count = int(neg.sum())
-        where = neg.argmax(dim=...)
-        loc = ", ".join(f"{k}={da[k].values[int(v)]}" for k, v in where.items())
-        raise DataValueError(f"has {count} negative value(s) below -{NEGATIVE_TOLERANCE_MM} mm (lowest {float(lowest):.4g} mm; "
-                             f"first at {loc})", source=source, variable=name,
-                             expected="precipitation depths >= 0", fix="check the scale_factor/add_offset and units; "
-                             "clip small negatives with .clip(min=0) if they are interpolation noise")
-
-
 def open_precip(source, var=None, chunks="auto", validate="auto") -> xr.DataArray:
     """Open precipitation lazily as depth per time step in mm.
 
@@ -371,7 +349,9 @@ def open_precip(source, var=None, chunks="auto", validate="auto") -> xr.DataArra
     ----------
     source
         A NetCDF path, a glob pattern, a list of paths (combined along time), an OPeNDAP
-        URL, or a Zarr store.
+        URL, a Zarr store, an fsspec URL (``file://``, ``memory://``; ``s3://`` and
+        ``gs://`` with the ``cloud`` extra) or mapper, or an ``xr.Dataset`` /
+        ``xr.DataArray`` (numpy- or dask-backed) already in hand.
     var
         Variable name; by default the variable is found by its CF standard_name, else by
         precipitation-like units, else by a conventional name (pr, precip, tp, …).
@@ -383,48 +363,70 @@ def open_precip(source, var=None, chunks="auto", validate="auto") -> xr.DataArra
         20 million values and chunk by chunk as data are read for larger ones; True always
         checks at open (reads the data once); False only guards chunks as they are read.
 
-    Time stamps are taken as the start of each step. Hourly or daily files whose CF time
-    bounds show the stamp at the end of the step are relabelled to the start
-    (``attrs["time_labels"]`` says so); without bounds the two cannot be told apart.
+    Time stamps are taken as the start of each step. Files whose CF time bounds show the
+    stamp at the end of the step (hourly accumulations, monthly means stamped at the next
+    month's first instant) are relabelled to the start (``attrs["time_labels"]`` says so);
+    without bounds the two cannot be told apart.
+
+    Any regular step that divides a day, or a calendar month, is accepted.  Sub-hourly steps
+    (1 to 30 minutes) are summed to hourly totals on open, an hour with any missing step
+    being missing (``attrs["native_step"]`` keeps the original); n-hourly steps (2, 3, 4, 6,
+    8, 12 hours) are kept as ``"3hour"`` and so on.  Rates are multiplied by the exact step.
+
+    Variables and coordinates are found the CF way (standard_name, axis, units, as
+    cf-xarray reads them), so ``latitude``/``longitude``, ``valid_time`` and similar names
+    arrive as time/lat/lon.  Ensemble dimensions (``member``, ``realization``,
+    ``ensemble``, ``model``) are kept, in front of time.  A grid with only projected x/y
+    and a CF ``grid_mapping`` gets 2-D lat/lon from the mapping (pyproj) and is curvilinear.
+
+    Raises
+    ------
+    climwidgets.InputError
+        A subclass naming the source, the variable, what was expected and the fix, for
+        anything the checks refuse (units, time axis, grid, values, missing files).
 
     Returns
     -------
-    xr.DataArray with dims (time, lat, lon) or (time, y, x), ``units="mm"``, ``step`` in
-    {"hour", "day", "month"}, and the original units, conversion and sources in attrs.
+    xr.DataArray with dims ([member,] time, lat, lon) or ([member,] time, y, x),
+    ``units="mm"``, ``step`` in {"hour", "2hour" … "12hour", "day", "month"}, and the
+    original units, conversion and sources in attrs.  The input (file or object) is never
+    modified.
     """
-    sources = resolve(source)
-    parts = [_open_part(p, var, "precipitation", chunks) for p in sources]
+    if isinstance(source, (xr.Dataset, xr.DataArray)):
+        sources = [source_label(source)]
+        parts = [_open_object(source, var, "precipitation", chunks)]
+    else:
+        resolved = resolve(source)
+        sources = [source_label(p) for p in resolved]
+        parts = [_open_part(p, var, "precipitation", chunks) for p in resolved]
     da, tbounds = _combine(parts, sources)
     info = parts[0][1]
     name, attrs = info["name"], info["attrs"]
     where = sources[0] if len(sources) == 1 else f"{sources[0]} (+{len(sources) - 1} more)"
+    stamps, label_note = timeaxis.start_labels(da["time"], tbounds)
+    if label_note:  # before the step lengths are taken, so each step gets its own month's length
+        da = da.assign_coords(time=("time", stamps, da["time"].attrs))
     step = timeaxis.infer_step(da["time"], tbounds, source=where)
     units = parse_units(attrs.get("units"), source=where, variable=name)
-    mask_fill = _needs_fill_heuristics(info["encoding"], attrs)
+    mask_fill = needs_fill_heuristics(info["encoding"], attrs)
     fill_note = ("values >= 1e15 and -9999/-999/-99999 treated as missing (no _FillValue in the file)"
                  if mask_fill else None)
-    factor, conversion = _conversion(da, units, step, where, name)
+    factor, conversion = step_factor(units, da["time"], step, source=where, variable=name)
     if chunks is None:
         da = da.compute()
     eager = validate is True or (validate == "auto" and da.size <= EAGER_CHECK_MAX_VALUES)
     guard = {"mask_fill": mask_fill, "guard": not eager, "source": where, "name": name}
-    da = xr.apply_ufunc(_convert_block, da, factor, kwargs=guard,
+    da = xr.apply_ufunc(convert_block, da, factor, kwargs=guard,
                         dask="parallelized", output_dtypes=[np.float64], keep_attrs=False)
     if eager:
-        _check_values(da, where, name)
+        check_values(da, where, name)
         da = da.where(~(da < 0), 0.0)  # tiny negatives within tolerance
     if step == "month":
         da = da.assign_coords(time=timeaxis.month_starts(da["time"]))
-    label_note = None
-    if step in ("hour", "day") and tbounds is not None and tbounds.shape == (da.sizes["time"], 2):
-        # Sums are attributed by the time stamp, taken as the start of each step. Files that
-        # stamp the end of the interval (common for hourly accumulations) say so in their
-        # CF time bounds: relabel those to the interval start, so that no hour or day is
-        # counted in the next month or year.
-        lower, upper = tbounds.values[:, 0], tbounds.values[:, 1]
-        if np.all(da["time"].values == upper) and not np.all(da["time"].values == lower):
-            da = da.assign_coords(time=("time", lower, da["time"].attrs))
-            label_note = "time stamps marked the end of each step (time bounds); relabelled to the start"
+    native_step = step
+    if timeaxis.is_subhourly(step):
+        da = timeaxis.sum_to_hours(da, step)  # missing steps make the hour missing
+        step = "hour"
     full = timeaxis.full_axis(da["time"], step)
     gaps = len(full) - da.sizes["time"]
     if gaps > 0 and not da["time"].to_index().isin(full).all():
@@ -451,15 +453,27 @@ def open_precip(source, var=None, chunks="auto", validate="auto") -> xr.DataArra
         out_attrs["missing_value_heuristics"] = fill_note
     if label_note:
         out_attrs["time_labels"] = label_note
+    if native_step != step:
+        out_attrs["native_step"] = native_step
+        out_attrs["conversion"] += (f"; {native_step} steps summed to hourly totals "
+                                    "(an hour with any missing step is missing)")
     da.attrs = out_attrs
     da.name = "pr"
     return with_history(da, "open_precip", None, source=where, var=name)
 
 
 def open_elevation(source, var=None) -> xr.DataArray:
-    """Open a terrain grid as elevation in metres on the house grid layout (lat, lon) or (y, x)."""
-    sources = resolve(source)
-    da, info = _open_part(sources[0], var, "elevation")
+    """Open a terrain grid as elevation in metres on the house grid layout (lat, lon) or (y, x).
+
+    ``source`` is anything :func:`open_precip` takes, an ``xr.Dataset`` or ``xr.DataArray`` too.
+    """
+    if isinstance(source, (xr.Dataset, xr.DataArray)):
+        sources = [source_label(source)]
+        da, info = _open_object(source, var, "elevation")
+    else:
+        resolved = resolve(source)
+        sources = [source_label(resolved[0])]
+        da, info = _open_part(resolved[0], var, "elevation")
     name = info["name"]
     if "time" in da.dims:
         if da.sizes["time"] != 1:

@@ -1,4 +1,10 @@
-"""Turn what the user passed (path, glob, list, URL, Zarr store) into opened datasets.
+"""Turn what the user passed (path, glob, list, URL, Zarr store, fsspec URL or mapper) into
+opened datasets.
+
+fsspec URLs (``file://``, ``memory://``, ``s3://``, ``gs://`` and any protocol fsspec knows)
+and fsspec mappers are opened through fsspec: Zarr stores as mappers, NetCDF-4 files as
+file objects read by h5netcdf.  ``file://`` URLs of NetCDF files become plain paths.  The
+object-store clients (s3fs, gcsfs) are the optional ``cloud`` extra.
 
 Opening never reads data values: only metadata and coordinates.  Every failure of the
 underlying libraries is turned into a :class:`SourceError` that names the file.
@@ -19,11 +25,59 @@ _GLOB_CHARS = set("*?[")
 _URL_PREFIXES = ("http://", "https://", "dods://", "dap://", "dap4://")
 
 
-def is_url(text: str) -> bool:
-    return str(text).lower().startswith(_URL_PREFIXES)
+def is_url(text) -> bool:
+    return isinstance(text, str) and text.lower().startswith(_URL_PREFIXES)
 
 
-def is_zarr(path: str | os.PathLike) -> bool:
+def is_fsspec(source) -> bool:
+    """An fsspec URL such as memory://… or s3://… (not OPeNDAP over http), or a mapper."""
+    if type(source).__name__ == "FSMap" and hasattr(source, "fs"):
+        return True
+    return isinstance(source, str) and "://" in source and not is_url(source)
+
+
+def source_label(source) -> str:
+    """A short text naming a source in messages and attrs."""
+    import xarray as xr
+
+    if isinstance(source, xr.DataArray):
+        return f"DataArray {source.name!r}" if source.name is not None else "the given DataArray"
+    if isinstance(source, xr.Dataset):
+        return "the given Dataset (" + ", ".join(map(str, list(source.data_vars)[:4])) + ")"
+    if type(source).__name__ == "FSMap":
+        protocol = source.fs.protocol[0] if isinstance(source.fs.protocol, (tuple, list)) else source.fs.protocol
+        return f"{protocol}://{source.root.lstrip('/')}" if protocol not in ("file", "local") else source.root
+    return str(source)
+
+
+def _resolve_fsspec(text: str) -> list:
+    import fsspec
+
+    protocol = text.split("://", 1)[0].lower()
+    if protocol in ("file", "local"):
+        return resolve(text.split("://", 1)[1])  # a plain path: direct reads, checks, globs
+    try:
+        fs, _, paths = fsspec.get_fs_token_paths(text)
+    except (ImportError, ValueError) as exc:
+        raise SourceError(f"cannot be opened: {exc}", source=text, expected="an fsspec URL whose protocol is installed",
+                          fix="install the object-store client (pip install 'climwidgets[cloud]' for s3:// "
+                              "and gs://) or copy the data to a local folder") from None
+    if _GLOB_CHARS & set(text):
+        if not paths:
+            raise SourceError("the pattern matches no files", source=text, expected="at least one matching file",
+                              fix="check the folder and the pattern")
+        return [fs.unstrip_protocol(p) for p in sorted(paths)]
+    if not fs.exists(paths[0]):
+        raise SourceError("does not exist", source=text, expected="an existing NetCDF file or Zarr store",
+                          fix="check the address (protocol, bucket and path)")
+    return [text]
+
+
+def is_zarr(path) -> bool:
+    if type(path).__name__ == "FSMap":
+        return any(m in path for m in (".zgroup", ".zarray", "zarr.json"))
+    if isinstance(path, str) and is_fsspec(path):
+        return path.rstrip("/").endswith(".zarr") or _fsspec_is_zarr(path)
     p = Path(path)
     return p.suffix == ".zarr" or (p.is_dir() and any((p / m).exists() for m in (".zgroup", ".zarray", "zarr.json")))
 
@@ -38,9 +92,13 @@ def resolve(source) -> list[str]:
         for item in source:
             out.extend(resolve(item))
         return out
+    if is_fsspec(source) and not isinstance(source, str):
+        return [source]  # an fsspec mapper (for example fsspec.get_mapper("memory://store.zarr"))
     text = os.fspath(source) if isinstance(source, os.PathLike) else str(source)
     if is_url(text):
         return [text]
+    if is_fsspec(text):
+        return _resolve_fsspec(text)
     expanded = os.path.expanduser(text)
     if _GLOB_CHARS & set(expanded):
         matches = sorted(glob.glob(expanded))
@@ -57,6 +115,30 @@ def resolve(source) -> list[str]:
                           expected="a NetCDF file, a glob pattern, or a Zarr store",
                           fix=f"pass a pattern such as '{os.path.join(text, '*.nc')}'")
     return [expanded]
+
+
+def _fsspec_is_zarr(url: str) -> bool:
+    import fsspec
+
+    fs, _, paths = fsspec.get_fs_token_paths(url)
+    return fs.isdir(paths[0]) and any(fs.exists(f"{paths[0].rstrip('/')}/{m}") for m in (".zgroup", "zarr.json"))
+
+
+def _open_fsspec(source) -> xr.Dataset:
+    """A Zarr store (URL or mapper) or a NetCDF-4 file object over fsspec, lazily."""
+    import fsspec
+
+    if is_zarr(source):
+        store = source if not isinstance(source, str) else fsspec.get_mapper(source)
+        with warnings.catch_warnings():  # stores without consolidated metadata are fine
+            warnings.simplefilter("ignore", RuntimeWarning)
+            return xr.open_dataset(store, engine="zarr", decode_times=False, chunks=None)
+    handle = fsspec.open(source, "rb").open()  # kept open for lazy reads; closed with the dataset
+    try:
+        return xr.open_dataset(handle, engine="h5netcdf", decode_times=False, chunks=None, cache=False)
+    except Exception:
+        handle.close()
+        raise
 
 
 _NC3_TYPE_SIZES = {1: 1, 2: 1, 3: 2, 4: 4, 5: 4, 6: 8, 7: 1, 8: 2, 9: 4, 10: 8, 11: 8}
@@ -148,26 +230,32 @@ def _check_not_short(source: str) -> None:
                           fix="copy or download the file again; a transfer was probably cut short")
 
 
-def open_raw(source: str) -> xr.Dataset:
+def open_raw(source) -> xr.Dataset:
     """Open one source lazily with times left undecoded (they are checked before decoding)."""
-    if not is_zarr(source) and not is_url(source) and os.path.isfile(source):
+    if not is_fsspec(source) and not is_zarr(source) and not is_url(source) and os.path.isfile(source):
         _check_not_short(source)
     try:
+        if is_fsspec(source):
+            return _open_fsspec(source)
         if is_zarr(source):
             with warnings.catch_warnings():  # stores without consolidated metadata are fine
                 warnings.simplefilter("ignore", RuntimeWarning)
                 return xr.open_dataset(source, engine="zarr", decode_times=False, chunks=None)
         return xr.open_dataset(source, engine="netcdf4", decode_times=False, chunks=None, cache=False)
     except Exception as exc:  # every backend failure becomes one readable error
+        label = source_label(source)
         if is_zarr(source):
             problem = "could not be opened as a Zarr store (is it empty or incomplete?)"
             fix = "check that the store was written completely; rewrite it with xarray's to_zarr"
         elif is_url(source):
             problem = "could not be opened as an OPeNDAP URL"
             fix = "check the address and that the server is reachable from this machine"
+        elif is_fsspec(source):
+            problem = "could not be read as NetCDF-4 or Zarr through fsspec"
+            fix = "check the address; NetCDF-3 files need a local copy (fsspec reads NetCDF-4 with h5netcdf)"
         else:
             size = os.path.getsize(source) if os.path.exists(source) else 0
             problem = (f"could not be read as NetCDF ({size} bytes; it may be truncated, still being "
                        "written, or not a NetCDF file)")
             fix = "check the file with 'ncdump -h', download or copy it again"
-        raise SourceError(f"{problem}: {type(exc).__name__}: {exc}", source=source, fix=fix) from None
+        raise SourceError(f"{problem}: {type(exc).__name__}: {exc}", source=label, fix=fix) from None

@@ -17,8 +17,28 @@ SUPPORTED_CALENDARS = {
     "standard", "gregorian", "proleptic_gregorian", "noleap", "365_day",
     "all_leap", "366_day", "360_day", "julian",
 }
-STEP_SECONDS = {"hour": 3600.0, "day": 86400.0}
-_FREQ = {"hour": "h", "day": "D", "month": "MS"}
+# Regular steps the loader accepts.  Sub-hourly steps are summed to hourly totals on open
+# (so every function downstream sees at most hourly data); n-hourly steps that divide a day
+# are kept as they are ("3hour", "6hour", ...); "month" has no fixed length.
+SUBHOURLY_MINUTES = (1, 2, 3, 4, 5, 6, 10, 12, 15, 20, 30)
+MULTIHOUR_HOURS = (2, 3, 4, 6, 8, 12)
+STEP_SECONDS = {"hour": 3600.0, "day": 86400.0,
+                **{f"{n}min": 60.0 * n for n in SUBHOURLY_MINUTES},
+                **{f"{n}hour": 3600.0 * n for n in MULTIHOUR_HOURS}}
+#: steps a canonical precipitation DataArray may have (after open_precip)
+CANONICAL_STEPS = ("hour", *(f"{n}hour" for n in MULTIHOUR_HOURS), "day", "month")
+_FREQ = {"hour": "h", "day": "D", "month": "MS",
+         **{f"{n}min": f"{n}min" for n in SUBHOURLY_MINUTES},
+         **{f"{n}hour": f"{n}h" for n in MULTIHOUR_HOURS}}
+
+
+def steps_per_day(step: str) -> float:
+    """How many steps of ``step`` make one day (not defined for "month")."""
+    return 86400.0 / STEP_SECONDS[step]
+
+
+def is_subhourly(step: str) -> bool:
+    return step.endswith("min")
 
 
 def check_calendar(calendar, *, source=None, variable="time") -> str:
@@ -49,7 +69,8 @@ def _offsets_seconds(index) -> np.ndarray:
 
 
 def infer_step(time: xr.DataArray, bounds: xr.DataArray | None = None, *, source=None) -> str:
-    """"hour", "day" or "month", from time bounds when present, else from the spacing."""
+    """The step name (a key of STEP_SECONDS, or "month"), from time bounds when present, else
+    from the spacing of the stamps."""
     index = time.to_index()
     if bounds is not None and bounds.size >= 2:
         b = bounds.values
@@ -64,16 +85,20 @@ def infer_step(time: xr.DataArray, bounds: xr.DataArray | None = None, *, source
             source=source, variable="time", expected="at least two time steps or a 'bounds' variable on time",
             fix="add CF time bounds (time_bnds) to the file, or open more than one time step")
     typical = float(np.median(lengths))
-    if abs(typical - 3600.0) < 60:
-        return "hour"
+    for step, seconds in STEP_SECONDS.items():
+        if abs(typical - seconds) < min(60.0, 0.02 * seconds):
+            return step
     if abs(typical - 86400.0) < 3600:
         return "day"
     if 27 * 86400 <= typical <= 31.5 * 86400:
         return "month"
+    minutes = ", ".join(str(n) for n in SUBHOURLY_MINUTES)
+    hours = ", ".join(str(n) for n in MULTIHOUR_HOURS)
     raise TimeAxisError(
         f"has a time step of about {typical / 3600:.4g} hours", source=source, variable="time",
-        expected="hourly, daily or monthly data",
-        fix="resample to hourly, daily or monthly totals before opening (for example with xarray's resample)")
+        expected=f"a regular step of {minutes} minutes, 1, {hours} hours, one day or one month "
+                 "(steps that divide a day or are a calendar month)",
+        fix="resample to daily or monthly totals before opening (for example with xarray's resample)")
 
 
 def step_seconds(time: xr.DataArray, step: str) -> xr.DataArray:
@@ -127,3 +152,47 @@ def full_axis(time: xr.DataArray, step: str):
     start, end = time.values[0], time.values[-1]
     use_cftime = not np.issubdtype(time.dtype, np.datetime64)
     return xr.date_range(start=start, end=end, freq=_FREQ[step], calendar=cal, use_cftime=use_cftime)
+
+
+def start_labels(time: xr.DataArray, bounds: xr.DataArray | None):
+    """Stamps taken as the start of each step, and a note when they were moved.
+
+    Sums are attributed to the step that holds the stamp, taken as its start.  Files that
+    stamp the end of each interval (common for accumulations, and for monthly means stamped
+    at the first instant of the next month) say so in their CF time bounds: where every
+    stamp equals its upper bound, the lower bounds become the stamps, so no hour, day or
+    month is counted in the next one.  Without bounds the two cannot be told apart.
+    """
+    if bounds is None or bounds.shape != (time.size, 2):
+        return time.values, None
+    lower, upper = bounds.values[:, 0], bounds.values[:, 1]
+    stamps = time.values
+    if np.all(stamps == upper) and not np.all(stamps == lower):
+        return lower, "time stamps marked the end of each step (time bounds); relabelled to the start"
+    return stamps, None
+
+
+def sum_to_hours(da: xr.DataArray, step: str) -> xr.DataArray:
+    """Depths per sub-hourly step summed to hourly totals (lazy).
+
+    The axis is first completed to whole hours with missing steps, so an hour with any
+    missing step (including the partial first and last hours) is missing, never short.
+    """
+    import datetime
+
+    k = int(round(3600.0 / STEP_SECONDS[step]))
+    cal = calendar_of(da["time"])
+    use_cftime = not np.issubdtype(da["time"].dtype, np.datetime64)
+    index = da["time"].to_index()
+    start = index[0].replace(minute=0, second=0, microsecond=0)
+    end = index[-1].replace(minute=0, second=0, microsecond=0) + datetime.timedelta(seconds=3600 - STEP_SECONDS[step])
+    full = xr.date_range(start=start, end=end, freq=_FREQ[step], calendar=cal, use_cftime=use_cftime)
+    if not index.isin(full).all():
+        raise TimeAxisError(f"has {step} stamps that are not whole multiples of the step after the hour",
+                            variable="time", expected=f"stamps at regular {step} steps from the hour",
+                            fix="resample to hourly totals before opening")
+    blocks = da.reindex(time=full).coarsen(time=k, boundary="trim").construct(time=("hour", "within"))
+    out = blocks.sum("within", skipna=False).rename(hour="time")
+    hours = xr.date_range(start=start, periods=out.sizes["time"], freq="h", calendar=cal, use_cftime=use_cftime)
+    out = out.drop_vars([c for c in out.coords if "time" in out[c].dims])
+    return out.assign_coords(time=("time", np.asarray(hours), da["time"].attrs)).transpose(*da.dims)

@@ -147,3 +147,26 @@ def length_to_metres(text, *, source=None, variable=None) -> float:
         return _LENGTH[t]
     raise UnitsError(f"has units '{text}', not a length", source=source, variable=variable,
                      expected="m, km or ft", fix="set the elevation variable's 'units' attribute to 'm' or 'ft'")
+
+
+def step_factor(units: UnitInfo, time, step: str, *, source=None, variable=None):
+    """``(factor, description)``: what turns values in ``units`` into mm per time step.
+
+    A depth needs only its length factor; a rate is multiplied by the length of each step
+    in seconds in the time axis's own calendar (``factor`` is then a DataArray on time);
+    per-month units are depths per step for monthly data only.
+    """
+    from . import timeaxis
+
+    if units.kind == "depth":
+        return units.to_mm, f"depth in '{units.text}' x {units.to_mm:g} -> mm"
+    if units.per_month:
+        if step != "month":
+            raise UnitsError(f"has per-month units '{units.text}' but {step} steps", source=source,
+                             variable=variable, expected="monthly data for per-month units",
+                             fix="set the units to the actual rate (for example mm/day)")
+        return units.to_mm, f"monthly depth in '{units.text}' x {units.to_mm:g} -> mm"
+    seconds = timeaxis.step_seconds(time, step)
+    how = ("x days in each month of the file's calendar x 86400 s" if step == "month"
+           else f"x {timeaxis.STEP_SECONDS[step]:g} s per {step}")
+    return seconds * units.to_mm, f"rate in '{units.text}' x {units.to_mm:g} -> mm/s, {how}"

@@ -106,3 +106,21 @@ def test_bad_parameters(mon):
         anomaly(mon, baseline=(1961, 1990))
     with pytest.raises(ParameterError, match="outside 1..12"):
         tercile_category(mon, period="season", months=(0, 1))
+
+
+def test_record_starting_in_march_1991_has_1991_2020_anomalies(mon):
+    """WMO-No. 1203 (2017): a normal needs 80 % of the baseline years (24 of 30), judged
+    month by month, so 29 Januaries (1992-2020) are enough; SPI already accepted this."""
+    late = mon.isel(time=slice(2, None))  # March 1991 onwards
+    a = anomaly(late, kind="absolute")
+    jan = late.sel(time=late.time.dt.month == 1)
+    base = jan.sel(time=slice("1992", "2020"))
+    expected = jan - base.mean("time")
+    np.testing.assert_allclose(a.sel(time=jan.time).values, expected.values, rtol=1e-12)
+    yearly = anomaly(late, kind="percent", period="year")  # 1991 missing: 29 of 30 years
+    totals = late.resample(time="YS").sum().sel(time=slice("1992", "2020"))
+    np.testing.assert_allclose(yearly.sel(year=2021).values,
+                               100 * late.sel(time="2021").sum("time").values / totals.mean("time").values,
+                               rtol=1e-12)
+    cats = tercile_category(late)
+    assert np.isfinite(cats.sel(time="1991-03")).all()

@@ -89,8 +89,9 @@ def test_dask_same_numbers(gappy):
 
 def test_baseline_outside_data_names_the_period():
     pr = daily("2001-01-01", "2010-12-31")
-    with pytest.raises(ParameterError, match="baseline=\\(1991, 2020\\) lies outside the data, "
-                                             "whose complete years are 2001-2010") as err:
+    # judged by the WMO-No. 1203 count (24 of 30 years), not by whole years inside the record
+    with pytest.raises(ParameterError, match="baseline=\\(1991, 2020\\) lies outside the data or overlaps "
+                                             "it too little: 10 of its 30 years .*2001-2010.*at least 24") as err:
         normals(pr)
     assert "Fix:" in str(err.value)
     with pytest.raises(ParameterError, match="ends before it starts"):
@@ -99,3 +100,31 @@ def test_baseline_outside_data_names_the_period():
         normals(pr, baseline=(2001, 2010), min_fraction=1.5)
     with pytest.raises(ParameterError, match="repeats a month"):
         seasonal_normal(pr, (1, 1), baseline=(2001, 2010))
+
+
+# ---- a record that starts in March 1991: judged month by month (WMO-No. 1203, 2017:
+# a monthly normal needs at least 80 % of the baseline years, i.e. 24 of 30)
+
+def test_record_starting_in_march_1991_uses_the_1991_2020_baseline():
+    pr = daily("1991-03-01", "2020-12-31")
+    n = normals(pr)
+    # January and February have 29 of 30 years (>= 24): computed; March..December have 30
+    assert n.n_years.sel(month=1).values.tolist() == [[29, 29]]
+    assert n.n_years.sel(month=3).values.tolist() == [[30, 30]]
+    np.testing.assert_allclose(n.sel(month=1), 31.0)
+    # February over 1992-2020: 21 common years of 28 days and 8 leap years of 29
+    leap_1992_2020 = 8  # 1992, 1996, …, 2020 (Gregorian rule, from memory)
+    feb = (21 * 28 + leap_1992_2020 * 29) / 29
+    np.testing.assert_allclose(n.sel(month=2), feb, rtol=1e-12)
+    np.testing.assert_allclose(n.sel(month=3), 31.0)
+    # annual normal = sum of the 12 monthly normals: 31 + Feb + 306 (March-December)
+    np.testing.assert_allclose(annual_normal(pr), 31 + feb + 306, rtol=1e-12)
+
+
+def test_too_short_a_start_fails_month_by_month_not_all_or_nothing():
+    pr = daily("1997-03-01", "2020-12-31")  # March 1997 on: Jan/Feb 23 years, Mar-Dec 24 years
+    n = normals(pr)
+    assert np.isnan(n.sel(month=[1, 2])).all()  # 23 of 30 < 24
+    np.testing.assert_allclose(n.sel(month=3), 31.0)  # 24 of 30 >= 24
+    assert n.attrs["years_required"] == 24
+    assert np.isnan(annual_normal(pr)).all()  # the sum of the 12 monthly normals needs all 12

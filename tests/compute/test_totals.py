@@ -115,12 +115,12 @@ def test_curvilinear_grid():
 
 def test_bad_inputs_explain_themselves():
     pr = daily("2001-01-01", "2001-12-31")
-    with pytest.raises(UnitsError, match="units are 'kg m-2 s-1'.*Expected: attrs\\['units'\\] == 'mm'"):
-        monthly_totals(pr.assign_attrs(units="kg m-2 s-1"))
+    with pytest.raises(UnitsError, match="units 'furlongs'.*not a unit of mass, length or time"):
+        monthly_totals(pr.assign_attrs(units="furlongs"))
     with pytest.raises(TimeAxisError, match="step"):
         monthly_totals(pr.assign_attrs(step="week"))
     with pytest.raises(TimeAxisError, match="no 'time' dimension"):
-        monthly_totals(pr.rename(time="t"))
+        monthly_totals(pr.isel(time=0))
     with pytest.raises(ParameterError, match="year_start=13.*Fix: pass year_start=1"):
         annual_totals(pr, year_start=13)
     with pytest.raises(InputError, match="no complete 12-month year starting in Oct"):

@@ -380,6 +380,39 @@ def b_three_members(d):
     return _write(ds, d / "three_members.nc")
 
 
+def b_three_levels(d):
+    ds = _dataset(field_values(4)).expand_dims(level=[850, 700, 500], axis=1)
+    return _write(ds, d / "three_levels.nc")
+
+
+def b_five_daily(d):
+    return _write(_dataset(field_values(4), time=np.arange(4) * 5.0), d / "five_daily.nc")
+
+
+def b_half_hourly(d):
+    return _write(_dataset(field_values(8), units="mm/h", time=np.arange(8) / 48.0), d / "half_hourly.nc")
+
+
+def b_monthly_end_stamped(d):
+    starts = np.asarray(_month_offsets(range(1, 14)), float)  # Jan 2001 .. Jan 2002
+    ds = _dataset(np.ones((12, LAT.size, LON.size)), units="mm/day", time=starts[1:])
+    ds["time_bnds"] = (("time", "nv"), np.stack([starts[:-1], starts[1:]], axis=1))
+    ds["time"].attrs["bounds"] = "time_bnds"
+    return _write(ds, d / "monthly_end_stamped.nc")
+
+
+def b_projected_only(d):
+    ds = xr.Dataset(
+        {"pr": (("time", "y", "x"), field_values(4), {"units": "mm", "grid_mapping": "crs"}),
+         "crs": ((), 0, {"grid_mapping_name": "polar_stereographic", "latitude_of_projection_origin": -90.0,
+                         "straight_vertical_longitude_from_pole": -140.0, "standard_parallel": -60.0,
+                         "false_easting": 0.0, "false_northing": 0.0, "earth_radius": 6371229.0})},
+        coords={"time": ("time", np.arange(4.0), {"units": TIME_UNITS, "standard_name": "time"}),
+                "y": ("y", np.array([6.0e6, 6.05e6, 6.1e6]), {"standard_name": "projection_y_coordinate", "units": "m"}),
+                "x": ("x", np.array([0.0, 5e4, 1e5, 1.5e5]), {"standard_name": "projection_x_coordinate", "units": "m"})})
+    return _write(ds, d / "projected_only.nc")
+
+
 def b_two_candidates(d):
     ds = _dataset(field_values(4), standard_name=None)
     ds["rain"] = (("time", "lat", "lon"), field_values(4), {"units": "mm"})
@@ -514,6 +547,41 @@ def c_plain4(pr):
     _close(pr.values, field_values(4))
 
 
+def c_three_hourly(pr):
+    assert pr.attrs["step"] == "3hour"
+    _close(pr.values, field_values(4))
+
+
+def c_three_members(pr):
+    assert pr.dims == ("member", "time", "lat", "lon") and pr.sizes["member"] == 3
+    for m in range(3):
+        _close(pr.isel(member=m).values, field_values(4))
+
+
+def c_half_hourly(pr):
+    # 1 mm/h rates over two half hours make each hourly total the mean of its pair
+    assert pr.attrs["step"] == "hour" and pr.attrs["native_step"] == "30min" and pr.sizes["time"] == 4
+    v = field_values(8)
+    _close(pr.values, 0.5 * (v[0::2] + v[1::2]))
+
+
+def c_monthly_end_stamped(pr):
+    assert "relabelled" in pr.attrs["time_labels"] and str(pr["time"].values[0])[:10] == "2001-01-01"
+    _close(pr.values[:, 0, 0], [31, 28, 31, 30, 31, 30, 31, 31, 30, 31, 30, 31])
+
+
+def c_projected_only(pr):
+    from pyproj import CRS, Transformer
+
+    assert pr.dims == ("time", "y", "x") and pr.lat.dims == ("y", "x")
+    crs = CRS.from_cf({"grid_mapping_name": "polar_stereographic", "latitude_of_projection_origin": -90.0,
+                       "straight_vertical_longitude_from_pole": -140.0, "standard_parallel": -60.0,
+                       "false_easting": 0.0, "false_northing": 0.0, "earth_radius": 6371229.0})
+    lon, lat = Transformer.from_crs(crs, crs.geodetic_crs, always_xy=True).transform(0.0, 6.0e6)
+    _close([pr.lon.values[0, 0], pr.lat.values[0, 0]], [lon, lat])
+    _close(pr.values, field_values(4))
+
+
 def c_valid_time(pr):
     assert pr.attrs["original_variable"] == "tp" and pr.attrs["original_units"] == "m"
     _close(pr.values, field_values(4), tol=1e-9)
@@ -590,7 +658,16 @@ CASES = [
     Case("unsupported_calendar", "calendar 'lunar_pentad'", b_unsupported_calendar,
          Raises(CalendarError, ("lunar_pentad",), "CalendarError listing the supported calendars")),
     Case("three_hourly", "3-hourly steps", b_three_hourly,
-         Raises(TimeAxisError, ("about 3 hours", "resample"), "TimeAxisError; suggests resampling")),
+         Opens(c_three_hourly, "opens; step '3hour', values as stored")),
+    Case("five_daily", "5-day steps (pentads)", b_five_daily,
+         Raises(TimeAxisError, ("about 120 hours", "divide a day", "resample"),
+                "TimeAxisError; lists the accepted steps, suggests resampling")),
+    Case("half_hourly", "30-minute rates in mm/h", b_half_hourly,
+         Opens(c_half_hourly, "opens; summed to hourly totals, native step in attrs")),
+    Case("monthly_end_stamped", "monthly 1 mm/day stamped at each month's end (time = upper time_bnds)",
+         b_monthly_end_stamped, Opens(c_monthly_end_stamped, "opens; relabelled to month starts, January 31 mm")),
+    Case("projected_only", "polar stereographic x/y with a CF grid_mapping, no lat/lon", b_projected_only,
+         Opens(c_projected_only, "opens curvilinear; lat/lon from the mapping (pyproj)")),
     Case("lat_desc_lon_wrap", "lat descending, lon 350,355,0,5 (wraps through 0)", b_lat_desc_lon_wrap,
          Opens(c_lat_desc_lon_wrap, "opens; lat ascending, lon -10..5, values follow, bounds shifted")),
     Case("cyclic_lon", "lon 0,120,240,360 (360 repeats 0)", b_cyclic_lon,
@@ -630,7 +707,9 @@ CASES = [
     Case("singleton_member", "extra leading dim member=1", b_singleton_member,
          Opens(c_plain4, "opens; singleton dropped")),
     Case("three_members", "extra dim member=3", b_three_members,
-         Raises(GridError, ("member", "isel"), "GridError; select one member first")),
+         Opens(c_three_members, "opens; member dimension kept in front of time")),
+    Case("three_levels", "extra dim level=3 between time and lat", b_three_levels,
+         Raises(GridError, ("level", "isel", "member"), "GridError; select one level, or rename to member")),
     Case("two_candidates", "two variables 'pr' and 'rain', both in mm, no standard_name", b_two_candidates,
          Raises(VariableError, ("several", "var="), "VariableError listing both")),
     Case("huge_chunks", "stored chunk (100000, 3, 4) on a 6-step unlimited time", b_huge_chunks,

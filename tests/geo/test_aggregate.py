@@ -116,3 +116,49 @@ def test_basin_means_equal_basin_mean_of_each_basin():
         one = cw.basin_mean(pr, b)
         np.testing.assert_allclose(both.sel(basin=b.name).values, one.values, rtol=1e-12)
         np.testing.assert_allclose(both["covered_fraction"].sel(basin=b.name).values, one["covered_fraction"].values)
+
+
+# ---- ensemble members, CF names, depth units
+
+def _members(grid):
+    rng = np.random.default_rng(5)
+    data = rng.gamma(2.0, 3.0, (2,) + grid.shape)
+    data[(1,) + (0,) * (grid.ndim - 2) + (3, 4)] = np.nan  # one missing cell in one member
+    return grid.expand_dims(member=["a", "b"]).copy(data=data).assign_attrs(units="mm")
+
+
+@pytest.mark.parametrize("make", [lambda: rect_grid(-35, -30, -150, -144, 0.25, ntime=3, value=1.0),
+                                  lambda: rotated_grid(lat0=-35.0, lon0=-150.0)])
+def test_members_equal_per_member_basin_means_and_volumes(make):
+    field = _members(make())
+    for f in (cw.basin_mean, cw.basin_volume):
+        together = f(field, BASIN)
+        assert together.dims[0] == "member"
+        for m in ("a", "b"):
+            alone = f(field.sel(member=m, drop=True), BASIN)
+            np.testing.assert_allclose(together.sel(member=m).values, alone.values, rtol=1e-12)
+            np.testing.assert_allclose(together.covered_fraction.sel(member=m).values,
+                                       alone.covered_fraction.values, rtol=1e-12)
+    lazy = cw.basin_mean(field.chunk({"member": 1}), BASIN)
+    assert isinstance(lazy.data, dask.array.Array)
+    np.testing.assert_allclose(lazy.values, cw.basin_mean(field, BASIN).values, rtol=1e-12)
+
+
+def test_cf_names_and_depth_units():
+    pr = rect_grid(-35, -30, -150, -144, 0.25, ntime=2, value=10.0)
+    cf = pr.rename(lat="latitude", lon="longitude")
+    np.testing.assert_allclose(cw.basin_mean(cf, BASIN).values, cw.basin_mean(pr, BASIN).values)
+    in_cm = (pr / 10.0).assign_attrs(units="cm")
+    np.testing.assert_allclose(cw.basin_volume(in_cm, BASIN).values, cw.basin_volume(pr, BASIN).values, rtol=1e-12)
+    import xarray as xr
+
+    with xr.set_options(keep_attrs=False):
+        bare = pr * 1.0
+    with pytest.raises(UnitsError, match="no 'units' attribute.*keep_attrs=True"):
+        cw.basin_volume(bare, BASIN)
+
+
+def test_curvilinear_cf_names():
+    grid = rotated_grid(lat0=-35.0, lon0=-150.0).assign_attrs(units="mm") + 3.0
+    cf = grid.rename(lat="latitude", lon="longitude")
+    np.testing.assert_allclose(float(cw.basin_mean(cf, BASIN)), float(cw.basin_mean(grid, BASIN)), rtol=1e-12)

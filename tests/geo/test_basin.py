@@ -176,3 +176,45 @@ def test_shapefile_projected_is_reprojected(tmp_path):
         cw.Basin.from_shapefile(tmp_path / "p.shp", name_field="ID")
     with pytest.raises(SourceError, match="file not found"):
         cw.Basin.from_shapefile(tmp_path / "missing.shp")
+
+
+# ---- outlines with 360-degree edges (whole globe, polar caps)
+
+def test_whole_globe_outline_has_the_authalic_sphere_area():
+    from climwidgets.geo.area import AUTHALIC_RADIUS_M
+
+    globe = cw.Basin.from_vertices([(-180, -90), (180, -90), (180, 90), (-180, 90)], name="globe")
+    # WGS84 surface area 510 065 621.7 km² (from memory; = 4π R_q² with the authalic
+    # radius 6 371 007.18 m of Snyder 1987, USGS PP 1395, eq. 3-13); the suite's sphere uses
+    # R rounded to 6 371 007.2 m, 6e-9 larger in area
+    assert globe.area_m2 == pytest.approx(510_065_621.7e6, rel=1e-8)
+    assert globe.area_m2 == pytest.approx(4 * np.pi * AUTHALIC_RADIUS_M**2, rel=1e-7)
+
+
+@pytest.mark.parametrize("ring", [
+    [(-180, 60), (180, 60), (180, 90), (-180, 90)],
+    [(-180, 60), (-90, 60), (0, 60), (90, 60), (180, 60), (180, 90), (-180, 90)],
+])
+def test_polar_cap_outline_matches_pyproj_geod(ring):
+    from pyproj import Geod
+
+    from climwidgets.geo.area import AUTHALIC_RADIUS_M as R
+
+    cap = cw.Basin.from_vertices(ring, name="cap")
+    # Basin areas are on the authalic sphere (the one area of every table). Outside check:
+    # pyproj.Geod on that sphere, polygon area of the 60°N parallel densified to 0.01°,
+    # and the spherical-cap formula 2πR²(1 − sin 60°).
+    lons = np.arange(-180.0, 180.0, 0.01)
+    area, _ = Geod(a=R, b=R).polygon_area_perimeter(lons, np.full(lons.size, 60.0))
+    assert cap.area_m2 == pytest.approx(abs(area), rel=1e-7)
+    assert cap.area_m2 == pytest.approx(2 * np.pi * R**2 * (1 - np.sin(np.radians(60.0))), rel=1e-12)
+
+
+def test_area_of_an_ordinary_outline_still_matches_pyproj_geod():
+    from pyproj import Geod
+
+    from climwidgets.geo.area import AUTHALIC_RADIUS_M as R
+
+    b = cw.Basin.from_vertices([(10, 10), (12, 10.5), (11.5, 12), (9.8, 11.7)])
+    area, _ = Geod(a=R, b=R).geometry_area_perimeter(shapely.segmentize(b.geometry, 0.001))
+    assert b.area_m2 == pytest.approx(abs(area), rel=1e-6)

@@ -185,3 +185,15 @@ def test_curvilinear_grid_and_basin_across_antimeridian():
     moved = moved.assign_coords(lon=((moved.lon + 180.0) % 360.0) - 180.0)
     np.testing.assert_allclose(cw.coverage_weights(crossing, grid).values,
                                cw.coverage_weights(near, moved).values, atol=1e-9)
+
+
+def test_whole_globe_and_polar_cap_cover_the_right_cells():
+    lat, lon = np.arange(-89.0, 90.0, 2.0), np.arange(-179.0, 180.0, 2.0)
+    field = xr.DataArray(np.ones((lat.size, lon.size)), dims=("lat", "lon"), coords={"lat": lat, "lon": lon})
+    globe = cw.Basin.from_vertices([(-180, -90), (180, -90), (180, 90), (-180, 90)], name="globe")
+    np.testing.assert_allclose(cw.coverage_weights(globe, field).values, 1.0)
+    cap = cw.Basin.from_vertices([(-180, 60), (180, 60), (180, 90), (-180, 90)], name="cap")
+    w = cw.coverage_weights(cap, field)
+    # 2-degree rows with centres 61..89 lie wholly north of 60°N: 15 rows of 180 cells
+    np.testing.assert_allclose(w.sel(lat=slice(60, 90)).values, 1.0)
+    assert float(w.sel(lat=slice(-90, 60)).sum()) == 0.0

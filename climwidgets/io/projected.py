@@ -1,0 +1,126 @@
+"""Projected grids: latitude, longitude and cell corners from a CF grid mapping.
+
+A grid that carries only projected ``x``/``y`` coordinates and a CF ``grid_mapping``
+variable (common for radar and regional products) defines its lat/lon exactly: the grid
+mapping is read with pyproj (``CRS.from_cf``) and the cell centres and the corners of
+every cell (the projected cell edges) are transformed to longitude and latitude on the
+mapping's own geodetic datum.  Downstream the grid is curvilinear: 2-D ``lat(y, x)`` and
+``lon(y, x)``, with the 1-D projected ``x``/``y`` and a scalar ``crs`` coordinate kept so
+that cell corners can be derived again exactly (``climwidgets.geo.grid.cell_bounds``).
+The ``crs`` coordinate holds the CRS as WKT text and the CF grid-mapping attributes.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import xarray as xr
+
+from ..errors import GridError
+
+__all__ = ["CRS_COORD", "crs_from_attrs", "lonlat", "projected_corners", "to_metres"]
+
+CRS_COORD = "crs"  # name of the scalar coordinate that carries the grid-mapping attributes
+_TO_METRES = {"m": 1.0, "metre": 1.0, "meter": 1.0, "metres": 1.0, "meters": 1.0, "km": 1000.0,
+              "kilometre": 1000.0, "kilometer": 1000.0, "kilometres": 1000.0, "kilometers": 1000.0}
+
+
+def to_metres(units, *, source=None, variable=None) -> float:
+    """Factor from a projection coordinate's units to metres (CF: m by default)."""
+    key = str(units or "m").strip().lower()
+    if key not in _TO_METRES:
+        raise GridError(f"has projection coordinates in '{units}'", source=source, variable=variable,
+                        expected="projection coordinates in m or km",
+                        fix="set the units attribute of the x/y coordinates to 'm' or 'km'")
+    return _TO_METRES[key]
+
+
+def crs_from_attrs(attrs: dict, *, source=None, variable=None):
+    """A pyproj CRS from CF grid-mapping attributes (``CRS.from_cf``)."""
+    from pyproj import CRS
+    from pyproj.exceptions import CRSError
+
+    try:
+        return CRS.from_cf(dict(attrs))
+    except (CRSError, KeyError, ValueError, TypeError) as exc:
+        raise GridError(f"has a grid mapping pyproj cannot read ({type(exc).__name__}: {exc})", source=source,
+                        variable=variable, expected="CF grid-mapping attributes (grid_mapping_name and its "
+                                                    "parameters, or crs_wkt)",
+                        fix="complete the grid-mapping variable's attributes, or add 2-D lat/lon "
+                            "coordinates to the file") from None
+
+
+def lonlat(crs, x, y):
+    """Longitude and latitude (degrees, lon in [-180, 180)) of projected points ``x``, ``y`` (m)."""
+    from pyproj import Transformer
+
+    to_geo = Transformer.from_crs(crs, crs.geodetic_crs, always_xy=True)
+    lon, lat = to_geo.transform(np.asarray(x, dtype=float), np.asarray(y, dtype=float))
+    lon = (np.asarray(lon) + 180.0) % 360.0 - 180.0
+    return lon, np.asarray(lat)
+
+
+def _edges(centres: np.ndarray) -> np.ndarray:
+    mid = 0.5 * (centres[1:] + centres[:-1])
+    return np.concatenate([[2 * centres[0] - mid[0]], mid, [2 * centres[-1] - mid[-1]]])
+
+
+def projected_corners(grid):
+    """``(lat_corners, lon_corners)`` of shape (ny, nx, 4) for a grid carrying the ``crs``
+    coordinate and 1-D projected ``x``/``y`` (m), or None for any other grid.
+
+    Edges are taken half-way between projected centres (exact for the regular grids such
+    products use), and each corner is transformed with pyproj; corners are in ring order.
+    """
+    if CRS_COORD not in grid.coords or "x" not in grid.coords or "y" not in grid.coords:
+        return None
+    if grid["x"].ndim != 1 or grid["y"].ndim != 1 or min(grid.sizes["x"], grid.sizes["y"]) < 2:
+        return None
+    attrs = grid[CRS_COORD].attrs
+    if attrs.get("grid_mapping_name") or attrs.get("crs_wkt"):
+        crs = crs_from_attrs(attrs, variable=CRS_COORD)
+    else:  # attributes lost through arithmetic: the coordinate's value is the WKT
+        from pyproj import CRS
+
+        crs = CRS.from_wkt(str(grid[CRS_COORD].values))
+    xe, ye = _edges(np.asarray(grid["x"].values, float)), _edges(np.asarray(grid["y"].values, float))
+    gx, gy = np.meshgrid(xe, ye)
+    lon, lat = lonlat(crs, gx, gy)
+    # unwrap each row and column so a cell never jumps across the antimeridian
+    lon = np.unwrap(np.unwrap(lon, period=360.0, axis=1), period=360.0, axis=0)
+    corners = [(slice(None, -1), slice(None, -1)), (slice(None, -1), slice(1, None)),
+               (slice(1, None), slice(1, None)), (slice(1, None), slice(None, -1))]
+    lat_c = np.stack([lat[r, c] for r, c in corners], axis=-1)
+    lon_c = np.stack([lon[r, c] for r, c in corners], axis=-1)
+    return np.clip(lat_c, -90.0, 90.0), lon_c
+
+
+def _projected_axes(ds, xname, yname, *, source=None):
+    fx = to_metres(ds[xname].attrs.get("units"), source=source, variable=xname)
+    fy = to_metres(ds[yname].attrs.get("units"), source=source, variable=yname)
+    return np.asarray(ds[xname].values, float) * fx, np.asarray(ds[yname].values, float) * fy
+
+
+def attach_mapping(da: xr.DataArray, ds: xr.Dataset, xname: str, yname: str, gm: str, *, source=None):
+    """``da`` on dims (…, y, x) with metres ``x``/``y`` and the scalar ``crs`` coordinate, which
+    let cell corners be derived exactly from the grid mapping."""
+    crs = crs_from_attrs(ds[gm].attrs, source=source, variable=gm)
+    x, y = _projected_axes(ds, xname, yname, source=source)
+    da = da.rename({k: v for k, v in ((ds[yname].dims[0], "y"), (ds[xname].dims[0], "x")) if k != v and k in da.dims})
+    gm_attrs = dict(ds[gm].attrs)
+    gm_attrs.setdefault("crs_wkt", crs.to_wkt())
+    return da.assign_coords(
+        x=("x", x, {"standard_name": "projection_x_coordinate", "units": "m", "axis": "X"}),
+        y=("y", y, {"standard_name": "projection_y_coordinate", "units": "m", "axis": "Y"}),
+        **{CRS_COORD: ((), crs.to_wkt(), gm_attrs)},  # the value survives where attrs are dropped
+    ), crs
+
+
+def attach_latlon(da: xr.DataArray, ds: xr.Dataset, xname: str, yname: str, gm: str, *, source=None):
+    """``da`` on dims (…, y, x) with 2-D lat/lon from the grid mapping, metres x/y and ``crs``."""
+    da, crs = attach_mapping(da, ds, xname, yname, gm, source=source)
+    gx, gy = np.meshgrid(da["x"].values, da["y"].values)
+    lon, lat = lonlat(crs, gx, gy)
+    return da.assign_coords(
+        lat=(("y", "x"), lat, {"standard_name": "latitude", "units": "degrees_north"}),
+        lon=(("y", "x"), lon, {"standard_name": "longitude", "units": "degrees_east"}),
+    )
