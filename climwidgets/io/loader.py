@@ -425,7 +425,7 @@ def open_precip(source, var=None, chunks="auto", validate="auto") -> xr.DataArra
         da = da.assign_coords(time=timeaxis.month_starts(da["time"]))
     native_step = step
     if timeaxis.is_subhourly(step):
-        da = timeaxis.sum_to_hours(da, step)  # missing steps make the hour missing
+        da = timeaxis.sum_to_hours(da, step, source=where)  # missing steps make the hour missing
         step = "hour"
     full = timeaxis.full_axis(da["time"], step)
     gaps = len(full) - da.sizes["time"]

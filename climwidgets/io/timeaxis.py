@@ -172,7 +172,7 @@ def start_labels(time: xr.DataArray, bounds: xr.DataArray | None):
     return stamps, None
 
 
-def sum_to_hours(da: xr.DataArray, step: str) -> xr.DataArray:
+def sum_to_hours(da: xr.DataArray, step: str, *, source=None) -> xr.DataArray:
     """Depths per sub-hourly step summed to hourly totals (lazy).
 
     The axis is first completed to whole hours with missing steps, so an hour with any
@@ -189,7 +189,7 @@ def sum_to_hours(da: xr.DataArray, step: str) -> xr.DataArray:
     full = xr.date_range(start=start, end=end, freq=_FREQ[step], calendar=cal, use_cftime=use_cftime)
     if not index.isin(full).all():
         raise TimeAxisError(f"has {step} stamps that are not whole multiples of the step after the hour",
-                            variable="time", expected=f"stamps at regular {step} steps from the hour",
+                            source=source, variable="time", expected=f"stamps at regular {step} steps from the hour",
                             fix="resample to hourly totals before opening")
     blocks = da.reindex(time=full).coarsen(time=k, boundary="trim").construct(time=("hour", "within"))
     out = blocks.sum("within", skipna=False).rename(hour="time")

@@ -244,3 +244,9 @@ def test_unnamed_dask_dataarray_and_chunks_asked_for():
     pr = cw.open_precip(da)
     assert pr.attrs["original_variable"] == "pr" and pr.chunks[0] == (5, 5)
     assert cw.open_precip(da, chunks={"time": 2}).chunks[0] == (2,) * 5
+
+
+def test_subhourly_stamps_off_the_step_grid_are_refused():
+    times = pd.date_range("2001-01-01 00:10", periods=12, freq="30min")  # 00:10, 00:40, ...
+    with pytest.raises(TimeAxisError, match="the given Dataset.*30min stamps that are not whole multiples.*resample to hourly"):
+        cw.open_precip(_ds(times, np.ones((12, 3, 4)), units="mm"))
