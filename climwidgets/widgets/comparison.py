@@ -21,7 +21,7 @@ from ..analyses.comparison import products_basin_table
 from ..compute._time import MONTH_NAMES
 from ..compute.compare import align, compare
 from ..errors import ParameterError
-from .anomaly import whole_grid_basin
+from ..geo.basinset import whole_grid_basin
 from .base import BaseWidget
 from .mapframe import MapFrame
 

@@ -29,7 +29,7 @@ from ..compute.extremes import DAY_DURATIONS, HOUR_DURATIONS, annual_maxima
 from ..compute.gev import return_levels
 from ..compute.warming import DESIGN_DEPTH_CAUTIONS, warming_scaling
 from ..errors import ParameterError
-from .anomaly import whole_grid_basin
+from ..geo.basinset import whole_grid_basin
 from .base import BaseWidget
 from .mapframe import MapFrame
 
@@ -135,11 +135,7 @@ class ExtremesWidget(BaseWidget):
 
     @property
     def _table_basins(self):
-        return self.basins or ([self._whole] if self._whole is not None else [])
-
-    def basins_changed(self, event, details):
-        self.map.set_basins(self.basins)
-        self.refresh()
+        return self.basins_or_whole_grid(self._whole)
 
     def _maxima(self, pr, year_start, **duration):
         return annual_maxima(pr, year_start=year_start, **duration)
