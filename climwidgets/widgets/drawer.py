@@ -7,7 +7,7 @@ Other widgets embed the toolset on their own map and listen with
 :meth:`DrawingTools.on_change`.
 
 :class:`BasinDrawer` is the stand-alone widget: a map of a field, the toolset, and a
-table of basins with their area (km², geodesic) and the area-weighted mean of the shown
+table of basins with their area (km², the outline on the authalic sphere) and the mean of the shown
 field (``cw.basin_mean``).  ``drawer.basins`` is the list of ``cw.Basin``.
 """
 
