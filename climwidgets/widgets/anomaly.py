@@ -67,7 +67,7 @@ class AnomalyWidget(BaseWidget):
     ----------
     pr : DataArray
         Precipitation depth per step in mm (dims time, lat, lon), numpy- or dask-backed.
-    basins : list of Basin, optional
+    basins : list of Basin or a shared cw.BasinSet, optional (changes to a shared set show here)
         Basins for the series and the table; without them the whole grid is used.
     baseline : (first, last) years, optional
         Default (1991, 2020) when the data cover it, else the whole record.

@@ -46,7 +46,7 @@ class ComparisonWidget(BaseWidget):
     ----------
     datasets : dict of {name: DataArray}
         Precipitation products (mm per step, any step, calendar and grid); at least two.
-    basins : list of Basin, optional
+    basins : list of Basin or a shared cw.BasinSet, optional (changes to a shared set show here)
         Basins of the table; without them the whole common grid is used.
     months : tuple of int, default (7, 8)
         Season whose share the table reports.

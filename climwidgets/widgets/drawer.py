@@ -243,7 +243,7 @@ class BasinDrawer(HostsDrawingTools, BaseWidget):
     field : DataArray (lat, lon) or (y, x)
         What the map shows (for example an annual normal); the table gives its
         area-weighted basin mean.
-    basins : list of Basin, optional
+    basins : list of Basin or a shared cw.BasinSet, optional
     kind : colour style of the map ('total', 'share', 'percent', ...)
 
     Attributes

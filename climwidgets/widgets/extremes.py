@@ -55,7 +55,7 @@ class ExtremesWidget(BaseWidget):
     ----------
     pr : DataArray
         Daily or hourly precipitation depth per step in mm (dims time, lat, lon).
-    basins : list of Basin, optional
+    basins : list of Basin or a shared cw.BasinSet, optional (changes to a shared set show here)
         Basins for the table; without them the whole grid is used.
     n_boot : int, default 200
         Bootstrap resamples for the intervals (kept modest so the widget stays quick).

@@ -62,7 +62,7 @@ class OrographicContrastWidget(BaseWidget):
         Precipitation depth per step in mm (dims time, lat, lon).
     elevation : DataArray
         Terrain height in metres on the same (lat, lon) grid.
-    basins : list of Basin, optional
+    basins : list of Basin or a shared cw.BasinSet, optional (changes to a shared set show here)
         Outlines drawn on the map.
     n_boot : int, default 500
         Bootstrap resamples of years for the ratio's interval.
