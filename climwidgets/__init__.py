@@ -77,6 +77,7 @@ _PUBLIC = {
     "basin_table": "climwidgets.analyses.basins",
     "basin_shares": "climwidgets.analyses.basins",
     "what_if": "climwidgets.analyses.basins",
+    "areal_design_depths": "climwidgets.analyses.extremes",
     # scale
     "use_cluster": "climwidgets.scale",
     "climatology_bundle": "climwidgets.compute.bundle",
