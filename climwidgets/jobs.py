@@ -167,7 +167,6 @@ def run_summary(data, basins, months=(7, 8), baseline=(1991, 2020), out_dir="out
     gives the table, the report's figures and the maps in one ``compute``, and the CSV,
     the NetCDF and the report are written from that one result.
     """
-    import dask
 
     from .analyses.basins import basin_table
     from .analyses.run import compute

@@ -34,6 +34,8 @@ ALLOWED = {
     "package": {"base", "io", "geo", "compute", "analyses", "plot", "report", "widgets", "demo", "jobs", "cli"},
 }
 FRONT_END = ("ipywidgets", "ipympl", "IPython", "ipykernel", "matplotlib")
+# top-level modules that belong to another floor's family
+SAME_FLOOR_AS = {"demo_ensemble": "demo"}
 
 
 def _floor(parts: tuple[str, ...]) -> str:
@@ -43,9 +45,7 @@ def _floor(parts: tuple[str, ...]) -> str:
     head = parts[0]
     if head in BASE:
         return "base"
-    if head.startswith("demo"):  # demo.py and its helpers (demo_ensemble.py) form one floor
-        return "demo"
-    return head
+    return SAME_FLOOR_AS.get(head, head)
 
 
 def _modules():
@@ -96,7 +96,9 @@ def _violations():
                     found.append(f"{where} imports {top} (a front-end library) on the {floor} floor")
                 continue
             other = _floor(target)
-            if other != floor and other not in ALLOWED[floor] and not (floor == "package"):
+            if other not in ALLOWED:
+                found.append(f"{where}: imports {'.'.join(target)}, on no known floor (add it to ALLOWED)")
+            elif other != floor and other not in ALLOWED[floor] and not (floor == "package"):
                 found.append(f"{where}: {floor} imports {'.'.join(target)} ({other}), above it")
             if floor == "package" and target and target[0] not in ("errors", "_version"):
                 found.append(f"{where}: the package root imports {'.'.join(target)} eagerly (use _PUBLIC)")

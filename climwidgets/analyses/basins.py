@@ -21,7 +21,7 @@ import pandas as pd
 import xarray as xr
 
 from ..compute.bundle import climatology_bundle
-from ..compute.normals import annual_normal, normals
+from ..compute.normals import normals
 from ..compute.seasonal import season_label, seasonal_fraction, seasonal_totals
 from ..compute.totals import annual_totals, monthly_totals
 from ..compute.trend import trend

@@ -9,7 +9,6 @@ period.  :func:`warmed_depths` scales the depths by the Clausius-Clapeyron facto
 
 from __future__ import annotations
 
-import numpy as np
 import xarray as xr
 
 from ..compute.extremes import annual_maxima

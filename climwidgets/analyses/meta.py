@@ -24,7 +24,8 @@ import numpy as np
 import pandas as pd
 import xarray as xr
 
-__all__ = ["Meta", "CATALOGUE", "describe", "frame", "column_heading", "format_cell", "table_variables"]
+__all__ = ["Meta", "CATALOGUE", "describe", "frame", "display_frame", "column_heading", "format_cell",
+           "table_variables"]
 
 
 @dataclass(frozen=True)
@@ -52,7 +53,7 @@ _AREA = ("area of the basin outline on the sphere of the authalic radius 6 371 0
 CATALOGUE: dict[str, Meta] = {
     # basin table
     "area_km2": Meta("area", "km2", _AREA, "km²", 1.0, ",.1f"),
-    "annual_mean_mm": Meta("annual mean", "mm", "mean of the basin's annual totals over the complete years",
+    "annual_mean_mm": Meta("mean annual total", "mm", "mean of the basin's annual totals over the complete years",
                            "mm", 1.0, ",.0f"),
     "n_years": Meta("complete years", "1", "number of complete years behind the annual mean", "", 1.0, ".0f"),
     "seasonal_share_1": Meta("seasonal share", "1", "share of the annual total that falls in the season "
@@ -195,3 +196,30 @@ def frame(ds: xr.Dataset, index=("basin",), display: bool = False, columns=None)
         meta = {name: dict(ds[name].attrs) for name in names}
     table.attrs = {"columns": meta}
     return table
+
+
+def display_frame(table: pd.DataFrame, **overrides) -> pd.DataFrame:
+    """A stored table (variable names as columns) as shown: scaled, under 'label [units]'.
+
+    The attributes come from ``table.attrs["columns"]`` when they are dicts, else from
+    :data:`CATALOGUE`; ``overrides`` maps a column to attribute changes (a label naming
+    the season, say).  Columns the catalogue does not know keep their names.
+    """
+    described = table.attrs.get("columns") or {}
+    out = table.copy()
+    renamed, meta = {}, {}
+    for col in table.columns:
+        attrs = described.get(col) if isinstance(described.get(col), dict) else None
+        if attrs is None and col in CATALOGUE:
+            attrs = CATALOGUE[col].attrs()
+        if attrs is None:
+            continue
+        attrs = {**attrs, **overrides.get(col, {})}
+        scale = float(attrs.get("display_scale", 1.0))
+        if scale != 1.0:
+            out[col] = out[col] * scale
+        renamed[col] = column_heading(attrs, col)
+        meta[renamed[col]] = attrs
+    out = out.rename(columns=renamed)
+    out.attrs = {"columns": meta}
+    return out

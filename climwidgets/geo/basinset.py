@@ -14,10 +14,12 @@ import os
 import threading
 from pathlib import Path
 
+import numpy as np
+
 from ..errors import BasinError, ParameterError, SourceError
 from .basin import Basin, write_geojson
 
-__all__ = ["BasinSet", "as_basin_list", "load_basins"]
+__all__ = ["BasinSet", "as_basin_list", "load_basins", "whole_grid_basin"]
 
 
 class BasinSet:
@@ -234,3 +236,15 @@ def load_basins(source) -> list[Basin]:
                              expected="GeoJSON (.geojson, .json) or an ESRI shapefile (.shp)",
                              fix="save the basin outlines as GeoJSON or a shapefile")
     return Basin.from_geojson(path)
+
+
+def whole_grid_basin(field, name="whole grid") -> Basin | None:
+    """A basin covering a rectilinear grid's cells, for area-weighted domain means."""
+    from .grid import cell_bounds
+
+    b = cell_bounds(field)
+    if b.kind != "rectilinear":
+        return None
+    w, e = float(np.min(b.lon_lower)), float(np.max(b.lon_upper))
+    s, n = float(np.min(b.lat_lower)), float(np.max(b.lat_upper))
+    return Basin.from_vertices([(w, s), (e, s), (e, n), (w, n)], name=name)

@@ -119,15 +119,17 @@ def _bounds_var(grid, coord: str):
 
 
 def _edges_from_centres(centres: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """The loader's one edge inference (midpoints, outer edges mirrored); a single centre
+    without bounds is an error here, since there is no file to state an assumed width."""
+    from ..io.grid import infer_edges
+
     if centres.size == 1:
         raise GridError(
             "cannot infer cell bounds from a single centre",
             expected="at least two cells along each axis, or explicit bounds",
             fix="add lat_lower/lat_upper/lon_lower/lon_upper coordinates",
         )
-    mid = 0.5 * (centres[1:] + centres[:-1])
-    edges = np.concatenate([[2 * centres[0] - mid[0]], mid, [2 * centres[-1] - mid[-1]]])
-    return edges[:-1], edges[1:]
+    return infer_edges(centres)
 
 
 def _rect_axis(grid, coord: str) -> tuple[np.ndarray, np.ndarray]:

@@ -11,7 +11,6 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 from datetime import datetime, timezone
 
-import dask
 import numpy as np
 import pandas as pd
 import xarray as xr

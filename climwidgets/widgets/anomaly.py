@@ -26,8 +26,7 @@ from ..compute.anomaly import anomaly
 from ..compute.spi import SPI_CLASSES, SPI_SCALES, spi, spi_category
 from ..errors import ParameterError
 from ..geo.aggregate import basin_mean
-from ..geo.basin import Basin
-from ..geo.grid import cell_bounds
+from ..geo.basinset import whole_grid_basin
 from .base import BaseWidget
 from .mapframe import MapFrame
 
@@ -43,16 +42,6 @@ _MAP_KIND = {"absolute": "difference", "percent": "percent", "standardized": "st
 from ..analyses.anomalies import UNIT_WORDS as _UNIT_WORDS  # noqa: E402
 from ..analyses.anomalies import step_table  # noqa: E402
 from ..analyses.run import IN_MEMORY_BYTES  # noqa: E402
-
-
-def whole_grid_basin(field, name="whole grid") -> Basin | None:
-    """A basin covering a rectilinear grid's cells, for area-weighted domain means."""
-    b = cell_bounds(field)
-    if b.kind != "rectilinear":
-        return None
-    w, e = float(np.min(b.lon_lower)), float(np.max(b.lon_upper))
-    s, n = float(np.min(b.lat_lower)), float(np.max(b.lat_upper))
-    return Basin.from_vertices([(w, s), (e, s), (e, n), (w, n)], name=name)
 
 
 def step_labels(da) -> list[str]:
@@ -78,7 +67,7 @@ class AnomalyWidget(BaseWidget):
     ----------
     pr : DataArray
         Precipitation depth per step in mm (dims time, lat, lon), numpy- or dask-backed.
-    basins : list of Basin, optional
+    basins : list of Basin or a shared cw.BasinSet, optional (changes to a shared set show here)
         Basins for the series and the table; without them the whole grid is used.
     baseline : (first, last) years, optional
         Default (1991, 2020) when the data cover it, else the whole record.
@@ -165,11 +154,7 @@ class AnomalyWidget(BaseWidget):
 
     @property
     def _series_basins(self):
-        return self.basins or ([self._whole] if self._whole is not None else [])
-
-    def basins_changed(self, event, details):
-        self.map.set_basins(self.basins)
-        self.refresh()
+        return self.basins_or_whole_grid(self._whole)
 
     def _inputs(self):
         """The precipitation and the basin-mean series, each read once and kept."""

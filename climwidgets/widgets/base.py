@@ -273,8 +273,14 @@ class BaseWidget(widgets.VBox):
         kernel.call(lambda: self.basins_changed(event, details))
 
     def basins_changed(self, event, details):
-        """The shared basin set changed (runs on the kernel's thread): recompute by default."""
+        """The shared basin set changed (runs on the kernel's thread): new outlines, recompute."""
+        if self.map is not None:
+            self.map.set_basins(self.basins)
         self.refresh()
+
+    def basins_or_whole_grid(self, whole):
+        """The basins, or ``[whole]`` (a basin covering the grid) when there are none."""
+        return self.basins or ([whole] if whole is not None else [])
 
     # ------------------------------------------------------------ machinery
     def watch(self, *controls, names="value"):

@@ -18,10 +18,11 @@ import ipywidgets as widgets
 import numpy as np
 
 from ..analyses.comparison import products_basin_table
-from ..compute._time import MONTH_NAMES
+from ..analyses.meta import display_frame
+from ..compute.seasonal import season_label
 from ..compute.compare import align, compare
 from ..errors import ParameterError
-from .anomaly import whole_grid_basin
+from ..geo.basinset import whole_grid_basin
 from .base import BaseWidget
 from .mapframe import MapFrame
 
@@ -45,7 +46,7 @@ class ComparisonWidget(BaseWidget):
     ----------
     datasets : dict of {name: DataArray}
         Precipitation products (mm per step, any step, calendar and grid); at least two.
-    basins : list of Basin, optional
+    basins : list of Basin or a shared cw.BasinSet, optional (changes to a shared set show here)
         Basins of the table; without them the whole common grid is used.
     months : tuple of int, default (7, 8)
         Season whose share the table reports.
@@ -140,13 +141,8 @@ class ComparisonWidget(BaseWidget):
         """The basin table with column names in words (``widget.basin_table`` keeps the originals)."""
         if self.basin_table is None:
             return None
-        season = "-".join(MONTH_NAMES[m - 1] for m in (self.months[0], self.months[-1])) \
-            if len(self.months) > 1 else MONTH_NAMES[self.months[0] - 1]
-        names = {"annual_mean_mm": "mean annual total [mm]",
-                 "seasonal_share": f"seasonal share {season} [fraction]",
-                 "normal_mm": "annual normal [mm]", "trend_mm_per_year": "Sen slope [mm per year]",
-                 "trend_pvalue": "Mann-Kendall p-value"}
-        return self.basin_table.rename(columns=names)
+        season = season_label(self.months)
+        return display_frame(self.basin_table, seasonal_share={"label": f"seasonal share {season}"})
 
     def domain_mean(self, metric="bias") -> float:
         """Plain mean over the grid cells of one metric map (cells without data left out)."""

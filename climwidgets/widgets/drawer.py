@@ -7,7 +7,7 @@ Other widgets embed the toolset on their own map and listen with
 :meth:`DrawingTools.on_change`.
 
 :class:`BasinDrawer` is the stand-alone widget: a map of a field, the toolset, and a
-table of basins with their area (km², geodesic) and the area-weighted mean of the shown
+table of basins with their area (km², the outline on the authalic sphere) and the mean of the shown
 field (``cw.basin_mean``).  ``drawer.basins`` is the list of ``cw.Basin``.
 """
 
@@ -243,7 +243,7 @@ class BasinDrawer(HostsDrawingTools, BaseWidget):
     field : DataArray (lat, lon) or (y, x)
         What the map shows (for example an annual normal); the table gives its
         area-weighted basin mean.
-    basins : list of Basin, optional
+    basins : list of Basin or a shared cw.BasinSet, optional
     kind : colour style of the map ('total', 'share', 'percent', ...)
 
     Attributes

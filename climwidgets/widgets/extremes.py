@@ -29,7 +29,7 @@ from ..compute.extremes import DAY_DURATIONS, HOUR_DURATIONS, annual_maxima
 from ..compute.gev import return_levels
 from ..compute.warming import DESIGN_DEPTH_CAUTIONS, warming_scaling
 from ..errors import ParameterError
-from .anomaly import whole_grid_basin
+from ..geo.basinset import whole_grid_basin
 from .base import BaseWidget
 from .mapframe import MapFrame
 
@@ -55,7 +55,7 @@ class ExtremesWidget(BaseWidget):
     ----------
     pr : DataArray
         Daily or hourly precipitation depth per step in mm (dims time, lat, lon).
-    basins : list of Basin, optional
+    basins : list of Basin or a shared cw.BasinSet, optional (changes to a shared set show here)
         Basins for the table; without them the whole grid is used.
     n_boot : int, default 200
         Bootstrap resamples for the intervals (kept modest so the widget stays quick).
@@ -135,11 +135,7 @@ class ExtremesWidget(BaseWidget):
 
     @property
     def _table_basins(self):
-        return self.basins or ([self._whole] if self._whole is not None else [])
-
-    def basins_changed(self, event, details):
-        self.map.set_basins(self.basins)
-        self.refresh()
+        return self.basins_or_whole_grid(self._whole)
 
     def _maxima(self, pr, year_start, **duration):
         return annual_maxima(pr, year_start=year_start, **duration)

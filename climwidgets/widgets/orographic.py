@@ -22,9 +22,9 @@ from __future__ import annotations
 
 import ipywidgets as widgets
 import numpy as np
-import pandas as pd
 import xarray as xr
 
+from ..analyses.orographic import band_table
 from ..compute.linear_model import linear_orographic_precip
 from ..compute.orographic import crest_from_elevation, elevation_gradient, rain_shadow
 from ..compute.totals import annual_totals
@@ -62,7 +62,7 @@ class OrographicContrastWidget(BaseWidget):
         Precipitation depth per step in mm (dims time, lat, lon).
     elevation : DataArray
         Terrain height in metres on the same (lat, lon) grid.
-    basins : list of Basin, optional
+    basins : list of Basin or a shared cw.BasinSet, optional (changes to a shared set show here)
         Outlines drawn on the map.
     n_boot : int, default 500
         Bootstrap resamples of years for the ratio's interval.
@@ -232,23 +232,7 @@ class OrographicContrastWidget(BaseWidget):
         self.show_chart(self._chart())
 
     def _table(self):
-        obs, mod = self.result, self.model_contrast
-        ci = self._params["ci"]
-        one = "band" not in obs.dims
-        rows = []
-        for i in range(1 if one else obs.sizes["band"]):
-            o = obs if one else obs.isel(band=i)
-            m = mod if one else mod.isel(band=i)
-            rows.append({
-                "band [km]": f"{float(o['band_lower_km']):g}-{float(o['band_upper_km']):g}",
-                "windward mean [mm per year]": float(o["windward_mean"]),
-                "leeward mean [mm per year]": float(o["leeward_mean"]),
-                "leeward / windward": float(o["ratio"]),
-                f"lower {ci:.0%}": float(o["ratio_lower"]),
-                f"upper {ci:.0%}": float(o["ratio_upper"]),
-                "linear model leeward / windward": float(m["ratio"]),
-            })
-        return pd.DataFrame(rows).set_index("band [km]")
+        return band_table(self.result, self.model_contrast, self._params["ci"])
 
     def _chart(self):
         from matplotlib.figure import Figure

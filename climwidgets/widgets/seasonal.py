@@ -59,7 +59,7 @@ class SeasonalShareWidget(HostsDrawingTools, BaseWidget):
     Parameters
     ----------
     pr : DataArray (time, lat, lon), precipitation depth per step in mm
-    basins : list of Basin, optional
+    basins : list of Basin or a shared cw.BasinSet, optional (changes to a shared set show here)
     months : the starting season, default July–August
     how : 'ratio_of_sums' or 'mean_of_ratios'
     years : (first, last) or None for all complete years
