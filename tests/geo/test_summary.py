@@ -1,6 +1,5 @@
 """Basin summary table and seasonal volume scenario (climwidgets/geo/summary.py)."""
 
-import dask.array
 import numpy as np
 import pandas as pd
 import pytest
