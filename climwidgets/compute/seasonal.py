@@ -1,6 +1,6 @@
 """Seasonal totals and the seasonal share of the annual total.
 
-A season is measured against the 12-month year that contains it (DESIGN.md §3): the year
+A season is measured against the 12-month year that contains it (docs/architecture.md): the year
 beginning in ``year_start`` when the whole season fits inside it, otherwise the year
 beginning with the season's first month (so November-March is measured against
 November-October).  Years are labelled by the calendar year in which that 12-month year

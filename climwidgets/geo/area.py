@@ -1,7 +1,7 @@
 """Cell areas on the sphere.
 
 All areas use a sphere of the authalic radius R = 6 371 007.2 m (the sphere with the
-surface of the WGS84 ellipsoid, DESIGN.md §3); ``radius=`` changes it.
+surface of the WGS84 ellipsoid, docs/architecture.md); ``radius=`` changes it.
 
 * Rectilinear cell between parallels φ1 < φ2 and meridians Δλ apart:
   A = R²·Δλ·(sin φ2 − sin φ1), from the spherical-cap area 2πR²(1 − sin φ).
@@ -87,7 +87,7 @@ def cell_area(grid, radius: float = AUTHALIC_RADIUS_M) -> xr.DataArray:
         units="m2",
         long_name="cell area on the sphere",
         radius_m=float(radius),
-        radius_note="authalic sphere of WGS84 (DESIGN.md §3)" if radius == AUTHALIC_RADIUS_M else "user radius",
+        radius_note="authalic sphere of WGS84" if radius == AUTHALIC_RADIUS_M else "user radius",
     )
     return with_history(out, "cell_area", radius=float(radius))
 
