@@ -1,7 +1,7 @@
 """Atomic writes: a temporary file in the target folder, then ``os.replace``.
 
 A reader never sees a half-written output, a failed write leaves no stray file, and an
-existing output is only replaced when the caller asked for it (docs/architecture.md).  Every
+existing output is only replaced when the caller asked for it (DESIGN.md §8).  Every
 writer in the package (exports, basin files, widget buttons, the cache) goes through here.
 """
 

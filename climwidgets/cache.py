@@ -1,7 +1,7 @@
 """Cache of expensive intermediate results, keyed by a token of the inputs and parameters.
 
 Climatologies are computed once per (data, parameters) and reused, so moving a basin or
-changing a colour never recomputes the grid (docs/guide/large_data.rst).  The token of a lazily opened
+changing a colour never recomputes the grid (DESIGN.md §6).  The token of a lazily opened
 file is the dask graph name, which xarray derives from the file name and modification
 time, so reopening the same unchanged file hits the cache and a rewritten file misses it.
 

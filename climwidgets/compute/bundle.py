@@ -4,7 +4,7 @@ A summary needs monthly totals, annual totals, the seasonal share, the normals a
 annual maxima. Built one by one, each would read the whole record again. Here the daily
 data feed two reductions only — monthly totals and annual maxima — and everything else is
 derived from the (small) monthly totals, all inside one dask graph, so one ``compute``
-reads every stored chunk once (docs/guide/large_data.rst).
+reads every stored chunk once (DESIGN.md §6).
 """
 
 from __future__ import annotations

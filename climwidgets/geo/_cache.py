@@ -1,7 +1,7 @@
 """A small thread-safe LRU cache for grid-derived arrays (weights, areas).
 
 Keys are tokens of the inputs (grid token, basin token, parameters), so moving a basin
-recomputes only its own weights and never the grid's areas (docs/guide/large_data.rst).
+recomputes only its own weights and never the grid's areas (DESIGN.md §6).
 """
 
 from __future__ import annotations

@@ -1,7 +1,7 @@
 """Basin means and volumes from gridded fields.
 
 Weights are cell area × coverage (``cell_area`` on the authalic sphere, ``coverage_weights``
-planar in lon/lat, docs/architecture.md).  Only the basin's bounding box of the field is touched,
+planar in lon/lat, DESIGN.md §3).  Only the basin's bounding box of the field is touched,
 so on a dask-backed field only the chunks under the basin are ever read.  The weights are
 small numpy arrays; the reduction is xarray arithmetic and stays lazy.
 """
