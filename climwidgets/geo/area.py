@@ -80,7 +80,8 @@ def cell_area(grid, radius: float = AUTHALIC_RADIUS_M) -> xr.DataArray:
     """Area of every grid cell in m² on a sphere of radius ``radius`` (default authalic).
 
     Returns a DataArray on the grid's (lat, lon) or curvilinear (y, x) dims with
-    ``units="m2"`` and the radius in ``attrs["radius_m"]``.
+    ``units="m2"`` and the radius in ``attrs["radius_m"]``.  CF-named grids
+    (``latitude``/``longitude``) are read under the house names lat/lon.
 
     Examples
     --------
