@@ -8,7 +8,7 @@ PIP    := $(PY) -m pip --disable-pip-version-check
 PORT   ?= 8866
 PYTEST_ARGS ?=
 
-.PHONY: test demo demo-data benchmarks clean-venv
+.PHONY: test demo demo-data benchmarks clean-venv docs lint format types lowest
 
 $(PY):
 	$(PYTHON) -m venv $(VENV)
@@ -44,3 +44,28 @@ benchmarks: $(VENV)/.installed-test
 
 clean-venv:
 	rm -rf $(VENV)
+
+# ------------------------------------------------------------------ developer targets
+$(VENV)/.installed-docs: pyproject.toml | $(PY)
+	$(PIP) install -q -e '.[docs]'
+	touch $@
+
+$(VENV)/.installed-lint: pyproject.toml | $(PY)
+	$(PIP) install -q -e '.[lint]'
+	touch $@
+
+# The documentation, offline, with every warning an error (docs/_build/html/index.html).
+docs: $(VENV)/.installed-docs
+	$(PY) -m sphinx -W --keep-going -q -b html docs docs/_build/html
+
+# ruff (rules in pyproject.toml) and mypy (strict where listed in pyproject.toml).
+lint: $(VENV)/.installed-lint
+	$(VENV)/bin/ruff check climwidgets tests benchmarks docs notebooks
+	$(VENV)/bin/mypy
+
+types: $(VENV)/.installed-lint
+	$(VENV)/bin/mypy
+
+# Rewrites files: run on a clean tree (see DEVELOPERS.md, "Lint, format and types").
+format: $(VENV)/.installed-lint
+	$(VENV)/bin/ruff format climwidgets tests benchmarks docs notebooks

@@ -161,6 +161,8 @@ def build_parser() -> argparse.ArgumentParser:
         description="Gridded precipitation climatology from the command line: basin summaries, "
                     "design-storm depths and product comparisons, written as CSV, NetCDF and HTML.")
     p.add_argument("--quiet", action="store_true", help="no progress messages on stderr")
+    from ._version import __version__
+    p.add_argument("--version", action="version", version=f"climwidgets {__version__}")
     # the same flag after the command name; SUPPRESS keeps a flag given before it
     common = argparse.ArgumentParser(add_help=False)
     common.add_argument("--quiet", action="store_true", default=argparse.SUPPRESS,

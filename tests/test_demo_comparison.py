@@ -6,7 +6,6 @@ aligning them (daily -> monthly totals, no-leap and standard calendars by year-m
 conservative regridding to the coarse grid) and comparing must find that bias again.
 """
 
-import numpy as np
 import pytest
 
 import climwidgets as cw

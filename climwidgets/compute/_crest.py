@@ -11,7 +11,7 @@ import xarray as xr
 
 from ..errors import GridError, InsufficientDataError, MismatchError, ParameterError
 
-EARTH_RADIUS_M = 6_371_007.2  # authalic radius used for cell areas (DESIGN.md §3)
+EARTH_RADIUS_M = 6_371_007.2  # authalic radius used for cell areas (docs/architecture.md)
 # Two grids "match" when their coordinates agree to this fraction of a grid step.
 _GRID_RTOL = 1e-3
 
@@ -57,7 +57,7 @@ def grid_coords(da, func: str, what: str = "field") -> tuple[np.ndarray, np.ndar
     if lat.size > 1 and np.any(np.diff(lat) <= 0):
         raise GridError(
             "lat is not strictly ascending", source=func, variable=da.name or what,
-            expected="lat ascending (DESIGN.md data conventions)",
+            expected="lat ascending, as open_precip returns it",
             fix="sort with da.sortby('lat')",
         )
     if lon.size > 1 and np.any(np.diff(lon) <= 0):

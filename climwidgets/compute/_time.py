@@ -36,7 +36,7 @@ def source_name(obj) -> str:
 
 
 def check_precip(pr, func: str) -> str:
-    """Validate the precipitation convention (DESIGN.md §3); return the step."""
+    """Validate the precipitation convention (docs/architecture.md, conventions); return the step."""
     if not isinstance(pr, xr.DataArray):
         raise ParameterError(
             f"{func} needs an xarray.DataArray, got {type(pr).__name__}",
@@ -175,7 +175,7 @@ def check_year_range(rng, func: str, name: str) -> tuple[int, int]:
 
 
 def season_year_start(months: tuple[int, ...], year_start: int) -> int:
-    """The first month of the 12-month year a season is measured against (DESIGN.md §3).
+    """The first month of the 12-month year a season is measured against (docs/architecture.md).
 
     The year beginning in ``year_start`` when the whole season fits inside it, otherwise the
     year beginning with the season's first month.

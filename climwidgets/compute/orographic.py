@@ -124,7 +124,7 @@ def side_mask(distance_km: xr.DataArray, side: str, band_km=None) -> xr.DataArra
 
     ``side`` is "windward" (distance < 0, upwind of the crest) or "leeward" (distance > 0);
     cells on the crest line itself (distance 0) and cells without a distance (NaN) belong
-    to neither.  ``band_km=(lo, hi)`` keeps only cells with lo <= |distance| < hi.
+    to neither.  ``band_km=(lo, hi)`` keeps only cells with ``lo <= |distance| < hi``.
     """
     if side not in ("windward", "leeward"):
         raise ParameterError(f"side={side!r} is not a side of the crest", source="side_mask",
@@ -172,7 +172,7 @@ def rain_shadow(field: xr.DataArray, wind_from: float = 270.0, ridge=None, eleva
         (results without a band dimension), or several as increasing edges
         ``(0, 25, 50, 100)`` or pairs ``[(0, 25), (50, 100)]`` (results on a ``band`` dim
         with coordinates ``band_lower_km``, ``band_upper_km``).  A cell is in a band when
-        lo <= |distance| < hi; cells on the crest line (distance 0) belong to no side.
+        ``lo <= |distance| < hi``; cells on the crest line (distance 0) belong to no side.
     basin
         Optional restriction: a ``climwidgets.Basin`` (needs ``climwidgets.geo.coverage``)
         or a DataArray of covered fractions in [0, 1] on the grid; weights become

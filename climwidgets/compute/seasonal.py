@@ -1,6 +1,6 @@
 """Seasonal totals and the seasonal share of the annual total.
 
-A season is measured against the 12-month year that contains it (DESIGN.md §3): the year
+A season is measured against the 12-month year that contains it (docs/architecture.md): the year
 beginning in ``year_start`` when the whole season fits inside it, otherwise the year
 beginning with the season's first month (so November-March is measured against
 November-October).  Years are labelled by the calendar year in which that 12-month year
@@ -73,6 +73,17 @@ def seasonal_totals(pr: xr.DataArray, months, year_start: int = 1) -> xr.DataArr
     DataArray with dim ``year``, labelled by the calendar year in which the season's
     12-month year ends (so Dec-Feb 2000/01 is 2001).  A season with any missing month is
     NaN (rule for sums); months outside the season do not matter here.
+
+    Examples
+    --------
+    >>> import numpy as np, pandas as pd, xarray as xr
+    >>> import climwidgets as cw
+    >>> time = pd.date_range("2001-01-01", "2002-12-31", freq="D")
+    >>> pr = xr.DataArray(np.ones(time.size), dims="time", coords={"time": time},
+    ...                   attrs={"units": "mm", "step": "day"})  # 1 mm every day
+    >>> winter = cw.seasonal_totals(pr, (12, 1, 2))  # Dec 2001 + Jan and Feb 2002
+    >>> winter["year"].values, winter.values
+    (array([2002]), array([90.]))
     """
     blocks, months, year_start, start = _season_blocks(pr, months, year_start, "seasonal_totals")
     out = blocks.sel(month=list(months)).sum("month", skipna=False)
@@ -108,6 +119,17 @@ def seasonal_fraction(pr: xr.DataArray, months=(7, 8), how: str = "ratio_of_sums
     Only years with all 12 months present are used (per cell).  Cells with no
     precipitation at all give NaN (no division warning).  The number of years used per cell
     is in the coordinate ``n_years``.
+
+    Examples
+    --------
+    >>> import numpy as np, pandas as pd, xarray as xr
+    >>> import climwidgets as cw
+    >>> time = pd.date_range("2001-01-01", "2002-12-31", freq="D")
+    >>> pr = xr.DataArray(np.ones(time.size), dims="time", coords={"time": time},
+    ...                   attrs={"units": "mm", "step": "day"})  # 1 mm every day
+    >>> share = cw.seasonal_fraction(pr, months=(7, 8))  # 62 of 365 days
+    >>> round(float(share), 4), share.attrs["units"]
+    (0.1699, '1')
     """
     func = "seasonal_fraction"
     if how not in ("ratio_of_sums", "mean_of_ratios"):

@@ -40,6 +40,15 @@ def saturation_vapor_pressure(temperature_c):
 
     Magnus form with the Alduchov & Eskridge (1996) coefficients; accurate to about
     0.3 % against the IAPWS formulation between 0 and 30 degC.
+
+    Examples
+    --------
+    >>> import climwidgets as cw
+    >>> round(float(cw.saturation_vapor_pressure(20.0)), 1)  # handbook tables: 2339 Pa
+    2333.4
+    >>> import numpy as np
+    >>> cw.saturation_vapor_pressure(np.array([0.0, 10.0, 30.0])).round(0)
+    array([ 611., 1226., 4237.])
     """
     def f(t):
         return MAGNUS_A_PA * np.exp(MAGNUS_B * t / (t + MAGNUS_C_DEGC))
@@ -55,12 +64,25 @@ def clausius_clapeyron_rate(temperature_c):
     """Fractional increase of saturation vapour pressure per kelvin, d ln(e_s)/dT (1/K).
 
     Analytic derivative of the Magnus form: ``b c / (T + c)^2``; about 0.062 per K at 20 degC.
+
+    Examples
+    --------
+    >>> from climwidgets.compute.thermo import clausius_clapeyron_rate
+    >>> round(float(clausius_clapeyron_rate(20.0)), 4)  # about 6 % per kelvin
+    0.0619
     """
     return _apply(lambda t: MAGNUS_B * MAGNUS_C_DEGC / (t + MAGNUS_C_DEGC) ** 2, temperature_c)
 
 
 def saturation_vapor_density(temperature_c):
-    """Saturation water-vapour density in kg m-3 (ideal gas: e_s / (R_v T))."""
+    """Saturation water-vapour density in kg m-3 (ideal gas: e_s / (R_v T)).
+
+    Examples
+    --------
+    >>> from climwidgets.compute.thermo import saturation_vapor_density
+    >>> round(float(saturation_vapor_density(20.0)) * 1000, 2)  # g m-3
+    17.25
+    """
     return _apply(lambda t: saturation_vapor_pressure(t) / (R_VAPOUR * (t + 273.15)), temperature_c)
 
 
@@ -70,6 +92,12 @@ def moist_adiabatic_lapse_rate(temperature_c, pressure_pa=101325.0):
     Gamma_m = g (1 + L r_s / (R_d T)) / (c_p + L^2 r_s eps / (R_d T^2)), the usual textbook
     form (for example Wallace & Hobbs, Atmospheric Science, 2nd ed., eq. 3.89 — from memory),
     with r_s the saturation mixing ratio at the given pressure.
+
+    Examples
+    --------
+    >>> from climwidgets.compute.thermo import moist_adiabatic_lapse_rate
+    >>> round(float(moist_adiabatic_lapse_rate(20.0)) * 1000, 2)  # K per km at 1013.25 hPa
+    4.25
     """
     def f(t):
         tk = t + 273.15

@@ -40,6 +40,16 @@ def monthly_totals(pr: xr.DataArray) -> xr.DataArray:
     DataArray with ``time`` at month starts.  From hourly or daily data a month with any
     missing step, or one the time axis does not fully cover (edge months), is NaN.  Monthly
     input passes through, relabelled to month starts.  Lazy on dask input.
+
+    Examples
+    --------
+    >>> import numpy as np, pandas as pd, xarray as xr
+    >>> import climwidgets as cw
+    >>> time = pd.date_range("2001-01-01", "2002-12-31", freq="D")
+    >>> pr = xr.DataArray(np.ones(time.size), dims="time", coords={"time": time},
+    ...                   attrs={"units": "mm", "step": "day"})  # 1 mm every day
+    >>> cw.monthly_totals(pr).values[:3]  # January, February, March 2001
+    array([31., 28., 31.])
     """
     pr, step = precip_mm(pr, "monthly_totals")
     monthly, _ = monthly_with_coverage(pr, step)
@@ -71,6 +81,19 @@ def annual_totals(pr: xr.DataArray, year_start: int = 1) -> xr.DataArray:
     with any missing month is NaN.  Leading and trailing years that the time axis does not
     fully cover are **dropped**; years inside the record with gaps stay, as NaN.
     ``attrs["year_start"]`` records the first month.
+
+    Examples
+    --------
+    >>> import numpy as np, pandas as pd, xarray as xr
+    >>> import climwidgets as cw
+    >>> time = pd.date_range("2001-01-01", "2002-12-31", freq="D")
+    >>> pr = xr.DataArray(np.ones(time.size), dims="time", coords={"time": time},
+    ...                   attrs={"units": "mm", "step": "day"})  # 1 mm every day
+    >>> cw.annual_totals(pr).values
+    array([365., 365.])
+    >>> water = cw.annual_totals(pr, year_start=10)  # only Oct 2001-Sep 2002 is complete
+    >>> water["year"].values, water.values
+    (array([2002]), array([365.]))
     """
     year_start = check_year_start(year_start, "annual_totals")
     blocks = _blocks(pr, "annual_totals", year_start)

@@ -104,6 +104,16 @@ def trend(series: xr.DataArray, dim: str = "year") -> xr.Dataset:
     (median(x) - slope * median(t)), ``pvalue`` (Mann-Kendall, two-sided, tie-corrected
     variance, continuity-corrected Z; NaN with fewer than 3 points), ``tau`` (Kendall's
     tau_b) and ``n`` (valid points).  Lazy on dask input.
+
+    Examples
+    --------
+    >>> import numpy as np, xarray as xr
+    >>> import climwidgets as cw
+    >>> years = np.arange(2001, 2011)
+    >>> series = xr.DataArray(10.0 + 3.0 * (years - 2001), dims="year", coords={"year": years})
+    >>> result = cw.trend(series)
+    >>> float(result["slope"]), float(result["tau"]), bool(result["pvalue"] < 0.001)
+    (3.0, 1.0, True)
     """
     func = "trend"
     if not isinstance(series, xr.DataArray):

@@ -67,6 +67,16 @@ def warming_scaling(field, delta_t, rate=0.07, convention="compound"):
         Warming in kelvin (negative for cooling), a number or a DataArray (e.g. per scenario).
     rate
         Fractional increase per kelvin, 0 to 0.25.
+
+    Examples
+    --------
+    >>> import xarray as xr
+    >>> import climwidgets as cw
+    >>> depth = xr.DataArray([100.0, 50.0], dims="cell", attrs={"units": "mm"})
+    >>> cw.warming_scaling(depth, 2.0).values  # (1 + 0.07) ** 2 = 1.1449
+    array([114.49 ,  57.245])
+    >>> cw.warming_scaling(depth, 2.0, convention="exponential").values.round(3)
+    array([115.027,  57.514])
     """
     if convention not in _CONVENTIONS:
         raise ParameterError(f"unknown convention {convention!r}", variable="convention",

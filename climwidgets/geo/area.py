@@ -1,7 +1,7 @@
 """Cell areas on the sphere.
 
 All areas use a sphere of the authalic radius R = 6 371 007.2 m (the sphere with the
-surface of the WGS84 ellipsoid, DESIGN.md §3); ``radius=`` changes it.
+surface of the WGS84 ellipsoid, docs/architecture.md); ``radius=`` changes it.
 
 * Rectilinear cell between parallels φ1 < φ2 and meridians Δλ apart:
   A = R²·Δλ·(sin φ2 − sin φ1), from the spherical-cap area 2πR²(1 − sin φ).
@@ -34,6 +34,15 @@ def ring_area(lon, lat, radius: float = AUTHALIC_RADIUS_M) -> np.ndarray:
 
     ``lon``/``lat`` are degrees with the ring vertices on the last axis (closing vertex
     optional); leading axes are vectorised.  Orientation does not matter.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from climwidgets.geo.area import AUTHALIC_RADIUS_M, ring_area
+    >>> square = ring_area([0, 1, 1, 0], [0, 0, 1, 1])  # 1 x 1 degree at the equator
+    >>> exact = AUTHALIC_RADIUS_M**2 * np.radians(1) * np.sin(np.radians(1))  # R² Δλ (sin φ2 - sin φ1)
+    >>> round(float(square) / 1e6, 1), round(float(exact) / 1e6, 1)  # km²
+    (12363.7, 12363.7)
     """
     lam = np.radians(np.asarray(lon, dtype=float))
     phi = np.radians(np.asarray(lat, dtype=float))
@@ -74,6 +83,17 @@ def cell_area(grid, radius: float = AUTHALIC_RADIUS_M) -> xr.DataArray:
     Returns a DataArray on the grid's (lat, lon) or curvilinear (y, x) dims with
     ``units="m2"`` and the radius in ``attrs["radius_m"]``.  CF-named grids
     (``latitude``/``longitude``) are read under the house names lat/lon.
+
+    Examples
+    --------
+    >>> import numpy as np, xarray as xr
+    >>> import climwidgets as cw
+    >>> grid = xr.DataArray(np.zeros((2, 2)), dims=("lat", "lon"),
+    ...                     coords={"lat": [0.5, 1.5], "lon": [10.5, 11.5]})  # 1-degree cells
+    >>> area = cw.cell_area(grid)
+    >>> area.attrs["units"], (area.values / 1e6).round(1)  # km²; cells shrink towards the pole
+    ('m2', array([[12363.7, 12363.7],
+           [12359.9, 12359.9]]))
     """
     grid = canonical_names(grid)
     key = (grid_token(grid), float(radius))
@@ -90,7 +110,7 @@ def cell_area(grid, radius: float = AUTHALIC_RADIUS_M) -> xr.DataArray:
         units="m2",
         long_name="cell area on the sphere",
         radius_m=float(radius),
-        radius_note="authalic sphere of WGS84 (DESIGN.md §3)" if radius == AUTHALIC_RADIUS_M else "user radius",
+        radius_note="authalic sphere of WGS84" if radius == AUTHALIC_RADIUS_M else "user radius",
     )
     return with_history(out, "cell_area", radius=float(radius))
 

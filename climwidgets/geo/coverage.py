@@ -1,6 +1,6 @@
 """Exact coverage weights: the fraction of each grid cell inside a basin.
 
-The fraction is planar in lon/lat (DESIGN.md §3): area of (cell ∩ basin) / area of cell,
+The fraction is planar in lon/lat (docs/architecture.md): area of (cell ∩ basin) / area of cell,
 both measured in degrees², the cell being its lon/lat rectangle (rectilinear) or its
 lon/lat quadrilateral (curvilinear).  Multiplied by :func:`~climwidgets.geo.area.cell_area`
 it gives the spherical area of the basin inside each cell.

@@ -1,7 +1,7 @@
 """Cell bounds and a cheap identity token for lat/lon grids.
 
 A grid is any DataArray or Dataset with 1-D ``lat``/``lon`` coordinates (rectilinear) or
-2-D ``lat(y, x)``/``lon(y, x)`` coordinates (curvilinear), see DESIGN.md §3.
+2-D ``lat(y, x)``/``lon(y, x)`` coordinates (curvilinear), see docs/architecture.md.
 
 Rectilinear bounds are taken, in this order, from the 1-D coordinates ``lat_lower``,
 ``lat_upper``, ``lon_lower``, ``lon_upper``; from CF bounds variables of shape (n, 2)

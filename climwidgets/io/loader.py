@@ -1,4 +1,4 @@
-"""Open precipitation and terrain grids lazily, in the house conventions (DESIGN.md §3).
+"""Open precipitation and terrain grids lazily, in the house conventions (docs/architecture.md).
 
 ``open_precip`` returns depth per time step in mm on a lazily read dask array.  Opening
 reads metadata and coordinates only; data values are read when a result is computed.

@@ -11,7 +11,7 @@ science.  The pieces:
   on disk (never starts a download) and otherwise says so once;
 * :func:`map_field` puts it all on a new figure for reports.
 
-Colour (DESIGN.md §5): sequential maps for totals and shares (matplotlib's perceptually
+Colour (docs/guide/widgets.rst): sequential maps for totals and shares (matplotlib's perceptually
 uniform ``viridis`` for depths, ColorBrewer ``YlGnBu`` for shares), diverging ColorBrewer
 ``BrBG`` (brown = drier, green = wetter) for anomalies, centred on 0 (differences,
 standardized anomalies) or 100 (percent of normal).

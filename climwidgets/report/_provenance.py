@@ -3,7 +3,7 @@
 Shared by the CSV and HTML exports: descriptions of input files (size and SHA-256
 checksum, or size and modification time for files too big to hash quickly), parameters as
 plain text, and the cautions that go with design depths and water-supply volumes
-(DESIGN.md §8).
+(docs/architecture.md).
 """
 
 from __future__ import annotations

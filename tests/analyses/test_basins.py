@@ -1,6 +1,5 @@
 """Basin table, summary and seasonal what-if (climwidgets/analyses/basins.py)."""
 
-import dask.array
 import numpy as np
 import pandas as pd
 import pytest

@@ -46,7 +46,7 @@ def test_monthly_anomalies_match_numpy(mon):
 
 def test_season_year_and_water_year(mon):
     v = table(mon)
-    # Dec-Feb measured against the Dec-Nov year, labelled by the year it ends (DESIGN.md §3):
+    # Dec-Feb measured against the Dec-Nov year, labelled by the year it ends (docs/architecture.md):
     # Dec 1991 + Jan/Feb 1992 -> 1992, ..., Dec 2021 + Jan/Feb 2022 -> 2022
     djf = v[:-1, 11] + v[1:, 0] + v[1:, 1]
     labels = np.arange(1992, 1991 + YEARS)

@@ -61,7 +61,7 @@ def test_wrapping_season_measured_against_nov_oct_year():
 
 def test_season_inside_the_water_year_uses_it():
     # Dec-Feb fits inside the Oct-Sep water year; with calendar years it does not, and the
-    # Dec-Nov year is used instead (DESIGN.md §3).  Hand count with 1 mm/day:
+    # Dec-Nov year is used instead (docs/architecture.md).  Hand count with 1 mm/day:
     pr = daily("1999-10-01", "2002-09-30")
     wy = seasonal_fraction(pr, (12, 1, 2), year_start=10, per_year=True)
     assert wy.attrs["season_year_start"] == 10

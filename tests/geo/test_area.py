@@ -22,7 +22,7 @@ def test_global_grid_sums_to_sphere():
     g = rect_grid(-90, 90, -180, 180, 1.0)
     area = cw.cell_area(g)
     assert area.attrs["units"] == "m2"
-    assert area.attrs["radius_m"] == AUTHALIC_RADIUS_M == 6_371_007.2  # DESIGN.md §3
+    assert area.attrs["radius_m"] == AUTHALIC_RADIUS_M == 6_371_007.2  # docs/architecture.md
     np.testing.assert_allclose(float(area.sum()), 4 * np.pi * AUTHALIC_RADIUS_M**2, rtol=1e-10)
     assert area.dims == ("lat", "lon") and "history" in area.attrs
 

@@ -9,7 +9,7 @@ import shapely
 from pyproj import CRS, Geod, Transformer
 
 import climwidgets as cw
-from climwidgets.errors import BasinError, ParameterError, SourceError
+from climwidgets.errors import BasinError, SourceError
 from climwidgets.geo.basin import write_geojson
 
 SQUARE = [(-140.0, 20.0), (-139.0, 20.0), (-139.0, 21.0), (-140.0, 21.0)]
