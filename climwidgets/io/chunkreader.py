@@ -279,3 +279,27 @@ def direct_reader(path: str, varname: str, encoding: dict, chunks: tuple, name: 
     out = np.dtype(np.float64) if packed else index.dtype.newbyteorder("=")
     return dsa.map_blocks(_read_block, index, fills, scale, offset, varname, dtype=out, chunks=normalized,
                           name=name, meta=np.array((), dtype=out))
+
+
+class StoredValues:
+    """A loaded variable's values as decoded from disk, before the conversion to mm per step.
+
+    The loader leaves one on its DataArray (``encoding["stored_values"]``) so that a
+    reduction can work in the stored precision (float32 stays float32) and convert only its
+    small results (``compute/_fused.py``). It describes the DataArray only while that
+    DataArray's dask array is still the one named ``name``: any later operation renames the
+    dask array, and the record is then ignored.
+    """
+
+    def __init__(self, name, data, factor, mask_fill, guard, source, variable):
+        self.name = name  # dask name of the converted array this record belongs to
+        self.data = data  # dask array of decoded stored values (fill values already NaN)
+        self.factor = factor  # stored units -> mm per step
+        self.mask_fill, self.guard = mask_fill, guard  # the loader's fill heuristics and negative guard
+        self.source, self.variable = source, variable
+
+    def __copy__(self):
+        return self
+
+    def __deepcopy__(self, memo):
+        return self  # immutable record; copying a DataArray must not copy a dask graph

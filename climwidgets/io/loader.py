@@ -27,7 +27,7 @@ from ..errors import DataValueError, GridError, MismatchError, TimeAxisError, Un
 from ..provenance import with_history
 from . import grid as gridmod
 from . import timeaxis
-from .chunkreader import backend_reader, direct_reader
+from .chunkreader import StoredValues, backend_reader, direct_reader
 from .sources import open_raw, resolve
 from .units import UnitInfo, length_to_metres, parse_units
 
@@ -408,8 +408,11 @@ def open_precip(source, var=None, chunks="auto", validate="auto") -> xr.DataArra
         da = da.compute()
     eager = validate is True or (validate == "auto" and da.size <= EAGER_CHECK_MAX_VALUES)
     guard = {"mask_fill": mask_fill, "guard": not eager, "source": where, "name": name}
+    stored = da.data
     da = xr.apply_ufunc(_convert_block, da, factor, kwargs=guard,
                         dask="parallelized", output_dtypes=[np.float64], keep_attrs=False)
+    if dask.is_dask_collection(stored):  # lets compute/_fused.py sum stored float32 and convert the sums
+        da.encoding["stored_values"] = StoredValues(da.data.name, stored, factor, mask_fill, not eager, where, name)
     if eager:
         _check_values(da, where, name)
         da = da.where(~(da < 0), 0.0)  # tiny negatives within tolerance
