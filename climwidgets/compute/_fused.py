@@ -34,6 +34,7 @@ from .totals import monthly_totals
 ENABLED = True  # False sends every bundle through the plain resample/groupby path
 NEGATIVE_TOLERANCE_MM = 0.01  # as the loader: tiny negatives become 0, larger ones are an error
 _LIKELY_FILL = (-9999.0, -999.0, -99999.0)  # the loader's fill codes for files without _FillValue
+OUTPUT_CHUNK_BYTES = 32 * 2**20  # monthly results are gathered into chunks of about this size
 
 
 def applicable(pr: xr.DataArray, step: str, maxima_days) -> bool:
@@ -136,14 +137,15 @@ def _assemble(partials, block_ranges, row_offsets, n_seg, seg_starts, tblock_sta
     import dask.array as dsa
     from dask.highlevelgraph import HighLevelGraph
 
+    space = partials.chunks[1:]
     owner = np.searchsorted(tblock_starts, seg_starts, side="right") - 1
-    groups = []  # (first segment, last segment + 1)
+    per_chunk = max(1, OUTPUT_CHUNK_BYTES // (8 * int(np.prod([max(c) for c in space]))))
+    groups = []  # (first segment, last segment + 1); whole owners, merged up to the size target
     for s in range(n_seg):
-        if groups and owner[s] == owner[groups[-1][0]]:
+        if groups and (owner[s] == owner[s - 1] or s - groups[-1][0] < per_chunk):
             groups[-1][1] = s + 1
         else:
             groups.append([s, s + 1])
-    space = partials.chunks[1:]
     dsk = {}
     for c, (a, b) in enumerate(groups):
         sources = [g for g, (lo, hi) in enumerate(block_ranges) if lo < b and hi > a]
