@@ -1,7 +1,8 @@
 """The one-pass climatology (fused path) beside the I/O floor and xarray recipes, interleaved.
 
 Usage:  python benchmarks/bench_fused.py NY YEARS REPEAT [layout ...]
-        python benchmarks/bench_fused.py --cluster NY YEARS REPEAT
+        python benchmarks/bench_fused.py --cluster NY YEARS REPEAT      (threads, 1 and 2 workers)
+        python benchmarks/bench_fused.py --schedulers NY YEARS REPEAT   (threads or processes)
 
 Files: deterministic daily float32, zlib level 1 + shuffle, ~60 % dry days, two on-disk
 layouts ("fields": chunks (1, ny, nx); "tiles": (365, 64, 64)), kept in benchmarks/_data.
@@ -77,12 +78,12 @@ SETUP = ("import numpy as np, xarray as xr, dask, flox.xarray, flox.aggregations
          "from climwidgets.compute import _fused\nfrom climwidgets.compute.bundle import climatology_bundle\n")
 
 
-def cw_code(path, fused=True, scheduler=None):
+def cw_code(path, fused=True, scheduler=None, years=10):
     sched = f"dask.config.set(scheduler={scheduler!r})\n" if scheduler else ""
     return sched + textwrap.dedent(f"""
         _fused.ENABLED = {fused}
         pr = cw.open_precip(r'{path}', validate=False)
-        ds = climatology_bundle(pr, months=(7, 8), baseline=(2001, 2010), maxima_days=(1,)).compute()
+        ds = climatology_bundle(pr, months=(7, 8), baseline=(2001, {2000 + min(years, 10)}), maxima_days=(1,)).compute()
     """)
 
 
@@ -143,15 +144,15 @@ def run_layouts(ny, years, repeat, layouts):
             floor_name: (SETUP, io_floor_code(path, nproc)),
             "plain xarray + dask, chunks='auto'": (SETUP, xarray_auto_code(path)),
             tuned_name: (SETUP, xarray_tuned_code(path, layout)),
-            "climatology_bundle, plain path (before)": (SETUP, cw_code(path, fused=False)),
-            "climatology_bundle, fused, threads (default)": (SETUP, cw_code(path)),
+            "climatology_bundle, plain path (before)": (SETUP, cw_code(path, fused=False, years=years)),
+            "climatology_bundle, fused, threads (default)": (SETUP, cw_code(path, years=years)),
         }
         if os.environ.get("BENCH_PROCESSES", "1") == "1":
-            cases["climatology_bundle, fused, processes"] = (SETUP, cw_code(path, scheduler="processes"))
+            cases["climatology_bundle, fused, processes"] = (SETUP, cw_code(path, scheduler="processes", years=years))
         rows = {name: ([], []) for name in cases}
         for r in range(repeat):
             for name, (setup, code) in cases.items():
-                wall, peak = _run(setup, code)
+                wall, peak = _run(setup, code)[:2]
                 rows[name][0].append(wall)
                 rows[name][1].append(peak)
                 print(json.dumps({"layout": layout, "round": r, "case": name, "wall": wall, "peak": peak}),
@@ -162,25 +163,43 @@ def run_layouts(ny, years, repeat, layouts):
         print(_table(rows, floor_name, tuned_name), flush=True)
 
 
+def run_schedulers(ny, years, repeat):
+    """Threads against dask's process pool for the fused path (fields layout), interleaved."""
+    path = make_file("fields", ny, years)
+    cases = {"fused, threads": (SETUP, cw_code(path, years=years)),
+             "fused, processes (2)": (SETUP, cw_code(path, scheduler="processes", years=years))}
+    rows = {name: ([], []) for name in cases}
+    for r in range(repeat):
+        for name, (setup, code) in cases.items():
+            wall, peak = _run(setup, code)[:2]
+            rows[name][0].append(wall)
+            rows[name][1].append(peak)
+    print(f"### Threads or processes, fields layout, {years} years on {ny} x {ny}, {repeat} rounds\n")
+    print("| scheduler | median wall (s) | range (s) | peak memory (MiB) |\n|---|---|---|---|")
+    for name, (walls, peaks) in rows.items():
+        print(f"| {name} | {statistics.median(walls):.1f} | {min(walls):.1f}–{max(walls):.1f} | "
+              f"{min(peaks):.0f}–{max(peaks):.0f} |", flush=True)
+
+
 def run_cluster(ny, years, repeat):
     """Threads against 1- and 2-worker LocalClusters (started before timing), fused path."""
     path = make_file("fields", ny, years)
     cluster = "cw.use_cluster(n_workers={n})\nclient = cw.scale.current_client()\n"
     cases = {
-        "fused, threads": (SETUP, cw_code(path)),
-        "fused, LocalCluster 1 worker": (SETUP + cluster.format(n=1), cw_code(path)),
-        "fused, LocalCluster 2 workers": (SETUP + cluster.format(n=2), cw_code(path)),
+        "fused, threads": (SETUP, cw_code(path, years=years)),
+        "fused, LocalCluster 1 worker": (SETUP + cluster.format(n=1), cw_code(path, years=years)),
+        "fused, LocalCluster 2 workers": (SETUP + cluster.format(n=2), cw_code(path, years=years)),
     }
     rows = {name: ([], []) for name in cases}
     for r in range(repeat):
         for name, (setup, code) in cases.items():
-            wall, peak = _run(setup, code)
+            wall, peak = _run(setup, code)[:2]
             rows[name][0].append(wall)
             rows[name][1].append(peak)
             print(json.dumps({"round": r, "case": name, "wall": wall, "peak": peak}), file=sys.stderr, flush=True)
     overhead = _run(SETUP + "cw.use_cluster(n_workers=2)\nclient = cw.scale.current_client()\n"
                     "import dask.bag as db\n", "db.range(4000, npartitions=4000).map_partitions(len).sum().compute()")
-    count = _run(SETUP, cw_code(path).replace(".compute()", "") +
+    count = _run(SETUP, cw_code(path, years=years).replace(".compute()", "") +
                  "\nprint('TASKS', len(dask.optimize(ds)[0].__dask_graph__()))")
     base = statistics.median(rows["fused, threads"][0])
     print(f"### Cluster, fields layout, {years} years on {ny} x {ny}, {repeat} rounds\n")
@@ -196,6 +215,9 @@ def run_cluster(ny, years, repeat):
 
 def main():
     args = sys.argv[1:]
+    if args and args[0] == "--schedulers":
+        run_schedulers(int(args[1]), int(args[2]), int(args[3]))
+        return
     if args and args[0] == "--cluster":
         run_cluster(int(args[1]), int(args[2]), int(args[3]))
         return
