@@ -27,7 +27,6 @@ import sys
 import textwrap
 
 import numpy as np
-
 from _common import DATA, machine_facts
 from bench_scale import CHUNKS, _run, io_floor_code
 

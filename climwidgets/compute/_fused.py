@@ -199,11 +199,11 @@ def monthly_and_maxima(pr: xr.DataArray, step: str, maxima_days, year_start: int
     if found is not None:
         rec, factor = found
         source = rec.data
-        kwargs = dict(factor=factor, mask_fill=rec.mask_fill, guard=rec.guard, source=rec.source,
-                      variable=rec.variable)
+        kwargs = {"factor": factor, "mask_fill": rec.mask_fill, "guard": rec.guard, "source": rec.source,
+                  "variable": rec.variable}
     else:
         source = pr.data
-        kwargs = dict(factor=1.0, mask_fill=False, guard=False, source=None, variable=None)
+        kwargs = {"factor": 1.0, "mask_fill": False, "guard": False, "source": None, "variable": None}
     tchunks = source.chunks[0]
     tblock_starts = np.concatenate([[0], np.cumsum(tchunks)[:-1]])
     m_ranges, y_ranges, rows = [], [], []

@@ -59,7 +59,7 @@ def _assert_same(fused, plain):
         a, b = fused[name], plain[name]
         assert a.dims == b.dims and a.dtype == b.dtype, name
         xr.testing.assert_identical(a.coords.to_dataset(), b.coords.to_dataset())
-        drop = lambda attrs: {k: v for k, v in attrs.items() if k != "history"}  # noqa: E731 (time stamps)
+        drop = lambda attrs: {k: v for k, v in attrs.items() if k != "history"}
         assert drop(a.attrs) == drop(b.attrs), name
         np.testing.assert_array_equal(np.isnan(a.values), np.isnan(b.values), err_msg=name)
         if name.startswith("annual_max"):
