@@ -99,7 +99,8 @@ def _run(setup: str, code: str) -> tuple[float, float]:
         raise RuntimeError(out.stderr[-3000:])
     line = [l for l in out.stdout.splitlines() if l.startswith("RESULT")][-1]
     wall, peak = json.loads(line.split(" ", 1)[1])
-    return wall, peak
+    tasks = [l.split()[1] for l in out.stdout.splitlines() if l.startswith("TASKS")]  # bench_fused's task count
+    return (wall, peak, int(tasks[0])) if tasks else (wall, peak)
 
 
 def io_floor_code(path, nproc):

@@ -26,6 +26,24 @@ def test_local_cluster_matches_threaded(tmp_path):
 
 
 @pytest.mark.slow
+def test_fused_pass_on_a_cluster_is_identical_to_threads(tmp_path):
+    """Workers read the files themselves (the chunk index travels as the file's name) and hand back partials."""
+    from climwidgets.compute import _fused
+    from climwidgets.scale import close_cluster
+
+    path = _write(tmp_path / "d.nc", years=3, chunks=(1, 4, 5))
+    pr = cw.open_precip(path, chunks={"time": 60}, validate=False)
+    assert _fused.applicable(pr, "day", (1,)) and _fused._stored_record(pr) is not None
+    threaded = climatology_bundle(pr, baseline=(2001, 2003), compute=True)
+    cw.use_cluster(n_workers=2)
+    try:
+        on_cluster = climatology_bundle(pr, baseline=(2001, 2003), compute=True)
+    finally:
+        close_cluster()
+    xr.testing.assert_identical(on_cluster.drop_attrs(), threaded.drop_attrs())
+
+
+@pytest.mark.slow
 def test_cluster_progress_and_cancellation(tmp_path):
     import dask.array as dsa
 

@@ -13,6 +13,7 @@ import xarray as xr
 
 from .. import cache
 from ..provenance import with_history
+from . import _fused
 from ._time import precip_mm
 from .extremes import annual_maxima
 from .normals import normals
@@ -24,7 +25,10 @@ __all__ = ["climatology_bundle"]
 
 def _build(pr, months, baseline, year_start, maxima_days):
     pr, step = precip_mm(pr, "climatology_bundle")
-    monthly = monthly_totals(pr)
+    # one task per chunk read makes the monthly partials and maxima (see _fused); else plain
+    fused = _fused.monthly_and_maxima(pr, step, maxima_days, year_start) \
+        if _fused.applicable(pr, step, maxima_days) else None
+    monthly = fused[0] if fused is not None else monthly_totals(pr)
     out = {
         "monthly_totals": monthly,
         "annual_totals": annual_totals(monthly, year_start=year_start),
@@ -36,8 +40,9 @@ def _build(pr, months, baseline, year_start, maxima_days):
         out["normals"] = normals(monthly, baseline=baseline)
     if step != "month":
         for days in maxima_days:
-            out[f"annual_max_{days}day"] = annual_maxima(pr, duration_days=days, year_start=year_start).rename(
-                year="maxima_year")
+            amax = fused[1][days] if fused is not None else annual_maxima(pr, duration_days=days,
+                                                                            year_start=year_start)
+            out[f"annual_max_{days}day"] = amax.rename(year="maxima_year")
     grid = {"lat", "lon", "lat_lower", "lat_upper", "lon_lower", "lon_upper"}
     # per-variable bookkeeping coords (e.g. counts per cell) would clash when merged; grid coords stay
     ds = xr.Dataset({k: v.drop_vars([c for c in v.coords if c not in v.dims and c not in grid])

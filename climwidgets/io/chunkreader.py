@@ -102,14 +102,23 @@ def _check_fletcher32(data: bytes) -> bytes:
 class ChunkIndex:
     """Byte offset and size of every stored chunk of one variable, by its chunk-grid position."""
 
-    def __init__(self, path, shape, chunk_shape, dtype, fill, filters, entries):
+    def __init__(self, path, shape, chunk_shape, dtype, fill, filters, entries, varname=None, stamp=None):
         self.path = path
+        self.varname, self.stamp = varname, stamp  # stamp: (size, mtime_ns) of the file indexed
         self.shape = tuple(shape)
         self.chunk_shape = tuple(chunk_shape)
         self.dtype = np.dtype(dtype)
         self.fill = fill
         self.filters = filters  # list of filter ids in pipeline order
         self.entries = entries  # {chunk grid position tuple: (byte offset, size, filter mask)}
+
+    def __reduce__(self):
+        # sent to another process (a dask worker) as the file's name only: the worker opens
+        # the file and reads its chunk index itself, once per process, instead of receiving
+        # every chunk's offset with every task
+        if self.varname is None:
+            return object.__reduce__(self)
+        return _index_in_process, (self.path, self.varname, self.stamp)
 
     def positions(self, region):
         """Chunk-grid positions overlapping a region given as a tuple of slices."""
@@ -159,9 +168,37 @@ def _build_index(path: str, varname: str) -> ChunkIndex | None:
             else:  # pragma: no cover - older HDF5
                 for i in range(d.id.get_num_chunks()):
                     add(d.id.get_chunk_info(i))
-            return ChunkIndex(path, d.shape, d.chunks, d.dtype, d.fillvalue, filters, entries)
+            return ChunkIndex(path, d.shape, d.chunks, d.dtype, d.fillvalue, filters, entries, varname,
+                              _stamp(path))
     except (OSError, ValueError, KeyError, RuntimeError):
         return None
+
+
+def _stamp(path):
+    st = os.stat(path)
+    return st.st_size, st.st_mtime_ns
+
+
+_INDEXES: dict = {}  # chunk indexes rebuilt in this process, by (path, variable, stamp)
+
+
+def _index_in_process(path, varname, stamp):
+    """The chunk index of a file in a worker process, read once; the file must be unchanged."""
+    from ..errors import SourceError
+
+    key = (path, varname, stamp)
+    if key not in _INDEXES:
+        try:
+            now = _stamp(path)
+        except OSError:
+            now = None
+        index = _build_index(path, varname) if now == stamp else None
+        if index is None:
+            raise SourceError("changed, moved or became unreadable after it was opened", source=path,
+                              variable=varname, expected="the file as it was when opened",
+                              fix="open the data again (cw.open_precip) and recompute")
+        _INDEXES[key] = index
+    return _INDEXES[key]
 
 
 def read_region(index: ChunkIndex, region: tuple) -> np.ndarray:
@@ -279,3 +316,27 @@ def direct_reader(path: str, varname: str, encoding: dict, chunks: tuple, name: 
     out = np.dtype(np.float64) if packed else index.dtype.newbyteorder("=")
     return dsa.map_blocks(_read_block, index, fills, scale, offset, varname, dtype=out, chunks=normalized,
                           name=name, meta=np.array((), dtype=out))
+
+
+class StoredValues:
+    """A loaded variable's values as decoded from disk, before the conversion to mm per step.
+
+    The loader leaves one on its DataArray (``encoding["stored_values"]``) so that a
+    reduction can work in the stored precision (float32 stays float32) and convert only its
+    small results (``compute/_fused.py``). It describes the DataArray only while that
+    DataArray's dask array is still the one named ``name``: any later operation renames the
+    dask array, and the record is then ignored.
+    """
+
+    def __init__(self, name, data, factor, mask_fill, guard, source, variable):
+        self.name = name  # dask name of the converted array this record belongs to
+        self.data = data  # dask array of decoded stored values (fill values already NaN)
+        self.factor = factor  # stored units -> mm per step
+        self.mask_fill, self.guard = mask_fill, guard  # the loader's fill heuristics and negative guard
+        self.source, self.variable = source, variable
+
+    def __copy__(self):
+        return self
+
+    def __deepcopy__(self, memo):
+        return self  # immutable record; copying a DataArray must not copy a dask graph

@@ -28,7 +28,7 @@ from ..errors import GridError, MismatchError, TimeAxisError, UnitsError, Variab
 from ..provenance import with_history
 from . import grid as gridmod
 from . import timeaxis
-from .chunkreader import backend_reader, direct_reader
+from .chunkreader import StoredValues, backend_reader, direct_reader
 from .projected import attach_latlon, attach_mapping
 from .sources import is_zarr, open_raw, resolve, source_label
 from .units import length_to_metres, parse_units, step_factor
@@ -416,8 +416,11 @@ def open_precip(source, var=None, chunks="auto", validate="auto") -> xr.DataArra
         da = da.compute()
     eager = validate is True or (validate == "auto" and da.size <= EAGER_CHECK_MAX_VALUES)
     guard = {"mask_fill": mask_fill, "guard": not eager, "source": where, "name": name}
+    stored = da.data
     da = xr.apply_ufunc(convert_block, da, factor, kwargs=guard,
                         dask="parallelized", output_dtypes=[np.float64], keep_attrs=False)
+    if dask.is_dask_collection(stored):  # lets compute/_fused.py sum stored float32 and convert the sums
+        da.encoding["stored_values"] = StoredValues(da.data.name, stored, factor, mask_fill, not eager, where, name)
     if eager:
         check_values(da, where, name)
         da = da.where(~(da < 0), 0.0)  # tiny negatives within tolerance

@@ -136,3 +136,26 @@ def test_corrupted_chunk_with_fletcher32_is_refused_naming_file_and_region(tmp_p
     msg = str(err.value)
     assert "bad.nc" in msg and "0:4" in msg and "checksum" in msg
     arr[4:].compute()  # the undamaged chunk still reads
+
+
+def test_index_travels_as_the_file_name_and_refuses_a_changed_file(tmp_path):
+    """A worker process reads the chunk index itself; a file changed since opening is refused."""
+    import os
+    import pickle
+
+    from climwidgets.errors import SourceError
+
+    data = np.arange(40 * 4 * 4, dtype="f4").reshape(40, 4, 4)
+    path = _write(tmp_path / "a.nc", data, {"zlib": True, "chunksizes": (1, 4, 4)})
+    index = chunkreader._build_index(path, "v")
+    payload = pickle.dumps(index)
+    assert len(payload) < 500 < len(pickle.dumps(index.entries))  # no per-chunk offsets on the wire
+    chunkreader._INDEXES.clear()
+    again = pickle.loads(payload)
+    assert again.entries == index.entries
+    region = (slice(3, 9), slice(0, 4), slice(0, 4))
+    np.testing.assert_array_equal(chunkreader.read_region(again, region), data[3:9])
+    chunkreader._INDEXES.clear()
+    os.utime(path, ns=(0, 0))  # the file looks changed
+    with pytest.raises(SourceError, match="changed"):
+        pickle.loads(payload)
