@@ -168,7 +168,7 @@ def run_schedulers(ny, years, repeat):
     cases = {"fused, threads": (SETUP, cw_code(path, years=years)),
              "fused, processes (2)": (SETUP, cw_code(path, scheduler="processes", years=years))}
     rows = {name: ([], []) for name in cases}
-    for r in range(repeat):
+    for _ in range(repeat):
         for name, (setup, code) in cases.items():
             wall, peak = _run(setup, code)[:2]
             rows[name][0].append(wall)

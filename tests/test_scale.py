@@ -2,6 +2,7 @@
 
 import numpy as np
 import pytest
+import xarray as xr
 
 import climwidgets as cw
 from climwidgets.compute.bundle import climatology_bundle

@@ -232,6 +232,7 @@ def monthly_and_maxima(pr: xr.DataArray, step: str, maxima_days, year_start: int
                        tblock_starts, "sum", f"climatology-counts-{token}")
     need = DEFAULT_MIN_VALID_FRACTION * _nominal_steps(time.values[0], uniq, year_start, step)
     need = need.reshape((-1,) + (1,) * (pr.ndim - 1))
+    assert max_template is not None  # with_maxima is true past the early return above
     keep = np.flatnonzero(np.isin(uniq, max_template["year"].values))
     amax = dsa.where(counts >= need, maxima, np.nan)[keep]
     ydims = ("year",) + pr.dims[1:]

@@ -243,7 +243,8 @@ def whole_grid_basin(field, name="whole grid") -> Basin | None:
     from .grid import cell_bounds
 
     b = cell_bounds(field)
-    if b.kind != "rectilinear":
+    if b.kind != "rectilinear" or b.lon_lower is None or b.lon_upper is None \
+            or b.lat_lower is None or b.lat_upper is None:
         return None
     w, e = float(np.min(b.lon_lower)), float(np.max(b.lon_upper))
     s, n = float(np.min(b.lat_lower)), float(np.max(b.lat_upper))

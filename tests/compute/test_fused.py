@@ -21,6 +21,10 @@ from climwidgets.compute.bundle import climatology_bundle
 from climwidgets.errors import DataValueError
 
 
+def _without_history(attrs):
+    return {k: v for k, v in attrs.items() if k != "history"}
+
+
 def _write(path, years=3, chunks=(30, 4, 5), missing=False, fill=None, scale=1.0, units="mm", negative=None):
     t = pd.date_range("2001-01-01", f"{2000 + years}-12-31", freq="D")
     rng = np.random.default_rng(7)
@@ -59,8 +63,7 @@ def _assert_same(fused, plain):
         a, b = fused[name], plain[name]
         assert a.dims == b.dims and a.dtype == b.dtype, name
         xr.testing.assert_identical(a.coords.to_dataset(), b.coords.to_dataset())
-        drop = lambda attrs: {k: v for k, v in attrs.items() if k != "history"}
-        assert drop(a.attrs) == drop(b.attrs), name
+        assert _without_history(a.attrs) == _without_history(b.attrs), name
         np.testing.assert_array_equal(np.isnan(a.values), np.isnan(b.values), err_msg=name)
         if name.startswith("annual_max"):
             np.testing.assert_array_equal(a.values, b.values, err_msg=name)  # a maximum has no rounding
