@@ -24,8 +24,8 @@ import numpy as np
 import pandas as pd
 import xarray as xr
 
-__all__ = ["Meta", "CATALOGUE", "describe", "frame", "display_frame", "column_heading", "format_cell",
-           "table_variables"]
+__all__ = ["Meta", "CATALOGUE", "INDEX_CATALOGUE", "index_meta", "describe", "frame", "display_frame",
+           "column_heading", "format_cell", "table_variables"]
 
 
 @dataclass(frozen=True)
@@ -111,7 +111,53 @@ CATALOGUE: dict[str, Meta] = {
     "trend_mm_per_year": Meta("Sen slope", "mm/yr", "Sen slope of the annual totals", "mm per year", 1.0, ".2f"),
     "trend_pvalue": Meta("Mann-Kendall p-value", "1", "two-sided Mann-Kendall p-value of the annual totals", "",
                          1.0, ".2f"),
+    # precipitation indices per basin (labels name the index per call)
+    "index_mean": Meta("mean", "", "mean over the period's years of the basin mean of the per-cell index",
+                       None, 1.0, ".4g"),
+    "index_slope": Meta("Sen slope", "", "Sen slope of the basin's per-year index, per decade", None, 10.0, ".3g"),
+    "index_pvalue": Meta("Mann-Kendall p", "1", "two-sided Mann-Kendall p-value of the basin's per-year index",
+                         "", 1.0, ".2f"),
+    "n_index_years": Meta("years", "1", "years with a value behind the mean and the trend", "", 1.0, ".0f"),
 }
+
+
+#: ETCCDI precipitation indices (Karl, Nicholls & Ghazi 1999; Zhang et al. 2011), shown under their
+#: short names.  ``R<nn>mm`` for any threshold is made by :func:`index_meta`.
+INDEX_CATALOGUE: dict[str, Meta] = {
+    "PRCPTOT": Meta("PRCPTOT, total on wet days", "mm", "sum of daily precipitation on wet days (at least 1 mm)",
+                    "mm", 1.0, ",.0f"),
+    "SDII": Meta("SDII, mean wet-day intensity", "mm d-1", "PRCPTOT divided by the number of wet days "
+                 "(at least 1 mm)", "mm per wet day", 1.0, ".1f"),
+    "CDD": Meta("CDD, longest dry spell", "d", "longest run of days with less than 1 mm, cut at the year "
+                "boundary (each part counts in its own year)", "days", 1.0, ".0f"),
+    "CWD": Meta("CWD, longest wet spell", "d", "longest run of days with at least 1 mm, cut at the year "
+                "boundary (each part counts in its own year)", "days", 1.0, ".0f"),
+    "R10mm": Meta("R10mm, days with at least 10 mm", "d", "count of days with 10 mm or more", "days", 1.0, ".1f"),
+    "R20mm": Meta("R20mm, days with at least 20 mm", "d", "count of days with 20 mm or more", "days", 1.0, ".1f"),
+    "R95p": Meta("R95p, total on very wet days", "mm", "precipitation on wet days above the 95th percentile of "
+                 "the base period's wet days", "mm", 1.0, ",.0f"),
+    "R99p": Meta("R99p, total on extremely wet days", "mm", "precipitation on wet days above the 99th percentile "
+                 "of the base period's wet days", "mm", 1.0, ",.0f"),
+    "R95pTOT": Meta("R95pTOT, share from very wet days", "%", "100 × R95p / PRCPTOT", "%", 1.0, ".1f"),
+    "R99pTOT": Meta("R99pTOT, share from extremely wet days", "%", "100 × R99p / PRCPTOT", "%", 1.0, ".1f"),
+    "Rx1day": Meta("Rx1day, wettest day", "mm", "largest daily depth of the year", "mm", 1.0, ".1f"),
+    "Rx5day": Meta("Rx5day, wettest 5 days", "mm", "largest sum over 5 consecutive days; a window belongs to "
+                   "the year of its last day", "mm", 1.0, ".1f"),
+}
+
+
+def index_meta(name: str) -> Meta:
+    """The display attributes of an ETCCDI index, ``R<nn>mm`` for any threshold included."""
+    import re
+
+    if name in INDEX_CATALOGUE:
+        return INDEX_CATALOGUE[name]
+    m = re.fullmatch(r"R(\d+(?:\.\d+)?)mm", name)
+    if m is None:
+        raise KeyError(f"{name!r} is not an ETCCDI precipitation index")
+    nn = float(m.group(1))
+    return Meta(f"{name}, days with at least {nn:g} mm", "d", f"count of days with {nn:g} mm or more", "days",
+                1.0, ".1f")
 
 
 def describe(da: xr.DataArray, name: str, **overrides) -> xr.DataArray:

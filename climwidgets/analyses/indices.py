@@ -1,0 +1,152 @@
+"""ETCCDI precipitation indices as users see them: per-cell maps and basin tables.
+
+Built on :func:`cw.precip_indices` (per cell, per year).  A basin's index is the
+area-weighted basin mean of the per-cell index (as gridded index products average cell
+values; it is *not* the index of the basin-mean series, which would smooth the daily
+values first and give fewer dry days and smaller maxima).  Over a chosen period of years
+the table gives the mean, the Sen slope and the two-sided Mann-Kendall p of the basin's
+per-year index (:func:`cw.trend`).  Labels, units and formats come from
+:data:`climwidgets.analyses.meta.INDEX_CATALOGUE`.
+
+References
+----------
+Karl, T. R., Nicholls, N. & Ghazi, A. (1999) Climatic Change 42, 3-7.
+Zhang, X. et al. (2011) WIREs Climate Change 2, 851-870. doi:10.1002/wcc.147
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import xarray as xr
+
+from ..compute.indices import precip_indices
+from ..compute.trend import trend
+from ..errors import InsufficientDataError, ParameterError
+from ..geo.basinset import as_basin_list
+from .basins import basin_series
+from .meta import describe, frame, index_meta
+
+__all__ = ["gridded_indices", "index_map", "basin_index_table", "index_table", "INDEX_TABLE_COLUMNS",
+           "BASIN_INDEX_NOTE"]
+
+INDEX_TABLE_COLUMNS = ("area_km2", "index_mean", "index_slope", "index_pvalue", "n_index_years")
+BASIN_INDEX_NOTE = ("a basin's index is the area-weighted mean of the per-cell index, not the index of the "
+                    "basin-mean series")
+
+
+def _index_attrs(name: str, compute_attrs: dict) -> dict:
+    attrs = index_meta(name).attrs()
+    attrs["long_name"] = compute_attrs.get("long_name", attrs["label"])
+    attrs["definition"] = compute_attrs.get("description", "")
+    return attrs
+
+
+def gridded_indices(pr: xr.DataArray, names=None, base_period=(1961, 1990), year_start: int = 1,
+                    thresholds=(), indices: xr.Dataset | None = None) -> xr.Dataset:
+    """Per-cell, per-year ETCCDI indices with their display attributes (lazy).
+
+    Parameters
+    ----------
+    pr
+        Daily precipitation depth in mm.
+    names, base_period, year_start, thresholds
+        As for :func:`cw.precip_indices` (annual indices only here).
+    indices
+        The Dataset of :func:`cw.precip_indices` when already at hand (for example from
+        :func:`cw.climatology_bundle`); ``pr`` and the other parameters are then unused.
+
+    Returns
+    -------
+    xr.Dataset on (year, space) with one variable per index; attrs state the conventions.
+    """
+    ds = indices if indices is not None else precip_indices(pr, names=names, base_period=base_period,
+                                                           year_start=year_start, thresholds=thresholds)
+    out = ds.copy(deep=False)
+    for name in ds.data_vars:
+        out[name].attrs = _index_attrs(str(name), ds[name].attrs)
+    return out
+
+
+def _years(indices: xr.Dataset, period, source: str):
+    have = np.asarray(indices["year"].values, dtype=int)
+    if period is None:
+        return int(have.min()), int(have.max())
+    try:
+        first, last = (int(v) for v in period)
+    except (TypeError, ValueError):
+        raise ParameterError(f"period={period!r} is not a pair of years", source=source, variable="period",
+                             expected="(first, last) years", fix="pass for example period=(1991, 2020)") from None
+    if first > last or first < have.min() or last > have.max():
+        raise ParameterError(f"period {first}-{last} is not within the index years {have.min()}-{have.max()}",
+                             source=source, variable="period",
+                             expected=f"first <= last within {have.min()}-{have.max()}",
+                             fix="choose years inside the record, or period=None for all of them")
+    return first, last
+
+
+def _check_name(indices: xr.Dataset, name: str, source: str):
+    if name not in indices.data_vars:
+        raise ParameterError(f"index {name!r} was not computed", source=source, variable="name",
+                             expected=f"one of {tuple(map(str, indices.data_vars))}",
+                             fix="add it to names= (or thresholds= for R<nn>mm)")
+
+
+def index_map(indices: xr.Dataset, name: str, period=None) -> xr.DataArray:
+    """Mean of one index over the years of ``period`` (first, last), per cell (lazy).
+
+    A cell is NaN when any year of the period is NaN (a year with a missing day), so the
+    mean never rests on fewer years than the period says.
+    """
+    _check_name(indices, name, "index_map")
+    first, last = _years(indices, period, "index_map")
+    sel = indices[name].sel(year=slice(first, last))
+    out = sel.mean("year", skipna=False)
+    out.attrs = {**indices[name].attrs, "years": f"{first}-{last}"}
+    return out.rename(name)
+
+
+def basin_index_table(indices: xr.Dataset, basins, name: str, period=None) -> xr.Dataset:
+    """One index per basin over ``period``: mean, Sen slope, Mann-Kendall p and the per-year series.
+
+    Returns a lazy Dataset on ``basin`` with ``area_km2``, ``index_mean``, ``index_slope``
+    (index units per year; shown per decade), ``index_pvalue``, ``n_index_years``, and
+    ``index_per_year`` (basin, year) with ``index_intercept`` for the trend line.
+    """
+    _check_name(indices, name, "basin_index_table")
+    basins = as_basin_list(basins, "basin_index_table")
+    first, last = _years(indices, period, "basin_index_table")
+    attrs = indices[name].attrs
+    units, shown = attrs.get("units", ""), attrs.get("display_units", "")
+    per_year = basin_series(indices[name].sel(year=slice(first, last)).assign_attrs(units=units), basins)
+    per_year = per_year.reset_coords(drop=True)
+    areas = xr.DataArray(np.array([b.area_m2 for b in basins]) / 1e6, dims="basin",
+                         coords={"basin": [b.name for b in basins]})
+    ds = xr.Dataset({
+        "area_km2": describe(areas, "area_km2"),
+        "index_mean": describe(per_year.mean("year"), "index_mean", label=f"{name} mean", units=units,
+                               display_units=shown, display_format=attrs.get("display_format", ".4g")),
+        "n_index_years": describe(per_year.notnull().sum("year"), "n_index_years"),
+        "index_per_year": per_year.assign_attrs(label=f"{name} per year", units=units, display_units=shown,
+                                                long_name=attrs.get("label", name)),
+    })
+    if per_year.sizes["year"] >= 3:
+        try:
+            tr = trend(per_year, dim="year")
+        except InsufficientDataError:
+            tr = None
+        if tr is not None:
+            ds["index_slope"] = describe(tr["slope"], "index_slope", label=f"{name} Sen slope",
+                                         units=f"{units}/yr", display_units=f"{shown} per decade")
+            ds["index_pvalue"] = describe(tr["pvalue"], "index_pvalue")
+            ds["index_intercept"] = tr["intercept"].assign_attrs(units=units)
+    ds.attrs = {"index": name, "first_year": first, "last_year": last, "note": BASIN_INDEX_NOTE,
+                **{k: v for k, v in indices.attrs.items() if k in ("wet_day", "spell_convention", "missing_rule",
+                                                                   "percentile_method", "base_period",
+                                                                   "year_label", "history")}}
+    return ds
+
+
+def index_table(ds: xr.Dataset, display: bool = False):
+    """The basin index table (rows: basins) as stored (CSV) or as shown (widgets, report)."""
+    columns = [c for c in INDEX_TABLE_COLUMNS if c in ds.data_vars]
+    return frame(ds, columns=columns, display=display)
