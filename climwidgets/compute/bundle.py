@@ -16,6 +16,7 @@ from ..provenance import with_history
 from . import _fused
 from ._time import precip_mm
 from .extremes import annual_maxima
+from .indices import precip_indices
 from .normals import normals
 from .seasonal import seasonal_fraction
 from .totals import annual_totals, monthly_totals
@@ -23,7 +24,7 @@ from .totals import annual_totals, monthly_totals
 __all__ = ["climatology_bundle"]
 
 
-def _build(pr, months, baseline, year_start, maxima_days):
+def _build(pr, months, baseline, year_start, maxima_days, indices=(), index_base_period=None):
     pr, step = precip_mm(pr, "climatology_bundle")
     # one task per chunk read makes the monthly partials and maxima (see _fused); else plain
     fused = _fused.monthly_and_maxima(pr, step, maxima_days, year_start) \
@@ -43,17 +44,24 @@ def _build(pr, months, baseline, year_start, maxima_days):
             amax = fused[1][days] if fused is not None else annual_maxima(pr, duration_days=days,
                                                                             year_start=year_start)
             out[f"annual_max_{days}day"] = amax.rename(year="maxima_year")
+    if indices:
+        # same daily array, same graph: one compute reads each stored chunk once for all results
+        ind = precip_indices(pr, names=tuple(indices), base_period=index_base_period, year_start=year_start)
+        for name in ind.data_vars:
+            out[f"index_{name}"] = ind[name].rename(year="index_year").assign_attrs(
+                {**ind[name].attrs, **{k: v for k, v in ind.attrs.items() if k != "history"}})
     grid = {"lat", "lon", "lat_lower", "lat_upper", "lon_lower", "lon_upper"}
     # per-variable bookkeeping coords (e.g. counts per cell) would clash when merged; grid coords stay
     ds = xr.Dataset({k: v.drop_vars([c for c in v.coords if c not in v.dims and c not in grid])
                      for k, v in out.items()})
     ds.attrs = {"source_history": pr.attrs.get("history", ""), "months": list(months), "year_start": year_start}
     return with_history(ds, "climatology_bundle", pr.attrs, months=tuple(months), baseline=baseline,
-                        year_start=year_start, maxima_days=tuple(maxima_days))
+                        year_start=year_start, maxima_days=tuple(maxima_days), indices=tuple(indices))
 
 
 def climatology_bundle(pr: xr.DataArray, months=(7, 8), baseline=None, year_start: int = 1,
-                       maxima_days=(1,), compute: bool = False, use_cache: bool = False) -> xr.Dataset:
+                       maxima_days=(1,), compute: bool = False, use_cache: bool = False, indices=(),
+                       index_base_period=None) -> xr.Dataset:
     """Monthly and annual totals, seasonal share, normals and annual maxima together.
 
     Parameters
@@ -66,6 +74,11 @@ def climatology_bundle(pr: xr.DataArray, months=(7, 8), baseline=None, year_star
         (first, last) years for the monthly normals; None leaves them out.
     maxima_days
         Durations (days) of annual maxima to include; skipped for monthly input.
+    indices, index_base_period
+        ETCCDI index names (``cw.precip_indices``, daily data only) to include, per year of
+        ``year_start``, as ``index_<name>`` (index_year); the wet-day percentiles use
+        ``index_base_period`` (None: every complete year).  They share the daily data's
+        graph, so one compute still reads every stored chunk once.
     compute
         True computes everything in one pass and returns in-memory results.
     use_cache
@@ -76,13 +89,17 @@ def climatology_bundle(pr: xr.DataArray, months=(7, 8), baseline=None, year_star
     -------
     xr.Dataset with ``monthly_totals`` (time), ``annual_totals`` (year),
     ``seasonal_share``, ``seasonal_share_per_year`` (season_year), ``normals`` (month) and
-    ``annual_max_<n>day`` (maxima_year). Per-year variables keep their own year dims
+    ``annual_max_<n>day`` (maxima_year), ``index_<name>`` (index_year) when asked. Per-year variables keep their own year dims
     because a season that wraps the year end is labelled by its own 12-month year.
     """
     months = tuple(months)
     maxima_days = tuple(maxima_days)
+    indices = (indices,) if isinstance(indices, str) else tuple(indices or ())
+    extra = {"indices": indices, "index_base_period": index_base_period} if indices else {}
     if use_cache:
-        return cache.cached("climatology_bundle", lambda: _build(pr, months, baseline, year_start, maxima_days),
-                            pr, months=months, baseline=baseline, year_start=year_start, maxima_days=maxima_days)
-    ds = _build(pr, months, baseline, year_start, maxima_days)
+        return cache.cached("climatology_bundle", lambda: _build(pr, months, baseline, year_start, maxima_days,
+                                                                 **extra),
+                            pr, months=months, baseline=baseline, year_start=year_start, maxima_days=maxima_days,
+                            **extra)
+    ds = _build(pr, months, baseline, year_start, maxima_days, **extra)
     return ds.compute() if compute else ds

@@ -4,6 +4,8 @@ tests/compute/test_bundle.py: count the reads through whichever reader the loade
 
 import json
 
+import numpy as np
+
 import pytest
 
 import climwidgets as cw
@@ -68,3 +70,27 @@ def test_report_reads_each_chunk_once(data, counted_reads):  # noqa: F811
     content = build_report_content(pr, BASINS, baseline=(2001, 2003), scenario_percent=5.0)
     assert len(counted_reads) == n_chunks
     assert list(content.table.index) == ["first", "second"] and content.what_if is not None
+
+
+def test_bundle_with_indices_reads_each_chunk_once(data, counted_reads):  # noqa: F811
+    """The ETCCDI indices ride in the same compute as the climatology (fused monthly pass,
+    annual maxima) and the basin index table: still one read of every stored chunk."""
+    from climwidgets.analyses import run
+    from climwidgets.analyses.indices import basin_index_table, gridded_indices
+    from climwidgets.compute.bundle import climatology_bundle
+
+    path, n_chunks = data
+    pr = _open(path)
+    counted_reads.clear()
+    names = ("PRCPTOT", "SDII", "CDD", "CWD", "R10mm", "R95pTOT", "Rx1day", "Rx5day")
+    ds = climatology_bundle(pr, months=(7, 8), baseline=(2001, 2003), indices=names)
+    ind = gridded_indices(None, indices=ds[[f"index_{n}" for n in names]].rename(
+        {f"index_{n}": n for n in names}).rename(index_year="year"))
+    table = basin_index_table(ind, BASINS, "PRCPTOT")
+    bundle, table = run.compute(ds, table)
+    assert len(counted_reads) == n_chunks
+    # the same numbers as the indices on their own
+    alone = cw.precip_indices(_open(path), names=names, base_period=None).compute()
+    for n in names:
+        np.testing.assert_allclose(bundle[f"index_{n}"].values, alone[n].values, rtol=1e-12, equal_nan=True)
+    assert table["index_mean"].notnull().all()
