@@ -111,6 +111,12 @@ CATALOGUE: dict[str, Meta] = {
     "trend_mm_per_year": Meta("Sen slope", "mm/yr", "Sen slope of the annual totals", "mm per year", 1.0, ".2f"),
     "trend_pvalue": Meta("Mann-Kendall p-value", "1", "two-sided Mann-Kendall p-value of the annual totals", "",
                          1.0, ".2f"),
+    # depth-duration-frequency tables (units "mm" or "in", set per call)
+    "duration": Meta("duration", "", "duration of the running total", "", 1.0, ""),
+    "ddf_estimate": Meta("depth", "", "GEV (L-moment) return level of the annual maxima of running totals, "
+                         "raised where needed so depths never fall with duration", None, 1.0, ".1f"),
+    "ddf_lower": Meta("lower", "", "lower end of the bootstrap interval", None, 1.0, ".1f"),
+    "ddf_upper": Meta("upper", "", "upper end of the bootstrap interval", None, 1.0, ".1f"),
     # precipitation indices per basin (labels name the index per call)
     "index_mean": Meta("mean", "", "mean over the period's years of the basin mean of the per-cell index",
                        None, 1.0, ".4g"),

@@ -202,6 +202,7 @@ def render_html(content: ReportContent, figures: bool = True) -> str:
         if content.what_if_note:
             body = f"<p>{_e(content.what_if_note)}</p>" + body
         parts.append(_section("what-if", content.what_if_title, body))
+    parts.extend(getattr(content, "extra_sections", ()) or ())  # e.g. report.indices_section
     cautions = content.cautions or ("Planning-level figures from gridded data.",)
     parts.append(_section("cautions", "Cautions",
                           "<ol class='cautions'>" + "".join(f"<li>{_e(c)}</li>" for c in cautions) + "</ol>"))
