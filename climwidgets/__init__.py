@@ -105,6 +105,7 @@ _PUBLIC = {
     "AnomalyWidget": "climwidgets.widgets.anomaly",
     "OrographicContrastWidget": "climwidgets.widgets.orographic",
     "ExtremesWidget": "climwidgets.widgets.extremes",
+    "IndicesWidget": "climwidgets.widgets.indices",
     "ComparisonWidget": "climwidgets.widgets.comparison",
     "BasinSummaryWidget": "climwidgets.widgets.summary",
 }
