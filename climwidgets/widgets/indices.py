@@ -60,13 +60,13 @@ class IndicesWidget(BaseWidget):
         style = {"description_width": "110px"}
         lay = widgets.Layout(width="290px")
         self.index = widgets.Dropdown(options=self._options(float(threshold)), value="PRCPTOT",
-                                      description="Index", style=style, layout=lay)
+                                      description="Index", style=style, layout=widgets.Layout(width="390px"))
         self.first = widgets.BoundedIntText(value=years[0], min=years[0], max=years[-1], description="First year",
                                             style=style, layout=lay)
         self.last = widgets.BoundedIntText(value=years[-1], min=years[0], max=years[-1], description="Last year",
                                            style=style, layout=lay)
         self.threshold = widgets.BoundedFloatText(value=float(threshold), min=1.0, max=500.0, step=5.0,
-                                                  description="Rnnmm at (mm)", style=style, layout=lay)
+                                                  description="Threshold (mm)", style=style, layout=lay)
         self.base_period = base_period
         self.about = widgets.HTML("")
         super().__init__(map_frame=MapFrame(basins=self.basins, kind="total"), export_dir=export_dir)
@@ -80,7 +80,8 @@ class IndicesWidget(BaseWidget):
 
     # ------------------------------------------------------------ BaseWidget hooks
     def build_controls(self):
-        note = widgets.HTML("<small>Wet day: at least 1 mm. The map is the mean over the years chosen; "
+        note = widgets.HTML("<small>Wet day: at least 1 mm. The threshold sets the extra index R&lt;nn&gt;mm. "
+                            "The map is the mean over the years chosen; "
                             "a basin's value is the area-weighted mean of its cells' index.</small>")
         return [self.index, self.first, self.last, self.threshold, note, self.about]
 
