@@ -68,7 +68,7 @@ class IndicesWidget(BaseWidget):
         self.threshold = widgets.BoundedFloatText(value=float(threshold), min=1.0, max=500.0, step=5.0,
                                                   description="Threshold (mm)", style=style, layout=lay)
         self.base_period = base_period
-        self.about = widgets.HTML("")
+        self.about = widgets.HTML("", layout=widgets.Layout(width="390px"))
         super().__init__(map_frame=MapFrame(basins=self.basins, kind="total"), export_dir=export_dir)
         self.watch(self.index, self.first, self.last, self.threshold)
         self.refresh()
@@ -82,7 +82,8 @@ class IndicesWidget(BaseWidget):
     def build_controls(self):
         note = widgets.HTML("<small>Wet day: at least 1 mm. The threshold sets the extra index R&lt;nn&gt;mm. "
                             "The map is the mean over the years chosen; "
-                            "a basin's value is the area-weighted mean of its cells' index.</small>")
+                            "a basin's value is the area-weighted mean of its cells' index.</small>",
+                            layout=widgets.Layout(width="390px"))
         return [self.index, self.first, self.last, self.threshold, note, self.about]
 
     def parameters(self):
