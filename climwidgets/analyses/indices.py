@@ -26,7 +26,7 @@ from ..geo.basinset import as_basin_list
 from .basins import basin_series
 from .meta import describe, frame, index_meta
 
-__all__ = ["gridded_indices", "index_map", "basin_index_table", "index_table", "INDEX_TABLE_COLUMNS",
+__all__ = ["gridded_indices", "index_map", "index_trend_map", "basin_index_table", "index_table", "INDEX_TABLE_COLUMNS",
            "BASIN_INDEX_NOTE"]
 
 INDEX_TABLE_COLUMNS = ("area_km2", "index_mean", "index_slope", "index_pvalue", "n_index_years")
@@ -103,6 +103,31 @@ def index_map(indices: xr.Dataset, name: str, period=None) -> xr.DataArray:
     out = sel.mean("year", skipna=False)
     out.attrs = {**indices[name].attrs, "years": f"{first}-{last}"}
     return out.rename(name)
+
+
+def index_trend_map(indices: xr.Dataset, name: str, period=None) -> xr.Dataset:
+    """Per-cell Sen slope (per decade) and two-sided Mann-Kendall p of one index over ``period`` (lazy).
+
+    Returns a Dataset with ``slope_per_decade`` (index units per decade) and ``pvalue``
+    (:func:`cw.trend` along ``year``; NaN years are skipped per cell).
+    """
+    _check_name(indices, name, "index_trend_map")
+    first, last = _years(indices, period, "index_trend_map")
+    if last - first < 2:
+        raise ParameterError(f"period {first}-{last} has fewer than 3 years", source="index_trend_map",
+                             variable="period", expected="at least 3 years for a trend",
+                             fix="choose a longer period")
+    attrs = indices[name].attrs
+    units, shown = attrs.get("units", ""), attrs.get("display_units", "")
+    tr = trend(indices[name].sel(year=slice(first, last)), dim="year")
+    slope = (10.0 * tr["slope"]).rename("slope_per_decade")
+    slope.attrs = {"units": f"{units}/decade", "label": f"{name} Sen slope", "display_units": f"{shown} per decade",
+                   "display_format": ".3g", "years": f"{first}-{last}",
+                   "description": f"Sen slope of the per-year {name}, per decade"}
+    pvalue = tr["pvalue"].rename("pvalue")
+    pvalue.attrs = {"units": "1", "label": f"{name} Mann-Kendall p", "display_units": "", "display_format": ".2f",
+                    "years": f"{first}-{last}", "description": "two-sided Mann-Kendall p-value of the per-year index"}
+    return xr.Dataset({"slope_per_decade": slope, "pvalue": pvalue})
 
 
 def basin_index_table(indices: xr.Dataset, basins, name: str, period=None) -> xr.Dataset:

@@ -14,7 +14,7 @@ from __future__ import annotations
 import ipywidgets as widgets
 import xarray as xr
 
-from ..analyses.indices import basin_index_table, gridded_indices, index_map, index_table
+from ..analyses.indices import basin_index_table, gridded_indices, index_map, index_table, index_trend_map
 from ..analyses.meta import index_meta
 from ..compute.indices import INDEX_NAMES, precip_indices
 from ..errors import ParameterError
@@ -67,10 +67,13 @@ class IndicesWidget(BaseWidget):
                                            style=style, layout=lay)
         self.threshold = widgets.BoundedFloatText(value=float(threshold), min=1.0, max=500.0, step=5.0,
                                                   description="Threshold (mm)", style=style, layout=lay)
+        self.layer = widgets.Dropdown(options=[("mean over the years", "mean"), ("Sen slope per decade", "slope"),
+                                               ("Mann-Kendall p of the trend", "pvalue")], value="mean",
+                                      description="Map shows", style=style, layout=lay)
         self.base_period = base_period
         self.about = widgets.HTML("", layout=widgets.Layout(width="390px"))
         super().__init__(map_frame=MapFrame(basins=self.basins, kind="total"), export_dir=export_dir)
-        self.watch(self.index, self.first, self.last, self.threshold)
+        self.watch(self.index, self.first, self.last, self.threshold, self.layer)
         self.refresh()
 
     @staticmethod
@@ -84,7 +87,7 @@ class IndicesWidget(BaseWidget):
                             "The map is the mean over the years chosen; "
                             "a basin's value is the area-weighted mean of its cells' index.</small>",
                             layout=widgets.Layout(width="390px"))
-        return [self.index, self.first, self.last, self.threshold, note, self.about]
+        return [self.index, self.first, self.last, self.threshold, self.layer, note, self.about]
 
     def parameters(self):
         first, last = int(self.first.value), int(self.last.value)
@@ -102,16 +105,21 @@ class IndicesWidget(BaseWidget):
                 keep = self.index.value
                 self.index.options = self._options(nn)
                 self.index.value = keep
-        return {"name": self.index.value, "period": (first, last), "threshold": nn}
+        return {"name": self.index.value, "period": (first, last), "threshold": nn, "layer": self.layer.value}
 
-    def compute(self, name, period, threshold):
+    def compute(self, name, period, threshold, layer="mean"):
         key = (threshold, self.base_period)
         ind = self._indices.get(key)
         if ind is None:
             raw = precip_indices(self.pr, base_period=self.base_period, thresholds=(threshold,))
             ind = gridded_indices(None, indices=raw)
         basins = self.basins_or_whole_grid(self._whole)
-        return {"indices": ind, "map": index_map(ind, name, period),
+        if layer == "mean":
+            field = index_map(ind, name, period)
+        else:
+            trends = index_trend_map(ind, name, period)
+            field = trends["slope_per_decade" if layer == "slope" else "pvalue"]
+        return {"indices": ind, "map": field,
                 "table": basin_index_table(ind, basins, name, period) if basins else None, "key": key}
 
     def finish(self, computed, params):
@@ -123,9 +131,12 @@ class IndicesWidget(BaseWidget):
         field = result["map"]
         a = field.attrs
         first, last = params["period"]
-        self.map.show_field(field, kind="share" if name in _SHARE else "total",
-                            label=f"{name} [{a.get('display_units', a.get('units', ''))}]",
-                            title=f"{a.get('label', name)}, mean {first}-{last}")
+        layer = params.get("layer", "mean")
+        kind = {"mean": "share" if name in _SHARE else "total", "slope": "difference", "pvalue": "share"}[layer]
+        what = {"mean": "mean", "slope": "Sen slope", "pvalue": "Mann-Kendall p"}[layer]
+        units = a.get("display_units", a.get("units", ""))
+        self.map.show_field(field, kind=kind, label=f"{name} {what}" + (f" [{units}]" if units else ""),
+                            title=f"{index_meta(name).label}, {what} {first}-{last}")
         self.about.value = f"<small>{a.get('description', '')}</small>"
         table = result["table"]
         self.show_table(None if table is None else index_table(table, display=True))

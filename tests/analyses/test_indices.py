@@ -13,7 +13,13 @@ import xarray as xr
 from scipy import stats
 
 import climwidgets as cw
-from climwidgets.analyses.indices import basin_index_table, gridded_indices, index_map, index_table
+from climwidgets.analyses.indices import (
+    basin_index_table,
+    gridded_indices,
+    index_map,
+    index_table,
+    index_trend_map,
+)
 from climwidgets.analyses.meta import index_meta
 from climwidgets.errors import ParameterError
 
@@ -48,6 +54,11 @@ def test_maps_and_basin_table_against_numpy_and_scipy():
     m = index_map(ind, "PRCPTOT", period=(2001, 2010))
     np.testing.assert_allclose(m.values, ind["PRCPTOT"].sel(year=slice(2001, 2010)).mean("year").values)
     assert m.attrs["years"] == "2001-2010"
+    tm = index_trend_map(ind, "PRCPTOT", period=(1991, 2010))
+    cell = ind["PRCPTOT"].sel(lat=40.25, lon=10.25).values
+    sen = stats.theilslopes(cell, np.arange(1991, 2011))  # scipy.stats: Sen (1968)
+    np.testing.assert_allclose(float(tm["slope_per_decade"].sel(lat=40.25, lon=10.25)), 10 * sen.slope, rtol=1e-10)
+    assert tm["pvalue"].attrs["units"] == "1" and 0 <= float(tm["pvalue"].max()) <= 1
 
     table = basin_index_table(ind, [BOX], "PRCPTOT", period=(1991, 2010)).compute()
     # the box covers the 2 x 2 cells centred at 40.25/40.75 N, 10.25/10.75 E, whole

@@ -54,6 +54,14 @@ def test_index_period_and_threshold(setup, tmp_path):
     w.wait()
     ref40 = cw.precip_indices(pr, names=("R40mm",), base_period=None)
     np.testing.assert_allclose(w.result["map"].values, ref40["R40mm"].sel(year=slice(1995, 2002)).mean("year"))
+    w.layer.value = "slope"
+    w.wait()
+    from climwidgets.analyses.indices import index_trend_map
+
+    ref_tr = index_trend_map(gridded_indices(pr, base_period=None, thresholds=(40,)), "R40mm", (1995, 2002))
+    np.testing.assert_allclose(w.result["map"].values, ref_tr["slope_per_decade"].values)
+    w.layer.value = "mean"
+    w.wait()
     w.export_dir = tmp_path
     path = w.export(w._write_csv, "csv")
     assert "index_mean" in path.read_text()
