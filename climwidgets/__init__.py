@@ -85,6 +85,7 @@ _PUBLIC = {
     "basin_shares": "climwidgets.analyses.basins",
     "what_if": "climwidgets.analyses.basins",
     "areal_design_depths": "climwidgets.analyses.extremes",
+    "point_design_depths": "climwidgets.analyses.extremes",
     # ensembles and scenarios
     "ensemble_summary": "climwidgets.compute.ensemble",
     "delta_change": "climwidgets.compute.scenario",

@@ -13,16 +13,24 @@ import xarray as xr
 
 from ..compute.extremes import annual_maxima
 from ..compute.gev import return_levels
+from ..compute.regional import regional_frequency
 from ..compute.warming import DESIGN_DEPTH_CAUTIONS, warming_scaling
+from ..geo.aggregate import basin_means
 from ..geo.basinset import as_basin_list
 from .basins import basin_series
 from .meta import describe, frame
 
-__all__ = ["areal_design_depths", "warmed_depths", "depth_table", "AREAL_NOTE", "DEPTH_COLUMNS"]
+__all__ = ["areal_design_depths", "point_design_depths", "warmed_depths", "depth_table", "point_depth_table",
+           "AREAL_NOTE", "POINT_NOTE", "DEPTH_COLUMNS", "POINT_COLUMNS"]
 
 AREAL_NOTE = ("basin depths are areal: the return level of the basin-mean annual maxima, lower than "
               "point (gauge) depths of the same return period")
 DEPTH_COLUMNS = ("areal_estimate_mm", "areal_lower_mm", "areal_upper_mm", "warming_factor")
+POINT_NOTE = ("point depths: at-site is each cell's own fit, averaged over the basin; regional pools the "
+              "basin's cells by the index-flood method (one growth curve, each cell's own mean annual "
+              "maximum). Where H1 >= 2 the basin is not one region and the regional column is not to be used")
+POINT_COLUMNS = ("point_at_site_mm", "point_at_site_lower_mm", "point_at_site_upper_mm", "point_regional_mm",
+                 "point_regional_lower_mm", "point_regional_upper_mm")
 
 
 def areal_design_depths(pr: xr.DataArray, basins, periods=(2, 10, 25, 50, 100), ci: float = 0.9,
@@ -70,6 +78,104 @@ def areal_design_depths(pr: xr.DataArray, basins, periods=(2, 10, 25, 50, 100), 
                 "year_start": year_start, "note": AREAL_NOTE, "cautions": list(DESIGN_DEPTH_CAUTIONS),
                 "interval": rl.attrs.get("interval_method", "")}
     return ds
+
+
+def point_design_depths(pr: xr.DataArray, basins, periods=(2, 10, 25, 50, 100), ci: float = 0.9,
+                        n_boot: int = 500, n_sim: int = 500, year_start: int = 1, seed=0, min_years: int = 10,
+                        **duration) -> xr.Dataset:
+    """At-site and regional point depths of each basin, side by side (lazy Dataset, basin × return_period).
+
+    Both columns are point (cell) depths averaged over the basin, so they compare with each
+    other, not with the areal depths of :func:`areal_design_depths`:
+
+    * at-site: each cell's own L-moment GEV return level (:func:`cw.return_levels`), with
+      its parametric-bootstrap interval;
+    * regional: the index-flood estimate of :func:`cw.regional_frequency` with each basin
+      as one region (a cell belongs to the basin covering at least half of it): the
+      cell's mean annual maximum times the basin's growth curve, with the simulated
+      interval of Hosking & Wallis (1997, sec. 6.4).
+
+    The heterogeneity H1 and the number of discordant cells travel with each basin, so a
+    reader sees when pooling is not justified (H1 >= 2).
+
+    Parameters
+    ----------
+    pr
+        Daily or hourly precipitation depth per step on a grid.
+    basins
+        A Basin, a list of them or a :class:`cw.BasinSet`; each basin is one region.
+    periods, ci
+        Return periods (years) and the confidence level of both intervals.
+    n_boot, n_sim, seed
+        Bootstrap replicates (both methods), simulated regions for H, and their seed.
+    year_start
+        First month of the year of the maxima (10 = water year).
+    min_years
+        Cells with fewer non-missing years are left out.
+    duration
+        ``duration_days=n`` or ``duration_hours=n`` of the maxima (default 1 day).
+
+    Returns
+    -------
+    xr.Dataset
+        The :data:`POINT_COLUMNS` on (basin, return_period); ``heterogeneity_h1``,
+        ``discordant_cells`` and ``region_cells`` on basin; the design-depth cautions in
+        ``attrs["cautions"]``.
+
+    References
+    ----------
+    Hosking, J. R. M. & Wallis, J. R. (1997) Regional Frequency Analysis: An Approach Based
+    on L-Moments. Cambridge University Press. doi:10.1017/CBO9780511529443
+    """
+    basins = as_basin_list(basins, "point_design_depths")
+    ams = annual_maxima(pr, year_start=year_start, **(duration or {"duration_days": 1}))
+    at_site = return_levels(ams, periods=periods, ci=ci, n_boot=n_boot, seed=seed, min_years=min_years)
+    regional = regional_frequency(ams, regions=basins, periods=periods, ci=ci, n_sim=n_sim, n_boot=n_boot,
+                                  seed=seed, min_years=min_years)
+    fields = xr.Dataset({
+        "point_at_site_mm": at_site["estimate"], "point_at_site_lower_mm": at_site["lower"],
+        "point_at_site_upper_mm": at_site["upper"], "point_regional_mm": regional["estimate"],
+        "point_regional_lower_mm": regional["lower"], "point_regional_upper_mm": regional["upper"],
+    }).rename(period="return_period")
+    pct = f"{float(ci):.0%}"
+    ds = xr.Dataset()
+    for name in POINT_COLUMNS:
+        field = fields[name]
+        if name.startswith("point_regional"):
+            # only the cells pooled into each basin's own region count for that basin
+            per_basin = [basin_means(field.where(regional["cell_region"] == b.name), [b]) for b in basins]
+            mean = xr.concat(per_basin, dim="basin")
+        else:
+            mean = basin_means(field.assign_attrs(units="mm"), basins)
+        mean = mean.reset_coords("covered_fraction", drop=True).transpose("basin", "return_period")
+        label = {"lower": f"{pct} lower", "upper": f"{pct} upper"}
+        kind = "at-site" if "at_site" in name else "regional"
+        end = next((v for k, v in label.items() if name.endswith(f"_{k}_mm")), None)
+        ds[name] = describe(mean, name, **({"label": f"{kind} {end}"} if end else {}))
+    names = [b.name for b in basins]
+    h1 = regional["H1"].sel(region=names).rename(region="basin")
+    critical = regional["discordancy_critical"].sel(region=names).rename(region="basin")
+    cell_region = regional["cell_region"]
+    discordant = [((cell_region == n) & (regional["discordancy"] > critical.sel(basin=n))).sum() for n in names]
+    counted = [(cell_region == n).sum() for n in names]
+    ds["heterogeneity_h1"] = describe(h1.drop_vars([c for c in h1.coords if c != "basin"]), "heterogeneity_h1")
+    ds["discordant_cells"] = describe(xr.concat(discordant, dim="basin").assign_coords(basin=names),
+                                      "discordant_cells")
+    ds["region_cells"] = describe(xr.concat(counted, dim="basin").assign_coords(basin=names), "region_cells")
+    ds["return_period"].attrs = {"units": "years", "long_name": "return period"}
+    ds.attrs = {"duration": ams.attrs.get("duration", ""), "ci": float(ci), "n_boot": int(n_boot),
+                "n_sim": int(n_sim), "seed": seed, "year_start": year_start, "note": POINT_NOTE,
+                "cautions": list(DESIGN_DEPTH_CAUTIONS),
+                "heterogeneity_rule": regional.attrs.get("heterogeneity_rule", "")}
+    return ds
+
+
+def point_depth_table(ds: xr.Dataset, period=None, display: bool = False):
+    """The at-site / regional table of :func:`point_design_depths`, per basin (at ``period``) or basin × period."""
+    columns = (*POINT_COLUMNS, "heterogeneity_h1", "discordant_cells")
+    if period is not None:
+        return frame(ds.sel(return_period=period), columns=columns, display=display)
+    return frame(ds, index=("basin", "return_period"), columns=columns, display=display)
 
 
 def warmed_depths(ds: xr.Dataset, delta_t: float = 0.0, rate: float = 0.07) -> xr.Dataset:
