@@ -4,7 +4,9 @@ A grid that carries only projected ``x``/``y`` coordinates and a CF ``grid_mappi
 variable (common for radar and regional products) defines its lat/lon exactly: the grid
 mapping is read with pyproj (``CRS.from_cf``) and the cell centres and the corners of
 every cell (the projected cell edges) are transformed to longitude and latitude on the
-mapping's own geodetic datum.  Downstream the grid is curvilinear: 2-D ``lat(y, x)`` and
+mapping's own geodetic datum; the projected edges are the file's CF ``bounds`` of
+x and y when present (checked: contiguous, finite, around their centres), else half-way
+between centres.  Downstream the grid is curvilinear: 2-D ``lat(y, x)`` and
 ``lon(y, x)``, with the 1-D projected ``x``/``y`` and a scalar ``crs`` coordinate kept so
 that cell corners can be derived again exactly (``climwidgets.geo.grid.cell_bounds``).
 The ``crs`` coordinate holds the CRS as WKT text and the CF grid-mapping attributes.
@@ -17,9 +19,11 @@ import xarray as xr
 
 from ..errors import GridError
 
-__all__ = ["CRS_COORD", "crs_from_attrs", "lonlat", "projected_corners", "to_metres"]
+__all__ = ["CRS_COORD", "EDGE_COORDS", "crs_from_attrs", "lonlat", "projected_corners", "to_metres"]
 
 CRS_COORD = "crs"  # name of the scalar coordinate that carries the grid-mapping attributes
+#: per-cell coordinates holding stored CF bounds (m); 1-D on the axis, so they follow slicing
+EDGE_COORDS = {"x": ("x_lower_edge", "x_upper_edge"), "y": ("y_lower_edge", "y_upper_edge")}
 _TO_METRES = {"m": 1.0, "metre": 1.0, "meter": 1.0, "metres": 1.0, "meters": 1.0, "km": 1000.0,
               "kilometre": 1000.0, "kilometer": 1000.0, "kilometres": 1000.0, "kilometers": 1000.0}
 
@@ -64,12 +68,59 @@ def _edges(centres: np.ndarray) -> np.ndarray:
     return np.concatenate([[2 * centres[0] - mid[0]], mid, [2 * centres[-1] - mid[-1]]])
 
 
+def _axis_edges(grid, axis: str) -> np.ndarray:
+    """Cell edges along ``axis`` (m): the stored bounds when the grid carries them, else
+    half-way between centres."""
+    low, high = EDGE_COORDS[axis]
+    if low in grid.coords and high in grid.coords and grid[low].dims == (axis,):
+        lo, hi = np.asarray(grid[low].values, float), np.asarray(grid[high].values, float)
+        return np.append(lo, hi[-1])
+    return _edges(np.asarray(grid[axis].values, float))
+
+
+def _stored_edges(ds, name: str, centres: np.ndarray, factor: float, *, source=None):
+    """``(lower, upper)`` edges (m, along the axis direction) of each cell from the CF
+    ``bounds`` variable of coordinate ``name``, checked; None when there is none."""
+    bname = ds[name].attrs.get("bounds")
+    if not bname or bname not in ds.variables:
+        return None
+    b = np.asarray(ds[bname].values, dtype=float)
+    n = centres.size
+    if b.shape != (n, 2):
+        raise GridError(f"has a bounds variable '{bname}' of shape {b.shape}", source=source, variable=bname,
+                        expected=f"shape ({n}, 2): two edges per cell of '{name}'",
+                        fix=f"repair '{bname}' or delete its name from the bounds attribute of '{name}'")
+    if not np.isfinite(b).all():
+        raise GridError(f"has missing values in the bounds variable '{bname}'", source=source, variable=bname,
+                        expected="finite edges for every cell",
+                        fix=f"repair '{bname}' or delete its name from the bounds attribute of '{name}'")
+    b = b * factor
+    rising = n < 2 or centres[-1] > centres[0]
+    lower, upper = (b.min(axis=1), b.max(axis=1)) if rising else (b.max(axis=1), b.min(axis=1))
+    tol = 1e-6 * max(float(np.abs(np.diff(b, axis=1)).max()), 1.0)
+    if n > 1 and not np.allclose(upper[:-1], lower[1:], rtol=0.0, atol=tol):
+        k = int(np.flatnonzero(~np.isclose(upper[:-1], lower[1:], rtol=0.0, atol=tol))[0])
+        raise GridError(f"has bounds in '{bname}' that are not contiguous (cell {k} ends at {upper[k] / factor:g}, "
+                        f"cell {k + 1} starts at {lower[k + 1] / factor:g})", source=source, variable=bname,
+                        expected="each cell starting where the previous one ends",
+                        fix=f"repair '{bname}' or delete its name from the bounds attribute of '{name}'")
+    inside = (np.minimum(lower, upper) - tol <= centres) & (centres <= np.maximum(lower, upper) + tol)
+    if not inside.all():
+        k = int(np.flatnonzero(~inside)[0])
+        raise GridError(f"has the centre of cell {k} of '{name}' ({centres[k] / factor:g}) outside its bounds in "
+                        f"'{bname}'", source=source, variable=bname,
+                        expected="every cell centre between its two edges",
+                        fix=f"check the units of '{bname}' and '{name}' (they must agree)")
+    return lower, upper
+
+
 def projected_corners(grid):
     """``(lat_corners, lon_corners)`` of shape (ny, nx, 4) for a grid carrying the ``crs``
     coordinate and 1-D projected ``x``/``y`` (m), or None for any other grid.
 
-    Edges are taken half-way between projected centres (exact for the regular grids such
-    products use), and each corner is transformed with pyproj; corners are in ring order.
+    Edges are the file's CF ``bounds`` of x and y when it has them (kept as the per-cell
+    :data:`EDGE_COORDS`), else half-way between projected centres (exact for regular
+    grids); each corner is transformed with pyproj; corners are in ring order.
     """
     if CRS_COORD not in grid.coords or "x" not in grid.coords or "y" not in grid.coords:
         return None
@@ -82,7 +133,7 @@ def projected_corners(grid):
         from pyproj import CRS
 
         crs = CRS.from_wkt(str(grid[CRS_COORD].values))
-    xe, ye = _edges(np.asarray(grid["x"].values, float)), _edges(np.asarray(grid["y"].values, float))
+    xe, ye = (_axis_edges(grid, axis) for axis in ("x", "y"))
     gx, gy = np.meshgrid(xe, ye)
     lon, lat = lonlat(crs, gx, gy)
     # unwrap each row and column so a cell never jumps across the antimeridian
@@ -108,7 +159,16 @@ def attach_mapping(da: xr.DataArray, ds: xr.Dataset, xname: str, yname: str, gm:
     da = da.rename({k: v for k, v in ((ds[yname].dims[0], "y"), (ds[xname].dims[0], "x")) if k != v and k in da.dims})
     gm_attrs = dict(ds[gm].attrs)
     gm_attrs.setdefault("crs_wkt", crs.to_wkt())
-    return da.assign_coords(
+    edges = {}
+    for axis, name, centres in (("x", xname, x), ("y", yname, y)):
+        factor = to_metres(ds[name].attrs.get("units"), source=source, variable=name)
+        stored = _stored_edges(ds, name, centres, factor, source=source)
+        if stored is not None:
+            low, high = EDGE_COORDS[axis]
+            attrs = {"units": "m", "long_name": f"cell edges along {axis} from '{ds[name].attrs['bounds']}'"}
+            edges[low] = (axis, stored[0], attrs)
+            edges[high] = (axis, stored[1], attrs)
+    return da.assign_coords(**edges).assign_coords(
         x=("x", x, {"standard_name": "projection_x_coordinate", "units": "m", "axis": "X"}),
         y=("y", y, {"standard_name": "projection_y_coordinate", "units": "m", "axis": "Y"}),
         **{CRS_COORD: ((), crs.to_wkt(), gm_attrs)},  # the value survives where attrs are dropped

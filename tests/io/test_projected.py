@@ -98,3 +98,53 @@ def test_bad_grid_mapping_and_units_are_explained():
     ds["xc"].attrs["units"] = "furlong"
     with pytest.raises(GridError, match="projection coordinates in 'furlong'"):
         cw.open_precip(ds)
+
+
+def _with_bounds(ds, x_edges, y_edges, centre_x=None, centre_y=None):
+    """``ds`` with CF x_bnds/y_bnds (km) from the given edges (and optionally moved centres)."""
+    ds = ds.copy()
+    if centre_x is not None:
+        ds = ds.assign_coords(xc=("xc", centre_x, ds["xc"].attrs))
+    if centre_y is not None:
+        ds = ds.assign_coords(yc=("yc", centre_y, ds["yc"].attrs))
+    ds["xc_bnds"] = (("xc", "nv"), np.stack([x_edges[:-1], x_edges[1:]], axis=1))
+    ds["yc_bnds"] = (("yc", "nv"), np.stack([y_edges[:-1], y_edges[1:]], axis=1))
+    ds["xc"].attrs["bounds"], ds["yc"].attrs["bounds"] = "xc_bnds", "yc_bnds"
+    return ds
+
+
+def test_stored_projected_bounds_give_the_corners():
+    # cells whose centres are not half-way between edges (e.g. a product stamped at the
+    # cell's lower-left quarter): the stored bounds, not the centres, define the corners
+    x_edges, y_edges = np.append(X - 10.0, X[-1] + 10.0), np.append(Y - 10.0, Y[-1] + 10.0)
+    x_edges[5] += 4.0  # one uneven edge
+    ds = _with_bounds(_projected_ds(), x_edges, y_edges,
+                      centre_x=0.5 * (x_edges[:-1] + x_edges[1:]) - 3.0)
+    pr = cw.open_precip(ds)
+    b = cell_bounds(pr)
+    crs = CRS.from_cf(MAPPING)
+    to_geo = Transformer.from_crs(crs, crs.geodetic_crs, always_xy=True)
+    # outside check: pyproj's transform of the stored edges (km x 1000)
+    for j, i in ((0, 0), (3, 4), (3, 5), (len(Y) - 1, len(X) - 1)):
+        lon, lat = to_geo.transform(x_edges[i] * 1e3, y_edges[j] * 1e3)
+        assert (b.lon_corners[j, i, 0], b.lat_corners[j, i, 0]) == pytest.approx((lon, lat), abs=1e-10)
+        lon, lat = to_geo.transform(x_edges[i + 1] * 1e3, y_edges[j + 1] * 1e3)
+        assert (b.lon_corners[j, i, 2], b.lat_corners[j, i, 2]) == pytest.approx((lon, lat), abs=1e-10)
+    # arithmetic keeps the coordinate attributes, and so the corners
+    again = cell_bounds(pr * 1.5)
+    np.testing.assert_array_equal(again.lon_corners, b.lon_corners)
+
+
+def test_bad_projected_bounds_are_explained():
+    x_edges, y_edges = np.append(X - 10.0, X[-1] + 10.0), np.append(Y - 10.0, Y[-1] + 10.0)
+    ds = _with_bounds(_projected_ds(), x_edges, y_edges)
+    ds["xc_bnds"][3, 1] = ds["xc_bnds"][3, 1] + 5.0  # a gap between cells 3 and 4
+    with pytest.raises(GridError, match="xc_bnds.*not contiguous"):
+        cw.open_precip(ds)
+    ds = _with_bounds(_projected_ds(), x_edges, y_edges)
+    ds["yc_bnds"][2, 0] = np.nan
+    with pytest.raises(GridError, match="yc_bnds"):
+        cw.open_precip(ds)
+    ds = _with_bounds(_projected_ds(), x_edges + 30.0, y_edges)  # every centre outside its cell
+    with pytest.raises(GridError, match="outside"):
+        cw.open_precip(ds)
