@@ -314,6 +314,37 @@ def _same_grid(a, b) -> bool:
     return all(x.shape == y.shape and np.allclose(x, y, atol=1e-6) for x, y in zip(a, b))
 
 
+def _check_parts_in_sequence(parts) -> None:
+    """File by file: one time step in every file, and no file's times inside another's.
+
+    Run on the parts sorted by first time, so a pair that overlaps is named by its two files
+    (two copies of one file say "the same times appear in two files", not "times go back").
+    """
+    steps = []
+    for da, info in parts:
+        t = da["time"]
+        steps.append(timeaxis.infer_step(t, info.get("time_bounds"), source=info["path"])
+                     if t.size >= 2 or info.get("time_bounds") is not None else None)
+    known = [(s, info["path"]) for s, (_, info) in zip(steps, parts) if s is not None]
+    for s, path in known[1:]:
+        if s != known[0][0]:
+            raise MismatchError(f"has {s} steps but {known[0][1]} has {known[0][0]} steps", source=path,
+                                variable="time", expected="one time step in every file of one product",
+                                fix="open the files of each step separately (for example 'pr_day_*.nc' and "
+                                    "'pr_mon_*.nc') as two products")
+    for (a, ia), (b, ib) in zip(parts, parts[1:]):
+        ta, tb = a["time"].values, b["time"].values
+        if tb[0] > ta[-1]:
+            continue
+        shared = np.intersect1d(ta, tb).size
+        what = ("the same times appear in two files" if shared
+                else "the times of one file fall inside the times of another")
+        raise MismatchError(f"{what}: {ib['path']} and {ia['path']} ({shared} time stamp(s) in both)",
+                            source=ib["path"], variable="time",
+                            expected="files that follow one another in time without overlap",
+                            fix="remove the duplicate or overlapping file from the list or pattern")
+
+
 def _combine(parts, source_list):
     first_da, first = parts[0]
     u0 = parse_units(first["attrs"].get("units"), source=first["path"], variable=first["name"])
@@ -334,6 +365,7 @@ def _combine(parts, source_list):
     if len(parts) == 1:
         return first_da, first["time_bounds"]
     parts = sorted(parts, key=lambda p: p[0]["time"].values[0])
+    _check_parts_in_sequence(parts)
     da = xr.concat([p[0] for p in parts], dim="time", coords="minimal", compat="override", join="override",
                    combine_attrs="override")
     timeaxis.check_monotonic(da["time"].values, source=", ".join(source_list[:3]) + (" …" if len(source_list) > 3 else ""))

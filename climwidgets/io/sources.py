@@ -12,8 +12,10 @@ underlying libraries is turned into a :class:`SourceError` that names the file.
 
 from __future__ import annotations
 
+import errno
 import glob
 import os
+import stat
 import warnings
 from pathlib import Path
 
@@ -105,7 +107,11 @@ def resolve(source) -> list[str]:
         if not matches:
             raise SourceError("the pattern matches no files", source=text, expected="at least one matching file",
                               fix="check the folder and the pattern (is the extension .nc or .nc4?)")
+        for match in matches:
+            _check_local(match)
         return matches
+    if os.path.islink(expanded) and not os.path.exists(expanded):
+        _check_local(expanded)  # a dangling link or a link loop, said as such
     if not os.path.exists(expanded):
         raise SourceError("does not exist", source=text, expected="an existing NetCDF file or Zarr store",
                           fix="check the path; relative paths are taken from the notebook's working folder "
@@ -114,7 +120,50 @@ def resolve(source) -> list[str]:
         raise SourceError("is a folder but not a Zarr store", source=text,
                           expected="a NetCDF file, a glob pattern, or a Zarr store",
                           fix=f"pass a pattern such as '{os.path.join(text, '*.nc')}'")
+    _check_local(expanded)
     return [expanded]
+
+
+def _check_local(path: str) -> None:
+    """Refuse at once what cannot be read as a data file: link loops, FIFOs, devices, no permission.
+
+    A FIFO or a character device would block or stream forever when opened, so the kind of
+    file is checked with ``stat`` before anything opens it.
+    """
+    try:
+        st = os.stat(path)
+    except OSError as exc:
+        if exc.errno == errno.ELOOP:
+            raise SourceError("is a symbolic link that loops (it points, directly or not, to itself)",
+                              source=path, expected="a link that ends at a NetCDF file or Zarr store",
+                              fix="repair the link with 'ls -l' and 'ln -sf TARGET LINK'") from None
+        if exc.errno == errno.ENOENT and os.path.islink(path):
+            raise SourceError(f"is a symbolic link to '{os.readlink(path)}', which does not exist",
+                              source=path, expected="a link that ends at an existing file",
+                              fix="repair the link or pass the target's path") from None
+        if exc.errno in (errno.EACCES, errno.EPERM):
+            raise SourceError("cannot be examined: permission denied", source=path,
+                              expected="a file this user may read",
+                              fix="ask the owner for read permission (chmod o+r) or copy the file") from None
+        raise SourceError(f"cannot be examined: {exc.strerror}", source=path,
+                          expected="an existing NetCDF file or Zarr store", fix="check the path") from None
+    if stat.S_ISDIR(st.st_mode):
+        if not os.access(path, os.R_OK | os.X_OK):
+            raise SourceError("is a folder this user may not read (permission denied)", source=path,
+                              expected="a readable Zarr store", fix="ask the owner for read permission")
+        return
+    if not stat.S_ISREG(st.st_mode):
+        kind = ("a named pipe (FIFO)" if stat.S_ISFIFO(st.st_mode)
+                else "a character device" if stat.S_ISCHR(st.st_mode)
+                else "a block device" if stat.S_ISBLK(st.st_mode)
+                else "a socket" if stat.S_ISSOCK(st.st_mode) else "not a regular file")
+        raise SourceError(f"is {kind}, not a regular file; reading it could block or never end",
+                          source=path, expected="a NetCDF file on disk or a Zarr store",
+                          fix="write the data to a regular file first, then pass that file")
+    if not os.access(path, os.R_OK):
+        raise SourceError("cannot be read: permission denied", source=path,
+                          expected="a file this user may read",
+                          fix="ask the owner for read permission (chmod o+r) or copy the file")
 
 
 def _fsspec_is_zarr(url: str) -> bool:

@@ -84,6 +84,13 @@ def infer_step(time: xr.DataArray, bounds: xr.DataArray | None = None, *, source
             "has a single time step and no time bounds, so the length of the step is unknown",
             source=source, variable="time", expected="at least two time steps or a 'bounds' variable on time",
             fix="add CF time bounds (time_bnds) to the file, or open more than one time step")
+    if not np.all(np.isfinite(lengths)):
+        bad = int(np.flatnonzero(~np.isfinite(lengths))[0])
+        where = "time bounds" if bounds is not None and bounds.size >= 2 else "time stamps"
+        raise TimeAxisError(f"has a missing (NaN) value in its {where} near position {bad + 1}",
+                            source=source, variable="time", expected="a time stamp for every step",
+                            fix="fill in or drop the step with the missing time (ds.dropna('time') on the "
+                                "time coordinate) before opening")
     typical = float(np.median(lengths))
     for step, seconds in STEP_SECONDS.items():
         if abs(typical - seconds) < min(60.0, 0.02 * seconds):

@@ -39,8 +39,47 @@ _TIME = {
     "month": None, "months": None, "mon": None,
 }
 WATER_DENSITY = 1000.0  # kg m-3, the convention behind "1 kg m-2 = 1 mm"
+# SI prefixes (SI Brochure, 9th edition, 2019, table 7); symbols are case-sensitive:
+# "Mm" is the megametre, "mm" the millimetre. "u" stands for micro as in UDUNITS.
+_SI_PREFIX = {
+    "Y": 1e24, "Z": 1e21, "E": 1e18, "P": 1e15, "T": 1e12, "G": 1e9, "M": 1e6, "k": 1e3,
+    "h": 1e2, "da": 1e1, "d": 1e-1, "c": 1e-2, "m": 1e-3, "u": 1e-6, "µ": 1e-6, "n": 1e-9,
+    "p": 1e-12, "f": 1e-15, "a": 1e-18, "z": 1e-21, "y": 1e-24,
+}
+# symbols that take a prefix, with their kind and factor to m, kg or s
+_PREFIXABLE = {"m": ("length", 1.0), "g": ("mass", 1e-3), "s": ("time", 1.0)}
+# symbols, matched exactly (case matters); every other entry is a word, matched in any case
+_SYMBOLS = {"m", "mm", "cm", "km", "in", "ft", "kg", "g", "s", "min", "h", "hr", "d", "mon"}
 
-_TOKEN = re.compile(r"^([a-z]+)(-?\d+)?$")
+_TOKEN = re.compile(r"^([A-Za-zµ]+)(-?\d+)?$")
+
+
+def _lookup(name: str, text, source, variable, fix) -> tuple[str, float | None]:
+    """``(kind, factor)`` of one unit name: kind is length, mass or time."""
+    tables = (("length", _LENGTH), ("mass", _MASS), ("time", _TIME))
+    for kind, table in tables:
+        if name in table and (name in _SYMBOLS or name.lower() == name):
+            return kind, table[name]
+    low = name.lower()
+    if len(name) >= 3 and low not in _SYMBOLS:  # words in any case: "Millimeters", "DAY"
+        for kind, table in tables:
+            if low in table:
+                return kind, table[low]
+    base = name[-1]
+    prefix = name[:-1]
+    if base in _PREFIXABLE and 1 <= len(prefix) <= 2:
+        kind, factor = _PREFIXABLE[base]
+        if prefix in _SI_PREFIX:
+            return kind, _SI_PREFIX[prefix] * factor
+        raise UnitsError(f"has units '{text}'; '{prefix}' in '{name}' is not an SI prefix (prefixes are "
+                         "case-sensitive: k is kilo, M is mega, m is milli)", source=source, variable=variable,
+                         expected="a precipitation depth or rate unit such as mm, kg m-2 s-1 or mm/day", fix=fix)
+    hint = ""
+    if name != low and any(low in table for _, table in tables):
+        hint = f" (unit symbols are case-sensitive; write '{low}' if that is meant)"
+    raise UnitsError(f"has units '{text}'; '{name}' is not a unit of mass, length or time{hint}",
+                     source=source, variable=variable,
+                     expected="a precipitation depth or rate unit", fix=fix)
 
 
 @dataclass(frozen=True)
@@ -65,10 +104,11 @@ class UnitInfo:
 
 
 def _normalise(text: str) -> str:
-    t = text.strip().lower()
+    # case is kept: SI prefix symbols differ by case ("Mm" megametre, "mm" millimetre)
+    t = text.strip()
     t = t.replace("**", "").replace("^", "").replace("·", " ").replace("*", " ")
-    t = re.sub(r"(?<=[a-z0-9])\.(?=[a-z])", " ", t)  # "kg.m-2.s-1"
-    t = t.replace("per ", "/ ")
+    t = re.sub(r"(?<=[A-Za-z0-9])\.(?=[A-Za-z])", " ", t)  # "kg.m-2.s-1"
+    t = re.sub(r"(?i)\bper ", "/ ", t)
     return re.sub(r"\s+", " ", t)
 
 
@@ -102,25 +142,22 @@ def parse_units(text, *, source=None, variable=None) -> UnitInfo:
                              variable=variable, expected="a precipitation depth or rate unit", fix=fix)
         name, power = m.group(1), int(m.group(2) or 1) * sign
         # "m2" with no sign means squared metres; a trailing number is the power
-        if name in _LENGTH:
-            scale *= _LENGTH[name] ** power
+        kind, factor = _lookup(name, text, source, variable, fix)
+        if kind == "length":
+            scale *= float(factor) ** power
             length += power
-        elif name in _MASS:
-            scale *= _MASS[name] ** power
+        elif kind == "mass":
+            scale *= float(factor) ** power
             mass += power
-        elif name in _TIME:
-            if _TIME[name] is None:
+        else:
+            if factor is None:
                 if power != -1:
                     raise UnitsError(f"has units '{text}' with a month power other than -1", source=source,
                                      variable=variable, fix=fix)
                 per_month = True
             else:
-                scale *= _TIME[name] ** power
+                scale *= factor ** power
             time += power
-        else:
-            raise UnitsError(f"has units '{text}'; '{name}' is not a unit of mass, length or time",
-                             source=source, variable=variable,
-                             expected="a precipitation depth or rate unit", fix=fix)
         denominator = False  # "a/b c" is (a/b)·c, as in UDUNITS
     if mass == 1 and length == -2:
         to_mm = scale / WATER_DENSITY * 1000.0  # kg m-2 -> m of water -> mm
@@ -140,7 +177,7 @@ def parse_units(text, *, source=None, variable=None) -> UnitInfo:
 
 def length_to_metres(text, *, source=None, variable=None) -> float:
     """Factor from a length unit (m, km, ft, …) to metres, for elevation grids."""
-    t = _normalise(str(text or ""))
+    t = _normalise(str(text or "")).lower()
     if t in ("metre", "meter", "m", "metres", "meters", "m above sea level", "m asl"):
         return 1.0
     if t in _LENGTH:

@@ -222,6 +222,28 @@ def b_overlapping_files(d):
     return str(sub / "pr_*.nc")
 
 
+def b_duplicate_copy(d):
+    sub = d / "dupcopy"
+    sub.mkdir()
+    _write(_dataset(field_values(4), time=[0, 1, 2, 3]), sub / "pr_a.nc")
+    (sub / "pr_a_copy.nc").write_bytes((sub / "pr_a.nc").read_bytes())
+    return str(sub / "pr_*.nc")
+
+
+def b_daily_and_monthly(d):
+    sub = d / "daymon"
+    sub.mkdir()
+    _write(_dataset(field_values(40), time=np.arange(40)), sub / "pr_d.nc")
+    # monthly stamps of the following year (month starts, days since the reference)
+    _write(_dataset(field_values(12), time=[365 + x for x in (0, 31, 59, 90, 120, 151, 181, 212, 243, 273,
+                                                                304, 334)]), sub / "pr_m.nc")
+    return str(sub / "pr_*.nc")
+
+
+def b_nan_time_stamp(d):
+    return _write(_dataset(field_values(6), time=[0, 1, 2, np.nan, 4, 5]), d / "nan_time.nc")
+
+
 def b_reference_year_one(d):
     # "days since 0001-01-01" in the standard (mixed Julian/Gregorian) calendar: the day
     # numbers of 2001-01-01..05 are cftime's, so decoding must use the same calendar
@@ -643,7 +665,16 @@ CASES = [
     Case("mixed_grids", "glob: second file's lon shifted by 0.25 deg", b_mixed_grids,
          Raises(MismatchError, ("different grid", "regrid"), "MismatchError; suggests cw.regrid")),
     Case("overlapping_files", "glob: two files sharing one day", b_overlapping_files,
-         Raises(TimeAxisError, ("duplicated",), "TimeAxisError; suggests removing overlapping files")),
+         Raises(MismatchError, ("same times appear in two files", "pr_1.nc", "pr_2.nc"),
+                "MismatchError naming both files; suggests removing the overlapping one")),
+    Case("duplicate_copy_in_glob", "glob: one file and its byte copy", b_duplicate_copy,
+         Raises(MismatchError, ("same times appear in two files", "pr_a.nc", "pr_a_copy.nc"),
+                "MismatchError naming both copies (not 'times go backwards')")),
+    Case("daily_and_monthly_glob", "glob: a daily file and a monthly file", b_daily_and_monthly,
+         Raises(MismatchError, ("month steps", "day steps", "pr_d.nc", "pr_m.nc"),
+                "MismatchError naming both files and their steps (never monthly read as daily)")),
+    Case("nan_time_stamp", "a NaN among the time stamps", b_nan_time_stamp,
+         Raises(TimeAxisError, ("missing (NaN)",), "TimeAxisError naming the missing stamp")),
     Case("reference_year_one", "'days since 0001-01-01 00:00:00', standard calendar", b_reference_year_one,
          Opens(c_daily_2001, "opens; dates decoded to 2001-01-01..")),
     Case("reference_odd_format", "'hours since 2000-12-31 06:00:00Z'", b_reference_odd_format,

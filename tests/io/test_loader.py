@@ -277,3 +277,30 @@ def test_end_of_hour_stamps_with_bounds_are_relabelled_to_the_start(tmp_path):
     assert str(pr.time.values[0])[:19] == "2001-01-31T00:00:00"
     jan = pr.sel(time=slice("2001-01-31", "2001-01-31T23:59")).sum("time")
     np.testing.assert_allclose(jan.values, 24.0)
+
+
+def test_error_glob_mixing_daily_and_monthly_names_both_files(tmp_path):
+    # A daily file and a monthly file are two products, never one daily record.
+    write_cf(tmp_path / "m_2000.nc", start="2000-01-01", freq="D", periods=40)
+    write_cf(tmp_path / "m_2001.nc", start="2001-01-01", freq="MS", periods=12)
+    with pytest.raises(MismatchError, match="has month steps but .*m_2000.nc has day steps") as err:
+        cw.open_precip(str(tmp_path / "m_*.nc"))
+    assert "m_2001.nc" in str(err.value)
+
+
+def test_error_two_copies_in_a_glob_say_same_times(tmp_path):
+    a = write_cf(tmp_path / "c_2000.nc", start="2000-01-01")
+    (tmp_path / "c_2000_copy.nc").write_bytes(open(a, "rb").read())
+    with pytest.raises(MismatchError, match="the same times appear in two files") as err:
+        cw.open_precip(str(tmp_path / "c_*.nc"))
+    assert "c_2000.nc" in str(err.value) and "c_2000_copy.nc" in str(err.value)
+
+
+def test_error_nan_time_stamp_is_named(tmp_path):
+    times = np.arange(10.0) + 36525.0
+    times[4] = np.nan
+    write_cf(tmp_path / "n.nc", time_values=times, bounds=False)
+    with pytest.raises(cw.InputError) as err:
+        cw.open_precip(str(tmp_path / "n.nc"))
+    msg = str(err.value)
+    assert "n.nc" in msg and "missing (NaN)" in msg and "nan hours" not in msg

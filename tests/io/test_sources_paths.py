@@ -109,3 +109,50 @@ def test_open_raw_is_lazy_and_leaves_times_undecoded(tmp_path):
     finally:
         ds.close()
     assert os.path.getmtime(path) == before  # opened for reading only
+
+
+# Kinds of file from POSIX stat(2) (S_ISFIFO, S_ISCHR) and link loops from ELOOP
+# (POSIX.1-2017, <errno.h>): refused before anything opens them, so nothing can block.
+def test_fifo_is_refused_at_once(tmp_path):
+    fifo = tmp_path / "pr.nc"
+    os.mkfifo(fifo)
+    with pytest.raises(SourceError, match=r"named pipe \(FIFO\), not a regular file") as err:
+        sources.resolve(str(fifo))
+    assert str(fifo) in str(err.value)
+
+
+def test_fifo_inside_a_glob_is_refused(tmp_path):
+    _classic(tmp_path / "a.nc", "NETCDF3_CLASSIC")
+    os.mkfifo(tmp_path / "b.nc")
+    with pytest.raises(SourceError, match="b.nc: is a named pipe"):
+        sources.resolve(str(tmp_path / "*.nc"))
+
+
+def test_character_device_is_refused():
+    with pytest.raises(SourceError, match="is a character device"):
+        sources.resolve("/dev/zero")
+
+
+def test_symlink_loop_is_named_as_such(tmp_path):
+    link = tmp_path / "loop.nc"
+    link.symlink_to(link)
+    with pytest.raises(SourceError, match="symbolic link that loops"):
+        sources.resolve(str(link))
+
+
+def test_dangling_symlink_names_its_target(tmp_path):
+    link = tmp_path / "pr.nc"
+    link.symlink_to(tmp_path / "gone.nc")
+    with pytest.raises(SourceError, match="gone.nc', which does not exist"):
+        sources.resolve(str(link))
+
+
+@pytest.mark.skipif(os.geteuid() == 0, reason="root reads files whatever their mode")
+def test_unreadable_file_says_permission_denied(tmp_path):
+    path = _classic(tmp_path / "pr.nc", "NETCDF3_CLASSIC")
+    path.chmod(0)
+    try:
+        with pytest.raises(SourceError, match="permission denied"):
+            sources.resolve(str(path))
+    finally:
+        path.chmod(0o644)

@@ -1,5 +1,7 @@
 """Unit factors checked against pint (a general-purpose units library on PyPI)."""
 
+import re
+
 import pint
 import pytest
 
@@ -91,3 +93,28 @@ def test_elevation_length_units():
     assert length_to_metres("ft") == pytest.approx(ureg.Quantity(1, "ft").to("m").magnitude, rel=1e-15)
     with pytest.raises(UnitsError):
         length_to_metres("kg")
+
+
+# SI prefixes are case-sensitive (SI Brochure, 9th edition, 2019, section 3 and table 7):
+# M is mega (1e6), m is milli (1e-3); checked against pint, which follows the same table.
+@pytest.mark.parametrize("text,expr", {"Mm/day": "megametre/day", "um/s": "micrometre/second",
+                                       "dam": "decametre", "Gg m-2": "gigagram/metre**2"}.items())
+def test_si_prefixes_are_case_sensitive_and_match_pint(text, expr):
+    assert parse_units(text).to_mm == pytest.approx(_pint_mm(expr), rel=1e-12)
+
+
+def test_megametre_is_not_millimetre():
+    assert parse_units("Mm/day").to_mm == pytest.approx(1e9 * parse_units("mm/day").to_mm, rel=1e-12)
+
+
+def test_words_are_read_in_any_case():
+    assert parse_units("Millimeters per Day").to_mm == parse_units("mm/day").to_mm
+
+
+@pytest.mark.parametrize("bad,says", [("Kg m-2 s-1", "'K' in 'Kg' is not an SI prefix"),
+                                      ("Qm", "'Q' in 'Qm' is not an SI prefix"),
+                                      ("MM/DAY", "case-sensitive; write 'mm'")])
+def test_unknown_prefix_or_wrong_case_is_refused(bad, says):
+    with pytest.raises(UnitsError, match=re.escape(says)) as err:
+        parse_units(bad, source="f.nc", variable="pr")
+    assert "f.nc" in str(err.value)
