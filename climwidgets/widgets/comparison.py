@@ -16,6 +16,7 @@ from __future__ import annotations
 
 import ipywidgets as widgets
 import numpy as np
+import pandas as pd
 
 from ..analyses.comparison import products_basin_table
 from ..analyses.meta import display_frame
@@ -83,8 +84,13 @@ class ComparisonWidget(BaseWidget):
 
     def basins_changed(self, event, details):
         self.map.set_basins(self.basins)
-        self.basin_table = None  # the table across products is made again for the new basins
-        self.refresh()
+        if self.basin_table is not None:
+            if event == "rename":  # same outline, new name: rename its rows, compute nothing
+                old, new = details
+                self.basin_table = self.basin_table.rename(index={old: new}, level="basin")
+            elif event == "replace":  # outlines may have changed under the same names
+                self.basin_table = None
+        self.refresh()  # only basins without rows are computed (see compute)
 
     # ------------------------------------------------------------ BaseWidget hooks
     def build_controls(self):
@@ -104,21 +110,23 @@ class ComparisonWidget(BaseWidget):
         if self._aligned is None:  # the common period and grid do not depend on the choice
             self._aligned = align(self.datasets)
         out = {"compare": compare(self._aligned[reference], self._aligned[other])}
-        if self.basin_table is None:
-            basins = self.basins or [b for b in [whole_grid_basin(self._aligned[reference])] if b is not None]
-            if basins:
-                out["table"] = products_basin_table(self.datasets, basins, months=self.months)
+        basins = self.basins or [b for b in [whole_grid_basin(self._aligned[reference])] if b is not None]
+        have = set() if self.basin_table is None else set(self.basin_table.index.get_level_values("basin"))
+        new = [b for b in basins if b.name not in have]
+        if new:  # only the basins without rows: a basin joining the set costs its own numbers
+            out["table"] = products_basin_table(self.datasets, new, months=self.months)
+        out["basin_order"] = [b.name for b in basins]
         return out
 
     def finish(self, computed, params):
         ds = computed["compare"]
-        self._pending = {id(ds): computed.get("table")}
+        self._pending = {id(ds): (computed.get("table"), computed["basin_order"])}
         return ds
 
     def render(self, result, params):
-        table = self._pending.pop(id(result), None)
-        if table is not None:
-            self.basin_table = table
+        table, order = self._pending.pop(id(result), (None, None))
+        if order is not None:
+            self.basin_table = _merge_rows(self.basin_table, table, order)
         self._params = params
         self._show()
 
@@ -169,3 +177,19 @@ class ComparisonWidget(BaseWidget):
         ax.grid(alpha=0.3, axis="y")
         fig.tight_layout()
         return fig
+
+
+def _merge_rows(old, new, order):
+    """The basin rows of ``old`` and ``new`` (tables of ``products_basin_table``) for ``order``."""
+    parts = [t for t in (old, new) if t is not None]
+    if not parts:
+        return None
+    attrs = dict((old if old is not None else new).attrs)
+    if old is not None and new is not None and new.attrs.get("history"):  # say how the rows were made
+        attrs["history"] = "\n".join(h for h in (old.attrs.get("history"), new.attrs["history"]) if h)
+    merged = pd.concat(parts) if len(parts) > 1 else parts[0]
+    merged = merged[~merged.index.duplicated(keep="last")]
+    keep = [b for b in order if b in set(merged.index.get_level_values("basin"))]
+    merged = pd.concat([merged.xs(b, level="basin", drop_level=False) for b in keep]) if keep else merged.iloc[:0]
+    merged.attrs = attrs
+    return merged

@@ -91,3 +91,39 @@ def test_same_product_twice_is_a_message(setup):
 def test_needs_two_products():
     with pytest.raises(cw.InputError, match="at least two products"):
         cw.ComparisonWidget({"only": _product(1.0)})
+
+
+def test_a_basin_joining_the_set_computes_only_its_own_rows(setup, monkeypatch):
+    """Adding a basin computes the table for that basin alone; renaming computes nothing.
+
+    Reference: ``cw.products_basin_table`` over all basins at once (rows are per basin, so
+    the merged table must equal the full one)."""
+    from climwidgets.widgets import comparison as module
+
+    products, basins, _ = setup
+    shared = cw.BasinSet(basins)
+    w = cw.ComparisonWidget(products, basins=shared, export_dir="unused")
+    w.wait()
+    calls = []
+    original = module.products_basin_table
+
+    def counting(datasets, bs, **kw):
+        calls.append([b.name for b in bs])
+        return original(datasets, bs, **kw)
+
+    monkeypatch.setattr(module, "products_basin_table", counting)
+    third = cw.Basin.from_vertices([(60.2, -4.8), (61.8, -4.6), (61.0, -3.2)], name="middle")
+    shared.add(third)
+    w.wait()
+    assert calls == [["middle"]]
+    full = original(products, basins + [third])
+    pd.testing.assert_frame_equal(w.basin_table, full, check_like=False, rtol=1e-12)
+    shared.rename("middle", "centre")
+    w.wait()
+    assert calls == [["middle"]]  # nothing computed for a new name
+    assert list(dict.fromkeys(w.basin_table.index.get_level_values("basin"))) == ["south-west", "north-east",
+                                                                                 "centre"]
+    shared.remove("south-west")
+    w.wait()
+    assert calls == [["middle"]]
+    assert "south-west" not in w.basin_table.index.get_level_values("basin")
