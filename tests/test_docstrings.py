@@ -25,6 +25,7 @@ DOCUMENTED = [
     "climwidgets.cache",
     "climwidgets.compute.totals",
     "climwidgets.compute.trend",
+    "climwidgets.geo.aggregate",
     "climwidgets.geo.area",
     "climwidgets.geo.grid",
 ]
@@ -52,7 +53,6 @@ PENDING = [
     "climwidgets.compute.spi",
     "climwidgets.compute.thermo",
     "climwidgets.compute.warming",
-    "climwidgets.geo.aggregate",
     "climwidgets.geo.basin",
     "climwidgets.geo.basinset",
     "climwidgets.geo.coverage",
