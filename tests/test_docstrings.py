@@ -28,10 +28,10 @@ DOCUMENTED = [
     "climwidgets.geo.aggregate",
     "climwidgets.geo.area",
     "climwidgets.geo.grid",
+    "climwidgets.scale",
 ]
 
 PENDING = [
-    "climwidgets.scale",
     "climwidgets.compute.anomaly",
     "climwidgets.compute.arf",
     "climwidgets.compute.bundle",
