@@ -51,9 +51,9 @@ def saturation_vapor_pressure(temperature_c: Any) -> Any:
 
     Returns
     -------
-    float, numpy.ndarray or xarray.DataArray
+    numpy.ndarray or xarray.DataArray
         Saturation vapour pressure in Pa (a DataArray gets ``units="Pa"``),
-        of the input's kind (a DataArray stays lazy on dask).
+        a 0-d array for a scalar; a DataArray stays one (lazy on dask).
 
     References
     ----------
@@ -92,9 +92,9 @@ def clausius_clapeyron_rate(temperature_c: Any) -> Any:
 
     Returns
     -------
-    float, numpy.ndarray or xarray.DataArray
+    numpy.ndarray or xarray.DataArray
         The rate in 1/K,
-        of the input's kind (a DataArray stays lazy on dask).
+        a 0-d array for a scalar; a DataArray stays one (lazy on dask).
 
     References
     ----------
@@ -121,9 +121,9 @@ def saturation_vapor_density(temperature_c: Any) -> Any:
 
     Returns
     -------
-    float, numpy.ndarray or xarray.DataArray
+    numpy.ndarray or xarray.DataArray
         The density in kg m-3,
-        of the input's kind (a DataArray stays lazy on dask).
+        a 0-d array for a scalar; a DataArray stays one (lazy on dask).
 
     References
     ----------
@@ -156,9 +156,9 @@ def moist_adiabatic_lapse_rate(temperature_c: Any, pressure_pa: float = 101325.0
 
     Returns
     -------
-    float, numpy.ndarray or xarray.DataArray
+    numpy.ndarray or xarray.DataArray
         The lapse rate in K m-1,
-        of the input's kind (a DataArray stays lazy on dask).
+        a 0-d array for a scalar; a DataArray stays one (lazy on dask).
 
     References
     ----------
