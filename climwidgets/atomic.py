@@ -18,7 +18,9 @@ import errno
 import os
 import tempfile
 import time
+from collections.abc import Callable
 from pathlib import Path
+from typing import IO, Any
 
 from .errors import InputError, ParameterError
 
@@ -34,11 +36,64 @@ class OutputExistsError(InputError, FileExistsError):
 
     Both an :class:`~climwidgets.errors.InputError` (like every user-fixable problem) and a
     :class:`FileExistsError`, so ``except FileExistsError`` works as expected.
+
+    Parameters
+    ----------
+    problem : str
+        What is wrong, in plain words.
+    **context
+        ``source``, ``expected``, ``fix`` and the other fields of
+        :class:`~climwidgets.errors.InputError`.
+
+    Examples
+    --------
+    >>> from climwidgets.atomic import OutputExistsError
+    >>> issubclass(OutputExistsError, FileExistsError)
+    True
     """
 
 
-def check_target(path, overwrite: bool, what: str) -> Path:
-    """Validate the output path before any work is done; return it as a Path."""
+def check_target(path: str | os.PathLike[str], overwrite: bool, what: str) -> Path:
+    """Validate the output path before any work is done; return it as a Path.
+
+    Parameters
+    ----------
+    path : str or path-like
+        The output file.
+    overwrite : bool
+        Whether an existing file may be replaced.
+    what : str
+        What is being written, for the error messages (e.g. ``"basin table"``).
+
+    Returns
+    -------
+    pathlib.Path
+        ``path`` as a Path.
+
+    Raises
+    ------
+    climwidgets.errors.ParameterError
+        When ``path`` is not a path, is a folder or its folder does not exist, or
+        ``overwrite`` is not a bool.
+    OutputExistsError
+        When the file exists and ``overwrite`` is False.
+
+    Examples
+    --------
+    >>> import tempfile
+    >>> from pathlib import Path
+    >>> from climwidgets.atomic import OutputExistsError, check_target
+    >>> with tempfile.TemporaryDirectory() as folder:
+    ...     target = Path(folder) / "table.csv"
+    ...     print(check_target(str(target), False, "table") == target)
+    ...     _ = target.write_text("old")
+    ...     try:
+    ...         check_target(target, False, "table")
+    ...     except OutputExistsError:
+    ...         print("refused")
+    True
+    refused
+    """
     if not isinstance(path, (str, os.PathLike)) or str(path) == "":
         raise ParameterError(f"path={path!r} is not a file path", source=what, variable="path",
                              expected="a file path (str or pathlib.Path)", fix="pass e.g. 'out/result.nc'")
@@ -104,13 +159,48 @@ def _move_into_place(tmp: str, path: Path, overwrite: bool) -> None:
     os.unlink(tmp)
 
 
-def atomic_write(path, overwrite: bool, write, what: str) -> Path:
+def atomic_write(path: str | os.PathLike[str], overwrite: bool, write: Callable[[Path], Any], what: str) -> Path:
     """Call ``write(tmp_path)`` on a temporary file beside ``path``, then move it into place.
 
     ``write`` must create the file at the given path.  On any exception the temporary
     file is removed and the previous file at ``path`` (if any) is untouched.  Without
     ``overwrite`` the move is exclusive: if another writer created ``path`` meanwhile,
     :class:`OutputExistsError` is raised and that writer's file is kept.
+
+    Parameters
+    ----------
+    path : str or path-like
+        The output file.
+    overwrite : bool
+        Whether an existing file may be replaced.
+    write : callable
+        ``write(tmp_path)`` writes the whole output to the :class:`~pathlib.Path` given.
+    what : str
+        What is being written, for the error messages.
+
+    Returns
+    -------
+    pathlib.Path
+        The output path.
+
+    Raises
+    ------
+    climwidgets.errors.ParameterError
+        For a bad ``path`` or ``overwrite`` (see :func:`check_target`).
+    OutputExistsError
+        When the file exists (or appears while writing) and ``overwrite`` is False.
+    OSError
+        When the disk refuses the write; the message says that nothing was left behind.
+
+    Examples
+    --------
+    >>> import tempfile
+    >>> from pathlib import Path
+    >>> from climwidgets.atomic import atomic_write
+    >>> with tempfile.TemporaryDirectory() as folder:
+    ...     out = atomic_write(Path(folder) / "note.txt", False, lambda tmp: tmp.write_text("done"), "note")
+    ...     print(out.read_text(), sorted(p.name for p in Path(folder).iterdir()))
+    done ['note.txt']
     """
     path = check_target(path, overwrite, what)
     _remove_stale_temporaries(path)
@@ -135,20 +225,79 @@ def atomic_write(path, overwrite: bool, write, what: str) -> Path:
     return path
 
 
-def atomic_write_file(path, write, mode: str = "wb", overwrite: bool = True, what: str = "file") -> Path:
-    """Like :func:`atomic_write`, with ``write(fileobj)`` given an open file (``mode``)."""
-    def to_path(tmp: Path):
+def atomic_write_file(path: str | os.PathLike[str], write: Callable[[IO[Any]], Any], mode: str = "wb",
+                      overwrite: bool = True, what: str = "file") -> Path:
+    """Like :func:`atomic_write`, with ``write(fileobj)`` given an open file (``mode``).
+
+    Parameters
+    ----------
+    path : str or path-like
+        The output file.
+    write : callable
+        ``write(fileobj)`` writes the whole output to the open file.
+    mode : str, default "wb"
+        The mode the temporary file is opened in (``"w"`` for text).
+    overwrite : bool, default True
+        Whether an existing file may be replaced.
+    what : str, default "file"
+        What is being written, for the error messages.
+
+    Returns
+    -------
+    pathlib.Path
+        The output path.
+
+    Raises
+    ------
+    climwidgets.errors.ParameterError, OutputExistsError, OSError
+        As :func:`atomic_write`.
+
+    Examples
+    --------
+    >>> import tempfile
+    >>> from pathlib import Path
+    >>> from climwidgets.atomic import atomic_write_file
+    >>> with tempfile.TemporaryDirectory() as folder:
+    ...     out = atomic_write_file(Path(folder) / "a.csv", lambda fh: fh.write("x,y"), mode="w")
+    ...     print(out.read_text())
+    x,y
+    """
+    def to_path(tmp: Path) -> None:
         with open(tmp, mode) as fh:
             write(fh)
 
     return atomic_write(path, overwrite, to_path, what)
 
 
-def atomic_write_folder(path, write, what: str = "folder") -> Path:
+def atomic_write_folder(path: str | os.PathLike[str], write: Callable[[Path], Any], what: str = "folder") -> Path:
     """Call ``write(tmp_folder)`` on a temporary folder beside ``path``, then rename it into place.
 
     For stores that are folders (Zarr).  When ``path`` appeared meanwhile (another process
     wrote the same store), the temporary folder is dropped and the existing one kept.
+
+    Parameters
+    ----------
+    path : str or path-like
+        The output folder.
+    write : callable
+        ``write(tmp_folder)`` fills the :class:`~pathlib.Path` of an empty folder.
+    what : str, default "folder"
+        What is being written.
+
+    Returns
+    -------
+    pathlib.Path
+        The output folder.
+
+    Examples
+    --------
+    >>> import tempfile
+    >>> from pathlib import Path
+    >>> from climwidgets.atomic import atomic_write_folder
+    >>> with tempfile.TemporaryDirectory() as folder:
+    ...     store = atomic_write_folder(Path(folder) / "s.zarr", lambda tmp: (tmp / "part").write_text("1"))
+    ...     print(sorted(p.name for p in store.iterdir()))
+    ['part']
     """
     import shutil
 

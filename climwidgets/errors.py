@@ -8,6 +8,9 @@ traceback from inside a dependency.
 
 from __future__ import annotations
 
+from collections.abc import Hashable
+from typing import Any
+
 __all__ = [
     "InputError",
     "SourceError",
@@ -27,21 +30,35 @@ __all__ = [
 class InputError(ValueError):
     """Base of every input error raised by climwidgets.
 
+    The subclasses below take the same parameters; they differ only in what kind of
+    problem they name, so that callers can catch one kind.
+
     Parameters
     ----------
-    problem
+    problem : str
         What is wrong, in one sentence.
-    source
-        The file, URL or object the problem was found in.
-    variable
+    source : object, optional
+        The file, URL or object the problem was found in (kept as ``str(source)``).
+    variable : hashable, optional
         The variable concerned, if any.
-    expected
+    expected : str, optional
         What would have been acceptable.
-    fix
+    fix : str, optional
         How the user can fix it.
+
+    Examples
+    --------
+    >>> from climwidgets.errors import InputError, UnitsError
+    >>> err = UnitsError("no units attribute", source="rain.nc", variable="pr",
+    ...                  expected="a depth unit such as mm", fix="set the units attribute")
+    >>> print(err)
+    rain.nc, variable 'pr': no units attribute. Expected: a depth unit such as mm. Fix: set the units attribute.
+    >>> isinstance(err, InputError), isinstance(err, ValueError)
+    (True, True)
     """
 
-    def __init__(self, problem: str, *, source=None, variable=None, expected=None, fix=None):
+    def __init__(self, problem: str, *, source: Any = None, variable: Hashable | None = None,
+                 expected: str | None = None, fix: str | None = None) -> None:
         self.problem = problem
         self.source = None if source is None else str(source)
         self.variable = variable
@@ -62,11 +79,12 @@ class InputError(ValueError):
             text += f" Fix: {str(self.fix).rstrip('.')}."
         return text
 
-    def __reduce__(self):  # keep errors picklable across dask workers
+    def __reduce__(self) -> tuple[Any, ...]:  # keep errors picklable across dask workers
         return (_rebuild, (type(self), self.problem, self.source, self.variable, self.expected, self.fix))
 
 
-def _rebuild(cls, problem, source, variable, expected, fix):
+def _rebuild(cls: type[InputError], problem: str, source: str | None, variable: Hashable | None,
+             expected: str | None, fix: str | None) -> InputError:
     return cls(problem, source=source, variable=variable, expected=expected, fix=fix)
 
 

@@ -35,6 +35,25 @@ class TaskProgress(_callback_base()):
     by computations of other threads (another widget at the same time) are ignored.
     With a ``dask.distributed`` client these hooks are not called (see
     :func:`compute_on_cluster`).
+
+    Parameters
+    ----------
+    on_fraction : callable, optional
+        ``on_fraction(fraction)`` with the share of tasks done, in [0, 1].
+    is_current : callable, optional
+        ``is_current()`` returns False once the result is no longer wanted.
+    step : float, default 0.02
+        The least progress between two calls of ``on_fraction`` (1.0 is always reported).
+
+    Examples
+    --------
+    >>> import dask.array as da
+    >>> from climwidgets.scale import TaskProgress
+    >>> seen = []
+    >>> with TaskProgress(on_fraction=seen.append, step=0.5):
+    ...     total = float(da.ones(8, chunks=2).sum().compute(scheduler="sync"))
+    >>> total, seen[-1]
+    (8.0, 1.0)
     """
 
     def __init__(self, on_fraction=None, is_current=None, step: float = 0.02):
@@ -86,6 +105,32 @@ def use_cluster(address=None, n_workers=None, threads_per_worker: int = 1, memor
     Returns the ``distributed.Client``; it is registered as dask's default scheduler, so
     ``.compute()`` anywhere in the suite runs on it. Call ``close_cluster()`` to go back to
     the threaded scheduler.
+
+    Parameters
+    ----------
+    address : str, optional
+        The scheduler's address; None starts a LocalCluster of worker processes here.
+    n_workers : int, optional
+        Worker processes of the LocalCluster (default: the number of CPUs).
+    threads_per_worker : int, default 1
+        Threads in each worker process.
+    memory_limit : str or int, default "auto"
+        Memory per worker, as dask.distributed takes it (``"4GB"``, bytes, ``"auto"``).
+    **cluster_kwargs
+        Further arguments of ``distributed.LocalCluster``.
+
+    Returns
+    -------
+    distributed.Client
+        The client, registered as the default scheduler.
+
+    Examples
+    --------
+    Starting worker processes takes seconds, so the example is not run as a doctest:
+
+    >>> from climwidgets.scale import close_cluster, use_cluster
+    >>> client = use_cluster(n_workers=2)  # doctest: +SKIP
+    >>> close_cluster()  # back to the threaded scheduler
     """
     global _client
     from distributed import Client, LocalCluster
@@ -102,7 +147,19 @@ def use_cluster(address=None, n_workers=None, threads_per_worker: int = 1, memor
 
 
 def current_client():
-    """The distributed client in use (ours or one the user made), or None."""
+    """The distributed client in use (ours or one the user made), or None.
+
+    Returns
+    -------
+    distributed.Client or None
+        The default client, or None when computations run on a local scheduler.
+
+    Examples
+    --------
+    >>> from climwidgets.scale import current_client
+    >>> current_client() is None  # no cluster in this session
+    True
+    """
     try:
         from distributed import get_client
 
@@ -112,6 +169,19 @@ def current_client():
 
 
 def close_cluster() -> None:
+    """Close the client (and the LocalCluster) that :func:`use_cluster` opened, if any.
+
+    A client the user made themselves is left alone.
+
+    Returns
+    -------
+    None
+
+    Examples
+    --------
+    >>> from climwidgets.scale import close_cluster
+    >>> close_cluster()  # nothing open: does nothing
+    """
     global _client
     if _client is not None:
         cluster = getattr(_client, "cluster", None)

@@ -33,6 +33,44 @@ def basin_weights(basin, grid, weights=None):
     Returns ``(isel, w)``: the dict of slices to apply to the grid and the DataArray of
     weights on that block.  ``weights``, when given, is a precomputed
     :func:`coverage_weights` DataArray on the same grid (its bounding box is found again).
+
+    Parameters
+    ----------
+    basin : Basin or None
+        The basin; may be None when ``weights`` is given.
+    grid : xarray.DataArray or xarray.Dataset
+        Any object on the grid (see :func:`climwidgets.geo.grid.cell_bounds`).
+    weights : xarray.DataArray, optional
+        Precomputed coverage fractions in [0, 1] on the whole grid.
+
+    Returns
+    -------
+    isel : dict of str to slice
+        The basin's bounding box as positional slices of the grid's two dims.
+    w : xarray.DataArray
+        Cell area (m²) × coverage on that block, without coordinates.
+
+    Raises
+    ------
+    climwidgets.errors.ParameterError
+        When neither a basin nor weights are given, or weights are not fractions.
+    climwidgets.errors.MismatchError
+        When ``weights`` are on another grid.
+    climwidgets.errors.BasinError
+        When the weights are zero everywhere or the basin misses the grid.
+
+    Examples
+    --------
+    >>> import numpy as np, xarray as xr
+    >>> import climwidgets as cw
+    >>> rain = xr.DataArray([[10.0, 20.0, 30.0], [10.0, 20.0, 30.0]], dims=("lat", "lon"),
+    ...                     coords={"lat": [0.5, 1.5], "lon": [0.5, 1.5, 2.5]},
+    ...                     name="pr", attrs={"units": "mm"})
+    >>> west = cw.Basin.from_vertices([(0, 0), (2, 0), (2, 2), (0, 2)], name="west")
+    >>> from climwidgets.geo.aggregate import basin_weights
+    >>> isel, w = basin_weights(west, rain)
+    >>> isel, w.shape
+    ({'lat': slice(0, 2, None), 'lon': slice(0, 2, None)}, (2, 2))
     """
     dims = horizontal_dims(grid)
     if weights is None:
@@ -104,6 +142,46 @@ def basin_means(field: xr.DataArray, basins) -> xr.DataArray:
     The same numbers as :func:`basin_mean` for each basin, from one selection of the
     field (the block covering every basin) and one weighted sum, so a lazy field is read
     once for all basins.  ``covered_fraction`` (basin, ...) is as in :func:`basin_mean`.
+
+    Parameters
+    ----------
+    field : xarray.DataArray
+        A field on a lat/lon (or curvilinear) grid, any other dims (time, members).
+    basins : iterable of Basin
+        The basins; their names label the ``basin`` dimension.
+
+    Returns
+    -------
+    xarray.DataArray
+        Means on ``basin`` first, then the field's other dims, with the
+        ``covered_fraction`` coordinate, the field's units and a history line.
+
+    Raises
+    ------
+    climwidgets.errors.ParameterError
+        When ``field`` is not a DataArray.
+    climwidgets.errors.BasinError
+        When a basin does not touch the grid.
+
+    References
+    ----------
+    Weights as in Jones, P. W. (1999). First- and second-order conservative remapping
+    schemes for grids in spherical coordinates. Monthly Weather Review, 127(9),
+    2204-2210 (area-weighted overlap means).
+
+    Examples
+    --------
+    >>> import numpy as np, xarray as xr
+    >>> import climwidgets as cw
+    >>> rain = xr.DataArray([[10.0, 20.0, 30.0], [10.0, 20.0, 30.0]], dims=("lat", "lon"),
+    ...                     coords={"lat": [0.5, 1.5], "lon": [0.5, 1.5, 2.5]},
+    ...                     name="pr", attrs={"units": "mm"})
+    >>> west = cw.Basin.from_vertices([(0, 0), (2, 0), (2, 2), (0, 2)], name="west")
+    >>> from climwidgets.geo.aggregate import basin_means
+    >>> east = cw.Basin.from_vertices([(2, 0), (3, 0), (3, 2), (2, 2)], name="east")
+    >>> means = basin_means(rain, [west, east])
+    >>> means.basin.values.tolist(), means.round(3).values.tolist()
+    (['west', 'east'], [15.0, 30.0])
     """
     _check_field(field, "basin_means")
     basins = list(basins)
@@ -174,6 +252,48 @@ def basin_mean(field: xr.DataArray, basin, weights=None) -> xr.DataArray:
     data (1 when complete).  A slice with no data at all is NaN.  ``weights`` may be a
     precomputed ``coverage_weights(basin, field)`` to skip the geometry.
     Lazy on dask input.
+
+    Parameters
+    ----------
+    field : xarray.DataArray
+        A field on a lat/lon (or curvilinear) grid, any other dims (time, members).
+    basin : Basin
+        The basin (:class:`climwidgets.Basin`), in lon/lat degrees.
+    weights : xarray.DataArray, optional
+        Precomputed :func:`climwidgets.geo.coverage.coverage_weights` on the field's grid.
+
+    Returns
+    -------
+    xarray.DataArray
+        The mean over the basin, on the field's other dims, with the
+        ``covered_fraction`` coordinate, the field's units and a history line.
+
+    Raises
+    ------
+    climwidgets.errors.ParameterError
+        When ``field`` is not a DataArray (or bad ``weights``).
+    climwidgets.errors.BasinError
+        When the basin does not touch the grid.
+    climwidgets.errors.MismatchError
+        When ``weights`` are on another grid.
+
+    References
+    ----------
+    Weights as in Jones, P. W. (1999). First- and second-order conservative remapping
+    schemes for grids in spherical coordinates. Monthly Weather Review, 127(9),
+    2204-2210 (area-weighted overlap means).
+
+    Examples
+    --------
+    >>> import numpy as np, xarray as xr
+    >>> import climwidgets as cw
+    >>> rain = xr.DataArray([[10.0, 20.0, 30.0], [10.0, 20.0, 30.0]], dims=("lat", "lon"),
+    ...                     coords={"lat": [0.5, 1.5], "lon": [0.5, 1.5, 2.5]},
+    ...                     name="pr", attrs={"units": "mm"})
+    >>> west = cw.Basin.from_vertices([(0, 0), (2, 0), (2, 2), (0, 2)], name="west")
+    >>> mean = cw.basin_mean(rain, west)  # the two western columns: 10 and 20 mm
+    >>> round(float(mean), 3), float(mean.covered_fraction), mean.attrs["units"]
+    (15.0, 1.0, 'mm')
     """
     field = _check_field(field, "basin_mean")
     mean, covered, _ = _reduce(field, basin, weights)
@@ -190,6 +310,43 @@ def basin_volume(field: xr.DataArray, basin, units: str = "m3", weights=None) ->
     ``units`` is "m3" or "acre-ft" (international foot, :data:`ACRE_FOOT_M3`).  Where some
     cells are NaN in a slice, missing cells take the mean of the rest; ``covered_fraction``
     says how much had data.  Lazy on dask input.
+
+    Parameters
+    ----------
+    field : xarray.DataArray
+        A depth field (mm, or another depth unit it is converted from; not a rate).
+    basin : Basin
+        The basin (:class:`climwidgets.Basin`), in lon/lat degrees.
+    units : {"m3", "acre-ft"}, default "m3"
+        Volume units.
+    weights : xarray.DataArray, optional
+        Precomputed coverage weights on the field's grid.
+
+    Returns
+    -------
+    xarray.DataArray
+        ``volume`` on the field's other dims, with ``covered_fraction`` and a history line.
+
+    Raises
+    ------
+    climwidgets.errors.UnitsError
+        When the field has no units or a rate unit.
+    climwidgets.errors.ParameterError
+        When ``units`` is not "m3" or "acre-ft", or ``field`` is not a DataArray.
+    climwidgets.errors.BasinError
+        When the basin does not touch the grid.
+
+    Examples
+    --------
+    >>> import numpy as np, xarray as xr
+    >>> import climwidgets as cw
+    >>> rain = xr.DataArray([[10.0, 20.0, 30.0], [10.0, 20.0, 30.0]], dims=("lat", "lon"),
+    ...                     coords={"lat": [0.5, 1.5], "lon": [0.5, 1.5, 2.5]},
+    ...                     name="pr", attrs={"units": "mm"})
+    >>> west = cw.Basin.from_vertices([(0, 0), (2, 0), (2, 2), (0, 2)], name="west")
+    >>> vol = cw.basin_volume(rain, west)  # 15 mm over 2 x 2 degrees at the equator
+    >>> vol.attrs["units"], round(float(vol) / 1e9, 3)  # km³
+    ('m3', 0.742)
     """
     field = _check_field(field, "basin_volume")
     if units not in _VOLUME_UNITS:

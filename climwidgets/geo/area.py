@@ -16,24 +16,48 @@ surface of the WGS84 ellipsoid, docs/architecture.md); ``radius=`` changes it.
 
 from __future__ import annotations
 
+from typing import Any
+
 import numpy as np
 import xarray as xr
 
 from ..io.grid import canonical_names
 from ..provenance import with_history
 from ._cache import area_cache
-from .grid import cell_bounds, grid_token, horizontal_dims
+from .grid import GridBounds, cell_bounds, grid_token, horizontal_dims
 
 __all__ = ["AUTHALIC_RADIUS_M", "cell_area", "ring_area", "lonlat_polygon_area"]
 
 AUTHALIC_RADIUS_M = 6_371_007.2
 
 
-def ring_area(lon, lat, radius: float = AUTHALIC_RADIUS_M) -> np.ndarray:
+def ring_area(lon: Any, lat: Any, radius: float = AUTHALIC_RADIUS_M) -> np.ndarray:
     """Spherical area (m²) enclosed by rings with straight lon/lat edges.
 
-    ``lon``/``lat`` are degrees with the ring vertices on the last axis (closing vertex
-    optional); leading axes are vectorised.  Orientation does not matter.
+    The area ∬ R² cos φ dφ dλ is turned by Green's theorem into −R² ∮ sin φ dλ and
+    integrated exactly along each straight lon/lat edge (see the module docstring).
+
+    Parameters
+    ----------
+    lon, lat : array_like
+        Vertex longitudes and latitudes in degrees, the ring's vertices on the last axis
+        (the closing vertex is optional); leading axes are vectorised.  Orientation does
+        not matter.
+    radius : float, default AUTHALIC_RADIUS_M
+        Sphere radius in metres (default: the authalic radius of WGS84).
+
+    Returns
+    -------
+    numpy.ndarray
+        Area in m² of each ring, of the shape of the leading axes (a 0-d array for one ring).
+
+    References
+    ----------
+    Authalic radius of WGS84 from Moritz, H. (2000). Geodetic Reference System 1980.
+    Journal of Geodesy, 74, 128-133. https://doi.org/10.1007/s001900050278
+
+    Bevis, M. and Cambareri, G. (1987). Computing the area of a spherical polygon of
+    arbitrary shape. Mathematical Geology, 19(4), 335-346.
 
     Examples
     --------
@@ -51,11 +75,39 @@ def ring_area(lon, lat, radius: float = AUTHALIC_RADIUS_M) -> np.ndarray:
     phim = phi + 0.5 * dphi
     # sin(Δφ/2)/(Δφ/2) = np.sinc(Δφ/(2π)); stable for horizontal edges.
     contrib = dlam * np.sin(phim) * np.sinc(dphi / (2.0 * np.pi))
-    return np.abs(contrib.sum(axis=-1)) * radius**2
+    area: np.ndarray = np.abs(contrib.sum(axis=-1)) * radius**2
+    return area
 
 
-def lonlat_polygon_area(geometry, radius: float = AUTHALIC_RADIUS_M) -> float:
-    """Spherical area (m²) of a shapely (Multi)Polygon with straight lon/lat edges."""
+def lonlat_polygon_area(geometry: Any, radius: float = AUTHALIC_RADIUS_M) -> float:
+    """Spherical area (m²) of a shapely (Multi)Polygon with straight lon/lat edges.
+
+    Holes are subtracted; parts that are not polygons (points, lines) and empty parts
+    contribute nothing.
+
+    Parameters
+    ----------
+    geometry : shapely.Polygon or shapely.MultiPolygon
+        Polygon(s) in lon/lat degrees.
+    radius : float, default AUTHALIC_RADIUS_M
+        Sphere radius in metres.
+
+    Returns
+    -------
+    float
+        Area in m² (each ring by :func:`ring_area`).
+
+    Examples
+    --------
+    >>> from shapely.geometry import Polygon
+    >>> from climwidgets.geo.area import lonlat_polygon_area
+    >>> outer = [(0, 0), (2, 0), (2, 2), (0, 2)]
+    >>> hole = [(0.5, 0.5), (1.5, 0.5), (1.5, 1.5), (0.5, 1.5)]
+    >>> full = lonlat_polygon_area(Polygon(outer))
+    >>> holed = lonlat_polygon_area(Polygon(outer, [hole]))
+    >>> round(full / 1e6), round((full - holed) / 1e6)  # km²; the hole is a 1 x 1 degree cell
+    (49447, 12362)
+    """
     total = 0.0
     for poly in getattr(geometry, "geoms", [geometry]):
         if poly.is_empty or poly.geom_type != "Polygon":
@@ -68,21 +120,50 @@ def lonlat_polygon_area(geometry, radius: float = AUTHALIC_RADIUS_M) -> float:
     return total
 
 
-def _area_values(bounds, radius: float) -> np.ndarray:
+def _area_values(bounds: GridBounds, radius: float) -> np.ndarray:
     if bounds.kind == "rectilinear":
+        assert bounds.lat_lower is not None and bounds.lat_upper is not None
+        assert bounds.lon_lower is not None and bounds.lon_upper is not None
         dlam = np.radians(bounds.lon_upper - bounds.lon_lower)
         p1, p2 = np.radians(bounds.lat_lower), np.radians(bounds.lat_upper)
         band = 2.0 * np.cos(0.5 * (p1 + p2)) * np.sin(0.5 * (p2 - p1))  # sin φ2 − sin φ1
-        return radius**2 * band[:, None] * dlam[None, :]
+        rect: np.ndarray = radius**2 * band[:, None] * dlam[None, :]
+        return rect
     return ring_area(bounds.lon_corners, bounds.lat_corners, radius)
 
 
-def cell_area(grid, radius: float = AUTHALIC_RADIUS_M) -> xr.DataArray:
+def cell_area(grid: xr.DataArray | xr.Dataset, radius: float = AUTHALIC_RADIUS_M) -> xr.DataArray:
     """Area of every grid cell in m² on a sphere of radius ``radius`` (default authalic).
 
-    Returns a DataArray on the grid's (lat, lon) or curvilinear (y, x) dims with
-    ``units="m2"`` and the radius in ``attrs["radius_m"]``.  CF-named grids
-    (``latitude``/``longitude``) are read under the house names lat/lon.
+    Rectilinear cells use A = R²·Δλ·(sin φ2 − sin φ1); curvilinear cells the exact ring
+    area of their corners (:func:`ring_area`).  Bounds come from
+    :func:`climwidgets.geo.grid.cell_bounds`; results are cached per grid and radius.
+
+    Parameters
+    ----------
+    grid : xarray.DataArray or xarray.Dataset
+        Any object on the grid: 1-D ``lat``/``lon`` or 2-D ``lat(y, x)``/``lon(y, x)``
+        coordinates in degrees.  CF-named grids (``latitude``/``longitude``) are read
+        under the house names lat/lon.
+    radius : float, default AUTHALIC_RADIUS_M
+        Sphere radius in metres.
+
+    Returns
+    -------
+    xarray.DataArray
+        ``cell_area`` on the grid's (lat, lon) or curvilinear (y, x) dims, with
+        ``units="m2"``, the radius in ``attrs["radius_m"]`` and a history line.
+
+    Raises
+    ------
+    climwidgets.errors.GridError
+        When the object has no usable lat/lon coordinates or its bounds cannot be found
+        (see :func:`climwidgets.geo.grid.cell_bounds`).
+
+    References
+    ----------
+    Snyder, J. P. (1987). Map Projections: A Working Manual. U.S. Geological Survey
+    Professional Paper 1395. https://doi.org/10.3133/pp1395 (area of a spherical zone).
 
     Examples
     --------

@@ -18,6 +18,7 @@ from __future__ import annotations
 
 import hashlib
 from dataclasses import dataclass
+from typing import Any
 
 import numpy as np
 import xarray as xr
@@ -38,10 +39,30 @@ class GridBounds:
     Curvilinear (``kind == "curvilinear"``): ``lat_corners``/``lon_corners`` of shape
     (ny, nx, 4), corners in ring order; longitudes are unwrapped so that a cell never
     jumps across the antimeridian (its corners may then lie outside [-180, 180)).
+
+    Parameters
+    ----------
+    kind : {"rectilinear", "curvilinear"}
+        Which set of fields is filled in.
+    dims : tuple of str
+        The grid's (row, column) dimension names.
+    lat_lower, lat_upper, lon_lower, lon_upper : numpy.ndarray, optional
+        Rectilinear bounds in degrees, one per row (lat) or column (lon).
+    lat_corners, lon_corners : numpy.ndarray, optional
+        Curvilinear corners in degrees, shape (ny, nx, 4), in ring order.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from climwidgets.geo.grid import GridBounds
+    >>> b = GridBounds("rectilinear", ("lat", "lon"), np.array([0.0]), np.array([1.0]),
+    ...                np.array([10.0, 11.0]), np.array([11.0, 12.0]))
+    >>> b.shape
+    (1, 2)
     """
 
     kind: str
-    dims: tuple
+    dims: tuple[str, ...]
     lat_lower: np.ndarray | None = None
     lat_upper: np.ndarray | None = None
     lon_lower: np.ndarray | None = None
@@ -50,17 +71,20 @@ class GridBounds:
     lon_corners: np.ndarray | None = None
 
     @property
-    def shape(self) -> tuple:
+    def shape(self) -> tuple[int, int]:
+        """The number of (rows, columns) of the grid."""
         if self.kind == "rectilinear":
+            assert self.lat_lower is not None and self.lon_lower is not None
             return (self.lat_lower.size, self.lon_lower.size)
-        return self.lat_corners.shape[:2]
+        assert self.lat_corners is not None
+        return (self.lat_corners.shape[0], self.lat_corners.shape[1])
 
 
-def _name(grid) -> str:
-    return getattr(grid, "name", None) or type(grid).__name__
+def _name(grid: Any) -> str:
+    return str(getattr(grid, "name", None) or type(grid).__name__)
 
 
-def _latlon(grid):
+def _latlon(grid: Any) -> tuple[xr.DataArray, xr.DataArray]:
     if not isinstance(grid, (xr.DataArray, xr.Dataset)):
         raise GridError(
             f"a grid must be an xarray DataArray or Dataset, got {type(grid).__name__}",
@@ -93,22 +117,81 @@ def _latlon(grid):
     return lat, lon
 
 
-def is_curvilinear(grid) -> bool:
-    """True when the grid has 2-D lat/lon coordinates."""
+def is_curvilinear(grid: xr.DataArray | xr.Dataset) -> bool:
+    """True when the grid has 2-D lat/lon coordinates.
+
+    Parameters
+    ----------
+    grid : xarray.DataArray or xarray.Dataset
+        Any object on the grid: 1-D ``lat``/``lon`` or 2-D ``lat(y, x)``/``lon(y, x)``
+        coordinates in degrees.
+
+    Returns
+    -------
+    bool
+        True for 2-D ``lat(y, x)``/``lon(y, x)``, False for 1-D ``lat``/``lon``.
+
+    Raises
+    ------
+    climwidgets.errors.GridError
+        When ``grid`` is not an xarray object or has no usable lat/lon coordinates.
+
+    Examples
+    --------
+    >>> import numpy as np, xarray as xr
+    >>> from climwidgets.geo.grid import is_curvilinear
+    >>> rect = xr.DataArray(np.zeros((2, 3)), dims=("lat", "lon"),
+    ...                     coords={"lat": [0.5, 1.5], "lon": [10.5, 11.5, 12.5]})
+    >>> curv = xr.DataArray(np.zeros((2, 2)), dims=("y", "x"),
+    ...                     coords={"lat": (("y", "x"), [[0.0, 0.1], [1.0, 1.1]]),
+    ...                             "lon": (("y", "x"), [[10.0, 11.0], [10.1, 11.1]])})
+    >>> is_curvilinear(rect), is_curvilinear(curv)
+    (False, True)
+    """
     return _latlon(grid)[0].ndim == 2
 
 
-def horizontal_dims(grid) -> tuple:
-    """The (row, column) dimension names: ``(lat, lon)`` or the curvilinear ``(y, x)``."""
+def horizontal_dims(grid: xr.DataArray | xr.Dataset) -> tuple[str, ...]:
+    """The (row, column) dimension names: ``(lat, lon)`` or the curvilinear ``(y, x)``.
+
+    Parameters
+    ----------
+    grid : xarray.DataArray or xarray.Dataset
+        Any object on the grid: 1-D ``lat``/``lon`` or 2-D ``lat(y, x)``/``lon(y, x)``
+        coordinates in degrees.
+
+    Returns
+    -------
+    tuple of str
+        The two horizontal dimension names, row first.
+
+    Raises
+    ------
+    climwidgets.errors.GridError
+        When ``grid`` is not an xarray object or has no usable lat/lon coordinates.
+
+    Examples
+    --------
+    >>> import numpy as np, xarray as xr
+    >>> from climwidgets.geo.grid import horizontal_dims
+    >>> rect = xr.DataArray(np.zeros((2, 3)), dims=("lat", "lon"),
+    ...                     coords={"lat": [0.5, 1.5], "lon": [10.5, 11.5, 12.5]})
+    >>> curv = xr.DataArray(np.zeros((2, 2)), dims=("y", "x"),
+    ...                     coords={"lat": (("y", "x"), [[0.0, 0.1], [1.0, 1.1]]),
+    ...                             "lon": (("y", "x"), [[10.0, 11.0], [10.1, 11.1]])})
+    >>> horizontal_dims(rect), horizontal_dims(curv)
+    (('lat', 'lon'), ('y', 'x'))
+    """
     lat, lon = _latlon(grid)
-    return tuple(lat.dims) if lat.ndim == 2 else (lat.dims[0], lon.dims[0])
+    dims = lat.dims if lat.ndim == 2 else (lat.dims[0], lon.dims[0])
+    return tuple(str(d) for d in dims)
 
 
-def _values(obj) -> np.ndarray:
+def _values(obj: Any) -> np.ndarray:
     return np.asarray(obj.values if hasattr(obj, "values") else obj, dtype=float)
 
 
-def _bounds_var(grid, coord: str):
+def _bounds_var(grid: Any, coord: str) -> np.ndarray | None:
     """A CF bounds variable for ``coord`` on a Dataset, or None."""
     if not isinstance(grid, xr.Dataset):
         return None
@@ -132,7 +215,7 @@ def _edges_from_centres(centres: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     return infer_edges(centres)
 
 
-def _rect_axis(grid, coord: str) -> tuple[np.ndarray, np.ndarray]:
+def _rect_axis(grid: Any, coord: str) -> tuple[np.ndarray, np.ndarray]:
     centres = _values(grid[coord])
     if not np.all(np.isfinite(centres)):
         raise GridError(
@@ -190,8 +273,43 @@ def _corners_from_centres(lat: np.ndarray, lon: np.ndarray) -> tuple[np.ndarray,
     return np.clip(clat, -90.0, 90.0), clon
 
 
-def cell_bounds(grid) -> GridBounds:
-    """Cell bounds of ``grid`` (see the module docstring for where they come from)."""
+def cell_bounds(grid: xr.DataArray | xr.Dataset) -> GridBounds:
+    """Cell bounds of ``grid`` (see the module docstring for where they come from).
+
+    Parameters
+    ----------
+    grid : xarray.DataArray or xarray.Dataset
+        Any object on the grid: 1-D ``lat``/``lon`` or 2-D ``lat(y, x)``/``lon(y, x)``
+        coordinates in degrees.
+
+    Returns
+    -------
+    GridBounds
+        Rectilinear bounds (one pair per row and column) or curvilinear corners
+        (ny, nx, 4), in degrees, latitudes clipped to ±90.
+
+    Raises
+    ------
+    climwidgets.errors.GridError
+        When ``grid`` has no usable lat/lon coordinates, holds NaN coordinates, a
+        rectilinear axis is not strictly monotonic, or bounds cannot be inferred (a single
+        centre, a curvilinear grid with one row or column).
+
+    Examples
+    --------
+    >>> import numpy as np, xarray as xr
+    >>> from climwidgets.geo.grid import cell_bounds
+    >>> rect = xr.DataArray(np.zeros((2, 3)), dims=("lat", "lon"),
+    ...                     coords={"lat": [0.5, 1.5], "lon": [10.5, 11.5, 12.5]})
+    >>> curv = xr.DataArray(np.zeros((2, 2)), dims=("y", "x"),
+    ...                     coords={"lat": (("y", "x"), [[0.0, 0.1], [1.0, 1.1]]),
+    ...                             "lon": (("y", "x"), [[10.0, 11.0], [10.1, 11.1]])})
+    >>> b = cell_bounds(rect)  # inferred from the centres: midpoints, edges mirrored
+    >>> b.kind, b.lat_lower.tolist(), b.lat_upper.tolist(), b.lon_lower.tolist()
+    ('rectilinear', [0.0, 1.0], [1.0, 2.0], [10.0, 11.0, 12.0])
+    >>> cell_bounds(curv).lat_corners.shape
+    (2, 2, 4)
+    """
     lat, lon = _latlon(grid)
     dims = horizontal_dims(grid)
     if lat.ndim == 1:
@@ -222,12 +340,46 @@ def cell_bounds(grid) -> GridBounds:
     return GridBounds("curvilinear", dims, lat_corners=clat, lon_corners=clon - shift[..., None])
 
 
-def grid_token(grid) -> str:
-    """A hash of the grid's coordinates and bounds (not its data): equal grids, equal tokens."""
+def grid_token(grid: xr.DataArray | xr.Dataset) -> str:
+    """A hash of the grid's coordinates and bounds (not its data): equal grids, equal tokens.
+
+    The token keys the caches of cell areas and coverage weights.
+
+    Parameters
+    ----------
+    grid : xarray.DataArray or xarray.Dataset
+        Any object on the grid: 1-D ``lat``/``lon`` or 2-D ``lat(y, x)``/``lon(y, x)``
+        coordinates in degrees.
+
+    Returns
+    -------
+    str
+        A 32-character hexadecimal BLAKE2b digest of the dims, coordinates, explicit
+        bounds and grid mapping.
+
+    Raises
+    ------
+    climwidgets.errors.GridError
+        When ``grid`` is not an xarray object or has no usable lat/lon coordinates.
+
+    Examples
+    --------
+    >>> import numpy as np, xarray as xr
+    >>> from climwidgets.geo.grid import grid_token
+    >>> rect = xr.DataArray(np.zeros((2, 3)), dims=("lat", "lon"),
+    ...                     coords={"lat": [0.5, 1.5], "lon": [10.5, 11.5, 12.5]})
+    >>> curv = xr.DataArray(np.zeros((2, 2)), dims=("y", "x"),
+    ...                     coords={"lat": (("y", "x"), [[0.0, 0.1], [1.0, 1.1]]),
+    ...                             "lon": (("y", "x"), [[10.0, 11.0], [10.1, 11.1]])})
+    >>> grid_token(rect) == grid_token(rect + 1.0)  # the data does not count
+    True
+    >>> grid_token(rect) == grid_token(rect.assign_coords(lon=rect.lon + 0.25))
+    False
+    """
     lat, lon = _latlon(grid)
     h = hashlib.blake2b(digest_size=16)
     h.update(repr(horizontal_dims(grid)).encode())
-    parts = [lat, lon]
+    parts: list[xr.DataArray | np.ndarray] = [lat, lon]
     for name in ("lat_lower", "lat_upper", "lon_lower", "lon_upper", "x", "y"):
         if name in grid.coords and grid[name].ndim == 1 and grid[name].dtype.kind in "fiu":
             parts.append(grid[name])
