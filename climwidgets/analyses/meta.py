@@ -24,7 +24,8 @@ import numpy as np
 import pandas as pd
 import xarray as xr
 
-__all__ = ["Meta", "CATALOGUE", "describe", "frame", "display_frame", "column_heading", "format_cell",
+__all__ = ["Meta", "CATALOGUE", "ENSEMBLE_STATS", "ensemble_attrs", "describe", "frame", "display_frame",
+           "column_heading", "format_cell",
            "table_variables"]
 
 
@@ -112,6 +113,29 @@ CATALOGUE: dict[str, Meta] = {
     "trend_pvalue": Meta("Mann-Kendall p-value", "1", "two-sided Mann-Kendall p-value of the annual totals", "",
                          1.0, ".2f"),
 }
+
+
+#: How each ensemble figure of a basin table is named: the column's own label followed by
+#: these words (``analyses.ensemble.ensemble_basin_table``).  The units and the display
+#: format stay those of the column.
+ENSEMBLE_STATS: dict[str, str] = {
+    "mean": "ensemble mean",
+    "median": "ensemble median",
+    "min": "lowest member",
+    "max": "highest member",
+    "lower_quartile": "ensemble lower percentile",
+    "upper_quartile": "ensemble upper percentile",
+    "std": "ensemble standard deviation",
+}
+
+
+def ensemble_attrs(attrs: dict, stat: str, words: str | None = None) -> dict:
+    """The display attributes of one ensemble figure of a described column."""
+    words = ENSEMBLE_STATS[stat] if words is None else words
+    out = dict(attrs)
+    out["label"] = f"{attrs.get('label', '')}, {words}"
+    out["description"] = f"{words} over the members of: {attrs.get('description', '')}"
+    return out
 
 
 def describe(da: xr.DataArray, name: str, **overrides) -> xr.DataArray:
