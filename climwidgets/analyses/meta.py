@@ -112,6 +112,13 @@ CATALOGUE: dict[str, Meta] = {
     "trend_mm_per_year": Meta("Sen slope", "mm/yr", "Sen slope of the annual totals", "mm per year", 1.0, ".2f"),
     "trend_pvalue": Meta("Mann-Kendall p-value", "1", "two-sided Mann-Kendall p-value of the annual totals", "",
                          1.0, ".2f"),
+    # climate-change signals per basin (analyses.scenario)
+    "share_change_1": Meta("change in seasonal share", "1", "future minus historical seasonal share of the "
+                           "basin (ratio of sums over each period)", "% points", 100.0, "+.1f"),
+    "normal_change_1": Meta("change in annual normal", "1", "future over historical annual normal of the basin, "
+                            "minus one", "%", 100.0, "+.1f"),
+    "agreement_1": Meta("members agreeing", "1", "share of members whose change has the sign of the "
+                        "ensemble-median change", "%", 100.0, ".0f"),
 }
 
 
