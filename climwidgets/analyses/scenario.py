@@ -14,6 +14,7 @@ from __future__ import annotations
 import xarray as xr
 
 from ..compute.scenario import SCENARIO_CAUTIONS
+from ..compute.seasonal import season_label
 from ..compute.signals import annual_normal_signal, seasonal_share_signal
 from ..compute.totals import monthly_totals
 from ..provenance import history_line
@@ -77,7 +78,7 @@ def basin_signals(model_hist: xr.DataArray, model_future: xr.DataArray, basins, 
             ds[f"{name}_upper"] = (sig["change_max"] - offset).assign_attrs(ensemble_attrs(attrs, "max"))
             ds[f"{name}_agreement"] = describe(sig["change_agreement"], "agreement_1",
                                                label=f"{attrs['label']}, members agreeing")
-    ds.attrs = {"months": list(months), "historical_period": share.attrs["historical_period"],
+    ds.attrs = {"months": list(months), "season": season_label(tuple(months)), "historical_period": share.attrs["historical_period"],
                 "future_period": share.attrs["future_period"], "member_dim": share.attrs.get("member_dim", "none"),
                 "cautions": list(SCENARIO_CAUTIONS),
                 "history": history_line(func, months=tuple(months), historical=historical, future=future)}

@@ -39,10 +39,10 @@ def scenario_section(signals: xr.Dataset, title: str = "Climate-change scenario"
     notice = ("<div class='notice'><strong>Before using these numbers:</strong><ol class='cautions'>"
               + "".join(f"<li>{_e(c)}</li>" for c in cautions) + "</ol></div>")
     hp, fp = signals.attrs.get("historical_period", ["?", "?"]), signals.attrs.get("future_period", ["?", "?"])
-    months = ", ".join(str(m) for m in signals.attrs.get("months", []))
+    season = signals.attrs.get("season") or ", ".join(str(m) for m in signals.attrs.get("months", []))
     what = (f"<p>Historical period {_e(hp[0])}–{_e(hp[1])}, future period {_e(fp[0])}–{_e(fp[1])}; "
-            f"season months {_e(months)}. "
+            f"season {_e(season)}. "
             + ("Each change is shown as the ensemble mean with the lowest and highest member and the "
                "share of members agreeing on its sign." if ensemble else "A single run: no ensemble spread.")
             + "</p>")
-    return _section("scenario", title, notice + "\n" + what + "\n" + _table_html(table, max_wide=None))
+    return _section("scenario", title, notice + "\n" + what + "\n" + _table_html(table, max_wide=99))
