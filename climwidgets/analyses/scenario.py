@@ -78,7 +78,8 @@ def basin_signals(model_hist: xr.DataArray, model_future: xr.DataArray, basins, 
             ds[f"{name}_upper"] = (sig["change_max"] - offset).assign_attrs(ensemble_attrs(attrs, "max"))
             ds[f"{name}_agreement"] = describe(sig["change_agreement"], "agreement_1",
                                                label=f"{attrs['label']}, members agreeing")
-    ds.attrs = {"months": list(months), "season": season_label(tuple(months)), "historical_period": share.attrs["historical_period"],
+    ds.attrs = {"months": list(months), "season": season_label(tuple(months)),
+                "historical_period": share.attrs["historical_period"],
                 "future_period": share.attrs["future_period"], "member_dim": share.attrs.get("member_dim", "none"),
                 "cautions": list(SCENARIO_CAUTIONS),
                 "history": history_line(func, months=tuple(months), historical=historical, future=future)}
