@@ -127,6 +127,18 @@ def _cmd_compare(args):
     return EXIT_OK
 
 
+def _cmd_scenario(args):
+    from .jobs import run_scenario
+
+    result = run_scenario(args.hist, args.future, args.basins, months=_months(args.months),
+                          historical=None if args.historical is None else _years(args.historical, "--historical"),
+                          future_period=None if args.future_period is None
+                          else _years(args.future_period, "--future-period"),
+                          out_dir=args.out, overwrite=args.overwrite, progress=_progress(args), var=args.var)
+    _print_result(result, "Cautions for these climate-change signals:")
+    return EXIT_OK
+
+
 def _cmd_demo(args):
     from . import demo
 
@@ -255,6 +267,23 @@ def build_parser() -> argparse.ArgumentParser:
     c.add_argument("--kge", default="2009", choices=("2009", "2012"), help="Kling-Gupta efficiency form")
     out_args(c)
     c.set_defaults(func=_cmd_compare)
+
+    sc = sub.add_parser("scenario", parents=[common],
+                        help="climate-change signals per basin of a model ensemble (CSV)",
+                        description="Per basin: change in the seasonal share (future − historical) and in the "
+                                    "annual normal (future / historical − 1) of a historical and a future run "
+                                    "of the same members, as the ensemble mean, lowest and highest member and "
+                                    "the share of members agreeing. Writes scenario_basin_signals.csv into "
+                                    "--out. The scenario cautions are printed and written into the file.")
+    sc.add_argument("--hist", nargs="+", required=True, metavar="PATH", help="historical run file(s)")
+    sc.add_argument("--future", nargs="+", required=True, metavar="PATH", help="future run file(s)")
+    sc.add_argument("--basins", required=True, metavar="FILE", help="basin outlines (GeoJSON or shapefile)")
+    sc.add_argument("--var", default=None, help="variable name (default: found by standard_name or units)")
+    sc.add_argument("--months", default="7,8", help="the season's months (default: 7,8)")
+    sc.add_argument("--historical", default=None, help="historical period FIRST-LAST (default: all complete years)")
+    sc.add_argument("--future-period", default=None, help="future period FIRST-LAST (default: all complete years)")
+    out_args(sc)
+    sc.set_defaults(func=_cmd_scenario)
     return p
 
 

@@ -33,7 +33,8 @@ from .errors import ParameterError
 from .geo.basinset import load_basins
 
 __all__ = ["JobResult", "load_basins", "run_summary", "run_extremes", "run_compare", "run_demo_headless",
-           "SUMMARY_FILES", "EXTREMES_FILES", "COMPARE_FILES"]
+           "run_scenario",
+           "SUMMARY_FILES", "EXTREMES_FILES", "COMPARE_FILES", "SCENARIO_FILES"]
 
 Progress = Callable[[str], None] | None
 
@@ -41,6 +42,7 @@ Progress = Callable[[str], None] | None
 SUMMARY_FILES = {"csv": "basin_summary.csv", "netcdf": "seasonal_share_normals.nc", "report": "basin_report.html"}
 EXTREMES_FILES = {"netcdf": "return_levels.nc", "csv": "basin_return_levels.csv"}
 COMPARE_FILES = {"netcdf": "comparison_metrics.nc", "csv": "products_basin_table.csv"}
+SCENARIO_FILES = {"csv": "scenario_basin_signals.csv"}
 
 _STEP_WORD = {"hour": "hourly", "day": "daily", "month": "monthly"}
 
@@ -286,6 +288,48 @@ def run_extremes(data, basins=None, duration_days=1, periods=(2, 10, 25, 50, 100
                provenance={"inputs": sources, "notes": [AREAL_NOTE], "cautions": DESIGN_DEPTH_CAUTIONS,
                            "title": "basin return levels"})
     return JobResult(paths=paths, table=table, cautions=tuple(DESIGN_DEPTH_CAUTIONS))
+
+
+# ------------------------------------------------------------------ scenario
+def run_scenario(hist, future, basins, months=(7, 8), historical=None, future_period=None, out_dir="out",
+                 overwrite: bool = False, progress: Progress = None, *, var=None, prefix: str = "") -> JobResult:
+    """Climate-change signals per basin of a model ensemble (CSV).
+
+    ``scenario_basin_signals.csv`` has one row per basin: the change in the seasonal share
+    and in the annual normal as the ensemble mean, the lowest and highest member and the
+    share of members agreeing on the sign (:func:`analyses.scenario.basin_signals`); for
+    single runs, the run's change.  The scenario cautions
+    (:data:`climwidgets.compute.scenario.SCENARIO_CAUTIONS`) are in the file and the result.
+    """
+    from .analyses.meta import frame
+    from .analyses.run import compute
+    from .analyses.scenario import basin_signals
+    from .compute.scenario import SCENARIO_CAUTIONS
+    from .report.tables import to_csv
+
+    job = "scenario"
+    months = _check_months(months, job)
+    if historical is not None:
+        historical = _check_baseline(historical, job, "historical")
+    if future_period is not None:
+        future_period = _check_baseline(future_period, job, "future")
+    paths = _plan_outputs(out_dir, SCENARIO_FILES, prefix, overwrite, job)
+    say = _Reporter(progress, job)
+    basin_list = load_basins(basins)
+    ph, pf = _open(hist, var), _open(future, var)
+    lazy = basin_signals(ph, pf, basin_list, months=months, historical=historical, future=future_period)
+    with say.dask("basin series of both runs and their signals in one pass"):
+        (signals,) = compute(lazy)
+    ensemble = signals.attrs.get("member_dim", "none") != "none"
+    # with members: one row per basin (mean, range, agreement); a single run: its own change
+    table = frame(signals) if ensemble else frame(signals, columns=["share_change_1", "normal_change_1"])
+    table.attrs.update({"months": list(months), "historical_period": signals.attrs["historical_period"],
+                        "future_period": signals.attrs["future_period"], "member_dim": signals.attrs["member_dim"]})
+    _make_folder(paths)
+    to_csv(table, paths["csv"], overwrite=overwrite,
+           provenance={"inputs": _sources(ph) + _sources(pf), "cautions": SCENARIO_CAUTIONS,
+                       "title": "climate-change signals per basin"})
+    return JobResult(paths=paths, table=table, cautions=tuple(SCENARIO_CAUTIONS))
 
 
 # ------------------------------------------------------------------ compare

@@ -221,3 +221,47 @@ def test_demo_without_headless_prints_the_demo_files(capsys, demo_files):
     code, out, _ = run(capsys, "demo", "--dir", demo_files["daily"].parent, "--size", "test", "--quiet")
     assert code == 0
     assert {Path(p).name for p in out.splitlines()} == {p.name for p in demo_files.values()}
+
+
+# ------------------------------------------------------------------ scenario
+@pytest.fixture(scope="module")
+def ensemble_files(demo_files):
+    return demo_files | demo.generate_ensemble(demo_files["monthly"].parent, quiet=True, size="test")
+
+
+def test_scenario_writes_basin_signals_and_prints_cautions(capsys, ensemble_files, tmp_path):
+    demo_files = ensemble_files
+    from climwidgets.analyses.scenario import basin_signals
+    from climwidgets.compute.scenario import SCENARIO_CAUTIONS
+
+    code, out, err = run(capsys, "scenario", "--hist", demo_files["ensemble_historical"], "--future",
+                         demo_files["ensemble_future"], "--basins", demo_files["basins"], "--out", tmp_path, "--quiet")
+    assert code == 0, err
+    paths = [Path(p) for p in out.splitlines()]
+    assert [p.name for p in paths] == ["scenario_basin_signals.csv"]
+    for caution in SCENARIO_CAUTIONS:
+        assert caution in err
+    table = read_csv(paths[0], index_col=0)
+    assert set(table.index) == {b["name"] for b in demo.BASINS}
+    hist, fut = cw.open_precip(demo_files["ensemble_historical"]), cw.open_precip(demo_files["ensemble_future"])
+    expected = basin_signals(hist, fut, cw.load_basins(demo_files["basins"])).compute()
+    for name in ("share_change_1_mean", "normal_change_1_lower", "normal_change_1_upper", "share_change_1_agreement"):
+        np.testing.assert_allclose(table[name].values, expected[name].sel(basin=table.index).values, rtol=1e-9)
+    # the per-member normal change of one basin equals the basin means' normals computed directly
+    b = cw.load_basins(demo_files["basins"])[0]
+    nh = cw.annual_normal(cw.basin_mean(hist, b), baseline=(1981, 2010))
+    nf = cw.annual_normal(cw.basin_mean(fut, b), baseline=(2041, 2070))
+    ratio = (nf / nh - 1.0).values
+    np.testing.assert_allclose(table.loc[b.name, "normal_change_1_mean"], ratio.mean(), rtol=1e-9)
+
+
+def test_scenario_bad_input_exits_2(capsys, ensemble_files, tmp_path):
+    demo_files = ensemble_files
+    code, _, err = run(capsys, "scenario", "--hist", demo_files["ensemble_historical"], "--future",
+                       demo_files["ensemble_future"], "--basins", demo_files["basins"], "--months", "7,13",
+                       "--out", tmp_path)
+    assert code == 2 and "13" in _error_line(err)
+    code, _, err = run(capsys, "scenario", "--hist", demo_files["ensemble_historical"], "--future",
+                       demo_files["ensemble_future"], "--basins", demo_files["basins"], "--historical", "1981",
+                       "--out", tmp_path)
+    assert code == 2 and "--historical" in _error_line(err)

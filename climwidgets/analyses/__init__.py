@@ -9,5 +9,6 @@ NetCDF and HTML exports and the command line render from these and nothing else.
 Modules: ``meta`` (the display attributes and the table renderer), ``basins`` (basin
 table, seasonal share per basin, what-if volumes), ``comparison`` (basin table across
 products), ``extremes`` (areal design depths), ``orographic`` (windward/leeward band
-table), ``anomalies`` (basin anomaly tables).
+table), ``anomalies`` (basin anomaly tables), ``ensemble`` (ensemble mean and spread of a
+basin table over members).
 """

@@ -24,8 +24,8 @@ import numpy as np
 import pandas as pd
 import xarray as xr
 
-__all__ = ["Meta", "CATALOGUE", "INDEX_CATALOGUE", "index_meta", "describe", "frame", "display_frame",
-           "column_heading", "format_cell", "table_variables"]
+__all__ = ["Meta", "CATALOGUE", "INDEX_CATALOGUE", "ENSEMBLE_STATS", "ensemble_attrs", "index_meta", "describe",
+           "frame", "display_frame", "column_heading", "format_cell", "table_variables"]
 
 
 @dataclass(frozen=True)
@@ -143,6 +143,13 @@ CATALOGUE: dict[str, Meta] = {
     "index_pvalue": Meta("Mann-Kendall p", "1", "two-sided Mann-Kendall p-value of the basin's per-year index",
                          "", 1.0, ".2f"),
     "n_index_years": Meta("years", "1", "years with a value behind the mean and the trend", "", 1.0, ".0f"),
+    # climate-change signals per basin (analyses.scenario)
+    "share_change_1": Meta("change in seasonal share", "1", "future minus historical seasonal share of the "
+                           "basin (ratio of sums over each period)", "% points", 100.0, "+.1f"),
+    "normal_change_1": Meta("change in annual normal", "1", "future over historical annual normal of the basin, "
+                            "minus one", "%", 100.0, "+.1f"),
+    "agreement_1": Meta("members agreeing", "1", "share of members whose change has the sign of the "
+                        "ensemble-median change", "%", 100.0, ".0f"),
 }
 
 
@@ -183,6 +190,29 @@ def index_meta(name: str) -> Meta:
     nn = float(m.group(1))
     return Meta(f"{name}, days with at least {nn:g} mm", "d", f"count of days with {nn:g} mm or more", "days",
                 1.0, ".1f")
+
+
+#: How each ensemble figure of a basin table is named: the column's own label followed by
+#: these words (``analyses.ensemble.ensemble_basin_table``).  The units and the display
+#: format stay those of the column.
+ENSEMBLE_STATS: dict[str, str] = {
+    "mean": "ensemble mean",
+    "median": "ensemble median",
+    "min": "lowest member",
+    "max": "highest member",
+    "lower_quartile": "ensemble lower percentile",
+    "upper_quartile": "ensemble upper percentile",
+    "std": "ensemble standard deviation",
+}
+
+
+def ensemble_attrs(attrs: dict, stat: str, words: str | None = None) -> dict:
+    """The display attributes of one ensemble figure of a described column."""
+    words = ENSEMBLE_STATS[stat] if words is None else words
+    out = dict(attrs)
+    out["label"] = f"{attrs.get('label', '')}, {words}"
+    out["description"] = f"{words} over the members of: {attrs.get('description', '')}"
+    return out
 
 
 def describe(da: xr.DataArray, name: str, **overrides) -> xr.DataArray:
