@@ -11,6 +11,7 @@ import pytest
 import xarray as xr
 
 import climwidgets as cw
+from ._data import check_every_export
 
 pytest.importorskip("ipympl")
 
@@ -91,3 +92,10 @@ def test_same_product_twice_is_a_message(setup):
 def test_needs_two_products():
     with pytest.raises(cw.InputError, match="at least two products"):
         cw.ComparisonWidget({"only": _product(1.0)})
+
+
+def test_every_export_reaches_the_browser(setup):
+    """Each button gives a download link whose bytes are the result (CSV read by plain pandas)."""
+    w = setup[-1]
+    got = check_every_export(w)
+    assert set(got) == {b.description for b in w.exports.children}
