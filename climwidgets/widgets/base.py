@@ -505,8 +505,8 @@ class BaseWidget(widgets.VBox):
             else:
                 self.offer_downloads(files)
                 saved = self.last_saved
-                self.say("Ready to download: " + ", ".join(files)
-                         + (f" (also saved {', '.join(str(p) for p in saved)})" if saved else ""))
+                where = f"; a copy is in {saved[0].parent}" if saved else ""
+                self.say(f"Ready: click the link{'s' if len(files) > 1 else ''} above to download{where}.")
 
         button.on_click(on_click)
         self.exports.children = (*self.exports.children, button)

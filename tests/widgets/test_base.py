@@ -106,7 +106,7 @@ def test_csv_export_is_written_and_never_overwrites(tmp_path):
     name = f"climwidgets_{day}.csv"
     assert sorted(p.name for p in tmp_path.iterdir()) == sorted(
         [name, name + "-metadata.json", f"climwidgets_{day}-2.csv", f"climwidgets_{day}-2.csv-metadata.json"])
-    assert "Ready to download" in w.message.value and "also saved" in w.message.value
+    assert "to download" in w.message.value and str(tmp_path) in w.message.value
     assert unique_path(tmp_path, name).name == f"climwidgets_{day}-3.csv"
 
 
