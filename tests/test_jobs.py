@@ -20,7 +20,7 @@ import xarray as xr
 import climwidgets as cw
 from climwidgets import demo, jobs
 from climwidgets.errors import BasinError, InputError, ParameterError, SourceError
-from climwidgets.report.tables import read_csv
+from climwidgets.report.tables import read_csv, read_metadata
 
 MONTHS, BASELINE = (7, 8), (1991, 2020)
 
@@ -68,10 +68,10 @@ def test_summary_csv_agrees_with_basin_summary(summary, pr, basins):
     assert all(c.endswith(("_km2", "_mm", "_1", "_m3", "_acre_ft", "_years", "_year", "_normal"))
                for c in table.columns)  # units in the column names
     pd.testing.assert_frame_equal(table.astype(float), direct.astype(float), rtol=1e-9, check_names=False)
-    header = result.paths["csv"].read_text(encoding="utf-8").splitlines()
-    assert header[0].startswith("# climwidgets") and any("sha256" in h for h in header)
-    assert any(h.startswith("# parameter: baseline = 1991, 2020") for h in header)
-    assert any(h.startswith("# caution:") for h in header)
+    meta = read_metadata(result.paths["csv"])  # the settings travel in the metadata file beside it
+    assert meta["tool"].startswith("climwidgets") and any("sha256" in i for i in meta["inputs_in_words"])
+    assert meta["parameters_in_words"]["baseline"] == "1991, 2020"
+    assert meta["cautions"]
 
 
 def test_summary_areas_and_volumes_against_outside_references(summary, basins):
@@ -196,9 +196,9 @@ def test_extremes_files_agree_with_return_levels(extremes, pr, basins):
     np.testing.assert_allclose(rows["areal_lower_mm"].values, areal["lower"].values, rtol=1e-9)
     assert (rows["areal_lower_mm"] <= rows["areal_estimate_mm"]).all()
     assert (rows["areal_estimate_mm"] <= rows["areal_upper_mm"]).all()
-    text = extremes.paths["csv"].read_text(encoding="utf-8")
+    cautions = read_metadata(extremes.paths["csv"])["cautions"]
     for caution in cw.DESIGN_DEPTH_CAUTIONS:
-        assert f"# caution: {caution}" in text
+        assert caution in cautions
     assert extremes.cautions == tuple(cw.DESIGN_DEPTH_CAUTIONS)
 
 

@@ -324,3 +324,28 @@ def display_frame(table: pd.DataFrame, **overrides) -> pd.DataFrame:
     out = out.rename(columns=renamed)
     out.attrs = {"columns": meta}
     return out
+
+
+def _plain_number(v) -> str:
+    """A number no catalogue describes, in fixed notation with four significant digits."""
+    if isinstance(v, (bool, str, bytes)) or not isinstance(v, (int, float, np.number)):
+        return format_cell(v, {})
+    v = float(v)
+    if not np.isfinite(v):
+        return "–"
+    if v == 0 or abs(v) >= 1000:
+        return f"{v:,.0f}"
+    return f"{v:,.{max(0, 3 - int(np.floor(np.log10(abs(v)))))}f}"
+
+
+def people_frame(table: pd.DataFrame, **overrides) -> pd.DataFrame:
+    """:func:`display_frame` with every cell as text in its display format (for notebooks
+    and other tables read by people: no scientific notation, '–' for missing)."""
+    shown = display_frame(table, **overrides)
+    columns = shown.attrs["columns"]
+    out = shown.astype(object)
+    for i, col in enumerate(shown.columns):
+        attrs = columns.get(col, {})
+        out.isetitem(i, [format_cell(v, attrs) if attrs else _plain_number(v) for v in shown.iloc[:, i]])
+    out.attrs = {"columns": columns}
+    return out

@@ -1,15 +1,36 @@
-"""CSV export of result tables with a commented provenance header.
+"""The one CSV writer of the package: a plain table plus a metadata file beside it.
 
-The file starts with lines beginning with ``# `` (tool and version, date written, inputs,
-parameters, notes, cautions), then the table with its column names as given (the suite's
-tables carry their units in the column names: ``area_km2``, ``annual_mean_mm`` …).
-Read it back with ``pandas.read_csv(path, skiprows=n)`` where ``n`` is the number of
-leading ``#`` lines, or with :func:`read_csv` here.
+Every CSV the suite writes (command line, widgets, notebooks) goes through :func:`to_csv`
+or, for the bytes of a browser download, :func:`csv_files`.  Two files are written:
+
+``name.csv``
+    The table only: one header row with the column names (the suite's tables carry
+    their units in the column names), the index as the first column(s) when it is named
+    or not the default 0, 1, 2 …  A plain ``pandas.read_csv(path)`` reads it.
+``name.csv-metadata.json``
+    Everything that travels with the table: tool and version, date written, title, the
+    inputs (file name, size, SHA-256), every parameter, notes and cautions.  The name
+    follows the W3C "CSV on the Web" convention for locating a table's metadata
+    (append ``-metadata.json`` to the CSV's name); :func:`read_metadata` reads it.
+
+Every text cell, index value (every level of a MultiIndex) and column title that a
+spreadsheet would run as a formula — starting with ``=``, ``+``, ``-``, ``@``, a tab or a
+carriage return — is written with a leading apostrophe, which spreadsheets show as text
+(OWASP, "CSV Injection").
+
+References
+----------
+IETF RFC 4180 (2005). Common Format and MIME Type for Comma-Separated Values (CSV) Files.
+W3C (2015). Model for Tabular Data and Metadata on the Web, §5 "Locating Metadata".
+https://www.w3.org/TR/tabular-data-model/
+OWASP Foundation. CSV Injection. https://owasp.org/www-community/attacks/CSV_Injection
 """
 
 from __future__ import annotations
 
+import dataclasses
 import io
+import json
 from datetime import datetime, timezone
 from pathlib import Path
 
@@ -20,19 +41,44 @@ from ..errors import ParameterError
 from ..atomic import atomic_write, check_target
 from ._provenance import cautions_for_columns, describe_inputs, format_value
 
-__all__ = ["to_csv", "read_csv", "header_lines"]
+__all__ = ["to_csv", "csv_files", "read_csv", "read_metadata", "metadata_path", "metadata", "guard_formulas"]
 
 # Cells a spreadsheet would run as a formula (OWASP "CSV injection"): text starting so
 # gets a leading apostrophe, which spreadsheets show as text.
 _FORMULA_START = ("=", "+", "-", "@", "\t", "\r")
+METADATA_SUFFIX = "-metadata.json"
 
 
 def _one_line(text) -> str:
     return " ".join(str(text).split())
 
 
-def header_lines(table: pd.DataFrame, provenance=None, what: str = "table") -> list[str]:
-    """The ``# `` lines that precede the table (without the newline)."""
+def metadata_path(path) -> Path:
+    """The metadata file that belongs to the CSV at ``path`` (``name.csv-metadata.json``)."""
+    path = Path(path)
+    return path.with_name(path.name + METADATA_SUFFIX)
+
+
+def _jsonable(value):
+    if isinstance(value, dict):
+        return {str(k): _jsonable(v) for k, v in value.items()}
+    if isinstance(value, (list, tuple)):
+        return [_jsonable(v) for v in value]
+    if isinstance(value, (str, int, float, bool)) or value is None:
+        return value
+    if hasattr(value, "item"):  # numpy scalars
+        return _jsonable(value.item())
+    return str(value)
+
+
+def metadata(table: pd.DataFrame, provenance=None, what: str = "table", file_name: str | None = None) -> dict:
+    """The metadata that travels with ``table`` (what :func:`to_csv` writes beside it).
+
+    Keys: ``url`` (the CSV's file name), ``title``, ``tool``, ``written`` (UTC),
+    ``inputs`` (one dict per input file: name, size, SHA-256, modified), ``inputs_in_words``,
+    ``parameters`` (from ``table.attrs`` and ``provenance["parameters"]``),
+    ``parameters_in_words``, ``notes``, ``cautions``, ``columns``, ``index``.
+    """
     prov = dict(provenance or {}) if not isinstance(provenance, str) else {"notes": [provenance]}
     unknown = set(prov) - {"inputs", "parameters", "notes", "cautions", "title"}
     if unknown:
@@ -40,83 +86,135 @@ def header_lines(table: pd.DataFrame, provenance=None, what: str = "table") -> l
                              variable="provenance",
                              expected="a dict with keys inputs, parameters, notes, cautions, title",
                              fix="e.g. provenance={'inputs': ['grid.nc'], 'parameters': {'months': (7, 8)}}")
-    stamp = datetime.now(timezone.utc).strftime("%Y-%m-%dT%H:%M:%SZ")
-    lines = [f"climwidgets {__version__}: {_one_line(prov.get('title', what))}", f"written: {stamp}"]
-    for rec in describe_inputs(prov.get("inputs")):
-        lines.append(f"input: {_one_line(rec.summary())}")
+    records = describe_inputs(prov.get("inputs"))
     params = dict(table.attrs or {})
     params.pop("note", None)
     params.update(prov.get("parameters") or {})
-    for key, value in params.items():
-        if isinstance(value, (str, int, float, list, tuple, dict)) or value is None:
-            lines.append(f"parameter: {_one_line(key)} = {_one_line(format_value(value))}")
-    notes = list(prov.get("notes") or [])
+    notes = [_one_line(n) for n in (prov.get("notes") or []) if str(n).strip()]
     if "note" in (table.attrs or {}):
-        notes.insert(0, table.attrs["note"])
-    lines += [f"note: {_one_line(n)}" for n in notes]
+        notes.insert(0, _one_line(table.attrs["note"]))
     cautions = prov.get("cautions")
-    cautions = cautions_for_columns(list(table.columns) + [table.index.name or ""]) if cautions is None else cautions
-    lines += [f"caution: {_one_line(c)}" for c in cautions]
-    return ["# " + line for line in lines]
+    if cautions is None:
+        cautions = cautions_for_columns([str(c) for c in table.columns] + [str(n or "") for n in table.index.names])
+    return {
+        "@context": "http://www.w3.org/ns/csvw",
+        "url": file_name,
+        "title": _one_line(prov.get("title", what)),
+        "tool": f"climwidgets {__version__}",
+        "written": datetime.now(timezone.utc).strftime("%Y-%m-%dT%H:%M:%SZ"),
+        "inputs": [_jsonable(dataclasses.asdict(r)) for r in records],
+        "inputs_in_words": [_one_line(r.summary()) for r in records],
+        "parameters": _jsonable(params),
+        "parameters_in_words": {str(k): _one_line(format_value(v)) for k, v in params.items()},
+        "notes": notes,
+        "cautions": [_one_line(c) for c in cautions],
+        "index": [None if n is None else str(n) for n in table.index.names] if _keep_index(table) else [],
+        "columns": [str(c) for c in table.columns],
+    }
 
 
-def _guard_formulas(table: pd.DataFrame) -> pd.DataFrame:
-    def guard(v):
-        return "'" + v if isinstance(v, str) and v.startswith(_FORMULA_START) else v
+def _guard(v):
+    return "'" + v if isinstance(v, str) and v.startswith(_FORMULA_START) else v
 
+
+def _guard_index(index: pd.Index) -> pd.Index:
+    if isinstance(index, pd.MultiIndex):
+        levels = [lvl.map(_guard) if (lvl.dtype == object or pd.api.types.is_string_dtype(lvl)) else lvl
+                  for lvl in index.levels]
+        names = [_guard(n) for n in index.names]
+        return index.set_levels(levels, verify_integrity=False).set_names(names)
+    out = index.map(_guard) if (index.dtype == object or pd.api.types.is_string_dtype(index)) else index
+    return out.rename(_guard(index.name))
+
+
+def guard_formulas(table: pd.DataFrame) -> pd.DataFrame:
+    """A copy of ``table`` with every formula-like text cell, index value (every level),
+    index name and column title prefixed by an apostrophe (OWASP CSV injection)."""
     out = table.copy()
-    for col in out.columns:
-        if out[col].dtype == object or pd.api.types.is_string_dtype(out[col]):
-            out[col] = out[col].map(guard)
-    if out.index.dtype == object or pd.api.types.is_string_dtype(out.index):
-        out.index = out.index.map(guard)
+    for i in range(out.shape[1]):
+        col = out.iloc[:, i]
+        if col.dtype == object or pd.api.types.is_string_dtype(col):
+            out.isetitem(i, col.map(_guard))
+    out.index = _guard_index(out.index)
+    out.columns = _guard_index(out.columns)
     return out
 
 
-def to_csv(table, path, overwrite: bool = False, provenance=None) -> Path:
-    """Write a table to CSV with a commented provenance header, atomically.
+def _keep_index(table: pd.DataFrame) -> bool:
+    return any(n is not None for n in table.index.names) or not isinstance(table.index, pd.RangeIndex)
 
-    Parameters
-    ----------
-    table
-        A pandas DataFrame (e.g. :func:`cw.basin_summary`).  A named or non-default
-        index (such as ``basin``) is written as the first column.
-    path
-        Output file; refuses to replace an existing file unless ``overwrite=True``.
-    provenance
-        Optional dict: ``inputs`` (paths, checksummed when under 200 MB), ``parameters``
-        (dict, added to ``table.attrs``), ``notes`` (list of text), ``cautions`` (list of
-        text; by default the design-depth and volume cautions when the table holds such
-        columns), ``title``.  A plain string is taken as a note.
 
-    Returns
-    -------
-    pathlib.Path of the written file.
-    """
+def _check_table(table):
     if not isinstance(table, pd.DataFrame):
         hint = "use cw.to_netcdf for xarray objects" if hasattr(table, "dims") else \
             "build a DataFrame first (pandas.DataFrame(...) or series.to_frame())"
         raise ParameterError(f"cannot write a {type(table).__name__} as a table", source="to_csv",
                              variable="table", expected="a pandas DataFrame", fix=hint)
-    target = check_target(path, overwrite, "to_csv")
-    header = header_lines(table, provenance, what="table")
-    keep_index = table.index.name is not None or not isinstance(table.index, pd.RangeIndex)
+    if isinstance(table.columns, pd.MultiIndex):
+        raise ParameterError("a table with several header rows cannot be read back by a plain "
+                             "pandas.read_csv", source="to_csv", variable="table.columns",
+                             expected="one row of column names",
+                             fix="join the levels, e.g. table.columns = [' '.join(map(str, c)) for c in table.columns]")
+
+
+def csv_files(table, name: str, provenance=None, float_format: str | None = None) -> dict[str, bytes]:
+    """The two files of a CSV export as bytes: ``{name: csv, name + '-metadata.json': json}``.
+
+    The same bytes :func:`to_csv` writes; widgets hand them to the browser.
+    """
+    _check_table(table)
     buf = io.StringIO()
-    _guard_formulas(table).to_csv(buf, index=keep_index, lineterminator="\n")
-    text = "\n".join(header) + "\n" + buf.getvalue()
+    # CRLF rows (RFC 4180): the writer then quotes every cell holding a CR or LF, so text
+    # with a carriage return cannot split a row
+    guard_formulas(table).to_csv(buf, index=_keep_index(table), lineterminator="\r\n", float_format=float_format)
+    meta = metadata(table, provenance, what="table", file_name=Path(name).name)
+    return {Path(name).name: buf.getvalue().encode("utf-8"),
+            metadata_path(name).name: (json.dumps(meta, indent=1, ensure_ascii=False) + "\n").encode("utf-8")}
 
-    def write(tmp: Path):
-        tmp.write_text(text, encoding="utf-8")
 
-    return atomic_write(target, overwrite, write, "to_csv")
+def to_csv(table, path, overwrite: bool = False, provenance=None, float_format: str | None = None) -> Path:
+    """Write a table to CSV and its metadata beside it, atomically.
+
+    Parameters
+    ----------
+    table
+        A pandas DataFrame (e.g. :func:`cw.basin_summary`).  A named or non-default
+        index (such as ``basin``) is written as the first column(s).
+    path
+        Output file; refuses to replace an existing file (or its metadata file) unless
+        ``overwrite=True``.
+    provenance
+        Optional dict: ``inputs`` (paths, checksummed when under 200 MB), ``parameters``
+        (dict, added to ``table.attrs``), ``notes`` (list of text), ``cautions`` (list of
+        text; by default the design-depth and volume cautions when the table holds such
+        columns), ``title``.  A plain string is taken as a note.
+    float_format
+        Optional format for floats (as for :meth:`pandas.DataFrame.to_csv`).
+
+    Returns
+    -------
+    pathlib.Path of the written CSV; the metadata is at :func:`metadata_path` of it.
+
+    References
+    ----------
+    W3C (2015). Model for Tabular Data and Metadata on the Web, §5.
+    OWASP Foundation. CSV Injection.
+    """
+    _check_table(table)
+    target = check_target(path, overwrite, "to_csv")
+    meta_target = check_target(metadata_path(target), overwrite, "to_csv")
+    files = csv_files(table, target.name, provenance, float_format=float_format)
+    # metadata first: a CSV on disk always has its metadata beside it
+    atomic_write(meta_target, overwrite, lambda tmp: tmp.write_bytes(files[meta_target.name]), "to_csv")
+    return atomic_write(target, overwrite, lambda tmp: tmp.write_bytes(files[target.name]), "to_csv")
 
 
 def read_csv(path, **kwargs) -> pd.DataFrame:
-    """Read a CSV written by :func:`to_csv` (skips the ``#`` header; keeps ``#`` in cells)."""
-    n = 0
-    with open(path, encoding="utf-8") as f:
-        for line in f:
-            if not line.startswith("#"):
-                break
-            n += 1
-    return pd.read_csv(path, skiprows=n, **kwargs)
+    """Read a CSV written by :func:`to_csv` (the same as ``pandas.read_csv(path)``)."""
+    return pd.read_csv(path, **kwargs)
+
+
+def read_metadata(path) -> dict:
+    """The metadata written beside the CSV at ``path`` (see :func:`metadata`)."""
+    with open(metadata_path(path), encoding="utf-8") as f:
+        return json.load(f)

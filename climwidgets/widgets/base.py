@@ -52,8 +52,11 @@ in ``self.basin_set`` and hears of every change to it (:meth:`basins_changed`).
   shown in one line too, with the exception kept in ``self.error`` for debugging.
 * :meth:`wait` blocks until the current computation is finished (tests, notebooks);
   :meth:`compute_now` computes in the calling thread.
-* :meth:`add_export` adds a button writing a file atomically into ``export_dir``; CSV
-  of the table and PNG of the map are there by default.
+* :meth:`add_export` adds a button that prepares a file and shows a download link for it
+  in the page (the bytes inside the link, so it works in Voilà and JupyterLab with no
+  server route), and also saves it atomically into ``export_dir`` when ``save_copies``;
+  CSV of the table (with its metadata file, see :mod:`climwidgets.report.tables`) and
+  PNG of the map are there by default.
 """
 
 from __future__ import annotations
@@ -205,6 +208,8 @@ class BaseWidget(widgets.VBox):
         self.table_html = widgets.HTML(_CSS + "<i>No rows yet.</i>")
         self.chart = widgets.Image(format="png", layout=widgets.Layout(max_width="640px")) if chart else None
         self.exports = widgets.HBox([])
+        self.downloads = widgets.HTML("")
+        self.last_saved = []
         self.add_export("Table as CSV", self._write_csv, "csv")
         if self.map is not None:
             self.add_export("Map as PNG", lambda path: path.write_bytes(self.map.png_bytes()), "png")
@@ -216,7 +221,7 @@ class BaseWidget(widgets.VBox):
         children += [widgets.HBox(panels), self.table_html]
         if self.chart is not None:
             children.append(self.chart)
-        children += [self.exports, self.progress, self.message]
+        children += [self.exports, self.downloads, self.progress, self.message]
         super().__init__(children=children)
 
     # ------------------------------------------------------------ for subclasses
@@ -477,16 +482,20 @@ class BaseWidget(widgets.VBox):
 
     # ------------------------------------------------------------ exports
     def add_export(self, label, write, suffix, stem=None):
-        """Add a button that writes ``export_dir/<stem>.<suffix>`` via ``write(path)``.
+        """Add a button that exports one file via ``write(path)`` and hands it to the browser.
 
-        ``write`` receives a temporary path next to the target; the base renames it into
-        place (atomic) under a name that does not exist yet.
+        ``write`` receives a path in a fresh temporary folder under the file's final name;
+        it may write companion files beside it (a CSV's metadata file).  Every file
+        written there becomes a download link in the page (:attr:`downloads`, the bytes
+        inside the link: nothing goes over the network) and, when :attr:`save_copies` is
+        true, is also moved atomically into ``export_dir`` under a name not yet taken.
         """
-        button = widgets.Button(description=label, icon="download", layout=widgets.Layout(width="auto"))
+        button = widgets.Button(description=label, icon="download", layout=widgets.Layout(width="auto"),
+                                tooltip=f"{label}: prepares a download link below")
 
         def on_click(_):
             try:
-                path = self.export(write, suffix, stem)
+                files = self.export_files(write, suffix, stem)
             except InputError as exc:
                 self._show_error(exc)
             except Exception as exc:  # a message in the widget, not a silent failure in a callback
@@ -494,20 +503,128 @@ class BaseWidget(widgets.VBox):
                                             source=str(self.export_dir),
                                             fix="check the export folder (widget.export_dir) and try again"))
             else:
-                self.say(f"Saved {path}")
+                self.offer_downloads(files)
+                saved = self.last_saved
+                where = f"; a copy is in {saved[0].parent}" if saved else ""
+                self.say(f"Ready: click the link{'s' if len(files) > 1 else ''} above to download{where}.")
 
         button.on_click(on_click)
         self.exports.children = (*self.exports.children, button)
         return button
 
+    # ------------------------------------------------------------ exports
+    save_copies = True     # also keep every export in export_dir (beside the notebook)
+
+    def export_tag(self) -> str:
+        """Settings and basin set for export file names, e.g. ``jul-aug_1991-2020_3-basins``."""
+        try:
+            params = self.parameters()
+        except Exception:  # noqa: BLE001 - a name is no place to report a bad control
+            params = {}
+        parts = []
+        months = params.get("months")
+        if isinstance(months, (list, tuple)) and months and all(isinstance(m, int) for m in months):
+            from ..compute._time import MONTH_NAMES
+            parts.append(f"{MONTH_NAMES[months[0] - 1][:3]}-{MONTH_NAMES[months[-1] - 1][:3]}".lower())
+        for key in ("baseline", "years"):
+            span = params.get(key)
+            if isinstance(span, (list, tuple)) and len(span) == 2:
+                parts.append(f"{span[0]}-{span[1]}")
+        if self.basin_set is not None and len(self.basin_set):
+            parts.append(f"{len(self.basin_set)}-basins")
+        return "_".join(parts)
+
+    def export_name(self, stem, suffix) -> str:
+        """File name saying what it is: analysis, settings, basin set and date."""
+        from datetime import date
+
+        tag = self.export_tag()
+        return "_".join(p for p in (stem or self.export_stem, tag, date.today().strftime("%Y%m%d")) if p) \
+            + f".{suffix}"
+
+    def export_files(self, write, suffix, stem=None) -> dict:
+        """Run ``write`` now; returns ``{file name: bytes}`` of what it wrote (and saves copies)."""
+        import tempfile
+
+        name = self.export_name(stem, suffix)
+        with tempfile.TemporaryDirectory(prefix="climwidgets-export-") as tmp:
+            write(Path(tmp) / name)
+            written = sorted(Path(tmp).iterdir(), key=lambda p: (p.name != name, p.name))
+            if not written or written[0].name != name:
+                raise InputError(f"the export wrote no {name}", source=type(self).__name__,
+                                 fix="report this as a bug of the widget")
+            files = {p.name: p.read_bytes() for p in written}
+        self.last_saved = self._save_copies(files) if self.save_copies else []
+        return files
+
+    def _save_copies(self, files: dict) -> list:
+        """Move ``files`` into ``export_dir`` atomically; companions keep the main file's new stem."""
+        first = next(iter(files))
+        folder = self.export_dir
+        folder.mkdir(parents=True, exist_ok=True)
+        main = unique_path(folder, first)
+        while any((folder / (main.name + n[len(first):])).exists() for n in files if n != first):
+            main = unique_path(folder, main.stem + "-x" + main.suffix)
+        saved = []
+        for n, data in files.items():
+            target = folder / (main.name + n[len(first):]) if n != first else main
+            saved.append(atomic_write(target, False, lambda tmp, data=data: tmp.write_bytes(data),
+                                      f"{type(self).__name__} export"))
+        return saved
+
+    def offer_downloads(self, files: dict):
+        """Show a download link per file; the bytes travel inside the link (no network)."""
+        import base64
+        import mimetypes
+
+        links = []
+        for n, data in files.items():
+            mime = "application/json" if n.endswith(".json") else (mimetypes.guess_type(n)[0]
+                                                                     or "application/octet-stream")
+            href = f"data:{mime};base64,{base64.b64encode(data).decode('ascii')}"
+            links.append(f"<a class='cw-download' download='{html.escape(n, quote=True)}' href='{href}' "
+                         f"style='margin-right:14px'>&#x2B07; {html.escape(n)}</a>"
+                         f" <small>({len(data) / 1024:.1f} kB)</small>")
+        self.downloads.value = "<div style='margin:4px 0'>" + " ".join(links) + "</div>"
+
     def export(self, write, suffix, stem=None):
-        """Write one export now; returns its path."""
-        target = unique_path(self.export_dir, f"{stem or self.export_stem}.{suffix}")
-        target.parent.mkdir(parents=True, exist_ok=True)
-        return atomic_write(target, False, write, f"{type(self).__name__} export")
+        """Write one export now into ``export_dir``; returns its path."""
+        keep = self.save_copies
+        self.save_copies = True
+        try:
+            self.export_files(write, suffix, stem)
+        finally:
+            self.save_copies = keep
+        return self.last_saved[0]
+
+    def csv_provenance(self) -> dict:
+        """Settings and inputs that travel with this widget's CSV (its metadata file)."""
+        try:
+            params = self.parameters()
+        except Exception:  # noqa: BLE001 - the CSV of the current table, settings unknown
+            params = {}
+        clean = {}
+        for key, value in params.items():
+            if key == "basins":
+                value = [getattr(b, "name", str(b)) for b in (value or [])]
+            elif hasattr(value, "dims"):
+                continue
+            clean[key] = value
+        pr = getattr(self, "pr", None)
+        source = getattr(pr, "encoding", {}).get("source") if pr is not None else None
+        return {"title": self.title or self.export_stem, "parameters": clean,
+                "inputs": [source] if source else None}
+
+    def write_table_csv(self, table, path, provenance=None, float_format=None):
+        """Write ``table`` and its metadata with the package's one CSV writer."""
+        from ..report.tables import csv_files
+
+        files = csv_files(table, Path(path).name, provenance or self.csv_provenance(), float_format=float_format)
+        for n, data in files.items():
+            (Path(path).parent / n).write_bytes(data)
 
     def _write_csv(self, path):
         if self.table is None:
             raise InputError("there is no table to export yet", source=type(self).__name__,
                               fix="wait for the computation to finish")
-        self.table.to_csv(path)
+        self.write_table_csv(self.table, path)

@@ -201,15 +201,14 @@ class ExtremesWidget(BaseWidget):
         return None if warmed is None else depth_table(warmed, period=t, display=True)
 
     def _write_depths(self, path):
-        from ..report.tables import to_csv
-
         warmed = self.warmed()
         if warmed is None:
             raise ParameterError("there are no basin depths yet", source="design-storm depths",
                                  fix="wait for the computation to finish")
-        to_csv(depth_table(warmed), path, overwrite=True,
-               provenance={"notes": [warmed.attrs.get("note", "")], "cautions": DESIGN_DEPTH_CAUTIONS,
-                           "title": "basin return levels"})
+        prov = self.csv_provenance()
+        prov.update(notes=[warmed.attrs.get("note", "")], cautions=DESIGN_DEPTH_CAUTIONS,
+                    title="basin return levels")
+        self.write_table_csv(depth_table(warmed), path, provenance=prov)
 
     def _chart(self):
         from ..plot.charts import areal_depth_chart

@@ -223,4 +223,6 @@ class SeasonalShareWidget(HostsDrawingTools, BaseWidget):
         if self.result is None or "per_year" not in self.result:
             raise ParameterError("there are no basin series yet", source="seasonal share",
                                  fix="draw or load a basin first")
-        (100 * self.result["per_year"]).to_pandas().T.to_csv(path, float_format="%.4f")
+        table = (100 * self.result["per_year"]).to_pandas().T
+        table.columns = [f"{c} seasonal share [%]" for c in table.columns]
+        self.write_table_csv(table, path, float_format="%.4f")

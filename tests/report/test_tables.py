@@ -1,4 +1,4 @@
-"""CSV export: provenance header, units kept in column names, cautions, atomic writes."""
+"""CSV export: plain table + metadata file, units kept in column names, cautions, formula guard, atomic writes."""
 
 from __future__ import annotations
 
@@ -10,7 +10,7 @@ import climwidgets as cw
 from climwidgets.errors import InputError, ParameterError
 from climwidgets.report import tables as tmod
 from climwidgets.report._provenance import describe_input
-from climwidgets.report.tables import read_csv, to_csv
+from climwidgets.report.tables import csv_files, metadata_path, read_csv, read_metadata, to_csv
 
 
 def _summary():
@@ -22,7 +22,13 @@ def _summary():
 
 
 def _header(path):
-    return [line for line in path.read_text(encoding="utf-8").splitlines() if line.startswith("#")]
+    """The metadata as the old '# ' lines, to keep the checks readable."""
+    meta = read_metadata(path)
+    lines = [meta["tool"] + ": " + meta["title"], "written: " + meta["written"]]
+    lines += ["input: " + i for i in meta["inputs_in_words"]]
+    lines += [f"parameter: {k} = {v}" for k, v in meta["parameters_in_words"].items()]
+    lines += ["note: " + n for n in meta["notes"]] + ["caution: " + c for c in meta["cautions"]]
+    return ["# " + line for line in lines]
 
 
 def test_header_then_table_round_trips(tmp_path):
@@ -38,7 +44,7 @@ def test_header_then_table_round_trips(tmp_path):
     assert "# parameter: months = 7, 8" in head and "# parameter: baseline = 1991, 2020" in head
     assert "# parameter: year_start = 10" in head
     assert any(h.startswith("# note: planning-level") for h in head)
-    back = read_csv(path, index_col="basin")
+    back = pd.read_csv(path, index_col="basin")  # a plain pandas read
     assert list(back.columns) == ["area_km2", "annual_mean_mm", "seasonal_share_1", "volume_per_year_m3"]
     pd.testing.assert_frame_equal(back, _summary(), check_exact=True)
 
@@ -53,7 +59,7 @@ def test_volumes_and_design_depths_get_cautions_plain_tables_do_not(tmp_path):
     plain = pd.DataFrame({"month": [1, 2], "normal_mm": [80.0, 70.0]})
     head = _header(to_csv(plain, tmp_path / "c.csv"))
     assert not any(h.startswith("# caution:") for h in head)
-    assert "month" in (tmp_path / "c.csv").read_text().splitlines()[len(head)]  # RangeIndex not written
+    assert (tmp_path / "c.csv").read_text().splitlines()[0] == "month,normal_mm"  # RangeIndex not written
 
 
 def test_text_cannot_break_the_header_or_run_as_a_formula(tmp_path):
@@ -76,7 +82,7 @@ def test_refuses_overwrite_and_failed_write_leaves_old_file(tmp_path, monkeypatc
     def boom(self, *a, **k):
         raise OSError("disk full (simulated)")
 
-    monkeypatch.setattr(tmod.Path, "write_text", boom)
+    monkeypatch.setattr(tmod.Path, "write_bytes", boom)
     with pytest.raises(OSError, match="simulated"):
         to_csv(_summary(), path, overwrite=True)
     monkeypatch.undo()
@@ -84,6 +90,7 @@ def test_refuses_overwrite_and_failed_write_leaves_old_file(tmp_path, monkeypatc
     assert [p.name for p in tmp_path.iterdir()] == ["s.csv"]
     to_csv(_summary(), path, overwrite=True)
     assert read_csv(path).shape == (2, 5)
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["s.csv", "s.csv-metadata.json"]
 
 
 def test_bad_arguments(tmp_path):
@@ -92,6 +99,47 @@ def test_bad_arguments(tmp_path):
     with pytest.raises(ParameterError, match="unknown keys"):
         to_csv(_summary(), tmp_path / "x.csv", provenance={"input": "typo"})
     assert list(tmp_path.iterdir()) == []
+
+
+def test_plain_pandas_reads_it_and_every_setting_is_in_the_metadata(tmp_path):
+    path = to_csv(_summary(), tmp_path / "s.csv", provenance={"parameters": {"year_start": 10, "how": "ratio"}})
+    back = pd.read_csv(path)  # no skiprows, no comment handling
+    assert list(back.columns) == ["basin", "area_km2", "annual_mean_mm", "seasonal_share_1", "volume_per_year_m3"]
+    meta = read_metadata(path)
+    assert metadata_path(path).name == "s.csv-metadata.json"  # W3C CSVW: append -metadata.json
+    assert meta["url"] == "s.csv" and meta["index"] == ["basin"]
+    assert meta["parameters"] == {"months": [7, 8], "baseline": [1991, 2020], "year_start": 10, "how": "ratio"}
+    assert meta["tool"] == f"climwidgets {cw.__version__}"
+    # the bytes a widget hands to the browser are the bytes on disk
+    files = csv_files(_summary(), "s.csv", provenance={"parameters": {"year_start": 10, "how": "ratio"}})
+    assert files["s.csv"] == path.read_bytes()
+
+
+# Payloads from OWASP "CSV Injection" (owasp.org/www-community/attacks/CSV_Injection): cells
+# starting with = + - @ tab or carriage return are run as formulas by spreadsheets.
+_PAYLOADS = ["=HYPERLINK(\"http://x\",\"y\")", "+1-1", "@SUM(1+1)", "-2+3", "\t=1", "\r=1"]
+
+
+def test_formula_guard_on_every_cell_index_level_and_header(tmp_path):
+    n = len(_PAYLOADS)
+    idx = pd.MultiIndex.from_arrays([_PAYLOADS, _PAYLOADS[::-1]], names=["=name", "@product"])
+    t = pd.DataFrame({"+title": _PAYLOADS, "depth_mm": range(n)}, index=idx)
+    path = to_csv(t, tmp_path / "x.csv")
+    back = pd.read_csv(path, keep_default_na=False, dtype=str)
+    texts = list(back.columns) + [v for col in back.columns for v in back[col] if col != "depth_mm"]
+    assert len(texts) == 4 + 3 * n
+    for text in texts:
+        assert not text.startswith(("=", "+", "-", "@", "\t", "\r")), text
+    assert list(back["'=name"]) == ["'" + p for p in _PAYLOADS]
+    assert list(back["'@product"]) == ["'" + p for p in _PAYLOADS[::-1]]
+    assert list(back["depth_mm"]) == [str(i) for i in range(n)]  # numbers untouched
+    assert list(t.index.get_level_values(0)) == _PAYLOADS  # the caller's table is not modified
+
+
+def test_several_header_rows_are_refused(tmp_path):
+    t = pd.DataFrame([[1, 2]], columns=pd.MultiIndex.from_tuples([("a", "x"), ("a", "y")]))
+    with pytest.raises(ParameterError, match="header rows"):
+        to_csv(t, tmp_path / "x.csv")
 
 
 def test_large_files_are_described_by_size_and_time(tmp_path):

@@ -41,3 +41,55 @@ def click(frame, lon, lat, dblclick=False, name="button_press_event"):
         MouseEvent(name, frame.canvas, x, y, button=1, dblclick=dblclick)._process()
     else:
         MouseEvent(name, frame.canvas, x, y)._process()
+
+
+def download_links(w):
+    """{file name: bytes} of the download links a widget shows (its :attr:`downloads`)."""
+    import base64
+    import html
+    import re
+
+    found = re.findall(r"download='([^']+)' href='data:[^;]+;base64,([^']*)'", w.downloads.value)
+    return {html.unescape(n): base64.b64decode(b) for n, b in found}
+
+
+def check_every_export(w):
+    """Click every export button of ``w`` (copies off); return ``{label: {name: bytes}}``.
+
+    Every CSV must read with a plain ``pandas.read_csv`` and carry a metadata file with
+    the widget's settings; the "Table as CSV" must hold the shown table's numbers.
+    """
+    import io
+    import json
+
+    import pandas as pd
+
+    w.save_copies = False
+    out = {}
+    for button in w.exports.children:
+        w.downloads.value = ""
+        button.click()
+        assert w.error is None, (button.description, w.message.value)
+        links = download_links(w)
+        assert links, button.description
+        out[button.description] = links
+        for name, data in links.items():
+            assert data, name
+            if name.endswith(".csv"):
+                table = pd.read_csv(io.BytesIO(data))
+                assert len(table) > 0, name
+                meta = json.loads(links[name + "-metadata.json"])
+                assert meta["url"] == name and meta["parameters"], name
+                if button.description == "Table as CSV":
+                    nidx = len(meta["index"])
+                    shown = w.table.select_dtypes("number")
+                    back = table.iloc[:, nidx:][[str(c) for c in shown.columns]]
+                    np.testing.assert_allclose(back.to_numpy(dtype=float), shown.to_numpy(dtype=float),
+                                               rtol=1e-12, equal_nan=True)
+            elif name.endswith(".png"):
+                assert data[:4] == b"\x89PNG"
+            elif name.endswith(".html"):
+                assert b"<html" in data[:500].lower()
+            elif name.endswith(".nc"):
+                assert data[:4] in (b"\x89HDF", b"CDF\x01", b"CDF\x02")
+    return out

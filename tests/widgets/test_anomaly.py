@@ -12,6 +12,7 @@ import xarray as xr
 
 import climwidgets as cw
 from climwidgets.widgets.anomaly import season_months, step_labels
+from ._data import check_every_export
 
 pytest.importorskip("ipympl")
 
@@ -127,3 +128,10 @@ def test_without_basins_uses_whole_grid():
     expected = cw.anomaly(mean, baseline=(2001, 2010), kind="percent")
     np.testing.assert_allclose(w.basin_series["whole grid"].to_numpy(), expected.values, rtol=1e-9)
     assert step_labels(w.result)[0] == "2001-01"
+
+
+def test_every_export_reaches_the_browser(setup):
+    """Each button gives a download link whose bytes are the result (CSV read by plain pandas)."""
+    w = setup[-1]
+    got = check_every_export(w)
+    assert set(got) == {b.description for b in w.exports.children}

@@ -2,9 +2,15 @@
 
 from __future__ import annotations
 
+import html
+import io
+import json
 import threading
+from datetime import date
 
 import ipywidgets as widgets
+import numpy as np
+import pandas as pd
 import pytest
 
 from climwidgets.compute.totals import annual_totals
@@ -96,14 +102,41 @@ def test_csv_export_is_written_and_never_overwrites(tmp_path):
     csv_button = w.exports.children[0]
     csv_button.click()
     csv_button.click()
-    assert sorted(p.name for p in tmp_path.iterdir()) == ["climwidgets-2.csv", "climwidgets.csv"]
-    assert "Saved" in w.message.value
-    assert unique_path(tmp_path, "climwidgets.csv").name == "climwidgets-3.csv"
+    day = date.today().strftime("%Y%m%d")
+    name = f"climwidgets_{day}.csv"
+    assert sorted(p.name for p in tmp_path.iterdir()) == sorted(
+        [name, name + "-metadata.json", f"climwidgets_{day}-2.csv", f"climwidgets_{day}-2.csv-metadata.json"])
+    assert "to download" in w.message.value and str(tmp_path) in w.message.value
+    assert unique_path(tmp_path, name).name == f"climwidgets_{day}-3.csv"
+
+
+def _links(w):
+    """{file name: bytes} of the download links the widget shows."""
+    import base64
+    import re
+
+    found = re.findall(r"download='([^']+)' href='data:[^;]+;base64,([^']*)'", w.downloads.value)
+    return {html.unescape(n): base64.b64decode(b) for n, b in found}
+
+
+def test_csv_download_link_holds_the_table_and_its_settings(tmp_path):
+    w = _Totals(monthly_pr(), export_dir=tmp_path)
+    w.year_start.value = 10
+    w.wait()
+    w.save_copies = False
+    w.exports.children[0].click()
+    links = _links(w)
+    name = f"climwidgets_{date.today().strftime('%Y%m%d')}.csv"
+    assert list(links) == [name, name + "-metadata.json"] and list(tmp_path.iterdir()) == []
+    back = pd.read_csv(io.BytesIO(links[name]), index_col=[0, 1])  # a plain pandas read
+    np.testing.assert_allclose(back.to_numpy(dtype=float), w.table.to_numpy(dtype=float), rtol=1e-12)
+    meta = json.loads(links[name + "-metadata.json"])
+    assert meta["parameters"]["year_start"] == 10 and meta["url"] == name
 
 
 def test_export_before_any_result_is_a_message(tmp_path):
     w = BaseWidget(export_dir=tmp_path)
     w.exports.children[0].click()
-    assert "no table to export" in w.message.value
+    assert "no table to export" in w.message.value and w.downloads.value == ""
     with pytest.raises(NotImplementedError):
         w.compute()

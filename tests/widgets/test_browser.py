@@ -169,3 +169,55 @@ def test_season_change_and_drawing_in_the_browser(page, server, demo, tmp_path):
     keep = REPO / "out" / "screenshots"
     keep.mkdir(parents=True, exist_ok=True)
     shutil.copy(shot, keep / shot.name)
+
+
+def test_every_export_button_downloads_in_the_browser(page, server, demo, tmp_path):
+    """Each export button shows links; clicking a link is a browser download whose bytes
+    are the analysis result (the CSV read with plain pandas, its settings in the metadata)."""
+    import io
+    import json
+
+    import pandas as pd
+
+    _, paths = demo
+    pr = cw.open_precip(paths["monthly"])
+    basin = cw.Basin.from_geojson(paths["basins"])[0]
+    share = float(cw.seasonal_fraction(cw.basin_mean(pr, basin), months=(7, 8)))
+    page.goto(server, timeout=180_000)
+    page.wait_for_function(f"() => ({_ROW_TEXT})([{basin.name!r}, 1]) === {_share_text(share)!r}",
+                           timeout=180_000)
+    buttons = page.locator("button:has(i.fa-download)")
+    labels = [t.strip() for t in buttons.all_inner_texts()]
+    assert {"Table as CSV", "Map as PNG", "Per-year shares as CSV"} <= set(labels)
+    got = {}
+    for i, label in enumerate(labels):
+        buttons.nth(i).click()
+        links = page.locator("a.cw-download")
+        links.first.wait_for(timeout=60_000)
+        page.wait_for_function(
+            "(n) => document.querySelectorAll('a.cw-download').length > 0 && "
+            "[...document.querySelectorAll('a.cw-download')].every(a => a.download.includes(n))",
+            arg={"Table as CSV": "seasonal_share_", "Map as PNG": ".png",
+                 "Per-year shares as CSV": "per_year"}.get(label, ""), timeout=60_000)
+        for j in range(links.count()):
+            with page.expect_download(timeout=60_000) as info:
+                links.nth(j).click()
+            download = info.value
+            got[download.suggested_filename] = Path(download.path()).read_bytes()
+    day = __import__("datetime").date.today().strftime("%Y%m%d")
+    table_name = next(n for n in got if n.startswith("seasonal_share_jul-aug") and n.endswith(".csv"))
+    assert day in table_name
+    table = pd.read_csv(io.BytesIO(got[table_name]), index_col=0)
+    col = next(c for c in table.columns if "share" in c and "%" in c)
+    assert table.loc[basin.name, col] == pytest.approx(100 * share, rel=1e-6)
+    meta = json.loads(got[table_name + "-metadata.json"])
+    assert meta["parameters"]["months"] == [7, 8] and meta["url"] == table_name
+    png = next(v for n, v in got.items() if n.endswith(".png"))
+    assert png[:4] == b"\x89PNG"
+    per_year = next(n for n in got if "per_year" in n and n.endswith(".csv"))
+    years = pd.read_csv(io.BytesIO(got[per_year]), index_col=0)
+    assert years.shape[0] > 5 and any(basin.name in c for c in years.columns)
+    page.screenshot(path=str(tmp_path / "exports.png"), full_page=True)
+    keep = REPO / "out" / "screenshots"
+    keep.mkdir(parents=True, exist_ok=True)
+    shutil.copy(tmp_path / "exports.png", keep / "seasonal_share_downloads.png")

@@ -11,6 +11,7 @@ import pytest
 import xarray as xr
 
 import climwidgets as cw
+from ._data import check_every_export
 
 pytest.importorskip("ipympl")
 
@@ -127,3 +128,30 @@ def test_a_basin_joining_the_set_computes_only_its_own_rows(setup, monkeypatch):
     w.wait()
     assert calls == [["middle"]]
     assert "south-west" not in w.basin_table.index.get_level_values("basin")
+
+def test_every_export_reaches_the_browser(setup):
+    """Each button gives a download link whose bytes are the result (CSV read by plain pandas)."""
+    w = setup[-1]
+    got = check_every_export(w)
+    assert set(got) == {b.description for b in w.exports.children}
+
+
+def test_basin_and_product_names_cannot_become_spreadsheet_formulas():
+    """Issue 21: basin and product names reach the CSV as text, never as live formulas
+    (payloads from OWASP "CSV Injection")."""
+    import io
+
+    import pandas as pd
+
+    products = {"=HYPERLINK(1)": _product(0.5, seed=1), "+1-1": _product(1.0, seed=2)}
+    basins = [cw.Basin.from_vertices([(60.0, -5.0), (61.0, -5.0), (61.0, -4.0), (60.0, -4.0)], name="@SUM(1+1)"),
+              cw.Basin.from_vertices([(61.0, -4.0), (62.0, -4.0), (62.0, -3.0), (61.0, -3.0)], name="-2+3")]
+    w = cw.ComparisonWidget(products, basins=basins, export_dir="unused")
+    w.wait()
+    got = check_every_export(w)
+    csv = next(v for k, v in got["Table as CSV"].items() if k.endswith(".csv"))
+    back = pd.read_csv(io.BytesIO(csv), dtype=str, keep_default_na=False)
+    texts = list(back.columns) + [v for c in back.columns for v in back[c]]
+    assert not [t for t in texts if t.startswith(("=", "+", "@", "\t", "\r")) or
+                (t.startswith("-") and not t[1:].replace(".", "", 1).replace("e-", "", 1).isdigit())]
+    assert any(t in ("'@SUM(1+1)", "'-2+3") for t in texts)

@@ -16,6 +16,7 @@ import xarray as xr
 
 import climwidgets as cw
 from climwidgets.widgets.extremes import PERIODS
+from ._data import check_every_export
 
 pytest.importorskip("ipympl")
 
@@ -117,3 +118,10 @@ def test_hourly_durations():
     assert w.duration.label == "24 hours"
     w.wait()
     xr.testing.assert_allclose(w.levels, _levels(pr, duration_hours=24))
+
+
+def test_every_export_reaches_the_browser(setup):
+    """Each button gives a download link whose bytes are the result (CSV read by plain pandas)."""
+    w = setup[-1]
+    got = check_every_export(w)
+    assert set(got) == {b.description for b in w.exports.children}

@@ -14,6 +14,7 @@ import pytest
 import xarray as xr
 
 import climwidgets as cw
+from ._data import check_every_export
 
 pytest.importorskip("ipympl")
 
@@ -128,3 +129,10 @@ def test_drawn_crest_and_layers(setup):
     w.clear_crest()
     w.wait()
     assert w.crest_mode.value == "terrain" and w.drawn_crest == []
+
+
+def test_every_export_reaches_the_browser(setup):
+    """Each button gives a download link whose bytes are the result (CSV read by plain pandas)."""
+    w = setup[-1]
+    got = check_every_export(w)
+    assert set(got) == {b.description for b in w.exports.children}

@@ -2,7 +2,12 @@
 
 from __future__ import annotations
 
+import io
+import json
+from datetime import date
+
 import numpy as np
+import pandas as pd
 import pytest
 import xarray as xr
 
@@ -12,7 +17,7 @@ from climwidgets.errors import ParameterError
 from climwidgets.geo.aggregate import basin_mean
 from climwidgets.widgets.seasonal import SeasonalShareWidget, season_months
 
-from ._data import basins, click, monthly_pr
+from ._data import basins, check_every_export, click, monthly_pr
 
 
 @pytest.fixture(scope="module")
@@ -114,9 +119,27 @@ def test_dask_input_same_numbers(pr):
 
 def test_exports(widget, tmp_path):
     widget.export_dir = tmp_path
+    widget.save_copies = True
     for button in widget.exports.children:
         button.click()
+    day = date.today().strftime("%Y%m%d")
+    tag = "jul-aug_3-basins" if len(widget.basin_set) == 3 else None
     names = sorted(p.name for p in tmp_path.iterdir())
-    assert names == ["seasonal_share.csv", "seasonal_share.png", "seasonal_share_per_year.csv"]
-    assert np.isfinite(np.loadtxt(tmp_path / "seasonal_share_per_year.csv", delimiter=",", skiprows=1,
-                                  usecols=1)).all()
+    assert len(names) == 5 and all(n.endswith(("csv", "png", "json")) and day in n for n in names)
+    if tag:
+        assert all(tag in n for n in names)
+    per_year = next(p for p in tmp_path.iterdir() if p.name.startswith("seasonal_share_per_year")
+                    and p.suffix == ".csv")
+    assert np.isfinite(pd.read_csv(per_year).iloc[:, 1]).all()
+
+
+def test_every_export_reaches_the_browser(widget):
+    got = check_every_export(widget)
+    assert set(got) == {b.description for b in widget.exports.children}
+    per_year = next(v for k, v in got.items() if "Per-year" in k)
+    name = next(n for n in per_year if n.endswith(".csv"))
+    back = pd.read_csv(io.BytesIO(per_year[name]), index_col=0)
+    expected = (100 * widget.result["per_year"]).to_pandas().T
+    np.testing.assert_allclose(back.to_numpy(), expected.to_numpy(), atol=1e-4)
+    meta = json.loads(per_year[name + "-metadata.json"])
+    assert meta["parameters"]["months"] == list(widget.parameters()["months"])

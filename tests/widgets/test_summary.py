@@ -12,7 +12,7 @@ from climwidgets.geo.aggregate import ACRE_FOOT_M3, basin_mean
 from climwidgets.analyses.basins import basin_summary, scenario_delta
 from climwidgets.widgets.summary import BasinSummaryWidget
 
-from ._data import basins, monthly_pr
+from ._data import check_every_export, basins, monthly_pr
 
 
 @pytest.fixture(scope="module")
@@ -60,10 +60,18 @@ def test_exports(pr, tmp_path):
         button.click()
     written = sorted(p.suffix for p in tmp_path.iterdir())
     expected = {"csv": ".csv", "netcdf": ".nc", "html": ".html"}
-    assert written == sorted([".png"] + [expected[f] for f in w.export_formats])
+    meta = [".json"] if "csv" in w.export_formats else []  # the CSV's metadata file
+    assert written == sorted([".png"] + meta + [expected[f] for f in w.export_formats])
     assert "Traceback" not in w.message.value and w.error is None
 
 
 def test_baseline_outside_the_record_is_clipped(pr):
     w = BasinSummaryWidget(pr, basins())
     assert w.baseline.value == (2001, 2012)
+
+
+def test_every_export_reaches_the_browser(pr):
+    w = BasinSummaryWidget(pr, basins(), baseline=(2001, 2010), export_dir="unused")
+    w.wait()
+    got = check_every_export(w)
+    assert set(got) == {b.description for b in w.exports.children}
