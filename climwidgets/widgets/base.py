@@ -568,8 +568,10 @@ class BaseWidget(widgets.VBox):
         saved = []
         for n, data in files.items():
             target = folder / (main.name + n[len(first):]) if n != first else main
-            saved.append(atomic_write(target, False, lambda tmp, data=data: tmp.write_bytes(data),
-                                      f"{type(self).__name__} export"))
+            def write(tmp: Path, data: bytes = data) -> None:
+                tmp.write_bytes(data)
+
+            saved.append(atomic_write(target, False, write, f"{type(self).__name__} export"))
         return saved
 
     def offer_downloads(self, files: dict):
