@@ -8,6 +8,8 @@ section and CSV, and user text is escaped.
 
 import re
 
+import json
+
 import numpy as np
 import pandas as pd
 
@@ -15,7 +17,7 @@ import climwidgets as cw
 from climwidgets.analyses.ddf_table import ddf_long_table, ddf_wide_table
 from climwidgets.analyses.indices import basin_index_table, gridded_indices
 from climwidgets.report import indices_section as S
-from climwidgets.report.tables import read_csv
+from climwidgets.report.tables import read_csv, read_metadata
 
 from ..analyses.test_indices import _daily
 
@@ -67,12 +69,14 @@ def test_ddf_in_inches_and_csv_files(tmp_path):
     assert "depth [in]" in shown.columns
     path = S.ddf_csv(inches, tmp_path / "ddf.csv")
     text = path.read_text()
-    assert "ddf_estimate_in" in text and "# caution: Defer to" in text
+    # the table alone in the CSV; its cautions and units in the metadata file beside it
+    meta_text = json.dumps(read_metadata(path))
+    assert "ddf_estimate_in" in text and "Defer to" in meta_text
     back = read_csv(path)
     assert len(back) == 9
     path = S.indices_csv(table, tmp_path / "idx.csv")
-    text = path.read_text()
-    assert "index_mean [mm]" in text and "index_slope [mm/yr]" in text
+    meta_text = json.dumps(read_metadata(path), ensure_ascii=False)
+    assert "index_mean [mm]" in meta_text and "index_slope [mm/yr]" in meta_text
     assert "index_mean" in read_csv(path).columns
 
 
