@@ -50,6 +50,16 @@ def _failing_write_text(exc):
     return write_text
 
 
+def _failing_write_bytes(exc):
+    original = Path.write_bytes
+
+    def write_bytes(self, data):
+        original(self, data[: len(data) // 2])  # half the file reaches the disk
+        raise exc
+
+    return write_bytes
+
+
 @pytest.mark.parametrize("exc", [OSError(errno.ENOSPC, "No space left on device"),
                                  PermissionError(errno.EACCES, "Permission denied")], ids=["disk_full", "permission"])
 @pytest.mark.parametrize("what", ["csv", "report"])
@@ -58,6 +68,7 @@ def test_failed_text_export_keeps_previous_file(tmp_path, monkeypatch, exc, what
     target.write_text("previous version\n")
     table = pd.DataFrame({"basin": ["upper"], "annual_mm": [1234.5]}).set_index("basin")
     monkeypatch.setattr(Path, "write_text", _failing_write_text(exc))
+    monkeypatch.setattr(Path, "write_bytes", _failing_write_bytes(exc))  # the CSV writer writes bytes
     with pytest.raises(OSError) as info:
         if what == "csv":
             cw.to_csv(table, target, overwrite=True)
