@@ -112,6 +112,14 @@ CATALOGUE: dict[str, Meta] = {
     "areal_lower_mm": Meta("lower", "mm", "lower end of the bootstrap interval", "mm", 1.0, ".1f"),
     "areal_upper_mm": Meta("upper", "mm", "upper end of the bootstrap interval", "mm", 1.0, ".1f"),
     "warming_factor": Meta("warming factor", "1", "(1 + rate) ** warming applied to the depths", "", 1.0, ".3f"),
+    # where a step stands in each basin's record (analyses.anomalies; label and units set per call)
+    "anomaly_at_step": Meta("anomaly", "", "the basin's anomaly at the step shown", None, 1.0, ".2f"),
+    "rank_from_driest": Meta("rank (1 = driest)", "1", "place of the step among the record's steps, counted "
+                             "from the driest", "", 1.0, ".0f"),
+    "steps_in_record": Meta("steps in record", "1", "steps of the record with a value", "", 1.0, ".0f"),
+    "driest_in_record": Meta("driest in record", "", "lowest anomaly of the record", None, 1.0, ".2f"),
+    "wettest_in_record": Meta("wettest in record", "", "highest anomaly of the record", None, 1.0, ".2f"),
+    "spi_class": Meta("SPI class", "", "class of the SPI value (WMO 2012, SPI User Guide, Table 1)", "", 1.0, ""),
     # windward / leeward bands
     "windward_mean": Meta("windward mean", "mm/yr", "mean annual total of the windward cells of the band",
                           "mm per year", 1.0, ",.0f"),

@@ -7,7 +7,7 @@ from __future__ import annotations
 
 import numpy as np
 
-__all__ = ["series_with_trend", "monthly_normals", "areal_depth_chart", "MONTH_LABELS"]
+__all__ = ["series_with_trend", "monthly_normals", "areal_depth_chart", "anomaly_chart", "spi_bands", "MONTH_LABELS"]
 
 from ..compute._time import MONTH_NAMES as MONTH_LABELS  # noqa: E402  (the one month-name table)
 
@@ -102,5 +102,58 @@ def areal_depth_chart(depths, warmed=None, period=None, duration="", ci=0.9, war
         text += f"; dashed: +{warming[0]:g} °C at {warming[1]:g} % per °C"
     ax.set_title(text, fontsize=8)
     ax.grid(alpha=0.3, which="both")
+    fig.tight_layout()
+    return fig
+
+
+def spi_bands(ax):
+    """Shade the SPI classes (WMO 2012, SPI User Guide, Table 1) from dry brown to wet green."""
+    import matplotlib
+
+    from ..compute.spi import SPI_CLASSES
+
+    cmap = matplotlib.colormaps["BrBG"]
+    edges = [c[0] for c in SPI_CLASSES]  # lower bounds from the top class down
+    tops = [np.inf] + edges[:-1]
+    n = len(SPI_CLASSES)
+    for i, ((lower, name), top) in enumerate(zip(SPI_CLASSES, tops)):
+        lo, hi = max(lower, -10.0), min(top, 10.0)
+        colour = cmap(1.0 - (i + 0.5) / n)
+        ax.axhspan(lo, hi, color=colour, alpha=0.25 if name != "near normal" else 0.08, lw=0)
+        mid = {"extremely wet": 2.5, "extremely dry": -2.5}.get(name, (lo + hi) / 2)
+        ax.text(1.005, mid, name, transform=ax.get_yaxis_transform(), fontsize=6, va="center",
+                color="0.25", clip_on=False)
+
+
+def anomaly_chart(series, step_index, kind, ylabel, title, figsize=(7.5, 3.0)):
+    """Basin anomaly series against time, the step shown marked by a dotted line.
+
+    ``series`` is the ``anomaly`` DataArray (basin, time or year) of
+    :func:`climwidgets.analyses.anomalies.basin_anomalies`; ``kind`` its kind ("spi"
+    shades the SPI classes, "percent" draws the 100 % line, others the zero line).
+    Returns the Figure.
+    """
+    from matplotlib.figure import Figure
+
+    from ..analyses.anomalies import decimal_time
+
+    fig = Figure(figsize=figsize)
+    ax = fig.add_subplot(1, 1, 1)
+    x = decimal_time(series)
+    if kind == "spi":
+        spi_bands(ax)
+    else:
+        ax.axhline(100.0 if kind == "percent" else 0.0, color="0.3", lw=0.8)
+    values = np.asarray(series.values, dtype=float)
+    for name, row in zip(series["basin"].values, values):
+        ax.plot(x, row, lw=1.0, label=str(name))
+    ax.axvline(x[step_index], color="k", ls=":", lw=1.0)
+    ax.set_ylabel(ylabel, fontsize=8)
+    ax.set_xlabel("year")
+    if kind in ("spi", "standardized") and np.isfinite(values).any():
+        ax.set_ylim(min(-3.0, np.nanmin(values) - 0.2), max(3.0, np.nanmax(values) + 0.2))
+    ax.grid(alpha=0.3)
+    ax.legend(fontsize=7, loc="upper left", ncol=4)
+    ax.set_title(title, fontsize=9)
     fig.tight_layout()
     return fig

@@ -29,6 +29,7 @@ __all__ = [
     "choose_projection",
     "projection_rule",
     "colour_style",
+    "record_limits",
     "draw_field",
     "update_field",
     "draw_basins",
@@ -122,6 +123,23 @@ def colour_style(kind: str = "total", values=None, vmin=None, vmax=None):
     if hi <= lo:
         hi = lo + (abs(lo) * 0.01 or 1.0)
     return cmap, lo, hi
+
+
+def record_limits(field, centre: float = 0.0, percentile: float = 98.0, floor: float = 1.0,
+                  ceiling: float | None = None):
+    """Colour limits symmetric about ``centre``, fixed over a whole record.
+
+    The half-width is the ``percentile`` of the absolute deviations from the centre over
+    every step, so that a few extreme cells do not wash out the map and every step of the
+    record is drawn on the same scale; it is kept between ``floor`` and ``ceiling``.
+    """
+    dev = np.abs(np.asarray(field, dtype=float) - centre)
+    dev = dev[np.isfinite(dev)]
+    half = float(np.percentile(dev, percentile)) if dev.size else floor
+    half = max(half, floor)
+    if ceiling is not None:
+        half = min(half, ceiling)
+    return centre - half, centre + half
 
 
 def field_label(field) -> str:

@@ -17,20 +17,23 @@ recompute anything.
 from __future__ import annotations
 
 import ipywidgets as widgets
-import numpy as np
-import pandas as pd
 import xarray as xr
 
+from ..analyses.anomalies import ANOMALY_KINDS, anomaly_field, anomaly_ranking, anomaly_series, decimal_time, \
+    step_labels
+from ..analyses.basins import basin_series
+from ..analyses.meta import frame
+from ..analyses.run import IN_MEMORY_BYTES, compute
 from ..compute._time import MONTH_NAMES, season_months
-from ..compute.anomaly import anomaly
-from ..compute.spi import SPI_CLASSES, SPI_SCALES, spi, spi_category
+from ..compute.spi import SPI_SCALES
 from ..errors import ParameterError
-from ..geo.aggregate import basin_mean
 from ..geo.basinset import whole_grid_basin
+from ..plot.charts import anomaly_chart
+from ..plot.maps import record_limits
 from .base import BaseWidget
 from .mapframe import MapFrame
 
-__all__ = ["AnomalyWidget", "whole_grid_basin", "step_labels", "decimal_time"]
+__all__ = ["AnomalyWidget", "whole_grid_basin", "step_labels", "decimal_time", "season_months"]
 
 PERIODS = [("month", "month"), ("season", "season"), ("year (Jan-Dec)", "year"),
            ("water year (Oct-Sep)", "water_year")]
@@ -39,25 +42,6 @@ KINDS = [("percent of normal", "percent"), ("difference from normal (mm)", "abso
 # colour style of the map for each kind (see climwidgets.plot.maps.KINDS)
 _MAP_KIND = {"absolute": "difference", "percent": "percent", "standardized": "standardized",
              "spi": "standardized"}
-from ..analyses.anomalies import UNIT_WORDS as _UNIT_WORDS  # noqa: E402
-from ..analyses.anomalies import step_table  # noqa: E402
-from ..analyses.run import IN_MEMORY_BYTES  # noqa: E402
-
-
-def step_labels(da) -> list[str]:
-    """Readable labels of the steps of a result: 'YYYY-MM' on a time axis, 'YYYY' on years."""
-    if "time" in da.dims:
-        t = da["time"]
-        return [f"{y:04d}-{m:02d}" for y, m in zip(t.dt.year.values, t.dt.month.values)]
-    return [str(int(y)) for y in da["year"].values]
-
-
-def decimal_time(da) -> np.ndarray:
-    """Year + (month - 1) / 12 on a time axis (any calendar), the year itself on years."""
-    if "time" in da.dims:
-        t = da["time"]
-        return t.dt.year.values + (t.dt.month.values - 1) / 12.0
-    return np.asarray(da["year"].values, dtype=float)
 
 
 class AnomalyWidget(BaseWidget):
@@ -147,19 +131,12 @@ class AnomalyWidget(BaseWidget):
             params.update(period=period, months=months, scale=None)
         return params
 
-    def _anomaly(self, pr, kind, period, months, scale, baseline):
-        if kind == "spi":
-            return spi(pr, scale=scale, baseline=baseline)
-        return anomaly(pr, baseline=baseline, kind=kind, period=period, months=months)
-
     @property
     def _series_basins(self):
         return self.basins_or_whole_grid(self._whole)
 
     def _inputs(self):
-        """The precipitation and the basin-mean series, each read once and kept."""
-        import dask
-
+        """The precipitation and the basin-mean series (basin, time), each read once and kept."""
         if self._cache is None:
             pr = self.pr
             # A small grid is read into memory once (analyses.run.IN_MEMORY_BYTES): anomaly
@@ -168,45 +145,39 @@ class AnomalyWidget(BaseWidget):
                 pr = pr.load()
             self._cache = pr
         pr = self._cache
-        new = {(b.token, b.name): basin_mean(pr, b) for b in self._series_basins
-               if (b.token, b.name) not in self._series}
-        if new:  # only basins not seen before
-            (done,) = dask.compute(new)
-            self._series.update(done)
-        return pr, {b.name: self._series[(b.token, b.name)] for b in self._series_basins}
+        basins = self._series_basins
+        new = [b for b in basins if (b.token, b.name) not in self._series]
+        if new:  # only basins not seen before, all in one weighted sum
+            (done,) = compute(basin_series(pr, new).reset_coords(drop=True))
+            for b in new:
+                self._series[(b.token, b.name)] = done.sel(basin=b.name)
+        series = xr.concat([self._series[(b.token, b.name)] for b in basins], dim="basin")
+        return pr, series
 
     def compute(self, **params):
-        pr, basin_pr = self._inputs()
-        field = self._anomaly(pr, **params)
-        series = {name: self._anomaly(s, **params) for name, s in basin_pr.items()}
-        classes = {n: spi_category(s) for n, s in series.items()} if params["kind"] == "spi" else {}
-        return {"field": field, "series": series, "classes": classes}
+        pr, series = self._inputs()
+        return {"field": anomaly_field(pr, **params), "basins": anomaly_series(series, **params)}
 
     def finish(self, computed, params):
         field = computed["field"]
-        series = computed["series"]
-        frame = pd.DataFrame({name: s.values for name, s in series.items()},
-                             index=pd.Index(step_labels(field), name="step"))
-        classes = pd.DataFrame({name: c.values for name, c in computed["classes"].items()},
-                               index=frame.index) if computed["classes"] else None
-        self._pending = {id(field): (frame, classes, self._colour_limits(field, params["kind"]))}
+        kind = params["kind"]
+        # one colour scale over the whole record, so that steps are comparable
+        if kind in ("spi", "standardized"):
+            limits = (-3.0, 3.0)
+        elif kind == "percent":  # percent of normal cannot fall below 0: keep within 0-200 %
+            limits = record_limits(field.values, centre=100.0, floor=10.0, ceiling=100.0)
+        else:
+            limits = record_limits(field.values, centre=0.0)
+        self._pending = {id(field): (computed["basins"], limits)}
         return field
 
-    def _colour_limits(self, field, kind):
-        """Symmetric limits fixed over the whole record, so steps are comparable."""
-        if kind in ("spi", "standardized"):
-            return -3.0, 3.0
-        centre = 100.0 if kind == "percent" else 0.0
-        dev = np.abs(np.asarray(field.values, dtype=float) - centre)
-        dev = dev[np.isfinite(dev)]
-        half = float(np.percentile(dev, 98)) if dev.size else 1.0
-        # percent of normal cannot fall below 0: keep the scale within 0-200 %
-        half = min(max(half, 10.0), 100.0) if kind == "percent" else max(half, 1.0)
-        return centre - half, centre + half
-
     def render(self, result, params):
-        frame, classes, limits = self._pending.pop(id(result), (None, None, None))
-        self.basin_series, self.basin_classes, self._limits = frame, classes, limits
+        self.basin_anomalies, self._limits = self._pending.pop(id(result), (None, None))
+        values = self.basin_anomalies["anomaly"]
+        self.basin_series = values.transpose("basin", ...).to_pandas().T
+        self.basin_series.index = step_labels(values)
+        self.basin_series.index.name = "step"
+        self.basin_series.columns.name = None
         self._params = params
         labels = step_labels(result)
         current = self.step.value
@@ -234,69 +205,16 @@ class AnomalyWidget(BaseWidget):
         return self.result.isel({dim: self.step_index})
 
     def _label(self):
-        units = self.result.attrs.get("units", "")
-        name = self.result.attrs.get("long_name", "anomaly")
-        return f"{name} [{_UNIT_WORDS.get(units, units)}]"
-
-    def _short_label(self):
-        p = self._params
-        return {"percent": "percent of normal [%]", "absolute": "difference from normal [mm]",
-                "standardized": "standardized anomaly [sd]"}.get(p["kind"], f"SPI, {p['scale']}-month [sd]")
+        """'label [units]' of the anomaly, the same words in colour bar, chart and table."""
+        return f"{self.result.attrs['label']} [{self.result.attrs['display_units']}]"
 
     def _show_step(self):
         field = self.shown()
         kind = self._params["kind"]
         vmin, vmax = self._limits
         self.map.show_field(field, kind=_MAP_KIND[kind], vmin=vmin, vmax=vmax, label=self._label(),
-                            title=f"{self.step.value}")
-        self.show_table(self._table())
-        self.show_chart(self._chart())
-
-    def _table(self):
-        return step_table(self.basin_series, self.step.value, self.result.attrs.get("units", ""),
-                          self.basin_classes)
-
-    def _chart(self):
-        from matplotlib.figure import Figure
-
-        kind = self._params["kind"]
-        fig = Figure(figsize=(7.5, 3.0))
-        ax = fig.add_subplot(1, 1, 1)
-        x = decimal_time(self.result)
-        if kind == "spi":
-            _spi_bands(ax)
-        else:
-            ax.axhline(100.0 if kind == "percent" else 0.0, color="0.3", lw=0.8)
-        if self.basin_series is not None:
-            for name in self.basin_series.columns:
-                ax.plot(x, self.basin_series[name].to_numpy(dtype=float), lw=1.0, label=str(name))
-        ax.axvline(x[self.step_index], color="k", ls=":", lw=1.0)
-        ax.set_ylabel(self._short_label(), fontsize=8)
-        ax.set_xlabel("year")
-        if kind in ("spi", "standardized"):
-            lo = np.nanmin(self.basin_series.to_numpy(dtype=float)) if self.basin_series is not None else -3
-            hi = np.nanmax(self.basin_series.to_numpy(dtype=float)) if self.basin_series is not None else 3
-            ax.set_ylim(min(-3.0, lo - 0.2), max(3.0, hi + 0.2))
-        ax.grid(alpha=0.3)
-        ax.legend(fontsize=7, loc="upper left", ncol=4)
+                            title=f"{ANOMALY_KINDS[kind][0]}, {self.step.value}")
+        self.show_table(frame(anomaly_ranking(self.basin_anomalies, self.step.value), display=True))
         title = "basin-mean series" if self.basins else "area-weighted mean of the whole grid"
-        ax.set_title(f"{title}; dotted line: {self.step.value}", fontsize=9)
-        fig.tight_layout()
-        return fig
-
-
-def _spi_bands(ax):
-    """Shade the SPI classes (WMO 2012 SPI User Guide, Table 1) from dry brown to wet green."""
-    import matplotlib
-
-    cmap = matplotlib.colormaps["BrBG"]
-    edges = [c[0] for c in SPI_CLASSES]  # lower bounds from the top class down
-    tops = [np.inf] + edges[:-1]
-    n = len(SPI_CLASSES)
-    for i, ((lower, name), top) in enumerate(zip(SPI_CLASSES, tops)):
-        lo, hi = max(lower, -10.0), min(top, 10.0)
-        colour = cmap(1.0 - (i + 0.5) / n)
-        ax.axhspan(lo, hi, color=colour, alpha=0.25 if name != "near normal" else 0.08, lw=0)
-        mid = {"extremely wet": 2.5, "extremely dry": -2.5}.get(name, (lo + hi) / 2)
-        ax.text(1.005, mid, name, transform=ax.get_yaxis_transform(), fontsize=6, va="center",
-                color="0.25", clip_on=False)
+        self.show_chart(anomaly_chart(self.basin_anomalies["anomaly"], self.step_index, kind, self._label(),
+                                      f"{title}; dotted line: {self.step.value}"))
