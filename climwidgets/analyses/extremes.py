@@ -20,8 +20,8 @@ from ..geo.basinset import as_basin_list
 from .basins import basin_series
 from .meta import describe, frame
 
-__all__ = ["areal_design_depths", "point_design_depths", "warmed_depths", "depth_table", "point_depth_table",
-           "AREAL_NOTE", "POINT_NOTE", "DEPTH_COLUMNS", "POINT_COLUMNS"]
+__all__ = ["depth_field", "warmed_field", "areal_design_depths", "point_design_depths", "warmed_depths",
+           "depth_table", "point_depth_table", "AREAL_NOTE", "POINT_NOTE", "DEPTH_COLUMNS", "POINT_COLUMNS"]
 
 AREAL_NOTE = ("basin depths are areal: the return level of the basin-mean annual maxima, lower than "
               "point (gauge) depths of the same return period")
@@ -31,6 +31,44 @@ POINT_NOTE = ("point depths: at-site is each cell's own fit, averaged over the b
               "maximum). Where H1 >= 2 the basin is not one region and the regional column is not to be used")
 POINT_COLUMNS = ("point_at_site_mm", "point_at_site_lower_mm", "point_at_site_upper_mm", "point_regional_mm",
                  "point_regional_lower_mm", "point_regional_upper_mm")
+
+
+def depth_field(pr: xr.DataArray, periods=(2, 10, 25, 50, 100), ci: float = 0.9, n_boot: int = 1000,
+                year_start: int = 1, seed=0, **duration) -> xr.Dataset:
+    """Return levels of every cell: the map of point design depths (lazy).
+
+    Parameters
+    ----------
+    pr : xarray.DataArray
+        Daily or hourly precipitation depth per step (dims time, lat, lon).
+    periods, ci, n_boot, seed
+        Return periods (years), confidence level and bootstrap of :func:`cw.return_levels`.
+    year_start : int
+        First month of the year of the maxima (10 = water year).
+    **duration
+        ``duration_days=n`` or ``duration_hours=n`` of the maxima (default 1 day).
+
+    Returns
+    -------
+    xarray.Dataset
+        :func:`cw.return_levels` of :func:`cw.annual_maxima`: ``estimate``, ``lower`` and
+        ``upper`` on (period, lat, lon), with the GEV parameters.
+
+    References
+    ----------
+    Hosking, J. R. M. (1990) L-moments: analysis and estimation of distributions using linear
+    combinations of order statistics. J. R. Stat. Soc. B 52, 105-124.
+    """
+    ams = annual_maxima(pr, year_start=year_start, **(duration or {"duration_days": 1}))
+    return return_levels(ams, periods=periods, ci=ci, n_boot=n_boot, seed=seed)
+
+
+def warmed_field(levels: xr.Dataset, delta_t: float = 0.0, rate: float = 0.07) -> xr.Dataset:
+    """The depths of :func:`depth_field` scaled by (1 + rate) ** delta_t (:func:`cw.warming_scaling`).
+
+    The scaling is a what-if, not a projection; see :data:`cw.DESIGN_DEPTH_CAUTIONS`.
+    """
+    return warming_scaling(levels, float(delta_t), rate=float(rate))
 
 
 def areal_design_depths(pr: xr.DataArray, basins, periods=(2, 10, 25, 50, 100), ci: float = 0.9,

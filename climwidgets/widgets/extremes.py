@@ -23,11 +23,10 @@ import ipywidgets as widgets
 import xarray as xr
 
 from ..analyses.basins import basin_series
-from ..analyses.extremes import areal_design_depths, depth_table, warmed_depths
+from ..analyses.extremes import areal_design_depths, depth_field, depth_table, warmed_depths, warmed_field
 from ..cache import LRUCache
-from ..compute.extremes import DAY_DURATIONS, HOUR_DURATIONS, annual_maxima
-from ..compute.gev import return_levels
-from ..compute.warming import DESIGN_DEPTH_CAUTIONS, warming_scaling
+from ..compute.extremes import DAY_DURATIONS, HOUR_DURATIONS
+from ..compute.warming import DESIGN_DEPTH_CAUTIONS
 from ..errors import ParameterError
 from ..geo.basinset import whole_grid_basin
 from .base import BaseWidget
@@ -137,16 +136,13 @@ class ExtremesWidget(BaseWidget):
     def _table_basins(self):
         return self.basins_or_whole_grid(self._whole)
 
-    def _maxima(self, pr, year_start, **duration):
-        return annual_maxima(pr, year_start=year_start, **duration)
-
     def compute(self, ci, n_boot, year_start, **duration):
         basins = self._table_basins
         # basin means do not depend on the parameters: each basin's series is read once
         new = [b for b in basins if self._series.get((b.token, b.name)) is None]
         fresh = basin_series(self.pr, new) if new else None
         kw = dict(periods=PERIODS, ci=ci, n_boot=n_boot)
-        out = {"levels": return_levels(self._maxima(self.pr, year_start, **duration), **kw), "fresh": fresh}
+        out = {"levels": depth_field(self.pr, year_start=year_start, **kw, **duration), "fresh": fresh}
         if basins:
             parts = {b.name: self._series.get((b.token, b.name)) for b in basins}
             series = xr.concat([parts[b.name] if parts[b.name] is not None else fresh.sel(basin=[b.name])
@@ -173,7 +169,7 @@ class ExtremesWidget(BaseWidget):
 
     # ------------------------------------------------------------ redraw only
     def _warm(self, ds):
-        return warming_scaling(ds, float(self.delta_t.value), rate=float(self.rate.value) / 100.0)
+        return warmed_field(ds, float(self.delta_t.value), rate=float(self.rate.value) / 100.0)
 
     def _can_redraw(self):
         return self.levels is not None
