@@ -10,15 +10,79 @@ from __future__ import annotations
 import numpy as np
 import xarray as xr
 
+from .. import cache
+from ..compute.linear_model import linear_orographic_precip
+from ..compute.orographic import crest_from_elevation, elevation_gradient, rain_shadow
+from ..compute.totals import annual_totals
+from ..errors import InsufficientDataError
 from .meta import describe, frame
 
-__all__ = ["band_dataset", "band_table", "BAND_COLUMNS"]
+__all__ = ["band_dataset", "band_table", "orographic_contrast", "BAND_COLUMNS"]
 
 BAND_COLUMNS = ("windward_mean", "leeward_mean", "ratio", "ratio_lower", "ratio_upper", "model_ratio")
 
 
 def _bands(ds: xr.Dataset) -> xr.Dataset:
     return ds if "band" in ds.dims else ds.expand_dims("band")
+
+
+def orographic_contrast(pr: xr.DataArray, elevation: xr.DataArray, wind_from: float = 270.0,
+                        band_km=(0.0, 25.0, 50.0), ci: float = 0.9, n_boot: int = 500, wind_speed: float = 10.0,
+                        temperature_c: float = 10.0, ridge=None, min_height: float | None = None) -> dict:
+    """The observed windward/leeward contrast beside the linear orographic model's.
+
+    Parameters
+    ----------
+    pr : xarray.DataArray
+        Precipitation depth per step (dims time, lat, lon).  Its annual totals are computed
+        once per data set and kept in the result cache (:mod:`climwidgets.cache`).
+    elevation : xarray.DataArray
+        Terrain height in metres on the same grid.
+    wind_from : float
+        Direction the wind blows from, degrees clockwise from north.
+    band_km : sequence of float
+        Band edges in km from the crest along the wind.
+    ci, n_boot : float, int
+        Confidence level and bootstrap resamples of years for the ratio's interval.
+    wind_speed, temperature_c : float
+        Wind speed (m/s) and near-surface temperature (°C) of the linear model.
+    ridge : list of (lon, lat), optional
+        A crest drawn by hand; otherwise it is found on the terrain.
+    min_height : float, optional
+        Lowest terrain height of the crest found on the terrain (m).
+
+    Returns
+    -------
+    dict
+        ``observed`` (:func:`cw.rain_shadow` of the annual totals: per-cell ``distance_km``
+        and the band statistics), ``model`` (the linear model's rate), ``model_contrast``
+        (the same bands through the model), ``mean`` (the mean annual total),
+        ``gradients`` (per side: the fit of the mean annual total on terrain height, cells
+        above 0 m; a side with too few cells is left out) and ``crest`` (the points used).
+
+    References
+    ----------
+    Smith, R. B. and Barstad, I. (2004) A linear theory of orographic precipitation.
+    J. Atmos. Sci. 61, 1377-1391. doi:10.1175/1520-0469(2004)061<1377:ALTOOP>2.0.CO;2
+    """
+    annual = cache.cached("annual_totals", lambda: annual_totals(pr), pr)
+    crest = ridge if ridge is not None else crest_from_elevation(elevation, wind_from, min_height=min_height)
+    observed = rain_shadow(annual, wind_from=wind_from, ridge=crest, band_km=band_km, n_boot=n_boot, ci=ci)
+    model = linear_orographic_precip(elevation, wind_speed=wind_speed, wind_from=wind_from,
+                                     temperature_c=temperature_c)
+    model_contrast = rain_shadow(model, wind_from=wind_from, ridge=crest, band_km=band_km)
+    mean = annual.mean("year", keep_attrs=True)
+    # sea-level cells (open water, or missing terrain read as 0 m) would pile up at 0 m
+    land = elevation > 0
+    gradients = {}
+    for side in ("windward", "leeward"):
+        try:
+            gradients[side] = elevation_gradient(mean, elevation, mask=land, side=side,
+                                                 distance_km=observed["distance_km"])
+        except InsufficientDataError:
+            pass  # too few cells on that side: no fit
+    return {"observed": observed, "model": model, "model_contrast": model_contrast, "mean": mean,
+            "gradients": gradients, "crest": crest}
 
 
 def band_dataset(observed: xr.Dataset, model: xr.Dataset, ci: float) -> xr.Dataset:

@@ -7,7 +7,8 @@ from __future__ import annotations
 
 import numpy as np
 
-__all__ = ["series_with_trend", "monthly_normals", "areal_depth_chart", "anomaly_chart", "spi_bands", "MONTH_LABELS"]
+__all__ = ["series_with_trend", "monthly_normals", "areal_depth_chart", "anomaly_chart", "spi_bands", "contrast_chart",
+           "MONTH_LABELS"]
 
 from ..compute._time import MONTH_NAMES as MONTH_LABELS  # noqa: E402  (the one month-name table)
 
@@ -157,3 +158,66 @@ def anomaly_chart(series, step_index, kind, ylabel, title, figsize=(7.5, 3.0)):
     ax.set_title(title, fontsize=9)
     fig.tight_layout()
     return fig
+
+
+_MODEL_COLOUR = "#762a83"
+_SIDE_COLOURS = {"windward": "#1b7837", "leeward": "#b35806"}
+
+
+def contrast_chart(observed, mean, model, elevation, gradients, figsize=(9.0, 3.4)):
+    """The profile along the wind and the fit on terrain height, side by side (a Figure).
+
+    Arguments are those of :func:`climwidgets.analyses.orographic.orographic_contrast`:
+    ``observed`` (with ``distance_km`` and the band means), the mean annual total, the
+    linear model's rate, the terrain and the per-side ``gradients``.
+    """
+    from matplotlib.figure import Figure
+
+    fig = Figure(figsize=figsize)
+    ax_d, ax_z = fig.add_subplot(1, 2, 1), fig.add_subplot(1, 2, 2)
+    dist = np.asarray(observed["distance_km"].values, dtype=float).ravel()
+    obs = np.asarray(mean.values, dtype=float).ravel()
+    model = np.asarray(model.values, dtype=float).ravel()
+    z = np.asarray(elevation.transpose("lat", "lon").values, dtype=float).ravel()
+    ok = np.isfinite(dist)
+    ax_d.scatter(dist[ok], obs[ok], s=6, color="#2166ac", alpha=0.6, label="observed cells")
+    _band_steps(ax_d, observed)
+    ax_d.axvline(0.0, color="k", lw=0.8)
+    ax_d.set_xlabel("along-wind distance from the crest [km] (< 0 windward)")
+    ax_d.set_ylabel("mean annual total [mm]", fontsize=8)
+    twin = ax_d.twinx()
+    twin.scatter(dist[ok], model[ok], s=5, marker="x", color=_MODEL_COLOUR, alpha=0.6, label="linear model")
+    twin.set_ylabel("linear model rate [mm per hour]", fontsize=8, color=_MODEL_COLOUR)
+    handles = ax_d.get_legend_handles_labels()[0] + twin.get_legend_handles_labels()[0]
+    ax_d.legend(handles=handles, fontsize=7, loc="upper right")
+    ax_d.set_title("profile along the wind", fontsize=9)
+    for side, sign in (("windward", (dist < 0) & (z > 0)), ("leeward", (dist > 0) & (z > 0))):
+        ax_z.scatter(z[sign], obs[sign], s=6, color=_SIDE_COLOURS[side], alpha=0.6)
+        g = gradients.get(side)
+        if g is None:
+            ax_z.plot([], [], color=_SIDE_COLOURS[side], label=f"{side}: too few cells for a fit")
+            continue
+        zz = np.linspace(np.nanmin(z[sign]), np.nanmax(z[sign]), 2)
+        slope = float(g["slope"])
+        ax_z.plot(zz, float(g["intercept"]) + slope / 100.0 * zz, color=_SIDE_COLOURS[side],
+                  label=f"{side}: {slope:+.0f} mm per 100 m ({float(g['lower']):+.0f} to "
+                        f"{float(g['upper']):+.0f})")
+    ax_z.set_xlabel("terrain height [m]")
+    ax_z.set_ylabel("mean annual total [mm]", fontsize=8)
+    ax_z.legend(fontsize=7, loc="upper left")
+    ax_z.set_title("against elevation (cells above 0 m)", fontsize=9)
+    for ax in (ax_d, ax_z):
+        ax.grid(alpha=0.3)
+    fig.tight_layout()
+    return fig
+
+
+def _band_steps(ax, obs):
+    one = "band" not in obs.dims
+    for i in range(1 if one else obs.sizes["band"]):
+        o = obs if one else obs.isel(band=i)
+        lo, hi = float(o["band_lower_km"]), float(o["band_upper_km"])
+        ax.hlines(float(o["windward_mean"]), -hi, -lo, color=_SIDE_COLOURS["windward"], lw=2.5,
+                  label="windward band mean" if i == 0 else None)
+        ax.hlines(float(o["leeward_mean"]), lo, hi, color=_SIDE_COLOURS["leeward"], lw=2.5,
+                  label="leeward band mean" if i == 0 else None)

@@ -24,11 +24,9 @@ import ipywidgets as widgets
 import numpy as np
 import xarray as xr
 
-from ..analyses.orographic import band_table
-from ..compute.linear_model import linear_orographic_precip
-from ..compute.orographic import crest_from_elevation, elevation_gradient, rain_shadow
-from ..compute.totals import annual_totals
-from ..errors import InsufficientDataError, ParameterError
+from ..analyses.orographic import band_table, orographic_contrast
+from ..errors import ParameterError
+from ..plot.charts import contrast_chart
 from .base import BaseWidget
 from .mapframe import MapFrame
 
@@ -36,8 +34,6 @@ __all__ = ["OrographicContrastWidget", "parse_bands"]
 
 LAYERS = [("signed distance from the crest", "distance"), ("observed mean annual total", "observed"),
           ("linear model (rate)", "model"), ("terrain", "terrain")]
-_MODEL_COLOUR = "#762a83"
-_SIDE_COLOURS = {"windward": "#1b7837", "leeward": "#b35806"}
 
 
 def parse_bands(text: str) -> tuple[float, ...]:
@@ -85,7 +81,6 @@ class OrographicContrastWidget(BaseWidget):
         self.gradients = {}
         self.crest = None
         self.drawn_crest = []
-        self._annual = None
         self._pending = {}
         top = float(np.nanmax(np.asarray(elevation.values, dtype=float)))
         style = {"description_width": "130px"}
@@ -146,28 +141,8 @@ class OrographicContrastWidget(BaseWidget):
             params["min_height"] = float(self.min_height.value)
         return params
 
-    def compute(self, wind_from, band_km, ci, n_boot, wind_speed, temperature_c, ridge=None, min_height=None):
-        if self._annual is None:  # per-year totals do not depend on the parameters: once
-            self._annual = annual_totals(self.pr).compute()
-        annual = self._annual
-        crest = ridge if ridge is not None else crest_from_elevation(self.elevation, wind_from,
-                                                                     min_height=min_height)
-        observed = rain_shadow(annual, wind_from=wind_from, ridge=crest, band_km=band_km, n_boot=n_boot, ci=ci)
-        model = linear_orographic_precip(self.elevation, wind_speed=wind_speed, wind_from=wind_from,
-                                         temperature_c=temperature_c)
-        model_contrast = rain_shadow(model, wind_from=wind_from, ridge=crest, band_km=band_km)
-        mean = annual.mean("year", keep_attrs=True)
-        # sea-level cells (open water, or missing terrain read as 0 m) would pile up at 0 m
-        land = self.elevation > 0
-        gradients = {}
-        for side in ("windward", "leeward"):
-            try:
-                gradients[side] = elevation_gradient(mean, self.elevation, mask=land, side=side,
-                                                     distance_km=observed["distance_km"])
-            except InsufficientDataError:
-                pass  # too few cells on that side: no fit, the chart says so
-        return {"observed": observed, "model": model, "model_contrast": model_contrast, "mean": mean,
-                "gradients": gradients, "crest": crest}
+    def compute(self, **params):
+        return orographic_contrast(self.pr, self.elevation, **params)
 
     def finish(self, computed, params):
         observed = computed.pop("observed")
@@ -235,53 +210,4 @@ class OrographicContrastWidget(BaseWidget):
         return band_table(self.result, self.model_contrast, self._params["ci"])
 
     def _chart(self):
-        from matplotlib.figure import Figure
-
-        fig = Figure(figsize=(9.0, 3.4))
-        ax_d, ax_z = fig.add_subplot(1, 2, 1), fig.add_subplot(1, 2, 2)
-        dist = np.asarray(self.result["distance_km"].values, dtype=float).ravel()
-        obs = np.asarray(self._mean.values, dtype=float).ravel()
-        model = np.asarray(self.model.values, dtype=float).ravel()
-        z = np.asarray(self.elevation.transpose("lat", "lon").values, dtype=float).ravel()
-        ok = np.isfinite(dist)
-        ax_d.scatter(dist[ok], obs[ok], s=6, color="#2166ac", alpha=0.6, label="observed cells")
-        self._band_steps(ax_d)
-        ax_d.axvline(0.0, color="k", lw=0.8)
-        ax_d.set_xlabel("along-wind distance from the crest [km] (< 0 windward)")
-        ax_d.set_ylabel("mean annual total [mm]", fontsize=8)
-        twin = ax_d.twinx()
-        twin.scatter(dist[ok], model[ok], s=5, marker="x", color=_MODEL_COLOUR, alpha=0.6, label="linear model")
-        twin.set_ylabel("linear model rate [mm per hour]", fontsize=8, color=_MODEL_COLOUR)
-        handles = ax_d.get_legend_handles_labels()[0] + twin.get_legend_handles_labels()[0]
-        ax_d.legend(handles=handles, fontsize=7, loc="upper right")
-        ax_d.set_title("profile along the wind", fontsize=9)
-        for side, sign in (("windward", (dist < 0) & (z > 0)), ("leeward", (dist > 0) & (z > 0))):
-            ax_z.scatter(z[sign], obs[sign], s=6, color=_SIDE_COLOURS[side], alpha=0.6)
-            g = self.gradients.get(side)
-            if g is None:
-                ax_z.plot([], [], color=_SIDE_COLOURS[side], label=f"{side}: too few cells for a fit")
-                continue
-            zz = np.linspace(np.nanmin(z[sign]), np.nanmax(z[sign]), 2)
-            slope = float(g["slope"])
-            ax_z.plot(zz, float(g["intercept"]) + slope / 100.0 * zz, color=_SIDE_COLOURS[side],
-                      label=f"{side}: {slope:+.0f} mm per 100 m ({float(g['lower']):+.0f} to "
-                            f"{float(g['upper']):+.0f})")
-        ax_z.set_xlabel("terrain height [m]")
-        ax_z.set_ylabel("mean annual total [mm]", fontsize=8)
-        ax_z.legend(fontsize=7, loc="upper left")
-        ax_z.set_title("against elevation (cells above 0 m)", fontsize=9)
-        for ax in (ax_d, ax_z):
-            ax.grid(alpha=0.3)
-        fig.tight_layout()
-        return fig
-
-    def _band_steps(self, ax):
-        obs = self.result
-        one = "band" not in obs.dims
-        for i in range(1 if one else obs.sizes["band"]):
-            o = obs if one else obs.isel(band=i)
-            lo, hi = float(o["band_lower_km"]), float(o["band_upper_km"])
-            ax.hlines(float(o["windward_mean"]), -hi, -lo, color=_SIDE_COLOURS["windward"], lw=2.5,
-                      label="windward band mean" if i == 0 else None)
-            ax.hlines(float(o["leeward_mean"]), lo, hi, color=_SIDE_COLOURS["leeward"], lw=2.5,
-                      label="leeward band mean" if i == 0 else None)
+        return contrast_chart(self.result, self._mean, self.model, self.elevation, self.gradients)
