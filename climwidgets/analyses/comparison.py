@@ -11,8 +11,9 @@ from __future__ import annotations
 import dask
 import numpy as np
 import pandas as pd
+import xarray as xr
 
-from ..compute.compare import _check_products, _common_months
+from ..compute.compare import _check_products, _common_months, align, compare
 from ..compute.normals import annual_normal
 from ..compute.seasonal import seasonal_fraction
 from ..compute.totals import annual_totals
@@ -22,7 +23,19 @@ from ..provenance import with_history
 from .basins import basin_series
 from .meta import CATALOGUE
 
-__all__ = ["products_basin_table", "PRODUCT_COLUMNS", "SPREAD_RANGE", "SPREAD_CV"]
+__all__ = ["products_basin_table", "agreement_maps", "aligned_products", "METRICS", "PRODUCT_COLUMNS",
+           "SPREAD_RANGE", "SPREAD_CV"]
+
+#: The agreement metrics of two products: plain words, and how their units read on screen.
+METRICS = {
+    "bias": "bias (other - reference)",
+    "ratio": "ratio of means (other / reference)",
+    "rmse": "RMSE of monthly totals",
+    "corr": "correlation of monthly totals",
+    "kge": "Kling-Gupta efficiency",
+    "nse": "Nash-Sutcliffe efficiency",
+}
+_UNIT_WORDS = {"mm/yr": "mm per year", "mm": "mm per month", "1": "no unit"}
 
 SPREAD_RANGE = "spread: max - min"
 SPREAD_CV = "spread: coefficient of variation"
@@ -77,3 +90,45 @@ def products_basin_table(datasets: dict, basins, months=(7, 8), baseline=None) -
                    "spread": "max - min and coefficient of variation (population sd / mean) across products"}
     return with_history(table, func, None, products=tuple(products),
                         basins=tuple(b.name for b in basins), months=tuple(months), baseline=base)
+
+
+def aligned_products(datasets: dict) -> dict:
+    """The products on their common complete months and the coarsest product's grid (:func:`cw.align`)."""
+    return align(datasets)
+
+
+def agreement_maps(aligned: dict, reference: str, other: str) -> xr.Dataset:
+    """Per-cell agreement of ``other`` with ``reference`` (lazy), each metric with its words.
+
+    Parameters
+    ----------
+    aligned : dict of {name: DataArray}
+        Products from :func:`aligned_products` (one grid, one period).
+    reference, other : str
+        The two products compared.
+
+    Returns
+    -------
+    xarray.Dataset
+        :func:`cw.compare` of the two: ``bias``, ``ratio``, ``rmse``, ``corr``, ``kge``,
+        ``nse``; each variable carries ``label`` and ``display_units`` (the words of
+        :data:`METRICS`).
+
+    References
+    ----------
+    Gupta, H. V., Kling, H., Yilmaz, K. K. and Martinez, G. F. (2009) Decomposition of the
+    mean squared error and NSE performance criteria. J. Hydrol. 377, 80-91.
+    doi:10.1016/j.jhydrol.2009.08.003
+    """
+    if reference == other:
+        from ..errors import ParameterError
+
+        raise ParameterError(f"reference and other are both {reference!r}", source="agreement_maps",
+                             variable="other", expected="two different products",
+                             fix="choose another product as 'Other'")
+    out = compare(aligned[reference], aligned[other])
+    for name in out.data_vars:
+        if name in METRICS:
+            units = out[name].attrs.get("units", "")
+            out[name].attrs.update(label=METRICS[name], display_units=_UNIT_WORDS.get(units, units))
+    return out

@@ -8,7 +8,7 @@ from __future__ import annotations
 import numpy as np
 
 __all__ = ["series_with_trend", "monthly_normals", "areal_depth_chart", "anomaly_chart", "spi_bands", "contrast_chart",
-           "MONTH_LABELS"]
+           "products_chart", "MONTH_LABELS"]
 
 from ..compute._time import MONTH_NAMES as MONTH_LABELS  # noqa: E402  (the one month-name table)
 
@@ -221,3 +221,28 @@ def _band_steps(ax, obs):
                   label="windward band mean" if i == 0 else None)
         ax.hlines(float(o["leeward_mean"]), lo, hi, color=_SIDE_COLOURS["leeward"], lw=2.5,
                   label="leeward band mean" if i == 0 else None)
+
+
+def products_chart(table, products, figsize=(6.5, 3.0)):
+    """Mean annual total of each basin, one bar per product (a Figure).
+
+    ``table`` is the basin table of
+    :func:`climwidgets.analyses.comparison.products_basin_table` (index basin, product).
+    """
+    from matplotlib.figure import Figure
+
+    basins = list(dict.fromkeys(table.index.get_level_values("basin")))
+    fig = Figure(figsize=figsize)
+    ax = fig.add_subplot(1, 1, 1)
+    width = 0.8 / len(products)
+    x = np.arange(len(basins))
+    for i, name in enumerate(products):
+        values = [table.loc[(b, name), "annual_mean_mm"] for b in basins]
+        ax.bar(x + (i - (len(products) - 1) / 2) * width, values, width, label=str(name), color=f"C{i % 10}")
+    ax.set_xticks(x, basins, fontsize=8)
+    ax.set_ylabel("mean annual total [mm]", fontsize=8)
+    ax.set_title(f"basin means per product, {table.attrs.get('period', '')}", fontsize=9)
+    ax.legend(fontsize=7)
+    ax.grid(alpha=0.3, axis="y")
+    fig.tight_layout()
+    return fig

@@ -18,27 +18,16 @@ import ipywidgets as widgets
 import numpy as np
 import pandas as pd
 
-from ..analyses.comparison import products_basin_table
+from ..analyses.comparison import METRICS, agreement_maps, aligned_products, products_basin_table
 from ..analyses.meta import display_frame
 from ..compute.seasonal import season_label
-from ..compute.compare import align, compare
 from ..errors import ParameterError
 from ..geo.basinset import whole_grid_basin
+from ..plot.charts import products_chart
 from .base import BaseWidget
 from .mapframe import MapFrame
 
 __all__ = ["ComparisonWidget", "METRICS"]
-
-METRICS = {
-    "bias": "bias (other - reference)",
-    "ratio": "ratio of means (other / reference)",
-    "rmse": "RMSE of monthly totals",
-    "corr": "correlation of monthly totals",
-    "kge": "Kling-Gupta efficiency",
-    "nse": "Nash-Sutcliffe efficiency",
-}
-_UNITS = {"mm/yr": "mm per year", "mm": "mm per month", "1": "no unit"}
-
 
 class ComparisonWidget(BaseWidget):
     """Agreement map of two products and the basin table across all products.
@@ -78,9 +67,23 @@ class ComparisonWidget(BaseWidget):
         self.metric = widgets.Dropdown(options=[(label, key) for key, label in METRICS.items()], value="bias",
                                        description="Metric", style=style, layout=lay)
         super().__init__(map_frame=MapFrame(basins=self.basins, kind="difference"), export_dir=export_dir)
+        # choosing as reference the product shown as other swaps the two (never one against itself)
+        self._choice = (self.reference.value, self.other.value)
+        self.reference.observe(self._swap, names="value")
+        self.other.observe(self._swap, names="value")
         self.watch(self.reference, self.other)
         self.watch_display(self.metric)
         self.refresh()
+
+    def _swap(self, change):
+        ref, other = self.reference.value, self.other.value
+        if ref == other:
+            with self.quiet():  # one computation for the swap, started by the watcher below
+                if change["owner"] is self.reference:
+                    self.other.value = self._choice[0]
+                else:
+                    self.reference.value = self._choice[1]
+        self._choice = (self.reference.value, self.other.value)
 
     def basins_changed(self, event, details):
         self.map.set_basins(self.basins)
@@ -108,8 +111,8 @@ class ComparisonWidget(BaseWidget):
 
     def compute(self, reference, other):
         if self._aligned is None:  # the common period and grid do not depend on the choice
-            self._aligned = align(self.datasets)
-        out = {"compare": compare(self._aligned[reference], self._aligned[other])}
+            self._aligned = aligned_products(self.datasets)
+        out = {"compare": agreement_maps(self._aligned, reference, other)}
         basins = self.basins or [b for b in [whole_grid_basin(self._aligned[reference])] if b is not None]
         have = set() if self.basin_table is None else set(self.basin_table.index.get_level_values("basin"))
         new = [b for b in basins if b.name not in have]
@@ -135,12 +138,12 @@ class ComparisonWidget(BaseWidget):
     def _show(self):
         metric = self.metric.value
         field = self.result[metric]
-        units = field.attrs.get("units", "")
         kind = "difference" if metric == "bias" else "sequential"
         ref, other = self._params["reference"], self._params["other"]
         mean = float(np.nanmean(np.asarray(field.values, dtype=float)))
-        self.map.show_field(field, kind=kind, label=f"{metric} [{_UNITS.get(units, units)}]",
-                            title=f"{other} against {ref}: {metric} (grid mean {mean:.3g})")
+        words = field.attrs.get("label", metric)
+        self.map.show_field(field, kind=kind, label=f"{words} [{field.attrs.get('display_units', '')}]",
+                            title=f"{other} against {ref}: {words} (grid mean {mean:,.2f})")
         self.show_table(self._display_table())
         if self.basin_table is not None:
             self.show_chart(self._chart())
@@ -157,26 +160,7 @@ class ComparisonWidget(BaseWidget):
         return float(self.result[metric].mean(skipna=True))
 
     def _chart(self):
-        from matplotlib.figure import Figure
-
-        table = self.basin_table
-        products = list(self.datasets)
-        basins = list(dict.fromkeys(table.index.get_level_values("basin")))
-        fig = Figure(figsize=(6.5, 3.0))
-        ax = fig.add_subplot(1, 1, 1)
-        width = 0.8 / len(products)
-        x = np.arange(len(basins))
-        for i, name in enumerate(products):
-            values = [table.loc[(b, name), "annual_mean_mm"] for b in basins]
-            ax.bar(x + (i - (len(products) - 1) / 2) * width, values, width, label=str(name),
-                   color=f"C{i % 10}")
-        ax.set_xticks(x, basins, fontsize=8)
-        ax.set_ylabel("mean annual total [mm]", fontsize=8)
-        ax.set_title(f"basin means per product, {table.attrs.get('period', '')}", fontsize=9)
-        ax.legend(fontsize=7)
-        ax.grid(alpha=0.3, axis="y")
-        fig.tight_layout()
-        return fig
+        return products_chart(self.basin_table, list(self.datasets))
 
 
 def _merge_rows(old, new, order):

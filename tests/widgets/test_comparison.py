@@ -11,6 +11,7 @@ import pytest
 import xarray as xr
 
 import climwidgets as cw
+from climwidgets.analyses.comparison import METRICS, agreement_maps
 from ._data import check_every_export
 
 pytest.importorskip("ipympl")
@@ -71,22 +72,32 @@ def test_metric_redraws_without_recomputing(setup, metric, kind, units):
     shown = np.asarray(w.map.mesh.get_array()).reshape(w.result[metric].shape)
     np.testing.assert_allclose(shown, w.result[metric].values)
     assert w.map.mesh.climwidgets_kind == kind
-    assert w.map.cbar.ax.get_ylabel() == f"{metric} [{units}]"
+    words = METRICS[metric]
+    assert w.map.cbar.ax.get_ylabel() == f"{words} [{units}]"
     if kind == "difference":  # diverging map centred on zero
         lo, hi = w.map.mesh.get_clim()
         assert lo == pytest.approx(-hi)
 
 
-def test_same_product_twice_is_a_message(setup):
+def test_choosing_the_other_product_as_reference_swaps_the_two(setup):
+    """A product is never compared with itself: the controls swap reference and other."""
     products, basins, w = setup
-    before = w.result
+    assert (w.reference.value, w.other.value) == ("fine", "coarse")
     w.other.value = "fine"
-    assert isinstance(w.error, cw.InputError)
-    assert "two different products" in w.message.value
-    assert w.result is before
-    w.other.value = "coarse"
     w.wait()
-    assert w.error is None and w.message.value == ""
+    assert (w.reference.value, w.other.value) == ("coarse", "fine")
+    assert w.error is None
+    aligned = cw.align(products)
+    xr.testing.assert_allclose(w.result, cw.compare(aligned["coarse"], aligned["fine"]))
+    w.reference.value = "fine"
+    w.wait()
+    assert (w.reference.value, w.other.value) == ("fine", "coarse")
+
+
+def test_same_product_twice_is_refused_by_the_analysis(setup):
+    products, basins, w = setup
+    with pytest.raises(cw.InputError, match="two different products"):
+        agreement_maps(cw.align(products), "fine", "fine")
 
 
 def test_needs_two_products():
