@@ -31,7 +31,8 @@ from ..geo.basinset import as_basin_list
 from ..provenance import history_line
 from .meta import describe, frame
 
-__all__ = ["basin_series", "basin_table", "basin_shares", "what_if", "basin_summary", "scenario_delta",
+__all__ = ["basin_series", "basin_table", "summary_bundle", "summary_maps", "share_map", "field_means",
+           "field_means_table", "basin_shares", "what_if", "basin_summary", "scenario_delta",
            "SUMMARY_COLUMNS", "WHAT_IF_COLUMNS", "AREA_DEFINITION"]
 
 AREA_DEFINITION = ("basin area: the outline's area on a sphere of the authalic radius 6 371 007.2 m, "
@@ -103,6 +104,96 @@ def basin_shares(pr: xr.DataArray, basins, months=(7, 8), how: str = "ratio_of_s
     return ds
 
 
+def summary_bundle(pr: xr.DataArray, months=(7, 8), baseline=(1991, 2020), year_start: int = 1) -> xr.Dataset:
+    """The :func:`cw.climatology_bundle` behind the basin table and its maps (lazy).
+
+    Pass it as ``bundle=`` to :func:`basin_table`, :func:`summary_maps` and :func:`what_if`
+    so that they share one graph: one ``compute`` of them all reads each chunk once.
+    """
+    return climatology_bundle(pr, months=tuple(months), baseline=tuple(baseline), year_start=year_start,
+                              maxima_days=())
+
+
+def summary_maps(pr: xr.DataArray | None, months=(7, 8), baseline=(1991, 2020), year_start: int = 1,
+                 bundle=None) -> xr.Dataset:
+    """The two maps beside the basin table: seasonal share and annual normal of every cell (lazy).
+
+    Parameters
+    ----------
+    pr : xarray.DataArray or None
+        Precipitation depth per step; unused when ``bundle`` is given.
+    months, baseline, year_start
+        The season, the normal period (first, last) and the first month of the year.
+    bundle : xarray.Dataset, optional
+        A :func:`summary_bundle` with the same parameters (shares its graph).
+
+    Returns
+    -------
+    xarray.Dataset
+        ``seasonal_share_map`` (ratio of the season's and the years' sums, units "1") and,
+        when the bundle has normals, ``annual_normal_map`` (the sum of the 12 monthly
+        normals, mm; missing where any month has no normal).
+    """
+    months, baseline = tuple(months), tuple(baseline)
+    if bundle is None:
+        bundle = summary_bundle(pr, months, baseline, year_start)
+    ds = xr.Dataset({"seasonal_share_map": bundle["seasonal_share"].reset_coords(drop=True).assign_attrs(
+        units="1", long_name=f"seasonal share ({season_label(months)})")})
+    if "normals" in bundle:
+        ds["annual_normal_map"] = bundle["normals"].sum("month", skipna=False).reset_coords(drop=True).assign_attrs(
+            units="mm", long_name=f"annual normal {baseline[0]}–{baseline[1]}")
+    return ds
+
+
+def share_map(pr: xr.DataArray, months=(7, 8), how: str = "ratio_of_sums", years=None,
+              year_start: int = 1) -> xr.DataArray:
+    """The seasonal share of every cell (:func:`cw.seasonal_fraction`, lazy).
+
+    Parameters
+    ----------
+    pr : xarray.DataArray
+        Precipitation depth per step (monthly totals are fastest).
+    months, how, years, year_start
+        As for :func:`cw.seasonal_fraction`: the season, the averaging ("ratio_of_sums" or
+        "mean_of_ratios"), the season-years used and the first month of the year.
+
+    Returns
+    -------
+    xarray.DataArray
+        The share (units "1") on the grid.
+    """
+    return seasonal_fraction(pr, months=months, how=how, years=years, year_start=year_start)
+
+
+def field_means(field: xr.DataArray, basins) -> xr.Dataset:
+    """Area and area-weighted mean of any field per basin (lazy): the table beside drawn basins.
+
+    Parameters
+    ----------
+    field : xarray.DataArray
+        A map (lat, lon) in any units; its ``units`` attribute names the mean's.
+    basins : list of Basin or BasinSet
+
+    Returns
+    -------
+    xarray.Dataset
+        ``area_km2`` and ``mean`` on ``basin``, described for tables.
+    """
+    basins = as_basin_list(basins, "field_means")
+    means = basin_series(field, basins).reset_coords(drop=True)
+    return field_means_table(basins, means.assign_attrs(units=field.attrs.get("units", "")))
+
+
+def field_means_table(basins, means: xr.DataArray) -> xr.Dataset:
+    """:func:`field_means` from basin means already at hand (``means`` on basin, with units)."""
+    units = means.attrs.get("units", "")
+    return xr.Dataset({
+        "area_km2": describe(_areas(basins) / 1e6, "area_km2"),
+        "mean": describe(means, "mean", label="mean", units=units, display_units=units,
+                         description="area-weighted basin mean of the field shown"),
+    })
+
+
 def basin_table(pr: xr.DataArray, basins, months=(7, 8), baseline=(1991, 2020), year_start: int = 1,
                 bundle=None) -> xr.Dataset:
     """The basin table of water-planning figures as a lazy Dataset, with its maps.
@@ -134,7 +225,7 @@ def basin_table(pr: xr.DataArray, basins, months=(7, 8), baseline=(1991, 2020), 
     basins = as_basin_list(basins, func)
     months, baseline = tuple(months), tuple(baseline)
     if bundle is None:
-        bundle = climatology_bundle(pr, months=months, baseline=baseline, year_start=year_start, maxima_days=())
+        bundle = summary_bundle(pr, months, baseline, year_start)
     series = basin_series(bundle["monthly_totals"], basins)
     covered = series["covered_fraction"]
     series = series.reset_coords("covered_fraction", drop=True)
@@ -163,15 +254,11 @@ def basin_table(pr: xr.DataArray, basins, months=(7, 8), baseline=(1991, 2020), 
         "data_coverage_1": describe(covered.min("time"), "data_coverage_1"),
         "monthly_normal": monthly_normal.assign_attrs(units="mm", label="monthly normal",
                                                       long_name="monthly normal, basin mean"),
-        "seasonal_share_map": bundle["seasonal_share"].reset_coords(drop=True).assign_attrs(
-            units="1", long_name=f"seasonal share ({season_label(months)})"),
     })
+    ds.update(summary_maps(None, months, baseline, year_start, bundle=bundle))
     for name in ("seasonal_share_per_year", "share_slope", "share_pvalue", "share_intercept"):
         if name in shares:
             ds[name] = shares[name]
-    if "normals" in bundle:
-        ds["annual_normal_map"] = bundle["normals"].sum("month", skipna=False).reset_coords(drop=True).assign_attrs(
-            units="mm", long_name=f"annual normal {baseline[0]}–{baseline[1]}")
     ds.attrs = {"months": list(months), "baseline": list(baseline), "year_start": year_start,
                 "season_year_start": shares.attrs["season_year_start"], "area": AREA_DEFINITION,
                 "note": "areas on a sphere of the authalic radius 6371007.2 m; planning-level figures "

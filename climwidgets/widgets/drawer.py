@@ -18,9 +18,9 @@ import json
 import ipywidgets as widgets
 import xarray as xr
 
-from ..analyses.meta import describe, frame
+from ..analyses.basins import field_means, field_means_table
+from ..analyses.meta import frame
 from ..errors import BasinError, InputError, SourceError
-from ..geo.aggregate import basin_mean
 from ..geo.basin import Basin
 from ..geo.basinset import BasinSet, load_basins
 from .base import BaseWidget
@@ -275,22 +275,19 @@ class BasinDrawer(HostsDrawingTools, BaseWidget):
 
     def compute(self, basins):
         # only basins not seen before are computed; the others keep their numbers
-        return {b.name: basin_mean(self.field, b) for b in basins if (b.token, b.name) not in self._rows}
+        new = [b for b in basins if (b.token, b.name) not in self._rows]
+        return field_means(self.field, new)["mean"] if new else None
 
     def finish(self, computed, params):
-        units = self.field.attrs.get("units", "")
-        for b in params["basins"]:
-            if b.name in computed:
-                self._rows[(b.token, b.name)] = float(computed[b.name])
         basins = params["basins"]
-        names = [b.name for b in basins]
-        ds = xr.Dataset({
-            "area_km2": describe(xr.DataArray([b.area_m2 / 1e6 for b in basins], dims="basin"), "area_km2"),
-            "mean": describe(xr.DataArray([self._rows[(b.token, b.name)] for b in basins], dims="basin"), "mean",
-                             label="mean", units=units, display_units=units,
-                             description="area-weighted basin mean of the field shown"),
-        }, coords={"basin": names})
-        out = frame(ds, columns=["area_km2", "mean"])
+        if computed is not None:
+            for b in basins:
+                if b.name in computed["basin"].values:
+                    self._rows[(b.token, b.name)] = float(computed.sel(basin=b.name))
+        units = self.field.attrs.get("units", "")
+        means = xr.DataArray([self._rows[(b.token, b.name)] for b in basins], dims="basin",
+                             coords={"basin": [b.name for b in basins]}, attrs={"units": units})
+        out = frame(field_means_table(basins, means), columns=["area_km2", "mean"])
         return out.rename(columns={"mean": f"mean [{units}]"})
 
     def render(self, result, params):

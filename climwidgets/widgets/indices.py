@@ -16,7 +16,7 @@ import xarray as xr
 
 from ..analyses.indices import basin_index_table, gridded_indices, index_map, index_table, index_trend_map
 from ..analyses.meta import index_meta
-from ..compute.indices import INDEX_NAMES, precip_indices
+from ..compute.indices import INDEX_NAMES
 from ..errors import ParameterError
 from ..geo.basinset import whole_grid_basin
 from .base import BaseWidget
@@ -111,8 +111,7 @@ class IndicesWidget(BaseWidget):
         key = (threshold, self.base_period)
         ind = self._indices.get(key)
         if ind is None:
-            raw = precip_indices(self.pr, base_period=self.base_period, thresholds=(threshold,))
-            ind = gridded_indices(None, indices=raw)
+            ind = gridded_indices(self.pr, base_period=self.base_period, thresholds=(threshold,))
         basins = self.basins_or_whole_grid(self._whole)
         if layer == "mean":
             field = index_map(ind, name, period)

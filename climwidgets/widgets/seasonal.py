@@ -33,13 +33,12 @@ import pandas as pd
 import xarray as xr
 import ipywidgets as widgets
 
-from ..analyses.basins import basin_shares
+from ..analyses.basins import basin_shares, share_map
 from ..analyses.meta import frame
 from ..analyses.run import monthly_source
 from ..cache import LRUCache
 from ..compute._time import MONTH_NAMES as MONTH_LABELS
 from ..compute._time import season_months
-from ..compute.seasonal import seasonal_fraction
 from ..errors import ParameterError
 from ..plot.charts import series_with_trend
 from .base import MONTH_OPTIONS as _MONTH_OPTIONS
@@ -153,7 +152,7 @@ class SeasonalShareWidget(HostsDrawingTools, BaseWidget):
         monthly = monthly_source(self.pr)
         share = self._maps.get(key)
         if share is None:
-            share = seasonal_fraction(monthly, months=months, how=how, years=years, year_start=year_start)
+            share = share_map(monthly, months=months, how=how, years=years, year_start=year_start)
         new = [b for b in basins if self._rows.get(key + (b.token, b.name)) is None]
         rows = basin_shares(monthly, new, months=months, how=how, years=years, year_start=year_start) \
             if new else None

@@ -23,12 +23,12 @@ import ipywidgets as widgets
 import numpy as np
 import xarray as xr
 
-from ..analyses.basins import SUMMARY_COLUMNS, WHAT_IF_COLUMNS, basin_table, what_if
+from ..analyses.basins import SUMMARY_COLUMNS, WHAT_IF_COLUMNS, basin_table, summary_bundle, summary_maps, \
+    what_if
 from ..analyses.meta import frame
 from ..analyses.run import monthly_source
 from ..cache import LRUCache
 from ..compute._time import season_months
-from ..compute.bundle import climatology_bundle
 from ..errors import InputError
 from ..plot.charts import monthly_normals
 from .base import MONTH_OPTIONS as _MONTH_OPTIONS
@@ -138,13 +138,12 @@ class BasinSummaryWidget(HostsDrawingTools, BaseWidget):
 
     def compute(self, months, baseline, year_start, scenario_months, percent, basins):
         monthly = monthly_source(self.pr)  # one read of the data, kept for every later change
-        bundle = climatology_bundle(monthly, months=months, baseline=baseline, year_start=year_start,
-                                    maxima_days=())
+        bundle = summary_bundle(monthly, months=months, baseline=baseline, year_start=year_start)
         key = self._key({"months": months, "baseline": baseline, "year_start": year_start,
                          "scenario_months": scenario_months, "percent": percent})
         new = [b for b in basins if self._rows.get(key + (b.token, b.name)) is None]
-        out = {"normal_map": bundle["normals"].sum("month", skipna=False),
-               "share_map": bundle["seasonal_share"].reset_coords(drop=True)}
+        maps = summary_maps(None, months, baseline, year_start, bundle=bundle)
+        out = {"normal_map": maps["annual_normal_map"], "share_map": maps["seasonal_share_map"]}
         if new:  # only basins not seen with these parameters are computed
             out["table"] = basin_table(monthly, new, months=months, baseline=baseline, year_start=year_start,
                                        bundle=bundle)[list(_ROW_VARS)]

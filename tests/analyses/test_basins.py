@@ -123,3 +123,34 @@ def test_a_member_dimension_passes_through_as_an_index_level():
     # the share does not change when every month doubles
     np.testing.assert_allclose(table.xs("b", level="member")["seasonal_share_1"], single["seasonal_share_1"],
                                rtol=1e-12)
+
+
+def test_field_means_of_whole_cells_follow_the_cell_area_formula():
+    """Mean of a map over whole 0.5° cells: weights Δλ·(sin φ2 − sin φ1), written out with numpy."""
+    from climwidgets.analyses.basins import field_means
+
+    pr = _pr()
+    field = pr.isel(time=6).drop_vars("time").assign_attrs(units="mm")
+    ds = field_means(field, [WEST, EAST])
+    for basin in (WEST, EAST):
+        w0, s0, e0, n0 = basin.bounds
+        sub = field.sel(lat=slice(s0, n0), lon=slice(w0, e0))
+        lat = np.radians(sub.lat.values)
+        w = (np.sin(lat + np.radians(0.25)) - np.sin(lat - np.radians(0.25)))[:, None] * np.ones(sub.lon.size)
+        expected = float((w * sub.values).sum() / w.sum())
+        assert float(ds["mean"].sel(basin=basin.name)) == pytest.approx(expected, rel=1e-12)
+        assert float(ds["area_km2"].sel(basin=basin.name)) == pytest.approx(basin.area_m2 / 1e6)
+    assert ds["mean"].attrs["units"] == "mm" and ds["area_km2"].attrs["label"] == "area"
+
+
+def test_summary_maps_and_share_map_are_the_public_functions():
+    from climwidgets.analyses.basins import share_map, summary_maps
+
+    pr = _pr()
+    maps = summary_maps(pr, months=(7, 8), baseline=(1991, 2020))
+    xr.testing.assert_allclose(maps["seasonal_share_map"], cw.seasonal_fraction(pr, months=(7, 8)).reset_coords(
+        drop=True))
+    xr.testing.assert_allclose(maps["annual_normal_map"],
+                               cw.normals(pr, baseline=(1991, 2020)).sum("month", skipna=False).reset_coords(drop=True))
+    xr.testing.assert_allclose(share_map(pr, months=(7, 8), how="mean_of_ratios"),
+                               cw.seasonal_fraction(pr, months=(7, 8), how="mean_of_ratios"))
