@@ -172,6 +172,7 @@ _CSS = """<style>
 .cw-table {border-collapse: collapse; font-size: 12px;}
 .cw-table th, .cw-table td {padding: 2px 8px; border-bottom: 1px solid #ddd; text-align: right;}
 .cw-table th:first-child, .cw-table td:first-child {text-align: left;}
+.cw-stale {opacity: 0.35;}
 </style>"""
 
 
@@ -204,7 +205,8 @@ class BaseWidget(widgets.VBox):
         self._done[0].set()
         self.progress = widgets.FloatProgress(value=0.0, min=0.0, max=1.0, description="Working",
                                               layout=widgets.Layout(visibility="hidden", width="320px"))
-        self.message = widgets.HTML("")
+        self.message = widgets.HTML("")  # errors and notes, under the controls that cause them
+        self.stale_note = widgets.HTML("")
         self.table_html = widgets.HTML(_CSS + "<i>No rows yet.</i>")
         self.chart = widgets.Image(format="png", layout=widgets.Layout(max_width="640px")) if chart else None
         self.exports = widgets.HBox([])
@@ -213,15 +215,16 @@ class BaseWidget(widgets.VBox):
         self.add_export("Table as CSV", self._write_csv, "csv")
         if self.map is not None:
             self.add_export("Map as PNG", lambda path: path.write_bytes(self.map.png_bytes()), "png")
-        self.controls = widgets.VBox(self.build_controls(), layout=widgets.Layout(min_width="300px"))
+        self.controls = widgets.VBox(self.build_controls() + [self.message],
+                                     layout=widgets.Layout(min_width="300px"))
         panels = [self.controls] + ([self.map] if self.map is not None else [])
         children = []
         if self.title:
             children.append(widgets.HTML(f"<h3 style='margin:4px 0'>{html.escape(self.title)}</h3>"))
-        children += [widgets.HBox(panels), self.table_html]
+        children += [self.stale_note, widgets.HBox(panels), self.table_html]
         if self.chart is not None:
             children.append(self.chart)
-        children += [self.exports, self.downloads, self.progress, self.message]
+        children += [self.exports, self.downloads, self.progress]
         super().__init__(children=children)
 
     # ------------------------------------------------------------ for subclasses
@@ -323,6 +326,12 @@ class BaseWidget(widgets.VBox):
         try:
             params = self.parameters()
         except InputError as exc:
+            # supersede any running computation: its older numbers must not replace the error
+            with self._lock:
+                self._gen += 1
+                self._done[self._gen] = done = threading.Event()
+            done.set()
+            self.progress.layout.visibility = "hidden"
             self._show_error(exc)
             return
         with self._lock:
@@ -418,6 +427,7 @@ class BaseWidget(widgets.VBox):
             if self.error is not None:  # clear an old error, keep plain notes
                 self.error = None
                 self.message.value = ""
+            self._mark_stale(False)
             self.render(result, params)
         except Exception as exc:  # noqa: BLE001 - a rendering problem is shown, not raised into the loop
             self._fail(gen, exc, traceback.format_exc(), finished=False)
@@ -453,9 +463,31 @@ class BaseWidget(widgets.VBox):
 
         self.kernel.call(done)
 
-    def _show_error(self, exc):
+    def _show_error(self, exc, invalidates=True):
+        """Show an InputError beside the controls; ``invalidates``: the shown results are out of date."""
         self.error = exc
         self.message.value = f"<span style='color:#b30000'>{html.escape(str(exc))}</span>"
+        if invalidates:
+            self._mark_stale(True)
+
+    def _result_views(self) -> list:
+        return [v for v in (self.map, self.table_html, self.chart) if v is not None]
+
+    def _mark_stale(self, stale: bool):
+        """Dim the shown results and hold the exports while an error says they are out of date."""
+        shown = stale and self.result is not None
+        for view in self._result_views():
+            (view.add_class if shown else view.remove_class)("cw-stale")
+        for button in self.exports.children:
+            button.disabled = shown
+        self.stale_note.value = ("<div style='color:#b30000;font-size:12px'>The map and table below are for "
+                                 "the previous settings: fix the setting named beside the controls to "
+                                 "update them.</div>") if shown else ""
+
+    @property
+    def stale(self) -> bool:
+        """True while an error says the shown results are not those of the current settings."""
+        return bool(self.stale_note.value)
 
     def say(self, text):
         """A plain (escaped) note in the message line."""
@@ -497,11 +529,12 @@ class BaseWidget(widgets.VBox):
             try:
                 files = self.export_files(write, suffix, stem)
             except InputError as exc:
-                self._show_error(exc)
+                self._show_error(exc, invalidates=False)
             except Exception as exc:  # a message in the widget, not a silent failure in a callback
                 self._show_error(InputError(f"could not export ({type(exc).__name__}: {exc})",
                                             source=str(self.export_dir),
-                                            fix="check the export folder (widget.export_dir) and try again"))
+                                            fix="check the export folder (widget.export_dir) and try again"),
+                                 invalidates=False)
             else:
                 self.offer_downloads(files)
                 saved = self.last_saved

@@ -230,7 +230,7 @@ class HostsDrawingTools:
 
     def _report(self, message):
         if isinstance(message, Exception):
-            self._show_error(message)
+            self._show_error(message, invalidates=False)  # a refused outline leaves the results valid
         else:
             self.say(message)
 

@@ -103,8 +103,9 @@ class BasinSummaryWidget(HostsDrawingTools, BaseWidget):
         frame_ = MapFrame(kind="total")
         self._make_tools(frame_, basins)
         super().__init__(map_frame=frame_, export_dir=export_dir)
-        self.children = (*self.children[:3], widgets.HTML("<b>What if the season changed?</b>"),
-                         self.scenario_html, *self.children[3:], self.caution)
+        at = list(self.children).index(self.table_html) + 1  # the what-if goes under the basin table
+        self.children = (*self.children[:at], widgets.HTML("<b>What if the season changed?</b>"),
+                         self.scenario_html, *self.children[at:], self.caution)
         self.export_formats = ["csv"]
         if _has("climwidgets.report.netcdf"):
             self.add_export("Basin analysis as NetCDF", self._write_netcdf, "nc", stem="basin_summary")

@@ -90,6 +90,42 @@ def test_bad_parameter_is_a_message_not_a_traceback():
     assert w.error is None and w.message.value == ""
 
 
+class _Checked(_Totals):
+    """Refuses year_start 12 in its controls (a parameter error, before any computation)."""
+
+    def parameters(self):
+        if self.year_start.value == 12:
+            raise ParameterError("year_start 12 is refused here", source="test", variable="year_start",
+                                 fix="choose another month")
+        return super().parameters()
+
+
+def test_an_error_marks_the_shown_results_and_an_older_computation_cannot_clear_it():
+    import time
+
+    gate = threading.Event()
+    w = _Checked(monthly_pr(), gate=gate)
+    w.wait()
+    before = w.result
+    assert not w.stale and w.message in w.controls.children  # errors appear beside the controls
+    w.year_start.value = 2  # blocks in compute until released
+    w.year_start.value = 12  # refused by the controls while 2 still runs
+    assert isinstance(w.error, ParameterError) and w.stale
+    assert "cw-stale" in w.table_html._dom_classes and "previous settings" in w.stale_note.value
+    assert all(b.disabled for b in w.exports.children)  # old numbers cannot be exported as new
+    gate.set()
+    for _ in range(100):  # let the older computation run to its end
+        if not any(t.name.endswith("-2") for t in threading.enumerate()):
+            break
+        time.sleep(0.05)
+    w.kernel.drain()
+    assert isinstance(w.error, ParameterError) and w.stale and w.result is before and 2 not in w.rendered
+    w.year_start.value = 3
+    w.wait()
+    assert w.error is None and not w.stale and w.rendered[-1] == 3
+    assert "cw-stale" not in w.table_html._dom_classes and not any(b.disabled for b in w.exports.children)
+
+
 def test_compute_now_runs_in_the_calling_thread():
     w = _Totals(monthly_pr())
     w.year_start.value = 10
