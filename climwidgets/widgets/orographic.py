@@ -32,7 +32,7 @@ from .mapframe import MapFrame
 
 __all__ = ["OrographicContrastWidget", "parse_bands"]
 
-LAYERS = [("signed distance from the crest", "distance"), ("observed mean annual total", "observed"),
+LAYERS = [("observed mean annual total", "observed"), ("signed distance from the crest", "distance"),
           ("linear model (rate)", "model"), ("terrain", "terrain")]
 
 
@@ -106,7 +106,7 @@ class OrographicContrastWidget(BaseWidget):
         self.temperature = widgets.FloatSlider(value=10.0, min=-10.0, max=30.0, step=1.0,
                                                description="Temperature (°C)", style=style, layout=lay,
                                                continuous_update=False)
-        self.layer = widgets.Dropdown(options=LAYERS, value="distance", description="Map shows",
+        self.layer = widgets.Dropdown(options=LAYERS, value="observed", description="Map shows",
                                       style=style, layout=lay)
         super().__init__(map_frame=MapFrame(basins=self.basins, kind="difference"), export_dir=export_dir)
         self.watch(self.wind_from, self.crest_mode, self.min_height, self.bands, self.level, self.n_boot,

@@ -72,6 +72,10 @@ def test_default_contrast_model_and_gradients(setup):
         g = cw.elevation_gradient(mean, elev, mask=elev > 0, side=side, distance_km=expected["distance_km"])
         xr.testing.assert_allclose(w.gradients[side], g)
     assert float(w.gradients["windward"]["slope"]) > 0  # rain rises up the slope
+    # the page opens on the precipitation itself, the observed mean annual total
+    assert w.layer.value == "observed"
+    np.testing.assert_allclose(np.asarray(w.map.mesh.get_array()).reshape(elev.shape),
+                               mean.transpose("lat", "lon").values)
 
 
 def test_wind_direction_flips_the_sides(setup):
