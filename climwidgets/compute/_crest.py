@@ -100,12 +100,9 @@ def _edges(centres: np.ndarray, lower=None, upper=None, limit=None) -> tuple[np.
                         expected="at least two cells along lat and lon, or lat_lower/"
                                  "lat_upper and lon_lower/lon_upper bound coordinates",
                         fix="add bound coordinates to the grid")
-    mid = 0.5 * (centres[1:] + centres[:-1])
-    lo = np.concatenate([[centres[0] - (mid[0] - centres[0])], mid])
-    hi = np.concatenate([mid, [centres[-1] + (centres[-1] - mid[-1])]])
-    if limit is not None:
-        lo, hi = np.clip(lo, -limit, limit), np.clip(hi, -limit, limit)
-    return lo, hi
+    from ..io.grid import infer_edges  # the loader's one edge inference
+
+    return infer_edges(centres, clip=limit)
 
 
 def cell_area(da) -> xr.DataArray:

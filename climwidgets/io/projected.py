@@ -64,8 +64,15 @@ def lonlat(crs, x, y):
 
 
 def _edges(centres: np.ndarray) -> np.ndarray:
-    mid = 0.5 * (centres[1:] + centres[:-1])
-    return np.concatenate([[2 * centres[0] - mid[0]], mid, [2 * centres[-1] - mid[-1]]])
+    """The n + 1 edges along an axis, in the order of its centres (the loader's one inference)."""
+    from .grid import infer_edges
+
+    if centres.size == 1:
+        raise GridError("cannot infer the cell edges of a single projected cell",
+                        expected="at least two cells along x and y, or CF bounds variables",
+                        fix="add x_bounds/y_bounds variables (CF 'bounds' attribute) to the file")
+    lower, upper = infer_edges(centres)
+    return np.append(lower, upper[-1]) if centres[-1] > centres[0] else np.append(upper, lower[-1])
 
 
 def _axis_edges(grid, axis: str) -> np.ndarray:
