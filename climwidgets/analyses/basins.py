@@ -136,6 +136,10 @@ def summary_maps(pr: xr.DataArray | None, months=(7, 8), baseline=(1991, 2020), 
     """
     months, baseline = tuple(months), tuple(baseline)
     if bundle is None:
+        if pr is None:
+            raise ParameterError("summary_maps needs pr or bundle", source="summary_maps", variable="pr",
+                                 expected="a precipitation DataArray, or the bundle of summary_bundle",
+                                 fix="pass pr=... or bundle=...")
         bundle = summary_bundle(pr, months, baseline, year_start)
     ds = xr.Dataset({"seasonal_share_map": bundle["seasonal_share"].reset_coords(drop=True).assign_attrs(
         units="1", long_name=f"seasonal share ({season_label(months)})")})
