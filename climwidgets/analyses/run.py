@@ -12,7 +12,7 @@ from __future__ import annotations
 import dask
 import xarray as xr
 
-__all__ = ["compute"]
+__all__ = ["compute", "monthly_source", "small_in_memory", "IN_MEMORY_BYTES"]
 
 
 def _walk(obj, found, path=()):
@@ -99,3 +99,15 @@ def monthly_source(pr: xr.DataArray) -> xr.DataArray:
     if monthly.nbytes <= IN_MEMORY_BYTES:
         return cache.cached("monthly_totals", lambda: monthly, pr)
     return monthly
+
+
+def small_in_memory(pr: xr.DataArray) -> xr.DataArray:
+    """``pr`` read into memory when it is at most :data:`IN_MEMORY_BYTES`, else unchanged.
+
+    For interactive analyses that build many small graphs over the same data (anomalies of
+    every basin and period): on a small grid the dask overhead of those graphs costs more
+    than the arithmetic, so the data are read once and kept.
+    """
+    if pr.chunks is not None and pr.nbytes <= IN_MEMORY_BYTES:
+        return pr.compute()  # a new object: the caller's stays lazy
+    return pr

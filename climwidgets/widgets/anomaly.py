@@ -23,7 +23,7 @@ from ..analyses.anomalies import ANOMALY_KINDS, anomaly_field, anomaly_ranking, 
     step_labels
 from ..analyses.basins import basin_series
 from ..analyses.meta import frame
-from ..analyses.run import IN_MEMORY_BYTES, compute
+from ..analyses.run import compute, small_in_memory
 from ..compute._time import MONTH_NAMES, season_months
 from ..compute.spi import SPI_SCALES
 from ..errors import ParameterError
@@ -138,12 +138,7 @@ class AnomalyWidget(BaseWidget):
     def _inputs(self):
         """The precipitation and the basin-mean series (basin, time), each read once and kept."""
         if self._cache is None:
-            pr = self.pr
-            # A small grid is read into memory once (analyses.run.IN_MEMORY_BYTES): anomaly
-            # graphs over many small selections cost more in dask overhead than the arithmetic.
-            if pr.chunks is not None and pr.nbytes <= IN_MEMORY_BYTES:
-                pr = pr.load()
-            self._cache = pr
+            self._cache = small_in_memory(self.pr)
         pr = self._cache
         basins = self._series_basins
         new = [b for b in basins if (b.token, b.name) not in self._series]
