@@ -170,9 +170,8 @@ def run_summary(data, basins, months=(7, 8), baseline=(1991, 2020), out_dir="out
     the NetCDF and the report are written from that one result.
     """
 
-    from .analyses.basins import basin_table
+    from .analyses.basins import basin_table, summary_bundle
     from .analyses.run import compute
-    from .compute.bundle import climatology_bundle
     from .compute._time import check_year_start
     from .report.content import _grid_detail, content_from_analysis
     from .report.html import write_report
@@ -190,7 +189,7 @@ def run_summary(data, basins, months=(7, 8), baseline=(1991, 2020), out_dir="out
     sources = _sources(pr)
     say(f"{len(basin_list)} basin(s); {_STEP_WORD.get(pr.attrs['step'], pr.attrs['step'])} data {dict(pr.sizes)}")
 
-    bundle = climatology_bundle(pr, months=months, baseline=baseline, year_start=year_start, maxima_days=())
+    bundle = summary_bundle(pr, months=months, baseline=baseline, year_start=year_start)
     lazy = (basin_table(pr, basin_list, months=months, baseline=baseline, year_start=year_start, bundle=bundle),
             bundle[["seasonal_share", "normals"]])
     with say.dask("basin table, seasonal share and normals in one pass"):

@@ -180,15 +180,13 @@ def build_report_content(pr: xr.DataArray, basins, months=(7, 8), baseline=(1991
     ``sources`` are the input files to list with their checksums (default: the paths in
     ``pr.attrs["sources"]`` written by :func:`cw.open_precip`).
     """
-    from ..analyses.basins import basin_table, what_if
+    from ..analyses.basins import basin_table, summary_bundle, what_if
     from ..analyses.run import compute
-    from ..compute.bundle import climatology_bundle
     from ..geo.basinset import as_basin_list
 
     basins = as_basin_list(basins, "build_report_content")
     if bundle is None:  # one bundle for the table and the what-if: one read of the data
-        bundle = climatology_bundle(pr, months=tuple(months), baseline=tuple(baseline), year_start=year_start,
-                                    maxima_days=())
+        bundle = summary_bundle(pr, months=months, baseline=baseline, year_start=year_start)
     ds = basin_table(pr, basins, months=months, baseline=baseline, year_start=year_start, bundle=bundle)
     what = None
     if scenario_percent is not None:
