@@ -228,11 +228,12 @@ def run_extremes(data, basins=None, duration_days=1, periods=(2, 10, 25, 50, 100
     in both files and in the result.
     """
     from .analyses.basins import basin_series
-    from .analyses.extremes import areal_design_depths, depth_table
+    import numpy as np
+
+    from .analyses.extremes import areal_design_depths, depth_field, depth_table
     from .analyses.meta import describe
     from .analyses.run import compute
-    from .compute.extremes import annual_maxima
-    from .compute.gev import _check_periods, return_levels
+    from .compute.gev import _check_periods
     from .compute.warming import DESIGN_DEPTH_CAUTIONS
     from .report.netcdf import to_netcdf
     from .report.tables import to_csv
@@ -253,18 +254,18 @@ def run_extremes(data, basins=None, duration_days=1, periods=(2, 10, 25, 50, 100
     pr = _open(data, var)
     sources = _sources(pr)
     duration = {"duration_days": duration_days} if duration_hours is None else {"duration_hours": duration_hours}
-    amax = annual_maxima(pr, year_start=year_start, **duration)  # checks step and duration before any read
-
-    # one read of the data: the cells' annual maxima and every basin's mean series
-    lazy = [amax, basin_series(pr, basin_list) if basin_list else None]
-    with say.dask("annual maxima and basin series in one pass"):
-        amax, series = compute(*lazy)
     fit = dict(periods=periods, ci=float(ci), n_boot=int(n_boot), seed=seed)
-    with say.dask(f"return levels of {amax.size // max(1, amax.sizes['year'])} cells ({n_boot} bootstrap samples)"):
-        levels = return_levels(amax, **fit).compute()
+    levels = depth_field(pr, year_start=year_start, **fit, **duration)  # checks step and duration before any read
+
+    # one read of the data: the cells' return levels and every basin's mean series
+    lazy = [levels, basin_series(pr, basin_list) if basin_list else None]
+    cells = int(np.prod([n for d, n in levels.sizes.items() if d != "period"]))
+    with say.dask(f"return levels of {cells} cells ({n_boot} bootstrap samples) and basin series in one pass"):
+        levels, series = compute(*lazy)
+    dur = levels.attrs.get("duration", "")
     _make_folder(paths)
     to_netcdf(levels, paths["netcdf"], overwrite=overwrite,
-              title=f"Return levels of annual maximum {amax.attrs.get('duration', '')} precipitation")
+              title=f"Return levels of annual maximum {dur} precipitation")
     table = None
     if basin_list:
         say("basin return levels")
@@ -280,7 +281,7 @@ def run_extremes(data, basins=None, duration_days=1, periods=(2, 10, 25, 50, 100
         table["n_years"] = depths["n_years"].to_series().reindex(table.index).astype(int)
         table = table[["return_period_years", "areal_estimate_mm", "areal_lower_mm", "areal_upper_mm",
                        "cell_mean_estimate_mm", "n_years"]]
-        table.attrs = {"duration": amax.attrs.get("duration", ""), "ci": float(ci), "n_boot": int(n_boot),
+        table.attrs = {"duration": dur, "ci": float(ci), "n_boot": int(n_boot),
                        "seed": seed, "year_start": year_start, "periods": list(periods),
                        "interval": levels.attrs.get("interval_method", "")}
         to_csv(table, paths["csv"], overwrite=overwrite,
