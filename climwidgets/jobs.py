@@ -373,8 +373,7 @@ def run_compare(data, basins=None, months=(7, 8), baseline=None, out_dir="out", 
     import dask
     import xarray as xr
 
-    from .analyses.comparison import products_basin_table
-    from .compute.compare import align, compare
+    from .analyses.comparison import agreement_maps, aligned_products, products_basin_table
     from .compute.totals import monthly_totals
     from .report.netcdf import to_netcdf
     from .report.tables import to_csv
@@ -403,10 +402,10 @@ def run_compare(data, basins=None, months=(7, 8), baseline=None, out_dir="out", 
     lazy = {n: monthly_totals(pr) for n, pr in products.items()}
     with say.dask(f"monthly totals of {len(products)} products"):
         (monthly,) = dask.compute(lazy)
-    aligned = align(monthly, grid=grid, period=period, method=method)
+    aligned = {n: a.rename(n) for n, a in aligned_products(monthly, grid=grid, period=period, method=method).items()}
     ref, others = next(iter(aligned)), list(aligned)[1:]
     say(f"agreement maps against {ref!r}")
-    metrics = xr.concat([compare(aligned[ref].rename(ref), aligned[o].rename(o), kge=kge) for o in others],
+    metrics = xr.concat([agreement_maps(aligned, ref, o, kge=kge) for o in others],
                         dim=pd.Index(others, name="product"), combine_attrs="drop_conflicts")
     metrics["product"].attrs = {"long_name": f"product compared with the reference {ref!r}"}
     metrics.attrs.pop("other", None)  # one value per product: the product coordinate says it

@@ -92,12 +92,13 @@ def products_basin_table(datasets: dict, basins, months=(7, 8), baseline=None) -
                         basins=tuple(b.name for b in basins), months=tuple(months), baseline=base)
 
 
-def aligned_products(datasets: dict) -> dict:
-    """The products on their common complete months and the coarsest product's grid (:func:`cw.align`)."""
-    return align(datasets)
+def aligned_products(datasets: dict, **options) -> dict:
+    """The products on their common complete months and one grid (:func:`cw.align`; by default the
+    coarsest product's grid; ``options`` are those of :func:`cw.align`)."""
+    return align(datasets, **options)
 
 
-def agreement_maps(aligned: dict, reference: str, other: str) -> xr.Dataset:
+def agreement_maps(aligned: dict, reference: str, other: str, kge: str = "2009") -> xr.Dataset:
     """Per-cell agreement of ``other`` with ``reference`` (lazy), each metric with its words.
 
     Parameters
@@ -106,6 +107,8 @@ def agreement_maps(aligned: dict, reference: str, other: str) -> xr.Dataset:
         Products from :func:`aligned_products` (one grid, one period).
     reference, other : str
         The two products compared.
+    kge : {"2009", "2012"}
+        Form of the Kling-Gupta efficiency (Gupta et al. 2009, or Kling et al. 2012).
 
     Returns
     -------
@@ -126,7 +129,7 @@ def agreement_maps(aligned: dict, reference: str, other: str) -> xr.Dataset:
         raise ParameterError(f"reference and other are both {reference!r}", source="agreement_maps",
                              variable="other", expected="two different products",
                              fix="choose another product as 'Other'")
-    out = compare(aligned[reference], aligned[other])
+    out = compare(aligned[reference], aligned[other], kge=kge)
     for name in out.data_vars:
         if name in METRICS:
             units = out[name].attrs.get("units", "")
