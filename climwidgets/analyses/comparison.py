@@ -8,7 +8,6 @@ products are computed in one ``dask.compute``.
 
 from __future__ import annotations
 
-import dask
 import numpy as np
 import pandas as pd
 import xarray as xr
@@ -21,9 +20,10 @@ from ..compute.trend import trend
 from ..geo.basinset import as_basin_list
 from ..provenance import with_history
 from .basins import basin_series
-from .meta import CATALOGUE
+from .meta import describe, frame
 
-__all__ = ["products_basin_table", "agreement_maps", "aligned_products", "METRICS", "PRODUCT_COLUMNS",
+__all__ = ["products_table", "products_basin_table", "products_frame",
+           "agreement_maps", "aligned_products", "METRICS", "PRODUCT_COLUMNS",
            "SPREAD_RANGE", "SPREAD_CV"]
 
 #: The agreement metrics of two products: plain words, and how their units read on screen.
@@ -40,21 +40,37 @@ _UNIT_WORDS = {"mm/yr": "mm per year", "mm": "mm per month", "1": "no unit"}
 SPREAD_RANGE = "spread: max - min"
 SPREAD_CV = "spread: coefficient of variation"
 PRODUCT_COLUMNS = ("annual_mean_mm", "seasonal_share", "normal_mm", "trend_mm_per_year", "trend_pvalue")
-_DESCRIPTION = {"annual_mean_mm": "mean annual total over the common period (mm)"}
+_DESCRIPTION = {"annual_mean_mm": "mean annual total of the basin over the complete years common to all products"}
 
 
-def products_basin_table(datasets: dict, basins, months=(7, 8), baseline=None) -> pd.DataFrame:
-    """Basin climatology per product, with the spread across products.
+def products_table(datasets: dict, basins, months=(7, 8), baseline=None) -> xr.Dataset:
+    """Basin climatology per product, with the spread across products (lazy Dataset).
 
     Per basin and product: mean annual total, seasonal share of ``months`` (ratio of
     sums), annual normal over ``baseline`` (default: the whole common period) and the Sen
-    slope / Mann-Kendall p-value of the annual totals.  After the products of each basin
-    come two rows: ``"spread: max - min"`` and ``"spread: coefficient of variation"``
-    (population standard deviation / mean across products; left empty for the trend,
-    whose mean can be near zero, and for the p-value).
+    slope / Mann-Kendall p-value of the annual totals.  Each product is summarized on its
+    own grid (area-weighted basin mean, no regridding) over the complete years common to
+    all products.  After the products come two more entries of the ``product`` dimension:
+    ``"spread: max - min"`` and ``"spread: coefficient of variation"`` (population standard
+    deviation / mean across products; missing for the trend, whose mean can be near zero,
+    and for the p-value).
 
-    Returns a DataFrame indexed by (basin, product); ``attrs`` holds the column
-    descriptions, the period, the season, the baseline and a history line.
+    Parameters
+    ----------
+    datasets : dict of {name: DataArray}
+        Precipitation products (any step, calendar and grid); at least two.
+    basins : list of Basin or BasinSet
+    months : sequence of int
+        The season whose share is reported.
+    baseline : (int, int), optional
+        The normal period; default the whole common period.
+
+    Returns
+    -------
+    xarray.Dataset
+        The :data:`PRODUCT_COLUMNS` on (basin, product), described for tables; ``attrs``
+        hold the period, the season, the baseline and the spread's definition.  One
+        ``compute`` reads each product's chunks once.
     """
     func = "products_basin_table"
     products = _check_products(datasets, func)
@@ -62,34 +78,51 @@ def products_basin_table(datasets: dict, basins, months=(7, 8), baseline=None) -
     monthly, (first, last) = _common_months(products, None, func)
     base = (first, last) if baseline is None else tuple(int(v) for v in baseline)
 
-    lazy = {}
-    for name, m in monthly.items():
+    parts = []
+    for m in monthly.values():
         series = basin_series(m, basins).reset_coords("covered_fraction", drop=True)
         annual = annual_totals(series)
         tr = trend(annual, dim="year")
-        lazy[name] = (annual.mean("year"), seasonal_fraction(series, months), annual_normal(series, baseline=base),
-                      tr["slope"], tr["pvalue"])
-    (values,) = dask.compute(lazy)
+        values = (annual.mean("year"), seasonal_fraction(series, months), annual_normal(series, baseline=base),
+                  tr["slope"], tr["pvalue"])
+        parts.append(xr.Dataset({c: v.reset_coords(drop=True).drop_attrs() if hasattr(v, "drop_attrs")
+                                 else v.reset_coords(drop=True) for c, v in zip(PRODUCT_COLUMNS, values)}))
+    per_product = xr.concat(parts, dim="product").assign_coords(product=np.array(list(products), dtype=object))
+    mean = per_product.mean("product")
+    cv = per_product.std("product") / mean.where(mean != 0)
+    for c in ("trend_mm_per_year", "trend_pvalue"):
+        cv[c] = cv[c] * np.nan
+    spread = per_product.max("product") - per_product.min("product")
+    spread["trend_pvalue"] = spread["trend_pvalue"] * np.nan
+    table = xr.concat([per_product, spread.expand_dims(product=np.array([SPREAD_RANGE], dtype=object)),
+                       cv.expand_dims(product=np.array([SPREAD_CV], dtype=object))],
+                      dim="product").transpose("basin", "product")
+    out = xr.Dataset({c: describe(table[c], c, **({"description": _DESCRIPTION[c]} if c in _DESCRIPTION else {}))
+                      for c in PRODUCT_COLUMNS})
+    out.attrs = {"period": f"{first}-{last}", "season_months": tuple(months), "baseline": base,
+                 "spread": "max - min and coefficient of variation (population sd / mean) across products"}
+    return with_history(out, func, None, products=tuple(products), basins=tuple(b.name for b in basins),
+                        months=tuple(months), baseline=base)
 
-    rows, index = [], []
-    for j, basin in enumerate(basins):
-        block = np.array([[float(v.isel(basin=j)) for v in values[n]] for n in products])
-        rows.extend(block)
-        index.extend((basin.name, n) for n in products)
-        mean = block.mean(axis=0)
-        cv = block.std(axis=0) / np.where(mean != 0, mean, np.nan)
-        cv[3:] = np.nan
-        rows.extend([block.max(axis=0) - block.min(axis=0), cv])
-        index.extend([(basin.name, SPREAD_RANGE), (basin.name, SPREAD_CV)])
-    table = pd.DataFrame(rows, index=pd.MultiIndex.from_tuples(index, names=["basin", "product"]),
-                         columns=list(PRODUCT_COLUMNS))
-    table.loc[(slice(None), SPREAD_RANGE), "trend_pvalue"] = np.nan
-    columns = {c: _DESCRIPTION.get(c, f"{CATALOGUE[c].description} ({CATALOGUE[c].units})") for c in PRODUCT_COLUMNS}
-    table.attrs = {"columns": columns, "period": f"{first}-{last}", "season_months": tuple(months),
-                   "baseline": base,
-                   "spread": "max - min and coefficient of variation (population sd / mean) across products"}
-    return with_history(table, func, None, products=tuple(products),
-                        basins=tuple(b.name for b in basins), months=tuple(months), baseline=base)
+
+def products_basin_table(datasets: dict, basins, months=(7, 8), baseline=None) -> pd.DataFrame:
+    """:func:`products_table` computed into a table indexed by (basin, product).
+
+    The columns are the :data:`PRODUCT_COLUMNS` (numbers as stored); ``attrs["columns"]``
+    holds each column's label, units and description, and ``attrs`` the period, the
+    season, the baseline and a history line.
+    """
+    from .run import compute
+
+    (ds,) = compute(products_table(datasets, basins, months=months, baseline=baseline))
+    return products_frame(ds)
+
+
+def products_frame(ds: xr.Dataset) -> pd.DataFrame:
+    """A computed :func:`products_table` as a DataFrame indexed by (basin, product)."""
+    table = frame(ds, index=("basin", "product"), columns=PRODUCT_COLUMNS)
+    table.attrs.update(ds.attrs)
+    return table
 
 
 def aligned_products(datasets: dict, **options) -> dict:

@@ -18,7 +18,7 @@ import ipywidgets as widgets
 import numpy as np
 import pandas as pd
 
-from ..analyses.comparison import METRICS, agreement_maps, aligned_products, products_basin_table
+from ..analyses.comparison import METRICS, agreement_maps, aligned_products, products_frame, products_table
 from ..analyses.meta import display_frame
 from ..compute.seasonal import season_label
 from ..errors import ParameterError
@@ -117,13 +117,14 @@ class ComparisonWidget(BaseWidget):
         have = set() if self.basin_table is None else set(self.basin_table.index.get_level_values("basin"))
         new = [b for b in basins if b.name not in have]
         if new:  # only the basins without rows: a basin joining the set costs its own numbers
-            out["table"] = products_basin_table(self.datasets, new, months=self.months)
+            out["table"] = products_table(self.datasets, new, months=self.months)  # lazy: one pass with the maps
         out["basin_order"] = [b.name for b in basins]
         return out
 
     def finish(self, computed, params):
         ds = computed["compare"]
-        self._pending = {id(ds): (computed.get("table"), computed["basin_order"])}
+        table = computed.get("table")
+        self._pending = {id(ds): (products_frame(table) if table is not None else None, computed["basin_order"])}
         return ds
 
     def render(self, result, params):

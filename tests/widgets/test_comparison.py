@@ -117,18 +117,18 @@ def test_a_basin_joining_the_set_computes_only_its_own_rows(setup, monkeypatch):
     w = cw.ComparisonWidget(products, basins=shared, export_dir="unused")
     w.wait()
     calls = []
-    original = module.products_basin_table
+    original = module.products_table
 
     def counting(datasets, bs, **kw):
         calls.append([b.name for b in bs])
         return original(datasets, bs, **kw)
 
-    monkeypatch.setattr(module, "products_basin_table", counting)
+    monkeypatch.setattr(module, "products_table", counting)
     third = cw.Basin.from_vertices([(60.2, -4.8), (61.8, -4.6), (61.0, -3.2)], name="middle")
     shared.add(third)
     w.wait()
     assert calls == [["middle"]]
-    full = original(products, basins + [third])
+    full = cw.products_basin_table(products, basins + [third])
     pd.testing.assert_frame_equal(w.basin_table, full, check_like=False, rtol=1e-12)
     shared.rename("middle", "centre")
     w.wait()
