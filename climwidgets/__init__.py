@@ -88,6 +88,7 @@ _PUBLIC = {
     "point_design_depths": "climwidgets.analyses.extremes",
     # ensembles and scenarios
     "ensemble_summary": "climwidgets.compute.ensemble",
+    "member_view": "climwidgets.analyses.ensemble",
     "delta_change": "climwidgets.compute.scenario",
     "SCENARIO_CAUTIONS": "climwidgets.compute.scenario",
     "seasonal_share_signal": "climwidgets.compute.signals",

@@ -24,7 +24,8 @@ import numpy as np
 import pandas as pd
 import xarray as xr
 
-__all__ = ["Meta", "CATALOGUE", "INDEX_CATALOGUE", "ENSEMBLE_STATS", "ensemble_attrs", "index_meta", "describe",
+__all__ = ["Meta", "CATALOGUE", "INDEX_CATALOGUE", "ENSEMBLE_STATS", "MEMBER_VIEWS", "ensemble_attrs",
+           "member_view_attrs", "member_view_words", "index_meta", "describe",
            "frame", "display_frame", "column_heading", "format_cell", "table_variables"]
 
 
@@ -212,6 +213,51 @@ ENSEMBLE_STATS: dict[str, str] = {
     "upper_quartile": "ensemble upper percentile",
     "std": "ensemble standard deviation",
 }
+
+#: The two summaries a member menu offers besides the members themselves
+#: (``analyses.ensemble.member_view``): the words shown, the tag of export file names and
+#: what the number is.  Both keep the units of the number they summarise (the spread is a
+#: difference of two members, so a share in % becomes a spread in % points).
+MEMBER_VIEWS: dict[str, dict[str, str]] = {
+    "mean": {"label": "ensemble mean", "tag": "ensemble-mean",
+             "description": "mean over the members (a member without a value is left out)"},
+    "spread": {"label": "spread between members", "tag": "member-spread",
+               "description": "highest minus lowest member (a member without a value is left out)"},
+}
+
+
+def member_view_words(choice, n_members: int | None = None) -> dict[str, str]:
+    """Menu words, file-name tag and description of one member view.
+
+    ``choice`` is ``"mean"``, ``"spread"`` or a member label; ``n_members`` adds the
+    ensemble size to the description of the summaries.
+    """
+    if isinstance(choice, str) and choice in MEMBER_VIEWS:
+        words = dict(MEMBER_VIEWS[choice])
+        if n_members is not None:
+            words["description"] = f"{words['label']} of {n_members} members: {words['description']}"
+        return words
+    safe = "".join(c if c.isalnum() or c in "-." else "-" for c in str(choice)).strip("-") or "member"
+    return {"label": f"member {choice}", "tag": f"member-{safe}", "description": f"ensemble member {choice}"}
+
+
+def member_view_attrs(attrs: dict, choice, n_members: int | None = None) -> dict:
+    """The attributes of a variable seen as one member view (see :data:`MEMBER_VIEWS`).
+
+    Every view records itself in ``ensemble_member``.  A summary also names itself in the
+    label of a described variable ("seasonal share, ensemble mean") or in its
+    ``long_name``; a member keeps its label (the numbers are that member's own).
+    """
+    words = member_view_words(choice, n_members)
+    out = dict(attrs)
+    out["ensemble_member"] = words["label"]
+    if isinstance(choice, str) and choice in MEMBER_VIEWS:
+        if "label" in out:
+            out["label"] = f"{out['label']}, {words['label']}"
+            out["description"] = f"{MEMBER_VIEWS[choice]['description']}, of: {out.get('description', '')}"
+        elif "long_name" in out:
+            out["long_name"] = f"{out['long_name']}, {words['label']}"
+    return out
 
 
 def ensemble_attrs(attrs: dict, stat: str, words: str | None = None) -> dict:

@@ -91,3 +91,73 @@ def test_errors():
     table = xr.Dataset({"a": (("basin", "member"), [[1.0, 2.0]])}, coords={"basin": ["x"], "member": ["p", "q"]})
     with pytest.raises(ParameterError, match="spread"):
         ensemble_basin_table(table, spread=(0.9, 0.1))
+
+
+# ------------------------------------------------------------------ member_view
+from climwidgets.analyses.ensemble import member_choices, member_view  # noqa: E402
+from climwidgets.analyses.meta import describe  # noqa: E402
+
+
+def _three():
+    # hand-made: three members at two cells, one missing value
+    values = np.array([[1.0, 10.0], [4.0, np.nan], [7.0, 16.0]])
+    return xr.DataArray(values, dims=("member", "cell"), coords={"member": ["r1", "r2", "r3"]},
+                        name="depth", attrs={"units": "mm", "long_name": "depth"})
+
+
+def test_member_view_by_hand():
+    da = _three()
+    np.testing.assert_array_equal(member_view(da, "r2").values, [4.0, np.nan])
+    # mean by hand: (1 + 4 + 7) / 3 = 4; the missing member is left out: (10 + 16) / 2 = 13
+    np.testing.assert_allclose(member_view(da, "mean").values, [4.0, 13.0])
+    # spread by hand: highest minus lowest member, 7 - 1 = 6 and 16 - 10 = 6
+    np.testing.assert_allclose(member_view(da, "spread").values, [6.0, 6.0])
+    assert "member" not in member_view(da, "spread").dims
+    assert member_view(da, "spread").attrs["units"] == "mm"
+    assert member_view(da, "mean").attrs["long_name"] == "depth, ensemble mean"
+    assert member_view(da, "r2").attrs["long_name"] == "depth"
+    assert member_view(da, "r2").attrs["ensemble_member"] == "member r2"
+    assert "member_view" in member_view(da, "mean").attrs["history"]
+    assert member_choices(da) == ["r1", "r2", "r3", "mean", "spread"]
+
+
+def test_member_view_equals_numpy_on_the_basin_table(tables):
+    table, _, _ = tables
+    stacked = table["seasonal_share_1"].transpose("basin", "member").values
+    spread = member_view(table, "spread")
+    np.testing.assert_allclose(spread["seasonal_share_1"].values, np.ptp(stacked, axis=1), rtol=1e-12)
+    np.testing.assert_allclose(member_view(table, "mean")["seasonal_share_1"].values, stacked.mean(axis=1),
+                               rtol=1e-12)
+    np.testing.assert_array_equal(member_view(table, "m3")["seasonal_share_1"].values,
+                                  table["seasonal_share_1"].sel(member="m3").values)
+    # the area has no member dimension: kept as it is, not a spread of zero
+    np.testing.assert_array_equal(spread["area_km2"].values, table["area_km2"].values)
+    assert spread["seasonal_share_1"].attrs["label"] == "seasonal share, spread between members"
+    assert spread["seasonal_share_1"].attrs["display_units"] == "%"
+    assert "seasonal share, ensemble mean [%]" in frame(member_view(table, "mean"), display=True).columns
+
+
+def test_member_view_stays_lazy_and_skips_labels():
+    da = _three().chunk({"member": 1})
+    mean = member_view(da, "mean")
+    assert mean.chunks is not None
+    np.testing.assert_allclose(mean.values, [4.0, 13.0])
+    ds = xr.Dataset({"depth": _three(), "label": (("member",), np.array(["dry", "wet", "wet"]))})
+    out = member_view(ds, "mean")
+    assert "label" not in out and "depth" in out
+    assert str(member_view(ds, "r3")["label"].values) == "wet"
+    # positions stand for labels when the dimension has no coordinate
+    plain = _three().drop_vars("member")
+    np.testing.assert_array_equal(member_view(plain, 2).values, [7.0, 16.0])
+
+
+def test_member_view_errors():
+    da = _three()
+    with pytest.raises(ParameterError, match="not a member"):
+        member_view(da, "r9")
+    with pytest.raises(ParameterError, match="member"):
+        member_view(da.isel(member=0), "mean")
+    with pytest.raises(ParameterError, match="not numbers"):
+        member_view(xr.DataArray(np.array(["a", "b"]), dims="member"), "spread")
+    named = describe(da, "annual_mean_mm")
+    assert member_view(named, "mean").attrs["label"] == "mean annual total, ensemble mean"
