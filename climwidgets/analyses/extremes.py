@@ -102,13 +102,17 @@ def areal_design_depths(pr: xr.DataArray, basins, periods=(2, 10, 25, 50, 100), 
     series = series.reset_coords("covered_fraction", drop=True) if "covered_fraction" in series.coords else series
     ams = annual_maxima(series, year_start=year_start, **(duration or {"duration_days": 1}))
     rl = return_levels(ams, periods=periods, ci=ci, n_boot=n_boot, seed=seed)
-    rl = rl.rename(period="return_period").transpose("basin", "return_period")
+    # extra dimensions (ensemble members) come first
+    rl = rl.rename(period="return_period").transpose(..., "basin", "return_period")
     pct = f"{float(ci):.0%}"
+    # one warming factor per basin and period: the same for every member
+    table_dims = ("basin", "return_period")
+    ones = xr.ones_like(rl["estimate"].isel({d: 0 for d in rl["estimate"].dims if d not in table_dims}, drop=True))
     ds = xr.Dataset({
         "areal_estimate_mm": describe(rl["estimate"], "areal_estimate_mm"),
         "areal_lower_mm": describe(rl["lower"], "areal_lower_mm", label=f"lower {pct}"),
         "areal_upper_mm": describe(rl["upper"], "areal_upper_mm", label=f"upper {pct}"),
-        "warming_factor": describe(xr.ones_like(rl["estimate"]), "warming_factor"),
+        "warming_factor": describe(ones, "warming_factor"),
         "n_years": describe(ams.notnull().sum("year"), "n_years"),
     })
     ds["return_period"].attrs = {"units": "years", "long_name": "return period"}

@@ -221,7 +221,7 @@ ENSEMBLE_STATS: dict[str, str] = {
 MEMBER_VIEWS: dict[str, dict[str, str]] = {
     "mean": {"label": "ensemble mean", "tag": "ensemble-mean",
              "description": "mean over the members (a member without a value is left out)"},
-    "spread": {"label": "spread between members", "tag": "member-spread",
+    "spread": {"label": "spread between members", "tag": "ensemble-spread",
                "description": "highest minus lowest member (a member without a value is left out)"},
 }
 

@@ -57,6 +57,14 @@ in ``self.basin_set`` and hears of every change to it (:meth:`basins_changed`).
   server route), and also saves it atomically into ``export_dir`` when ``save_copies``;
   CSV of the table (with its metadata file, see :mod:`climwidgets.report.tables`) and
   PNG of the map are there by default.
+
+Ensembles: when the widget's data (``self.pr``, or what :meth:`member_source` returns)
+have a member dimension, an "Ensemble member" menu heads the controls: each member, the
+ensemble mean and the spread between members.  ``compute`` runs on the whole ensemble and
+the base takes :func:`climwidgets.analyses.ensemble.member_view` of its output before
+``finish`` (statistics per member first, then the summary); each choice keeps its own
+caches, and the map title, the table caption, export file names and the CSV metadata
+name the choice.  See :mod:`climwidgets.widgets.members`.
 """
 
 from __future__ import annotations
@@ -188,6 +196,10 @@ class BaseWidget(widgets.VBox):
 
     title = ""
     export_stem = "climwidgets"
+    #: keys of the ``compute`` dict passed to ``finish`` with the member dimension kept
+    member_whole: tuple = ()
+    #: attributes (besides LRU caches) holding numbers of one member choice
+    member_state: tuple = ()
 
     def __init__(self, map_frame=None, export_dir="out", chart=True):
         self.map = map_frame
@@ -215,7 +227,9 @@ class BaseWidget(widgets.VBox):
         self.add_export("Table as CSV", self._write_csv, "csv")
         if self.map is not None:
             self.add_export("Map as PNG", lambda path: path.write_bytes(self.map.png_bytes()), "png")
-        self.controls = widgets.VBox(self.build_controls() + [self.message],
+        self._init_members()
+        head = [self.member] if self.member is not None else []
+        self.controls = widgets.VBox(head + self.build_controls() + [self.message],
                                      layout=widgets.Layout(min_width="300px"))
         panels = [self.controls] + ([self.map] if self.map is not None else [])
         children = []
@@ -252,6 +266,56 @@ class BaseWidget(widgets.VBox):
 
     def _can_redraw(self) -> bool:
         return self.result is not None
+
+    # ------------------------------------------------------------ ensemble members
+    def member_source(self):
+        """The data whose member dimension the menu offers (default ``self.pr``)."""
+        return getattr(self, "pr", None)
+
+    def _init_members(self):
+        from .members import find_member_dim, member_menu
+
+        self._member_choice = {}
+        self._member_stash = {}
+        source = self.member_source()
+        self.member_dim = find_member_dim(source)
+        self.member = None
+        self.n_members = 0
+        if self.member_dim is not None:
+            self.member = member_menu(source, self.member_dim)
+            self.n_members = len(self.member.options) - 2
+            self.member.observe(self._member_changed, names="value")
+
+    @property
+    def member_choice(self):
+        """The member view shown: a member label, ``"mean"`` or ``"spread"`` (None without members)."""
+        return None if self.member is None else self.member.value
+
+    def member_view_now(self, obj):
+        """``obj`` seen as the current menu choice (``obj`` itself without a member dimension)."""
+        from .members import reduce_members
+
+        if self.member is None:
+            return obj
+        return reduce_members(obj, self.member.value, self.member_dim)
+
+    def _member_changed(self, change):
+        """Keep the numbers of the old choice, bring back (or start empty) those of the new one."""
+        from ..cache import LRUCache
+        from .members import fresh_like
+
+        names = [n for n, v in vars(self).items() if isinstance(v, LRUCache)]
+        names += [n for n in self.member_state if hasattr(self, n) and n not in names]
+        self._member_stash[change["old"]] = {n: getattr(self, n) for n in names}
+        stored = self._member_stash.pop(change["new"], {})
+        for n in names:
+            setattr(self, n, stored[n] if n in stored else fresh_like(getattr(self, n)))
+        self.refresh()
+
+    def _member_words(self):
+        from ..analyses.meta import member_view_words
+
+        return member_view_words(self.member.value, self.n_members) if self.member is not None else None
 
     # ------------------------------------------------------------ basins
     def use_basins(self, basins):
@@ -338,8 +402,10 @@ class BaseWidget(widgets.VBox):
             self._gen += 1
             gen = self._gen
             self._done[gen] = threading.Event()
+            self._member_choice[gen] = self.member_choice
             for old in [g for g in self._done if g < gen - 8]:
                 self._done.pop(old, None)
+                self._member_choice.pop(old, None)
         self.progress.value = 0.0
         self.progress.layout.visibility = "visible"
         if background:
@@ -387,14 +453,23 @@ class BaseWidget(widgets.VBox):
         client = current_client()
         if client is None:
             with TaskProgress(lambda f: self._set_progress(gen, f), lambda: self._is_current(gen)):
-                (computed,) = compute(self.compute(**params))
+                (computed,) = compute(self._members_of(self.compute(**params), gen))
             return computed
         try:  # a dask cluster is in use (cw.use_cluster): its progress feeds the same bar
-            return compute_on_cluster(self.compute(**params), client,
+            return compute_on_cluster(self._members_of(self.compute(**params), gen), client,
                                       on_progress=lambda f: self._set_progress(gen, f),
                                       is_current=lambda: self._is_current(gen))
         except CancelledComputation:
             raise Superseded() from None
+
+    def _members_of(self, out, gen):
+        """``compute``'s output seen as the member choice of computation ``gen`` (lazy)."""
+        if self.member_dim is None:
+            return out
+        from .members import reduce_members
+
+        choice = self._member_choice.get(gen, self.member_choice)
+        return reduce_members(out, choice, self.member_dim, keep=self.member_whole)
 
     def _run(self, gen, params):
         """Compute in the calling (worker) thread; hand the outcome to the kernel's thread."""
@@ -428,6 +503,8 @@ class BaseWidget(widgets.VBox):
                 self.error = None
                 self.message.value = ""
             self._mark_stale(False)
+            if self.map is not None and self.member is not None:
+                self.map.member_note = self._member_words()["label"]
             self.render(result, params)
         except Exception as exc:  # noqa: BLE001 - a rendering problem is shown, not raised into the loop
             self._fail(gen, exc, traceback.format_exc(), finished=False)
@@ -496,7 +573,12 @@ class BaseWidget(widgets.VBox):
     def show_table(self, df: pd.DataFrame | None):
         """Show a DataFrame in the results table and keep it as ``self.table``."""
         self.table = df
-        self.table_html.value = _CSS + df_to_html(df)
+        head = ""
+        if self.member is not None:
+            from .members import caption
+
+            head = caption(self.member.value, self.n_members)
+        self.table_html.value = _CSS + head + df_to_html(df)
 
     def show_chart(self, figure, dpi=100):
         """Show a static matplotlib Figure as a PNG image."""
@@ -565,6 +647,8 @@ class BaseWidget(widgets.VBox):
                 parts.append(f"{span[0]}-{span[1]}")
         if self.basin_set is not None and len(self.basin_set):
             parts.append(f"{len(self.basin_set)}-basins")
+        if getattr(self, "member", None) is not None:
+            parts.append(self._member_words()["tag"])
         return "_".join(parts)
 
     def export_name(self, stem, suffix) -> str:
@@ -645,6 +729,8 @@ class BaseWidget(widgets.VBox):
             elif hasattr(value, "dims"):
                 continue
             clean[key] = value
+        if getattr(self, "member", None) is not None:
+            clean["ensemble_member"] = self._member_words()["description"]
         pr = getattr(self, "pr", None)
         source = getattr(pr, "encoding", {}).get("source") if pr is not None else None
         return {"title": self.title or self.export_stem, "parameters": clean,

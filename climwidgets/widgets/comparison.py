@@ -41,10 +41,20 @@ class ComparisonWidget(BaseWidget):
     months : tuple of int, default (7, 8)
         Season whose share the table reports.
     export_dir : folder for the export buttons.
+
+    Products with a member dimension (an ensemble against a gauge grid, say) get the
+    "Ensemble member" menu: the metrics are computed per member (a product without
+    members is compared with each) and the basin table is made per member, and both are
+    then shown for the chosen member, as the ensemble mean or as the spread between
+    members (``cw.member_view``).
     """
 
     title = "Comparing precipitation products"
     export_stem = "comparison"
+    member_state = ("basin_table",)
+
+    def member_source(self):
+        return self.datasets
 
     def __init__(self, datasets, basins=None, months=(7, 8), export_dir="out"):
         if not isinstance(datasets, dict) or len(datasets) < 2:

@@ -250,18 +250,31 @@ class BasinDrawer(HostsDrawingTools, BaseWidget):
     ----------
     basins : list of Basin
     result : DataFrame, index basin name, columns ``area_km2`` and ``mean`` (field units)
+
+    A field with a member dimension gets the "Ensemble member" menu: the map and the basin
+    means are those of the chosen member, the ensemble mean or the spread between members
+    (basin means per member first, then the view; the same as the view first for a mean).
     """
 
     title = "Basins"
     export_stem = "basins"
+    member_state = ("_rows",)
 
     def __init__(self, field, basins=(), kind="total", export_dir="out"):
+        from .members import DEFAULT_CHOICE, find_member_dim, reduce_members
+
         self.field = field
         self._rows = {}
-        frame = MapFrame(field, kind=kind)
+        self._kind = kind
+        dim = find_member_dim(field)
+        shown = field if dim is None else reduce_members(field, DEFAULT_CHOICE, dim)
+        frame = MapFrame(shown, kind=kind)
         self._make_tools(frame, basins)
         super().__init__(map_frame=frame, export_dir=export_dir, chart=False)
         self.refresh()
+
+    def member_source(self):
+        return self.field
 
     def basins_changed(self, event, details):
         self.tools.sync()
@@ -276,9 +289,13 @@ class BasinDrawer(HostsDrawingTools, BaseWidget):
     def compute(self, basins):
         # only basins not seen before are computed; the others keep their numbers
         new = [b for b in basins if (b.token, b.name) not in self._rows]
-        return field_means(self.field, new)["mean"] if new else None
+        means = field_means(self.field, new)["mean"] if new else None
+        return means if self.member is None else {"means": means, "field": self.field}
 
     def finish(self, computed, params):
+        if self.member is not None:
+            self._shown = computed["field"]
+            computed = computed["means"]
         basins = params["basins"]
         if computed is not None:
             for b in basins:
@@ -291,4 +308,6 @@ class BasinDrawer(HostsDrawingTools, BaseWidget):
         return out.rename(columns={"mean": f"mean [{units}]"})
 
     def render(self, result, params):
+        if self.member is not None:
+            self.map.show_field(self._shown, kind=self._kind)
         self.show_table(result)

@@ -63,6 +63,7 @@ class ExtremesWidget(BaseWidget):
 
     title = "Design-storm depths: return levels"
     export_stem = "return_levels"
+    member_whole = ("fresh",)  # the basin series are kept per member (widgets/members.py)
 
     def __init__(self, pr, basins=None, n_boot=200, export_dir="out"):
         step = getattr(pr, "attrs", {}).get("step") if isinstance(pr, xr.DataArray) else None

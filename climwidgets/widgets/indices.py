@@ -45,6 +45,7 @@ class IndicesWidget(BaseWidget):
 
     title = "Precipitation indices (ETCCDI)"
     export_stem = "precipitation_indices"
+    member_whole = ("indices",)  # the per-year indices are kept per member for the next choice
 
     def __init__(self, pr, basins=None, threshold=25.0, base_period=None, export_dir="out"):
         step = pr.attrs.get("step") if isinstance(pr, xr.DataArray) else None

@@ -80,6 +80,7 @@ class MapFrame(widgets.VBox):
         self.basins = []
         self.coastlines = coastlines
         self.title = title
+        self.member_note = ""  # the ensemble member view shown, added to the title (BaseWidget sets it)
         self._basin_artists = []
         self._overlay = []
         self._values = None
@@ -126,7 +127,16 @@ class MapFrame(widgets.VBox):
         return True
 
     def show_field(self, field, kind=None, vmin=None, vmax=None, label=None, title=None):
-        """Show ``field``; on the same grid only the numbers and colour limits change."""
+        """Show ``field``; on the same grid only the numbers and colour limits change.
+
+        A spread between ensemble members (``attrs["ensemble_member"]``, see
+        ``analyses.ensemble.member_view``) is never negative: it is drawn on the sequential
+        scale from zero, whatever the style of the number itself.
+        """
+        from ..analyses.meta import MEMBER_VIEWS
+
+        if field.attrs.get("ensemble_member") == MEMBER_VIEWS["spread"]["label"]:
+            kind, vmin, vmax = "total", 0.0, None
         kind = kind or getattr(self.mesh, "climwidgets_kind", "total")
         if self._same_grid(field):
             maps.update_field(self.mesh, self.cbar, field, kind=kind, vmin=vmin, vmax=vmax, label=label)
@@ -140,8 +150,11 @@ class MapFrame(widgets.VBox):
         self.field = field
         self._values = np.asarray(field.values, dtype=float)
         self._units = field.attrs.get("units", "")
-        if title is not None or self.title:
-            self.ax.set_title(title if title is not None else self.title, fontsize=9)
+        if title is not None or self.title or self.member_note:
+            text = title if title is not None else (self.title or "")
+            if self.member_note:
+                text = f"{text} ({self.member_note})" if text else self.member_note
+            self.ax.set_title(text, fontsize=9)
         self.redraw()
 
     def _pc(self):
