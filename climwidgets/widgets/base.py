@@ -291,14 +291,6 @@ class BaseWidget(widgets.VBox):
         """The member view shown: a member label, ``"mean"`` or ``"spread"`` (None without members)."""
         return None if self.member is None else self.member.value
 
-    def member_view_now(self, obj):
-        """``obj`` seen as the current menu choice (``obj`` itself without a member dimension)."""
-        from .members import reduce_members
-
-        if self.member is None:
-            return obj
-        return reduce_members(obj, self.member.value, self.member_dim)
-
     def _member_changed(self, change):
         """Keep the numbers of the old choice, bring back (or start empty) those of the new one."""
         from ..cache import LRUCache
