@@ -213,6 +213,7 @@ class BaseWidget(widgets.VBox):
         self._gen = 0
         self._quiet = 0
         self._lock = threading.Lock()
+        self._finish_lock = threading.RLock()  # finish (worker) against a member change (kernel's thread)
         self._done = {0: threading.Event()}
         self._done[0].set()
         self.progress = widgets.FloatProgress(value=0.0, min=0.0, max=1.0, description="Working",
@@ -296,12 +297,17 @@ class BaseWidget(widgets.VBox):
         from ..cache import LRUCache
         from .members import fresh_like
 
-        names = [n for n, v in vars(self).items() if isinstance(v, LRUCache)]
-        names += [n for n in self.member_state if hasattr(self, n) and n not in names]
-        self._member_stash[change["old"]] = {n: getattr(self, n) for n in names}
-        stored = self._member_stash.pop(change["new"], {})
-        for n in names:
-            setattr(self, n, stored[n] if n in stored else fresh_like(getattr(self, n)))
+        # under the finish lock, with the running computation made stale first: its finish
+        # either stored the old choice's numbers before the swap or is skipped
+        with self._finish_lock:
+            with self._lock:
+                self._gen += 1
+            names = [n for n, v in vars(self).items() if isinstance(v, LRUCache)]
+            names += [n for n in self.member_state if hasattr(self, n) and n not in names]
+            self._member_stash[change["old"]] = {n: getattr(self, n) for n in names}
+            stored = self._member_stash.pop(change["new"], {})
+            for n in names:
+                setattr(self, n, stored[n] if n in stored else fresh_like(getattr(self, n)))
         self.refresh()
 
     def _member_words(self):
@@ -467,10 +473,11 @@ class BaseWidget(widgets.VBox):
         """Compute in the calling (worker) thread; hand the outcome to the kernel's thread."""
         try:
             computed = self._compute(params, gen)
-            if not self._is_current(gen):
-                self._finished(gen)
-                return
-            result = self.finish(computed, params)
+            with self._finish_lock:
+                if not self._is_current(gen):
+                    self._finished(gen)
+                    return
+                result = self.finish(computed, params)
         except Superseded:
             self._finished(gen)
             return
