@@ -24,7 +24,7 @@ import xarray as xr
 
 import climwidgets as cw
 
-from ._data import basins, download_links, monthly_pr
+from ._data import basins, check_every_export, download_links, monthly_pr
 
 pytest.importorskip("ipympl")
 
@@ -55,6 +55,13 @@ def _choose(w, choice):
     w.member.value = choice
     w.wait()
     assert w.error is None, w.message.value
+
+
+def _exports_carry(w, tag):
+    """Every export button works on the member view, and every file name carries ``tag``."""
+    exported = check_every_export(w)
+    names = [n for files in exported.values() for n in files]
+    assert names and all(tag in n for n in names), names
 
 
 def _frames_close(a, b, rtol=1e-9):
@@ -144,6 +151,7 @@ def test_basin_summary_mean_is_the_summary_of_the_mean_for_linear_numbers(monthl
     alone.wait()
     _frames_close(w.table, alone.table)
     pd.testing.assert_frame_equal(w.result["scenario"], alone.result["scenario"], check_like=True)
+    _exports_carry(w, "member-m1")
 
 
 def test_anomaly(monthly, tmp_path):
@@ -168,6 +176,7 @@ def test_anomaly(monthly, tmp_path):
     assert "SPI class" in w.table.columns
     _choose(w, "mean")  # SPI classes belong to one member's SPI: not shown for a summary
     assert "SPI class" not in w.table.columns
+    _exports_carry(w, "ensemble-mean")
 
 
 def test_basin_drawer(monthly, tmp_path):
@@ -182,6 +191,7 @@ def test_basin_drawer(monthly, tmp_path):
     means = np.stack([[float(cw.basin_mean(field.sel(member=m), b)) for b in basins()] for m in MEMBERS])
     np.testing.assert_allclose(w.table["mean [mm]"], np.ptp(means, axis=0), rtol=1e-9)
     np.testing.assert_allclose(w.map.field.values, np.ptp(field.values, axis=0), rtol=1e-12)
+    _exports_carry(w, "ensemble-spread")
 
 
 def _daily_ens():
@@ -222,6 +232,7 @@ def test_extremes(tmp_path):
     both = cw.ExtremesWidget(pr, basins=[BASIN, lower], n_boot=50, export_dir=tmp_path)
     both.wait()
     _frames_close(w.table, both.table)
+    _exports_carry(w, "ensemble-mean")
 
 
 def test_indices(tmp_path):
@@ -243,6 +254,13 @@ def test_indices(tmp_path):
     alone.wait()
     np.testing.assert_allclose(w.result["map"].values, alone.result["map"].values, rtol=1e-9)
     _frames_close(w.table, alone.table)
+    # the indices CSV holds the stored names (report.indices_section), not the shown table:
+    # only the file names are checked here
+    w.save_copies = False
+    for button in w.exports.children:
+        button.click()
+        assert w.error is None, w.message.value
+        assert all("member-m1" in n for n in download_links(w)), button.description
 
 
 def test_orographic(tmp_path):
@@ -264,6 +282,7 @@ def test_orographic(tmp_path):
     alone.wait()
     xr.testing.assert_allclose(w.result, alone.result)
     _frames_close(w.table, alone.table)
+    _exports_carry(w, "member-m3")
 
 
 def test_comparison(tmp_path):
@@ -280,6 +299,7 @@ def test_comparison(tmp_path):
     alone.wait()
     xr.testing.assert_allclose(w.result, alone.result)
     _frames_close(w.basin_table, alone.basin_table)
+    _exports_carry(w, "member-m2")
     _choose(w, "mean")
     tables = [cw.products_basin_table({"gauge": gauge, "model": _alone(ens, m)},
                                       [cw.geo.basinset.whole_grid_basin(alone._aligned["gauge"])])
@@ -299,8 +319,6 @@ def demo_ensemble(tmp_path_factory):
 
 def test_demo_ensemble_file_through_the_summary_and_every_export(demo_ensemble, tmp_path):
     from climwidgets.demo_ensemble import MEMBERS
-
-    from ._data import check_every_export
 
     pr = cw.open_precip(demo_ensemble["ensemble_historical"])
     w = cw.BasinSummaryWidget(pr, cw.load_basins(demo_ensemble["basins"]), baseline=(1981, 2010),
