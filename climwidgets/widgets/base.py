@@ -310,6 +310,10 @@ class BaseWidget(widgets.VBox):
                 setattr(self, n, stored[n] if n in stored else fresh_like(getattr(self, n)))
         self.refresh()
 
+    def with_member(self, text: str) -> str:
+        """``text`` followed by the member view shown, e.g. "Basin summary (ensemble mean)"."""
+        return f"{text} ({self._member_words()['label']})" if self.member is not None else text
+
     def _member_words(self):
         from ..analyses.meta import member_view_words
 

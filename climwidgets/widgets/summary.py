@@ -233,7 +233,7 @@ class BasinSummaryWidget(HostsDrawingTools, BaseWidget):
         self._need_result()
         ds = self.result["analysis"].drop_vars(["seasonal_share_per_year", "share_intercept"], errors="ignore")
         ds = ds.assign_coords(basin=np.array([str(v) for v in ds["basin"].values]))
-        to_netcdf(ds, path, overwrite=True, title="Basin summary")
+        to_netcdf(ds, path, overwrite=True, title=self.with_member("Basin summary"))
 
     def _write_html(self, path):
         from ..report.content import content_from_analysis
@@ -244,5 +244,5 @@ class BasinSummaryWidget(HostsDrawingTools, BaseWidget):
         analysis["seasonal_share_map"] = self.result["share_map"]
         analysis["annual_normal_map"] = self.result["normal_map"]
         content = content_from_analysis(analysis, self.basins, self.pr.attrs, what=self.result["what_if"],
-                                        title="Basin precipitation summary")
+                                        title=self.with_member("Basin precipitation summary"))
         write_report(content, path, overwrite=True)

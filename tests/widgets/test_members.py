@@ -176,7 +176,9 @@ def test_anomaly(monthly, tmp_path):
     assert "SPI class" in w.table.columns
     _choose(w, "mean")  # SPI classes belong to one member's SPI: not shown for a summary
     assert "SPI class" not in w.table.columns
-    _exports_carry(w, "ensemble-mean")
+    _choose(w, "spread")  # a spread is never negative: sequential colours from zero, not centred on 0
+    assert w.map.mesh.climwidgets_kind == "total" and w.map.mesh.get_clim()[0] == 0.0
+    _exports_carry(w, "ensemble-spread")
 
 
 def test_basin_drawer(monthly, tmp_path):
@@ -329,6 +331,8 @@ def test_demo_ensemble_file_through_the_summary_and_every_export(demo_ensemble, 
     exported = check_every_export(w)
     names = [n for files in exported.values() for n in files]
     assert names and all("ensemble-mean" in n for n in names)
+    html_report = next(v for files in exported.values() for n, v in files.items() if n.endswith(".html"))
+    assert b"Basin precipitation summary (ensemble mean)" in html_report
     csv = exported["Table as CSV"]
     meta = json.loads(next(v for n, v in csv.items() if n.endswith("-metadata.json")))
     assert meta["parameters"]["ensemble_member"].startswith("ensemble mean of 4 members")
