@@ -35,7 +35,8 @@ import xarray as xr
 from ..analyses.ensemble import member_choices, member_view
 from ..analyses.meta import MEMBER_VIEWS, member_view_words
 from ..cache import LRUCache
-from ..compute.ensemble import member_dim
+from ..compute.ensemble import MEMBER_DIMS, member_dim
+from ..errors import ParameterError
 
 __all__ = ["DEFAULT_CHOICE", "MEMBER_LABEL", "find_member_dim", "member_menu", "reduce_members", "fresh_like",
            "caption"]
@@ -55,6 +56,13 @@ def find_member_dim(obj) -> str | None:
         return next((d for d in found if d is not None), None)
     if not isinstance(obj, (xr.DataArray, xr.Dataset)):
         return None
+    found = [d for d in MEMBER_DIMS if d in obj.dims]
+    if len(found) > 1:
+        raise ParameterError(f"the data have several member-like dimensions {tuple(found)}",
+                             source=getattr(obj, "name", None) or "widget input", variable=str(found),
+                             expected="at most one member dimension for the Ensemble member menu",
+                             fix=f"select one of them (e.g. pr.isel({found[1]}=0)) or stack them into one: "
+                                 f"pr.stack(member={tuple(found)!r})")
     return member_dim(obj, None, "ensemble member menu", required=False)
 
 

@@ -77,6 +77,14 @@ def test_no_member_dimension_no_menu(tmp_path):
     assert "member" not in w.export_tag() and "Ensemble member" not in w.table_html.value
 
 
+def test_two_member_dimensions_are_refused_plainly(monthly, tmp_path):
+    from climwidgets.errors import ParameterError
+
+    both = monthly.expand_dims(model=["x", "y"])
+    with pytest.raises(ParameterError, match="several member-like dimensions"):
+        cw.SeasonalShareWidget(both, basins(), export_dir=tmp_path)
+
+
 def test_seasonal_share(monthly, tmp_path):
     w = cw.SeasonalShareWidget(monthly, basins(), export_dir=tmp_path)
     w.wait()
