@@ -96,7 +96,7 @@ def products_table(datasets: dict, basins, months=(7, 8), baseline=None) -> xr.D
     spread["trend_pvalue"] = spread["trend_pvalue"] * np.nan
     table = xr.concat([per_product, spread.expand_dims(product=np.array([SPREAD_RANGE], dtype=object)),
                        cv.expand_dims(product=np.array([SPREAD_CV], dtype=object))],
-                      dim="product").transpose("basin", "product")
+                      dim="product").transpose(..., "basin", "product")  # ensemble members first
     out = xr.Dataset({c: describe(table[c], c, **({"description": _DESCRIPTION[c]} if c in _DESCRIPTION else {}))
                       for c in PRODUCT_COLUMNS})
     out.attrs = {"period": f"{first}-{last}", "season_months": tuple(months), "baseline": base,
