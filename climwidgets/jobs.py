@@ -173,7 +173,7 @@ def run_summary(data, basins, months=(7, 8), baseline=(1991, 2020), out_dir="out
     from .analyses.basins import basin_table, summary_bundle
     from .analyses.run import compute
     from .compute._time import check_year_start
-    from .report.content import _grid_detail, content_from_analysis
+    from .report.content import report_content
     from .report.html import write_report
     from .report.netcdf import to_netcdf
     from .report.tables import to_csv
@@ -196,9 +196,7 @@ def run_summary(data, basins, months=(7, 8), baseline=(1991, 2020), out_dir="out
         analysis, maps = compute(*lazy)
 
     say("basin table and report")
-    content = content_from_analysis(analysis, basin_list, pr.attrs, sources=sources,
-                                    title=title or "Basin precipitation summary", pr_detail=_grid_detail(pr),
-                                    pr_name=str(pr.name or "precipitation"))
+    content = report_content(analysis, basin_list, pr, sources=sources, title=title or "Basin precipitation summary")
     table = content.table
 
     _make_folder(paths)

@@ -167,6 +167,64 @@ def content_from_analysis(ds: xr.Dataset, basins, pr_attrs: dict, what: xr.Datas
     )
 
 
+def report_content(analysis: xr.Dataset, basins, pr: xr.DataArray, what: xr.Dataset | None = None,
+                   title: str = DEFAULT_TITLE, notes=None, sources=None) -> ReportContent:
+    """The basin report of a computed analysis: the one function behind the page's, the notebook's
+    and the command line's report, so all three hold the same sections.
+
+    Parameters
+    ----------
+    analysis : xarray.Dataset
+        A computed :func:`cw.basin_table` (with its maps).
+    basins : list of Basin or BasinSet
+    pr : xarray.DataArray
+        The precipitation the analysis was computed from: its files (``attrs["sources"]``,
+        listed with their checksums), variable, units, grid and period go into the report.
+    what : xarray.Dataset, optional
+        A computed :func:`cw.what_if`.
+    title, notes
+        Report title and extra notes.
+    sources : list of str, optional
+        Input files, when they differ from ``pr.attrs["sources"]``.
+
+    Returns
+    -------
+    ReportContent
+        Nothing is computed here: the numbers are those of the analysis.
+    """
+    if sources is None:
+        sources = [s for s in str(pr.attrs.get("sources", "")).split("; ") if s]
+    notes = list(notes or []) + invented_data_notice(sources)
+    return content_from_analysis(analysis, basins, pr.attrs, what=what, sources=sources, title=title, notes=notes,
+                                 pr_detail=_grid_detail(pr), pr_name=str(pr.name or "precipitation"))
+
+
+#: Said in every report whose inputs are the invented demo data.
+INVENTED_DATA_NOTICE = ("The input data are invented (the climwidgets demo scenario): not observations and not "
+                        "a model run. The numbers show how the tool works; use them for nothing else.")
+
+
+def invented_data_notice(sources) -> list[str]:
+    """``[INVENTED_DATA_NOTICE]`` when any NetCDF input says it is invented demo data, else ``[]``.
+
+    Only the file's global attributes are read (the demo generator writes
+    ``institution = "none (invented demo data)"``).
+    """
+    for src in sources:
+        if not str(src).endswith((".nc", ".nc4")):
+            continue
+        try:
+            import netCDF4
+
+            with netCDF4.Dataset(str(src)) as nc:
+                said = " ".join(str(getattr(nc, a, "")) for a in ("institution", "title", "history"))
+        except Exception:  # noqa: BLE001 - an unreadable header adds no notice; the inputs list names the file
+            continue
+        if "invented" in said:
+            return [INVENTED_DATA_NOTICE]
+    return []
+
+
 def build_report_content(pr: xr.DataArray, basins, months=(7, 8), baseline=(1991, 2020),
                          sources=None, title: str = DEFAULT_TITLE, year_start: int = 1,
                          scenario_percent: float | None = None, scenario_months=None,
@@ -193,10 +251,7 @@ def build_report_content(pr: xr.DataArray, basins, months=(7, 8), baseline=(1991
         what = what_if(pr, basins, months=tuple(scenario_months or months), percent=scenario_percent,
                        year_start=year_start, bundle=bundle)
     ds, what = compute(ds, what)
-    if sources is None:
-        sources = [s for s in str(pr.attrs.get("sources", "")).split("; ") if s]
-    return content_from_analysis(ds, basins, pr.attrs, what=what, sources=sources, title=title, notes=notes,
-                                 pr_detail=_grid_detail(pr), pr_name=str(pr.name or "precipitation"))
+    return report_content(ds, basins, pr, what=what, title=title, notes=notes, sources=sources)
 
 
 def share_years_span(content: ReportContent) -> tuple[int, int] | None:

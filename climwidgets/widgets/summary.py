@@ -236,13 +236,13 @@ class BasinSummaryWidget(HostsDrawingTools, BaseWidget):
         to_netcdf(ds, path, overwrite=True, title=self.with_member("Basin summary"))
 
     def _write_html(self, path):
-        from ..report.content import content_from_analysis
+        from ..report.content import report_content
         from ..report.html import write_report
 
         self._need_result()
         analysis = self.result["analysis"].copy()
         analysis["seasonal_share_map"] = self.result["share_map"]
         analysis["annual_normal_map"] = self.result["normal_map"]
-        content = content_from_analysis(analysis, self.basins, self.pr.attrs, what=self.result["what_if"],
-                                        title=self.with_member("Basin precipitation summary"))
+        content = report_content(analysis, self.basins, self.pr, what=self.result["what_if"],
+                                 title=self.with_member("Basin precipitation summary"))
         write_report(content, path, overwrite=True)
