@@ -303,7 +303,10 @@ def format_cell(value, attrs: dict) -> str:
     if not np.isfinite(v):
         return "–"
     spec = attrs.get("display_format") or ".4g"
-    return format(v, spec)
+    text = format(v, spec)
+    if "e" in text.lower():  # no scientific notation in a table for people
+        return _plain_number(v)
+    return text
 
 
 def table_variables(ds: xr.Dataset, index) -> list[str]:

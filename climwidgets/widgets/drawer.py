@@ -19,7 +19,7 @@ import ipywidgets as widgets
 import xarray as xr
 
 from ..analyses.basins import field_means, field_means_table
-from ..analyses.meta import frame
+from ..analyses.meta import display_frame, frame
 from ..errors import BasinError, InputError, SourceError
 from ..geo.basin import Basin
 from ..geo.basinset import BasinSet, load_basins
@@ -310,4 +310,4 @@ class BasinDrawer(HostsDrawingTools, BaseWidget):
     def render(self, result, params):
         if self.member is not None:
             self.map.show_field(self._shown, kind=self._kind)
-        self.show_table(result)
+        self.show_table(display_frame(result))  # headings in words with units

@@ -20,3 +20,12 @@ def test_people_frame_has_no_scientific_notation_and_thousands_separators():
     assert shown.loc["a", "volume per year [acre-ft]"] == "4,441,000"  # thousands separators
     assert "2020" in shown.loc["a"].tolist() and "–" in shown.loc["b"].tolist()
     assert list(t.columns)[0] == "latest_year"  # the stored table is not changed
+
+
+def test_people_never_see_scientific_notation():
+    """A format spec that would print 1.235e+04 falls back to plain digits with separators."""
+    from climwidgets.analyses.meta import format_cell
+
+    assert format_cell(12345.6, {"display_format": ".4g"}) == "12,346"
+    assert format_cell(1960.2, {"display_format": ".4g"}) == "1960"
+    assert "e" not in format_cell(2.5e-7, {"display_format": ".3g"})
