@@ -35,8 +35,7 @@ demo: demo-data
 ifeq ($(DEMO_HEADLESS),1)
 	$(PY) -m climwidgets.cli demo --headless --out out
 else
-	@echo "Serving the climwidgets tour at http://localhost:$(PORT)/ (Ctrl-C to stop)"
-	$(VENV)/bin/voila notebooks/tour.ipynb --port=$(PORT) --no-browser --Voila.ip=127.0.0.1
+	$(PY) -m climwidgets.cli demo --serve --port=$(PORT)
 endif
 
 benchmarks: $(VENV)/.installed-test

@@ -159,9 +159,11 @@ def _cmd_demo(args):
         if not notebook.is_file():
             raise ParameterError("the tour notebook is not here (installed without the source checkout?)",
                                  source=notebook, fix="run from a source checkout: make demo")
-        _stderr(f"Serving the tour at http://localhost:{args.port}/ (Ctrl-C to stop)")
-        return subprocess.call([sys.executable, "-m", "voila", str(notebook), f"--port={args.port}",
-                                "--no-browser", "--Voila.ip=127.0.0.1"])
+        from .page import voila_command
+
+        _stderr(f"Serving the tour at http://127.0.0.1:{args.port}/ (Ctrl-C to stop)")
+        argv, env = voila_command(notebook, args.port)
+        return subprocess.call(argv, env=env)
     return EXIT_OK
 
 

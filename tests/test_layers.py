@@ -35,7 +35,7 @@ ALLOWED = {
 }
 FRONT_END = ("ipywidgets", "ipympl", "IPython", "ipykernel", "matplotlib")
 # top-level modules that belong to another floor's family
-SAME_FLOOR_AS = {"demo_ensemble": "demo"}
+SAME_FLOOR_AS = {"demo_ensemble": "demo", "page": "cli"}
 
 
 def _floor(parts: tuple[str, ...]) -> str:

@@ -65,7 +65,8 @@ class DrawingTools(widgets.VBox):
         self.load = widgets.Button(description="Load", icon="folder-open", layout=lay)
         self.save = widgets.Button(description="Save all as GeoJSON", icon="save", layout=lay)
         self.overwrite = widgets.Checkbox(value=False, description="replace an existing file", indent=False)
-        self.upload = widgets.FileUpload(accept=".geojson,.json", multiple=False, description="Upload GeoJSON")
+        self.upload = widgets.FileUpload(accept=".geojson,.json", multiple=False, description="Upload GeoJSON",
+                                         layout=widgets.Layout(width="auto"))  # the whole label, unclipped
         self.close.on_click(lambda _: self.close_basin())
         self.undo.on_click(lambda _: self.undo_vertex())
         self.cancel.on_click(lambda _: self.discard())

@@ -79,8 +79,8 @@ class ExtremesWidget(BaseWidget):
         self.basin_levels = None
         self._pending = {}
         self._series = LRUCache(maxsize=256)
-        style = {"description_width": "120px"}
-        lay = widgets.Layout(width="300px")
+        style = {"description_width": "140px"}  # "Bootstrap samples" whole at 1400 px
+        lay = widgets.Layout(width="320px")
         if step == "day":
             opts = [(f"{d} day{'s' if d > 1 else ''}", d) for d in DAY_DURATIONS]
         else:

@@ -55,12 +55,12 @@ def server(demo, tmp_path_factory):
     folder, _ = demo
     workdir = tmp_path_factory.mktemp("voila")
     port = _free_port()
-    voila = Path(sys.executable).with_name("voila")
-    env = {**os.environ, "CLIMWIDGETS_DEMO_DIR": str(folder), "CLIMWIDGETS_DEMO_SIZE": "test"}
+    from climwidgets.page import voila_command
+
+    argv, env = voila_command(NOTEBOOK, port, extra=["--show_tracebacks=True"])  # the page template users get
+    env.update(CLIMWIDGETS_DEMO_DIR=str(folder), CLIMWIDGETS_DEMO_SIZE="test")
     log = open(workdir / "voila.log", "w")
-    proc = subprocess.Popen([str(voila), str(NOTEBOOK), f"--port={port}", "--no-browser",
-                             "--Voila.ip=127.0.0.1", "--show_tracebacks=True"],
-                            cwd=workdir, env=env, stdout=log, stderr=subprocess.STDOUT)
+    proc = subprocess.Popen(argv, cwd=workdir, env=env, stdout=log, stderr=subprocess.STDOUT)
     url = f"http://127.0.0.1:{port}/"
     deadline = time.monotonic() + 120
     while True:
@@ -94,6 +94,8 @@ def page(server, tmp_path):
             viewport={"width": 1400, "height": 1600})
         pg = context.new_page()
         pg.set_default_timeout(180_000)
+        pg.requested = []  # every address the page asked for
+        pg.on("request", lambda request: pg.requested.append(request.url))
         try:
             yield pg
         except Exception:
@@ -221,3 +223,15 @@ def test_every_export_button_downloads_in_the_browser(page, server, demo, tmp_pa
     keep = REPO / "out" / "screenshots"
     keep.mkdir(parents=True, exist_ok=True)
     shutil.copy(tmp_path / "exports.png", keep / "seasonal_share_downloads.png")
+
+
+LOOPBACK = ("http://127.0.0.1", "ws://127.0.0.1", "data:", "blob:", "about:")
+
+
+def test_the_page_asks_nothing_of_the_network(page, server):
+    """Every request of the served page stays on the machine (page template without public links)."""
+    page.goto(server, timeout=180_000)
+    page.wait_for_selector("table.cw-table", timeout=180_000)
+    outside = [u for u in page.requested if not u.startswith(LOOPBACK)]
+    assert outside == [], outside
+    assert any(u.startswith("http://127.0.0.1") for u in page.requested)
