@@ -295,7 +295,7 @@ def remove_stale_temporaries(path: str | os.PathLike[str]) -> list[Path]:
     cutoff = time.time() - STALE_AFTER_S
     removed = []
     candidates = [(old, old.name[len(path.name) + 2:-len(".part")].rpartition(".")[0])
-                  for old in path.parent.glob(f".{glob_escape(path.name)}.*.part") if old.is_file()]
+                  for old in path.parent.glob(f".{_glob_escape(path.name)}.*.part") if old.is_file()]
     candidates += [(old, old.name[len(_STAGE_PREFIX):-len(".part")].rpartition(".")[0])
                    for old in path.parent.glob(f"{_STAGE_PREFIX}*.part") if old.is_dir() and not old.is_symlink()]
     for old, tag in candidates:
@@ -312,7 +312,7 @@ def remove_stale_temporaries(path: str | os.PathLike[str]) -> list[Path]:
     return removed
 
 
-def glob_escape(name: str) -> str:
+def _glob_escape(name: str) -> str:
     """``name`` with the glob characters ``*?[`` matched literally."""
     import glob
 

@@ -365,7 +365,7 @@ def _os_error_line(exc: OSError) -> str:
     text = str(exc.strerror or exc)
     if where is not None and str(where) in text:
         return _one_line(exc)  # already composed by the package (names the file, says what was lost)
-    fix = _OS_FIXES.get(exc.errno, "check the path, the permissions and the free space")
+    fix = _OS_FIXES.get(exc.errno or 0, "check the path, the permissions and the free space")
     head = f"{where}: " if where is not None else ""
     return _one_line(f"{head}{text.rstrip('.')}. Fix: {fix}.")
 

@@ -247,7 +247,8 @@ class Basin:
         A bare Polygon/MultiPolygon gives a one-element list.  Names come from
         ``properties[name_property]``, else "basin 1", "basin 2", …
         """
-        obj, stem, where = path_or_mapping, "basin", None
+        obj, stem = path_or_mapping, "basin"
+        where: str | Path | None = None
         if isinstance(obj, (str, os.PathLike)):
             text = str(obj)
             if text.lstrip().startswith("{"):
