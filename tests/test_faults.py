@@ -423,3 +423,110 @@ def test_export_to_a_really_full_disk_says_so_and_keeps_the_previous_file(small_
         write(big, target, overwrite=True)
     assert info.value.errno == errno.ENOSPC and str(target) in str(info.value)
     assert target.read_bytes() == before and _leftovers(small_tmpfs) == []
+
+
+# ------------------------------------------------------------------ jobs: interrupted or killed mid-way
+_SLOW_JOB = r"""
+import json, sys, time
+import numpy as np, pandas as pd, xarray as xr
+from climwidgets import jobs
+from climwidgets.report import html
+
+folder, out, overwrite = sys.argv[1], sys.argv[2], sys.argv[3] == "1"
+original = html.write_report
+
+def slow_report(*args, **kwargs):  # the CSV, its metadata and the NetCDF are staged by now
+    print("writing the report", flush=True)
+    time.sleep(30)
+    return original(*args, **kwargs)
+
+html.write_report = slow_report
+try:
+    jobs.run_summary(f"{folder}/small.nc", f"{folder}/b.geojson", (7, 8), (1991, 1993), out, overwrite=overwrite,
+                     figures=False)
+except KeyboardInterrupt:
+    print("interrupted", flush=True)
+    sys.exit(130)
+print("finished", flush=True)
+"""
+
+
+def _small_job_inputs(folder):
+    import json
+
+    time_ = pd.date_range("1991-01-01", "1993-12-31", freq="D")
+    xr.DataArray(np.ones((time_.size, 2, 2)), dims=("time", "lat", "lon"), name="pr",
+                 coords={"time": time_, "lat": [10.25, 10.75], "lon": [-160.75, -160.25]},
+                 attrs={"units": "mm", "standard_name": "lwe_thickness_of_precipitation_amount"}
+                 ).to_dataset().to_netcdf(folder / "small.nc")
+    ring = [[-161, 10], [-160, 10], [-160, 11], [-161, 11], [-161, 10]]
+    (folder / "b.geojson").write_text(json.dumps({"type": "FeatureCollection", "features": [
+        {"type": "Feature", "properties": {"name": "square"}, "geometry": {"type": "Polygon", "coordinates": [ring]}}]}))
+
+
+def _start_slow_job(tmp_path, out, overwrite):
+    import subprocess
+    import sys
+
+    script = tmp_path / "job.py"
+    script.write_text(_SLOW_JOB)
+    env = dict(os.environ, PYTHONPATH=str(Path(cw.__file__).resolve().parent.parent))
+    proc = subprocess.Popen([sys.executable, str(script), str(tmp_path), str(out), "1" if overwrite else "0"],
+                            stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True, env=env)
+    line = proc.stdout.readline().strip()
+    if line != "writing the report":  # pragma: no cover - reported with the child's errors
+        proc.kill()
+        raise AssertionError(f"the job did not reach the report: {line!r} {proc.communicate()[1][-2000:]}")
+    return proc
+
+
+def _set(folder):
+    return {p.name: p.read_bytes() for p in folder.iterdir()}
+
+
+@pytest.mark.parametrize("how", ["ctrl_c", "kill"])
+def test_a_job_interrupted_or_killed_mid_way_leaves_the_previous_set(tmp_path, how):
+    from climwidgets import jobs
+
+    _small_job_inputs(tmp_path)
+    out = tmp_path / "out"
+    jobs.run_summary(tmp_path / "small.nc", tmp_path / "b.geojson", (7, 8), (1991, 1993), out, figures=False)
+    before = _set(out)
+    proc = _start_slow_job(tmp_path, out, overwrite=True)
+    try:
+        proc.send_signal(signal.SIGINT if how == "ctrl_c" else signal.SIGKILL)
+        out_text, err = proc.communicate(timeout=60)
+    finally:
+        if proc.poll() is None:  # pragma: no cover - a hang
+            proc.kill()
+    if how == "ctrl_c":
+        assert proc.returncode == 130 and out_text.strip() == "interrupted", err[-2000:]
+        assert _set(out) == before  # every file as it was, and no staging folder left
+    else:
+        assert proc.returncode == -signal.SIGKILL
+        left = [n for n in _set_names(out) if n.startswith(".cw-stage.")]
+        assert len(left) == 1  # a killed process cleans nothing: its staging folder stays ...
+        assert {p.name: p.read_bytes() for p in out.iterdir() if p.is_file()} == before  # ... beside the old set
+        jobs.run_summary(tmp_path / "small.nc", tmp_path / "b.geojson", (7, 8), (1991, 1993), out, overwrite=True,
+                         figures=False)
+        assert not any(n.startswith(".") for n in _set_names(out))  # ... until the next run removes it
+
+
+def _set_names(folder):
+    return sorted(p.name for p in folder.iterdir())
+
+
+def test_a_job_killed_before_its_first_outputs_needs_no_overwrite_next_time(tmp_path):
+    from climwidgets import jobs
+
+    _small_job_inputs(tmp_path)
+    out = tmp_path / "out"
+    proc = _start_slow_job(tmp_path, out, overwrite=False)
+    proc.kill()
+    proc.communicate(timeout=60)
+    assert all(n.startswith(".cw-stage.") for n in _set_names(out))  # no output in place: no partial set
+    result = jobs.run_summary(tmp_path / "small.nc", tmp_path / "b.geojson", (7, 8), (1991, 1993), out,
+                              figures=False)  # without overwrite
+    assert _set_names(out) == ["basin_report.html", "basin_summary.csv", "basin_summary.csv-metadata.json",
+                               "seasonal_share_normals.nc"]
+    assert all(p.is_file() for p in result.paths.values())
