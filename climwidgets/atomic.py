@@ -43,7 +43,8 @@ from typing import IO, Any
 
 from .errors import InputError, ParameterError
 
-__all__ = ["STALE_AFTER_S", "OutputError", "OutputExistsError", "atomic_write", "atomic_write_file", "check_target",
+__all__ = ["STALE_AFTER_S", "OutputError", "OutputExistsError", "atomic_write", "atomic_write_file", "check_folder",
+           "check_target",
            "remove_stale_temporaries", "staged_outputs"]
 
 # A temporary file nobody has written to for this long belongs to a killed run: a live
@@ -501,6 +502,64 @@ def atomic_write_folder(path: str | os.PathLike[str], write: Callable[[Path], An
 
 
 _STAGE_PREFIX = ".cw-stage."
+
+
+def check_folder(folder: str | os.PathLike[str], what: str = "outputs") -> Path:
+    """Fail now, not after a long computation, when no file can be made in ``folder``.
+
+    The folder, or the nearest existing folder it would be created in, is tried by making
+    and removing an empty staging folder (a name that :func:`remove_stale_temporaries`
+    cleans should the process be killed in between).  Catches /proc and /sys, read-only
+    disks and folders without write permission.
+
+    Parameters
+    ----------
+    folder : str or path-like
+        The output folder (need not exist yet).
+    what : str, default "outputs"
+        What will be written, for the error messages.
+
+    Returns
+    -------
+    pathlib.Path
+        ``folder`` as a Path.
+
+    Raises
+    ------
+    climwidgets.errors.ParameterError
+        When ``folder`` (or an existing part of its path) is a file.
+    OutputError
+        When no file can be made there; ``errno`` is the operating system's.
+
+    Examples
+    --------
+    >>> import tempfile
+    >>> from climwidgets.atomic import OutputError, check_folder
+    >>> with tempfile.TemporaryDirectory() as folder:
+    ...     print(check_folder(folder).is_dir())
+    True
+    >>> try:
+    ...     check_folder("/proc/out")
+    ... except OutputError as exc:
+    ...     print(exc.problem.split(" (")[0])
+    /proc, where the output folder /proc/out would be made, does not accept new files
+    """
+    out = Path(folder)
+    base = out
+    while not base.exists() and base.parent != base:
+        base = base.parent
+    if not base.is_dir():
+        raise ParameterError("is a file, not a folder", source=base, variable="out_dir",
+                             expected=f"a folder for the {what}", fix="choose another output folder (--out)")
+    try:
+        os.rmdir(tempfile.mkdtemp(prefix=f"{_STAGE_PREFIX}{_writer_tag()}.", suffix=".part", dir=base))
+    except OSError as exc:
+        where = "the output folder" if base == out else f"{base}, where the output folder {out} would be made,"
+        raise OutputError(f"{where} does not accept new files ({exc.strerror or exc})", errno_=exc.errno,
+                          source=out if base == out else base, variable="out_dir",
+                          expected="an ordinary folder you can write to",
+                          fix="choose another output folder with --out (out_dir=), e.g. --out out") from None
+    return out
 
 
 def _commit(stage: Path, folder: Path, overwrite: bool, what: str) -> list[Path]:

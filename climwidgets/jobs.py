@@ -109,32 +109,9 @@ def _check_baseline(baseline, job, name="baseline"):
     return check_year_range(tuple(baseline) if isinstance(baseline, list) else baseline, job, name)
 
 
-def _check_writable(out: Path, job: str) -> None:
-    """Fail now, not after the computation, when no file can be made in ``out`` (or in the
-    existing folder it would be created in): /proc, a read-only disk, no permission."""
-    import tempfile
-
-    from .atomic import OutputError
-
-    base = out
-    while not base.exists() and base.parent != base:
-        base = base.parent
-    if not base.is_dir():
-        raise ParameterError("is a file, not a folder", source=base, variable="out_dir",
-                             expected="a folder for the outputs", fix="choose another --out folder")
-    try:
-        os.rmdir(tempfile.mkdtemp(prefix=".cw-probe.", suffix=".part", dir=base))
-    except OSError as exc:
-        where = "the output folder" if base == out else f"{base}, where the output folder {out} would be made,"
-        raise OutputError(f"{where} does not accept new files ({exc.strerror or exc})", errno_=exc.errno,
-                          source=out if base == out else base, variable="out_dir",
-                          expected="an ordinary folder you can write to",
-                          fix="choose another output folder with --out (out_dir=), e.g. --out out") from None
-
-
 def _plan_outputs(out_dir, names: dict, prefix: str, overwrite: bool, job: str) -> dict[str, Path]:
     """The output paths; fails now if the folder is a file, takes no files or an output exists."""
-    from .atomic import OutputExistsError
+    from .atomic import OutputExistsError, check_folder
     from .report.tables import metadata_path
 
     if not isinstance(out_dir, (str, os.PathLike)) or str(out_dir) == "":
@@ -144,7 +121,7 @@ def _plan_outputs(out_dir, names: dict, prefix: str, overwrite: bool, job: str) 
     if out.exists() and not out.is_dir():
         raise ParameterError("is a file, not a folder", source=out, variable="out_dir",
                              expected="a folder for the outputs", fix="choose another --out folder")
-    _check_writable(out, job)
+    check_folder(out, f"{job} outputs")  # /proc, a read-only disk: refused before any data are read
     paths = {key: out / f"{prefix}{name}" for key, name in names.items()}
     if not overwrite:
         # a CSV's metadata file is part of the output too
