@@ -564,7 +564,9 @@ def check_folder(folder: str | os.PathLike[str], what: str = "outputs") -> Path:
 
 def _commit(stage: Path, folder: Path, overwrite: bool, what: str) -> list[Path]:
     """Move every file of ``stage`` into ``folder``: all of them, or none (rolled back)."""
-    names = sorted(p.name for p in stage.iterdir() if p.name != ".previous")
+    # the outputs; never a writer's own temporary (".NAME.TAG.part") or the backup folder
+    names = sorted(p.name for p in stage.iterdir()
+                   if p.name != ".previous" and not (p.name.startswith(".") and p.name.endswith(".part")))
     if not overwrite:
         taken = [n for n in names if os.path.lexists(folder / n)]
         if taken:
