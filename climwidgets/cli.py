@@ -5,12 +5,16 @@ functions).  Written paths go to stdout, one per line; progress goes to stderr u
 ``--quiet``; cautions for design depths are always printed to stderr.
 
 Exit codes: 0 ok, 2 bad input (bad arguments, missing or unreadable files, existing
-outputs: the InputError message is printed on one line), 1 internal error.
+outputs, an output folder or disk that refuses the files: the message is printed on one
+line), 1 internal error.  A mistyped option value or command is answered with the nearest
+valid word ("did you mean ...?").
 """
 
 from __future__ import annotations
 
 import argparse
+import difflib
+import errno
 import sys
 from pathlib import Path
 
@@ -168,9 +172,62 @@ def _cmd_demo(args):
 
 
 # ------------------------------------------------------------------ parser
+def nearest_word(word: str, choices) -> str | None:
+    """The valid word closest to a mistyped ``word`` (difflib's ratio of at least 0.6), or None.
+
+    Parameters
+    ----------
+    word : str
+        What was typed.
+    choices : iterable of str
+        The valid words.
+
+    Returns
+    -------
+    str or None
+
+    Examples
+    --------
+    >>> nearest_word("sumary", ["demo", "info", "summary", "extremes"])
+    'summary'
+    >>> nearest_word("dayly", ["daily", "monthly", "hourly"])
+    'daily'
+    >>> nearest_word("zzz", ["full", "test"]) is None
+    True
+    """
+    close = difflib.get_close_matches(str(word), [str(c) for c in choices], n=1, cutoff=0.6)
+    if not close:  # a typo in a longer word: compare without case
+        lowered = {str(c).lower(): str(c) for c in choices}
+        close = [lowered[c] for c in difflib.get_close_matches(str(word).lower(), list(lowered), n=1, cutoff=0.6)]
+    return close[0] if close else None
+
+
+class _Parser(argparse.ArgumentParser):
+    """argparse with plain messages: the nearest valid word for a typo, the expected kind
+    of number for a value that is not one."""
+
+    def _check_value(self, action, value):
+        if action.choices is not None and value not in action.choices:
+            valid = [str(c) for c in action.choices]
+            near = nearest_word(value, valid)
+            hint = f"did you mean {near!r}? " if near else ""
+            raise argparse.ArgumentError(action, f"invalid choice {value!r}; {hint}"
+                                                 f"expected one of: {', '.join(valid)}")
+
+    def _get_value(self, action, arg_string):
+        try:
+            return super()._get_value(action, arg_string)
+        except argparse.ArgumentError:
+            kind = {int: "a whole number", float: "a number"}.get(action.type)
+            if kind is None:
+                raise
+            what = f" ({action.help})" if action.help else ""
+            raise argparse.ArgumentError(action, f"{arg_string!r} is not {kind}; expected {kind}{what}") from None
+
+
 def build_parser() -> argparse.ArgumentParser:
     fmt = argparse.RawDescriptionHelpFormatter
-    p = argparse.ArgumentParser(
+    p = _Parser(
         prog="climwidgets", formatter_class=fmt, epilog=_EXAMPLES,
         description="Gridded precipitation climatology from the command line: basin summaries, "
                     "design-storm depths and product comparisons, written as CSV, NetCDF and HTML.")
@@ -178,7 +235,7 @@ def build_parser() -> argparse.ArgumentParser:
     from ._version import __version__
     p.add_argument("--version", action="version", version=f"climwidgets {__version__}")
     # the same flag after the command name; SUPPRESS keeps a flag given before it
-    common = argparse.ArgumentParser(add_help=False)
+    common = _Parser(add_help=False)
     common.add_argument("--quiet", action="store_true", default=argparse.SUPPRESS,
                         help="no progress messages on stderr")
     sub = p.add_subparsers(dest="command", required=True, metavar="COMMAND")
@@ -293,6 +350,28 @@ def _one_line(exc) -> str:
     return " ".join(str(exc).split())
 
 
+_OS_FIXES = {
+    errno.ENOENT: "check the path",
+    errno.EACCES: "check the permissions of the file or folder, or use another one",
+    errno.EPERM: "check the permissions of the file or folder, or use another one",
+    errno.ENOSPC: "free some space on that disk, or write to another folder (--out)",
+    errno.EROFS: "write to a folder on a writable disk (--out)",
+    errno.EISDIR: "give a file, not a folder",
+    errno.ENOTDIR: "check the path: a part of it is a file, not a folder",
+}
+
+
+def _os_error_line(exc: OSError) -> str:
+    """An OSError as a sentence (what, where, how to fix), never a bare "[Errno n] ..."."""
+    where = exc.filename if exc.filename is not None else None
+    text = str(exc.strerror or exc)
+    if where is not None and str(where) in text:
+        return _one_line(exc)  # already composed by the package (names the file, says what was lost)
+    fix = _OS_FIXES.get(exc.errno or 0, "check the path, the permissions and the free space")
+    head = f"{where}: " if where is not None else ""
+    return _one_line(f"{head}{text.rstrip('.')}. Fix: {fix}.")
+
+
 def main(argv=None) -> int:
     parser = build_parser()
     try:
@@ -304,8 +383,10 @@ def main(argv=None) -> int:
     except InputError as exc:
         _stderr(f"climwidgets {args.command}: {_one_line(exc)}")
         return EXIT_INPUT
-    except (FileNotFoundError, PermissionError, IsADirectoryError, NotADirectoryError) as exc:
-        _stderr(f"climwidgets {args.command}: {_one_line(exc)}")
+    except OSError as exc:
+        if exc.errno is None:
+            raise
+        _stderr(f"climwidgets {args.command}: {_os_error_line(exc)}")
         return EXIT_INPUT
     except KeyboardInterrupt:
         _stderr("climwidgets: interrupted")

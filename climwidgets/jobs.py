@@ -10,7 +10,13 @@ Every job
 
 * checks its parameters and its output paths *before* reading any data, so a typo or an
   existing output fails in a second, not after the long computation;
-* refuses to replace existing outputs unless ``overwrite=True`` (writes are atomic);
+* refuses to replace existing outputs unless ``overwrite=True``, and checks that the
+  output folder takes new files, before reading any data;
+* writes all its outputs or none: every file (CSV, its ``.csv-metadata.json``, NetCDF,
+  HTML) goes into one staging folder beside the destination and all are moved into place
+  together at the end (:func:`climwidgets.atomic.staged_outputs`), so a failure or an
+  interrupt part-way leaves the previous set as it was and nothing that the next run
+  would refuse to replace; temporaries left by a killed earlier run are removed;
 * reads each input once for the heavy part (one dask graph, one ``compute``) and works
   on the small results afterwards;
 * reports progress through ``progress(text)`` when a callable is given (None: silent);
@@ -104,8 +110,9 @@ def _check_baseline(baseline, job, name="baseline"):
 
 
 def _plan_outputs(out_dir, names: dict, prefix: str, overwrite: bool, job: str) -> dict[str, Path]:
-    """The output paths; fails now if the folder is a file or an output exists."""
-    from .atomic import OutputExistsError
+    """The output paths; fails now if the folder is a file, takes no files or an output exists."""
+    from .atomic import OutputExistsError, check_folder
+    from .report.tables import metadata_path
 
     if not isinstance(out_dir, (str, os.PathLike)) or str(out_dir) == "":
         raise ParameterError(f"out_dir={out_dir!r} is not a folder path", source=job, variable="out_dir",
@@ -114,9 +121,12 @@ def _plan_outputs(out_dir, names: dict, prefix: str, overwrite: bool, job: str) 
     if out.exists() and not out.is_dir():
         raise ParameterError("is a file, not a folder", source=out, variable="out_dir",
                              expected="a folder for the outputs", fix="choose another --out folder")
+    check_folder(out, f"{job} outputs")  # /proc, a read-only disk: refused before any data are read
     paths = {key: out / f"{prefix}{name}" for key, name in names.items()}
     if not overwrite:
-        existing = [p.name for p in paths.values() if p.exists()]
+        # a CSV's metadata file is part of the output too
+        every = [p for p in paths.values()] + [metadata_path(p) for p in paths.values() if p.suffix == ".csv"]
+        existing = [p.name for p in every if os.path.lexists(p)]
         if existing:
             raise OutputExistsError(f"{', '.join(existing)} already exist(s) and was left untouched",
                                     source=out, expected="outputs that do not exist yet",
@@ -125,9 +135,16 @@ def _plan_outputs(out_dir, names: dict, prefix: str, overwrite: bool, job: str) 
     return paths
 
 
-def _make_folder(paths: dict):
-    for p in paths.values():
-        p.parent.mkdir(parents=True, exist_ok=True)
+@contextlib.contextmanager
+def _staged(paths: dict, overwrite: bool, job: str):
+    """The paths inside a staging folder; at the end all files move to ``paths`` together."""
+    from .atomic import remove_stale_temporaries, staged_outputs
+
+    folder = next(iter(paths.values())).parent
+    with staged_outputs(folder, overwrite, f"the {job} outputs") as stage:
+        for p in paths.values():  # temporaries a killed run left beside the outputs
+            remove_stale_temporaries(p)
+        yield {key: stage / p.name for key, p in paths.items()}
 
 
 def _open(data, var=None):
@@ -199,15 +216,14 @@ def run_summary(data, basins, months=(7, 8), baseline=(1991, 2020), out_dir="out
     content = report_content(analysis, basin_list, pr, sources=sources, title=title or "Basin precipitation summary")
     table = content.table
 
-    _make_folder(paths)
     notes = [f"data: {pr.attrs.get('conversion', '')}".strip(), analysis.attrs["area"]]
-    to_csv(table, paths["csv"], overwrite=overwrite,
-           provenance={"inputs": sources, "notes": notes, "title": "basin summary"})
     maps.attrs = {"months": list(months), "baseline": list(baseline), "year_start": year_start,
                   "history": bundle.attrs.get("history", ""), "input_files": "; ".join(sources)}
-    to_netcdf(maps, paths["netcdf"], overwrite=overwrite, title="Seasonal share and monthly normals")
-    say("writing the report")
-    write_report(content, paths["report"], overwrite=overwrite, figures=figures)
+    with _staged(paths, overwrite, job) as staged:
+        to_csv(table, staged["csv"], provenance={"inputs": sources, "notes": notes, "title": "basin summary"})
+        to_netcdf(maps, staged["netcdf"], title="Seasonal share and monthly normals")
+        say("writing the report")
+        write_report(content, staged["report"], figures=figures)
     return JobResult(paths=paths, table=table, cautions=tuple(content.cautions or ()))
 
 
@@ -261,30 +277,29 @@ def run_extremes(data, basins=None, duration_days=1, periods=(2, 10, 25, 50, 100
     with say.dask(f"return levels of {cells} cells ({n_boot} bootstrap samples) and basin series in one pass"):
         levels, series = compute(*lazy)
     dur = levels.attrs.get("duration", "")
-    _make_folder(paths)
-    to_netcdf(levels, paths["netcdf"], overwrite=overwrite,
-              title=f"Return levels of annual maximum {dur} precipitation")
-    table = None
-    if basin_list:
-        say("basin return levels")
-        depths = areal_design_depths(None, basin_list, year_start=year_start, series=series, **fit, **duration)
-        depths["cell_mean_estimate_mm"] = describe(
-            basin_series(levels["estimate"], basin_list).reset_coords(drop=True).rename(period="return_period"),
-            "cell_mean_estimate_mm", label="basin mean of the cells' depths", units="mm",
-            description="area-weighted basin mean of the cells' own return levels")
-        (depths,) = compute(depths)
-        table = depth_table(depths)[["areal_estimate_mm", "areal_lower_mm", "areal_upper_mm"]]
-        table["cell_mean_estimate_mm"] = depths["cell_mean_estimate_mm"].to_series()
-        table = table.reset_index("return_period").rename(columns={"return_period": "return_period_years"})
-        table["n_years"] = depths["n_years"].to_series().reindex(table.index).astype(int)
-        table = table[["return_period_years", "areal_estimate_mm", "areal_lower_mm", "areal_upper_mm",
-                       "cell_mean_estimate_mm", "n_years"]]
-        table.attrs = {"duration": dur, "ci": float(ci), "n_boot": int(n_boot),
-                       "seed": seed, "year_start": year_start, "periods": list(periods),
-                       "interval": levels.attrs.get("interval_method", "")}
-        to_csv(table, paths["csv"], overwrite=overwrite,
-               provenance={"inputs": sources, "notes": [AREAL_NOTE], "cautions": DESIGN_DEPTH_CAUTIONS,
-                           "title": "basin return levels"})
+    with _staged(paths, overwrite, job) as staged:
+        to_netcdf(levels, staged["netcdf"], title=f"Return levels of annual maximum {dur} precipitation")
+        table = None
+        if basin_list:
+            say("basin return levels")
+            depths = areal_design_depths(None, basin_list, year_start=year_start, series=series, **fit, **duration)
+            depths["cell_mean_estimate_mm"] = describe(
+                basin_series(levels["estimate"], basin_list).reset_coords(drop=True).rename(period="return_period"),
+                "cell_mean_estimate_mm", label="basin mean of the cells' depths", units="mm",
+                description="area-weighted basin mean of the cells' own return levels")
+            (depths,) = compute(depths)
+            table = depth_table(depths)[["areal_estimate_mm", "areal_lower_mm", "areal_upper_mm"]]
+            table["cell_mean_estimate_mm"] = depths["cell_mean_estimate_mm"].to_series()
+            table = table.reset_index("return_period").rename(columns={"return_period": "return_period_years"})
+            table["n_years"] = depths["n_years"].to_series().reindex(table.index).astype(int)
+            table = table[["return_period_years", "areal_estimate_mm", "areal_lower_mm", "areal_upper_mm",
+                           "cell_mean_estimate_mm", "n_years"]]
+            table.attrs = {"duration": dur, "ci": float(ci), "n_boot": int(n_boot),
+                           "seed": seed, "year_start": year_start, "periods": list(periods),
+                           "interval": levels.attrs.get("interval_method", "")}
+            to_csv(table, staged["csv"],
+                   provenance={"inputs": sources, "notes": [AREAL_NOTE], "cautions": DESIGN_DEPTH_CAUTIONS,
+                               "title": "basin return levels"})
     return JobResult(paths=paths, table=table, cautions=tuple(DESIGN_DEPTH_CAUTIONS))
 
 
@@ -323,10 +338,9 @@ def run_scenario(hist, future, basins, months=(7, 8), historical=None, future_pe
     table = frame(signals) if ensemble else frame(signals, columns=["share_change_1", "normal_change_1"])
     table.attrs.update({"months": list(months), "historical_period": signals.attrs["historical_period"],
                         "future_period": signals.attrs["future_period"], "member_dim": signals.attrs["member_dim"]})
-    _make_folder(paths)
-    to_csv(table, paths["csv"], overwrite=overwrite,
-           provenance={"inputs": _sources(ph) + _sources(pf), "cautions": SCENARIO_CAUTIONS,
-                       "title": "climate-change signals per basin"})
+    with _staged(paths, overwrite, job) as staged:
+        to_csv(table, staged["csv"], provenance={"inputs": _sources(ph) + _sources(pf), "cautions": SCENARIO_CAUTIONS,
+                                                 "title": "climate-change signals per basin"})
     return JobResult(paths=paths, table=table, cautions=tuple(SCENARIO_CAUTIONS))
 
 
@@ -409,15 +423,15 @@ def run_compare(data, basins=None, months=(7, 8), baseline=None, out_dir="out", 
     metrics.attrs.pop("other", None)  # one value per product: the product coordinate says it
     metrics.attrs.update(reference=ref, products=list(named), period=aligned[ref].attrs.get("period", ""),
                          grid=f"grid of {grid or 'the coarsest product'}; {method} regridding where needed")
-    _make_folder(paths)
-    to_netcdf(metrics.compute(), paths["netcdf"], overwrite=overwrite,
-              title=f"Agreement of precipitation products with {ref}")
-    table = None
-    if basin_list:
-        say("basin table across products")
-        table = products_basin_table(monthly, basin_list, months=months, baseline=baseline)
-        to_csv(table, paths["csv"], overwrite=overwrite,
-               provenance={"inputs": sources, "title": "basin table across products"})
+    with _staged(paths, overwrite, job) as staged:
+        to_netcdf(metrics.compute(), staged["netcdf"],
+                  title=f"Agreement of precipitation products with {ref}")
+        table = None
+        if basin_list:
+            say("basin table across products")
+            table = products_basin_table(monthly, basin_list, months=months, baseline=baseline)
+            to_csv(table, staged["csv"],
+                   provenance={"inputs": sources, "title": "basin table across products"})
     return JobResult(paths=paths, table=table, cautions=())
 
 

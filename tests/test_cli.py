@@ -265,3 +265,53 @@ def test_scenario_bad_input_exits_2(capsys, ensemble_files, tmp_path):
                        demo_files["ensemble_future"], "--basins", demo_files["basins"], "--historical", "1981",
                        "--out", tmp_path)
     assert code == 2 and "--historical" in _error_line(err)
+
+
+# ------------------------------------------------------------------ typos and refused folders
+@pytest.mark.parametrize("argv, words", [
+    (["demo", "--size", "tset"], ["--size", "invalid choice 'tset'", "did you mean 'test'", "full, test"]),
+    (["sumary"], ["'sumary'", "did you mean 'summary'"]),
+    (["compare", "--data", "a.nc", "b.nc", "--method", "bilinaer"], ["did you mean 'bilinear'"]),
+    (["extremes", "--data", "x.nc", "--duration", "dayly"], ["--duration", "'dayly' is not a whole number",
+                                                               "duration in days"]),
+])
+def test_typos_in_option_values_suggest_the_nearest_word(capsys, argv, words):
+    code, out, err = run(capsys, *argv)
+    assert code == 2 and out == ""
+    last = err.strip().splitlines()[-1]
+    for w in words:
+        assert w in last, last
+
+
+def test_nearest_word():
+    # difflib.SequenceMatcher ratio 2*M/T (Python documentation, difflib): "dayly" vs "daily"
+    # share 4 of 5 letters in order, 0.8 >= 0.6
+    assert cli.nearest_word("dayly", ["hourly", "daily", "monthly"]) == "daily"
+    assert cli.nearest_word("DAYLY", ["daily"]) == "daily"
+    assert cli.nearest_word("xyz", ["daily"]) is None
+
+
+@pytest.mark.parametrize("out", ["/proc", "/proc/out"])
+def test_an_output_folder_that_takes_no_files_exits_2_before_reading(capsys, demo_files, tmp_path, out):
+    code, stdout, err = run(capsys, "summary", "--data", tmp_path / "missing.nc", "--basins", demo_files["basins"],
+                            "--out", out, "--quiet")
+    assert code == 2 and stdout == ""
+    line = _error_line(err)
+    assert "/proc" in line and "does not accept new files" in line and "Fix: " in line and "[Errno" not in line
+
+
+def test_os_errors_are_one_sentence_with_a_fix(capsys, monkeypatch, tmp_path):
+    import errno
+
+    from climwidgets import jobs
+
+    def refused(*args, **kwargs):
+        raise PermissionError(errno.EACCES, "Permission denied", str(tmp_path / "pr.nc"))
+
+    monkeypatch.setattr(jobs, "run_summary", refused)
+    code, _, err = run(capsys, "summary", "--data", tmp_path / "pr.nc", "--basins", tmp_path / "b.geojson",
+                       "--out", tmp_path)
+    line = _error_line(err)
+    assert code == 2 and "[Errno" not in line
+    assert line == f"climwidgets summary: {tmp_path / 'pr.nc'}: Permission denied. Fix: check the permissions " \
+                   "of the file or folder, or use another one."

@@ -121,3 +121,66 @@ def test_readme_table_lists_every_case():
     readme = (Path(__file__).parent / "corpus" / "README.md").read_text()
     for line in markdown_table().splitlines()[2:]:
         assert line in readme, f"README table is missing or out of date for: {line}"
+
+
+# ------------------------------------------------------------------ the command line on bad basins, folders, options
+from .corpus.make_corpus import JOB_CASES, build_job_corpus, job_markdown_table  # noqa: E402
+
+CASE_TIMEOUT_S = 120  # generous for 2 shared cores; a hang shows as a failure, not a stuck run
+
+
+@pytest.fixture(scope="session")
+def job_corpus(tmp_path_factory):
+    folder = tmp_path_factory.mktemp("job_corpus")
+    built = build_job_corpus(folder)
+    return {name: (case, argv, {p: fingerprint(p) for p in files}) for name, (case, argv, files) in built.items()}
+
+
+def _run_cli(argv, timeout):
+    """``climwidgets ARGV`` in-process on a worker thread: (exit code, stdout, stderr), or a
+    failure when it does not end within ``timeout`` seconds."""
+    import contextlib
+    import io
+    import threading
+
+    from climwidgets import cli
+
+    result, out, err = {}, io.StringIO(), io.StringIO()
+
+    def target():
+        with contextlib.redirect_stdout(out), contextlib.redirect_stderr(err):
+            result["code"] = cli.main([str(a) for a in argv])
+
+    worker = threading.Thread(target=target, daemon=True)
+    worker.start()
+    worker.join(timeout)
+    assert not worker.is_alive(), f"climwidgets {' '.join(map(str, argv))} did not end within {timeout} s"
+    return result["code"], out.getvalue(), err.getvalue()
+
+
+@pytest.mark.parametrize("name", [c.name for c in JOB_CASES])
+def test_job_case(job_corpus, name):
+    case, argv, prints = job_corpus[name]
+    code, out, err = _run_cli(argv, CASE_TIMEOUT_S)
+    assert code == case.exit_code, err
+    if code == 0:
+        assert [Path(p).name for p in out.splitlines()] == ["basin_summary.csv", "seasonal_share_normals.nc",
+                                                           "basin_report.html"]
+    else:
+        assert out == ""
+        last = err.strip().splitlines()[-1]
+        assert "Traceback" not in err and "internal error" not in err, err
+        for word in case.words:
+            assert word in last, f"{word!r} not in: {last}"
+        named = list(case.names) or [Path(p).name for p in prints] + [Path(str(a)).name for a in argv if "/" in str(a)]
+        assert any(n in last for n in named), f"the message names neither file nor option: {last}"
+        if not any(n.startswith("--") for n in case.names):  # argparse's own lines end with the expected kind
+            assert "Fix: " in last, f"no fix suggested: {last}"
+    for path, before in prints.items():
+        assert fingerprint(path) == before, f"{path} changed"
+
+
+def test_readme_table_lists_every_job_case():
+    readme = (Path(__file__).parent / "corpus" / "README.md").read_text()
+    for line in job_markdown_table().splitlines()[2:]:
+        assert line in readme, f"README table is missing or out of date for: {line}"

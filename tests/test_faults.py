@@ -243,3 +243,290 @@ def test_killed_worker_during_export_leaves_no_partial_file(cluster, tmp_path):
         with xr.open_dataset(target) as ds:
             np.testing.assert_allclose(ds["pr"].values, 4.0)  # complete and right
     assert _leftovers(tmp_path) == []
+
+
+# ------------------------------------------------------------------ exports: races, Ctrl-C, full disk
+def _export_once(kind, path, barrier, results, n):
+    from climwidgets.atomic import OutputExistsError
+
+    barrier.wait()
+    try:
+        if kind == "csv":
+            table = pd.DataFrame({"writer": [n]}, index=pd.Index(["upper"], name="basin"))
+            cw.to_csv(table, path, overwrite=False)
+        else:
+            cw.to_netcdf(_field(value=float(n)), path, overwrite=False)
+        results.put(("ok", n))
+    except OutputExistsError:
+        results.put(("exists", n))
+    except BaseException as exc:  # pragma: no cover - reported by the assertion
+        results.put((repr(exc), n))
+
+
+@pytest.mark.parametrize("kind", ["csv", "netcdf"])
+def test_concurrent_exports_without_overwrite_exactly_one_wins(tmp_path, kind):
+    # N processes export to one path with overwrite=False: POSIX link(2) refuses an
+    # existing name (POSIX.1-2017, link(): EEXIST), so exactly one export can create it and
+    # every other one gets OutputExistsError; the winner's file is whole.
+    import multiprocessing as mp
+
+    ctx = mp.get_context("fork")
+    n = 6
+    path = tmp_path / ("table.csv" if kind == "csv" else "maps.nc")
+    barrier, results = ctx.Barrier(n), ctx.Queue()
+    procs = [ctx.Process(target=_export_once, args=(kind, path, barrier, results, i)) for i in range(n)]
+    for p in procs:
+        p.start()
+    outcomes = [results.get(timeout=120) for _ in range(n)]
+    for p in procs:
+        p.join(30)
+    assert sorted(k for k, _ in outcomes) == ["exists"] * (n - 1) + ["ok"], outcomes
+    (winner,) = [i for k, i in outcomes if k == "ok"]
+    if kind == "csv":
+        from climwidgets.report.tables import read_csv, read_metadata
+
+        assert read_csv(path)["writer"].tolist() == [winner]
+        assert read_metadata(path)["url"] == "table.csv"  # its metadata file is the winner's too
+    else:
+        np.testing.assert_allclose(cw.open_precip(path).values, float(winner))
+    assert _leftovers(tmp_path) == []
+
+
+_INTERRUPTED_EXPORT = r"""
+import sys, time
+import dask.array as dsa, numpy as np, pandas as pd, xarray as xr
+import climwidgets as cw
+from climwidgets.report import netcdf
+
+target, phase = sys.argv[1], sys.argv[2]
+
+def slow(block):
+    time.sleep(0.05)  # keeps the computation running long enough to interrupt it
+    return block
+
+n = 400
+data = dsa.map_blocks(slow, dsa.ones((n, 4, 5), chunks=(1, 4, 5)), dtype=float)
+if phase == "write":  # the interrupt arrives while the library writes the file
+    data = np.ones((n, 4, 5))
+    original = netcdf._write_dataset
+    def slow_write(ds, tmp, encoding):
+        original(ds, tmp, encoding)
+        time.sleep(5)
+    netcdf._write_dataset = slow_write
+da = xr.DataArray(data, dims=("time", "lat", "lon"), name="pr", attrs={"units": "mm", "step": "day"},
+                  coords={"time": pd.date_range("2001-01-01", periods=n), "lat": np.arange(4.0) - 30,
+                          "lon": np.arange(5.0) - 140})
+print("exporting", flush=True)
+try:
+    cw.to_netcdf(da, target, overwrite=True)
+except KeyboardInterrupt:
+    print("interrupted", flush=True)
+    sys.exit(130)
+print("finished", flush=True)
+"""
+
+
+@pytest.mark.parametrize("phase", ["compute", "write"])
+def test_ctrl_c_during_netcdf_export_ends_cleanly_with_previous_file(tmp_path, phase):
+    """SIGINT in a real process (as Ctrl-C sends it): no hang (a timeout), exit by the
+    KeyboardInterrupt handler, the previous file byte for byte, no temporary left."""
+    import subprocess
+    import sys
+
+    target = tmp_path / "maps.nc"
+    cw.to_netcdf(_field(value=1.0), target)
+    before = target.read_bytes()
+    script = tmp_path / "export.py"
+    script.write_text(_INTERRUPTED_EXPORT)
+    env = dict(os.environ, PYTHONPATH=str(Path(cw.__file__).resolve().parent.parent))
+    proc = subprocess.Popen([sys.executable, str(script), str(target), phase], stdout=subprocess.PIPE,
+                            stderr=subprocess.PIPE, text=True, env=env)
+    try:
+        assert proc.stdout.readline().strip() == "exporting"
+        time.sleep(1.5)  # inside the computation (20 s of blocks) or the slowed write
+        proc.send_signal(signal.SIGINT)
+        out, err = proc.communicate(timeout=90)
+    finally:
+        if proc.poll() is None:  # pragma: no cover - a hang: end it and fail below
+            proc.kill()
+            proc.communicate()
+    assert proc.returncode == 130, (proc.returncode, err[-2000:])
+    assert out.strip() == "interrupted"
+    assert target.read_bytes() == before
+    assert _leftovers(tmp_path) == []
+
+
+def test_netcdf_hdf_error_on_a_full_disk_is_reported_as_disk_full(tmp_path, monkeypatch):
+    # The netCDF library reports a full disk as "NetCDF: HDF error" (a RuntimeError, no
+    # errno); the export checks the free space and says what happened.
+    from climwidgets.atomic import OutputError
+    from climwidgets.report import netcdf
+
+    target = tmp_path / "maps.nc"
+    cw.to_netcdf(_field(value=1.0), target)
+    before = target.read_bytes()
+
+    def hdf_error(ds, tmp, encoding):
+        Path(tmp).write_bytes(b"\x89HDF half")
+        raise RuntimeError("NetCDF: HDF error")
+
+    monkeypatch.setattr(netcdf, "_write_dataset", hdf_error)
+    monkeypatch.setattr(netcdf, "_free_bytes", lambda folder: 4096)
+    with pytest.raises(OutputError) as info:
+        cw.to_netcdf(_field(value=5.0), target, overwrite=True)
+    err = info.value
+    assert err.errno == errno.ENOSPC and isinstance(err, cw.InputError)
+    assert str(target) in str(err) and "disk is full" in str(err) and "Fix: " in str(err)
+    assert target.read_bytes() == before and _leftovers(tmp_path) == []
+    # with room on the disk the same library error is not passed off as a full disk
+    monkeypatch.setattr(netcdf, "_free_bytes", lambda folder: 10 * 2**30)
+    with pytest.raises(RuntimeError, match="HDF error"):
+        cw.to_netcdf(_field(value=5.0), target, overwrite=True)
+
+
+@pytest.fixture
+def small_tmpfs(tmp_path):
+    """A real 1 MiB tmpfs, when this machine lets the tests mount one (root with
+    CAP_SYS_ADMIN); skipped, saying so, where it does not."""
+    import shutil
+    import subprocess
+
+    where = tmp_path / "small"
+    where.mkdir()
+    if os.geteuid() != 0 or shutil.which("mount") is None:
+        pytest.skip("cannot mount a tmpfs here (not root); disk full is simulated in the tests above")
+    done = subprocess.run(["mount", "-t", "tmpfs", "-o", "size=1m", "tmpfs", str(where)], capture_output=True)
+    if done.returncode != 0:
+        pytest.skip(f"cannot mount a tmpfs here ({done.stderr.decode().strip()}); disk full is simulated above")
+    try:
+        yield where
+    finally:
+        subprocess.run(["umount", "-l", str(where)], capture_output=True)
+
+
+@pytest.mark.parametrize("kind", ["csv", "netcdf"])
+def test_export_to_a_really_full_disk_says_so_and_keeps_the_previous_file(small_tmpfs, kind):
+    from climwidgets.atomic import OutputError
+
+    rng = np.random.default_rng(0)
+    target = small_tmpfs / ("table.csv" if kind == "csv" else "maps.nc")
+    small = pd.DataFrame({"x": [1.5]}) if kind == "csv" else _field(value=1.0)
+    big = pd.DataFrame({"x": rng.random(200_000)}) if kind == "csv" else _field(n=24).copy(
+        data=rng.random((24, 2, 3))).reindex(time=pd.date_range("2001-01-01", periods=24000, freq="h"),
+                                             fill_value=0.5).assign_attrs(units="mm", step="hour")
+    if kind == "netcdf":
+        big = big.copy(data=rng.random(big.shape))  # incompressible: 1.1 MB even with zlib
+    write = cw.to_csv if kind == "csv" else cw.to_netcdf
+    write(small, target)
+    before = target.read_bytes()
+    with pytest.raises(OutputError) as info:
+        write(big, target, overwrite=True)
+    assert info.value.errno == errno.ENOSPC and str(target) in str(info.value)
+    assert target.read_bytes() == before and _leftovers(small_tmpfs) == []
+
+
+# ------------------------------------------------------------------ jobs: interrupted or killed mid-way
+_SLOW_JOB = r"""
+import json, sys, time
+import numpy as np, pandas as pd, xarray as xr
+from climwidgets import jobs
+from climwidgets.report import html
+
+folder, out, overwrite = sys.argv[1], sys.argv[2], sys.argv[3] == "1"
+original = html.write_report
+
+def slow_report(*args, **kwargs):  # the CSV, its metadata and the NetCDF are staged by now
+    print("writing the report", flush=True)
+    time.sleep(30)
+    return original(*args, **kwargs)
+
+html.write_report = slow_report
+try:
+    jobs.run_summary(f"{folder}/small.nc", f"{folder}/b.geojson", (7, 8), (1991, 1993), out, overwrite=overwrite,
+                     figures=False)
+except KeyboardInterrupt:
+    print("interrupted", flush=True)
+    sys.exit(130)
+print("finished", flush=True)
+"""
+
+
+def _small_job_inputs(folder):
+    import json
+
+    time_ = pd.date_range("1991-01-01", "1993-12-31", freq="D")
+    xr.DataArray(np.ones((time_.size, 2, 2)), dims=("time", "lat", "lon"), name="pr",
+                 coords={"time": time_, "lat": [10.25, 10.75], "lon": [-160.75, -160.25]},
+                 attrs={"units": "mm", "standard_name": "lwe_thickness_of_precipitation_amount"}
+                 ).to_dataset().to_netcdf(folder / "small.nc")
+    ring = [[-161, 10], [-160, 10], [-160, 11], [-161, 11], [-161, 10]]
+    (folder / "b.geojson").write_text(json.dumps({"type": "FeatureCollection", "features": [
+        {"type": "Feature", "properties": {"name": "square"}, "geometry": {"type": "Polygon", "coordinates": [ring]}}]}))
+
+
+def _start_slow_job(tmp_path, out, overwrite):
+    import subprocess
+    import sys
+
+    script = tmp_path / "job.py"
+    script.write_text(_SLOW_JOB)
+    env = dict(os.environ, PYTHONPATH=str(Path(cw.__file__).resolve().parent.parent))
+    proc = subprocess.Popen([sys.executable, str(script), str(tmp_path), str(out), "1" if overwrite else "0"],
+                            stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True, env=env)
+    line = proc.stdout.readline().strip()
+    if line != "writing the report":  # pragma: no cover - reported with the child's errors
+        proc.kill()
+        raise AssertionError(f"the job did not reach the report: {line!r} {proc.communicate()[1][-2000:]}")
+    return proc
+
+
+def _set(folder):
+    return {p.name: p.read_bytes() for p in folder.iterdir()}
+
+
+@pytest.mark.parametrize("how", ["ctrl_c", "kill"])
+def test_a_job_interrupted_or_killed_mid_way_leaves_the_previous_set(tmp_path, how):
+    from climwidgets import jobs
+
+    _small_job_inputs(tmp_path)
+    out = tmp_path / "out"
+    jobs.run_summary(tmp_path / "small.nc", tmp_path / "b.geojson", (7, 8), (1991, 1993), out, figures=False)
+    before = _set(out)
+    proc = _start_slow_job(tmp_path, out, overwrite=True)
+    try:
+        proc.send_signal(signal.SIGINT if how == "ctrl_c" else signal.SIGKILL)
+        out_text, err = proc.communicate(timeout=60)
+    finally:
+        if proc.poll() is None:  # pragma: no cover - a hang
+            proc.kill()
+    if how == "ctrl_c":
+        assert proc.returncode == 130 and out_text.strip() == "interrupted", err[-2000:]
+        assert _set(out) == before  # every file as it was, and no staging folder left
+    else:
+        assert proc.returncode == -signal.SIGKILL
+        left = [n for n in _set_names(out) if n.startswith(".cw-stage.")]
+        assert len(left) == 1  # a killed process cleans nothing: its staging folder stays ...
+        assert {p.name: p.read_bytes() for p in out.iterdir() if p.is_file()} == before  # ... beside the old set
+        jobs.run_summary(tmp_path / "small.nc", tmp_path / "b.geojson", (7, 8), (1991, 1993), out, overwrite=True,
+                         figures=False)
+        assert not any(n.startswith(".") for n in _set_names(out))  # ... until the next run removes it
+
+
+def _set_names(folder):
+    return sorted(p.name for p in folder.iterdir())
+
+
+def test_a_job_killed_before_its_first_outputs_needs_no_overwrite_next_time(tmp_path):
+    from climwidgets import jobs
+
+    _small_job_inputs(tmp_path)
+    out = tmp_path / "out"
+    proc = _start_slow_job(tmp_path, out, overwrite=False)
+    proc.kill()
+    proc.communicate(timeout=60)
+    assert all(n.startswith(".cw-stage.") for n in _set_names(out))  # no output in place: no partial set
+    result = jobs.run_summary(tmp_path / "small.nc", tmp_path / "b.geojson", (7, 8), (1991, 1993), out,
+                              figures=False)  # without overwrite
+    assert _set_names(out) == ["basin_report.html", "basin_summary.csv", "basin_summary.csv-metadata.json",
+                               "seasonal_share_normals.nc"]
+    assert all(p.is_file() for p in result.paths.values())

@@ -256,3 +256,101 @@ def test_compare_product_names(demo_files, tmp_path):
         jobs.run_compare([demo_files["monthly"], demo_files["monthly"]], out_dir=tmp_path)
     assert list(jobs._product_names([f"a={demo_files['monthly']}", demo_files["coarse_monthly"]])) == \
         ["a", "pr_coarse_monthly_noleap"]
+
+
+# ------------------------------------------------------------------ all outputs or none
+def _small_inputs(folder):
+    time = pd.date_range("1991-01-01", "1993-12-31", freq="D")
+    da = xr.DataArray(np.ones((time.size, 2, 2)), dims=("time", "lat", "lon"), name="pr",
+                      coords={"time": time, "lat": [10.25, 10.75], "lon": [-160.75, -160.25]},
+                      attrs={"units": "mm", "standard_name": "lwe_thickness_of_precipitation_amount"})
+    da.to_dataset().to_netcdf(folder / "small.nc")
+    gj = {"type": "FeatureCollection", "features": [{"type": "Feature", "properties": {"name": "square"},
+          "geometry": {"type": "Polygon", "coordinates": [[[-161, 10], [-160, 10], [-160, 11], [-161, 11],
+                                                           [-161, 10]]]}}]}
+    (folder / "b.geojson").write_text(json.dumps(gj))
+    return folder / "small.nc", folder / "b.geojson"
+
+
+def _files(folder):
+    return {p.name: p.read_bytes() for p in folder.iterdir()} if folder.exists() else {}
+
+
+def _run_small(data, basins, out, **kw):
+    return jobs.run_summary(data, basins, (7, 8), (1991, 1993), out, figures=False, **kw)
+
+
+@pytest.mark.parametrize("failing", ["report", "netcdf"])
+def test_a_job_failing_mid_way_leaves_no_partial_set_and_the_next_run_needs_no_overwrite(tmp_path, monkeypatch,
+                                                                                          failing):
+    from climwidgets.report import html, netcdf
+
+    data, basins = _small_inputs(tmp_path)
+    out = tmp_path / "out"
+
+    def boom(*args, **kwargs):
+        raise RuntimeError(f"the {failing} could not be made")
+
+    with monkeypatch.context() as m:
+        m.setattr(html, "write_report", boom) if failing == "report" else m.setattr(netcdf, "_write_dataset", boom)
+        with pytest.raises(RuntimeError):
+            _run_small(data, basins, out)
+    assert _files(out) == {}  # neither the CSV nor its metadata nor the NetCDF: no partial set
+    result = _run_small(data, basins, out)  # and so no --overwrite needed now
+    assert sorted(_files(out)) == ["basin_report.html", "basin_summary.csv", "basin_summary.csv-metadata.json",
+                                   "seasonal_share_normals.nc"]
+    assert all(p.is_file() for p in result.paths.values())
+
+
+def test_a_failed_overwrite_leaves_the_previous_set_intact(tmp_path, monkeypatch):
+    from climwidgets.report import html
+
+    data, basins = _small_inputs(tmp_path)
+    out = tmp_path / "out"
+    _run_small(data, basins, out)
+    before = _files(out)
+
+    def half_then_fail(content, path, **kwargs):  # the report fails after the CSV and NetCDF are written
+        raise OSError(28, "No space left on device")
+
+    monkeypatch.setattr(html, "write_report", half_then_fail)
+    with pytest.raises(OSError) as info:
+        _run_small(data, basins, out, overwrite=True)
+    assert info.value.errno == 28 and isinstance(info.value, InputError)  # an OutputError: exit 2 in the CLI
+    assert "disk is full" in str(info.value) and ".cw-stage" not in str(info.value)
+    assert _files(out) == before  # every file of the previous set, byte for byte
+
+
+def test_leftovers_of_a_killed_run_are_cleaned_and_other_files_kept(tmp_path):
+    import subprocess
+    import sys
+
+    from climwidgets.atomic import _host
+
+    data, basins = _small_inputs(tmp_path)
+    out = tmp_path / "out"
+    out.mkdir()
+    dead = int(subprocess.run([sys.executable, "-c", "import os; print(os.getpid())"],
+                              capture_output=True, text=True).stdout)
+    stage = out / f".cw-stage.{_host()}-{dead}.k9.part"  # a run killed while writing its set
+    stage.mkdir()
+    (stage / "basin_summary.csv").write_text("half")
+    part = out / f".seasonal_share_normals.nc.{_host()}-{dead}.q1.part"  # a killed single write
+    part.write_bytes(b"\x89HDF")
+    users = [out / ".basin_summary.csv.backup", out / "notes.part", out / ".cw-stage-mine"]
+    for p in users:
+        p.write_text("the user's")
+    _run_small(data, basins, out)
+    assert not stage.exists() and not part.exists()
+    assert all(p.read_text() == "the user's" for p in users)
+
+
+def test_an_output_folder_that_takes_no_files_is_refused_before_the_data_are_read(tmp_path):
+    from climwidgets.atomic import OutputError
+
+    for where in ("/proc", "/proc/out"):
+        with pytest.raises(OutputError) as info:
+            jobs.run_summary(tmp_path / "missing.nc", tmp_path / "missing.geojson", out_dir=where)
+        text = str(info.value)
+        assert "/proc" in text and "does not accept new files" in text and "--out" in text
+        assert "Errno" not in text

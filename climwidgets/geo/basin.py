@@ -12,6 +12,11 @@ through the same checks, so a basin that exists is valid:
   keeps ≥ 99.9 % of its area in one polygon (a tiny loop where a vertex was clicked twice);
   a figure-of-eight is rejected, since which part was meant is a guess;
 * the result must have a non-zero area.
+
+A basin read from a file remembers it (:attr:`Basin.origin`), and every error about such a
+basin names the file as well as the basin.  A file that cannot be read (no permission,
+nested too deeply to be GeoJSON, a shapefile without its ``.dbf``) raises a
+:class:`~climwidgets.errors.SourceError` naming it, never the reader's own exception.
 """
 
 from __future__ import annotations
@@ -19,6 +24,7 @@ from __future__ import annotations
 import hashlib
 import json
 import os
+import struct
 from functools import cached_property
 from pathlib import Path
 
@@ -34,8 +40,51 @@ __all__ = ["Basin", "write_geojson"]
 _REPAIR_KEEP = 0.999  # share of the area a self-intersection repair must keep in one polygon
 
 
+# GeoJSON needs five levels of brackets (FeatureCollection > features > polygon > ring >
+# vertex), a MultiPolygon one more; json gives up at Python's recursion limit
+_MAX_GEOJSON_DEPTH_WORDS = "a FeatureCollection of Polygon or MultiPolygon features (about 6 levels of brackets)"
+
+
 def _err(problem, name, fix, expected=None):
     return BasinError(problem, source=f"basin {name!r}", expected=expected, fix=fix)
+
+
+def _in_file(exc: BasinError, where) -> BasinError:
+    """``exc`` with the file (or text) the basin came from named before the basin."""
+    if where is None or (exc.source and str(where) in exc.source):
+        return exc
+    source = f"{where}, {exc.source}" if exc.source and exc.source != "GeoJSON input" else str(where)
+    return type(exc)(exc.problem, source=source, variable=exc.variable, expected=exc.expected, fix=exc.fix)
+
+
+def _unreadable(path, exc: OSError, expected: str) -> SourceError:
+    reason = exc.strerror or type(exc).__name__
+    fix = ("give read permission on the file (e.g. chmod u+r) or copy it somewhere readable"
+           if isinstance(exc, PermissionError) else "check the path points at a readable file")
+    return SourceError(f"cannot be read ({reason})", source=path, expected=expected, fix=fix)
+
+
+def _parse_json(text: str, where):
+    try:
+        return json.loads(text)
+    except RecursionError:
+        raise SourceError("is nested too deeply to be GeoJSON (json gave up at Python's recursion limit)",
+                          source=where, expected=_MAX_GEOJSON_DEPTH_WORDS,
+                          fix="export the basin outlines again as GeoJSON from your GIS tool") from None
+    except ValueError as exc:  # json.JSONDecodeError is a ValueError
+        raise SourceError(f"not valid JSON ({exc})", source=where, expected="a GeoJSON file",
+                          fix="check the file is GeoJSON text") from None
+
+
+def _read_json(path: Path):
+    try:
+        text = path.read_text(encoding="utf-8")
+    except UnicodeDecodeError as exc:
+        raise SourceError(f"not valid JSON (not UTF-8 text: {exc.reason} at byte {exc.start})", source=path,
+                          expected="a GeoJSON file (UTF-8 text)", fix="check the file is GeoJSON text") from None
+    except OSError as exc:
+        raise _unreadable(path, exc, "a readable GeoJSON file") from None
+    return _parse_json(text, path)
 
 
 def _clean_ring(coords, name) -> np.ndarray:
@@ -151,10 +200,14 @@ def _build(polygons_rings, name):
 
 def _rings_from_geometry(geom: dict, name) -> list:
     kind = geom.get("type") if isinstance(geom, dict) else None
-    if kind == "Polygon":
-        return [geom["coordinates"]]
-    if kind == "MultiPolygon":
-        return list(geom["coordinates"])
+    if kind in ("Polygon", "MultiPolygon"):
+        coords = geom.get("coordinates")
+        depth = "rings" if kind == "Polygon" else "polygons, each a list of rings"
+        if not isinstance(coords, (list, tuple)) or not all(isinstance(c, (list, tuple)) for c in coords):
+            got = "no coordinates" if coords is None else f"coordinates that are not a list of {depth}"
+            raise _err(f"the {kind} has {got}", name, "export the basin outlines again as GeoJSON",
+                       expected=f"'coordinates': a list of {depth} of (lon, lat) vertices")
+        return [coords] if kind == "Polygon" else list(coords)
     raise _err(f"geometry type {kind!r} is not a polygon", name,
                "give a Polygon or MultiPolygon (points and lines have no area)",
                expected="Polygon, MultiPolygon, Feature or FeatureCollection")
@@ -175,6 +228,7 @@ class Basin:
                        "build it with Basin.from_wkt or Basin.from_geojson, which check and repair outlines")
         self._geometry = geometry
         self._name = str(name)
+        self._origin: str | None = None  # the file it was read from, if any
 
     # ---------------------------------------------------------------- constructors
     @classmethod
@@ -194,20 +248,32 @@ class Basin:
         ``properties[name_property]``, else "basin 1", "basin 2", …
         """
         obj, stem = path_or_mapping, "basin"
+        where: str | Path | None = None
         if isinstance(obj, (str, os.PathLike)):
             text = str(obj)
             if text.lstrip().startswith("{"):
-                obj = json.loads(text)
+                where = "GeoJSON text"
+                obj = _parse_json(text, where)
             else:
                 path = Path(obj)
-                if not path.is_file():
+                if not path.exists():
                     raise SourceError("file not found", source=path, expected="a GeoJSON file",
                                       fix="check the path")
-                try:
-                    obj = json.loads(path.read_text(encoding="utf-8"))
-                except (json.JSONDecodeError, UnicodeDecodeError) as exc:
-                    raise SourceError(f"not valid JSON ({exc})", source=path, expected="a GeoJSON file",
-                                      fix="check the file is GeoJSON text") from None
+                if not path.is_file():
+                    raise SourceError("is not a regular file (a folder, pipe or device)", source=path,
+                                      expected="a GeoJSON file", fix="give the path of the .geojson file itself")
+                where = path
+                obj = _read_json(path)
+        try:
+            basins = cls._from_mapping(obj, stem, name_property)
+        except BasinError as exc:
+            raise _in_file(exc, where) from None
+        for b in basins:
+            b._origin = None if where is None or where == "GeoJSON text" else str(where)
+        return basins
+
+    @classmethod
+    def _from_mapping(cls, obj, stem, name_property) -> list["Basin"]:
         if not isinstance(obj, dict):
             raise BasinError(f"got {type(obj).__name__}", source="GeoJSON input",
                              expected="a GeoJSON mapping, file path or JSON text",
@@ -220,12 +286,21 @@ class Basin:
             raise BasinError(f"GeoJSON type {kind!r} is not supported", source="GeoJSON input",
                              expected="Polygon, MultiPolygon, Feature or FeatureCollection",
                              fix="wrap the polygons in a FeatureCollection")
+        if not isinstance(features, list):
+            raise BasinError(f"'features' is a {type(features).__name__}, not a list", source="GeoJSON input",
+                             expected="a FeatureCollection whose 'features' is a list of Feature objects",
+                             fix="export the basin outlines again as GeoJSON")
         if not features:
             raise BasinError("the FeatureCollection holds no features", source="GeoJSON input",
                              expected="at least one polygon feature", fix="add a basin outline")
         basins = []
         for i, feat in enumerate(features):
-            props = feat.get("properties") or {}
+            if not isinstance(feat, dict):
+                raise BasinError(f"feature {i + 1} is not a Feature object (got {type(feat).__name__})",
+                                 source="GeoJSON input", expected='{"type": "Feature", "geometry": ..., '
+                                 '"properties": ...}', fix="export the basin outlines again as GeoJSON")
+            props = feat.get("properties")
+            props = props if isinstance(props, dict) else {}
             name = props.get(name_property)
             name = f"basin {i + 1}" if name in (None, "") else str(name)
             if not feat.get("geometry"):
@@ -256,32 +331,57 @@ class Basin:
 
         path = Path(path)
         shp = path.with_suffix(".shp")
-        if not shp.is_file():
+        if not shp.exists():
             raise SourceError("file not found", source=shp, expected="a .shp file with its .shx and .dbf",
                               fix="check the path")
+        if not shp.is_file():
+            raise SourceError("is not a regular file (a folder, pipe or device)", source=shp,
+                              expected="a .shp file", fix="give the path of the .shp file itself")
+        dbf = next((shp.with_suffix(x) for x in (".dbf", ".DBF", ".Dbf") if shp.with_suffix(x).is_file()), None)
+        if dbf is None:
+            raise SourceError(f"the shapefile has no {shp.stem}.dbf beside it (the table of names and "
+                              "attributes)", source=shp, expected="a .shp file with its .shx and .dbf",
+                              fix=f"copy {shp.stem}.dbf (and {shp.stem}.shx, {shp.stem}.prj) into the same folder, "
+                                  "or save the outlines as GeoJSON")
         try:
             reader = shapefile.Reader(str(shp))
         except shapefile.ShapefileException as exc:
             raise SourceError(f"cannot read the shapefile ({exc})", source=shp,
                               expected="a .shp with its .shx and .dbf", fix="copy all parts of the shapefile") from None
-        with reader:
-            fields = [f[0] for f in reader.fields[1:]]
-            if name_field is not None and name_field not in fields:
-                raise BasinError(f"no field {name_field!r}", source=shp, expected=f"one of {fields}",
-                                 fix="pass name_field= one of the listed fields")
-            if name_field is None:
-                name_field = next((f for f in fields if f.lower() == "name"), None)
-            transform = _prj_transform(shp.with_suffix(".prj"))
-            basins = []
-            for i, rec in enumerate(reader.iterShapeRecords()):
-                name = str(rec.record[name_field]) if name_field else f"{shp.stem} {i + 1}"
-                geo = rec.shape.__geo_interface__
-                if geo.get("type") not in ("Polygon", "MultiPolygon"):
-                    raise _err(f"shape type {geo.get('type')!r} is not a polygon", name,
-                               "save the outlines as a polygon layer", expected="Polygon records")
-                if transform is not None:
-                    geo = mapping(transform(shape(geo)))
-                basins.append(cls._from_rings(_rings_from_geometry(geo, name), name))
+        except OSError as exc:
+            raise _unreadable(shp, exc, "a readable .shp file with its .shx and .dbf") from None
+        try:
+            with reader:
+                basins = cls._from_reader(reader, shp, name_field)
+        except BasinError as exc:
+            raise _in_file(exc, shp) from None
+        except (shapefile.ShapefileException, struct.error, OSError, UnicodeDecodeError) as exc:
+            raise SourceError(f"cannot read the shapefile ({' '.join(str(exc).split())})", source=shp,
+                              expected="a .shp with its .shx and .dbf, all from one export",
+                              fix="copy all parts of the shapefile again, or save the outlines as GeoJSON") from None
+        for b in basins:
+            b._origin = str(shp)
+        return basins
+
+    @classmethod
+    def _from_reader(cls, reader, shp: Path, name_field) -> list["Basin"]:
+        fields = [f[0] for f in reader.fields[1:]]
+        if name_field is not None and name_field not in fields:
+            raise BasinError(f"no field {name_field!r}", source=shp, expected=f"one of {fields}",
+                             fix="pass name_field= one of the listed fields")
+        if name_field is None:
+            name_field = next((f for f in fields if f.lower() == "name"), None)
+        transform = _prj_transform(shp.with_suffix(".prj"))
+        basins = []
+        for i, rec in enumerate(reader.iterShapeRecords()):
+            name = str(rec.record[name_field]) if name_field else f"{shp.stem} {i + 1}"
+            geo = rec.shape.__geo_interface__
+            if geo.get("type") not in ("Polygon", "MultiPolygon"):
+                raise _err(f"shape type {geo.get('type')!r} is not a polygon", name,
+                           "save the outlines as a polygon layer", expected="Polygon records")
+            if transform is not None:
+                geo = mapping(transform(shape(geo)))
+            basins.append(cls._from_rings(_rings_from_geometry(geo, name), name))
         if not basins:
             raise BasinError("the shapefile holds no records", source=shp, expected="at least one polygon",
                              fix="add a basin outline")
@@ -291,6 +391,22 @@ class Basin:
     @property
     def name(self) -> str:
         return self._name
+
+    @property
+    def origin(self) -> str | None:
+        """The file the basin was read from (None when drawn or built in code)."""
+        return self._origin
+
+    @property
+    def where(self) -> str:
+        """How error messages name the basin: ``"FILE, basin 'NAME'"`` or ``"basin 'NAME'"``."""
+        return f"{self._origin}, basin {self._name!r}" if self._origin else f"basin {self._name!r}"
+
+    def renamed(self, name: str) -> "Basin":
+        """The same outline (and file of origin) under another name."""
+        out = Basin(self._geometry, name=name)
+        out._origin = self._origin
+        return out
 
     @property
     def geometry(self):

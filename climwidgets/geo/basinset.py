@@ -123,7 +123,7 @@ class BasinSet:
             if new == old:
                 return basin
             self._check_new_name(new)
-            renamed = Basin(basin.geometry, name=new)
+            renamed = basin.renamed(new)
             self._basins[self._basins.index(basin)] = renamed
         self._notify("rename", (old, new))
         return renamed
@@ -214,7 +214,27 @@ def as_basin_list(basins, func: str) -> list[Basin]:
 
 def load_basins(source) -> list[Basin]:
     """Basins from a GeoJSON file (.geojson/.json) or an ESRI shapefile (.shp), or Basin
-    objects (a Basin, a list or a BasinSet) passed through."""
+    objects (a Basin, a list or a BasinSet) passed through.
+
+    Parameters
+    ----------
+    source : str, path-like, Basin, list of Basin or BasinSet
+        The basin outline file, or basins already built.
+
+    Returns
+    -------
+    list of Basin
+        In file order; each remembers the file it came from (:attr:`Basin.origin`).
+
+    Raises
+    ------
+    climwidgets.errors.SourceError
+        When the file is missing, not a regular file (a folder, pipe or device: refused
+        without reading, so a pipe cannot block), unreadable, not JSON, nested too deeply,
+        or a shapefile without its ``.dbf``.
+    climwidgets.errors.BasinError
+        When an outline is not a usable polygon; the message names the file and the basin.
+    """
     if isinstance(source, (Basin, BasinSet)) or (isinstance(source, (list, tuple)) and source
                                                  and all(isinstance(b, Basin) for b in source)):
         return _basins_of(source, "load_basins")
@@ -225,12 +245,21 @@ def load_basins(source) -> list[Basin]:
     suffix = path.suffix.lower()
     if suffix in (".shp", ".shx", ".dbf"):
         return Basin.from_shapefile(path)
-    if not path.is_file():
+    if not path.exists():
         raise SourceError("basin file not found", source=path, expected="a GeoJSON (.geojson, .json) or "
                           "shapefile (.shp)", fix="check the basin file path")
+    if not path.is_file():  # a folder, FIFO or device: never opened (a FIFO would block)
+        raise SourceError("is not a regular file (a folder, pipe or device)", source=path,
+                          expected="a GeoJSON (.geojson, .json) or shapefile (.shp) file",
+                          fix="give the path of the basin outline file itself")
     if suffix not in (".geojson", ".json"):
-        with open(path, "rb") as f:
-            head = f.read(64).lstrip()
+        try:
+            with open(path, "rb") as f:
+                head = f.read(64).lstrip()
+        except OSError as exc:
+            from .basin import _unreadable
+
+            raise _unreadable(path, exc, "a readable GeoJSON or shapefile") from None
         if not head.startswith(b"{"):
             raise BasinError("is not a basin outline file", source=path,
                              expected="GeoJSON (.geojson, .json) or an ESRI shapefile (.shp)",

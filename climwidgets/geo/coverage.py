@@ -289,7 +289,7 @@ def coverage_block(basin, grid):
         w, s, e, n = basin.bounds
         raise BasinError(
             f"lies entirely outside the grid (basin lon {w:g}..{e:g}, lat {s:g}..{n:g})",
-            source=f"basin {basin.name!r}",
+            source=basin.where,  # names the file the basin came from, if any
             expected="a basin that overlaps at least one grid cell",
             fix="check the basin's coordinates are (lon, lat) in degrees and that the data covers the basin",
         )

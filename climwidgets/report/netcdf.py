@@ -24,13 +24,24 @@ follows the CF conventions 1.10 (checked in the tests with the IOOS compliance c
   this write), ``source``, ``institution``.
 
 The write is atomic (temporary file in the same folder, then ``os.replace``) and refuses
-to overwrite an existing file unless ``overwrite=True``.
+to overwrite an existing file unless ``overwrite=True``.  The file is written by one
+worker thread while the calling thread waits: Ctrl-C (``KeyboardInterrupt``, which Python
+delivers to the main thread only) then never lands inside the netCDF/HDF5 library or
+between a lock's acquire and release; the writer is told to stop at the next block, closes
+the file itself, the temporary file is removed and the interrupt is raised, with any
+previous file intact.  A write that fails because the disk filled up (which the netCDF
+library reports as "NetCDF: HDF error") is reported as a full disk naming the output
+(:class:`climwidgets.atomic.OutputError` with ``errno.ENOSPC``).
 """
 
 from __future__ import annotations
 
+import errno
 import json
 import numbers
+import os
+import shutil
+import threading
 from datetime import date, datetime, timedelta
 from pathlib import Path
 
@@ -327,6 +338,106 @@ def _write_dataset(ds: xr.Dataset, tmp: Path, encoding: dict) -> None:
     ds.to_netcdf(tmp, mode="w", format="NETCDF4", engine="netcdf4", encoding=encoding)
 
 
+class _Stopped(Exception):
+    """Raised in the writer thread between two blocks after the caller was interrupted."""
+
+
+def _free_bytes(folder) -> int:
+    """Free space for an unprivileged writer in ``folder`` (a function so tests can set it)."""
+    return shutil.disk_usage(folder).free
+
+
+# Below this much free space a failed write is taken to be the full disk: the netCDF
+# library reports ENOSPC only as "NetCDF: HDF error", and HDF5 fails once a chunk no
+# longer fits, so the space left is at most about one chunk.
+_FULL_DISK_MARGIN = 8 * 2**20
+
+
+def _largest_chunk_bytes(ds: xr.Dataset) -> int:
+    largest = 0
+    for var in ds.variables.values():
+        shape = [max(c) for c in var.chunks] if var.chunks else list(var.shape)
+        largest = max(largest, int(np.prod(shape, dtype=np.int64)) * var.dtype.itemsize)
+    return largest
+
+
+def _disk_full_error(exc: BaseException, ds: xr.Dataset, tmp: Path) -> OSError | None:
+    """An ENOSPC OSError when ``exc`` from the netCDF library came from a full disk."""
+    if isinstance(exc, OSError) and exc.errno is not None:
+        return None  # already says what it is
+    if not isinstance(exc, (RuntimeError, OSError)):
+        return None
+    try:
+        free = _free_bytes(tmp.parent)
+    except OSError:
+        return None
+    if free > max(_FULL_DISK_MARGIN, _largest_chunk_bytes(ds)):
+        return None
+    return OSError(errno.ENOSPC, f"{os.strerror(errno.ENOSPC)} ({free} bytes free; the netCDF library said: "
+                                 f"{' '.join(str(exc).split())})")
+
+
+# Lazy results up to this size are computed in memory before the file is opened, so that an
+# interrupt stops the computation with no file open; larger ones are written block by block
+# and an interrupt waits for the write to end (the file is then discarded).
+_IN_MEMORY_LIMIT = 2 * 2**30
+
+
+def _compute_stoppable(ds: xr.Dataset, stop: threading.Event) -> xr.Dataset:
+    """``ds.compute()`` that raises :class:`_Stopped` between two blocks once ``stop`` is set."""
+    from dask.callbacks import Callback
+
+    ident = threading.get_ident()
+
+    def pretask(key, dsk, state):
+        if stop.is_set() and threading.get_ident() == ident:  # only this computation's scheduler loop
+            raise _Stopped()
+
+    with Callback(pretask=pretask):
+        return ds.compute()
+
+
+def _write_in_worker(ds: xr.Dataset, tmp: Path, encoding: dict) -> None:
+    """Write in a worker thread; on KeyboardInterrupt stop it cleanly, then re-raise.
+
+    Python raises KeyboardInterrupt in the main thread only, so the netCDF/HDF5 calls made
+    by the worker are never cut in the middle (where a held file lock would deadlock the
+    close).  Lazy data are computed first, with no file open, and that computation stops
+    at the next block when interrupted.
+    """
+    stop = threading.Event()
+    outcome: dict = {}
+
+    def run():
+        try:
+            data = ds
+            if any(v.chunks for v in ds.variables.values()) and ds.nbytes <= _IN_MEMORY_LIMIT:
+                data = _compute_stoppable(ds, stop)
+            if stop.is_set():
+                raise _Stopped()
+            _write_dataset(data, tmp, encoding)
+        except BaseException as exc:  # handed to the calling thread below
+            outcome["error"] = exc
+
+    writer = threading.Thread(target=run, name="climwidgets-netcdf-writer")
+    writer.start()
+    interrupted = False
+    while writer.is_alive():
+        try:
+            writer.join(0.2)
+        except KeyboardInterrupt:
+            interrupted = True  # the writer stops at the next block, or finishes and is discarded
+            stop.set()
+    if interrupted:
+        raise KeyboardInterrupt
+    error = outcome.get("error")
+    if error is not None:
+        full = _disk_full_error(error, ds, tmp)
+        if full is not None:
+            raise full from error
+        raise error
+
+
 def to_netcdf(obj, path, overwrite: bool = False, title: str | None = None,
               source: str | None = None, institution: str | None = None) -> Path:
     """Write a DataArray or Dataset to a CF-1.10 NetCDF file, atomically.
@@ -350,4 +461,4 @@ def to_netcdf(obj, path, overwrite: bool = False, title: str | None = None,
     """
     target = check_target(path, overwrite, "to_netcdf")
     ds, encoding = prepare_cf(obj, title=title, source=source, institution=institution, path=target.name)
-    return atomic_write(target, overwrite, lambda tmp: _write_dataset(ds, tmp, encoding), "to_netcdf")
+    return atomic_write(target, overwrite, lambda tmp: _write_in_worker(ds, tmp, encoding), "to_netcdf")

@@ -38,7 +38,7 @@ import pandas as pd
 
 from .._version import __version__
 from ..errors import ParameterError
-from ..atomic import atomic_write, check_target
+from ..atomic import atomic_write, check_target, staged_outputs
 from ._provenance import cautions_for_columns, describe_inputs, format_value
 
 __all__ = ["to_csv", "csv_files", "read_csv", "read_metadata", "metadata_path", "metadata", "guard_formulas"]
@@ -204,9 +204,19 @@ def to_csv(table, path, overwrite: bool = False, provenance=None, float_format: 
     target = check_target(path, overwrite, "to_csv")
     meta_target = check_target(metadata_path(target), overwrite, "to_csv")
     files = csv_files(table, target.name, provenance, float_format=float_format)
-    # metadata first: a CSV on disk always has its metadata beside it
-    atomic_write(meta_target, overwrite, lambda tmp: tmp.write_bytes(files[meta_target.name]), "to_csv")
-    return atomic_write(target, overwrite, lambda tmp: tmp.write_bytes(files[target.name]), "to_csv")
+    # the CSV and its metadata are one output: both are replaced, or neither (a full disk
+    # half-way leaves the previous pair; of racing writers one writes both)
+    with staged_outputs(target.parent, overwrite, "to_csv") as stage:
+        for name in (meta_target.name, target.name):
+            atomic_write(stage / name, False, _bytes_writer(files[name]), "to_csv")
+    return target
+
+
+def _bytes_writer(data: bytes):
+    def write(tmp: Path) -> None:
+        tmp.write_bytes(data)
+
+    return write
 
 
 def read_csv(path, **kwargs) -> pd.DataFrame:

@@ -770,9 +770,160 @@ def markdown_table() -> str:
     return "\n".join(rows)
 
 
+# ---------------------------------------------------------------- command-line cases
+# Bad basin files, output folders and option values given to the ``climwidgets`` command:
+# each ends with exit 0, or exit 2 and one line that names the file (or option) and says
+# how to fix it.  ``build(folder)`` writes the inputs and returns the command's arguments.
+JOB_LAT, JOB_LON = np.array([-30.75, -30.25]), np.array([-140.75, -140.25])
+
+
+@dataclass
+class JobCase:
+    name: str
+    what: str
+    build: Callable  # build(folder: Path) -> list of command-line arguments
+    exit_code: int
+    words: tuple  # in the error line (exit 2)
+    note: str
+    names: tuple = ()  # what the message must name instead of a file of the case (an option, a folder)
+
+
+def _job_data(d):
+    """Three years of 1 mm/day on 2 x 2 cells; a valid input for every case."""
+    import pandas as pd
+
+    time = pd.date_range("1991-01-01", "1993-12-31", freq="D")
+    ds = _dataset(np.ones((time.size, 2, 2)), time=np.arange(time.size), time_units="days since 1991-01-01",
+                  lat=JOB_LAT, lon=JOB_LON, standard_name="lwe_thickness_of_precipitation_amount")
+    return _write(ds, d / "pr.nc")
+
+
+def _job_square(name="square", west=-141.0):
+    ring = [[west, -31.0], [west + 1, -31.0], [west + 1, -30.0], [west, -30.0], [west, -31.0]]
+    return {"type": "Feature", "properties": {"name": name}, "geometry": {"type": "Polygon", "coordinates": [ring]}}
+
+
+def _summary(d, basins, out=None, *extra):
+    return ["summary", "--data", _job_data(d), "--basins", str(basins), "--months", "7,8", "--baseline",
+            "1991-1993", "--out", str(out if out is not None else d / "out"), "--quiet", *extra]
+
+
+def _geojson(d, name, obj):
+    import json
+
+    path = d / name
+    path.write_text(obj if isinstance(obj, str) else json.dumps(obj))
+    return path
+
+
+def j_valid(d):
+    return _summary(d, _geojson(d, "basins.geojson", {"type": "FeatureCollection", "features": [_job_square()]}))
+
+
+def j_nested(d):
+    return _summary(d, _geojson(d, "nested.geojson", "[" * 100_000 + "]" * 100_000))
+
+
+def j_shapefile_without_dbf(d):
+    import shapefile
+
+    with shapefile.Writer(str(d / "outline"), shapeType=shapefile.POLYGON) as w:
+        w.field("name", "C")
+        w.poly(_job_square()["geometry"]["coordinates"])
+        w.record("square")
+    (d / "outline.dbf").unlink()
+    return _summary(d, d / "outline.shp")
+
+
+def j_fifo(d):
+    os.mkfifo(d / "basins.geojson")  # reading it would block until someone writes
+    return _summary(d, d / "basins.geojson")
+
+
+def j_zero_area(d):
+    line = {"type": "Feature", "properties": {"name": "flat"},
+            "geometry": {"type": "Polygon", "coordinates": [[[-141, -31], [-140, -31], [-139, -31], [-141, -31]]]}}
+    return _summary(d, _geojson(d, "flat.geojson", {"type": "FeatureCollection", "features": [line]}))
+
+
+def j_outside(d):
+    far = _job_square("far", west=10.0)
+    return _summary(d, _geojson(d, "far.geojson", {"type": "FeatureCollection", "features": [far]}))
+
+
+def j_features_not_list(d):
+    return _summary(d, _geojson(d, "odd.geojson", {"type": "FeatureCollection", "features": {"a": 1}}))
+
+
+def j_out_proc(d):
+    return _summary(d, _geojson(d, "basins.geojson", _job_square()), "/proc")
+
+
+def j_out_is_file(d):
+    (d / "out.txt").write_text("a file where the output folder should be")
+    return _summary(d, _geojson(d, "basins.geojson", _job_square()), d / "out.txt")
+
+
+def j_typo(d):
+    return ["extremes", "--data", _job_data(d), "--duration", "dayly", "--out", str(d / "out")]
+
+
+def j_typo_choice(d):
+    return ["compare", "--data", _job_data(d), _job_data(d), "--method", "bilinaer", "--out", str(d / "out")]
+
+
+JOB_CASES = [
+    JobCase("job_valid", "summary of a valid file and basin (control)", j_valid, 0, (),
+            "exit 0; CSV, metadata, NetCDF and report written"),
+    JobCase("job_basins_nested", "GeoJSON nested 100 000 levels", j_nested, 2, ("nested too deeply",),
+            "exit 2: SourceError naming the file (no RecursionError)"),
+    JobCase("job_shapefile_without_dbf", "shapefile whose .dbf is missing", j_shapefile_without_dbf, 2,
+            ("outline.dbf",), "exit 2: SourceError naming the .shp and the missing .dbf"),
+    JobCase("job_basins_fifo", "a named pipe given as the basin file", j_fifo, 2, ("not a regular file",),
+            "exit 2 at once: SourceError (the pipe is never opened, so nothing blocks)"),
+    JobCase("job_basin_zero_area", "a basin whose vertices lie on one line", j_zero_area, 2,
+            ("basin 'flat'", "zero area"), "exit 2: BasinError naming the file and the basin"),
+    JobCase("job_basin_outside_grid", "a basin far from the grid", j_outside, 2,
+            ("basin 'far'", "outside the grid"), "exit 2: BasinError naming the file and the basin"),
+    JobCase("job_features_not_list", "'features' is an object, not a list", j_features_not_list, 2,
+            ("'features' is a dict",), "exit 2: BasinError naming the file (no AttributeError)"),
+    JobCase("job_out_proc", "--out /proc", j_out_proc, 2, ("does not accept new files",),
+            "exit 2 before any data are read: OutputError naming /proc (no raw errno)", names=("/proc",)),
+    JobCase("job_out_is_file", "--out names a regular file", j_out_is_file, 2, ("is a file, not a folder",),
+            "exit 2: ParameterError naming the file"),
+    JobCase("job_typo_number", "--duration dayly", j_typo, 2, ("'dayly' is not a whole number",),
+            "exit 2: says a whole number of days is expected", names=("--duration",)),
+    JobCase("job_typo_choice", "--method bilinaer", j_typo_choice, 2, ("did you mean 'bilinear'",),
+            "exit 2: suggests the nearest valid word (difflib)", names=("--method",)),
+]
+
+
+def build_job_corpus(folder) -> dict:
+    """Write every command-line case into ``folder``; return {name: (case, argv, [files])}."""
+    folder = Path(folder)
+    out = {}
+    for case in JOB_CASES:
+        d = folder / case.name
+        d.mkdir(parents=True, exist_ok=True)
+        argv = case.build(d)
+        files = sorted(p for p in d.rglob("*") if p.is_file())
+        out[case.name] = (case, argv, files)
+    return out
+
+
+def job_markdown_table() -> str:
+    rows = ["| case | input | behaviour observed |", "| --- | --- | --- |"]
+    for c in JOB_CASES:
+        rows.append(f"| `{c.name}` | {c.what} | {c.note} |")
+    return "\n".join(rows)
+
+
 if __name__ == "__main__":  # pragma: no cover - a helper for people
     import sys
 
     where = Path(sys.argv[1] if len(sys.argv) > 1 else "corpus_out")
     build_corpus(where)
+    build_job_corpus(where)
     print(markdown_table())
+    print()
+    print(job_markdown_table())

@@ -218,3 +218,103 @@ def test_area_of_an_ordinary_outline_still_matches_pyproj_geod():
     b = cw.Basin.from_vertices([(10, 10), (12, 10.5), (11.5, 12), (9.8, 11.7)])
     area, _ = Geod(a=R, b=R).geometry_area_perimeter(shapely.segmentize(b.geometry, 0.001))
     assert b.area_m2 == pytest.approx(abs(area), rel=1e-6)
+
+
+# ---------------------------------------------------------------- files that cannot be read
+def _square_feature(name="upper"):
+    ring = [list(v) for v in SQUARE] + [list(SQUARE[0])]
+    return {"type": "Feature", "properties": {"name": name}, "geometry": {"type": "Polygon", "coordinates": [ring]}}
+
+
+def test_geojson_nested_100000_levels_is_a_source_error(tmp_path):
+    path = tmp_path / "deep.geojson"
+    path.write_text("[" * 100_000 + "]" * 100_000)
+    with pytest.raises(SourceError, match="nested too deeply") as info:
+        cw.load_basins(path)
+    assert str(path) in str(info.value) and "Fix: " in str(info.value) and info.value.__cause__ is None
+    with pytest.raises(SourceError, match="nested too deeply"):  # the same as JSON text
+        cw.Basin.from_geojson('{"a": ' + "[" * 100_000 + "]" * 100_000 + "}")
+
+
+def test_shapefile_without_dbf_is_a_source_error(tmp_path):
+    with shapefile.Writer(str(tmp_path / "outline"), shapeType=shapefile.POLYGON) as w:
+        w.field("name", "C")
+        w.poly([[list(v) for v in SQUARE] + [list(SQUARE[0])]])
+        w.record("upper")
+    (tmp_path / "outline.dbf").unlink()
+    with pytest.raises(SourceError) as info:
+        cw.load_basins(tmp_path / "outline.shp")
+    text = str(info.value)
+    assert "outline.shp" in text and "outline.dbf" in text and "Fix: " in text
+
+
+def test_unreadable_geojson_through_the_api_is_a_source_error(tmp_path, monkeypatch):
+    # tests run as root, where chmod does not stop reads: the refusal is simulated
+    path = tmp_path / "basins.geojson"
+    path.write_text(json.dumps(_square_feature()))
+    original = type(path).read_text
+
+    def refused(self, *args, **kwargs):
+        if self.name == "basins.geojson":
+            raise PermissionError(13, "Permission denied", str(self))
+        return original(self, *args, **kwargs)
+
+    monkeypatch.setattr(type(path), "read_text", refused)
+    for load in (cw.load_basins, cw.Basin.from_geojson, cw.BasinSet.from_file):
+        with pytest.raises(SourceError) as info:
+            load(path)
+        assert str(path) in str(info.value) and "Permission denied" in str(info.value)
+        assert "permission" in info.value.fix
+
+
+def test_a_pipe_given_as_basin_file_is_refused_without_blocking(tmp_path):
+    import os
+
+    fifo = tmp_path / "basins.geojson"
+    os.mkfifo(fifo)  # opening it for reading would wait for a writer forever
+    with pytest.raises(SourceError, match="not a regular file"):
+        cw.load_basins(fifo)
+    with pytest.raises(SourceError, match="not a regular file"):
+        cw.Basin.from_geojson(fifo)
+
+
+@pytest.mark.parametrize("obj, words", [
+    ({"type": "FeatureCollection", "features": [1]}, ["feature 1 is not a Feature"]),
+    ({"type": "FeatureCollection", "features": {"a": 1}}, ["'features' is a dict"]),
+    ({"type": "Feature", "properties": {"name": "flat"}, "geometry": {"type": "Polygon"}},
+     ["basin 'flat'", "no coordinates"]),
+    ({"type": "Feature", "properties": [], "geometry": {"type": "Polygon", "coordinates": 5}},
+     ["basin 'basin 1'", "not a list of rings"]),
+    ({"type": "MultiPolygon", "coordinates": [1, 2]}, ["not a list of polygons"]),
+    ({"type": "Feature", "properties": {"name": "line"},
+      "geometry": {"type": "Polygon", "coordinates": [[[-140, 20], [-139, 20], [-138, 20], [-140, 20]]]}},
+     ["basin 'line'", "zero area"]),
+])
+def test_basin_errors_name_the_file_and_the_basin(tmp_path, obj, words):
+    path = tmp_path / "outlines.geojson"
+    path.write_text(json.dumps(obj))
+    with pytest.raises(BasinError) as info:
+        cw.load_basins(path)
+    text = str(info.value)
+    assert text.startswith(str(path)), text
+    for w in words:
+        assert w in text
+    assert "Fix: " in text
+
+
+def test_a_basin_outside_the_grid_is_named_with_its_file(tmp_path):
+    import pandas as pd
+    import xarray as xr
+
+    path = tmp_path / "outlines.geojson"
+    path.write_text(json.dumps({"type": "FeatureCollection", "features": [_square_feature("far")]}))
+    (basin,) = cw.load_basins(path)
+    assert basin.origin == str(path) and basin.renamed("other").origin == str(path)
+    pr = xr.DataArray(np.ones((2, 2, 2)), dims=("time", "lat", "lon"),
+                      coords={"time": pd.date_range("2001-01-01", periods=2), "lat": [-30.25, -29.75],
+                              "lon": [10.25, 10.75]}, attrs={"units": "mm", "step": "day"}, name="pr")
+    with pytest.raises(BasinError) as info:
+        cw.basin_mean(pr, basin)
+    assert f"{path}, basin 'far'" in str(info.value) and "outside the grid" in str(info.value)
+    drawn = cw.Basin.from_vertices(SQUARE, name="drawn")
+    assert drawn.origin is None and drawn.where == "basin 'drawn'"
