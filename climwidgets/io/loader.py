@@ -32,7 +32,7 @@ from .chunkreader import StoredValues, backend_reader, direct_reader
 from .projected import attach_latlon, attach_mapping
 from .sources import is_zarr, open_raw, resolve, source_label
 from .units import length_to_metres, parse_units, step_factor
-from .values import check_packing, check_values, convert_block, needs_fill_heuristics
+from .values import check_packing, check_values, convert_block, mask_likely_fill, needs_fill_heuristics
 
 PRECIP_STANDARD_NAMES = (
     "lwe_thickness_of_precipitation_amount", "precipitation_amount", "precipitation_flux",
@@ -345,6 +345,56 @@ def _check_parts_in_sequence(parts) -> None:
                             fix="remove the duplicate or overlapping file from the list or pattern")
 
 
+_FILL_NOTE = "values >= 1e15 and -9999/-999/-99999 treated as missing (no _FillValue in the file)"
+
+
+def _fill_per_file(parts):
+    """``(parts, mask_fill, note)``: the fill heuristics decided file by file.
+
+    A file without _FillValue/missing_value gets the heuristics (1e20, -9999 ... as
+    missing) and a file that declares its fill keeps its own: in a glob mixing both, the
+    files that need the heuristics are masked before they are combined, so a later file's
+    1e20 never becomes 1e20 mm because the first file declared -9999.
+    """
+    needs = [needs_fill_heuristics(info["encoding"], info["attrs"]) for _, info in parts]
+    if all(needs) or not any(needs):
+        return parts, needs[0], (_FILL_NOTE if needs[0] else None)
+    import dask.array as dsa
+
+    out = []
+    for (da, info), need in zip(parts, needs):
+        if need:
+            data = da.data if is_dask_collection(da.data) else dsa.from_array(np.asarray(da.data))
+            da = da.copy(data=dsa.map_blocks(mask_likely_fill, data, dtype=np.result_type(da.dtype, np.float32)))
+        out.append((da, info))
+    which = ", ".join(info["path"] for (_, info), need in zip(parts, needs) if need)
+    return out, False, f"values >= 1e15 and -9999/-999/-99999 treated as missing in {which} (no _FillValue there)"
+
+
+def _check_labels_per_file(parts) -> None:
+    """Every file's stamps taken the same way: start of step, or end of step by its bounds.
+
+    Bounds are combined only when every file has them; a file stamped at the end of each
+    step beside one without bounds (or one stamped at the start) would be shifted by one
+    step in the combined axis, so the pair is named instead.
+    """
+    kinds = []
+    for da, info in parts:
+        tb = info.get("time_bounds")
+        if tb is None:
+            kinds.append(("has no time bounds", info["path"]))
+        elif timeaxis.start_labels(da["time"], tb)[1]:
+            kinds.append(("stamps each step at its end (by its time bounds)", info["path"]))
+        else:
+            kinds.append(("stamps each step at its start (by its time bounds)", info["path"]))
+    ends = [k for k in kinds if " end " in k[0]]
+    others = [k for k in kinds if " end " not in k[0]]
+    if ends and others:
+        raise MismatchError(f"{ends[0][0]} but {others[0][1]} {others[0][0]}", source=ends[0][1], variable="time",
+                            expected="the same time stamping (and time bounds) in every file of one product",
+                            fix="open the files separately, or give every file the same CF time bounds")
+
+
 def _combine(parts, source_list):
     first_da, first = parts[0]
     u0 = parse_units(first["attrs"].get("units"), source=first["path"], variable=first["name"])
@@ -363,15 +413,18 @@ def _combine(parts, source_list):
                                 variable=info["name"], expected="the same lat/lon grid in every file",
                                 fix="open the files as separate products and use cw.regrid to bring them together")
     if len(parts) == 1:
-        return first_da, first["time_bounds"]
+        mask_fill = needs_fill_heuristics(first["encoding"], first["attrs"])
+        return first_da, first["time_bounds"], mask_fill, (_FILL_NOTE if mask_fill else None)
     parts = sorted(parts, key=lambda p: p[0]["time"].values[0])
+    _check_labels_per_file(parts)  # first: a one-step shift would also look like an overlap
     _check_parts_in_sequence(parts)
+    parts, mask_fill, fill_note = _fill_per_file(parts)
     da = xr.concat([p[0] for p in parts], dim="time", coords="minimal", compat="override", join="override",
                    combine_attrs="override")
     timeaxis.check_monotonic(da["time"].values, source=", ".join(source_list[:3]) + (" …" if len(source_list) > 3 else ""))
     bounds = [p[1]["time_bounds"] for p in parts]
     tb = xr.concat(bounds, dim=bounds[0].dims[0]) if all(b is not None for b in bounds) else None
-    return da, tb
+    return da, tb, mask_fill, fill_note
 
 
 def open_precip(source, var=None, chunks="auto", validate="auto") -> xr.DataArray:
@@ -431,7 +484,7 @@ def open_precip(source, var=None, chunks="auto", validate="auto") -> xr.DataArra
         resolved = resolve(source)
         sources = [source_label(p) for p in resolved]
         parts = [_open_part(p, var, "precipitation", chunks) for p in resolved]
-    da, tbounds = _combine(parts, sources)
+    da, tbounds, mask_fill, fill_note = _combine(parts, sources)
     info = parts[0][1]
     name, attrs = info["name"], info["attrs"]
     where = sources[0] if len(sources) == 1 else f"{sources[0]} (+{len(sources) - 1} more)"
@@ -440,9 +493,6 @@ def open_precip(source, var=None, chunks="auto", validate="auto") -> xr.DataArra
         da = da.assign_coords(time=("time", stamps, da["time"].attrs))
     step = timeaxis.infer_step(da["time"], tbounds, source=where)
     units = parse_units(attrs.get("units"), source=where, variable=name)
-    mask_fill = needs_fill_heuristics(info["encoding"], attrs)
-    fill_note = ("values >= 1e15 and -9999/-999/-99999 treated as missing (no _FillValue in the file)"
-                 if mask_fill else None)
     factor, conversion = step_factor(units, da["time"], step, source=where, variable=name)
     if chunks is None:
         da = da.compute()

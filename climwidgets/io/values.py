@@ -10,7 +10,8 @@ import xarray as xr
 
 from ..errors import DataValueError
 
-__all__ = ["NEGATIVE_TOLERANCE_MM", "check_packing", "check_values", "convert_block", "needs_fill_heuristics"]
+__all__ = ["NEGATIVE_TOLERANCE_MM", "check_packing", "check_values", "convert_block", "mask_likely_fill",
+           "needs_fill_heuristics"]
 
 NEGATIVE_TOLERANCE_MM = 0.01  # tiny negatives from packing or interpolation are set to 0
 _LIKELY_FILL = (-9999.0, -999.0, -99999.0)
@@ -37,6 +38,19 @@ def check_packing(da: xr.DataArray, source, name) -> None:
 def needs_fill_heuristics(encoding: dict, attrs: dict) -> bool:
     """Files without a _FillValue sometimes store 1e20 or -9999 for missing values."""
     return not ("_FillValue" in encoding or "missing_value" in encoding or "_FillValue" in attrs)
+
+
+def mask_likely_fill(block):
+    """A float copy of ``block`` with the fill codes of files without _FillValue set to NaN.
+
+    Used on the files of a glob that need the heuristics when other files declare their
+    fill (each file's own fill handling, never the first file's for all).
+    """
+    b = np.asarray(block)
+    x = b.astype(np.float64) if b.dtype.kind != "f" else b.astype(b.dtype.newbyteorder("="), copy=True)
+    if x.size:
+        x[(np.abs(x) >= 1e15) | np.isin(x, _LIKELY_FILL)] = np.nan
+    return x
 
 
 def convert_block(block, factor, mask_fill: bool, guard: bool, source=None, name=None):

@@ -240,6 +240,49 @@ def b_daily_and_monthly(d):
     return str(sub / "pr_*.nc")
 
 
+def b_glob_fill_in_later_file(d):
+    sub = d / "fill_later"
+    sub.mkdir()
+    a = field_values(3)
+    a[1, 1, 1] = np.nan
+    _write(_dataset(a, time=[0, 1, 2]), sub / "pr_1.nc", encoding={"pr": {"_FillValue": -9999.0}})
+    b = field_values(3) + 3
+    b[1, 1, 1] = 1e20  # the second file has no _FillValue and stores 1e20 for missing
+    ds = _dataset(b, time=[3, 4, 5])
+    _write(ds, sub / "pr_2.nc", encoding=_no_fill(ds))
+    return str(sub / "pr_*.nc")
+
+
+def b_glob_fills_differ(d):
+    sub = d / "fills_differ"
+    sub.mkdir()
+    for i, (fill, chunked) in enumerate(((-9999.0, True), (1e20, False), (-1.0, True))):
+        data = field_values(3) + 3 * i
+        data[1, 1, 1] = np.nan
+        enc = {"_FillValue": fill, **({"zlib": True, "chunksizes": (1, 3, 4)} if chunked else {})}
+        _write(_dataset(data, time=[3 * i, 3 * i + 1, 3 * i + 2]), sub / f"pr_{i}.nc", encoding={"pr": enc})
+    return str(sub / "pr_*.nc")
+
+
+def b_glob_mixed_units(d):
+    sub = d / "mixed_units"
+    sub.mkdir()
+    _write(_dataset(field_values(3), time=[0, 1, 2]), sub / "pr_1.nc")
+    _write(_dataset(field_values(3) / 86400.0, units="kg m-2 s-1", time=[3, 4, 5]), sub / "pr_2.nc")
+    return str(sub / "pr_*.nc")
+
+
+def b_glob_end_stamped_and_bare(d):
+    sub = d / "stamping"
+    sub.mkdir()
+    ds = _dataset(field_values(3), time=[1, 2, 3])  # stamped at the end of each day
+    ds["time_bnds"] = (("time", "nv"), np.stack([np.arange(3.0), np.arange(1.0, 4.0)], axis=1))
+    ds["time"].attrs["bounds"] = "time_bnds"
+    _write(ds, sub / "pr_1.nc")
+    _write(_dataset(field_values(3), time=[3, 4, 5]), sub / "pr_2.nc")  # no bounds, stamped at the start
+    return str(sub / "pr_*.nc")
+
+
 def b_nan_time_stamp(d):
     return _write(_dataset(field_values(6), time=[0, 1, 2, np.nan, 4, 5]), d / "nan_time.nc")
 
@@ -523,6 +566,19 @@ def c_month_gap_files(pr):
     _close(pr.values[4:], field_values(3) + 10)
 
 
+def c_fill_in_later_file(pr):
+    expect = np.concatenate([field_values(3), field_values(3) + 3])
+    expect[[1, 4], 1, 1] = np.nan
+    _close(pr.values, expect)
+    assert "pr_2.nc" in pr.attrs["missing_value_heuristics"] and "pr_1.nc" not in pr.attrs["missing_value_heuristics"]
+
+
+def c_fills_differ(pr):
+    expect = np.concatenate([field_values(3) + 3 * i for i in range(3)])
+    expect[[1, 4, 7], 1, 1] = np.nan
+    _close(pr.values, expect)
+
+
 def c_daily_2001(pr, n=5, offset=0.0):
     assert pr.attrs["step"] == "day"
     assert str(pr["time"].values[0])[:10] == "2001-01-01", pr["time"].values[0]
@@ -673,6 +729,17 @@ CASES = [
     Case("daily_and_monthly_glob", "glob: a daily file and a monthly file", b_daily_and_monthly,
          Raises(MismatchError, ("month steps", "day steps", "pr_d.nc", "pr_m.nc"),
                 "MismatchError naming both files and their steps (never monthly read as daily)")),
+    Case("glob_fill_in_later_file", "glob: first file declares _FillValue -9999, second has none and stores 1e20",
+         b_glob_fill_in_later_file,
+         Opens(c_fill_in_later_file, "opens; each file's own fill handling (the 1e20 is missing, not 1e20 mm)")),
+    Case("glob_fills_differ", "glob: _FillValue -9999, 1e20 and -1 in three files (chunked and contiguous)",
+         b_glob_fills_differ, Opens(c_fills_differ, "opens; every file's own _FillValue is honoured")),
+    Case("glob_mixed_units", "glob: a file in mm and one in kg m-2 s-1", b_glob_mixed_units,
+         Raises(MismatchError, ("units", "kg m-2 s-1", "pr_1.nc", "pr_2.nc"), "MismatchError naming both files' units")),
+    Case("glob_end_stamped_and_bare", "glob: a file stamped at each day's end (time bounds) and one without bounds",
+         b_glob_end_stamped_and_bare,
+         Raises(MismatchError, ("at its end", "no time bounds", "pr_1.nc", "pr_2.nc"),
+                "MismatchError naming both files (never a one-step shift of one file)")),
     Case("nan_time_stamp", "a NaN among the time stamps", b_nan_time_stamp,
          Raises(TimeAxisError, ("missing (NaN)",), "TimeAxisError naming the missing stamp")),
     Case("reference_year_one", "'days since 0001-01-01 00:00:00', standard calendar", b_reference_year_one,
