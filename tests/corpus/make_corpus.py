@@ -283,6 +283,14 @@ def b_glob_end_stamped_and_bare(d):
     return str(sub / "pr_*.nc")
 
 
+def b_monthly_stamps_daily_bounds(d):
+    starts = np.asarray(_month_offsets(range(1, 13)), float)
+    ds = _dataset(field_values(12), time=starts)
+    ds["time_bnds"] = (("time", "nv"), np.stack([starts, starts + 1.0], axis=1))  # one day each
+    ds["time"].attrs["bounds"] = "time_bnds"
+    return _write(ds, d / "monthly_stamps_daily_bounds.nc")
+
+
 def b_nan_time_stamp(d):
     return _write(_dataset(field_values(6), time=[0, 1, 2, np.nan, 4, 5]), d / "nan_time.nc")
 
@@ -740,6 +748,10 @@ CASES = [
          b_glob_end_stamped_and_bare,
          Raises(MismatchError, ("at its end", "no time bounds", "pr_1.nc", "pr_2.nc"),
                 "MismatchError naming both files (never a one-step shift of one file)")),
+    Case("monthly_stamps_daily_bounds", "monthly stamps whose time bounds span one day each",
+         b_monthly_stamps_daily_bounds,
+         Raises(TimeAxisError, ("one day long", "one month apart", "time bounds"),
+                "TimeAxisError: bounds disagree with the spacing (never daily data 97 % missing)")),
     Case("nan_time_stamp", "a NaN among the time stamps", b_nan_time_stamp,
          Raises(TimeAxisError, ("missing (NaN)",), "TimeAxisError naming the missing stamp")),
     Case("reference_year_one", "'days since 0001-01-01 00:00:00', standard calendar", b_reference_year_one,
