@@ -328,15 +328,110 @@ class StoredValues:
     dask array, and the record is then ignored.
     """
 
-    def __init__(self, name, data, factor, mask_fill, guard, source, variable):
+    def __init__(self, name, data, factor, mask_fill, guard, source, variable, max_depth=None, dims=None):
         self.name = name  # dask name of the converted array this record belongs to
         self.data = data  # dask array of decoded stored values (fill values already NaN)
         self.factor = factor  # stored units -> mm per step
         self.mask_fill, self.guard = mask_fill, guard  # the loader's fill heuristics and negative guard
         self.source, self.variable = source, variable
+        self.max_depth = max_depth  # the loader's plausibility bound in mm per step (None: off)
+        self.dims = dims  # the dims of ``data``, to say where a bound is passed
 
     def __copy__(self):
         return self
 
     def __deepcopy__(self, memo):
         return self  # immutable record; copying a DataArray must not copy a dask graph
+
+
+def _store_access(store):
+    """``(read(key) -> bytes, keys(prefix) -> relative keys)`` for a Zarr store, or None.
+
+    Local folders are listed with ``os.walk``, fsspec mappers and URLs with their file
+    system's ``find``: a listing of names, no chunk is read.
+    """
+    if isinstance(store, str) and "://" not in store and os.path.isdir(store):
+        root = store
+
+        def read(key):
+            with open(os.path.join(root, key), "rb") as fh:
+                return fh.read()
+
+        def keys(prefix):
+            base = os.path.join(root, prefix)
+            for folder, _, files in os.walk(base):
+                rel = os.path.relpath(folder, base)
+                for f in files:
+                    yield f if rel == "." else f"{rel.replace(os.sep, '/')}/{f}"
+        return read, keys
+    try:
+        import fsspec
+    except ImportError:  # pragma: no cover - fsspec comes with xarray's zarr support
+        return None
+    mapper = fsspec.get_mapper(store) if isinstance(store, str) else store
+    fs, root = getattr(mapper, "fs", None), getattr(mapper, "root", None)
+    if fs is None or root is None:
+        return None
+    root = root.rstrip("/")
+
+    def read_fs(key):
+        return mapper[key]
+
+    def keys_fs(prefix):
+        base = f"{root}/{prefix}".rstrip("/")
+        for p in fs.find(base):
+            p = str(p)
+            yield p[len(base) + 1:] if p.startswith(base + "/") else p.rsplit("/", 1)[-1]
+    return read_fs, keys_fs
+
+
+def zarr_stored_chunks(store, varname: str):
+    """``(grid shape, chunk shape, set of stored chunk positions)`` of a Zarr array, from names
+    only; or None when the store or its layout is not one this reads.
+
+    Zarr reads a chunk that is not in the store as the array's fill value, so a chunk lost in
+    a copy looks like missing data. Comparing the listed chunk names with the chunk grid the
+    metadata declares finds such holes without reading any data. Zarr v2 and v3 (default and
+    "v2" chunk key encodings) are understood; with sharding the shards are listed.
+    """
+    import json
+
+    access = _store_access(store)
+    if access is None:
+        return None
+    read, keys = access
+    meta = None
+    for name in ("zarr.json", ".zarray"):
+        try:
+            meta = json.loads(read(f"{varname}/{name}"))
+            break
+        except (OSError, KeyError, ValueError):
+            continue
+    if not isinstance(meta, dict):
+        return None
+    try:
+        shape = [int(n) for n in meta["shape"]]
+        if meta.get("zarr_format") == 3:
+            grid = meta["chunk_grid"]
+            if grid.get("name") != "regular":
+                return None
+            chunk = [int(n) for n in grid["configuration"]["chunk_shape"]]
+            enc = meta.get("chunk_key_encoding", {"name": "default"})
+            sep = enc.get("configuration", {}).get("separator", "/" if enc.get("name") == "default" else ".")
+            prefix = f"c{sep}" if enc.get("name") == "default" else ""
+        else:
+            chunk = [int(n) for n in meta["chunks"]]
+            sep, prefix = meta.get("dimension_separator") or ".", ""
+    except (KeyError, TypeError, ValueError):
+        return None
+    if len(chunk) != len(shape) or not shape:
+        return None
+    grid_shape = tuple(-(-s // c) if c else 0 for s, c in zip(shape, chunk))
+    present = set()
+    for key in keys(varname):
+        if not key.startswith(prefix) or key in ("zarr.json", ".zarray", ".zattrs"):
+            continue
+        parts = key[len(prefix):].split(sep)
+        if len(parts) == len(shape) and all(p.isdigit() for p in parts):
+            present.add(tuple(int(p) for p in parts))
+    return grid_shape, tuple(chunk), present

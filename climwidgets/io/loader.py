@@ -24,15 +24,19 @@ import numpy as np
 import xarray as xr
 from dask.base import is_dask_collection
 
-from ..errors import GridError, MismatchError, TimeAxisError, UnitsError, VariableError
+from ..errors import (
+    GridError, MismatchError, ParameterError, SourceError, TimeAxisError, UnitsError, VariableError,
+)
 from ..provenance import with_history
 from . import grid as gridmod
 from . import timeaxis
-from .chunkreader import StoredValues, backend_reader, direct_reader
+from .chunkreader import StoredValues, backend_reader, direct_reader, zarr_stored_chunks
 from .projected import attach_latlon, attach_mapping
 from .sources import is_zarr, open_raw, resolve, source_label
 from .units import length_to_metres, parse_units, step_factor
-from .values import check_packing, check_values, convert_block, mask_likely_fill, needs_fill_heuristics
+from .values import (
+    check_packing, check_values, convert_block, default_max_depth, mask_likely_fill, needs_fill_heuristics,
+)
 
 PRECIP_STANDARD_NAMES = (
     "lwe_thickness_of_precipitation_amount", "precipitation_amount", "precipitation_flux",
@@ -218,11 +222,61 @@ def _object_data(da, plan, rechunk=False):
     return da.chunk({d: plan[d] for d in da.dims}).data, "xarray (in-memory object or fsspec store)"
 
 
+def _check_zarr_chunks(store, ds, da, info, where) -> None:
+    """Chunks absent from a Zarr store, found by listing its chunk names (no data read).
+
+    Zarr reads an absent chunk as the fill value, so a chunk lost in an interrupted copy
+    would read as a block of missing data (a silent missing year). A tile absent at some
+    times but stored at others is refused; a tile absent at every time is what Zarr leaves
+    when it skips chunks that hold only the fill value (ocean tiles of a land product), and
+    is noted in attrs.
+    """
+    name = info["name"]
+    found = zarr_stored_chunks(store, name)
+    if found is None:
+        return
+    grid, chunk, present = found
+    total = math.prod(grid)
+    if len(present) >= total:
+        return
+    dims = ds[name].dims
+    tname = gridmod.find_coord(ds, ds[name], "time")
+    if tname is None or ds[tname].dims[0] not in dims:
+        return  # a single field (terrain): nothing to compare an absent chunk with
+    taxis = dims.index(ds[tname].dims[0])
+    absent_at: dict = {}
+    for pos in np.ndindex(*grid):
+        if pos not in present:
+            absent_at.setdefault(pos[:taxis] + pos[taxis + 1:], []).append(pos)
+    holes = sorted(p for ps in absent_at.values() if len(ps) < grid[taxis] for p in ps)
+    missing = total - len(present)
+    if holes:
+        first = holes[0]
+        a = first[taxis] * chunk[taxis]
+        b = min(a + chunk[taxis], ds[name].shape[taxis]) - 1
+        times = da["time"].values if "time" in da.coords else None
+        stamp = f", {str(times[a])[:10]} to {str(times[b])[:10]}" if times is not None and b < times.size else ""
+        what = f"chunk {first}: time steps {a}..{b}{stamp}"
+        raise SourceError(f"has {len(holes)} of {total} chunks of '{name}' missing from the store where other "
+                          f"times of the same cells are stored (first {what}); Zarr would read them as "
+                          "missing values", source=where, variable=name,
+                          expected="every chunk of the array in the store",
+                          fix="copy or download the store again (an interrupted copy leaves chunks out); if "
+                              "those chunks were left out on purpose because they held only missing values, "
+                              "open the store with xr.open_zarr and pass the Dataset to cw.open_precip")
+    info["absent_chunks"] = (f"{missing} of {total} Zarr chunks absent from the store at every time (tiles "
+                             "holding only the fill value), read as missing")
+
+
 def _open_part(path, var, kind, chunks="auto"):
     """One file or store: open it lazily, then lay it out (see _layout)."""
     ds = open_raw(path)
-    local = isinstance(path, str) and os.path.exists(path) and not is_zarr(path)
-    return _layout(ds, var, kind, chunks, source_label(path), path if local else None)
+    zarr = is_zarr(path)
+    local = isinstance(path, str) and os.path.exists(path) and not zarr
+    da, info = _layout(ds, var, kind, chunks, source_label(path), path if local else None)
+    if zarr:
+        _check_zarr_chunks(path, ds, da, info, source_label(path))
+    return da, info
 
 
 def _open_object(obj, var, kind, chunks="auto"):
@@ -427,7 +481,37 @@ def _combine(parts, source_list):
     return da, tb, mask_fill, fill_note
 
 
-def open_precip(source, var=None, chunks="auto", validate="auto") -> xr.DataArray:
+def _block_labels(da) -> list:
+    """One 1-D array per dim of ``da`` (coordinate values, else positions), chunked as ``da``,
+    so that each block of the conversion knows where it lies (for the depth bound's message)."""
+    import dask.array as dsa
+
+    out = []
+    for i, d in enumerate(da.dims):
+        values = da[d].values if d in da.coords and da[d].dims == (d,) else np.arange(da.sizes[d])
+        data = dsa.from_array(values, chunks=(da.chunks[i],)) if da.chunks is not None else values
+        out.append(xr.DataArray(data, dims=(d,)))
+    return out
+
+
+def _max_depth(max_depth_mm, step, where) -> float | None:
+    if max_depth_mm is None:
+        return None
+    if isinstance(max_depth_mm, str) and max_depth_mm == "auto":
+        seconds = 31 * 86400.0 if step == "month" else timeaxis.STEP_SECONDS[step]
+        return default_max_depth(seconds)
+    try:
+        bound = float(max_depth_mm)
+    except (TypeError, ValueError):
+        bound = float("nan")
+    if not bound > 0:
+        raise ParameterError(f"max_depth_mm={max_depth_mm!r} is not a positive number", source=where,
+                             expected="'auto', a positive depth in mm per step, or None",
+                             fix="pass max_depth_mm='auto' (the default), a number such as 2000, or None")
+    return bound
+
+
+def open_precip(source, var=None, chunks="auto", validate="auto", max_depth_mm="auto") -> xr.DataArray:
     """Open precipitation lazily as depth per time step in mm.
 
     Parameters
@@ -447,6 +531,13 @@ def open_precip(source, var=None, chunks="auto", validate="auto") -> xr.DataArra
         "auto" checks negative and all-missing values at open for inputs of at most
         20 million values and chunk by chunk as data are read for larger ones; True always
         checks at open (reads the data once); False only guards chunks as they are read.
+    max_depth_mm
+        The largest plausible depth in mm per (native) time step; larger values raise a
+        DataValueError naming the first place found, as the chunk is read (or at open for
+        small inputs), never with an extra pass over the data. "auto" is twice the envelope
+        of the world's greatest observed point rainfalls for the step length (Jennings 1950:
+        about 840 mm for an hour, 3.8 m for a day, 19.5 m for a month); a number sets the
+        bound; None turns the check off.
 
     Time stamps are taken as the start of each step. Files whose CF time bounds show the
     stamp at the end of the step (hourly accumulations, monthly means stamped at the next
@@ -497,12 +588,16 @@ def open_precip(source, var=None, chunks="auto", validate="auto") -> xr.DataArra
     if chunks is None:
         da = da.compute()
     eager = validate is True or (validate == "auto" and da.size <= EAGER_CHECK_MAX_VALUES)
-    guard = {"mask_fill": mask_fill, "guard": not eager, "source": where, "name": name}
+    bound = _max_depth(max_depth_mm, step, where)
+    guard = {"mask_fill": mask_fill, "guard": not eager, "source": where, "name": name, "max_depth": bound,
+             "dims": list(da.dims)}
     stored = da.data
-    da = xr.apply_ufunc(convert_block, da, factor, kwargs=guard,
+    labels = _block_labels(da) if bound is not None else []
+    da = xr.apply_ufunc(convert_block, da, factor, *labels, kwargs=guard,
                         dask="parallelized", output_dtypes=[np.float64], keep_attrs=False)
     if dask.is_dask_collection(stored):  # lets compute/_fused.py sum stored float32 and convert the sums
-        da.encoding["stored_values"] = StoredValues(da.data.name, stored, factor, mask_fill, not eager, where, name)
+        da.encoding["stored_values"] = StoredValues(da.data.name, stored, factor, mask_fill, not eager, where, name,
+                                                    max_depth=bound, dims=list(da.dims))
     if eager:
         check_values(da, where, name)
         da = da.where(~(da < 0), 0.0)  # tiny negatives within tolerance
@@ -536,6 +631,9 @@ def open_precip(source, var=None, chunks="auto", validate="auto") -> xr.DataArra
         out_attrs["time_gaps_filled_with_missing"] = int(gaps)
     if fill_note:
         out_attrs["missing_value_heuristics"] = fill_note
+    absent = [p[1]["absent_chunks"] for p in parts if p[1].get("absent_chunks")]
+    if absent:
+        out_attrs["absent_chunks"] = "; ".join(absent)
     if label_note:
         out_attrs["time_labels"] = label_note
     if native_step != step:

@@ -420,6 +420,23 @@ def b_zarr(d):
     return str(d / "good.zarr")
 
 
+def b_zarr_missing_chunk(d):
+    import shutil
+
+    ds = _dataset(field_values(6)).chunk({"time": 2, "lat": 2})
+    ds.to_zarr(d / "missing_chunk.zarr", mode="w", consolidated=False)
+    shutil.rmtree(d / "missing_chunk.zarr" / "pr" / "c" / "1")  # the middle time chunk, as a cut copy leaves it
+    return str(d / "missing_chunk.zarr")
+
+
+def b_zarr_absent_tile(d):
+    data = field_values(6)
+    data[:, 2:, :] = np.nan  # the last row is one tile holding only missing values
+    ds = _dataset(data).chunk({"time": 2, "lat": 2})
+    ds.to_zarr(d / "absent_tile.zarr", mode="w", consolidated=False, write_empty_chunks=False)
+    return str(d / "absent_tile.zarr")
+
+
 def b_dims_t_y_x(d):
     ds = _dataset(field_values(4), dims=("t", "y", "x"))
     return _write(ds, d / "dims_t_y_x.nc")
@@ -585,6 +602,13 @@ def c_fills_differ(pr):
     expect = np.concatenate([field_values(3) + 3 * i for i in range(3)])
     expect[[1, 4, 7], 1, 1] = np.nan
     _close(pr.values, expect)
+
+
+def c_absent_tile(pr):
+    expect = field_values(6)
+    expect[:, 2:, :] = np.nan
+    _close(pr.values, expect)
+    assert "absent from the store at every time" in pr.attrs["absent_chunks"]
 
 
 def c_daily_2001(pr, n=5, offset=0.0):
@@ -806,6 +830,11 @@ CASES = [
     Case("zarr_without_variables", "a Zarr group with no arrays", b_zarr_without_variables,
          Raises(VariableError, ("no precipitation-like variable", "none"), "VariableError (found: none)")),
     Case("zarr", "a valid Zarr store", b_zarr, Opens(c_daily_2001, "opens")),
+    Case("zarr_missing_chunk", "a Zarr store whose middle time chunk was deleted", b_zarr_missing_chunk,
+         Raises(SourceError, ("missing from the store", "time steps 2..3", "xr.open_zarr"),
+                "SourceError from the chunk listing at open (never a silent block of missing values)")),
+    Case("zarr_absent_tile", "a Zarr store written without its all-missing tile (write_empty_chunks=False)",
+         b_zarr_absent_tile, Opens(c_absent_tile, "opens; the tile is missing, noted in attrs['absent_chunks']")),
     Case("dims_t_y_x", "dims (t, y, x) with 1-D y/x coordinates in degrees", b_dims_t_y_x,
          Opens(c_plain4, "opens; renamed to time/lat/lon")),
     Case("dims_latitude_longitude", "dims (time, latitude, longitude)", b_dims_latitude_longitude,
