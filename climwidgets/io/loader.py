@@ -54,6 +54,14 @@ MIN_STORED_PER_TASK = 10
 # (see chunkreader); False falls back to xarray's netCDF4 backend everywhere.
 DIRECT_CHUNK_READS = True
 EAGER_CHECK_MAX_VALUES = 20_000_000  # small inputs are checked for bad values at open
+# Declared sizes refused before anything is allocated. 2**31 cells per field is 17 GB as
+# float64 for one time step (a 1 km global grid, 21 600 x 43 200, is 0.93e9); 1e8 steps is a
+# century of one-minute data (its time axis alone 0.8 GB); a million dask chunks is a graph
+# of about a gigabyte that takes minutes to build and schedule (common practice: keep dask
+# graphs well below a million tasks).
+MAX_FIELD_CELLS = 2**31
+MAX_TIME_STEPS = 10**8
+MAX_CHUNKS = 1_000_000
 
 
 def _describe(ds, name) -> str:
@@ -202,6 +210,36 @@ def _extra_dims(da, spatial, time_dims, source, name):
     return [d for d in extra if d not in members], members
 
 
+def _check_declared_sizes(da, spatial, tdim, where, name) -> None:
+    """Sizes from the header, refused before coordinates or chunk indexes are read."""
+    sizes = dict(da.sizes)
+    cells = math.prod(sizes[d] for d in spatial if d in sizes)
+    grid = " x ".join(f"{sizes[d]:,}" for d in spatial if d in sizes)
+    if cells > MAX_FIELD_CELLS:
+        raise GridError(f"declares a grid of {grid} cells ({cells:.3g} per time step, {8 * cells / 1e9:.3g} GB "
+                        "per step as float64)", source=where, variable=name,
+                        expected=f"at most {MAX_FIELD_CELLS:.3g} cells per time step",
+                        fix="check the file's dimensions (ncdump -h); to work on part of a large grid, cut a "
+                            "region first (for example ncks -d lat,... -d lon,...) and open that")
+    if tdim is not None and sizes.get(tdim, 0) > MAX_TIME_STEPS:
+        raise GridError(f"declares {sizes[tdim]:,} time steps", source=where, variable=name,
+                        expected=f"at most {MAX_TIME_STEPS:.3g} time steps",
+                        fix="check the file's time dimension (ncdump -h); resample to coarser steps or open "
+                            "a shorter period")
+
+
+def _check_chunk_count(da, plan, where, name, chunks) -> None:
+    n = math.prod(-(-size // max(int(plan.get(d, size) or size), 1)) if size else 1
+                  for d, size in da.sizes.items())
+    if n > MAX_CHUNKS:
+        shape = " x ".join(f"{int(plan.get(d, s)):,}" for d, s in da.sizes.items())
+        raise GridError(f"would be read in {n:,} chunks of {shape} values", source=where, variable=name,
+                        expected=f"at most {MAX_CHUNKS:,} chunks (dask's graph grows with every chunk)",
+                        fix=("pass larger chunks, e.g. chunks={'time': 365}" if isinstance(chunks, dict) else
+                             "pass larger chunks to cw.open_precip, e.g. chunks={'time': 365, 'lat': -1, "
+                             "'lon': -1}, or rewrite the file with larger stored chunks"))
+
+
 def _file_data(da, path, name, plan, ident, dims):
     """A dask array that reads the file's chunks (directly where the codec allows)."""
     direct = None
@@ -307,9 +345,11 @@ def _layout(ds, var, kind, chunks, where, path):
     else:
         spatial = [ds[projected[1]].dims[0], ds[projected[0]].dims[0]]
     drop, members = _extra_dims(da, spatial, ds[tname].dims if tname else (), where, name)
+    _check_declared_sizes(da, spatial, ds[tname].dims[0] if tname else None, where, name)
     plan = _chunk_plan(da.variable, da.dims, ds[tname].dims[0] if tname else None)
     if isinstance(chunks, dict):
         plan = _user_plan(plan, chunks, da, ds, tname, spatial)
+    _check_chunk_count(da, plan, where, name, chunks)
     info["encoding"] = dict(da.encoding)
     if path is not None:
         # a token from the file's identity (path, size, mtime), so reopening an unchanged file

@@ -516,6 +516,44 @@ def b_huge_chunks(d):
     return _write(ds, d / "huge_chunks.nc", encoding=enc, unlimited_dims=["time"])
 
 
+def _declared_only(path, nt, ny, nx):
+    """A NetCDF-4 file that declares a huge grid and writes no data (a few kB on disk)."""
+    import netCDF4
+
+    with netCDF4.Dataset(path, "w") as f:
+        f.createDimension("time", nt)
+        f.createDimension("lat", ny)
+        f.createDimension("lon", nx)
+        t = f.createVariable("time", "f8", ("time",))
+        t.units = TIME_UNITS
+        t[:] = np.arange(nt, dtype=float)
+        for name, n, units in (("lat", ny, "degrees_north"), ("lon", nx, "degrees_east")):
+            c = f.createVariable(name, "f8", (name,), chunksizes=(min(n, 100_000),))  # chunked: never filled
+            c.units = units
+        v = f.createVariable("pr", "f4", ("time", "lat", "lon"), chunksizes=(1, 1000, 1000), zlib=True)
+        v.units, v.standard_name = "mm", "precipitation_amount"
+    return str(path)
+
+
+def b_declared_1e5_grid(d):
+    return _declared_only(d / "declared_1e5_grid.nc", 365, 100_000, 100_000)
+
+
+def b_declared_2e6_grid(d):
+    return _declared_only(d / "declared_2e6_grid.nc", 2, 2_000_000, 2_000_000)
+
+
+def b_fill_not_declared(d):
+    data = field_values(5)
+    data[2, 1, 3] = 1e20  # missing stored as 1e20 while the file declares -9999
+    return _write(_dataset(data), d / "fill_not_declared.nc", encoding={"pr": {"_FillValue": -9999.0}})
+
+
+def b_rate_read_as_depth(d):
+    # daily depths of a few mm labelled as a rate per second: 86 400 times too much
+    return _write(_dataset(field_values(5) + 2.0, units="mm s-1"), d / "rate_read_as_depth.nc")
+
+
 def b_huge_sparse(d):
     """A 4 GB (logical) NetCDF-3 file whose data are holes: only a few MB are on disk.
 
@@ -851,6 +889,16 @@ CASES = [
          Raises(GridError, ("level", "isel", "member"), "GridError; select one level, or rename to member")),
     Case("two_candidates", "two variables 'pr' and 'rain', both in mm, no standard_name", b_two_candidates,
          Raises(VariableError, ("several", "var="), "VariableError listing both")),
+    Case("fill_not_declared", "1e20 stored for missing while _FillValue says -9999", b_fill_not_declared,
+         Raises(DataValueError, ("above the plausible", "time=2001-01-03", "max_depth_mm"),
+                "DataValueError from the depth bound, naming the first place (never 1e20 mm)")),
+    Case("rate_read_as_depth", "daily depths of 2-6 mm labelled 'mm s-1'", b_rate_read_as_depth,
+         Raises(DataValueError, ("above the plausible", "units"), "DataValueError: implausible depths; check the units")),
+    Case("declared_1e5_grid", "NetCDF-4 declaring 365 x 1e5 x 1e5 float32, no data written", b_declared_1e5_grid,
+         Raises(GridError, ("100,000 x 100,000", "cells per time step"),
+                "GridError from the declared sizes, before any coordinate or chunk index is read")),
+    Case("declared_2e6_grid", "NetCDF-4 declaring 2 x 2e6 x 2e6 float32, no data written", b_declared_2e6_grid,
+         Raises(GridError, ("2,000,000 x 2,000,000",), "GridError at once (no millions of dask chunks)")),
     Case("huge_chunks", "stored chunk (100000, 3, 4) on a 6-step unlimited time", b_huge_chunks,
          Opens(c_huge_chunks, "opens; values exact")),
     Case("huge_sparse", f"NetCDF-3 64-bit-data file of {HUGE_SHAPE} float32 (4 GB, sparse)", b_huge_sparse,
