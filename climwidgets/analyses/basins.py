@@ -103,6 +103,14 @@ def basin_shares(pr: xr.DataArray, basins, months=(7, 8), how: str = "ratio_of_s
     return ds
 
 
+_CELL_BOUNDS = ("lat_lower", "lat_upper", "lon_lower", "lon_upper")
+
+
+def _grid_map(da: xr.DataArray) -> xr.DataArray:
+    """A map without scalar leftovers, keeping the cell bounds (a one-cell grid needs them to be drawn)."""
+    return da.reset_coords([c for c in da.coords if c not in da.dims and c not in _CELL_BOUNDS], drop=True)
+
+
 def basin_table(pr: xr.DataArray, basins, months=(7, 8), baseline=(1991, 2020), year_start: int = 1,
                 bundle=None) -> xr.Dataset:
     """The basin table of water-planning figures as a lazy Dataset, with its maps.
@@ -163,14 +171,14 @@ def basin_table(pr: xr.DataArray, basins, months=(7, 8), baseline=(1991, 2020), 
         "data_coverage_1": describe(covered.min("time"), "data_coverage_1"),
         "monthly_normal": monthly_normal.assign_attrs(units="mm", label="monthly normal",
                                                       long_name="monthly normal, basin mean"),
-        "seasonal_share_map": bundle["seasonal_share"].reset_coords(drop=True).assign_attrs(
+        "seasonal_share_map": _grid_map(bundle["seasonal_share"]).assign_attrs(
             units="1", long_name=f"seasonal share ({season_label(months)})"),
     })
     for name in ("seasonal_share_per_year", "share_slope", "share_pvalue", "share_intercept"):
         if name in shares:
             ds[name] = shares[name]
     if "normals" in bundle:
-        ds["annual_normal_map"] = bundle["normals"].sum("month", skipna=False).reset_coords(drop=True).assign_attrs(
+        ds["annual_normal_map"] = _grid_map(bundle["normals"].sum("month", skipna=False)).assign_attrs(
             units="mm", long_name=f"annual normal {baseline[0]}–{baseline[1]}")
     ds.attrs = {"months": list(months), "baseline": list(baseline), "year_start": year_start,
                 "season_year_start": shares.attrs["season_year_start"], "area": AREA_DEFINITION,

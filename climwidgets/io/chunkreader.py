@@ -261,6 +261,15 @@ def _read_block(index, fills, scale, offset, varname=None, block_info=None):
     loc = block_info[None]["array-location"]
     region = tuple(slice(a, b) for a, b in loc)
     try:
+        stored = tuple(slice(min(s.start, n), min(s.stop, n)) for s, n in zip(region, index.shape))
+        if stored != region:
+            # beyond the variable's own extent (shorter than its unlimited dimension): never
+            # written, so missing
+            out = np.full(tuple(s.stop - s.start for s in region), np.nan)
+            if all(s.stop > s.start for s in stored):
+                out[tuple(slice(0, s.stop - s.start) for s in stored)] = _decode_cf(
+                    read_region(index, stored), fills, scale, offset)
+            return out
         return _decode_cf(read_region(index, region), fills, scale, offset)
     except (OSError, zlib.error, ValueError, RuntimeError) as exc:
         raise _read_error(index.path, varname, region, exc) from None
@@ -295,11 +304,13 @@ def backend_reader(variable, path, varname: str, chunks: tuple, name: str):
                           chunks=normalized, name=name, meta=np.array((), dtype=variable.dtype))
 
 
-def direct_reader(path: str, varname: str, encoding: dict, chunks: tuple, name: str):
+def direct_reader(path: str, varname: str, encoding: dict, chunks: tuple, name: str, shape=None):
     """A dask array of the decoded variable read chunk by chunk outside the HDF5 lock, or None.
 
     ``chunks`` are dask chunk sizes per dim (whole multiples of the stored chunks are
     best); ``encoding`` is xarray's encoding of the variable (fill values, scale, offset).
+    ``shape`` is the shape the file declares (its dimensions' lengths); a variable stored
+    shorter than its unlimited dimension reads as missing (NaN) beyond its own extent.
     """
     if not isinstance(path, str) or not os.path.isfile(path):
         return None
@@ -308,11 +319,14 @@ def direct_reader(path: str, varname: str, encoding: dict, chunks: tuple, name: 
         return None
     import dask.array as dsa
 
+    shape = tuple(index.shape if shape is None else shape)
+    if len(shape) != len(index.shape) or any(n < s for n, s in zip(shape, index.shape)):
+        return None  # a layout this reader does not know: the backend reads it
     fills = [v for k in ("_FillValue", "missing_value") if (v := encoding.get(k)) is not None]
     fills = [f for v in fills for f in np.atleast_1d(v)]
     scale, offset = encoding.get("scale_factor"), encoding.get("add_offset")
-    normalized = dsa.core.normalize_chunks(chunks, index.shape)
-    packed = scale is not None or offset is not None or index.dtype.kind != "f"
+    normalized = dsa.core.normalize_chunks(chunks, shape)
+    packed = scale is not None or offset is not None or index.dtype.kind != "f" or shape != index.shape
     out = np.dtype(np.float64) if packed else index.dtype.newbyteorder("=")
     return dsa.map_blocks(_read_block, index, fills, scale, offset, varname, dtype=out, chunks=normalized,
                           name=name, meta=np.array((), dtype=out))

@@ -245,7 +245,7 @@ def _file_data(da, path, name, plan, ident, dims):
     direct = None
     if DIRECT_CHUNK_READS and "_Unsigned" not in da.encoding and "_Unsigned" not in da.attrs:
         direct = direct_reader(path, name, da.encoding, tuple(plan[d] for d in dims),
-                               name=f"open_precip-{name}-direct-{ident}")
+                               name=f"open_precip-{name}-direct-{ident}", shape=da.shape)
     if direct is not None:
         return direct, "direct chunk reads (parallel decompression)"
     data = backend_reader(da.variable, path, name, tuple(plan[d] for d in dims), name=f"open_precip-{name}-{ident}")
@@ -333,6 +333,13 @@ def _layout(ds, var, kind, chunks, where, path):
     sn, names = (PRECIP_STANDARD_NAMES, PRECIP_NAMES) if kind == "precipitation" else (ELEVATION_STANDARD_NAMES, ELEVATION_NAMES)
     name = _choose_variable(ds, var, where, sn, names, kind)
     da = ds[name]
+    if da.dtype.kind not in "biuf":
+        what = (f"a compound type (fields {', '.join(da.dtype.names)})" if da.dtype.names
+                else f"values of type {da.dtype}")
+        raise VariableError(f"holds {what}, not numbers", source=where, variable=name,
+                            expected="a numeric variable (integer or floating point)",
+                            fix="write the numeric field to a variable of its own in a copy of the file (with "
+                                f"netCDF4: new[:] = old['{name}'][:]['field_name']) and open that")
     check_packing(da, where, name)
     tname = gridmod.find_coord(ds, da, "time")
     latn, lonn, projected = _spatial_names(ds, da, name, where)
@@ -381,9 +388,15 @@ def _layout(ds, var, kind, chunks, where, path):
         da = da.rename({lat.dims[0]: "lat", lon.dims[0]: "lon"})
         da = da.assign_coords(lat=("lat", lat.values, dict(lat.attrs)), lon=("lon", lon.values, dict(lon.attrs)))
         edges = []
-        for c in (lat, lon):
+        for c, short in ((lat, "lat"), (lon, "lon")):
             b = c.attrs.get("bounds")
-            edges.append(gridmod.bounds_to_edges(ds[b].values, c.values) if b in ds.variables else None)
+            lower, upper = ds.coords.get(f"{short}_lower"), ds.coords.get(f"{short}_upper")
+            if b in ds.variables:
+                edges.append(gridmod.bounds_to_edges(ds[b].values, c.values))
+            elif lower is not None and upper is not None and lower.dims == upper.dims == c.dims:
+                edges.append((np.asarray(lower.values, float), np.asarray(upper.values, float)))  # an opened object
+            else:
+                edges.append(None)
         da = gridmod.normalise_rectilinear(da, edges[0], edges[1], source=where)
         da = da.transpose(*head, "lat", "lon")
     elif ds[latn].ndim == 2 and ds[lonn].ndim == 2:

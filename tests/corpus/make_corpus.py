@@ -554,6 +554,64 @@ def b_rate_read_as_depth(d):
     return _write(_dataset(field_values(5) + 2.0, units="mm s-1"), d / "rate_read_as_depth.nc")
 
 
+def b_nan_lat_bounds(d):
+    ds = _dataset(field_values(3))
+    bounds = np.stack([LAT - 0.25, LAT + 0.25], axis=1)
+    bounds[1, 0] = np.nan
+    ds["lat_bnds"] = (("lat", "nv"), bounds)
+    ds["lat"].attrs["bounds"] = "lat_bnds"
+    return _write(ds, d / "nan_lat_bounds.nc")
+
+
+def _skeleton(f, nt, unlimited=False):
+    f.createDimension("time", None if unlimited else nt)
+    f.createDimension("lat", LAT.size)
+    f.createDimension("lon", LON.size)
+    t = f.createVariable("time", "f8", ("time",))
+    t.units, t.calendar = TIME_UNITS, "standard"
+    t[:] = np.arange(nt, dtype=float)
+    for name, values, units in (("lat", LAT, "degrees_north"), ("lon", LON, "degrees_east")):
+        c = f.createVariable(name, "f8", (name,))
+        c.units = units
+        c[:] = values
+
+
+def b_compound_type(d):
+    import netCDF4
+
+    pair = np.dtype([("depth", "f4"), ("flag", "i4")])
+    with netCDF4.Dataset(d / "compound_type.nc", "w") as f:
+        _skeleton(f, 3)
+        kind = f.createCompoundType(pair, "depth_and_flag")
+        v = f.createVariable("pr", kind, ("time", "lat", "lon"))
+        v.units = "mm"
+        v[:] = np.zeros((3, LAT.size, LON.size), dtype=pair)
+    return str(d / "compound_type.nc")
+
+
+def b_int16_shorter_than_time(d):
+    import netCDF4
+
+    with netCDF4.Dataset(d / "int16_shorter_than_time.nc", "w") as f:
+        _skeleton(f, 10, unlimited=True)  # time has 10 records ...
+        v = f.createVariable("pr", "i2", ("time", "lat", "lon"), zlib=True, chunksizes=(2, 3, 4))
+        v.units, v.scale_factor = "mm", 0.1
+        v[:5] = field_values(5)  # ... the variable only 5
+    return str(d / "int16_shorter_than_time.nc")
+
+
+def b_one_cell(d):
+    return _write(_dataset(field_values(4)[:, :1, :1], lat=LAT[:1], lon=LON[:1]), d / "one_cell.nc")
+
+
+def b_one_cell_bounds(d):
+    ds = _dataset(field_values(4)[:, :1, :1], lat=LAT[:1], lon=LON[:1])
+    ds["lat_bnds"] = (("lat", "nv"), [[LAT[0] - 0.25, LAT[0] + 0.25]])
+    ds["lon_bnds"] = (("lon", "nv"), [[LON[0] - 0.25, LON[0] + 0.25]])
+    ds["lat"].attrs["bounds"], ds["lon"].attrs["bounds"] = "lat_bnds", "lon_bnds"
+    return _write(ds, d / "one_cell_bounds.nc")
+
+
 def b_huge_sparse(d):
     """A 4 GB (logical) NetCDF-3 file whose data are holes: only a few MB are on disk.
 
@@ -647,6 +705,18 @@ def c_absent_tile(pr):
     expect[:, 2:, :] = np.nan
     _close(pr.values, expect)
     assert "absent from the store at every time" in pr.attrs["absent_chunks"]
+
+
+def c_shorter_than_time(pr):
+    assert pr.sizes["time"] == 10
+    _close(pr.values[:5], field_values(5), tol=0.05 + 1e-9)  # packing resolution is scale_factor/2
+    assert np.isnan(pr.values[5:]).all()  # never written: missing, not the fill code scaled
+
+
+def c_one_cell_bounds(pr):
+    assert pr.shape == (4, 1, 1) and pr.attrs["cell_bounds"] == "file"
+    _close([pr.lat_lower.item(), pr.lat_upper.item()], [LAT[0] - 0.25, LAT[0] + 0.25])
+    _close(pr.values, field_values(4)[:, :1, :1])
 
 
 def c_daily_2001(pr, n=5, offset=0.0):
@@ -899,6 +969,17 @@ CASES = [
                 "GridError from the declared sizes, before any coordinate or chunk index is read")),
     Case("declared_2e6_grid", "NetCDF-4 declaring 2 x 2e6 x 2e6 float32, no data written", b_declared_2e6_grid,
          Raises(GridError, ("2,000,000 x 2,000,000",), "GridError at once (no millions of dask chunks)")),
+    Case("nan_lat_bounds", "a NaN in the latitude bounds variable", b_nan_lat_bounds,
+         Raises(GridError, ("NaN", "latitude bounds"), "GridError at open (was a raw error in the area weights)")),
+    Case("compound_type", "'pr' of an HDF5 compound type (depth, flag)", b_compound_type,
+         Raises(VariableError, ("compound type", "depth, flag"), "VariableError naming the fields")),
+    Case("int16_shorter_than_time", "packed int16 written for 5 of 10 records of the unlimited time",
+         b_int16_shorter_than_time,
+         Opens(c_shorter_than_time, "opens; the 5 records never written are missing (NaN)")),
+    Case("one_cell", "a grid of one cell without bounds", b_one_cell,
+         Raises(GridError, ("single latitude", "bounds"), "GridError: cell size unknown; add bounds (no guess)")),
+    Case("one_cell_bounds", "a grid of one cell with CF bounds", b_one_cell_bounds,
+         Opens(c_one_cell_bounds, "opens; cell from its bounds")),
     Case("huge_chunks", "stored chunk (100000, 3, 4) on a 6-step unlimited time", b_huge_chunks,
          Opens(c_huge_chunks, "opens; values exact")),
     Case("huge_sparse", f"NetCDF-3 64-bit-data file of {HUGE_SHAPE} float32 (4 GB, sparse)", b_huge_sparse,
