@@ -291,6 +291,18 @@ def b_monthly_stamps_daily_bounds(d):
     return _write(ds, d / "monthly_stamps_daily_bounds.nc")
 
 
+def b_glob_bounds_disagree_in_later_file(d):
+    sub = d / "bounds_glob"
+    sub.mkdir()
+    for i, width in enumerate((1.0, 0.25)):  # the second file's bounds span a quarter of each day
+        t = np.arange(3.0) + 3 * i
+        ds = _dataset(field_values(3), time=t)
+        ds["time_bnds"] = (("time", "nv"), np.stack([t, t + width], axis=1))
+        ds["time"].attrs["bounds"] = "time_bnds"
+        _write(ds, sub / f"pr_{i + 1}.nc")
+    return str(sub / "pr_*.nc")
+
+
 def b_nan_time_stamp(d):
     return _write(_dataset(field_values(6), time=[0, 1, 2, np.nan, 4, 5]), d / "nan_time.nc")
 
@@ -884,6 +896,10 @@ CASES = [
          b_monthly_stamps_daily_bounds,
          Raises(TimeAxisError, ("one day long", "one month apart", "time bounds"),
                 "TimeAxisError: bounds disagree with the spacing (never daily data 97 % missing)")),
+    Case("glob_bounds_disagree_in_later_file", "glob: the second file's time bounds span 6 hours of each day",
+         b_glob_bounds_disagree_in_later_file,
+         Raises(TimeAxisError, ("pr_2.nc", "about 6 hours long", "one day apart"),
+                "TimeAxisError naming the file whose bounds disagree with its stamps")),
     Case("nan_time_stamp", "a NaN among the time stamps", b_nan_time_stamp,
          Raises(TimeAxisError, ("missing (NaN)",), "TimeAxisError naming the missing stamp")),
     Case("reference_year_one", "'days since 0001-01-01 00:00:00', standard calendar", b_reference_year_one,
