@@ -77,7 +77,7 @@ def default_max_depth(step_seconds: float) -> float:
     References
     ----------
     Jennings, A. H. (1950). World's greatest observed point rainfalls. Monthly Weather
-    Review, 78(1), 4-5. doi:10.1175/1520-0493(1950)078<0004:WGOPR>2.0.CO;2
+    Review, 78(1), 4-5 (cited from memory; the envelope coefficient and exponent too).
 
     Examples
     --------
