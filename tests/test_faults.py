@@ -145,6 +145,35 @@ def test_one_cell_grid_summary_writes_every_output_or_refuses_before_writing(tmp
     assert data.read_bytes() == before
 
 
+@pytest.mark.parametrize("case", ["monthly_stamps_daily_bounds", "fill_not_declared", "zarr_missing_chunk",
+                                  "declared_2e6_grid", "glob_fill_in_later_file"])
+def test_awkward_inputs_through_the_command_line_exit_0_or_2_naming_the_file(tmp_path, capsys, case):
+    """The summary command on corpus inputs: a full answer (exit 0) or one line naming the file (exit 2)."""
+    import json
+
+    from climwidgets import cli
+
+    from .corpus.make_corpus import CASES, Opens
+
+    found = next(c for c in CASES if c.name == case)
+    folder = tmp_path / case
+    folder.mkdir()
+    source = found.build(folder)
+    before = {p: p.read_bytes() for p in folder.rglob("*") if p.is_file()}
+    square = [[[-142, -32], [-139, -32], [-139, -29], [-142, -29], [-142, -32]]]
+    (tmp_path / "b.geojson").write_text(json.dumps({"type": "FeatureCollection", "features": [
+        {"type": "Feature", "properties": {"name": "square"}, "geometry": {"type": "Polygon", "coordinates": square}}]}))
+    code = cli.main(["summary", "--data", source, "--basins", str(tmp_path / "b.geojson"), "--months", "1",
+                     "--baseline", "2001-2001", "--out", str(tmp_path / "out")])
+    err = capsys.readouterr().err
+    if isinstance(found.expect, Opens):
+        assert code in (0, 2), err  # a one-week record may be too short for a summary: said, not crashed
+    else:
+        assert code == 2, err
+        assert Path(str(source)).name in err or any(p.name in err for p in before), err
+    assert {p: p.read_bytes() for p in before} == before  # inputs unchanged
+
+
 # ------------------------------------------------------------------ widgets
 class _Interrupted:
     """Makes the first compute call raise KeyboardInterrupt (as Ctrl-C in the kernel would)."""
