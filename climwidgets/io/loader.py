@@ -24,19 +24,17 @@ import numpy as np
 import xarray as xr
 from dask.base import is_dask_collection
 
-from ..errors import (
-    GridError, MismatchError, ParameterError, SourceError, TimeAxisError, UnitsError, VariableError,
-)
+from ..errors import GridError, ParameterError, TimeAxisError, UnitsError, VariableError
 from ..provenance import with_history
 from . import grid as gridmod
 from . import timeaxis
-from .chunkreader import StoredValues, backend_reader, direct_reader, zarr_stored_chunks
+from .chunkreader import StoredValues, backend_reader, direct_reader
+from .combine import combine_parts
+from .extent import check_chunk_count, check_declared_sizes, check_zarr_chunks
 from .projected import attach_latlon, attach_mapping
 from .sources import is_zarr, open_raw, resolve, source_label
 from .units import length_to_metres, parse_units, step_factor
-from .values import (
-    check_packing, check_values, convert_block, default_max_depth, mask_likely_fill, needs_fill_heuristics,
-)
+from .values import check_packing, check_values, convert_block, default_max_depth
 
 PRECIP_STANDARD_NAMES = (
     "lwe_thickness_of_precipitation_amount", "precipitation_amount", "precipitation_flux",
@@ -54,14 +52,6 @@ MIN_STORED_PER_TASK = 10
 # (see chunkreader); False falls back to xarray's netCDF4 backend everywhere.
 DIRECT_CHUNK_READS = True
 EAGER_CHECK_MAX_VALUES = 20_000_000  # small inputs are checked for bad values at open
-# Declared sizes refused before anything is allocated. 2**31 cells per field is 17 GB as
-# float64 for one time step (a 1 km global grid, 21 600 x 43 200, is 0.93e9); 1e8 steps is a
-# century of one-minute data (its time axis alone 0.8 GB); a million dask chunks is a graph
-# of about a gigabyte that takes minutes to build and schedule (common practice: keep dask
-# graphs well below a million tasks).
-MAX_FIELD_CELLS = 2**31
-MAX_TIME_STEPS = 10**8
-MAX_CHUNKS = 1_000_000
 
 
 def _describe(ds, name) -> str:
@@ -210,36 +200,6 @@ def _extra_dims(da, spatial, time_dims, source, name):
     return [d for d in extra if d not in members], members
 
 
-def _check_declared_sizes(da, spatial, tdim, where, name) -> None:
-    """Sizes from the header, refused before coordinates or chunk indexes are read."""
-    sizes = dict(da.sizes)
-    cells = math.prod(sizes[d] for d in spatial if d in sizes)
-    grid = " x ".join(f"{sizes[d]:,}" for d in spatial if d in sizes)
-    if cells > MAX_FIELD_CELLS:
-        raise GridError(f"declares a grid of {grid} cells ({cells:.3g} per time step, {8 * cells / 1e9:.3g} GB "
-                        "per step as float64)", source=where, variable=name,
-                        expected=f"at most {MAX_FIELD_CELLS:.3g} cells per time step",
-                        fix="check the file's dimensions (ncdump -h); to work on part of a large grid, cut a "
-                            "region first (for example ncks -d lat,... -d lon,...) and open that")
-    if tdim is not None and sizes.get(tdim, 0) > MAX_TIME_STEPS:
-        raise GridError(f"declares {sizes[tdim]:,} time steps", source=where, variable=name,
-                        expected=f"at most {MAX_TIME_STEPS:.3g} time steps",
-                        fix="check the file's time dimension (ncdump -h); resample to coarser steps or open "
-                            "a shorter period")
-
-
-def _check_chunk_count(da, plan, where, name, chunks) -> None:
-    n = math.prod(-(-size // max(int(plan.get(d, size) or size), 1)) if size else 1
-                  for d, size in da.sizes.items())
-    if n > MAX_CHUNKS:
-        shape = " x ".join(f"{int(plan.get(d, s)):,}" for d, s in da.sizes.items())
-        raise GridError(f"would be read in {n:,} chunks of {shape} values", source=where, variable=name,
-                        expected=f"at most {MAX_CHUNKS:,} chunks (dask's graph grows with every chunk)",
-                        fix=("pass larger chunks, e.g. chunks={'time': 365}" if isinstance(chunks, dict) else
-                             "pass larger chunks to cw.open_precip, e.g. chunks={'time': 365, 'lat': -1, "
-                             "'lon': -1}, or rewrite the file with larger stored chunks"))
-
-
 def _file_data(da, path, name, plan, ident, dims):
     """A dask array that reads the file's chunks (directly where the codec allows)."""
     direct = None
@@ -260,52 +220,6 @@ def _object_data(da, plan, rechunk=False):
     return da.chunk({d: plan[d] for d in da.dims}).data, "xarray (in-memory object or fsspec store)"
 
 
-def _check_zarr_chunks(store, ds, da, info, where) -> None:
-    """Chunks absent from a Zarr store, found by listing its chunk names (no data read).
-
-    Zarr reads an absent chunk as the fill value, so a chunk lost in an interrupted copy
-    would read as a block of missing data (a silent missing year). A tile absent at some
-    times but stored at others is refused; a tile absent at every time is what Zarr leaves
-    when it skips chunks that hold only the fill value (ocean tiles of a land product), and
-    is noted in attrs.
-    """
-    name = info["name"]
-    found = zarr_stored_chunks(store, name)
-    if found is None:
-        return
-    grid, chunk, present = found
-    total = math.prod(grid)
-    if len(present) >= total:
-        return
-    dims = ds[name].dims
-    tname = gridmod.find_coord(ds, ds[name], "time")
-    if tname is None or ds[tname].dims[0] not in dims:
-        return  # a single field (terrain): nothing to compare an absent chunk with
-    taxis = dims.index(ds[tname].dims[0])
-    absent_at: dict = {}
-    for pos in np.ndindex(*grid):
-        if pos not in present:
-            absent_at.setdefault(pos[:taxis] + pos[taxis + 1:], []).append(pos)
-    holes = sorted(p for ps in absent_at.values() if len(ps) < grid[taxis] for p in ps)
-    missing = total - len(present)
-    if holes:
-        first = holes[0]
-        a = first[taxis] * chunk[taxis]
-        b = min(a + chunk[taxis], ds[name].shape[taxis]) - 1
-        times = da["time"].values if "time" in da.coords else None
-        stamp = f", {str(times[a])[:10]} to {str(times[b])[:10]}" if times is not None and b < times.size else ""
-        what = f"chunk {first}: time steps {a}..{b}{stamp}"
-        raise SourceError(f"has {len(holes)} of {total} chunks of '{name}' missing from the store where other "
-                          f"times of the same cells are stored (first {what}); Zarr would read them as "
-                          "missing values", source=where, variable=name,
-                          expected="every chunk of the array in the store",
-                          fix="copy or download the store again (an interrupted copy leaves chunks out); if "
-                              "those chunks were left out on purpose because they held only missing values, "
-                              "open the store with xr.open_zarr and pass the Dataset to cw.open_precip")
-    info["absent_chunks"] = (f"{missing} of {total} Zarr chunks absent from the store at every time (tiles "
-                             "holding only the fill value), read as missing")
-
-
 def _open_part(path, var, kind, chunks="auto"):
     """One file or store: open it lazily, then lay it out (see _layout)."""
     ds = open_raw(path)
@@ -313,7 +227,7 @@ def _open_part(path, var, kind, chunks="auto"):
     local = isinstance(path, str) and os.path.exists(path) and not zarr
     da, info = _layout(ds, var, kind, chunks, source_label(path), path if local else None)
     if zarr:
-        _check_zarr_chunks(path, ds, da, info, source_label(path))
+        check_zarr_chunks(path, ds, da, info, source_label(path))
     return da, info
 
 
@@ -352,11 +266,11 @@ def _layout(ds, var, kind, chunks, where, path):
     else:
         spatial = [ds[projected[1]].dims[0], ds[projected[0]].dims[0]]
     drop, members = _extra_dims(da, spatial, ds[tname].dims if tname else (), where, name)
-    _check_declared_sizes(da, spatial, ds[tname].dims[0] if tname else None, where, name)
+    check_declared_sizes(da, spatial, ds[tname].dims[0] if tname else None, where, name)
     plan = _chunk_plan(da.variable, da.dims, ds[tname].dims[0] if tname else None)
     if isinstance(chunks, dict):
         plan = _user_plan(plan, chunks, da, ds, tname, spatial)
-    _check_chunk_count(da, plan, where, name, chunks)
+    check_chunk_count(da, plan, where, name, chunks)
     info["encoding"] = dict(da.encoding)
     if path is not None:
         # a token from the file's identity (path, size, mtime), so reopening an unchanged file
@@ -415,123 +329,6 @@ def _layout(ds, var, kind, chunks, where, path):
                         expected="both 1-D (rectilinear) or both 2-D (curvilinear)", fix="repair the coordinates")
     info["grid"] = (da["lat"].values, da["lon"].values)
     return da, info
-
-
-def _same_grid(a, b) -> bool:
-    return all(x.shape == y.shape and np.allclose(x, y, atol=1e-6) for x, y in zip(a, b))
-
-
-def _check_parts_in_sequence(parts) -> None:
-    """File by file: one time step in every file, and no file's times inside another's.
-
-    Run on the parts sorted by first time, so a pair that overlaps is named by its two files
-    (two copies of one file say "the same times appear in two files", not "times go back").
-    """
-    steps = []
-    for da, info in parts:
-        t = da["time"]
-        steps.append(timeaxis.infer_step(t, info.get("time_bounds"), source=info["path"])
-                     if t.size >= 2 or info.get("time_bounds") is not None else None)
-    known = [(s, info["path"]) for s, (_, info) in zip(steps, parts) if s is not None]
-    for s, path in known[1:]:
-        if s != known[0][0]:
-            raise MismatchError(f"has {s} steps but {known[0][1]} has {known[0][0]} steps", source=path,
-                                variable="time", expected="one time step in every file of one product",
-                                fix="open the files of each step separately (for example 'pr_day_*.nc' and "
-                                    "'pr_mon_*.nc') as two products")
-    for (a, ia), (b, ib) in zip(parts, parts[1:]):
-        ta, tb = a["time"].values, b["time"].values
-        if tb[0] > ta[-1]:
-            continue
-        shared = np.intersect1d(ta, tb).size
-        what = ("the same times appear in two files" if shared
-                else "the times of one file fall inside the times of another")
-        raise MismatchError(f"{what}: {ib['path']} and {ia['path']} ({shared} time stamp(s) in both)",
-                            source=ib["path"], variable="time",
-                            expected="files that follow one another in time without overlap",
-                            fix="remove the duplicate or overlapping file from the list or pattern")
-
-
-_FILL_NOTE = "values >= 1e15 and -9999/-999/-99999 treated as missing (no _FillValue in the file)"
-
-
-def _fill_per_file(parts):
-    """``(parts, mask_fill, note)``: the fill heuristics decided file by file.
-
-    A file without _FillValue/missing_value gets the heuristics (1e20, -9999 ... as
-    missing) and a file that declares its fill keeps its own: in a glob mixing both, the
-    files that need the heuristics are masked before they are combined, so a later file's
-    1e20 never becomes 1e20 mm because the first file declared -9999.
-    """
-    needs = [needs_fill_heuristics(info["encoding"], info["attrs"]) for _, info in parts]
-    if all(needs) or not any(needs):
-        return parts, needs[0], (_FILL_NOTE if needs[0] else None)
-    import dask.array as dsa
-
-    out = []
-    for (da, info), need in zip(parts, needs):
-        if need:
-            data = da.data if is_dask_collection(da.data) else dsa.from_array(np.asarray(da.data))
-            da = da.copy(data=dsa.map_blocks(mask_likely_fill, data, dtype=np.result_type(da.dtype, np.float32)))
-        out.append((da, info))
-    which = ", ".join(info["path"] for (_, info), need in zip(parts, needs) if need)
-    return out, False, f"values >= 1e15 and -9999/-999/-99999 treated as missing in {which} (no _FillValue there)"
-
-
-def _check_labels_per_file(parts) -> None:
-    """Every file's stamps taken the same way: start of step, or end of step by its bounds.
-
-    Bounds are combined only when every file has them; a file stamped at the end of each
-    step beside one without bounds (or one stamped at the start) would be shifted by one
-    step in the combined axis, so the pair is named instead.
-    """
-    kinds = []
-    for da, info in parts:
-        tb = info.get("time_bounds")
-        if tb is None:
-            kinds.append(("has no time bounds", info["path"]))
-        elif timeaxis.start_labels(da["time"], tb)[1]:
-            kinds.append(("stamps each step at its end (by its time bounds)", info["path"]))
-        else:
-            kinds.append(("stamps each step at its start (by its time bounds)", info["path"]))
-    ends = [k for k in kinds if " end " in k[0]]
-    others = [k for k in kinds if " end " not in k[0]]
-    if ends and others:
-        raise MismatchError(f"{ends[0][0]} but {others[0][1]} {others[0][0]}", source=ends[0][1], variable="time",
-                            expected="the same time stamping (and time bounds) in every file of one product",
-                            fix="open the files separately, or give every file the same CF time bounds")
-
-
-def _combine(parts, source_list):
-    first_da, first = parts[0]
-    u0 = parse_units(first["attrs"].get("units"), source=first["path"], variable=first["name"])
-    for da, info in parts[1:]:
-        u = parse_units(info["attrs"].get("units"), source=info["path"], variable=info["name"])
-        if (u.kind, u.to_mm, u.per_month) != (u0.kind, u0.to_mm, u0.per_month):
-            raise MismatchError(f"has units '{u.text}' but {first['path']} has '{u0.text}'", source=info["path"],
-                                variable=info["name"], expected="the same units in every file of one product",
-                                fix="open the files separately, or convert them to common units first")
-        if info.get("calendar") != first.get("calendar"):
-            raise MismatchError(f"uses the calendar '{info.get('calendar')}' but {first['path']} uses "
-                                f"'{first.get('calendar')}'", source=info["path"], variable="time",
-                                expected="one calendar across the files", fix="open the files as separate products")
-        if not _same_grid(info["grid"], first["grid"]):
-            raise MismatchError(f"is on a different grid from {first['path']}", source=info["path"],
-                                variable=info["name"], expected="the same lat/lon grid in every file",
-                                fix="open the files as separate products and use cw.regrid to bring them together")
-    if len(parts) == 1:
-        mask_fill = needs_fill_heuristics(first["encoding"], first["attrs"])
-        return first_da, first["time_bounds"], mask_fill, (_FILL_NOTE if mask_fill else None)
-    parts = sorted(parts, key=lambda p: p[0]["time"].values[0])
-    _check_labels_per_file(parts)  # first: a one-step shift would also look like an overlap
-    _check_parts_in_sequence(parts)
-    parts, mask_fill, fill_note = _fill_per_file(parts)
-    da = xr.concat([p[0] for p in parts], dim="time", coords="minimal", compat="override", join="override",
-                   combine_attrs="override")
-    timeaxis.check_monotonic(da["time"].values, source=", ".join(source_list[:3]) + (" …" if len(source_list) > 3 else ""))
-    bounds = [p[1]["time_bounds"] for p in parts]
-    tb = xr.concat(bounds, dim=bounds[0].dims[0]) if all(b is not None for b in bounds) else None
-    return da, tb, mask_fill, fill_note
 
 
 def _block_labels(da) -> list:
@@ -628,7 +425,7 @@ def open_precip(source, var=None, chunks="auto", validate="auto", max_depth_mm="
         resolved = resolve(source)
         sources = [source_label(p) for p in resolved]
         parts = [_open_part(p, var, "precipitation", chunks) for p in resolved]
-    da, tbounds, mask_fill, fill_note = _combine(parts, sources)
+    da, tbounds, mask_fill, fill_note = combine_parts(parts, sources)
     info = parts[0][1]
     name, attrs = info["name"], info["attrs"]
     where = sources[0] if len(sources) == 1 else f"{sources[0]} (+{len(sources) - 1} more)"

@@ -381,10 +381,10 @@ def test_depth_bound_holds_on_the_fused_climatology_path(tmp_path):
 
 # ------------------------------------------------------------------ declared sizes
 def test_too_many_chunks_are_refused_before_the_graph_is_built(tmp_path, monkeypatch):
-    from climwidgets.io import loader
+    from climwidgets.io import extent
 
     path = write_cf(tmp_path / "c.nc", np.ones((40, 3, 4)))
-    monkeypatch.setattr(loader, "MAX_CHUNKS", 100)
+    monkeypatch.setattr(extent, "MAX_CHUNKS", 100)
     with pytest.raises(GridError, match="480 chunks of 1 x 1 x 1") as err:
         cw.open_precip(path, chunks={"time": 1, "lat": 1, "lon": 1})
     assert "c.nc" in str(err.value) and "larger chunks" in str(err.value)
@@ -392,9 +392,9 @@ def test_too_many_chunks_are_refused_before_the_graph_is_built(tmp_path, monkeyp
 
 
 def test_declared_time_steps_are_bounded(tmp_path, monkeypatch):
-    from climwidgets.io import loader
+    from climwidgets.io import extent
 
     path = write_cf(tmp_path / "t.nc", np.ones((40, 3, 4)))
-    monkeypatch.setattr(loader, "MAX_TIME_STEPS", 30)
+    monkeypatch.setattr(extent, "MAX_TIME_STEPS", 30)
     with pytest.raises(GridError, match="declares 40 time steps"):
         cw.open_precip(path)
