@@ -143,3 +143,17 @@ def test_readme_table_lists_every_case():
     readme = (Path(__file__).parent / "corpus" / "README.md").read_text()
     for line in markdown_table().splitlines()[2:]:
         assert line in readme, f"README table is missing or out of date for: {line}"
+
+
+def test_variable_shorter_than_time_reads_the_same_on_both_readers(corpus, monkeypatch):
+    """Records never written are missing on the direct reader and on xarray's backend alike
+    (the netCDF library pads them with its default fill, which must not become a depth)."""
+    from climwidgets.io import loader
+
+    case, source, _ = corpus["int16_shorter_than_time"]
+    direct = cw.open_precip(source)
+    monkeypatch.setattr(loader, "DIRECT_CHUNK_READS", False)
+    backend = cw.open_precip(source)
+    assert direct.attrs["reader"] != backend.attrs["reader"]
+    np.testing.assert_array_equal(direct.values, backend.values)
+    case.expect.check(backend)

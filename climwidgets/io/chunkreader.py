@@ -291,17 +291,49 @@ def _read_backend_block(backend, path, varname, block_info=None):
         raise _read_error(path, varname, region, exc) from None
 
 
+def stored_extent(path, varname: str):
+    """The shape a NetCDF-4 variable was written to (its HDF5 extent), or None if unknown.
+
+    A variable on an unlimited dimension may be written for fewer records than the
+    dimension holds; the netCDF library pads the rest with the fill value on reading.
+    """
+    try:
+        import h5py
+
+        with h5py.File(path, "r") as f:
+            d = f.get(varname)
+            return tuple(d.shape) if isinstance(d, h5py.Dataset) else None
+    except (ImportError, OSError, ValueError, KeyError, RuntimeError):
+        return None  # NetCDF-3 or not HDF5: every variable has the dimensions' lengths
+
+
+def _missing_beyond(block, extent, block_info=None):
+    """``block`` as floats, NaN where it lies beyond the variable's written extent."""
+    loc = block_info[0]["array-location"]
+    keep = tuple(slice(0, max(0, min(b, n) - a)) for (a, b), n in zip(loc, extent))
+    out = np.full(block.shape, np.nan)
+    out[keep] = block[keep]
+    return out
+
+
 def backend_reader(variable, path, varname: str, chunks: tuple, name: str):
     """A dask array reading ``variable`` (lazy, from xarray's backend) in ``chunks``.
 
     Same as ``variable.chunk``, except that a failing read (damaged or truncated file)
-    raises a :class:`~climwidgets.errors.SourceError` that names the file.
+    raises a :class:`~climwidgets.errors.SourceError` that names the file, and records a
+    variable was never written for (beyond its own extent on an unlimited dimension) are
+    missing rather than the padding the netCDF library reads there.
     """
     import dask.array as dsa
 
     normalized = dsa.core.normalize_chunks(chunks, variable.shape)
-    return dsa.map_blocks(_read_backend_block, _Backend(variable), path, varname, dtype=variable.dtype,
+    data = dsa.map_blocks(_read_backend_block, _Backend(variable), path, varname, dtype=variable.dtype,
                           chunks=normalized, name=name, meta=np.array((), dtype=variable.dtype))
+    extent = stored_extent(path, varname) if isinstance(path, str) else None
+    if extent is not None and len(extent) == variable.ndim and tuple(extent) != tuple(variable.shape):
+        data = dsa.map_blocks(_missing_beyond, data, extent, dtype=np.float64, name=f"{name}-written",
+                              meta=np.array((), dtype=np.float64))
+    return data
 
 
 def direct_reader(path: str, varname: str, encoding: dict, chunks: tuple, name: str, shape=None):
