@@ -344,6 +344,13 @@ def _block_labels(da) -> list:
     return out
 
 
+def _file_starts(parts, stamps) -> list:
+    """``(first stamp, path)`` of each file in the combined time order (to name a file in a glob)."""
+    ordered = sorted(parts, key=lambda p: p[0]["time"].values[0])
+    starts = np.cumsum([0] + [p[0].sizes["time"] for p in ordered[:-1]])
+    return [(stamps[int(i)], p[1]["path"]) for i, p in zip(starts, ordered)]
+
+
 def _max_depth(max_depth_mm, step, where) -> float | None:
     if max_depth_mm is None:
         return None
@@ -440,7 +447,7 @@ def open_precip(source, var=None, chunks="auto", validate="auto", max_depth_mm="
     eager = validate is True or (validate == "auto" and da.size <= EAGER_CHECK_MAX_VALUES)
     bound = _max_depth(max_depth_mm, step, where)
     guard = {"mask_fill": mask_fill, "guard": not eager, "source": where, "name": name, "max_depth": bound,
-             "dims": list(da.dims)}
+             "dims": list(da.dims), "files": _file_starts(parts, da["time"].values) if len(parts) > 1 else None}
     stored = da.data
     labels = _block_labels(da) if bound is not None else []
     da = xr.apply_ufunc(convert_block, da, factor, *labels, kwargs=guard,

@@ -93,11 +93,14 @@ def _label(value) -> str:
     return text[:19].replace("T", " ") if len(text) >= 19 and text[4] == "-" else text
 
 
-def check_depth_bound(x, max_depth: float, source=None, name=None, labels=None, dims=None, offset=None) -> None:
+def check_depth_bound(x, max_depth: float, source=None, name=None, labels=None, dims=None, offset=None,
+                      files=None) -> None:
     """Raise a DataValueError when a depth of ``x`` (mm per step; NaN missing) exceeds ``max_depth``.
 
     ``labels`` (one 1-D array per axis of ``x``: the coordinate values of the block) or
-    ``offset`` (the block's first index on each axis) say where the first offending value is.
+    ``offset`` (the block's first index on each axis) say where the first offending value is;
+    ``files`` (``(first time stamp, path)`` of each file of a glob, in time order) names the
+    file it came from.
     """
     over = np.asarray(x) > max_depth
     if not over.any():
@@ -106,6 +109,9 @@ def check_depth_bound(x, max_depth: float, source=None, name=None, labels=None, 
     dims = dims or [f"axis {i}" for i in range(over.ndim)]
     if labels is not None:
         where = ", ".join(f"{d}={_label(np.asarray(lab).reshape(-1)[i])}" for d, lab, i in zip(dims, labels, first))
+        if files and "time" in dims:
+            stamp = np.asarray(labels[dims.index("time")]).reshape(-1)[first[dims.index("time")]]
+            source = next((path for t0, path in reversed(files) if t0 <= stamp), source)
     else:
         where = ", ".join(f"{d} index {int(i) + int(o)}" for d, i, o in zip(dims, first, offset or [0] * over.ndim))
     count, top = int(over.sum()), float(np.nanmax(x))
@@ -118,7 +124,7 @@ def check_depth_bound(x, max_depth: float, source=None, name=None, labels=None, 
 
 
 def convert_block(block, factor, *labels, mask_fill: bool, guard: bool, source=None, name=None,
-                  max_depth=None, dims=None):
+                  max_depth=None, dims=None, files=None):
     """Stored values -> mm per step (float64 for accurate sums), with few passes over a chunk.
 
     Two NaN-ignoring reductions (min, max) tell whether a chunk holds fill codes or
@@ -151,7 +157,7 @@ def convert_block(block, factor, *labels, mask_fill: bool, guard: bool, source=N
                                  fix="open with validate=True to find where, and check scale_factor/add_offset and units")
         x[x < 0] = 0.0
     if max_depth is not None and hi * float(np.max(factor)) > max_depth:
-        check_depth_bound(x, max_depth, source, name, labels=labels or None, dims=dims)
+        check_depth_bound(x, max_depth, source, name, labels=labels or None, dims=dims, files=files)
     return x
 
 

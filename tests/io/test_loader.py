@@ -398,3 +398,14 @@ def test_declared_time_steps_are_bounded(tmp_path, monkeypatch):
     monkeypatch.setattr(extent, "MAX_TIME_STEPS", 30)
     with pytest.raises(GridError, match="declares 40 time steps"):
         cw.open_precip(path)
+
+
+def test_depth_bound_in_a_glob_names_the_file_the_value_came_from(tmp_path):
+    for i, start in enumerate(("2001-01-01", "2001-01-07", "2001-01-13")):
+        data = np.full((6, 3, 4), 2.0)
+        if i == 1:
+            data[3, 0, 0] = 1e20
+        write_cf(tmp_path / f"pr_{i}.nc", data, start=start, encoding={"pr": {"_FillValue": -9999.0}})
+    with pytest.raises(DataValueError, match="above the plausible") as err:
+        cw.open_precip(str(tmp_path / "pr_*.nc")).load()
+    assert str(err.value).startswith(str(tmp_path / "pr_1.nc")) and "time=2001-01-10" in str(err.value)
