@@ -75,7 +75,8 @@ def _fill_per_file(parts):
     for (da, info), need in zip(parts, needs):
         if need:
             data = da.data if is_dask_collection(da.data) else dsa.from_array(np.asarray(da.data))
-            da = da.copy(data=dsa.map_blocks(mask_likely_fill, data, dtype=np.result_type(da.dtype, np.float32)))
+            dtype = da.dtype.newbyteorder("=") if da.dtype.kind == "f" else np.dtype(np.float64)
+            da = da.copy(data=dsa.map_blocks(mask_likely_fill, data, dtype=dtype))
         out.append((da, info))
     which = ", ".join(info["path"] for (_, info), need in zip(parts, needs) if need)
     return out, False, f"values >= 1e15 and -9999/-999/-99999 treated as missing in {which} (no _FillValue there)"
