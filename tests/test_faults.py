@@ -105,6 +105,75 @@ def test_failed_netcdf_export_keeps_previous_file(tmp_path, monkeypatch, exc):
     np.testing.assert_allclose(cw.open_precip(target)[:1].values, 1.0)
 
 
+# ------------------------------------------------------------------ awkward inputs through a job
+def _one_cell_file(path, bounds):
+    time = pd.date_range("1991-01-01", "1993-12-31", freq="D")
+    values = np.where(time.month.isin([7, 8]), 2.0, 1.0)[:, None, None]
+    ds = xr.DataArray(values, dims=("time", "lat", "lon"), coords={"time": time, "lat": [10.5], "lon": [-160.5]},
+                      name="pr", attrs={"units": "mm"}).to_dataset()
+    if bounds:
+        ds["lat_bnds"] = (("lat", "nv"), [[10.0, 11.0]])
+        ds["lon_bnds"] = (("lon", "nv"), [[-161.0, -160.0]])
+        ds["lat"].attrs["bounds"], ds["lon"].attrs["bounds"] = "lat_bnds", "lon_bnds"
+    ds.to_netcdf(path)
+    return path
+
+
+@pytest.mark.parametrize("bounds", [True, False], ids=["bounds", "no_bounds"])
+def test_one_cell_grid_summary_writes_every_output_or_refuses_before_writing(tmp_path, bounds):
+    import json
+
+    from climwidgets import jobs
+
+    data = _one_cell_file(tmp_path / "one_cell.nc", bounds)
+    before = data.read_bytes()
+    square = [[[-161, 10], [-160, 10], [-160, 11], [-161, 11], [-161, 10]]]
+    (tmp_path / "b.geojson").write_text(json.dumps({"type": "FeatureCollection", "features": [
+        {"type": "Feature", "properties": {"name": "square"}, "geometry": {"type": "Polygon", "coordinates": square}}]}))
+    out = tmp_path / "out"
+    if not bounds:  # the size of the cell is unknown: refused at open, nothing written
+        with pytest.raises(cw.InputError, match="one_cell.nc.*single latitude"):
+            jobs.run_summary(data, tmp_path / "b.geojson", (7, 8), (1991, 1993), out)
+        assert not out.exists() or list(out.iterdir()) == []
+    else:
+        result = jobs.run_summary(data, tmp_path / "b.geojson", (7, 8), (1991, 1993), out)
+        assert all(p.exists() for p in result.paths.values())  # the report's maps draw the one cell
+        # area of the 1 x 1 degree cell between 10 and 11 N on the authalic sphere (R = 6371.0072 km):
+        # R^2 x pi/180 x (sin 11 - sin 10), hand-computed
+        area = 6371.0072**2 * np.pi / 180 * (np.sin(np.radians(11)) - np.sin(np.radians(10)))
+        assert result.table.loc["square", "area_km2"] == pytest.approx(area, rel=1e-6)
+    assert data.read_bytes() == before
+
+
+@pytest.mark.parametrize("case", ["monthly_stamps_daily_bounds", "fill_not_declared", "zarr_missing_chunk",
+                                  "declared_2e6_grid", "glob_fill_in_later_file"])
+def test_awkward_inputs_through_the_command_line_exit_0_or_2_naming_the_file(tmp_path, capsys, case):
+    """The summary command on corpus inputs: a full answer (exit 0) or one line naming the file (exit 2)."""
+    import json
+
+    from climwidgets import cli
+
+    from .corpus.make_corpus import CASES, Opens
+
+    found = next(c for c in CASES if c.name == case)
+    folder = tmp_path / case
+    folder.mkdir()
+    source = found.build(folder)
+    before = {p: p.read_bytes() for p in folder.rglob("*") if p.is_file()}
+    square = [[[-142, -32], [-139, -32], [-139, -29], [-142, -29], [-142, -32]]]
+    (tmp_path / "b.geojson").write_text(json.dumps({"type": "FeatureCollection", "features": [
+        {"type": "Feature", "properties": {"name": "square"}, "geometry": {"type": "Polygon", "coordinates": square}}]}))
+    code = cli.main(["summary", "--data", source, "--basins", str(tmp_path / "b.geojson"), "--months", "1",
+                     "--baseline", "2001-2001", "--out", str(tmp_path / "out")])
+    err = capsys.readouterr().err
+    if isinstance(found.expect, Opens):
+        assert code in (0, 2), err  # a one-week record may be too short for a summary: said, not crashed
+    else:
+        assert code == 2, err
+        assert Path(str(source)).name in err or any(p.name in err for p in before), err
+    assert {p: p.read_bytes() for p in before} == before  # inputs unchanged
+
+
 # ------------------------------------------------------------------ widgets
 class _Interrupted:
     """Makes the first compute call raise KeyboardInterrupt (as Ctrl-C in the kernel would)."""

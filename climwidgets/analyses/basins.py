@@ -104,6 +104,14 @@ def basin_shares(pr: xr.DataArray, basins, months=(7, 8), how: str = "ratio_of_s
     return ds
 
 
+_CELL_BOUNDS = ("lat_lower", "lat_upper", "lon_lower", "lon_upper")
+
+
+def _grid_map(da: xr.DataArray) -> xr.DataArray:
+    """A map without scalar leftovers, keeping the cell bounds (a one-cell grid needs them to be drawn)."""
+    return da.reset_coords([c for c in da.coords if c not in da.dims and c not in _CELL_BOUNDS], drop=True)
+
+
 def summary_bundle(pr: xr.DataArray, months=(7, 8), baseline=(1991, 2020), year_start: int = 1) -> xr.Dataset:
     """The :func:`cw.climatology_bundle` behind the basin table and its maps (lazy).
 
@@ -141,10 +149,10 @@ def summary_maps(pr: xr.DataArray | None, months=(7, 8), baseline=(1991, 2020), 
                                  expected="a precipitation DataArray, or the bundle of summary_bundle",
                                  fix="pass pr=... or bundle=...")
         bundle = summary_bundle(pr, months, baseline, year_start)
-    ds = xr.Dataset({"seasonal_share_map": bundle["seasonal_share"].reset_coords(drop=True).assign_attrs(
+    ds = xr.Dataset({"seasonal_share_map": _grid_map(bundle["seasonal_share"]).assign_attrs(
         units="1", long_name=f"seasonal share ({season_label(months)})")})
     if "normals" in bundle:
-        ds["annual_normal_map"] = bundle["normals"].sum("month", skipna=False).reset_coords(drop=True).assign_attrs(
+        ds["annual_normal_map"] = _grid_map(bundle["normals"].sum("month", skipna=False)).assign_attrs(
             units="mm", long_name=f"annual normal {baseline[0]}–{baseline[1]}")
     return ds
 

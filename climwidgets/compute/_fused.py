@@ -28,6 +28,7 @@ import numpy as np
 import xarray as xr
 
 from ..errors import DataValueError
+from ..io.values import check_depth_bound
 from .extremes import DEFAULT_MIN_VALID_FRACTION, _nominal_steps, annual_maxima
 from .totals import monthly_totals
 
@@ -66,7 +67,7 @@ def _local_bounds(starts, n_steps, lo, hi, t0, t1):
     return [(max(int(starts[i]), t0) - t0, min(int(ends[i]), t1) - t0) for i in range(lo, hi)]
 
 
-def _depth_block(block, mask_fill, guard, factor, source, variable):
+def _depth_block(block, mask_fill, guard, factor, source, variable, max_depth=None, where=None):
     """Fill masking and the negative guard on stored values, without converting every value.
 
     Same rules as the loader's conversion (fill heuristics for files without _FillValue,
@@ -74,7 +75,7 @@ def _depth_block(block, mask_fill, guard, factor, source, variable):
     modified. Float32 stays float32.
     """
     x = np.asarray(block)
-    if x.size == 0 or not (mask_fill or guard):
+    if x.size == 0 or not (mask_fill or guard or max_depth is not None):
         return x
     flat = x.reshape(-1)
     lo, hi = float(np.fmin.reduce(flat)), float(np.fmax.reduce(flat))
@@ -90,14 +91,18 @@ def _depth_block(block, mask_fill, guard, factor, source, variable):
                                  fix="open with validate=True to find where, and check scale_factor/add_offset and units")
         x = x.copy() if x is block else x
         x[x < 0] = 0
+    if max_depth is not None and hi * factor > max_depth:  # the loader's bound, exact only when it may be passed
+        offset, dims = where or (None, None)
+        check_depth_bound(x * factor, max_depth, source, variable, offset=offset, dims=dims)
     return x
 
 
 def _partials(block, month_starts, year_starts, n_steps, factor, mask_fill, guard, source, variable,
-              with_maxima, block_info=None):
+              with_maxima, max_depth=None, dims=None, block_info=None):
     """Rows of one block's partials: month sums, then (optionally) year maxima and valid counts."""
     t0, t1 = block_info[0]["array-location"][0]
-    x = _depth_block(block, mask_fill, guard, factor, source, variable)
+    offset = [a for a, _ in block_info[0]["array-location"]]
+    x = _depth_block(block, mask_fill, guard, factor, source, variable, max_depth, (offset, dims))
     months = _local_bounds(month_starts, n_steps, *_segment_range(month_starts, t0, t1), t0, t1)
     sums = np.stack([x[a:b].sum(axis=0) for a, b in months])  # stored precision, <= one month of steps
     rows = [sums.astype(np.float64) * factor]
@@ -200,7 +205,7 @@ def monthly_and_maxima(pr: xr.DataArray, step: str, maxima_days, year_start: int
         rec, factor = found
         source = rec.data
         kwargs = {"factor": factor, "mask_fill": rec.mask_fill, "guard": rec.guard, "source": rec.source,
-                  "variable": rec.variable}
+                  "variable": rec.variable, "max_depth": getattr(rec, "max_depth", None), "dims": getattr(rec, "dims", None)}
     else:
         source = pr.data
         kwargs = {"factor": 1.0, "mask_fill": False, "guard": False, "source": None, "variable": None}

@@ -261,6 +261,15 @@ def _read_block(index, fills, scale, offset, varname=None, block_info=None):
     loc = block_info[None]["array-location"]
     region = tuple(slice(a, b) for a, b in loc)
     try:
+        stored = tuple(slice(min(s.start, n), min(s.stop, n)) for s, n in zip(region, index.shape))
+        if stored != region:
+            # beyond the variable's own extent (shorter than its unlimited dimension): never
+            # written, so missing
+            out = np.full(tuple(s.stop - s.start for s in region), np.nan)
+            if all(s.stop > s.start for s in stored):
+                out[tuple(slice(0, s.stop - s.start) for s in stored)] = _decode_cf(
+                    read_region(index, stored), fills, scale, offset)
+            return out
         return _decode_cf(read_region(index, region), fills, scale, offset)
     except (OSError, zlib.error, ValueError, RuntimeError) as exc:
         raise _read_error(index.path, varname, region, exc) from None
@@ -282,24 +291,58 @@ def _read_backend_block(backend, path, varname, block_info=None):
         raise _read_error(path, varname, region, exc) from None
 
 
+def stored_extent(path, varname: str):
+    """The shape a NetCDF-4 variable was written to (its HDF5 extent), or None if unknown.
+
+    A variable on an unlimited dimension may be written for fewer records than the
+    dimension holds; the netCDF library pads the rest with the fill value on reading.
+    """
+    try:
+        import h5py
+
+        with h5py.File(path, "r") as f:
+            d = f.get(varname)
+            return tuple(d.shape) if isinstance(d, h5py.Dataset) else None
+    except (ImportError, OSError, ValueError, KeyError, RuntimeError):
+        return None  # NetCDF-3 or not HDF5: every variable has the dimensions' lengths
+
+
+def _missing_beyond(block, extent, block_info=None):
+    """``block`` as floats, NaN where it lies beyond the variable's written extent."""
+    loc = block_info[0]["array-location"]
+    keep = tuple(slice(0, max(0, min(b, n) - a)) for (a, b), n in zip(loc, extent))
+    out = np.full(block.shape, np.nan)
+    out[keep] = block[keep]
+    return out
+
+
 def backend_reader(variable, path, varname: str, chunks: tuple, name: str):
     """A dask array reading ``variable`` (lazy, from xarray's backend) in ``chunks``.
 
     Same as ``variable.chunk``, except that a failing read (damaged or truncated file)
-    raises a :class:`~climwidgets.errors.SourceError` that names the file.
+    raises a :class:`~climwidgets.errors.SourceError` that names the file, and records a
+    variable was never written for (beyond its own extent on an unlimited dimension) are
+    missing rather than the padding the netCDF library reads there.
     """
     import dask.array as dsa
 
     normalized = dsa.core.normalize_chunks(chunks, variable.shape)
-    return dsa.map_blocks(_read_backend_block, _Backend(variable), path, varname, dtype=variable.dtype,
+    data = dsa.map_blocks(_read_backend_block, _Backend(variable), path, varname, dtype=variable.dtype,
                           chunks=normalized, name=name, meta=np.array((), dtype=variable.dtype))
+    extent = stored_extent(path, varname) if isinstance(path, str) else None
+    if extent is not None and len(extent) == variable.ndim and tuple(extent) != tuple(variable.shape):
+        data = dsa.map_blocks(_missing_beyond, data, extent, dtype=np.float64, name=f"{name}-written",
+                              meta=np.array((), dtype=np.float64))
+    return data
 
 
-def direct_reader(path: str, varname: str, encoding: dict, chunks: tuple, name: str):
+def direct_reader(path: str, varname: str, encoding: dict, chunks: tuple, name: str, shape=None):
     """A dask array of the decoded variable read chunk by chunk outside the HDF5 lock, or None.
 
     ``chunks`` are dask chunk sizes per dim (whole multiples of the stored chunks are
     best); ``encoding`` is xarray's encoding of the variable (fill values, scale, offset).
+    ``shape`` is the shape the file declares (its dimensions' lengths); a variable stored
+    shorter than its unlimited dimension reads as missing (NaN) beyond its own extent.
     """
     if not isinstance(path, str) or not os.path.isfile(path):
         return None
@@ -308,11 +351,14 @@ def direct_reader(path: str, varname: str, encoding: dict, chunks: tuple, name: 
         return None
     import dask.array as dsa
 
+    shape = tuple(index.shape if shape is None else shape)
+    if len(shape) != len(index.shape) or any(n < s for n, s in zip(shape, index.shape)):
+        return None  # a layout this reader does not know: the backend reads it
     fills = [v for k in ("_FillValue", "missing_value") if (v := encoding.get(k)) is not None]
     fills = [f for v in fills for f in np.atleast_1d(v)]
     scale, offset = encoding.get("scale_factor"), encoding.get("add_offset")
-    normalized = dsa.core.normalize_chunks(chunks, index.shape)
-    packed = scale is not None or offset is not None or index.dtype.kind != "f"
+    normalized = dsa.core.normalize_chunks(chunks, shape)
+    packed = scale is not None or offset is not None or index.dtype.kind != "f" or shape != index.shape
     out = np.dtype(np.float64) if packed else index.dtype.newbyteorder("=")
     return dsa.map_blocks(_read_block, index, fills, scale, offset, varname, dtype=out, chunks=normalized,
                           name=name, meta=np.array((), dtype=out))
@@ -328,15 +374,110 @@ class StoredValues:
     dask array, and the record is then ignored.
     """
 
-    def __init__(self, name, data, factor, mask_fill, guard, source, variable):
+    def __init__(self, name, data, factor, mask_fill, guard, source, variable, max_depth=None, dims=None):
         self.name = name  # dask name of the converted array this record belongs to
         self.data = data  # dask array of decoded stored values (fill values already NaN)
         self.factor = factor  # stored units -> mm per step
         self.mask_fill, self.guard = mask_fill, guard  # the loader's fill heuristics and negative guard
         self.source, self.variable = source, variable
+        self.max_depth = max_depth  # the loader's plausibility bound in mm per step (None: off)
+        self.dims = dims  # the dims of ``data``, to say where a bound is passed
 
     def __copy__(self):
         return self
 
     def __deepcopy__(self, memo):
         return self  # immutable record; copying a DataArray must not copy a dask graph
+
+
+def _store_access(store):
+    """``(read(key) -> bytes, keys(prefix) -> relative keys)`` for a Zarr store, or None.
+
+    Local folders are listed with ``os.walk``, fsspec mappers and URLs with their file
+    system's ``find``: a listing of names, no chunk is read.
+    """
+    if isinstance(store, str) and "://" not in store and os.path.isdir(store):
+        root = store
+
+        def read(key):
+            with open(os.path.join(root, key), "rb") as fh:
+                return fh.read()
+
+        def keys(prefix):
+            base = os.path.join(root, prefix)
+            for folder, _, files in os.walk(base):
+                rel = os.path.relpath(folder, base)
+                for f in files:
+                    yield f if rel == "." else f"{rel.replace(os.sep, '/')}/{f}"
+        return read, keys
+    try:
+        import fsspec
+    except ImportError:  # pragma: no cover - fsspec comes with xarray's zarr support
+        return None
+    mapper = fsspec.get_mapper(store) if isinstance(store, str) else store
+    fs, root = getattr(mapper, "fs", None), getattr(mapper, "root", None)
+    if fs is None or root is None:
+        return None
+    root = root.rstrip("/")
+
+    def read_fs(key):
+        return mapper[key]
+
+    def keys_fs(prefix):
+        base = f"{root}/{prefix}".rstrip("/")
+        for p in fs.find(base):
+            p = str(p)
+            yield p[len(base) + 1:] if p.startswith(base + "/") else p.rsplit("/", 1)[-1]
+    return read_fs, keys_fs
+
+
+def zarr_stored_chunks(store, varname: str):
+    """``(grid shape, chunk shape, set of stored chunk positions)`` of a Zarr array, from names
+    only; or None when the store or its layout is not one this reads.
+
+    Zarr reads a chunk that is not in the store as the array's fill value, so a chunk lost in
+    a copy looks like missing data. Comparing the listed chunk names with the chunk grid the
+    metadata declares finds such holes without reading any data. Zarr v2 and v3 (default and
+    "v2" chunk key encodings) are understood; with sharding the shards are listed.
+    """
+    import json
+
+    access = _store_access(store)
+    if access is None:
+        return None
+    read, keys = access
+    meta = None
+    for name in ("zarr.json", ".zarray"):
+        try:
+            meta = json.loads(read(f"{varname}/{name}"))
+            break
+        except (OSError, KeyError, ValueError):
+            continue
+    if not isinstance(meta, dict):
+        return None
+    try:
+        shape = [int(n) for n in meta["shape"]]
+        if meta.get("zarr_format") == 3:
+            grid = meta["chunk_grid"]
+            if grid.get("name") != "regular":
+                return None
+            chunk = [int(n) for n in grid["configuration"]["chunk_shape"]]
+            enc = meta.get("chunk_key_encoding", {"name": "default"})
+            sep = enc.get("configuration", {}).get("separator", "/" if enc.get("name") == "default" else ".")
+            prefix = f"c{sep}" if enc.get("name") == "default" else ""
+        else:
+            chunk = [int(n) for n in meta["chunks"]]
+            sep, prefix = meta.get("dimension_separator") or ".", ""
+    except (KeyError, TypeError, ValueError):
+        return None
+    if len(chunk) != len(shape) or not shape:
+        return None
+    grid_shape = tuple(-(-s // c) if c else 0 for s, c in zip(shape, chunk))
+    present = set()
+    for key in keys(varname):
+        if not key.startswith(prefix) or key in ("zarr.json", ".zarray", ".zattrs"):
+            continue
+        parts = key[len(prefix):].split(sep)
+        if len(parts) == len(shape) and all(p.isdigit() for p in parts):
+            present.add(tuple(int(p) for p in parts))
+    return grid_shape, tuple(chunk), present

@@ -153,7 +153,7 @@ def infer_edges(centres: np.ndarray, clip: float | None = None) -> tuple[np.ndar
     """Cell edges half-way between centres; the outer edges mirror the first and last gaps."""
     c = np.asarray(centres, dtype=float)
     if c.size == 1:
-        return c - 0.5, c + 0.5  # a single cell: assume 1 degree, stated in attrs by the caller
+        return c - 0.5, c + 0.5  # a single cell: 1 degree (normalise_rectilinear refuses to guess)
     mid = (c[1:] + c[:-1]) / 2
     edges = np.concatenate([[c[0] - (mid[0] - c[0])], mid, [c[-1] + (c[-1] - mid[-1])]])
     if clip is not None:
@@ -176,7 +176,23 @@ def normalise_rectilinear(da: xr.DataArray, lat_edges=None, lon_edges=None, *, s
         raise GridError(f"has latitudes outside -90..90 (min {lat.min():g}, max {lat.max():g})", source=source,
                         variable="lat", expected="degrees_north within -90..90",
                         fix="check whether lat and lon are swapped or in radians")
+    for which, values, edges in (("latitude", lat, lat_edges), ("longitude", lon, lon_edges)):
+        if values.size == 1 and edges is None:
+            short = which[:3]
+            raise GridError(f"has a single {which} ({values[0]:g}) and no {which} bounds, so the size of its "
+                            "cells is unknown", source=source, variable=short,
+                            expected=f"two or more {which}s, or CF bounds on {short}",
+                            fix=f"add a bounds variable ({short}_bnds with the lower and upper edge, and the "
+                                f"attribute {short}:bounds = '{short}_bnds'); on an in-memory object, "
+                                f"coordinates {short}_lower and {short}_upper on {short}")
     bounds_from = "file"
+    for which, edges in (("latitude", lat_edges), ("longitude", lon_edges)):
+        if edges is not None and not (np.all(np.isfinite(edges[0])) and np.all(np.isfinite(edges[1]))):
+            bad = int(np.flatnonzero(~(np.isfinite(edges[0]) & np.isfinite(edges[1])))[0])
+            raise GridError(f"has a missing (NaN) value in its {which} bounds (cell {bad + 1})", source=source,
+                            variable=f"{which[:3]} bounds", expected="finite cell bounds for every cell",
+                            fix=f"repair the {which} bounds variable, or delete the 'bounds' attribute of {which[:3]} "
+                                "in a copy of the file so that bounds are inferred from the cell centres")
     if lat_edges is None:
         lat_edges = infer_edges(lat, clip=90.0)
         bounds_from = "inferred from cell centres"

@@ -47,6 +47,8 @@ def describe(source, var=None, scan=False) -> str:
         shape = tuple(c[0] for c in pr.chunks)
         n = int(np.prod([len(c) for c in pr.chunks]))
         lines.append(f"dask chunks:  {shape} x {n} chunks; {pr.nbytes / 1e9:.3g} GB as float64 in memory")
+    if a.get("absent_chunks"):
+        lines.append(f"absent:       {a['absent_chunks']}")
     if a.get("missing_value_heuristics"):
         lines.append(f"missing:      {a['missing_value_heuristics']}")
     if scan:

@@ -24,15 +24,17 @@ import numpy as np
 import xarray as xr
 from dask.base import is_dask_collection
 
-from ..errors import GridError, MismatchError, TimeAxisError, UnitsError, VariableError
+from ..errors import GridError, ParameterError, TimeAxisError, UnitsError, VariableError
 from ..provenance import with_history
 from . import grid as gridmod
 from . import timeaxis
 from .chunkreader import StoredValues, backend_reader, direct_reader
+from .combine import combine_parts
+from .extent import check_chunk_count, check_declared_sizes, check_zarr_chunks
 from .projected import attach_latlon, attach_mapping
 from .sources import is_zarr, open_raw, resolve, source_label
 from .units import length_to_metres, parse_units, step_factor
-from .values import check_packing, check_values, convert_block, needs_fill_heuristics
+from .values import check_packing, check_values, convert_block, default_max_depth
 
 PRECIP_STANDARD_NAMES = (
     "lwe_thickness_of_precipitation_amount", "precipitation_amount", "precipitation_flux",
@@ -203,7 +205,7 @@ def _file_data(da, path, name, plan, ident, dims):
     direct = None
     if DIRECT_CHUNK_READS and "_Unsigned" not in da.encoding and "_Unsigned" not in da.attrs:
         direct = direct_reader(path, name, da.encoding, tuple(plan[d] for d in dims),
-                               name=f"open_precip-{name}-direct-{ident}")
+                               name=f"open_precip-{name}-direct-{ident}", shape=da.shape)
     if direct is not None:
         return direct, "direct chunk reads (parallel decompression)"
     data = backend_reader(da.variable, path, name, tuple(plan[d] for d in dims), name=f"open_precip-{name}-{ident}")
@@ -221,8 +223,12 @@ def _object_data(da, plan, rechunk=False):
 def _open_part(path, var, kind, chunks="auto"):
     """One file or store: open it lazily, then lay it out (see _layout)."""
     ds = open_raw(path)
-    local = isinstance(path, str) and os.path.exists(path) and not is_zarr(path)
-    return _layout(ds, var, kind, chunks, source_label(path), path if local else None)
+    zarr = is_zarr(path)
+    local = isinstance(path, str) and os.path.exists(path) and not zarr
+    da, info = _layout(ds, var, kind, chunks, source_label(path), path if local else None)
+    if zarr:
+        check_zarr_chunks(path, ds, da, info, source_label(path))
+    return da, info
 
 
 def _open_object(obj, var, kind, chunks="auto"):
@@ -241,6 +247,13 @@ def _layout(ds, var, kind, chunks, where, path):
     sn, names = (PRECIP_STANDARD_NAMES, PRECIP_NAMES) if kind == "precipitation" else (ELEVATION_STANDARD_NAMES, ELEVATION_NAMES)
     name = _choose_variable(ds, var, where, sn, names, kind)
     da = ds[name]
+    if da.dtype.kind not in "biuf":
+        what = (f"a compound type (fields {', '.join(da.dtype.names)})" if da.dtype.names
+                else f"values of type {da.dtype}")
+        raise VariableError(f"holds {what}, not numbers", source=where, variable=name,
+                            expected="a numeric variable (integer or floating point)",
+                            fix="write the numeric field to a variable of its own in a copy of the file (with "
+                                f"netCDF4: new[:] = old['{name}'][:]['field_name']) and open that")
     check_packing(da, where, name)
     tname = gridmod.find_coord(ds, da, "time")
     latn, lonn, projected = _spatial_names(ds, da, name, where)
@@ -253,9 +266,11 @@ def _layout(ds, var, kind, chunks, where, path):
     else:
         spatial = [ds[projected[1]].dims[0], ds[projected[0]].dims[0]]
     drop, members = _extra_dims(da, spatial, ds[tname].dims if tname else (), where, name)
+    check_declared_sizes(da, spatial, ds[tname].dims[0] if tname else None, where, name)
     plan = _chunk_plan(da.variable, da.dims, ds[tname].dims[0] if tname else None)
     if isinstance(chunks, dict):
         plan = _user_plan(plan, chunks, da, ds, tname, spatial)
+    check_chunk_count(da, plan, where, name, chunks)
     info["encoding"] = dict(da.encoding)
     if path is not None:
         # a token from the file's identity (path, size, mtime), so reopening an unchanged file
@@ -287,9 +302,15 @@ def _layout(ds, var, kind, chunks, where, path):
         da = da.rename({lat.dims[0]: "lat", lon.dims[0]: "lon"})
         da = da.assign_coords(lat=("lat", lat.values, dict(lat.attrs)), lon=("lon", lon.values, dict(lon.attrs)))
         edges = []
-        for c in (lat, lon):
+        for c, short in ((lat, "lat"), (lon, "lon")):
             b = c.attrs.get("bounds")
-            edges.append(gridmod.bounds_to_edges(ds[b].values, c.values) if b in ds.variables else None)
+            lower, upper = ds.coords.get(f"{short}_lower"), ds.coords.get(f"{short}_upper")
+            if b in ds.variables:
+                edges.append(gridmod.bounds_to_edges(ds[b].values, c.values))
+            elif lower is not None and upper is not None and lower.dims == upper.dims == c.dims:
+                edges.append((np.asarray(lower.values, float), np.asarray(upper.values, float)))  # an opened object
+            else:
+                edges.append(None)
         da = gridmod.normalise_rectilinear(da, edges[0], edges[1], source=where)
         da = da.transpose(*head, "lat", "lon")
     elif ds[latn].ndim == 2 and ds[lonn].ndim == 2:
@@ -310,71 +331,44 @@ def _layout(ds, var, kind, chunks, where, path):
     return da, info
 
 
-def _same_grid(a, b) -> bool:
-    return all(x.shape == y.shape and np.allclose(x, y, atol=1e-6) for x, y in zip(a, b))
+def _block_labels(da) -> list:
+    """One 1-D array per dim of ``da`` (coordinate values, else positions), chunked as ``da``,
+    so that each block of the conversion knows where it lies (for the depth bound's message)."""
+    import dask.array as dsa
+
+    out = []
+    for i, d in enumerate(da.dims):
+        values = da[d].values if d in da.coords and da[d].dims == (d,) else np.arange(da.sizes[d])
+        data = dsa.from_array(values, chunks=(da.chunks[i],)) if da.chunks is not None else values
+        out.append(xr.DataArray(data, dims=(d,)))
+    return out
 
 
-def _check_parts_in_sequence(parts) -> None:
-    """File by file: one time step in every file, and no file's times inside another's.
-
-    Run on the parts sorted by first time, so a pair that overlaps is named by its two files
-    (two copies of one file say "the same times appear in two files", not "times go back").
-    """
-    steps = []
-    for da, info in parts:
-        t = da["time"]
-        steps.append(timeaxis.infer_step(t, info.get("time_bounds"), source=info["path"])
-                     if t.size >= 2 or info.get("time_bounds") is not None else None)
-    known = [(s, info["path"]) for s, (_, info) in zip(steps, parts) if s is not None]
-    for s, path in known[1:]:
-        if s != known[0][0]:
-            raise MismatchError(f"has {s} steps but {known[0][1]} has {known[0][0]} steps", source=path,
-                                variable="time", expected="one time step in every file of one product",
-                                fix="open the files of each step separately (for example 'pr_day_*.nc' and "
-                                    "'pr_mon_*.nc') as two products")
-    for (a, ia), (b, ib) in zip(parts, parts[1:]):
-        ta, tb = a["time"].values, b["time"].values
-        if tb[0] > ta[-1]:
-            continue
-        shared = np.intersect1d(ta, tb).size
-        what = ("the same times appear in two files" if shared
-                else "the times of one file fall inside the times of another")
-        raise MismatchError(f"{what}: {ib['path']} and {ia['path']} ({shared} time stamp(s) in both)",
-                            source=ib["path"], variable="time",
-                            expected="files that follow one another in time without overlap",
-                            fix="remove the duplicate or overlapping file from the list or pattern")
+def _file_starts(parts, stamps) -> list:
+    """``(first stamp, path)`` of each file in the combined time order (to name a file in a glob)."""
+    ordered = sorted(parts, key=lambda p: p[0]["time"].values[0])
+    starts = np.cumsum([0] + [p[0].sizes["time"] for p in ordered[:-1]])
+    return [(stamps[int(i)], p[1]["path"]) for i, p in zip(starts, ordered)]
 
 
-def _combine(parts, source_list):
-    first_da, first = parts[0]
-    u0 = parse_units(first["attrs"].get("units"), source=first["path"], variable=first["name"])
-    for da, info in parts[1:]:
-        u = parse_units(info["attrs"].get("units"), source=info["path"], variable=info["name"])
-        if (u.kind, u.to_mm, u.per_month) != (u0.kind, u0.to_mm, u0.per_month):
-            raise MismatchError(f"has units '{u.text}' but {first['path']} has '{u0.text}'", source=info["path"],
-                                variable=info["name"], expected="the same units in every file of one product",
-                                fix="open the files separately, or convert them to common units first")
-        if info.get("calendar") != first.get("calendar"):
-            raise MismatchError(f"uses the calendar '{info.get('calendar')}' but {first['path']} uses "
-                                f"'{first.get('calendar')}'", source=info["path"], variable="time",
-                                expected="one calendar across the files", fix="open the files as separate products")
-        if not _same_grid(info["grid"], first["grid"]):
-            raise MismatchError(f"is on a different grid from {first['path']}", source=info["path"],
-                                variable=info["name"], expected="the same lat/lon grid in every file",
-                                fix="open the files as separate products and use cw.regrid to bring them together")
-    if len(parts) == 1:
-        return first_da, first["time_bounds"]
-    parts = sorted(parts, key=lambda p: p[0]["time"].values[0])
-    _check_parts_in_sequence(parts)
-    da = xr.concat([p[0] for p in parts], dim="time", coords="minimal", compat="override", join="override",
-                   combine_attrs="override")
-    timeaxis.check_monotonic(da["time"].values, source=", ".join(source_list[:3]) + (" …" if len(source_list) > 3 else ""))
-    bounds = [p[1]["time_bounds"] for p in parts]
-    tb = xr.concat(bounds, dim=bounds[0].dims[0]) if all(b is not None for b in bounds) else None
-    return da, tb
+def _max_depth(max_depth_mm, step, where) -> float | None:
+    if max_depth_mm is None:
+        return None
+    if isinstance(max_depth_mm, str) and max_depth_mm == "auto":
+        seconds = 31 * 86400.0 if step == "month" else timeaxis.STEP_SECONDS[step]
+        return default_max_depth(seconds)
+    try:
+        bound = float(max_depth_mm)
+    except (TypeError, ValueError):
+        bound = float("nan")
+    if not bound > 0:
+        raise ParameterError(f"max_depth_mm={max_depth_mm!r} is not a positive number", source=where,
+                             expected="'auto', a positive depth in mm per step, or None",
+                             fix="pass max_depth_mm='auto' (the default), a number such as 2000, or None")
+    return bound
 
 
-def open_precip(source, var=None, chunks="auto", validate="auto") -> xr.DataArray:
+def open_precip(source, var=None, chunks="auto", validate="auto", max_depth_mm="auto") -> xr.DataArray:
     """Open precipitation lazily as depth per time step in mm.
 
     Parameters
@@ -394,6 +388,13 @@ def open_precip(source, var=None, chunks="auto", validate="auto") -> xr.DataArra
         "auto" checks negative and all-missing values at open for inputs of at most
         20 million values and chunk by chunk as data are read for larger ones; True always
         checks at open (reads the data once); False only guards chunks as they are read.
+    max_depth_mm
+        The largest plausible depth in mm per (native) time step; larger values raise a
+        DataValueError naming the first place found, as the chunk is read (or at open for
+        small inputs), never with an extra pass over the data. "auto" is twice the envelope
+        of the world's greatest observed point rainfalls for the step length (Jennings 1950:
+        about 840 mm for an hour, 3.8 m for a day, 19.5 m for a month); a number sets the
+        bound; None turns the check off.
 
     Time stamps are taken as the start of each step. Files whose CF time bounds show the
     stamp at the end of the step (hourly accumulations, monthly means stamped at the next
@@ -431,7 +432,7 @@ def open_precip(source, var=None, chunks="auto", validate="auto") -> xr.DataArra
         resolved = resolve(source)
         sources = [source_label(p) for p in resolved]
         parts = [_open_part(p, var, "precipitation", chunks) for p in resolved]
-    da, tbounds = _combine(parts, sources)
+    da, tbounds, mask_fill, fill_note = combine_parts(parts, sources)
     info = parts[0][1]
     name, attrs = info["name"], info["attrs"]
     where = sources[0] if len(sources) == 1 else f"{sources[0]} (+{len(sources) - 1} more)"
@@ -440,19 +441,20 @@ def open_precip(source, var=None, chunks="auto", validate="auto") -> xr.DataArra
         da = da.assign_coords(time=("time", stamps, da["time"].attrs))
     step = timeaxis.infer_step(da["time"], tbounds, source=where)
     units = parse_units(attrs.get("units"), source=where, variable=name)
-    mask_fill = needs_fill_heuristics(info["encoding"], attrs)
-    fill_note = ("values >= 1e15 and -9999/-999/-99999 treated as missing (no _FillValue in the file)"
-                 if mask_fill else None)
     factor, conversion = step_factor(units, da["time"], step, source=where, variable=name)
     if chunks is None:
         da = da.compute()
     eager = validate is True or (validate == "auto" and da.size <= EAGER_CHECK_MAX_VALUES)
-    guard = {"mask_fill": mask_fill, "guard": not eager, "source": where, "name": name}
+    bound = _max_depth(max_depth_mm, step, where)
+    guard = {"mask_fill": mask_fill, "guard": not eager, "source": where, "name": name, "max_depth": bound,
+             "dims": list(da.dims), "files": _file_starts(parts, da["time"].values) if len(parts) > 1 else None}
     stored = da.data
-    da = xr.apply_ufunc(convert_block, da, factor, kwargs=guard,
+    labels = _block_labels(da) if bound is not None else []
+    da = xr.apply_ufunc(convert_block, da, factor, *labels, kwargs=guard,
                         dask="parallelized", output_dtypes=[np.float64], keep_attrs=False)
     if dask.is_dask_collection(stored):  # lets compute/_fused.py sum stored float32 and convert the sums
-        da.encoding["stored_values"] = StoredValues(da.data.name, stored, factor, mask_fill, not eager, where, name)
+        da.encoding["stored_values"] = StoredValues(da.data.name, stored, factor, mask_fill, not eager, where, name,
+                                                    max_depth=bound, dims=list(da.dims))
     if eager:
         check_values(da, where, name)
         da = da.where(~(da < 0), 0.0)  # tiny negatives within tolerance
@@ -486,6 +488,9 @@ def open_precip(source, var=None, chunks="auto", validate="auto") -> xr.DataArra
         out_attrs["time_gaps_filled_with_missing"] = int(gaps)
     if fill_note:
         out_attrs["missing_value_heuristics"] = fill_note
+    absent = [p[1]["absent_chunks"] for p in parts if p[1].get("absent_chunks")]
+    if absent:
+        out_attrs["absent_chunks"] = "; ".join(absent)
     if label_note:
         out_attrs["time_labels"] = label_note
     if native_step != step:

@@ -68,30 +68,8 @@ def _offsets_seconds(index) -> np.ndarray:
     return np.asarray(pd.TimedeltaIndex(deltas).total_seconds(), dtype=float)
 
 
-def infer_step(time: xr.DataArray, bounds: xr.DataArray | None = None, *, source=None) -> str:
-    """The step name (a key of STEP_SECONDS, or "month"), from time bounds when present, else
-    from the spacing of the stamps."""
-    index = time.to_index()
-    if bounds is not None and bounds.size >= 2:
-        b = bounds.values
-        lengths = np.asarray(pd.TimedeltaIndex(
-            pd.Index(b[:, 1]) - pd.Index(b[:, 0]) if not np.issubdtype(b.dtype, np.datetime64)
-            else b[:, 1] - b[:, 0]).total_seconds())
-    elif len(index) >= 2:
-        lengths = _offsets_seconds(index)
-    else:
-        raise TimeAxisError(
-            "has a single time step and no time bounds, so the length of the step is unknown",
-            source=source, variable="time", expected="at least two time steps or a 'bounds' variable on time",
-            fix="add CF time bounds (time_bnds) to the file, or open more than one time step")
-    if not np.all(np.isfinite(lengths)):
-        bad = int(np.flatnonzero(~np.isfinite(lengths))[0])
-        where = "time bounds" if bounds is not None and bounds.size >= 2 else "time stamps"
-        raise TimeAxisError(f"has a missing (NaN) value in its {where} near position {bad + 1}",
-                            source=source, variable="time", expected="a time stamp for every step",
-                            fix="fill in or drop the step with the missing time (ds.dropna('time') on the "
-                                "time coordinate) before opening")
-    typical = float(np.median(lengths))
+def _name_step(typical: float) -> str | None:
+    """The step name for a typical step length in seconds, or None when none fits."""
     for step, seconds in STEP_SECONDS.items():
         if abs(typical - seconds) < min(60.0, 0.02 * seconds):
             return step
@@ -99,6 +77,68 @@ def infer_step(time: xr.DataArray, bounds: xr.DataArray | None = None, *, source
         return "day"
     if 27 * 86400 <= typical <= 31.5 * 86400:
         return "month"
+    return None
+
+
+def _say_length(seconds: float, step: str | None) -> str:
+    named = {"hour": "one hour", "day": "one day", "month": "one month"}
+    if step in named:
+        return named[step]
+    if seconds >= 2 * 86400:
+        return f"about {seconds / 86400:.3g} days"
+    return f"about {seconds / 3600:.4g} hours"
+
+
+def _check_finite(lengths, what, source) -> None:
+    if not np.all(np.isfinite(lengths)):
+        bad = int(np.flatnonzero(~np.isfinite(lengths))[0])
+        raise TimeAxisError(f"has a missing (NaN) value in its {what} near position {bad + 1}",
+                            source=source, variable="time", expected="a time stamp for every step",
+                            fix="fill in or drop the step with the missing time (ds.dropna('time') on the "
+                                "time coordinate) before opening")
+
+
+def infer_step(time: xr.DataArray, bounds: xr.DataArray | None = None, *, source=None) -> str:
+    """The step name (a key of STEP_SECONDS, or "month"), from time bounds when present, else
+    from the spacing of the stamps.
+
+    Where both are there they must agree: monthly stamps with one-day bounds (or bounds
+    spanning several steps) are refused rather than read as daily data with every day but
+    one missing in each month.
+    """
+    index = time.to_index()
+    spacing = _offsets_seconds(index) if len(index) >= 2 else None
+    if spacing is not None:
+        _check_finite(spacing, "time stamps", source)
+    if bounds is not None and bounds.size >= 2:
+        b = bounds.values
+        lengths = np.asarray(pd.TimedeltaIndex(
+            pd.Index(b[:, 1]) - pd.Index(b[:, 0]) if not np.issubdtype(b.dtype, np.datetime64)
+            else b[:, 1] - b[:, 0]).total_seconds())
+        _check_finite(lengths, "time bounds", source)
+    elif spacing is not None:
+        lengths = spacing
+    else:
+        raise TimeAxisError(
+            "has a single time step and no time bounds, so the length of the step is unknown",
+            source=source, variable="time", expected="at least two time steps or a 'bounds' variable on time",
+            fix="add CF time bounds (time_bnds) to the file, or open more than one time step")
+    typical = float(np.median(lengths))
+    step = _name_step(typical)
+    if lengths is not spacing and spacing is not None:
+        apart = float(np.median(spacing))
+        by_stamps = _name_step(apart)
+        named_differ = step is not None and by_stamps is not None and step != by_stamps
+        if named_differ or ((step is None or by_stamps is None) and not 2 / 3 <= apart / max(typical, 1e-9) <= 1.5):
+            raise TimeAxisError(
+                f"has time bounds {_say_length(typical, step)} long, but its time stamps are "
+                f"{_say_length(apart, by_stamps)} apart", source=source, variable="time",
+                expected="time bounds that span the step between stamps (one day for daily data, one month "
+                         "for monthly data)",
+                fix="correct the time bounds, or drop them in a copy (xr.open_dataset(path).drop_vars('time_bnds') "
+                    "and delete time's 'bounds' attribute) and open that")
+    if step is not None:
+        return step
     minutes = ", ".join(str(n) for n in SUBHOURLY_MINUTES)
     hours = ", ".join(str(n) for n in MULTIHOUR_HOURS)
     raise TimeAxisError(

@@ -10,10 +10,19 @@ import xarray as xr
 
 from ..errors import DataValueError
 
-__all__ = ["NEGATIVE_TOLERANCE_MM", "check_packing", "check_values", "convert_block", "needs_fill_heuristics"]
+__all__ = ["NEGATIVE_TOLERANCE_MM", "PLAUSIBLE_FACTOR", "check_depth_bound", "check_packing", "check_values",
+           "convert_block", "default_max_depth", "mask_likely_fill", "needs_fill_heuristics"]
 
 NEGATIVE_TOLERANCE_MM = 0.01  # tiny negatives from packing or interpolation are set to 0
 _LIKELY_FILL = (-9999.0, -999.0, -99999.0)
+# The envelope of the world's greatest observed point rainfalls, P = 422 mm x D^0.475 with the
+# duration D in hours (Jennings 1950; 16.6 inches x D^0.475; from memory): about 60 mm in a
+# minute, 420 mm in an hour, 1.9 m in a day and 9.6 m in a month, above every record
+# (31 mm, 305 mm, 1825 mm, 9300 mm). Grid-cell means stay below point records; twice the
+# envelope leaves room for model grid-point storms while fill codes (1e20, 9.97e36, 32767)
+# and rates read with the wrong units (mm/s for mm/day gives 86 400 times too much) fail.
+RECORD_ENVELOPE_MM, RECORD_ENVELOPE_EXPONENT = 422.0, 0.475
+PLAUSIBLE_FACTOR = 2.0
 
 
 def check_packing(da: xr.DataArray, source, name) -> None:
@@ -39,14 +48,93 @@ def needs_fill_heuristics(encoding: dict, attrs: dict) -> bool:
     return not ("_FillValue" in encoding or "missing_value" in encoding or "_FillValue" in attrs)
 
 
-def convert_block(block, factor, mask_fill: bool, guard: bool, source=None, name=None):
+def mask_likely_fill(block):
+    """A float copy of ``block`` with the fill codes of files without _FillValue set to NaN.
+
+    Used on the files of a glob that need the heuristics when other files declare their
+    fill (each file's own fill handling, never the first file's for all).
+    """
+    b = np.asarray(block)
+    x = b.astype(np.float64) if b.dtype.kind != "f" else b.astype(b.dtype.newbyteorder("="), copy=True)
+    if x.size:
+        x[(np.abs(x) >= 1e15) | np.isin(x, _LIKELY_FILL)] = np.nan
+    return x
+
+
+def default_max_depth(step_seconds: float) -> float:
+    """The largest plausible depth in mm for one step of ``step_seconds`` (see PLAUSIBLE_FACTOR).
+
+    Parameters
+    ----------
+    step_seconds : float
+        Length of the step in seconds (31 days for monthly data).
+
+    Returns
+    -------
+    float
+        Twice the envelope of world-record point rainfalls for that duration, in mm.
+
+    References
+    ----------
+    Jennings, A. H. (1950). World's greatest observed point rainfalls. Monthly Weather
+    Review, 78(1), 4-5 (cited from memory; the envelope coefficient and exponent too).
+
+    Examples
+    --------
+    >>> round(default_max_depth(86400.0))
+    3819
+    """
+    hours = float(step_seconds) / 3600.0
+    return PLAUSIBLE_FACTOR * RECORD_ENVELOPE_MM * hours ** RECORD_ENVELOPE_EXPONENT
+
+
+def _label(value) -> str:
+    text = str(value)
+    return text[:19].replace("T", " ") if len(text) >= 19 and text[4] == "-" else text
+
+
+def check_depth_bound(x, max_depth: float, source=None, name=None, labels=None, dims=None, offset=None,
+                      files=None) -> None:
+    """Raise a DataValueError when a depth of ``x`` (mm per step; NaN missing) exceeds ``max_depth``.
+
+    ``labels`` (one 1-D array per axis of ``x``: the coordinate values of the block) or
+    ``offset`` (the block's first index on each axis) say where the first offending value is;
+    ``files`` (``(first time stamp, path)`` of each file of a glob, in time order) names the
+    file it came from.
+    """
+    over = np.asarray(x) > max_depth
+    if not over.any():
+        return
+    first = np.unravel_index(int(np.argmax(over)), over.shape)
+    dims = dims or [f"axis {i}" for i in range(over.ndim)]
+    if labels is not None:
+        where = ", ".join(f"{d}={_label(np.asarray(lab).reshape(-1)[i])}" for d, lab, i in zip(dims, labels, first))
+        if files and "time" in dims:
+            stamp = np.asarray(labels[dims.index("time")]).reshape(-1)[first[dims.index("time")]]
+            source = next((path for t0, path in reversed(files) if t0 <= stamp), source)
+    else:
+        where = ", ".join(f"{d} index {int(i) + int(o)}" for d, i, o in zip(dims, first, offset or [0] * over.ndim))
+    count, top = int(over.sum()), float(np.nanmax(x))
+    raise DataValueError(f"has {count} depth(s) above the plausible {max_depth:.6g} mm per step in a chunk "
+                         f"(largest {top:.4g} mm; first at {where})", source=source, variable=name,
+                         expected="depths below twice the world-record rainfall for the step length",
+                         fix="check the units (a rate in mm/s read as mm/day?) and the _FillValue/missing_value "
+                             "(a fill code that is not declared is read as a depth); pass max_depth_mm= to "
+                             "cw.open_precip to set another bound, or None to turn the check off")
+
+
+def convert_block(block, factor, *labels, mask_fill: bool, guard: bool, source=None, name=None,
+                  max_depth=None, dims=None, files=None):
     """Stored values -> mm per step (float64 for accurate sums), with few passes over a chunk.
 
     Two NaN-ignoring reductions (min, max) tell whether a chunk holds fill codes or
     negatives at all, so the usual chunk costs those two reductions and one multiply.
     ``guard`` raises on negatives beyond the tolerance and zeroes the tiny ones; it runs as
-    each chunk is read, so large inputs are checked without a separate pass. The input
-    block is never modified (dask may share it).
+    each chunk is read, so large inputs are checked without a separate pass. ``max_depth``
+    (mm per step) refuses implausible depths; it costs nothing unless the chunk's stored
+    maximum times the factor is above the bound. ``labels`` are the block's coordinate
+    values along each axis, to say where. The input block is never modified (dask may
+    share it).
     """
     b = np.asarray(block)
     if b.size == 0:
@@ -68,6 +156,8 @@ def convert_block(block, factor, mask_fill: bool, guard: bool, source=None, name
                                  source=source, variable=name, expected="precipitation depths >= 0",
                                  fix="open with validate=True to find where, and check scale_factor/add_offset and units")
         x[x < 0] = 0.0
+    if max_depth is not None and hi * float(np.max(factor)) > max_depth:
+        check_depth_bound(x, max_depth, source, name, labels=labels or None, dims=dims, files=files)
     return x
 
 

@@ -45,7 +45,9 @@ def map_figure(field, basins=(), kind: str = "total"):
     """A map of a 2-D field with the basins outlined (coastlines only if on disk)."""
     from ..plot.maps import map_field
 
-    field = field.squeeze(drop=True)
+    # squeeze extra singleton dims only: a one-cell grid keeps its lat/lon (or y/x) to draw
+    field = field.squeeze([d for d in field.dims if field.sizes[d] == 1 and d not in ("lat", "lon", "y", "x")],
+                          drop=True)
     field.attrs = {**field.attrs, "long_name": plain_label(field.attrs.get("long_name", field.name or "value"))}
     with warnings.catch_warnings():
         warnings.simplefilter("ignore", UserWarning)  # "no coastlines on disk" is said in the caption

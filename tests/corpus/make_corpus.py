@@ -240,6 +240,69 @@ def b_daily_and_monthly(d):
     return str(sub / "pr_*.nc")
 
 
+def b_glob_fill_in_later_file(d):
+    sub = d / "fill_later"
+    sub.mkdir()
+    a = field_values(3)
+    a[1, 1, 1] = np.nan
+    _write(_dataset(a, time=[0, 1, 2]), sub / "pr_1.nc", encoding={"pr": {"_FillValue": -9999.0}})
+    b = field_values(3) + 3
+    b[1, 1, 1] = 1e20  # the second file has no _FillValue and stores 1e20 for missing
+    ds = _dataset(b, time=[3, 4, 5])
+    _write(ds, sub / "pr_2.nc", encoding=_no_fill(ds))
+    return str(sub / "pr_*.nc")
+
+
+def b_glob_fills_differ(d):
+    sub = d / "fills_differ"
+    sub.mkdir()
+    for i, (fill, chunked) in enumerate(((-9999.0, True), (1e20, False), (-1.0, True))):
+        data = field_values(3) + 3 * i
+        data[1, 1, 1] = np.nan
+        enc = {"_FillValue": fill, **({"zlib": True, "chunksizes": (1, 3, 4)} if chunked else {})}
+        _write(_dataset(data, time=[3 * i, 3 * i + 1, 3 * i + 2]), sub / f"pr_{i}.nc", encoding={"pr": enc})
+    return str(sub / "pr_*.nc")
+
+
+def b_glob_mixed_units(d):
+    sub = d / "mixed_units"
+    sub.mkdir()
+    _write(_dataset(field_values(3), time=[0, 1, 2]), sub / "pr_1.nc")
+    _write(_dataset(field_values(3) / 86400.0, units="kg m-2 s-1", time=[3, 4, 5]), sub / "pr_2.nc")
+    return str(sub / "pr_*.nc")
+
+
+def b_glob_end_stamped_and_bare(d):
+    sub = d / "stamping"
+    sub.mkdir()
+    ds = _dataset(field_values(3), time=[1, 2, 3])  # stamped at the end of each day
+    ds["time_bnds"] = (("time", "nv"), np.stack([np.arange(3.0), np.arange(1.0, 4.0)], axis=1))
+    ds["time"].attrs["bounds"] = "time_bnds"
+    _write(ds, sub / "pr_1.nc")
+    _write(_dataset(field_values(3), time=[3, 4, 5]), sub / "pr_2.nc")  # no bounds, stamped at the start
+    return str(sub / "pr_*.nc")
+
+
+def b_monthly_stamps_daily_bounds(d):
+    starts = np.asarray(_month_offsets(range(1, 13)), float)
+    ds = _dataset(field_values(12), time=starts)
+    ds["time_bnds"] = (("time", "nv"), np.stack([starts, starts + 1.0], axis=1))  # one day each
+    ds["time"].attrs["bounds"] = "time_bnds"
+    return _write(ds, d / "monthly_stamps_daily_bounds.nc")
+
+
+def b_glob_bounds_disagree_in_later_file(d):
+    sub = d / "bounds_glob"
+    sub.mkdir()
+    for i, width in enumerate((1.0, 0.25)):  # the second file's bounds span a quarter of each day
+        t = np.arange(3.0) + 3 * i
+        ds = _dataset(field_values(3), time=t)
+        ds["time_bnds"] = (("time", "nv"), np.stack([t, t + width], axis=1))
+        ds["time"].attrs["bounds"] = "time_bnds"
+        _write(ds, sub / f"pr_{i + 1}.nc")
+    return str(sub / "pr_*.nc")
+
+
 def b_nan_time_stamp(d):
     return _write(_dataset(field_values(6), time=[0, 1, 2, np.nan, 4, 5]), d / "nan_time.nc")
 
@@ -369,6 +432,23 @@ def b_zarr(d):
     return str(d / "good.zarr")
 
 
+def b_zarr_missing_chunk(d):
+    import shutil
+
+    ds = _dataset(field_values(6)).chunk({"time": 2, "lat": 2})
+    ds.to_zarr(d / "missing_chunk.zarr", mode="w", consolidated=False)
+    shutil.rmtree(d / "missing_chunk.zarr" / "pr" / "c" / "1")  # the middle time chunk, as a cut copy leaves it
+    return str(d / "missing_chunk.zarr")
+
+
+def b_zarr_absent_tile(d):
+    data = field_values(6)
+    data[:, 2:, :] = np.nan  # the last row is one tile holding only missing values
+    ds = _dataset(data).chunk({"time": 2, "lat": 2})
+    ds.to_zarr(d / "absent_tile.zarr", mode="w", consolidated=False, write_empty_chunks=False)
+    return str(d / "absent_tile.zarr")
+
+
 def b_dims_t_y_x(d):
     ds = _dataset(field_values(4), dims=("t", "y", "x"))
     return _write(ds, d / "dims_t_y_x.nc")
@@ -448,6 +528,102 @@ def b_huge_chunks(d):
     return _write(ds, d / "huge_chunks.nc", encoding=enc, unlimited_dims=["time"])
 
 
+def _declared_only(path, nt, ny, nx):
+    """A NetCDF-4 file that declares a huge grid and writes no data (a few kB on disk)."""
+    import netCDF4
+
+    with netCDF4.Dataset(path, "w") as f:
+        f.createDimension("time", nt)
+        f.createDimension("lat", ny)
+        f.createDimension("lon", nx)
+        t = f.createVariable("time", "f8", ("time",))
+        t.units = TIME_UNITS
+        t[:] = np.arange(nt, dtype=float)
+        for name, n, units in (("lat", ny, "degrees_north"), ("lon", nx, "degrees_east")):
+            c = f.createVariable(name, "f8", (name,), chunksizes=(min(n, 100_000),))  # chunked: never filled
+            c.units = units
+        v = f.createVariable("pr", "f4", ("time", "lat", "lon"), chunksizes=(1, 1000, 1000), zlib=True)
+        v.units, v.standard_name = "mm", "precipitation_amount"
+    return str(path)
+
+
+def b_declared_1e5_grid(d):
+    return _declared_only(d / "declared_1e5_grid.nc", 365, 100_000, 100_000)
+
+
+def b_declared_2e6_grid(d):
+    return _declared_only(d / "declared_2e6_grid.nc", 2, 2_000_000, 2_000_000)
+
+
+def b_fill_not_declared(d):
+    data = field_values(5)
+    data[2, 1, 3] = 1e20  # missing stored as 1e20 while the file declares -9999
+    return _write(_dataset(data), d / "fill_not_declared.nc", encoding={"pr": {"_FillValue": -9999.0}})
+
+
+def b_rate_read_as_depth(d):
+    # daily depths of a few mm labelled as a rate per second: 86 400 times too much
+    return _write(_dataset(field_values(5) + 2.0, units="mm s-1"), d / "rate_read_as_depth.nc")
+
+
+def b_nan_lat_bounds(d):
+    ds = _dataset(field_values(3))
+    bounds = np.stack([LAT - 0.25, LAT + 0.25], axis=1)
+    bounds[1, 0] = np.nan
+    ds["lat_bnds"] = (("lat", "nv"), bounds)
+    ds["lat"].attrs["bounds"] = "lat_bnds"
+    return _write(ds, d / "nan_lat_bounds.nc")
+
+
+def _skeleton(f, nt, unlimited=False):
+    f.createDimension("time", None if unlimited else nt)
+    f.createDimension("lat", LAT.size)
+    f.createDimension("lon", LON.size)
+    t = f.createVariable("time", "f8", ("time",))
+    t.units, t.calendar = TIME_UNITS, "standard"
+    t[:] = np.arange(nt, dtype=float)
+    for name, values, units in (("lat", LAT, "degrees_north"), ("lon", LON, "degrees_east")):
+        c = f.createVariable(name, "f8", (name,))
+        c.units = units
+        c[:] = values
+
+
+def b_compound_type(d):
+    import netCDF4
+
+    pair = np.dtype([("depth", "f4"), ("flag", "i4")])
+    with netCDF4.Dataset(d / "compound_type.nc", "w") as f:
+        _skeleton(f, 3)
+        kind = f.createCompoundType(pair, "depth_and_flag")
+        v = f.createVariable("pr", kind, ("time", "lat", "lon"))
+        v.units = "mm"
+        v[:] = np.zeros((3, LAT.size, LON.size), dtype=pair)
+    return str(d / "compound_type.nc")
+
+
+def b_int16_shorter_than_time(d):
+    import netCDF4
+
+    with netCDF4.Dataset(d / "int16_shorter_than_time.nc", "w") as f:
+        _skeleton(f, 10, unlimited=True)  # time has 10 records ...
+        v = f.createVariable("pr", "i2", ("time", "lat", "lon"), zlib=True, chunksizes=(2, 3, 4))
+        v.units, v.scale_factor = "mm", 0.1
+        v[:5] = field_values(5)  # ... the variable only 5
+    return str(d / "int16_shorter_than_time.nc")
+
+
+def b_one_cell(d):
+    return _write(_dataset(field_values(4)[:, :1, :1], lat=LAT[:1], lon=LON[:1]), d / "one_cell.nc")
+
+
+def b_one_cell_bounds(d):
+    ds = _dataset(field_values(4)[:, :1, :1], lat=LAT[:1], lon=LON[:1])
+    ds["lat_bnds"] = (("lat", "nv"), [[LAT[0] - 0.25, LAT[0] + 0.25]])
+    ds["lon_bnds"] = (("lon", "nv"), [[LON[0] - 0.25, LON[0] + 0.25]])
+    ds["lat"].attrs["bounds"], ds["lon"].attrs["bounds"] = "lat_bnds", "lon_bnds"
+    return _write(ds, d / "one_cell_bounds.nc")
+
+
 def b_huge_sparse(d):
     """A 4 GB (logical) NetCDF-3 file whose data are holes: only a few MB are on disk.
 
@@ -521,6 +697,38 @@ def c_month_gap_files(pr):
     assert pr.sizes["time"] == 7 and np.isnan(pr.values[3]).all()
     _close(pr.values[:3], field_values(3))
     _close(pr.values[4:], field_values(3) + 10)
+
+
+def c_fill_in_later_file(pr):
+    expect = np.concatenate([field_values(3), field_values(3) + 3])
+    expect[[1, 4], 1, 1] = np.nan
+    _close(pr.values, expect)
+    assert "pr_2.nc" in pr.attrs["missing_value_heuristics"] and "pr_1.nc" not in pr.attrs["missing_value_heuristics"]
+
+
+def c_fills_differ(pr):
+    expect = np.concatenate([field_values(3) + 3 * i for i in range(3)])
+    expect[[1, 4, 7], 1, 1] = np.nan
+    _close(pr.values, expect)
+
+
+def c_absent_tile(pr):
+    expect = field_values(6)
+    expect[:, 2:, :] = np.nan
+    _close(pr.values, expect)
+    assert "absent from the store at every time" in pr.attrs["absent_chunks"]
+
+
+def c_shorter_than_time(pr):
+    assert pr.sizes["time"] == 10
+    _close(pr.values[:5], field_values(5), tol=0.05 + 1e-9)  # packing resolution is scale_factor/2
+    assert np.isnan(pr.values[5:]).all()  # never written: missing, not the fill code scaled
+
+
+def c_one_cell_bounds(pr):
+    assert pr.shape == (4, 1, 1) and pr.attrs["cell_bounds"] == "file"
+    _close([pr.lat_lower.item(), pr.lat_upper.item()], [LAT[0] - 0.25, LAT[0] + 0.25])
+    _close(pr.values, field_values(4)[:, :1, :1])
 
 
 def c_daily_2001(pr, n=5, offset=0.0):
@@ -673,6 +881,25 @@ CASES = [
     Case("daily_and_monthly_glob", "glob: a daily file and a monthly file", b_daily_and_monthly,
          Raises(MismatchError, ("month steps", "day steps", "pr_d.nc", "pr_m.nc"),
                 "MismatchError naming both files and their steps (never monthly read as daily)")),
+    Case("glob_fill_in_later_file", "glob: first file declares _FillValue -9999, second has none and stores 1e20",
+         b_glob_fill_in_later_file,
+         Opens(c_fill_in_later_file, "opens; each file's own fill handling (the 1e20 is missing, not 1e20 mm)")),
+    Case("glob_fills_differ", "glob: _FillValue -9999, 1e20 and -1 in three files (chunked and contiguous)",
+         b_glob_fills_differ, Opens(c_fills_differ, "opens; every file's own _FillValue is honoured")),
+    Case("glob_mixed_units", "glob: a file in mm and one in kg m-2 s-1", b_glob_mixed_units,
+         Raises(MismatchError, ("units", "kg m-2 s-1", "pr_1.nc", "pr_2.nc"), "MismatchError naming both files' units")),
+    Case("glob_end_stamped_and_bare", "glob: a file stamped at each day's end (time bounds) and one without bounds",
+         b_glob_end_stamped_and_bare,
+         Raises(MismatchError, ("at its end", "no time bounds", "pr_1.nc", "pr_2.nc"),
+                "MismatchError naming both files (never a one-step shift of one file)")),
+    Case("monthly_stamps_daily_bounds", "monthly stamps whose time bounds span one day each",
+         b_monthly_stamps_daily_bounds,
+         Raises(TimeAxisError, ("one day long", "one month apart", "time bounds"),
+                "TimeAxisError: bounds disagree with the spacing (never daily data 97 % missing)")),
+    Case("glob_bounds_disagree_in_later_file", "glob: the second file's time bounds span 6 hours of each day",
+         b_glob_bounds_disagree_in_later_file,
+         Raises(TimeAxisError, ("pr_2.nc", "about 6 hours long", "one day apart"),
+                "TimeAxisError naming the file whose bounds disagree with its stamps")),
     Case("nan_time_stamp", "a NaN among the time stamps", b_nan_time_stamp,
          Raises(TimeAxisError, ("missing (NaN)",), "TimeAxisError naming the missing stamp")),
     Case("reference_year_one", "'days since 0001-01-01 00:00:00', standard calendar", b_reference_year_one,
@@ -727,6 +954,11 @@ CASES = [
     Case("zarr_without_variables", "a Zarr group with no arrays", b_zarr_without_variables,
          Raises(VariableError, ("no precipitation-like variable", "none"), "VariableError (found: none)")),
     Case("zarr", "a valid Zarr store", b_zarr, Opens(c_daily_2001, "opens")),
+    Case("zarr_missing_chunk", "a Zarr store whose middle time chunk was deleted", b_zarr_missing_chunk,
+         Raises(SourceError, ("missing from the store", "time steps 2..3", "xr.open_zarr"),
+                "SourceError from the chunk listing at open (never a silent block of missing values)")),
+    Case("zarr_absent_tile", "a Zarr store written without its all-missing tile (write_empty_chunks=False)",
+         b_zarr_absent_tile, Opens(c_absent_tile, "opens; the tile is missing, noted in attrs['absent_chunks']")),
     Case("dims_t_y_x", "dims (t, y, x) with 1-D y/x coordinates in degrees", b_dims_t_y_x,
          Opens(c_plain4, "opens; renamed to time/lat/lon")),
     Case("dims_latitude_longitude", "dims (time, latitude, longitude)", b_dims_latitude_longitude,
@@ -743,6 +975,27 @@ CASES = [
          Raises(GridError, ("level", "isel", "member"), "GridError; select one level, or rename to member")),
     Case("two_candidates", "two variables 'pr' and 'rain', both in mm, no standard_name", b_two_candidates,
          Raises(VariableError, ("several", "var="), "VariableError listing both")),
+    Case("fill_not_declared", "1e20 stored for missing while _FillValue says -9999", b_fill_not_declared,
+         Raises(DataValueError, ("above the plausible", "time=2001-01-03", "max_depth_mm"),
+                "DataValueError from the depth bound, naming the first place (never 1e20 mm)")),
+    Case("rate_read_as_depth", "daily depths of 2-6 mm labelled 'mm s-1'", b_rate_read_as_depth,
+         Raises(DataValueError, ("above the plausible", "units"), "DataValueError: implausible depths; check the units")),
+    Case("declared_1e5_grid", "NetCDF-4 declaring 365 x 1e5 x 1e5 float32, no data written", b_declared_1e5_grid,
+         Raises(GridError, ("100,000 x 100,000", "cells per time step"),
+                "GridError from the declared sizes, before any coordinate or chunk index is read")),
+    Case("declared_2e6_grid", "NetCDF-4 declaring 2 x 2e6 x 2e6 float32, no data written", b_declared_2e6_grid,
+         Raises(GridError, ("2,000,000 x 2,000,000",), "GridError at once (no millions of dask chunks)")),
+    Case("nan_lat_bounds", "a NaN in the latitude bounds variable", b_nan_lat_bounds,
+         Raises(GridError, ("NaN", "latitude bounds"), "GridError at open (was a raw error in the area weights)")),
+    Case("compound_type", "'pr' of an HDF5 compound type (depth, flag)", b_compound_type,
+         Raises(VariableError, ("compound type", "depth, flag"), "VariableError naming the fields")),
+    Case("int16_shorter_than_time", "packed int16 written for 5 of 10 records of the unlimited time",
+         b_int16_shorter_than_time,
+         Opens(c_shorter_than_time, "opens; the 5 records never written are missing (NaN)")),
+    Case("one_cell", "a grid of one cell without bounds", b_one_cell,
+         Raises(GridError, ("single latitude", "bounds"), "GridError: cell size unknown; add bounds (no guess)")),
+    Case("one_cell_bounds", "a grid of one cell with CF bounds", b_one_cell_bounds,
+         Opens(c_one_cell_bounds, "opens; cell from its bounds")),
     Case("huge_chunks", "stored chunk (100000, 3, 4) on a 6-step unlimited time", b_huge_chunks,
          Opens(c_huge_chunks, "opens; values exact")),
     Case("huge_sparse", f"NetCDF-3 64-bit-data file of {HUGE_SHAPE} float32 (4 GB, sparse)", b_huge_sparse,

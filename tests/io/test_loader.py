@@ -42,9 +42,10 @@ def test_daily_flux_to_mm_per_day(tmp_path):
     ("in/day", 25.4), ("kg m-2", 1.0), ("kg m-2 d-1", 1.0), ("kg m-2 s-1", DAY),
 ])
 def test_every_unit_spelling_daily(tmp_path, units, factor):
-    path = write_cf(tmp_path / "u.nc", np.full((4, 3, 4), 0.5), units=units, standard_name=None)
+    # 5 mm per day in every spelling (a plausible depth, so the depth bound does not apply)
+    path = write_cf(tmp_path / "u.nc", np.full((4, 3, 4), 5.0 / factor), units=units, standard_name=None)
     pr = cw.open_precip(path, var="pr")
-    np.testing.assert_allclose(pr.values, 0.5 * factor, rtol=1e-12)
+    np.testing.assert_allclose(pr.values, 5.0, rtol=1e-12)
 
 
 @pytest.mark.parametrize("calendar,feb_days,year", [
@@ -52,14 +53,14 @@ def test_every_unit_spelling_daily(tmp_path, units, factor):
     ("standard", 29, 2000), ("gregorian", 28, 2001), ("proleptic_gregorian", 29, 2000), ("julian", 29, 1900),
 ])
 def test_monthly_mean_flux_uses_calendar_month_length(tmp_path, calendar, feb_days, year):
-    # A constant 1 kg m-2 s-1 monthly mean in February is feb_days x 86 400 mm.
-    path = write_cf(tmp_path / "m.nc", np.ones((3, 3, 4)), units="kg m-2 s-1", freq="MS", start=f"{year}-01-01",
-                    calendar=calendar, standard_name="precipitation_flux")
+    # A constant 1e-4 kg m-2 s-1 monthly mean in February is feb_days x 8.64 mm.
+    path = write_cf(tmp_path / "m.nc", np.full((3, 3, 4), 1e-4), units="kg m-2 s-1", freq="MS",
+                    start=f"{year}-01-01", calendar=calendar, standard_name="precipitation_flux")
     pr = cw.open_precip(path)
     assert pr.attrs["step"] == "month"
     jan_days = 30 if calendar == "360_day" else 31
-    np.testing.assert_allclose(pr.isel(time=0).values, jan_days * DAY)
-    np.testing.assert_allclose(pr.isel(time=1).values, feb_days * DAY)
+    np.testing.assert_allclose(pr.isel(time=0).values, jan_days * DAY * 1e-4, rtol=1e-12)
+    np.testing.assert_allclose(pr.isel(time=1).values, feb_days * DAY * 1e-4, rtol=1e-12)
     assert pr.attrs["calendar"] in (calendar, "standard", "gregorian", "proleptic_gregorian", "noleap", "all_leap",
                                     "360_day", "julian", "365_day", "366_day")
 
@@ -304,3 +305,107 @@ def test_error_nan_time_stamp_is_named(tmp_path):
         cw.open_precip(str(tmp_path / "n.nc"))
     msg = str(err.value)
     assert "n.nc" in msg and "missing (NaN)" in msg and "nan hours" not in msg
+
+
+# ------------------------------------------------------------------ plausible depths
+def test_default_depth_bound_is_above_the_world_records():
+    from climwidgets.io.values import default_max_depth
+
+    # world-record point rainfalls (WMO World Weather and Climate Extremes Archive; from memory):
+    # 305 mm in 42 minutes (Holt, Missouri, 1947), 1825 mm in 24 hours (Foc-Foc, La Reunion,
+    # 1966), 9300 mm in a month (Cherrapunji, July 1861)
+    assert default_max_depth(3600.0) > 305.0
+    assert default_max_depth(86400.0) > 1825.0
+    assert default_max_depth(31 * 86400.0) > 9300.0
+    assert default_max_depth(86400.0) < 10_000.0  # a rate in mm/s read as 1 mm/day is still refused
+
+
+def _with_undeclared_fill(tmp_path, name="d.nc", value=1e20):
+    data = np.full((6, 3, 4), 2.0)
+    data[4, 1, 2] = value  # missing stored as 1e20 while the file declares -9999
+    return write_cf(tmp_path / name, data, encoding={"pr": {"_FillValue": -9999.0, "zlib": True,
+                                                              "chunksizes": (2, 3, 4)}})
+
+
+@pytest.mark.parametrize("validate", ["auto", False])
+def test_implausible_depth_is_refused_naming_the_file_and_the_place(tmp_path, validate):
+    path = _with_undeclared_fill(tmp_path)
+    before = checksum(path)
+    with pytest.raises(DataValueError, match="above the plausible") as err:
+        cw.open_precip(path, validate=validate).load()
+    text = str(err.value)
+    assert "d.nc" in text and "time=2001-01-05" in text and "lat=10.5" in text and "lon=21.0" in text
+    assert "max_depth_mm" in text and err.value.__cause__ is None
+    assert checksum(path) == before
+
+
+def test_depth_bound_is_configurable_and_can_be_turned_off(tmp_path):
+    path = _with_undeclared_fill(tmp_path, value=5000.0)
+    with pytest.raises(DataValueError, match="above the plausible"):
+        cw.open_precip(path).load()
+    assert float(cw.open_precip(path, max_depth_mm=6000).max()) == 5000.0
+    assert float(cw.open_precip(path, max_depth_mm=None).max()) == 5000.0
+    with pytest.raises(DataValueError, match="above the plausible 100 mm"):
+        cw.open_precip(path, max_depth_mm=100).load()
+    with pytest.raises(cw.InputError, match="max_depth_mm"):
+        cw.open_precip(path, max_depth_mm=-1)
+
+
+def test_depth_bound_is_checked_as_chunks_are_read_without_an_extra_pass(tmp_path, monkeypatch):
+    """validate=False: opening reads nothing; the bound is checked inside the conversion task."""
+    from climwidgets.io import values
+
+    path = _with_undeclared_fill(tmp_path)
+    calls = []
+    original = values.check_depth_bound
+    monkeypatch.setattr(values, "check_depth_bound", lambda *a, **k: (calls.append(1), original(*a, **k)))
+    pr = cw.open_precip(path, validate=False, chunks={"time": 2})
+    assert calls == []
+    assert float(pr.isel(time=slice(0, 2)).max()) == 2.0  # a chunk below the bound: no exact check at all
+    assert calls == []
+    with pytest.raises(DataValueError, match="above the plausible"):
+        pr.load()
+    assert len(calls) == 1  # only the chunk whose stored maximum passes the bound is looked at
+
+
+def test_depth_bound_holds_on_the_fused_climatology_path(tmp_path):
+    data = np.full((730, 3, 4), 2.0)
+    data[400, 0, 1] = 1e20
+    path = write_cf(tmp_path / "two_years.nc", data, encoding={"pr": {"_FillValue": -9999.0, "zlib": True,
+                                                                       "chunksizes": (73, 3, 4)}})
+    pr = cw.open_precip(path, validate=False)
+    with pytest.raises(DataValueError, match="above the plausible") as err:
+        cw.climatology_bundle(pr).compute()
+    assert "two_years.nc" in str(err.value)
+
+
+# ------------------------------------------------------------------ declared sizes
+def test_too_many_chunks_are_refused_before_the_graph_is_built(tmp_path, monkeypatch):
+    from climwidgets.io import extent
+
+    path = write_cf(tmp_path / "c.nc", np.ones((40, 3, 4)))
+    monkeypatch.setattr(extent, "MAX_CHUNKS", 100)
+    with pytest.raises(GridError, match="480 chunks of 1 x 1 x 1") as err:
+        cw.open_precip(path, chunks={"time": 1, "lat": 1, "lon": 1})
+    assert "c.nc" in str(err.value) and "larger chunks" in str(err.value)
+    assert cw.open_precip(path, chunks={"time": 10}).data.npartitions == 4
+
+
+def test_declared_time_steps_are_bounded(tmp_path, monkeypatch):
+    from climwidgets.io import extent
+
+    path = write_cf(tmp_path / "t.nc", np.ones((40, 3, 4)))
+    monkeypatch.setattr(extent, "MAX_TIME_STEPS", 30)
+    with pytest.raises(GridError, match="declares 40 time steps"):
+        cw.open_precip(path)
+
+
+def test_depth_bound_in_a_glob_names_the_file_the_value_came_from(tmp_path):
+    for i, start in enumerate(("2001-01-01", "2001-01-07", "2001-01-13")):
+        data = np.full((6, 3, 4), 2.0)
+        if i == 1:
+            data[3, 0, 0] = 1e20
+        write_cf(tmp_path / f"pr_{i}.nc", data, start=start, encoding={"pr": {"_FillValue": -9999.0}})
+    with pytest.raises(DataValueError, match="above the plausible") as err:
+        cw.open_precip(str(tmp_path / "pr_*.nc")).load()
+    assert str(err.value).startswith(str(tmp_path / "pr_1.nc")) and "time=2001-01-10" in str(err.value)

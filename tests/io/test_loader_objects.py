@@ -250,3 +250,18 @@ def test_subhourly_stamps_off_the_step_grid_are_refused():
     times = pd.date_range("2001-01-01 00:10", periods=12, freq="30min")  # 00:10, 00:40, ...
     with pytest.raises(TimeAxisError, match="the given Dataset.*30min stamps that are not whole multiples.*resample to hourly"):
         cw.open_precip(_ds(times, np.ones((12, 3, 4)), units="mm"))
+
+
+def test_one_cell_object_needs_bounds_and_keeps_them_when_reopened():
+    time = pd.date_range("2001-01-01", periods=4, freq="D")
+    bare = xr.DataArray(np.ones((4, 1, 1)), dims=("time", "lat", "lon"),
+                        coords={"time": time, "lat": [10.5], "lon": [-160.5]}, attrs={"units": "mm"}, name="pr")
+    with pytest.raises(cw.InputError, match="single latitude"):
+        cw.open_precip(bare)
+    edged = bare.assign_coords(lat_lower=("lat", [10.0]), lat_upper=("lat", [11.0]),
+                               lon_lower=("lon", [-161.0]), lon_upper=("lon", [-160.0]))
+    pr = cw.open_precip(edged)
+    again = cw.open_precip(pr)  # an opened one-cell grid opens again with its own bounds
+    for p in (pr, again):
+        assert (p.lat_lower.item(), p.lat_upper.item(), p.lon_lower.item(), p.lon_upper.item()) == \
+            (10.0, 11.0, -161.0, -160.0)

@@ -100,3 +100,18 @@ def test_glob_in_memory_filesystem_combines_files(tmp_path, memfs):
             fs.pipe(f"{root}/p{k}.nc", fh.read())
     pr = cw.open_precip(f"memory://{root}/p*.nc")
     assert pr.sizes["time"] == 6 and pr.attrs["sources"].count("memory://") == 2
+
+
+@pytest.mark.parametrize("zarr_format", [2, 3])
+def test_zarr_chunk_missing_from_a_store_is_found_by_listing(tmp_path, memfs, zarr_format):
+    fs, root = memfs
+    path, ds = _dataset(tmp_path)
+    url = f"memory://{root}/cut{zarr_format}.zarr"
+    mapper = fsspec.get_mapper(url)
+    ds.chunk({"time": 2}).to_zarr(mapper, mode="w", zarr_format=zarr_format, consolidated=False)
+    lost = "pr/1.0.0" if zarr_format == 2 else "pr/c/1/0/0"
+    assert lost in mapper
+    del mapper[lost]  # as an interrupted copy leaves it
+    for source in (url, fsspec.get_mapper(url)):
+        with pytest.raises(SourceError, match=r"1 of 3 chunks of 'pr' missing from the store .*time steps 2\.\.3"):
+            cw.open_precip(source)

@@ -108,3 +108,33 @@ def test_full_axis_has_the_calendar_year_length():
     assert len(timeaxis.full_axis(first_last, "day")) == 360
     leap = xr.DataArray(pd.to_datetime(["2000-01-01", "2000-12-31"]), dims="time")
     assert len(timeaxis.full_axis(leap, "day")) == 366  # 2000 is a Gregorian leap year
+
+
+def _monthly_stamps_with_bounds(days):
+    time = xr.DataArray(pd.date_range("2001-01-01", periods=12, freq="MS"), dims="time")
+    lower = time.values
+    bounds = xr.DataArray(np.stack([lower, lower + np.timedelta64(days, "D")], axis=1), dims=("time", "nv"))
+    return time, bounds
+
+
+def test_infer_step_refuses_bounds_that_disagree_with_the_spacing():
+    # monthly stamps with one-day bounds would be read as daily data, 97 % missing
+    time, bounds = _monthly_stamps_with_bounds(1)
+    with pytest.raises(TimeAxisError, match="time bounds one day long, but its time stamps are one month apart") as e:
+        timeaxis.infer_step(time, bounds, source="f.nc")
+    assert "f.nc" in str(e.value) and "Fix: " in str(e.value)
+
+
+def test_infer_step_refuses_bounds_spanning_several_steps():
+    time = xr.DataArray(pd.date_range("2001-01-01", periods=10, freq="D"), dims="time")
+    lower = time.values - np.timedelta64(2, "D")
+    bounds = xr.DataArray(np.stack([lower, time.values + np.timedelta64(1, "D")], axis=1), dims=("time", "nv"))
+    with pytest.raises(TimeAxisError, match="about 3 days long, but its time stamps are one day apart"):
+        timeaxis.infer_step(time, bounds)
+
+
+def test_infer_step_accepts_bounds_that_match_the_spacing():
+    time = xr.DataArray(pd.date_range("2001-01-01", periods=12, freq="MS"), dims="time")
+    upper = pd.date_range("2001-02-01", periods=12, freq="MS").values
+    bounds = xr.DataArray(np.stack([time.values, upper], axis=1), dims=("time", "nv"))
+    assert timeaxis.infer_step(time, bounds) == "month"
