@@ -29,7 +29,7 @@ from ..errors import InsufficientDataError, ParameterError
 from ..geo.aggregate import ACRE_FOOT_M3, basin_means
 from ..geo.basinset import as_basin_list
 from ..provenance import history_line
-from .meta import describe, frame
+from .meta import CATALOGUE, describe, frame
 
 __all__ = ["basin_series", "basin_table", "summary_bundle", "summary_maps", "share_map", "field_means",
            "field_means_table", "basin_shares", "what_if", "basin_summary", "scenario_delta",
@@ -150,7 +150,7 @@ def summary_maps(pr: xr.DataArray | None, months=(7, 8), baseline=(1991, 2020), 
                                  fix="pass pr=... or bundle=...")
         bundle = summary_bundle(pr, months, baseline, year_start)
     ds = xr.Dataset({"seasonal_share_map": _grid_map(bundle["seasonal_share"]).assign_attrs(
-        units="1", long_name=f"seasonal share ({season_label(months)})")})
+        units="1", long_name=f"seasonal share ({season_label(months)})", **_share_display(months))})
     if "normals" in bundle:
         ds["annual_normal_map"] = _grid_map(bundle["normals"].sum("month", skipna=False)).assign_attrs(
             units="mm", long_name=f"annual normal {baseline[0]}–{baseline[1]}")
@@ -174,7 +174,15 @@ def share_map(pr: xr.DataArray, months=(7, 8), how: str = "ratio_of_sums", years
     xarray.DataArray
         The share (units "1") on the grid.
     """
-    return seasonal_fraction(pr, months=months, how=how, years=years, year_start=year_start)
+    share = seasonal_fraction(pr, months=months, how=how, years=years, year_start=year_start)
+    return share.assign_attrs(_share_display(months))
+
+
+def _share_display(months) -> dict:
+    """How a share map is shown: in % like the basin tables (the catalogue's seasonal share)."""
+    meta = CATALOGUE["seasonal_share_1"]
+    return {"label": f"seasonal share {season_label(tuple(months))}", "display_units": meta.display_units,
+            "display_scale": meta.display_scale, "display_format": meta.display_format}
 
 
 def field_means(field: xr.DataArray, basins) -> xr.Dataset:

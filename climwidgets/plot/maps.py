@@ -30,6 +30,7 @@ __all__ = [
     "projection_rule",
     "colour_style",
     "record_limits",
+    "as_shown",
     "draw_field",
     "update_field",
     "draw_basins",
@@ -171,6 +172,22 @@ def _edges(field):
     return lon_e, lat_e
 
 
+def as_shown(field, vmin, vmax, label):
+    """``field`` in the units it is shown in (its ``display_scale`` / ``display_units`` from
+    the analyses catalogue), so map, colour bar and hover read like the table: a share
+    stored as a fraction is drawn in %.  Limits given in stored units are scaled alike."""
+    scale = float(field.attrs.get("display_scale", 1.0))
+    units = field.attrs.get("display_units")
+    if scale == 1.0 or not units:
+        return field, vmin, vmax, label
+    shown = (field * scale).assign_attrs({**field.attrs, "units": units, "display_scale": 1.0})
+    shown.name = field.name
+    if label is None:
+        words = field.attrs.get("label") or field.attrs.get("long_name") or field.name or "value"
+        label = f"{words} [{units}]"
+    return (shown, None if vmin is None else vmin * scale, None if vmax is None else vmax * scale, label)
+
+
 def draw_field(ax, field, kind: str = "total", vmin=None, vmax=None, cax=None, label=None):
     """Draw a 2-D field (dims lat/lon or y/x) as a QuadMesh with a colour bar carrying units.
 
@@ -180,6 +197,7 @@ def draw_field(ax, field, kind: str = "total", vmin=None, vmax=None, cax=None, l
     import matplotlib.pyplot as plt
 
     ccrs = _ccrs()
+    field, vmin, vmax, label = as_shown(field, vmin, vmax, label)
     values = np.asarray(field.values, dtype=float)
     cmap, lo, hi = colour_style(kind, values, vmin, vmax)
     lon_e, lat_e = _edges(field)
@@ -198,6 +216,8 @@ def update_field(mesh, cbar, field, kind=None, vmin=None, vmax=None, label=None)
 
     This is the fast path for widgets: no new artists, only the array and colour limits.
     """
+    if hasattr(field, "attrs"):
+        field, vmin, vmax, label = as_shown(field, vmin, vmax, label)
     values = np.asarray(getattr(field, "values", field), dtype=float)
     kind = kind or getattr(mesh, "climwidgets_kind", "total")
     cmap, lo, hi = colour_style(kind, values, vmin, vmax)

@@ -138,6 +138,7 @@ class MapFrame(widgets.VBox):
         if field.attrs.get("ensemble_member") == MEMBER_VIEWS["spread"]["label"]:
             kind, vmin, vmax = "total", 0.0, None
         kind = kind or getattr(self.mesh, "climwidgets_kind", "total")
+        field, vmin, vmax, label = maps.as_shown(field, vmin, vmax, label)
         if self._same_grid(field):
             maps.update_field(self.mesh, self.cbar, field, kind=kind, vmin=vmin, vmax=vmax, label=label)
         else:
@@ -243,7 +244,8 @@ class MapFrame(widgets.VBox):
             return
         value, _, _ = self.value_at(*ll)
         units = "(fraction)" if self._units == "1" else self._units  # CF's "1" reads oddly on screen
-        shown = "no data" if not np.isfinite(value) else f"{value:.4g} {units}".strip()
+        fmt = (self.field.attrs.get("display_format") if self.field is not None else None) or ".4g"
+        shown = "no data" if not np.isfinite(value) else f"{format(value, fmt)} {units}".strip()
         self.readout.value = f"lon {ll[0]:.3f}, lat {ll[1]:.3f}: {shown}"
 
     def on_click(self, callback, remove=False):
@@ -277,3 +279,4 @@ class MapFrame(widgets.VBox):
         buf = io.BytesIO()
         self.figure.savefig(buf, format="png", dpi=dpi)
         return buf.getvalue()
+

@@ -199,7 +199,7 @@ class SeasonalShareWidget(HostsDrawingTools, BaseWidget):
         months = params["months"]
         label = f"{MONTH_LABELS[months[0] - 1]}–{MONTH_LABELS[months[-1] - 1]}"
         self.map.show_field(result["share"], kind="share", vmin=0.0,
-                            label=f"seasonal share {label} [fraction of the year's total]",
+                            label=f"seasonal share {label} [%]",
                             title=f"Share of annual precipitation falling {label}, "
                                   f"{result.attrs['first_year']}–{result.attrs['last_year']}")
         self.show_table(self.basin_table(result))

@@ -51,7 +51,7 @@ def test_area_and_share_agree_everywhere(demo, tmp_path):
     for table in (summary.table, seasonal.table):
         np.testing.assert_allclose(table.loc[names, "area [km²]"], area, rtol=FLOAT)
         np.testing.assert_allclose(table.loc[names, "seasonal share [%]"], 100 * share, rtol=FLOAT)
-    np.testing.assert_allclose(drawer.table.loc[names, "area_km2"], area, rtol=FLOAT)
+    np.testing.assert_allclose(drawer.table.loc[names, "area [km²]"], area, rtol=FLOAT)
 
     # the NetCDF export of the summary widget
     path = summary.export(summary._write_netcdf, "nc")

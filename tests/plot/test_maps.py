@@ -131,3 +131,29 @@ def test_lonlat_round_trip_in_a_conic_projection():
     proj = maps.choose_projection(np.array([-120, -60]), np.array([20, 55]))
     x, y = maps.lonlat_to_map(proj, -100.0, 40.0)
     assert np.allclose(maps.map_to_lonlat(proj, x[0], y[0]), (-100.0, 40.0))
+
+
+def test_a_share_is_drawn_in_the_units_of_the_tables():
+    """A field carrying the catalogue's display attributes (a fraction shown ×100 in %) is drawn,
+    labelled and limited in those units, like every table (analyses.meta)."""
+    import numpy as np
+    import xarray as xr
+    from matplotlib.figure import Figure
+
+    from climwidgets.plot.maps import as_shown, draw_field
+
+    share = xr.DataArray(np.array([[0.1, 0.2], [0.3, 0.4]]), dims=("lat", "lon"),
+                         coords={"lat": [0.5, 1.5], "lon": [0.5, 1.5]},
+                         attrs={"units": "1", "label": "seasonal share Jul-Aug", "display_units": "%",
+                                "display_scale": 100.0, "display_format": ".1f"})
+    shown, vmin, vmax, label = as_shown(share, 0.0, None, None)
+    np.testing.assert_allclose(shown.values, 100 * share.values)
+    assert (vmin, vmax, label) == (0.0, None, "seasonal share Jul-Aug [%]")
+    assert share.attrs["display_scale"] == 100.0  # the input is not modified
+    import cartopy.crs as ccrs
+
+    ax = Figure().add_subplot(1, 1, 1, projection=ccrs.PlateCarree())
+    mesh, cbar = draw_field(ax, share, kind="share", vmin=0.0)
+    np.testing.assert_allclose(np.asarray(mesh.get_array()).ravel(), [10, 20, 30, 40])
+    assert cbar.ax.get_ylabel() == "seasonal share Jul-Aug [%]"
+    assert as_shown(shown, None, None, "x")[0] is shown  # already shown: unchanged
