@@ -102,7 +102,8 @@ def _cmd_summary(args):
 
     result = run_summary(args.data, args.basins, months=_months(args.months), baseline=_years(args.baseline),
                          out_dir=args.out, overwrite=args.overwrite, progress=_progress(args), var=args.var,
-                         year_start=args.year_start, title=args.title)
+                         year_start=args.year_start, title=args.title, what_if_percent=args.what_if,
+                         what_if_months=_months(args.what_if_months) if args.what_if_months else None)
     _print_result(result)
     return EXIT_OK
 
@@ -287,6 +288,9 @@ def build_parser() -> argparse.ArgumentParser:
     s.add_argument("--baseline", default="1991-2020", help="normal period FIRST-LAST (default: 1991-2020)")
     s.add_argument("--year-start", type=int, default=1, help="first month of the 12-month year (10 = water year)")
     s.add_argument("--title", default=None, help="report title")
+    s.add_argument("--what-if", type=float, default=None, metavar="PERCENT",
+                   help="add the seasonal what-if to the report: the season's precipitation changed by PERCENT")
+    s.add_argument("--what-if-months", default=None, help="the what-if's season (default: --months)")
     out_args(s)
     s.set_defaults(func=_cmd_summary)
 

@@ -162,7 +162,8 @@ def _sources(pr) -> list[str]:
 # ------------------------------------------------------------------ summary
 def run_summary(data, basins, months=(7, 8), baseline=(1991, 2020), out_dir="out", overwrite: bool = False,
                 progress: Progress = None, *, var=None, year_start: int = 1, title: str | None = None,
-                prefix: str = "", figures: bool = True) -> JobResult:
+                prefix: str = "", figures: bool = True, what_if_percent: float | None = None,
+                what_if_months=None) -> JobResult:
     """Basin summary table (CSV), seasonal-share and normals maps (NetCDF) and HTML report.
 
     Parameters
@@ -181,13 +182,17 @@ def run_summary(data, basins, months=(7, 8), baseline=(1991, 2020), out_dir="out
         ``basin_report.html``; ``prefix`` is put in front of each name.
     overwrite
         Replace existing outputs.
+    what_if_percent, what_if_months
+        With a percentage, the report also holds the seasonal what-if (:func:`cw.what_if`):
+        the season ``what_if_months`` (default ``months``) changed by that percentage.
 
-    The data are read once: :func:`cw.basin_table` (built on :func:`cw.climatology_bundle`)
+    The report is :func:`report.content.report_content`, the one function behind the
+    page's and the notebook's report too.  The data are read once: :func:`cw.basin_table` (built on :func:`cw.climatology_bundle`)
     gives the table, the report's figures and the maps in one ``compute``, and the CSV,
     the NetCDF and the report are written from that one result.
     """
 
-    from .analyses.basins import basin_table, summary_bundle
+    from .analyses.basins import basin_table, summary_bundle, what_if
     from .analyses.run import compute
     from .compute._time import check_year_start
     from .report.content import report_content
@@ -207,13 +212,18 @@ def run_summary(data, basins, months=(7, 8), baseline=(1991, 2020), out_dir="out
     say(f"{len(basin_list)} basin(s); {_STEP_WORD.get(pr.attrs['step'], pr.attrs['step'])} data {dict(pr.sizes)}")
 
     bundle = summary_bundle(pr, months=months, baseline=baseline, year_start=year_start)
+    what = None
+    if what_if_percent is not None:
+        what = what_if(pr, basin_list, months=_check_months(what_if_months or months, job),
+                       percent=float(what_if_percent), year_start=year_start, bundle=bundle)
     lazy = (basin_table(pr, basin_list, months=months, baseline=baseline, year_start=year_start, bundle=bundle),
-            bundle[["seasonal_share", "normals"]])
+            bundle[["seasonal_share", "normals"]], what)
     with say.dask("basin table, seasonal share and normals in one pass"):
-        analysis, maps = compute(*lazy)
+        analysis, maps, what = compute(*lazy)
 
     say("basin table and report")
-    content = report_content(analysis, basin_list, pr, sources=sources, title=title or "Basin precipitation summary")
+    content = report_content(analysis, basin_list, pr, what=what, sources=sources,
+                             title=title or "Basin precipitation summary")
     table = content.table
 
     notes = [f"data: {pr.attrs.get('conversion', '')}".strip(), analysis.attrs["area"]]
