@@ -23,16 +23,7 @@ DOCUMENTED = [
     "climwidgets.atomic",
     "climwidgets.errors",
     "climwidgets.cache",
-    "climwidgets.compute.thermo",
-    "climwidgets.compute.totals",
-    "climwidgets.compute.trend",
-    "climwidgets.geo.aggregate",
-    "climwidgets.geo.area",
-    "climwidgets.geo.grid",
     "climwidgets.scale",
-]
-
-PENDING = [
     "climwidgets.compute.anomaly",
     "climwidgets.compute.arf",
     "climwidgets.compute.bundle",
@@ -42,6 +33,15 @@ PENDING = [
     "climwidgets.compute.ensemble",
     "climwidgets.compute.extremes",
     "climwidgets.compute.gev",
+    "climwidgets.compute.thermo",
+    "climwidgets.compute.totals",
+    "climwidgets.compute.trend",
+    "climwidgets.geo.aggregate",
+    "climwidgets.geo.area",
+    "climwidgets.geo.grid",
+]
+
+PENDING = [
     "climwidgets.compute.indices",
     "climwidgets.compute.linear_model",
     "climwidgets.compute.normals",

@@ -103,6 +103,41 @@ def anomaly(pr: xr.DataArray, baseline=(1991, 2020), kind: str = "percent", peri
         First month of the year (see annual_totals / seasonal_totals).
     min_fraction
         Share of baseline years needed for a normal (0.8, WMO-No. 1203).
+
+    Returns
+    -------
+    xarray.DataArray
+        The anomaly on the time axis of the period's totals (``time`` at month starts for
+        period="month", ``year`` for seasons and years), with ``units`` "mm", "%" or "1"
+        by ``kind``, the baseline and the years required in ``attrs``.  NaN where the
+        total is missing or the normal is withheld.  Lazy on dask input.
+
+    Raises
+    ------
+    climwidgets.errors.ParameterError
+        When ``kind`` or ``period`` is not one of the listed values, ``months`` is missing
+        for period="season", or ``baseline``, ``months`` or ``year_start`` are malformed.
+    climwidgets.errors.InputError
+        When ``pr`` has no usable units or step (see ``compute._time.precip_mm``).
+
+    References
+    ----------
+    WMO (2017). WMO Guidelines on the Calculation of Climate Normals. WMO-No. 1203.
+    World Meteorological Organization, Geneva (the 80 % completeness rule).
+
+    Examples
+    --------
+    >>> import numpy as np, pandas as pd, xarray as xr
+    >>> import climwidgets as cw
+    >>> time = pd.date_range("2001-01-01", periods=48, freq="MS")
+    >>> pr = xr.DataArray(np.where(time.year == 2004, 15.0, 10.0), dims="time",
+    ...                   coords={"time": time}, attrs={"units": "mm", "step": "month"})
+    >>> pon = cw.anomaly(pr, baseline=(2001, 2004), kind="percent", period="year")
+    >>> pon["year"].values, pon.values.round(1)  # normal = 135 mm a year
+    (array([2001, 2002, 2003, 2004]), array([ 88.9,  88.9,  88.9, 133.3]))
+    >>> diff = cw.anomaly(pr, baseline=(2001, 2004), kind="absolute")  # each month
+    >>> diff.values[[0, -1]]  # January 2001 and December 2004 against a 11.25 mm normal
+    array([-1.25,  3.75])
     """
     func = "anomaly"
     _check_kind(kind, func)
@@ -148,7 +183,52 @@ def tercile_category(pr: xr.DataArray, baseline=(1991, 2020), period: str = "mon
     calendar month for period="month"), numpy's default "linear" method — the method
     WMO-No. 1203 §4.5 guidance coincides with.  A total equal to a boundary counts as near
     normal.  NaN where the total is missing or the baseline fails the completeness rule.
-    Parameters as in :func:`anomaly`.
+
+    Parameters
+    ----------
+    pr
+        Precipitation depth per step in mm.
+    baseline
+        (first, last) years of the baseline period.
+    period
+        "month", "season" (needs ``months``), "year" or "water_year", as in
+        :func:`anomaly`.
+    months
+        The season for period="season".
+    year_start
+        First month of the year (see annual_totals / seasonal_totals).
+    min_fraction
+        Share of baseline years needed for the boundaries (0.8, WMO-No. 1203).
+
+    Returns
+    -------
+    xarray.DataArray
+        ``tercile_category`` with values -1, 0, +1 (CF ``flag_values`` and
+        ``flag_meanings``), units "1", on the time axis of the period's totals.  Lazy on
+        dask input.
+
+    Raises
+    ------
+    climwidgets.errors.ParameterError
+        When ``period`` is not known, ``months`` is missing for period="season", or the
+        baseline, months or year start are malformed.
+    climwidgets.errors.InputError
+        When ``pr`` has no usable units or step.
+
+    References
+    ----------
+    WMO (2017). WMO Guidelines on the Calculation of Climate Normals. WMO-No. 1203.
+    World Meteorological Organization, Geneva.
+
+    Examples
+    --------
+    >>> import numpy as np, pandas as pd, xarray as xr
+    >>> import climwidgets as cw
+    >>> time = pd.date_range("2001-01-01", periods=48, freq="MS")
+    >>> pr = xr.DataArray(np.where(time.year == 2004, 15.0, 10.0), dims="time",
+    ...                   coords={"time": time}, attrs={"units": "mm", "step": "month"})
+    >>> cw.tercile_category(pr, baseline=(2001, 2004), period="year").values
+    array([0., 0., 0., 1.])
     """
     func = "tercile_category"
     x, values, to_x, label, ys = _period_values(pr, period, months, year_start, func)

@@ -71,7 +71,7 @@ def areal_reduction_factor(duration_hours, area_km2):
 
     Raises
     ------
-    ParameterError
+    climwidgets.errors.ParameterError
         Durations not positive, areas negative, or values not finite.
 
     References
@@ -80,6 +80,14 @@ def areal_reduction_factor(duration_hours, area_km2):
     parts 1-5, U.S. Department of Commerce, Washington DC.
     Leclerc, G. & Schaake, J. C. (1972) Derivation of hydrologic frequency curves. Report 142,
     Ralph M. Parsons Laboratory for Water Resources and Hydrodynamics, MIT, Cambridge MA.
+
+    Examples
+    --------
+    >>> import climwidgets as cw
+    >>> cw.areal_reduction_factor(24.0, [0.0, 100.0, 1000.0]).values.round(3)  # 24 h, km²
+    array([1.   , 0.972, 0.914])
+    >>> cw.areal_reduction_factor([1.0, 24.0], 500.0).values.round(3)  # rises with duration
+    array([0.715, 0.925])
     """
     t = _check(duration_hours, "duration_hours", allow_zero=False)
     a = _check(area_km2, "area_km2", allow_zero=True)

@@ -87,10 +87,40 @@ def climatology_bundle(pr: xr.DataArray, months=(7, 8), baseline=None, year_star
 
     Returns
     -------
-    xr.Dataset with ``monthly_totals`` (time), ``annual_totals`` (year),
-    ``seasonal_share``, ``seasonal_share_per_year`` (season_year), ``normals`` (month) and
-    ``annual_max_<n>day`` (maxima_year), ``index_<name>`` (index_year) when asked. Per-year variables keep their own year dims
-    because a season that wraps the year end is labelled by its own 12-month year.
+    xarray.Dataset
+        ``monthly_totals`` (time), ``annual_totals`` (year), ``seasonal_share``,
+        ``seasonal_share_per_year`` (season_year), ``normals`` (month) and
+        ``annual_max_<n>day`` (maxima_year), ``index_<name>`` (index_year) when asked.
+        Per-year variables keep their own year dims because a season that wraps the year
+        end is labelled by its own 12-month year.  Lazy unless ``compute`` or
+        ``use_cache`` is True.
+
+    Raises
+    ------
+    climwidgets.errors.InputError
+        When ``pr`` has no usable units or step, or a parameter is malformed (raised by the
+        functions that make each statistic: ``seasonal_fraction``, ``normals``,
+        ``annual_maxima``, ``precip_indices``).
+
+    References
+    ----------
+    WMO (2017). WMO Guidelines on the Calculation of Climate Normals. WMO-No. 1203.
+    World Meteorological Organization, Geneva (the completeness rules of the totals and
+    normals).
+
+    Examples
+    --------
+    >>> import numpy as np, pandas as pd, xarray as xr
+    >>> import climwidgets as cw
+    >>> time = pd.date_range("2001-01-01", "2002-12-31", freq="D")
+    >>> pr = xr.DataArray(np.ones(time.size), dims="time", coords={"time": time},
+    ...                   attrs={"units": "mm", "step": "day"})  # 1 mm every day
+    >>> ds = cw.climatology_bundle(pr, months=(7, 8), compute=True)
+    >>> sorted(ds.data_vars)
+    ['annual_max_1day', 'annual_totals', 'monthly_totals', 'seasonal_share',
+     'seasonal_share_per_year']
+    >>> ds["annual_totals"].values, round(float(ds["seasonal_share"]), 4)  # 62 of 365 days
+    (array([365., 365.]), 0.1699)
     """
     months = tuple(months)
     maxima_days = tuple(maxima_days)

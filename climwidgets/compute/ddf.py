@@ -174,15 +174,30 @@ def depth_duration_frequency(pr, durations=None, periods=(2, 5, 10, 25, 50, 100)
 
     Raises
     ------
-    ParameterError
+    climwidgets.errors.ParameterError
         Bad durations, areal choice, units, basins or fit settings.
-    TimeAxisError
+    climwidgets.errors.TimeAxisError
         Monthly data, or gaps in the time axis.
 
     References
     ----------
     Hosking, J. R. M. & Wallis, J. R. (1997) Regional Frequency Analysis: An Approach Based
     on L-Moments. Cambridge University Press. doi:10.1017/CBO9780511529443
+
+    Examples
+    --------
+    >>> import numpy as np, pandas as pd, xarray as xr
+    >>> import climwidgets as cw
+    >>> time = pd.date_range("2001-01-01", "2020-12-31", freq="D")
+    >>> rng = np.random.default_rng(0)  # 20 years of invented daily rain at one point
+    >>> pr = xr.DataArray(rng.gamma(0.5, 8.0, time.size), dims="time", coords={"time": time},
+    ...                   attrs={"units": "mm", "step": "day"})
+    >>> table = cw.depth_duration_frequency(pr, durations=(1, 2, 3), periods=(2, 10, 100),
+    ...                                     n_boot=50)
+    >>> table["estimate"].values.round(1)  # rows: 1, 2, 3 days; columns: 2, 10, 100 years
+    array([[41.7, 56.1, 71.2],
+           [48.4, 64.3, 81.3],
+           [57.3, 72.7, 84.5]])
     """
     pr, step = precip_mm(pr, "depth_duration_frequency")
     src = source_name(pr)

@@ -44,6 +44,36 @@ def member_dim(obj, dim=None, func: str = "ensemble_summary", required: bool = T
     ``dim`` given: it must be a dimension of ``obj``.  Otherwise the first of
     :data:`MEMBER_DIMS` present is used.  With ``required=False`` a missing member
     dimension gives None instead of an error.
+
+    Parameters
+    ----------
+    obj
+        A DataArray or Dataset.
+    dim
+        The member dimension's name, or None to detect one of :data:`MEMBER_DIMS`.
+    func
+        The calling function's name, for the error message.
+    required
+        False: return None when there is no member dimension.
+
+    Returns
+    -------
+    str or None
+        The member dimension's name; None only with ``required=False``.
+
+    Raises
+    ------
+    climwidgets.errors.ParameterError
+        When ``dim`` is not a dimension of ``obj``, several member-like dimensions are
+        present, or none is and ``required`` is True.
+
+    Examples
+    --------
+    >>> import numpy as np, xarray as xr
+    >>> from climwidgets.compute.ensemble import member_dim
+    >>> runs = xr.DataArray(np.zeros((3, 2)), dims=("realization", "lat"))
+    >>> member_dim(runs), member_dim(runs.isel(realization=0), required=False)
+    ('realization', None)
     """
     if dim is not None:
         if not isinstance(dim, str) or dim not in obj.dims:
@@ -70,6 +100,37 @@ def check_members(hist, future, dim=None, func: str = "delta_change"):
     """The member dimension shared by a historical and a future run (None for single runs).
 
     Both runs must have the member dimension, or neither; its labels must be the same.
+
+    Parameters
+    ----------
+    hist, future
+        The historical and future runs (DataArrays).
+    dim
+        The member dimension's name, or None to detect one of :data:`MEMBER_DIMS` (then
+        single runs without one are accepted).
+    func
+        The calling function's name, for the error message.
+
+    Returns
+    -------
+    str or None
+        The shared member dimension, or None when both are single runs.
+
+    Raises
+    ------
+    climwidgets.errors.MismatchError
+        When only one run has the member dimension, or their member labels differ.
+    climwidgets.errors.ParameterError
+        When ``dim`` is given and is not a dimension of the runs.
+
+    Examples
+    --------
+    >>> import numpy as np, xarray as xr
+    >>> from climwidgets.compute.ensemble import check_members
+    >>> hist = xr.DataArray(np.zeros((2, 3)), dims=("member", "time"),
+    ...                     coords={"member": ["run1", "run2"]})
+    >>> check_members(hist, hist + 1.0), check_members(hist.isel(member=0), hist.isel(member=1))
+    ('member', None)
     """
     dh = member_dim(hist, dim, func, required=dim is not None)
     df = member_dim(future, dim, func, required=dim is not None)
@@ -127,13 +188,24 @@ def ensemble_summary(field: xr.DataArray, dim=None, change=None, quantiles=(0.25
 
     Raises
     ------
-    ParameterError
+    climwidgets.errors.ParameterError
         No member dimension, an unknown ``change`` kind, or bad quantiles.
 
     References
     ----------
     Hyndman, R. J. and Fan, Y. (1996): Sample quantiles in statistical packages. The
     American Statistician 50, 361–365, doi:10.1080/00031305.1996.10473566.
+
+    Examples
+    --------
+    >>> import xarray as xr
+    >>> import climwidgets as cw
+    >>> change = xr.DataArray([[-5.0, 2.0], [10.0, 4.0], [20.0, 6.0], [35.0, -1.0]],
+    ...                       dims=("member", "lat"), coords={"lat": [0.5, 1.5]},
+    ...                       attrs={"units": "%"})  # four members' change at two cells
+    >>> ds = cw.ensemble_summary(change, change="difference")
+    >>> ds["median"].values, ds["iqr"].values, ds["agreement"].values
+    (array([15.,  3.]), array([17.5 ,  3.25]), array([0.75, 0.75]))
     """
     func = "ensemble_summary"
     if not isinstance(field, xr.DataArray):

@@ -141,6 +141,36 @@ def annual_maxima(pr, duration_days=1, duration_hours=None, year_start=1,
     -------
     xarray.DataArray or xarray.Dataset
         Dims ``year`` plus the spatial dims; units "mm".
+
+    Raises
+    ------
+    climwidgets.errors.ParameterError
+        A duration not in the lists, or a bad ``year_start``, ``min_valid_fraction`` or
+        ``fixed_to_sliding``.
+    climwidgets.errors.TimeAxisError
+        Monthly input, gaps in the time axis, or no year complete enough.
+    climwidgets.errors.DataValueError
+        Negative depths (numpy-backed input; dask input is not scanned).
+
+    References
+    ----------
+    Hershfield, D. M. (1961). Rainfall frequency atlas of the United States for durations
+    from 30 minutes to 24 hours and return periods from 1 to 100 years. Technical Paper
+    40, U.S. Weather Bureau, Washington DC (the fixed-to-sliding factor 1.13).
+
+    Examples
+    --------
+    >>> import numpy as np, pandas as pd, xarray as xr
+    >>> import climwidgets as cw
+    >>> time = pd.date_range("2001-01-01", "2002-12-31", freq="D")
+    >>> depth = np.ones(time.size)
+    >>> depth[[40, 41, 400]] = 30.0, 20.0, 45.0  # 10-11 February 2001, 5 February 2002
+    >>> pr = xr.DataArray(depth, dims="time", coords={"time": time},
+    ...                   attrs={"units": "mm", "step": "day"})
+    >>> cw.annual_maxima(pr).values, cw.annual_maxima(pr, duration_days=2).values
+    (array([30., 45.]), array([50., 46.]))
+    >>> cw.annual_maxima(pr, return_dates=True)["end"].values.astype("datetime64[D]")
+    array(['2001-02-10', '2002-02-05'], dtype='datetime64[D]')
     """
     pr, step = precip_mm(pr, "annual_maxima")
     src = source_name(pr)
@@ -154,6 +184,43 @@ def annual_maxima_window(pr, n, label, year_start=1, min_valid_fraction=DEFAULT_
 
     For callers that need durations outside the widget's short lists (the depth-duration-
     frequency tables); ``pr`` is checked again, ``n`` and ``label`` are trusted.
+
+    Parameters
+    ----------
+    pr
+        Precipitation depth per step (mm), daily or hourly, as in :func:`annual_maxima`.
+    n
+        Window length in steps (a positive whole number, not checked).
+    label
+        The duration in words, for the attrs (e.g. "4 day").
+    year_start, min_valid_fraction, fixed_to_sliding, return_dates
+        As in :func:`annual_maxima`.
+
+    Returns
+    -------
+    xarray.DataArray or xarray.Dataset
+        As :func:`annual_maxima`.
+
+    Raises
+    ------
+    climwidgets.errors.ParameterError
+        A bad ``year_start``, ``min_valid_fraction`` or ``fixed_to_sliding``.
+    climwidgets.errors.TimeAxisError
+        Gaps in the time axis, or no year complete enough.
+    climwidgets.errors.DataValueError
+        Negative depths (numpy-backed input).
+
+    Examples
+    --------
+    >>> import numpy as np, pandas as pd, xarray as xr
+    >>> from climwidgets.compute.extremes import annual_maxima_window
+    >>> time = pd.date_range("2001-01-01", "2002-12-31", freq="D")
+    >>> depth = np.ones(time.size)
+    >>> depth[[40, 41, 400]] = 30.0, 20.0, 45.0  # 10-11 February 2001, 5 February 2002
+    >>> pr = xr.DataArray(depth, dims="time", coords={"time": time},
+    ...                   attrs={"units": "mm", "step": "day"})
+    >>> annual_maxima_window(pr, 4, "4 day").values  # 4-day maxima
+    array([52., 48.])
     """
     pr, step = precip_mm(pr, "annual_maxima")
     src = source_name(pr)

@@ -313,7 +313,35 @@ def _check_periods(periods):
 # ----------------------------------------------------------------------------- public
 
 def lmoments(x):
-    """Sample L-moments of a 1-D series: dict with b0..b3, l1..l4, t3, t4 (NaN dropped)."""
+    """Sample L-moments of a 1-D series: dict with b0..b3, l1..l4, t3, t4 (NaN dropped).
+
+    Parameters
+    ----------
+    x
+        A 1-D sequence of values; NaN are dropped.
+
+    Returns
+    -------
+    dict
+        The unbiased probability-weighted moments ``b0`` to ``b3``, the L-moments ``l1`` to
+        ``l4`` and the ratios ``t3`` (L-skewness) and ``t4`` (L-kurtosis), as floats.
+
+    References
+    ----------
+    Hosking, J. R. M. (1990). L-moments: analysis and estimation of distributions using
+    linear combinations of order statistics. Journal of the Royal Statistical Society,
+    Series B, 52(1), 105-124. https://doi.org/10.1111/j.2517-6161.1990.tb01775.x
+
+    Hosking, J. R. M. and Wallis, J. R. (1997). Regional Frequency Analysis: An Approach
+    Based on L-Moments. Cambridge University Press. https://doi.org/10.1017/CBO9780511529443
+
+    Examples
+    --------
+    >>> from climwidgets.compute.gev import lmoments
+    >>> m = lmoments([1.0, 2.0, 3.0, 4.0, 5.0])  # hand-computed: l1 = 3, l2 = 1, symmetric
+    >>> {k: round(float(m[k]), 3) for k in ("l1", "l2", "t3", "t4")}
+    {'l1': 3.0, 'l2': 1.0, 't3': 0.0, 't4': 0.0}
+    """
     b0, b1, b2, b3 = _pwm(x)
     l1, l2 = b0, 2 * b1 - b0
     l3, l4 = 6 * b2 - 6 * b1 + b0, 20 * b3 - 30 * b2 + 12 * b1 - b0
@@ -343,10 +371,40 @@ def gev_lmoments(annual_max, dist="gev", min_years=10, dim="year"):
         ``attrs["sign_convention"]``), ``n_years``, and the sample L-moments ``l1``, ``l2``,
         ``t3``, ``t4``.
 
+    dim
+        The name of the year dimension.
+
     Raises
     ------
-    InsufficientDataError
+    climwidgets.errors.ParameterError
+        An unknown ``dist``, ``min_years`` below 4, a plain array that is not 1-D, or no
+        ``dim`` dimension.
+    climwidgets.errors.InsufficientDataError
         The year axis is shorter than ``min_years``, or (numpy input) no cell has enough years.
+
+    References
+    ----------
+    Hosking, J. R. M. (1990). L-moments: analysis and estimation of distributions using
+    linear combinations of order statistics. Journal of the Royal Statistical Society,
+    Series B, 52(1), 105-124. https://doi.org/10.1111/j.2517-6161.1990.tb01775.x
+
+    Hosking, J. R. M. and Wallis, J. R. (1997). Regional Frequency Analysis: An Approach
+    Based on L-Moments. Cambridge University Press. https://doi.org/10.1017/CBO9780511529443
+
+    Hosking, J. R. M., Wallis, J. R. and Wood, E. F. (1985). Estimation of the generalized
+    extreme-value distribution by the method of probability-weighted moments.
+    Technometrics, 27(3), 251-261. https://doi.org/10.1080/00401706.1985.10488049
+
+    Examples
+    --------
+    >>> import numpy as np, xarray as xr
+    >>> import climwidgets as cw
+    >>> amax = xr.DataArray([38., 52., 41., 67., 45., 49., 58., 36., 44., 71.,
+    ...                      50., 47., 62., 40., 55., 43., 80., 48., 53., 46.], dims="year",
+    ...                     coords={"year": np.arange(2001, 2021)}, attrs={"units": "mm"})
+    >>> params = cw.gev_lmoments(amax)
+    >>> {k: round(float(params[k]), 3) for k in ("loc", "scale", "shape")}  # k < 0: heavy tail
+    {'loc': 45.495, 'scale': 8.301, 'shape': -0.106}
     """
     _check_dist(dist)
     _check_min_years(min_years)
@@ -392,12 +450,57 @@ def return_levels(annual_max, periods=(2, 10, 25, 50, 100), ci=0.9, n_boot=1000,
     Monte-Carlo error of neighbouring cells is correlated.  The interval reflects sampling
     error of the fit only, not the choice of distribution or non-stationarity.
 
+    Parameters
+    ----------
+    annual_max
+        Annual maxima with a ``year`` dimension, or a 1-D sequence (as in
+        :func:`gev_lmoments`).
+    periods
+        Return periods in years, each greater than 1.
+    ci
+        Confidence level of the interval, strictly between 0 and 1.
+    n_boot
+        Number of bootstrap samples (at least 50; 1000 or more for final numbers).
+    seed
+        Seed of the bootstrap's random draws (results are reproducible).
+    dist, min_years, dim
+        As in :func:`gev_lmoments`.
+
     Returns
     -------
     xarray.Dataset
         ``estimate``, ``lower``, ``upper`` over a ``period`` dimension (years), plus the
         fitted ``loc``, ``scale``, ``shape``; ``attrs["cautions"]`` holds
         :data:`~climwidgets.compute.warming.DESIGN_DEPTH_CAUTIONS`.
+
+    Raises
+    ------
+    climwidgets.errors.ParameterError
+        Bad ``periods``, ``ci``, ``n_boot``, ``dist`` or ``min_years``, or no ``dim``.
+    climwidgets.errors.InsufficientDataError
+        Too few years (see :func:`gev_lmoments`).
+
+    References
+    ----------
+    Hosking, J. R. M. (1990). L-moments: analysis and estimation of distributions using
+    linear combinations of order statistics. Journal of the Royal Statistical Society,
+    Series B, 52(1), 105-124. https://doi.org/10.1111/j.2517-6161.1990.tb01775.x
+
+    Hosking, J. R. M. and Wallis, J. R. (1997). Regional Frequency Analysis: An Approach
+    Based on L-Moments. Cambridge University Press. https://doi.org/10.1017/CBO9780511529443
+
+    Examples
+    --------
+    >>> import numpy as np, xarray as xr
+    >>> import climwidgets as cw
+    >>> amax = xr.DataArray([38., 52., 41., 67., 45., 49., 58., 36., 44., 71.,
+    ...                      50., 47., 62., 40., 55., 43., 80., 48., 53., 46.], dims="year",
+    ...                     coords={"year": np.arange(2001, 2021)}, attrs={"units": "mm"})
+    >>> levels = cw.return_levels(amax, periods=(10, 100), n_boot=200)
+    >>> levels["estimate"].values.round(1)  # the 10- and 100-year depths (mm)
+    array([66.6, 94.7])
+    >>> bool(((levels["lower"] < levels["estimate"]) & (levels["estimate"] < levels["upper"])).all())
+    True
     """
     _check_dist(dist)
     _check_min_years(min_years)
@@ -446,6 +549,48 @@ def return_period(annual_max_or_params, depth, dist="gev", min_years=10, dim="ye
     :func:`gev_lmoments`) or annual maxima to be fitted first.  ``depth`` broadcasts against
     the parameters (a scalar, or a DataArray).  T = 1 / (1 - F(depth)); depths above a
     bounded upper tail (k > 0) give infinity, depths below a bounded lower tail give 1.
+
+    Parameters
+    ----------
+    annual_max_or_params
+        A Dataset with ``loc``, ``scale`` and ``shape``, or annual maxima to fit first.
+    depth
+        The depth(s), in the units of the maxima; a scalar, array or DataArray.
+    dist, min_years, dim
+        As in :func:`gev_lmoments`, for maxima that are fitted first.
+
+    Returns
+    -------
+    xarray.DataArray
+        ``return_period`` in years (units "years"), broadcast over ``depth`` and the
+        parameters' cells.
+
+    Raises
+    ------
+    climwidgets.errors.ParameterError
+        Bad fit settings, when maxima are passed (see :func:`gev_lmoments`).
+    climwidgets.errors.InsufficientDataError
+        Too few years, when maxima are passed.
+
+    References
+    ----------
+    Hosking, J. R. M. (1990). L-moments: analysis and estimation of distributions using
+    linear combinations of order statistics. Journal of the Royal Statistical Society,
+    Series B, 52(1), 105-124. https://doi.org/10.1111/j.2517-6161.1990.tb01775.x
+
+    Hosking, J. R. M. and Wallis, J. R. (1997). Regional Frequency Analysis: An Approach
+    Based on L-Moments. Cambridge University Press. https://doi.org/10.1017/CBO9780511529443
+
+    Examples
+    --------
+    >>> import numpy as np, xarray as xr
+    >>> import climwidgets as cw
+    >>> amax = xr.DataArray([38., 52., 41., 67., 45., 49., 58., 36., 44., 71.,
+    ...                      50., 47., 62., 40., 55., 43., 80., 48., 53., 46.], dims="year",
+    ...                     coords={"year": np.arange(2001, 2021)}, attrs={"units": "mm"})
+    >>> params = cw.gev_lmoments(amax)
+    >>> round(float(cw.return_period(params, 70.0)), 1)  # 70 mm: once in about 14 years
+    13.6
     """
     if isinstance(annual_max_or_params, xr.Dataset) and {"loc", "scale", "shape"} <= set(annual_max_or_params):
         params = annual_max_or_params
@@ -466,6 +611,41 @@ def gev_mle(series, min_years=10):
     Started from the L-moment fit.  Returns a Dataset of scalars ``loc``, ``scale``,
     ``shape`` in the same convention as :func:`gev_lmoments` (shape = Hosking's k =
     scipy's c).  MLE of the shape is erratic for short records; prefer L-moments there.
+
+    Parameters
+    ----------
+    series
+        A 1-D sequence or DataArray of annual maxima; NaN are dropped.
+    min_years
+        The fewest non-missing values accepted (at least 4).
+
+    Returns
+    -------
+    xarray.Dataset
+        Scalars ``loc``, ``scale`` (units of the input), ``shape`` and ``n_years``.
+
+    Raises
+    ------
+    climwidgets.errors.ParameterError
+        A series that is not 1-D, or ``min_years`` below 4.
+    climwidgets.errors.InsufficientDataError
+        Fewer than ``min_years`` non-missing values.
+
+    References
+    ----------
+    Coles, S. (2001). An Introduction to Statistical Modeling of Extreme Values. Springer,
+    London. https://doi.org/10.1007/978-1-4471-3675-0
+
+    Examples
+    --------
+    >>> import numpy as np, xarray as xr
+    >>> from climwidgets.compute.gev import gev_mle
+    >>> amax = xr.DataArray([38., 52., 41., 67., 45., 49., 58., 36., 44., 71.,
+    ...                      50., 47., 62., 40., 55., 43., 80., 48., 53., 46.], dims="year",
+    ...                     coords={"year": np.arange(2001, 2021)}, attrs={"units": "mm"})
+    >>> fit = gev_mle(amax)  # close to the L-moment fit (loc 45.5, scale 8.3, shape -0.11)
+    >>> round(float(fit["loc"])), round(float(fit["scale"])), round(float(fit["shape"]), 1)
+    (46, 8, -0.1)
     """
     _check_min_years(min_years)
     arr = np.asarray(series.values if isinstance(series, xr.DataArray) else series, dtype=float)
