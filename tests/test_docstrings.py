@@ -33,6 +33,11 @@ DOCUMENTED = [
     "climwidgets.compute.ensemble",
     "climwidgets.compute.extremes",
     "climwidgets.compute.gev",
+    "climwidgets.compute.indices",
+    "climwidgets.compute.linear_model",
+    "climwidgets.compute.normals",
+    "climwidgets.compute.orographic",
+    "climwidgets.compute.regional",
     "climwidgets.compute.thermo",
     "climwidgets.compute.totals",
     "climwidgets.compute.trend",
@@ -42,11 +47,6 @@ DOCUMENTED = [
 ]
 
 PENDING = [
-    "climwidgets.compute.indices",
-    "climwidgets.compute.linear_model",
-    "climwidgets.compute.normals",
-    "climwidgets.compute.orographic",
-    "climwidgets.compute.regional",
     "climwidgets.compute.regrid",
     "climwidgets.compute.scenario",
     "climwidgets.compute.seasonal",

@@ -246,7 +246,48 @@ def _whole_time(da):
 def wet_day_percentiles(pr, base_period=(1961, 1990), year_start=1, percentiles=(95, 99)):
     """Percentiles of the base period's wet days (>= 1 mm) per cell, Hyndman & Fan type 8.
 
-    Returns a DataArray with a ``percentile`` dimension, units "mm".  See the module notes.
+    See the module notes.
+
+    Parameters
+    ----------
+    pr
+        Daily precipitation depth (mm), as in :func:`precip_indices`.
+    base_period
+        (first, last) years of the base period, inside the data's complete years; None
+        uses every complete year.
+    year_start
+        First month of the 12-month years that make the base period.
+    percentiles
+        The percentiles (0-100) to compute.
+
+    Returns
+    -------
+    xarray.DataArray
+        ``wet_day_percentile`` with a ``percentile`` dimension, units "mm"; NaN in a cell
+        without wet days.  Lazy on dask input.
+
+    Raises
+    ------
+    climwidgets.errors.TimeAxisError
+        Not daily data.
+    climwidgets.errors.ParameterError
+        A base period outside the data's complete years, or a bad ``year_start``.
+
+    References
+    ----------
+    Hyndman, R. J. & Fan, Y. (1996) Sample quantiles in statistical packages. The American
+    Statistician 50, 361-365. doi:10.1080/00031305.1996.10473566
+
+    Examples
+    --------
+    >>> import numpy as np, pandas as pd, xarray as xr
+    >>> from climwidgets.compute.indices import wet_day_percentiles
+    >>> time = pd.date_range("2001-01-01", "2002-12-31", freq="D")
+    >>> week = [0.0, 0.0, 2.0, 12.0, 0.5, 25.0, 0.0]  # the same invented week, repeated
+    >>> pr = xr.DataArray(np.resize(week, time.size), dims="time", coords={"time": time},
+    ...                   attrs={"units": "mm", "step": "day"})
+    >>> wet_day_percentiles(pr, base_period=None, percentiles=(50, 95)).values
+    array([12., 25.])
     """
     pr, step = precip_mm(pr, "wet_day_percentiles")
     src = source_name(pr)
@@ -314,11 +355,11 @@ def precip_indices(pr, names=None, base_period=(1961, 1990), year_start=1, freq=
 
     Raises
     ------
-    ParameterError
+    climwidgets.errors.ParameterError
         Unknown index, bad frequency, threshold or base period.
-    TimeAxisError
+    climwidgets.errors.TimeAxisError
         Not daily, or gaps in the time axis.
-    DataValueError
+    climwidgets.errors.DataValueError
         Negative depths (checked on numpy-backed input).
 
     References
@@ -329,6 +370,20 @@ def precip_indices(pr, names=None, base_period=(1961, 1990), year_start=1, freq=
     temperature and precipitation data. WIREs Climate Change 2, 851-870. doi:10.1002/wcc.147
     Hyndman, R. J. & Fan, Y. (1996) Sample quantiles in statistical packages. The American
     Statistician 50, 361-365. doi:10.1080/00031305.1996.10473566
+
+    Examples
+    --------
+    >>> import numpy as np, pandas as pd, xarray as xr
+    >>> import climwidgets as cw
+    >>> time = pd.date_range("2001-01-01", "2002-12-31", freq="D")
+    >>> week = [0.0, 0.0, 2.0, 12.0, 0.5, 25.0, 0.0]  # the same invented week, repeated
+    >>> pr = xr.DataArray(np.resize(week, time.size), dims="time", coords={"time": time},
+    ...                   attrs={"units": "mm", "step": "day"})
+    >>> ds = cw.precip_indices(pr, names=("PRCPTOT", "R10mm", "CDD", "CWD", "SDII"),
+    ...                        base_period=None)
+    >>> {name: ds[name].values.tolist() for name in ds.data_vars}  # 2001 and 2002
+    {'PRCPTOT': [2028.0, 2028.0], 'R10mm': [104.0, 104.0], 'CDD': [3.0, 3.0],
+     'CWD': [2.0, 2.0], 'SDII': [13.0, 13.0]}
     """
     pr, step = precip_mm(pr, "precip_indices")
     src = source_name(pr)
