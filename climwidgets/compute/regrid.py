@@ -271,11 +271,52 @@ def regrid(field: xr.DataArray, target, method: str = "conservative",
         ``"renormalise"``: the mean over the valid part of each target cell, NaN where the
         valid part covers less than ``min_coverage`` of the cell.  ``"strict"``: NaN
         wherever the cell is not fully covered by valid source cells.
+    min_coverage
+        With ``coverage="renormalise"``: the least fraction of a target cell, in (0, 1],
+        that valid source data must cover (default 0.5).
     return_coverage
         If True return ``(regridded, coverage)``; ``coverage`` is the fraction (units "1")
         of each target cell covered by valid source data, per time step.
 
-    The result is lazy on dask input (one task per time chunk).
+    Returns
+    -------
+    xarray.DataArray or tuple of xarray.DataArray
+        The field on the target's (lat, lon) grid (with the target's bounds as
+        ``lat_lower`` ... coordinates where known), the field's attrs and a history line;
+        with ``return_coverage`` the pair ``(regridded, coverage)``.  Lazy on dask input
+        (one task per time chunk).
+
+    Raises
+    ------
+    climwidgets.errors.ParameterError
+        An unknown method or coverage rule, ``min_coverage`` outside (0, 1], a field that
+        is not a DataArray, or bilinear regridding of a curvilinear source.
+    climwidgets.errors.GridError
+        A field or target without usable lat/lon, or grids that do not overlap.
+
+    References
+    ----------
+    Jones, P. W. (1999). First- and second-order conservative remapping schemes for grids
+    in spherical coordinates. Monthly Weather Review, 127(9), 2204-2210.
+    https://doi.org/10.1175/1520-0493(1999)127<2204:FASOCR>2.0.CO;2
+
+    Examples
+    --------
+    >>> import numpy as np, xarray as xr
+    >>> import climwidgets as cw
+    >>> field = xr.DataArray(np.tile([1.0, 3.0, 5.0, 7.0], (4, 1)), dims=("lat", "lon"),
+    ...                      coords={"lat": [0.5, 1.5, 2.5, 3.5], "lon": [10.5, 11.5, 12.5, 13.5]},
+    ...                      attrs={"units": "mm"})  # 1-degree cells
+    >>> coarse = {"lat": np.array([1.0, 3.0]), "lon": np.array([11.0, 13.0])}  # 2-degree cells
+    >>> cw.regrid(field, coarse).values  # each coarse cell: the mean of its four
+    array([[2., 6.],
+           [2., 6.]])
+    >>> field[0, 0] = np.nan  # a missing cell: the mean of the valid part, and its coverage
+    >>> out, cov = cw.regrid(field, coarse, return_coverage=True)
+    >>> out.values.round(3), cov.values.round(2)
+    (array([[2.333, 6.   ],
+           [2.   , 6.   ]]), array([[0.75, 1.  ],
+           [1.  , 1.  ]]))
     """
     _check_params(method, coverage, min_coverage)
     if not isinstance(field, xr.DataArray):

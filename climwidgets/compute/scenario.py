@@ -79,7 +79,43 @@ def _calendar_of(da) -> str:
 def check_model_runs(model_hist, model_future, dim, func):
     """Validate a historical and a future run: precipitation convention, members, calendar.
 
-    Returns the member dimension (None for single runs).
+    Parameters
+    ----------
+    model_hist, model_future
+        The historical and future runs (DataArrays of depth per step, mm).
+    dim
+        The member dimension's name, or None to detect one of the usual names.
+    func
+        The calling function's name, for error messages.
+
+    Returns
+    -------
+    str or None
+        The member dimension (None for single runs).
+
+    Raises
+    ------
+    climwidgets.errors.ParameterError
+        A run that is not a DataArray.
+    climwidgets.errors.InputError
+        A run not in the precipitation convention (units, step), named in the message.
+    climwidgets.errors.MismatchError
+        Runs with different members, or only one with a member dimension.
+    climwidgets.errors.CalendarError
+        Runs on different calendars.
+
+    Examples
+    --------
+    >>> import numpy as np, pandas as pd, xarray as xr
+    >>> from climwidgets.compute.scenario import check_model_runs
+    >>> def monthly(first, years, mm):  # the same depth every month
+    ...     time = pd.date_range(f"{first}-01-01", periods=12 * years, freq="MS")
+    ...     return xr.DataArray(np.full(time.size, mm), dims="time", coords={"time": time},
+    ...                         attrs={"units": "mm", "step": "month"})
+    >>> hist = xr.concat([monthly(2001, 2, 8.0)] * 2, dim="member")
+    >>> future = xr.concat([monthly(2051, 2, 9.6), monthly(2051, 2, 12.0)], dim="member")
+    >>> check_model_runs(hist, future, None, "example")
+    'member'
     """
     for label, da in (("model_hist", model_hist), ("model_future", model_future)):
         _check_series(da, label, func)
@@ -106,7 +142,39 @@ def _check_series(da, label, func):
 
 
 def period_or_default(da, period, label, func):
-    """(first, last) complete years of ``da`` to use: ``period`` checked, or all complete years."""
+    """(first, last) complete years of ``da`` to use: ``period`` checked, or all complete years.
+
+    Parameters
+    ----------
+    da
+        Precipitation depth per step with a ``time`` axis.
+    period
+        (first, last) years, or None for every complete calendar year of ``da``.
+    label, func
+        The input's and the calling function's names, for error messages.
+
+    Returns
+    -------
+    tuple of int
+        (first, last) years.
+
+    Raises
+    ------
+    climwidgets.errors.InsufficientDataError
+        No complete calendar year, or a ``period`` with years that are not complete.
+    climwidgets.errors.ParameterError
+        A ``period`` that is not a pair of years.
+
+    Examples
+    --------
+    >>> import numpy as np, pandas as pd, xarray as xr
+    >>> from climwidgets.compute.scenario import period_or_default
+    >>> time = pd.date_range("2001-01-01", "2003-06-30", freq="D")  # 2003 is not complete
+    >>> pr = xr.DataArray(np.ones(time.size), dims="time", coords={"time": time},
+    ...                   attrs={"units": "mm", "step": "day"})
+    >>> period_or_default(pr, None, "obs", "example")
+    (2001, 2002)
+    """
     years = _complete_years(da)
     if not years:
         raise InsufficientDataError(f"{label} has no complete calendar year", source=func, variable=label,
@@ -262,18 +330,18 @@ def delta_change(obs: xr.DataArray, model_hist: xr.DataArray, model_future: xr.D
 
     Raises
     ------
-    ParameterError
+    climwidgets.errors.ParameterError
         Unknown method or group, bad trace or max_ratio, observations with a member dimension.
-    UnitsError, TimeAxisError
+    climwidgets.errors.UnitsError, climwidgets.errors.TimeAxisError
         An input not in mm per step or without a usable time axis.
-    MismatchError
+    climwidgets.errors.MismatchError
         Runs with different members, or one without the member dimension; quantile delta
         with different time steps or without common calibration years.
-    CalendarError
+    climwidgets.errors.CalendarError
         Historical and future runs on different calendars.
-    InsufficientDataError
+    climwidgets.errors.InsufficientDataError
         A requested period not covered by complete years.
-    GridError
+    climwidgets.errors.GridError
         Observed and model grids that do not overlap.
 
     References
@@ -284,6 +352,21 @@ def delta_change(obs: xr.DataArray, model_hist: xr.DataArray, model_future: xr.D
 
     Hyndman, R. J. and Fan, Y. (1996): Sample quantiles in statistical packages. The
     American Statistician 50, 361–365, doi:10.1080/00031305.1996.10473566.
+
+    Examples
+    --------
+    >>> import numpy as np, pandas as pd, xarray as xr
+    >>> import climwidgets as cw
+    >>> def monthly(first, years, mm):  # the same depth every month
+    ...     time = pd.date_range(f"{first}-01-01", periods=12 * years, freq="MS")
+    ...     return xr.DataArray(np.full(time.size, mm), dims="time", coords={"time": time},
+    ...                         attrs={"units": "mm", "step": "month"})
+    >>> hist = xr.concat([monthly(2001, 2, 8.0)] * 2, dim="member")
+    >>> future = xr.concat([monthly(2051, 2, 9.6), monthly(2051, 2, 12.0)], dim="member")
+    >>> obs = monthly(2001, 2, 10.0)  # two members: +20 % and +50 % in every month
+    >>> scenario, factors = cw.delta_change(obs, hist, future, return_factors=True)
+    >>> factors.isel(month=0).values, scenario.isel(time=0).values
+    (array([1.2, 1.5]), array([12., 15.]))
     """
     func = "delta_change"
     if method not in _METHODS:

@@ -32,7 +32,25 @@ __all__ = ["seasonal_totals", "seasonal_fraction", "season_label"]
 
 
 def season_label(months) -> str:
-    """Plain label such as 'Jul-Aug' or 'Nov-Mar'."""
+    """Plain label such as 'Jul-Aug' or 'Nov-Mar'.
+
+    Parameters
+    ----------
+    months
+        The season's consecutive month numbers (1-12), in order.
+
+    Returns
+    -------
+    str
+        The first and last month's short names joined by "-", one name for a single
+        month, "whole year" for 12 months.
+
+    Examples
+    --------
+    >>> from climwidgets.compute.seasonal import season_label
+    >>> season_label((11, 12, 1, 2, 3)), season_label([7]), season_label(range(1, 13))
+    ('Nov-Mar', 'Jul', 'whole year')
+    """
     months = tuple(months)
     if len(months) == 12:
         return "whole year"
@@ -73,6 +91,13 @@ def seasonal_totals(pr: xr.DataArray, months, year_start: int = 1) -> xr.DataArr
     DataArray with dim ``year``, labelled by the calendar year in which the season's
     12-month year ends (so Dec-Feb 2000/01 is 2001).  A season with any missing month is
     NaN (rule for sums); months outside the season do not matter here.
+
+    Raises
+    ------
+    climwidgets.errors.ParameterError
+        Months that are not consecutive month numbers, or a bad ``year_start``.
+    climwidgets.errors.InputError
+        ``pr`` without usable units or step.
 
     Examples
     --------
@@ -116,9 +141,21 @@ def seasonal_fraction(pr: xr.DataArray, months=(7, 8), how: str = "ratio_of_sums
     per_year
         True returns the share of each year on a ``year`` dimension.
 
-    Only years with all 12 months present are used (per cell).  Cells with no
-    precipitation at all give NaN (no division warning).  The number of years used per cell
-    is in the coordinate ``n_years``.
+    Returns
+    -------
+    xarray.DataArray
+        ``seasonal_share`` (units "1") per cell, or per year and cell with ``per_year``.
+        Only years with all 12 months present are used (per cell).  Cells with no
+        precipitation at all give NaN (no division warning).  The number of years used
+        per cell is in the coordinate ``n_years``.  Lazy on dask input.
+
+    Raises
+    ------
+    climwidgets.errors.ParameterError
+        An unknown ``how``, months that are not consecutive month numbers, a bad
+        ``year_start`` or ``years`` outside the record.
+    climwidgets.errors.InputError
+        ``pr`` without usable units or step.
 
     Examples
     --------

@@ -67,6 +67,26 @@ def warming_scaling(field, delta_t, rate=0.07, convention="compound"):
         Warming in kelvin (negative for cooling), a number or a DataArray (e.g. per scenario).
     rate
         Fractional increase per kelvin, 0 to 0.25.
+    convention
+        "compound" ((1 + rate) ** delta_t) or "exponential" (exp(rate * delta_t)).
+
+    Returns
+    -------
+    xarray.DataArray or xarray.Dataset
+        The scaled depths (the same kind of object as ``field``), with the warming, rate,
+        convention and :data:`DESIGN_DEPTH_CAUTIONS` in attrs and a history line.
+
+    Raises
+    ------
+    climwidgets.errors.ParameterError
+        An unknown convention, a rate outside 0-0.25, a warming outside -20..20 K, or a
+        field that is not a DataArray or Dataset.
+
+    References
+    ----------
+    Alduchov, O. A. and Eskridge, R. E. (1996). Improved Magnus form approximation of
+    saturation vapor pressure. Journal of Applied Meteorology, 35(4), 601-609.
+    https://doi.org/10.1175/1520-0450(1996)035<0601:IMFAOS>2.0.CO;2
 
     Examples
     --------
