@@ -165,6 +165,53 @@ class Basin:
 
     Build with :meth:`from_vertices`, :meth:`from_geojson`, :meth:`from_shapefile` or
     :meth:`from_wkt`; the constructor takes an already valid shapely geometry.
+
+    Parameters
+    ----------
+    geometry
+        A valid, non-empty shapely Polygon or MultiPolygon in lon/lat degrees within
+        [-180, 180) (the ``from_*`` constructors check, repair and split outlines first).
+    name
+        The basin's name, shown in tables and exports.
+
+    Attributes
+    ----------
+    name : str
+        The basin's name.
+    geometry : shapely.Polygon or shapely.MultiPolygon
+        The outline in lon/lat degrees.
+    bounds : tuple of float
+        (min lon, min lat, max lon, max lat).
+    area_m2 : float
+        The area on the authalic sphere (m²), the one basin area every table uses.
+    token : str
+        A hash of the geometry (equal outlines, equal tokens).
+
+    Raises
+    ------
+    climwidgets.errors.BasinError
+        A geometry that is empty, not a polygon, or not valid; from the constructors, an
+        outline that fails the checks of the module notes.
+
+    References
+    ----------
+    Butler, H. et al. (2016). The GeoJSON Format. RFC 7946, Internet Engineering Task
+    Force. https://doi.org/10.17487/RFC7946
+
+    Examples
+    --------
+    >>> import climwidgets as cw
+    >>> basin = cw.Basin.from_vertices([(10.0, 0.0), (11.0, 0.0), (11.0, 1.0), (10.0, 1.0)],
+    ...                                name="north fork")
+    >>> basin
+    Basin('north fork', Polygon, lon 10..11, lat 0..1)
+    >>> round(basin.area_m2 / 1e6, 1)  # km²: R² (pi / 180) sin(1°) with R = 6 371 007.2 m
+    12363.7
+    >>> cw.Basin.from_vertices([(179.5, 0.0), (-179.5, 0.0), (-179.5, 1.0), (179.5, 1.0)],
+    ...                        name="date line")  # split at the antimeridian
+    Basin('date line', MultiPolygon, lon -180..180, lat 0..1)
+    >>> cw.Basin.from_wkt("POLYGON((10 0, 11 0, 11 1, 10 1, 10 0))").token == basin.token
+    True
     """
 
     def __init__(self, geometry, name: str = "basin"):
@@ -179,7 +226,26 @@ class Basin:
     # ---------------------------------------------------------------- constructors
     @classmethod
     def from_vertices(cls, vertices, name: str = "basin") -> "Basin":
-        """A basin from one ring of (lon, lat) vertices (closing vertex optional)."""
+        """A basin from one ring of (lon, lat) vertices (closing vertex optional).
+
+        Parameters
+        ----------
+        vertices
+            A sequence of (lon, lat) pairs in degrees.
+        name
+            The basin's name.
+
+        Returns
+        -------
+        Basin
+            The checked basin (see the module notes).
+
+        Raises
+        ------
+        climwidgets.errors.BasinError
+            Fewer than 3 distinct vertices, non-finite values, |lat| > 90, a ring that
+            crosses itself beyond repair, or zero area.
+        """
         return cls(_build([[vertices]], name), name)
 
     @classmethod
@@ -192,6 +258,27 @@ class Basin:
 
         A bare Polygon/MultiPolygon gives a one-element list.  Names come from
         ``properties[name_property]``, else "basin 1", "basin 2", …
+
+        Parameters
+        ----------
+        path_or_mapping
+            A path to a GeoJSON file, GeoJSON text, or a mapping (FeatureCollection,
+            Feature, Polygon or MultiPolygon).
+        name_property
+            The feature property that holds each basin's name.
+
+        Returns
+        -------
+        list of Basin
+            One basin per feature, in file order.
+
+        Raises
+        ------
+        climwidgets.errors.SourceError
+            A file that does not exist or is not JSON.
+        climwidgets.errors.BasinError
+            A GeoJSON type other than polygons, no features, or an outline that fails the
+            checks.
         """
         obj, stem = path_or_mapping, "basin"
         if isinstance(obj, (str, os.PathLike)):
@@ -235,7 +322,26 @@ class Basin:
 
     @classmethod
     def from_wkt(cls, text: str, name: str = "basin") -> "Basin":
-        """A basin from WKT text (POLYGON or MULTIPOLYGON, lon/lat order)."""
+        """A basin from WKT text (POLYGON or MULTIPOLYGON, lon/lat order).
+
+        Parameters
+        ----------
+        text
+            WKT text, e.g. ``"POLYGON((10 0, 11 0, 11 1, 10 1, 10 0))"``.
+        name
+            The basin's name.
+
+        Returns
+        -------
+        Basin
+            The checked basin.
+
+        Raises
+        ------
+        climwidgets.errors.BasinError
+            Text that is not WKT, a geometry that is not a polygon, or an outline that
+            fails the checks.
+        """
         try:
             geom = shapely.from_wkt(text)
         except (shapely.errors.GEOSException, TypeError) as exc:
@@ -251,6 +357,26 @@ class Basin:
         densified in that CRS (so that straight projected edges stay faithful) and
         transformed to lon/lat with pyproj.  Names come from ``name_field``, else from a
         field called "name" (any case), else "<file stem> 1", …
+
+        Parameters
+        ----------
+        path
+            The shapefile (``.shp``, or any of its parts' paths: the suffix is replaced).
+        name_field
+            The attribute field that holds the basins' names.
+
+        Returns
+        -------
+        list of Basin
+            One basin per polygon record.
+
+        Raises
+        ------
+        climwidgets.errors.SourceError
+            A missing or unreadable shapefile or projection file.
+        climwidgets.errors.BasinError
+            An unknown ``name_field``, records that are not polygons, no records, or an
+            outline that fails the checks.
         """
         import shapefile  # pyshp
 
@@ -358,7 +484,45 @@ def _prj_transform(prj: Path):
 
 
 def write_geojson(basins, path, overwrite: bool = False) -> Path:
-    """Write basins to a GeoJSON FeatureCollection, atomically (temp file, then rename)."""
+    """Write basins to a GeoJSON FeatureCollection, atomically (temp file, then rename).
+
+    Parameters
+    ----------
+    basins
+        A Basin or a sequence of Basins.
+    path
+        The file to write.
+    overwrite
+        False (default): refuse to replace an existing file.
+
+    Returns
+    -------
+    pathlib.Path
+        The path written.
+
+    Raises
+    ------
+    climwidgets.atomic.OutputExistsError
+        When the file exists and ``overwrite`` is False.
+    OSError
+        When the disk refuses the write (see :func:`climwidgets.atomic.atomic_write_file`).
+
+    References
+    ----------
+    Butler, H. et al. (2016). The GeoJSON Format. RFC 7946, Internet Engineering Task
+    Force. https://doi.org/10.17487/RFC7946
+
+    Examples
+    --------
+    >>> import os, tempfile
+    >>> import climwidgets as cw
+    >>> from climwidgets.geo.basin import write_geojson
+    >>> basin = cw.Basin.from_vertices([(10, 0), (11, 0), (11, 1), (10, 1)], name="north fork")
+    >>> with tempfile.TemporaryDirectory() as folder:
+    ...     path = write_geojson([basin], os.path.join(folder, "basins.geojson"))
+    ...     [b.name for b in cw.Basin.from_geojson(path)]
+    ['north fork']
+    """
     basins = [basins] if isinstance(basins, Basin) else list(basins)
     data = {"type": "FeatureCollection", "features": [b.to_geojson() for b in basins]}
     return atomic_write_file(path, lambda fh: json.dump(data, fh), mode="w", overwrite=overwrite,

@@ -28,12 +28,37 @@ class BasinSet:
     Parameters
     ----------
     basins : iterable of Basin, optional
+        The first members: a Basin, a list or dict of Basins, or another BasinSet; their
+        names must be unique.
+
+    Raises
+    ------
+    climwidgets.errors.ParameterError
+        Members that are not Basin objects.
+    climwidgets.errors.BasinError
+        An empty or repeated name.
 
     Examples
     --------
-    >>> shared = cw.BasinSet(cw.Basin.from_geojson("basins.geojson"))
-    >>> a = cw.SeasonalShareWidget(pr, basins=shared)
-    >>> b = cw.BasinSummaryWidget(pr, basins=shared)   # a basin drawn in a shows in b
+    Widgets given one set (``cw.SeasonalShareWidget(pr, basins=shared)`` and
+    ``cw.BasinSummaryWidget(pr, basins=shared)``) show the same basins: they observe it.
+
+    >>> import climwidgets as cw
+    >>> upper = cw.Basin.from_vertices([(10, 0), (11, 0), (11, 1), (10, 1)], name="north fork")
+    >>> lower = cw.Basin.from_vertices([(11, 0), (12, 0), (12, 1), (11, 1)], name="south fork")
+    >>> shared = cw.BasinSet([upper])
+    >>> events = []
+    >>> shared.observe(lambda event, details: events.append(event))
+    >>> _ = shared.add(lower)
+    >>> _ = shared.rename("south fork", "lower reach")
+    >>> _ = shared.remove("north fork")
+    >>> shared, events
+    (BasinSet(['lower reach']), ['add', 'rename', 'remove'])
+    >>> taken = cw.Basin.from_vertices([(10, 0), (11, 0), (11, 1)], name="lower reach")
+    >>> shared.add(taken)  # doctest: +ELLIPSIS
+    Traceback (most recent call last):
+        ...
+    climwidgets.errors.BasinError: BasinSet, variable 'name': a basin named 'lower reach' is already in the set...
     """
 
     def __init__(self, basins=()):
@@ -199,7 +224,34 @@ def _basins_of(basins, func) -> list[Basin]:
 
 
 def as_basin_list(basins, func: str) -> list[Basin]:
-    """A non-empty list of uniquely named basins from a Basin, a list, a dict or a BasinSet."""
+    """A non-empty list of uniquely named basins from a Basin, a list, a dict or a BasinSet.
+
+    Parameters
+    ----------
+    basins
+        A Basin, a list or dict of Basins, or a BasinSet.
+    func
+        The calling function's name, for error messages.
+
+    Returns
+    -------
+    list of Basin
+        The basins, in order (a dict's values in its order).
+
+    Raises
+    ------
+    climwidgets.errors.ParameterError
+        Members that are not Basins, none at all, or repeated names.
+
+    Examples
+    --------
+    >>> import climwidgets as cw
+    >>> upper = cw.Basin.from_vertices([(10, 0), (11, 0), (11, 1), (10, 1)], name="north fork")
+    >>> lower = cw.Basin.from_vertices([(11, 0), (12, 0), (12, 1), (11, 1)], name="south fork")
+    >>> from climwidgets.geo.basinset import as_basin_list
+    >>> [b.name for b in as_basin_list({"a": upper, "b": lower}, "example")]
+    ['north fork', 'south fork']
+    """
     out = _basins_of(basins, func)
     if not out:
         raise ParameterError("basins must be a Basin or a non-empty list of Basin objects", source=func,
@@ -214,7 +266,36 @@ def as_basin_list(basins, func: str) -> list[Basin]:
 
 def load_basins(source) -> list[Basin]:
     """Basins from a GeoJSON file (.geojson/.json) or an ESRI shapefile (.shp), or Basin
-    objects (a Basin, a list or a BasinSet) passed through."""
+    objects (a Basin, a list or a BasinSet) passed through.
+
+    Parameters
+    ----------
+    source
+        A path to a GeoJSON file or a shapefile, or Basin objects.
+
+    Returns
+    -------
+    list of Basin
+        One basin per feature or record, in file order.
+
+    Raises
+    ------
+    climwidgets.errors.SourceError
+        A file that does not exist or cannot be read.
+    climwidgets.errors.BasinError
+        Something that is not a path, a file that is not a basin outline file, or an
+        outline that fails the checks of :class:`~climwidgets.geo.basin.Basin`.
+
+    Examples
+    --------
+    >>> import os, tempfile
+    >>> import climwidgets as cw
+    >>> basin = cw.Basin.from_vertices([(10, 0), (11, 0), (11, 1), (10, 1)], name="north fork")
+    >>> with tempfile.TemporaryDirectory() as folder:
+    ...     path = cw.BasinSet([basin]).to_geojson(os.path.join(folder, "basins.geojson"))
+    ...     cw.load_basins(path)
+    [Basin('north fork', Polygon, lon 10..11, lat 0..1)]
+    """
     if isinstance(source, (Basin, BasinSet)) or (isinstance(source, (list, tuple)) and source
                                                  and all(isinstance(b, Basin) for b in source)):
         return _basins_of(source, "load_basins")
@@ -239,7 +320,35 @@ def load_basins(source) -> list[Basin]:
 
 
 def whole_grid_basin(field, name="whole grid") -> Basin | None:
-    """A basin covering a rectilinear grid's cells, for area-weighted domain means."""
+    """A basin covering a rectilinear grid's cells, for area-weighted domain means.
+
+    Parameters
+    ----------
+    field
+        A DataArray or Dataset on a lat/lon grid (bounds read or inferred, see
+        :func:`climwidgets.geo.grid.cell_bounds`).
+    name
+        The basin's name.
+
+    Returns
+    -------
+    Basin or None
+        The rectangle from the grid's outer cell edges; None for curvilinear grids.
+
+    Raises
+    ------
+    climwidgets.errors.GridError
+        A field without usable lat/lon coordinates.
+
+    Examples
+    --------
+    >>> import numpy as np, xarray as xr
+    >>> from climwidgets.geo.basinset import whole_grid_basin
+    >>> grid = xr.DataArray(np.zeros((2, 3)), dims=("lat", "lon"),
+    ...                     coords={"lat": [0.5, 1.5], "lon": [10.5, 11.5, 12.5]})
+    >>> whole_grid_basin(grid)
+    Basin('whole grid', Polygon, lon 10..13, lat 0..2)
+    """
     from .grid import cell_bounds
 
     b = cell_bounds(field)

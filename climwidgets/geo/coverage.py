@@ -277,8 +277,41 @@ def _compute_block(basin, bounds):
 def coverage_block(basin, grid):
     """Coverage weights restricted to the basin's bounding box.
 
-    Returns ``((j0, j1, i0, i1), block)``: rows ``j0:j1`` and columns ``i0:i1`` of the grid's
-    horizontal dims, and the read-only numpy block of fractions.  Cached.
+    Parameters
+    ----------
+    basin
+        A :class:`~climwidgets.geo.basin.Basin`.
+    grid
+        A DataArray or Dataset on a rectilinear or curvilinear lat/lon grid (house names
+        lat/lon; see :func:`coverage_weights` for CF names).
+
+    Returns
+    -------
+    tuple
+        ``((j0, j1, i0, i1), block)``: rows ``j0:j1`` and columns ``i0:i1`` of the grid's
+        horizontal dims, and the read-only numpy block of fractions.  Cached by (grid
+        token, basin token).
+
+    Raises
+    ------
+    climwidgets.errors.BasinError
+        When the basin does not overlap the grid.
+    climwidgets.errors.GridError
+        When the grid's cell bounds cannot be found.
+
+    Examples
+    --------
+    >>> import numpy as np, xarray as xr
+    >>> import climwidgets as cw
+    >>> from climwidgets.geo.coverage import coverage_block
+    >>> grid = xr.DataArray(np.zeros((3, 4)), dims=("lat", "lon"),
+    ...                     coords={"lat": [0.5, 1.5, 2.5], "lon": [10.5, 11.5, 12.5, 13.5]})
+    >>> basin = cw.Basin.from_vertices([(10.5, 0.0), (12.0, 0.0), (12.0, 1.5), (10.5, 1.5)],
+    ...                                name="north fork")  # 1.5 x 1.5 degrees from a corner
+    >>> (j0, j1, i0, i1), block = coverage_block(basin, grid)
+    >>> (j0, j1, i0, i1), block
+    ((0, 2, 0, 2), array([[0.5 , 1.  ],
+           [0.25, 0.5 ]]))
     """
     key = (grid_token(grid), basin.token)
     hit = weights_cache.get(key)
@@ -301,9 +334,41 @@ def coverage_block(basin, grid):
 def coverage_weights(basin, grid) -> xr.DataArray:
     """Fraction (0–1) of each grid cell covered by ``basin``, planar in lon/lat.
 
-    Returns a DataArray on the grid's (lat, lon) or (y, x) dims with ``units="1"``.
-    Raises BasinError when the basin does not overlap the grid.  CF-named grids
-    (``latitude``/``longitude``) are read under the house names lat/lon.
+    CF-named grids (``latitude``/``longitude``) are read under the house names lat/lon.
+
+    Parameters
+    ----------
+    basin
+        A :class:`~climwidgets.geo.basin.Basin`.
+    grid
+        A DataArray or Dataset on a rectilinear or curvilinear lat/lon grid; its bounds
+        are read or inferred (:func:`climwidgets.geo.grid.cell_bounds`).
+
+    Returns
+    -------
+    xarray.DataArray
+        ``coverage`` on the grid's (lat, lon) or (y, x) dims with ``units="1"``, the basin
+        name in attrs and a history line.
+
+    Raises
+    ------
+    climwidgets.errors.BasinError
+        When the basin does not overlap the grid.
+    climwidgets.errors.GridError
+        When the grid has no usable lat/lon coordinates or bounds.
+
+    Examples
+    --------
+    >>> import numpy as np, xarray as xr
+    >>> import climwidgets as cw
+    >>> grid = xr.DataArray(np.zeros((3, 4)), dims=("lat", "lon"),
+    ...                     coords={"lat": [0.5, 1.5, 2.5], "lon": [10.5, 11.5, 12.5, 13.5]})
+    >>> basin = cw.Basin.from_vertices([(10.5, 0.0), (12.0, 0.0), (12.0, 1.5), (10.5, 1.5)],
+    ...                                name="north fork")  # 1.5 x 1.5 degrees from a corner
+    >>> cw.coverage_weights(basin, grid).values  # half cells, a quarter cell
+    array([[0.5 , 1.  , 0.  , 0.  ],
+           [0.25, 0.5 , 0.  , 0.  ],
+           [0.  , 0.  , 0.  , 0.  ]])
     """
     grid = canonical_names(grid)
     dims = horizontal_dims(grid)
