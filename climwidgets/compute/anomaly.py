@@ -8,6 +8,8 @@ withheld (NaN) unless at least ``min_fraction`` of the baseline years are comple
 from __future__ import annotations
 
 import warnings
+from collections.abc import Callable, Iterable, Sequence
+from typing import Any
 
 import numpy as np
 import xarray as xr
@@ -35,7 +37,8 @@ _KINDS = {"absolute": "mm", "percent": "%", "standardized": "1"}
 _PERIODS = ("month", "season", "year", "water_year")
 
 
-def _period_values(pr, period, months, year_start, func):
+def _period_values(pr: xr.DataArray, period: str, months: Any, year_start: int, func: str,
+                   ) -> tuple[xr.DataArray, xr.DataArray, Callable[[xr.DataArray], xr.DataArray], str, int]:
     """Return (x, values, to_x, label).
 
     ``x`` is the series to express as anomalies, ``values`` the same totals with a ``year``
@@ -66,21 +69,22 @@ def _period_values(pr, period, months, year_start, func):
     blocks = year_blocks(monthly, covered, 1, source_name(pr), keep_partial=True)
     month_of = monthly["time"].dt.month
 
-    def to_x(stat):
+    def to_x(stat: xr.DataArray) -> xr.DataArray:
         return stat.sel(month=month_of).drop_vars("month")
 
     return monthly, blocks, to_x, "month", year_start
 
 
-def _check_kind(kind, func):
+def _check_kind(kind: str, func: str) -> None:
     if kind not in _KINDS:
         raise ParameterError(f"kind={kind!r} is not known", source=func, variable="kind",
                              expected="'absolute', 'percent' or 'standardized'",
                              fix="pass kind='percent' (percent of normal) or another listed kind")
 
 
-def anomaly(pr: xr.DataArray, baseline=(1991, 2020), kind: str = "percent", period: str = "month",
-            months=None, year_start: int = 1, min_fraction: float = 0.8) -> xr.DataArray:
+def anomaly(pr: xr.DataArray, baseline: Sequence[int] = (1991, 2020), kind: str = "percent",
+            period: str = "month", months: Iterable[int] | int | None = None, year_start: int = 1,
+            min_fraction: float = 0.8) -> xr.DataArray:
     """Precipitation anomaly of each month, season or year against the baseline normal.
 
     Parameters
@@ -145,6 +149,7 @@ def anomaly(pr: xr.DataArray, baseline=(1991, 2020), kind: str = "percent", peri
     mean, sd, n, required, nyears = baseline_stats(values, baseline, min_fraction, func,
                                                    source_name(pr))
     ref = to_x(mean)
+    out: xr.DataArray
     if kind == "absolute":
         out = x - ref
     elif kind == "percent":
@@ -167,7 +172,7 @@ def anomaly(pr: xr.DataArray, baseline=(1991, 2020), kind: str = "percent", peri
                         months=months, year_start=year_start, min_fraction=min_fraction)
 
 
-def _terciles_kernel(a):
+def _terciles_kernel(a: np.ndarray) -> np.ndarray:
     """Baseline terciles along the last axis, numpy 'linear' method, NaNs skipped."""
     with warnings.catch_warnings():
         warnings.simplefilter("ignore", RuntimeWarning)  # all-missing cells give NaN quietly
@@ -175,8 +180,9 @@ def _terciles_kernel(a):
     return np.moveaxis(q, 0, -1)
 
 
-def tercile_category(pr: xr.DataArray, baseline=(1991, 2020), period: str = "month", months=None,
-                     year_start: int = 1, min_fraction: float = 0.8) -> xr.DataArray:
+def tercile_category(pr: xr.DataArray, baseline: Sequence[int] = (1991, 2020), period: str = "month",
+                     months: Iterable[int] | int | None = None, year_start: int = 1,
+                     min_fraction: float = 0.8) -> xr.DataArray:
     """Tercile category of each total: -1 below normal, 0 near normal, +1 above normal.
 
     The tercile boundaries are the 1/3 and 2/3 quantiles of the baseline totals (per
@@ -236,14 +242,14 @@ def tercile_category(pr: xr.DataArray, baseline=(1991, 2020), period: str = "mon
     n = base.count("year")
     if is_dask(base):
         base = base.chunk({"year": -1})
-    bounds = xr.apply_ufunc(_terciles_kernel, base, input_core_dims=[["year"]],
+    bounds: xr.DataArray = xr.apply_ufunc(_terciles_kernel, base, input_core_dims=[["year"]],
                             output_core_dims=[["tercile"]], dask="parallelized",
                             output_dtypes=[float], dask_gufunc_kwargs={"output_sizes": {"tercile": 2}})
     bounds = bounds.where(n >= required)
     lower = to_x(bounds.isel(tercile=0))
     upper = to_x(bounds.isel(tercile=1))
-    cat = xr.where(x < lower, -1.0, xr.where(x > upper, 1.0, 0.0))
-    out = cat.where(x.notnull() & lower.notnull() & upper.notnull())
+    cat = xr.where(x < lower, -1.0, xr.where(x > upper, 1.0, 0.0))  # type: ignore[no-untyped-call]
+    out: xr.DataArray = cat.where(x.notnull() & lower.notnull() & upper.notnull())
     out.name = "tercile_category"
     out.attrs = {"units": "1", "long_name": f"tercile category ({label})",
                  "flag_values": [-1, 0, 1],

@@ -7,6 +7,8 @@ in the suite computes in mm; tables, widgets and exports convert at the end with
 
 from __future__ import annotations
 
+from typing import TypeVar
+
 import xarray as xr
 
 from ..errors import ParameterError
@@ -16,6 +18,7 @@ __all__ = ["DEPTH_UNITS", "MM_PER_INCH", "check_depth_units", "convert_depth"]
 #: Millimetres in one inch (exact by definition).
 MM_PER_INCH = 25.4
 DEPTH_UNITS = {"mm": 1.0, "in": MM_PER_INCH}
+_XR = TypeVar("_XR", xr.DataArray, xr.Dataset)
 
 
 def check_depth_units(units: str) -> str:
@@ -48,7 +51,7 @@ def check_depth_units(units: str) -> str:
     return units
 
 
-def convert_depth(obj, units="mm"):
+def convert_depth(obj: _XR, units: str = "mm") -> _XR:
     """Return ``obj`` (DataArray or Dataset) with its mm depths in ``units`` ("mm" or "in").
 
     Variables without ``units == "mm"`` (counts, fractions, shapes) are left alone; lazy
@@ -90,7 +93,7 @@ def convert_depth(obj, units="mm"):
         return obj
     factor = DEPTH_UNITS[units]
 
-    def one(da):
+    def one(da: xr.DataArray) -> xr.DataArray:
         if da.attrs.get("units") != "mm":
             return da
         out = da / factor

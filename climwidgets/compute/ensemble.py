@@ -18,6 +18,8 @@ cell; ``n_members`` says how many were used.
 from __future__ import annotations
 
 import warnings
+from collections.abc import Sequence
+from typing import cast
 
 import numpy as np
 import xarray as xr
@@ -33,12 +35,13 @@ MEMBER_DIMS = ("member", "realization", "ensemble", "model")
 _CHANGE_KINDS = (None, "difference", "ratio")
 
 
-def _name(obj) -> str:
+def _name(obj: object) -> str:
     name = getattr(obj, "name", None)
     return f"DataArray {name!r}" if name is not None else "input DataArray"
 
 
-def member_dim(obj, dim=None, func: str = "ensemble_summary", required: bool = True):
+def member_dim(obj: xr.DataArray | xr.Dataset, dim: str | None = None, func: str = "ensemble_summary",
+               required: bool = True) -> str | None:
     """The name of the member dimension of ``obj``.
 
     ``dim`` given: it must be a dimension of ``obj``.  Otherwise the first of
@@ -96,7 +99,8 @@ def member_dim(obj, dim=None, func: str = "ensemble_summary", required: bool = T
     return found[0]
 
 
-def check_members(hist, future, dim=None, func: str = "delta_change"):
+def check_members(hist: xr.DataArray, future: xr.DataArray, dim: str | None = None,
+                  func: str = "delta_change") -> str | None:
     """The member dimension shared by a historical and a future run (None for single runs).
 
     Both runs must have the member dimension, or neither; its labels must be the same.
@@ -154,12 +158,13 @@ def check_members(hist, future, dim=None, func: str = "delta_change"):
     return dh
 
 
-def _member_chunks(field, dim):
+def _member_chunks(field: xr.DataArray, dim: str) -> xr.DataArray:
     # median and quantiles need the member axis in one chunk
     return field.chunk({dim: -1}) if field.chunks is not None else field
 
 
-def ensemble_summary(field: xr.DataArray, dim=None, change=None, quantiles=(0.25, 0.75)) -> xr.Dataset:
+def ensemble_summary(field: xr.DataArray, dim: str | None = None, change: str | None = None,
+                     quantiles: Sequence[float] = (0.25, 0.75)) -> xr.Dataset:
     """Ensemble mean, median, spread and (for a change field) agreement over members.
 
     Parameters
@@ -225,7 +230,7 @@ def ensemble_summary(field: xr.DataArray, dim=None, change=None, quantiles=(0.25
         raise ParameterError(f"quantiles={quantiles!r} is not a pair of increasing probabilities",
                              source=func, variable="quantiles", expected="(low, high) with 0 <= low < high <= 1",
                              fix="pass quantiles=(0.25, 0.75) for the interquartile range")
-    dim = member_dim(field, dim, func)
+    dim = cast(str, member_dim(field, dim, func))  # required: never None
     x = _member_chunks(field.astype(float), dim)
     units = field.attrs.get("units", "")
     what = field.attrs.get("long_name", field.name or "field")

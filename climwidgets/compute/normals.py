@@ -19,6 +19,8 @@ local rule can be used; the rule applied is recorded in attrs.
 from __future__ import annotations
 
 import math
+from collections.abc import Iterable, Sequence
+from typing import Any, cast
 
 import numpy as np
 import xarray as xr
@@ -39,7 +41,7 @@ from .seasonal import season_label
 __all__ = ["normals", "annual_normal", "seasonal_normal", "baseline_stats"]
 
 
-def _check_fraction(min_fraction, func):
+def _check_fraction(min_fraction: Any, func: str) -> float:
     if isinstance(min_fraction, bool) or not isinstance(min_fraction, (int, float)) \
             or not 0 < min_fraction <= 1:
         raise ParameterError(f"min_fraction={min_fraction!r} is not a fraction in (0, 1]",
@@ -49,7 +51,8 @@ def _check_fraction(min_fraction, func):
     return float(min_fraction)
 
 
-def baseline_values(values, baseline, min_fraction, func, src, dim="year"):
+def baseline_values(values: xr.DataArray, baseline: Sequence[int], min_fraction: float, func: str, src: str,
+                    dim: str = "year") -> tuple[xr.DataArray, int, int]:
     """The values of the baseline years along ``dim``, every baseline year present (NaN
     where the record has none), and ``(required, nyears)`` of the completeness rule.
 
@@ -78,7 +81,8 @@ def baseline_values(values, baseline, min_fraction, func, src, dim="year"):
     return base, required, nyears
 
 
-def baseline_stats(values, baseline, min_fraction, func, src, dim="year"):
+def baseline_stats(values: xr.DataArray, baseline: Sequence[int], min_fraction: float, func: str, src: str,
+                   dim: str = "year") -> tuple[xr.DataArray, xr.DataArray, xr.DataArray, int, int]:
     """Mean and sample standard deviation (ddof=1) over the baseline years along ``dim``.
 
     Parameters
@@ -128,10 +132,10 @@ def baseline_stats(values, baseline, min_fraction, func, src, dim="year"):
     ok = n >= required
     mean = base.sum(dim, skipna=True) / n.where(ok)
     var = ((base - mean) ** 2).sum(dim, skipna=True) / (n - 1).where(ok & (n > 1))
-    return mean, np.sqrt(var), n, required, nyears
+    return mean, cast(xr.DataArray, np.sqrt(var)), n, required, nyears  # numpy stubs: ufunc of a DataArray
 
 
-def _completeness_attrs(n, required, per_cell_dims):
+def _completeness_attrs(n: xr.DataArray, required: int, per_cell_dims: list[str]) -> dict[str, Any]:
     """Counts of cells that fail the completeness rule (only for in-memory results)."""
     if is_dask(n):
         note = "not counted for lazy input; see coordinate n_years"
@@ -142,7 +146,7 @@ def _completeness_attrs(n, required, per_cell_dims):
             "cells_without_data": int(np.asarray(~has_data).sum())}
 
 
-def normals(pr: xr.DataArray, baseline=(1991, 2020), min_fraction: float = 0.8) -> xr.DataArray:
+def normals(pr: xr.DataArray, baseline: Sequence[int] = (1991, 2020), min_fraction: float = 0.8) -> xr.DataArray:
     """Monthly normal precipitation totals (mm) on a ``month`` dimension 1..12.
 
     Parameters
@@ -210,7 +214,8 @@ def normals(pr: xr.DataArray, baseline=(1991, 2020), min_fraction: float = 0.8) 
     return with_history(out, func, pr.attrs, baseline=baseline, min_fraction=min_fraction)
 
 
-def annual_normal(pr: xr.DataArray, baseline=(1991, 2020), min_fraction: float = 0.8) -> xr.DataArray:
+def annual_normal(pr: xr.DataArray, baseline: Sequence[int] = (1991, 2020),
+                  min_fraction: float = 0.8) -> xr.DataArray:
     """Annual normal total (mm): the sum of the 12 monthly normals, NaN if any is NaN.
 
     Parameters
@@ -259,7 +264,7 @@ def annual_normal(pr: xr.DataArray, baseline=(1991, 2020), min_fraction: float =
     return with_history(out, "annual_normal", pr.attrs, baseline=baseline, min_fraction=min_fraction)
 
 
-def seasonal_normal(pr: xr.DataArray, months, baseline=(1991, 2020),
+def seasonal_normal(pr: xr.DataArray, months: Iterable[int] | int, baseline: Sequence[int] = (1991, 2020),
                     min_fraction: float = 0.8) -> xr.DataArray:
     """Seasonal normal total (mm): the sum of the season's monthly normals, NaN if any is NaN.
 

@@ -9,6 +9,9 @@ ends.  The year actually used is recorded in ``attrs["season_year_start"]``.
 
 from __future__ import annotations
 
+from collections.abc import Iterable, Sequence
+from typing import Any
+
 import numpy as np
 import xarray as xr
 
@@ -31,7 +34,7 @@ from ._time import (
 __all__ = ["seasonal_totals", "seasonal_fraction", "season_label"]
 
 
-def season_label(months) -> str:
+def season_label(months: Iterable[int]) -> str:
     """Plain label such as 'Jul-Aug' or 'Nov-Mar'.
 
     Parameters
@@ -57,7 +60,8 @@ def season_label(months) -> str:
     return MONTH_NAMES[months[0] - 1] + ("" if len(months) == 1 else "-" + MONTH_NAMES[months[-1] - 1])
 
 
-def _season_blocks(pr, months, year_start, func):
+def _season_blocks(pr: xr.DataArray, months: Any, year_start: int,
+                   func: str) -> tuple[xr.DataArray, tuple[int, ...], int, int]:
     pr, step = precip_mm(pr, func)
     months = check_months(months, func)
     year_start = check_year_start(year_start, func)
@@ -67,14 +71,14 @@ def _season_blocks(pr, months, year_start, func):
     return blocks, months, year_start, start
 
 
-def _season_attrs(months, year_start, start):
+def _season_attrs(months: tuple[int, ...], year_start: int, start: int) -> dict[str, Any]:
     return {"season_months": list(months), "season": season_label(months),
             "year_start": year_start, "season_year_start": start,
             "season_year": f"{MONTH_NAMES[start - 1]}-{MONTH_NAMES[(start + 10) % 12]} year, "
                            "labelled by the calendar year in which it ends"}
 
 
-def seasonal_totals(pr: xr.DataArray, months, year_start: int = 1) -> xr.DataArray:
+def seasonal_totals(pr: xr.DataArray, months: Iterable[int] | int, year_start: int = 1) -> xr.DataArray:
     """Seasonal precipitation totals (mm) on a ``year`` dimension.
 
     Parameters
@@ -119,7 +123,8 @@ def seasonal_totals(pr: xr.DataArray, months, year_start: int = 1) -> xr.DataArr
     return with_history(out, "seasonal_totals", pr.attrs, months=months, year_start=year_start)
 
 
-def seasonal_fraction(pr: xr.DataArray, months=(7, 8), how: str = "ratio_of_sums", years=None,
+def seasonal_fraction(pr: xr.DataArray, months: Iterable[int] | int = (7, 8), how: str = "ratio_of_sums",
+                      years: Sequence[int] | None = None,
                       year_start: int = 1, per_year: bool = False) -> xr.DataArray:
     """Seasonal share of the annual precipitation (fraction, units "1").
 

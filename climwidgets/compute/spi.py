@@ -18,6 +18,8 @@ clipped so that H = 0 or 1 does not give infinities.
 
 from __future__ import annotations
 
+from collections.abc import Sequence
+
 import numpy as np
 import xarray as xr
 from scipy import special
@@ -48,7 +50,8 @@ SPI_CLASSES = (
 )
 
 
-def thom_gamma_fit(values, dim):
+def thom_gamma_fit(values: xr.DataArray,
+                   dim: str) -> tuple[xr.DataArray, xr.DataArray, xr.DataArray, xr.DataArray]:
     """Gamma shape and scale by the Thom (1958) approximation, fitted to the positive values.
 
     Parameters
@@ -98,7 +101,8 @@ def thom_gamma_fit(values, dim):
     return alpha, beta, q, n_valid
 
 
-def _spi_kernel(x, alpha, beta, q, clip):
+def _spi_kernel(x: np.ndarray, alpha: np.ndarray, beta: np.ndarray, q: np.ndarray,
+                clip: float) -> np.ndarray:
     with np.errstate(invalid="ignore", divide="ignore"):
         g = special.gammainc(alpha, np.where(x > 0, x, 0.0) / beta)
         h = np.where(x > 0, q + (1 - q) * g, q)
@@ -107,7 +111,8 @@ def _spi_kernel(x, alpha, beta, q, clip):
     return np.clip(z, -clip, clip)
 
 
-def spi(pr: xr.DataArray, scale: int = 3, baseline=(1991, 2020), clip: float = 8.21) -> xr.DataArray:
+def spi(pr: xr.DataArray, scale: int = 3, baseline: Sequence[int] = (1991, 2020),
+        clip: float = 8.21) -> xr.DataArray:
     """Monthly Standardized Precipitation Index on the monthly time axis.
 
     Parameters
@@ -201,10 +206,10 @@ def spi(pr: xr.DataArray, scale: int = 3, baseline=(1991, 2020), clip: float = 8
     alpha, beta, q, n = (xr.concat([f[i] for f in fits], dim=keys) for i in range(4))
     month_of = acc["time"].dt.month
 
-    def per_step(p):
+    def per_step(p: xr.DataArray) -> xr.DataArray:
         return p.sel(month=month_of).drop_vars("month")
 
-    out = xr.apply_ufunc(_spi_kernel, acc, per_step(alpha), per_step(beta), per_step(q),
+    out: xr.DataArray = xr.apply_ufunc(_spi_kernel, acc, per_step(alpha), per_step(beta), per_step(q),
                          kwargs={"clip": float(clip)}, dask="parallelized", output_dtypes=[float])
     out.name = "spi"
     out.attrs = {
@@ -220,7 +225,7 @@ def spi(pr: xr.DataArray, scale: int = 3, baseline=(1991, 2020), clip: float = 8
     return with_history(out, func, pr.attrs, scale=scale, baseline=baseline, clip=clip)
 
 
-def _category_kernel(z):
+def _category_kernel(z: np.ndarray) -> np.ndarray:
     labels = np.full(z.shape, "missing", dtype="<U14")
     labels[z >= 2.0] = "extremely wet"
     labels[(z >= 1.5) & (z < 2.0)] = "very wet"
@@ -274,7 +279,7 @@ def spi_category(spi_values: xr.DataArray) -> xr.DataArray:
         raise ParameterError(f"spi_category needs a DataArray, got {type(spi_values).__name__}",
                              source="spi_category", expected="the DataArray returned by spi()",
                              fix="pass the result of climwidgets.spi")
-    out = xr.apply_ufunc(_category_kernel, spi_values, dask="parallelized", output_dtypes=["<U14"])
+    out: xr.DataArray = xr.apply_ufunc(_category_kernel, spi_values, dask="parallelized", output_dtypes=["<U14"])
     out.name = "spi_category"
     out.attrs = {"long_name": "SPI class", "classes": "WMO (2012) SPI User Guide, Table 1"}
     return with_history(out, "spi_category", spi_values.attrs)
