@@ -13,6 +13,8 @@ and hydrometeor fallout (τf).  Equation numbers quoted in docstrings are from m
 
 from __future__ import annotations
 
+from typing import Any
+
 import numpy as np
 import xarray as xr
 from scipy.fft import next_fast_len
@@ -29,7 +31,8 @@ __all__ = ["linear_orographic_precip", "condensation_coefficient",
 STANDARD_LAPSE_RATE = 0.0065  # K m-1, environmental lapse rate of the standard atmosphere
 
 
-def condensation_coefficient(temperature_c, lapse_rate=STANDARD_LAPSE_RATE, pressure_pa=101325.0):
+def condensation_coefficient(temperature_c: Any, lapse_rate: float = STANDARD_LAPSE_RATE,
+                             pressure_pa: float = 101325.0) -> Any:
     """Thermodynamic uplift sensitivity Cw = ρ_Sref · Γm / γ in kg m-3.
 
     ρ_Sref is the saturation water-vapour density at the surface, Γm the moist-adiabatic
@@ -66,7 +69,7 @@ def condensation_coefficient(temperature_c, lapse_rate=STANDARD_LAPSE_RATE, pres
     return saturation_vapor_density(temperature_c) * gm / lapse_rate
 
 
-def water_vapour_scale_height(temperature_c, lapse_rate=STANDARD_LAPSE_RATE):
+def water_vapour_scale_height(temperature_c: Any, lapse_rate: float = STANDARD_LAPSE_RATE) -> np.ndarray:
     """Depth of the moist layer Hw = R_v T² / (L γ) in m (S&B 2004, section 2).
 
     About 2.3 km at 10 °C with γ = 6.5 K/km; it grows with temperature.
@@ -95,11 +98,11 @@ def water_vapour_scale_height(temperature_c, lapse_rate=STANDARD_LAPSE_RATE):
     >>> round(float(water_vapour_scale_height(10.0)))  # m
     2276
     """
-    t = np.asarray(temperature_c, dtype=float) + 273.15
+    t: np.ndarray = np.asarray(temperature_c, dtype=float) + 273.15
     return R_VAPOUR * t**2 / (LATENT_HEAT_VAPORISATION * lapse_rate)
 
 
-def vertical_wavenumber(sigma, k, l, nm):
+def vertical_wavenumber(sigma: Any, k: Any, l: Any, nm: float) -> np.ndarray:
     """Vertical wavenumber m(k, l) of hydrostatic flow over terrain with moist stability Nm.
 
     m² = (Nm² − σ²) / σ² · (k² + l²)  (S&B 2004, their eq. for m, from memory: eq. 12).
@@ -146,7 +149,8 @@ def vertical_wavenumber(sigma, k, l, nm):
     return np.where(m2 >= 0, np.sign(sigma) * root, 1j * root)
 
 
-def _lt_core(h, dx, dy, u, v, cw, hw, nm, tau_c, tau_f, pad_y, pad_x):
+def _lt_core(h: np.ndarray, dx: float, dy: float, u: float, v: float, cw: float, hw: float, nm: float,
+             tau_c: float, tau_f: float, pad_y: int, pad_x: int) -> np.ndarray:
     """Precipitation (kg m-2 s-1) on the last two axes (lat, lon) of terrain h (m)."""
     # Sea and missing cells are flat at sea level: the theory needs terrain heights >= 0.
     h = np.maximum(np.nan_to_num(np.asarray(h, dtype=float), nan=0.0), 0.0)
@@ -181,7 +185,7 @@ def _spacing(coord: np.ndarray, name: str, func: str) -> float:
     return float(d.mean())
 
 
-def _positive(value, name, func, expected, fix, allow_zero=True):
+def _positive(value: Any, name: str, func: str, expected: str, fix: str, allow_zero: bool = True) -> float:
     try:
         v = float(value)
     except (TypeError, ValueError):
@@ -346,7 +350,7 @@ def linear_orographic_precip(elevation: xr.DataArray, wind_speed: float = 10.0,
     hw_used = float(water_vapour_scale_height(t, gamma)) if hw is None else hw
     pad_y, pad_x = int(round(pad * lat.size)), int(round(pad * lon.size))
 
-    rate = xr.apply_ufunc(
+    rate: xr.DataArray = xr.apply_ufunc(
         _lt_core, elevation,
         kwargs=dict(dx=dx, dy=dy, u=u, v=v, cw=cw, hw=hw_used, nm=nm, tau_c=tau_c, tau_f=tau_f,
                     pad_y=pad_y, pad_x=pad_x),

@@ -11,6 +11,9 @@ precipitation field stays lazy on dask input.
 
 from __future__ import annotations
 
+from collections.abc import Sequence
+from typing import Any
+
 import numpy as np
 import xarray as xr
 from scipy import stats
@@ -87,7 +90,7 @@ def crest_from_elevation(elevation: xr.DataArray, wind_from: float = 270.0,
     return _crest.crest_points(z, lat, lon, w, min_height, func)
 
 
-def _parse_bands(band_km, func: str):
+def _parse_bands(band_km: Any, func: str) -> tuple[list[tuple[float, float]], bool]:
     """Bands as a list of (lo, hi) km and whether to drop the band dimension.
 
     Accepted: one pair ``(lo, hi)``; a sequence of more than two increasing edges
@@ -114,7 +117,7 @@ def _parse_bands(band_km, func: str):
     return [(float(a), float(b)) for a, b in bands], squeeze
 
 
-def _coverage(basin, field, func: str) -> xr.DataArray | None:
+def _coverage(basin: Any, field: xr.DataArray, func: str) -> xr.DataArray | None:
     if basin is None:
         return None
     if isinstance(basin, xr.DataArray):
@@ -139,14 +142,14 @@ def _coverage(basin, field, func: str) -> xr.DataArray | None:
                         dims=("lat", "lon"))
 
 
-def _weights(field, basin, func):
+def _weights(field: xr.DataArray, basin: Any, func: str) -> xr.DataArray:
     """Cell area (m²), times basin coverage when a basin is given."""
     area = _crest.cell_area(field)
     cov = _coverage(basin, field, func)
     return area if cov is None else area * cov
 
 
-def side_mask(distance_km: xr.DataArray, side: str, band_km=None) -> xr.DataArray:
+def side_mask(distance_km: xr.DataArray, side: str, band_km: Any = None) -> xr.DataArray:
     """Boolean mask of the windward or leeward cells, from ``rain_shadow(...)["distance_km"]``.
 
     ``side`` is "windward" (distance < 0, upwind of the crest) or "leeward" (distance > 0);
@@ -194,7 +197,7 @@ def side_mask(distance_km: xr.DataArray, side: str, band_km=None) -> xr.DataArra
     return mask
 
 
-def _bootstrap_bounds(ww, lw, idx, q):
+def _bootstrap_bounds(ww: np.ndarray, lw: np.ndarray, idx: np.ndarray, q: Any) -> np.ndarray:
     """Percentile bounds of the resampled leeward/windward ratio (numpy core, year last)."""
     ww_b = np.nanmean(ww[..., idx], axis=-1)  # (..., n_boot)
     lw_b = np.nanmean(lw[..., idx], axis=-1)
@@ -204,8 +207,9 @@ def _bootstrap_bounds(ww, lw, idx, q):
     return np.moveaxis(out, 0, -1)
 
 
-def rain_shadow(field: xr.DataArray, wind_from: float = 270.0, ridge=None, elevation=None,
-                band_km=(0, 50), basin=None, n_boot: int = 1000, ci: float = 0.9, seed: int = 0,
+def rain_shadow(field: xr.DataArray, wind_from: float = 270.0, ridge: Sequence[tuple[float, float]] | None = None,
+                elevation: xr.DataArray | None = None, band_km: Any = (0, 50), basin: Any = None,
+                n_boot: int = 1000, ci: float = 0.9, seed: int = 0,
                 beyond_ends: str = "exclude") -> xr.Dataset:
     """Windward/leeward contrast of a precipitation climatology across a crest.
 
@@ -382,7 +386,7 @@ def rain_shadow(field: xr.DataArray, wind_from: float = 270.0, ridge=None, eleva
                         basin=basin is not None, n_boot=n_boot if has_years else 0, ci=ci, seed=seed)
 
 
-def _check_boot(field, n_boot, ci, func):
+def _check_boot(field: xr.DataArray, n_boot: Any, ci: Any, func: str) -> tuple[int, float]:
     n_years = field.sizes[_BOOT_DIM]
     if n_years < 3:
         raise InsufficientDataError(
@@ -403,7 +407,7 @@ def _check_boot(field, n_boot, ci, func):
     return int(n_boot), ci
 
 
-def _rain_shadow_attrs(ds, units, w, has_years, ci):
+def _rain_shadow_attrs(ds: xr.Dataset, units: str, w: float, has_years: bool, ci: float) -> None:
     ds["windward_mean"].attrs = {"units": units, "long_name": "windward area-weighted mean"}
     ds["leeward_mean"].attrs = {"units": units, "long_name": "leeward area-weighted mean"}
     ds["ratio"].attrs = {"units": "1", "long_name": "leeward / windward ratio"}
@@ -421,8 +425,9 @@ def _rain_shadow_attrs(ds, units, w, has_years, ci):
                            "percentile bootstrap over years (Efron & Tibshirani 1993)"}
 
 
-def elevation_gradient(field: xr.DataArray, elevation: xr.DataArray, mask=None, side=None,
-                       band_m: float = 250.0, ci: float = 0.9, *, distance_km=None,
+def elevation_gradient(field: xr.DataArray, elevation: xr.DataArray, mask: xr.DataArray | None = None,
+                       side: str | None = None, band_m: float = 250.0, ci: float = 0.9, *,
+                       distance_km: xr.DataArray | None = None,
                        weighted: bool = True) -> xr.Dataset:
     """Change of precipitation with height: least-squares slope in mm per 100 m.
 
