@@ -19,8 +19,10 @@ from __future__ import annotations
 import hashlib
 import json
 import os
+from collections.abc import Callable, Iterable
 from functools import cached_property
 from pathlib import Path
+from typing import Any
 
 import numpy as np
 import shapely
@@ -34,11 +36,11 @@ __all__ = ["Basin", "write_geojson"]
 _REPAIR_KEEP = 0.999  # share of the area a self-intersection repair must keep in one polygon
 
 
-def _err(problem, name, fix, expected=None):
+def _err(problem: str, name: object, fix: str, expected: str | None = None) -> BasinError:
     return BasinError(problem, source=f"basin {name!r}", expected=expected, fix=fix)
 
 
-def _clean_ring(coords, name) -> np.ndarray:
+def _clean_ring(coords: Any, name: object) -> np.ndarray:
     try:
         ring = np.asarray(coords, dtype=float)
     except (TypeError, ValueError):
@@ -72,15 +74,16 @@ def _unwrap_lon(lon: np.ndarray) -> np.ndarray:
     step = np.diff(lon)
     full = np.isclose(np.abs(step), 360.0, rtol=0.0, atol=1e-9)
     jump = np.where((np.abs(step) > 180.0) & ~full, -360.0 * np.round(step / 360.0), 0.0)
-    return lon + np.concatenate([[0.0], np.cumsum(jump)])
+    out: np.ndarray = lon + np.concatenate([[0.0], np.cumsum(jump)])
+    return out
 
 
-def _split_antimeridian(geom):
+def _split_antimeridian(geom: Any) -> Any:
     """Cut a geometry drawn in unwrapped longitudes into parts within [-180, 180)."""
     minx, _, maxx, _ = geom.bounds
     if minx >= -180.0 and maxx <= 180.0:
         return geom
-    parts = []
+    parts: list[Any] = []
     for k in range(int(np.floor((minx + 180.0) / 360.0)), int(np.floor((maxx + 180.0) / 360.0)) + 1):
         lo = -180.0 + 360.0 * k
         piece = shapely.clip_by_rect(geom, lo, -90.0, lo + 360.0, 90.0)
@@ -90,7 +93,7 @@ def _split_antimeridian(geom):
     return shapely.union_all(parts)
 
 
-def _polygons(geom) -> list:
+def _polygons(geom: Any) -> list[Any]:
     if geom.is_empty:
         return []
     if geom.geom_type == "Polygon":
@@ -100,7 +103,7 @@ def _polygons(geom) -> list:
     return []
 
 
-def _repair(poly: Polygon, name) -> Polygon:
+def _repair(poly: Polygon, name: object) -> Polygon:
     if poly.is_valid:
         return poly
     reason = shapely.is_valid_reason(poly)
@@ -120,7 +123,7 @@ def _repair(poly: Polygon, name) -> Polygon:
                "add a vertex off the line", expected="a polygon with non-zero area")
 
 
-def _build(polygons_rings, name):
+def _build(polygons_rings: Iterable[Any], name: object) -> Any:
     """Validated (Multi)Polygon from [[exterior, hole, ...], ...] coordinate lists."""
     parts = []
     for rings in polygons_rings:
@@ -149,7 +152,7 @@ def _build(polygons_rings, name):
     return polys[0] if len(polys) == 1 else MultiPolygon(polys)
 
 
-def _rings_from_geometry(geom: dict, name) -> list:
+def _rings_from_geometry(geom: dict[str, Any], name: object) -> list[Any]:
     kind = geom.get("type") if isinstance(geom, dict) else None
     if kind == "Polygon":
         return [geom["coordinates"]]
@@ -214,7 +217,7 @@ class Basin:
     True
     """
 
-    def __init__(self, geometry, name: str = "basin"):
+    def __init__(self, geometry: Any, name: str = "basin") -> None:
         if geometry is None or geometry.is_empty or geometry.geom_type not in ("Polygon", "MultiPolygon"):
             raise _err("geometry is empty or not a polygon", name, "use one of the Basin.from_* constructors")
         if not geometry.is_valid:
@@ -225,7 +228,7 @@ class Basin:
 
     # ---------------------------------------------------------------- constructors
     @classmethod
-    def from_vertices(cls, vertices, name: str = "basin") -> "Basin":
+    def from_vertices(cls, vertices: Any, name: str = "basin") -> "Basin":
         """A basin from one ring of (lon, lat) vertices (closing vertex optional).
 
         Parameters
@@ -249,11 +252,11 @@ class Basin:
         return cls(_build([[vertices]], name), name)
 
     @classmethod
-    def _from_rings(cls, rings, name) -> "Basin":
+    def _from_rings(cls, rings: Iterable[Any], name: str) -> "Basin":
         return cls(_build(rings, name), name)
 
     @classmethod
-    def from_geojson(cls, path_or_mapping, name_property: str = "name") -> list["Basin"]:
+    def from_geojson(cls, path_or_mapping: Any, name_property: str = "name") -> list["Basin"]:
         """Basins from a GeoJSON file, JSON text or mapping: one Basin per feature.
 
         A bare Polygon/MultiPolygon gives a one-element list.  Names come from
@@ -350,7 +353,7 @@ class Basin:
         return cls._from_rings(_rings_from_geometry(mapping(geom), name), name)
 
     @classmethod
-    def from_shapefile(cls, path, name_field: str | None = None) -> list["Basin"]:
+    def from_shapefile(cls, path: str | os.PathLike[str], name_field: str | None = None) -> list["Basin"]:
         """Basins from an ESRI shapefile (read with pyshp), one per polygon record.
 
         When a ``.prj`` file names a CRS other than WGS84 lon/lat, the outlines are
@@ -419,12 +422,12 @@ class Basin:
         return self._name
 
     @property
-    def geometry(self):
+    def geometry(self) -> Any:
         """The shapely (Multi)Polygon in lon/lat degrees, within [-180, 180)."""
         return self._geometry
 
     @property
-    def bounds(self) -> tuple:
+    def bounds(self) -> tuple[float, float, float, float]:
         """(min lon, min lat, max lon, max lat)."""
         return tuple(self._geometry.bounds)
 
@@ -446,7 +449,7 @@ class Basin:
         """Hash of the geometry (not the name): equal outlines, equal tokens."""
         return hashlib.blake2b(shapely.to_wkb(self._geometry), digest_size=16).hexdigest()
 
-    def to_geojson(self) -> dict:
+    def to_geojson(self) -> dict[str, Any]:
         """A GeoJSON Feature mapping with the name in ``properties``."""
         geom = json.loads(json.dumps(mapping(self._geometry)))  # tuples -> lists
         return {"type": "Feature", "properties": {"name": self._name}, "geometry": geom}
@@ -456,7 +459,7 @@ class Basin:
         return f"Basin({self._name!r}, {self._geometry.geom_type}, lon {w:g}..{e:g}, lat {s:g}..{n:g})"
 
 
-def _prj_transform(prj: Path):
+def _prj_transform(prj: Path) -> Callable[[Any], Any] | None:
     """A shapely transform to WGS84 lon/lat for the .prj's CRS, or None when not needed."""
     if not prj.is_file():
         return None
@@ -474,16 +477,16 @@ def _prj_transform(prj: Path):
         return None
     tr = Transformer.from_crs(crs, target, always_xy=True)
     # Densify in the source units: 1/200 of the outline's extent per segment.
-    step_fn = (lambda g: max(g.bounds[2] - g.bounds[0], g.bounds[3] - g.bounds[1]) / 200.0 or 1.0)
+    step_fn: Callable[[Any], float] = (lambda g: max(g.bounds[2] - g.bounds[0], g.bounds[3] - g.bounds[1]) / 200.0 or 1.0)
 
-    def transform(geom):
+    def transform(geom: Any) -> Any:
         dense = shapely.segmentize(geom, max_segment_length=step_fn(geom))
         return shapely.transform(dense, lambda xy: np.column_stack(tr.transform(xy[:, 0], xy[:, 1])))
 
     return transform
 
 
-def write_geojson(basins, path, overwrite: bool = False) -> Path:
+def write_geojson(basins: Basin | Iterable[Basin], path: str | os.PathLike[str], overwrite: bool = False) -> Path:
     """Write basins to a GeoJSON FeatureCollection, atomically (temp file, then rename).
 
     Parameters
