@@ -42,6 +42,8 @@ type 7); τ of a future value is (rank − 1)/(n − 1) with average ranks for t
 
 from __future__ import annotations
 
+from typing import Any
+
 import numpy as np
 import xarray as xr
 
@@ -76,7 +78,8 @@ def _calendar_of(da) -> str:
     return _SAME_CALENDAR.get(cal, cal)
 
 
-def check_model_runs(model_hist, model_future, dim, func):
+def check_model_runs(model_hist: xr.DataArray, model_future: xr.DataArray, dim: str | None,
+                     func: str) -> str | None:
     """Validate a historical and a future run: precipitation convention, members, calendar.
 
     Parameters
@@ -141,7 +144,7 @@ def _check_series(da, label, func):
                         fix=err.fix) from None
 
 
-def period_or_default(da, period, label, func):
+def period_or_default(da: xr.DataArray, period: Any, label: str, func: str) -> tuple[int, int]:
     """(first, last) complete years of ``da`` to use: ``period`` checked, or all complete years.
 
     Parameters
@@ -242,7 +245,7 @@ def _on_obs_grid(field, obs):
     return out
 
 
-def _years(da, first, last):
+def _years(da: xr.DataArray, first: int, last: int) -> xr.DataArray:
     y = da["time"].dt.year
     return da.isel(time=np.flatnonzero(((y >= first) & (y <= last)).values))
 

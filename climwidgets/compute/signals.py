@@ -18,6 +18,9 @@ variables only.  Each period is the run's complete calendar years unless given.
 
 from __future__ import annotations
 
+from collections.abc import Iterable, Sequence
+from typing import Any
+
 import xarray as xr
 
 from ..provenance import with_history
@@ -27,12 +30,15 @@ from .scenario import SCENARIO_CAUTIONS, _years, check_model_runs, period_or_def
 __all__ = ["annual_normal_signal", "design_depth_signal", "seasonal_share_signal"]
 
 
-def _periods(model_hist, model_future, historical, future, func):
+def _periods(model_hist: xr.DataArray, model_future: xr.DataArray, historical: Any, future: Any,
+             func: str) -> tuple[tuple[int, int], tuple[int, int]]:
     return (period_or_default(model_hist, historical, "model_hist", func),
             period_or_default(model_future, future, "model_future", func))
 
 
-def _signal(hist_value, fut_value, change, kind, member, func, attrs, cautions, source_attrs, **params):
+def _signal(hist_value: xr.DataArray, fut_value: xr.DataArray, change: xr.DataArray, kind: str, member: str | None,
+            func: str, attrs: dict[str, Any], cautions: Sequence[str], source_attrs: dict[str, Any],
+            **params: Any) -> xr.Dataset:
     ds = xr.Dataset({"historical": hist_value, "future": fut_value, "change": change})
     if member is not None:
         summary = ensemble_summary(change, dim=member, change=kind)
@@ -44,11 +50,12 @@ def _signal(hist_value, fut_value, change, kind, member, func, attrs, cautions, 
     return with_history(ds, func, source_attrs, **params)
 
 
-def _strip(da):
+def _strip(da: xr.DataArray) -> xr.DataArray:
     return da.drop_vars([c for c in da.coords if c not in da.dims])
 
 
-def seasonal_share_signal(model_hist, model_future, months=(7, 8), historical=None, future=None, dim=None,
+def seasonal_share_signal(model_hist: xr.DataArray, model_future: xr.DataArray, months: Iterable[int] = (7, 8),
+                          historical: Any = None, future: Any = None, dim: str | None = None,
                           year_start: int = 1) -> xr.Dataset:
     """Change in the seasonal share of the annual total: future minus historical, per member.
 
@@ -111,8 +118,8 @@ def seasonal_share_signal(model_hist, model_future, months=(7, 8), historical=No
                    months=tuple(months), historical=ph, future=pf)
 
 
-def annual_normal_signal(model_hist, model_future, historical=None, future=None, dim=None,
-                         min_fraction: float = 0.8) -> xr.Dataset:
+def annual_normal_signal(model_hist: xr.DataArray, model_future: xr.DataArray, historical: Any = None,
+                         future: Any = None, dim: str | None = None, min_fraction: float = 0.8) -> xr.Dataset:
     """Ratio of annual normals, future / historical, per member.
 
     The annual normal is the sum of the 12 monthly normals (:func:`cw.annual_normal`, WMO
@@ -180,8 +187,9 @@ def annual_normal_signal(model_hist, model_future, historical=None, future=None,
                    historical=ph, future=pf, min_fraction=min_fraction)
 
 
-def design_depth_signal(model_hist, model_future, periods=(2, 10, 25, 50, 100), duration_days: int = 1,
-                        historical=None, future=None, dim=None, n_boot: int = 200, ci: float = 0.9,
+def design_depth_signal(model_hist: xr.DataArray, model_future: xr.DataArray, periods: Any = (2, 10, 25, 50, 100),
+                        duration_days: int = 1, historical: Any = None, future: Any = None, dim: str | None = None,
+                        n_boot: int = 200, ci: float = 0.9,
                         seed: int = 0) -> xr.Dataset:
     """Ratio of design depths (T-year n-day depths), future / historical, per member.
 
