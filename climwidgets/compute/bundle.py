@@ -9,6 +9,9 @@ reads every stored chunk once (docs/architecture.md).
 
 from __future__ import annotations
 
+from collections.abc import Iterable, Sequence
+from typing import Any
+
 import xarray as xr
 
 from .. import cache
@@ -24,7 +27,9 @@ from .totals import annual_totals, monthly_totals
 __all__ = ["climatology_bundle"]
 
 
-def _build(pr, months, baseline, year_start, maxima_days, indices=(), index_base_period=None):
+def _build(pr: xr.DataArray, months: tuple[int, ...], baseline: Sequence[int] | None, year_start: int,
+           maxima_days: tuple[int, ...], indices: tuple[str, ...] = (),
+           index_base_period: Sequence[int] | None = None) -> xr.Dataset:
     pr, step = precip_mm(pr, "climatology_bundle")
     # one task per chunk read makes the monthly partials and maxima (see _fused); else plain
     fused = _fused.monthly_and_maxima(pr, step, maxima_days, year_start) \
@@ -59,9 +64,10 @@ def _build(pr, months, baseline, year_start, maxima_days, indices=(), index_base
                         year_start=year_start, maxima_days=tuple(maxima_days), indices=tuple(indices))
 
 
-def climatology_bundle(pr: xr.DataArray, months=(7, 8), baseline=None, year_start: int = 1,
-                       maxima_days=(1,), compute: bool = False, use_cache: bool = False, indices=(),
-                       index_base_period=None) -> xr.Dataset:
+def climatology_bundle(pr: xr.DataArray, months: Iterable[int] = (7, 8), baseline: Sequence[int] | None = None,
+                       year_start: int = 1, maxima_days: Iterable[int] = (1,), compute: bool = False,
+                       use_cache: bool = False, indices: str | Iterable[str] | None = (),
+                       index_base_period: Sequence[int] | None = None) -> xr.Dataset:
     """Monthly and annual totals, seasonal share, normals and annual maxima together.
 
     Parameters
@@ -125,7 +131,7 @@ def climatology_bundle(pr: xr.DataArray, months=(7, 8), baseline=None, year_star
     months = tuple(months)
     maxima_days = tuple(maxima_days)
     indices = (indices,) if isinstance(indices, str) else tuple(indices or ())
-    extra = {"indices": indices, "index_base_period": index_base_period} if indices else {}
+    extra: dict[str, Any] = {"indices": indices, "index_base_period": index_base_period} if indices else {}
     if use_cache:
         return cache.cached("climatology_bundle", lambda: _build(pr, months, baseline, year_start, maxima_days,
                                                                  **extra),
