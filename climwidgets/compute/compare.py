@@ -12,6 +12,8 @@ totals themselves are not changed (a noleap February total is 28 days of rain).
 
 from __future__ import annotations
 
+from typing import Any
+
 import numpy as np
 import pandas as pd
 import xarray as xr
@@ -24,7 +26,7 @@ __all__ = ["align", "compare"]
 
 
 # ---------------------------------------------------------------- align
-def _check_products(datasets, func: str) -> dict:
+def _check_products(datasets: Any, func: str) -> dict[str, xr.DataArray]:
     if not isinstance(datasets, dict) or not datasets:
         raise ParameterError(f"{func} needs a non-empty dict of products", source=func,
                              expected="{'name': DataArray, ...}",
@@ -44,7 +46,7 @@ def _month_labels(time: xr.DataArray) -> pd.DatetimeIndex:
     return pd.DatetimeIndex(pd.to_datetime(frame))
 
 
-def _complete_years(da: xr.DataArray) -> set:
+def _complete_years(da: xr.DataArray) -> set[int]:
     """Years whose 12 months the time axis fully covers (from coordinates only)."""
     cov = month_coverage(da, da.attrs["step"])
     years = cov["time"].dt.year.values[cov.values]
@@ -59,7 +61,7 @@ def _calendar(da: xr.DataArray) -> str:
         return "standard"
 
 
-def _grid_key(obj) -> tuple:
+def _grid_key(obj: xr.DataArray | xr.Dataset) -> tuple[Any, ...]:
     """Centres and bounds of a rectilinear grid (for 'already on this grid' checks)."""
     from ..geo.grid import cell_bounds
 
@@ -71,7 +73,7 @@ def _grid_key(obj) -> tuple:
                            b.lon_lower, b.lon_upper))
 
 
-def _pick_grid(products: dict, grid):
+def _pick_grid(products: dict[str, xr.DataArray], grid: Any) -> Any:
     """The target grid: None -> shared grid or the coarsest rectilinear product."""
     from ..geo.grid import is_curvilinear
 
@@ -99,7 +101,8 @@ def _pick_grid(products: dict, grid):
     return grid
 
 
-def _common_months(products: dict, period, func: str):
+def _common_months(products: dict[str, xr.DataArray], period: Any,
+                   func: str) -> tuple[dict[str, xr.DataArray], tuple[int, int]]:
     """Monthly totals of every product on standard month starts over the common complete
     years (or ``period``, which must lie inside them); returns (dict, (first, last))."""
     from .totals import monthly_totals
@@ -132,7 +135,8 @@ def _common_months(products: dict, period, func: str):
     return out, (min(common), max(common))
 
 
-def align(datasets: dict, grid=None, period=None, method: str = "conservative", **regrid_kwargs) -> dict:
+def align(datasets: dict[str, xr.DataArray], grid: Any = None, period: Any = None, method: str = "conservative",
+          **regrid_kwargs: Any) -> dict[str, xr.DataArray]:
     """Bring several precipitation products to a common period, time index and grid.
 
     Parameters
@@ -204,10 +208,10 @@ def align(datasets: dict, grid=None, period=None, method: str = "conservative", 
 
 
 # ---------------------------------------------------------------- compare
-def _pearson(x, y, dim):
+def _pearson(x: xr.DataArray, y: xr.DataArray, dim: str) -> xr.DataArray:
     """Pearson r of two pair-masked arrays (NaN where either has no spread)."""
     dx, dy = x - x.mean(dim), y - y.mean(dim)
-    return safe_divide((dx * dy).mean(dim), np.sqrt((dx**2).mean(dim) * (dy**2).mean(dim)))
+    return safe_divide((dx * dy).mean(dim), np.sqrt((dx**2).mean(dim) * (dy**2).mean(dim)))  # type: ignore[arg-type]
 
 
 _DESCRIPTIONS = {
@@ -336,7 +340,7 @@ def compare(a: xr.DataArray, b: xr.DataArray, dim: str = "time", kge: str = "200
     beta = safe_divide(mb, ma)
     spread = safe_divide(sb, sa) if kge == "2009" else safe_divide(safe_divide(sb, mb), safe_divide(sa, ma))
     sq = ((b - a) ** 2).sum(dim)
-    out = {
+    out: dict[str, Any] = {
         "bias": (mb - ma) * per_year,
         "ratio": beta,
         "rmse": np.sqrt(safe_divide(sq, n.astype(float))),
@@ -354,7 +358,7 @@ def compare(a: xr.DataArray, b: xr.DataArray, dim: str = "time", kge: str = "200
     ds = xr.Dataset({k: v.where(enough) for k, v in out.items()})
     ds["n"] = n
     for k in ds.data_vars:
-        units, text = _DESCRIPTIONS[k]
+        units, text = _DESCRIPTIONS[k]  # type: ignore[index]  # the names are the str keys above
         ds[k].attrs = {"units": units, "description": text}
     ds["kge"].attrs["description"] = _KGE[kge]
     ds["kge"].attrs["kge_form"] = kge

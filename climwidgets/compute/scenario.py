@@ -73,7 +73,7 @@ _SAME_CALENDAR = {"gregorian": "standard", "proleptic_gregorian": "standard", "3
 
 
 # ---------------------------------------------------------------- validation
-def _calendar_of(da) -> str:
+def _calendar_of(da: xr.DataArray) -> str:
     cal = _calendar(da)
     return _SAME_CALENDAR.get(cal, cal)
 
@@ -132,7 +132,7 @@ def check_model_runs(model_hist: xr.DataArray, model_future: xr.DataArray, dim: 
     return member
 
 
-def _check_series(da, label, func):
+def _check_series(da: Any, label: str, func: str) -> str:
     if not isinstance(da, xr.DataArray):
         raise ParameterError(f"{label} is a {type(da).__name__}", source=func, variable=label,
                              expected="an xarray.DataArray of precipitation depth per step (mm)",
@@ -196,7 +196,7 @@ def period_or_default(da: xr.DataArray, period: Any, label: str, func: str) -> t
     return first, last
 
 
-def _check_obs(obs, func):
+def _check_obs(obs: Any, func: str) -> str:
     step = _check_series(obs, "obs", func)
     extra = [d for d in MEMBER_DIMS if d in obs.dims]
     if extra:
@@ -206,11 +206,11 @@ def _check_obs(obs, func):
     return step
 
 
-def _has_grid(da) -> bool:
+def _has_grid(da: xr.DataArray) -> bool:
     return "lat" in da.coords and "lon" in da.coords
 
 
-def _check_grids(obs, model_hist, func):
+def _check_grids(obs: xr.DataArray, model_hist: xr.DataArray, func: str) -> None:
     """Gridded observations, or series (e.g. basin means) for observations and runs alike."""
     if _has_grid(obs) != _has_grid(model_hist):
         which = "the observations have" if not _has_grid(obs) else "the model runs have"
@@ -220,7 +220,7 @@ def _check_grids(obs, model_hist, func):
                         fix="open gridded data with cw.open_precip, or take cw.basin_mean of every input")
 
 
-def _same_grid(a, b) -> bool:
+def _same_grid(a: xr.DataArray, b: xr.DataArray) -> bool:
     """Same lat/lon centres (and the same bounds where both carry them); series are alike."""
     if not _has_grid(a) and not _has_grid(b):
         return True
@@ -234,13 +234,13 @@ def _same_grid(a, b) -> bool:
     return True
 
 
-def _on_obs_grid(field, obs):
+def _on_obs_grid(field: xr.DataArray, obs: xr.DataArray) -> xr.DataArray:
     """``field`` conservatively remapped onto the observed grid (unchanged when already on it)."""
     from .regrid import regrid
 
     if _same_grid(field, obs):
         return field
-    out = regrid(field, obs, method="conservative")
+    out: xr.DataArray = regrid(field, obs, method="conservative")
     out.attrs.pop("history", None)
     return out
 
@@ -251,7 +251,9 @@ def _years(da: xr.DataArray, first: int, last: int) -> xr.DataArray:
 
 
 # ---------------------------------------------------------------- monthly ratio
-def _monthly_factors(obs, model_hist, model_future, hist_period, fut_period, min_fraction):
+def _monthly_factors(obs: xr.DataArray, model_hist: xr.DataArray, model_future: xr.DataArray,
+                     hist_period: tuple[int, int], fut_period: tuple[int, int],
+                     min_fraction: float) -> xr.DataArray:
     from .normals import normals
 
     nh = normals(model_hist, baseline=hist_period, min_fraction=min_fraction).drop_vars("n_years")
@@ -259,14 +261,15 @@ def _monthly_factors(obs, model_hist, model_future, hist_period, fut_period, min
     nh, nf = _on_obs_grid(nh, obs), _on_obs_grid(nf, obs)
     # a month that is dry in both periods does not change (factor 1); one that is dry only
     # in the historical period cannot be scaled from zero (NaN)
-    factor = xr.where(nh > 0, nf / nh.where(nh > 0), xr.where((nh == 0) & (nf == 0), 1.0, np.nan))
+    factor: xr.DataArray = xr.where(nh > 0, nf / nh.where(nh > 0),  # type: ignore[no-untyped-call]
+                                    xr.where((nh == 0) & (nf == 0), 1.0, np.nan))  # type: ignore[no-untyped-call]
     factor.name = "change_factor"
     factor.attrs = {"units": "1", "long_name": "monthly change factor (future / historical monthly normal)",
                     "historical_period": list(hist_period), "future_period": list(fut_period)}
     return factor
 
 
-def _apply_monthly(obs, factor):
+def _apply_monthly(obs: xr.DataArray, factor: xr.DataArray) -> xr.DataArray:
     month = obs["time"].dt.month
     per_step = factor.sel(month=month).drop_vars("month")
     return obs * per_step
@@ -274,9 +277,10 @@ def _apply_monthly(obs, factor):
 
 # ---------------------------------------------------------------- public function
 def delta_change(obs: xr.DataArray, model_hist: xr.DataArray, model_future: xr.DataArray,
-                 method: str = "monthly_ratio", *, historical=None, future=None, dim=None,
-                 group: str = "month", trace: float = 0.05, max_ratio: float = 2.0, seed: int = 0,
-                 min_fraction: float = 0.8, return_factors: bool = False):
+                 method: str = "monthly_ratio", *, historical: Any = None, future: Any = None,
+                 dim: str | None = None, group: str = "month", trace: float = 0.05, max_ratio: float = 2.0,
+                 seed: int = 0, min_fraction: float = 0.8,
+                 return_factors: bool = False) -> Any:  # a DataArray, or (scenario, factors)
     """A climate-change scenario on the observed grid, per member, from a model ensemble.
 
     Parameters
@@ -380,13 +384,13 @@ def delta_change(obs: xr.DataArray, model_hist: xr.DataArray, model_future: xr.D
     member = check_model_runs(model_hist, model_future, dim, func)
     _check_grids(obs, model_hist, func)
     fut_period = period_or_default(model_future, future, "model_future", func)
-    params = dict(method=method, future=fut_period)
+    params: dict[str, Any] = dict(method=method, future=fut_period)
 
     if method == "monthly_ratio":
         hist_period = period_or_default(model_hist, historical, "model_hist", func)
         factor = _monthly_factors(obs, model_hist, model_future, hist_period, fut_period, min_fraction)
         out = _apply_monthly(obs, factor)
-        attrs = {"method": "monthly ratio (delta change): each observed step times its month's change factor, "
+        attrs: dict[str, Any] = {"method": "monthly ratio (delta change): each observed step times its month's change factor, "
                            "future / historical monthly normal of the model run, per member",
                  "historical_period": list(hist_period), "future_period": list(fut_period),
                  "observed_period": f"{obs['time'].dt.year.values[0]}-{obs['time'].dt.year.values[-1]}"}
