@@ -71,7 +71,7 @@ def thom_gamma_fit(values: xr.DataArray,
     References
     ----------
     Thom, H. C. S. (1958). A note on the gamma distribution. Monthly Weather Review, 86(4),
-    117-122. https://doi.org/10.1175/1520-0493(1958)086<0117:ANOTGD>2.0.CO;2
+    117-122.
 
     Edwards, D. C. and McKee, T. B. (1997). Characteristics of 20th century drought in the
     United States at multiple time scales. Climatology Report 97-2, Department of
@@ -153,7 +153,7 @@ def spi(pr: xr.DataArray, scale: int = 3, baseline: Sequence[int] = (1991, 2020)
     Meteorological Organization, Geneva.
 
     Thom, H. C. S. (1958). A note on the gamma distribution. Monthly Weather Review, 86(4),
-    117-122. https://doi.org/10.1175/1520-0493(1958)086<0117:ANOTGD>2.0.CO;2
+    117-122.
 
     Examples
     --------
