@@ -6,6 +6,8 @@ precipitation data, so it may use numpy freely without breaking laziness.
 
 from __future__ import annotations
 
+from typing import Any
+
 import numpy as np
 import xarray as xr
 
@@ -16,7 +18,7 @@ EARTH_RADIUS_M = 6_371_007.2  # authalic radius used for cell areas (docs/archit
 _GRID_RTOL = 1e-3
 
 
-def check_wind_from(wind_from, func: str) -> float:
+def check_wind_from(wind_from: Any, func: str) -> float:
     """Meteorological wind direction (blowing from, clockwise from north) in [0, 360]."""
     try:
         value = float(wind_from)
@@ -34,7 +36,7 @@ def check_wind_from(wind_from, func: str) -> float:
     return value % 360.0
 
 
-def grid_coords(da, func: str, what: str = "field") -> tuple[np.ndarray, np.ndarray]:
+def grid_coords(da: Any, func: str, what: str = "field") -> tuple[np.ndarray, np.ndarray]:
     """1-D lat and lon of a rectilinear DataArray (lat ascending, lon in [-180, 180))."""
     if not isinstance(da, xr.DataArray):
         raise ParameterError(
@@ -69,7 +71,7 @@ def grid_coords(da, func: str, what: str = "field") -> tuple[np.ndarray, np.ndar
     return lat, lon
 
 
-def check_same_grid(field, other, func: str, what: str = "elevation") -> None:
+def check_same_grid(field: xr.DataArray, other: xr.DataArray, func: str, what: str = "elevation") -> None:
     """Raise MismatchError naming the coordinate that differs and by how much."""
     for coord in ("lat", "lon"):
         a = np.asarray(field[coord].values, dtype=float)
@@ -92,7 +94,8 @@ def check_same_grid(field, other, func: str, what: str = "elevation") -> None:
             )
 
 
-def _edges(centres: np.ndarray, lower=None, upper=None, limit=None) -> tuple[np.ndarray, np.ndarray]:
+def _edges(centres: np.ndarray, lower: Any = None, upper: Any = None,
+           limit: float | None = None) -> tuple[np.ndarray, np.ndarray]:
     if lower is not None and upper is not None:
         return np.asarray(lower, float), np.asarray(upper, float)
     if centres.size == 1:
@@ -105,7 +108,7 @@ def _edges(centres: np.ndarray, lower=None, upper=None, limit=None) -> tuple[np.
     return infer_edges(centres, clip=limit)
 
 
-def cell_area(da) -> xr.DataArray:
+def cell_area(da: xr.DataArray) -> xr.DataArray:
     """Per-cell area in m² on the (lat, lon) grid of ``da`` as a numpy-backed DataArray.
 
     Uses ``climwidgets.geo.area.cell_area`` when that module is installed; otherwise the
@@ -115,7 +118,7 @@ def cell_area(da) -> xr.DataArray:
     try:
         from ..geo.area import cell_area as shared_cell_area
     except ImportError:
-        shared_cell_area = None
+        shared_cell_area = None  # type: ignore[assignment]
     grid = xr.DataArray(np.zeros((da.sizes["lat"], da.sizes["lon"])),
                         coords={"lat": da["lat"], "lon": da["lon"]}, dims=("lat", "lon"))
     for name in ("lat_lower", "lat_upper", "lon_lower", "lon_upper"):
@@ -133,7 +136,7 @@ def cell_area(da) -> xr.DataArray:
     return grid.copy(data=area)
 
 
-def check_ridge(ridge, func: str) -> np.ndarray:
+def check_ridge(ridge: Any, func: str) -> np.ndarray:
     """Crest polyline as an (n, 2) float array of (lon, lat); at least two points."""
     try:
         pts = np.asarray(ridge, dtype=float)
@@ -168,29 +171,29 @@ def wind_axes(wind_from: float) -> tuple[float, float]:
     return float(np.sin(toward)), float(np.cos(toward))
 
 
-def to_plane(lon, lat, lat0: float):
+def to_plane(lon: Any, lat: Any, lat0: float) -> tuple[np.ndarray, np.ndarray]:
     """Local tangent plane (equirectangular at lat0), metres east and north."""
     x = EARTH_RADIUS_M * np.deg2rad(np.asarray(lon, float)) * np.cos(np.deg2rad(lat0))
     y = EARTH_RADIUS_M * np.deg2rad(np.asarray(lat, float))
     return x, y
 
 
-def from_plane(x, y, lat0: float):
+def from_plane(x: Any, y: Any, lat0: float) -> tuple[Any, Any]:
     lon = np.rad2deg(x / (EARTH_RADIUS_M * np.cos(np.deg2rad(lat0))))
     return lon, np.rad2deg(y / EARTH_RADIUS_M)
 
 
-def rotate(x, y, ex: float, ny: float):
+def rotate(x: Any, y: Any, ex: float, ny: float) -> tuple[Any, Any]:
     """(cross-wind p, along-wind q) from plane (x, y) for the wind unit vector (ex, ny)."""
     return x * ny - y * ex, x * ex + y * ny
 
 
-def unrotate(p, q, ex: float, ny: float):
+def unrotate(p: Any, q: Any, ex: float, ny: float) -> tuple[Any, Any]:
     return p * ny + q * ex, -p * ex + q * ny
 
 
 def crest_points(z: np.ndarray, lat: np.ndarray, lon: np.ndarray, wind_from: float,
-                 min_height=None, func: str = "crest_from_elevation") -> list[tuple[float, float]]:
+                 min_height: float | None = None, func: str = "crest_from_elevation") -> list[tuple[float, float]]:
     """Highest cell of every line parallel to the wind; see crest_from_elevation."""
     ex, ny = wind_axes(wind_from)
     lon2, lat2 = np.meshgrid(lon, lat)

@@ -24,6 +24,9 @@ first dimension, and n-day maxima for n > 1 (their windows cross chunk boundarie
 
 from __future__ import annotations
 
+from collections.abc import Sequence
+from typing import Any
+
 import numpy as np
 import xarray as xr
 
@@ -38,12 +41,12 @@ _LIKELY_FILL = (-9999.0, -999.0, -99999.0)  # the loader's fill codes for files 
 OUTPUT_CHUNK_BYTES = 32 * 2**20  # monthly results are gathered into chunks of about this size
 
 
-def applicable(pr: xr.DataArray, step: str, maxima_days) -> bool:
+def applicable(pr: xr.DataArray, step: str, maxima_days: Sequence[int]) -> bool:
     return (ENABLED and step in ("day", "hour") and pr.chunks is not None and pr.dims[0] == "time"
             and pr.ndim >= 2 and all(d == 1 for d in maxima_days) and (step == "day" or not maxima_days))
 
 
-def _stored_record(pr):
+def _stored_record(pr: xr.DataArray) -> tuple[Any, float] | None:
     """The loader's record of the stored values, if it still describes ``pr``; else None."""
     rec = pr.encoding.get("stored_values")
     if rec is None or getattr(rec, "name", None) != pr.data.name or rec.data.shape != pr.shape \
@@ -55,19 +58,20 @@ def _stored_record(pr):
     return rec, float(factor[0])
 
 
-def _segment_range(starts, t0, t1):
+def _segment_range(starts: np.ndarray, t0: int, t1: int) -> tuple[int, int]:
     """Segments (given by their first step, sorted, starting at 0) overlapping steps [t0, t1)."""
     lo = int(np.searchsorted(starts, t0, side="right")) - 1
     hi = int(np.searchsorted(starts, t1, side="left"))
     return lo, hi
 
 
-def _local_bounds(starts, n_steps, lo, hi, t0, t1):
+def _local_bounds(starts: np.ndarray, n_steps: int, lo: int, hi: int, t0: int, t1: int) -> list[tuple[int, int]]:
     ends = np.append(starts[1:], n_steps)
     return [(max(int(starts[i]), t0) - t0, min(int(ends[i]), t1) - t0) for i in range(lo, hi)]
 
 
-def _depth_block(block, mask_fill, guard, factor, source, variable, max_depth=None, where=None):
+def _depth_block(block: Any, mask_fill: bool, guard: bool, factor: float, source: Any, variable: Any,
+                 max_depth: float | None = None, where: Any = None) -> np.ndarray:
     """Fill masking and the negative guard on stored values, without converting every value.
 
     Same rules as the loader's conversion (fill heuristics for files without _FillValue,
@@ -97,8 +101,9 @@ def _depth_block(block, mask_fill, guard, factor, source, variable, max_depth=No
     return x
 
 
-def _partials(block, month_starts, year_starts, n_steps, factor, mask_fill, guard, source, variable,
-              with_maxima, max_depth=None, dims=None, block_info=None):
+def _partials(block: Any, month_starts: np.ndarray, year_starts: np.ndarray, n_steps: int, factor: float,
+              mask_fill: bool, guard: bool, source: Any, variable: Any, with_maxima: bool,
+              max_depth: float | None = None, dims: Any = None, block_info: Any = None) -> np.ndarray:
     """Rows of one block's partials: month sums, then (optionally) year maxima and valid counts."""
     t0, t1 = block_info[0]["array-location"][0]
     offset = [a for a, _ in block_info[0]["array-location"]]
@@ -118,7 +123,7 @@ def _partials(block, month_starts, year_starts, n_steps, factor, mask_fill, guar
     return np.concatenate(rows)
 
 
-def _combine(op, n_out, *parts_and_rows):
+def _combine(op: str, n_out: int, *parts_and_rows: Any) -> np.ndarray:
     """Add (op "sum") or NaN-skipping max (op "max") block partials into ``n_out`` segments."""
     parts, placements = parts_and_rows[::2], parts_and_rows[1::2]
     shape = (n_out,) + parts[0].shape[1:]
@@ -132,7 +137,8 @@ def _combine(op, n_out, *parts_and_rows):
     return out
 
 
-def _assemble(partials, block_ranges, row_offsets, n_seg, seg_starts, tblock_starts, op, name):
+def _assemble(partials: Any, block_ranges: Sequence[tuple[int, int]], row_offsets: Sequence[int], n_seg: int,
+              seg_starts: np.ndarray, tblock_starts: np.ndarray, op: str, name: str) -> Any:
     """A dask array (n_seg, *space) from the block partials: one combine task per output chunk.
 
     Output chunks along time hold the segments that begin in the same time block (so a
@@ -145,13 +151,13 @@ def _assemble(partials, block_ranges, row_offsets, n_seg, seg_starts, tblock_sta
     space = partials.chunks[1:]
     owner = np.searchsorted(tblock_starts, seg_starts, side="right") - 1
     per_chunk = max(1, OUTPUT_CHUNK_BYTES // (8 * int(np.prod([max(c) for c in space]))))
-    groups = []  # (first segment, last segment + 1); whole owners, merged up to the size target
+    groups: list[list[int]] = []  # (first segment, last segment + 1); whole owners, merged up to the size target
     for s in range(n_seg):
         if groups and (owner[s] == owner[s - 1] or s - groups[-1][0] < per_chunk):
             groups[-1][1] = s + 1
         else:
             groups.append([s, s + 1])
-    dsk = {}
+    dsk: dict[Any, Any] = {}
     for c, (a, b) in enumerate(groups):
         sources = [g for g, (lo, hi) in enumerate(block_ranges) if lo < b and hi > a]
         for idx in np.ndindex(*[len(ch) for ch in space]):
@@ -163,21 +169,23 @@ def _assemble(partials, block_ranges, row_offsets, n_seg, seg_starts, tblock_sta
             dsk[(name, c) + idx] = (_combine, op, b - a, *args)
     graph = HighLevelGraph.from_collections(name, dsk, dependencies=[partials])
     chunks = (tuple(b - a for a, b in groups),) + space
-    return dsa.Array(graph, name, chunks=chunks, dtype=np.float64, meta=np.empty((0,) * partials.ndim))
+    return dsa.Array(graph, name, chunks=chunks, dtype=np.float64,  # type: ignore[no-untyped-call]
+                     meta=np.empty((0,) * partials.ndim))
 
 
-def _stub(pr):
+def _stub(pr: xr.DataArray) -> xr.DataArray:
     """A numpy stand-in with ``pr``'s time axis and attrs, one cell: metadata without reading."""
     shape = (pr.sizes["time"],) + (1,) * (pr.ndim - 1)
     return xr.DataArray(np.zeros(shape, np.float32), dims=pr.dims, coords={"time": pr["time"]}, attrs=pr.attrs,
                         name=pr.name)
 
 
-def _space_coords(pr):
+def _space_coords(pr: xr.DataArray) -> dict[Any, Any]:
     return {k: v for k, v in pr.coords.items() if "time" not in v.dims}
 
 
-def monthly_and_maxima(pr: xr.DataArray, step: str, maxima_days, year_start: int):
+def monthly_and_maxima(pr: xr.DataArray, step: str, maxima_days: Sequence[int],
+                       year_start: int) -> tuple[xr.DataArray, dict[int, xr.DataArray]] | None:
     """Monthly totals and annual 1-day maxima of ``pr`` in one fused pass (see the module notes).
 
     Returns (monthly totals, {1: annual maxima} or {}) as lazy DataArrays with the same
@@ -217,7 +225,7 @@ def monthly_and_maxima(pr: xr.DataArray, step: str, maxima_days, year_start: int
         y_ranges.append(_segment_range(year_starts, t0, t0 + n) if with_maxima else (0, 0))
         rows.append((m_ranges[-1][1] - m_ranges[-1][0]) + 2 * (y_ranges[-1][1] - y_ranges[-1][0]))
     token = tokenize(source.name, month_starts, year_starts, kwargs, with_maxima)
-    partials = dsa.map_blocks(_partials, source, month_starts, year_starts, n_steps, **kwargs,
+    partials = dsa.map_blocks(_partials, source, month_starts, year_starts, n_steps, **kwargs,  # type: ignore[no-untyped-call]
                               with_maxima=with_maxima, dtype=np.float64, chunks=(tuple(rows),) + source.chunks[1:],
                               name=f"climatology-partials-{token}", meta=np.empty((0,) * source.ndim))
     zero = [0] * len(tchunks)

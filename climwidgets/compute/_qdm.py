@@ -8,6 +8,8 @@ one block of cells runs over whole time series, one calendar month (or season) a
 
 from __future__ import annotations
 
+from typing import Any
+
 import numpy as np
 import scipy.stats
 import xarray as xr
@@ -20,7 +22,7 @@ _SEASON_OF_MONTH = np.array([0, 0, 1, 1, 1, 2, 2, 2, 3, 3, 3, 0])  # DJF, MAM, J
 _SEASONS = ("DJF", "MAM", "JJA", "SON")
 
 
-def _splitmix64(x):
+def _splitmix64(x: Any) -> Any:
     """SplitMix64 finaliser on uint64 arrays (Steele, Lea & Flood 2014): a well-mixed hash."""
     x = x + np.uint64(0x9E3779B97F4A7C15)
     x = (x ^ (x >> np.uint64(30))) * np.uint64(0xBF58476D1CE4E5B9)
@@ -28,22 +30,22 @@ def _splitmix64(x):
     return x ^ (x >> np.uint64(31))
 
 
-def _uniform(key, seed, salt, n):
+def _uniform(key: np.ndarray, seed: int, salt: int, n: int) -> np.ndarray:
     """Uniform (0, 1) numbers for positions 0..n-1 of each series identified by ``key``."""
     with np.errstate(over="ignore"):
         base = _splitmix64(key.astype(np.uint64) * np.uint64(4) + np.uint64(salt) + _splitmix64(
             np.uint64(seed)))
-        h = _splitmix64(base[..., None] + np.arange(n, dtype=np.uint64))
+        h: np.ndarray = _splitmix64(base[..., None] + np.arange(n, dtype=np.uint64))
     return ((h >> np.uint64(11)).astype(np.float64) + 0.5) / float(1 << 53)
 
 
-def _jitter(x, key, seed, salt, trace):
+def _jitter(x: np.ndarray, key: np.ndarray, seed: int, salt: int, trace: float) -> np.ndarray:
     """Dry amounts (below trace) replaced by pseudo-random amounts in (0, trace/2)."""
     u = _uniform(key, seed, salt, x.shape[-1])
     return np.where(x < trace, u * (trace / 2.0), x)
 
 
-def _quantile_at(sorted_x, count, tau):
+def _quantile_at(sorted_x: np.ndarray, count: np.ndarray, tau: np.ndarray) -> np.ndarray:
     """Type-7 empirical quantiles of each row of ``sorted_x`` (NaN last) at per-value ``tau``."""
     pos = tau * (count - 1)
     lo = np.clip(np.floor(np.nan_to_num(pos)), 0, None).astype(np.intp)
@@ -55,7 +57,9 @@ def _quantile_at(sorted_x, count, tau):
     return np.where(count > 0, q, np.nan)
 
 
-def _qdm_block(obs, hist, fut, key, g_obs, g_hist, g_fut, trace, max_ratio, ratio_trace, seed, jitter):
+def _qdm_block(obs: np.ndarray, hist: np.ndarray, fut: np.ndarray, key: np.ndarray, g_obs: np.ndarray,
+               g_hist: np.ndarray, g_fut: np.ndarray, trace: float, max_ratio: float, ratio_trace: float,
+               seed: int, jitter: bool) -> np.ndarray:
     """Quantile delta mapping on one block: arrays (..., time); returns (..., time of fut)."""
     shape = np.broadcast_shapes(obs.shape[:-1], hist.shape[:-1], fut.shape[:-1], key.shape)
     obs = np.broadcast_to(obs, shape + obs.shape[-1:]).astype(float)
@@ -87,12 +91,12 @@ def _qdm_block(obs, hist, fut, key, g_obs, g_hist, g_fut, trace, max_ratio, rati
     return out
 
 
-def _group_ids(da, group):
+def _group_ids(da: xr.DataArray, group: str) -> np.ndarray:
     month = da["time"].dt.month.values
     return month if group == "month" else _SEASON_OF_MONTH[month - 1]
 
 
-def _cell_key(template):
+def _cell_key(template: xr.DataArray) -> xr.DataArray:
     """An integer per cell of the observed grid (its position), small and in memory.
 
     Members share it, so a member's pseudo-random dry amounts are the same as when that
@@ -102,12 +106,13 @@ def _cell_key(template):
     key = xr.DataArray(np.int64(0))
     stride = 1
     for d in reversed(dims):
-        key = key + xr.DataArray(np.arange(template.sizes[d], dtype=np.int64) * stride, dims=d)
+        key = key + xr.DataArray(np.arange(template.sizes[d], dtype=np.int64) * stride, dims=d)  # type: ignore[arg-type]
         stride *= template.sizes[d]
     return key.transpose(*dims) if dims else key
 
 
-def quantile_delta_map(obs, hist, fut, group, trace, max_ratio, seed, jitter=True):
+def quantile_delta_map(obs: xr.DataArray, hist: xr.DataArray, fut: xr.DataArray, group: str, trace: float,
+                       max_ratio: float, seed: int, jitter: bool = True) -> xr.DataArray:
     """Multiplicative QDM of ``fut`` (dims time, ...) against ``obs`` and ``hist``, lazily."""
     g_obs, g_hist, g_fut = (_group_ids(x, group) for x in (obs, hist, fut))
     missing = sorted(set(g_fut.tolist()) - set(g_obs.tolist()) | set(g_fut.tolist()) - set(g_hist.tolist()))
@@ -123,7 +128,7 @@ def quantile_delta_map(obs, hist, fut, group, trace, max_ratio, seed, jitter=Tru
         o, h, f = o.chunk({"time_obs": -1}), h.chunk({"time_hist": -1}), fut.chunk({"time": -1})
     else:
         f = fut
-    out = xr.apply_ufunc(
+    out: xr.DataArray = xr.apply_ufunc(
         _qdm_block, o, h, f, key,
         kwargs=dict(g_obs=g_obs, g_hist=g_hist, g_fut=g_fut, trace=float(trace), max_ratio=float(max_ratio),
                     ratio_trace=10.0 * float(trace), seed=int(seed), jitter=jitter),

@@ -8,6 +8,8 @@ xarray's calendar-aware ``resample``.
 
 from __future__ import annotations
 
+from typing import Any, cast
+
 import numpy as np
 import xarray as xr
 
@@ -30,12 +32,12 @@ _KEEP_ATTRS_FIX = ("keep the attributes through arithmetic: `with xr.set_options
                    "hand need attrs['units'] (for example 'mm' per step, 'mm/day' or 'kg m-2 s-1')")
 
 
-def source_name(obj) -> str:
+def source_name(obj: object) -> str:
     name = getattr(obj, "name", None)
     return f"DataArray {name!r}" if name is not None else "input DataArray"
 
 
-def check_precip(pr, func: str) -> str:
+def check_precip(pr: Any, func: str) -> str:
     """Validate the precipitation convention (docs/architecture.md, conventions); return the step."""
     if not isinstance(pr, xr.DataArray):
         raise ParameterError(
@@ -74,10 +76,10 @@ def check_precip(pr, func: str) -> str:
         raise TimeAxisError("time coordinates are unsorted or duplicated", source=src,
                             variable=pr.name, expected="strictly increasing time",
                             fix="use pr.sortby('time') and drop duplicated steps")
-    return step
+    return cast(str, step)  # one of CANONICAL_STEPS
 
 
-def precip_mm(pr, func: str):
+def precip_mm(pr: Any, func: str) -> tuple[xr.DataArray, str]:
     """``(pr in mm per step, step)``: the input converted when its units are another depth or rate.
 
     The unit contract of the compute functions: any depth or rate units ``open_precip``
@@ -117,7 +119,7 @@ def precip_mm(pr, func: str):
     return pr, check_precip(pr, func)
 
 
-def check_months(months, func: str, name: str = "months") -> tuple[int, ...]:
+def check_months(months: Any, func: str, name: str = "months") -> tuple[int, ...]:
     """A season: month numbers 1..12, no repeats, consecutive (wrapping over the year end)."""
     fix = "pass month numbers such as (7, 8) or (11, 12, 1, 2, 3)"
     if isinstance(months, (int, np.integer)) and not isinstance(months, bool):
@@ -149,7 +151,7 @@ def check_months(months, func: str, name: str = "months") -> tuple[int, ...]:
     return items
 
 
-def check_year_start(year_start, func: str) -> int:
+def check_year_start(year_start: Any, func: str) -> int:
     if isinstance(year_start, bool) or not isinstance(year_start, (int, np.integer)) \
             or not 1 <= int(year_start) <= 12:
         raise ParameterError(f"year_start={year_start!r} is not a month number", source=func,
@@ -158,7 +160,7 @@ def check_year_start(year_start, func: str) -> int:
     return int(year_start)
 
 
-def check_year_range(rng, func: str, name: str) -> tuple[int, int]:
+def check_year_range(rng: Any, func: str, name: str) -> tuple[int, int]:
     fix = f"pass {name}=(first_year, last_year), e.g. (1991, 2020)"
     try:
         first, last = rng
@@ -185,7 +187,7 @@ def season_year_start(months: tuple[int, ...], year_start: int) -> int:
     return year_start if fits else months[0]
 
 
-def month_coverage(pr, step: str) -> xr.DataArray:
+def month_coverage(pr: xr.DataArray, step: str) -> xr.DataArray:
     """Boolean per month start: the time axis has every step of that month."""
     ones = xr.DataArray(np.ones(pr.sizes["time"]), coords={"time": pr["time"].values}, dims="time")
     count = ones.resample(time="MS").sum()
@@ -196,7 +198,7 @@ def month_coverage(pr, step: str) -> xr.DataArray:
     return count == expected
 
 
-def monthly_with_coverage(pr, step: str):
+def monthly_with_coverage(pr: xr.DataArray, step: str) -> tuple[xr.DataArray, np.ndarray]:
     """Monthly sums (NaN where any step is missing or the month is not covered) and coverage."""
     covered = month_coverage(pr, step)
     # skipna=False: a sum with a missing step is missing (WMO-No. 1203 rule for sums).
@@ -205,13 +207,13 @@ def monthly_with_coverage(pr, step: str):
     return monthly, covered.values
 
 
-def data_period(monthly) -> str:
+def data_period(monthly: xr.DataArray) -> str:
     t = monthly["time"]
     return f"{t.dt.strftime('%Y-%m').values[0]} to {t.dt.strftime('%Y-%m').values[-1]}"
 
 
-def year_blocks(monthly, covered: np.ndarray, start_month: int, src: str = "input DataArray",
-                keep_partial: bool = False):
+def year_blocks(monthly: xr.DataArray, covered: np.ndarray, start_month: int, src: str = "input DataArray",
+                keep_partial: bool = False) -> xr.DataArray:
     """Reshape monthly totals into 12-month years: dims (year, month, ...).
 
     Years start in ``start_month`` and are labelled by the calendar year of their last month.
@@ -253,7 +255,8 @@ def year_blocks(monthly, covered: np.ndarray, start_month: int, src: str = "inpu
                                 month=("month", months[first:first + 12].astype(int)))
 
 
-def select_years(obj, rng, func: str, name: str, src: str, dim: str = "year"):
+def select_years(obj: xr.DataArray, rng: Any, func: str, name: str, src: str,
+                 dim: str = "year") -> xr.DataArray:
     """Select labelled years; the range must lie within the data's years."""
     first, last = check_year_range(rng, func, name)
     have = obj[dim].values
@@ -266,11 +269,11 @@ def select_years(obj, rng, func: str, name: str, src: str, dim: str = "year"):
     return obj.sel({dim: (obj[dim] >= first) & (obj[dim] <= last)})
 
 
-def is_dask(obj) -> bool:
+def is_dask(obj: object) -> bool:
     return getattr(obj, "chunks", None) is not None
 
 
-def safe_divide(num, den):
+def safe_divide(num: xr.DataArray, den: xr.DataArray) -> xr.DataArray:
     """num / den with NaN where den is zero or missing, without RuntimeWarnings."""
     return num / den.where(den != 0)
 

@@ -8,6 +8,8 @@ withheld (NaN) unless at least ``min_fraction`` of the baseline years are comple
 from __future__ import annotations
 
 import warnings
+from collections.abc import Callable, Iterable, Sequence
+from typing import Any
 
 import numpy as np
 import xarray as xr
@@ -35,7 +37,8 @@ _KINDS = {"absolute": "mm", "percent": "%", "standardized": "1"}
 _PERIODS = ("month", "season", "year", "water_year")
 
 
-def _period_values(pr, period, months, year_start, func):
+def _period_values(pr: xr.DataArray, period: str, months: Any, year_start: int, func: str,
+                   ) -> tuple[xr.DataArray, xr.DataArray, Callable[[xr.DataArray], xr.DataArray], str, int]:
     """Return (x, values, to_x, label).
 
     ``x`` is the series to express as anomalies, ``values`` the same totals with a ``year``
@@ -66,21 +69,22 @@ def _period_values(pr, period, months, year_start, func):
     blocks = year_blocks(monthly, covered, 1, source_name(pr), keep_partial=True)
     month_of = monthly["time"].dt.month
 
-    def to_x(stat):
+    def to_x(stat: xr.DataArray) -> xr.DataArray:
         return stat.sel(month=month_of).drop_vars("month")
 
     return monthly, blocks, to_x, "month", year_start
 
 
-def _check_kind(kind, func):
+def _check_kind(kind: str, func: str) -> None:
     if kind not in _KINDS:
         raise ParameterError(f"kind={kind!r} is not known", source=func, variable="kind",
                              expected="'absolute', 'percent' or 'standardized'",
                              fix="pass kind='percent' (percent of normal) or another listed kind")
 
 
-def anomaly(pr: xr.DataArray, baseline=(1991, 2020), kind: str = "percent", period: str = "month",
-            months=None, year_start: int = 1, min_fraction: float = 0.8) -> xr.DataArray:
+def anomaly(pr: xr.DataArray, baseline: Sequence[int] = (1991, 2020), kind: str = "percent",
+            period: str = "month", months: Iterable[int] | int | None = None, year_start: int = 1,
+            min_fraction: float = 0.8) -> xr.DataArray:
     """Precipitation anomaly of each month, season or year against the baseline normal.
 
     Parameters
@@ -103,6 +107,41 @@ def anomaly(pr: xr.DataArray, baseline=(1991, 2020), kind: str = "percent", peri
         First month of the year (see annual_totals / seasonal_totals).
     min_fraction
         Share of baseline years needed for a normal (0.8, WMO-No. 1203).
+
+    Returns
+    -------
+    xarray.DataArray
+        The anomaly on the time axis of the period's totals (``time`` at month starts for
+        period="month", ``year`` for seasons and years), with ``units`` "mm", "%" or "1"
+        by ``kind``, the baseline and the years required in ``attrs``.  NaN where the
+        total is missing or the normal is withheld.  Lazy on dask input.
+
+    Raises
+    ------
+    climwidgets.errors.ParameterError
+        When ``kind`` or ``period`` is not one of the listed values, ``months`` is missing
+        for period="season", or ``baseline``, ``months`` or ``year_start`` are malformed.
+    climwidgets.errors.InputError
+        When ``pr`` has no usable units or step (see ``compute._time.precip_mm``).
+
+    References
+    ----------
+    WMO (2017). WMO Guidelines on the Calculation of Climate Normals. WMO-No. 1203.
+    World Meteorological Organization, Geneva (the 80 % completeness rule).
+
+    Examples
+    --------
+    >>> import numpy as np, pandas as pd, xarray as xr
+    >>> import climwidgets as cw
+    >>> time = pd.date_range("2001-01-01", periods=48, freq="MS")
+    >>> pr = xr.DataArray(np.where(time.year == 2004, 15.0, 10.0), dims="time",
+    ...                   coords={"time": time}, attrs={"units": "mm", "step": "month"})
+    >>> pon = cw.anomaly(pr, baseline=(2001, 2004), kind="percent", period="year")
+    >>> pon["year"].values, pon.values.round(1)  # normal = 135 mm a year
+    (array([2001, 2002, 2003, 2004]), array([ 88.9,  88.9,  88.9, 133.3]))
+    >>> diff = cw.anomaly(pr, baseline=(2001, 2004), kind="absolute")  # each month
+    >>> diff.values[[0, -1]]  # January 2001 and December 2004 against a 11.25 mm normal
+    array([-1.25,  3.75])
     """
     func = "anomaly"
     _check_kind(kind, func)
@@ -110,6 +149,7 @@ def anomaly(pr: xr.DataArray, baseline=(1991, 2020), kind: str = "percent", peri
     mean, sd, n, required, nyears = baseline_stats(values, baseline, min_fraction, func,
                                                    source_name(pr))
     ref = to_x(mean)
+    out: xr.DataArray
     if kind == "absolute":
         out = x - ref
     elif kind == "percent":
@@ -132,7 +172,7 @@ def anomaly(pr: xr.DataArray, baseline=(1991, 2020), kind: str = "percent", peri
                         months=months, year_start=year_start, min_fraction=min_fraction)
 
 
-def _terciles_kernel(a):
+def _terciles_kernel(a: np.ndarray) -> np.ndarray:
     """Baseline terciles along the last axis, numpy 'linear' method, NaNs skipped."""
     with warnings.catch_warnings():
         warnings.simplefilter("ignore", RuntimeWarning)  # all-missing cells give NaN quietly
@@ -140,15 +180,61 @@ def _terciles_kernel(a):
     return np.moveaxis(q, 0, -1)
 
 
-def tercile_category(pr: xr.DataArray, baseline=(1991, 2020), period: str = "month", months=None,
-                     year_start: int = 1, min_fraction: float = 0.8) -> xr.DataArray:
+def tercile_category(pr: xr.DataArray, baseline: Sequence[int] = (1991, 2020), period: str = "month",
+                     months: Iterable[int] | int | None = None, year_start: int = 1,
+                     min_fraction: float = 0.8) -> xr.DataArray:
     """Tercile category of each total: -1 below normal, 0 near normal, +1 above normal.
 
     The tercile boundaries are the 1/3 and 2/3 quantiles of the baseline totals (per
     calendar month for period="month"), numpy's default "linear" method — the method
     WMO-No. 1203 §4.5 guidance coincides with.  A total equal to a boundary counts as near
     normal.  NaN where the total is missing or the baseline fails the completeness rule.
-    Parameters as in :func:`anomaly`.
+
+    Parameters
+    ----------
+    pr
+        Precipitation depth per step in mm.
+    baseline
+        (first, last) years of the baseline period.
+    period
+        "month", "season" (needs ``months``), "year" or "water_year", as in
+        :func:`anomaly`.
+    months
+        The season for period="season".
+    year_start
+        First month of the year (see annual_totals / seasonal_totals).
+    min_fraction
+        Share of baseline years needed for the boundaries (0.8, WMO-No. 1203).
+
+    Returns
+    -------
+    xarray.DataArray
+        ``tercile_category`` with values -1, 0, +1 (CF ``flag_values`` and
+        ``flag_meanings``), units "1", on the time axis of the period's totals.  Lazy on
+        dask input.
+
+    Raises
+    ------
+    climwidgets.errors.ParameterError
+        When ``period`` is not known, ``months`` is missing for period="season", or the
+        baseline, months or year start are malformed.
+    climwidgets.errors.InputError
+        When ``pr`` has no usable units or step.
+
+    References
+    ----------
+    WMO (2017). WMO Guidelines on the Calculation of Climate Normals. WMO-No. 1203.
+    World Meteorological Organization, Geneva.
+
+    Examples
+    --------
+    >>> import numpy as np, pandas as pd, xarray as xr
+    >>> import climwidgets as cw
+    >>> time = pd.date_range("2001-01-01", periods=48, freq="MS")
+    >>> pr = xr.DataArray(np.where(time.year == 2004, 15.0, 10.0), dims="time",
+    ...                   coords={"time": time}, attrs={"units": "mm", "step": "month"})
+    >>> cw.tercile_category(pr, baseline=(2001, 2004), period="year").values
+    array([0., 0., 0., 1.])
     """
     func = "tercile_category"
     x, values, to_x, label, ys = _period_values(pr, period, months, year_start, func)
@@ -156,14 +242,14 @@ def tercile_category(pr: xr.DataArray, baseline=(1991, 2020), period: str = "mon
     n = base.count("year")
     if is_dask(base):
         base = base.chunk({"year": -1})
-    bounds = xr.apply_ufunc(_terciles_kernel, base, input_core_dims=[["year"]],
+    bounds: xr.DataArray = xr.apply_ufunc(_terciles_kernel, base, input_core_dims=[["year"]],
                             output_core_dims=[["tercile"]], dask="parallelized",
                             output_dtypes=[float], dask_gufunc_kwargs={"output_sizes": {"tercile": 2}})
     bounds = bounds.where(n >= required)
     lower = to_x(bounds.isel(tercile=0))
     upper = to_x(bounds.isel(tercile=1))
-    cat = xr.where(x < lower, -1.0, xr.where(x > upper, 1.0, 0.0))
-    out = cat.where(x.notnull() & lower.notnull() & upper.notnull())
+    cat = xr.where(x < lower, -1.0, xr.where(x > upper, 1.0, 0.0))  # type: ignore[no-untyped-call]
+    out: xr.DataArray = cat.where(x.notnull() & lower.notnull() & upper.notnull())
     out.name = "tercile_category"
     out.attrs = {"units": "1", "long_name": f"tercile category ({label})",
                  "flag_values": [-1, 0, 1],

@@ -9,6 +9,9 @@ reads every stored chunk once (docs/architecture.md).
 
 from __future__ import annotations
 
+from collections.abc import Iterable, Sequence
+from typing import Any
+
 import xarray as xr
 
 from .. import cache
@@ -24,7 +27,9 @@ from .totals import annual_totals, monthly_totals
 __all__ = ["climatology_bundle"]
 
 
-def _build(pr, months, baseline, year_start, maxima_days, indices=(), index_base_period=None):
+def _build(pr: xr.DataArray, months: tuple[int, ...], baseline: Sequence[int] | None, year_start: int,
+           maxima_days: tuple[int, ...], indices: tuple[str, ...] = (),
+           index_base_period: Sequence[int] | None = None) -> xr.Dataset:
     pr, step = precip_mm(pr, "climatology_bundle")
     # one task per chunk read makes the monthly partials and maxima (see _fused); else plain
     fused = _fused.monthly_and_maxima(pr, step, maxima_days, year_start) \
@@ -59,9 +64,10 @@ def _build(pr, months, baseline, year_start, maxima_days, indices=(), index_base
                         year_start=year_start, maxima_days=tuple(maxima_days), indices=tuple(indices))
 
 
-def climatology_bundle(pr: xr.DataArray, months=(7, 8), baseline=None, year_start: int = 1,
-                       maxima_days=(1,), compute: bool = False, use_cache: bool = False, indices=(),
-                       index_base_period=None) -> xr.Dataset:
+def climatology_bundle(pr: xr.DataArray, months: Iterable[int] = (7, 8), baseline: Sequence[int] | None = None,
+                       year_start: int = 1, maxima_days: Iterable[int] = (1,), compute: bool = False,
+                       use_cache: bool = False, indices: str | Iterable[str] | None = (),
+                       index_base_period: Sequence[int] | None = None) -> xr.Dataset:
     """Monthly and annual totals, seasonal share, normals and annual maxima together.
 
     Parameters
@@ -87,15 +93,45 @@ def climatology_bundle(pr: xr.DataArray, months=(7, 8), baseline=None, year_star
 
     Returns
     -------
-    xr.Dataset with ``monthly_totals`` (time), ``annual_totals`` (year),
-    ``seasonal_share``, ``seasonal_share_per_year`` (season_year), ``normals`` (month) and
-    ``annual_max_<n>day`` (maxima_year), ``index_<name>`` (index_year) when asked. Per-year variables keep their own year dims
-    because a season that wraps the year end is labelled by its own 12-month year.
+    xarray.Dataset
+        ``monthly_totals`` (time), ``annual_totals`` (year), ``seasonal_share``,
+        ``seasonal_share_per_year`` (season_year), ``normals`` (month) and
+        ``annual_max_<n>day`` (maxima_year), ``index_<name>`` (index_year) when asked.
+        Per-year variables keep their own year dims because a season that wraps the year
+        end is labelled by its own 12-month year.  Lazy unless ``compute`` or
+        ``use_cache`` is True.
+
+    Raises
+    ------
+    climwidgets.errors.InputError
+        When ``pr`` has no usable units or step, or a parameter is malformed (raised by the
+        functions that make each statistic: ``seasonal_fraction``, ``normals``,
+        ``annual_maxima``, ``precip_indices``).
+
+    References
+    ----------
+    WMO (2017). WMO Guidelines on the Calculation of Climate Normals. WMO-No. 1203.
+    World Meteorological Organization, Geneva (the completeness rules of the totals and
+    normals).
+
+    Examples
+    --------
+    >>> import numpy as np, pandas as pd, xarray as xr
+    >>> import climwidgets as cw
+    >>> time = pd.date_range("2001-01-01", "2002-12-31", freq="D")
+    >>> pr = xr.DataArray(np.ones(time.size), dims="time", coords={"time": time},
+    ...                   attrs={"units": "mm", "step": "day"})  # 1 mm every day
+    >>> ds = cw.climatology_bundle(pr, months=(7, 8), compute=True)
+    >>> sorted(ds.data_vars)
+    ['annual_max_1day', 'annual_totals', 'monthly_totals', 'seasonal_share',
+     'seasonal_share_per_year']
+    >>> ds["annual_totals"].values, round(float(ds["seasonal_share"]), 4)  # 62 of 365 days
+    (array([365., 365.]), 0.1699)
     """
     months = tuple(months)
     maxima_days = tuple(maxima_days)
     indices = (indices,) if isinstance(indices, str) else tuple(indices or ())
-    extra = {"indices": indices, "index_base_period": index_base_period} if indices else {}
+    extra: dict[str, Any] = {"indices": indices, "index_base_period": index_base_period} if indices else {}
     if use_cache:
         return cache.cached("climatology_bundle", lambda: _build(pr, months, baseline, year_start, maxima_days,
                                                                  **extra),

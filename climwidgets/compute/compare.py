@@ -12,6 +12,8 @@ totals themselves are not changed (a noleap February total is 28 days of rain).
 
 from __future__ import annotations
 
+from typing import Any
+
 import numpy as np
 import pandas as pd
 import xarray as xr
@@ -24,7 +26,7 @@ __all__ = ["align", "compare"]
 
 
 # ---------------------------------------------------------------- align
-def _check_products(datasets, func: str) -> dict:
+def _check_products(datasets: Any, func: str) -> dict[str, xr.DataArray]:
     if not isinstance(datasets, dict) or not datasets:
         raise ParameterError(f"{func} needs a non-empty dict of products", source=func,
                              expected="{'name': DataArray, ...}",
@@ -44,7 +46,7 @@ def _month_labels(time: xr.DataArray) -> pd.DatetimeIndex:
     return pd.DatetimeIndex(pd.to_datetime(frame))
 
 
-def _complete_years(da: xr.DataArray) -> set:
+def _complete_years(da: xr.DataArray) -> set[int]:
     """Years whose 12 months the time axis fully covers (from coordinates only)."""
     cov = month_coverage(da, da.attrs["step"])
     years = cov["time"].dt.year.values[cov.values]
@@ -59,7 +61,7 @@ def _calendar(da: xr.DataArray) -> str:
         return "standard"
 
 
-def _grid_key(obj) -> tuple:
+def _grid_key(obj: xr.DataArray | xr.Dataset) -> tuple[Any, ...]:
     """Centres and bounds of a rectilinear grid (for 'already on this grid' checks)."""
     from ..geo.grid import cell_bounds
 
@@ -71,7 +73,7 @@ def _grid_key(obj) -> tuple:
                            b.lon_lower, b.lon_upper))
 
 
-def _pick_grid(products: dict, grid):
+def _pick_grid(products: dict[str, xr.DataArray], grid: Any) -> Any:
     """The target grid: None -> shared grid or the coarsest rectilinear product."""
     from ..geo.grid import is_curvilinear
 
@@ -99,7 +101,8 @@ def _pick_grid(products: dict, grid):
     return grid
 
 
-def _common_months(products: dict, period, func: str):
+def _common_months(products: dict[str, xr.DataArray], period: Any,
+                   func: str) -> tuple[dict[str, xr.DataArray], tuple[int, int]]:
     """Monthly totals of every product on standard month starts over the common complete
     years (or ``period``, which must lie inside them); returns (dict, (first, last))."""
     from .totals import monthly_totals
@@ -132,7 +135,8 @@ def _common_months(products: dict, period, func: str):
     return out, (min(common), max(common))
 
 
-def align(datasets: dict, grid=None, period=None, method: str = "conservative", **regrid_kwargs) -> dict:
+def align(datasets: dict[str, xr.DataArray], grid: Any = None, period: Any = None, method: str = "conservative",
+          **regrid_kwargs: Any) -> dict[str, xr.DataArray]:
     """Bring several precipitation products to a common period, time index and grid.
 
     Parameters
@@ -152,8 +156,36 @@ def align(datasets: dict, grid=None, period=None, method: str = "conservative", 
 
     Returns
     -------
-    dict ``{name: DataArray}`` of monthly totals (mm) on the same standard-calendar month
-    starts, the same years and the same grid.  Lazy on dask input.
+    dict
+        ``{name: DataArray}`` of monthly totals (mm) on the same standard-calendar month
+        starts, the same years and the same grid (``attrs["period"]`` names the years,
+        ``attrs["source_calendar"]`` each product's calendar).  Lazy on dask input.
+
+    Raises
+    ------
+    climwidgets.errors.ParameterError
+        When ``datasets`` is not a non-empty dict of DataArrays, ``period`` is not a pair of
+        years or ``grid`` names no product.
+    climwidgets.errors.MismatchError
+        When the products share no complete year, or ``period`` is not covered by every
+        product.
+    climwidgets.errors.GridError
+        When no rectilinear target grid can be chosen, or a grid has no usable lat/lon.
+
+    Examples
+    --------
+    >>> import numpy as np, pandas as pd, xarray as xr
+    >>> import climwidgets as cw
+    >>> def daily(first, last, mm):  # a 2 x 2 grid of 1-degree cells, the same depth each day
+    ...     time = pd.date_range(first, last, freq="D")
+    ...     return xr.DataArray(np.full((time.size, 2, 2), mm), dims=("time", "lat", "lon"),
+    ...                         coords={"time": time, "lat": [0.5, 1.5], "lon": [10.5, 11.5]},
+    ...                         attrs={"units": "mm", "step": "day"})
+    >>> out = cw.align({"gauge": daily("2001-01-01", "2003-12-31", 1.0),
+    ...                 "radar": daily("2002-01-01", "2004-12-31", 2.0)})
+    >>> radar = out["radar"]
+    >>> radar.attrs["period"], radar.sizes["time"], radar.isel(lat=0, lon=0).values[:3]
+    ('2002-2003', 24, array([62., 56., 62.]))
     """
     from .regrid import regrid
 
@@ -176,10 +208,10 @@ def align(datasets: dict, grid=None, period=None, method: str = "conservative", 
 
 
 # ---------------------------------------------------------------- compare
-def _pearson(x, y, dim):
+def _pearson(x: xr.DataArray, y: xr.DataArray, dim: str) -> xr.DataArray:
     """Pearson r of two pair-masked arrays (NaN where either has no spread)."""
     dx, dy = x - x.mean(dim), y - y.mean(dim)
-    return safe_divide((dx * dy).mean(dim), np.sqrt((dx**2).mean(dim) * (dy**2).mean(dim)))
+    return safe_divide((dx * dy).mean(dim), np.sqrt((dx**2).mean(dim) * (dy**2).mean(dim)))  # type: ignore[arg-type]
 
 
 _DESCRIPTIONS = {
@@ -210,12 +242,63 @@ def compare(a: xr.DataArray, b: xr.DataArray, dim: str = "time", kge: str = "200
     data are used.  Input: monthly totals (``attrs["step"] == "month"``) or annual totals
     (``dim="year"``).
 
-    Returns a Dataset of maps: ``bias`` (mm/yr; for monthly input the mean monthly
-    difference × 12), ``ratio`` (mean b / mean a), ``rmse`` (mm per step), ``corr``
-    (Pearson r), ``anomaly_corr`` (monthly input only: Pearson r of anomalies against each
-    product's own monthly climatology), ``kge`` (``kge="2009"``: Gupta et al. 2009;
-    ``"2012"``: Kling et al. 2012), ``nse`` (Nash & Sutcliffe 1970) and ``n`` (pairs used).
-    Population (ddof = 0) spreads; the ddof cancels in the KGE ratios.  Lazy on dask input.
+    Parameters
+    ----------
+    a
+        The reference product: monthly totals (``attrs["step"] == "month"``) or annual
+        totals (``dim="year"``), in mm.
+    b
+        The product compared with it, on the same coordinates and step.
+    dim
+        The time dimension ("time" for monthly totals, "year" for annual totals).
+    kge
+        The Kling-Gupta efficiency form: "2009" (Gupta et al. 2009, the ratio of standard
+        deviations) or "2012" (Kling et al. 2012, the ratio of coefficients of variation).
+
+    Returns
+    -------
+    xarray.Dataset
+        Maps of ``bias`` (mm/yr; for monthly input the mean monthly difference × 12),
+        ``ratio`` (mean b / mean a), ``rmse`` (mm per step), ``corr`` (Pearson r),
+        ``anomaly_corr`` (monthly input only: Pearson r of anomalies against each
+        product's own monthly climatology), ``kge``, ``nse`` and ``n`` (pairs used); NaN
+        where fewer than 2 pairs.  Population (ddof = 0) spreads; the ddof cancels in the
+        KGE ratios.  Lazy on dask input.
+
+    Raises
+    ------
+    climwidgets.errors.ParameterError
+        When an input is not a DataArray, has no ``dim``, ``kge`` is not a known form, or
+        the reference is not monthly or annual totals.
+    climwidgets.errors.MismatchError
+        When the steps differ or the two products do not share coordinates.
+
+    References
+    ----------
+    Nash, J. E. and Sutcliffe, J. V. (1970). River flow forecasting through conceptual
+    models part I: a discussion of principles. Journal of Hydrology, 10(3), 282-290.
+    https://doi.org/10.1016/0022-1694(70)90255-6
+
+    Gupta, H. V., Kling, H., Yilmaz, K. K. and Martinez, G. F. (2009). Decomposition of
+    the mean squared error and NSE performance criteria: implications for improving
+    hydrological modelling. Journal of Hydrology, 377(1-2), 80-91.
+    https://doi.org/10.1016/j.jhydrol.2009.08.003
+
+    Kling, H., Fuchs, M. and Paulin, M. (2012). Runoff conditions in the upper Danube
+    basin under an ensemble of climate change scenarios. Journal of Hydrology, 424-425,
+    264-277. https://doi.org/10.1016/j.jhydrol.2012.01.011
+
+    Examples
+    --------
+    >>> import numpy as np, pandas as pd, xarray as xr
+    >>> import climwidgets as cw
+    >>> time = pd.date_range("2001-01-01", periods=24, freq="MS")
+    >>> ref = xr.DataArray(np.tile([50.0, 80.0, 120.0], 8), dims="time", coords={"time": time},
+    ...                    attrs={"units": "mm", "step": "month"}, name="gauge")
+    >>> other = (1.1 * ref).assign_attrs(ref.attrs).rename("radar")  # 10 % wetter
+    >>> ds = cw.compare(ref, other)
+    >>> {k: round(float(ds[k]), 3) for k in ("bias", "ratio", "corr", "kge", "nse")}
+    {'bias': 100.0, 'ratio': 1.1, 'corr': 1.0, 'kge': 0.859, 'nse': 0.906}
     """
     for name, x in (("a", a), ("b", b)):
         if not isinstance(x, xr.DataArray):
@@ -257,7 +340,7 @@ def compare(a: xr.DataArray, b: xr.DataArray, dim: str = "time", kge: str = "200
     beta = safe_divide(mb, ma)
     spread = safe_divide(sb, sa) if kge == "2009" else safe_divide(safe_divide(sb, mb), safe_divide(sa, ma))
     sq = ((b - a) ** 2).sum(dim)
-    out = {
+    out: dict[str, Any] = {
         "bias": (mb - ma) * per_year,
         "ratio": beta,
         "rmse": np.sqrt(safe_divide(sq, n.astype(float))),
@@ -275,7 +358,7 @@ def compare(a: xr.DataArray, b: xr.DataArray, dim: str = "time", kge: str = "200
     ds = xr.Dataset({k: v.where(enough) for k, v in out.items()})
     ds["n"] = n
     for k in ds.data_vars:
-        units, text = _DESCRIPTIONS[k]
+        units, text = _DESCRIPTIONS[k]  # type: ignore[index]  # the names are the str keys above
         ds[k].attrs = {"units": units, "description": text}
     ds["kge"].attrs["description"] = _KGE[kge]
     ds["kge"].attrs["kge_form"] = kge

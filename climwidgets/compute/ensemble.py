@@ -18,6 +18,8 @@ cell; ``n_members`` says how many were used.
 from __future__ import annotations
 
 import warnings
+from collections.abc import Sequence
+from typing import cast
 
 import numpy as np
 import xarray as xr
@@ -33,17 +35,48 @@ MEMBER_DIMS = ("member", "realization", "ensemble", "model")
 _CHANGE_KINDS = (None, "difference", "ratio")
 
 
-def _name(obj) -> str:
+def _name(obj: object) -> str:
     name = getattr(obj, "name", None)
     return f"DataArray {name!r}" if name is not None else "input DataArray"
 
 
-def member_dim(obj, dim=None, func: str = "ensemble_summary", required: bool = True):
+def member_dim(obj: xr.DataArray | xr.Dataset, dim: str | None = None, func: str = "ensemble_summary",
+               required: bool = True) -> str | None:
     """The name of the member dimension of ``obj``.
 
     ``dim`` given: it must be a dimension of ``obj``.  Otherwise the first of
     :data:`MEMBER_DIMS` present is used.  With ``required=False`` a missing member
     dimension gives None instead of an error.
+
+    Parameters
+    ----------
+    obj
+        A DataArray or Dataset.
+    dim
+        The member dimension's name, or None to detect one of :data:`MEMBER_DIMS`.
+    func
+        The calling function's name, for the error message.
+    required
+        False: return None when there is no member dimension.
+
+    Returns
+    -------
+    str or None
+        The member dimension's name; None only with ``required=False``.
+
+    Raises
+    ------
+    climwidgets.errors.ParameterError
+        When ``dim`` is not a dimension of ``obj``, several member-like dimensions are
+        present, or none is and ``required`` is True.
+
+    Examples
+    --------
+    >>> import numpy as np, xarray as xr
+    >>> from climwidgets.compute.ensemble import member_dim
+    >>> runs = xr.DataArray(np.zeros((3, 2)), dims=("realization", "lat"))
+    >>> member_dim(runs), member_dim(runs.isel(realization=0), required=False)
+    ('realization', None)
     """
     if dim is not None:
         if not isinstance(dim, str) or dim not in obj.dims:
@@ -66,10 +99,42 @@ def member_dim(obj, dim=None, func: str = "ensemble_summary", required: bool = T
     return found[0]
 
 
-def check_members(hist, future, dim=None, func: str = "delta_change"):
+def check_members(hist: xr.DataArray, future: xr.DataArray, dim: str | None = None,
+                  func: str = "delta_change") -> str | None:
     """The member dimension shared by a historical and a future run (None for single runs).
 
     Both runs must have the member dimension, or neither; its labels must be the same.
+
+    Parameters
+    ----------
+    hist, future
+        The historical and future runs (DataArrays).
+    dim
+        The member dimension's name, or None to detect one of :data:`MEMBER_DIMS` (then
+        single runs without one are accepted).
+    func
+        The calling function's name, for the error message.
+
+    Returns
+    -------
+    str or None
+        The shared member dimension, or None when both are single runs.
+
+    Raises
+    ------
+    climwidgets.errors.MismatchError
+        When only one run has the member dimension, or their member labels differ.
+    climwidgets.errors.ParameterError
+        When ``dim`` is given and is not a dimension of the runs.
+
+    Examples
+    --------
+    >>> import numpy as np, xarray as xr
+    >>> from climwidgets.compute.ensemble import check_members
+    >>> hist = xr.DataArray(np.zeros((2, 3)), dims=("member", "time"),
+    ...                     coords={"member": ["run1", "run2"]})
+    >>> check_members(hist, hist + 1.0), check_members(hist.isel(member=0), hist.isel(member=1))
+    ('member', None)
     """
     dh = member_dim(hist, dim, func, required=dim is not None)
     df = member_dim(future, dim, func, required=dim is not None)
@@ -93,12 +158,13 @@ def check_members(hist, future, dim=None, func: str = "delta_change"):
     return dh
 
 
-def _member_chunks(field, dim):
+def _member_chunks(field: xr.DataArray, dim: str) -> xr.DataArray:
     # median and quantiles need the member axis in one chunk
     return field.chunk({dim: -1}) if field.chunks is not None else field
 
 
-def ensemble_summary(field: xr.DataArray, dim=None, change=None, quantiles=(0.25, 0.75)) -> xr.Dataset:
+def ensemble_summary(field: xr.DataArray, dim: str | None = None, change: str | None = None,
+                     quantiles: Sequence[float] = (0.25, 0.75)) -> xr.Dataset:
     """Ensemble mean, median, spread and (for a change field) agreement over members.
 
     Parameters
@@ -127,13 +193,24 @@ def ensemble_summary(field: xr.DataArray, dim=None, change=None, quantiles=(0.25
 
     Raises
     ------
-    ParameterError
+    climwidgets.errors.ParameterError
         No member dimension, an unknown ``change`` kind, or bad quantiles.
 
     References
     ----------
     Hyndman, R. J. and Fan, Y. (1996): Sample quantiles in statistical packages. The
     American Statistician 50, 361–365, doi:10.1080/00031305.1996.10473566.
+
+    Examples
+    --------
+    >>> import xarray as xr
+    >>> import climwidgets as cw
+    >>> change = xr.DataArray([[-5.0, 2.0], [10.0, 4.0], [20.0, 6.0], [35.0, -1.0]],
+    ...                       dims=("member", "lat"), coords={"lat": [0.5, 1.5]},
+    ...                       attrs={"units": "%"})  # four members' change at two cells
+    >>> ds = cw.ensemble_summary(change, change="difference")
+    >>> ds["median"].values, ds["iqr"].values, ds["agreement"].values
+    (array([15.,  3.]), array([17.5 ,  3.25]), array([0.75, 0.75]))
     """
     func = "ensemble_summary"
     if not isinstance(field, xr.DataArray):
@@ -153,7 +230,7 @@ def ensemble_summary(field: xr.DataArray, dim=None, change=None, quantiles=(0.25
         raise ParameterError(f"quantiles={quantiles!r} is not a pair of increasing probabilities",
                              source=func, variable="quantiles", expected="(low, high) with 0 <= low < high <= 1",
                              fix="pass quantiles=(0.25, 0.75) for the interquartile range")
-    dim = member_dim(field, dim, func)
+    dim = cast(str, member_dim(field, dim, func))  # required: never None
     x = _member_chunks(field.astype(float), dim)
     units = field.attrs.get("units", "")
     what = field.attrs.get("long_name", field.name or "field")

@@ -21,6 +21,7 @@ from __future__ import annotations
 
 import datetime as _dt
 import numbers
+from typing import Any
 
 import numpy as np
 import xarray as xr
@@ -38,7 +39,7 @@ DEFAULT_MIN_VALID_FRACTION = 0.9
 _STEP = {name: _dt.timedelta(seconds=seconds) for name, seconds in STEP_SECONDS.items()}
 
 
-def _check_positive_int(value, name, allowed, extra=""):
+def _check_positive_int(value: Any, name: str, allowed: tuple[int, ...], extra: str = "") -> int:
     fix = f"choose one of {allowed}{extra}"
     if isinstance(value, bool) or not isinstance(value, (int, np.integer)):
         raise ParameterError(f"{name}={value!r} is not a whole number", variable=name,
@@ -52,7 +53,7 @@ def _check_positive_int(value, name, allowed, extra=""):
     return int(value)
 
 
-def _window(step, duration_days, duration_hours, src):
+def _window(step: str, duration_days: Any, duration_hours: Any, src: str) -> tuple[int, str]:
     """Number of steps per window and a label such as '3 day'."""
     if step == "month":
         raise TimeAxisError("monthly totals cannot give n-day maxima", source=src,
@@ -75,12 +76,12 @@ def _window(step, duration_days, duration_hours, src):
     return int(round(days * 86400.0 / STEP_SECONDS[step])), f"{days} day"
 
 
-def _check_regular(times, step, src):
+def _check_regular(times: np.ndarray, step: str, src: str) -> None:
     """Running totals over positions need one step between neighbours, no gaps."""
     if len(times) < 2:
         return
     diffs = np.diff(np.asarray(times))
-    expected = _STEP[step]
+    expected: Any = _STEP[step]
     if isinstance(times[0], np.datetime64):
         expected = np.timedelta64(expected)
     if not np.all(diffs == expected):
@@ -89,14 +90,14 @@ def _check_regular(times, step, src):
                             fix="reindex onto a complete time axis, e.g. pr.resample(time=...).asfreq()")
 
 
-def _year_start_date(template, year, month):
+def _year_start_date(template: Any, year: int, month: int) -> Any:
     """First instant of (year, month) in the calendar of ``template`` (a time value)."""
     if isinstance(template, np.datetime64):
         return np.datetime64(f"{year:04d}-{month:02d}-01", "ns")
     return type(template)(year, month, 1, calendar=template.calendar, has_year_zero=template.has_year_zero)
 
 
-def _nominal_steps(template, labels, year_start, step):
+def _nominal_steps(template: Any, labels: np.ndarray, year_start: int, step: str) -> np.ndarray:
     """Steps a complete year has in the data's calendar, per label year."""
     out = []
     for y in labels:  # a handful of years, on coordinates only
@@ -108,9 +109,10 @@ def _nominal_steps(template, labels, year_start, step):
     return np.asarray(out)
 
 
-def annual_maxima(pr, duration_days=1, duration_hours=None, year_start=1,
-                  min_valid_fraction=DEFAULT_MIN_VALID_FRACTION, fixed_to_sliding=None,
-                  return_dates=False):
+def annual_maxima(pr: xr.DataArray, duration_days: int | None = 1, duration_hours: int | None = None,
+                  year_start: int = 1, min_valid_fraction: float = DEFAULT_MIN_VALID_FRACTION,
+                  fixed_to_sliding: float | None = None,
+                  return_dates: bool = False) -> Any:  # DataArray, or Dataset with return_dates
     """Annual maximum of n-day (or n-hour) running totals, per cell.
 
     Parameters
@@ -141,6 +143,36 @@ def annual_maxima(pr, duration_days=1, duration_hours=None, year_start=1,
     -------
     xarray.DataArray or xarray.Dataset
         Dims ``year`` plus the spatial dims; units "mm".
+
+    Raises
+    ------
+    climwidgets.errors.ParameterError
+        A duration not in the lists, or a bad ``year_start``, ``min_valid_fraction`` or
+        ``fixed_to_sliding``.
+    climwidgets.errors.TimeAxisError
+        Monthly input, gaps in the time axis, or no year complete enough.
+    climwidgets.errors.DataValueError
+        Negative depths (numpy-backed input; dask input is not scanned).
+
+    References
+    ----------
+    Hershfield, D. M. (1961). Rainfall frequency atlas of the United States for durations
+    from 30 minutes to 24 hours and return periods from 1 to 100 years. Technical Paper
+    40, U.S. Weather Bureau, Washington DC (the fixed-to-sliding factor 1.13).
+
+    Examples
+    --------
+    >>> import numpy as np, pandas as pd, xarray as xr
+    >>> import climwidgets as cw
+    >>> time = pd.date_range("2001-01-01", "2002-12-31", freq="D")
+    >>> depth = np.ones(time.size)
+    >>> depth[[40, 41, 400]] = 30.0, 20.0, 45.0  # 10-11 February 2001, 5 February 2002
+    >>> pr = xr.DataArray(depth, dims="time", coords={"time": time},
+    ...                   attrs={"units": "mm", "step": "day"})
+    >>> cw.annual_maxima(pr).values, cw.annual_maxima(pr, duration_days=2).values
+    (array([30., 45.]), array([50., 46.]))
+    >>> cw.annual_maxima(pr, return_dates=True)["end"].values.astype("datetime64[D]")
+    array(['2001-02-10', '2002-02-05'], dtype='datetime64[D]')
     """
     pr, step = precip_mm(pr, "annual_maxima")
     src = source_name(pr)
@@ -148,12 +180,51 @@ def annual_maxima(pr, duration_days=1, duration_hours=None, year_start=1,
     return annual_maxima_window(pr, n, label, year_start, min_valid_fraction, fixed_to_sliding, return_dates)
 
 
-def annual_maxima_window(pr, n, label, year_start=1, min_valid_fraction=DEFAULT_MIN_VALID_FRACTION,
-                         fixed_to_sliding=None, return_dates=False):
+def annual_maxima_window(pr: xr.DataArray, n: int, label: str, year_start: int = 1,
+                         min_valid_fraction: float = DEFAULT_MIN_VALID_FRACTION,
+                         fixed_to_sliding: float | None = None,
+                         return_dates: bool = False) -> Any:  # DataArray, or Dataset with return_dates
     """:func:`annual_maxima` for a window of ``n`` steps named ``label`` (e.g. "4 day").
 
     For callers that need durations outside the widget's short lists (the depth-duration-
     frequency tables); ``pr`` is checked again, ``n`` and ``label`` are trusted.
+
+    Parameters
+    ----------
+    pr
+        Precipitation depth per step (mm), daily or hourly, as in :func:`annual_maxima`.
+    n
+        Window length in steps (a positive whole number, not checked).
+    label
+        The duration in words, for the attrs (e.g. "4 day").
+    year_start, min_valid_fraction, fixed_to_sliding, return_dates
+        As in :func:`annual_maxima`.
+
+    Returns
+    -------
+    xarray.DataArray or xarray.Dataset
+        As :func:`annual_maxima`.
+
+    Raises
+    ------
+    climwidgets.errors.ParameterError
+        A bad ``year_start``, ``min_valid_fraction`` or ``fixed_to_sliding``.
+    climwidgets.errors.TimeAxisError
+        Gaps in the time axis, or no year complete enough.
+    climwidgets.errors.DataValueError
+        Negative depths (numpy-backed input).
+
+    Examples
+    --------
+    >>> import numpy as np, pandas as pd, xarray as xr
+    >>> from climwidgets.compute.extremes import annual_maxima_window
+    >>> time = pd.date_range("2001-01-01", "2002-12-31", freq="D")
+    >>> depth = np.ones(time.size)
+    >>> depth[[40, 41, 400]] = 30.0, 20.0, 45.0  # 10-11 February 2001, 5 February 2002
+    >>> pr = xr.DataArray(depth, dims="time", coords={"time": time},
+    ...                   attrs={"units": "mm", "step": "day"})
+    >>> annual_maxima_window(pr, 4, "4 day").values  # 4-day maxima
+    array([52., 48.])
     """
     pr, step = precip_mm(pr, "annual_maxima")
     src = source_name(pr)

@@ -37,6 +37,8 @@ from __future__ import annotations
 import datetime as _dt
 import numbers
 import re
+from collections.abc import Sequence
+from typing import Any
 
 import numpy as np
 import xarray as xr
@@ -79,7 +81,7 @@ _META = {
 }
 
 
-def _meta(name):
+def _meta(name: str) -> tuple[str, str, str]:
     if name in _META:
         return _META[name]
     if name in _PERCENTILE and name.endswith("TOT"):
@@ -96,28 +98,28 @@ def _meta(name):
             f"count of days with daily precipitation of {nn:g} mm or more")
 
 
-def _threshold(name):
+def _threshold(name: str) -> float | None:
     m = _THRESHOLD_NAME.match(name)
     return float(m.group(1)) if m else None
 
 
-def _threshold_name(value):
+def _threshold_name(value: float) -> str:
     return f"R{value:g}mm"
 
 
 # ----------------------------------------------------------------------------- numpy/dask core
 
-def _cummax_last_axis(a):
+def _cummax_last_axis(a: Any) -> Any:
     """Running maximum along the last axis (numpy or dask, time may stay chunked)."""
     if hasattr(a, "dask"):
         from dask.array.reductions import cumreduction
 
-        return cumreduction(np.maximum.accumulate, np.maximum, np.iinfo(a.dtype).min, a,
+        return cumreduction(np.maximum.accumulate, np.maximum, np.iinfo(a.dtype).min, a,  # type: ignore[no-untyped-call]
                             axis=a.ndim - 1, dtype=a.dtype)
     return np.maximum.accumulate(a, axis=-1)
 
 
-def _longest_spell(flag, period_start, label):
+def _longest_spell(flag: xr.DataArray, period_start: np.ndarray, label: xr.DataArray) -> xr.DataArray:
     """Longest run of True per period, runs cut at period starts.
 
     The running length at day t is t minus the last reset before it: a day that is not in a
@@ -126,14 +128,15 @@ def _longest_spell(flag, period_start, label):
     nt = flag.sizes["time"]
     idx = xr.DataArray(np.arange(nt, dtype=np.int32), dims="time")
     start = xr.DataArray(period_start, dims="time")
-    reset = xr.where(flag, xr.where(start, idx - 1, np.int32(-1)), idx).astype(np.int32)
+    reset = xr.where(flag, xr.where(start, idx - 1, np.int32(-1)), idx).astype(np.int32)  # type: ignore[no-untyped-call]
     last = xr.apply_ufunc(_cummax_last_axis, reset, input_core_dims=[["time"]],
                           output_core_dims=[["time"]], dask="allowed")
     run = (idx - last).assign_coords(time=flag["time"])
-    return run.groupby(label).max("time", skipna=False)
+    longest: xr.DataArray = run.groupby(label).max("time", skipna=False)
+    return longest
 
 
-def _quantile_type8(x, probs):
+def _quantile_type8(x: np.ndarray, probs: np.ndarray) -> np.ndarray:
     """Hyndman & Fan type 8 quantiles along the last axis, NaN left out, vectorised.
 
     Returns an array with a trailing axis of len(probs); rows without values give NaN.
@@ -157,7 +160,7 @@ def _quantile_type8(x, probs):
 
 # ----------------------------------------------------------------------------- time labels
 
-def _labels(times, freq, year_start):
+def _labels(times: xr.DataArray, freq: str, year_start: int) -> tuple[np.ndarray, tuple[int, ...]]:
     """Integer period code per day and the first month of each period kind."""
     years = times.dt.year.values.astype(int)
     months = times.dt.month.values.astype(int)
@@ -170,7 +173,7 @@ def _labels(times, freq, year_start):
     return season_year * 4 + (months % 12) // 3, (12, 3, 6, 9)
 
 
-def _complete_codes(times, code, start_months):
+def _complete_codes(times: xr.DataArray, code: np.ndarray, start_months: tuple[int, ...]) -> np.ndarray:
     """Codes of periods the time axis covers completely (regular daily axis assumed)."""
     first = times.isel(time=0)
     one_day = np.timedelta64(1, "D") if np.issubdtype(times.dtype, np.datetime64) else _dt.timedelta(days=1)
@@ -188,7 +191,7 @@ def _complete_codes(times, code, start_months):
 
 # ----------------------------------------------------------------------------- validation
 
-def _check_names(names, thresholds, freq, src):
+def _check_names(names: Any, thresholds: Any, freq: str, src: str) -> list[str]:
     fix = f"choose from {INDEX_NAMES} or 'R<nn>mm' such as 'R25mm'"
     if names is None:
         chosen = [n for n in INDEX_NAMES if freq == "year" or n not in _SPELLS]
@@ -211,7 +214,8 @@ def _check_names(names, thresholds, freq, src):
     except TypeError:
         extra = (thresholds,)
     for t in extra:
-        if isinstance(t, bool) or not isinstance(t, numbers.Real) or not np.isfinite(t) or t <= 0:
+        if isinstance(t, bool) or not isinstance(t, numbers.Real) \
+                or not np.isfinite(t) or t <= 0:  # type: ignore[call-overload]  # numbers.Real stubs
             raise ParameterError(f"threshold {t!r} is not a positive depth", source=src,
                                  variable="thresholds", expected="depths in mm greater than 0",
                                  fix="pass for example thresholds=(25, 50)")
@@ -221,7 +225,7 @@ def _check_names(names, thresholds, freq, src):
     return chosen
 
 
-def _check_freq(freq, year_start, src):
+def _check_freq(freq: str, year_start: int, src: str) -> None:
     if freq not in _FREQS:
         raise ParameterError(f"freq={freq!r} is not supported", source=src, variable="freq",
                              expected="'year', 'season' or 'month'", fix="pass freq='year'")
@@ -231,7 +235,7 @@ def _check_freq(freq, year_start, src):
                              fix="leave year_start at 1, or use freq='year' for water years")
 
 
-def _whole_time(da):
+def _whole_time(da: xr.DataArray) -> xr.DataArray:
     """Rechunk so each cell's time axis is one chunk; spatial chunks shrink to keep memory."""
     if not is_dask(da):
         return da
@@ -243,10 +247,52 @@ def _whole_time(da):
 
 # ----------------------------------------------------------------------------- public
 
-def wet_day_percentiles(pr, base_period=(1961, 1990), year_start=1, percentiles=(95, 99)):
+def wet_day_percentiles(pr: xr.DataArray, base_period: Sequence[int] | None = (1961, 1990), year_start: int = 1,
+                        percentiles: Sequence[float] = (95, 99)) -> xr.DataArray:
     """Percentiles of the base period's wet days (>= 1 mm) per cell, Hyndman & Fan type 8.
 
-    Returns a DataArray with a ``percentile`` dimension, units "mm".  See the module notes.
+    See the module notes.
+
+    Parameters
+    ----------
+    pr
+        Daily precipitation depth (mm), as in :func:`precip_indices`.
+    base_period
+        (first, last) years of the base period, inside the data's complete years; None
+        uses every complete year.
+    year_start
+        First month of the 12-month years that make the base period.
+    percentiles
+        The percentiles (0-100) to compute.
+
+    Returns
+    -------
+    xarray.DataArray
+        ``wet_day_percentile`` with a ``percentile`` dimension, units "mm"; NaN in a cell
+        without wet days.  Lazy on dask input.
+
+    Raises
+    ------
+    climwidgets.errors.TimeAxisError
+        Not daily data.
+    climwidgets.errors.ParameterError
+        A base period outside the data's complete years, or a bad ``year_start``.
+
+    References
+    ----------
+    Hyndman, R. J. & Fan, Y. (1996) Sample quantiles in statistical packages. The American
+    Statistician 50, 361-365. doi:10.1080/00031305.1996.10473566
+
+    Examples
+    --------
+    >>> import numpy as np, pandas as pd, xarray as xr
+    >>> from climwidgets.compute.indices import wet_day_percentiles
+    >>> time = pd.date_range("2001-01-01", "2002-12-31", freq="D")
+    >>> week = [0.0, 0.0, 2.0, 12.0, 0.5, 25.0, 0.0]  # the same invented week, repeated
+    >>> pr = xr.DataArray(np.resize(week, time.size), dims="time", coords={"time": time},
+    ...                   attrs={"units": "mm", "step": "day"})
+    >>> wet_day_percentiles(pr, base_period=None, percentiles=(50, 95)).values
+    array([12., 25.])
     """
     pr, step = precip_mm(pr, "wet_day_percentiles")
     src = source_name(pr)
@@ -270,7 +316,7 @@ def wet_day_percentiles(pr, base_period=(1961, 1990), year_start=1, percentiles=
     base = pr.isel(time=np.flatnonzero(in_base))
     wet = _whole_time(base.where(base >= WET_DAY_MM))
     probs = np.asarray(percentiles, dtype=float) / 100.0
-    out = xr.apply_ufunc(_quantile_type8, wet, kwargs=dict(probs=probs), input_core_dims=[["time"]],
+    out: xr.DataArray = xr.apply_ufunc(_quantile_type8, wet, kwargs=dict(probs=probs), input_core_dims=[["time"]],
                          output_core_dims=[["percentile"]], dask="parallelized", output_dtypes=[float],
                          dask_gufunc_kwargs=dict(output_sizes={"percentile": probs.size}))
     out = out.assign_coords(percentile=("percentile", np.asarray(percentiles, dtype=float)))
@@ -282,7 +328,8 @@ def wet_day_percentiles(pr, base_period=(1961, 1990), year_start=1, percentiles=
     return out
 
 
-def precip_indices(pr, names=None, base_period=(1961, 1990), year_start=1, freq="year", thresholds=()):
+def precip_indices(pr: xr.DataArray, names: Any = None, base_period: Sequence[int] | None = (1961, 1990),
+                   year_start: int = 1, freq: str = "year", thresholds: Any = ()) -> xr.Dataset:
     """ETCCDI precipitation indices per cell and period.
 
     Parameters
@@ -314,11 +361,11 @@ def precip_indices(pr, names=None, base_period=(1961, 1990), year_start=1, freq=
 
     Raises
     ------
-    ParameterError
+    climwidgets.errors.ParameterError
         Unknown index, bad frequency, threshold or base period.
-    TimeAxisError
+    climwidgets.errors.TimeAxisError
         Not daily, or gaps in the time axis.
-    DataValueError
+    climwidgets.errors.DataValueError
         Negative depths (checked on numpy-backed input).
 
     References
@@ -329,6 +376,20 @@ def precip_indices(pr, names=None, base_period=(1961, 1990), year_start=1, freq=
     temperature and precipitation data. WIREs Climate Change 2, 851-870. doi:10.1002/wcc.147
     Hyndman, R. J. & Fan, Y. (1996) Sample quantiles in statistical packages. The American
     Statistician 50, 361-365. doi:10.1080/00031305.1996.10473566
+
+    Examples
+    --------
+    >>> import numpy as np, pandas as pd, xarray as xr
+    >>> import climwidgets as cw
+    >>> time = pd.date_range("2001-01-01", "2002-12-31", freq="D")
+    >>> week = [0.0, 0.0, 2.0, 12.0, 0.5, 25.0, 0.0]  # the same invented week, repeated
+    >>> pr = xr.DataArray(np.resize(week, time.size), dims="time", coords={"time": time},
+    ...                   attrs={"units": "mm", "step": "day"})
+    >>> ds = cw.precip_indices(pr, names=("PRCPTOT", "R10mm", "CDD", "CWD", "SDII"),
+    ...                        base_period=None)
+    >>> {name: ds[name].values.tolist() for name in ds.data_vars}  # 2001 and 2002
+    {'PRCPTOT': [2028.0, 2028.0], 'R10mm': [104.0, 104.0], 'CDD': [3.0, 3.0],
+     'CWD': [2.0, 2.0], 'SDII': [13.0, 13.0]}
     """
     pr, step = precip_mm(pr, "precip_indices")
     src = source_name(pr)
@@ -355,16 +416,16 @@ def precip_indices(pr, names=None, base_period=(1961, 1990), year_start=1, freq=
     data = pr.astype(float) if pr.dtype.kind != "f" else pr
     data = data.drop_vars([c for c in data.coords if c != "time" and "time" in data[c].dims])
 
-    def by_period(x, how):
+    def by_period(x: xr.DataArray, how: str) -> Any:
         # skipna=False: the reduced values hold no NaN (masked first or masked after), and
         # the NaN-aware grouped kernels are several times slower
         kw = {"skipna": False} if how in ("sum", "max") else {}
         return getattr(x.groupby(label), how)("time", **kw)
 
     wet = data >= WET_DAY_MM
-    out = {}
+    out: dict[str, Any] = {}
     need_total = any(n in chosen for n in ("PRCPTOT", "SDII", "R95pTOT", "R99pTOT"))
-    total = by_period(data.where(wet, 0.0), "sum") if need_total else None
+    total: Any = by_period(data.where(wet, 0.0), "sum") if need_total else None
     if "PRCPTOT" in chosen:
         out["PRCPTOT"] = total
     if "SDII" in chosen:
@@ -393,7 +454,7 @@ def precip_indices(pr, names=None, base_period=(1961, 1990), year_start=1, freq=
         out["Rx1day"] = by_period(data, "max")  # a period with a missing day is masked below
     if "Rx5day" in chosen:
         # windows reaching back over a missing day (or before the record) never win
-        windows = sum(data.shift(time=j) for j in range(5)).fillna(-np.inf)  # shifts: cheaper than rolling on dask
+        windows = sum(data.shift(time=j) for j in range(5)).fillna(-np.inf)  # type: ignore[union-attr]  # shifts: cheaper than rolling on dask
         out["Rx5day"] = by_period(windows, "max")
 
     missing = by_period(data.isnull(), "any")
@@ -423,7 +484,8 @@ def precip_indices(pr, names=None, base_period=(1961, 1990), year_start=1, freq=
                         base_period=base_period, year_start=year_start, freq=freq)
 
 
-def _relabel(ds, times, code, complete, freq):
+def _relabel(ds: xr.Dataset, times: xr.DataArray, code: np.ndarray, complete: np.ndarray,
+             freq: str) -> xr.Dataset:
     """Replace the integer period code with the house coordinates."""
     if freq == "year":
         return ds.rename(period="year").assign_coords(year=("year", complete.astype(int)))

@@ -13,6 +13,8 @@ and hydrometeor fallout (τf).  Equation numbers quoted in docstrings are from m
 
 from __future__ import annotations
 
+from typing import Any
+
 import numpy as np
 import xarray as xr
 from scipy.fft import next_fast_len
@@ -29,27 +31,78 @@ __all__ = ["linear_orographic_precip", "condensation_coefficient",
 STANDARD_LAPSE_RATE = 0.0065  # K m-1, environmental lapse rate of the standard atmosphere
 
 
-def condensation_coefficient(temperature_c, lapse_rate=STANDARD_LAPSE_RATE, pressure_pa=101325.0):
+def condensation_coefficient(temperature_c: Any, lapse_rate: float = STANDARD_LAPSE_RATE,
+                             pressure_pa: float = 101325.0) -> Any:
     """Thermodynamic uplift sensitivity Cw = ρ_Sref · Γm / γ in kg m-3.
 
     ρ_Sref is the saturation water-vapour density at the surface, Γm the moist-adiabatic
     lapse rate there and γ the environmental lapse rate (S&B 2004, section 2).
     Precipitation in the upslope limit is Cw · U·∇h (kg m-2 s-1 = mm s-1).
+
+    Parameters
+    ----------
+    temperature_c
+        Surface air temperature, °C (scalar or array).
+    lapse_rate
+        Environmental lapse rate γ, K m-1 (default 0.0065, the standard atmosphere).
+    pressure_pa
+        Surface pressure, Pa, for the moist-adiabatic lapse rate.
+
+    Returns
+    -------
+    numpy.ndarray
+        Cw in kg m-3, of the shape of ``temperature_c`` (0-d for a scalar).
+
+    References
+    ----------
+    Smith, R. B. and Barstad, I. (2004). A linear theory of orographic precipitation.
+    Journal of the Atmospheric Sciences, 61(12), 1377-1391.
+    https://doi.org/10.1175/1520-0469(2004)061<1377:ALTOOP>2.0.CO;2
+
+    Examples
+    --------
+    >>> from climwidgets.compute.linear_model import condensation_coefficient
+    >>> round(float(condensation_coefficient(10.0)) * 1000, 2)  # g m-3 at 10 °C
+    7.62
     """
     gm = moist_adiabatic_lapse_rate(temperature_c, pressure_pa)
     return saturation_vapor_density(temperature_c) * gm / lapse_rate
 
 
-def water_vapour_scale_height(temperature_c, lapse_rate=STANDARD_LAPSE_RATE):
+def water_vapour_scale_height(temperature_c: Any, lapse_rate: float = STANDARD_LAPSE_RATE) -> np.ndarray:
     """Depth of the moist layer Hw = R_v T² / (L γ) in m (S&B 2004, section 2).
 
     About 2.3 km at 10 °C with γ = 6.5 K/km; it grows with temperature.
+
+    Parameters
+    ----------
+    temperature_c
+        Surface air temperature, °C (scalar or array).
+    lapse_rate
+        Environmental lapse rate γ, K m-1.
+
+    Returns
+    -------
+    numpy.ndarray or float
+        Hw in m, of the shape of ``temperature_c``.
+
+    References
+    ----------
+    Smith, R. B. and Barstad, I. (2004). A linear theory of orographic precipitation.
+    Journal of the Atmospheric Sciences, 61(12), 1377-1391.
+    https://doi.org/10.1175/1520-0469(2004)061<1377:ALTOOP>2.0.CO;2
+
+    Examples
+    --------
+    >>> from climwidgets.compute.linear_model import water_vapour_scale_height
+    >>> round(float(water_vapour_scale_height(10.0)))  # m
+    2276
     """
-    t = np.asarray(temperature_c, dtype=float) + 273.15
+    t: np.ndarray = np.asarray(temperature_c, dtype=float) + 273.15
     return R_VAPOUR * t**2 / (LATENT_HEAT_VAPORISATION * lapse_rate)
 
 
-def vertical_wavenumber(sigma, k, l, nm):
+def vertical_wavenumber(sigma: Any, k: Any, l: Any, nm: float) -> np.ndarray:
     """Vertical wavenumber m(k, l) of hydrostatic flow over terrain with moist stability Nm.
 
     m² = (Nm² − σ²) / σ² · (k² + l²)  (S&B 2004, their eq. for m, from memory: eq. 12).
@@ -57,6 +110,35 @@ def vertical_wavenumber(sigma, k, l, nm):
     that sends wave energy upward.  σ² > Nm²: m is imaginary, m = i·sqrt(−m²) with a
     positive imaginary part so the disturbance decays with height (evanescent).  σ = 0
     gives m = 0 (the source i σ ĥ vanishes there anyway).
+
+    Parameters
+    ----------
+    sigma
+        Intrinsic frequency σ = U k + V l, s-1 (array).
+    k, l
+        Horizontal wavenumbers, rad m-1, broadcast against ``sigma``.
+    nm
+        Moist buoyancy frequency Nm, s-1.
+
+    Returns
+    -------
+    numpy.ndarray
+        Complex m, rad m-1, of the broadcast shape.
+
+    References
+    ----------
+    Smith, R. B. and Barstad, I. (2004). A linear theory of orographic precipitation.
+    Journal of the Atmospheric Sciences, 61(12), 1377-1391.
+    https://doi.org/10.1175/1520-0469(2004)061<1377:ALTOOP>2.0.CO;2
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from climwidgets.compute.linear_model import vertical_wavenumber
+    >>> # propagating (real, with the sign of sigma), evanescent (imaginary), sigma = 0
+    >>> m = vertical_wavenumber(np.array([1e-3, -1e-3, 2e-2, 0.0]), 1e-3, 0.0, 0.01)
+    >>> (m.real * 1e3).round(3), (m.imag * 1e3).round(3)  # per km
+    (array([ 9.95, -9.95,  0.  ,  0.  ]), array([0.   , 0.   , 0.866, 0.   ]))
     """
     sigma = np.asarray(sigma, dtype=float)
     kh2 = np.asarray(k, dtype=float) ** 2 + np.asarray(l, dtype=float) ** 2
@@ -67,7 +149,8 @@ def vertical_wavenumber(sigma, k, l, nm):
     return np.where(m2 >= 0, np.sign(sigma) * root, 1j * root)
 
 
-def _lt_core(h, dx, dy, u, v, cw, hw, nm, tau_c, tau_f, pad_y, pad_x):
+def _lt_core(h: np.ndarray, dx: float, dy: float, u: float, v: float, cw: float, hw: float, nm: float,
+             tau_c: float, tau_f: float, pad_y: int, pad_x: int) -> np.ndarray:
     """Precipitation (kg m-2 s-1) on the last two axes (lat, lon) of terrain h (m)."""
     # Sea and missing cells are flat at sea level: the theory needs terrain heights >= 0.
     h = np.maximum(np.nan_to_num(np.asarray(h, dtype=float), nan=0.0), 0.0)
@@ -102,7 +185,7 @@ def _spacing(coord: np.ndarray, name: str, func: str) -> float:
     return float(d.mean())
 
 
-def _positive(value, name, func, expected, fix, allow_zero=True):
+def _positive(value: Any, name: str, func: str, expected: str, fix: str, allow_zero: bool = True) -> float:
     try:
         v = float(value)
     except (TypeError, ValueError):
@@ -185,9 +268,42 @@ def linear_orographic_precip(elevation: xr.DataArray, wind_speed: float = 10.0,
 
     Returns
     -------
-    DataArray on the elevation grid in mm h-1 (or mm with ``duration_hours``), with the
-    constants used (Cw, Hw, Γm, U, V) in attrs.  Lazy on dask input (the lat/lon plane is
-    brought into one chunk, since the transform needs the whole domain).
+    xarray.DataArray
+        ``orographic_precipitation`` on the elevation grid in mm h-1 (or mm with
+        ``duration_hours``), with the constants used (Cw, Hw, Γm, U, V) in attrs.  Lazy on
+        dask input (the lat/lon plane is brought into one chunk, since the transform
+        needs the whole domain).
+
+    Raises
+    ------
+    climwidgets.errors.ParameterError
+        A parameter outside its range (negative, not finite, temperature outside
+        -40..45 °C, lapse rate not below the dry adiabatic rate), fewer than 3 cells
+        along an axis, or a grid spacing that is not uniform.
+    climwidgets.errors.GridError
+        An elevation without usable 1-D lat/lon coordinates.
+
+    References
+    ----------
+    Smith, R. B. and Barstad, I. (2004). A linear theory of orographic precipitation.
+    Journal of the Atmospheric Sciences, 61(12), 1377-1391.
+    https://doi.org/10.1175/1520-0469(2004)061<1377:ALTOOP>2.0.CO;2
+
+    Examples
+    --------
+    >>> import numpy as np, xarray as xr
+    >>> import climwidgets as cw
+    >>> lat = np.linspace(-0.5, 0.5, 21)
+    >>> lon = np.linspace(-170.5, -169.5, 21)  # an invented 1 km hill in the open ocean
+    >>> h = 1000.0 * np.exp(-((lat[:, None] / 0.15) ** 2 + ((lon[None, :] + 170.0) / 0.15) ** 2))
+    >>> elevation = xr.DataArray(h, dims=("lat", "lon"), coords={"lat": lat, "lon": lon},
+    ...                          attrs={"units": "m"})
+    >>> rate = cw.linear_orographic_precip(elevation, wind_speed=10.0, wind_from=270.0)
+    >>> rate.attrs["units"], round(float(rate.max()), 1)
+    ('mm h-1', 2.9)
+    >>> row = rate.isel(lat=10)  # through the summit (index 10): wet to the west, dry lee
+    >>> round(float(row.isel(lon=7)), 1), round(float(row.isel(lon=13)), 1)
+    (2.0, 0.0)
     """
     func = "linear_orographic_precip"
     lat, lon = _crest.grid_coords(elevation, func, "elevation")
@@ -234,7 +350,7 @@ def linear_orographic_precip(elevation: xr.DataArray, wind_speed: float = 10.0,
     hw_used = float(water_vapour_scale_height(t, gamma)) if hw is None else hw
     pad_y, pad_x = int(round(pad * lat.size)), int(round(pad * lon.size))
 
-    rate = xr.apply_ufunc(
+    rate: xr.DataArray = xr.apply_ufunc(
         _lt_core, elevation,
         kwargs=dict(dx=dx, dy=dy, u=u, v=v, cw=cw, hw=hw_used, nm=nm, tau_c=tau_c, tau_f=tau_f,
                     pad_y=pad_y, pad_x=pad_x),

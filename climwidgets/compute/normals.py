@@ -19,6 +19,8 @@ local rule can be used; the rule applied is recorded in attrs.
 from __future__ import annotations
 
 import math
+from collections.abc import Iterable, Sequence
+from typing import Any, cast
 
 import numpy as np
 import xarray as xr
@@ -39,7 +41,7 @@ from .seasonal import season_label
 __all__ = ["normals", "annual_normal", "seasonal_normal", "baseline_stats"]
 
 
-def _check_fraction(min_fraction, func):
+def _check_fraction(min_fraction: Any, func: str) -> float:
     if isinstance(min_fraction, bool) or not isinstance(min_fraction, (int, float)) \
             or not 0 < min_fraction <= 1:
         raise ParameterError(f"min_fraction={min_fraction!r} is not a fraction in (0, 1]",
@@ -49,7 +51,8 @@ def _check_fraction(min_fraction, func):
     return float(min_fraction)
 
 
-def baseline_values(values, baseline, min_fraction, func, src, dim="year"):
+def baseline_values(values: xr.DataArray, baseline: Sequence[int], min_fraction: float, func: str, src: str,
+                    dim: str = "year") -> tuple[xr.DataArray, int, int]:
     """The values of the baseline years along ``dim``, every baseline year present (NaN
     where the record has none), and ``(required, nyears)`` of the completeness rule.
 
@@ -78,22 +81,61 @@ def baseline_values(values, baseline, min_fraction, func, src, dim="year"):
     return base, required, nyears
 
 
-def baseline_stats(values, baseline, min_fraction, func, src, dim="year"):
+def baseline_stats(values: xr.DataArray, baseline: Sequence[int], min_fraction: float, func: str, src: str,
+                   dim: str = "year") -> tuple[xr.DataArray, xr.DataArray, xr.DataArray, int, int]:
     """Mean and sample standard deviation (ddof=1) over the baseline years along ``dim``.
 
-    Returns ``(mean, sd, n, required, nyears)``; mean and sd are NaN where fewer than
-    ``required`` = ceil(min_fraction * nyears) baseline years are present (see
-    :func:`baseline_values`).
+    Parameters
+    ----------
+    values
+        Values with a ``dim`` dimension of year labels (e.g. annual or seasonal totals).
+    baseline
+        (first, last) years of the baseline.
+    min_fraction
+        Share of baseline years that must have a value, in (0, 1].
+    func, src
+        The calling function's name and the data's name, for error messages.
+    dim
+        The year dimension.
+
+    Returns
+    -------
+    tuple
+        ``(mean, sd, n, required, nyears)``: mean and sd (DataArrays, NaN where fewer than
+        ``required`` = ceil(min_fraction * nyears) baseline years are present, see
+        :func:`baseline_values`), the count ``n`` of years with a value, and the two ints
+        of the rule.
+
+    Raises
+    ------
+    climwidgets.errors.ParameterError
+        A bad ``min_fraction`` or ``baseline``, or fewer baseline years in the data than
+        the rule needs.
+
+    References
+    ----------
+    WMO (2017). WMO Guidelines on the Calculation of Climate Normals. WMO-No. 1203.
+    World Meteorological Organization, Geneva.
+
+    Examples
+    --------
+    >>> import xarray as xr
+    >>> from climwidgets.compute.normals import baseline_stats
+    >>> totals = xr.DataArray([100.0, 120.0, 110.0, 130.0], dims="year",
+    ...                       coords={"year": [2001, 2002, 2003, 2004]})
+    >>> mean, sd, n, required, nyears = baseline_stats(totals, (2001, 2004), 0.8, "example", "totals")
+    >>> float(mean), round(float(sd), 3), int(n), required, nyears  # sd = sqrt(500 / 3)
+    (115.0, 12.91, 4, 4, 4)
     """
     base, required, nyears = baseline_values(values, baseline, min_fraction, func, src, dim)
     n = base.count(dim)
     ok = n >= required
     mean = base.sum(dim, skipna=True) / n.where(ok)
     var = ((base - mean) ** 2).sum(dim, skipna=True) / (n - 1).where(ok & (n > 1))
-    return mean, np.sqrt(var), n, required, nyears
+    return mean, cast(xr.DataArray, np.sqrt(var)), n, required, nyears  # numpy stubs: ufunc of a DataArray
 
 
-def _completeness_attrs(n, required, per_cell_dims):
+def _completeness_attrs(n: xr.DataArray, required: int, per_cell_dims: list[str]) -> dict[str, Any]:
     """Counts of cells that fail the completeness rule (only for in-memory results)."""
     if is_dask(n):
         note = "not counted for lazy input; see coordinate n_years"
@@ -104,7 +146,7 @@ def _completeness_attrs(n, required, per_cell_dims):
             "cells_without_data": int(np.asarray(~has_data).sum())}
 
 
-def normals(pr: xr.DataArray, baseline=(1991, 2020), min_fraction: float = 0.8) -> xr.DataArray:
+def normals(pr: xr.DataArray, baseline: Sequence[int] = (1991, 2020), min_fraction: float = 0.8) -> xr.DataArray:
     """Monthly normal precipitation totals (mm) on a ``month`` dimension 1..12.
 
     Parameters
@@ -118,18 +160,39 @@ def normals(pr: xr.DataArray, baseline=(1991, 2020), min_fraction: float = 0.8) 
     min_fraction
         Share of baseline years that must have a complete monthly total (0.8 = 24 of 30).
 
-    Raises
-    ------
-    ParameterError
-        When fewer of the baseline's years than the completeness rule needs lie in the
-        data, or for bad parameters.
-
     Returns
     -------
-    DataArray (month, ...) of mean monthly totals over the baseline.  NaN where the
-    completeness rule fails.  Coordinate ``n_years`` holds the valid years per month and
-    cell; ``attrs["cells_failing_completeness"]`` counts cells with at least one monthly
-    normal withheld for incompleteness (for in-memory input).
+    xarray.DataArray
+        (month, ...) mean monthly totals over the baseline.  NaN where the completeness
+        rule fails.  Coordinate ``n_years`` holds the valid years per month and cell;
+        ``attrs["cells_failing_completeness"]`` counts cells with at least one monthly
+        normal withheld for incompleteness (for in-memory input).
+
+    Raises
+    ------
+    climwidgets.errors.ParameterError
+        When fewer of the baseline's years than the completeness rule needs lie in the
+        data, or for bad parameters.
+    climwidgets.errors.InputError
+        When ``pr`` has no usable units or step.
+
+    References
+    ----------
+    WMO (2017). WMO Guidelines on the Calculation of Climate Normals. WMO-No. 1203.
+    World Meteorological Organization, Geneva.
+
+    Examples
+    --------
+    >>> import pandas as pd, xarray as xr
+    >>> import climwidgets as cw
+    >>> time = pd.date_range("2001-01-01", periods=60, freq="MS")  # five years of months
+    >>> pr = xr.DataArray(10.0 * time.month + (time.year - 2001), dims="time",
+    ...                   coords={"time": time}, attrs={"units": "mm", "step": "month"})
+    >>> normal = cw.normals(pr, baseline=(2001, 2005))
+    >>> normal.values  # each month's mean of its five totals
+    array([ 12.,  22.,  32.,  42.,  52.,  62.,  72.,  82.,  92., 102., 112., 122.])
+    >>> normal["n_years"].values
+    array([5, 5, 5, 5, 5, 5, 5, 5, 5, 5, 5, 5])
     """
     func = "normals"
     pr, step = precip_mm(pr, func)
@@ -151,8 +214,47 @@ def normals(pr: xr.DataArray, baseline=(1991, 2020), min_fraction: float = 0.8) 
     return with_history(out, func, pr.attrs, baseline=baseline, min_fraction=min_fraction)
 
 
-def annual_normal(pr: xr.DataArray, baseline=(1991, 2020), min_fraction: float = 0.8) -> xr.DataArray:
-    """Annual normal total (mm): the sum of the 12 monthly normals, NaN if any is NaN."""
+def annual_normal(pr: xr.DataArray, baseline: Sequence[int] = (1991, 2020),
+                  min_fraction: float = 0.8) -> xr.DataArray:
+    """Annual normal total (mm): the sum of the 12 monthly normals, NaN if any is NaN.
+
+    Parameters
+    ----------
+    pr
+        Precipitation depth per step in mm (hourly, daily or monthly).
+    baseline
+        (first, last) calendar years of the normal period (see :func:`normals`).
+    min_fraction
+        Share of baseline years that must have a complete monthly total.
+
+    Returns
+    -------
+    xarray.DataArray
+        The annual normal per cell (no time dimension), units "mm".
+
+    Raises
+    ------
+    climwidgets.errors.ParameterError
+        When fewer of the baseline's years than the completeness rule needs lie in the
+        data, or for bad parameters.
+    climwidgets.errors.InputError
+        When ``pr`` has no usable units or step.
+
+    References
+    ----------
+    WMO (2017). WMO Guidelines on the Calculation of Climate Normals. WMO-No. 1203.
+    World Meteorological Organization, Geneva.
+
+    Examples
+    --------
+    >>> import pandas as pd, xarray as xr
+    >>> import climwidgets as cw
+    >>> time = pd.date_range("2001-01-01", periods=60, freq="MS")  # five years of months
+    >>> pr = xr.DataArray(10.0 * time.month + (time.year - 2001), dims="time",
+    ...                   coords={"time": time}, attrs={"units": "mm", "step": "month"})
+    >>> float(cw.annual_normal(pr, baseline=(2001, 2005)))  # 10 + 20 + ... + 120, plus 12 x 2
+    804.0
+    """
     mon = normals(pr, baseline, min_fraction)
     out = mon.sum("month", skipna=False).drop_vars("n_years", errors="ignore")
     out.name = pr.name
@@ -162,9 +264,49 @@ def annual_normal(pr: xr.DataArray, baseline=(1991, 2020), min_fraction: float =
     return with_history(out, "annual_normal", pr.attrs, baseline=baseline, min_fraction=min_fraction)
 
 
-def seasonal_normal(pr: xr.DataArray, months, baseline=(1991, 2020),
+def seasonal_normal(pr: xr.DataArray, months: Iterable[int] | int, baseline: Sequence[int] = (1991, 2020),
                     min_fraction: float = 0.8) -> xr.DataArray:
-    """Seasonal normal total (mm): the sum of the season's monthly normals, NaN if any is NaN."""
+    """Seasonal normal total (mm): the sum of the season's monthly normals, NaN if any is NaN.
+
+    Parameters
+    ----------
+    pr
+        Precipitation depth per step in mm (hourly, daily or monthly).
+    months
+        The season's consecutive month numbers, e.g. (12, 1, 2).
+    baseline
+        (first, last) calendar years of the normal period (see :func:`normals`).
+    min_fraction
+        Share of baseline years that must have a complete monthly total.
+
+    Returns
+    -------
+    xarray.DataArray
+        The seasonal normal per cell, units "mm", ``attrs["season_months"]``.
+
+    Raises
+    ------
+    climwidgets.errors.ParameterError
+        When fewer of the baseline's years than the completeness rule needs lie in the
+        data, for bad months or other bad parameters.
+    climwidgets.errors.InputError
+        When ``pr`` has no usable units or step.
+
+    References
+    ----------
+    WMO (2017). WMO Guidelines on the Calculation of Climate Normals. WMO-No. 1203.
+    World Meteorological Organization, Geneva.
+
+    Examples
+    --------
+    >>> import pandas as pd, xarray as xr
+    >>> import climwidgets as cw
+    >>> time = pd.date_range("2001-01-01", periods=60, freq="MS")  # five years of months
+    >>> pr = xr.DataArray(10.0 * time.month + (time.year - 2001), dims="time",
+    ...                   coords={"time": time}, attrs={"units": "mm", "step": "month"})
+    >>> float(cw.seasonal_normal(pr, (12, 1, 2), baseline=(2001, 2005)))  # 122 + 12 + 22
+    156.0
+    """
     months = check_months(months, "seasonal_normal")
     mon = normals(pr, baseline, min_fraction)
     out = mon.sel(month=list(months)).sum("month", skipna=False).drop_vars("n_years", errors="ignore")

@@ -11,6 +11,9 @@ precipitation field stays lazy on dask input.
 
 from __future__ import annotations
 
+from collections.abc import Sequence
+from typing import Any
+
 import numpy as np
 import xarray as xr
 from scipy import stats
@@ -52,6 +55,33 @@ def crest_from_elevation(elevation: xr.DataArray, wind_from: float = 270.0,
         Direction the wind blows from, degrees clockwise from north (270 = westerly).
     min_height
         Optional lowest crest height in metres.
+
+    Returns
+    -------
+    list of tuple of float
+        The crest points ``(lon, lat)`` in degrees, in order across the wind.
+
+    Raises
+    ------
+    climwidgets.errors.ParameterError
+        A wind direction outside 0-360.
+    climwidgets.errors.GridError
+        An elevation without usable 1-D lat/lon coordinates.
+    climwidgets.errors.InsufficientDataError
+        No usable cell, or fewer than two crest points (e.g. none reaching ``min_height``).
+
+    Examples
+    --------
+    >>> import numpy as np, xarray as xr
+    >>> import climwidgets as cw
+    >>> lat = np.arange(-0.45, 0.5, 0.1).round(2)  # 10 x 10 cells of 0.1 degree, open ocean
+    >>> lon = np.arange(-170.45, -169.5, 0.1).round(2)
+    >>> z = np.broadcast_to(1500.0 - 2500.0 * np.abs(lon + 170.05), (10, 10))  # N-S ridge
+    >>> elevation = xr.DataArray(z, dims=("lat", "lon"), coords={"lat": lat, "lon": lon},
+    ...                          attrs={"units": "m"})
+    >>> crest = cw.crest_from_elevation(elevation, wind_from=270.0)  # the top of each row
+    >>> len(crest), [(float(x), float(y)) for x, y in crest[:2]]
+    (10, [(-170.05, -0.45), (-170.05, -0.35)])
     """
     func = "crest_from_elevation"
     w = _crest.check_wind_from(wind_from, func)
@@ -60,7 +90,7 @@ def crest_from_elevation(elevation: xr.DataArray, wind_from: float = 270.0,
     return _crest.crest_points(z, lat, lon, w, min_height, func)
 
 
-def _parse_bands(band_km, func: str):
+def _parse_bands(band_km: Any, func: str) -> tuple[list[tuple[float, float]], bool]:
     """Bands as a list of (lo, hi) km and whether to drop the band dimension.
 
     Accepted: one pair ``(lo, hi)``; a sequence of more than two increasing edges
@@ -87,7 +117,7 @@ def _parse_bands(band_km, func: str):
     return [(float(a), float(b)) for a, b in bands], squeeze
 
 
-def _coverage(basin, field, func: str) -> xr.DataArray | None:
+def _coverage(basin: Any, field: xr.DataArray, func: str) -> xr.DataArray | None:
     if basin is None:
         return None
     if isinstance(basin, xr.DataArray):
@@ -112,19 +142,46 @@ def _coverage(basin, field, func: str) -> xr.DataArray | None:
                         dims=("lat", "lon"))
 
 
-def _weights(field, basin, func):
+def _weights(field: xr.DataArray, basin: Any, func: str) -> xr.DataArray:
     """Cell area (m²), times basin coverage when a basin is given."""
     area = _crest.cell_area(field)
     cov = _coverage(basin, field, func)
     return area if cov is None else area * cov
 
 
-def side_mask(distance_km: xr.DataArray, side: str, band_km=None) -> xr.DataArray:
+def side_mask(distance_km: xr.DataArray, side: str, band_km: Any = None) -> xr.DataArray:
     """Boolean mask of the windward or leeward cells, from ``rain_shadow(...)["distance_km"]``.
 
     ``side`` is "windward" (distance < 0, upwind of the crest) or "leeward" (distance > 0);
     cells on the crest line itself (distance 0) and cells without a distance (NaN) belong
     to neither.  ``band_km=(lo, hi)`` keeps only cells with ``lo <= |distance| < hi``.
+
+    Parameters
+    ----------
+    distance_km
+        Signed along-wind distance from the crest (km), as ``rain_shadow(...)["distance_km"]``.
+    side
+        "windward" or "leeward".
+    band_km
+        Optional ``(lo, hi)`` band of distances in km.
+
+    Returns
+    -------
+    xarray.DataArray
+        Boolean ``<side>_mask`` on the grid of ``distance_km``.
+
+    Raises
+    ------
+    climwidgets.errors.ParameterError
+        An unknown ``side`` or a malformed band.
+
+    Examples
+    --------
+    >>> import xarray as xr
+    >>> from climwidgets.compute.orographic import side_mask
+    >>> distance = xr.DataArray([-30.0, -5.0, 0.0, 5.0, 30.0], dims="lon")
+    >>> side_mask(distance, "windward").values, side_mask(distance, "leeward", band_km=(0, 10)).values
+    (array([ True,  True, False, False, False]), array([False, False, False,  True, False]))
     """
     if side not in ("windward", "leeward"):
         raise ParameterError(f"side={side!r} is not a side of the crest", source="side_mask",
@@ -140,7 +197,7 @@ def side_mask(distance_km: xr.DataArray, side: str, band_km=None) -> xr.DataArra
     return mask
 
 
-def _bootstrap_bounds(ww, lw, idx, q):
+def _bootstrap_bounds(ww: np.ndarray, lw: np.ndarray, idx: np.ndarray, q: Any) -> np.ndarray:
     """Percentile bounds of the resampled leeward/windward ratio (numpy core, year last)."""
     ww_b = np.nanmean(ww[..., idx], axis=-1)  # (..., n_boot)
     lw_b = np.nanmean(lw[..., idx], axis=-1)
@@ -150,8 +207,9 @@ def _bootstrap_bounds(ww, lw, idx, q):
     return np.moveaxis(out, 0, -1)
 
 
-def rain_shadow(field: xr.DataArray, wind_from: float = 270.0, ridge=None, elevation=None,
-                band_km=(0, 50), basin=None, n_boot: int = 1000, ci: float = 0.9, seed: int = 0,
+def rain_shadow(field: xr.DataArray, wind_from: float = 270.0, ridge: Sequence[tuple[float, float]] | None = None,
+                elevation: xr.DataArray | None = None, band_km: Any = (0, 50), basin: Any = None,
+                n_boot: int = 1000, ci: float = 0.9, seed: int = 0,
                 beyond_ends: str = "exclude") -> xr.Dataset:
     """Windward/leeward contrast of a precipitation climatology across a crest.
 
@@ -187,17 +245,56 @@ def rain_shadow(field: xr.DataArray, wind_from: float = 270.0, ridge=None, eleva
 
     Returns
     -------
-    Dataset with ``windward_mean``, ``leeward_mean`` (area-weighted means, field units),
-    ``ratio`` (leeward / windward, units "1"), ``difference`` (leeward − windward),
-    ``n_windward``/``n_leeward`` (cells used) and ``distance_km`` (lat, lon): signed
-    along-wind distance from the crest, negative windward (upwind), positive leeward.
-    Distances are WGS84 geodesic lengths (pyproj.Geod.inv) from the point where the line
-    through the cell parallel to the wind crosses the crest; that crossing is found in the
-    local tangent plane at the grid's mean latitude (see ``_crest.signed_distance_km``).
-    With a ``year`` dim, ``windward_mean``/``leeward_mean`` are means of the per-year
-    means, ``ratio`` their ratio, plus ``ratio_per_year``, ``ratio_lower``, ``ratio_upper``.
+    xarray.Dataset
+        ``windward_mean``, ``leeward_mean`` (area-weighted means, field units), ``ratio``
+        (leeward / windward, units "1"), ``difference`` (leeward − windward),
+        ``n_windward``/``n_leeward`` (cells used) and ``distance_km`` (lat, lon): signed
+        along-wind distance from the crest, negative windward (upwind), positive leeward.
+        Distances are WGS84 geodesic lengths (pyproj.Geod.inv) from the point where the
+        line through the cell parallel to the wind crosses the crest; that crossing is
+        found in the local tangent plane at the grid's mean latitude (see
+        ``_crest.signed_distance_km``).  With a ``year`` dim, ``windward_mean`` /
+        ``leeward_mean`` are means of the per-year means, ``ratio`` their ratio, plus
+        ``ratio_per_year``, ``ratio_lower``, ``ratio_upper``.
 
+    Raises
+    ------
+    climwidgets.errors.ParameterError
+        Not exactly one of ``ridge`` and ``elevation``, a malformed ridge, bands, basin or
+        bootstrap setting, an unknown ``beyond_ends``, or a wind direction outside 0-360.
+    climwidgets.errors.GridError
+        A field or elevation without usable 1-D lat/lon.
+    climwidgets.errors.MismatchError
+        An elevation on another grid than the field.
+    climwidgets.errors.InsufficientDataError
+        No cell on one side of the crest within the bands, or too few years to bootstrap.
+
+    Notes
+    -----
     The lon/lat grid is treated as flat across the date line (no wrap-around).
+
+    References
+    ----------
+    Karney, C. F. F. (2013). Algorithms for geodesics. Journal of Geodesy, 87(1), 43-55.
+    https://doi.org/10.1007/s00190-012-0578-z (the geodesic distances of pyproj.Geod).
+
+    Efron, B. and Tibshirani, R. J. (1993). An Introduction to the Bootstrap. Chapman &
+    Hall, New York (the percentile interval).
+
+    Examples
+    --------
+    >>> import numpy as np, xarray as xr
+    >>> import climwidgets as cw
+    >>> lat = np.arange(-0.45, 0.5, 0.1).round(2)  # 10 x 10 cells of 0.1 degree, open ocean
+    >>> lon = np.arange(-170.45, -169.5, 0.1).round(2)
+    >>> field = xr.DataArray(np.tile(np.where(lon < -170.0, 100.0, 40.0), (10, 1)),
+    ...                      dims=("lat", "lon"), coords={"lat": lat, "lon": lon},
+    ...                      attrs={"units": "mm"})  # wet west of 170 W, dry east of it
+    >>> shadow = cw.rain_shadow(field, wind_from=270.0, ridge=[(-170.0, -0.5), (-170.0, 0.5)])
+    >>> {k: round(float(shadow[k]), 3) for k in ("windward_mean", "leeward_mean", "ratio")}
+    {'windward_mean': 100.0, 'leeward_mean': 40.0, 'ratio': 0.4}
+    >>> shadow["distance_km"].isel(lat=0).values.round(1)  # km from the crest, west negative
+    array([-50.1, -39. , -27.8, -16.7,  -5.6,   5.6,  16.7,  27.8,  39. ,  50.1])
     """
     func = "rain_shadow"
     w = _crest.check_wind_from(wind_from, func)
@@ -289,7 +386,7 @@ def rain_shadow(field: xr.DataArray, wind_from: float = 270.0, ridge=None, eleva
                         basin=basin is not None, n_boot=n_boot if has_years else 0, ci=ci, seed=seed)
 
 
-def _check_boot(field, n_boot, ci, func):
+def _check_boot(field: xr.DataArray, n_boot: Any, ci: Any, func: str) -> tuple[int, float]:
     n_years = field.sizes[_BOOT_DIM]
     if n_years < 3:
         raise InsufficientDataError(
@@ -310,7 +407,7 @@ def _check_boot(field, n_boot, ci, func):
     return int(n_boot), ci
 
 
-def _rain_shadow_attrs(ds, units, w, has_years, ci):
+def _rain_shadow_attrs(ds: xr.Dataset, units: str, w: float, has_years: bool, ci: float) -> None:
     ds["windward_mean"].attrs = {"units": units, "long_name": "windward area-weighted mean"}
     ds["leeward_mean"].attrs = {"units": units, "long_name": "leeward area-weighted mean"}
     ds["ratio"].attrs = {"units": "1", "long_name": "leeward / windward ratio"}
@@ -328,8 +425,9 @@ def _rain_shadow_attrs(ds, units, w, has_years, ci):
                            "percentile bootstrap over years (Efron & Tibshirani 1993)"}
 
 
-def elevation_gradient(field: xr.DataArray, elevation: xr.DataArray, mask=None, side=None,
-                       band_m: float = 250.0, ci: float = 0.9, *, distance_km=None,
+def elevation_gradient(field: xr.DataArray, elevation: xr.DataArray, mask: xr.DataArray | None = None,
+                       side: str | None = None, band_m: float = 250.0, ci: float = 0.9, *,
+                       distance_km: xr.DataArray | None = None,
                        weighted: bool = True) -> xr.Dataset:
     """Change of precipitation with height: least-squares slope in mm per 100 m.
 
@@ -358,12 +456,39 @@ def elevation_gradient(field: xr.DataArray, elevation: xr.DataArray, mask=None, 
 
     Returns
     -------
-    Dataset with ``slope`` (mm per 100 m), ``lower``, ``upper`` (slope ± t(n−2)·se),
-    ``intercept`` (mm at 0 m), ``r2`` (weighted coefficient of determination), ``n``
-    (cells used), and on the ``elevation_band`` dim (band centre, m) ``band_mean``
-    (area-weighted), ``band_elevation`` (mean height) and ``band_cells``.  Cells with
-    missing precipitation are left out of each fit.  Spatial cells are not independent
-    (neighbours share weather), so the interval is narrower than the true uncertainty.
+    xarray.Dataset
+        ``slope`` (mm per 100 m), ``lower``, ``upper`` (slope ± t(n−2)·se), ``intercept``
+        (mm at 0 m), ``r2`` (weighted coefficient of determination), ``n`` (cells used),
+        and on the ``elevation_band`` dim (band centre, m) ``band_mean`` (area-weighted),
+        ``band_elevation`` (mean height) and ``band_cells``.  Cells with missing
+        precipitation are left out of each fit.  Spatial cells are not independent
+        (neighbours share weather), so the interval is narrower than the true uncertainty.
+
+    Raises
+    ------
+    climwidgets.errors.ParameterError
+        A band width or confidence level out of range, or ``side`` without
+        ``distance_km``.
+    climwidgets.errors.GridError
+        Grids without usable 1-D lat/lon.
+    climwidgets.errors.MismatchError
+        An elevation or mask on another grid than the field.
+    climwidgets.errors.InsufficientDataError
+        Fewer than 3 cells selected, or all at one elevation.
+
+    Examples
+    --------
+    >>> import numpy as np, xarray as xr
+    >>> import climwidgets as cw
+    >>> lat = np.arange(-0.45, 0.5, 0.1).round(2)  # 10 x 10 cells of 0.1 degree, open ocean
+    >>> lon = np.arange(-170.45, -169.5, 0.1).round(2)
+    >>> z = np.broadcast_to(1500.0 - 2500.0 * np.abs(lon + 170.05), (10, 10))  # N-S ridge
+    >>> elevation = xr.DataArray(z, dims=("lat", "lon"), coords={"lat": lat, "lon": lon},
+    ...                          attrs={"units": "m"})
+    >>> field = (500.0 + 0.5 * elevation).assign_attrs(units="mm")  # +50 mm per 100 m
+    >>> fit = cw.elevation_gradient(field, elevation)
+    >>> {k: round(float(fit[k]), 3) for k in ("slope", "intercept", "r2")}
+    {'slope': 50.0, 'intercept': 500.0, 'r2': 1.0}
     """
     func = "elevation_gradient"
     _crest.grid_coords(field, func, "field")

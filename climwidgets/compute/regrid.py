@@ -20,7 +20,9 @@ corners are inferred from the centres anyway).
 from __future__ import annotations
 
 from collections import OrderedDict
+from collections.abc import Callable, Hashable
 from functools import partial
+from typing import Any
 
 import numpy as np
 import scipy.sparse as sp
@@ -36,18 +38,18 @@ _METHODS = ("conservative", "bilinear")
 _COVERAGE = ("renormalise", "strict")
 # a "full" cell may fall short of 1 by rounding in the overlap sums
 _FULL_TOL = 1e-9
-_CACHE: OrderedDict = OrderedDict()
+_CACHE: OrderedDict[Any, sp.csr_matrix] = OrderedDict()
 _CACHE_SIZE = 16
 
 
 # ---------------------------------------------------------------- grid description
-def _bounds(obj):
+def _bounds(obj: xr.DataArray | xr.Dataset) -> tuple[Any, Any, Any, Any]:
     """Rectilinear (lat_lo, lat_hi, lon_lo, lon_hi) in degrees, via geo.grid.cell_bounds."""
     b = cell_bounds(obj)
     return b.lat_lower, b.lat_upper, b.lon_lower, b.lon_upper
 
 
-def _target_grid(target, need_bounds=True):
+def _target_grid(target: Any, need_bounds: bool = True) -> tuple[Any, ...]:
     """(lat, lon, lat_lo, lat_hi, lon_lo, lon_hi) of a rectilinear target."""
     if isinstance(target, dict):
         if "lat" not in target or "lon" not in target:
@@ -56,7 +58,7 @@ def _target_grid(target, need_bounds=True):
                             fix="pass {'lat': [...], 'lon': [...]} or a DataArray on the target grid")
         lat = np.atleast_1d(np.asarray(target["lat"], dtype=float))
         lon = np.atleast_1d(np.asarray(target["lon"], dtype=float))
-        obj = xr.Dataset(coords={"lat": lat, "lon": lon})
+        obj: xr.DataArray | xr.Dataset = xr.Dataset(coords={"lat": lat, "lon": lon})
     elif isinstance(target, (xr.DataArray, xr.Dataset)):
         if "lat" not in target.coords or "lon" not in target.coords:
             raise GridError("the target grid has no lat/lon coordinates", source="target",
@@ -82,7 +84,8 @@ def _target_grid(target, need_bounds=True):
 
 
 # ---------------------------------------------------------------- separable weights
-def _overlap_matrix(s_lo, s_hi, t_lo, t_hi, measure, period=None) -> sp.csr_matrix:
+def _overlap_matrix(s_lo: np.ndarray, s_hi: np.ndarray, t_lo: np.ndarray, t_hi: np.ndarray,
+                    measure: Callable[[np.ndarray], np.ndarray], period: float | None = None) -> sp.csr_matrix:
     """Sparse (n_target, n_source) overlap of 1-D intervals, in ``measure`` units.
 
     ``measure`` is monotonic (sin∘radians for latitude, radians for longitude), so the
@@ -95,6 +98,9 @@ def _overlap_matrix(s_lo, s_hi, t_lo, t_hi, measure, period=None) -> sp.csr_matr
         raise GridError("source cell bounds overlap or are not sorted", source="field",
                         expected="non-overlapping cells along each axis",
                         fix="sort lat/lon and check the *_lower/*_upper coordinates")
+    rows: Any
+    cols: Any
+    vals: Any  # lists of pieces, then their concatenation
     rows, cols, vals = [], [], []
     shifts = (0.0,) if period is None else (-period, 0.0, period)
     if period is not None:  # bring targets into [min source edge, + period)
@@ -120,25 +126,27 @@ def _overlap_matrix(s_lo, s_hi, t_lo, t_hi, measure, period=None) -> sp.csr_matr
     return m.tocsr()
 
 
-def _sin_deg(x):
+def _sin_deg(x: Any) -> Any:
     return np.sin(np.deg2rad(x))
 
 
-def separable_weights(src_lat_bounds, src_lon_bounds, tgt_lat_bounds, tgt_lon_bounds):
+def separable_weights(src_lat_bounds: Any, src_lon_bounds: Any, tgt_lat_bounds: Any,
+                      tgt_lon_bounds: Any) -> tuple[sp.csr_matrix, sp.csr_matrix]:
     """Overlap matrices ``(Wlat, Wlon)`` between two rectilinear grids.
 
     ``Wlat[i, j]`` is the overlap of target row i and source row j in sin φ, ``Wlon[k, l]``
     the overlap in longitude in radians (periodic), so that R²·Wlat[i, j]·Wlon[k, l] is the
     spherical area shared by target cell (i, k) and source cell (j, l).
     """
-    wlat = _overlap_matrix(*map(np.asarray, src_lat_bounds), *map(np.asarray, tgt_lat_bounds),
+    wlat = _overlap_matrix(*map(np.asarray, src_lat_bounds), *map(np.asarray, tgt_lat_bounds),  # type: ignore[arg-type, call-arg]
                            _sin_deg)
-    wlon = _overlap_matrix(*map(np.asarray, src_lon_bounds), *map(np.asarray, tgt_lon_bounds),
+    wlon = _overlap_matrix(*map(np.asarray, src_lon_bounds), *map(np.asarray, tgt_lon_bounds),  # type: ignore[arg-type, call-arg, misc]
                            np.deg2rad, period=360.0)
     return wlat, wlon
 
 
-def _finish(num, den, tgt_area, min_coverage, strict):
+def _finish(num: np.ndarray, den: np.ndarray, tgt_area: np.ndarray, min_coverage: float,
+            strict: bool) -> tuple[np.ndarray, np.ndarray]:
     cov = den / tgt_area
     with np.errstate(invalid="ignore", divide="ignore"):
         out = num / den
@@ -147,13 +155,14 @@ def _finish(num, den, tgt_area, min_coverage, strict):
     return out, np.clip(cov, 0.0, 1.0)
 
 
-def _apply_separable(wlat, wlonT, tgt_area, min_coverage, strict, x):
+def _apply_separable(wlat: Any, wlonT: Any, tgt_area: np.ndarray, min_coverage: float, strict: bool,
+                     x: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """Block function: x (..., nlat, nlon) -> value and coverage (..., ntlat, ntlon)."""
     lead = x.shape[:-2]
     x = x.reshape((-1,) + x.shape[-2:]).astype(float, copy=False)
     valid = np.isfinite(x)
 
-    def remap(a):
+    def remap(a: np.ndarray) -> np.ndarray:
         n, ny, nx = a.shape
         a = (a.reshape(n * ny, nx) @ wlonT) if nx else a  # lon: (n*ny, ntx)
         a = np.asarray(a).reshape(n, ny, -1).transpose(1, 0, 2).reshape(ny, -1)
@@ -168,14 +177,15 @@ def _apply_separable(wlat, wlonT, tgt_area, min_coverage, strict, x):
 
 
 # ---------------------------------------------------------------- curvilinear weights
-def _curvilinear_matrix(field, t_lat_b, t_lon_b, key):
+def _curvilinear_matrix(field: xr.DataArray, t_lat_b: tuple[np.ndarray, np.ndarray],
+                        t_lon_b: tuple[np.ndarray, np.ndarray], key: Any) -> sp.csr_matrix:
     """Sparse (n_target_cells, n_source_cells) overlap areas on the unit sphere."""
     import shapely
 
     if key in _CACHE:
         _CACHE.move_to_end(key)
         return _CACHE[key]
-    b = cell_bounds(field)
+    b: Any = cell_bounds(field)  # curvilinear: the corner fields are set
     ny, nx = b.lat_corners.shape[:2]
     qlat = b.lat_corners.reshape(-1, 4)
     # corners come unwrapped per cell, so no quad edge spans the antimeridian
@@ -189,6 +199,8 @@ def _curvilinear_matrix(field, t_lat_b, t_lon_b, key):
     yhi = np.repeat(_sin_deg(thi_lat), ntx)
     xlo = np.tile(np.deg2rad(tlo_lon), nty)
     xhi = np.tile(np.deg2rad(thi_lon), nty)
+    ids: Any
+    boxes: Any  # lists of pieces, then their concatenation
     ids, boxes = [], []
     for k in (-1, 0, 1):  # target copies one turn either side catch wrapped quads
         boxes.append(shapely.box(xlo + 2 * np.pi * k, ylo, xhi + 2 * np.pi * k, yhi))
@@ -205,7 +217,8 @@ def _curvilinear_matrix(field, t_lat_b, t_lon_b, key):
     return m
 
 
-def _apply_matrix(w, tgt_area, shape_out, min_coverage, strict, x):
+def _apply_matrix(w: Any, tgt_area: np.ndarray, shape_out: tuple[int, ...], min_coverage: float, strict: bool,
+                  x: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     lead = x.shape[:-2]
     x = x.reshape((-1, x.shape[-2] * x.shape[-1])).astype(float, copy=False)
     valid = np.isfinite(x)
@@ -217,7 +230,7 @@ def _apply_matrix(w, tgt_area, shape_out, min_coverage, strict, x):
 
 
 # ---------------------------------------------------------------- public function
-def _check_params(method, coverage, min_coverage):
+def _check_params(method: str, coverage: str, min_coverage: float) -> None:
     if method not in _METHODS:
         raise ParameterError(f"unknown regridding method {method!r}", source="regrid",
                              expected=" or ".join(repr(m) for m in _METHODS),
@@ -249,9 +262,9 @@ def _source_kind(field: xr.DataArray) -> str:
                     fix="check the grid coordinates of the file")
 
 
-def regrid(field: xr.DataArray, target, method: str = "conservative",
+def regrid(field: xr.DataArray, target: Any, method: str = "conservative",
            coverage: str = "renormalise", min_coverage: float = 0.5,
-           return_coverage: bool = False):
+           return_coverage: bool = False) -> Any:  # a DataArray, or (regridded, coverage)
     """Remap a precipitation field onto the lat/lon grid of ``target``.
 
     Parameters
@@ -271,11 +284,52 @@ def regrid(field: xr.DataArray, target, method: str = "conservative",
         ``"renormalise"``: the mean over the valid part of each target cell, NaN where the
         valid part covers less than ``min_coverage`` of the cell.  ``"strict"``: NaN
         wherever the cell is not fully covered by valid source cells.
+    min_coverage
+        With ``coverage="renormalise"``: the least fraction of a target cell, in (0, 1],
+        that valid source data must cover (default 0.5).
     return_coverage
         If True return ``(regridded, coverage)``; ``coverage`` is the fraction (units "1")
         of each target cell covered by valid source data, per time step.
 
-    The result is lazy on dask input (one task per time chunk).
+    Returns
+    -------
+    xarray.DataArray or tuple of xarray.DataArray
+        The field on the target's (lat, lon) grid (with the target's bounds as
+        ``lat_lower`` ... coordinates where known), the field's attrs and a history line;
+        with ``return_coverage`` the pair ``(regridded, coverage)``.  Lazy on dask input
+        (one task per time chunk).
+
+    Raises
+    ------
+    climwidgets.errors.ParameterError
+        An unknown method or coverage rule, ``min_coverage`` outside (0, 1], a field that
+        is not a DataArray, or bilinear regridding of a curvilinear source.
+    climwidgets.errors.GridError
+        A field or target without usable lat/lon, or grids that do not overlap.
+
+    References
+    ----------
+    Jones, P. W. (1999). First- and second-order conservative remapping schemes for grids
+    in spherical coordinates. Monthly Weather Review, 127(9), 2204-2210.
+    https://doi.org/10.1175/1520-0493(1999)127<2204:FASOCR>2.0.CO;2
+
+    Examples
+    --------
+    >>> import numpy as np, xarray as xr
+    >>> import climwidgets as cw
+    >>> field = xr.DataArray(np.tile([1.0, 3.0, 5.0, 7.0], (4, 1)), dims=("lat", "lon"),
+    ...                      coords={"lat": [0.5, 1.5, 2.5, 3.5], "lon": [10.5, 11.5, 12.5, 13.5]},
+    ...                      attrs={"units": "mm"})  # 1-degree cells
+    >>> coarse = {"lat": np.array([1.0, 3.0]), "lon": np.array([11.0, 13.0])}  # 2-degree cells
+    >>> cw.regrid(field, coarse).values  # each coarse cell: the mean of its four
+    array([[2., 6.],
+           [2., 6.]])
+    >>> field[0, 0] = np.nan  # a missing cell: the mean of the valid part, and its coverage
+    >>> out, cov = cw.regrid(field, coarse, return_coverage=True)
+    >>> out.values.round(3), cov.values.round(2)
+    (array([[2.333, 6.   ],
+           [2.   , 6.   ]]), array([[0.75, 1.  ],
+           [1.  , 1.  ]]))
     """
     _check_params(method, coverage, min_coverage)
     if not isinstance(field, xr.DataArray):
@@ -302,6 +356,9 @@ def regrid(field: xr.DataArray, target, method: str = "conservative",
         return (out, cov) if return_coverage else out
 
     strict = coverage == "strict"
+    core: list[Hashable]
+    func: Callable[..., tuple[np.ndarray, np.ndarray]]
+    args: tuple[Any, ...]
     tgt_area = np.outer(_sin_deg(tlat_hi) - _sin_deg(tlat_lo), np.deg2rad(tlon_hi - tlon_lo))
     if kind == "rect":
         slat_lo, slat_hi, slon_lo, slon_hi = _bounds(field)
@@ -343,7 +400,7 @@ def regrid(field: xr.DataArray, target, method: str = "conservative",
     return val, with_history(cov, "regrid", field.attrs, **params)
 
 
-def _no_overlap(field):
+def _no_overlap(field: xr.DataArray) -> None:
     raise GridError("the source and target grids do not overlap", source=field.name or "field",
                     expected="a target grid that shares area with the source grid",
                     fix="check the target's lat/lon ranges and the source's longitude convention")

@@ -42,6 +42,8 @@ type 7); τ of a future value is (rank − 1)/(n − 1) with average ranks for t
 
 from __future__ import annotations
 
+from typing import Any
+
 import numpy as np
 import xarray as xr
 
@@ -71,15 +73,52 @@ _SAME_CALENDAR = {"gregorian": "standard", "proleptic_gregorian": "standard", "3
 
 
 # ---------------------------------------------------------------- validation
-def _calendar_of(da) -> str:
+def _calendar_of(da: xr.DataArray) -> str:
     cal = _calendar(da)
     return _SAME_CALENDAR.get(cal, cal)
 
 
-def check_model_runs(model_hist, model_future, dim, func):
+def check_model_runs(model_hist: xr.DataArray, model_future: xr.DataArray, dim: str | None,
+                     func: str) -> str | None:
     """Validate a historical and a future run: precipitation convention, members, calendar.
 
-    Returns the member dimension (None for single runs).
+    Parameters
+    ----------
+    model_hist, model_future
+        The historical and future runs (DataArrays of depth per step, mm).
+    dim
+        The member dimension's name, or None to detect one of the usual names.
+    func
+        The calling function's name, for error messages.
+
+    Returns
+    -------
+    str or None
+        The member dimension (None for single runs).
+
+    Raises
+    ------
+    climwidgets.errors.ParameterError
+        A run that is not a DataArray.
+    climwidgets.errors.InputError
+        A run not in the precipitation convention (units, step), named in the message.
+    climwidgets.errors.MismatchError
+        Runs with different members, or only one with a member dimension.
+    climwidgets.errors.CalendarError
+        Runs on different calendars.
+
+    Examples
+    --------
+    >>> import numpy as np, pandas as pd, xarray as xr
+    >>> from climwidgets.compute.scenario import check_model_runs
+    >>> def monthly(first, years, mm):  # the same depth every month
+    ...     time = pd.date_range(f"{first}-01-01", periods=12 * years, freq="MS")
+    ...     return xr.DataArray(np.full(time.size, mm), dims="time", coords={"time": time},
+    ...                         attrs={"units": "mm", "step": "month"})
+    >>> hist = xr.concat([monthly(2001, 2, 8.0)] * 2, dim="member")
+    >>> future = xr.concat([monthly(2051, 2, 9.6), monthly(2051, 2, 12.0)], dim="member")
+    >>> check_model_runs(hist, future, None, "example")
+    'member'
     """
     for label, da in (("model_hist", model_hist), ("model_future", model_future)):
         _check_series(da, label, func)
@@ -93,7 +132,7 @@ def check_model_runs(model_hist, model_future, dim, func):
     return member
 
 
-def _check_series(da, label, func):
+def _check_series(da: Any, label: str, func: str) -> str:
     if not isinstance(da, xr.DataArray):
         raise ParameterError(f"{label} is a {type(da).__name__}", source=func, variable=label,
                              expected="an xarray.DataArray of precipitation depth per step (mm)",
@@ -105,8 +144,40 @@ def _check_series(da, label, func):
                         fix=err.fix) from None
 
 
-def period_or_default(da, period, label, func):
-    """(first, last) complete years of ``da`` to use: ``period`` checked, or all complete years."""
+def period_or_default(da: xr.DataArray, period: Any, label: str, func: str) -> tuple[int, int]:
+    """(first, last) complete years of ``da`` to use: ``period`` checked, or all complete years.
+
+    Parameters
+    ----------
+    da
+        Precipitation depth per step with a ``time`` axis.
+    period
+        (first, last) years, or None for every complete calendar year of ``da``.
+    label, func
+        The input's and the calling function's names, for error messages.
+
+    Returns
+    -------
+    tuple of int
+        (first, last) years.
+
+    Raises
+    ------
+    climwidgets.errors.InsufficientDataError
+        No complete calendar year, or a ``period`` with years that are not complete.
+    climwidgets.errors.ParameterError
+        A ``period`` that is not a pair of years.
+
+    Examples
+    --------
+    >>> import numpy as np, pandas as pd, xarray as xr
+    >>> from climwidgets.compute.scenario import period_or_default
+    >>> time = pd.date_range("2001-01-01", "2003-06-30", freq="D")  # 2003 is not complete
+    >>> pr = xr.DataArray(np.ones(time.size), dims="time", coords={"time": time},
+    ...                   attrs={"units": "mm", "step": "day"})
+    >>> period_or_default(pr, None, "obs", "example")
+    (2001, 2002)
+    """
     years = _complete_years(da)
     if not years:
         raise InsufficientDataError(f"{label} has no complete calendar year", source=func, variable=label,
@@ -125,7 +196,7 @@ def period_or_default(da, period, label, func):
     return first, last
 
 
-def _check_obs(obs, func):
+def _check_obs(obs: Any, func: str) -> str:
     step = _check_series(obs, "obs", func)
     extra = [d for d in MEMBER_DIMS if d in obs.dims]
     if extra:
@@ -135,11 +206,11 @@ def _check_obs(obs, func):
     return step
 
 
-def _has_grid(da) -> bool:
+def _has_grid(da: xr.DataArray) -> bool:
     return "lat" in da.coords and "lon" in da.coords
 
 
-def _check_grids(obs, model_hist, func):
+def _check_grids(obs: xr.DataArray, model_hist: xr.DataArray, func: str) -> None:
     """Gridded observations, or series (e.g. basin means) for observations and runs alike."""
     if _has_grid(obs) != _has_grid(model_hist):
         which = "the observations have" if not _has_grid(obs) else "the model runs have"
@@ -149,7 +220,7 @@ def _check_grids(obs, model_hist, func):
                         fix="open gridded data with cw.open_precip, or take cw.basin_mean of every input")
 
 
-def _same_grid(a, b) -> bool:
+def _same_grid(a: xr.DataArray, b: xr.DataArray) -> bool:
     """Same lat/lon centres (and the same bounds where both carry them); series are alike."""
     if not _has_grid(a) and not _has_grid(b):
         return True
@@ -163,24 +234,26 @@ def _same_grid(a, b) -> bool:
     return True
 
 
-def _on_obs_grid(field, obs):
+def _on_obs_grid(field: xr.DataArray, obs: xr.DataArray) -> xr.DataArray:
     """``field`` conservatively remapped onto the observed grid (unchanged when already on it)."""
     from .regrid import regrid
 
     if _same_grid(field, obs):
         return field
-    out = regrid(field, obs, method="conservative")
+    out: xr.DataArray = regrid(field, obs, method="conservative")
     out.attrs.pop("history", None)
     return out
 
 
-def _years(da, first, last):
+def _years(da: xr.DataArray, first: int, last: int) -> xr.DataArray:
     y = da["time"].dt.year
     return da.isel(time=np.flatnonzero(((y >= first) & (y <= last)).values))
 
 
 # ---------------------------------------------------------------- monthly ratio
-def _monthly_factors(obs, model_hist, model_future, hist_period, fut_period, min_fraction):
+def _monthly_factors(obs: xr.DataArray, model_hist: xr.DataArray, model_future: xr.DataArray,
+                     hist_period: tuple[int, int], fut_period: tuple[int, int],
+                     min_fraction: float) -> xr.DataArray:
     from .normals import normals
 
     nh = normals(model_hist, baseline=hist_period, min_fraction=min_fraction).drop_vars("n_years")
@@ -188,14 +261,15 @@ def _monthly_factors(obs, model_hist, model_future, hist_period, fut_period, min
     nh, nf = _on_obs_grid(nh, obs), _on_obs_grid(nf, obs)
     # a month that is dry in both periods does not change (factor 1); one that is dry only
     # in the historical period cannot be scaled from zero (NaN)
-    factor = xr.where(nh > 0, nf / nh.where(nh > 0), xr.where((nh == 0) & (nf == 0), 1.0, np.nan))
+    factor: xr.DataArray = xr.where(nh > 0, nf / nh.where(nh > 0),  # type: ignore[no-untyped-call]
+                                    xr.where((nh == 0) & (nf == 0), 1.0, np.nan))  # type: ignore[no-untyped-call]
     factor.name = "change_factor"
     factor.attrs = {"units": "1", "long_name": "monthly change factor (future / historical monthly normal)",
                     "historical_period": list(hist_period), "future_period": list(fut_period)}
     return factor
 
 
-def _apply_monthly(obs, factor):
+def _apply_monthly(obs: xr.DataArray, factor: xr.DataArray) -> xr.DataArray:
     month = obs["time"].dt.month
     per_step = factor.sel(month=month).drop_vars("month")
     return obs * per_step
@@ -203,9 +277,10 @@ def _apply_monthly(obs, factor):
 
 # ---------------------------------------------------------------- public function
 def delta_change(obs: xr.DataArray, model_hist: xr.DataArray, model_future: xr.DataArray,
-                 method: str = "monthly_ratio", *, historical=None, future=None, dim=None,
-                 group: str = "month", trace: float = 0.05, max_ratio: float = 2.0, seed: int = 0,
-                 min_fraction: float = 0.8, return_factors: bool = False):
+                 method: str = "monthly_ratio", *, historical: Any = None, future: Any = None,
+                 dim: str | None = None, group: str = "month", trace: float = 0.05, max_ratio: float = 2.0,
+                 seed: int = 0, min_fraction: float = 0.8,
+                 return_factors: bool = False) -> Any:  # a DataArray, or (scenario, factors)
     """A climate-change scenario on the observed grid, per member, from a model ensemble.
 
     Parameters
@@ -262,18 +337,18 @@ def delta_change(obs: xr.DataArray, model_hist: xr.DataArray, model_future: xr.D
 
     Raises
     ------
-    ParameterError
+    climwidgets.errors.ParameterError
         Unknown method or group, bad trace or max_ratio, observations with a member dimension.
-    UnitsError, TimeAxisError
+    climwidgets.errors.UnitsError, climwidgets.errors.TimeAxisError
         An input not in mm per step or without a usable time axis.
-    MismatchError
+    climwidgets.errors.MismatchError
         Runs with different members, or one without the member dimension; quantile delta
         with different time steps or without common calibration years.
-    CalendarError
+    climwidgets.errors.CalendarError
         Historical and future runs on different calendars.
-    InsufficientDataError
+    climwidgets.errors.InsufficientDataError
         A requested period not covered by complete years.
-    GridError
+    climwidgets.errors.GridError
         Observed and model grids that do not overlap.
 
     References
@@ -284,6 +359,21 @@ def delta_change(obs: xr.DataArray, model_hist: xr.DataArray, model_future: xr.D
 
     Hyndman, R. J. and Fan, Y. (1996): Sample quantiles in statistical packages. The
     American Statistician 50, 361–365, doi:10.1080/00031305.1996.10473566.
+
+    Examples
+    --------
+    >>> import numpy as np, pandas as pd, xarray as xr
+    >>> import climwidgets as cw
+    >>> def monthly(first, years, mm):  # the same depth every month
+    ...     time = pd.date_range(f"{first}-01-01", periods=12 * years, freq="MS")
+    ...     return xr.DataArray(np.full(time.size, mm), dims="time", coords={"time": time},
+    ...                         attrs={"units": "mm", "step": "month"})
+    >>> hist = xr.concat([monthly(2001, 2, 8.0)] * 2, dim="member")
+    >>> future = xr.concat([monthly(2051, 2, 9.6), monthly(2051, 2, 12.0)], dim="member")
+    >>> obs = monthly(2001, 2, 10.0)  # two members: +20 % and +50 % in every month
+    >>> scenario, factors = cw.delta_change(obs, hist, future, return_factors=True)
+    >>> factors.isel(month=0).values, scenario.isel(time=0).values
+    (array([1.2, 1.5]), array([12., 15.]))
     """
     func = "delta_change"
     if method not in _METHODS:
@@ -294,13 +384,13 @@ def delta_change(obs: xr.DataArray, model_hist: xr.DataArray, model_future: xr.D
     member = check_model_runs(model_hist, model_future, dim, func)
     _check_grids(obs, model_hist, func)
     fut_period = period_or_default(model_future, future, "model_future", func)
-    params = dict(method=method, future=fut_period)
+    params: dict[str, Any] = dict(method=method, future=fut_period)
 
     if method == "monthly_ratio":
         hist_period = period_or_default(model_hist, historical, "model_hist", func)
         factor = _monthly_factors(obs, model_hist, model_future, hist_period, fut_period, min_fraction)
         out = _apply_monthly(obs, factor)
-        attrs = {"method": "monthly ratio (delta change): each observed step times its month's change factor, "
+        attrs: dict[str, Any] = {"method": "monthly ratio (delta change): each observed step times its month's change factor, "
                            "future / historical monthly normal of the model run, per member",
                  "historical_period": list(hist_period), "future_period": list(fut_period),
                  "observed_period": f"{obs['time'].dt.year.values[0]}-{obs['time'].dt.year.values[-1]}"}

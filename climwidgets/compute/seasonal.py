@@ -9,6 +9,9 @@ ends.  The year actually used is recorded in ``attrs["season_year_start"]``.
 
 from __future__ import annotations
 
+from collections.abc import Iterable, Sequence
+from typing import Any
+
 import numpy as np
 import xarray as xr
 
@@ -31,15 +34,34 @@ from ._time import (
 __all__ = ["seasonal_totals", "seasonal_fraction", "season_label"]
 
 
-def season_label(months) -> str:
-    """Plain label such as 'Jul-Aug' or 'Nov-Mar'."""
+def season_label(months: Iterable[int]) -> str:
+    """Plain label such as 'Jul-Aug' or 'Nov-Mar'.
+
+    Parameters
+    ----------
+    months
+        The season's consecutive month numbers (1-12), in order.
+
+    Returns
+    -------
+    str
+        The first and last month's short names joined by "-", one name for a single
+        month, "whole year" for 12 months.
+
+    Examples
+    --------
+    >>> from climwidgets.compute.seasonal import season_label
+    >>> season_label((11, 12, 1, 2, 3)), season_label([7]), season_label(range(1, 13))
+    ('Nov-Mar', 'Jul', 'whole year')
+    """
     months = tuple(months)
     if len(months) == 12:
         return "whole year"
     return MONTH_NAMES[months[0] - 1] + ("" if len(months) == 1 else "-" + MONTH_NAMES[months[-1] - 1])
 
 
-def _season_blocks(pr, months, year_start, func):
+def _season_blocks(pr: xr.DataArray, months: Any, year_start: int,
+                   func: str) -> tuple[xr.DataArray, tuple[int, ...], int, int]:
     pr, step = precip_mm(pr, func)
     months = check_months(months, func)
     year_start = check_year_start(year_start, func)
@@ -49,14 +71,14 @@ def _season_blocks(pr, months, year_start, func):
     return blocks, months, year_start, start
 
 
-def _season_attrs(months, year_start, start):
+def _season_attrs(months: tuple[int, ...], year_start: int, start: int) -> dict[str, Any]:
     return {"season_months": list(months), "season": season_label(months),
             "year_start": year_start, "season_year_start": start,
             "season_year": f"{MONTH_NAMES[start - 1]}-{MONTH_NAMES[(start + 10) % 12]} year, "
                            "labelled by the calendar year in which it ends"}
 
 
-def seasonal_totals(pr: xr.DataArray, months, year_start: int = 1) -> xr.DataArray:
+def seasonal_totals(pr: xr.DataArray, months: Iterable[int] | int, year_start: int = 1) -> xr.DataArray:
     """Seasonal precipitation totals (mm) on a ``year`` dimension.
 
     Parameters
@@ -73,6 +95,13 @@ def seasonal_totals(pr: xr.DataArray, months, year_start: int = 1) -> xr.DataArr
     DataArray with dim ``year``, labelled by the calendar year in which the season's
     12-month year ends (so Dec-Feb 2000/01 is 2001).  A season with any missing month is
     NaN (rule for sums); months outside the season do not matter here.
+
+    Raises
+    ------
+    climwidgets.errors.ParameterError
+        Months that are not consecutive month numbers, or a bad ``year_start``.
+    climwidgets.errors.InputError
+        ``pr`` without usable units or step.
 
     Examples
     --------
@@ -94,7 +123,8 @@ def seasonal_totals(pr: xr.DataArray, months, year_start: int = 1) -> xr.DataArr
     return with_history(out, "seasonal_totals", pr.attrs, months=months, year_start=year_start)
 
 
-def seasonal_fraction(pr: xr.DataArray, months=(7, 8), how: str = "ratio_of_sums", years=None,
+def seasonal_fraction(pr: xr.DataArray, months: Iterable[int] | int = (7, 8), how: str = "ratio_of_sums",
+                      years: Sequence[int] | None = None,
                       year_start: int = 1, per_year: bool = False) -> xr.DataArray:
     """Seasonal share of the annual precipitation (fraction, units "1").
 
@@ -116,9 +146,21 @@ def seasonal_fraction(pr: xr.DataArray, months=(7, 8), how: str = "ratio_of_sums
     per_year
         True returns the share of each year on a ``year`` dimension.
 
-    Only years with all 12 months present are used (per cell).  Cells with no
-    precipitation at all give NaN (no division warning).  The number of years used per cell
-    is in the coordinate ``n_years``.
+    Returns
+    -------
+    xarray.DataArray
+        ``seasonal_share`` (units "1") per cell, or per year and cell with ``per_year``.
+        Only years with all 12 months present are used (per cell).  Cells with no
+        precipitation at all give NaN (no division warning).  The number of years used
+        per cell is in the coordinate ``n_years``.  Lazy on dask input.
+
+    Raises
+    ------
+    climwidgets.errors.ParameterError
+        An unknown ``how``, months that are not consecutive month numbers, a bad
+        ``year_start`` or ``years`` outside the record.
+    climwidgets.errors.InputError
+        ``pr`` without usable units or step.
 
     Examples
     --------

@@ -18,6 +18,8 @@ clipped so that H = 0 or 1 does not give infinities.
 
 from __future__ import annotations
 
+from collections.abc import Sequence
+
 import numpy as np
 import xarray as xr
 from scipy import special
@@ -48,12 +50,41 @@ SPI_CLASSES = (
 )
 
 
-def thom_gamma_fit(values, dim):
+def thom_gamma_fit(values: xr.DataArray,
+                   dim: str) -> tuple[xr.DataArray, xr.DataArray, xr.DataArray, xr.DataArray]:
     """Gamma shape and scale by the Thom (1958) approximation, fitted to the positive values.
 
-    Returns ``(alpha, beta, q, n)``: shape, scale, share of zeros among the valid values and
-    the number of valid values along ``dim``.  NaN parameters where fewer than two distinct
-    positive values exist (A = 0).
+    Parameters
+    ----------
+    values
+        DataArray of non-negative sums (NaN for missing) with the dimension ``dim``.
+    dim
+        The dimension along which to fit (e.g. the baseline years of one calendar month).
+
+    Returns
+    -------
+    tuple of xarray.DataArray
+        ``(alpha, beta, q, n)``: shape, scale, share of zeros among the valid values and
+        the number of valid values along ``dim``.  NaN parameters where fewer than two
+        distinct positive values exist (A = 0).
+
+    References
+    ----------
+    Thom, H. C. S. (1958). A note on the gamma distribution. Monthly Weather Review, 86(4),
+    117-122.
+
+    Edwards, D. C. and McKee, T. B. (1997). Characteristics of 20th century drought in the
+    United States at multiple time scales. Climatology Report 97-2, Department of
+    Atmospheric Science, Colorado State University, Fort Collins (eqs. 3.6-3.8).
+
+    Examples
+    --------
+    >>> import xarray as xr
+    >>> from climwidgets.compute.spi import thom_gamma_fit
+    >>> sums = xr.DataArray([0.0, 2.0, 4.0, 8.0], dims="year")  # A = ln(14/3) - ln(4)
+    >>> alpha, beta, q, n = thom_gamma_fit(sums, "year")
+    >>> round(float(alpha), 4), round(float(beta), 4), float(q), int(n)
+    (3.4025, 1.3716, 0.25, 4)
     """
     positive = values.where(values > 0)
     n_pos = positive.count(dim)
@@ -70,7 +101,8 @@ def thom_gamma_fit(values, dim):
     return alpha, beta, q, n_valid
 
 
-def _spi_kernel(x, alpha, beta, q, clip):
+def _spi_kernel(x: np.ndarray, alpha: np.ndarray, beta: np.ndarray, q: np.ndarray,
+                clip: float) -> np.ndarray:
     with np.errstate(invalid="ignore", divide="ignore"):
         g = special.gammainc(alpha, np.where(x > 0, x, 0.0) / beta)
         h = np.where(x > 0, q + (1 - q) * g, q)
@@ -79,7 +111,8 @@ def _spi_kernel(x, alpha, beta, q, clip):
     return np.clip(z, -clip, clip)
 
 
-def spi(pr: xr.DataArray, scale: int = 3, baseline=(1991, 2020), clip: float = 8.21) -> xr.DataArray:
+def spi(pr: xr.DataArray, scale: int = 3, baseline: Sequence[int] = (1991, 2020),
+        clip: float = 8.21) -> xr.DataArray:
     """Monthly Standardized Precipitation Index on the monthly time axis.
 
     Parameters
@@ -97,8 +130,44 @@ def spi(pr: xr.DataArray, scale: int = 3, baseline=(1991, 2020), clip: float = 8
 
     Returns
     -------
-    DataArray of SPI (units "1") with the fit method in ``attrs["fit_method"]``.  Lazy on
-    dask input.
+    xarray.DataArray
+        SPI (units "1") on the monthly time axis, NaN for the first ``scale - 1`` months
+        and where a sum is missing, with the fit method in ``attrs["fit_method"]``.  Lazy
+        on dask input.
+
+    Raises
+    ------
+    climwidgets.errors.ParameterError
+        A scale not in :data:`SPI_SCALES`, a clip that is not positive, a malformed
+        baseline, or fewer complete months than ``scale``.
+    climwidgets.errors.InputError
+        ``pr`` without usable units or step.
+
+    References
+    ----------
+    McKee, T. B., Doesken, N. J. and Kleist, J. (1993). The relationship of drought
+    frequency and duration to time scales. Preprints, 8th Conference on Applied
+    Climatology, American Meteorological Society, Anaheim, 179-184.
+
+    WMO (2012). Standardized Precipitation Index User Guide. WMO-No. 1090. World
+    Meteorological Organization, Geneva.
+
+    Thom, H. C. S. (1958). A note on the gamma distribution. Monthly Weather Review, 86(4),
+    117-122.
+
+    Examples
+    --------
+    >>> import numpy as np, pandas as pd, xarray as xr
+    >>> import climwidgets as cw
+    >>> time = pd.date_range("1991-01-01", "2020-12-01", freq="MS")
+    >>> rng = np.random.default_rng(0)  # 30 years of invented monthly totals
+    >>> pr = xr.DataArray(rng.gamma(2.0, 40.0, time.size), dims="time", coords={"time": time},
+    ...                   attrs={"units": "mm", "step": "month"})
+    >>> index = cw.spi(pr, scale=3, baseline=(1991, 2020))
+    >>> index.values[:4].round(2)  # the first two months have no 3-month sum
+    array([ nan,  nan, 0.01, 1.01])
+    >>> round(float(index.std()), 2)  # standardized over the baseline
+    1.0
     """
     func = "spi"
     if isinstance(scale, bool) or scale not in SPI_SCALES:
@@ -137,10 +206,10 @@ def spi(pr: xr.DataArray, scale: int = 3, baseline=(1991, 2020), clip: float = 8
     alpha, beta, q, n = (xr.concat([f[i] for f in fits], dim=keys) for i in range(4))
     month_of = acc["time"].dt.month
 
-    def per_step(p):
+    def per_step(p: xr.DataArray) -> xr.DataArray:
         return p.sel(month=month_of).drop_vars("month")
 
-    out = xr.apply_ufunc(_spi_kernel, acc, per_step(alpha), per_step(beta), per_step(q),
+    out: xr.DataArray = xr.apply_ufunc(_spi_kernel, acc, per_step(alpha), per_step(beta), per_step(q),
                          kwargs={"clip": float(clip)}, dask="parallelized", output_dtypes=[float])
     out.name = "spi"
     out.attrs = {
@@ -156,7 +225,7 @@ def spi(pr: xr.DataArray, scale: int = 3, baseline=(1991, 2020), clip: float = 8
     return with_history(out, func, pr.attrs, scale=scale, baseline=baseline, clip=clip)
 
 
-def _category_kernel(z):
+def _category_kernel(z: np.ndarray) -> np.ndarray:
     labels = np.full(z.shape, "missing", dtype="<U14")
     labels[z >= 2.0] = "extremely wet"
     labels[(z >= 1.5) & (z < 2.0)] = "very wet"
@@ -176,12 +245,41 @@ def spi_category(spi_values: xr.DataArray) -> xr.DataArray:
     extremely dry.  Between the table's two-decimal steps the lower class boundary is
     inclusive on the wet side (1.0 is moderately wet) and the upper one on the dry side
     (-1.0 is moderately dry).  Missing SPI gives "missing".
+
+    Parameters
+    ----------
+    spi_values
+        SPI values (the DataArray returned by :func:`spi`).
+
+    Returns
+    -------
+    xarray.DataArray
+        ``spi_category``: the class label of each value (strings), on the same dims.
+
+    Raises
+    ------
+    climwidgets.errors.ParameterError
+        When ``spi_values`` is not a DataArray.
+
+    References
+    ----------
+    WMO (2012). Standardized Precipitation Index User Guide. WMO-No. 1090. World
+    Meteorological Organization, Geneva.
+
+    Examples
+    --------
+    >>> import numpy as np, xarray as xr
+    >>> import climwidgets as cw
+    >>> values = xr.DataArray([2.3, 1.0, 0.2, -1.0, -1.7, np.nan], dims="time")
+    >>> cw.spi_category(values).values
+    array(['extremely wet', 'moderately wet', 'near normal', 'moderately dry',
+           'severely dry', 'missing'], dtype='<U14')
     """
     if not isinstance(spi_values, xr.DataArray):
         raise ParameterError(f"spi_category needs a DataArray, got {type(spi_values).__name__}",
                              source="spi_category", expected="the DataArray returned by spi()",
                              fix="pass the result of climwidgets.spi")
-    out = xr.apply_ufunc(_category_kernel, spi_values, dask="parallelized", output_dtypes=["<U14"])
+    out: xr.DataArray = xr.apply_ufunc(_category_kernel, spi_values, dask="parallelized", output_dtypes=["<U14"])
     out.name = "spi_category"
     out.attrs = {"long_name": "SPI class", "classes": "WMO (2012) SPI User Guide, Table 1"}
     return with_history(out, "spi_category", spi_values.attrs)

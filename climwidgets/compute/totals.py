@@ -57,7 +57,7 @@ def monthly_totals(pr: xr.DataArray) -> xr.DataArray:
     return with_history(monthly, "monthly_totals", pr.attrs, step=step)
 
 
-def _blocks(pr, func, year_start):
+def _blocks(pr: xr.DataArray, func: str, year_start: int) -> xr.DataArray:
     """Monthly totals reshaped into (year, month) 12-month years starting in year_start."""
     pr, step = precip_mm(pr, func)
     monthly, covered = monthly_with_coverage(pr, step)
@@ -97,7 +97,7 @@ def annual_totals(pr: xr.DataArray, year_start: int = 1) -> xr.DataArray:
     """
     year_start = check_year_start(year_start, "annual_totals")
     blocks = _blocks(pr, "annual_totals", year_start)
-    out = blocks.sum("month", skipna=False)
+    out: xr.DataArray = blocks.sum("month", skipna=False)
     out.name = pr.name
     kind = "calendar year" if year_start == 1 else "12-month (water) year"
     out.attrs = {**_PRECIP_ATTRS, "long_name": f"annual precipitation total ({kind})",

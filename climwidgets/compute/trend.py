@@ -30,7 +30,7 @@ __all__ = ["trend"]
 _OUTPUTS = ("slope", "intercept", "pvalue", "tau", "n")
 
 
-def _nanmedian_sorted(a):
+def _nanmedian_sorted(a: np.ndarray) -> np.ndarray:
     """Median along the last axis skipping NaN, without the all-NaN RuntimeWarning."""
     k = np.sum(~np.isnan(a), axis=-1)
     s = np.sort(a, axis=-1)  # NaN sort to the end
@@ -40,7 +40,7 @@ def _nanmedian_sorted(a):
     return np.where(k > 0, med, np.nan)
 
 
-def _trend_kernel(y, t):
+def _trend_kernel(y: np.ndarray, t: np.ndarray) -> tuple[np.ndarray, ...]:
     """y: (..., n) values; t: (n,) positions.  Returns slope, intercept, p, tau, n."""
     y = np.asarray(y, dtype=float)
     t = np.asarray(t, dtype=float)

@@ -8,6 +8,7 @@ duration, season, the shape of the distribution).
 from __future__ import annotations
 
 import numbers
+from typing import Any, TypeVar
 
 import numpy as np
 import xarray as xr
@@ -32,17 +33,19 @@ DESIGN_DEPTH_CAUTIONS = (
 CC_RATE_20C = float(clausius_clapeyron_rate(20.0))
 
 _CONVENTIONS = ("compound", "exponential")
+_XR = TypeVar("_XR", xr.DataArray, xr.Dataset)
 
 
-def _check_number(value, name, lo, hi, expected, fix):
+def _check_number(value: Any, name: str, lo: float, hi: float, expected: str, fix: str) -> None:
     if isinstance(value, xr.DataArray):
         return
-    if not isinstance(value, numbers.Real) or isinstance(value, bool) or not np.isfinite(value) \
-            or not (lo <= value <= hi):
+    if (not isinstance(value, numbers.Real) or isinstance(value, bool)
+            or not np.isfinite(value)  # type: ignore[call-overload]  # numpy stubs take no numbers.Real
+            or not (lo <= value <= hi)):  # type: ignore[operator]
         raise ParameterError(f"{name}={value!r} is not allowed", variable=name, expected=expected, fix=fix)
 
 
-def warming_scaling(field, delta_t, rate=0.07, convention="compound"):
+def warming_scaling(field: _XR, delta_t: Any, rate: float = 0.07, convention: str = "compound") -> _XR:
     """Scale precipitation depths for a warming of ``delta_t`` kelvin.
 
     factor = (1 + rate) ** delta_t      (``convention="compound"``, default)
@@ -67,6 +70,26 @@ def warming_scaling(field, delta_t, rate=0.07, convention="compound"):
         Warming in kelvin (negative for cooling), a number or a DataArray (e.g. per scenario).
     rate
         Fractional increase per kelvin, 0 to 0.25.
+    convention
+        "compound" ((1 + rate) ** delta_t) or "exponential" (exp(rate * delta_t)).
+
+    Returns
+    -------
+    xarray.DataArray or xarray.Dataset
+        The scaled depths (the same kind of object as ``field``), with the warming, rate,
+        convention and :data:`DESIGN_DEPTH_CAUTIONS` in attrs and a history line.
+
+    Raises
+    ------
+    climwidgets.errors.ParameterError
+        An unknown convention, a rate outside 0-0.25, a warming outside -20..20 K, or a
+        field that is not a DataArray or Dataset.
+
+    References
+    ----------
+    Alduchov, O. A. and Eskridge, R. E. (1996). Improved Magnus form approximation of
+    saturation vapor pressure. Journal of Applied Meteorology, 35(4), 601-609.
+    https://doi.org/10.1175/1520-0450(1996)035<0601:IMFAOS>2.0.CO;2
 
     Examples
     --------
@@ -92,8 +115,8 @@ def warming_scaling(field, delta_t, rate=0.07, convention="compound"):
                              fix="wrap the values in an xarray.DataArray with attrs units='mm'")
     factor = (1.0 + rate) ** delta_t if convention == "compound" else np.exp(rate * delta_t)
 
-    def scale(da):
-        out = da * factor
+    def scale(da: xr.DataArray) -> xr.DataArray:
+        out: xr.DataArray = da * factor
         out.attrs = dict(da.attrs)
         return out
 

@@ -8,6 +8,9 @@ small numpy arrays; the reduction is xarray arithmetic and stays lazy.
 
 from __future__ import annotations
 
+from collections.abc import Hashable, Iterable
+from typing import TYPE_CHECKING, Any, cast
+
 import numpy as np
 import xarray as xr
 
@@ -19,6 +22,9 @@ from .area import AUTHALIC_RADIUS_M, cell_area
 from .coverage import coverage_block
 from .grid import horizontal_dims
 
+if TYPE_CHECKING:
+    from .basin import Basin
+
 __all__ = ["ACRE_FOOT_M3", "basin_mean", "basin_means", "basin_volume", "basin_weights"]
 
 #: One acre-foot in m³ with the international foot: 43 560 ft² × 1 ft × 0.3048³ m³/ft³.
@@ -27,7 +33,8 @@ ACRE_FOOT_M3 = 43_560 * 0.3048**3  # = 1233.48183754752
 _VOLUME_UNITS = {"m3": 1.0, "acre-ft": ACRE_FOOT_M3}
 
 
-def basin_weights(basin, grid, weights=None):
+def basin_weights(basin: Basin | None, grid: xr.DataArray | xr.Dataset,
+                  weights: xr.DataArray | None = None) -> tuple[dict[str, slice], xr.DataArray]:
     """Area × coverage weights (m²) on the basin's bounding box of ``grid``.
 
     Returns ``(isel, w)``: the dict of slices to apply to the grid and the DataArray of
@@ -105,15 +112,16 @@ def basin_weights(basin, grid, weights=None):
     return isel, w
 
 
-def _check_field(field, func):
+def _check_field(field: Any, func: str) -> xr.DataArray:
     """The field under the house names (CF ``latitude``/``longitude`` renamed to lat/lon)."""
     if not isinstance(field, xr.DataArray):
         raise ParameterError(f"{func} needs a DataArray, got {type(field).__name__}",
                              expected="a DataArray on a lat/lon grid", fix="select one variable, e.g. ds['pr']")
-    return canonical_names(field)
+    return cast(xr.DataArray, canonical_names(field))  # io is not typed yet
 
 
-def _weighted_mean(sub, w, dims):
+def _weighted_mean(sub: xr.DataArray, w: xr.DataArray,
+                   dims: Iterable[Hashable]) -> tuple[xr.DataArray, xr.DataArray]:
     """(weighted mean, weight with data) of ``sub`` over ``dims`` with weights ``w`` (positional)."""
     valid = sub.notnull()
     num = xr.dot(sub.fillna(0.0), w, dim=list(dims))
@@ -121,7 +129,8 @@ def _weighted_mean(sub, w, dims):
     return num / den.where(den > 0), den
 
 
-def _reduce(field, basin, weights):
+def _reduce(field: xr.DataArray, basin: Basin | None,
+            weights: xr.DataArray | None) -> tuple[xr.DataArray, xr.DataArray, float]:
     """(weighted mean, covered fraction, total weighted area m²) over the basin."""
     dims = horizontal_dims(field)
     isel, w = basin_weights(basin, field, weights)
@@ -136,7 +145,7 @@ def _reduce(field, basin, weights):
     return mean, covered, total
 
 
-def basin_means(field: xr.DataArray, basins) -> xr.DataArray:
+def basin_means(field: xr.DataArray, basins: Iterable[Basin]) -> xr.DataArray:
     """Area-weighted means of ``field`` over several basins at once, on a ``basin`` dimension.
 
     The same numbers as :func:`basin_mean` for each basin, from one selection of the
@@ -212,7 +221,8 @@ def basin_means(field: xr.DataArray, basins) -> xr.DataArray:
     return with_history(out, "basin_means", field.attrs, basins=[b.name for b in basins])
 
 
-def _finish(out, field, covered, name, units, func, basin, **params):
+def _finish(out: xr.DataArray, field: xr.DataArray, covered: xr.DataArray, name: Hashable, units: str,
+            func: str, basin: Basin | None, **params: Any) -> xr.DataArray:
     out = out.assign_coords(covered_fraction=covered)
     out["covered_fraction"].attrs.update(
         units="1", long_name="fraction of the basin's weighted area with data in this slice")
@@ -227,7 +237,7 @@ def _finish(out, field, covered, name, units, func, basin, **params):
     return with_history(out, func, field.attrs, basin=getattr(basin, "name", "weights"), **params)
 
 
-def _depth_to_mm(field) -> float:
+def _depth_to_mm(field: xr.DataArray) -> float:
     """Factor from the field's depth units (mm, cm, in, m, kg m-2 …) to mm, or a clear error."""
     fu = field.attrs.get("units")
     src = field.name or "field"
@@ -244,7 +254,8 @@ def _depth_to_mm(field) -> float:
     return info.to_mm
 
 
-def basin_mean(field: xr.DataArray, basin, weights=None) -> xr.DataArray:
+def basin_mean(field: xr.DataArray, basin: Basin | None,
+               weights: xr.DataArray | None = None) -> xr.DataArray:
     """Area-weighted mean of ``field`` over ``basin``, keeping every other dimension.
 
     Weights are cell area × coverage.  Cells with NaN are left out slice by slice; the
@@ -301,7 +312,8 @@ def basin_mean(field: xr.DataArray, basin, weights=None) -> xr.DataArray:
                    "basin_mean", basin)
 
 
-def basin_volume(field: xr.DataArray, basin, units: str = "m3", weights=None) -> xr.DataArray:
+def basin_volume(field: xr.DataArray, basin: Basin | None, units: str = "m3",
+                 weights: xr.DataArray | None = None) -> xr.DataArray:
     """Volume of water over ``basin`` from a depth field in mm: basin mean depth × basin area.
 
     The area is :attr:`cw.Basin.area_m2` (the outline on the authalic sphere), the one area
@@ -355,7 +367,7 @@ def basin_volume(field: xr.DataArray, basin, units: str = "m3", weights=None) ->
     to_mm = _depth_to_mm(field)
     mean, covered, total = _reduce(field, basin, weights)
     # one area per basin: the outline's (Basin.area_m2), so volumes match every table
-    area = basin.area_m2 if hasattr(basin, "area_m2") else total
+    area = basin.area_m2 if hasattr(basin, "area_m2") else total  # type: ignore[union-attr]
     volume = mean * (to_mm / 1000.0) * area / _VOLUME_UNITS[units]
     out = _finish(volume, field, covered, "volume", units, "basin_volume", basin, volume_units=units)
     out.attrs["long_name"] = f"water volume over basin {getattr(basin, 'name', '')}".strip()

@@ -25,8 +25,10 @@ import hashlib
 import json
 import os
 import struct
+from collections.abc import Callable, Iterable
 from functools import cached_property
 from pathlib import Path
+from typing import Any
 
 import numpy as np
 import shapely
@@ -45,11 +47,11 @@ _REPAIR_KEEP = 0.999  # share of the area a self-intersection repair must keep i
 _MAX_GEOJSON_DEPTH_WORDS = "a FeatureCollection of Polygon or MultiPolygon features (about 6 levels of brackets)"
 
 
-def _err(problem, name, fix, expected=None):
+def _err(problem: str, name: object, fix: str, expected: str | None = None) -> BasinError:
     return BasinError(problem, source=f"basin {name!r}", expected=expected, fix=fix)
 
 
-def _in_file(exc: BasinError, where) -> BasinError:
+def _in_file(exc: BasinError, where: object) -> BasinError:
     """``exc`` with the file (or text) the basin came from named before the basin."""
     if where is None or (exc.source and str(where) in exc.source):
         return exc
@@ -57,14 +59,14 @@ def _in_file(exc: BasinError, where) -> BasinError:
     return type(exc)(exc.problem, source=source, variable=exc.variable, expected=exc.expected, fix=exc.fix)
 
 
-def _unreadable(path, exc: OSError, expected: str) -> SourceError:
+def _unreadable(path: object, exc: OSError, expected: str) -> SourceError:
     reason = exc.strerror or type(exc).__name__
     fix = ("give read permission on the file (e.g. chmod u+r) or copy it somewhere readable"
            if isinstance(exc, PermissionError) else "check the path points at a readable file")
     return SourceError(f"cannot be read ({reason})", source=path, expected=expected, fix=fix)
 
 
-def _parse_json(text: str, where):
+def _parse_json(text: str, where: object) -> Any:
     try:
         return json.loads(text)
     except RecursionError:
@@ -76,7 +78,7 @@ def _parse_json(text: str, where):
                           fix="check the file is GeoJSON text") from None
 
 
-def _read_json(path: Path):
+def _read_json(path: Path) -> Any:
     try:
         text = path.read_text(encoding="utf-8")
     except UnicodeDecodeError as exc:
@@ -87,7 +89,7 @@ def _read_json(path: Path):
     return _parse_json(text, path)
 
 
-def _clean_ring(coords, name) -> np.ndarray:
+def _clean_ring(coords: Any, name: object) -> np.ndarray:
     try:
         ring = np.asarray(coords, dtype=float)
     except (TypeError, ValueError):
@@ -121,15 +123,16 @@ def _unwrap_lon(lon: np.ndarray) -> np.ndarray:
     step = np.diff(lon)
     full = np.isclose(np.abs(step), 360.0, rtol=0.0, atol=1e-9)
     jump = np.where((np.abs(step) > 180.0) & ~full, -360.0 * np.round(step / 360.0), 0.0)
-    return lon + np.concatenate([[0.0], np.cumsum(jump)])
+    out: np.ndarray = lon + np.concatenate([[0.0], np.cumsum(jump)])
+    return out
 
 
-def _split_antimeridian(geom):
+def _split_antimeridian(geom: Any) -> Any:
     """Cut a geometry drawn in unwrapped longitudes into parts within [-180, 180)."""
     minx, _, maxx, _ = geom.bounds
     if minx >= -180.0 and maxx <= 180.0:
         return geom
-    parts = []
+    parts: list[Any] = []
     for k in range(int(np.floor((minx + 180.0) / 360.0)), int(np.floor((maxx + 180.0) / 360.0)) + 1):
         lo = -180.0 + 360.0 * k
         piece = shapely.clip_by_rect(geom, lo, -90.0, lo + 360.0, 90.0)
@@ -139,7 +142,7 @@ def _split_antimeridian(geom):
     return shapely.union_all(parts)
 
 
-def _polygons(geom) -> list:
+def _polygons(geom: Any) -> list[Any]:
     if geom.is_empty:
         return []
     if geom.geom_type == "Polygon":
@@ -149,7 +152,7 @@ def _polygons(geom) -> list:
     return []
 
 
-def _repair(poly: Polygon, name) -> Polygon:
+def _repair(poly: Polygon, name: object) -> Polygon:
     if poly.is_valid:
         return poly
     reason = shapely.is_valid_reason(poly)
@@ -169,7 +172,7 @@ def _repair(poly: Polygon, name) -> Polygon:
                "add a vertex off the line", expected="a polygon with non-zero area")
 
 
-def _build(polygons_rings, name):
+def _build(polygons_rings: Iterable[Any], name: object) -> Any:
     """Validated (Multi)Polygon from [[exterior, hole, ...], ...] coordinate lists."""
     parts = []
     for rings in polygons_rings:
@@ -198,7 +201,7 @@ def _build(polygons_rings, name):
     return polys[0] if len(polys) == 1 else MultiPolygon(polys)
 
 
-def _rings_from_geometry(geom: dict, name) -> list:
+def _rings_from_geometry(geom: dict[str, Any], name: object) -> list[Any]:
     kind = geom.get("type") if isinstance(geom, dict) else None
     if kind in ("Polygon", "MultiPolygon"):
         coords = geom.get("coordinates")
@@ -218,9 +221,58 @@ class Basin:
 
     Build with :meth:`from_vertices`, :meth:`from_geojson`, :meth:`from_shapefile` or
     :meth:`from_wkt`; the constructor takes an already valid shapely geometry.
+
+    Parameters
+    ----------
+    geometry
+        A valid, non-empty shapely Polygon or MultiPolygon in lon/lat degrees within
+        [-180, 180) (the ``from_*`` constructors check, repair and split outlines first).
+    name
+        The basin's name, shown in tables and exports.
+
+    Attributes
+    ----------
+    name : str
+        The basin's name.
+    geometry : shapely.Polygon or shapely.MultiPolygon
+        The outline in lon/lat degrees.
+    bounds : tuple of float
+        (min lon, min lat, max lon, max lat).
+    area_m2 : float
+        The area on the authalic sphere (m²), the one basin area every table uses.
+    token : str
+        A hash of the geometry (equal outlines, equal tokens).
+    origin : str or None
+        The file the basin was read from (None when drawn or built in code).
+
+    Raises
+    ------
+    climwidgets.errors.BasinError
+        A geometry that is empty, not a polygon, or not valid; from the constructors, an
+        outline that fails the checks of the module notes.
+
+    References
+    ----------
+    Butler, H. et al. (2016). The GeoJSON Format. RFC 7946, Internet Engineering Task
+    Force. https://doi.org/10.17487/RFC7946
+
+    Examples
+    --------
+    >>> import climwidgets as cw
+    >>> basin = cw.Basin.from_vertices([(10.0, 0.0), (11.0, 0.0), (11.0, 1.0), (10.0, 1.0)],
+    ...                                name="north fork")
+    >>> basin
+    Basin('north fork', Polygon, lon 10..11, lat 0..1)
+    >>> round(basin.area_m2 / 1e6, 1)  # km²: R² (pi / 180) sin(1°) with R = 6 371 007.2 m
+    12363.7
+    >>> cw.Basin.from_vertices([(179.5, 0.0), (-179.5, 0.0), (-179.5, 1.0), (179.5, 1.0)],
+    ...                        name="date line")  # split at the antimeridian
+    Basin('date line', MultiPolygon, lon -180..180, lat 0..1)
+    >>> cw.Basin.from_wkt("POLYGON((10 0, 11 0, 11 1, 10 1, 10 0))").token == basin.token
+    True
     """
 
-    def __init__(self, geometry, name: str = "basin"):
+    def __init__(self, geometry: Any, name: str = "basin") -> None:
         if geometry is None or geometry.is_empty or geometry.geom_type not in ("Polygon", "MultiPolygon"):
             raise _err("geometry is empty or not a polygon", name, "use one of the Basin.from_* constructors")
         if not geometry.is_valid:
@@ -232,20 +284,61 @@ class Basin:
 
     # ---------------------------------------------------------------- constructors
     @classmethod
-    def from_vertices(cls, vertices, name: str = "basin") -> "Basin":
-        """A basin from one ring of (lon, lat) vertices (closing vertex optional)."""
+    def from_vertices(cls, vertices: Any, name: str = "basin") -> "Basin":
+        """A basin from one ring of (lon, lat) vertices (closing vertex optional).
+
+        Parameters
+        ----------
+        vertices
+            A sequence of (lon, lat) pairs in degrees.
+        name
+            The basin's name.
+
+        Returns
+        -------
+        Basin
+            The checked basin (see the module notes).
+
+        Raises
+        ------
+        climwidgets.errors.BasinError
+            Fewer than 3 distinct vertices, non-finite values, |lat| > 90, a ring that
+            crosses itself beyond repair, or zero area.
+        """
         return cls(_build([[vertices]], name), name)
 
     @classmethod
-    def _from_rings(cls, rings, name) -> "Basin":
+    def _from_rings(cls, rings: Iterable[Any], name: str) -> "Basin":
         return cls(_build(rings, name), name)
 
     @classmethod
-    def from_geojson(cls, path_or_mapping, name_property: str = "name") -> list["Basin"]:
+    def from_geojson(cls, path_or_mapping: Any, name_property: str = "name") -> list["Basin"]:
         """Basins from a GeoJSON file, JSON text or mapping: one Basin per feature.
 
         A bare Polygon/MultiPolygon gives a one-element list.  Names come from
         ``properties[name_property]``, else "basin 1", "basin 2", …
+
+        Parameters
+        ----------
+        path_or_mapping
+            A path to a GeoJSON file, GeoJSON text, or a mapping (FeatureCollection,
+            Feature, Polygon or MultiPolygon).
+        name_property
+            The feature property that holds each basin's name.
+
+        Returns
+        -------
+        list of Basin
+            One basin per feature, in file order.
+
+        Raises
+        ------
+        climwidgets.errors.SourceError
+            A file that does not exist, is not a regular file, cannot be read, is not JSON
+            or is nested too deeply.
+        climwidgets.errors.BasinError
+            A GeoJSON type other than polygons, no features, or an outline that fails the
+            checks; the message names the file.
         """
         obj, stem = path_or_mapping, "basin"
         where: str | Path | None = None
@@ -273,7 +366,7 @@ class Basin:
         return basins
 
     @classmethod
-    def _from_mapping(cls, obj, stem, name_property) -> list["Basin"]:
+    def _from_mapping(cls, obj: Any, stem: str, name_property: str) -> list["Basin"]:
         if not isinstance(obj, dict):
             raise BasinError(f"got {type(obj).__name__}", source="GeoJSON input",
                              expected="a GeoJSON mapping, file path or JSON text",
@@ -310,7 +403,26 @@ class Basin:
 
     @classmethod
     def from_wkt(cls, text: str, name: str = "basin") -> "Basin":
-        """A basin from WKT text (POLYGON or MULTIPOLYGON, lon/lat order)."""
+        """A basin from WKT text (POLYGON or MULTIPOLYGON, lon/lat order).
+
+        Parameters
+        ----------
+        text
+            WKT text, e.g. ``"POLYGON((10 0, 11 0, 11 1, 10 1, 10 0))"``.
+        name
+            The basin's name.
+
+        Returns
+        -------
+        Basin
+            The checked basin.
+
+        Raises
+        ------
+        climwidgets.errors.BasinError
+            Text that is not WKT, a geometry that is not a polygon, or an outline that
+            fails the checks.
+        """
         try:
             geom = shapely.from_wkt(text)
         except (shapely.errors.GEOSException, TypeError) as exc:
@@ -319,13 +431,33 @@ class Basin:
         return cls._from_rings(_rings_from_geometry(mapping(geom), name), name)
 
     @classmethod
-    def from_shapefile(cls, path, name_field: str | None = None) -> list["Basin"]:
+    def from_shapefile(cls, path: str | os.PathLike[str], name_field: str | None = None) -> list["Basin"]:
         """Basins from an ESRI shapefile (read with pyshp), one per polygon record.
 
         When a ``.prj`` file names a CRS other than WGS84 lon/lat, the outlines are
         densified in that CRS (so that straight projected edges stay faithful) and
         transformed to lon/lat with pyproj.  Names come from ``name_field``, else from a
         field called "name" (any case), else "<file stem> 1", …
+
+        Parameters
+        ----------
+        path
+            The shapefile (``.shp``, or any of its parts' paths: the suffix is replaced).
+        name_field
+            The attribute field that holds the basins' names.
+
+        Returns
+        -------
+        list of Basin
+            One basin per polygon record.
+
+        Raises
+        ------
+        climwidgets.errors.SourceError
+            A missing or unreadable shapefile or projection file.
+        climwidgets.errors.BasinError
+            An unknown ``name_field``, records that are not polygons, no records, or an
+            outline that fails the checks.
         """
         import shapefile  # pyshp
 
@@ -364,7 +496,7 @@ class Basin:
         return basins
 
     @classmethod
-    def _from_reader(cls, reader, shp: Path, name_field) -> list["Basin"]:
+    def _from_reader(cls, reader: Any, shp: Path, name_field: str | None) -> list["Basin"]:
         fields = [f[0] for f in reader.fields[1:]]
         if name_field is not None and name_field not in fields:
             raise BasinError(f"no field {name_field!r}", source=shp, expected=f"one of {fields}",
@@ -409,12 +541,12 @@ class Basin:
         return out
 
     @property
-    def geometry(self):
+    def geometry(self) -> Any:
         """The shapely (Multi)Polygon in lon/lat degrees, within [-180, 180)."""
         return self._geometry
 
     @property
-    def bounds(self) -> tuple:
+    def bounds(self) -> tuple[float, float, float, float]:
         """(min lon, min lat, max lon, max lat)."""
         return tuple(self._geometry.bounds)
 
@@ -436,7 +568,7 @@ class Basin:
         """Hash of the geometry (not the name): equal outlines, equal tokens."""
         return hashlib.blake2b(shapely.to_wkb(self._geometry), digest_size=16).hexdigest()
 
-    def to_geojson(self) -> dict:
+    def to_geojson(self) -> dict[str, Any]:
         """A GeoJSON Feature mapping with the name in ``properties``."""
         geom = json.loads(json.dumps(mapping(self._geometry)))  # tuples -> lists
         return {"type": "Feature", "properties": {"name": self._name}, "geometry": geom}
@@ -446,7 +578,7 @@ class Basin:
         return f"Basin({self._name!r}, {self._geometry.geom_type}, lon {w:g}..{e:g}, lat {s:g}..{n:g})"
 
 
-def _prj_transform(prj: Path):
+def _prj_transform(prj: Path) -> Callable[[Any], Any] | None:
     """A shapely transform to WGS84 lon/lat for the .prj's CRS, or None when not needed."""
     if not prj.is_file():
         return None
@@ -464,17 +596,55 @@ def _prj_transform(prj: Path):
         return None
     tr = Transformer.from_crs(crs, target, always_xy=True)
     # Densify in the source units: 1/200 of the outline's extent per segment.
-    step_fn = (lambda g: max(g.bounds[2] - g.bounds[0], g.bounds[3] - g.bounds[1]) / 200.0 or 1.0)
+    step_fn: Callable[[Any], float] = (lambda g: max(g.bounds[2] - g.bounds[0], g.bounds[3] - g.bounds[1]) / 200.0 or 1.0)
 
-    def transform(geom):
+    def transform(geom: Any) -> Any:
         dense = shapely.segmentize(geom, max_segment_length=step_fn(geom))
         return shapely.transform(dense, lambda xy: np.column_stack(tr.transform(xy[:, 0], xy[:, 1])))
 
     return transform
 
 
-def write_geojson(basins, path, overwrite: bool = False) -> Path:
-    """Write basins to a GeoJSON FeatureCollection, atomically (temp file, then rename)."""
+def write_geojson(basins: Basin | Iterable[Basin], path: str | os.PathLike[str], overwrite: bool = False) -> Path:
+    """Write basins to a GeoJSON FeatureCollection, atomically (temp file, then rename).
+
+    Parameters
+    ----------
+    basins
+        A Basin or a sequence of Basins.
+    path
+        The file to write.
+    overwrite
+        False (default): refuse to replace an existing file.
+
+    Returns
+    -------
+    pathlib.Path
+        The path written.
+
+    Raises
+    ------
+    climwidgets.atomic.OutputExistsError
+        When the file exists and ``overwrite`` is False.
+    OSError
+        When the disk refuses the write (see :func:`climwidgets.atomic.atomic_write_file`).
+
+    References
+    ----------
+    Butler, H. et al. (2016). The GeoJSON Format. RFC 7946, Internet Engineering Task
+    Force. https://doi.org/10.17487/RFC7946
+
+    Examples
+    --------
+    >>> import os, tempfile
+    >>> import climwidgets as cw
+    >>> from climwidgets.geo.basin import write_geojson
+    >>> basin = cw.Basin.from_vertices([(10, 0), (11, 0), (11, 1), (10, 1)], name="north fork")
+    >>> with tempfile.TemporaryDirectory() as folder:
+    ...     path = write_geojson([basin], os.path.join(folder, "basins.geojson"))
+    ...     [b.name for b in cw.Basin.from_geojson(path)]
+    ['north fork']
+    """
     basins = [basins] if isinstance(basins, Basin) else list(basins)
     data = {"type": "FeatureCollection", "features": [b.to_geojson() for b in basins]}
     return atomic_write_file(path, lambda fh: json.dump(data, fh), mode="w", overwrite=overwrite,

@@ -12,12 +12,17 @@ from __future__ import annotations
 
 import os
 import threading
+from collections.abc import Callable, Iterator
 from pathlib import Path
+from typing import Any
 
 import numpy as np
 
 from ..errors import BasinError, ParameterError, SourceError
 from .basin import Basin, write_geojson
+
+#: A listener: called as ``callback(event, details)`` after every change of a BasinSet.
+Listener = Callable[[str, Any], object]
 
 __all__ = ["BasinSet", "as_basin_list", "load_basins", "whole_grid_basin"]
 
@@ -28,17 +33,42 @@ class BasinSet:
     Parameters
     ----------
     basins : iterable of Basin, optional
+        The first members: a Basin, a list or dict of Basins, or another BasinSet; their
+        names must be unique.
+
+    Raises
+    ------
+    climwidgets.errors.ParameterError
+        Members that are not Basin objects.
+    climwidgets.errors.BasinError
+        An empty or repeated name.
 
     Examples
     --------
-    >>> shared = cw.BasinSet(cw.Basin.from_geojson("basins.geojson"))
-    >>> a = cw.SeasonalShareWidget(pr, basins=shared)
-    >>> b = cw.BasinSummaryWidget(pr, basins=shared)   # a basin drawn in a shows in b
+    Widgets given one set (``cw.SeasonalShareWidget(pr, basins=shared)`` and
+    ``cw.BasinSummaryWidget(pr, basins=shared)``) show the same basins: they observe it.
+
+    >>> import climwidgets as cw
+    >>> upper = cw.Basin.from_vertices([(10, 0), (11, 0), (11, 1), (10, 1)], name="north fork")
+    >>> lower = cw.Basin.from_vertices([(11, 0), (12, 0), (12, 1), (11, 1)], name="south fork")
+    >>> shared = cw.BasinSet([upper])
+    >>> events = []
+    >>> shared.observe(lambda event, details: events.append(event))
+    >>> _ = shared.add(lower)
+    >>> _ = shared.rename("south fork", "lower reach")
+    >>> _ = shared.remove("north fork")
+    >>> shared, events
+    (BasinSet(['lower reach']), ['add', 'rename', 'remove'])
+    >>> taken = cw.Basin.from_vertices([(10, 0), (11, 0), (11, 1)], name="lower reach")
+    >>> shared.add(taken)  # doctest: +ELLIPSIS
+    Traceback (most recent call last):
+        ...
+    climwidgets.errors.BasinError: BasinSet, variable 'name': a basin named 'lower reach' is already in the set...
     """
 
-    def __init__(self, basins=()):
+    def __init__(self, basins: Any = ()) -> None:
         self._basins: list[Basin] = []
-        self._listeners = []
+        self._listeners: list[Listener] = []
         self._lock = threading.RLock()
         for b in _basins_of(basins, "BasinSet"):
             self._check_new_name(b.name)
@@ -49,16 +79,16 @@ class BasinSet:
     def names(self) -> list[str]:
         return [b.name for b in self._basins]
 
-    def __iter__(self):
+    def __iter__(self) -> Iterator[Basin]:
         return iter(list(self._basins))
 
     def __len__(self) -> int:
         return len(self._basins)
 
-    def __contains__(self, name) -> bool:
+    def __contains__(self, name: object) -> bool:
         return (name.name if isinstance(name, Basin) else name) in self.names
 
-    def __getitem__(self, key) -> Basin:
+    def __getitem__(self, key: int | str) -> Basin:
         if isinstance(key, int):
             return self._basins[key]
         for b in self._basins:
@@ -70,7 +100,7 @@ class BasinSet:
         return f"BasinSet({self.names!r})"
 
     # ------------------------------------------------------------ changing
-    def _check_new_name(self, name):
+    def _check_new_name(self, name: object) -> None:
         if not isinstance(name, str) or not name.strip():
             raise BasinError("the basin name is empty", source="BasinSet", variable="name",
                              expected="a non-empty name", fix="give the basin a name")
@@ -90,7 +120,7 @@ class BasinSet:
         self._notify("add", [basin])
         return basin
 
-    def extend(self, basins) -> list[Basin]:
+    def extend(self, basins: Any) -> list[Basin]:
         """Add several basins at once (all or none: a taken name adds nothing)."""
         new = _basins_of(basins, "BasinSet.extend")
         with self._lock:
@@ -106,7 +136,7 @@ class BasinSet:
             self._notify("add", new)
         return new
 
-    def remove(self, name) -> Basin:
+    def remove(self, name: str | Basin) -> Basin:
         """Remove the basin called ``name`` (or that Basin); KeyError-free: BasinError if absent."""
         name = name.name if isinstance(name, Basin) else name
         with self._lock:
@@ -128,14 +158,14 @@ class BasinSet:
         self._notify("rename", (old, new))
         return renamed
 
-    def replace(self, basins) -> None:
+    def replace(self, basins: Any) -> None:
         """Make the set hold exactly ``basins`` (unique names)."""
         new = BasinSet(basins)._basins
         with self._lock:
             self._basins = new
         self._notify("replace", list(new))
 
-    def _find(self, name) -> Basin:
+    def _find(self, name: str) -> Basin:
         for b in self._basins:
             if b.name == name:
                 return b
@@ -143,18 +173,18 @@ class BasinSet:
                          expected=f"one of {self.names}", fix="pick a name from BasinSet.names")
 
     # ------------------------------------------------------------ listeners
-    def observe(self, callback) -> None:
+    def observe(self, callback: Listener) -> None:
         """Call ``callback(event, details)`` after every change."""
         with self._lock:
             if callback not in self._listeners:
                 self._listeners.append(callback)
 
-    def unobserve(self, callback) -> None:
+    def unobserve(self, callback: Listener) -> None:
         with self._lock:
             if callback in self._listeners:
                 self._listeners.remove(callback)
 
-    def _notify(self, event, details):
+    def _notify(self, event: str, details: Any) -> None:
         with self._lock:
             listeners = list(self._listeners)
         for callback in listeners:
@@ -162,16 +192,17 @@ class BasinSet:
 
     # ------------------------------------------------------------ GeoJSON
     @classmethod
-    def from_geojson(cls, path_or_mapping) -> "BasinSet":
+    def from_geojson(cls, path_or_mapping: Any) -> "BasinSet":
         """A set of the polygons of a GeoJSON file or mapping (see :meth:`cw.Basin.from_geojson`)."""
         return cls(Basin.from_geojson(path_or_mapping))
 
     @classmethod
-    def from_file(cls, path) -> "BasinSet":
+    def from_file(cls, path: str | os.PathLike[str]) -> "BasinSet":
         """A set from a GeoJSON file or a shapefile (:func:`load_basins`)."""
         return cls(load_basins(path))
 
-    def to_geojson(self, path=None, overwrite: bool = False):
+    def to_geojson(self, path: str | os.PathLike[str] | None = None,
+                   overwrite: bool = False) -> dict[str, Any] | Path:
         """A GeoJSON FeatureCollection mapping, or with ``path`` the written file (atomic)."""
         if path is not None:
             if not self._basins:
@@ -180,7 +211,7 @@ class BasinSet:
         return {"type": "FeatureCollection", "features": [b.to_geojson() for b in self._basins]}
 
 
-def _basins_of(basins, func) -> list[Basin]:
+def _basins_of(basins: Any, func: str) -> list[Basin]:
     if isinstance(basins, Basin):
         return [basins]
     if isinstance(basins, BasinSet):
@@ -198,8 +229,35 @@ def _basins_of(basins, func) -> list[Basin]:
     return out
 
 
-def as_basin_list(basins, func: str) -> list[Basin]:
-    """A non-empty list of uniquely named basins from a Basin, a list, a dict or a BasinSet."""
+def as_basin_list(basins: Any, func: str) -> list[Basin]:
+    """A non-empty list of uniquely named basins from a Basin, a list, a dict or a BasinSet.
+
+    Parameters
+    ----------
+    basins
+        A Basin, a list or dict of Basins, or a BasinSet.
+    func
+        The calling function's name, for error messages.
+
+    Returns
+    -------
+    list of Basin
+        The basins, in order (a dict's values in its order).
+
+    Raises
+    ------
+    climwidgets.errors.ParameterError
+        Members that are not Basins, none at all, or repeated names.
+
+    Examples
+    --------
+    >>> import climwidgets as cw
+    >>> upper = cw.Basin.from_vertices([(10, 0), (11, 0), (11, 1), (10, 1)], name="north fork")
+    >>> lower = cw.Basin.from_vertices([(11, 0), (12, 0), (12, 1), (11, 1)], name="south fork")
+    >>> from climwidgets.geo.basinset import as_basin_list
+    >>> [b.name for b in as_basin_list({"a": upper, "b": lower}, "example")]
+    ['north fork', 'south fork']
+    """
     out = _basins_of(basins, func)
     if not out:
         raise ParameterError("basins must be a Basin or a non-empty list of Basin objects", source=func,
@@ -212,7 +270,7 @@ def as_basin_list(basins, func: str) -> list[Basin]:
     return out
 
 
-def load_basins(source) -> list[Basin]:
+def load_basins(source: Any) -> list[Basin]:
     """Basins from a GeoJSON file (.geojson/.json) or an ESRI shapefile (.shp), or Basin
     objects (a Basin, a list or a BasinSet) passed through.
 
@@ -233,7 +291,18 @@ def load_basins(source) -> list[Basin]:
         without reading, so a pipe cannot block), unreadable, not JSON, nested too deeply,
         or a shapefile without its ``.dbf``.
     climwidgets.errors.BasinError
-        When an outline is not a usable polygon; the message names the file and the basin.
+        When ``source`` is not a path or basins, the file is not a basin outline file, or an
+        outline is not a usable polygon; the message names the file and the basin.
+
+    Examples
+    --------
+    >>> import os, tempfile
+    >>> import climwidgets as cw
+    >>> basin = cw.Basin.from_vertices([(10, 0), (11, 0), (11, 1), (10, 1)], name="north fork")
+    >>> with tempfile.TemporaryDirectory() as folder:
+    ...     path = cw.BasinSet([basin]).to_geojson(os.path.join(folder, "basins.geojson"))
+    ...     cw.load_basins(path)
+    [Basin('north fork', Polygon, lon 10..11, lat 0..1)]
     """
     if isinstance(source, (Basin, BasinSet)) or (isinstance(source, (list, tuple)) and source
                                                  and all(isinstance(b, Basin) for b in source)):
@@ -267,8 +336,36 @@ def load_basins(source) -> list[Basin]:
     return Basin.from_geojson(path)
 
 
-def whole_grid_basin(field, name="whole grid") -> Basin | None:
-    """A basin covering a rectilinear grid's cells, for area-weighted domain means."""
+def whole_grid_basin(field: Any, name: str = "whole grid") -> Basin | None:
+    """A basin covering a rectilinear grid's cells, for area-weighted domain means.
+
+    Parameters
+    ----------
+    field
+        A DataArray or Dataset on a lat/lon grid (bounds read or inferred, see
+        :func:`climwidgets.geo.grid.cell_bounds`).
+    name
+        The basin's name.
+
+    Returns
+    -------
+    Basin or None
+        The rectangle from the grid's outer cell edges; None for curvilinear grids.
+
+    Raises
+    ------
+    climwidgets.errors.GridError
+        A field without usable lat/lon coordinates.
+
+    Examples
+    --------
+    >>> import numpy as np, xarray as xr
+    >>> from climwidgets.geo.basinset import whole_grid_basin
+    >>> grid = xr.DataArray(np.zeros((2, 3)), dims=("lat", "lon"),
+    ...                     coords={"lat": [0.5, 1.5], "lon": [10.5, 11.5, 12.5]})
+    >>> whole_grid_basin(grid)
+    Basin('whole grid', Polygon, lon 10..13, lat 0..2)
+    """
     from .grid import cell_bounds
 
     b = cell_bounds(field)

@@ -31,6 +31,7 @@ would turn into a silent NaN mean later).
 from __future__ import annotations
 
 import functools
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
 import shapely
@@ -42,12 +43,15 @@ from ..provenance import with_history
 from ._cache import weights_cache
 from .grid import cell_bounds, grid_token, horizontal_dims
 
+if TYPE_CHECKING:
+    from .basin import Basin
+
 __all__ = ["coverage_weights", "coverage_block"]
 
 _TILE = 16  # cells per side of the tiles the outline is pre-clipped to
 
 
-def _wrapped_geometry(geom, xmin: float, xmax: float):
+def _wrapped_geometry(geom: Any, xmin: float, xmax: float) -> Any:
     """Add copies of the basin shifted by ±360° when the grid's cells reach past ±180°."""
     parts = [geom]
     if xmin < -180.0:
@@ -57,19 +61,19 @@ def _wrapped_geometry(geom, xmin: float, xmax: float):
     return geom if len(parts) == 1 else shapely.union_all(parts)
 
 
-def _overlap_range(lo, hi, vmin, vmax):
+def _overlap_range(lo: np.ndarray, hi: np.ndarray, vmin: float, vmax: float) -> tuple[int, int]:
     idx = np.nonzero((hi > vmin) & (lo < vmax))[0]
     return (0, 0) if idx.size == 0 else (int(idx[0]), int(idx[-1]) + 1)
 
 
-def _exact(boxes, geom, box_area) -> np.ndarray:
+def _exact(boxes: np.ndarray, geom: Any, box_area: np.ndarray) -> np.ndarray:
     inter = shapely.intersection(boxes, geom)
     with np.errstate(invalid="ignore", divide="ignore"):
         frac = shapely.area(inter) / box_area
     return np.where(box_area > 0, frac, 0.0)
 
 
-def _boundary_cells(geom, xe, ye) -> np.ndarray:
+def _boundary_cells(geom: Any, xe: np.ndarray, ye: np.ndarray) -> np.ndarray:
     """Mask of cells (rows × cols of the edges ``ye``, ``xe``) touched by the outline."""
     ny, nx = ye.size - 1, xe.size - 1
     step = 0.99 * min(np.diff(xe).min(), np.diff(ye).min())
@@ -86,7 +90,8 @@ def _boundary_cells(geom, xe, ye) -> np.ndarray:
     return mask
 
 
-def _rect_fractions(pieces, piece_of_cell, x0, y0, x1, y1) -> np.ndarray:
+def _rect_fractions(pieces: np.ndarray, piece_of_cell: np.ndarray, x0: np.ndarray, y0: np.ndarray,
+                    x1: np.ndarray, y1: np.ndarray) -> np.ndarray:
     """Covered fraction of rectangles [x0, x1] × [y0, y1] by polygonal ``pieces[piece_of_cell]``.
 
     Exact and vectorised: clamping a closed curve onto a rectangle (x → clip(x, x0, x1),
@@ -122,10 +127,12 @@ def _rect_fractions(pieces, piece_of_cell, x0, y0, x1, y1) -> np.ndarray:
     py = np.clip(ay[:, None] + t * dy[:, None], cy0[:, None], cy1[:, None])
     contrib = (0.5 * (px[:, 1:] + px[:, :-1]) * np.diff(py, axis=1)).sum(axis=1)
     area = np.bincount(cell, weights=contrib, minlength=piece_of_cell.size)
-    return area / ((x1 - x0) * (y1 - y0))
+    fraction: np.ndarray = area / ((x1 - x0) * (y1 - y0))
+    return fraction
 
 
-def _fast_rectilinear(geom, ylo, yhi, xlo, xhi) -> np.ndarray:
+def _fast_rectilinear(geom: Any, ylo: np.ndarray, yhi: np.ndarray, xlo: np.ndarray,
+                      xhi: np.ndarray) -> np.ndarray:
     xe = np.append(xlo, xhi[-1])
     ye = np.append(ylo, yhi[-1])
     boundary = _boundary_cells(geom, xe, ye)
@@ -152,13 +159,13 @@ def _fast_rectilinear(geom, ylo, yhi, xlo, xhi) -> np.ndarray:
     return weights
 
 
-def _general(geom, lon_corners, lat_corners) -> np.ndarray:
+def _general(geom: Any, lon_corners: np.ndarray, lat_corners: np.ndarray) -> np.ndarray:
     """Cells as quadrilaterals: those the outline touches are clipped exactly, the rest are
     wholly inside or outside and take the state of their first corner."""
     shape = lon_corners.shape[:-1]
     coords = np.stack([lon_corners, lat_corners], axis=-1).reshape(-1, lon_corners.shape[-1], 2)
     # A cell whose closure misses the outline lies on one side of it; its corner too.
-    weights = shapely.contains_xy(geom, coords[:, 0, 0], coords[:, 0, 1]).astype(float)
+    weights: np.ndarray = shapely.contains_xy(geom, coords[:, 0, 0], coords[:, 0, 1]).astype(float)
     # Shapely polygons (and the tree over them) only for the few cells near the outline:
     # building one per bounding-box cell was most of the cost on large grids.
     (x0, x1), (y0, y1) = _corner_range(lon_corners), _corner_range(lat_corners)
@@ -180,7 +187,7 @@ def _general(geom, lon_corners, lat_corners) -> np.ndarray:
     return weights.reshape(shape)
 
 
-def _near_outline(geom, x0, x1, y0, y1) -> np.ndarray:
+def _near_outline(geom: Any, x0: np.ndarray, x1: np.ndarray, y0: np.ndarray, y1: np.ndarray) -> np.ndarray:
     """Cells (lon extents ``x0..x1``, lat extents ``y0..y1``) whose extent may meet the outline.
 
     A superset of the cells the outline touches, found without building any geometry: the
@@ -194,7 +201,8 @@ def _near_outline(geom, x0, x1, y0, y1) -> np.ndarray:
     size = max(1.01 * max((x1 - x0).max(), (y1 - y0).max()), max(ex - ox, ey - oy) / 4096, 1e-9)
     nbx, nby = int((ex - ox) / size) + 1, int((ey - oy) / size) + 1
 
-    def bins(x, y):  # clamping keeps every bin a point inside the cells' extent falls in
+    # clamping keeps every bin a point inside the cells' extent falls in
+    def bins(x: np.ndarray, y: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         bx = np.clip(np.floor((x - ox) / size), 0, nbx - 1).astype(np.intp)
         return np.clip(np.floor((y - oy) / size), 0, nby - 1).astype(np.intp), bx
 
@@ -204,22 +212,23 @@ def _near_outline(geom, x0, x1, y0, y1) -> np.ndarray:
     xy, line_id = shapely.get_coordinates(shapely.segmentize(lines, 0.5 * size), return_index=True)
     by, bx = bins(xy[:, 0], xy[:, 1])
     same = line_id[1:] == line_id[:-1]  # segments join points of the same line only
-    marked = np.zeros((nby, nbx), dtype=bool)
+    marked: np.ndarray = np.zeros((nby, nbx), dtype=bool)
     for r in (by[:-1][same], by[1:][same]):
         for c in (bx[:-1][same], bx[1:][same]):
             marked[r, c] = True
     r0, c0 = bins(x0, y0)
     r1, c1 = bins(x1, y1)
-    return marked[r0, c0] | marked[r0, c1] | marked[r1, c0] | marked[r1, c1]
+    near: np.ndarray = marked[r0, c0] | marked[r0, c1] | marked[r1, c0] | marked[r1, c1]
+    return near
 
 
-def _long_edge(width, height) -> float:
+def _long_edge(width: np.ndarray, height: np.ndarray) -> float:
     """Split outline edges longer than ~50 cells so tree queries stay local."""
-    span = width.mean() + height.mean()
+    span: float = width.mean() + height.mean()
     return max(50.0 * span, 1e-6)
 
 
-def _corner_range(c):
+def _corner_range(c: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """Smallest and largest value over the last (corner) axis.
 
     Taken corner by corner: numpy reduces along a short last axis several times slower,
@@ -229,7 +238,8 @@ def _corner_range(c):
     return functools.reduce(np.minimum, corners), functools.reduce(np.maximum, corners)
 
 
-def _compute_block(basin, bounds):
+def _compute_block(basin: Basin, bounds: Any) -> tuple[tuple[int, int, int, int], np.ndarray]:
+    # bounds: a GridBounds whose fields for its kind are set (Any: mypy cannot see which)
     geom = basin.geometry
     if bounds.kind == "rectilinear":
         xmin, xmax = bounds.lon_lower.min(), bounds.lon_upper.max()
@@ -274,14 +284,48 @@ def _compute_block(basin, bounds):
     return (int(j0), int(j1), int(i0), int(i1)), np.clip(block, 0.0, 1.0)
 
 
-def coverage_block(basin, grid):
+def coverage_block(basin: Basin,
+                   grid: xr.DataArray | xr.Dataset) -> tuple[tuple[int, int, int, int], np.ndarray]:
     """Coverage weights restricted to the basin's bounding box.
 
-    Returns ``((j0, j1, i0, i1), block)``: rows ``j0:j1`` and columns ``i0:i1`` of the grid's
-    horizontal dims, and the read-only numpy block of fractions.  Cached.
+    Parameters
+    ----------
+    basin
+        A :class:`~climwidgets.geo.basin.Basin`.
+    grid
+        A DataArray or Dataset on a rectilinear or curvilinear lat/lon grid (house names
+        lat/lon; see :func:`coverage_weights` for CF names).
+
+    Returns
+    -------
+    tuple
+        ``((j0, j1, i0, i1), block)``: rows ``j0:j1`` and columns ``i0:i1`` of the grid's
+        horizontal dims, and the read-only numpy block of fractions.  Cached by (grid
+        token, basin token).
+
+    Raises
+    ------
+    climwidgets.errors.BasinError
+        When the basin does not overlap the grid.
+    climwidgets.errors.GridError
+        When the grid's cell bounds cannot be found.
+
+    Examples
+    --------
+    >>> import numpy as np, xarray as xr
+    >>> import climwidgets as cw
+    >>> from climwidgets.geo.coverage import coverage_block
+    >>> grid = xr.DataArray(np.zeros((3, 4)), dims=("lat", "lon"),
+    ...                     coords={"lat": [0.5, 1.5, 2.5], "lon": [10.5, 11.5, 12.5, 13.5]})
+    >>> basin = cw.Basin.from_vertices([(10.5, 0.0), (12.0, 0.0), (12.0, 1.5), (10.5, 1.5)],
+    ...                                name="north fork")  # 1.5 x 1.5 degrees from a corner
+    >>> (j0, j1, i0, i1), block = coverage_block(basin, grid)
+    >>> (j0, j1, i0, i1), block
+    ((0, 2, 0, 2), array([[0.5 , 1.  ],
+           [0.25, 0.5 ]]))
     """
     key = (grid_token(grid), basin.token)
-    hit = weights_cache.get(key)
+    hit: tuple[tuple[int, int, int, int], np.ndarray] | None = weights_cache.get(key)
     if hit is not None:
         return hit
     (j0, j1, i0, i1), block = _compute_block(basin, cell_bounds(grid))
@@ -298,12 +342,44 @@ def coverage_block(basin, grid):
     return (j0, j1, i0, i1), block
 
 
-def coverage_weights(basin, grid) -> xr.DataArray:
+def coverage_weights(basin: Basin, grid: xr.DataArray | xr.Dataset) -> xr.DataArray:
     """Fraction (0–1) of each grid cell covered by ``basin``, planar in lon/lat.
 
-    Returns a DataArray on the grid's (lat, lon) or (y, x) dims with ``units="1"``.
-    Raises BasinError when the basin does not overlap the grid.  CF-named grids
-    (``latitude``/``longitude``) are read under the house names lat/lon.
+    CF-named grids (``latitude``/``longitude``) are read under the house names lat/lon.
+
+    Parameters
+    ----------
+    basin
+        A :class:`~climwidgets.geo.basin.Basin`.
+    grid
+        A DataArray or Dataset on a rectilinear or curvilinear lat/lon grid; its bounds
+        are read or inferred (:func:`climwidgets.geo.grid.cell_bounds`).
+
+    Returns
+    -------
+    xarray.DataArray
+        ``coverage`` on the grid's (lat, lon) or (y, x) dims with ``units="1"``, the basin
+        name in attrs and a history line.
+
+    Raises
+    ------
+    climwidgets.errors.BasinError
+        When the basin does not overlap the grid.
+    climwidgets.errors.GridError
+        When the grid has no usable lat/lon coordinates or bounds.
+
+    Examples
+    --------
+    >>> import numpy as np, xarray as xr
+    >>> import climwidgets as cw
+    >>> grid = xr.DataArray(np.zeros((3, 4)), dims=("lat", "lon"),
+    ...                     coords={"lat": [0.5, 1.5, 2.5], "lon": [10.5, 11.5, 12.5, 13.5]})
+    >>> basin = cw.Basin.from_vertices([(10.5, 0.0), (12.0, 0.0), (12.0, 1.5), (10.5, 1.5)],
+    ...                                name="north fork")  # 1.5 x 1.5 degrees from a corner
+    >>> cw.coverage_weights(basin, grid).values  # half cells, a quarter cell
+    array([[0.5 , 1.  , 0.  , 0.  ],
+           [0.25, 0.5 , 0.  , 0.  ],
+           [0.  , 0.  , 0.  , 0.  ]])
     """
     grid = canonical_names(grid)
     dims = horizontal_dims(grid)
