@@ -91,8 +91,12 @@ class AnomalyWidget(BaseWidget):
                                           style=style, layout=lay)
         self.baseline = widgets.IntRangeSlider(value=(max(y0, baseline[0]), min(y1, baseline[1])), min=y0, max=y1,
                                                description="Baseline years", style=style, layout=lay,
-                                               continuous_update=False)
-        self.step = widgets.SelectionSlider(options=["-"], description="Time step shown", style=style,
+                                               continuous_update=False, readout=False)
+        # the range in a label of its own: the slider's readout box cuts "1991 – 2020"
+        self.baseline_label = widgets.Label("{}–{}".format(*self.baseline.value))
+        self.baseline.observe(lambda c: setattr(self.baseline_label, "value", "{}–{}".format(*c["new"])),
+                              names="value")
+        self.step = widgets.SelectionSlider(options=["-"], description="Step shown", style=style,
                                             layout=lay, continuous_update=False)
         super().__init__(map_frame=MapFrame(basins=self.basins, kind="percent"), export_dir=export_dir)
         self.watch(self.period, self.kind, self.scale, self.season_from, self.season_to, self.baseline)
@@ -106,8 +110,8 @@ class AnomalyWidget(BaseWidget):
     def build_controls(self):
         note = widgets.HTML("<small>SPI is monthly: it ignores the period setting. "
                             "Basin values are anomalies of the basin-mean precipitation.</small>")
-        return [self.period, self.season_from, self.season_to, self.kind, self.scale, self.baseline,
-                self.step, note]
+        return [self.period, self.season_from, self.season_to, self.kind, self.scale,
+                widgets.HBox([self.baseline, self.baseline_label]), self.step, note]
 
     def _enable(self, *_):
         spi_kind = self.kind.value == "spi"

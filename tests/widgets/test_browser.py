@@ -13,7 +13,6 @@ import os
 import shutil
 import socket
 import subprocess
-import sys
 import time
 import urllib.request
 from pathlib import Path
