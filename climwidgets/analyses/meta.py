@@ -148,7 +148,7 @@ CATALOGUE: dict[str, Meta] = {
     # precipitation indices per basin (labels name the index per call)
     "index_mean": Meta("mean", "", "mean over the period's years of the basin mean of the per-cell index",
                        None, 1.0, ".4g"),
-    "index_slope": Meta("Sen slope", "", "Sen slope of the basin's per-year index, per decade", None, 10.0, ".3g"),
+    "index_slope": Meta("Sen slope", "", "Sen slope of the basin's per-year index, per decade", None, 10.0, ",.2f"),
     "index_pvalue": Meta("Mann-Kendall p", "1", "two-sided Mann-Kendall p-value of the basin's per-year index",
                          "", 1.0, ".2f"),
     "n_index_years": Meta("years", "1", "years with a value behind the mean and the trend", "", 1.0, ".0f"),

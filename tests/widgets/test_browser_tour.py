@@ -12,6 +12,7 @@ widget is kept in out/screenshots/ for reviewers.
 from __future__ import annotations
 
 import io
+import re
 import subprocess
 import time
 import urllib.request
@@ -116,7 +117,9 @@ def test_the_tour_as_a_planner_sees_it(tour, tmp_path):
             assert page.evaluate(_SCIENTIFIC) == []
             assert "Traceback" not in page.inner_text("body")
             for i, out in enumerate(page.locator(".jp-OutputArea-output:has(.widget-vbox)").all()):
-                out.screenshot(path=str(shots / f"tour_{i:02d}.png"))
+                title = out.locator("h3, b").first.inner_text() if out.locator("h3, b").count() else "widget"
+                slug = re.sub(r"[^a-z0-9]+", "_", title.lower()).strip("_")[:40] or "widget"
+                out.screenshot(path=str(shots / f"{i:02d}_{slug}.png"))  # named after the widget's title
 
             buttons = page.locator("button:has(i.fa-download)")
             assert buttons.count() >= 2 * n_widgets - 2
