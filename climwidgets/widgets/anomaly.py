@@ -98,8 +98,12 @@ class AnomalyWidget(BaseWidget):
                               names="value")
         self.step = widgets.SelectionSlider(options=["-"], description="Step shown", style=style,
                                             layout=lay, continuous_update=False)
+        # a long record of several basins overplots: the chart shows one basin, or all of them
+        self.chart_basin = widgets.Dropdown(options=[("all basins", None)], value=None, description="Chart shows",
+                                            style=style, layout=lay)
         super().__init__(map_frame=MapFrame(basins=self.basins, kind="percent"), export_dir=export_dir)
         self.watch(self.period, self.kind, self.scale, self.season_from, self.season_to, self.baseline)
+        self.chart_basin.observe(self._on_chart_basin, names="value")
         self.step.observe(self._on_step, names="value")
         self.period.observe(self._enable, names="value")
         self.kind.observe(self._enable, names="value")
@@ -111,7 +115,7 @@ class AnomalyWidget(BaseWidget):
         note = widgets.HTML("<small>SPI is monthly: it ignores the period setting. "
                             "Basin values are anomalies of the basin-mean precipitation.</small>")
         return [self.period, self.season_from, self.season_to, self.kind, self.scale,
-                widgets.HBox([self.baseline, self.baseline_label]), self.step, note]
+                widgets.HBox([self.baseline, self.baseline_label]), self.step, self.chart_basin, note]
 
     def _enable(self, *_):
         spi_kind = self.kind.value == "spi"
@@ -215,5 +219,25 @@ class AnomalyWidget(BaseWidget):
                             title=f"{ANOMALY_KINDS[kind][0]}, {self.step.value}")
         self.show_table(frame(anomaly_ranking(self.basin_anomalies, self.step.value), display=True))
         title = "basin-mean series" if self.basins else "area-weighted mean of the whole grid"
-        self.show_chart(anomaly_chart(self.basin_anomalies["anomaly"], self.step_index, kind, self._label(),
+        series = self.basin_anomalies["anomaly"]
+        names = [str(n) for n in series["basin"].values]
+        self._updating = True
+        try:  # the chart's basin menu follows the basins; a long record opens on one basin
+            options = [("all basins", None)] + [(n, n) for n in names]
+            if list(self.chart_basin.options) != options:
+                keep = self.chart_basin.value
+                self.chart_basin.options = options
+                long = series.sizes[series.dims[-1]] > 240 and len(names) > 1
+                self.chart_basin.value = keep if keep in names else (names[0] if long else None)
+        finally:
+            self._updating = False
+        if self.chart_basin.value is not None:
+            series = series.sel(basin=[self.chart_basin.value])
+            title = f"{self.chart_basin.value}, basin-mean series"
+        self.show_chart(anomaly_chart(series, self.step_index, kind, self._label(),
                                       f"{title}; dotted line: {self.step.value}"))
+
+    def _on_chart_basin(self, change):
+        if self._updating or self.result is None:
+            return
+        self._show_step()  # a redraw: nothing is computed

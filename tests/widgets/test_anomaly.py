@@ -135,3 +135,15 @@ def test_every_export_reaches_the_browser(setup):
     w = setup[-1]
     got = check_every_export(w)
     assert set(got) == {b.description for b in w.exports.children}
+
+
+def test_chart_shows_one_basin_or_all_without_recomputing(setup):
+    pr, basin, w = setup
+    assert [v for _, v in w.chart_basin.options] == [None, "west"]
+    gen = w._gen
+    w.chart_basin.value = "west"
+    assert w._gen == gen  # a redraw only
+    lines = [ln for ln in w.chart_figure.axes[0].get_lines() if ln.get_label() == "west"]
+    assert len(lines) == 1
+    np.testing.assert_allclose(lines[0].get_ydata(), w.basin_series["west"].to_numpy(dtype=float))
+    w.chart_basin.value = None
