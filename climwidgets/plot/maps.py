@@ -613,7 +613,7 @@ def _layer_lines(geoms, bounds=None):
 
 
 #: line styles of successive outline layers: (colour, line style)
-LAYER_STYLES = [("0.2", "-"), ("#1f78b4", "-"), ("0.35", "--"), ("#6a3d9a", "-"), ("#b15928", "-.")]
+LAYER_STYLES = [("#1f78b4", "-"), ("0.35", "--"), ("#6a3d9a", "-"), ("#b15928", "-."), ("0.2", ":")]
 
 
 def draw_lines(ax, geoms, color="0.2", linewidth=0.6, linestyle="-", label=None, bounds=None):

@@ -98,10 +98,10 @@ class MapFrame(widgets.VBox):
                                      layout=widgets.Layout(width="260px"))
         self.zoom.observe(lambda change: self.zoom_to(change["new"] or None), names="value")
         self.range_mode = widgets.ToggleButtons(
-            options=[("auto", "auto"), ("fixed", "fixed")], value="auto", description="Colour range",
-            tooltips=["from the data: 2nd to 98th percentile (or the widget's own scale)",
+            options=[("auto", "auto"), ("fixed", "fixed")], value="auto",
+            tooltips=["from the data: 2nd to 98th percentile (or the view's own scale)",
                       "the limits typed beside"],
-            style={"description_width": "initial", "button_width": "52px"})
+            style={"button_width": "52px"}, layout=widgets.Layout(width="auto"))
         box = widgets.Layout(width="150px")
         self.range_min = widgets.FloatText(description="from", disabled=True, layout=box,
                                            style={"description_width": "initial"})
@@ -111,7 +111,8 @@ class MapFrame(widgets.VBox):
         self.range_mode.observe(self._range_mode_changed, names="value")
         self.range_min.observe(self._range_typed, names="value")
         self.range_max.observe(self._range_typed, names="value")
-        self.range_row = widgets.HBox([self.range_mode, self.range_min, self.range_max, self.range_units],
+        self.range_row = widgets.HBox([widgets.Label("Colour range"), self.range_mode, self.range_min, self.range_max,
+                                       self.range_units],
                                       layout=widgets.Layout(align_items="center", flex_flow="row wrap"))
         self.note = widgets.HTML()
         self.legend = widgets.HTML()
@@ -250,9 +251,9 @@ class MapFrame(widgets.VBox):
             self.mesh, self.cbar = maps.draw_field(self.ax, field, kind=kind, vmin=vmin, vmax=vmax,
                                                    cax=self.cax, label=label)
             self._edges = maps._edges(field)
-            self.ax.set_extent(self._fit_box(self._full_extent()), crs=self._pc())
             self._draw_basins()
             self._draw_context()
+            self.zoom_to(self.zoom.value or None)  # the whole grid, or a basin chosen before
         self.field = field
         self._values = np.asarray(field.values, dtype=float)
         self._units = units
@@ -287,7 +288,7 @@ class MapFrame(widgets.VBox):
         self._set_quietly(self.range_min, _short(lo))
         self._set_quietly(self.range_max, _short(hi))
         how = ("typed" if self.range_mode.value == "fixed" else
-               "set by the view" if self._requested != (None, None) else "2nd–98th percentile of the map")
+               "the scale of this view" if self._requested != (None, None) else "2nd–98th percentile of the map")
         self.range_units.value = (f"<span style='margin-left:6px'>{html.escape(self._shown_units())}</span>"
                                   f" <small style='color:#555'>({how})</small>")
 

@@ -171,3 +171,11 @@ def test_a_missing_layer_file_is_a_clear_error(field, tmp_path):
     with pytest.raises(InputError, match=r"rivers\.shp: file not found"):
         frame.add_layer(tmp_path / "rivers.shp")
     assert frame.layers == []
+
+
+def test_a_zoom_chosen_before_the_first_map_is_kept(field):
+    frame = MapFrame(basins=basins())
+    frame.zoom.value = "South"
+    frame.show_field(field)
+    w, e, s, n = frame.ax.get_extent()
+    assert e - w < 3.0 and n - s < 2.5  # the whole grid is 4 x 3 degrees
