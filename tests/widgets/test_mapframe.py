@@ -119,6 +119,11 @@ def test_colour_range_override_recolours_without_computing(field):
     if frame._requested == (None, None):
         assert frame.mesh.get_clim() == pytest.approx(tuple(np.percentile(values, [2, 98])))
     assert w._gen == gen
+    # the widget's hook for outline layers draws on its map, without computing either
+    river = {"type": "LineString", "coordinates": [[-30.0, 11.0], [-28.0, 12.0]]}
+    assert w.add_layer(river, label="river") is w and w.map.layers[-1]["label"] == "river"
+    np.testing.assert_allclose(w.map._context_artists[-1].get_xydata(), river["coordinates"])
+    assert w._gen == gen
 
 
 def test_fixed_range_stays_centred_and_ends_with_other_units(field):
