@@ -352,6 +352,13 @@ class BaseWidget(widgets.VBox):
             self.map.set_basins(self.basins)
         self.refresh()
 
+    def add_layer(self, source, label=None, **style):
+        """Draw an outline layer (GeoJSON or shapefile: coast, borders, rivers) on the map
+        (:meth:`MapFrame.add_layer`); returns the widget, so it chains after the constructor."""
+        if self.map is not None:
+            self.map.add_layer(source, label=label, **style)
+        return self
+
     def basins_or_whole_grid(self, whole):
         """The basins, or ``[whole]`` (a basin covering the grid) when there are none."""
         return self.basins or ([whole] if whole is not None else [])

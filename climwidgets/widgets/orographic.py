@@ -108,7 +108,7 @@ class OrographicContrastWidget(BaseWidget):
                                                continuous_update=False)
         self.layer = widgets.Dropdown(options=LAYERS, value="observed", description="Map shows",
                                       style=style, layout=lay)
-        super().__init__(map_frame=MapFrame(basins=self.basins, kind="difference"), export_dir=export_dir)
+        super().__init__(map_frame=MapFrame(basins=self.basins, kind="difference", outline=elevation), export_dir=export_dir)
         self.watch(self.wind_from, self.crest_mode, self.min_height, self.bands, self.level, self.n_boot,
                    self.wind_speed, self.temperature)
         self.watch_display(self.layer)

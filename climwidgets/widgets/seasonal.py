@@ -198,7 +198,7 @@ class SeasonalShareWidget(HostsDrawingTools, BaseWidget):
     def render(self, result, params):
         months = params["months"]
         label = f"{MONTH_LABELS[months[0] - 1]}–{MONTH_LABELS[months[-1] - 1]}"
-        self.map.show_field(result["share"], kind="share", vmin=0.0,
+        self.map.show_field(result["share"], kind="share",
                             label=f"seasonal share {label} [%]",
                             title=f"Share of annual precipitation falling {label}, "
                                   f"{result.attrs['first_year']}–{result.attrs['last_year']}")

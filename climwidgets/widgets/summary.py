@@ -204,7 +204,7 @@ class BasinSummaryWidget(HostsDrawingTools, BaseWidget):
         return frame(result["what_if"], columns=WHAT_IF_COLUMNS, display=True)
 
     def render(self, result, params):
-        self.map.show_field(result["normal_map"], kind="total", vmin=0.0, title="Annual normal")
+        self.map.show_field(result["normal_map"], kind="total", title="Annual normal")
         self.show_table(self.summary_table(result))
         self.scenario_html.value = _CSS + df_to_html(self.scenario_table(result))
         if "normals" not in result:

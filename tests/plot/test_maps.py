@@ -39,13 +39,15 @@ def test_projection_rule(lon, lat, expected):
 
 
 def test_colour_styles_sequential_and_diverging():
-    cmap, lo, hi = maps.colour_style("share", [0.1, 0.3])
+    cmap, lo, hi = maps.colour_style("share", [0.1, 0.3], robust=False)
     assert cmap == "YlGnBu" and (lo, hi) == (0.1, 0.3)
     # diverging limits are symmetric about the centre: 100 for percent of normal, 0 for differences
-    cmap, lo, hi = maps.colour_style("percent", [70.0, 160.0])
+    cmap, lo, hi = maps.colour_style("percent", [70.0, 160.0], robust=False)
     assert cmap == "BrBG" and (lo + hi) / 2 == 100.0 and hi == 160.0
-    _, lo, hi = maps.colour_style("difference", [-5.0, 2.0])
+    _, lo, hi = maps.colour_style("difference", [-5.0, 2.0], robust=False)
     assert (lo, hi) == (-5.0, 5.0)
+    _, lo, hi = maps.colour_style("difference", [-5.0, 2.0], vmin=-1.0, vmax=3.0)
+    assert (lo, hi) == (-1.0, 3.0)  # explicit limits are kept as given
     # matplotlib's BrBG is ColorBrewer's BrBG: darkest brown (84, 48, 5), darkest green (0, 60, 48)
     # (ColorBrewer 2.0, Brewer & Harrower, 11-class BrBG; values from memory)
     brbg = matplotlib.colormaps["BrBG"]
@@ -67,7 +69,8 @@ def test_draw_field_colour_bar_has_units_and_update_is_in_place():
     out = maps.update_field(mesh, cbar, new)
     assert out is mesh and len(ax.collections) == 1
     assert np.allclose(mesh.get_array().reshape(4, 5), new.values)
-    assert mesh.get_clim() == (0.0, 38.0)
+    # robust limits by default: the 2nd and 98th percentiles (numpy.percentile, linear method)
+    assert mesh.get_clim() == pytest.approx(tuple(np.percentile(new.values, [2, 98])))
     assert cbar.ax.get_ylabel() == "doubled [mm]"
 
 
@@ -157,3 +160,119 @@ def test_a_share_is_drawn_in_the_units_of_the_tables():
     np.testing.assert_allclose(np.asarray(mesh.get_array()).ravel(), [10, 20, 30, 40])
     assert cbar.ax.get_ylabel() == "seasonal share Jul-Aug [%]"
     assert as_shown(shown, None, None, "x")[0] is shown  # already shown: unchanged
+
+
+def test_robust_limits_are_the_2nd_and_98th_percentiles():
+    """Reference: numpy.percentile (linear interpolation, numpy's default method)."""
+    rng = np.random.default_rng(3)
+    values = rng.gamma(2.0, 30.0, size=(40, 50))
+    values[0, :5] = [5000.0, 8000.0, np.nan, -900.0, np.nan]  # a few wild cells and gaps
+    finite = values[np.isfinite(values)]
+    lo, hi = maps.robust_limits(values)
+    assert (lo, hi) == pytest.approx(tuple(np.percentile(finite, [2.0, 98.0])))
+    assert maps.colour_style("total", values)[1:] == pytest.approx((lo, hi))
+    # hand check: 0..100 -> 2 and 98
+    assert maps.robust_limits(np.arange(101.0)) == (2.0, 98.0)
+    # diverging: the larger half-width about the centre (100 % of normal)
+    pct = 100.0 + 40.0 * rng.standard_normal(500)
+    p2, p98 = np.percentile(pct, [2.0, 98.0])
+    half = max(100.0 - p2, p98 - 100.0)
+    assert maps.robust_limits(pct, kind="percent") == pytest.approx((100.0 - half, 100.0 + half))
+    assert maps.robust_limits([np.nan]) == (None, None)
+
+
+def test_centred_limits_keep_diverging_scales_centred():
+    assert maps.centred_limits("percent", 80.0, 150.0) == (50.0, 150.0)
+    assert maps.centred_limits("difference", -1.0, 4.0) == (-4.0, 4.0)
+    assert maps.centred_limits("share", 10.0, 40.0) == (10.0, 40.0)
+
+
+def _square_geojson(path, w=-29.0, s=11.0, e=-28.0, n=12.0):
+    import json
+
+    ring = [[w, s], [e, s], [e, n], [w, n], [w, s]]
+    path.write_text(json.dumps({"type": "FeatureCollection", "features": [
+        {"type": "Feature", "properties": {"name": "square"}, "geometry": {"type": "Polygon", "coordinates": [ring]}},
+        {"type": "Feature", "properties": {}, "geometry": {"type": "Point", "coordinates": [w, s]}}]}))
+    return np.array(ring)
+
+
+def test_a_square_layer_is_a_line_along_its_edges(tmp_path):
+    ring = _square_geojson(tmp_path / "square.geojson")
+    geoms = maps.read_layer(tmp_path / "square.geojson")
+    assert [g.geom_type for g in geoms] == ["Polygon"]  # the point is left out
+    ax = Figure().add_subplot(1, 1, 1, projection=ccrs.PlateCarree())
+    (line,) = maps.draw_lines(ax, geoms, label="square")
+    np.testing.assert_allclose(line.get_xydata(), ring)
+    assert line.get_label() == "square"
+    # a layer reaching far outside the map is cut to the given bounds
+    (cut,) = maps.draw_lines(ax, geoms, bounds=(-28.5, 10.0, -20.0, 13.0))
+    xy = cut.get_xydata()
+    assert np.nanmin(xy[:, 0]) == pytest.approx(-28.5) and np.nanmax(xy[:, 0]) == pytest.approx(-28.0)
+    assert maps.draw_lines(ax, geoms, bounds=(0.0, 0.0, 1.0, 1.0)) == []
+
+
+def test_a_shapefile_layer_of_lines(tmp_path):
+    shapefile = pytest.importorskip("shapefile")
+    with shapefile.Writer(str(tmp_path / "river"), shapeType=shapefile.POLYLINE) as w:
+        w.field("name", "C")
+        w.line([[[-29.0, 11.0], [-28.5, 11.5], [-28.0, 11.6]]])
+        w.record("invented river")
+    (geom,) = maps.read_layer(tmp_path / "river.shp")
+    np.testing.assert_allclose(np.asarray(geom.coords), [[-29.0, 11.0], [-28.5, 11.5], [-28.0, 11.6]])
+
+
+def test_a_missing_or_wrong_layer_file_is_a_clear_error(tmp_path):
+    from climwidgets.errors import InputError
+
+    missing = tmp_path / "coast.geojson"
+    with pytest.raises(InputError, match="coast.geojson.*file not found"):
+        maps.read_layer(missing)
+    (tmp_path / "coast.txt").write_text("x")
+    with pytest.raises(InputError, match="coast.txt.*extension"):
+        maps.read_layer(tmp_path / "coast.txt")
+    (tmp_path / "points.geojson").write_text('{"type": "Point", "coordinates": [0, 0]}')
+    with pytest.raises(InputError, match="no line or polygon"):
+        maps.read_layer(tmp_path / "points.geojson")
+
+
+def test_land_mask_outline_follows_the_coast():
+    """A 2 x 2 block of land cells in a sea of 6 x 6 cells (1 degree): the 0.5 contour on the
+    centres lies on the block's cell edges (hand-computed: half-way between land and sea centres)."""
+    height = np.zeros((6, 6))
+    height[2:4, 1:3] = 300.0
+    terrain = xr.DataArray(height, dims=("lat", "lon"),
+                           coords={"lat": 10.5 + np.arange(6), "lon": -30.5 + np.arange(6)}, attrs={"units": "m"})
+    mask = maps.land_mask(terrain)
+    assert mask.dtype == bool and int(mask.sum()) == 4 and mask.attrs["outline_source"] == "terrain above 0 m"
+    ax = Figure().add_subplot(1, 1, 1, projection=ccrs.PlateCarree())
+    (line,) = maps.draw_mask_outline(ax, mask)
+    xy = line.get_xydata()
+    xy = xy[np.isfinite(xy[:, 0])]
+    # land centres lon -29.5, -28.5 and lat 12.5, 13.5: edges at lon -30, -28 and lat 12, 14
+    assert xy[:, 0].min() == pytest.approx(-30.0) and xy[:, 0].max() == pytest.approx(-28.0)
+    assert xy[:, 1].min() == pytest.approx(12.0) and xy[:, 1].max() == pytest.approx(14.0)
+    # a mask given as such (CF land_binary_mask, 0/1) is used as it is
+    flags = xr.DataArray((height > 0).astype("int8"), dims=terrain.dims, coords=terrain.coords,
+                         attrs={"standard_name": "land_binary_mask"})
+    assert (maps.land_mask(flags).values == mask.values).all()
+
+
+def test_land_mask_of_the_demo_file_is_its_mask_variable(tmp_path):
+    """The demo terrain file carries a land mask (climwidgets.demo); opened with
+    cw.open_elevation only the heights remain, and the outline uses the file's own mask."""
+    import climwidgets as cw
+
+    lat = np.array([35.0, 35.5])
+    lon = np.array([-148.0, -147.5, -147.0])
+    ds = xr.Dataset({"elevation": (("lat", "lon"), np.array([[0.0, 10.0, 0.0], [0.0, 0.0, 0.0]]), {"units": "m"}),
+                     "land": (("lat", "lon"), np.array([[0, 1, 1], [0, 0, 0]], dtype="int8"),
+                              {"standard_name": "land_binary_mask"})},
+                    coords={"lat": ("lat", lat, {"units": "degrees_north"}),
+                            "lon": ("lon", lon, {"units": "degrees_east"})})
+    path = tmp_path / "terrain.nc"
+    ds.to_netcdf(path)
+    elevation = cw.open_elevation(path, var="elevation")
+    mask = maps.land_mask(elevation)
+    assert mask.values.tolist() == [[False, True, True], [False, False, False]]  # the file's mask, not height > 0
+    assert mask.attrs["outline_source"] == "land mask of terrain.nc"
