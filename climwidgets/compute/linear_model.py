@@ -9,6 +9,15 @@ J. Atmos. Sci. 61, 1377-1391.  In Fourier space the precipitation from terrain
 the product of the upslope source (Cw · i σ ĥ, the Fourier transform of Cw U·∇h), the
 airflow-dynamics factor 1 / (1 − i m Hw), and the delays of cloud-water conversion (τc)
 and hydrometeor fallout (τf).  Equation numbers quoted in docstrings are from memory.
+
+The orographic part alone is negative where air descends in the lee (the theory's
+evaporation of cloud and falling precipitation).  S&B 2004 add a background rate P∞ from
+large-scale (non-orographic) ascent and truncate the sum, P = max(P_orographic + P∞, 0)
+(their discussion of the truncation and the background, section 5; the section number
+and the exact form are from memory), which is what ``p_background`` does.  Published
+values of the delays are τc ≈ τf ≈ 1000 s, range about 200-2000 s (S&B 2004; Smith 2003,
+J. Hydrol. 282, 2-9; from memory), of the moist buoyancy frequency Nm 0-0.01 s-1 with
+0.005 s-1 a common choice (from memory).
 """
 
 from __future__ import annotations
@@ -165,8 +174,12 @@ def linear_orographic_precip(elevation: xr.DataArray, wind_speed: float = 10.0,
         >= 0.  Usual 200-2000; defaults 1000 each (S&B 2004 discuss about 1000 s).
         0 gives instant conversion / fallout.
     p_background
-        Background (non-orographic) rate, mm h-1, >= 0, added before negatives are
-        truncated; default 0.
+        Background (non-orographic) rate P∞, mm h-1, >= 0, added before negatives are
+        truncated: the result is max(P_orographic + P∞, 0) (S&B 2004, from memory).
+        Default 0: the orographic part alone, which is 0 wherever the lee descends.
+        With P∞ > 0 the lee keeps the background minus the descent's drying, so a
+        leeward/windward ratio becomes informative; a light frontal rain of 1-3 mm h-1
+        is a plausible choice (light rain is up to about 2.5 mm h-1, common practice).
     duration_hours
         None (default): return a rate in mm h-1.  A number > 0: the depth in mm over that
         many hours of steady conditions.
@@ -188,6 +201,14 @@ def linear_orographic_precip(elevation: xr.DataArray, wind_speed: float = 10.0,
     DataArray on the elevation grid in mm h-1 (or mm with ``duration_hours``), with the
     constants used (Cw, Hw, Γm, U, V) in attrs.  Lazy on dask input (the lat/lon plane is
     brought into one chunk, since the transform needs the whole domain).
+
+    References
+    ----------
+    Smith, R. B. and Barstad, I. (2004) A linear theory of orographic precipitation.
+    J. Atmos. Sci. 61, 1377-1391. doi:10.1175/1520-0469(2004)061<1377:ALTOOP>2.0.CO;2
+
+    Smith, R. B. (2003) A linear upslope-time-delay model for orographic precipitation.
+    J. Hydrol. 282, 2-9.
     """
     func = "linear_orographic_precip"
     lat, lon = _crest.grid_coords(elevation, func, "elevation")
