@@ -31,6 +31,7 @@ from ..geo.basinset import whole_grid_basin
 from ..plot.charts import anomaly_chart
 from ..plot.maps import record_limits
 from .base import BaseWidget
+from .entry import step_entry, year_range_entry
 from .mapframe import MapFrame
 
 __all__ = ["AnomalyWidget", "whole_grid_basin", "step_labels", "decimal_time", "season_months"]
@@ -91,9 +92,13 @@ class AnomalyWidget(BaseWidget):
                                           style=style, layout=lay)
         self.baseline = widgets.IntRangeSlider(value=(max(y0, baseline[0]), min(y1, baseline[1])), min=y0, max=y1,
                                                description="Baseline years", style=style, layout=lay,
-                                               continuous_update=False)
+                                               continuous_update=False, readout=False)
+        self.baseline_first, self.baseline_last = year_range_entry(self.baseline)
         self.step = widgets.SelectionSlider(options=["-"], description="Time step shown", style=style,
-                                            layout=lay, continuous_update=False)
+                                            layout=lay, continuous_update=False, readout=False)
+        # hundreds of months on a short track: a typed 'YYYY-MM' box and one-step buttons
+        self.step_note = widgets.HTML("")
+        self.step_box, self.step_prev, self.step_next = step_entry(self.step, self.step_note)
         super().__init__(map_frame=MapFrame(basins=self.basins, kind="percent"), export_dir=export_dir)
         self.watch(self.period, self.kind, self.scale, self.season_from, self.season_to, self.baseline)
         self.step.observe(self._on_step, names="value")
@@ -106,8 +111,11 @@ class AnomalyWidget(BaseWidget):
     def build_controls(self):
         note = widgets.HTML("<small>SPI is monthly: it ignores the period setting. "
                             "Basin values are anomalies of the basin-mean precipitation.</small>")
-        return [self.period, self.season_from, self.season_to, self.kind, self.scale, self.baseline,
-                self.step, note]
+        indent = widgets.Layout(margin="0 0 2px 114px", align_items="center")
+        years = widgets.HBox([self.baseline_first, widgets.Label("to"), self.baseline_last], layout=indent)
+        step = widgets.HBox([self.step_prev, self.step_box, self.step_next], layout=indent)
+        return [self.period, self.season_from, self.season_to, self.kind, self.scale, self.baseline, years,
+                self.step, step, self.step_note, note]
 
     def _enable(self, *_):
         spi_kind = self.kind.value == "spi"

@@ -31,6 +31,7 @@ from ..analyses.orographic import (MODEL_BACKGROUND_MM_H, MODEL_DELAY_S, MODEL_N
 from ..errors import ParameterError
 from ..plot.charts import contrast_chart
 from .base import BaseWidget
+from .entry import number_entry
 from .mapframe import MapFrame
 
 __all__ = ["OrographicContrastWidget", "parse_bands"]
@@ -88,8 +89,11 @@ class OrographicContrastWidget(BaseWidget):
         top = float(np.nanmax(np.asarray(elevation.values, dtype=float)))
         style = {"description_width": "130px"}
         lay = widgets.Layout(width="310px")
-        self.wind_from = widgets.FloatSlider(value=270.0, min=0.0, max=355.0, step=5.0, description="Wind from (°)",
-                                             style=style, layout=lay, continuous_update=False)
+        # 360 degrees on a short track: a typed box beside the slider, to the degree
+        self.wind_from = widgets.FloatSlider(value=270.0, min=0.0, max=359.0, step=1.0, description="Wind from (°)",
+                                             style=style, layout=widgets.Layout(width="236px"), readout=False,
+                                             continuous_update=False)
+        self.wind_from_box = number_entry(self.wind_from)
         self.crest_mode = widgets.ToggleButtons(options=[("from terrain", "terrain"), ("drawn on map", "drawn")],
                                                 value="terrain", description="Crest", style=style)
         self.min_height = widgets.BoundedFloatText(value=round(0.1 * top, -1), min=0.0, max=max(top, 1.0),
@@ -136,7 +140,8 @@ class OrographicContrastWidget(BaseWidget):
     def build_controls(self):
         head = widgets.HTML("<b>Observed contrast</b>")
         model = widgets.HTML("<b>Linear orographic model</b> <small>(Smith &amp; Barstad 2004)</small>")
-        return [head, self.wind_from, self.crest_mode, self.min_height, widgets.HBox([self.draw, self.clear]),
+        wind = widgets.HBox([self.wind_from, self.wind_from_box])
+        return [head, wind, self.crest_mode, self.min_height, widgets.HBox([self.draw, self.clear]),
                 self.bands, self.level, self.n_boot, model, self.wind_speed, self.temperature, self.background, self.delay,
                 self.layer]
 

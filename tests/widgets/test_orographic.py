@@ -168,3 +168,17 @@ def test_every_export_reaches_the_browser(setup):
     w = setup[-1]
     got = check_every_export(w)
     assert set(got) == {b.description for b in w.exports.children}
+
+
+def test_typed_wind_direction_sets_the_slider_and_computes_once(setup):
+    pr, elev, w = setup
+    w.wait()
+    gen = w._gen
+    w.wind_from_box.value = 263.0  # to the degree, which a drag on the short track cannot hit
+    assert w.wind_from.value == 263.0 and w._gen == gen + 1
+    w.wait()
+    expected, _ = _observed(pr, elev, wind_from=263.0)
+    xr.testing.assert_allclose(w.result, expected)
+    w.wind_from.value = 270.0  # the slider rewrites the box, still one computation
+    assert w.wind_from_box.value == 270.0 and w._gen == gen + 2
+    w.wait()
