@@ -85,9 +85,9 @@ def design_depth_chart(table, warming=None, period=None, ci=0.9, max_panels=6, f
 
     names = [] if table is None else [str(b) for b in np.atleast_1d(table["basin"].values)][:max_panels]
     n = max(len(names), 1)
-    cols = min(n, 3)
+    cols = 2 if n == 4 else min(n, 3)  # four basins as two by two, not three and one
     rows = int(np.ceil(n / cols))
-    fig = Figure(figsize=figsize or (3.1 * cols + 0.6, 2.5 * rows + 0.5))
+    fig = Figure(figsize=figsize or (3.2 * cols + 0.6, 2.4 * rows + 0.8))
     axes = [fig.add_subplot(rows, cols, i + 1) for i in range(n)]
     if table is None:
         axes[0].text(0.5, 0.5, "no basins", ha="center", va="center", transform=axes[0].transAxes)
@@ -114,20 +114,20 @@ def design_depth_chart(table, warming=None, period=None, ci=0.9, max_panels=6, f
                 if warming is not None:
                     ax.plot(x, est * warming[2], "--", color="#b2182b", lw=1.0,
                             label=f"+{warming[0]:g} °C at {warming[1]:g} % per °C")
-        ax.set_title(name, fontsize=9)
-        ax.set_xticks(x, [f"{int(d)}{short}" for d in durations], fontsize=7)
-        ax.tick_params(axis="y", labelsize=7)
+        ax.set_title(name, fontsize=10)
+        ax.set_xticks(x, [f"{int(d)}{short}" for d in durations], fontsize=8)
+        ax.tick_params(axis="y", labelsize=8)
         ax.set_ylim(bottom=0)
         ax.grid(alpha=0.3)
     for ax in axes[::cols]:
-        ax.set_ylabel(f"depth [{units}]", fontsize=8)
+        ax.set_ylabel(f"depth [{units}]", fontsize=9)
     for ax in axes[-cols:]:
-        ax.set_xlabel(f"storm duration [{unit}s]", fontsize=8)
+        ax.set_xlabel(f"storm duration [{unit}s]", fontsize=9)
     handles, labels = axes[0].get_legend_handles_labels()
-    fig.legend(handles, labels, loc="lower center", ncol=min(len(labels), 4), fontsize=7, frameon=False)
+    fig.legend(handles, labels, loc="lower center", ncol=min(len(labels), 3), fontsize=8, frameon=False)
     note = f"whiskers: {ci:.0%} interval of the {period}-year depth" if period is not None else ""
-    fig.suptitle(f"How deep a storm gets, by duration; {note}", fontsize=9)
-    fig.tight_layout(rect=(0, 0.06 + 0.04 / rows, 1, 0.95))
+    fig.suptitle(f"How deep a storm gets, by duration; {note}", fontsize=10)
+    fig.tight_layout(rect=(0, 0.05 + 0.1 / rows, 1, 0.96))
     return fig
 
 

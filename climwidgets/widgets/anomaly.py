@@ -94,7 +94,7 @@ class AnomalyWidget(BaseWidget):
                                                description="Baseline years", style=style, layout=lay,
                                                continuous_update=False, readout=False)
         self.baseline_first, self.baseline_last = year_range_entry(self.baseline)
-        self.step = widgets.SelectionSlider(options=["-"], description="Time step shown", style=style,
+        self.step = widgets.SelectionSlider(options=["-"], description="Time step", style=style,
                                             layout=lay, continuous_update=False, readout=False)
         # hundreds of months on a short track: a typed 'YYYY-MM' box and one-step buttons
         self.step_note = widgets.HTML("")

@@ -51,10 +51,10 @@ PERIODS = (2, 5, 10, 25, 50, 100)
 LEVELS = (0.8, 0.9, 0.95)
 AREAL_NOTE = ("Basin depths are areal: the return level of the basin-mean maxima. "
               "Areal depths are lower than point (gauge) depths of the same return period.")
-TABLE_KINDS = [("design depths by duration", "ddf"), ("all basins, one return period", "areal"),
-               ("point depths: at-site and regional", "point")]
-MAP_LAYERS = [("at-site depth", "estimate"), ("at-site lower bound", "lower"), ("at-site upper bound", "upper"),
-              ("regional depth (basins pooled)", "regional")]
+TABLE_KINDS = [("depths by duration", "ddf"), ("all basins, one period", "areal"),
+               ("at-site and regional", "point")]
+MAP_LAYERS = [("at-site", "estimate"), ("at-site, lower bound", "lower"), ("at-site, upper bound", "upper"),
+              ("regional (pooled)", "regional")]
 N_SIM = 500  # simulated regions for the heterogeneity H1 (Hosking & Wallis 1997 use 500)
 
 
@@ -259,14 +259,17 @@ class ExtremesWidget(BaseWidget):
             layer = layer if layer != "regional" else "estimate"  # no basins: nothing to pool
             field = self.result[layer].sel(period=t)
             what = {"estimate": "at-site", "lower": "at-site lower bound", "upper": "at-site upper bound"}[layer]
-        self.map.show_field(field, kind="total", label=f"{what}, {dur} depth once in {t} years [mm]",
+        self.table_basin.disabled = self.table_kind.value != "ddf"  # the other tables list every basin
+        self.map.show_field(field, kind="total", label=f"{dur} depth, once in {t} years [mm]",
                             title=f"{dur} storm depth once in {t} years, {what}{warm}")
         kind = self.table_kind.value
         table = self._table(t)
         self.show_table(table)
         if kind == "ddf" and table is not None:
             # people read one cell per return period, 'depth (lower–upper)'; the CSV keeps the numbers
-            self.table_html.value = _CSS + df_to_html(design_depth_cells(table))
+            caption = (f"<b>{html.escape(str(self.table_basin.value))}</b>: design depths by storm duration and "
+                       f"return period{html.escape(warm)}")
+            self.table_html.value = _CSS + caption + df_to_html(design_depth_cells(table))
         notes = {"ddf": DESIGN_TABLE_NOTE, "areal": AREAL_NOTE, "point": POINT_NOTE}
         note = notes[kind]
         if kind == "point" and self.point is not None:

@@ -36,7 +36,7 @@ from .mapframe import MapFrame
 
 __all__ = ["OrographicContrastWidget", "parse_bands"]
 
-LAYERS = [("observed mean annual total", "observed"), ("signed distance from the crest", "distance"),
+LAYERS = [("mean annual total", "observed"), ("distance from the crest", "distance"),
           ("linear model (rate)", "model"), ("terrain", "terrain")]
 
 
@@ -118,7 +118,7 @@ class OrographicContrastWidget(BaseWidget):
                                                    tooltip="uniform non-orographic rain rate added to the model")
         self.delay = widgets.FloatSlider(value=MODEL_DELAY_S, min=200.0, max=2000.0, step=100.0,
                                          description="Delays τc = τf (s)", style=style, layout=lay,
-                                         continuous_update=False)
+                                         continuous_update=False, readout_format=".0f")
         self.layer = widgets.Dropdown(options=LAYERS, value="observed", description="Map shows",
                                       style=style, layout=lay)
         super().__init__(map_frame=MapFrame(basins=self.basins, kind="difference"), export_dir=export_dir)
