@@ -294,6 +294,18 @@ class ExtremesWidget(BaseWidget):
         warmed = self.warmed()
         return None if warmed is None else depth_table(warmed, period=t, display=True)
 
+    def _write_csv(self, path):
+        """The table shown, with the design-depth cautions and the table's note in its metadata."""
+        if self.table is None:
+            raise ParameterError("there is no table to export yet", source="design depths",
+                                 fix="wait for the computation to finish")
+        prov = self.csv_provenance()
+        note = {"ddf": DESIGN_TABLE_NOTE, "areal": AREAL_NOTE, "point": POINT_NOTE}[self.table_kind.value]
+        title = {"ddf": f"design depths of {self.table_basin.value} by duration and return period",
+                 "areal": "areal depths of the basins", "point": "at-site and regional point depths"}
+        prov.update(notes=[note], cautions=DESIGN_DEPTH_CAUTIONS, title=title[self.table_kind.value])
+        self.write_table_csv(self.table, path, provenance=prov)
+
     def _write_depths(self, path):
         warmed = self.warmed()
         if warmed is None:

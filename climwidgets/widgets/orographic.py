@@ -90,7 +90,7 @@ class OrographicContrastWidget(BaseWidget):
         style = {"description_width": "130px"}
         lay = widgets.Layout(width="310px")
         # 360 degrees on a short track: a typed box beside the slider, to the degree
-        self.wind_from = widgets.FloatSlider(value=270.0, min=0.0, max=359.0, step=1.0, description="Wind from (°)",
+        self.wind_from = widgets.IntSlider(value=270, min=0, max=359, step=1, description="Wind from (°)",
                                              style=style, layout=widgets.Layout(width="236px"), readout=False,
                                              continuous_update=False)
         self.wind_from_box = number_entry(self.wind_from)

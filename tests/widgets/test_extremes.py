@@ -143,8 +143,18 @@ def test_hourly_durations():
 def test_every_export_reaches_the_browser(setup):
     """Each button gives a download link whose bytes are the result (CSV read by plain pandas)."""
     w = setup[-1]
-    got = check_every_export(w)
-    assert set(got) == {b.description for b in w.exports.children}
+    import json
+
+    for kind in ("ddf", "areal"):
+        w.table_kind.value = kind
+        w.wait()
+        got = check_every_export(w)
+        assert set(got) == {b.description for b in w.exports.children}
+        # the design-depth cautions travel with the table of every kind
+        meta = next(json.loads(v) for k, v in got["Table as CSV"].items() if k.endswith("-metadata.json"))
+        assert all(c in json.dumps(meta, ensure_ascii=False) for c in cw.DESIGN_DEPTH_CAUTIONS)
+    w.table_kind.value = "ddf"
+    w.wait()
 
 
 def test_design_table_follows_the_warming_and_the_chart_draws(setup):
