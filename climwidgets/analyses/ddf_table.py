@@ -14,7 +14,8 @@ import xarray as xr
 from ..errors import ParameterError
 from .meta import describe, frame
 
-__all__ = ["ddf_long_table", "ddf_wide_table", "DDF_COLUMNS"]
+__all__ = ["ddf_long_table", "ddf_wide_table", "DDF_COLUMNS", "basin_design_table", "design_depth_table",
+           "design_depth_cells", "DESIGN_TABLE_NOTE"]
 
 DDF_COLUMNS = ("ddf_estimate", "ddf_lower", "ddf_upper")
 
@@ -68,3 +69,83 @@ def ddf_wide_table(ds: xr.Dataset, basin=None) -> pd.DataFrame:
     attrs = describe(est, "ddf_estimate", units=units, display_units=units).attrs
     table.attrs = {"columns": {c: {**attrs, "label": f"{c}"} for c in table.columns}, "units": units}
     return table
+
+
+DESIGN_TABLE_NOTE = ("How deep a storm of each duration gets, on average once in N years, over the basin as a "
+                     "whole (the fit of the basin-mean series: areal depths, lower than point (gauge) depths). "
+                     "In brackets: the range the fit allows at the chosen confidence level (sampling only).")
+
+
+def basin_design_table(series: xr.DataArray, durations=None, periods=(2, 5, 10, 25, 50, 100), ci: float = 0.9,
+                       n_boot: int = 1000, year_start: int = 1, seed=0) -> xr.Dataset:
+    """Design depths of each basin by duration and return period, from its basin-mean series.
+
+    Parameters
+    ----------
+    series : xarray.DataArray
+        Basin-mean daily or hourly depths in mm on (basin, time), as from
+        :func:`climwidgets.analyses.basins.basin_series` (so a widget reads each basin once).
+    durations, periods, ci, n_boot, year_start, seed
+        As in :func:`cw.depth_duration_frequency`.
+
+    Returns
+    -------
+    xarray.Dataset
+        :func:`cw.depth_duration_frequency` of the series: ``estimate``, ``lower`` and
+        ``upper`` on (duration, period, basin), depths consistent across durations, with
+        ``attrs["areal"]`` saying they are fits of the basin-mean series and the cautions.
+    """
+    from ..compute.ddf import depth_duration_frequency
+
+    series = series.drop_vars([c for c in series.coords if c not in series.dims], errors="ignore")
+    ds = depth_duration_frequency(series, durations=durations, periods=periods, ci=ci, n_boot=n_boot,
+                                  seed=seed, year_start=year_start)
+    ds.attrs.update(areal="fit of the basin-mean series", ci=float(ci), note=DESIGN_TABLE_NOTE)
+    return ds
+
+
+def _columns(one: xr.Dataset, pct: str):
+    for p in one["period"].values:
+        name = f"{int(p)} years"
+        yield name, "estimate", p, {"label": name}
+        yield f"{name} lower {pct}", "lower", p, {"label": f"{name} lower {pct}"}
+        yield f"{name} upper {pct}", "upper", p, {"label": f"{name} upper {pct}"}
+
+
+def design_depth_table(ds: xr.Dataset, basin=None) -> pd.DataFrame:
+    """Numbers of the design-depth table: rows durations, per return period the depth and its interval.
+
+    Columns "10 years", "10 years lower 90%", "10 years upper 90%", ... in the table's
+    units; ``attrs["columns"]`` carries their display formats (meta ``ddf_estimate``).
+    This is what the CSV export holds; :func:`design_depth_cells` is what people read.
+    """
+    one = _one(ds, basin)
+    units = str(one["estimate"].attrs.get("units", "mm"))
+    pct = f"{float(ds.attrs.get('ci', 0.9)):.0%}"
+    data, described = {}, {}
+    for name, var, p, over in _columns(one, pct):
+        da = one[var].sel(period=p).transpose("duration")
+        data[name] = da.values
+        described[name] = describe(da, "ddf_estimate", units=units, display_units=units, **over).attrs
+    table = pd.DataFrame(data, index=pd.Index(_labels(one), name="duration"))
+    table.attrs = {"columns": described, "units": units}
+    return table
+
+
+def design_depth_cells(table: pd.DataFrame) -> pd.DataFrame:
+    """The table of :func:`design_depth_table` as people read it: one cell 'depth (lower–upper)' per period."""
+    from .meta import format_cell
+
+    cols = table.attrs.get("columns", {})
+    units = table.attrs.get("units", "mm")
+    periods = [c for c in table.columns if c.endswith(" years")]
+    out = {}
+    for c in periods:
+        low = next(k for k in table.columns if k.startswith(f"{c} lower"))
+        up = next(k for k in table.columns if k.startswith(f"{c} upper"))
+        out[f"{c} [{units}]"] = [
+            f"{format_cell(e, cols.get(c, {}))} ({format_cell(a, cols.get(low, {}))}–{format_cell(b, cols.get(up, {}))})"
+            for e, a, b in zip(table[c], table[low], table[up])]
+    cells = pd.DataFrame(out, index=table.index)
+    cells.columns.name = "once in"
+    return cells

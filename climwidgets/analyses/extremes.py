@@ -21,7 +21,8 @@ from .basins import basin_series
 from .meta import describe, frame
 
 __all__ = ["depth_field", "warmed_field", "areal_design_depths", "point_design_depths", "warmed_depths",
-           "depth_table", "point_depth_table", "AREAL_NOTE", "POINT_NOTE", "DEPTH_COLUMNS", "POINT_COLUMNS"]
+           "depth_table", "point_depth_table", "regional_depth_field", "warmed_point_depths", "AREAL_NOTE",
+           "POINT_NOTE", "DEPTH_COLUMNS", "POINT_COLUMNS"]
 
 AREAL_NOTE = ("basin depths are areal: the return level of the basin-mean annual maxima, lower than "
               "point (gauge) depths of the same return period")
@@ -245,3 +246,53 @@ def depth_table(ds: xr.Dataset, period=None, display: bool = False):
     return table
 
 
+
+
+def regional_depth_field(pr: xr.DataArray, basins, periods=(2, 10, 25, 50, 100), ci: float = 0.9,
+                         n_boot: int = 500, n_sim: int = 500, year_start: int = 1, seed=0, min_years: int = 10,
+                         **duration) -> xr.Dataset:
+    """Regional (index-flood) point depths of every cell, each basin pooled as one region (lazy).
+
+    The per-cell counterpart of the regional columns of :func:`point_design_depths`: the
+    cell's mean annual maximum times its basin's growth curve (:func:`cw.regional_frequency`),
+    with the simulated interval; cells in no basin are missing.  Beside
+    :func:`depth_field` (each cell's own fit) it shows how much pooling smooths the map.
+
+    Parameters
+    ----------
+    pr, basins, periods, ci, n_boot, n_sim, year_start, seed, min_years, duration
+        As in :func:`point_design_depths`.
+
+    Returns
+    -------
+    xarray.Dataset
+        ``estimate``, ``lower``, ``upper`` on (period, lat, lon) in mm, ``cell_region`` and
+        the per-region ``H1``.
+
+    References
+    ----------
+    Hosking, J. R. M. & Wallis, J. R. (1997) Regional Frequency Analysis: An Approach Based
+    on L-Moments. Cambridge University Press. doi:10.1017/CBO9780511529443
+    """
+    basins = as_basin_list(basins, "regional_depth_field")
+    ams = annual_maxima(pr, year_start=year_start, **(duration or {"duration_days": 1}))
+    regional = regional_frequency(ams, regions=basins, periods=periods, ci=ci, n_sim=n_sim, n_boot=n_boot,
+                                  seed=seed, min_years=min_years)
+    out = regional[["estimate", "lower", "upper", "cell_region", "H1"]]
+    for name in ("estimate", "lower", "upper"):
+        out[name].attrs["units"] = "mm"
+    out.attrs = {"duration": ams.attrs.get("duration", ""), "ci": float(ci), "method": "index flood, each basin "
+                 "one region (Hosking & Wallis 1997)", "cautions": list(DESIGN_DEPTH_CAUTIONS)}
+    return out
+
+
+def warmed_point_depths(ds: xr.Dataset, delta_t: float = 0.0, rate: float = 0.07) -> xr.Dataset:
+    """``ds`` of :func:`point_design_depths` with the depth columns scaled as :func:`warmed_depths` does.
+
+    H1 and the cell counts are kept as they are; at ``delta_t = 0`` nothing changes.
+    """
+    out = warming_scaling(ds, float(delta_t), rate=float(rate))
+    for name in ds.data_vars:
+        out[name].attrs = dict(ds[name].attrs)
+    out.attrs.update(delta_t=float(delta_t), rate=float(rate))
+    return out

@@ -17,7 +17,23 @@ from ..compute.totals import annual_totals
 from ..errors import InsufficientDataError
 from .meta import describe, frame
 
-__all__ = ["band_dataset", "band_table", "orographic_contrast", "BAND_COLUMNS"]
+__all__ = ["band_dataset", "band_table", "orographic_contrast", "BAND_COLUMNS", "MODEL_NOTE",
+           "MODEL_BACKGROUND_MM_H", "MODEL_DELAY_S"]
+
+# A light frontal rain as the non-orographic background of the linear model: light rain is
+# up to about 2.5 mm/h (common practice).  Without it the model's lee is exactly 0 in
+# every band wherever air descends, and the model's leeward/windward ratio says nothing.
+MODEL_BACKGROUND_MM_H = 2.0
+# Conversion and fallout delays τc = τf: about 1000 s in Smith & Barstad (2004), usual
+# range 200-2000 s (from memory).
+MODEL_DELAY_S = 1000.0
+
+MODEL_NOTE = ("How to read the linear model beside the observations: the model gives a rate in mm per hour "
+              "for one steady wind of the chosen direction, speed and temperature, with a uniform background "
+              "rain added, not a climatology of many storms and winds. Compare the pattern and the "
+              "leeward/windward ratio with the observed one, not the amounts. A model ratio near 0 means the "
+              "descending air in the lee dries out the background rain; a larger background or longer "
+              "delays carry more rain over the crest.")
 
 BAND_COLUMNS = ("windward_mean", "leeward_mean", "ratio", "ratio_lower", "ratio_upper", "model_ratio")
 
@@ -28,7 +44,8 @@ def _bands(ds: xr.Dataset) -> xr.Dataset:
 
 def orographic_contrast(pr: xr.DataArray, elevation: xr.DataArray, wind_from: float = 270.0,
                         band_km=(0.0, 25.0, 50.0), ci: float = 0.9, n_boot: int = 500, wind_speed: float = 10.0,
-                        temperature_c: float = 10.0, ridge=None, min_height: float | None = None) -> dict:
+                        temperature_c: float = 10.0, ridge=None, min_height: float | None = None,
+                        p_background: float = MODEL_BACKGROUND_MM_H, tau: float = MODEL_DELAY_S) -> dict:
     """The observed windward/leeward contrast beside the linear orographic model's.
 
     Parameters
@@ -50,6 +67,12 @@ def orographic_contrast(pr: xr.DataArray, elevation: xr.DataArray, wind_from: fl
         A crest drawn by hand; otherwise it is found on the terrain.
     min_height : float, optional
         Lowest terrain height of the crest found on the terrain (m).
+    p_background : float
+        Background (non-orographic) rate of the linear model in mm/h, added before the
+        negatives of the lee are cut at 0 (default :data:`MODEL_BACKGROUND_MM_H`).
+    tau : float
+        The model's cloud-water conversion and fallout delays τc = τf in s (default
+        :data:`MODEL_DELAY_S`).
 
     Returns
     -------
@@ -69,7 +92,8 @@ def orographic_contrast(pr: xr.DataArray, elevation: xr.DataArray, wind_from: fl
     crest = ridge if ridge is not None else crest_from_elevation(elevation, wind_from, min_height=min_height)
     observed = rain_shadow(annual, wind_from=wind_from, ridge=crest, band_km=band_km, n_boot=n_boot, ci=ci)
     model = linear_orographic_precip(elevation, wind_speed=wind_speed, wind_from=wind_from,
-                                     temperature_c=temperature_c)
+                                     temperature_c=temperature_c, p_background=p_background,
+                                     tau_c=tau, tau_f=tau)
     model_contrast = rain_shadow(model, wind_from=wind_from, ridge=crest, band_km=band_km)
     mean = annual.mean("year", keep_attrs=True)
     # sea-level cells (open water, or missing terrain read as 0 m) would pile up at 0 m

@@ -9,6 +9,15 @@ J. Atmos. Sci. 61, 1377-1391.  In Fourier space the precipitation from terrain
 the product of the upslope source (Cw · i σ ĥ, the Fourier transform of Cw U·∇h), the
 airflow-dynamics factor 1 / (1 − i m Hw), and the delays of cloud-water conversion (τc)
 and hydrometeor fallout (τf).  Equation numbers quoted in docstrings are from memory.
+
+The orographic part alone is negative where air descends in the lee (the theory's
+evaporation of cloud and falling precipitation).  S&B 2004 add a background rate P∞ from
+large-scale (non-orographic) ascent and truncate the sum, P = max(P_orographic + P∞, 0)
+(their discussion of the truncation and the background, section 5; the section number
+and the exact form are from memory), which is what ``p_background`` does.  Published
+values of the delays are τc ≈ τf ≈ 1000 s, range about 200-2000 s (S&B 2004; Smith 2003,
+J. Hydrol. 282, 2-9; from memory), of the moist buoyancy frequency Nm 0-0.01 s-1 with
+0.005 s-1 a common choice (from memory).
 """
 
 from __future__ import annotations
@@ -248,8 +257,12 @@ def linear_orographic_precip(elevation: xr.DataArray, wind_speed: float = 10.0,
         >= 0.  Usual 200-2000; defaults 1000 each (S&B 2004 discuss about 1000 s).
         0 gives instant conversion / fallout.
     p_background
-        Background (non-orographic) rate, mm h-1, >= 0, added before negatives are
-        truncated; default 0.
+        Background (non-orographic) rate P∞, mm h-1, >= 0, added before negatives are
+        truncated: the result is max(P_orographic + P∞, 0) (S&B 2004, from memory).
+        Default 0: the orographic part alone, which is 0 wherever the lee descends.
+        With P∞ > 0 the lee keeps the background minus the descent's drying, so a
+        leeward/windward ratio becomes informative; a light frontal rain of 1-3 mm h-1
+        is a plausible choice (light rain is up to about 2.5 mm h-1, common practice).
     duration_hours
         None (default): return a rate in mm h-1.  A number > 0: the depth in mm over that
         many hours of steady conditions.
@@ -288,6 +301,9 @@ def linear_orographic_precip(elevation: xr.DataArray, wind_speed: float = 10.0,
     Smith, R. B. and Barstad, I. (2004). A linear theory of orographic precipitation.
     Journal of the Atmospheric Sciences, 61(12), 1377-1391.
     https://doi.org/10.1175/1520-0469(2004)061<1377:ALTOOP>2.0.CO;2
+
+    Smith, R. B. (2003). A linear upslope-time-delay model for orographic precipitation.
+    Journal of Hydrology, 282, 2-9.
 
     Examples
     --------

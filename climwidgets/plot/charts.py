@@ -7,7 +7,7 @@ from __future__ import annotations
 
 import numpy as np
 
-__all__ = ["series_with_trend", "monthly_normals", "areal_depth_chart", "anomaly_chart", "spi_bands", "contrast_chart",
+__all__ = ["series_with_trend", "monthly_normals", "design_depth_chart", "anomaly_chart", "spi_bands", "contrast_chart",
            "products_chart", "MONTH_LABELS"]
 
 from ..compute._time import MONTH_NAMES as MONTH_LABELS  # noqa: E402  (the one month-name table)
@@ -70,40 +70,64 @@ def monthly_normals(table, ax=None, units="mm", figsize=(5.5, 3.0)):
     return artists
 
 
-def areal_depth_chart(depths, warmed=None, period=None, duration="", ci=0.9, warming=None, figsize=(6.5, 3.2)):
-    """Areal depth against return period per basin, with its interval shaded.
+def design_depth_chart(table, warming=None, period=None, ci=0.9, max_panels=6, figsize=None):
+    """Design depth against storm duration, one small panel per basin, one line per return period.
 
-    ``depths`` is the Dataset of :func:`climwidgets.analyses.extremes.areal_design_depths`
-    (None: an empty chart); ``warmed`` the same after warming (drawn dashed); ``period``
-    the return period marked; ``warming`` (ΔT, rate in %) for the title.  Returns the Figure.
+    ``table`` is the Dataset of :func:`climwidgets.analyses.ddf_table.basin_design_table`
+    (estimate, lower, upper on duration × period × basin; None: an empty chart).  Each
+    return period is one line, darker for rarer storms; its interval is drawn as thin
+    whiskers at each duration, for the ``period`` chosen only (so the panels stay
+    readable).  ``warming`` (ΔT, rate in %, factor) adds the scaled line of ``period``
+    dashed.  Durations sit at even steps (1, 2, 3 ... days or the hour durations).
+    Returns the Figure.
     """
     from matplotlib.figure import Figure
 
-    fig = Figure(figsize=figsize)
-    ax = fig.add_subplot(1, 1, 1)
-    if depths is not None:
-        periods = np.asarray(depths["return_period"].values, dtype=float)
-        for i, name in enumerate(depths["basin"].values):
-            colour = f"C{i % 10}"
-            d = depths.sel(basin=name)
-            ax.fill_between(periods, d["areal_lower_mm"].values, d["areal_upper_mm"].values, color=colour,
-                            alpha=0.15, lw=0)
-            ax.plot(periods, d["areal_estimate_mm"].values, "o-", color=colour, ms=3, lw=1.2, label=str(name))
-            if warmed is not None:
-                ax.plot(periods, warmed.sel(basin=name)["areal_estimate_mm"].values, "--", color=colour, lw=1.0)
-        ax.set_xscale("log")
-        ax.set_xticks(periods, [f"{int(p)}" for p in periods])
-        ax.legend(fontsize=7, loc="upper left")
-    if period is not None:
-        ax.axvline(period, color="k", ls=":", lw=0.8)
-    ax.set_xlabel("return period [years]")
-    ax.set_ylabel(f"areal {duration} depth [mm]", fontsize=8)
-    text = f"shaded: {ci:.0%} interval"
-    if warming is not None:
-        text += f"; dashed: +{warming[0]:g} °C at {warming[1]:g} % per °C"
-    ax.set_title(text, fontsize=8)
-    ax.grid(alpha=0.3, which="both")
-    fig.tight_layout()
+    names = [] if table is None else [str(b) for b in np.atleast_1d(table["basin"].values)][:max_panels]
+    n = max(len(names), 1)
+    cols = 2 if n == 4 else min(n, 3)  # four basins as two by two, not three and one
+    rows = int(np.ceil(n / cols))
+    fig = Figure(figsize=figsize or (3.2 * cols + 0.6, 2.4 * rows + 0.8))
+    axes = [fig.add_subplot(rows, cols, i + 1) for i in range(n)]
+    if table is None:
+        axes[0].text(0.5, 0.5, "no basins", ha="center", va="center", transform=axes[0].transAxes)
+        return fig
+    durations = np.asarray(table["duration"].values)
+    unit = str(table.attrs.get("duration_units", "days")).rstrip("s")
+    short = {"day": "d", "hour": "h"}.get(unit, unit)
+    x = np.arange(durations.size)
+    periods = [int(p) for p in table["period"].values]
+    shades = np.linspace(0.35, 1.0, len(periods))
+    units = str(table["estimate"].attrs.get("units", "mm"))
+    from matplotlib import colormaps
+
+    cmap = colormaps["Blues"]
+    for ax, name in zip(axes, names):
+        one = table.sel(basin=name)
+        for p, shade in zip(periods, shades):
+            est = one["estimate"].sel(period=p).values
+            ax.plot(x, est, "-", color=cmap(shade), lw=1.6 if p == period else 1.0,
+                    label=f"once in {p} years", marker="o" if p == period else None, ms=3)
+            if p == period:
+                lo, hi = one["lower"].sel(period=p).values, one["upper"].sel(period=p).values
+                ax.vlines(x, lo, hi, color=cmap(shade), lw=0.8, alpha=0.8)
+                if warming is not None:
+                    ax.plot(x, est * warming[2], "--", color="#b2182b", lw=1.0,
+                            label=f"+{warming[0]:g} °C at {warming[1]:g} % per °C")
+        ax.set_title(name, fontsize=10)
+        ax.set_xticks(x, [f"{int(d)}{short}" for d in durations], fontsize=8)
+        ax.tick_params(axis="y", labelsize=8)
+        ax.set_ylim(bottom=0)
+        ax.grid(alpha=0.3)
+    for ax in axes[::cols]:
+        ax.set_ylabel(f"depth [{units}]", fontsize=9)
+    for ax in axes[-cols:]:
+        ax.set_xlabel(f"storm duration [{unit}s]", fontsize=9)
+    handles, labels = axes[0].get_legend_handles_labels()
+    fig.legend(handles, labels, loc="lower center", ncol=min(len(labels), 3), fontsize=8, frameon=False)
+    note = f"whiskers: {ci:.0%} interval of the {period}-year depth" if period is not None else ""
+    fig.suptitle(f"How deep a storm gets, by duration; {note}", fontsize=10)
+    fig.tight_layout(rect=(0, 0.05 + 0.1 / rows, 1, 0.96))
     return fig
 
 

@@ -31,6 +31,7 @@ from ..geo.basinset import whole_grid_basin
 from ..plot.charts import anomaly_chart
 from ..plot.maps import record_limits
 from .base import BaseWidget
+from .entry import step_entry, year_range_entry
 from .mapframe import MapFrame
 
 __all__ = ["AnomalyWidget", "whole_grid_basin", "step_labels", "decimal_time", "season_months"]
@@ -92,12 +93,12 @@ class AnomalyWidget(BaseWidget):
         self.baseline = widgets.IntRangeSlider(value=(max(y0, baseline[0]), min(y1, baseline[1])), min=y0, max=y1,
                                                description="Baseline years", style=style, layout=lay,
                                                continuous_update=False, readout=False)
-        # the range in a label of its own: the slider's readout box cuts "1991 – 2020"
-        self.baseline_label = widgets.Label("{}–{}".format(*self.baseline.value))
-        self.baseline.observe(lambda c: setattr(self.baseline_label, "value", "{}–{}".format(*c["new"])),
-                              names="value")
-        self.step = widgets.SelectionSlider(options=["-"], description="Step shown", style=style,
-                                            layout=lay, continuous_update=False)
+        self.baseline_first, self.baseline_last = year_range_entry(self.baseline)
+        self.step = widgets.SelectionSlider(options=["-"], description="Time step", style=style,
+                                            layout=lay, continuous_update=False, readout=False)
+        # hundreds of months on a short track: a typed 'YYYY-MM' box and one-step buttons
+        self.step_note = widgets.HTML("")
+        self.step_box, self.step_prev, self.step_next = step_entry(self.step, self.step_note)
         # a long record of several basins overplots: the chart shows one basin, or all of them
         self.chart_basin = widgets.Dropdown(options=[("all basins", None)], value=None, description="Chart shows",
                                             style=style, layout=lay)
@@ -114,8 +115,11 @@ class AnomalyWidget(BaseWidget):
     def build_controls(self):
         note = widgets.HTML("<small>SPI is monthly: it ignores the period setting. "
                             "Basin values are anomalies of the basin-mean precipitation.</small>")
-        return [self.period, self.season_from, self.season_to, self.kind, self.scale,
-                widgets.HBox([self.baseline, self.baseline_label]), self.step, self.chart_basin, note]
+        indent = widgets.Layout(margin="0 0 2px 114px", align_items="center")
+        years = widgets.HBox([self.baseline_first, widgets.Label("to"), self.baseline_last], layout=indent)
+        step = widgets.HBox([self.step_prev, self.step_box, self.step_next], layout=indent)
+        return [self.period, self.season_from, self.season_to, self.kind, self.scale, self.baseline, years,
+                self.step, step, self.step_note, self.chart_basin, note]
 
     def _enable(self, *_):
         spi_kind = self.kind.value == "spi"

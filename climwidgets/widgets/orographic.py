@@ -3,7 +3,7 @@
 Controls: the wind direction (degrees the wind blows from), the crest (derived from the
 terrain, or drawn by clicking on the map), the distance bands from the crest (km), the
 confidence level and bootstrap size of the leeward/windward ratio, and the wind speed and
-temperature of the linear orographic model.
+temperature, background rain rate and delays of the linear orographic model.
 
 The observed contrast comes from ``cw.rain_shadow`` on the per-year annual totals
 (``cw.annual_totals``), so the ratio carries a bootstrap interval over years; the
@@ -20,19 +20,23 @@ the crest used.
 
 from __future__ import annotations
 
+import html
+
 import ipywidgets as widgets
 import numpy as np
 import xarray as xr
 
-from ..analyses.orographic import band_table, orographic_contrast
+from ..analyses.orographic import (MODEL_BACKGROUND_MM_H, MODEL_DELAY_S, MODEL_NOTE, band_table,
+                                   orographic_contrast)
 from ..errors import ParameterError
 from ..plot.charts import contrast_chart
 from .base import BaseWidget
+from .entry import number_entry
 from .mapframe import MapFrame
 
 __all__ = ["OrographicContrastWidget", "parse_bands"]
 
-LAYERS = [("observed mean annual total", "observed"), ("signed distance from the crest", "distance"),
+LAYERS = [("mean annual total", "observed"), ("distance from the crest", "distance"),
           ("linear model (rate)", "model"), ("terrain", "terrain")]
 
 
@@ -85,8 +89,11 @@ class OrographicContrastWidget(BaseWidget):
         top = float(np.nanmax(np.asarray(elevation.values, dtype=float)))
         style = {"description_width": "130px"}
         lay = widgets.Layout(width="310px")
-        self.wind_from = widgets.FloatSlider(value=270.0, min=0.0, max=355.0, step=5.0, description="Wind from (°)",
-                                             style=style, layout=lay, continuous_update=False)
+        # 360 degrees on a short track: a typed box beside the slider, to the degree
+        self.wind_from = widgets.IntSlider(value=270, min=0, max=359, step=1, description="Wind from (°)",
+                                             style=style, layout=widgets.Layout(width="236px"), readout=False,
+                                             continuous_update=False)
+        self.wind_from_box = number_entry(self.wind_from)
         self.crest_mode = widgets.ToggleButtons(options=[("from terrain", "terrain"), ("drawn on map", "drawn")],
                                                 value="terrain", description="Crest", style=style)
         self.min_height = widgets.BoundedFloatText(value=round(0.1 * top, -1), min=0.0, max=max(top, 1.0),
@@ -106,14 +113,24 @@ class OrographicContrastWidget(BaseWidget):
         self.temperature = widgets.FloatSlider(value=10.0, min=-10.0, max=30.0, step=1.0,
                                                description="Temperature (°C)", style=style, layout=lay,
                                                continuous_update=False)
+        self.background = widgets.BoundedFloatText(value=MODEL_BACKGROUND_MM_H, min=0.0, max=50.0, step=0.5,
+                                                   description="Background (mm/h)", style=style, layout=lay,
+                                                   tooltip="uniform non-orographic rain rate added to the model")
+        self.delay = widgets.FloatSlider(value=MODEL_DELAY_S, min=200.0, max=2000.0, step=100.0,
+                                         description="Delays τc = τf (s)", style=style, layout=lay,
+                                         continuous_update=False, readout_format=".0f")
         self.layer = widgets.Dropdown(options=LAYERS, value="observed", description="Map shows",
                                       style=style, layout=lay)
         super().__init__(map_frame=MapFrame(basins=self.basins, kind="difference", outline=elevation), export_dir=export_dir)
         self.watch(self.wind_from, self.crest_mode, self.min_height, self.bands, self.level, self.n_boot,
-                   self.wind_speed, self.temperature)
+                   self.wind_speed, self.temperature, self.background, self.delay)
         self.watch_display(self.layer)
         self.clear.on_click(lambda _: self.clear_crest())
         self.map.on_click(self._on_map_click)
+        self.model_note = widgets.HTML(f"<div style='font-size:12px;max-width:900px'>{html.escape(MODEL_NOTE)}</div>")
+        kids = list(self.children)
+        kids.insert(kids.index(self.table_html) + 1, self.model_note)  # the note sits under the band table
+        self.children = kids
         self.refresh()
 
     def basins_changed(self, event, details):
@@ -123,13 +140,16 @@ class OrographicContrastWidget(BaseWidget):
     def build_controls(self):
         head = widgets.HTML("<b>Observed contrast</b>")
         model = widgets.HTML("<b>Linear orographic model</b> <small>(Smith &amp; Barstad 2004)</small>")
-        return [head, self.wind_from, self.crest_mode, self.min_height, widgets.HBox([self.draw, self.clear]),
-                self.bands, self.level, self.n_boot, model, self.wind_speed, self.temperature, self.layer]
+        wind = widgets.HBox([self.wind_from, self.wind_from_box])
+        return [head, wind, self.crest_mode, self.min_height, widgets.HBox([self.draw, self.clear]),
+                self.bands, self.level, self.n_boot, model, self.wind_speed, self.temperature, self.background, self.delay,
+                self.layer]
 
     def parameters(self):
         params = {"wind_from": float(self.wind_from.value), "band_km": parse_bands(self.bands.value),
                   "ci": float(self.level.value), "n_boot": int(self.n_boot.value),
-                  "wind_speed": float(self.wind_speed.value), "temperature_c": float(self.temperature.value)}
+                  "wind_speed": float(self.wind_speed.value), "temperature_c": float(self.temperature.value),
+                  "p_background": float(self.background.value), "tau": float(self.delay.value)}
         if self.crest_mode.value == "drawn":
             if len(self.drawn_crest) < 2:
                 raise ParameterError(f"the drawn crest has {len(self.drawn_crest)} point(s)",
@@ -199,7 +219,8 @@ class OrographicContrastWidget(BaseWidget):
         elif layer == "model":
             self.map.show_field(self.model, kind="total", label="linear model rate [mm per hour]",
                                 title=f"linear model, {self._params['wind_speed']:g} m/s, "
-                                      f"{self._params['temperature_c']:g} °C")
+                                      f"{self._params['temperature_c']:g} °C, background "
+                                      f"{self._params['p_background']:g} mm/h")
         else:
             self.map.show_field(self.elevation, kind="total", label="terrain height [m]", title="terrain")
         self.map.set_overlay(self.crest)

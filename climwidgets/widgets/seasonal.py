@@ -44,6 +44,7 @@ from ..plot.charts import series_with_trend
 from .base import MONTH_OPTIONS as _MONTH_OPTIONS
 from .base import BaseWidget
 from .drawer import HostsDrawingTools
+from .entry import year_range_entry
 from .mapframe import MapFrame
 
 __all__ = ["SeasonalShareWidget", "season_months"]
@@ -91,11 +92,9 @@ class SeasonalShareWidget(HostsDrawingTools, BaseWidget):
         self.years = widgets.IntRangeSlider(value=tuple(years) if years else (lo, hi), min=lo, max=hi,
                                             description="Years", continuous_update=False, readout=False,
                                             style={"description_width": "110px"},
-                                            layout=widgets.Layout(width="240px"))
-        # the slider's own readout is too narrow for a range of two years: a label instead
-        self.years_label = widgets.Label(f"{self.years.value[0]}–{self.years.value[1]}")
-        self.years.observe(lambda c: setattr(self.years_label, "value", f"{c['new'][0]}–{c['new'][1]}"),
-                           names="value")
+                                            layout=widgets.Layout(width="330px"))
+        # the slider's own readout is too narrow for a range of two years: typed year boxes instead
+        self.years_first, self.years_last = year_range_entry(self.years)
         self.how = widgets.RadioButtons(options=[("ratio of sums", "ratio_of_sums"),
                                                  ("mean of ratios", "mean_of_ratios")],
                                         value=how, description="Averaging", **lab)
@@ -112,7 +111,9 @@ class SeasonalShareWidget(HostsDrawingTools, BaseWidget):
     # ------------------------------------------------------------ layout and parameters
     def build_controls(self):
         return [self.first, self.last, self.season_note, self.year_start,
-                widgets.HBox([self.years, self.years_label]), self.how, self.chart_basin,
+                self.years, widgets.HBox([self.years_first, widgets.Label("to"), self.years_last],
+                                         layout=widgets.Layout(margin="0 0 2px 114px", align_items="center")),
+                self.how, self.chart_basin,
                 widgets.HTML("<hr style='margin:4px 0'>"), self.tools]
 
 

@@ -96,3 +96,42 @@ def test_lazy_until_computed():
     assert ds["point_at_site_mm"].chunks is not None
     with pytest.raises(ParameterError):
         point_design_depths(pr, [], periods=PERIODS)
+
+
+def test_regional_field_per_cell_against_lmoments3():
+    """The per-cell regional map: each cell's mean annual maximum (l1) times the basin's
+    growth curve from the pooled L-moment ratios (Hosking & Wallis 1997, sec. 6.2;
+    lmoments3 lmom_ratios and gev.lmom_fit as the outside reference); cells in no basin
+    are missing; its basin means are the regional column of point_design_depths."""
+    from climwidgets.analyses.extremes import regional_depth_field
+
+    pr, maxima = _daily()
+    west = _cells_basin("west", [0, 1, 2, 3], [0, 1])
+    field = regional_depth_field(pr, [west], periods=PERIODS, n_boot=60, n_sim=60).compute()
+    F = 1 - 1 / np.asarray(PERIODS, float)
+    cells = [(j, i) for j in range(4) for i in (0, 1)]
+    ratios = np.array([lmoments3.lmom_ratios(maxima[:, j, i], 4) for j, i in cells])
+    l1 = ratios[:, 0]
+    growth = distr.gev.ppf(F, **distr.gev.lmom_fit(lmom_ratios=[1.0, (ratios[:, 1] / l1).mean(),
+                                                                 ratios[:, 2].mean(), ratios[:, 3].mean()]))
+    for (j, i), index in zip(cells, l1):
+        np.testing.assert_allclose(field["estimate"].isel(lat=j, lon=i).values, index * growth, rtol=2e-3)
+    assert np.isnan(field["estimate"].isel(lon=[2, 3]).values).all()  # outside the basin
+    assert field["estimate"].attrs["units"] == "mm"
+    point = point_design_depths(pr, [west], periods=PERIODS, n_boot=60, n_sim=60).compute()
+    w = np.repeat(_area_weights([0, 1, 2, 3]), 2)
+    mean = np.array([w @ field["estimate"].sel(period=t).values[:, :2].ravel() / w.sum() for t in PERIODS])
+    np.testing.assert_allclose(point["point_regional_mm"].sel(basin="west").values, mean, rtol=1e-9)
+
+
+def test_warmed_point_depths_scale_depths_not_h1():
+    from climwidgets.analyses.extremes import warmed_point_depths
+
+    pr, _ = _daily()
+    west = _cells_basin("west", [0, 1, 2, 3], [0, 1])
+    ds = point_design_depths(pr, [west], periods=PERIODS, n_boot=60, n_sim=60).compute()
+    warm = warmed_point_depths(ds, 2.0, rate=0.07)
+    for name in POINT_COLUMNS:  # (1 + rate) ** delta_t, the compound Clausius-Clapeyron scaling
+        np.testing.assert_allclose(warm[name].values, ds[name].values * 1.07 ** 2, rtol=1e-12)
+        assert warm[name].attrs == ds[name].attrs
+    xr.testing.assert_identical(warm["heterogeneity_h1"], ds["heterogeneity_h1"])

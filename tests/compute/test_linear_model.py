@@ -179,3 +179,71 @@ def test_non_uniform_grid_is_refused():
         cw.linear_orographic_precip(z.assign_coords(lon=lon))
     msg = str(err.value)
     assert "lon spacing is not uniform" in msg and "regrid" in msg
+
+
+def test_zero_background_is_the_earlier_output(hill):
+    """Regression: with p_background=0 (the default) the numbers are those the model gave
+    before the background term was wired into the windward/leeward view (values recorded
+    from the code at commit 47a67d8 on this hill)."""
+    z, _, _ = hill
+    cells = ((60, 50), (60, 60), (60, 70), (40, 55), (80, 65))
+    for kwargs, total, peak, values in [
+        ({}, 1338.0384378233762, 3.3677457765967,
+         (1.5970125772168955, 3.006619355956781, 0.0, 0.25522847762176576, 0.1340889525907481)),
+        (dict(wind_speed=15.0, wind_from=240.0, temperature_c=5.0), 1468.6226935370405, 3.7137889639295043,
+         (1.2678693855505687, 3.7137889639295043, 0.21445052095462908, 0.19431347299185944, 0.0)),
+    ]:
+        p = cw.linear_orographic_precip(z, **kwargs).values
+        assert float(p.sum()) == pytest.approx(total, rel=1e-9)
+        assert float(p.max()) == pytest.approx(peak, rel=1e-9)
+        np.testing.assert_allclose([p[i, j] for i, j in cells], values, rtol=1e-9, atol=1e-12)
+        p0 = cw.linear_orographic_precip(z, p_background=0.0, **kwargs).values
+        np.testing.assert_array_equal(p0, p)
+
+
+def test_positive_background_wets_the_lee(hill):
+    """The orographic part is 0 in the lee of the hill; a background large enough to
+    outweigh the descent keeps every lee cell wet (P = max(P_oro + P∞, 0))."""
+    z, _, _ = hill
+    lee = z.lon > 0.05
+    p0 = cw.linear_orographic_precip(z)
+    assert float((p0.where(lee) == 0).sum()) > 0  # dry cells in the lee without background
+    raw_min = float(cw.linear_orographic_precip(z, p_background=100.0).min()) - 100.0  # most negative P_oro
+    assert raw_min < 0
+    p = cw.linear_orographic_precip(z, p_background=-raw_min + 0.5)
+    assert float(p.where(lee).min()) >= 0.5 - 1e-9
+    ratio = float(p.where(lee).mean()) / float(p.where(z.lon < -0.05).mean())
+    assert 0 < ratio < 1  # still a rain shadow, no longer an empty one
+
+
+def test_one_dimensional_ridge_with_one_delay_matches_the_analytic_answer():
+    """A Gaussian ridge h0·exp(-x²/a²) (uniform along y), wind along x, Nm = Hw = τf = 0:
+    the transfer function Cw·iσĥ/(1 + iσ τc) is the upslope source Cw·U·h'(x) convolved
+    with the downstream delay kernel exp(-s/L)/L, L = U·τc.  Worked by hand: with
+    E(x) = (√π a / 2L)·exp(-x²/a²)·erfcx(a/2L − x/a), the convolution of the Gaussian with
+    the kernel, P(x) = Cw·U·h0·(g(x) − E(x))/L, g = exp(-x²/a²) (dE/dx = (g − E)/L).
+    Checked before truncation (large background subtracted) and after."""
+    from scipy.special import erfcx
+
+    a, h0, u, tau = 10e3, 1000.0, 10.0, 1000.0
+    lat = np.arange(-0.1, 0.1 + 1e-9, 0.01)
+    lon = np.arange(-1.5, 1.5 + 1e-9, 0.01)  # ±167 km: the ridge and its delayed rain fit
+    x = R * np.deg2rad(lon)  # at the equator, cos(lat0) = 1
+    g = np.exp(-(x / a) ** 2)
+    z = xr.DataArray(np.repeat((h0 * g)[None, :], lat.size, axis=0), coords={"lat": lat, "lon": lon},
+                     dims=("lat", "lon"), attrs={"units": "m"})
+    bg = 1000.0  # mm/h, far above any drying, so nothing is truncated
+    p = cw.linear_orographic_precip(z, u, 270.0, 10.0, nm=0.0, hw=0.0, tau_c=tau, tau_f=0.0,
+                                    p_background=bg, pad=2.0)
+    c_w = p.attrs["Cw_kg_m-3"]
+    big_l = u * tau
+    e = np.sqrt(np.pi) * a / (2 * big_l) * g * erfcx(a / (2 * big_l) - x / a)
+    expected = c_w * u * h0 * (g - e) / big_l * 3600.0  # mm/h
+    row = p.isel(lat=10).values - bg
+    # spectral derivative at 1.1 km spacing on a 10 km ridge: better than 0.1 % of the peak
+    assert np.max(np.abs(row - expected)) < 1e-3 * np.max(np.abs(expected))
+    assert x[np.argmax(row)] > -a / np.sqrt(2) + 2e3  # downstream of the upslope peak at -a/√2
+    # the same ridge without background is truncated at zero exactly where expected < 0
+    p0 = cw.linear_orographic_precip(z, u, 270.0, 10.0, nm=0.0, hw=0.0, tau_c=tau, tau_f=0.0, pad=2.0)
+    np.testing.assert_allclose(p0.isel(lat=10).values, np.maximum(expected, 0.0),
+                               atol=1e-3 * np.max(np.abs(expected)))

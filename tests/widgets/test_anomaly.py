@@ -147,3 +147,36 @@ def test_chart_shows_one_basin_or_all_without_recomputing(setup):
     assert len(lines) == 1
     np.testing.assert_allclose(lines[0].get_ydata(), w.basin_series["west"].to_numpy(dtype=float))
     w.chart_basin.value = None
+
+
+def test_typed_step_and_buttons_move_the_map_without_recomputing(setup):
+    pr, basin, w = setup
+    w.wait()
+    gen = w._gen
+    w.step_box.value = "2010-07"
+    assert w.step.value == "2010-07" and w._gen == gen  # a redraw, no computation
+    np.testing.assert_allclose(w.map.mesh.get_array().ravel(), w.result.isel(time=114).values.ravel())
+    w.step_prev.click()
+    assert w.step.value == "2010-06" and w.step_box.value == "2010-06"
+    w.step_next.click()
+    w.step_next.click()
+    assert w.step.value == "2010-08"
+    w.step_box.value = "1890-01"  # not in the record: the slider stays, the note says why
+    assert w.step.value == "2010-08" and "2001-01 to 2012-12" in w.step_note.value
+    w.step_box.value = "2012-12"
+    assert w.step.value == "2012-12" and w.step_note.value == ""
+    assert w._gen == gen
+
+
+def test_typed_baseline_years_compute_once(setup):
+    pr, basin, w = setup
+    w.wait()
+    gen = w._gen
+    w.baseline_first.value = 2003
+    assert w.baseline.value == (2003, 2011) and w._gen == gen + 1
+    w.wait()
+    xr.testing.assert_allclose(w.result, cw.anomaly(pr, baseline=(2003, 2011), kind=w.kind.value,
+                                                    period=w.period.value))
+    w.baseline.value = BASE
+    assert (w.baseline_first.value, w.baseline_last.value) == BASE and w._gen == gen + 2
+    w.wait()

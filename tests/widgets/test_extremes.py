@@ -57,6 +57,25 @@ def test_default_levels_and_cautions(setup):
         assert html.escape(caution) in w.cautions.value
     assert w.cautions in w.children
     assert "not point" in w.areal_note.value or "point (gauge)" in w.areal_note.value
+    # the first table: design depths of the basin by duration (rows) and return period,
+    # the same numbers as cw.depth_duration_frequency of the basin (checked against
+    # lmoments3 and scipy in tests/compute/test_ddf.py)
+    assert w.table_kind.value == "ddf" and w.table_basin.value == "upper"
+    from climwidgets.compute.extremes import DAY_DURATIONS
+
+    ddf = cw.depth_duration_frequency(pr, durations=list(DAY_DURATIONS), periods=PERIODS, ci=0.9, basins=[basin],
+                                      n_boot=N_BOOT).sel(basin="upper")
+    assert list(w.table.index) == ["1 day"] + [f"{d} days" for d in DAY_DURATIONS[1:]]
+    for t in PERIODS:
+        np.testing.assert_allclose(w.table[f"{t} years"], ddf["estimate"].sel(period=t).values, rtol=1e-9)
+        np.testing.assert_allclose(w.table[f"{t} years lower 90%"], ddf["lower"].sel(period=t).values, rtol=1e-9)
+        np.testing.assert_allclose(w.table[f"{t} years upper 90%"], ddf["upper"].sel(period=t).values, rtol=1e-9)
+    one = ddf.sel(duration=3, period=100)
+    shown = f"{float(one['estimate']):.1f} ({float(one['lower']):.1f}–{float(one['upper']):.1f})"
+    assert shown in w.table_html.value and "100 years [mm]" in w.table_html.value
+    assert "e+0" not in w.table_html.value
+    # the wording is plain: no agency-style phrasing
+    assert "frequency estimate" not in (w.title + w.areal_note.value).lower()
     # map shows the 100-year estimate
     np.testing.assert_allclose(np.asarray(w.map.mesh.get_array()).reshape(3, 3),
                                expected["estimate"].sel(period=100).values)
@@ -65,6 +84,7 @@ def test_default_levels_and_cautions(setup):
 
 def test_duration_year_and_level_refit(setup):
     pr, basin, w = setup
+    w.table_kind.value = "areal"  # the areal depths of all basins at one return period
     w.duration.value = 3
     w.year.value = 10
     w.level.value = 0.95
@@ -123,5 +143,63 @@ def test_hourly_durations():
 def test_every_export_reaches_the_browser(setup):
     """Each button gives a download link whose bytes are the result (CSV read by plain pandas)."""
     w = setup[-1]
-    got = check_every_export(w)
-    assert set(got) == {b.description for b in w.exports.children}
+    import json
+
+    for kind in ("ddf", "areal"):
+        w.table_kind.value = kind
+        w.wait()
+        got = check_every_export(w)
+        assert set(got) == {b.description for b in w.exports.children}
+        # the design-depth cautions travel with the table of every kind
+        meta = next(json.loads(v) for k, v in got["Table as CSV"].items() if k.endswith("-metadata.json"))
+        assert all(c in json.dumps(meta, ensure_ascii=False) for c in cw.DESIGN_DEPTH_CAUTIONS)
+    w.table_kind.value = "ddf"
+    w.wait()
+
+
+def test_design_table_follows_the_warming_and_the_chart_draws(setup):
+    pr, basin, w = setup
+    w.table_kind.value = "ddf"
+    w.wait()
+    gen = w._gen
+    before = w.table.copy()
+    w.delta_t.value = 2.0
+    w.rate.value = 7.0
+    assert w._gen == gen  # a redraw
+    np.testing.assert_allclose(w.table.to_numpy(), before.to_numpy() * 1.07 ** 2, rtol=1e-12)
+    assert w.chart.value[:4] == b"\x89PNG"
+    w.delta_t.value = 0.0
+
+
+def test_at_site_and_regional_side_by_side(setup):
+    """The point table and the regional map are those of the analysis functions
+    (analyses.extremes.point_design_depths, regional_depth_field), themselves checked
+    against lmoments3 and the Hosking & Wallis tables in tests/analyses and tests/compute."""
+    from climwidgets.analyses.extremes import point_design_depths, regional_depth_field
+
+    pr, basin, w = setup
+    w.wait()
+    assert w.point is None and w.regional is None  # fitted only once asked for
+    w.table_kind.value = "point"
+    w.wait()
+    ci, year = w.level.value, w.year.value
+    kw = dict(periods=PERIODS, ci=ci, n_boot=N_BOOT, n_sim=500, year_start=year, duration_days=w.duration.value)
+    expected = point_design_depths(pr, [basin], **kw).compute()
+    xr.testing.assert_allclose(w.point, expected)
+    t = w.period.value
+    row = w.table.loc["upper"]
+    assert row["point depth, at-site [mm]"] == pytest.approx(
+        float(expected["point_at_site_mm"].sel(basin="upper", return_period=t)))
+    assert row["point depth, regional [mm]"] == pytest.approx(
+        float(expected["point_regional_mm"].sel(basin="upper", return_period=t)))
+    assert "heterogeneity H1" in w.table.columns and "H1 &gt;= 2" in w.areal_note.value
+    gen = w._gen
+    w.layer.value = "regional"
+    assert w._gen == gen  # already fitted with the point table: a redraw
+    field = regional_depth_field(pr, [basin], **kw)["estimate"].sel(period=t)
+    np.testing.assert_allclose(np.asarray(w.map.mesh.get_array()).reshape(3, 3), field.values)
+    w.layer.value = "estimate"
+    np.testing.assert_allclose(np.asarray(w.map.mesh.get_array()).reshape(3, 3),
+                               w.levels["estimate"].sel(period=t).values)
+    w.table_kind.value = "ddf"
+    w.wait()

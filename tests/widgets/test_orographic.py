@@ -60,7 +60,9 @@ def test_default_contrast_model_and_gradients(setup):
     xr.testing.assert_allclose(w.result, expected)
     assert w.crest == [tuple(p) for p in ridge]
     assert (w.result["ratio"] < 1).all()  # the lee is drier
-    model = cw.linear_orographic_precip(elev, wind_speed=10.0, wind_from=270.0, temperature_c=10.0)
+    # the view's model carries a 2 mm/h background and delays of 1000 s (analyses.orographic)
+    model = cw.linear_orographic_precip(elev, wind_speed=10.0, wind_from=270.0, temperature_c=10.0,
+                                        p_background=2.0, tau_c=1000.0, tau_f=1000.0)
     xr.testing.assert_allclose(w.model, model)
     model_rs = cw.rain_shadow(model, wind_from=270.0, ridge=ridge, band_km=(0, 25, 50))
     xr.testing.assert_allclose(w.model_contrast, model_rs)
@@ -99,8 +101,34 @@ def test_bands_level_and_model_controls(setup):
     expected, ridge = _observed(pr, elev, band_km=(0, 30), ci=0.8)
     xr.testing.assert_allclose(w.result, expected)
     assert list(w.table.index) == ["0-30"] and "lower 80%" in w.table.columns
-    model = cw.linear_orographic_precip(elev, wind_speed=15.0, wind_from=270.0, temperature_c=5.0)
+    model = cw.linear_orographic_precip(elev, wind_speed=15.0, wind_from=270.0, temperature_c=5.0,
+                                        p_background=2.0, tau_c=1000.0, tau_f=1000.0)
     xr.testing.assert_allclose(w.model, model)
+    w.bands.value = "0, 25, 50"
+    w.level.value = 0.9
+    w.wind_speed.value = 10.0
+    w.temperature.value = 10.0
+    w.wait()
+
+
+def test_background_and_delay_reach_the_model_and_the_note_is_shown(setup):
+    pr, elev, w = setup
+    assert "not a climatology" in w.model_note.value and w.model_note in w.children
+    assert w.children.index(w.model_note) == w.children.index(w.table_html) + 1
+    w.background.value = 10.0  # a heavy background outweighs the lee's descent
+    w.delay.value = 1500.0
+    w.wait()
+    model = cw.linear_orographic_precip(elev, wind_speed=10.0, wind_from=270.0, temperature_c=10.0,
+                                        p_background=10.0, tau_c=1500.0, tau_f=1500.0)
+    xr.testing.assert_allclose(w.model, model)
+    ratio = w.table["linear model leeward / windward"]
+    assert (ratio > 0).all() and (ratio < 1).all()  # a rain shadow, no longer an empty lee
+    w.background.value = 0.0
+    w.wait()
+    assert (w.table["linear model leeward / windward"] == 0).all()  # the orographic part alone
+    w.background.value = 2.0
+    w.delay.value = 1000.0
+    w.wait()
 
 
 def test_bad_bands_are_a_message(setup):
@@ -140,3 +168,17 @@ def test_every_export_reaches_the_browser(setup):
     w = setup[-1]
     got = check_every_export(w)
     assert set(got) == {b.description for b in w.exports.children}
+
+
+def test_typed_wind_direction_sets_the_slider_and_computes_once(setup):
+    pr, elev, w = setup
+    w.wait()
+    gen = w._gen
+    w.wind_from_box.value = 263.0  # to the degree, which a drag on the short track cannot hit
+    assert w.wind_from.value == 263.0 and w._gen == gen + 1
+    w.wait()
+    expected, _ = _observed(pr, elev, wind_from=263.0)
+    xr.testing.assert_allclose(w.result, expected)
+    w.wind_from.value = 270.0  # the slider rewrites the box, still one computation
+    assert w.wind_from_box.value == 270.0 and w._gen == gen + 2
+    w.wait()

@@ -143,3 +143,17 @@ def test_every_export_reaches_the_browser(widget):
     np.testing.assert_allclose(back.to_numpy(), expected.to_numpy(), atol=1e-4)
     meta = json.loads(per_year[name + "-metadata.json"])
     assert meta["parameters"]["months"] == list(widget.parameters()["months"])
+
+
+def test_typed_years_set_the_slider_and_compute_once(widget, pr):
+    widget.wait()
+    gen = widget._gen
+    widget.years_first.value = 2003  # typed: one change of the slider, one computation
+    assert widget.years.value == (2003, 2012) and widget._gen == gen + 1
+    _check(widget, pr, (7, 8), years=(2003, 2012))
+    widget.years.value = (2002, 2009)  # the slider rewrites both boxes without a second run
+    assert (widget.years_first.value, widget.years_last.value) == (2002, 2009) and widget._gen == gen + 2
+    widget.years_last.value = 2001  # typed before the first year: the range is swapped, not refused
+    assert widget.years.value == (2001, 2002) and widget._gen == gen + 3
+    widget.years.value = (2001, 2012)
+    _check(widget, pr, (7, 8))
