@@ -25,7 +25,7 @@ import xarray as xr
 
 from ..analyses.basins import SUMMARY_COLUMNS, WHAT_IF_COLUMNS, basin_table, summary_bundle, summary_maps, \
     what_if
-from ..analyses.meta import frame
+from ..analyses.meta import frame, unit_attrs
 from ..analyses.run import monthly_source
 from ..cache import LRUCache
 from ..compute._time import season_months
@@ -206,7 +206,7 @@ class BasinSummaryWidget(HostsDrawingTools, BaseWidget):
     def render(self, result, params):
         self.map.show_field(result["normal_map"], kind="total", vmin=0.0, title="Annual normal")
         self.show_table(self.summary_table(result))
-        self.scenario_html.value = _CSS + df_to_html(self.scenario_table(result))
+        self.scenario_html.value = _CSS + df_to_html(self.in_units(self.scenario_table(result)))
         if "normals" not in result:
             if self.chart is not None:
                 self.chart.value = b""
@@ -216,7 +216,8 @@ class BasinSummaryWidget(HostsDrawingTools, BaseWidget):
         fig = Figure(figsize=(6.0, 2.8))
         ax = fig.add_subplot(1, 1, 1)
         table = result["normals"].transpose("month", "basin").to_pandas()  # month × basin
-        monthly_normals(table, ax=ax, units="mm")
+        normals_in = unit_attrs({"units": "mm", "display_units": "mm", "display_scale": 1.0}, self.unit_system)
+        monthly_normals(table * normals_in["display_scale"], ax=ax, units=normals_in["display_units"])
         b0, b1 = params["baseline"]
         ax.set_title(f"Monthly normals {b0}–{b1}, basin means", fontsize=9)
         self.show_chart(fig)
@@ -245,4 +246,4 @@ class BasinSummaryWidget(HostsDrawingTools, BaseWidget):
         analysis["annual_normal_map"] = self.result["normal_map"]
         content = report_content(analysis, self.basins, self.pr, what=self.result["what_if"],
                                  title=self.with_member("Basin precipitation summary"))
-        write_report(content, path, overwrite=True)
+        write_report(content, path, overwrite=True, units=self.unit_system)
