@@ -555,12 +555,9 @@ def shown_in_units(table: pd.DataFrame, units: str = "SI") -> pd.DataFrame:
         old_scale, new_scale = float(attrs.get("display_scale", 1.0)), float(new.get("display_scale", 1.0))
         if new_scale != old_scale and pd.api.types.is_numeric_dtype(out[col]):
             out[col] = out[col] * (new_scale / old_scale)
-        heading = column_heading(new, str(col))
-        if heading in renamed.values() or (heading != col and heading in table.columns):
-            heading = f"{heading} ({col})"  # never two columns of one name
-        renamed[col] = heading
-        meta[heading] = {**new, "values_in": new.get("display_units", "")}
-    out = out.rename(columns=renamed)
+        renamed[col] = column_heading(new, str(col))
+        meta[renamed[col]] = {**new, "values_in": new.get("display_units", "")}
+    out = _drop_twins(out, renamed, described).rename(columns=renamed)
     out.attrs = {**{k: v for k, v in table.attrs.items() if k != "columns"}, "columns": meta}
     return out
 
@@ -621,7 +618,7 @@ def frame(ds: xr.Dataset, index=("basin",), display: bool = False, columns=None,
             heading = column_heading(attrs, name)
             renamed[name] = heading
             meta[heading] = {**attrs, "values_in": attrs.get("display_units", attrs.get("units", ""))}
-        table = table.rename(columns=renamed)
+        table = _drop_twins(table, renamed, {n: ds[n].attrs for n in names}).rename(columns=renamed)
     else:
         meta = {name: {**ds[name].attrs, "values_in": ds[name].attrs.get("units", ""), "unit_system": "SI"}
                 for name in names}
@@ -655,9 +652,20 @@ def display_frame(table: pd.DataFrame, units: str = "SI", **overrides) -> pd.Dat
             out[col] = out[col] * scale
         renamed[col] = column_heading(attrs, col)
         meta[renamed[col]] = {**attrs, "values_in": attrs.get("display_units", attrs.get("units", ""))}
-    out = out.rename(columns=renamed)
+    out = _drop_twins(out, renamed, {c: _column_attrs(table, c) or {} for c in table.columns}).rename(columns=renamed)
     out.attrs = {"columns": meta}
     return out
+
+
+def _drop_twins(table: pd.DataFrame, renamed: dict, before: dict) -> pd.DataFrame:
+    """``table`` without the converted columns whose new heading another column already
+    has (a volume in m³ shown in acre-feet beside its acre-foot twin): never two columns
+    of one name, and the twin holds the same number.  ``before`` gives each column's
+    attributes in SI, ``renamed`` its new heading."""
+    converted = {c for c in renamed if renamed[c] != column_heading(before.get(c) or {}, str(c))}
+    plain = {renamed.get(c, c) for c in table.columns if c not in converted}
+    drop = [c for c in table.columns if c in converted and renamed[c] in plain]
+    return table.drop(columns=drop) if drop else table
 
 
 def _plain_number(v) -> str:
