@@ -567,7 +567,9 @@ def field_in_units(field: xr.DataArray, units: str = "SI", label: str | None = N
 
     The numbers are not changed: :func:`climwidgets.plot.maps.as_shown` scales them when
     drawing, so the colour bar and the hover read the chosen units.  A ``label`` naming
-    the SI display units in brackets ("mean annual total [mm]") is given the new ones.
+    the SI display units in brackets ("mean annual total [mm]") is given the new ones; a
+    label naming other units in brackets leaves the field in SI (its numbers then still
+    match its words).
     """
     system = unit_system(units)
     if system == "SI" or _us_conversion(field.attrs.get("units", "")) is None:
@@ -575,6 +577,8 @@ def field_in_units(field: xr.DataArray, units: str = "SI", label: str | None = N
     new = unit_attrs(field.attrs, system)
     if label is not None:
         old_units = str(field.attrs.get("display_units") or field.attrs.get("units", ""))
+        if "[" in label and f"[{old_units}]" not in label:
+            return field, label  # a label naming other units: drawn as labelled, never mislabelled
         label = label.replace(f"[{old_units}]", f"[{new['display_units']}]")
     return field.assign_attrs(display_scale=new["display_scale"], display_units=new["display_units"],
                               display_format=new["display_format"], unit_system=system), label

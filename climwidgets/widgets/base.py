@@ -63,9 +63,10 @@ Units: a "Units" menu (SI / US customary) sits under the controls of every widge
 choice is applied where they are shown: :meth:`show_table` re-expresses the table it is
 given (:func:`climwidgets.analyses.meta.shown_in_units`), the map's ``show_field`` is given
 the field with the display attributes of the choice (colour bar and hover alike), and
-:meth:`in_units` does the same for a subclass's other tables.  Changing the menu calls
-``render`` again on the current result: nothing is recomputed.  The CSV export holds the
-numbers as shown, and its metadata names each column's units.
+:meth:`in_units` does the same for a subclass's other tables.  Changing the menu shows
+the table and the map again, then calls :meth:`units_changed` (for a subclass's other
+tables and charts): nothing is recomputed.  The CSV export holds the numbers as shown,
+and its metadata names each column's units.
 
 Ensembles: when the widget's data (``self.pr``, or what :meth:`member_source` returns)
 have a member dimension, an "Ensemble member" menu heads the controls: each member, the
@@ -284,7 +285,7 @@ class BaseWidget(widgets.VBox):
     # ------------------------------------------------------------ units shown
     def _init_units(self):
         self._table_given = None
-        self._shown_params = None
+        self._map_call = None
         self.units = None
         if self.units_choice:
             self.units = widgets.Dropdown(options=[("SI (mm, million m³, km²)", "SI"),
@@ -313,6 +314,8 @@ class BaseWidget(widgets.VBox):
         def show_field(field, *args, **kwargs):
             owner = ref()
             units = owner.unit_system if owner is not None else "SI"
+            if owner is not None:
+                owner._map_call = (field, args, dict(kwargs))  # as given (SI): redrawn on a units change
             positional = len(args) >= 4  # (kind, vmin, vmax, label, ...)
             label = args[3] if positional else kwargs.get("label")
             field, label = field_in_units(field, units, label)
@@ -324,15 +327,23 @@ class BaseWidget(widgets.VBox):
 
         self.map.show_field = show_field
 
+    def units_changed(self):
+        """Redraw what only the subclass shows (other tables, charts) in :attr:`unit_system`.
+
+        The base has already redrawn the results table and the map; nothing is recomputed.
+        """
+
     def _units_changed(self, _change=None):
-        """Show the current result again in the new units (kernel's thread; nothing recomputed)."""
-        if self.result is not None and self._shown_params is not None:
-            try:
-                self.render(self.result, self._shown_params)
-            except Exception as exc:  # noqa: BLE001 - shown beside the controls, like a render after computing
-                self._fail(self._gen, exc, traceback.format_exc(), finished=False)
-        elif self._table_given is not None:
-            self.show_table(self._table_given)
+        """Show the shown table and map again in the new units (kernel's thread; nothing recomputed)."""
+        try:
+            if self._table_given is not None:
+                self.show_table(self._table_given)
+            if self._map_call is not None:
+                field, args, kwargs = self._map_call
+                self.map.show_field(field, *args, **kwargs)
+            self.units_changed()
+        except Exception as exc:  # noqa: BLE001 - shown beside the controls, like a render problem
+            self._fail(self._gen, exc, traceback.format_exc(), finished=False)
 
     # ------------------------------------------------------------ ensemble members
     def member_source(self):
@@ -574,7 +585,6 @@ class BaseWidget(widgets.VBox):
             self._mark_stale(False)
             if self.map is not None and self.member is not None:
                 self.map.member_note = self._member_words()["label"]
-            self._shown_params = params
             self.render(result, params)
         except Exception as exc:  # noqa: BLE001 - a rendering problem is shown, not raised into the loop
             self._fail(gen, exc, traceback.format_exc(), finished=False)

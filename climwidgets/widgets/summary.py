@@ -211,6 +211,11 @@ class BasinSummaryWidget(HostsDrawingTools, BaseWidget):
             if self.chart is not None:
                 self.chart.value = b""
             return
+        self._baseline_shown = params["baseline"]
+        self._chart(result, params["baseline"])
+
+    def _chart(self, result, baseline):
+        """The monthly normals chart, in the units chosen."""
         from matplotlib.figure import Figure
 
         fig = Figure(figsize=(6.0, 2.8))
@@ -218,9 +223,16 @@ class BasinSummaryWidget(HostsDrawingTools, BaseWidget):
         table = result["normals"].transpose("month", "basin").to_pandas()  # month × basin
         normals_in = unit_attrs({"units": "mm", "display_units": "mm", "display_scale": 1.0}, self.unit_system)
         monthly_normals(table * normals_in["display_scale"], ax=ax, units=normals_in["display_units"])
-        b0, b1 = params["baseline"]
+        b0, b1 = baseline
         ax.set_title(f"Monthly normals {b0}–{b1}, basin means", fontsize=9)
         self.show_chart(fig)
+
+    def units_changed(self):
+        """The what-if table and the chart in the units chosen (the base redraws table and map)."""
+        if self.result is not None:
+            self.scenario_html.value = _CSS + df_to_html(self.in_units(self.scenario_table(self.result)))
+            if "normals" in self.result:
+                self._chart(self.result, self._baseline_shown)
 
     # ------------------------------------------------------------ exports
     def _need_result(self):

@@ -157,3 +157,10 @@ def test_csv_metadata_names_the_units(ds, tmp_path):
     # a table as shown (the widgets' CSV) names its display units
     shown = to_csv(frame(ds, display=True, units="US"), tmp_path / "shown.csv")
     assert read_metadata(shown)["units"]["mean annual total [in]"] == "in"
+
+
+def test_a_map_label_naming_other_units_keeps_the_field_in_si():
+    field = xr.DataArray(np.ones((2, 2)), dims=("lat", "lon"), coords={"lat": [0, 1], "lon": [0, 1]},
+                         attrs={"units": "mm"})
+    same, label = field_in_units(field, "US", "model rate [mm per hour]")
+    assert same is field and label == "model rate [mm per hour]"
