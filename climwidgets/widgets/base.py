@@ -326,6 +326,8 @@ class BaseWidget(widgets.VBox):
             return original(field, *args, **kwargs)
 
         self.map.show_field = show_field
+        if getattr(self.map, "field", None) is not None:  # drawn before the widget was built
+            self._map_call = (self.map.field, (), {"kind": getattr(self.map.mesh, "climwidgets_kind", None)})
 
     def units_changed(self):
         """Redraw what only the subclass shows (other tables, charts) in :attr:`unit_system`.
