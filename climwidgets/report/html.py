@@ -21,7 +21,7 @@ from pathlib import Path
 import pandas as pd
 
 from .._version import __version__
-from ..analyses.meta import CATALOGUE, UNIT_SYSTEMS, field_in_units, format_cell, unit_attrs, unit_system
+from ..analyses.meta import CATALOGUE, UNIT_SYSTEMS, field_in_units, format_cell, to_units, unit_attrs, unit_system
 from ..compute._time import MONTH_NAMES
 from ..errors import ParameterError
 from ..atomic import atomic_write, check_target
@@ -182,7 +182,7 @@ def render_html(content: ReportContent, figures: bool = True, units: str = "SI")
     params = list(content.parameters.items()) + [("units shown", UNIT_SYSTEMS[system])]
     parts.append(_section("parameters", "Parameters", _kv_table(params)))
     parts.append(_section("basins", "Basin summary",
-                          "<div id='basin-table'>" + _table_html(content.table, units=system) + "</div>"
+                          "<div id='basin-table'>" + _table_html(to_units(content.table, system), units=system) + "</div>"
                           + "".join(f"<p>{_e(str(n)[:1].upper() + str(n)[1:])}</p>" for n in content.notes)))
     if figures and content.maps:
         body = []
@@ -211,7 +211,7 @@ def render_html(content: ReportContent, figures: bool = True, units: str = "SI")
         parts.append(_section("share", "Seasonal share over time",
                               _figure(F.png_data_uri(fig), text, alt="seasonal share by year") + extra))
     if content.what_if is not None:
-        body = _table_html(content.what_if, units=system)
+        body = _table_html(to_units(content.what_if, system), units=system)
         if content.what_if_note:
             body = f"<p>{_e(content.what_if_note)}</p>" + body
         parts.append(_section("what-if", content.what_if_title, body))

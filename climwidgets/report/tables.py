@@ -141,7 +141,7 @@ def column_units(table: pd.DataFrame, described=None) -> tuple[dict, str]:
         if attrs is None:
             continue
         value = attrs.get("values_in", attrs.get("units", ""))
-        units[str(col)] = "" if value in (None, "1") else str(value)
+        units[str(col)] = "" if value is None else str(value)  # CF units: "1" is a fraction or count
         if attrs.get("unit_system"):
             systems.add(attrs["unit_system"])
     system = "US" if "US" in systems else "SI"

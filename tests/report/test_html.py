@@ -193,6 +193,7 @@ def test_report_in_us_customary_units(report, tmp_path):
     assert f"{acre_ft:,.0f}" in text and "acre-ft" in text
     assert "(in)" in text and "(mi²)" in text and "(mm)" not in text.split('id="cautions"')[0]
     assert "US customary" in text  # the parameters say which units are shown
+    assert text.count("Volume per year <span class='unit'>(acre-ft)</span>") == 1  # not beside its m³ twin
     assert "million m³" in si_text and "million m³" not in text
     body = re.sub(r"<style>.*?</style>|<pre>.*?</pre>|class='mono'>[^<]*", "", text, flags=re.S)
     cells = re.findall(r"<td class='num'>([^<]*)</td>", body)
