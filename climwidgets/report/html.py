@@ -168,7 +168,8 @@ def render_html(content: ReportContent, figures: bool = True, units: str = "SI")
     from . import _figures as F
 
     system = unit_system(units, "render_html")
-    depth = unit_attrs({"units": "mm", "display_units": "mm", "display_scale": 1.0}, system)  # monthly normals
+    depth = unit_attrs({"units": "mm", "display_units": "mm", "display_scale": 1.0, "display_format": ",.1f"},
+                       system)  # the monthly normals: mm to one decimal, inches to two
     parts = []
     stamp = content.created.strftime("%Y-%m-%d %H:%M UTC")
     parts.append(
@@ -198,10 +199,12 @@ def render_html(content: ReportContent, figures: bool = True, units: str = "SI")
         table = normals.T.copy()  # one row per basin, one column per month
         table.columns = [MONTH_NAMES[int(m) - 1] for m in table.columns]
         table.index.name = f"basin ({depth['display_units']})"
+        table.attrs = {"columns": {m: {"label": m, "units": "", "display_units": "", "display_scale": 1.0,
+                                       "display_format": depth["display_format"]} for m in table.columns}}
         parts.append(_section("normals", "Monthly normals",
                               _figure(F.png_data_uri(fig), "Area-weighted monthly normal precipitation of each basin "
                                       f"({depth['display_units']}).", alt="monthly normals chart")
-                              + _table_html(table, label_columns=False, max_wide=None)))
+                              + _table_html(table, max_wide=None)))
     if figures and content.share_by_year is not None and not content.share_by_year.empty:
         season = str(content.parameters.get("season (months)", "")).split(" (")[0]
         fig = F.share_figure(content.share_by_year, content.share_trends, season=season)

@@ -200,7 +200,7 @@ def test_report_in_us_customary_units(report, tmp_path):
     assert cells and not [c for c in cells if re.search(r"\de[+-]?\d", c)], cells
     # the monthly normals in inches: 150 mm in July = 5.906 in
     figures = render_html(content, figures=True, units="US")
-    assert "basin (in)" in figures and f"{150 / 25.4:.4g}" in figures
+    assert "basin (in)" in figures and f"{150 / 25.4:.2f}" in figures
 
 
 def test_write_report_refuses_an_unknown_unit_system(report, tmp_path):
