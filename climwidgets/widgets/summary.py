@@ -1,7 +1,8 @@
 """Basin summary: the planner's page.
 
 * the basin table of :func:`cw.basin_table` (area, annual mean, seasonal share, normal,
-  volumes in m³ and acre-feet, latest year as percent of normal);
+  volumes in million m³ and acre-feet, latest year as percent of normal; a Units menu shows
+  inches, acre-feet and square miles instead);
 * a chart of the monthly normals of each basin (the same analysis);
 * a what-if calculator (:func:`cw.what_if`): "if the season's precipitation changed by
   this many percent, how much water would that be per year?", in m³ and acre-feet;
