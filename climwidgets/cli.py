@@ -103,7 +103,8 @@ def _cmd_summary(args):
     result = run_summary(args.data, args.basins, months=_months(args.months), baseline=_years(args.baseline),
                          out_dir=args.out, overwrite=args.overwrite, progress=_progress(args), var=args.var,
                          year_start=args.year_start, title=args.title, what_if_percent=args.what_if,
-                         what_if_months=_months(args.what_if_months) if args.what_if_months else None)
+                         what_if_months=_months(args.what_if_months) if args.what_if_months else None,
+                         units=args.units)
     _print_result(result)
     return EXIT_OK
 
@@ -115,7 +116,7 @@ def _cmd_extremes(args):
     result = run_extremes(args.data, args.basins, duration_days=args.duration, periods=periods, ci=args.ci,
                           n_boot=args.n_boot, out_dir=args.out, overwrite=args.overwrite,
                           progress=_progress(args), var=args.var, year_start=args.year_start,
-                          duration_hours=args.hours, seed=args.seed)
+                          duration_hours=args.hours, seed=args.seed, units=args.units)
     _print_result(result, "Cautions for these design-storm depths:")
     return EXIT_OK
 
@@ -291,6 +292,8 @@ def build_parser() -> argparse.ArgumentParser:
     s.add_argument("--what-if", type=float, default=None, metavar="PERCENT",
                    help="add the seasonal what-if to the report: the season's precipitation changed by PERCENT")
     s.add_argument("--what-if-months", default=None, help="the what-if's season (default: --months)")
+    s.add_argument("--units", default="si", type=str.lower, choices=("si", "us"),
+                   help="units of the CSV and report: si (mm, million m³, km²; default) or us (in, acre-ft, mi²)")
     out_args(s)
     s.set_defaults(func=_cmd_summary)
 
@@ -308,6 +311,8 @@ def build_parser() -> argparse.ArgumentParser:
     e.add_argument("--n-boot", type=int, default=1000, help="bootstrap samples (default: 1000)")
     e.add_argument("--seed", type=int, default=0, help="random seed of the bootstrap (default: 0)")
     e.add_argument("--year-start", type=int, default=1, help="first month of the year (10 = water year)")
+    e.add_argument("--units", default="si", type=str.lower, choices=("si", "us"),
+                   help="units of the basin depths in the CSV: si (mm; default) or us (in)")
     out_args(e)
     e.set_defaults(func=_cmd_extremes)
 

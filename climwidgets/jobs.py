@@ -163,7 +163,7 @@ def _sources(pr) -> list[str]:
 def run_summary(data, basins, months=(7, 8), baseline=(1991, 2020), out_dir="out", overwrite: bool = False,
                 progress: Progress = None, *, var=None, year_start: int = 1, title: str | None = None,
                 prefix: str = "", figures: bool = True, what_if_percent: float | None = None,
-                what_if_months=None) -> JobResult:
+                what_if_months=None, units: str = "SI") -> JobResult:
     """Basin summary table (CSV), seasonal-share and normals maps (NetCDF) and HTML report.
 
     Parameters
@@ -185,6 +185,10 @@ def run_summary(data, basins, months=(7, 8), baseline=(1991, 2020), out_dir="out
     what_if_percent, what_if_months
         With a percentage, the report also holds the seasonal what-if (:func:`cw.what_if`):
         the season ``what_if_months`` (default ``months``) changed by that percentage.
+    units
+        "SI" (default; the CSV holds the stored numbers: mm, m³, km²) or "US": the CSV holds
+        inches, acre-feet and square miles (its metadata names each column's units) and the
+        report shows them.
 
     The report is :func:`report.content.report_content`, the one function behind the
     page's and the notebook's report too.  The data are read once: :func:`cw.basin_table` (built on :func:`cw.climatology_bundle`)
@@ -200,7 +204,10 @@ def run_summary(data, basins, months=(7, 8), baseline=(1991, 2020), out_dir="out
     from .report.netcdf import to_netcdf
     from .report.tables import to_csv
 
+    from .analyses.meta import to_units, unit_system
+
     job = "summary"
+    units = unit_system(units, job)
     months = _check_months(months, job)
     baseline = _check_baseline(baseline, job)
     year_start = check_year_start(year_start, job)
@@ -224,7 +231,7 @@ def run_summary(data, basins, months=(7, 8), baseline=(1991, 2020), out_dir="out
     say("basin table and report")
     content = report_content(analysis, basin_list, pr, what=what, sources=sources,
                              title=title or "Basin precipitation summary")
-    table = content.table
+    table = to_units(content.table, units)
 
     notes = [f"data: {pr.attrs.get('conversion', '')}".strip(), analysis.attrs["area"]]
     maps.attrs = {"months": list(months), "baseline": list(baseline), "year_start": year_start,
@@ -233,14 +240,15 @@ def run_summary(data, basins, months=(7, 8), baseline=(1991, 2020), out_dir="out
         to_csv(table, staged["csv"], provenance={"inputs": sources, "notes": notes, "title": "basin summary"})
         to_netcdf(maps, staged["netcdf"], title="Seasonal share and monthly normals")
         say("writing the report")
-        write_report(content, staged["report"], figures=figures)
+        write_report(content, staged["report"], figures=figures, units=units)
     return JobResult(paths=paths, table=table, cautions=tuple(content.cautions or ()))
 
 
 # ------------------------------------------------------------------ extremes
 def run_extremes(data, basins=None, duration_days=1, periods=(2, 10, 25, 50, 100), ci=0.9, n_boot=1000,
                  out_dir="out", overwrite: bool = False, progress: Progress = None, *, var=None,
-                 year_start: int = 1, duration_hours=None, seed=0, prefix: str = "") -> JobResult:
+                 year_start: int = 1, duration_hours=None, seed=0, prefix: str = "",
+                 units: str = "SI") -> JobResult:
     """Return-level maps (NetCDF) and a basin table with intervals (CSV).
 
     ``return_levels.nc`` holds :func:`cw.return_levels` of the per-cell annual maxima
@@ -249,7 +257,8 @@ def run_extremes(data, basins=None, duration_days=1, periods=(2, 10, 25, 50, 100
     ``basin_return_levels.csv`` has one row per basin and return period: the areal depth
     (return level of the basin-mean annual maxima) with its interval, and the basin mean
     of the cells' own return levels.  The cautions (:data:`cw.DESIGN_DEPTH_CAUTIONS`) are
-    in both files and in the result.
+    in both files and in the result.  ``units="US"`` writes the basin depths in inches
+    (the metadata names each column's units); the NetCDF keeps mm.
     """
     from .analyses.basins import basin_series
     import numpy as np
@@ -262,7 +271,10 @@ def run_extremes(data, basins=None, duration_days=1, periods=(2, 10, 25, 50, 100
     from .report.netcdf import to_netcdf
     from .report.tables import to_csv
 
+    from .analyses.meta import to_units, unit_system
+
     job = "extremes"
+    units = unit_system(units, job)
     periods = tuple(int(p) if float(p).is_integer() else float(p) for p in _check_periods(periods).tolist())
     if not (isinstance(ci, (int, float)) and not isinstance(ci, bool) and 0 < ci < 1):
         raise ParameterError(f"ci={ci!r} is not a confidence level", source=job, variable="ci",
@@ -299,6 +311,8 @@ def run_extremes(data, basins=None, duration_days=1, periods=(2, 10, 25, 50, 100
                 description="area-weighted basin mean of the cells' own return levels")
             (depths,) = compute(depths)
             table = depth_table(depths)[["areal_estimate_mm", "areal_lower_mm", "areal_upper_mm"]]
+            described = dict(table.attrs.get("columns") or {})
+            described["cell_mean_estimate_mm"] = dict(depths["cell_mean_estimate_mm"].attrs)
             table["cell_mean_estimate_mm"] = depths["cell_mean_estimate_mm"].to_series()
             table = table.reset_index("return_period").rename(columns={"return_period": "return_period_years"})
             table["n_years"] = depths["n_years"].to_series().reindex(table.index).astype(int)
@@ -306,7 +320,8 @@ def run_extremes(data, basins=None, duration_days=1, periods=(2, 10, 25, 50, 100
                            "cell_mean_estimate_mm", "n_years"]]
             table.attrs = {"duration": dur, "ci": float(ci), "n_boot": int(n_boot),
                            "seed": seed, "year_start": year_start, "periods": list(periods),
-                           "interval": levels.attrs.get("interval_method", "")}
+                           "interval": levels.attrs.get("interval_method", ""), "columns": described}
+            table = to_units(table, units)
             to_csv(table, staged["csv"],
                    provenance={"inputs": sources, "notes": [AREAL_NOTE], "cautions": DESIGN_DEPTH_CAUTIONS,
                                "title": "basin return levels"})

@@ -315,3 +315,46 @@ def test_os_errors_are_one_sentence_with_a_fix(capsys, monkeypatch, tmp_path):
     assert code == 2 and "[Errno" not in line
     assert line == f"climwidgets summary: {tmp_path / 'pr.nc'}: Permission denied. Fix: check the permissions " \
                    "of the file or folder, or use another one."
+
+
+# ------------------------------------------------------------------ units
+def test_summary_and_extremes_in_us_customary_units(capsys, demo_files, summary_run, tmp_path):
+    """--units us: the CSVs hold inches, acre-feet and square miles (1 in = 25.4 mm, 1 acre-ft =
+    1233.48183754752 m³, 1 mi² = 2.589988110336 km²; international yard and pound agreement
+    1959, NIST SP 811; from memory), their metadata names the units, the report shows them."""
+    from climwidgets.report.tables import read_metadata
+
+    code, out, err = run(capsys, "summary", "--data", demo_files["daily"], "--basins", demo_files["basins"],
+                         "--months", "7,8", "--baseline", "1991-2020", "--units", "us", "--out", tmp_path / "s",
+                         "--quiet")
+    assert code == 0, err
+    csv_path, _, report = [Path(p) for p in out.splitlines()]
+    us = read_csv(csv_path, index_col=0)
+    si = read_csv(Path(summary_run[1].splitlines()[0]), index_col=0).loc[us.index]
+    np.testing.assert_allclose(us["annual_mean_in"], si["annual_mean_mm"] / 25.4, rtol=1e-12)
+    np.testing.assert_allclose(us["area_mi2"], si["area_km2"] / 2.589988110336, rtol=1e-12)
+    np.testing.assert_allclose(us["volume_per_year_acre_ft"], si["volume_per_year_m3"] / 1233.48183754752,
+                               rtol=1e-12)
+    assert "volume_per_year_m3" not in us.columns and "annual_mean_mm" not in us.columns
+    meta = read_metadata(csv_path)
+    assert meta["units"]["annual_mean_in"] == "in" and meta["units"]["volume_per_year_acre_ft"] == "acre-ft"
+    assert meta["unit_system"].startswith("US customary")
+    html = report.read_text()
+    assert "acre-ft" in html and "(in)" in html and "US customary" in html
+
+    code, out, err = run(capsys, "extremes", "--data", demo_files["daily"], "--basins", demo_files["basins"],
+                         "--periods", "2,10", "--n-boot", "60", "--units", "US", "--out", tmp_path / "e", "--quiet")
+    assert code == 0, err
+    csv_path = Path(out.splitlines()[1])
+    table = read_csv(csv_path, index_col=0)
+    pr = cw.open_precip(demo_files["daily"])
+    b = cw.Basin.from_geojson(demo_files["basins"])[0]
+    areal = cw.return_levels(cw.annual_maxima(cw.basin_mean(pr, b).compute()), periods=(2, 10), n_boot=60)
+    np.testing.assert_allclose(table.loc[b.name, "areal_estimate_in"].values, areal["estimate"].values / 25.4,
+                               rtol=1e-9)
+    units = read_metadata(csv_path)["units"]
+    assert units["areal_estimate_in"] == "in" and units["cell_mean_estimate_in"] == "in"
+
+    code, _, err = run(capsys, "summary", "--data", demo_files["daily"], "--basins", demo_files["basins"],
+                       "--units", "imperial", "--out", tmp_path / "x")
+    assert code == 2 and "si" in err and "us" in err

@@ -14,19 +14,63 @@ Attributes set on a described variable (all strings unless noted):
 ``display_scale``   float: shown value = stored value × scale (a fraction 0.3 shows as 30 %)
 ``display_format``  a format spec for the shown value (",.0f", ".1f", ".3g")
 ``description``     one sentence saying what the number is and how it was made
+``values_in``       (tables only, in ``table.attrs["columns"]``) the units of the numbers
+                    as they stand in that table, so a CSV's metadata can name them
+``unit_system``     (tables and shown fields) "SI" or "US" when a unit system was applied
+
+Unit systems
+------------
+Everything is computed and stored in SI units (mm, m³, km²).  A user may choose to see
+numbers in US customary units instead; the choice is applied at display time from the
+stored units, here and nowhere else (:data:`UNIT_SYSTEMS`, :func:`unit_attrs`):
+
+======================  =====================================  ==========================
+stored units            SI shown as                            US customary shown as
+======================  =====================================  ==========================
+``mm`` (and ``mm/yr``,  mm (the catalogue's format)            in, one decimal more than
+``mm d-1`` ...)                                                the mm format (1 in = 25.4 mm)
+``m3``                  million m³, two decimals               acre-ft, whole numbers with
+                                                               thousands separators
+``km2``                 km²                                    mi² (1 mi² = 2.589988110336 km²)
+``%``, ``1``, counts    unchanged                              unchanged
+======================  =====================================  ==========================
+
+The factors are exact by definition: the inch is 25.4 mm and the foot 0.3048 m (the
+international yard and pound agreement of 1959; NIST SP 811, Appendix B), so the acre-foot
+is 43 560 ft³ = 1 233.481 837 547 52 m³ (:data:`climwidgets.geo.aggregate.ACRE_FOOT_M3`)
+and the statute mile 1 609.344 m.
+
+* Tables for people: ``frame(ds, display=True, units="US")``,
+  ``display_frame(table, units="US")``, ``people_frame(table, units="US")``; a table already
+  shown in SI is re-expressed by :func:`shown_in_units` (the widgets' units menu).
+* Tables for files: ``frame(ds, units="US")`` and :func:`to_units` give the numbers
+  converted (not display-scaled) under names whose unit suffix says so
+  (``annual_mean_mm`` becomes ``annual_mean_in``, ``area_km2`` ``area_mi2``; a volume in m³
+  whose acre-foot twin is in the table is left out, the twin holds it).  In SI the files
+  keep the stored numbers.  Either way ``values_in`` names each column's units, and the CSV
+  metadata (:func:`climwidgets.report.tables.metadata`) lists them.
+* Maps: :func:`field_in_units` sets ``display_scale`` / ``display_units`` on a field, which
+  :func:`climwidgets.plot.maps.as_shown` then draws, colour bar and hover alike.
 """
 
 from __future__ import annotations
 
+import re
 from dataclasses import dataclass
 
 import numpy as np
 import pandas as pd
 import xarray as xr
 
+from ..compute.depth_units import MM_PER_INCH
+from ..errors import ParameterError
+from ..geo.aggregate import ACRE_FOOT_M3
+
 __all__ = ["Meta", "CATALOGUE", "INDEX_CATALOGUE", "ENSEMBLE_STATS", "MEMBER_VIEWS", "ensemble_attrs",
            "member_view_attrs", "member_view_words", "index_meta", "describe",
-           "frame", "display_frame", "column_heading", "format_cell", "table_variables"]
+           "frame", "display_frame", "people_frame", "column_heading", "format_cell", "table_variables",
+           "UNIT_SYSTEMS", "KM2_PER_MI2", "unit_system", "unit_attrs", "to_units", "shown_in_units",
+           "field_in_units"]
 
 
 @dataclass(frozen=True)
@@ -62,7 +106,7 @@ CATALOGUE: dict[str, Meta] = {
     "normal_annual_mm": Meta("annual normal", "mm", "sum of the basin's 12 monthly normals over the baseline",
                              "mm", 1.0, ",.0f"),
     "volume_per_year_m3": Meta("volume per year", "m3", "annual mean depth times the basin area",
-                               "m³", 1.0, ",.0f"),
+                               "million m³", 1e-6, ",.2f"),
     "volume_per_year_acre_ft": Meta("volume per year", "acre-ft", "annual mean depth times the basin area, "
                                     "in acre-feet (international foot)", "acre-ft", 1.0, ",.0f"),
     "latest_year": Meta("latest year", "1", "the last complete year of the record", "", 1.0, ".0f"),
@@ -82,9 +126,9 @@ CATALOGUE: dict[str, Meta] = {
     "percent": Meta("change", "%", "change applied to the season's precipitation", "%", 1.0, ".1f"),
     "n_seasons": Meta("seasons used", "1", "complete seasons behind the mean", "", 1.0, ".0f"),
     "seasonal_volume_per_year_m3": Meta("season's volume per year", "m3", "mean seasonal depth times the basin "
-                                        "area", "m³", 1.0, ",.0f"),
+                                        "area", "million m³", 1e-6, ",.2f"),
     "delta_volume_per_year_m3": Meta("change in volume per year", "m3", "the season's volume times the change",
-                                     "m³", 1.0, ",.0f"),
+                                     "million m³", 1e-6, ",.2f"),
     "delta_volume_per_year_acre_ft": Meta("change in volume per year", "acre-ft", "the change in acre-feet",
                                           "acre-ft", 1.0, ",.0f"),
     # areal design depths
@@ -315,14 +359,243 @@ def table_variables(ds: xr.Dataset, index) -> list[str]:
     return [k for k, v in ds.data_vars.items() if set(v.dims) == set(index) and "label" in v.attrs]
 
 
-def frame(ds: xr.Dataset, index=("basin",), display: bool = False, columns=None) -> pd.DataFrame:
+# ------------------------------------------------------------------ unit systems
+#: The unit systems a user can choose, with the words menus and reports show.
+UNIT_SYSTEMS: dict[str, str] = {"SI": "SI (mm, million m³, km²)", "US": "US customary (in, acre-ft, mi²)"}
+
+#: Square kilometres in one square statute mile: (1.609344 km)² (international mile, 1959).
+KM2_PER_MI2 = 1.609344 ** 2
+
+_SYSTEM_WORDS = {"si": "SI", "metric": "SI", "us": "US", "us customary": "US", "customary": "US"}
+
+
+def unit_system(units, source: str = "units") -> str:
+    """``"SI"`` or ``"US"`` for a unit-system choice ("SI", "si", "US", "us", "US customary").
+
+    Raises
+    ------
+    ParameterError
+        For anything else, saying what is offered.
+    """
+    key = str(units).strip().lower() if isinstance(units, str) else None
+    if key not in _SYSTEM_WORDS:
+        raise ParameterError(f"units={units!r} is not a unit system offered here", source=source,
+                             variable="units", expected="'SI' (mm, million m³, km²) or 'US' (in, acre-ft, mi²)",
+                             fix="pass units='SI' (default) or units='US'")
+    return _SYSTEM_WORDS[key]
+
+
+def _one_more_decimal(spec: str) -> str:
+    """A fixed-point format with one decimal more (",.0f" -> ",.1f"); others unchanged."""
+    m = re.fullmatch(r"([^.]*)\.(\d+)f", spec or "")
+    return f"{m.group(1)}.{int(m.group(2)) + 1}f" if m else spec
+
+
+def _us_conversion(units: str):
+    """(factor from the stored number, CF units, words replacing the SI display units or
+    None to keep them with 'mm' made 'in', format rule) for stored SI ``units``; None if
+    the units stay."""
+    u = str(units or "").strip()
+    if u == "m3":
+        return 1.0 / ACRE_FOOT_M3, "acre-ft", "acre-ft", lambda spec: ",.0f"
+    if u == "km2":
+        return 1.0 / KM2_PER_MI2, "mi2", "mi²", lambda spec: spec
+    if u == "mm" or (u.startswith("mm") and not u[2:3].isalpha()):  # mm, mm/yr, mm d-1, mm/h
+        return 1.0 / MM_PER_INCH, "in" + u[2:], None, _one_more_decimal
+    return None
+
+
+def unit_attrs(attrs: dict, units: str = "SI") -> dict:
+    """The display attributes of a described number in the unit system ``units``.
+
+    Parameters
+    ----------
+    attrs : dict
+        The variable's attributes (``units`` of the stored SI number, ``display_units``,
+        ``display_scale``, ``display_format``, ``label``).
+    units : {"SI", "US"}
+        The unit system (see :func:`unit_system`).
+
+    Returns
+    -------
+    dict
+        A copy: in SI the same attributes; in US, for a depth, volume or area, the
+        ``display_units``, ``display_scale`` (still from the stored SI number) and
+        ``display_format`` of the US customary unit, and ``unit_system = "US"``.
+        Percentages, fractions and counts are unchanged.
+
+    References
+    ----------
+    NIST (2008). Guide for the Use of the International System of Units (SI), Special
+    Publication 811, Appendix B (inch, foot, mile, acre-foot).
+
+    Examples
+    --------
+    >>> a = unit_attrs({"units": "mm", "display_units": "mm", "display_scale": 1.0,
+    ...                 "display_format": ",.0f"}, "US")
+    >>> a["display_units"], round(a["display_scale"] * 25.4, 12), a["display_format"]
+    ('in', 1.0, ',.1f')
+    """
+    system = unit_system(units)
+    out = dict(attrs)
+    out["unit_system"] = system
+    conv = _us_conversion(attrs.get("units", "")) if system == "US" else None
+    if conv is None:
+        return out
+    factor, _cf, words, rule = conv
+    si_units = str(attrs.get("display_units") or attrs.get("units", ""))
+    scale = float(attrs.get("display_scale", 1.0))
+    if attrs.get("units") == "m3":  # million m³ is an SI display choice: acre-feet are shown whole
+        out["display_scale"] = factor
+    else:
+        out["display_scale"] = scale * factor
+    if words is not None:
+        out["display_units"] = words
+    else:  # "mm" -> "in", "mm per year" -> "in per year", "mm per decade" -> "in per decade"
+        out["display_units"] = re.sub(r"^mm(?![a-zA-Z])", "in", si_units) if si_units.startswith("mm") \
+            else "in" + str(attrs.get("units", ""))[2:]
+    out["display_format"] = rule(str(attrs.get("display_format") or ".4g"))
+    return out
+
+
+_US_SUFFIXES = (("_m3", "_acre_ft"), ("_km2", "_mi2"), ("_mm_per_year", "_in_per_year"), ("_mm", "_in"))
+
+
+def _us_name(name: str) -> str:
+    for si, us in _US_SUFFIXES:
+        if name.endswith(si):
+            return name[: -len(si)] + us
+    return name
+
+
+def _column_attrs(table: pd.DataFrame, col) -> dict | None:
+    described = table.attrs.get("columns") or {}
+    attrs = described.get(col) if isinstance(described.get(col), dict) else None
+    if attrs is None and col in CATALOGUE:
+        attrs = CATALOGUE[col].attrs()
+    return attrs
+
+
+def to_units(table: pd.DataFrame, units: str = "SI") -> pd.DataFrame:
+    """A stored table (variable names as columns, SI numbers) in the unit system ``units``.
+
+    What a CSV holds: in SI the stored numbers unchanged; in US depths in inches, volumes
+    in acre-feet and areas in square miles (converted, not display-scaled), under names
+    whose unit suffix says so (``annual_mean_mm`` -> ``annual_mean_in``).  A column whose
+    new name is already a column (a volume in m³ beside its acre-foot twin) is left out.
+    ``attrs["columns"]`` of the result gives each column's attributes, ``values_in``
+    naming the units of its numbers.
+
+    Parameters
+    ----------
+    table : pandas.DataFrame
+        From :func:`frame` (``display=False``) or with columns the catalogue knows.
+    units : {"SI", "US"}
+
+    Returns
+    -------
+    pandas.DataFrame
+        A new table; the input is not changed.
+
+    Examples
+    --------
+    >>> t = pd.DataFrame({"annual_mean_mm": [254.0], "n_years": [30]})
+    >>> to_units(t, "US").round(6).to_dict("list")
+    {'annual_mean_in': [10.0], 'n_years': [30]}
+    """
+    system = unit_system(units)
+    out = table.copy()
+    meta, renamed, drop = {}, {}, []
+    for col in table.columns:
+        attrs = _column_attrs(table, col)
+        if attrs is None:
+            continue
+        attrs = dict(attrs)
+        conv = _us_conversion(attrs.get("units", "")) if system == "US" else None
+        if conv is None:
+            meta[col] = {**attrs, "values_in": attrs.get("values_in", attrs.get("units", "")),
+                         "unit_system": system}
+            continue
+        factor, cf, _, _ = conv
+        shown = unit_attrs(attrs, "US")
+        name = _us_name(str(col))
+        if name != col and name in table.columns:
+            drop.append(col)
+            continue
+        out[col] = out[col] * factor
+        renamed[col] = name
+        meta[name] = {**shown, "units": cf, "values_in": cf, "display_scale": shown["display_scale"] / factor}
+    out = out.drop(columns=drop).rename(columns=renamed)
+    out.attrs = {**{k: v for k, v in table.attrs.items() if k != "columns"}, "columns": meta}
+    return out
+
+
+def shown_in_units(table: pd.DataFrame, units: str = "SI") -> pd.DataFrame:
+    """A table as shown (from :func:`frame` with ``display=True`` or :func:`display_frame`,
+    in SI) re-expressed in the unit system ``units``: numbers, headings and formats.
+
+    The widgets keep the table their analysis gave and show it through this, so the units
+    menu redraws without computing anything.  Columns without attributes are kept as
+    they are.
+    """
+    system = unit_system(units)
+    described = table.attrs.get("columns") or {}
+    if system == "SI" or not described:
+        return table
+    out = table.copy()
+    meta, renamed = {}, {}
+    for col in table.columns:
+        attrs = described.get(col)
+        if not isinstance(attrs, dict):
+            continue
+        if attrs.get("unit_system") == system:
+            meta[col] = attrs
+            continue
+        new = unit_attrs(attrs, system)
+        old_scale, new_scale = float(attrs.get("display_scale", 1.0)), float(new.get("display_scale", 1.0))
+        if new_scale != old_scale and pd.api.types.is_numeric_dtype(out[col]):
+            out[col] = out[col] * (new_scale / old_scale)
+        renamed[col] = column_heading(new, str(col))
+        meta[renamed[col]] = {**new, "values_in": new.get("display_units", "")}
+    out = _drop_twins(out, renamed, described).rename(columns=renamed)
+    out.attrs = {**{k: v for k, v in table.attrs.items() if k != "columns"}, "columns": meta}
+    return out
+
+
+def field_in_units(field: xr.DataArray, units: str = "SI", label: str | None = None):
+    """``field`` with the display attributes of the unit system (``(field, label)``).
+
+    The numbers are not changed: :func:`climwidgets.plot.maps.as_shown` scales them when
+    drawing, so the colour bar and the hover read the chosen units.  A ``label`` naming
+    the SI display units in brackets ("mean annual total [mm]") is given the new ones; a
+    label naming other units in brackets leaves the field in SI (its numbers then still
+    match its words).
+    """
+    system = unit_system(units)
+    if system == "SI" or _us_conversion(field.attrs.get("units", "")) is None:
+        return field, label
+    new = unit_attrs(field.attrs, system)
+    if label is not None:
+        old_units = str(field.attrs.get("display_units") or field.attrs.get("units", ""))
+        if "[" in label and f"[{old_units}]" not in label:
+            return field, label  # a label naming other units: drawn as labelled, never mislabelled
+        label = label.replace(f"[{old_units}]", f"[{new['display_units']}]")
+    return field.assign_attrs(display_scale=new["display_scale"], display_units=new["display_units"],
+                              display_format=new["display_format"], unit_system=system), label
+
+
+def frame(ds: xr.Dataset, index=("basin",), display: bool = False, columns=None,
+          units: str = "SI") -> pd.DataFrame:
     """A table of the described variables of ``ds`` over the ``index`` dims.
 
     ``display=False`` gives the numbers as stored, with the variable names as columns
     (what the CSV holds); ``display=True`` gives them scaled to their display units under
     'label [units]' headings (what widgets and the report show).  ``attrs["columns"]`` of
     the result maps each column to the variable's attributes, for formatting.
+    ``units="US"`` shows depths, volumes and areas in US customary units (with
+    ``display=False``: converted numbers under US names, see :func:`to_units`).
     """
+    system = unit_system(units)
     index = tuple(index)
     names = list(columns) if columns is not None else table_variables(ds, index)
     # extra dimensions (member, realization ...) become further index levels
@@ -342,27 +615,32 @@ def frame(ds: xr.Dataset, index=("basin",), display: bool = False, columns=None)
     if display:
         renamed = {}
         for name in names:
-            attrs = ds[name].attrs
+            attrs = unit_attrs(ds[name].attrs, system)
             scale = float(attrs.get("display_scale", 1.0))
             if scale != 1.0:
                 table[name] = table[name] * scale
             heading = column_heading(attrs, name)
             renamed[name] = heading
-            meta[heading] = dict(attrs)
-        table = table.rename(columns=renamed)
+            meta[heading] = {**attrs, "values_in": attrs.get("display_units", attrs.get("units", ""))}
+        table = _drop_twins(table, renamed, {n: ds[n].attrs for n in names}).rename(columns=renamed)
     else:
-        meta = {name: dict(ds[name].attrs) for name in names}
+        meta = {name: {**ds[name].attrs, "values_in": ds[name].attrs.get("units", ""), "unit_system": "SI"}
+                for name in names}
     table.attrs = {"columns": meta}
+    if not display and system != "SI":
+        return to_units(table, system)
     return table
 
 
-def display_frame(table: pd.DataFrame, **overrides) -> pd.DataFrame:
+def display_frame(table: pd.DataFrame, units: str = "SI", **overrides) -> pd.DataFrame:
     """A stored table (variable names as columns) as shown: scaled, under 'label [units]'.
 
     The attributes come from ``table.attrs["columns"]`` when they are dicts, else from
     :data:`CATALOGUE`; ``overrides`` maps a column to attribute changes (a label naming
-    the season, say).  Columns the catalogue does not know keep their names.
+    the season, say).  Columns the catalogue does not know keep their names.  ``units``
+    is the unit system shown ("SI" or "US", see :func:`unit_attrs`).
     """
+    system = unit_system(units)
     described = table.attrs.get("columns") or {}
     out = table.copy()
     renamed, meta = {}, {}
@@ -372,15 +650,26 @@ def display_frame(table: pd.DataFrame, **overrides) -> pd.DataFrame:
             attrs = CATALOGUE[col].attrs()
         if attrs is None:
             continue
-        attrs = {**attrs, **overrides.get(col, {})}
+        attrs = unit_attrs({**attrs, **overrides.get(col, {})}, system)
         scale = float(attrs.get("display_scale", 1.0))
         if scale != 1.0:
             out[col] = out[col] * scale
         renamed[col] = column_heading(attrs, col)
-        meta[renamed[col]] = attrs
-    out = out.rename(columns=renamed)
+        meta[renamed[col]] = {**attrs, "values_in": attrs.get("display_units", attrs.get("units", ""))}
+    out = _drop_twins(out, renamed, {c: _column_attrs(table, c) or {} for c in table.columns}).rename(columns=renamed)
     out.attrs = {"columns": meta}
     return out
+
+
+def _drop_twins(table: pd.DataFrame, renamed: dict, before: dict) -> pd.DataFrame:
+    """``table`` without the converted columns whose new heading another column already
+    has (a volume in m³ shown in acre-feet beside its acre-foot twin): never two columns
+    of one name, and the twin holds the same number.  ``before`` gives each column's
+    attributes in SI, ``renamed`` its new heading."""
+    converted = {c for c in renamed if renamed[c] != column_heading(before.get(c) or {}, str(c))}
+    plain = {renamed.get(c, c) for c in table.columns if c not in converted}
+    drop = [c for c in table.columns if c in converted and renamed[c] in plain]
+    return table.drop(columns=drop) if drop else table
 
 
 def _plain_number(v) -> str:
@@ -395,10 +684,11 @@ def _plain_number(v) -> str:
     return f"{v:,.{max(0, 3 - int(np.floor(np.log10(abs(v)))))}f}"
 
 
-def people_frame(table: pd.DataFrame, **overrides) -> pd.DataFrame:
+def people_frame(table: pd.DataFrame, units: str = "SI", **overrides) -> pd.DataFrame:
     """:func:`display_frame` with every cell as text in its display format (for notebooks
-    and other tables read by people: no scientific notation, '–' for missing)."""
-    shown = display_frame(table, **overrides)
+    and other tables read by people: no scientific notation, '–' for missing), in the
+    unit system ``units``."""
+    shown = display_frame(table, units=units, **overrides)
     columns = shown.attrs["columns"]
     out = shown.astype(object)
     for i, col in enumerate(shown.columns):

@@ -55,8 +55,8 @@ def map_figure(field, basins=(), kind: str = "total"):
     return fig
 
 
-def normals_figure(table):
-    """Monthly normals per basin (index month 1..12, one column per basin, mm)."""
+def normals_figure(table, units: str = "mm"):
+    """Monthly normals per basin (index month 1..12, one column per basin, in ``units``)."""
     from matplotlib.figure import Figure
 
     from ..plot.charts import monthly_normals
@@ -65,7 +65,7 @@ def normals_figure(table):
     ax = fig.add_subplot(1, 1, 1)
     t = table.copy()
     t.columns = [plain_label(c) for c in t.columns]
-    monthly_normals(t, ax=ax, units="mm")
+    monthly_normals(t, ax=ax, units=units)
     ax.set_title("Monthly normal precipitation by basin", fontsize=10)
     fig.tight_layout()
     return fig

@@ -2,7 +2,10 @@
 
 Everything is inside the one file: CSS inline in a ``<style>`` element, figures as base64
 PNG ``data:`` URLs; no scripts, fonts, style sheets or images are fetched, so the file
-opens the same offline, in an e-mail attachment or on a locked-down machine.  Every piece
+opens the same offline, in an e-mail attachment or on a locked-down machine.  The numbers
+are shown in the unit system chosen (``units="SI"`` or ``"US"``: inches, acre-feet and
+square miles, see :func:`climwidgets.analyses.meta.unit_attrs`); volumes for people in
+million m³ or in whole acre-feet with thousands separators.  Every piece
 of user text (title, basin names, file names, parameters, table cells) is escaped with
 :func:`html.escape`.  The page prints cleanly: each section starts on a new page, and no
 table row or figure is split across pages.
@@ -18,7 +21,7 @@ from pathlib import Path
 import pandas as pd
 
 from .._version import __version__
-from ..analyses.meta import CATALOGUE, format_cell
+from ..analyses.meta import CATALOGUE, UNIT_SYSTEMS, field_in_units, format_cell, to_units, unit_attrs, unit_system
 from ..compute._time import MONTH_NAMES
 from ..errors import ParameterError
 from ..atomic import atomic_write, check_target
@@ -70,8 +73,9 @@ def _e(text) -> str:
     return html.escape(str(text), quote=True)
 
 
-def _column_label(table: pd.DataFrame, col, label_columns: bool):
-    """(heading, unit, scale, attrs) of a column, from the analysis that made the table."""
+def _column_label(table: pd.DataFrame, col, label_columns: bool, units: str = "SI"):
+    """(heading, unit, scale, attrs) of a column, from the analysis that made the table,
+    in the unit system ``units``."""
     if not label_columns:
         return str(col), "", 1.0, {}
     attrs = (table.attrs.get("columns") or {}).get(col)
@@ -80,6 +84,7 @@ def _column_label(table: pd.DataFrame, col, label_columns: bool):
         attrs = meta.attrs() if meta is not None else None
     if not attrs:
         return str(col), "", 1.0, {}
+    attrs = unit_attrs(attrs, units)
     label = str(attrs.get("label", col))
     unit = attrs.get("display_units", attrs.get("units", ""))
     return label[:1].upper() + label[1:], "" if unit == "1" else unit, float(attrs.get("display_scale", 1.0)), attrs
@@ -100,12 +105,13 @@ def _head(name, unit) -> str:
     return _e(name) + (f" <span class='unit'>({_e(unit)})</span>" if unit else "")
 
 
-def _table_html(table: pd.DataFrame, label_columns: bool = True, max_wide: int = 7) -> str:
+def _table_html(table: pd.DataFrame, label_columns: bool = True, max_wide: int | None = 7,
+                units: str = "SI") -> str:
     """A table; with more than ``max_wide`` columns and few rows it is turned on its side
     (one row per quantity, one column per basin) so that it fits a printed page."""
     t = table
     show_index = t.index.name is not None or not isinstance(t.index, pd.RangeIndex)
-    labels = [_column_label(t, c, label_columns) for c in t.columns]
+    labels = [_column_label(t, c, label_columns, units) for c in t.columns]
     if max_wide is not None and len(t.columns) > max_wide and len(t) <= 6:
         first = _e(t.index.name or "") if show_index else ""
         out = ["<table class='sideways'><thead><tr><th scope='col'>" + first + "</th>"
@@ -153,10 +159,17 @@ def _inputs_html(content: ReportContent) -> str:
             "</tr></thead><tbody>" + "".join(rows) + "</tbody></table>")
 
 
-def render_html(content: ReportContent, figures: bool = True) -> str:
-    """The report as one HTML string (``figures=False`` skips drawing, for quick previews)."""
+def render_html(content: ReportContent, figures: bool = True, units: str = "SI") -> str:
+    """The report as one HTML string (``figures=False`` skips drawing, for quick previews).
+
+    ``units`` is the unit system of every table, map and chart: "SI" (mm, million m³, km²)
+    or "US" (in, acre-ft, mi²); the numbers of ``content`` are SI.
+    """
     from . import _figures as F
 
+    system = unit_system(units, "render_html")
+    depth = unit_attrs({"units": "mm", "display_units": "mm", "display_scale": 1.0, "display_format": ",.1f"},
+                       system)  # the monthly normals: mm to one decimal, inches to two
     parts = []
     stamp = content.created.strftime("%Y-%m-%d %H:%M UTC")
     parts.append(
@@ -167,28 +180,31 @@ def render_html(content: ReportContent, figures: bool = True) -> str:
         parts.append("<div class='notice'><strong>Planning-level figures.</strong> "
                      "Read the cautions at the end of this report before using these numbers.</div>")
     parts.append(_section("inputs", "Inputs", _inputs_html(content)))
-    params = list(content.parameters.items()) or [("(none recorded)", "")]
+    params = list(content.parameters.items()) + [("units shown", UNIT_SYSTEMS[system])]
     parts.append(_section("parameters", "Parameters", _kv_table(params)))
     parts.append(_section("basins", "Basin summary",
-                          "<div id='basin-table'>" + _table_html(content.table) + "</div>"
+                          "<div id='basin-table'>" + _table_html(to_units(content.table, system), units=system) + "</div>"
                           + "".join(f"<p>{_e(str(n)[:1].upper() + str(n)[1:])}</p>" for n in content.notes)))
     if figures and content.maps:
         body = []
         for caption, (field, kind) in content.maps.items():
-            fig = F.map_figure(field, content.basins, kind=kind)
+            fig = F.map_figure(field_in_units(field, system)[0], content.basins, kind=kind)
             body.append(_figure(F.png_data_uri(fig), caption + ". Basin outlines in red; grid cells as drawn.",
                                 alt=caption))
         body.append("<p>Coastlines are drawn only when map data is on the computer; the grid is shown as is.</p>")
         parts.append(_section("maps", "Maps", "\n".join(body)))
     if figures and content.monthly_normals is not None and not content.monthly_normals.empty:
-        fig = F.normals_figure(content.monthly_normals)
-        table = content.monthly_normals.T.copy()  # one row per basin, one column per month
+        normals = content.monthly_normals * depth["display_scale"]
+        fig = F.normals_figure(normals, units=depth["display_units"])
+        table = normals.T.copy()  # one row per basin, one column per month
         table.columns = [MONTH_NAMES[int(m) - 1] for m in table.columns]
-        table.index.name = "basin (mm)"
+        table.index.name = f"basin ({depth['display_units']})"
+        table.attrs = {"columns": {m: {"label": m, "units": "", "display_units": "", "display_scale": 1.0,
+                                       "display_format": depth["display_format"]} for m in table.columns}}
         parts.append(_section("normals", "Monthly normals",
-                              _figure(F.png_data_uri(fig), "Area-weighted monthly normal precipitation of each basin (mm).",
-                                      alt="monthly normals chart")
-                              + _table_html(table, label_columns=False, max_wide=None)))
+                              _figure(F.png_data_uri(fig), "Area-weighted monthly normal precipitation of each basin "
+                                      f"({depth['display_units']}).", alt="monthly normals chart")
+                              + _table_html(table, max_wide=None)))
     if figures and content.share_by_year is not None and not content.share_by_year.empty:
         season = str(content.parameters.get("season (months)", "")).split(" (")[0]
         fig = F.share_figure(content.share_by_year, content.share_trends, season=season)
@@ -198,7 +214,7 @@ def render_html(content: ReportContent, figures: bool = True) -> str:
         parts.append(_section("share", "Seasonal share over time",
                               _figure(F.png_data_uri(fig), text, alt="seasonal share by year") + extra))
     if content.what_if is not None:
-        body = _table_html(content.what_if)
+        body = _table_html(to_units(content.what_if, system), units=system)
         if content.what_if_note:
             body = f"<p>{_e(content.what_if_note)}</p>" + body
         parts.append(_section("what-if", content.what_if_title, body))
@@ -217,7 +233,8 @@ def render_html(content: ReportContent, figures: bool = True) -> str:
 
 
 def write_report(summary, path, overwrite: bool = False, title: str | None = None, inputs=None,
-                 parameters: dict | None = None, cautions=None, notes=None, figures: bool = True) -> Path:
+                 parameters: dict | None = None, cautions=None, notes=None, figures: bool = True,
+                 units: str = "SI") -> Path:
     """Write a self-contained HTML report, atomically.
 
     Parameters
@@ -235,11 +252,15 @@ def write_report(summary, path, overwrite: bool = False, title: str | None = Non
         with their size and SHA-256 checksum; ``parameters`` a dict).
     figures
         False leaves out the maps and charts.
+    units
+        "SI" (default: mm, million m³, km²) or "US" (US customary: in, acre-ft, mi²) for
+        every table, map and chart of the report.
 
     Returns
     -------
     pathlib.Path of the written file.
     """
+    system = unit_system(units, "write_report")
     target = check_target(path, overwrite, "write_report")
     if isinstance(summary, pd.DataFrame):
         params = {k: v for k, v in (summary.attrs or {}).items() if k != "note"}
@@ -268,7 +289,7 @@ def write_report(summary, path, overwrite: bool = False, title: str | None = Non
         from dataclasses import replace
 
         content = replace(content, **changes)
-    text = render_html(content, figures=figures)
+    text = render_html(content, figures=figures, units=system)
 
     def write(tmp: Path):
         tmp.write_text(text, encoding="utf-8")

@@ -9,7 +9,9 @@ or, for the bytes of a browser download, :func:`csv_files`.  Two files are writt
     or not the default 0, 1, 2 …  A plain ``pandas.read_csv(path)`` reads it.
 ``name.csv-metadata.json``
     Everything that travels with the table: tool and version, date written, title, the
-    inputs (file name, size, SHA-256), every parameter, notes and cautions.  The name
+    inputs (file name, size, SHA-256), every parameter, notes and cautions, and the units
+    of each described column with the unit system (SI, or US customary when the user
+    chose it: the CSV then holds inches, acre-feet and square miles).  The name
     follows the W3C "CSV on the Web" convention for locating a table's metadata
     (append ``-metadata.json`` to the CSV's name); :func:`read_metadata` reads it.
 
@@ -41,7 +43,8 @@ from ..errors import ParameterError
 from ..atomic import atomic_write, check_target, staged_outputs
 from ._provenance import cautions_for_columns, describe_inputs, format_value
 
-__all__ = ["to_csv", "csv_files", "read_csv", "read_metadata", "metadata_path", "metadata", "guard_formulas"]
+__all__ = ["to_csv", "csv_files", "read_csv", "read_metadata", "metadata_path", "metadata", "guard_formulas",
+           "column_units"]
 
 # Cells a spreadsheet would run as a formula (OWASP "CSV injection"): text starting so
 # gets a leading apostrophe, which spreadsheets show as text.
@@ -77,7 +80,10 @@ def metadata(table: pd.DataFrame, provenance=None, what: str = "table", file_nam
     Keys: ``url`` (the CSV's file name), ``title``, ``tool``, ``written`` (UTC),
     ``inputs`` (one dict per input file: name, size, SHA-256, modified), ``inputs_in_words``,
     ``parameters`` (from ``table.attrs`` and ``provenance["parameters"]``),
-    ``parameters_in_words``, ``notes``, ``cautions``, ``columns``, ``index``.
+    ``parameters_in_words``, ``notes``, ``cautions``, ``columns``, ``index``, and, for
+    columns an analysis described (``table.attrs["columns"]``, see
+    :func:`climwidgets.analyses.meta.frame`), ``units`` (column → units of the numbers as
+    written, e.g. "mm" or "in") and ``unit_system`` ("SI" or "US customary").
     """
     prov = dict(provenance or {}) if not isinstance(provenance, str) else {"notes": [provenance]}
     unknown = set(prov) - {"inputs", "parameters", "notes", "cautions", "title"}
@@ -89,6 +95,8 @@ def metadata(table: pd.DataFrame, provenance=None, what: str = "table", file_nam
     records = describe_inputs(prov.get("inputs"))
     params = dict(table.attrs or {})
     params.pop("note", None)
+    described = params.pop("columns", None)  # the columns' attributes: their units are listed below
+    units, system = column_units(table, described)
     params.update(prov.get("parameters") or {})
     notes = [_one_line(n) for n in (prov.get("notes") or []) if str(n).strip()]
     if "note" in (table.attrs or {}):
@@ -110,7 +118,34 @@ def metadata(table: pd.DataFrame, provenance=None, what: str = "table", file_nam
         "cautions": [_one_line(c) for c in cautions],
         "index": [None if n is None else str(n) for n in table.index.names] if _keep_index(table) else [],
         "columns": [str(c) for c in table.columns],
+        "units": units,
+        "unit_system": system,
     }
+
+
+def column_units(table: pd.DataFrame, described=None) -> tuple[dict, str]:
+    """(column → units of its numbers, unit system in words) of a table made by the analyses.
+
+    The units are those of the numbers as they stand in the table (``values_in`` of the
+    column's attributes; for a stored column the catalogue's units), so a CSV in US
+    customary units says "in" and "acre-ft" where the SI one says "mm" and "m3".
+    """
+    from ..analyses.meta import CATALOGUE, UNIT_SYSTEMS
+
+    described = described if isinstance(described, dict) else (table.attrs.get("columns") or {})
+    units, systems = {}, set()
+    for col in table.columns:
+        attrs = described.get(col) if isinstance(described.get(col), dict) else None
+        if attrs is None and col in CATALOGUE:
+            attrs = CATALOGUE[col].attrs()
+        if attrs is None:
+            continue
+        value = attrs.get("values_in", attrs.get("units", ""))
+        units[str(col)] = "" if value is None else str(value)  # CF units: "1" is a fraction or count
+        if attrs.get("unit_system"):
+            systems.add(attrs["unit_system"])
+    system = "US" if "US" in systems else "SI"
+    return units, UNIT_SYSTEMS[system]
 
 
 def _guard(v):

@@ -58,6 +58,16 @@ in ``self.basin_set`` and hears of every change to it (:meth:`basins_changed`).
   CSV of the table (with its metadata file, see :mod:`climwidgets.report.tables`) and
   PNG of the map are there by default.
 
+Units: a "Units" menu (SI / US customary) sits under the controls of every widget
+(``units_choice = False`` leaves it out).  The numbers are computed once, in SI; the
+choice is applied where they are shown: :meth:`show_table` re-expresses the table it is
+given (:func:`climwidgets.analyses.meta.shown_in_units`), the map's ``show_field`` is given
+the field with the display attributes of the choice (colour bar and hover alike), and
+:meth:`in_units` does the same for a subclass's other tables.  Changing the menu shows
+the table and the map again, then calls :meth:`units_changed` (for a subclass's other
+tables and charts): nothing is recomputed.  The CSV export holds the numbers as shown,
+and its metadata names each column's units.
+
 Ensembles: when the widget's data (``self.pr``, or what :meth:`member_source` returns)
 have a member dimension, an "Ensemble member" menu heads the controls: each member, the
 ensemble mean and the spread between members.  ``compute`` runs on the whole ensemble and
@@ -80,7 +90,7 @@ from pathlib import Path
 import ipywidgets as widgets
 import pandas as pd
 
-from ..analyses.meta import format_cell
+from ..analyses.meta import UNIT_SYSTEMS, field_in_units, format_cell, shown_in_units
 from ..atomic import atomic_write
 from ..errors import InputError
 from ..geo.basinset import BasinSet
@@ -200,6 +210,8 @@ class BaseWidget(widgets.VBox):
     member_whole: tuple = ()
     #: attributes (besides LRU caches) holding numbers of one member choice
     member_state: tuple = ()
+    #: offer the SI / US customary units menu (see the module docstring)
+    units_choice: bool = True
 
     def __init__(self, map_frame=None, export_dir="out", chart=True):
         self.map = map_frame
@@ -229,8 +241,10 @@ class BaseWidget(widgets.VBox):
         if self.map is not None:
             self.add_export("Map as PNG", lambda path: path.write_bytes(self.map.png_bytes()), "png")
         self._init_members()
+        self._init_units()
         head = [self.member] if self.member is not None else []
-        self.controls = widgets.VBox(head + self.build_controls() + [self.message],
+        tail = [self.units] if self.units is not None else []
+        self.controls = widgets.VBox(head + self.build_controls() + tail + [self.message],
                                      layout=widgets.Layout(min_width="300px"))
         panels = [self.controls] + ([self.map] if self.map is not None else [])
         children = []
@@ -267,6 +281,71 @@ class BaseWidget(widgets.VBox):
 
     def _can_redraw(self) -> bool:
         return self.result is not None
+
+    # ------------------------------------------------------------ units shown
+    def _init_units(self):
+        self._table_given = None
+        self._map_call = None
+        self.units = None
+        if self.units_choice:
+            self.units = widgets.Dropdown(options=[("SI (mm, million m³, km²)", "SI"),
+                                                   ("US customary (in, acre-ft, mi²)", "US")],
+                                          value="SI", description="Units",
+                                          layout=widgets.Layout(width="300px"))
+            self.units.observe(self._units_changed, names="value")
+        if self.map is not None:
+            self._wrap_map()
+
+    @property
+    def unit_system(self) -> str:
+        """The unit system shown: ``"SI"`` or ``"US"`` (US customary)."""
+        units = getattr(self, "units", None)
+        return "SI" if units is None else units.value
+
+    def in_units(self, table):
+        """A table as shown (SI, from the analyses) in the units chosen in the menu."""
+        return None if table is None else shown_in_units(table, self.unit_system)
+
+    def _wrap_map(self):
+        """The map draws every field in the chosen units (display attributes, not new numbers)."""
+        original = self.map.show_field
+        ref = weakref.ref(self)
+
+        def show_field(field, *args, **kwargs):
+            owner = ref()
+            units = owner.unit_system if owner is not None else "SI"
+            if owner is not None:
+                owner._map_call = (field, args, dict(kwargs))  # as given (SI): redrawn on a units change
+            positional = len(args) >= 4  # (kind, vmin, vmax, label, ...)
+            label = args[3] if positional else kwargs.get("label")
+            field, label = field_in_units(field, units, label)
+            if positional:
+                args = args[:3] + (label,) + args[4:]
+            elif label is not None:
+                kwargs["label"] = label
+            return original(field, *args, **kwargs)
+
+        self.map.show_field = show_field
+        if getattr(self.map, "field", None) is not None:  # drawn before the widget was built
+            self._map_call = (self.map.field, (), {"kind": getattr(self.map.mesh, "climwidgets_kind", None)})
+
+    def units_changed(self):
+        """Redraw what only the subclass shows (other tables, charts) in :attr:`unit_system`.
+
+        The base has already redrawn the results table and the map; nothing is recomputed.
+        """
+
+    def _units_changed(self, _change=None):
+        """Show the shown table and map again in the new units (kernel's thread; nothing recomputed)."""
+        try:
+            if self._table_given is not None:
+                self.show_table(self._table_given)
+            if self._map_call is not None:
+                field, args, kwargs = self._map_call
+                self.map.show_field(field, *args, **kwargs)
+            self.units_changed()
+        except Exception as exc:  # noqa: BLE001 - shown beside the controls, like a render problem
+            self._fail(self._gen, exc, traceback.format_exc(), finished=False)
 
     # ------------------------------------------------------------ ensemble members
     def member_source(self):
@@ -581,7 +660,13 @@ class BaseWidget(widgets.VBox):
         self.message.value = html.escape(text)
 
     def show_table(self, df: pd.DataFrame | None):
-        """Show a DataFrame in the results table and keep it as ``self.table``."""
+        """Show a DataFrame in the results table and keep it as ``self.table``.
+
+        ``df`` is the table as the analysis shows it (SI); it is shown, and kept as
+        ``self.table`` (what the CSV export writes), in the units chosen in the menu.
+        """
+        self._table_given = df
+        df = self.in_units(df)
         self.table = df
         head = ""
         if self.member is not None:
@@ -659,6 +744,8 @@ class BaseWidget(widgets.VBox):
             parts.append(f"{len(self.basin_set)}-basins")
         if getattr(self, "member", None) is not None:
             parts.append(self._member_words()["tag"])
+        if self.unit_system != "SI":
+            parts.append("us-units")
         return "_".join(parts)
 
     def export_name(self, stem, suffix) -> str:
@@ -741,6 +828,7 @@ class BaseWidget(widgets.VBox):
             clean[key] = value
         if getattr(self, "member", None) is not None:
             clean["ensemble_member"] = self._member_words()["description"]
+        clean["units"] = UNIT_SYSTEMS[self.unit_system]
         pr = getattr(self, "pr", None)
         source = getattr(pr, "encoding", {}).get("source") if pr is not None else None
         return {"title": self.title or self.export_stem, "parameters": clean,

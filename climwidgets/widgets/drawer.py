@@ -306,7 +306,12 @@ class BasinDrawer(HostsDrawingTools, BaseWidget):
         means = xr.DataArray([self._rows[(b.token, b.name)] for b in basins], dims="basin",
                              coords={"basin": [b.name for b in basins]}, attrs={"units": units})
         out = frame(field_means_table(basins, means), columns=["area_km2", "mean"])
-        return out.rename(columns={"mean": f"mean [{units}]"})
+        out = out.rename(columns={"mean": f"mean [{units}]"})
+        columns = dict(out.attrs.get("columns") or {})
+        if "mean" in columns:  # the renamed column keeps its description (units menu, CSV metadata)
+            columns[f"mean [{units}]"] = columns.pop("mean")
+        out.attrs = {**out.attrs, "columns": columns}
+        return out
 
     def render(self, result, params):
         if self.member is not None:

@@ -1,7 +1,8 @@
 """Basin summary: the planner's page.
 
 * the basin table of :func:`cw.basin_table` (area, annual mean, seasonal share, normal,
-  volumes in m³ and acre-feet, latest year as percent of normal);
+  volumes in million m³ and acre-feet, latest year as percent of normal; a Units menu shows
+  inches, acre-feet and square miles instead);
 * a chart of the monthly normals of each basin (the same analysis);
 * a what-if calculator (:func:`cw.what_if`): "if the season's precipitation changed by
   this many percent, how much water would that be per year?", in m³ and acre-feet;
@@ -25,7 +26,7 @@ import xarray as xr
 
 from ..analyses.basins import SUMMARY_COLUMNS, WHAT_IF_COLUMNS, basin_table, summary_bundle, summary_maps, \
     what_if
-from ..analyses.meta import frame
+from ..analyses.meta import frame, unit_attrs
 from ..analyses.run import monthly_source
 from ..cache import LRUCache
 from ..compute._time import season_months
@@ -206,20 +207,33 @@ class BasinSummaryWidget(HostsDrawingTools, BaseWidget):
     def render(self, result, params):
         self.map.show_field(result["normal_map"], kind="total", title="Annual normal")
         self.show_table(self.summary_table(result))
-        self.scenario_html.value = _CSS + df_to_html(self.scenario_table(result))
+        self.scenario_html.value = _CSS + df_to_html(self.in_units(self.scenario_table(result)))
         if "normals" not in result:
             if self.chart is not None:
                 self.chart.value = b""
             return
+        self._baseline_shown = params["baseline"]
+        self._chart(result, params["baseline"])
+
+    def _chart(self, result, baseline):
+        """The monthly normals chart, in the units chosen."""
         from matplotlib.figure import Figure
 
         fig = Figure(figsize=(6.0, 2.8))
         ax = fig.add_subplot(1, 1, 1)
         table = result["normals"].transpose("month", "basin").to_pandas()  # month × basin
-        monthly_normals(table, ax=ax, units="mm")
-        b0, b1 = params["baseline"]
+        normals_in = unit_attrs({"units": "mm", "display_units": "mm", "display_scale": 1.0}, self.unit_system)
+        monthly_normals(table * normals_in["display_scale"], ax=ax, units=normals_in["display_units"])
+        b0, b1 = baseline
         ax.set_title(f"Monthly normals {b0}–{b1}, basin means", fontsize=9)
         self.show_chart(fig)
+
+    def units_changed(self):
+        """The what-if table and the chart in the units chosen (the base redraws table and map)."""
+        if self.result is not None:
+            self.scenario_html.value = _CSS + df_to_html(self.in_units(self.scenario_table(self.result)))
+            if "normals" in self.result:
+                self._chart(self.result, self._baseline_shown)
 
     # ------------------------------------------------------------ exports
     def _need_result(self):
@@ -245,4 +259,4 @@ class BasinSummaryWidget(HostsDrawingTools, BaseWidget):
         analysis["annual_normal_map"] = self.result["normal_map"]
         content = report_content(analysis, self.basins, self.pr, what=self.result["what_if"],
                                  title=self.with_member("Basin precipitation summary"))
-        write_report(content, path, overwrite=True)
+        write_report(content, path, overwrite=True, units=self.unit_system)

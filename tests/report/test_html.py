@@ -114,7 +114,7 @@ def test_table_alone_and_overrides(tmp_path):
     assert "<script" not in text.lower() and "&lt;i&gt;me&lt;/i&gt;" in text
     # SHA-256 of "abc": the FIPS 180-2 example message (NIST), value from memory
     assert "ba7816bf8f01cfea414140de5dae2223b00361a396177a9cb410ff61f20015ad" in text
-    assert "1991, 2020" in text and "9,000,000" in text
+    assert "1991, 2020" in text and "9.00" in text and "million m³" in text  # volumes rounded for people
     assert "<img" not in text and 'id="cautions"' in text  # volumes bring the cautions
 
 
@@ -172,3 +172,39 @@ def test_opens_in_headless_chromium_without_errors_or_requests(report, tmp_path)
     shutil.rmtree(user_dir, ignore_errors=True)
     assert errors == [] and dialogs == []
     assert [u for u in requests if not (u == path.as_uri() or u.startswith("data:"))] == []
+
+
+# ----------------------------------------------------------------- units
+def test_report_in_us_customary_units(report, tmp_path):
+    """The same content in US customary units: inches, acre-feet and square miles, whole
+    acre-feet with thousands separators, no scientific notation."""
+    from climwidgets.report.html import render_html
+
+    content, _, si_text = report
+    text = render_html(content, figures=False, units="US")
+    basin = content.table.index[0]
+    row = content.table.loc[basin]
+    # 1 in = 25.4 mm, 1 acre-ft = 43 560 ft³ = 1 233.481 837 547 52 m³, 1 mi² = 2.589 988 110 336 km²
+    # (international yard and pound agreement 1959; NIST SP 811, Appendix B; from memory)
+    inches = row["annual_mean_mm"] / 25.4
+    acre_ft = row["volume_per_year_m3"] / 1233.48183754752
+    mi2 = row["area_km2"] / 2.589988110336
+    assert f"{inches:,.1f}" in text and f"{mi2:,.1f}" in text
+    assert f"{acre_ft:,.0f}" in text and "acre-ft" in text
+    assert "(in)" in text and "(mi²)" in text and "(mm)" not in text.split('id="cautions"')[0]
+    assert "US customary" in text  # the parameters say which units are shown
+    assert text.count("Volume per year <span class='unit'>(acre-ft)</span>") == 1  # not beside its m³ twin
+    assert "million m³" in si_text and "million m³" not in text
+    body = re.sub(r"<style>.*?</style>|<pre>.*?</pre>|class='mono'>[^<]*", "", text, flags=re.S)
+    cells = re.findall(r"<td class='num'>([^<]*)</td>", body)
+    assert cells and not [c for c in cells if re.search(r"\de[+-]?\d", c)], cells
+    # the monthly normals in inches: 150 mm in July = 5.906 in
+    figures = render_html(content, figures=True, units="US")
+    assert "basin (in)" in figures and f"{150 / 25.4:.2f}" in figures
+
+
+def test_write_report_refuses_an_unknown_unit_system(report, tmp_path):
+    content, _, _ = report
+    with pytest.raises(ParameterError, match="unit system"):
+        write_report(content, tmp_path / "x.html", units="imperial")
+    assert not (tmp_path / "x.html").exists()

@@ -176,3 +176,28 @@ def test_export_before_any_result_is_a_message(tmp_path):
     assert "no table to export" in w.message.value and w.downloads.value == ""
     with pytest.raises(NotImplementedError):
         w.compute()
+
+
+def test_units_menu_shows_the_table_in_us_customary_without_computing():
+    """Every widget has the Units menu; a change redraws the shown table (1 in = 25.4 mm,
+    international yard and pound agreement 1959, from memory) and computes nothing."""
+    from climwidgets.analyses.meta import display_frame
+
+    class _Described(_Totals):
+        def render(self, result, params):
+            self.rendered.append(params["year_start"])
+            table = pd.DataFrame({"annual_mean_mm": [254.0, 508.0], "seasonal_share_1": [0.25, 0.5]},
+                                 index=pd.Index(["a", "b"], name="basin"))
+            self.show_table(display_frame(table))
+
+    w = _Described(monthly_pr())
+    w.wait()
+    assert w.units in w.controls.children and w.units.value == "SI"
+    w.units.value = "US"
+    assert w.rendered == [1]  # not rendered (nor computed) again
+    assert list(w.table["mean annual total [in]"]) == pytest.approx([10.0, 20.0])
+    assert list(w.table["seasonal share [%]"]) == [25.0, 50.0]
+    assert "[in]" in w.table_html.value and "us-units" in w.export_name(None, "csv")
+    assert w.csv_provenance()["parameters"]["units"].startswith("US customary")
+    w.units.value = "SI"
+    assert list(w.table["mean annual total [mm]"]) == [254.0, 508.0]

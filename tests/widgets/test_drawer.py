@@ -114,3 +114,22 @@ def test_upload_geojson(field):
     drawer.tools._on_upload({"new": ({"name": "b.geojson", "content": memoryview(text.encode())},)})
     drawer.wait()
     assert [b.name for b in drawer.basins] == ["South", "North"]
+
+
+def test_units_menu_converts_the_drawers_mean_and_map():
+    """The drawer's field mean and its map follow the Units menu (1 in = 25.4 mm, from memory)."""
+    import numpy as np
+    import xarray as xr
+
+    import climwidgets as cw
+
+    field = xr.DataArray(np.full((4, 5), 508.0), dims=("lat", "lon"),
+                         coords={"lat": np.arange(10.125, 11.0, 0.25), "lon": np.arange(-150.125, -148.9, 0.25)},
+                         attrs={"units": "mm", "long_name": "annual total"})
+    box = cw.Basin.from_vertices([(-150.2, 10.0), (-149.0, 10.0), (-149.0, 11.0), (-150.2, 11.0)], name="box")
+    d = cw.BasinDrawer(field, [box], export_dir="unused")
+    d.wait()
+    assert d.table.loc["box", "mean [mm]"] == 508.0
+    d.units.value = "US"
+    assert d.table.loc["box", "mean [in]"] == 20.0 and "area [mi²]" in d.table.columns
+    assert d.map.cbar.ax.get_ylabel().endswith("[in]")

@@ -75,3 +75,39 @@ def test_every_export_reaches_the_browser(pr):
     w.wait()
     got = check_every_export(w)
     assert set(got) == {b.description for b in w.exports.children}
+
+
+def test_units_menu_redraws_in_us_customary_without_computing(pr, tmp_path):
+    """The Units menu shows the same numbers in inches, acre-feet and square miles (1 in =
+    25.4 mm, 1 acre-ft = 1233.48183754752 m³, 1 mi² = 2.589988110336 km²: international yard
+    and pound agreement 1959, NIST SP 811; from memory), map and exports alike."""
+    import json
+    import re
+
+    w = BasinSummaryWidget(pr, basins(), baseline=(2001, 2010), export_dir=tmp_path)
+    w.wait()
+    si, result, gen = w.table.copy(), w.result, w._gen
+    assert "volume per year [million m³]" in si.columns and w.units.value == "SI"
+    w.units.value = "US"
+    assert w._gen == gen and w.result is result  # redrawn, not recomputed
+    us = w.table
+    np.testing.assert_allclose(us["mean annual total [in]"], si["mean annual total [mm]"] / 25.4, rtol=1e-13)
+    np.testing.assert_allclose(us["area [mi²]"], si["area [km²]"] / 2.589988110336, rtol=1e-13)
+    np.testing.assert_allclose(us["volume per year [acre-ft]"], si["volume per year [acre-ft]"], rtol=1e-13)
+    np.testing.assert_array_equal(us["seasonal share [%]"], si["seasonal share [%]"])
+    assert "million m³" not in w.table_html.value and not re.search(r"\d\.\d+e[+-]\d", w.table_html.value)
+    assert "acre-ft" in w.scenario_html.value and "million m³" not in w.scenario_html.value
+    # the map's colour bar and hover read inches
+    assert w.map.cbar.ax.get_ylabel().endswith("[in]") and w.map._units == "in"
+    assert w.chart_figure.axes[0].get_ylabel() == "monthly normal [in]"
+    # the CSV holds the numbers shown, its metadata names their units; the file name says US units
+    files = w.export_files(w._write_csv, "csv")
+    name = next(n for n in files if n.endswith(".csv"))
+    meta = json.loads(files[name + "-metadata.json"])
+    assert "us-units" in name and meta["units"]["mean annual total [in]"] == "in"
+    assert meta["unit_system"].startswith("US customary") and meta["parameters"]["units"].startswith("US")
+    report = next(iter(w.export_files(w._write_html, "html").values())).decode()
+    assert "(in)" in report and "acre-ft" in report and "US customary" in report
+    w.units.value = "SI"
+    pd.testing.assert_frame_equal(w.table, si)
+    assert w.map.cbar.ax.get_ylabel().endswith("[mm]")
