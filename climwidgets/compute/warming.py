@@ -25,7 +25,7 @@ DESIGN_DEPTH_CAUTIONS = (
     "and is usually lower.",
     "Assumes the climate of the record is stationary; a trend or shift in the record biases the estimates.",
     "Return-level intervals cover sampling error of the fit only, not the choice of distribution or data errors.",
-    "Defer to the jurisdiction's adopted precipitation-frequency estimates, local codes and "
+    "Defer to the jurisdiction's adopted design-rainfall estimates, local codes and "
     "licensed engineering practice.",
 )
 

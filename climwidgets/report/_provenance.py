@@ -28,7 +28,7 @@ VOLUME_CAUTIONS = (
     "resolution and on how the gridded product was made.",
     "Normals and shares assume the climate of the record is stationary; a trend in the record "
     "shifts them.",
-    "Defer to the jurisdiction's adopted precipitation-frequency estimates, local codes and "
+    "Defer to the jurisdiction's adopted design-rainfall estimates, local codes and "
     "licensed engineering practice for design.",
 )
 
