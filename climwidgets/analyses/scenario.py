@@ -38,7 +38,7 @@ from ..provenance import history_line
 from .basins import basin_series
 from .meta import describe, ensemble_attrs
 
-__all__ = ["AGREEMENT_LEVEL", "SCENARIO_METHODS", "basin_depth_signals", "basin_signals", "signal_maps"]
+__all__ = ["AGREEMENT_LEVEL", "METHOD_LABELS", "SCENARIO_METHODS", "basin_depth_signals", "basin_signals", "signal_maps"]
 
 #: What each ``method`` compares, in plain words.
 SCENARIO_METHODS = {
@@ -48,6 +48,10 @@ SCENARIO_METHODS = {
     "quantile_delta": "quantile delta mapping: the observations over the calibration period against the "
                       "future run adjusted to them, quantile by quantile (Cannon et al. 2015)",
 }
+
+#: The methods' short names, for menus.
+METHOD_LABELS = {"none": "model runs as they are", "monthly_ratio": "delta change (monthly ratio)",
+                 "quantile_delta": "quantile delta mapping"}
 
 #: Share of members that must agree on the sign of a change for it to count as agreed
 #: (the 80 % rule of IPCC AR6 WG I, Cross-Chapter Box Atlas.1, from memory); maps mark
