@@ -121,6 +121,7 @@ class ScenarioWidget(BaseWidget):
             "padding:0'>" + "".join(f"<li>{html.escape(c)}</li>" for c in SCENARIO_CAUTIONS) + "</ol></div>")
         super().__init__(map_frame=MapFrame(basins=self.basins, kind="difference", figsize=(5.6, 4.2)),
                          export_dir=export_dir, chart=False)
+        self.add_export("Report as HTML", self._write_report, "html", stem="scenario_report")
         # the cautions stand under the title, above the map and the table, whatever is shown
         self.children = (self.children[0], self.cautions, *self.children[1:])
         self.watch(self.first, self.last, self.historical, self.future_years, self.method, self.design_period)
@@ -260,8 +261,12 @@ class ScenarioWidget(BaseWidget):
 
     def csv_provenance(self):
         out = super().csv_provenance()
-        sources = [s for da in (self.pr, self.future, self.obs) if da is not None
-                   for s in [getattr(da, "encoding", {}).get("source")] if s]
+        sources = []
+        for da in (self.pr, self.future, self.obs):  # the files cw.open_precip read, as the jobs list them
+            if da is not None:
+                found = [s for s in str(da.attrs.get("sources", "")).split("; ") if s]
+                found = found or [s for s in [getattr(da, "encoding", {}).get("source")] if s]
+                sources += [s for s in found if s not in sources]
         out["inputs"] = sources or None
         out["cautions"] = list(SCENARIO_CAUTIONS)
         if self.result is not None:
@@ -269,3 +274,18 @@ class ScenarioWidget(BaseWidget):
             out["notes"] = [f"compared: {a['comparison']}; {a['historical_period'][0]}-{a['historical_period'][1]} "
                             f"against {a['future_period'][0]}-{a['future_period'][1]}"]
         return out
+
+    def _write_report(self, path):
+        from ..report.scenario_section import write_scenario_report
+
+        if self.result is None:
+            raise ParameterError("there are no numbers to report yet", source="ScenarioWidget",
+                                 fix="wait for the computation to finish")
+        prov = self.csv_provenance()
+        params = {k: v for k, v in prov["parameters"].items() if v is not None}
+        write_scenario_report(self.result["signals"], path, overwrite=True, inputs=prov["inputs"], parameters=params,
+                              depths=None if self.result["depths"] is None else self._depths_for_report())
+
+    def _depths_for_report(self):
+        depths = self.result["depths"]
+        return depths.expand_dims(return_period=[self.design_period.value]).transpose("basin", "return_period", ...)

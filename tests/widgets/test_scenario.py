@@ -134,6 +134,9 @@ def test_every_export_reaches_the_browser(widget):
     meta = next(json.loads(v) for k, v in files["Table as CSV"].items() if k.endswith("-metadata.json"))
     text = json.dumps(meta)
     assert SCENARIO_CAUTIONS[0][:40] in text and "jul-aug" in next(iter(files["Table as CSV"]))
+    page = next(iter(files["Report as HTML"].values())).decode("utf-8")
+    assert page.index("Before using these numbers") < page.index("<table")
+    assert "pr_ensemble_historical_noleap.nc" in page  # the inputs, with their checksums
 
 
 def _daily(first, factors):
@@ -160,3 +163,6 @@ def test_daily_runs_add_the_design_depth_change():
     # the depths of a future that is the past times 1.1 and 0.9 (scale-equivariant L-moment fit)
     _close(w.result["depths"]["depth_change_1_lower"].values, [-0.1])
     assert not w.design_period.disabled
+    files = check_every_export(w)
+    page = next(iter(files["Report as HTML"].values())).decode("utf-8")
+    assert "Change in design depths" in page and "change in design depth, ensemble mean" in page.lower()
