@@ -11,7 +11,7 @@ import numpy as np
 __all__ = ["mark_low_agreement"]
 
 
-def mark_low_agreement(ax, agreement, level: float, size: float = 6.0):
+def mark_low_agreement(ax, agreement, level: float, size: float = 16.0):
     """Dots on the cells of ``agreement`` (share of members, 0–1) below ``level``; returns the artist.
 
     ``ax`` is a cartopy GeoAxes; the dots are placed at the cell centres in lon/lat.
@@ -26,5 +26,5 @@ def mark_low_agreement(ax, agreement, level: float, size: float = 6.0):
     low = np.isfinite(values) & (values < level)
     if not low.any():
         return None
-    return ax.scatter(lon[low], lat[low], s=size, c="k", marker=".", linewidths=0, transform=_ccrs().PlateCarree(),
+    return ax.scatter(lon[low], lat[low], s=size, c="0.1", marker=".", linewidths=0, transform=_ccrs().PlateCarree(),
                       zorder=5)

@@ -96,7 +96,7 @@ class ScenarioWidget(BaseWidget):
         self._whole = whole_grid_basin(hist.isel({d: 0 for d in hist.dims if d not in ("time", "lat", "lon")}))
         self._results = LRUCache(maxsize=16)
         self._dots = None
-        lab = {"style": {"description_width": "120px"}, "layout": widgets.Layout(width="330px")}
+        lab = {"style": {"description_width": "130px"}, "layout": widgets.Layout(width="340px")}
         months = tuple(months)
         self.first = widgets.Dropdown(options=MONTH_OPTIONS, value=months[0], description="Season from", **lab)
         self.last = widgets.Dropdown(options=MONTH_OPTIONS, value=months[-1], description="to", **lab)
@@ -113,8 +113,10 @@ class ScenarioWidget(BaseWidget):
         self.daily = hist.attrs.get("step") in _DAILY or str(hist.attrs.get("step", "")).endswith("hour")
         self.design_period = widgets.Dropdown(options=[(f"{t}-year 1-day", t) for t in (10, 25, 50, 100)],
                                               value=design_period if design_period in (10, 25, 50, 100) else 100,
-                                              description="Design depth", disabled=not self.daily, **lab)
-        self.about = widgets.HTML(layout=widgets.Layout(width="330px"))
+                                              description="Design depth", **lab)
+        if not self.daily:  # monthly runs give no design depths: the note under the controls says so
+            self.design_period.layout.display = "none"
+        self.about = widgets.HTML(layout=widgets.Layout(width="340px"))
         self.cautions = widgets.HTML(
             "<div style='border-left:4px solid #b5651d;background:#fbf4ec;padding:4px 10px;margin:4px 0;"
             "font-size:12px;max-width:980px'><b>Before using these numbers:</b><ol style='margin:2px 0 2px 18px;"
@@ -122,6 +124,9 @@ class ScenarioWidget(BaseWidget):
         super().__init__(map_frame=MapFrame(basins=self.basins, kind="difference", figsize=(5.6, 4.2)),
                          export_dir=export_dir, chart=False)
         self.add_export("Report as HTML", self._write_report, "html", stem="scenario_report")
+        if self.member is not None:  # the menu's words need a little more room than the base gives
+            self.member.style.description_width = "130px"
+            self.member.layout.width = "340px"
         # the cautions stand under the title, above the map and the table, whatever is shown
         self.children = (self.children[0], self.cautions, *self.children[1:])
         self.watch(self.first, self.last, self.historical, self.future_years, self.method, self.design_period)
@@ -133,7 +138,7 @@ class ScenarioWidget(BaseWidget):
         lo, hi = _years(run)
         slider = widgets.IntRangeSlider(value=tuple(period) if period else (lo, hi), min=lo, max=hi,
                                         description=description, continuous_update=False, readout=False,
-                                        style={"description_width": "120px"}, layout=widgets.Layout(width="260px"))
+                                        style={"description_width": "130px"}, layout=widgets.Layout(width="270px"))
         label = widgets.Label(f"{slider.value[0]}–{slider.value[1]}")
         slider.observe(lambda c: setattr(label, "value", f"{c['new'][0]}–{c['new'][1]}"), names="value")
         return slider, label
@@ -143,10 +148,10 @@ class ScenarioWidget(BaseWidget):
         depth_note = ("" if self.daily else
                       "<br>Design-depth change: needs daily or hourly runs; these runs are "
                       f"{html.escape(str(self.pr.attrs.get('step', '?')))} totals.")
-        note = widgets.HTML(f"<small>Dots on the map: fewer than {AGREEMENT_LEVEL:.0%} of the members agree on "
+        note = widgets.HTML(f"<small>Dots on the map: fewer than {100 * AGREEMENT_LEVEL:.0f} % of the members agree on "
                             f"the sign of the change. The table gives the ensemble figures of every basin; the "
                             f"member menu chooses what the map shows.{depth_note}</small>",
-                            layout=widgets.Layout(width="330px"))
+                            layout=widgets.Layout(width="340px"))
         return [self.first, self.last, widgets.HBox([self.historical, self.historical_label]),
                 widgets.HBox([self.future_years, self.future_label]), self.method, self.layer, self.design_period,
                 note, self.about]
@@ -199,10 +204,10 @@ class ScenarioWidget(BaseWidget):
         depth = ""
         if result["depths"] is not None:
             d = result["depths"].attrs
-            depth = (f" Design depths: the model runs as they are, {d['historical_period'][0]}–"
-                     f"{d['historical_period'][1]} against {d['future_period'][0]}–{d['future_period'][1]}.")
+            depth = (f" Design depths: the model runs as they are, {d['future_period'][0]}–"
+                     f"{d['future_period'][1]} against {d['historical_period'][0]}–{d['historical_period'][1]}.")
         self.about.value = (f"<small><b>Compared:</b> {html.escape(signals.attrs['comparison'])}; "
-                            f"{hp[0]}–{hp[1]} against {fp[0]}–{fp[1]}.{html.escape(extra + depth)}</small>")
+                            f"{fp[0]}–{fp[1]} against {hp[0]}–{hp[1]}.{html.escape(extra + depth)}</small>")
 
     def _show(self):
         result = self.result
@@ -271,8 +276,8 @@ class ScenarioWidget(BaseWidget):
         out["cautions"] = list(SCENARIO_CAUTIONS)
         if self.result is not None:
             a = self.result["signals"].attrs
-            out["notes"] = [f"compared: {a['comparison']}; {a['historical_period'][0]}-{a['historical_period'][1]} "
-                            f"against {a['future_period'][0]}-{a['future_period'][1]}"]
+            out["notes"] = [f"compared: {a['comparison']}; {a['future_period'][0]}-{a['future_period'][1]} "
+                            f"against {a['historical_period'][0]}-{a['historical_period'][1]}"]
         return out
 
     def _write_report(self, path):
