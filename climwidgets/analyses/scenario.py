@@ -314,9 +314,11 @@ def basin_depth_signals(model_hist: xr.DataArray, model_future: xr.DataArray, ba
                              fix="open the daily files of the runs; monthly runs give no design depths")
     ph = period_or_default(model_hist, historical, "model_hist", func)
     pf = period_or_default(model_future, future, "model_future", func)
-    fit = dict(periods=tuple(periods), ci=float(ci), n_boot=int(n_boot), seed=seed, duration_days=int(duration_days))
-    dh = areal_design_depths(_years(model_hist, *ph), basins, **fit)["areal_estimate_mm"]
-    df = areal_design_depths(_years(model_future, *pf), basins, **fit)["areal_estimate_mm"]
+    def estimate(run: xr.DataArray) -> xr.DataArray:
+        return areal_design_depths(run, basins, periods=tuple(periods), ci=float(ci), n_boot=int(n_boot), seed=seed,
+                                   duration_days=int(duration_days))["areal_estimate_mm"]
+
+    dh, df = estimate(_years(model_hist, *ph)), estimate(_years(model_future, *pf))
     ratio = _summary(df / dh.where(dh > 0), member, "ratio")
     ds = xr.Dataset({"historical_depth_mm": describe(dh, "historical_depth_mm"),
                      "future_depth_mm": describe(df, "future_depth_mm"),

@@ -13,14 +13,15 @@ widget write it.  Nothing here draws or computes: the numbers come from the anal
 from __future__ import annotations
 
 from pathlib import Path
-from types import SimpleNamespace
 
+import pandas as pd
 import xarray as xr
 
 from .._version import __version__
 from ..analyses.meta import frame
 from ..atomic import atomic_write, check_target
 from ._provenance import describe_inputs
+from .content import ReportContent
 from .html import _CSS, _e, _inputs_html, _kv_table, _section, _table_html
 
 __all__ = ["depth_section", "scenario_report", "scenario_section", "write_scenario_report"]
@@ -116,7 +117,8 @@ def scenario_report(signals: xr.Dataset, inputs=None, parameters: dict | None = 
              scenario_section(signals)]
     if depths is not None:
         parts.append(depth_section(depths))
-    parts.append(_section("inputs", "Inputs", _inputs_html(SimpleNamespace(inputs=describe_inputs(inputs)))))
+    listed = ReportContent(table=pd.DataFrame(), inputs=describe_inputs(inputs))  # only its inputs are read
+    parts.append(_section("inputs", "Inputs", _inputs_html(listed)))
     params = list((parameters or {}).items()) or [("(none recorded)", "")]
     parts.append(_section("parameters", "Parameters", _kv_table(params)))
     if signals.attrs.get("history"):
