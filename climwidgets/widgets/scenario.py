@@ -113,7 +113,8 @@ class ScenarioWidget(BaseWidget):
         self.daily = hist.attrs.get("step") in _DAILY or str(hist.attrs.get("step", "")).endswith("hour")
         self.design_period = widgets.Dropdown(options=[(f"{t}-year 1-day", t) for t in (10, 25, 50, 100)],
                                               value=design_period if design_period in (10, 25, 50, 100) else 100,
-                                              description="Design depth", **lab)
+                                              description="Design depth", style=lab["style"],
+                                              layout=widgets.Layout(width="340px"))  # its own: hidden alone
         if not self.daily:  # monthly runs give no design depths: the note under the controls says so
             self.design_period.layout.display = "none"
         self.about = widgets.HTML(layout=widgets.Layout(width="340px"))

@@ -104,6 +104,7 @@ def test_methods_periods_and_member_menu(widget, runs):
     _close(widget.result["signals"]["normal_change_1_mean"].values, ref["normal_change_1_mean"].values)
     assert widget.result["maps"]["normal_change_1"].sizes == {"lat": obs.sizes["lat"], "lon": obs.sizes["lon"]}
     assert "delta change" in widget.about.value and widget.design_period.layout.display == "none"  # monthly runs
+    assert all(c.layout.display != "none" for c in (widget.first, widget.last, widget.method, widget.layer))
     widget.method.value = "quantile_delta"
     widget.wait()
     ref = basin_signals(hist, fut, basins, obs=obs, method="quantile_delta").compute()
