@@ -11,20 +11,24 @@ import numpy as np
 __all__ = ["mark_low_agreement"]
 
 
-def mark_low_agreement(ax, agreement, level: float, size: float = 16.0):
-    """Dots on the cells of ``agreement`` (share of members, 0–1) below ``level``; returns the artist.
+def mark_low_agreement(ax, agreement, level: float):
+    """Hatch the cells of ``agreement`` (share of members, 0–1) below ``level``; returns the artist.
 
-    ``ax`` is a cartopy GeoAxes; the dots are placed at the cell centres in lon/lat.
-    Cells without a value get no dot.  Returns None when no cell is below the level.
+    ``ax`` is a cartopy GeoAxes; the cells are outlined from the grid's cell bounds
+    (:func:`climwidgets.geo.grid.cell_bounds`), so a coarse model cell is hatched whole.
+    Cells without a value are left as they are.  Returns None when no cell is below the level.
     """
-    from .maps import _ccrs
+    from .maps import _ccrs, _edges
 
     values = np.asarray(agreement.values, dtype=float)
-    lon, lat = np.asarray(agreement["lon"].values, dtype=float), np.asarray(agreement["lat"].values, dtype=float)
-    if lon.ndim == 1 and values.ndim == 2:
-        lon, lat = np.meshgrid(lon, lat) if agreement.dims[-1] == "lon" else np.meshgrid(lon, lat, indexing="ij")
     low = np.isfinite(values) & (values < level)
     if not low.any():
         return None
-    return ax.scatter(lon[low], lat[low], s=size, c="0.1", marker=".", linewidths=0, transform=_ccrs().PlateCarree(),
-                      zorder=5)
+    lon_e, lat_e = _edges(agreement)
+    marks = ax.pcolor(lon_e, lat_e, np.ma.masked_where(~low, np.ones_like(values)), transform=_ccrs().PlateCarree(),
+                      zorder=1.5)  # above the colours, under the basin outlines and names
+    marks.set_facecolor("none")  # only the hatching: the colours of the change show through
+    marks.set_edgecolor("0.2")
+    marks.set_linewidth(0.0)
+    marks.set_hatch("...")
+    return marks

@@ -149,7 +149,7 @@ class ScenarioWidget(BaseWidget):
         depth_note = ("" if self.daily else
                       "<br>Design-depth change: needs daily or hourly runs; these runs are "
                       f"{html.escape(str(self.pr.attrs.get('step', '?')))} totals.")
-        note = widgets.HTML(f"<small>Dots on the map: fewer than {100 * AGREEMENT_LEVEL:.0f} % of the members agree on "
+        note = widgets.HTML(f"<small>Dotted cells on the map: fewer than {100 * AGREEMENT_LEVEL:.0f} % of the members agree on "
                             f"the sign of the change. The table gives the ensemble figures of every basin; the "
                             f"member menu chooses what the map shows.{depth_note}</small>",
                             layout=widgets.Layout(width="340px"))
