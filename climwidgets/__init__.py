@@ -110,6 +110,7 @@ _PUBLIC = {
     "IndicesWidget": "climwidgets.widgets.indices",
     "ComparisonWidget": "climwidgets.widgets.comparison",
     "BasinSummaryWidget": "climwidgets.widgets.summary",
+    "ScenarioWidget": "climwidgets.widgets.scenario",
 }
 
 

@@ -337,12 +337,14 @@ def build_parser() -> argparse.ArgumentParser:
     c.set_defaults(func=_cmd_compare)
 
     sc = sub.add_parser("scenario", parents=[common],
-                        help="climate-change signals per basin of a model ensemble (CSV)",
+                        help="climate-change signals per basin of a model ensemble (CSV and HTML report)",
                         description="Per basin: change in the seasonal share (future − historical) and in the "
                                     "annual normal (future / historical − 1) of a historical and a future run "
                                     "of the same members, as the ensemble mean, lowest and highest member and "
-                                    "the share of members agreeing. Writes scenario_basin_signals.csv into "
-                                    "--out. The scenario cautions are printed and written into the file.")
+                                    "the share of members agreeing. Writes scenario_basin_signals.csv and "
+                                    "scenario_report.html into --out (daily runs add "
+                                    "scenario_design_depths.csv). The scenario cautions are printed and "
+                                    "written into every file.")
     sc.add_argument("--hist", nargs="+", required=True, metavar="PATH", help="historical run file(s)")
     sc.add_argument("--future", nargs="+", required=True, metavar="PATH", help="future run file(s)")
     sc.add_argument("--basins", required=True, metavar="FILE", help="basin outlines (GeoJSON or shapefile)")

@@ -48,7 +48,8 @@ Progress = Callable[[str], None] | None
 SUMMARY_FILES = {"csv": "basin_summary.csv", "netcdf": "seasonal_share_normals.nc", "report": "basin_report.html"}
 EXTREMES_FILES = {"netcdf": "return_levels.nc", "csv": "basin_return_levels.csv"}
 COMPARE_FILES = {"netcdf": "comparison_metrics.nc", "csv": "products_basin_table.csv"}
-SCENARIO_FILES = {"csv": "scenario_basin_signals.csv"}
+SCENARIO_FILES = {"csv": "scenario_basin_signals.csv", "report": "scenario_report.html"}
+SCENARIO_DEPTH_FILE = "scenario_design_depths.csv"  # with daily or hourly runs
 
 _STEP_WORD = {"hour": "hourly", "day": "daily", "month": "monthly"}
 
@@ -330,19 +331,29 @@ def run_extremes(data, basins=None, duration_days=1, periods=(2, 10, 25, 50, 100
 
 # ------------------------------------------------------------------ scenario
 def run_scenario(hist, future, basins, months=(7, 8), historical=None, future_period=None, out_dir="out",
-                 overwrite: bool = False, progress: Progress = None, *, var=None, prefix: str = "") -> JobResult:
-    """Climate-change signals per basin of a model ensemble (CSV).
+                 overwrite: bool = False, progress: Progress = None, *, var=None, prefix: str = "", obs=None,
+                 method: str = "none", design_periods=(10, 100), n_boot: int = 200,
+                 title: str | None = None) -> JobResult:
+    """Climate-change signals per basin of a model ensemble (CSV and HTML report).
 
     ``scenario_basin_signals.csv`` has one row per basin: the change in the seasonal share
     and in the annual normal as the ensemble mean, the lowest and highest member and the
     share of members agreeing on the sign (:func:`analyses.scenario.basin_signals`); for
-    single runs, the run's change.  The scenario cautions
-    (:data:`climwidgets.compute.scenario.SCENARIO_CAUTIONS`) are in the file and the result.
+    single runs, the run's change.  ``scenario_report.html`` shows the same table under
+    the scenario cautions, with the inputs (sizes and checksums) and the parameters.
+    Daily or hourly runs add ``scenario_design_depths.csv``: the change in the 1-day areal
+    design depths of ``design_periods`` (:func:`analyses.scenario.basin_depth_signals`),
+    also in the report.  ``obs`` (observation files) with ``method="monthly_ratio"`` or
+    ``"quantile_delta"`` compares the observations with the adjusted scenario instead of
+    the runs with each other.  The scenario cautions
+    (:data:`climwidgets.compute.scenario.SCENARIO_CAUTIONS`) are in every file and the result.
     """
     from .analyses.meta import frame
     from .analyses.run import compute
-    from .analyses.scenario import basin_signals
+    from .analyses.scenario import _check_method, basin_depth_signals, basin_signals
+    from .compute.gev import _check_periods
     from .compute.scenario import SCENARIO_CAUTIONS
+    from .report.scenario_section import write_scenario_report
     from .report.tables import to_csv
 
     job = "scenario"
@@ -351,22 +362,50 @@ def run_scenario(hist, future, basins, months=(7, 8), historical=None, future_pe
         historical = _check_baseline(historical, job, "historical")
     if future_period is not None:
         future_period = _check_baseline(future_period, job, "future")
+    _check_method(method, obs, job)
+    design_periods = tuple(int(p) if float(p).is_integer() else float(p)
+                           for p in _check_periods(design_periods).tolist())
     paths = _plan_outputs(out_dir, SCENARIO_FILES, prefix, overwrite, job)
     say = _Reporter(progress, job)
-    basin_list = load_basins(basins)
     ph, pf = _open(hist, var), _open(future, var)
-    lazy = basin_signals(ph, pf, basin_list, months=months, historical=historical, future=future_period)
+    daily = ph.attrs.get("step") not in (None, "month")  # design depths need daily or hourly runs
+    if daily:  # checked as soon as the step is known, before any data are read
+        paths.update(_plan_outputs(out_dir, {"depths_csv": SCENARIO_DEPTH_FILE}, prefix, overwrite, job))
+    basin_list = load_basins(basins)
+    po = _open(obs, var) if obs is not None else None
+    lazy = [basin_signals(ph, pf, basin_list, months=months, historical=historical, future=future_period,
+                          obs=po, method=method)]
+    if daily:
+        lazy.append(basin_depth_signals(ph, pf, basin_list, periods=design_periods, historical=historical,
+                                        future=future_period, n_boot=n_boot))
     with say.dask("basin series of both runs and their signals in one pass"):
-        (signals,) = compute(lazy)
+        computed = compute(*lazy)
+    signals, depths = computed[0], (computed[1] if daily else None)
     ensemble = signals.attrs.get("member_dim", "none") != "none"
     # with members: one row per basin (mean, range, agreement); a single run: its own change
     table = frame(signals) if ensemble else frame(signals, columns=["share_change_1", "normal_change_1"])
     table.attrs.update({"months": list(months), "historical_period": signals.attrs["historical_period"],
-                        "future_period": signals.attrs["future_period"], "member_dim": signals.attrs["member_dim"]})
+                        "future_period": signals.attrs["future_period"], "member_dim": signals.attrs["member_dim"],
+                        "method": method})
+    sources = _sources(ph) + _sources(pf) + (_sources(po) if po is not None else [])
+    notes = [f"compared: {signals.attrs['comparison']}"]
+    parameters = {"season": signals.attrs["season"], "months": list(months), "method": method,
+                  "historical period": signals.attrs["historical_period"],
+                  "future period": signals.attrs["future_period"], "member dimension": signals.attrs["member_dim"]}
+    cautions = tuple(signals.attrs["cautions"]) + (tuple(c for c in depths.attrs["cautions"]
+                                                         if c not in SCENARIO_CAUTIONS) if daily else ())
     with _staged(paths, overwrite, job) as staged:
-        to_csv(table, staged["csv"], provenance={"inputs": _sources(ph) + _sources(pf), "cautions": SCENARIO_CAUTIONS,
+        to_csv(table, staged["csv"], provenance={"inputs": sources, "cautions": SCENARIO_CAUTIONS, "notes": notes,
                                                  "title": "climate-change signals per basin"})
-    return JobResult(paths=paths, table=table, cautions=tuple(SCENARIO_CAUTIONS))
+        if daily:
+            columns = [n for n in depths.data_vars if set(depths[n].dims) == {"basin", "return_period"}] \
+                if ensemble else ["historical_depth_mm", "future_depth_mm", "depth_change_1"]
+            to_csv(frame(depths, index=("basin", "return_period"), columns=columns), staged["depths_csv"],
+                   provenance={"inputs": sources, "cautions": cautions, "title": "change in design depths per basin"})
+        say("writing the report")
+        write_scenario_report(signals, staged["report"], inputs=sources, parameters=parameters, depths=depths,
+                              title=title or "Climate-change signals per basin")
+    return JobResult(paths=paths, table=table, cautions=cautions)
 
 
 # ------------------------------------------------------------------ compare

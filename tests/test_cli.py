@@ -238,9 +238,15 @@ def test_scenario_writes_basin_signals_and_prints_cautions(capsys, ensemble_file
                          demo_files["ensemble_future"], "--basins", demo_files["basins"], "--out", tmp_path, "--quiet")
     assert code == 0, err
     paths = [Path(p) for p in out.splitlines()]
-    assert [p.name for p in paths] == ["scenario_basin_signals.csv"]
+    assert [p.name for p in paths] == ["scenario_basin_signals.csv", "scenario_report.html"]
     for caution in SCENARIO_CAUTIONS:
         assert caution in err
+    # the report beside the CSV: cautions before the numbers, the inputs named
+    page = paths[1].read_text(encoding="utf-8")
+    assert page.index("Before using these numbers") < page.index("<table")
+    assert Path(demo_files["ensemble_historical"]).name in page and Path(demo_files["ensemble_future"]).name in page
+    for b in demo.BASINS:
+        assert b["name"] in page
     table = read_csv(paths[0], index_col=0)
     assert set(table.index) == {b["name"] for b in demo.BASINS}
     hist, fut = cw.open_precip(demo_files["ensemble_historical"]), cw.open_precip(demo_files["ensemble_future"])

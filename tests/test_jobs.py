@@ -354,3 +354,60 @@ def test_an_output_folder_that_takes_no_files_is_refused_before_the_data_are_rea
         text = str(info.value)
         assert "/proc" in text and "does not accept new files" in text and "--out" in text
         assert "Errno" not in text
+
+
+# ------------------------------------------------------------------ scenario
+def _daily_runs(folder):
+    """Two members' daily runs on a 2x2 grid; the future is the past times 1.1 and 0.9."""
+    lat, lon = np.array([10.25, 10.75]), np.array([-160.75, -160.25])
+    out = []
+    for first, factors, name in ((1981, [1.0, 1.0], "hist.nc"), (2041, [1.1, 0.9], "future.nc")):
+        time = pd.date_range(f"{first}-01-01", f"{first + 11}-12-31", freq="D")
+        base = np.random.default_rng(5).gamma(0.6, 8.0, size=(time.size, 2, 2))  # the same weather
+        da = xr.DataArray(base[None] * np.array(factors)[:, None, None, None], dims=("member", "time", "lat", "lon"),
+                          coords={"member": ["a", "b"], "time": time, "lat": lat, "lon": lon}, name="pr",
+                          attrs={"units": "mm", "standard_name": "lwe_thickness_of_precipitation_amount"})
+        da.to_dataset().to_netcdf(folder / name)
+        out.append(folder / name)
+    _, basins = _small_inputs(folder)
+    return out[0], out[1], basins
+
+
+def test_scenario_job_writes_signals_depths_and_report_together(tmp_path, monkeypatch):
+    from climwidgets.analyses.scenario import basin_depth_signals
+    from climwidgets.compute.scenario import SCENARIO_CAUTIONS
+    from climwidgets.report import scenario_section
+
+    hist, fut, basins = _daily_runs(tmp_path)
+    out = tmp_path / "out"
+
+    def boom(*args, **kwargs):
+        raise RuntimeError("the report could not be made")
+
+    with monkeypatch.context() as m:
+        m.setattr(scenario_section, "write_scenario_report", boom)
+        with pytest.raises(RuntimeError):
+            jobs.run_scenario(hist, fut, basins, out_dir=out)
+    assert _files(out) == {}  # staged: no CSV without its report
+    result = jobs.run_scenario(hist, fut, basins, out_dir=out)
+    assert sorted(_files(out)) == ["scenario_basin_signals.csv", "scenario_basin_signals.csv-metadata.json",
+                                   "scenario_design_depths.csv", "scenario_design_depths.csv-metadata.json",
+                                   "scenario_report.html"]
+    depths = read_csv(result.paths["depths_csv"], index_col=[0, 1])
+    # a future that is the past times 1.1 and 0.9: every areal return level changes by that
+    # factor (L-moment GEV fits are scale-equivariant, Hosking 1990)
+    np.testing.assert_allclose(depths["depth_change_1_lower"].values, -0.1, rtol=1e-6)
+    np.testing.assert_allclose(depths["depth_change_1_upper"].values, 0.1, rtol=1e-6)
+    ref = basin_depth_signals(cw.open_precip(hist), cw.open_precip(fut), cw.load_basins(basins),
+                              periods=(10, 100)).compute()
+    np.testing.assert_allclose(depths["historical_depth_mm_mean"].values,
+                               ref["historical_depth_mm_mean"].transpose("basin", "return_period").values.ravel(),
+                               rtol=1e-9)
+    page = result.paths["report"].read_text(encoding="utf-8")
+    assert "Change in design depths" in page and "hist.nc" in page and "future.nc" in page
+    assert page.index(SCENARIO_CAUTIONS[0][:30]) < page.index("<table")
+    assert set(SCENARIO_CAUTIONS) <= set(result.cautions)
+    with pytest.raises(InputError, match="already exist"):
+        jobs.run_scenario(hist, fut, basins, out_dir=out)
+    with pytest.raises(ParameterError, match="observations"):
+        jobs.run_scenario(hist, fut, basins, out_dir=tmp_path / "other", method="monthly_ratio")

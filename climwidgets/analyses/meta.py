@@ -201,6 +201,12 @@ CATALOGUE: dict[str, Meta] = {
                            "basin (ratio of sums over each period)", "% points", 100.0, "+.1f"),
     "normal_change_1": Meta("change in annual normal", "1", "future over historical annual normal of the basin, "
                             "minus one", "%", 100.0, "+.1f"),
+    "historical_depth_mm": Meta("areal design depth, historical", "mm", "return level of the basin-mean "
+                                "annual maxima of the historical run", "mm", 1.0, ".1f"),
+    "future_depth_mm": Meta("areal design depth, future", "mm", "return level of the basin-mean annual maxima "
+                            "of the future run", "mm", 1.0, ".1f"),
+    "depth_change_1": Meta("change in design depth", "1", "future over historical areal design depth of the "
+                           "basin, minus one", "%", 100.0, "+.1f"),
     "agreement_1": Meta("members agreeing", "1", "share of members whose change has the sign of the "
                         "ensemble-median change", "%", 100.0, ".0f"),
 }

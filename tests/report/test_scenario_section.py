@@ -26,3 +26,26 @@ def test_cautions_come_before_the_numbers_and_text_is_escaped():
     assert "north &lt;b&gt;" in page and "north <b>" not in page
     assert "1981–2010" in page and "2041–2070" in page
     assert "Change in seasonal share, ensemble mean" in page
+
+
+def test_report_page_has_cautions_inputs_and_parameters(tmp_path):
+    from climwidgets.report.scenario_section import write_scenario_report
+
+    src = tmp_path / "hist.nc"
+    src.write_bytes(b"not really netcdf")
+    path = write_scenario_report(_signals(), tmp_path / "scenario_report.html", inputs=[src],
+                                 parameters={"season": "Jul-Aug", "method": "none"})
+    page = path.read_text(encoding="utf-8")
+    assert page.startswith("<!DOCTYPE html>") and "<script" not in page
+    assert page.index(SCENARIO_CAUTIONS[0][:30]) < page.index("+2.0")
+    # the input with its SHA-256 (hashlib.sha256 of the bytes written above)
+    import hashlib
+
+    assert "hist.nc" in page and hashlib.sha256(b"not really netcdf").hexdigest() in page
+    assert "Jul-Aug" in page and "method" in page
+    import pytest
+
+    from climwidgets.atomic import OutputExistsError
+
+    with pytest.raises(OutputExistsError):
+        write_scenario_report(_signals(), path)
