@@ -122,12 +122,15 @@ def write_api_page() -> None:
 
 def write_screenshots_page() -> None:
     shots = sorted((DOCS / "_static" / "screenshots").glob("*.png"))
-    lines = ["Widget screenshots", "==================", ""]
+    lines = ["Widget screenshots", "==================", "",
+             "Each widget of the tour notebook as Voilà serves it, taken in Chromium at 1400 px on the",
+             "small demo by ``tests/widgets/test_browser_tour.py`` (which writes them to",
+             "``out/screenshots/``; copy them here to refresh this page).", ""]
     if not shots:
         lines += ["No screenshots are in this checkout yet.  PNG files placed in",
                   "``docs/_static/screenshots/`` appear on this page at the next build.", ""]
     for shot in shots:
-        title = shot.stem.replace("_", " ").replace("-", " ").capitalize()
+        title = shot.stem.lstrip("0123456789").strip("_").replace("_", " ").replace("-", " ").capitalize()
         lines += [title, "-" * len(title), "",
                   f".. image:: /_static/screenshots/{shot.name}",
                   f"   :alt: {title}", "   :width: 100%", ""]
