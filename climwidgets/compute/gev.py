@@ -41,7 +41,6 @@ the year axis is sorted per cell with missing years (NaN) left out of that cell'
 
 from __future__ import annotations
 
-import warnings
 from typing import Any
 
 import numpy as np
@@ -203,12 +202,89 @@ def _fit_block(x: Any, dist: str, min_years: int) -> tuple[np.ndarray, ...]:
     return (*out, n, l1, l2, t3, t4)
 
 
+def nanquantile_linear(a: Any, q: Any, axis: int = -1) -> np.ndarray:
+    """``numpy.nanquantile(a, q, axis, method="linear")`` for many slices at once.
+
+    numpy evaluates ``nanquantile`` one 1-D slice at a time when NaN are present (a Python
+    loop over slices); here the whole array is sorted once along ``axis`` (NaN sort to the
+    end), each slice's count of values gives its virtual index ``(n - 1) q`` (Hyndman & Fan
+    type 7), and the neighbours are interpolated with numpy's own two-sided formula, so the
+    result is bit-for-bit numpy's. A slice without any value gives NaN (without numpy's
+    warning).
+
+    Parameters
+    ----------
+    a : array_like
+        Values; cast to float64.
+    q : float or array_like of float
+        Probabilities in [0, 1].
+    axis : int, default -1
+        Axis along which the quantiles are taken.
+
+    Returns
+    -------
+    numpy.ndarray
+        Shape ``q.shape + a.shape`` without ``axis``, float64, as numpy returns it.
+
+    References
+    ----------
+    Hyndman, R. J. & Fan, Y. (1996). Sample quantiles in statistical packages. The American
+    Statistician 50(4), 361-365 (definition 7).
+
+    Examples
+    --------
+    >>> nanquantile_linear([[1.0, np.nan, 3.0, 2.0]], [0.25, 0.5], axis=1).tolist()
+    [[1.5], [2.0]]
+    """
+    x = np.moveaxis(np.asarray(a, dtype=np.float64), axis, -1)
+    rest, m = x.shape[:-1], x.shape[-1]
+    x = x.reshape(-1, m).copy()  # (slices, values), ours to reorder
+    q = np.asarray(q, dtype=np.float64)
+    gaps = np.isnan(x).any(axis=1)
+    n = np.where(gaps, m - np.isnan(x).sum(axis=1), m)
+    virtual = (n - 1) * q.reshape(-1, 1)  # (q, slices): numpy's "linear" virtual index
+    prev = np.floor(virtual)
+    # numpy's neighbours and weight: past the last value both neighbours are the last value
+    # (its index -1, so the weight is virtual + 1); before the first, the first
+    above, below = virtual >= n - 1, virtual < 0
+    last = np.broadcast_to(np.maximum(n - 1, 0), virtual.shape)
+    i_prev = np.where(above, last, np.where(below, 0, prev)).astype(np.intp)
+    i_next = np.where(above, last, np.where(below, 0, prev + 1)).astype(np.intp)
+    gamma = np.where(above, virtual + 1, np.where(below, virtual, virtual - prev))
+    if gaps.any():  # NaN sort to the end: ranks 0 .. n-1 are the slice's values
+        x[gaps] = np.sort(x[gaps], axis=1)
+    if not gaps.all():  # complete slices share their ranks: a partial sort places them
+        kth = np.unique(np.concatenate([i_prev[:, ~gaps].ravel(), i_next[:, ~gaps].ravel()]))
+        x[~gaps] = np.partition(x[~gaps], kth, axis=1)
+    lo = np.take_along_axis(x, i_prev.T, axis=1).T
+    hi = np.take_along_axis(x, i_next.T, axis=1).T
+    diff = hi - lo
+    out = np.where(gamma >= 0.5, hi - diff * (1 - gamma), lo + diff * gamma)  # numpy's _lerp
+    out = np.where(n == 0, np.nan, out)
+    return out.reshape(q.shape + rest)
+
+
+def _pwm_weights(n: int) -> np.ndarray:
+    """(n, 3) weights of the unbiased b0, b1, b2 of a sorted sample of n values."""
+    j = np.arange(n, dtype=float)
+    w1 = j / (n - 1)
+    w2 = w1 * (j - 1) / (n - 2)
+    return np.stack([np.ones(n), w1, w2])
+
+
 def _bootstrap_block(x: np.ndarray, F: np.ndarray, dist: str, min_years: int, ci: float, n_boot: int,
                      seed: Any) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """Estimates and percentile intervals for every row of x (..., year) at probabilities F.
 
     The same uniform draws (one (n_boot, n_years) table from ``seed``) serve every cell
     (common random numbers), so results do not depend on dask chunking.
+
+    A replicate of a cell with n years is x(u) of the first n draws of a row of the table.
+    x(u) rises with u wherever the fit exists (scale > 0), so sorting the draws once per
+    sample size sorts every cell's replicates: no per-cell sort, and ln(-ln u) is shared,
+    leaving one ``exp`` per value. The refit then uses the same probability-weighted
+    moments as :func:`_sample_lmoments`, and the percentiles come from
+    :func:`nanquantile_linear` on all cells at once.
     """
     lead = x.shape[:-1]
     ny = x.shape[-1]
@@ -220,29 +296,42 @@ def _bootstrap_block(x: np.ndarray, F: np.ndarray, dist: str, min_years: int, ci
     upper = np.full((m, F.size), np.nan)
     u = np.random.default_rng(seed).random((n_boot, ny))
     u = np.clip(u, 1e-300, 1.0)  # keep -ln(u) finite
-    # a replicate has as many years as the cell's own sample: the first n columns of u
-    col = np.arange(ny)
     q_lo, q_hi = (1.0 - ci) / 2.0, (1.0 + ci) / 2.0
     step = max(1, _BOOT_BLOCK_ELEMENTS // max(1, n_boot * ny))
     ok_rows = np.flatnonzero(np.isfinite(loc))
-    for start in range(0, ok_rows.size, step):  # memory bound, not a loop over single cells
-        rows = ok_rows[start:start + step]
-        p = (loc[rows, None, None], scale[rows, None, None], k[rows, None, None])
-        sample = _quantile(u[None, :, :], *p)
-        sample = np.where(col[None, None, :] < n[rows, None, None], sample, np.nan)
-        bl, bs, bk = _fit_block(sample, dist, min_years)[:3]
-        xt = _quantile(F[None, None, :], bl[..., None], bs[..., None], bk[..., None])
-        # np.quantile is vectorised; np.nanquantile loops over cells, so keep it for the
-        # few cells where some refit failed
-        lo, hi = np.quantile(xt, [q_lo, q_hi], axis=1)
-        gaps = ~np.isfinite(xt).all(axis=1)
-        if gaps.any():
-            with warnings.catch_warnings():  # a cell whose every refit failed stays NaN
-                warnings.simplefilter("ignore", RuntimeWarning)
-                r, c = np.nonzero(gaps)
-                lo[r, c], hi[r, c] = np.nanquantile(xt[r, :, c], [q_lo, q_hi], axis=1)
-        lower[rows] = lo
-        upper[rows] = hi
+    sizes = n[ok_rows].astype(int)
+    for size in np.unique(sizes):  # cells with missing years: fewer draws per replicate
+        lnln = np.log(-np.log(np.sort(u[:, :size], axis=1)))  # (n_boot, size), x rises along it
+        w = (_pwm_weights(size) / size).T  # (size, 3): b_r = x_sorted @ w[:, r]
+        wsum = w.sum(axis=0)
+        gumbel_b = -lnln @ w  # the Gumbel replicates' sums, shared by every cell
+        group = ok_rows[sizes == size]
+        for start in range(0, group.size, step):  # memory bound, not a loop over single cells
+            rows = group[start:start + step]
+            kk = k[rows]
+            ks = np.where(kk == 0, 1.0, kk)[:, None, None]
+            # x(u) = loc + scale/k (1 - (-ln u)^k) = loc + (scale/k) d,  d = -expm1(k ln(-ln u));
+            # the b_r are linear in x, so b_r = loc sum(w_r) + (scale/k) (d @ w_r): one
+            # matrix product per cell (the same shapes for every cell, so the same rounding
+            # whatever the chunking); expm1 keeps d accurate as k nears 0
+            with np.errstate(over="ignore", invalid="ignore"):
+                d = np.multiply(ks, lnln)
+                np.expm1(d, out=d)
+                np.negative(d, out=d)
+                db = d @ w  # (rows, n_boot, 3)
+            gumbel = kk == 0
+            db[gumbel] = gumbel_b
+            c = np.where(gumbel, scale[rows], scale[rows] / ks[:, 0, 0])[:, None, None]
+            b = loc[rows, None, None] * wsum + c * db
+            b0, b1, b2 = b[..., 0], b[..., 1], b[..., 2]
+            l1, l2 = b0, 2 * b1 - b0
+            with np.errstate(divide="ignore", invalid="ignore"):
+                t3 = (6 * b2 - 6 * b1 + b0) / l2
+            t3 = np.where(l2 > 0, t3, np.nan)  # as _sample_lmoments: no fit without spread
+            bl, bs, bk = _params_from_lmoments(l1, l2, t3, dist)
+            # (rows, period, replicate): the percentiles are taken along a contiguous axis
+            xt = _quantile(F[None, :, None], bl[:, None, :], bs[:, None, :], bk[:, None, :])
+            lower[rows], upper[rows] = nanquantile_linear(xt, [q_lo, q_hi], axis=-1)
     shape = lead + (F.size,)
     return est.reshape(shape), lower.reshape(shape), upper.reshape(shape)
 

@@ -8,6 +8,13 @@ chunk index once (through h5py), then reads each stored chunk's bytes with ``os.
 verifies its checksum when the file has one, and decompresses it with ``zlib`` — all of
 which release the GIL — so threads decompress in parallel.
 
+Every filter this reader undoes is checked, as the HDF5 library checks it: the Fletcher-32
+sum of each chunk against its stored trailer (HDF5's variant of the sum: 16-bit words read
+big-endian); deflate by zlib's own Adler-32 and a complete stream; the shuffle's element
+size against the variable's; and the decoded chunk's size against the chunk shape. A chunk
+that fails is refused with a :class:`~climwidgets.errors.SourceError` naming the file, the
+variable and the chunk's place (which time steps, rows and columns).
+
 Any other layout (contiguous storage, other filters, remote URLs, Zarr) is left to the
 ordinary xarray path: ``direct_reader`` returns None.
 
@@ -43,8 +50,20 @@ def _unshuffle(data: bytes, size: int):
     return out.reshape(-1)  # flat bytes, so a following checksum strip cuts bytes, not rows
 
 
-class ChecksumError(ValueError):
+class ChunkCheckError(ValueError):
+    """A stored chunk that fails a check of one of its filters (the file is damaged)."""
+
+
+class ChecksumError(ChunkCheckError):
     """A stored chunk whose bytes do not match its checksum (the file is damaged)."""
+
+
+class ChunkReadError(ValueError):
+    """A chunk check failed; carries the chunk's description for the user's message."""
+
+    def __init__(self, where: str, cause: ChunkCheckError):
+        self.where, self.cause = where, cause
+        super().__init__(f"{where}: {cause}")
 
 
 _ROW = 4096  # words per row when the checksum folds the chunk into a 2-D array
@@ -83,12 +102,58 @@ def _fletcher32(data) -> int:
     return (s2 << 16) | s1
 
 
-def _check_fletcher32(data: bytes) -> bytes:
+_FAST_FLETCHER32: list = []  # [codec or None], decided on first use
+
+
+def _fast_fletcher32():
+    """numcodecs' Fletcher32 codec if it follows HDF5's convention here, else None.
+
+    numcodecs 0.16 computes HDF5's sum (big-endian 16-bit words, an odd last byte as a
+    high byte, the sum stored little-endian after the data) in compiled code, about four
+    times faster than :func:`_fletcher32`; some earlier releases read the words in native
+    order, and some refused a mismatch only with ``assert`` (skipped under ``python -O``).
+    So the codec is used only after it accepts chunks checksummed by :func:`_fletcher32`
+    (odd and even lengths) and refuses the same chunks with one bit changed.
+    """
+    if not _FAST_FLETCHER32:
+        codec = None
+        try:
+            from numcodecs import Fletcher32
+
+            candidate = Fletcher32()
+            ok = True
+            for size in (4099, 4100):
+                body = bytes((i * 7919 + 13) % 256 for i in range(size))
+                good = body + _fletcher32(body).to_bytes(4, "little")
+                bad = bytes([good[0] ^ 0x10]) + good[1:]
+                ok &= bytes(candidate.decode(good)) == body
+                try:
+                    candidate.decode(bad)
+                    ok = False
+                except (RuntimeError, AssertionError, ValueError):
+                    pass
+            codec = candidate if ok else None
+        except Exception:  # noqa: BLE001 - any failure of an optional codec: use our own sum
+            codec = None
+        _FAST_FLETCHER32.append(codec)
+    return _FAST_FLETCHER32[0]
+
+
+def _check_fletcher32(data: bytes):
     """The chunk without its checksum trailer, after checking the trailer against the data.
 
     HDF5 accepts the correct sum and, for files written by its releases before 1.6.3,
-    the sum with the bytes of each 16-bit half swapped; so do we.
+    the sum with the bytes of each 16-bit half swapped; so do we (a sum the fast codec
+    refuses is checked again here, which also gives both sums for the message).
     """
+    if len(data) < 4:
+        raise ChecksumError(f"stored chunk of {len(data)} bytes is shorter than its Fletcher-32 checksum")
+    codec = _fast_fletcher32()
+    if codec is not None:
+        try:
+            return codec.decode(data)
+        except (RuntimeError, AssertionError, ValueError):
+            pass
     body, trailer = data[:-4], data[-4:]
     stored = int.from_bytes(trailer, "little")
     computed = _fletcher32(body)
@@ -102,8 +167,10 @@ def _check_fletcher32(data: bytes) -> bytes:
 class ChunkIndex:
     """Byte offset and size of every stored chunk of one variable, by its chunk-grid position."""
 
-    def __init__(self, path, shape, chunk_shape, dtype, fill, filters, entries, varname=None, stamp=None):
+    def __init__(self, path, shape, chunk_shape, dtype, fill, filters, entries, varname=None, stamp=None,
+                 dims=None):
         self.path = path
+        self.dims = dims  # dimension names (from the file's dimension scales), for messages
         self.varname, self.stamp = varname, stamp  # stamp: (size, mtime_ns) of the file indexed
         self.shape = tuple(shape)
         self.chunk_shape = tuple(chunk_shape)
@@ -126,19 +193,53 @@ class ChunkIndex:
         return np.array(np.meshgrid(*ranges, indexing="ij")).reshape(len(ranges), -1).T
 
     def decode(self, raw: bytes, mask: int) -> np.ndarray:
+        """One stored chunk's values; every filter undone is checked (ChunkCheckError if not)."""
         data = raw
         for i, fid in reversed(list(enumerate(self.filters))):  # undo the pipeline in reverse
             if mask & (1 << i):
                 continue  # filter skipped for this chunk
             if fid == _DEFLATE:
-                data = zlib.decompress(data)
+                try:
+                    data = zlib.decompress(data)  # checks the stream's Adler-32 and its end
+                except zlib.error as exc:
+                    raise ChunkCheckError(f"deflate stream is damaged (zlib.error: {exc})") from None
             elif fid == _SHUFFLE:
+                if len(data) % self.dtype.itemsize:
+                    raise ChunkCheckError(f"shuffled chunk of {len(data)} bytes is not a whole number of "
+                                          f"{self.dtype.itemsize}-byte values")
                 data = _unshuffle(data, self.dtype.itemsize)
             elif fid == _FLETCHER32:
                 data = _check_fletcher32(data)
+            else:  # pragma: no cover - _build_index admits no other filter
+                raise ChunkCheckError(f"filter {fid} is not one this reader undoes")
+        expected = int(np.prod(self.chunk_shape)) * self.dtype.itemsize
+        nbytes = data.nbytes if hasattr(data, "nbytes") else len(data)  # bytes, memoryview or array
+        if nbytes != expected:
+            raise ChunkCheckError(f"decoded chunk has {nbytes} bytes, {expected} expected for its shape "
+                                  f"{self.chunk_shape}")
         if isinstance(data, np.ndarray):
             return data.view(self.dtype).reshape(self.chunk_shape)
         return np.frombuffer(data, dtype=self.dtype).reshape(self.chunk_shape)
+
+    def describe(self, pos) -> str:
+        """Where the stored chunk at grid position ``pos`` lies, in words and as slices."""
+        parts = []
+        names = self.dims if self.dims and len(self.dims) == len(self.shape) else [None] * len(self.shape)
+        nd = len(self.shape)
+        for axis, (p, c, n, name) in enumerate(zip(pos, self.chunk_shape, self.shape, names)):
+            lo, hi = p * c, min((p + 1) * c, n)
+            if nd >= 2 and axis == nd - 2:
+                what = f"rows {lo}–{hi - 1}" + (f" ({name})" if name else "")
+            elif nd >= 2 and axis == nd - 1:
+                what = f"columns {lo}–{hi - 1}" + (f" ({name})" if name else "")
+            elif name == "time":
+                what = f"time steps {lo}–{hi - 1}"
+            else:
+                what = f"{name or f'axis {axis}'} indices {lo}–{hi - 1}"
+            parts.append(what)
+        where = ", ".join(f"{name or f'axis {a}'} {lo}:{hi}" for a, (name, lo, hi) in enumerate(
+            (nm, p * c, min((p + 1) * c, n)) for p, c, n, nm in zip(pos, self.chunk_shape, self.shape, names)))
+        return f"the stored chunk at {', '.join(parts)} [{where}]"
 
 
 def _build_index(path: str, varname: str) -> ChunkIndex | None:
@@ -154,9 +255,13 @@ def _build_index(path: str, varname: str) -> ChunkIndex | None:
             if d.chunks is None or not isinstance(d, h5py.Dataset) or d.dtype.kind not in "fiu":
                 return None
             plist = d.id.get_create_plist()
-            filters = [plist.get_filter(i)[0] for i in range(plist.get_nfilters())]
+            specs = [plist.get_filter(i) for i in range(plist.get_nfilters())]
+            filters = [spec[0] for spec in specs]
             if any(fid not in (_DEFLATE, _SHUFFLE, _FLETCHER32) for fid in filters):
-                return None
+                return None  # a filter this reader does not undo: the library reads the file
+            for fid, _flags, values, _name in specs:
+                if fid == _SHUFFLE and values and int(values[0]) != d.dtype.itemsize:
+                    return None  # shuffled with another element size than the values have
             entries = {}
             chunk = np.array(d.chunks)
 
@@ -169,9 +274,18 @@ def _build_index(path: str, varname: str) -> ChunkIndex | None:
                 for i in range(d.id.get_num_chunks()):
                     add(d.id.get_chunk_info(i))
             return ChunkIndex(path, d.shape, d.chunks, d.dtype, d.fillvalue, filters, entries, varname,
-                              _stamp(path))
+                              _stamp(path), dims=_dim_names(d))
     except (OSError, ValueError, KeyError, RuntimeError):
         return None
+
+
+def _dim_names(d):
+    """The names of a NetCDF-4 variable's dimensions (its HDF5 dimension scales), or None."""
+    try:
+        names = [dim[0].name.rsplit("/", 1)[-1] if len(dim) else None for dim in d.dims]
+    except (KeyError, ValueError, RuntimeError, OSError, IndexError):
+        return None
+    return names if all(names) else None
 
 
 def _stamp(path):
@@ -214,7 +328,14 @@ def read_region(index: ChunkIndex, region: tuple) -> np.ndarray:
                 block = np.full(index.chunk_shape, index.fill, dtype=index.dtype)  # never written
             else:
                 offset, size, mask = entry
-                block = index.decode(os.pread(fd, size, offset), mask)
+                raw = os.pread(fd, size, offset)
+                if len(raw) != size:
+                    raise ChunkReadError(index.describe(pos), ChunkCheckError(
+                        f"only {len(raw)} of its {size} bytes are in the file (cut short)"))
+                try:
+                    block = index.decode(raw, mask)
+                except ChunkCheckError as exc:
+                    raise ChunkReadError(index.describe(pos), exc) from None
             src, dst = [], []
             for s, l, c in zip(region, lo, index.chunk_shape):
                 a, b = max(s.start, l), min(s.stop, l + c)
@@ -257,6 +378,18 @@ def _read_error(path, varname, region, exc):
                        fix="check the file with 'ncdump' and copy or download it again")
 
 
+def _chunk_error(path, varname, exc: ChunkReadError):
+    """A stored chunk that failed a check, as a SourceError naming the file, variable and chunk."""
+    from ..errors import SourceError
+
+    what = "checksum" if isinstance(exc.cause, ChecksumError) else "check"
+    return SourceError(f"{exc.where} fails its {what}: {exc.cause}; the file is damaged (changed since "
+                       "it was written), so its values there cannot be trusted",
+                       source=path, variable=varname, expected="every stored chunk as it was written",
+                       fix="copy or download the file again (check it with 'h5dump' or 'ncdump'); "
+                           "the other chunks read normally")
+
+
 def _read_block(index, fills, scale, offset, varname=None, block_info=None):
     loc = block_info[None]["array-location"]
     region = tuple(slice(a, b) for a, b in loc)
@@ -271,6 +404,8 @@ def _read_block(index, fills, scale, offset, varname=None, block_info=None):
                     read_region(index, stored), fills, scale, offset)
             return out
         return _decode_cf(read_region(index, region), fills, scale, offset)
+    except ChunkReadError as exc:
+        raise _chunk_error(index.path, varname, exc) from None
     except (OSError, zlib.error, ValueError, RuntimeError) as exc:
         raise _read_error(index.path, varname, region, exc) from None
 
