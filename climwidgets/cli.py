@@ -169,7 +169,7 @@ def _cmd_demo(args):
 
         _stderr(f"Serving the tour at http://127.0.0.1:{args.port}/ (Ctrl-C to stop)")
         argv, env = voila_command(notebook, args.port)
-        return subprocess.call(argv, env=env)
+        return subprocess.call([*argv], env=env)  # a list of words, never a shell string
     return EXIT_OK
 
 
