@@ -68,3 +68,7 @@ types: $(VENV)/.installed-lint
 # Rewrites files: run on a clean tree (see DEVELOPERS.md, "Lint, format and types").
 format: $(VENV)/.installed-lint
 	$(VENV)/bin/ruff format climwidgets tests benchmarks docs notebooks
+
+# The suite at the lowest declared versions, in .venv-lowest (.ci/lowest; CI runs it too).
+lowest:
+	bash .ci/lowest

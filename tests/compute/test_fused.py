@@ -117,7 +117,9 @@ def test_fused_refuses_negative_depths_and_zeroes_tiny_ones(tmp_path):
 def test_fused_on_converted_values_when_the_array_was_changed(tmp_path):
     """Eager validation or user arithmetic changes the dask array: the fused pass reduces it as given."""
     path = _write(tmp_path / "d.nc", missing=True)
-    for pr in (cw.open_precip(path, validate=True), cw.open_precip(path, validate=False).chunk({"time": 50}) * 1.0):
+    with xr.set_options(keep_attrs=True):  # the units stay through the arithmetic (xarray 2025.1 drops them)
+        changed = cw.open_precip(path, validate=False).chunk({"time": 50}) * 1.0
+    for pr in (cw.open_precip(path, validate=True), changed):
         assert _fused._stored_record(pr) is None
         fused, plain = _both(pr, baseline=(2001, 2003))
         _assert_same(fused, plain)
@@ -130,7 +132,9 @@ def test_one_task_per_chunk_read_and_only_partials_leave_it(tmp_path):
     (opt,) = dask.optimize(ds)
     kinds = collections.Counter(str(k[0] if isinstance(k, tuple) else k).rsplit("-", 1)[0]
                                 for k in opt.__dask_graph__())
-    assert kinds["climatology-partials"] == len(pr.chunks[0])
+    # by prefix: dask 2024.6 appends a token to map_blocks' name and keeps block_info in tasks of
+    # its own (small dicts, not daily blocks)
+    assert sum(n for k, n in kinds.items() if k.startswith("climatology-partials")) == len(pr.chunks[0])
     assert not [k for k in kinds if k.startswith(("open_precip", "convert_block"))]
 
 

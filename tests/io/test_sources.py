@@ -1,5 +1,6 @@
 """fsspec sources, offline: fsspec's memory filesystem and the local filesystem (file://)."""
 
+import importlib.metadata
 import uuid
 
 import fsspec
@@ -102,7 +103,13 @@ def test_glob_in_memory_filesystem_combines_files(tmp_path, memfs):
     assert pr.sizes["time"] == 6 and pr.attrs["sources"].count("memory://") == 2
 
 
-@pytest.mark.parametrize("zarr_format", [2, 3])
+# Writing a Zarr v3 store needs zarr-python 3; with zarr 2 (allowed by the declared minimum)
+# only the v2 layout can be made here.
+_ZARR3 = pytest.mark.skipif(int(importlib.metadata.version("zarr").split(".")[0]) < 3,
+                            reason="zarr-python 2 cannot write a Zarr v3 store")
+
+
+@pytest.mark.parametrize("zarr_format", [2, pytest.param(3, marks=_ZARR3)])
 def test_zarr_chunk_missing_from_a_store_is_found_by_listing(tmp_path, memfs, zarr_format):
     fs, root = memfs
     path, ds = _dataset(tmp_path)

@@ -40,7 +40,8 @@ def _stack(runs):
 @pytest.fixture(scope="module")
 def monthly():
     # different weather per member, and a different level, so shares and totals differ
-    return _stack([f * monthly_pr(seed=s) for s, f in ((0, 1.0), (1, 0.8), (2, 1.25))])
+    with xr.set_options(keep_attrs=True):  # the units stay through the scaling (xarray 2025.1 drops them)
+        return _stack([f * monthly_pr(seed=s) for s, f in ((0, 1.0), (1, 0.8), (2, 1.25))])
 
 
 def _alone(pr, member):
