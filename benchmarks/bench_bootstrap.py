@@ -42,39 +42,53 @@ def before_module() -> Path:
     DATA.mkdir(parents=True, exist_ok=True)
     path = DATA / f"gev_{BEFORE}.py"
     if not path.exists():
-        text = subprocess.run(["git", "show", f"{BEFORE}:climwidgets/compute/gev.py"], cwd=HERE,
-                              capture_output=True, text=True, check=True).stdout
+        text = subprocess.run(
+            ["git", "show", f"{BEFORE}:climwidgets/compute/gev.py"],
+            cwd=HERE,
+            capture_output=True,
+            text=True,
+            check=True,
+        ).stdout
         path.write_text(text)
     return path
 
 
 def main(repeat=3, n_boot=2000):
-    setup = (f"import sys; sys.path.insert(0, r'{HERE}')\n"
-             "import numpy as np, climwidgets as cw, climwidgets.compute.gev as gev\n"
-             "from bench_gev import make_maxima\n"
-             f"am = make_maxima({NY}, {NX}, seed=3)\n")
-    patch = ("import importlib.util\n"
-             f"spec = importlib.util.spec_from_file_location('climwidgets.compute._gev_before', r'{before_module()}')\n"
-             "old = importlib.util.module_from_spec(spec); spec.loader.exec_module(old)\n"
-             "gev._bootstrap_block = old._bootstrap_block\n")
+    setup = (
+        f"import sys; sys.path.insert(0, r'{HERE}')\n"
+        "import numpy as np, climwidgets as cw, climwidgets.compute.gev as gev\n"
+        "from bench_gev import make_maxima\n"
+        f"am = make_maxima({NY}, {NX}, seed=3)\n"
+    )
+    patch = (
+        "import importlib.util\n"
+        f"spec = importlib.util.spec_from_file_location('climwidgets.compute._gev_before', r'{before_module()}')\n"
+        "old = importlib.util.module_from_spec(spec); spec.loader.exec_module(old)\n"
+        "gev._bootstrap_block = old._bootstrap_block\n"
+    )
     code = f"ds = cw.return_levels(am, n_boot={n_boot})"
-    cases = {f"return_levels, bootstrap of {BEFORE} (before)": setup + patch,
-             "return_levels, vectorised bootstrap (now)": setup}
+    cases = {
+        f"return_levels, bootstrap of {BEFORE} (before)": setup + patch,
+        "return_levels, vectorised bootstrap (now)": setup,
+    }
     rows = {name: [] for name in cases}
     for _ in range(repeat):
         for name, s in cases.items():
             wall, _, growth = peak_rss_of(code, s)
             rows[name].append((wall, growth))
     first = statistics.median(w for w, _ in rows[next(iter(rows))])
-    print(f"### Return-level bootstrap, {NY} x {NX} cells x 40 years, {n_boot} samples, 5 periods "
-          f"({machine_facts()})\n")
+    print(
+        f"### Return-level bootstrap, {NY} x {NX} cells x 40 years, {n_boot} samples, 5 periods ({machine_facts()})\n"
+    )
     print("| case | median wall (s) | range (s) | memory growth (MiB) | time / before |")
     print("|---|---|---|---|---|")
     for name, runs in rows.items():
         walls = [w for w, _ in runs]
         med = statistics.median(walls)
-        print(f"| {name} | {med:.2f} | {min(walls):.2f}–{max(walls):.2f} | "
-              f"{statistics.median(g for _, g in runs):.0f} | {med / first:.2f} |")
+        print(
+            f"| {name} | {med:.2f} | {min(walls):.2f}–{max(walls):.2f} | "
+            f"{statistics.median(g for _, g in runs):.0f} | {med / first:.2f} |"
+        )
 
     import warnings
 
@@ -93,9 +107,11 @@ def main(repeat=3, n_boot=2000):
     t_np, _ = median_time(numpy_way, repeat)
     t_cw, _ = median_time(lambda: nanquantile_linear(table, q, axis=-1), repeat)
     diff = np.nanmax(np.abs(numpy_way() - nanquantile_linear(table, q, axis=-1)))
-    print(f"\nPercentiles alone, {NY * NX * 5:,} slices of {n_boot} values with 2 % NaN: "
-          f"numpy.nanquantile {t_np:.2f} s, nanquantile_linear {t_cw:.2f} s "
-          f"({t_np / t_cw:.0f}× faster); largest difference {diff:.1e}.")
+    print(
+        f"\nPercentiles alone, {NY * NX * 5:,} slices of {n_boot} values with 2 % NaN: "
+        f"numpy.nanquantile {t_np:.2f} s, nanquantile_linear {t_cw:.2f} s "
+        f"({t_np / t_cw:.0f}× faster); largest difference {diff:.1e}."
+    )
 
 
 if __name__ == "__main__":

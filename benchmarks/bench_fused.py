@@ -59,22 +59,26 @@ def make_file(layout: str, ny: int, years: int):
         lo = ds.createVariable("lon", "f8", ("lon",))
         lo.units = "degrees_east"
         lo[:] = np.linspace(-150, -140, nx)
-        v = ds.createVariable("pr", "f4", ("time", "lat", "lon"), chunksizes=CHUNKS[layout](ny, nx),
-                              zlib=True, complevel=1, shuffle=True)
+        v = ds.createVariable(
+            "pr", "f4", ("time", "lat", "lon"), chunksizes=CHUNKS[layout](ny, nx), zlib=True, complevel=1, shuffle=True
+        )
         v.units, v.standard_name = "mm", "precipitation_amount"
         i = 0
         for year in range(years):
-            n = int((np.datetime64(f"{2002 + year}-01-01") - np.datetime64(f"{2001 + year}-01-01"))
-                    / np.timedelta64(1, "D"))
-            v[i:i + n] = np.roll(np.roll(pool, 37 * year, axis=0), 11 * year, axis=2)[:n]
+            n = int(
+                (np.datetime64(f"{2002 + year}-01-01") - np.datetime64(f"{2001 + year}-01-01")) / np.timedelta64(1, "D")
+            )
+            v[i : i + n] = np.roll(np.roll(pool, 37 * year, axis=0), 11 * year, axis=2)[:n]
             i += n
     tmp.rename(path)
     return path
 
 
 # flox (and numba, through numpy_groupies) imports in the setup: a one-off cost of every method
-SETUP = ("import numpy as np, xarray as xr, dask, flox.xarray, flox.aggregations\nimport climwidgets as cw\n"
-         "from climwidgets.compute import _fused\nfrom climwidgets.compute.bundle import climatology_bundle\n")
+SETUP = (
+    "import numpy as np, xarray as xr, dask, flox.xarray, flox.aggregations\nimport climwidgets as cw\n"
+    "from climwidgets.compute import _fused\nfrom climwidgets.compute.bundle import climatology_bundle\n"
+)
 
 
 def cw_code(path, fused=True, scheduler=None, years=10):
@@ -100,35 +104,46 @@ def _recipe(open_line, monthly_lines):
 
 
 def xarray_auto_code(path):
-    return _recipe(f"ds = xr.open_dataset(r'{path}', chunks='auto')",
-                   "monthly = pr.resample(time='MS').sum()\n"
-                   "        amax = pr.groupby('time.year').max()")
+    return _recipe(
+        f"ds = xr.open_dataset(r'{path}', chunks='auto')",
+        "monthly = pr.resample(time='MS').sum()\n        amax = pr.groupby('time.year').max()",
+    )
 
 
 def xarray_tuned_code(path, layout):
     """Disk-aligned chunks; for one field per step, month-sized chunks so every reduction is blockwise."""
     if layout == "fields":
-        open_line = (f"ds = xr.open_dataset(r'{path}', chunks={{}})\n"
-                     "        from xarray.groupers import TimeResampler\n"
-                     "        ds = ds.chunk(time=TimeResampler('MS'))")
-        monthly = ("monthly = pr.resample(time='MS').sum(method='blockwise')\n"
-                   "        amax = pr.resample(time='MS').max(method='blockwise').resample(time='YS').max()")
+        open_line = (
+            f"ds = xr.open_dataset(r'{path}', chunks={{}})\n"
+            "        from xarray.groupers import TimeResampler\n"
+            "        ds = ds.chunk(time=TimeResampler('MS'))"
+        )
+        monthly = (
+            "monthly = pr.resample(time='MS').sum(method='blockwise')\n"
+            "        amax = pr.resample(time='MS').max(method='blockwise').resample(time='YS').max()"
+        )
     else:
         open_line = f"ds = xr.open_dataset(r'{path}', chunks={{'time': 3650, 'lat': 64, 'lon': 64}})"
-        monthly = ("monthly = pr.resample(time='MS').sum()\n"
-                   "        amax = pr.resample(time='MS').max().resample(time='YS').max()")
+        monthly = (
+            "monthly = pr.resample(time='MS').sum()\n"
+            "        amax = pr.resample(time='MS').max().resample(time='YS').max()"
+        )
     return _recipe(open_line, monthly)
 
 
 def _table(rows, floor_name, tuned_name):
     floor = statistics.median(rows[floor_name][0])
     tuned = statistics.median(rows[tuned_name][0])
-    out = ["| method | median wall (s) | range (s) | / I/O floor | / hand-tuned | peak memory (MiB) |",
-           "|---|---|---|---|---|---|"]
+    out = [
+        "| method | median wall (s) | range (s) | / I/O floor | / hand-tuned | peak memory (MiB) |",
+        "|---|---|---|---|---|---|",
+    ]
     for name, (walls, peaks) in rows.items():
         med = statistics.median(walls)
-        out.append(f"| {name} | {med:.1f} | {min(walls):.1f}–{max(walls):.1f} | {med / floor:.2f} | "
-                   f"{med / tuned:.2f} | {min(peaks):.0f}–{max(peaks):.0f} |")
+        out.append(
+            f"| {name} | {med:.1f} | {min(walls):.1f}–{max(walls):.1f} | {med / floor:.2f} | "
+            f"{med / tuned:.2f} | {min(peaks):.0f}–{max(peaks):.0f} |"
+        )
     return "\n".join(out)
 
 
@@ -154,19 +169,26 @@ def run_layouts(ny, years, repeat, layouts):
                 wall, peak = _run(setup, code)[:2]
                 rows[name][0].append(wall)
                 rows[name][1].append(peak)
-                print(json.dumps({"layout": layout, "round": r, "case": name, "wall": wall, "peak": peak}),
-                      file=sys.stderr, flush=True)
+                print(
+                    json.dumps({"layout": layout, "round": r, "case": name, "wall": wall, "peak": peak}),
+                    file=sys.stderr,
+                    flush=True,
+                )
         raw = 4 * ny * ny * 365.25 * years / 1e9
-        print(f"\n**Layout `{layout}`**, chunks {CHUNKS[layout](ny, ny)}, {raw:.2f} GB raw, "
-              f"{path.stat().st_size / 1e9:.2f} GB on disk\n")
+        print(
+            f"\n**Layout `{layout}`**, chunks {CHUNKS[layout](ny, ny)}, {raw:.2f} GB raw, "
+            f"{path.stat().st_size / 1e9:.2f} GB on disk\n"
+        )
         print(_table(rows, floor_name, tuned_name), flush=True)
 
 
 def run_schedulers(ny, years, repeat):
     """Threads against dask's process pool for the fused path (fields layout), interleaved."""
     path = make_file("fields", ny, years)
-    cases = {"fused, threads": (SETUP, cw_code(path, years=years)),
-             "fused, processes (2)": (SETUP, cw_code(path, scheduler="processes", years=years))}
+    cases = {
+        "fused, threads": (SETUP, cw_code(path, years=years)),
+        "fused, processes (2)": (SETUP, cw_code(path, scheduler="processes", years=years)),
+    }
     rows = {name: ([], []) for name in cases}
     for _ in range(repeat):
         for name, (setup, code) in cases.items():
@@ -176,8 +198,11 @@ def run_schedulers(ny, years, repeat):
     print(f"### Threads or processes, fields layout, {years} years on {ny} x {ny}, {repeat} rounds\n")
     print("| scheduler | median wall (s) | range (s) | peak memory (MiB) |\n|---|---|---|---|")
     for name, (walls, peaks) in rows.items():
-        print(f"| {name} | {statistics.median(walls):.1f} | {min(walls):.1f}–{max(walls):.1f} | "
-              f"{min(peaks):.0f}–{max(peaks):.0f} |", flush=True)
+        print(
+            f"| {name} | {statistics.median(walls):.1f} | {min(walls):.1f}–{max(walls):.1f} | "
+            f"{min(peaks):.0f}–{max(peaks):.0f} |",
+            flush=True,
+        )
 
 
 def run_cluster(ny, years, repeat):
@@ -196,20 +221,31 @@ def run_cluster(ny, years, repeat):
             rows[name][0].append(wall)
             rows[name][1].append(peak)
             print(json.dumps({"round": r, "case": name, "wall": wall, "peak": peak}), file=sys.stderr, flush=True)
-    overhead = _run(SETUP + "cw.use_cluster(n_workers=2)\nclient = cw.scale.current_client()\n"
-                    "tasks = [dask.delayed(abs)(i) for i in range(4000)]\n", "dask.compute(*tasks)")
-    count = _run(SETUP, cw_code(path, years=years).replace(".compute()", "") +
-                 "\nprint('TASKS', len(dask.optimize(ds)[0].__dask_graph__()))")
+    overhead = _run(
+        SETUP + "cw.use_cluster(n_workers=2)\nclient = cw.scale.current_client()\n"
+        "tasks = [dask.delayed(abs)(i) for i in range(4000)]\n",
+        "dask.compute(*tasks)",
+    )
+    count = _run(
+        SETUP,
+        cw_code(path, years=years).replace(".compute()", "")
+        + "\nprint('TASKS', len(dask.optimize(ds)[0].__dask_graph__()))",
+    )
     base = statistics.median(rows["fused, threads"][0])
     print(f"### Cluster, fields layout, {years} years on {ny} x {ny}, {repeat} rounds\n")
     print("| method | median wall (s) | range (s) | / threads | peak memory (MiB) |\n|---|---|---|---|---|")
     for name, (walls, peaks) in rows.items():
         med = statistics.median(walls)
-        print(f"| {name} | {med:.1f} | {min(walls):.1f}–{max(walls):.1f} | {med / base:.2f} | "
-              f"{min(peaks):.0f}–{max(peaks):.0f} |", flush=True)
-    print(f"\nScheduler overhead on the 2-worker LocalCluster: 4000 independent trivial tasks "
-          f"in {overhead[0]:.1f} s, i.e. {overhead[0] / 4000 * 1e3:.2f} ms per task; the fused bundle on this "
-          f"file has {count[2]} tasks after optimisation.")
+        print(
+            f"| {name} | {med:.1f} | {min(walls):.1f}–{max(walls):.1f} | {med / base:.2f} | "
+            f"{min(peaks):.0f}–{max(peaks):.0f} |",
+            flush=True,
+        )
+    print(
+        f"\nScheduler overhead on the 2-worker LocalCluster: 4000 independent trivial tasks "
+        f"in {overhead[0]:.1f} s, i.e. {overhead[0] / 4000 * 1e3:.2f} ms per task; the fused bundle on this "
+        f"file has {count[2]} tasks after optimisation."
+    )
 
 
 def main():

@@ -54,9 +54,13 @@ def make_maxima(ny: int, nx: int, seed: int = 0):
         out[:, r0:r1] = loc + scale / k * (1.0 - (-np.log(p)) ** k)
         p[...] = rng.random(p.shape)
         out[:, r0:r1][p < MISSING] = np.nan
-    return xr.DataArray(out, dims=("year", "lat", "lon"), name="annual_max",
-                        coords=dict(year=np.arange(1981, 1981 + NYEARS), lat=lat, lon=lon),
-                        attrs=dict(units="mm"))
+    return xr.DataArray(
+        out,
+        dims=("year", "lat", "lon"),
+        name="annual_max",
+        coords=dict(year=np.arange(1981, 1981 + NYEARS), lat=lat, lon=lon),
+        attrs=dict(units="mm"),
+    )
 
 
 def sample_cells(am, n, seed):
@@ -90,8 +94,12 @@ def per_cell_bootstrap(cells, n_boot=200, periods=(2, 10, 25, 50, 100), ci=0.9, 
     for x in cells:
         p = distr.gev.lmom_fit(x)
         est = distr.gev.ppf(F, **p)
-        reps = np.array([distr.gev.ppf(F, **distr.gev.lmom_fit(distr.gev.rvs(size=x.size, random_state=rng, **p)))
-                         for _ in range(n_boot)])
+        reps = np.array(
+            [
+                distr.gev.ppf(F, **distr.gev.lmom_fit(distr.gev.rvs(size=x.size, random_state=rng, **p)))
+                for _ in range(n_boot)
+            ]
+        )
         lo, hi = np.nanquantile(reps, [(1 - ci) / 2, (1 + ci) / 2], axis=0)
         out.append((est, lo, hi))
     return out
@@ -104,10 +112,12 @@ def fresh(code, setup, repeat):
 
 def main(repeat=3):
     here = Path(__file__).parent
-    setup = (f"import sys; sys.path.insert(0, r'{here}')\n"
-             "import climwidgets as cw, climwidgets.compute.gev, dask.array\n"
-             "from bench_gev import make_maxima\n"
-             "am = make_maxima(1000, 1000)\n")
+    setup = (
+        f"import sys; sys.path.insert(0, r'{here}')\n"
+        "import climwidgets as cw, climwidgets.compute.gev, dask.array\n"
+        "from bench_gev import make_maxima\n"
+        "am = make_maxima(1000, 1000)\n"
+    )
     rows = []
     t_np, m_np = fresh("ds = cw.gev_lmoments(am)", setup, repeat)
     rows.append(("cw.gev_lmoments, numpy-backed", t_np, f"{m_np:.0f}", "measured"))
@@ -118,12 +128,24 @@ def main(repeat=3):
     ncell = am.sizes["lat"] * am.sizes["lon"]
     cells, _ = sample_cells(am, 50, seed=1)
     t_mle, _ = median_time(lambda: per_cell_mle(cells), 1)
-    rows.append(("per cell: scipy.stats.genextreme.fit (MLE)", t_mle / len(cells) * ncell, "–",
-                 f"extrapolated from {len(cells)} cells ({1e3 * t_mle / len(cells):.1f} ms/cell)"))
+    rows.append(
+        (
+            "per cell: scipy.stats.genextreme.fit (MLE)",
+            t_mle / len(cells) * ncell,
+            "–",
+            f"extrapolated from {len(cells)} cells ({1e3 * t_mle / len(cells):.1f} ms/cell)",
+        )
+    )
     cells_l, idx_l = sample_cells(am, 2000, seed=2)
     t_lm = statistics.median(median_time(lambda: per_cell_lmom(cells_l), 1)[0] for _ in range(repeat))
-    rows.append(("per cell: lmoments3 gev.lmom_fit (L-moments)", t_lm / len(cells_l) * ncell, "–",
-                 f"extrapolated from {len(cells_l)} cells ({1e6 * t_lm / len(cells_l):.0f} µs/cell)"))
+    rows.append(
+        (
+            "per cell: lmoments3 gev.lmom_fit (L-moments)",
+            t_lm / len(cells_l) * ncell,
+            "–",
+            f"extrapolated from {len(cells_l)} cells ({1e6 * t_lm / len(cells_l):.0f} µs/cell)",
+        )
+    )
 
     # agreement with lmoments3 on the sampled cells (its shape c has Hosking's sign, as ours)
     import climwidgets as cw
@@ -145,16 +167,20 @@ def main(repeat=3):
     print("|---|---|---|---|---|")
     for name, t, mem, how in rows:
         print(f"| {name} | {t:,.1f} | {mem} | {how} | {t / t_np:,.1f} |")
-    print(f"\nOn 200 sampled cells cw and lmoments3 differ by at most {d_k:.1e} in k and "
-          f"{d_loc:.1e} scale units in loc (both are Hosking's L-moment fit; k by the HWW 1985 "
-          "approximation here, by a rational approximation in lmoments3).\n")
+    print(
+        f"\nOn 200 sampled cells cw and lmoments3 differ by at most {d_k:.1e} in k and "
+        f"{d_loc:.1e} scale units in loc (both are Hosking's L-moment fit; k by the HWW 1985 "
+        "approximation here, by a rational approximation in lmoments3).\n"
+    )
     print("### Return levels with a 200-draw bootstrap, 200 × 200 cells × 40 years\n")
     print("| case | median wall (s) | how | time / cw |")
     print("|---|---|---|---|")
     print(f"| cw.return_levels(n_boot=200), 5 periods | {t_rl:.1f} | measured, {repeat} runs | 1.0 |")
-    print(f"| per cell: lmoments3 fit + 200 × (rvs, refit) | {t_pb / len(bcells) * nsmall:,.0f} | "
-          f"extrapolated from {len(bcells)} cells ({t_pb / len(bcells):.2f} s/cell) | "
-          f"{t_pb / len(bcells) * nsmall / t_rl:,.0f} |")
+    print(
+        f"| per cell: lmoments3 fit + 200 × (rvs, refit) | {t_pb / len(bcells) * nsmall:,.0f} | "
+        f"extrapolated from {len(bcells)} cells ({t_pb / len(bcells):.2f} s/cell) | "
+        f"{t_pb / len(bcells) * nsmall / t_rl:,.0f} |"
+    )
 
 
 if __name__ == "__main__":

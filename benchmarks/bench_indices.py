@@ -55,18 +55,24 @@ def make_precip(ny: int, nx: int, chunk_years: int = 10, chunk_cells: int = 50):
     t = xr.date_range("1961-01-01", "2000-12-31", freq="D")
     nt = t.size
     per = int(round(365.25 * chunk_years))
-    chunks = (tuple(min(per, nt - s) for s in range(0, nt, per)),
-              tuple(min(chunk_cells, ny - s) for s in range(0, ny, chunk_cells)),
-              tuple(min(chunk_cells, nx - s) for s in range(0, nx, chunk_cells)))
+    chunks = (
+        tuple(min(per, nt - s) for s in range(0, nt, per)),
+        tuple(min(chunk_cells, ny - s) for s in range(0, ny, chunk_cells)),
+        tuple(min(chunk_cells, nx - s) for s in range(0, nx, chunk_cells)),
+    )
 
     def gen(block_info=None):
         info = block_info[None]
         return _block(info["chunk-location"], info["chunk-shape"])
 
     data = da.map_blocks(gen, chunks=chunks, dtype=float, meta=np.array((), dtype=float))
-    return xr.DataArray(data, dims=("time", "lat", "lon"), name="pr",
-                        coords={"time": t, "lat": 10.0 + 0.05 * np.arange(ny), "lon": -40.0 + 0.05 * np.arange(nx)},
-                        attrs={"units": "mm", "step": "day"})
+    return xr.DataArray(
+        data,
+        dims=("time", "lat", "lon"),
+        name="pr",
+        coords={"time": t, "lat": 10.0 + 0.05 * np.arange(ny), "lon": -40.0 + 0.05 * np.arange(nx)},
+        attrs={"units": "mm", "step": "day"},
+    )
 
 
 def xclim_all(pr):
@@ -77,10 +83,15 @@ def xclim_all(pr):
 
     p = pr.assign_attrs(units="mm/d")
     base = p.sel(time=slice("1961-01-01", "1990-12-31"))
-    per = xr.apply_ufunc(lambda a: calc_perc(a, [95, 99], alpha=1 / 3, beta=1 / 3), base.where(base >= 1),
-                         input_core_dims=[["time"]], output_core_dims=[["percentile"]], dask="parallelized",
-                         output_dtypes=[float], dask_gufunc_kwargs={"output_sizes": {"percentile": 2},
-                                                                    "allow_rechunk": True})
+    per = xr.apply_ufunc(
+        lambda a: calc_perc(a, [95, 99], alpha=1 / 3, beta=1 / 3),
+        base.where(base >= 1),
+        input_core_dims=[["time"]],
+        output_core_dims=[["percentile"]],
+        dask="parallelized",
+        output_dtypes=[float],
+        dask_gufunc_kwargs={"output_sizes": {"percentile": 2}, "allow_rechunk": True},
+    )
     total = xi.prcptot(p, thresh="1 mm/d")
     out = {"PRCPTOT": total, "SDII": xi.daily_pr_intensity(p, thresh="1 mm/d", op=">=")}
     for name, th in (("R10mm", "10 mm/d"), ("R20mm", "20 mm/d"), ("R25mm", "25 mm/d")):
@@ -116,8 +127,9 @@ def main():
 
     walls, peaks = [], []
     for _ in range(repeat):
-        wall, _, growth = peak_rss_of("ds = cw.precip_indices(pr, thresholds=(25,)); ds.compute()",
-                                      setup + "import climwidgets as cw\n")
+        wall, _, growth = peak_rss_of(
+            "ds = cw.precip_indices(pr, thresholds=(25,)); ds.compute()", setup + "import climwidgets as cw\n"
+        )
         walls.append(wall)
         peaks.append(growth)
     cw_wall = float(np.median(walls))
@@ -141,8 +153,10 @@ def main():
     print("\n| case | seconds | per 10^6 cells (extrapolated) |\n|---|---|---|")
     for name, sec in rows:
         print(f"| {name} | {sec:.1f} | {sec * 1e6 / cells / 3600:.1f} h |")
-    print(f"\ncw / floor = {cw_wall / floor:.2f}; xclim grid / cw = {xc_wall / cw_wall:.2f}; "
-          f"per-cell loop / cw = {per_cell * cells / cw_wall:.0f}")
+    print(
+        f"\ncw / floor = {cw_wall / floor:.2f}; xclim grid / cw = {xc_wall / cw_wall:.2f}; "
+        f"per-cell loop / cw = {per_cell * cells / cw_wall:.0f}"
+    )
 
 
 if __name__ == "__main__":

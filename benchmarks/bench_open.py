@@ -47,7 +47,7 @@ def make_file():
         block = (rng.gamma(0.6, 3e-5, size=(64, NY, NX))).astype("f4")
         for i in range(0, NT, 64):
             n = min(64, NT - i)
-            v[i:i + n] = block[:n]
+            v[i : i + n] = block[:n]
     tmp.rename(path)
     return path
 
@@ -58,8 +58,10 @@ def main(repeat=5):
     cases = {
         "climwidgets open_precip": f"pr = cw.open_precip(r'{path}')",
         "xarray open_dataset(chunks={})": f"ds = xr.open_dataset(r'{path}', chunks={{}})",
-        "full read (netCDF4, sum)": (f"ds = netCDF4.Dataset(r'{path}')\nv = ds['pr']\n"
-                                     "s = 0.0\nfor i in range(0, v.shape[0], 256): s += float(np.sum(v[i:i+256]))"),
+        "full read (netCDF4, sum)": (
+            f"ds = netCDF4.Dataset(r'{path}')\nv = ds['pr']\n"
+            "s = 0.0\nfor i in range(0, v.shape[0], 256): s += float(np.sum(v[i:i+256]))"
+        ),
     }
     rows = []
     for name, code in cases.items():

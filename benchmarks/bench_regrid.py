@@ -67,8 +67,13 @@ def source():
     lat = LAT0 + DS * (np.arange(NS) + 0.5)
     lon = LON0 + DS * (np.arange(NS) + 0.5)
     time = np.arange("1991-01", "2021-01", dtype="datetime64[M]").astype("datetime64[ns]")
-    return xr.DataArray(arr, dims=("time", "lat", "lon"), coords=dict(time=time, lat=lat, lon=lon),
-                        name="pr", attrs=dict(units="mm", step="month"))
+    return xr.DataArray(
+        arr,
+        dims=("time", "lat", "lon"),
+        coords=dict(time=time, lat=lat, lon=lon),
+        name="pr",
+        attrs=dict(units="mm", step="month"),
+    )
 
 
 def target():
@@ -146,8 +151,10 @@ def main(repeat=3):
     for nt_side, ns_side in SUBBLOCKS:
         s = imp + "from bench_regrid import *\n"
         tb, mb = fresh(f"w = dense_matrix({nt_side}, {ns_side})", s, repeat)
-        s2 = s + (f"w = dense_matrix({nt_side}, {ns_side})\n"
-                  f"x = series(*np.divmod(np.arange({ns_side}**2), {ns_side})).T.astype('f8')\n")
+        s2 = s + (
+            f"w = dense_matrix({nt_side}, {ns_side})\n"
+            f"x = series(*np.divmod(np.arange({ns_side}**2), {ns_side})).T.astype('f8')\n"
+        )
         ta, _ = fresh("v = dense_apply(w, x)", s2, repeat)
         pairs = nt_side**2 * ns_side**2
         dense.append((nt_side, ns_side, pairs, tb, ta, mb))
@@ -163,24 +170,33 @@ def main(repeat=3):
     t_loop, _ = fresh(f"r = per_target(boxes, tree, {cells})", s + "boxes, tree = source_tree()\n", repeat)
     t_per = t_tree + t_loop / N_SAMPLE * NTG * NTG
 
-    print(f"### Conservative regrid, {NT} monthly steps, 1000 × 1000 (0.05°) → 200 × 200 (0.25°) "
-          f"({machine_facts()})\n")
+    print(f"### Conservative regrid, {NT} monthly steps, 1000 × 1000 (0.05°) → 200 × 200 (0.25°) ({machine_facts()})\n")
     print("| case | wall (s) | memory growth (MiB) | how | time / cw |")
     print("|---|---|---|---|---|")
-    print(f"| input floor: generate + sum the lazy input | {t_in:.1f} | {m_in:.0f} | measured, median of {repeat} | "
-          f"{t_in / t_cw:.2f} |")
-    print(f"| cw.regrid(conservative).compute(), {CHUNK}-step chunks | {t_cw:.1f} | {m_cw:.0f} | "
-          f"measured, median of {repeat} | 1.00 |")
-    print(f"| dense overlap matrix: build + 2 × W @ X | {t_dense:,.0f} | {m_dense:,.0f} (W alone) | "
-          f"extrapolated × {scale:,.0f} from {nt_side}² × {ns_side}² cells | {t_dense / t_cw:,.0f} |")
-    print(f"| per target cell: STRtree + shapely.intersection + weighted series | {t_per:,.0f} | "
-          f"{m_tree:.0f} (boxes + tree) | tree measured ({t_tree:.1f} s), loop extrapolated from "
-          f"{N_SAMPLE} cells | {t_per / t_cw:,.0f} |")
+    print(
+        f"| input floor: generate + sum the lazy input | {t_in:.1f} | {m_in:.0f} | measured, median of {repeat} | "
+        f"{t_in / t_cw:.2f} |"
+    )
+    print(
+        f"| cw.regrid(conservative).compute(), {CHUNK}-step chunks | {t_cw:.1f} | {m_cw:.0f} | "
+        f"measured, median of {repeat} | 1.00 |"
+    )
+    print(
+        f"| dense overlap matrix: build + 2 × W @ X | {t_dense:,.0f} | {m_dense:,.0f} (W alone) | "
+        f"extrapolated × {scale:,.0f} from {nt_side}² × {ns_side}² cells | {t_dense / t_cw:,.0f} |"
+    )
+    print(
+        f"| per target cell: STRtree + shapely.intersection + weighted series | {t_per:,.0f} | "
+        f"{m_tree:.0f} (boxes + tree) | tree measured ({t_tree:.1f} s), loop extrapolated from "
+        f"{N_SAMPLE} cells | {t_per / t_cw:,.0f} |"
+    )
     print("\nDense sub-blocks (all pairs): ")
     for nt_side, ns_side, pairs, tb, ta, mb in dense:
-        print(f"- {nt_side}² targets × {ns_side}² sources = {pairs:.1e} pairs: build {tb:.2f} s "
-              f"({1e9 * tb / pairs:.1f} ns/pair), apply {ta:.2f} s ({1e9 * ta / pairs:.1f} ns/pair), "
-              f"memory growth {mb:.0f} MiB")
+        print(
+            f"- {nt_side}² targets × {ns_side}² sources = {pairs:.1e} pairs: build {tb:.2f} s "
+            f"({1e9 * tb / pairs:.1f} ns/pair), apply {ta:.2f} s ({1e9 * ta / pairs:.1f} ns/pair), "
+            f"memory growth {mb:.0f} MiB"
+        )
 
 
 if __name__ == "__main__":

@@ -59,8 +59,9 @@ def make_file(layout: str, ny: int, years: int):
         lo = ds.createVariable("lon", "f8", ("lon",))
         lo.units = "degrees_east"
         lo[:] = np.linspace(-150, -140, nx)
-        v = ds.createVariable("pr", "f4", ("time", "lat", "lon"), chunksizes=CHUNKS[layout](ny, nx),
-                              zlib=True, complevel=1, shuffle=True)
+        v = ds.createVariable(
+            "pr", "f4", ("time", "lat", "lon"), chunksizes=CHUNKS[layout](ny, nx), zlib=True, complevel=1, shuffle=True
+        )
         v.units, v.standard_name = "mm", "precipitation_amount"
         rng = np.random.default_rng(42)
         step = 365
@@ -68,7 +69,7 @@ def make_file(layout: str, ny: int, years: int):
             n = min(step, nt - i)
             block = rng.gamma(0.7, 6.0, size=(n, ny, nx)).astype("f4")
             block[rng.random((n, ny, nx)) < 0.6] = 0.0
-            v[i:i + n] = np.round(block, 1)
+            v[i : i + n] = np.round(block, 1)
     tmp.rename(path)
     return path
 
@@ -91,10 +92,16 @@ _MEMORY_SAMPLER = textwrap.dedent("""
 
 def _run(setup: str, code: str) -> tuple[float, float]:
     """Run ``setup`` untimed, then time ``code``; memory is the peak of the process tree."""
-    script = _MEMORY_SAMPLER + setup + "\nimport time\nt0 = time.perf_counter()\n" + code + \
-        "\nwall = time.perf_counter() - t0\nimport json\nprint('RESULT', json.dumps([wall, _peak[0] / 2**20]))\n"
-    out = subprocess.run([sys.executable, "-c", script], capture_output=True, text=True,
-                         cwd=os.path.dirname(os.path.abspath(__file__)))
+    script = (
+        _MEMORY_SAMPLER
+        + setup
+        + "\nimport time\nt0 = time.perf_counter()\n"
+        + code
+        + "\nwall = time.perf_counter() - t0\nimport json\nprint('RESULT', json.dumps([wall, _peak[0] / 2**20]))\n"
+    )
+    out = subprocess.run(
+        [sys.executable, "-c", script], capture_output=True, text=True, cwd=os.path.dirname(os.path.abspath(__file__))
+    )
     if out.returncode != 0:
         raise RuntimeError(out.stderr[-3000:])
     line = [l for l in out.stdout.splitlines() if l.startswith("RESULT")][-1]
@@ -148,8 +155,10 @@ def xarray_code(path):
     """)
 
 
-SETUP = ("import numpy as np, xarray as xr, dask, netCDF4\nimport climwidgets as cw\n"
-         "from climwidgets.compute.bundle import climatology_bundle\n")
+SETUP = (
+    "import numpy as np, xarray as xr, dask, netCDF4\nimport climwidgets as cw\n"
+    "from climwidgets.compute.bundle import climatology_bundle\n"
+)
 
 
 def main():

@@ -58,25 +58,37 @@ def make_grids():
     lat = LAT0 + DX * (np.arange(N) + 0.5)
     lon = LON0 + DX * (np.arange(N) + 0.5)
     rng = np.random.default_rng(1)
-    field = xr.DataArray(rng.gamma(2.0, 50.0, (N, N)), dims=("lat", "lon"),
-                         coords=dict(lat=lat, lon=lon), attrs=dict(units="mm"), name="pr")
+    field = xr.DataArray(
+        rng.gamma(2.0, 50.0, (N, N)),
+        dims=("lat", "lon"),
+        coords=dict(lat=lat, lon=lon),
+        attrs=dict(units="mm"),
+        name="pr",
+    )
     month_scale = 1 + 0.5 * np.sin(2 * np.pi * np.arange(12) / 12)
-    stack = (field * xr.DataArray(month_scale, dims="month", coords={"month": np.arange(1, 13)}))
+    stack = field * xr.DataArray(month_scale, dims="month", coords={"month": np.arange(1, 13)})
     stack.attrs = dict(units="mm")
     a = np.deg2rad(15.0)
     u = (np.arange(N) - (N - 1) / 2) * DX
     X, Y = np.meshgrid(u, u)
     cx, cy = LON0 + N * DX / 2, LAT0 + N * DX / 2
-    curv = xr.DataArray(field.values, dims=("y", "x"), attrs=dict(units="mm"),
-                        coords=dict(lon=(("y", "x"), cx + X * np.cos(a) - Y * np.sin(a)),
-                                    lat=(("y", "x"), cy + X * np.sin(a) + Y * np.cos(a))))
+    curv = xr.DataArray(
+        field.values,
+        dims=("y", "x"),
+        attrs=dict(units="mm"),
+        coords=dict(
+            lon=(("y", "x"), cx + X * np.cos(a) - Y * np.sin(a)), lat=(("y", "x"), cy + X * np.sin(a) + Y * np.cos(a))
+        ),
+    )
     return field, stack.transpose("month", "lat", "lon"), curv
 
 
 def naive_case(geom, boxes, areas):
     """Every bounding-box cell clipped by the basin; returns the covered fractions."""
+
     def run():
         return shapely.area(shapely.intersection(boxes, geom)) / areas
+
     return run
 
 
@@ -93,8 +105,12 @@ def rect_boxes(geom):
 def curv_boxes(geom, curv):
     b = cell_bounds(curv)
     x0, y0, x1, y1 = geom.bounds
-    near = ((b.lon_corners.max(-1) > x0) & (b.lon_corners.min(-1) < x1)
-            & (b.lat_corners.max(-1) > y0) & (b.lat_corners.min(-1) < y1))
+    near = (
+        (b.lon_corners.max(-1) > x0)
+        & (b.lon_corners.min(-1) < x1)
+        & (b.lat_corners.max(-1) > y0)
+        & (b.lat_corners.min(-1) < y1)
+    )
     return shapely.polygons(np.stack([b.lon_corners[near], b.lat_corners[near]], -1))
 
 
@@ -115,6 +131,7 @@ def main(repeat=7):
         def run():
             weights_cache.clear()
             cw.coverage_weights(basin, grid)
+
         return run
 
     def ee_cov():
@@ -128,14 +145,18 @@ def main(repeat=7):
     t_ee, _ = median_time(ee_cov, repeat, warmup=1)
     rows.append(("exactextract 0.3, 'coverage' op", t_ee, "measured"))
     t_naive, _ = median_time(naive_case(geom, boxes, shapely.area(boxes)), 1)
-    rows.append((f"naive: shapely.intersection of every bbox cell (vectorised), {boxes.size:,} cells",
-                 t_naive, "measured, 1 run"))
+    rows.append(
+        (
+            f"naive: shapely.intersection of every bbox cell (vectorised), {boxes.size:,} cells",
+            t_naive,
+            "measured, 1 run",
+        )
+    )
     crepeat = max(2, repeat // 3)
     t_cv, _ = median_time(cw_cold(curv), crepeat)
     crow = ("cw.coverage_weights, curvilinear 1000 × 1000 (15° rotated)", t_cv, f"measured, {crepeat} runs")
     t_cnaive, _ = median_time(naive_case(geom, cboxes, shapely.area(cboxes)), 1)
-    cnrow = (f"naive, curvilinear: every bbox cell quad clipped, {cboxes.size:,} cells", t_cnaive,
-             "measured, 1 run")
+    cnrow = (f"naive, curvilinear: every bbox cell quad clipped, {cboxes.size:,} cells", t_cnaive, "measured, 1 run")
 
     # agreement of the weights with exactextract's fractions
     weights_cache.clear()
@@ -175,12 +196,10 @@ def main(repeat=7):
     many = max(repeat, 20)
     means = [
         ("cw.basin_mean, 2-D, weights cached", median_time(lambda: cw.basin_mean(field, basin), many)[0]),
-        ("cw.basin_mean, 12-month stack, weights cached",
-         median_time(lambda: cw.basin_mean(stack, basin), many)[0]),
+        ("cw.basin_mean, 12-month stack, weights cached", median_time(lambda: cw.basin_mean(stack, basin), many)[0]),
         ("cw.basin_mean, 2-D, cache cleared (new basin)", median_time(cw_cold_mean, repeat)[0]),
         ("exactextract 'weighted_mean' (area weights), 2-D", median_time(ee_mean2, repeat, warmup=1)[0]),
-        ("exactextract 'weighted_mean' (area weights), 12 rasters",
-         median_time(ee_mean12, repeat, warmup=1)[0]),
+        ("exactextract 'weighted_mean' (area weights), 12 rasters", median_time(ee_mean12, repeat, warmup=1)[0]),
         ("numpy floor: dot with precomputed weights, 2-D", median_time(floor2, many)[0]),
         ("numpy floor: dot with precomputed weights, 12 months", median_time(floor12, many)[0]),
     ]

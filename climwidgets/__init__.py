@@ -128,7 +128,18 @@ def __dir__():
 
 
 __all__ = [
-    "__version__", "InputError", "BasinError", "CalendarError", "DataValueError", "GridError",
-    "InsufficientDataError", "MismatchError", "ParameterError", "SourceError", "TimeAxisError",
-    "UnitsError", "VariableError", *_PUBLIC,
+    "__version__",
+    "InputError",
+    "BasinError",
+    "CalendarError",
+    "DataValueError",
+    "GridError",
+    "InsufficientDataError",
+    "MismatchError",
+    "ParameterError",
+    "SourceError",
+    "TimeAxisError",
+    "UnitsError",
+    "VariableError",
+    *_PUBLIC,
 ]

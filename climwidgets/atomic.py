@@ -43,9 +43,17 @@ from typing import IO, Any
 
 from .errors import InputError, ParameterError
 
-__all__ = ["STALE_AFTER_S", "OutputError", "OutputExistsError", "atomic_write", "atomic_write_file", "check_folder",
-           "check_target",
-           "remove_stale_temporaries", "staged_outputs"]
+__all__ = [
+    "STALE_AFTER_S",
+    "OutputError",
+    "OutputExistsError",
+    "atomic_write",
+    "atomic_write_file",
+    "check_folder",
+    "check_target",
+    "remove_stale_temporaries",
+    "staged_outputs",
+]
 
 # A temporary file nobody has written to for this long belongs to a killed run: a live
 # writer touches its file as it goes.
@@ -100,8 +108,16 @@ class OutputError(InputError, OSError):
     (True, True)
     """
 
-    def __init__(self, problem: str, *, errno_: int | None = None, source: Any = None, variable: Any = None,
-                 expected: str | None = None, fix: str | None = None) -> None:
+    def __init__(
+        self,
+        problem: str,
+        *,
+        errno_: int | None = None,
+        source: Any = None,
+        variable: Any = None,
+        expected: str | None = None,
+        fix: str | None = None,
+    ) -> None:
         super().__init__(problem, source=source, variable=variable, expected=expected, fix=fix)
         self.errno = errno_  # OSError's fields, set after InputError's __init__
         self.strerror = os.strerror(errno_) if errno_ is not None else None
@@ -111,12 +127,12 @@ class OutputError(InputError, OSError):
         return self._compose()
 
     def __reduce__(self) -> tuple[Any, ...]:
-        return (_rebuild_output_error, (self.problem, self.errno, self.source, self.variable, self.expected,
-                                        self.fix))
+        return (_rebuild_output_error, (self.problem, self.errno, self.source, self.variable, self.expected, self.fix))
 
 
-def _rebuild_output_error(problem: str, errno_: int | None, source: str | None, variable: Any,
-                          expected: str | None, fix: str | None) -> OutputError:
+def _rebuild_output_error(
+    problem: str, errno_: int | None, source: str | None, variable: Any, expected: str | None, fix: str | None
+) -> OutputError:
     return OutputError(problem, errno_=errno_, source=source, variable=variable, expected=expected, fix=fix)
 
 
@@ -157,9 +173,13 @@ def output_error(exc: OSError, path: str | os.PathLike[str], what: str) -> OSErr
     untouched = "the previous file (if any) is untouched and no partial file was left"
     if exc.errno in _REFUSALS:
         problem, fix = _REFUSALS[exc.errno]
-        return OutputError(f"{what} could not be written: {problem} ({exc.strerror or exc}); {untouched}",
-                           errno_=exc.errno, source=path, expected="a folder with room for the output",
-                           fix=fix)
+        return OutputError(
+            f"{what} could not be written: {problem} ({exc.strerror or exc}); {untouched}",
+            errno_=exc.errno,
+            source=path,
+            expected="a folder with room for the output",
+            fix=fix,
+        )
     return type(exc)(exc.errno, f"{exc.strerror or exc}: {what} could not be written; {untouched}", str(path))
 
 
@@ -205,22 +225,45 @@ def check_target(path: str | os.PathLike[str], overwrite: bool, what: str) -> Pa
     refused
     """
     if not isinstance(path, (str, os.PathLike)) or str(path) == "":
-        raise ParameterError(f"path={path!r} is not a file path", source=what, variable="path",
-                             expected="a file path (str or pathlib.Path)", fix="pass e.g. 'out/result.nc'")
+        raise ParameterError(
+            f"path={path!r} is not a file path",
+            source=what,
+            variable="path",
+            expected="a file path (str or pathlib.Path)",
+            fix="pass e.g. 'out/result.nc'",
+        )
     if not isinstance(overwrite, bool):
-        raise ParameterError(f"overwrite={overwrite!r} is not True or False", source=what, variable="overwrite",
-                             expected="a bool", fix="pass overwrite=True to replace an existing file")
+        raise ParameterError(
+            f"overwrite={overwrite!r} is not True or False",
+            source=what,
+            variable="overwrite",
+            expected="a bool",
+            fix="pass overwrite=True to replace an existing file",
+        )
     path = Path(path)
     if path.is_dir():
-        raise ParameterError("is a folder, not a file", source=path, variable="path",
-                             expected="a file path", fix=f"name a file inside it, e.g. {path / 'output'}")
+        raise ParameterError(
+            "is a folder, not a file",
+            source=path,
+            variable="path",
+            expected="a file path",
+            fix=f"name a file inside it, e.g. {path / 'output'}",
+        )
     if not path.parent.is_dir():
-        raise ParameterError("the folder it should go in does not exist", source=path, variable="path",
-                             expected="an existing folder", fix=f"create {path.parent} first")
+        raise ParameterError(
+            "the folder it should go in does not exist",
+            source=path,
+            variable="path",
+            expected="an existing folder",
+            fix=f"create {path.parent} first",
+        )
     if path.exists() and not overwrite:
-        raise OutputExistsError("already exists and was left untouched", source=path,
-                                expected="a new file name, or permission to replace the file",
-                                fix="pass overwrite=True to replace it, or choose another path")
+        raise OutputExistsError(
+            "already exists and was left untouched",
+            source=path,
+            expected="a new file name, or permission to replace the file",
+            fix="pass overwrite=True to replace it, or choose another path",
+        )
     return path
 
 
@@ -295,10 +338,16 @@ def remove_stale_temporaries(path: str | os.PathLike[str]) -> list[Path]:
     path = Path(path)
     cutoff = time.time() - STALE_AFTER_S
     removed = []
-    candidates = [(old, old.name[len(path.name) + 2:-len(".part")].rpartition(".")[0])
-                  for old in path.parent.glob(f".{_glob_escape(path.name)}.*.part") if old.is_file()]
-    candidates += [(old, old.name[len(_STAGE_PREFIX):-len(".part")].rpartition(".")[0])
-                   for old in path.parent.glob(f"{_STAGE_PREFIX}*.part") if old.is_dir() and not old.is_symlink()]
+    candidates = [
+        (old, old.name[len(path.name) + 2 : -len(".part")].rpartition(".")[0])
+        for old in path.parent.glob(f".{_glob_escape(path.name)}.*.part")
+        if old.is_file()
+    ]
+    candidates += [
+        (old, old.name[len(_STAGE_PREFIX) : -len(".part")].rpartition(".")[0])
+        for old in path.parent.glob(f"{_STAGE_PREFIX}*.part")
+        if old.is_dir() and not old.is_symlink()
+    ]
     for old, tag in candidates:
         if not _is_stale(old, tag, cutoff):
             continue
@@ -330,9 +379,12 @@ def _move_into_place(tmp: str, path: Path, overwrite: bool) -> None:
     try:
         os.link(tmp, path)  # refuses an existing name: exclusive even between processes
     except FileExistsError:
-        raise OutputExistsError("appeared while writing and was left untouched", source=path,
-                                expected="a new file name",
-                                fix="pass overwrite=True or choose another path") from None
+        raise OutputExistsError(
+            "appeared while writing and was left untouched",
+            source=path,
+            expected="a new file name",
+            fix="pass overwrite=True or choose another path",
+        ) from None
     except OSError as exc:
         if exc.errno not in (errno.EPERM, errno.ENOTSUP, errno.EOPNOTSUPP, errno.EMLINK):
             raise
@@ -340,9 +392,12 @@ def _move_into_place(tmp: str, path: Path, overwrite: bool) -> None:
         try:
             os.close(os.open(path, os.O_WRONLY | os.O_CREAT | os.O_EXCL, 0o600))
         except FileExistsError:
-            raise OutputExistsError("appeared while writing and was left untouched", source=path,
-                                    expected="a new file name",
-                                    fix="pass overwrite=True or choose another path") from None
+            raise OutputExistsError(
+                "appeared while writing and was left untouched",
+                source=path,
+                expected="a new file name",
+                fix="pass overwrite=True or choose another path",
+            ) from None
         os.replace(tmp, path)
         return
     os.unlink(tmp)
@@ -411,8 +466,13 @@ def atomic_write(path: str | os.PathLike[str], overwrite: bool, write: Callable[
     return path
 
 
-def atomic_write_file(path: str | os.PathLike[str], write: Callable[[IO[Any]], Any], mode: str = "wb",
-                      overwrite: bool = True, what: str = "file") -> Path:
+def atomic_write_file(
+    path: str | os.PathLike[str],
+    write: Callable[[IO[Any]], Any],
+    mode: str = "wb",
+    overwrite: bool = True,
+    what: str = "file",
+) -> Path:
     """Like :func:`atomic_write`, with ``write(fileobj)`` given an open file (``mode``).
 
     Parameters
@@ -448,6 +508,7 @@ def atomic_write_file(path: str | os.PathLike[str], write: Callable[[IO[Any]], A
     ...     print(out.read_text())
     x,y
     """
+
     def to_path(tmp: Path) -> None:
         with open(tmp, mode) as fh:
             write(fh)
@@ -549,31 +610,45 @@ def check_folder(folder: str | os.PathLike[str], what: str = "outputs") -> Path:
     while not base.exists() and base.parent != base:
         base = base.parent
     if not base.is_dir():
-        raise ParameterError("is a file, not a folder", source=base, variable="out_dir",
-                             expected=f"a folder for the {what}", fix="choose another output folder (--out)")
+        raise ParameterError(
+            "is a file, not a folder",
+            source=base,
+            variable="out_dir",
+            expected=f"a folder for the {what}",
+            fix="choose another output folder (--out)",
+        )
     try:
         os.rmdir(tempfile.mkdtemp(prefix=f"{_STAGE_PREFIX}{_writer_tag()}.", suffix=".part", dir=base))
     except OSError as exc:
         where = "the output folder" if base == out else f"{base}, where the output folder {out} would be made,"
-        raise OutputError(f"{where} does not accept new files ({exc.strerror or exc})", errno_=exc.errno,
-                          source=out if base == out else base, variable="out_dir",
-                          expected="an ordinary folder you can write to",
-                          fix="choose another output folder with --out (out_dir=), e.g. --out out") from None
+        raise OutputError(
+            f"{where} does not accept new files ({exc.strerror or exc})",
+            errno_=exc.errno,
+            source=out if base == out else base,
+            variable="out_dir",
+            expected="an ordinary folder you can write to",
+            fix="choose another output folder with --out (out_dir=), e.g. --out out",
+        ) from None
     return out
 
 
 def _commit(stage: Path, folder: Path, overwrite: bool, what: str) -> list[Path]:
     """Move every file of ``stage`` into ``folder``: all of them, or none (rolled back)."""
     # the outputs; never a writer's own temporary (".NAME.TAG.part") or the backup folder
-    names = sorted(p.name for p in stage.iterdir()
-                   if p.name != ".previous" and not (p.name.startswith(".") and p.name.endswith(".part")))
+    names = sorted(
+        p.name
+        for p in stage.iterdir()
+        if p.name != ".previous" and not (p.name.startswith(".") and p.name.endswith(".part"))
+    )
     if not overwrite:
         taken = [n for n in names if os.path.lexists(folder / n)]
         if taken:
-            raise OutputExistsError(f"{', '.join(taken)} already exist(s) and was left untouched", source=folder,
-                                    expected="outputs that do not exist yet",
-                                    fix="pass --overwrite (overwrite=True) to replace them, or choose another "
-                                        "output folder")
+            raise OutputExistsError(
+                f"{', '.join(taken)} already exist(s) and was left untouched",
+                source=folder,
+                expected="outputs that do not exist yet",
+                fix="pass --overwrite (overwrite=True) to replace them, or choose another output folder",
+            )
     backup = stage / ".previous"
     backup.mkdir()
     moved: list[str] = []  # names now in place, in order
@@ -599,15 +674,23 @@ def _commit(stage: Path, folder: Path, overwrite: bool, what: str) -> list[Path]
 
 def _relocated(exc: OSError, stage: Path, folder: Path) -> OSError:
     """``exc`` with the staging folder's paths replaced by the output folder's."""
+
     def moved(text: Any) -> Any:
         return None if text is None else str(text).replace(str(stage), str(folder))
 
     if isinstance(exc, OutputError):
-        return OutputError(moved(exc.problem), errno_=exc.errno, source=moved(exc.source), variable=exc.variable,
-                           expected=exc.expected, fix=exc.fix)
+        return OutputError(
+            moved(exc.problem),
+            errno_=exc.errno,
+            source=moved(exc.source),
+            variable=exc.variable,
+            expected=exc.expected,
+            fix=exc.fix,
+        )
     if isinstance(exc, InputError):
-        return type(exc)(moved(exc.problem), source=moved(exc.source), variable=exc.variable,
-                         expected=exc.expected, fix=exc.fix)
+        return type(exc)(
+            moved(exc.problem), source=moved(exc.source), variable=exc.variable, expected=exc.expected, fix=exc.fix
+        )
     if exc.errno is None:
         return exc
     return type(exc)(exc.errno, moved(exc.strerror), moved(exc.filename))

@@ -73,9 +73,7 @@ _KM_PER_DEG = 111.195  # mean Earth radius 6371 km × π/180
 NOTABLE_YEARS = {1983: 1.40, 1995: 1.30, 2017: 1.35, 1990: 0.70, 2007: 0.65, 2013: 0.55}
 
 # Coarse product's bias: factor on monthly totals by month (winter +8 %, summer -5 %).
-COARSE_BIAS = {m: 1.08 for m in (11, 12, 1, 2, 3)} | {m: 0.95 for m in (6, 7, 8)} | {
-    m: 1.0 for m in (4, 5, 9, 10)
-}
+COARSE_BIAS = {m: 1.08 for m in (11, 12, 1, 2, 3)} | {m: 0.95 for m in (6, 7, 8)} | {m: 1.0 for m in (4, 5, 9, 10)}
 COARSE_SMOOTHING_SIGMA = 0.8  # Gaussian smoothing, in coarse cells
 
 # Annual-maximum storm: GEV with Hosking's k (same sign as scipy.stats.genextreme's c);
@@ -119,29 +117,53 @@ BASINS = [
         "name": "Aldravel",
         "side": "windward",
         "description": "west (windward) slope, north-central island",
-        "vertices": [(-147.95, 35.55), (-147.55, 35.55), (-147.52, 35.90), (-147.56, 36.25),
-                     (-147.85, 36.25), (-147.97, 35.95)],
+        "vertices": [
+            (-147.95, 35.55),
+            (-147.55, 35.55),
+            (-147.52, 35.90),
+            (-147.56, 36.25),
+            (-147.85, 36.25),
+            (-147.97, 35.95),
+        ],
     },
     {
         "name": "Tessivane",
         "side": "crest",
         "description": "straddles the range crest, central island",
-        "vertices": [(-147.80, 34.95), (-147.15, 34.95), (-147.10, 35.25), (-147.18, 35.50),
-                     (-147.78, 35.50), (-147.85, 35.20)],
+        "vertices": [
+            (-147.80, 34.95),
+            (-147.15, 34.95),
+            (-147.10, 35.25),
+            (-147.18, 35.50),
+            (-147.78, 35.50),
+            (-147.85, 35.20),
+        ],
     },
     {
         "name": "Quorrindal",
         "side": "leeward",
         "description": "east (lee) slope, north-central island",
-        "vertices": [(-147.28, 35.55), (-146.98, 35.55), (-146.95, 35.90), (-147.00, 36.25),
-                     (-147.30, 36.25), (-147.33, 35.90)],
+        "vertices": [
+            (-147.28, 35.55),
+            (-146.98, 35.55),
+            (-146.95, 35.90),
+            (-147.00, 36.25),
+            (-147.30, 36.25),
+            (-147.33, 35.90),
+        ],
     },
     {
         "name": "Mirrowaith",
         "side": "south",
         "description": "southern island, both slopes; strongest summer-storm share",
-        "vertices": [(-147.70, 34.45), (-147.25, 34.45), (-147.15, 34.70), (-147.22, 34.90),
-                     (-147.75, 34.90), (-147.82, 34.68)],
+        "vertices": [
+            (-147.70, 34.45),
+            (-147.25, 34.45),
+            (-147.15, 34.70),
+            (-147.22, 34.90),
+            (-147.75, 34.90),
+            (-147.82, 34.68),
+        ],
     },
 ]
 
@@ -173,7 +195,7 @@ def _terrain(lat, lon):
     theta = np.arctan2(y / b, x / a)
     coast = 1 + 0.06 * np.cos(3 * theta + 0.7) + 0.04 * np.cos(5 * theta + 2.1) + 0.03 * np.cos(7 * theta + 4.0)
     land = rho <= coast
-    crest_height = (600 + 1900 * np.exp(-(((y - 20) / 70) ** 2)) + 700 * np.exp(-(((y + 85) / 40) ** 2)))
+    crest_height = 600 + 1900 * np.exp(-(((y - 20) / 70) ** 2)) + 700 * np.exp(-(((y + 85) / 40) ** 2))
     d = x - _crest_x(y)
     width = np.where(d < 0, 40.0, 20.0)  # long windward slope, short steep lee slope
     taper = np.clip((coast - rho) / (0.25 * coast), 0, 1)
@@ -246,8 +268,9 @@ def _simulate(size: _Size):
     loc, scale = _gev_params(cond_w, cond_s)
     k = GEV_SHAPE
     all_months = range(1, 13)
-    expected = _domain_mean(cond_w * _expected_days(_P_WINTER, all_months)
-                            + cond_s * _expected_days(_P_SUMMER, all_months), lat)
+    expected = _domain_mean(
+        cond_w * _expected_days(_P_WINTER, all_months) + cond_s * _expected_days(_P_SUMMER, all_months), lat
+    )
     y0, y1 = size.years
     days = pd.date_range(f"{y0}-01-01", f"{y1}-12-31", freq="D")
     out = np.empty((len(days), len(lat), len(lon)), dtype=np.float32)
@@ -287,45 +310,88 @@ def _simulate(size: _Size):
         annual_max[i] = am32
         storm_dates.append(days[sel][day])
     n_cells = out.shape[0] * out.shape[1] * out.shape[2]
-    return dict(lat=lat, lon=lon, days=days, depth=out, annual_max=annual_max, loc=loc, scale=scale,
-                storm_dates=storm_dates, factors=factors, capped_fraction=capped / n_cells)
+    return dict(
+        lat=lat,
+        lon=lon,
+        days=days,
+        depth=out,
+        annual_max=annual_max,
+        loc=loc,
+        scale=scale,
+        storm_dates=storm_dates,
+        factors=factors,
+        capped_fraction=capped / n_cells,
+    )
 
 
 # --------------------------------------------------------------------------- datasets
 _GLOBAL = {
     "Conventions": "CF-1.10",
     "institution": "none (invented demo data)",
-    "source": (f"climwidgets.demo {__version__} (scenario version {DEMO_VERSION}, seed {SEED}): "
-               "synthetic storms over an invented island; not observations, not a model run"),
-    "comment": (f"Invented demo data. The island '{ISLAND}', the '{RANGE}' and the basins do not exist; "
-                "the grid lies over open ocean so that no real place is implied."),
+    "source": (
+        f"climwidgets.demo {__version__} (scenario version {DEMO_VERSION}, seed {SEED}): "
+        "synthetic storms over an invented island; not observations, not a model run"
+    ),
+    "comment": (
+        f"Invented demo data. The island '{ISLAND}', the '{RANGE}' and the basins do not exist; "
+        "the grid lies over open ocean so that no real place is implied."
+    ),
 }
 
 
 def _attrs(title: str) -> dict:
-    return {"title": title, **_GLOBAL,
-            "history": f"climwidgets {__version__}: climwidgets.demo.generate() — invented demo data, deterministic"}
+    return {
+        "title": title,
+        **_GLOBAL,
+        "history": f"climwidgets {__version__}: climwidgets.demo.generate() — invented demo data, deterministic",
+    }
 
 
 def _scenario_attrs() -> dict:
     wet = ", ".join(f"{y} x{f:.2f}" for y, f in sorted(NOTABLE_YEARS.items()) if f > 1)
     dry = ", ".join(f"{y} x{f:.2f}" for y, f in sorted(NOTABLE_YEARS.items()) if f < 1)
     return {
-        "scenario": (f"Westerly winter storms (mostly Nov-Mar) wetter on the windward (west) slopes of the {RANGE}, "
-                     "rain shadow east of the crest; July-August summer storms whose share of the year grows "
-                     "from north to south; one GEV-distributed storm day per year (see gev_truth.nc)"),
-        "notable_years": (f"wet: {wet}; dry: {dry} (domain-mean total of the calendar year, apart from its "
-                          "annual-maximum storm day, is this factor times the expected year; other years "
-                          "x0.80-1.20)"),
+        "scenario": (
+            f"Westerly winter storms (mostly Nov-Mar) wetter on the windward (west) slopes of the {RANGE}, "
+            "rain shadow east of the crest; July-August summer storms whose share of the year grows "
+            "from north to south; one GEV-distributed storm day per year (see gev_truth.nc)"
+        ),
+        "notable_years": (
+            f"wet: {wet}; dry: {dry} (domain-mean total of the calendar year, apart from its "
+            "annual-maximum storm day, is this factor times the expected year; other years "
+            "x0.80-1.20)"
+        ),
     }
 
 
 def _grid_ds(lat, lat_b, lon, lon_b, **data_vars) -> xr.Dataset:
-    ds = xr.Dataset(data_vars, coords={
-        "lat": ("lat", lat, {"standard_name": "latitude", "long_name": "latitude", "units": "degrees_north",
-                             "axis": "Y", "bounds": "lat_bnds"}),
-        "lon": ("lon", lon, {"standard_name": "longitude", "long_name": "longitude", "units": "degrees_east",
-                             "axis": "X", "bounds": "lon_bnds"})})
+    ds = xr.Dataset(
+        data_vars,
+        coords={
+            "lat": (
+                "lat",
+                lat,
+                {
+                    "standard_name": "latitude",
+                    "long_name": "latitude",
+                    "units": "degrees_north",
+                    "axis": "Y",
+                    "bounds": "lat_bnds",
+                },
+            ),
+            "lon": (
+                "lon",
+                lon,
+                {
+                    "standard_name": "longitude",
+                    "long_name": "longitude",
+                    "units": "degrees_east",
+                    "axis": "X",
+                    "bounds": "lon_bnds",
+                },
+            ),
+        },
+    )
     ds["lat_bnds"] = (("lat", "bnds"), lat_b)
     ds["lon_bnds"] = (("lon", "bnds"), lon_b)
     return ds
@@ -334,8 +400,9 @@ def _grid_ds(lat, lat_b, lon, lon_b, **data_vars) -> xr.Dataset:
 def _series_ds(lat, lat_b, lon, lon_b, starts, ends, values, pr_attrs: dict) -> xr.Dataset:
     """A "pr" series on the grid, time stamped at interval starts with CF time bounds."""
     ds = _grid_ds(lat, lat_b, lon, lon_b, pr=(("time", "lat", "lon"), values.astype(np.float32), pr_attrs))
-    ds = ds.assign_coords(time=("time", starts, {"standard_name": "time", "long_name": "time", "axis": "T",
-                                                 "bounds": "time_bnds"}))
+    ds = ds.assign_coords(
+        time=("time", starts, {"standard_name": "time", "long_name": "time", "axis": "T", "bounds": "time_bnds"})
+    )
     ds["time_bnds"] = (("time", "bnds"), np.stack([starts, ends], axis=1))
     return ds
 
@@ -357,10 +424,22 @@ def _daily_ds(sim, lat_b, lon_b) -> xr.Dataset:
     days = sim["days"].to_numpy()
     ends = (sim["days"] + pd.Timedelta(days=1)).to_numpy()
     flux = (sim["depth"] / np.float32(86400.0)).astype(np.float32)
-    ds = _series_ds(sim["lat"], lat_b, sim["lon"], lon_b, days, ends, flux, {
-        "standard_name": "precipitation_flux", "long_name": "precipitation (daily mean rate)",
-        "units": "kg m-2 s-1", "cell_methods": "time: mean",
-        "comment": "multiply by 86400 s for the day's depth in mm"})
+    ds = _series_ds(
+        sim["lat"],
+        lat_b,
+        sim["lon"],
+        lon_b,
+        days,
+        ends,
+        flux,
+        {
+            "standard_name": "precipitation_flux",
+            "long_name": "precipitation (daily mean rate)",
+            "units": "kg m-2 s-1",
+            "cell_methods": "time: mean",
+            "comment": "multiply by 86400 s for the day's depth in mm",
+        },
+    )
     y0, y1 = sim["days"][0].year, sim["days"][-1].year
     ds.attrs = _attrs(f"{ISLAND} demo: daily precipitation {y0}-{y1} (invented)") | _scenario_attrs()
     return ds
@@ -375,9 +454,21 @@ def _monthly_totals(daily_flux, days):
 
 def _monthly_ds(totals, y0, y1, lat, lat_b, lon, lon_b) -> xr.Dataset:
     s, e = _month_starts(y0, y1, "standard")
-    ds = _series_ds(lat, lat_b, lon, lon_b, s, e, totals, {
-        "standard_name": "lwe_thickness_of_precipitation_amount", "long_name": "monthly precipitation total",
-        "units": "mm", "cell_methods": "time: sum"})
+    ds = _series_ds(
+        lat,
+        lat_b,
+        lon,
+        lon_b,
+        s,
+        e,
+        totals,
+        {
+            "standard_name": "lwe_thickness_of_precipitation_amount",
+            "long_name": "monthly precipitation total",
+            "units": "mm",
+            "cell_methods": "time: sum",
+        },
+    )
     ds.attrs = _attrs(f"{ISLAND} demo: monthly precipitation totals {y0}-{y1} (invented)") | _scenario_attrs()
     return ds
 
@@ -390,7 +481,9 @@ def _coarse_ds(totals, y0, y1, lat, lat_b, lon, lon_b, size: _Size):
     cs = np.sin(np.deg2rad(clat_b))
     # overlap areas (∝ Δsin(lat) × Δlon) between coarse and fine cells: exact conservation
     oy = np.clip(np.minimum(cs[:, None, 1], s[None, :, 1]) - np.maximum(cs[:, None, 0], s[None, :, 0]), 0, None)
-    ox = np.clip(np.minimum(clon_b[:, None, 1], lon_b[None, :, 1]) - np.maximum(clon_b[:, None, 0], lon_b[None, :, 0]), 0, None)
+    ox = np.clip(
+        np.minimum(clon_b[:, None, 1], lon_b[None, :, 1]) - np.maximum(clon_b[:, None, 0], lon_b[None, :, 0]), 0, None
+    )
     coarse = np.einsum("cy,tyx,dx->tcd", oy, totals, ox, optimize=True)
     coarse /= oy.sum(1)[None, :, None] * ox.sum(1)[None, None, :]
     coarse = gaussian_filter(coarse, sigma=(0, COARSE_SMOOTHING_SIGMA, COARSE_SMOOTHING_SIGMA), mode="nearest")
@@ -398,47 +491,105 @@ def _coarse_ds(totals, y0, y1, lat, lat_b, lon, lon_b, size: _Size):
     coarse *= np.array([COARSE_BIAS[m] for m in months])[:, None, None]
     starts, ends = _month_starts(y0, y1, "noleap")
     rate = coarse / (_NOLEAP_DAYS[months - 1] * 86400.0)[:, None, None]
-    ds = _series_ds(clat, clat_b, clon, clon_b, starts, ends, rate, {
-        "standard_name": "precipitation_flux", "long_name": "precipitation (monthly mean rate)",
-        "units": "kg m-2 s-1", "cell_methods": "time: mean",
-        "comment": ("monthly total = rate × 86400 × days in the noleap month; February totals include the "
-                    "29th of leap years, spread over 28 days")})
+    ds = _series_ds(
+        clat,
+        clat_b,
+        clon,
+        clon_b,
+        starts,
+        ends,
+        rate,
+        {
+            "standard_name": "precipitation_flux",
+            "long_name": "precipitation (monthly mean rate)",
+            "units": "kg m-2 s-1",
+            "cell_methods": "time: mean",
+            "comment": (
+                "monthly total = rate × 86400 × days in the noleap month; February totals include the "
+                "29th of leap years, spread over 28 days"
+            ),
+        },
+    )
     ds.attrs = _attrs(f"{ISLAND} demo: second product, coarse grid, noleap calendar (invented, biased)")
-    ds.attrs["bias"] = ("monthly totals × 1.08 in Nov-Mar, × 0.95 in Jun-Aug, × 1.00 otherwise, after conservative "
-                        f"averaging to {size.coarse_res} deg and Gaussian smoothing (sigma {COARSE_SMOOTHING_SIGMA} cells)")
+    ds.attrs["bias"] = (
+        "monthly totals × 1.08 in Nov-Mar, × 0.95 in Jun-Aug, × 1.00 otherwise, after conservative "
+        f"averaging to {size.coarse_res} deg and Gaussian smoothing (sigma {COARSE_SMOOTHING_SIGMA} cells)"
+    )
     return ds
 
 
 def _elevation_ds(lat, lat_b, lon, lon_b) -> xr.Dataset:
     elevation, land, crest_lon, _, _ = _terrain(lat, lon)
-    ds = _grid_ds(lat, lat_b, lon, lon_b,
-                  elevation=(("lat", "lon"), elevation.astype(np.float32), {
-                      "standard_name": "surface_altitude", "long_name": "elevation above sea level",
-                      "units": "m", "comment": "sea cells are 0 m"}),
-                  land=(("lat", "lon"), land.astype(np.int8), {
-                      "standard_name": "land_binary_mask", "long_name": "land mask", "units": "1",
-                      "flag_values": np.array([0, 1], dtype=np.int8), "flag_meanings": "sea land"}),
-                  crest_lon=(("lat",), crest_lon, {
-                      "long_name": f"longitude of the {RANGE} crest line", "units": "degrees_east",
-                      "comment": "NaN (by design) in rows without land"}))
+    ds = _grid_ds(
+        lat,
+        lat_b,
+        lon,
+        lon_b,
+        elevation=(
+            ("lat", "lon"),
+            elevation.astype(np.float32),
+            {
+                "standard_name": "surface_altitude",
+                "long_name": "elevation above sea level",
+                "units": "m",
+                "comment": "sea cells are 0 m",
+            },
+        ),
+        land=(
+            ("lat", "lon"),
+            land.astype(np.int8),
+            {
+                "standard_name": "land_binary_mask",
+                "long_name": "land mask",
+                "units": "1",
+                "flag_values": np.array([0, 1], dtype=np.int8),
+                "flag_meanings": "sea land",
+            },
+        ),
+        crest_lon=(
+            ("lat",),
+            crest_lon,
+            {
+                "long_name": f"longitude of the {RANGE} crest line",
+                "units": "degrees_east",
+                "comment": "NaN (by design) in rows without land",
+            },
+        ),
+    )
     ds.attrs = _attrs(f"{ISLAND} demo: elevation and land mask (invented)")
     return ds
 
 
 def _gev_ds(sim, lat_b, lon_b, y0, y1) -> xr.Dataset:
-    ds = _grid_ds(sim["lat"], lat_b, sim["lon"], lon_b,
-                  loc=(("lat", "lon"), sim["loc"], {"long_name": "GEV location", "units": "mm"}),
-                  scale=(("lat", "lon"), sim["scale"], {"long_name": "GEV scale", "units": "mm"}),
-                  shape=(("lat", "lon"), np.full(sim["loc"].shape, GEV_SHAPE), {
-                      "long_name": "GEV shape (Hosking's k; equals scipy.stats.genextreme c)", "units": "1"}),
-                  annual_max=(("year", "lat", "lon"), sim["annual_max"].astype(np.float32), {
-                      "long_name": "inserted annual maximum daily depth (the year's largest day)", "units": "mm"}),
-                  storm_date=(("year",), np.array(sim["storm_dates"], dtype="datetime64[ns]"), {
-                      "long_name": "date of the inserted annual-maximum storm"}))
+    ds = _grid_ds(
+        sim["lat"],
+        lat_b,
+        sim["lon"],
+        lon_b,
+        loc=(("lat", "lon"), sim["loc"], {"long_name": "GEV location", "units": "mm"}),
+        scale=(("lat", "lon"), sim["scale"], {"long_name": "GEV scale", "units": "mm"}),
+        shape=(
+            ("lat", "lon"),
+            np.full(sim["loc"].shape, GEV_SHAPE),
+            {"long_name": "GEV shape (Hosking's k; equals scipy.stats.genextreme c)", "units": "1"},
+        ),
+        annual_max=(
+            ("year", "lat", "lon"),
+            sim["annual_max"].astype(np.float32),
+            {"long_name": "inserted annual maximum daily depth (the year's largest day)", "units": "mm"},
+        ),
+        storm_date=(
+            ("year",),
+            np.array(sim["storm_dates"], dtype="datetime64[ns]"),
+            {"long_name": "date of the inserted annual-maximum storm"},
+        ),
+    )
     ds = ds.assign_coords(year=("year", np.arange(y0, y1 + 1), {"long_name": "calendar year"}))
     ds.attrs = _attrs(f"{ISLAND} demo: true GEV parameters of annual daily maxima (invented)")
-    ds.attrs["shape_convention"] = ("Hosking's k: k < 0 heavy upper tail; quantile x(F) = loc + scale/k "
-                                    "(1 - (-ln F)^k); scipy.stats.genextreme(c=k, loc, scale)")
+    ds.attrs["shape_convention"] = (
+        "Hosking's k: k < 0 heavy upper tail; quantile x(F) = loc + scale/k "
+        "(1 - (-ln F)^k); scipy.stats.genextreme(c=k, loc, scale)"
+    )
     ds.attrs["capped_fraction"] = float(sim["capped_fraction"])
     return ds
 
@@ -448,9 +599,13 @@ def basins_geojson() -> dict:
     feats = []
     for b in BASINS:
         ring = [list(v) for v in b["vertices"]] + [list(b["vertices"][0])]
-        feats.append({"type": "Feature",
-                      "properties": {"name": b["name"], "side": b["side"], "description": b["description"]},
-                      "geometry": {"type": "Polygon", "coordinates": [ring]}})
+        feats.append(
+            {
+                "type": "Feature",
+                "properties": {"name": b["name"], "side": b["side"], "description": b["description"]},
+                "geometry": {"type": "Polygon", "coordinates": [ring]},
+            }
+        )
     return {"type": "FeatureCollection", "name": f"{ISLAND} demo basins (invented)", "features": feats}
 
 
@@ -461,13 +616,22 @@ def _encoding(ds: xr.Dataset, tile: tuple[int, int, int] | None = None) -> dict:
         if var.dims == ("time", "lat", "lon"):
             nt, ny, nx = var.shape
             chunks = tile or (nt, ny, nx)
-            enc[name] = {"zlib": True, "complevel": 4, "shuffle": True, "_FillValue": None,
-                         "chunksizes": tuple(min(c, n) for c, n in zip(chunks, var.shape))}
+            enc[name] = {
+                "zlib": True,
+                "complevel": 4,
+                "shuffle": True,
+                "_FillValue": None,
+                "chunksizes": tuple(min(c, n) for c, n in zip(chunks, var.shape)),
+            }
         elif var.dtype.kind == "f":
             enc[name] = {"zlib": True, "complevel": 4, "_FillValue": np.nan if var.isnull().any() else None}
     if "storm_date" in ds.variables:
-        enc["storm_date"] = {"units": "days since 1981-01-01", "calendar": "standard", "dtype": "float64",
-                              "_FillValue": None}
+        enc["storm_date"] = {
+            "units": "days since 1981-01-01",
+            "calendar": "standard",
+            "dtype": "float64",
+            "_FillValue": None,
+        }
     return enc
 
 
@@ -475,8 +639,9 @@ def _write_atomic(ds: xr.Dataset, path: Path, calendar: str = "standard", tile=N
     enc = _encoding(ds, tile)
     if "time" in ds.variables:
         enc.update(_time_encoding(calendar))
-    atomic_write(path, True, lambda tmp: ds.to_netcdf(tmp, engine="netcdf4", format="NETCDF4", encoding=enc),
-                 "demo.generate")
+    atomic_write(
+        path, True, lambda tmp: ds.to_netcdf(tmp, engine="netcdf4", format="NETCDF4", encoding=enc), "demo.generate"
+    )
 
 
 def _write_text_atomic(text: str, path: Path) -> None:
@@ -511,12 +676,23 @@ def _scenario_summary(sim, totals, size: _Size, coarse: xr.Dataset) -> dict:
     ctot = coarse["pr"].values.astype(np.float64) * 86400.0 * np.tile(_NOLEAP_DAYS, n_years)[:, None, None]
     cmean = _domain_mean(ctot.sum(axis=0), coarse.lat.values) / n_years
     return {
-        "scenario_version": DEMO_VERSION, "climwidgets_version": __version__, "seed": SEED, "size": _size_meta(size),
-        "invented": True, "island": ISLAND, "range": RANGE,
-        "crest_line": [[round(float(x), 4), round(float(y), 4)] for x, y in
-                       zip(_terrain(sim["lat"], sim["lon"])[2], sim["lat"]) if np.isfinite(x)],
-        "notable_years": {str(y): {"factor": f, "domain_total_percent_of_mean": round(float(100 * domain[y - y0] / mean), 1)}
-                          for y, f in NOTABLE_YEARS.items() if y0 <= y <= y1},
+        "scenario_version": DEMO_VERSION,
+        "climwidgets_version": __version__,
+        "seed": SEED,
+        "size": _size_meta(size),
+        "invented": True,
+        "island": ISLAND,
+        "range": RANGE,
+        "crest_line": [
+            [round(float(x), 4), round(float(y), 4)]
+            for x, y in zip(_terrain(sim["lat"], sim["lon"])[2], sim["lat"])
+            if np.isfinite(x)
+        ],
+        "notable_years": {
+            str(y): {"factor": f, "domain_total_percent_of_mean": round(float(100 * domain[y - y0] / mean), 1)}
+            for y, f in NOTABLE_YEARS.items()
+            if y0 <= y <= y1
+        },
         "year_factors": {str(y): round(f, 4) for y, f in sim["factors"].items()},
         "domain_mean_annual_total_mm": round(float(mean), 1),
         "coarse_bias_factors_by_month": {str(m): f for m, f in sorted(COARSE_BIAS.items())},
@@ -549,8 +725,13 @@ def generate(directory=None, force: bool = False, quiet: bool = False, size: str
         ``basins``, ``scenario`` → paths.
     """
     if size not in SIZES:
-        raise ParameterError(f"unknown demo size {size!r}", source="climwidgets.demo.generate", variable="size",
-                             expected=f"one of {sorted(SIZES)}", fix="pass size='full' (default) or size='test'")
+        raise ParameterError(
+            f"unknown demo size {size!r}",
+            source="climwidgets.demo.generate",
+            variable="size",
+            expected=f"one of {sorted(SIZES)}",
+            fix="pass size='full' (default) or size='test'",
+        )
     spec = SIZES[size]
     out = Path(directory) if directory is not None else default_directory()
     out.mkdir(parents=True, exist_ok=True)
@@ -593,8 +774,17 @@ def _write_ensemble(totals, spec: _Size, lat_b, lon_b, out: Path) -> dict[str, P
     as the second product's, written next to the other demo files."""
     paths = {key: out / name for key, name in _demo_ensemble.ENSEMBLE_FILES.items()}
     _demo_ensemble.write_ensemble(
-        totals, spec.years, lat_b, lon_b, 2 * spec.coarse_res, LAT_RANGE, LON_RANGE, _attrs(""), paths,
-        lambda ds, path: _write_atomic(ds, path, calendar="noleap"))
+        totals,
+        spec.years,
+        lat_b,
+        lon_b,
+        2 * spec.coarse_res,
+        LAT_RANGE,
+        LON_RANGE,
+        _attrs(""),
+        paths,
+        lambda ds, path: _write_atomic(ds, path, calendar="noleap"),
+    )
     return paths
 
 
@@ -622,8 +812,9 @@ def generate_ensemble(directory=None, force: bool = False, quiet: bool = False, 
 
 
 def main(argv=None) -> int:
-    parser = argparse.ArgumentParser(prog="python -m climwidgets.demo",
-                                     description=f"Generate the invented {ISLAND} demo grids (deterministic).")
+    parser = argparse.ArgumentParser(
+        prog="python -m climwidgets.demo", description=f"Generate the invented {ISLAND} demo grids (deterministic)."
+    )
     parser.add_argument("--dir", default=None, help="output folder (default: demo_grids/generated or a user cache)")
     parser.add_argument("--force", action="store_true", help="rewrite files even if present")
     parser.add_argument("--size", default="full", choices=sorted(SIZES), help="grid size (default: full)")

@@ -44,8 +44,10 @@ __all__ = [
 MEMBERS = ("m1", "m2", "m3", "m4")
 HISTORICAL_YEARS = (1981, 2010)
 FUTURE_YEARS = (2041, 2070)
-ENSEMBLE_FILES = {"ensemble_historical": "pr_ensemble_historical_noleap.nc",
-                  "ensemble_future": "pr_ensemble_future_noleap.nc"}
+ENSEMBLE_FILES = {
+    "ensemble_historical": "pr_ensemble_historical_noleap.nc",
+    "ensemble_future": "pr_ensemble_future_noleap.nc",
+}
 
 _WINTER, _SUMMER = (11, 12, 1, 2, 3), (6, 7, 8)
 
@@ -78,8 +80,9 @@ def _conservative_average(totals, lat_b, lon_b, clat_b, clon_b):
     """Area-weighted average (weights ∝ Δsin(lat) × Δlon overlaps) onto a coarser grid."""
     s, cs = np.sin(np.deg2rad(lat_b)), np.sin(np.deg2rad(clat_b))
     oy = np.clip(np.minimum(cs[:, None, 1], s[None, :, 1]) - np.maximum(cs[:, None, 0], s[None, :, 0]), 0, None)
-    ox = np.clip(np.minimum(clon_b[:, None, 1], lon_b[None, :, 1])
-                 - np.maximum(clon_b[:, None, 0], lon_b[None, :, 0]), 0, None)
+    ox = np.clip(
+        np.minimum(clon_b[:, None, 1], lon_b[None, :, 1]) - np.maximum(clon_b[:, None, 0], lon_b[None, :, 0]), 0, None
+    )
     out = np.einsum("cy,tyx,dx->tcd", oy, totals, ox, optimize=True)
     return out / (oy.sum(1)[None, :, None] * ox.sum(1)[None, None, :])
 
@@ -88,15 +91,33 @@ def _run_ds(values, years, lat, lat_b, lon, lon_b, attrs, experiment):
     y0, y1 = years
     starts = xr.date_range(f"{y0}-01-01", f"{y1 + 1}-01-01", freq="MS", calendar="noleap", use_cftime=True).values
     ds = xr.Dataset(
-        {"pr": (("member", "time", "lat", "lon"), values.astype(np.float32), {
-            "standard_name": "lwe_thickness_of_precipitation_amount", "long_name": "monthly precipitation total",
-            "units": "mm", "cell_methods": "time: sum"})},
-        coords={"member": ("member", list(MEMBERS), {"long_name": "ensemble member (invented)"}),
-                "time": ("time", starts[:-1], {"standard_name": "time", "axis": "T", "bounds": "time_bnds"}),
-                "lat": ("lat", lat, {"standard_name": "latitude", "units": "degrees_north", "axis": "Y",
-                                     "bounds": "lat_bnds"}),
-                "lon": ("lon", lon, {"standard_name": "longitude", "units": "degrees_east", "axis": "X",
-                                     "bounds": "lon_bnds"})})
+        {
+            "pr": (
+                ("member", "time", "lat", "lon"),
+                values.astype(np.float32),
+                {
+                    "standard_name": "lwe_thickness_of_precipitation_amount",
+                    "long_name": "monthly precipitation total",
+                    "units": "mm",
+                    "cell_methods": "time: sum",
+                },
+            )
+        },
+        coords={
+            "member": ("member", list(MEMBERS), {"long_name": "ensemble member (invented)"}),
+            "time": ("time", starts[:-1], {"standard_name": "time", "axis": "T", "bounds": "time_bnds"}),
+            "lat": (
+                "lat",
+                lat,
+                {"standard_name": "latitude", "units": "degrees_north", "axis": "Y", "bounds": "lat_bnds"},
+            ),
+            "lon": (
+                "lon",
+                lon,
+                {"standard_name": "longitude", "units": "degrees_east", "axis": "X", "bounds": "lon_bnds"},
+            ),
+        },
+    )
     ds["time_bnds"] = (("time", "bnds"), np.stack([starts[:-1], starts[1:]], axis=1))
     ds["lat_bnds"] = (("lat", "bnds"), lat_b)
     ds["lon_bnds"] = (("lon", "bnds"), lon_b)
@@ -113,7 +134,7 @@ def write_ensemble(totals, years, lat_b, lon_b, ens_res, lat_range, lon_range, a
     y0 = years[0]
     h0, h1 = HISTORICAL_YEARS
     n_years = h1 - h0 + 1
-    base = totals[(h0 - y0) * 12:(h1 - y0 + 1) * 12]
+    base = totals[(h0 - y0) * 12 : (h1 - y0 + 1) * 12]
     clat, clat_b = _axis(*lat_range, ens_res)
     clon, clon_b = _axis(*lon_range, ens_res)
     coarse = _conservative_average(base, lat_b, lon_b, clat_b, clon_b).reshape(n_years, 12, len(clat), len(clon))
@@ -124,20 +145,42 @@ def write_ensemble(totals, years, lat_b, lon_b, ens_res, lat_range, lon_range, a
     factors = np.array([CHANGE_FACTORS[m] for m in MEMBERS])  # (member, month)
     fut = hist * factors[:, None, :, None, None]
     shape = (len(MEMBERS), n_years * 12, len(clat), len(clon))
-    note = ("Invented ensemble: not runs of any real climate model. The future run repeats the historical "
-            "run's weather, month by month, times the member's change factor of that calendar month.")
-    common = dict(attrs, comment=attrs.get("comment", "") + " " + note,
-                  change_factors="; ".join(f"{m}: " + ", ".join(f"{f:.2f}" for f in CHANGE_FACTORS[m])
-                                           for m in MEMBERS) + " (January to December)",
-                  member_bias="; ".join(f"{m}: x{b:.2f}" for m, b in MEMBER_BIAS.items()))
-    hist_ds = _run_ds(hist.reshape(shape), HISTORICAL_YEARS, clat, clat_b, clon, clon_b,
-                      dict(common, title="Taluvessa demo: invented ensemble, historical run 1981-2010 (noleap)"),
-                      "historical")
-    fut_ds = _run_ds(fut.reshape(shape), FUTURE_YEARS, clat, clat_b, clon, clon_b,
-                     dict(common, title="Taluvessa demo: invented ensemble, future run 2041-2070 (noleap)"),
-                     "future")
-    fut_ds["change_factor"] = (("member", "month"), factors, {
-        "units": "1", "long_name": "known change factor of monthly totals (future / historical)"})
+    note = (
+        "Invented ensemble: not runs of any real climate model. The future run repeats the historical "
+        "run's weather, month by month, times the member's change factor of that calendar month."
+    )
+    common = dict(
+        attrs,
+        comment=attrs.get("comment", "") + " " + note,
+        change_factors="; ".join(f"{m}: " + ", ".join(f"{f:.2f}" for f in CHANGE_FACTORS[m]) for m in MEMBERS)
+        + " (January to December)",
+        member_bias="; ".join(f"{m}: x{b:.2f}" for m, b in MEMBER_BIAS.items()),
+    )
+    hist_ds = _run_ds(
+        hist.reshape(shape),
+        HISTORICAL_YEARS,
+        clat,
+        clat_b,
+        clon,
+        clon_b,
+        dict(common, title="Taluvessa demo: invented ensemble, historical run 1981-2010 (noleap)"),
+        "historical",
+    )
+    fut_ds = _run_ds(
+        fut.reshape(shape),
+        FUTURE_YEARS,
+        clat,
+        clat_b,
+        clon,
+        clon_b,
+        dict(common, title="Taluvessa demo: invented ensemble, future run 2041-2070 (noleap)"),
+        "future",
+    )
+    fut_ds["change_factor"] = (
+        ("member", "month"),
+        factors,
+        {"units": "1", "long_name": "known change factor of monthly totals (future / historical)"},
+    )
     fut_ds = fut_ds.assign_coords(month=("month", np.arange(1, 13), {"long_name": "calendar month"}))
     write(hist_ds, Path(paths["ensemble_historical"]))
     write(fut_ds, Path(paths["ensemble_future"]))
@@ -145,7 +188,13 @@ def write_ensemble(totals, years, lat_b, lon_b, ens_res, lat_range, lon_range, a
 
 def ensemble_summary_json(ens_res) -> dict:
     """The ensemble's recipe in numbers, for scenario.json."""
-    return {"members": list(MEMBERS), "grid_res_deg": ens_res, "calendar": "noleap",
-            "historical_years": list(HISTORICAL_YEARS), "future_years": list(FUTURE_YEARS),
-            "change_factors_by_member_and_month": {m: list(f) for m, f in CHANGE_FACTORS.items()},
-            "member_bias": dict(MEMBER_BIAS), "generator": f"climwidgets.demo_ensemble {__version__}"}
+    return {
+        "members": list(MEMBERS),
+        "grid_res_deg": ens_res,
+        "calendar": "noleap",
+        "historical_years": list(HISTORICAL_YEARS),
+        "future_years": list(FUTURE_YEARS),
+        "change_factors_by_member_and_month": {m: list(f) for m, f in CHANGE_FACTORS.items()},
+        "member_bias": dict(MEMBER_BIAS),
+        "generator": f"climwidgets.demo_ensemble {__version__}",
+    }

@@ -57,8 +57,15 @@ class InputError(ValueError):
     (True, True)
     """
 
-    def __init__(self, problem: str, *, source: Any = None, variable: Hashable | None = None,
-                 expected: str | None = None, fix: str | None = None) -> None:
+    def __init__(
+        self,
+        problem: str,
+        *,
+        source: Any = None,
+        variable: Hashable | None = None,
+        expected: str | None = None,
+        fix: str | None = None,
+    ) -> None:
         self.problem = problem
         self.source = None if source is None else str(source)
         self.variable = variable
@@ -83,8 +90,14 @@ class InputError(ValueError):
         return (_rebuild, (type(self), self.problem, self.source, self.variable, self.expected, self.fix))
 
 
-def _rebuild(cls: type[InputError], problem: str, source: str | None, variable: Hashable | None,
-             expected: str | None, fix: str | None) -> InputError:
+def _rebuild(
+    cls: type[InputError],
+    problem: str,
+    source: str | None,
+    variable: Hashable | None,
+    expected: str | None,
+    fix: str | None,
+) -> InputError:
     return cls(problem, source=source, variable=variable, expected=expected, fix=fix)
 
 

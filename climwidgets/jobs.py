@@ -38,9 +38,19 @@ import pandas as pd
 from .errors import ParameterError
 from .geo.basinset import load_basins
 
-__all__ = ["JobResult", "load_basins", "run_summary", "run_extremes", "run_compare", "run_demo_headless",
-           "run_scenario",
-           "SUMMARY_FILES", "EXTREMES_FILES", "COMPARE_FILES", "SCENARIO_FILES"]
+__all__ = [
+    "JobResult",
+    "load_basins",
+    "run_summary",
+    "run_extremes",
+    "run_compare",
+    "run_demo_headless",
+    "run_scenario",
+    "SUMMARY_FILES",
+    "EXTREMES_FILES",
+    "COMPARE_FILES",
+    "SCENARIO_FILES",
+]
 
 Progress = Callable[[str], None] | None
 
@@ -53,9 +63,11 @@ SCENARIO_DEPTH_FILE = "scenario_design_depths.csv"  # with daily or hourly runs
 
 _STEP_WORD = {"hour": "hourly", "day": "daily", "month": "monthly"}
 
-AREAL_NOTE = ("basin depths are areal: the return level of the basin-mean annual maxima, lower than "
-              "point (gauge) depths of the same return period; cell_mean_estimate_mm is the basin mean "
-              "of the cells' own return levels")  # the CSV's note: analyses.extremes.AREAL_NOTE + the extra column
+AREAL_NOTE = (
+    "basin depths are areal: the return level of the basin-mean annual maxima, lower than "
+    "point (gauge) depths of the same return period; cell_mean_estimate_mm is the basin mean "
+    "of the cells' own return levels"
+)  # the CSV's note: analyses.extremes.AREAL_NOTE + the extra column
 
 
 @dataclass
@@ -116,12 +128,22 @@ def _plan_outputs(out_dir, names: dict, prefix: str, overwrite: bool, job: str) 
     from .report.tables import metadata_path
 
     if not isinstance(out_dir, (str, os.PathLike)) or str(out_dir) == "":
-        raise ParameterError(f"out_dir={out_dir!r} is not a folder path", source=job, variable="out_dir",
-                             expected="a folder path", fix="pass e.g. out_dir='out'")
+        raise ParameterError(
+            f"out_dir={out_dir!r} is not a folder path",
+            source=job,
+            variable="out_dir",
+            expected="a folder path",
+            fix="pass e.g. out_dir='out'",
+        )
     out = Path(out_dir)
     if out.exists() and not out.is_dir():
-        raise ParameterError("is a file, not a folder", source=out, variable="out_dir",
-                             expected="a folder for the outputs", fix="choose another --out folder")
+        raise ParameterError(
+            "is a file, not a folder",
+            source=out,
+            variable="out_dir",
+            expected="a folder for the outputs",
+            fix="choose another --out folder",
+        )
     check_folder(out, f"{job} outputs")  # /proc, a read-only disk: refused before any data are read
     paths = {key: out / f"{prefix}{name}" for key, name in names.items()}
     if not overwrite:
@@ -129,10 +151,12 @@ def _plan_outputs(out_dir, names: dict, prefix: str, overwrite: bool, job: str) 
         every = [p for p in paths.values()] + [metadata_path(p) for p in paths.values() if p.suffix == ".csv"]
         existing = [p.name for p in every if os.path.lexists(p)]
         if existing:
-            raise OutputExistsError(f"{', '.join(existing)} already exist(s) and was left untouched",
-                                    source=out, expected="outputs that do not exist yet",
-                                    fix="pass --overwrite (overwrite=True) to replace them, or choose another "
-                                        "output folder")
+            raise OutputExistsError(
+                f"{', '.join(existing)} already exist(s) and was left untouched",
+                source=out,
+                expected="outputs that do not exist yet",
+                fix="pass --overwrite (overwrite=True) to replace them, or choose another output folder",
+            )
     return paths
 
 
@@ -161,10 +185,24 @@ def _sources(pr) -> list[str]:
 
 
 # ------------------------------------------------------------------ summary
-def run_summary(data, basins, months=(7, 8), baseline=(1991, 2020), out_dir="out", overwrite: bool = False,
-                progress: Progress = None, *, var=None, year_start: int = 1, title: str | None = None,
-                prefix: str = "", figures: bool = True, what_if_percent: float | None = None,
-                what_if_months=None, units: str = "SI") -> JobResult:
+def run_summary(
+    data,
+    basins,
+    months=(7, 8),
+    baseline=(1991, 2020),
+    out_dir="out",
+    overwrite: bool = False,
+    progress: Progress = None,
+    *,
+    var=None,
+    year_start: int = 1,
+    title: str | None = None,
+    prefix: str = "",
+    figures: bool = True,
+    what_if_percent: float | None = None,
+    what_if_months=None,
+    units: str = "SI",
+) -> JobResult:
     """Basin summary table (CSV), seasonal-share and normals maps (NetCDF) and HTML report.
 
     Parameters
@@ -222,21 +260,36 @@ def run_summary(data, basins, months=(7, 8), baseline=(1991, 2020), out_dir="out
     bundle = summary_bundle(pr, months=months, baseline=baseline, year_start=year_start)
     what = None
     if what_if_percent is not None:
-        what = what_if(pr, basin_list, months=_check_months(what_if_months or months, job),
-                       percent=float(what_if_percent), year_start=year_start, bundle=bundle)
-    lazy = (basin_table(pr, basin_list, months=months, baseline=baseline, year_start=year_start, bundle=bundle),
-            bundle[["seasonal_share", "normals"]], what)
+        what = what_if(
+            pr,
+            basin_list,
+            months=_check_months(what_if_months or months, job),
+            percent=float(what_if_percent),
+            year_start=year_start,
+            bundle=bundle,
+        )
+    lazy = (
+        basin_table(pr, basin_list, months=months, baseline=baseline, year_start=year_start, bundle=bundle),
+        bundle[["seasonal_share", "normals"]],
+        what,
+    )
     with say.dask("basin table, seasonal share and normals in one pass"):
         analysis, maps, what = compute(*lazy)
 
     say("basin table and report")
-    content = report_content(analysis, basin_list, pr, what=what, sources=sources,
-                             title=title or "Basin precipitation summary")
+    content = report_content(
+        analysis, basin_list, pr, what=what, sources=sources, title=title or "Basin precipitation summary"
+    )
     table = to_units(content.table, units)
 
     notes = [f"data: {pr.attrs.get('conversion', '')}".strip(), analysis.attrs["area"]]
-    maps.attrs = {"months": list(months), "baseline": list(baseline), "year_start": year_start,
-                  "history": bundle.attrs.get("history", ""), "input_files": "; ".join(sources)}
+    maps.attrs = {
+        "months": list(months),
+        "baseline": list(baseline),
+        "year_start": year_start,
+        "history": bundle.attrs.get("history", ""),
+        "input_files": "; ".join(sources),
+    }
     with _staged(paths, overwrite, job) as staged:
         to_csv(table, staged["csv"], provenance={"inputs": sources, "notes": notes, "title": "basin summary"})
         to_netcdf(maps, staged["netcdf"], title="Seasonal share and monthly normals")
@@ -246,10 +299,24 @@ def run_summary(data, basins, months=(7, 8), baseline=(1991, 2020), out_dir="out
 
 
 # ------------------------------------------------------------------ extremes
-def run_extremes(data, basins=None, duration_days=1, periods=(2, 10, 25, 50, 100), ci=0.9, n_boot=1000,
-                 out_dir="out", overwrite: bool = False, progress: Progress = None, *, var=None,
-                 year_start: int = 1, duration_hours=None, seed=0, prefix: str = "",
-                 units: str = "SI") -> JobResult:
+def run_extremes(
+    data,
+    basins=None,
+    duration_days=1,
+    periods=(2, 10, 25, 50, 100),
+    ci=0.9,
+    n_boot=1000,
+    out_dir="out",
+    overwrite: bool = False,
+    progress: Progress = None,
+    *,
+    var=None,
+    year_start: int = 1,
+    duration_hours=None,
+    seed=0,
+    prefix: str = "",
+    units: str = "SI",
+) -> JobResult:
     """Return-level maps (NetCDF) and a basin table with intervals (CSV).
 
     ``return_levels.nc`` holds :func:`cw.return_levels` of the per-cell annual maxima
@@ -278,12 +345,21 @@ def run_extremes(data, basins=None, duration_days=1, periods=(2, 10, 25, 50, 100
     units = unit_system(units, job)
     periods = tuple(int(p) if float(p).is_integer() else float(p) for p in _check_periods(periods).tolist())
     if not (isinstance(ci, (int, float)) and not isinstance(ci, bool) and 0 < ci < 1):
-        raise ParameterError(f"ci={ci!r} is not a confidence level", source=job, variable="ci",
-                             expected="a number strictly between 0 and 1", fix="e.g. 0.9 for a 90 % interval")
+        raise ParameterError(
+            f"ci={ci!r} is not a confidence level",
+            source=job,
+            variable="ci",
+            expected="a number strictly between 0 and 1",
+            fix="e.g. 0.9 for a 90 % interval",
+        )
     if isinstance(n_boot, bool) or not isinstance(n_boot, int) or n_boot < 50:
-        raise ParameterError(f"n_boot={n_boot!r} is too small for percentile intervals", source=job,
-                             variable="n_boot", expected="an integer of at least 50 (1000 or more for final numbers)",
-                             fix="e.g. --n-boot 1000")
+        raise ParameterError(
+            f"n_boot={n_boot!r} is too small for percentile intervals",
+            source=job,
+            variable="n_boot",
+            expected="an integer of at least 50 (1000 or more for final numbers)",
+            fix="e.g. --n-boot 1000",
+        )
     names = EXTREMES_FILES if basins is not None else {"netcdf": EXTREMES_FILES["netcdf"]}
     paths = _plan_outputs(out_dir, names, prefix, overwrite, job)
     say = _Reporter(progress, job)
@@ -308,8 +384,11 @@ def run_extremes(data, basins=None, duration_days=1, periods=(2, 10, 25, 50, 100
             depths = areal_design_depths(None, basin_list, year_start=year_start, series=series, **fit, **duration)
             depths["cell_mean_estimate_mm"] = describe(
                 basin_series(levels["estimate"], basin_list).reset_coords(drop=True).rename(period="return_period"),
-                "cell_mean_estimate_mm", label="basin mean of the cells' depths", units="mm",
-                description="area-weighted basin mean of the cells' own return levels")
+                "cell_mean_estimate_mm",
+                label="basin mean of the cells' depths",
+                units="mm",
+                description="area-weighted basin mean of the cells' own return levels",
+            )
             (depths,) = compute(depths)
             table = depth_table(depths)[["areal_estimate_mm", "areal_lower_mm", "areal_upper_mm"]]
             described = dict(table.attrs.get("columns") or {})
@@ -317,23 +396,60 @@ def run_extremes(data, basins=None, duration_days=1, periods=(2, 10, 25, 50, 100
             table["cell_mean_estimate_mm"] = depths["cell_mean_estimate_mm"].to_series()
             table = table.reset_index("return_period").rename(columns={"return_period": "return_period_years"})
             table["n_years"] = depths["n_years"].to_series().reindex(table.index).astype(int)
-            table = table[["return_period_years", "areal_estimate_mm", "areal_lower_mm", "areal_upper_mm",
-                           "cell_mean_estimate_mm", "n_years"]]
-            table.attrs = {"duration": dur, "ci": float(ci), "n_boot": int(n_boot),
-                           "seed": seed, "year_start": year_start, "periods": list(periods),
-                           "interval": levels.attrs.get("interval_method", ""), "columns": described}
+            table = table[
+                [
+                    "return_period_years",
+                    "areal_estimate_mm",
+                    "areal_lower_mm",
+                    "areal_upper_mm",
+                    "cell_mean_estimate_mm",
+                    "n_years",
+                ]
+            ]
+            table.attrs = {
+                "duration": dur,
+                "ci": float(ci),
+                "n_boot": int(n_boot),
+                "seed": seed,
+                "year_start": year_start,
+                "periods": list(periods),
+                "interval": levels.attrs.get("interval_method", ""),
+                "columns": described,
+            }
             table = to_units(table, units)
-            to_csv(table, staged["csv"],
-                   provenance={"inputs": sources, "notes": [AREAL_NOTE], "cautions": DESIGN_DEPTH_CAUTIONS,
-                               "title": "basin return levels"})
+            to_csv(
+                table,
+                staged["csv"],
+                provenance={
+                    "inputs": sources,
+                    "notes": [AREAL_NOTE],
+                    "cautions": DESIGN_DEPTH_CAUTIONS,
+                    "title": "basin return levels",
+                },
+            )
     return JobResult(paths=paths, table=table, cautions=tuple(DESIGN_DEPTH_CAUTIONS))
 
 
 # ------------------------------------------------------------------ scenario
-def run_scenario(hist, future, basins, months=(7, 8), historical=None, future_period=None, out_dir="out",
-                 overwrite: bool = False, progress: Progress = None, *, var=None, prefix: str = "", obs=None,
-                 method: str = "none", design_periods=(10, 100), n_boot: int = 200,
-                 title: str | None = None) -> JobResult:
+def run_scenario(
+    hist,
+    future,
+    basins,
+    months=(7, 8),
+    historical=None,
+    future_period=None,
+    out_dir="out",
+    overwrite: bool = False,
+    progress: Progress = None,
+    *,
+    var=None,
+    prefix: str = "",
+    obs=None,
+    method: str = "none",
+    design_periods=(10, 100),
+    n_boot: int = 200,
+    title: str | None = None,
+) -> JobResult:
     """Climate-change signals per basin of a model ensemble (CSV and HTML report).
 
     ``scenario_basin_signals.csv`` has one row per basin: the change in the seasonal share
@@ -363,8 +479,9 @@ def run_scenario(hist, future, basins, months=(7, 8), historical=None, future_pe
     if future_period is not None:
         future_period = _check_baseline(future_period, job, "future")
     _check_method(method, obs, job)
-    design_periods = tuple(int(p) if float(p).is_integer() else float(p)
-                           for p in _check_periods(design_periods).tolist())
+    design_periods = tuple(
+        int(p) if float(p).is_integer() else float(p) for p in _check_periods(design_periods).tolist()
+    )
     paths = _plan_outputs(out_dir, SCENARIO_FILES, prefix, overwrite, job)
     say = _Reporter(progress, job)
     ph, pf = _open(hist, var), _open(future, var)
@@ -373,38 +490,76 @@ def run_scenario(hist, future, basins, months=(7, 8), historical=None, future_pe
         paths.update(_plan_outputs(out_dir, {"depths_csv": SCENARIO_DEPTH_FILE}, prefix, overwrite, job))
     basin_list = load_basins(basins)
     po = _open(obs, var) if obs is not None else None
-    lazy = [basin_signals(ph, pf, basin_list, months=months, historical=historical, future=future_period,
-                          obs=po, method=method)]
+    lazy = [
+        basin_signals(
+            ph, pf, basin_list, months=months, historical=historical, future=future_period, obs=po, method=method
+        )
+    ]
     if daily:
-        lazy.append(basin_depth_signals(ph, pf, basin_list, periods=design_periods, historical=historical,
-                                        future=future_period, n_boot=n_boot))
+        lazy.append(
+            basin_depth_signals(
+                ph, pf, basin_list, periods=design_periods, historical=historical, future=future_period, n_boot=n_boot
+            )
+        )
     with say.dask("basin series of both runs and their signals in one pass"):
         computed = compute(*lazy)
     signals, depths = computed[0], (computed[1] if daily else None)
     ensemble = signals.attrs.get("member_dim", "none") != "none"
     # with members: one row per basin (mean, range, agreement); a single run: its own change
     table = frame(signals) if ensemble else frame(signals, columns=["share_change_1", "normal_change_1"])
-    table.attrs.update({"months": list(months), "historical_period": signals.attrs["historical_period"],
-                        "future_period": signals.attrs["future_period"], "member_dim": signals.attrs["member_dim"],
-                        "method": method})
+    table.attrs.update(
+        {
+            "months": list(months),
+            "historical_period": signals.attrs["historical_period"],
+            "future_period": signals.attrs["future_period"],
+            "member_dim": signals.attrs["member_dim"],
+            "method": method,
+        }
+    )
     sources = _sources(ph) + _sources(pf) + (_sources(po) if po is not None else [])
     notes = [f"compared: {signals.attrs['comparison']}"]
-    parameters = {"season": signals.attrs["season"], "months": list(months), "method": method,
-                  "historical period": signals.attrs["historical_period"],
-                  "future period": signals.attrs["future_period"], "member dimension": signals.attrs["member_dim"]}
-    cautions = tuple(signals.attrs["cautions"]) + (tuple(c for c in depths.attrs["cautions"]
-                                                         if c not in SCENARIO_CAUTIONS) if daily else ())
+    parameters = {
+        "season": signals.attrs["season"],
+        "months": list(months),
+        "method": method,
+        "historical period": signals.attrs["historical_period"],
+        "future period": signals.attrs["future_period"],
+        "member dimension": signals.attrs["member_dim"],
+    }
+    cautions = tuple(signals.attrs["cautions"]) + (
+        tuple(c for c in depths.attrs["cautions"] if c not in SCENARIO_CAUTIONS) if daily else ()
+    )
     with _staged(paths, overwrite, job) as staged:
-        to_csv(table, staged["csv"], provenance={"inputs": sources, "cautions": SCENARIO_CAUTIONS, "notes": notes,
-                                                 "title": "climate-change signals per basin"})
+        to_csv(
+            table,
+            staged["csv"],
+            provenance={
+                "inputs": sources,
+                "cautions": SCENARIO_CAUTIONS,
+                "notes": notes,
+                "title": "climate-change signals per basin",
+            },
+        )
         if daily:
-            columns = [n for n in depths.data_vars if set(depths[n].dims) == {"basin", "return_period"}] \
-                if ensemble else ["historical_depth_mm", "future_depth_mm", "depth_change_1"]
-            to_csv(frame(depths, index=("basin", "return_period"), columns=columns), staged["depths_csv"],
-                   provenance={"inputs": sources, "cautions": cautions, "title": "change in design depths per basin"})
+            columns = (
+                [n for n in depths.data_vars if set(depths[n].dims) == {"basin", "return_period"}]
+                if ensemble
+                else ["historical_depth_mm", "future_depth_mm", "depth_change_1"]
+            )
+            to_csv(
+                frame(depths, index=("basin", "return_period"), columns=columns),
+                staged["depths_csv"],
+                provenance={"inputs": sources, "cautions": cautions, "title": "change in design depths per basin"},
+            )
         say("writing the report")
-        write_scenario_report(signals, staged["report"], inputs=sources, parameters=parameters, depths=depths,
-                              title=title or "Climate-change signals per basin")
+        write_scenario_report(
+            signals,
+            staged["report"],
+            inputs=sources,
+            parameters=parameters,
+            depths=depths,
+            title=title or "Climate-change signals per basin",
+        )
     return JobResult(paths=paths, table=table, cautions=cautions)
 
 
@@ -415,7 +570,7 @@ def _product_names(data) -> dict:
         items = [(str(k), v) for k, v in data.items()]
     else:
         items = []
-        for item in ([data] if isinstance(data, (str, os.PathLike)) else list(data)):
+        for item in [data] if isinstance(data, (str, os.PathLike)) else list(data):
             text = os.fspath(item)
             name, sep, path = text.partition("=")
             if sep and name and not os.path.exists(text):
@@ -424,18 +579,40 @@ def _product_names(data) -> dict:
                 items.append((Path(text).stem, text))
     names = [n for n, _ in items]
     if len(items) < 2:
-        raise ParameterError(f"{len(items)} product(s) given", source="compare", variable="data",
-                             expected="at least two precipitation products (the first is the reference)",
-                             fix="pass two or more files, optionally as NAME=PATH")
+        raise ParameterError(
+            f"{len(items)} product(s) given",
+            source="compare",
+            variable="data",
+            expected="at least two precipitation products (the first is the reference)",
+            fix="pass two or more files, optionally as NAME=PATH",
+        )
     if len(set(names)) != len(names):
-        raise ParameterError(f"product names repeat: {names}", source="compare", variable="data",
-                             expected="one name per product", fix="name them as NAME=PATH, e.g. gauge=a.nc radar=b.nc")
+        raise ParameterError(
+            f"product names repeat: {names}",
+            source="compare",
+            variable="data",
+            expected="one name per product",
+            fix="name them as NAME=PATH, e.g. gauge=a.nc radar=b.nc",
+        )
     return dict(items)
 
 
-def run_compare(data, basins=None, months=(7, 8), baseline=None, out_dir="out", overwrite: bool = False,
-                progress: Progress = None, *, period=None, grid=None, method="conservative", var=None,
-                kge="2009", prefix: str = "") -> JobResult:
+def run_compare(
+    data,
+    basins=None,
+    months=(7, 8),
+    baseline=None,
+    out_dir="out",
+    overwrite: bool = False,
+    progress: Progress = None,
+    *,
+    period=None,
+    grid=None,
+    method="conservative",
+    var=None,
+    kge="2009",
+    prefix: str = "",
+) -> JobResult:
     """Agreement maps of each product against the first (NetCDF) and a basin table (CSV).
 
     ``data``: ``{name: path}``, or paths / ``NAME=PATH`` strings; the first product is the
@@ -462,11 +639,21 @@ def run_compare(data, basins=None, months=(7, 8), baseline=None, out_dir="out", 
     if period is not None:
         period = _check_baseline(period, job, "period")
     if str(kge) not in ("2009", "2012"):
-        raise ParameterError(f"unknown KGE form {kge!r}", source=job, variable="kge",
-                             expected="'2009' (Gupta et al.) or '2012' (Kling et al.)", fix="use kge='2009'")
+        raise ParameterError(
+            f"unknown KGE form {kge!r}",
+            source=job,
+            variable="kge",
+            expected="'2009' (Gupta et al.) or '2012' (Kling et al.)",
+            fix="use kge='2009'",
+        )
     if grid is not None and grid not in named:
-        raise ParameterError(f"grid {grid!r} is not one of the products", source=job, variable="grid",
-                             expected=" or ".join(repr(n) for n in named), fix="name one of the products")
+        raise ParameterError(
+            f"grid {grid!r} is not one of the products",
+            source=job,
+            variable="grid",
+            expected=" or ".join(repr(n) for n in named),
+            fix="name one of the products",
+        )
     names = COMPARE_FILES if basins is not None else {"netcdf": COMPARE_FILES["netcdf"]}
     paths = _plan_outputs(out_dir, names, prefix, overwrite, job)
     say = _Reporter(progress, job)
@@ -481,21 +668,26 @@ def run_compare(data, basins=None, months=(7, 8), baseline=None, out_dir="out", 
     aligned = {n: a.rename(n) for n, a in aligned_products(monthly, grid=grid, period=period, method=method).items()}
     ref, others = next(iter(aligned)), list(aligned)[1:]
     say(f"agreement maps against {ref!r}")
-    metrics = xr.concat([agreement_maps(aligned, ref, o, kge=kge) for o in others],
-                        dim=pd.Index(others, name="product"), combine_attrs="drop_conflicts")
+    metrics = xr.concat(
+        [agreement_maps(aligned, ref, o, kge=kge) for o in others],
+        dim=pd.Index(others, name="product"),
+        combine_attrs="drop_conflicts",
+    )
     metrics["product"].attrs = {"long_name": f"product compared with the reference {ref!r}"}
     metrics.attrs.pop("other", None)  # one value per product: the product coordinate says it
-    metrics.attrs.update(reference=ref, products=list(named), period=aligned[ref].attrs.get("period", ""),
-                         grid=f"grid of {grid or 'the coarsest product'}; {method} regridding where needed")
+    metrics.attrs.update(
+        reference=ref,
+        products=list(named),
+        period=aligned[ref].attrs.get("period", ""),
+        grid=f"grid of {grid or 'the coarsest product'}; {method} regridding where needed",
+    )
     with _staged(paths, overwrite, job) as staged:
-        to_netcdf(metrics.compute(), staged["netcdf"],
-                  title=f"Agreement of precipitation products with {ref}")
+        to_netcdf(metrics.compute(), staged["netcdf"], title=f"Agreement of precipitation products with {ref}")
         table = None
         if basin_list:
             say("basin table across products")
             table = products_basin_table(monthly, basin_list, months=months, baseline=baseline)
-            to_csv(table, staged["csv"],
-                   provenance={"inputs": sources, "title": "basin table across products"})
+            to_csv(table, staged["csv"], provenance={"inputs": sources, "title": "basin table across products"})
     return JobResult(paths=paths, table=table, cautions=())
 
 
@@ -504,8 +696,15 @@ DEMO_MONTHS = (7, 8)
 DEMO_BASELINE = (1991, 2020)
 
 
-def run_demo_headless(out_dir="out", progress: Progress = None, *, directory=None, size: str = "full",
-                      force: bool = False, figures: bool = True) -> JobResult:
+def run_demo_headless(
+    out_dir="out",
+    progress: Progress = None,
+    *,
+    directory=None,
+    size: str = "full",
+    force: bool = False,
+    figures: bool = True,
+) -> JobResult:
     """Generate the invented demo (if needed) and run :func:`run_summary` on it.
 
     Writes ``demo_basin_summary.csv``, ``demo_seasonal_share_normals.nc`` and
@@ -516,7 +715,15 @@ def run_demo_headless(out_dir="out", progress: Progress = None, *, directory=Non
     from . import demo
 
     files = demo.generate(directory, force=force, quiet=progress is None, size=size)
-    return run_summary(files["daily"], files["basins"], months=DEMO_MONTHS, baseline=DEMO_BASELINE,
-                       out_dir=out_dir, overwrite=True, progress=progress, prefix="demo_",
-                       title=f"{demo.ISLAND} demo: basin precipitation summary (invented data)",
-                       figures=figures)
+    return run_summary(
+        files["daily"],
+        files["basins"],
+        months=DEMO_MONTHS,
+        baseline=DEMO_BASELINE,
+        out_dir=out_dir,
+        overwrite=True,
+        progress=progress,
+        prefix="demo_",
+        title=f"{demo.ISLAND} demo: basin precipitation summary (invented data)",
+        figures=figures,
+    )

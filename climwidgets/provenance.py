@@ -8,7 +8,6 @@ from typing import Any, Protocol, TypeVar
 from ._version import __version__
 
 
-
 class _HasAttrs(Protocol):
     @property
     def attrs(self) -> dict[Any, Any]: ...

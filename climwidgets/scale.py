@@ -76,8 +76,9 @@ class TaskProgress(_callback_base()):
     def _start_state(self, dsk, state):
         if not self._mine():
             return
-        self.total = max(1, len(state["ready"]) + len(state["waiting"]) + len(state.get("running", ()))
-                         + len(state["finished"]))
+        self.total = max(
+            1, len(state["ready"]) + len(state["waiting"]) + len(state.get("running", ())) + len(state["finished"])
+        )
         self.done = len(state["finished"])
         self._last = -1.0
         self._report()
@@ -140,8 +141,14 @@ def use_cluster(address=None, n_workers=None, threads_per_worker: int = 1, memor
         _client = Client(address, set_as_default=True)
     else:
         n = n_workers or os.cpu_count() or 1
-        cluster = LocalCluster(n_workers=n, threads_per_worker=threads_per_worker, processes=True,
-                               memory_limit=memory_limit, dashboard_address=":0", **cluster_kwargs)
+        cluster = LocalCluster(
+            n_workers=n,
+            threads_per_worker=threads_per_worker,
+            processes=True,
+            memory_limit=memory_limit,
+            dashboard_address=":0",
+            **cluster_kwargs,
+        )
         _client = Client(cluster, set_as_default=True)
     return _client
 

@@ -56,8 +56,12 @@ suppress_warnings = ["myst.xref_missing"]
 
 html_theme = "alabaster"
 html_static_path = ["_static"]
-html_theme_options = {"description": "gridded precipitation climatology", "fixed_sidebar": True,
-                      "font_family": "sans-serif", "head_font_family": "sans-serif"}
+html_theme_options = {
+    "description": "gridded precipitation climatology",
+    "fixed_sidebar": True,
+    "font_family": "sans-serif",
+    "head_font_family": "sans-serif",
+}
 html_show_sourcelink = False
 html_show_sphinx = False
 
@@ -113,8 +117,7 @@ def write_api_page() -> None:
         if not names:
             continue
         title = titles[layer]
-        lines += [title, "-" * len(title), "",
-                  ".. autosummary::", "   :toctree: generated", "   :nosignatures:", ""]
+        lines += [title, "-" * len(title), "", ".. autosummary::", "   :toctree: generated", "   :nosignatures:", ""]
         lines += [f"   {n}" for n in sorted(names, key=lambda n: (_defining_module(n), n))]
         lines.append("")
     _write_if_changed(DOCS / "api.rst", "\n".join(lines))
@@ -122,18 +125,32 @@ def write_api_page() -> None:
 
 def write_screenshots_page() -> None:
     shots = sorted((DOCS / "_static" / "screenshots").glob("*.png"))
-    lines = ["Widget screenshots", "==================", "",
-             "Each widget of the tour notebook as Voilà serves it, taken in Chromium at 1400 px on the",
-             "small demo by ``tests/widgets/test_browser_tour.py`` (which writes them to",
-             "``out/screenshots/``; copy them here to refresh this page).", ""]
+    lines = [
+        "Widget screenshots",
+        "==================",
+        "",
+        "Each widget of the tour notebook as Voilà serves it, taken in Chromium at 1400 px on the",
+        "small demo by ``tests/widgets/test_browser_tour.py`` (which writes them to",
+        "``out/screenshots/``; copy them here to refresh this page).",
+        "",
+    ]
     if not shots:
-        lines += ["No screenshots are in this checkout yet.  PNG files placed in",
-                  "``docs/_static/screenshots/`` appear on this page at the next build.", ""]
+        lines += [
+            "No screenshots are in this checkout yet.  PNG files placed in",
+            "``docs/_static/screenshots/`` appear on this page at the next build.",
+            "",
+        ]
     for shot in shots:
         title = shot.stem.lstrip("0123456789").strip("_").replace("_", " ").replace("-", " ").capitalize()
-        lines += [title, "-" * len(title), "",
-                  f".. image:: /_static/screenshots/{shot.name}",
-                  f"   :alt: {title}", "   :width: 100%", ""]
+        lines += [
+            title,
+            "-" * len(title),
+            "",
+            f".. image:: /_static/screenshots/{shot.name}",
+            f"   :alt: {title}",
+            "   :width: 100%",
+            "",
+        ]
     _write_if_changed(DOCS / "guide" / "screenshots.rst", "\n".join(lines))
 
 

@@ -14,8 +14,9 @@ from climwidgets.atomic import STALE_AFTER_S, OutputExistsError, atomic_write, a
 def _writer(path, barrier, results, n):
     barrier.wait()
     try:
-        atomic_write_file(path, lambda fh: fh.write(f"writer {n}\n".encode() * 1000), overwrite=False,
-                          what="test output")
+        atomic_write_file(
+            path, lambda fh: fh.write(f"writer {n}\n".encode() * 1000), overwrite=False, what="test output"
+        )
         results.put(("ok", n))
     except OutputExistsError:
         results.put(("exists", n))
@@ -182,8 +183,9 @@ def test_stale_staging_folder_of_a_killed_run_is_removed(tmp_path):
 
     from climwidgets.atomic import _host, staged_outputs
 
-    dead_pid = int(subprocess.run([sys.executable, "-c", "import os; print(os.getpid())"],
-                                  capture_output=True, text=True).stdout)
+    dead_pid = int(
+        subprocess.run([sys.executable, "-c", "import os; print(os.getpid())"], capture_output=True, text=True).stdout
+    )
     left = tmp_path / f".cw-stage.{_host()}-{dead_pid}.abc.part"
     left.mkdir()
     (left / "basin_summary.csv").write_text("half a set")

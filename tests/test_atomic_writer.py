@@ -103,11 +103,14 @@ def test_atomic_write_file_hands_an_open_file(tmp_path):
     assert out.read_text() == "text"
 
 
-@pytest.mark.parametrize("path, overwrite, words", [
-    ("", False, "not a file path"),
-    (None, False, "not a file path"),
-    ("x.txt", "yes", "not True or False"),
-])
+@pytest.mark.parametrize(
+    "path, overwrite, words",
+    [
+        ("", False, "not a file path"),
+        (None, False, "not a file path"),
+        ("x.txt", "yes", "not True or False"),
+    ],
+)
 def test_check_target_rejects_bad_arguments(tmp_path, path, overwrite, words):
     with pytest.raises(ParameterError, match=words):
         check_target(path if path in ("", None) else tmp_path / path, overwrite, "test output")

@@ -23,8 +23,13 @@ def fresh_cache():
 
 
 def _field(value=1.0, name="pr"):
-    return xr.DataArray(np.full((4, 3), value), dims=("lat", "lon"), name=name,
-                        coords={"lat": np.arange(4.0), "lon": np.arange(3.0)}, attrs={"units": "mm"})
+    return xr.DataArray(
+        np.full((4, 3), value),
+        dims=("lat", "lon"),
+        name=name,
+        coords={"lat": np.arange(4.0), "lon": np.arange(3.0)},
+        attrs={"units": "mm"},
+    )
 
 
 def test_token_is_deterministic_and_cheap_on_lazy_input():
@@ -77,8 +82,9 @@ def test_memory_cache_is_least_recently_used():
     assert cache.stats() == {"hits": 1, "misses": 4, "disk_hits": 0}
 
 
-@pytest.mark.parametrize("make", [lambda: _field(5.0, name="depth"),
-                                  lambda: xr.Dataset({"a": _field(1.0), "b": _field(2.0)})])
+@pytest.mark.parametrize(
+    "make", [lambda: _field(5.0, name="depth"), lambda: xr.Dataset({"a": _field(1.0), "b": _field(2.0)})]
+)
 def test_disk_cache_round_trips_exactly(tmp_path, make):
     cache.configure(directory=tmp_path / "store")
     first = cache.cached("thing", make, _field())

@@ -67,8 +67,19 @@ def test_info_describes_what_the_loader_sees(capsys, demo_files):
 @pytest.fixture(scope="module")
 def summary_run(demo_files, tmp_path_factory):
     out = tmp_path_factory.mktemp("cli_summary")
-    argv = ["summary", "--data", demo_files["daily"], "--basins", demo_files["basins"], "--months", "7,8",
-            "--baseline", "1991-2020", "--out", out]
+    argv = [
+        "summary",
+        "--data",
+        demo_files["daily"],
+        "--basins",
+        demo_files["basins"],
+        "--months",
+        "7,8",
+        "--baseline",
+        "1991-2020",
+        "--out",
+        out,
+    ]
     import contextlib
     import io
 
@@ -102,21 +113,32 @@ def test_summary_refuses_existing_outputs(capsys, summary_run):
     assert csv.stat().st_mtime_ns == stamp
 
 
-@pytest.mark.parametrize("change, words", [
-    ({"--months": "7,13"}, ["--months", "13 is not a month number"]),
-    ({"--months": "July"}, ["--months", "not a list of month numbers"]),
-    ({"--baseline": "2020-1991"}, ["--baseline", "ends before it starts"]),
-    ({"--baseline": "1950-1960"}, ["baseline", "outside the data"]),
-    ({"--data": "MISSING"}, ["does not exist"]),
-    ({"--basins": "NOT_GEOJSON"}, ["not valid JSON", "GeoJSON"]),
-    ({"--basins": "MISSING_BASINS"}, ["basin file not found"]),
-])
+@pytest.mark.parametrize(
+    "change, words",
+    [
+        ({"--months": "7,13"}, ["--months", "13 is not a month number"]),
+        ({"--months": "July"}, ["--months", "not a list of month numbers"]),
+        ({"--baseline": "2020-1991"}, ["--baseline", "ends before it starts"]),
+        ({"--baseline": "1950-1960"}, ["baseline", "outside the data"]),
+        ({"--data": "MISSING"}, ["does not exist"]),
+        ({"--basins": "NOT_GEOJSON"}, ["not valid JSON", "GeoJSON"]),
+        ({"--basins": "MISSING_BASINS"}, ["basin file not found"]),
+    ],
+)
 def test_summary_bad_input_exits_2_with_one_line(capsys, demo_files, tmp_path, change, words):
     (tmp_path / "basins.geojson").write_text("lon,lat\n1,2\n")
-    replace = {"MISSING": tmp_path / "nothing.nc", "NOT_GEOJSON": tmp_path / "basins.geojson",
-               "MISSING_BASINS": tmp_path / "nothing.geojson"}
-    opts = {"--data": demo_files["daily"], "--basins": demo_files["basins"], "--months": "7,8",
-            "--baseline": "1991-2020", "--out": tmp_path / "out"}
+    replace = {
+        "MISSING": tmp_path / "nothing.nc",
+        "NOT_GEOJSON": tmp_path / "basins.geojson",
+        "MISSING_BASINS": tmp_path / "nothing.geojson",
+    }
+    opts = {
+        "--data": demo_files["daily"],
+        "--basins": demo_files["basins"],
+        "--months": "7,8",
+        "--baseline": "1991-2020",
+        "--out": tmp_path / "out",
+    }
     opts.update({k: replace.get(v, v) for k, v in change.items()})
     code, out, err = run(capsys, "summary", *[x for kv in opts.items() for x in kv], "--quiet")
     assert code == 2 and out == ""
@@ -141,15 +163,29 @@ def test_internal_error_exits_1(capsys, monkeypatch, demo_files, tmp_path):
         raise RuntimeError("boom")
 
     monkeypatch.setattr(jobs, "run_summary", broken)
-    code, _, err = run(capsys, "summary", "--data", demo_files["daily"], "--basins", demo_files["basins"],
-                       "--out", tmp_path)
+    code, _, err = run(
+        capsys, "summary", "--data", demo_files["daily"], "--basins", demo_files["basins"], "--out", tmp_path
+    )
     assert code == 1 and "internal error (RuntimeError: boom)" in err
 
 
 # ------------------------------------------------------------------ extremes
 def test_extremes_prints_paths_and_cautions_even_when_quiet(capsys, demo_files, tmp_path):
-    code, out, err = run(capsys, "extremes", "--data", demo_files["daily"], "--basins", demo_files["basins"],
-                         "--periods", "2,10", "--n-boot", "60", "--out", tmp_path, "--quiet")
+    code, out, err = run(
+        capsys,
+        "extremes",
+        "--data",
+        demo_files["daily"],
+        "--basins",
+        demo_files["basins"],
+        "--periods",
+        "2,10",
+        "--n-boot",
+        "60",
+        "--out",
+        tmp_path,
+        "--quiet",
+    )
     assert code == 0, err
     paths = [Path(p) for p in out.splitlines()]
     assert [p.name for p in paths] == ["return_levels.nc", "basin_return_levels.csv"]
@@ -176,9 +212,18 @@ def test_extremes_bad_input(capsys, demo_files, tmp_path):
 
 # ------------------------------------------------------------------ compare
 def test_compare_writes_metrics_and_basin_table(capsys, demo_files, tmp_path):
-    code, out, err = run(capsys, "compare", "--data", f"fine={demo_files['monthly']}",
-                         f"coarse={demo_files['coarse_monthly']}", "--basins", demo_files["basins"],
-                         "--out", tmp_path, "--quiet")
+    code, out, err = run(
+        capsys,
+        "compare",
+        "--data",
+        f"fine={demo_files['monthly']}",
+        f"coarse={demo_files['coarse_monthly']}",
+        "--basins",
+        demo_files["basins"],
+        "--out",
+        tmp_path,
+        "--quiet",
+    )
     assert code == 0, err
     paths = [Path(p) for p in out.splitlines()]
     assert [p.name for p in paths] == ["comparison_metrics.nc", "products_basin_table.csv"]
@@ -203,8 +248,18 @@ def test_demo_headless_writes_summary_and_report(capsys, demo_files, summary_run
     # the demo_* files are the demo's own and are replaced; other files are left alone
     (tmp_path / "notes.txt").write_text("mine")
     (tmp_path / "demo_basin_summary.csv").write_text("left from an earlier run")
-    code, out, err = run(capsys, "demo", "--headless", "--dir", demo_files["daily"].parent, "--size", "test",
-                         "--out", tmp_path, "--quiet")
+    code, out, err = run(
+        capsys,
+        "demo",
+        "--headless",
+        "--dir",
+        demo_files["daily"].parent,
+        "--size",
+        "test",
+        "--out",
+        tmp_path,
+        "--quiet",
+    )
     assert code == 0, err
     names = [Path(p).name for p in out.splitlines()]
     assert names == ["demo_basin_summary.csv", "demo_seasonal_share_normals.nc", "demo_basin_report.html"]
@@ -234,8 +289,19 @@ def test_scenario_writes_basin_signals_and_prints_cautions(capsys, ensemble_file
     from climwidgets.analyses.scenario import basin_signals
     from climwidgets.compute.scenario import SCENARIO_CAUTIONS
 
-    code, out, err = run(capsys, "scenario", "--hist", demo_files["ensemble_historical"], "--future",
-                         demo_files["ensemble_future"], "--basins", demo_files["basins"], "--out", tmp_path, "--quiet")
+    code, out, err = run(
+        capsys,
+        "scenario",
+        "--hist",
+        demo_files["ensemble_historical"],
+        "--future",
+        demo_files["ensemble_future"],
+        "--basins",
+        demo_files["basins"],
+        "--out",
+        tmp_path,
+        "--quiet",
+    )
     assert code == 0, err
     paths = [Path(p) for p in out.splitlines()]
     assert [p.name for p in paths] == ["scenario_basin_signals.csv", "scenario_report.html"]
@@ -263,24 +329,51 @@ def test_scenario_writes_basin_signals_and_prints_cautions(capsys, ensemble_file
 
 def test_scenario_bad_input_exits_2(capsys, ensemble_files, tmp_path):
     demo_files = ensemble_files
-    code, _, err = run(capsys, "scenario", "--hist", demo_files["ensemble_historical"], "--future",
-                       demo_files["ensemble_future"], "--basins", demo_files["basins"], "--months", "7,13",
-                       "--out", tmp_path)
+    code, _, err = run(
+        capsys,
+        "scenario",
+        "--hist",
+        demo_files["ensemble_historical"],
+        "--future",
+        demo_files["ensemble_future"],
+        "--basins",
+        demo_files["basins"],
+        "--months",
+        "7,13",
+        "--out",
+        tmp_path,
+    )
     assert code == 2 and "13" in _error_line(err)
-    code, _, err = run(capsys, "scenario", "--hist", demo_files["ensemble_historical"], "--future",
-                       demo_files["ensemble_future"], "--basins", demo_files["basins"], "--historical", "1981",
-                       "--out", tmp_path)
+    code, _, err = run(
+        capsys,
+        "scenario",
+        "--hist",
+        demo_files["ensemble_historical"],
+        "--future",
+        demo_files["ensemble_future"],
+        "--basins",
+        demo_files["basins"],
+        "--historical",
+        "1981",
+        "--out",
+        tmp_path,
+    )
     assert code == 2 and "--historical" in _error_line(err)
 
 
 # ------------------------------------------------------------------ typos and refused folders
-@pytest.mark.parametrize("argv, words", [
-    (["demo", "--size", "tset"], ["--size", "invalid choice 'tset'", "did you mean 'test'", "full, test"]),
-    (["sumary"], ["'sumary'", "did you mean 'summary'"]),
-    (["compare", "--data", "a.nc", "b.nc", "--method", "bilinaer"], ["did you mean 'bilinear'"]),
-    (["extremes", "--data", "x.nc", "--duration", "dayly"], ["--duration", "'dayly' is not a whole number",
-                                                               "duration in days"]),
-])
+@pytest.mark.parametrize(
+    "argv, words",
+    [
+        (["demo", "--size", "tset"], ["--size", "invalid choice 'tset'", "did you mean 'test'", "full, test"]),
+        (["sumary"], ["'sumary'", "did you mean 'summary'"]),
+        (["compare", "--data", "a.nc", "b.nc", "--method", "bilinaer"], ["did you mean 'bilinear'"]),
+        (
+            ["extremes", "--data", "x.nc", "--duration", "dayly"],
+            ["--duration", "'dayly' is not a whole number", "duration in days"],
+        ),
+    ],
+)
 def test_typos_in_option_values_suggest_the_nearest_word(capsys, argv, words):
     code, out, err = run(capsys, *argv)
     assert code == 2 and out == ""
@@ -299,8 +392,9 @@ def test_nearest_word():
 
 @pytest.mark.parametrize("out", ["/proc", "/proc/out"])
 def test_an_output_folder_that_takes_no_files_exits_2_before_reading(capsys, demo_files, tmp_path, out):
-    code, stdout, err = run(capsys, "summary", "--data", tmp_path / "missing.nc", "--basins", demo_files["basins"],
-                            "--out", out, "--quiet")
+    code, stdout, err = run(
+        capsys, "summary", "--data", tmp_path / "missing.nc", "--basins", demo_files["basins"], "--out", out, "--quiet"
+    )
     assert code == 2 and stdout == ""
     line = _error_line(err)
     assert "/proc" in line and "does not accept new files" in line and "Fix: " in line and "[Errno" not in line
@@ -315,12 +409,15 @@ def test_os_errors_are_one_sentence_with_a_fix(capsys, monkeypatch, tmp_path):
         raise PermissionError(errno.EACCES, "Permission denied", str(tmp_path / "pr.nc"))
 
     monkeypatch.setattr(jobs, "run_summary", refused)
-    code, _, err = run(capsys, "summary", "--data", tmp_path / "pr.nc", "--basins", tmp_path / "b.geojson",
-                       "--out", tmp_path)
+    code, _, err = run(
+        capsys, "summary", "--data", tmp_path / "pr.nc", "--basins", tmp_path / "b.geojson", "--out", tmp_path
+    )
     line = _error_line(err)
     assert code == 2 and "[Errno" not in line
-    assert line == f"climwidgets summary: {tmp_path / 'pr.nc'}: Permission denied. Fix: check the permissions " \
-                   "of the file or folder, or use another one."
+    assert (
+        line == f"climwidgets summary: {tmp_path / 'pr.nc'}: Permission denied. Fix: check the permissions "
+        "of the file or folder, or use another one."
+    )
 
 
 # ------------------------------------------------------------------ units
@@ -330,17 +427,30 @@ def test_summary_and_extremes_in_us_customary_units(capsys, demo_files, summary_
     1959, NIST SP 811; from memory), their metadata names the units, the report shows them."""
     from climwidgets.report.tables import read_metadata
 
-    code, out, err = run(capsys, "summary", "--data", demo_files["daily"], "--basins", demo_files["basins"],
-                         "--months", "7,8", "--baseline", "1991-2020", "--units", "us", "--out", tmp_path / "s",
-                         "--quiet")
+    code, out, err = run(
+        capsys,
+        "summary",
+        "--data",
+        demo_files["daily"],
+        "--basins",
+        demo_files["basins"],
+        "--months",
+        "7,8",
+        "--baseline",
+        "1991-2020",
+        "--units",
+        "us",
+        "--out",
+        tmp_path / "s",
+        "--quiet",
+    )
     assert code == 0, err
     csv_path, _, report = [Path(p) for p in out.splitlines()]
     us = read_csv(csv_path, index_col=0)
     si = read_csv(Path(summary_run[1].splitlines()[0]), index_col=0).loc[us.index]
     np.testing.assert_allclose(us["annual_mean_in"], si["annual_mean_mm"] / 25.4, rtol=1e-12)
     np.testing.assert_allclose(us["area_mi2"], si["area_km2"] / 2.589988110336, rtol=1e-12)
-    np.testing.assert_allclose(us["volume_per_year_acre_ft"], si["volume_per_year_m3"] / 1233.48183754752,
-                               rtol=1e-12)
+    np.testing.assert_allclose(us["volume_per_year_acre_ft"], si["volume_per_year_m3"] / 1233.48183754752, rtol=1e-12)
     assert "volume_per_year_m3" not in us.columns and "annual_mean_mm" not in us.columns
     meta = read_metadata(csv_path)
     assert meta["units"]["annual_mean_in"] == "in" and meta["units"]["volume_per_year_acre_ft"] == "acre-ft"
@@ -348,19 +458,45 @@ def test_summary_and_extremes_in_us_customary_units(capsys, demo_files, summary_
     html = report.read_text()
     assert "acre-ft" in html and "(in)" in html and "US customary" in html
 
-    code, out, err = run(capsys, "extremes", "--data", demo_files["daily"], "--basins", demo_files["basins"],
-                         "--periods", "2,10", "--n-boot", "60", "--units", "US", "--out", tmp_path / "e", "--quiet")
+    code, out, err = run(
+        capsys,
+        "extremes",
+        "--data",
+        demo_files["daily"],
+        "--basins",
+        demo_files["basins"],
+        "--periods",
+        "2,10",
+        "--n-boot",
+        "60",
+        "--units",
+        "US",
+        "--out",
+        tmp_path / "e",
+        "--quiet",
+    )
     assert code == 0, err
     csv_path = Path(out.splitlines()[1])
     table = read_csv(csv_path, index_col=0)
     pr = cw.open_precip(demo_files["daily"])
     b = cw.Basin.from_geojson(demo_files["basins"])[0]
     areal = cw.return_levels(cw.annual_maxima(cw.basin_mean(pr, b).compute()), periods=(2, 10), n_boot=60)
-    np.testing.assert_allclose(table.loc[b.name, "areal_estimate_in"].values, areal["estimate"].values / 25.4,
-                               rtol=1e-9)
+    np.testing.assert_allclose(
+        table.loc[b.name, "areal_estimate_in"].values, areal["estimate"].values / 25.4, rtol=1e-9
+    )
     units = read_metadata(csv_path)["units"]
     assert units["areal_estimate_in"] == "in" and units["cell_mean_estimate_in"] == "in"
 
-    code, _, err = run(capsys, "summary", "--data", demo_files["daily"], "--basins", demo_files["basins"],
-                       "--units", "imperial", "--out", tmp_path / "x")
+    code, _, err = run(
+        capsys,
+        "summary",
+        "--data",
+        demo_files["daily"],
+        "--basins",
+        demo_files["basins"],
+        "--units",
+        "imperial",
+        "--out",
+        tmp_path / "x",
+    )
     assert code == 2 and "si" in err and "us" in err

@@ -23,7 +23,8 @@ def test_version_matches_installed_metadata():
 
 
 def test_version_through_python_m():
-    done = subprocess.run([sys.executable, "-m", "climwidgets.cli", "--version"], capture_output=True, text=True,
-                          timeout=120, check=False)
+    done = subprocess.run(
+        [sys.executable, "-m", "climwidgets.cli", "--version"], capture_output=True, text=True, timeout=120, check=False
+    )
     assert done.returncode == 0
     assert done.stdout.strip() == f"climwidgets {climwidgets.__version__}"

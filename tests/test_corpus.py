@@ -186,8 +186,11 @@ def test_job_case(job_corpus, name):
     code, out, err = _run_cli(argv, CASE_TIMEOUT_S)
     assert code == case.exit_code, err
     if code == 0:
-        assert [Path(p).name for p in out.splitlines()] == ["basin_summary.csv", "seasonal_share_normals.nc",
-                                                           "basin_report.html"]
+        assert [Path(p).name for p in out.splitlines()] == [
+            "basin_summary.csv",
+            "seasonal_share_normals.nc",
+            "basin_report.html",
+        ]
     else:
         assert out == ""
         last = err.strip().splitlines()[-1]

@@ -221,8 +221,9 @@ def test_coarse_product_has_documented_bias(ds, paths):
     ndays = xr.DataArray(NOLEAP_DAYS[c.time.dt.month.values - 1], dims="time", coords={"time": c.time})
     coarse_mm = c.pr.astype("float64") * 86400.0 * ndays
     truth = ds["monthly"]["pr"].astype("float64")
-    factor = xr.DataArray([demo.COARSE_BIAS[m] for m in truth.time.dt.month.values], dims="time",
-                          coords={"time": truth.time})
+    factor = xr.DataArray(
+        [demo.COARSE_BIAS[m] for m in truth.time.dt.month.values], dims="time", coords={"time": truth.time}
+    )
     t_dom = _area_mean(truth).values
     c_dom = _area_mean(coarse_mm).values
     expected = float((_area_mean(truth * factor).values).sum() / t_dom.sum())

@@ -47,8 +47,9 @@ def test_files_are_a_noleap_ensemble_on_a_coarser_grid(runs):
     spacing = float(np.diff(hist["lat"].values)[0])
     assert spacing == pytest.approx(2 * demo.SIZES["test"].coarse_res)
     assert spacing > float(np.diff(obs["lat"].values)[0])
-    np.testing.assert_array_equal(runs["factors"].values,
-                                  np.array([demo_ensemble.CHANGE_FACTORS[m] for m in demo_ensemble.MEMBERS]))
+    np.testing.assert_array_equal(
+        runs["factors"].values, np.array([demo_ensemble.CHANGE_FACTORS[m] for m in demo_ensemble.MEMBERS])
+    )
 
 
 def test_delta_change_recovers_the_known_change_factors(runs):
@@ -56,11 +57,15 @@ def test_delta_change_recovers_the_known_change_factors(runs):
     scen, factors = delta_change(obs, hist, fut, return_factors=True)
     known = runs["factors"]
     assert factors.sizes["lat"] == obs.sizes["lat"] and factors.sizes["lon"] == obs.sizes["lon"]
-    np.testing.assert_allclose(factors.transpose("member", "month", ...).values,
-                               np.broadcast_to(known.values[:, :, None, None], factors.shape), rtol=FLOAT32)
+    np.testing.assert_allclose(
+        factors.transpose("member", "month", ...).values,
+        np.broadcast_to(known.values[:, :, None, None], factors.shape),
+        rtol=FLOAT32,
+    )
     jan = np.flatnonzero((obs["time"].dt.month == 1).values)
-    np.testing.assert_allclose(scen.isel(time=jan).sel(member="m3").values, obs.isel(time=jan).values * 1.18,
-                               rtol=FLOAT32)
+    np.testing.assert_allclose(
+        scen.isel(time=jan).sel(member="m3").values, obs.isel(time=jan).values * 1.18, rtol=FLOAT32
+    )
     assert scen.attrs["cautions"]
 
 

@@ -15,10 +15,17 @@ SUBCLASSES = [getattr(errors, name) for name in errors.__all__ if name != "Input
 
 
 def test_message_names_where_what_expected_and_fix():
-    err = errors.UnitsError("has units 'furlongs'", source="data/pr.nc", variable="pr",
-                            expected="a depth or a rate of precipitation", fix="set the units attribute.")
-    assert str(err) == ("data/pr.nc, variable 'pr': has units 'furlongs'. "
-                        "Expected: a depth or a rate of precipitation. Fix: set the units attribute.")
+    err = errors.UnitsError(
+        "has units 'furlongs'",
+        source="data/pr.nc",
+        variable="pr",
+        expected="a depth or a rate of precipitation",
+        fix="set the units attribute.",
+    )
+    assert str(err) == (
+        "data/pr.nc, variable 'pr': has units 'furlongs'. "
+        "Expected: a depth or a rate of precipitation. Fix: set the units attribute."
+    )
     assert (err.problem, err.source, err.variable) == ("has units 'furlongs'", "data/pr.nc", "pr")
 
 

@@ -30,9 +30,13 @@ LON = np.array([-140.75, -140.25, -139.75])
 
 def _field(n=24, value=2.0):
     time = pd.date_range("2001-01-01", periods=n, freq="MS")
-    return xr.DataArray(np.full((n, 2, 3), value), dims=("time", "lat", "lon"),
-                        coords={"time": time, "lat": LAT, "lon": LON},
-                        attrs={"units": "mm", "step": "month"}, name="pr")
+    return xr.DataArray(
+        np.full((n, 2, 3), value),
+        dims=("time", "lat", "lon"),
+        coords={"time": time, "lat": LAT, "lon": LON},
+        attrs={"units": "mm", "step": "month"},
+        name="pr",
+    )
 
 
 def _leftovers(folder: Path):
@@ -60,8 +64,11 @@ def _failing_write_bytes(exc):
     return write_bytes
 
 
-@pytest.mark.parametrize("exc", [OSError(errno.ENOSPC, "No space left on device"),
-                                 PermissionError(errno.EACCES, "Permission denied")], ids=["disk_full", "permission"])
+@pytest.mark.parametrize(
+    "exc",
+    [OSError(errno.ENOSPC, "No space left on device"), PermissionError(errno.EACCES, "Permission denied")],
+    ids=["disk_full", "permission"],
+)
 @pytest.mark.parametrize("what", ["csv", "report"])
 def test_failed_text_export_keeps_previous_file(tmp_path, monkeypatch, exc, what):
     target = tmp_path / f"out.{'csv' if what == 'csv' else 'html'}"
@@ -80,8 +87,11 @@ def test_failed_text_export_keeps_previous_file(tmp_path, monkeypatch, exc, what
     assert _leftovers(tmp_path) == []  # the partial temporary file is gone
 
 
-@pytest.mark.parametrize("exc", [OSError(errno.ENOSPC, "No space left on device"),
-                                 PermissionError(errno.EACCES, "Permission denied")], ids=["disk_full", "permission"])
+@pytest.mark.parametrize(
+    "exc",
+    [OSError(errno.ENOSPC, "No space left on device"), PermissionError(errno.EACCES, "Permission denied")],
+    ids=["disk_full", "permission"],
+)
 def test_failed_netcdf_export_keeps_previous_file(tmp_path, monkeypatch, exc):
     from climwidgets.report import netcdf
 
@@ -109,8 +119,13 @@ def test_failed_netcdf_export_keeps_previous_file(tmp_path, monkeypatch, exc):
 def _one_cell_file(path, bounds):
     time = pd.date_range("1991-01-01", "1993-12-31", freq="D")
     values = np.where(time.month.isin([7, 8]), 2.0, 1.0)[:, None, None]
-    ds = xr.DataArray(values, dims=("time", "lat", "lon"), coords={"time": time, "lat": [10.5], "lon": [-160.5]},
-                      name="pr", attrs={"units": "mm"}).to_dataset()
+    ds = xr.DataArray(
+        values,
+        dims=("time", "lat", "lon"),
+        coords={"time": time, "lat": [10.5], "lon": [-160.5]},
+        name="pr",
+        attrs={"units": "mm"},
+    ).to_dataset()
     if bounds:
         ds["lat_bnds"] = (("lat", "nv"), [[10.0, 11.0]])
         ds["lon_bnds"] = (("lon", "nv"), [[-161.0, -160.0]])
@@ -128,8 +143,20 @@ def test_one_cell_grid_summary_writes_every_output_or_refuses_before_writing(tmp
     data = _one_cell_file(tmp_path / "one_cell.nc", bounds)
     before = data.read_bytes()
     square = [[[-161, 10], [-160, 10], [-160, 11], [-161, 11], [-161, 10]]]
-    (tmp_path / "b.geojson").write_text(json.dumps({"type": "FeatureCollection", "features": [
-        {"type": "Feature", "properties": {"name": "square"}, "geometry": {"type": "Polygon", "coordinates": square}}]}))
+    (tmp_path / "b.geojson").write_text(
+        json.dumps(
+            {
+                "type": "FeatureCollection",
+                "features": [
+                    {
+                        "type": "Feature",
+                        "properties": {"name": "square"},
+                        "geometry": {"type": "Polygon", "coordinates": square},
+                    }
+                ],
+            }
+        )
+    )
     out = tmp_path / "out"
     if not bounds:  # the size of the cell is unknown: refused at open, nothing written
         with pytest.raises(cw.InputError, match="one_cell.nc.*single latitude"):
@@ -145,8 +172,16 @@ def test_one_cell_grid_summary_writes_every_output_or_refuses_before_writing(tmp
     assert data.read_bytes() == before
 
 
-@pytest.mark.parametrize("case", ["monthly_stamps_daily_bounds", "fill_not_declared", "zarr_missing_chunk",
-                                  "declared_2e6_grid", "glob_fill_in_later_file"])
+@pytest.mark.parametrize(
+    "case",
+    [
+        "monthly_stamps_daily_bounds",
+        "fill_not_declared",
+        "zarr_missing_chunk",
+        "declared_2e6_grid",
+        "glob_fill_in_later_file",
+    ],
+)
 def test_awkward_inputs_through_the_command_line_exit_0_or_2_naming_the_file(tmp_path, capsys, case):
     """The summary command on corpus inputs: a full answer (exit 0) or one line naming the file (exit 2)."""
     import json
@@ -161,10 +196,35 @@ def test_awkward_inputs_through_the_command_line_exit_0_or_2_naming_the_file(tmp
     source = found.build(folder)
     before = {p: p.read_bytes() for p in folder.rglob("*") if p.is_file()}
     square = [[[-142, -32], [-139, -32], [-139, -29], [-142, -29], [-142, -32]]]
-    (tmp_path / "b.geojson").write_text(json.dumps({"type": "FeatureCollection", "features": [
-        {"type": "Feature", "properties": {"name": "square"}, "geometry": {"type": "Polygon", "coordinates": square}}]}))
-    code = cli.main(["summary", "--data", source, "--basins", str(tmp_path / "b.geojson"), "--months", "1",
-                     "--baseline", "2001-2001", "--out", str(tmp_path / "out")])
+    (tmp_path / "b.geojson").write_text(
+        json.dumps(
+            {
+                "type": "FeatureCollection",
+                "features": [
+                    {
+                        "type": "Feature",
+                        "properties": {"name": "square"},
+                        "geometry": {"type": "Polygon", "coordinates": square},
+                    }
+                ],
+            }
+        )
+    )
+    code = cli.main(
+        [
+            "summary",
+            "--data",
+            source,
+            "--basins",
+            str(tmp_path / "b.geojson"),
+            "--months",
+            "1",
+            "--baseline",
+            "2001-2001",
+            "--out",
+            str(tmp_path / "out"),
+        ]
+    )
     err = capsys.readouterr().err
     if isinstance(found.expect, Opens):
         assert code in (0, 2), err  # a one-week record may be too short for a summary: said, not crashed
@@ -408,8 +468,13 @@ def test_ctrl_c_during_netcdf_export_ends_cleanly_with_previous_file(tmp_path, p
     script = tmp_path / "export.py"
     script.write_text(_INTERRUPTED_EXPORT)
     env = dict(os.environ, PYTHONPATH=str(Path(cw.__file__).resolve().parent.parent))
-    proc = subprocess.Popen([sys.executable, str(script), str(target), phase], stdout=subprocess.PIPE,
-                            stderr=subprocess.PIPE, text=True, env=env)
+    proc = subprocess.Popen(
+        [sys.executable, str(script), str(target), phase],
+        stdout=subprocess.PIPE,
+        stderr=subprocess.PIPE,
+        text=True,
+        env=env,
+    )
     try:
         assert proc.stdout.readline().strip() == "exporting"
         time.sleep(1.5)  # inside the computation (20 s of blocks) or the slowed write
@@ -480,9 +545,14 @@ def test_export_to_a_really_full_disk_says_so_and_keeps_the_previous_file(small_
     rng = np.random.default_rng(0)
     target = small_tmpfs / ("table.csv" if kind == "csv" else "maps.nc")
     small = pd.DataFrame({"x": [1.5]}) if kind == "csv" else _field(value=1.0)
-    big = pd.DataFrame({"x": rng.random(200_000)}) if kind == "csv" else _field(n=24).copy(
-        data=rng.random((24, 2, 3))).reindex(time=pd.date_range("2001-01-01", periods=24000, freq="h"),
-                                             fill_value=0.5).assign_attrs(units="mm", step="hour")
+    big = (
+        pd.DataFrame({"x": rng.random(200_000)})
+        if kind == "csv"
+        else _field(n=24)
+        .copy(data=rng.random((24, 2, 3)))
+        .reindex(time=pd.date_range("2001-01-01", periods=24000, freq="h"), fill_value=0.5)
+        .assign_attrs(units="mm", step="hour")
+    )
     if kind == "netcdf":
         big = big.copy(data=rng.random(big.shape))  # incompressible: 1.1 MB even with zlib
     write = cw.to_csv if kind == "csv" else cw.to_netcdf
@@ -524,13 +594,28 @@ def _small_job_inputs(folder):
     import json
 
     time_ = pd.date_range("1991-01-01", "1993-12-31", freq="D")
-    xr.DataArray(np.ones((time_.size, 2, 2)), dims=("time", "lat", "lon"), name="pr",
-                 coords={"time": time_, "lat": [10.25, 10.75], "lon": [-160.75, -160.25]},
-                 attrs={"units": "mm", "standard_name": "lwe_thickness_of_precipitation_amount"}
-                 ).to_dataset().to_netcdf(folder / "small.nc")
+    xr.DataArray(
+        np.ones((time_.size, 2, 2)),
+        dims=("time", "lat", "lon"),
+        name="pr",
+        coords={"time": time_, "lat": [10.25, 10.75], "lon": [-160.75, -160.25]},
+        attrs={"units": "mm", "standard_name": "lwe_thickness_of_precipitation_amount"},
+    ).to_dataset().to_netcdf(folder / "small.nc")
     ring = [[-161, 10], [-160, 10], [-160, 11], [-161, 11], [-161, 10]]
-    (folder / "b.geojson").write_text(json.dumps({"type": "FeatureCollection", "features": [
-        {"type": "Feature", "properties": {"name": "square"}, "geometry": {"type": "Polygon", "coordinates": [ring]}}]}))
+    (folder / "b.geojson").write_text(
+        json.dumps(
+            {
+                "type": "FeatureCollection",
+                "features": [
+                    {
+                        "type": "Feature",
+                        "properties": {"name": "square"},
+                        "geometry": {"type": "Polygon", "coordinates": [ring]},
+                    }
+                ],
+            }
+        )
+    )
 
 
 def _start_slow_job(tmp_path, out, overwrite):
@@ -540,8 +625,13 @@ def _start_slow_job(tmp_path, out, overwrite):
     script = tmp_path / "job.py"
     script.write_text(_SLOW_JOB)
     env = dict(os.environ, PYTHONPATH=str(Path(cw.__file__).resolve().parent.parent))
-    proc = subprocess.Popen([sys.executable, str(script), str(tmp_path), str(out), "1" if overwrite else "0"],
-                            stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True, env=env)
+    proc = subprocess.Popen(
+        [sys.executable, str(script), str(tmp_path), str(out), "1" if overwrite else "0"],
+        stdout=subprocess.PIPE,
+        stderr=subprocess.PIPE,
+        text=True,
+        env=env,
+    )
     line = proc.stdout.readline().strip()
     if line != "writing the report":  # pragma: no cover - reported with the child's errors
         proc.kill()
@@ -576,8 +666,9 @@ def test_a_job_interrupted_or_killed_mid_way_leaves_the_previous_set(tmp_path, h
         left = [n for n in _set_names(out) if n.startswith(".cw-stage.")]
         assert len(left) == 1  # a killed process cleans nothing: its staging folder stays ...
         assert {p.name: p.read_bytes() for p in out.iterdir() if p.is_file()} == before  # ... beside the old set
-        jobs.run_summary(tmp_path / "small.nc", tmp_path / "b.geojson", (7, 8), (1991, 1993), out, overwrite=True,
-                         figures=False)
+        jobs.run_summary(
+            tmp_path / "small.nc", tmp_path / "b.geojson", (7, 8), (1991, 1993), out, overwrite=True, figures=False
+        )
         assert not any(n.startswith(".") for n in _set_names(out))  # ... until the next run removes it
 
 
@@ -594,8 +685,13 @@ def test_a_job_killed_before_its_first_outputs_needs_no_overwrite_next_time(tmp_
     proc.kill()
     proc.communicate(timeout=60)
     assert all(n.startswith(".cw-stage.") for n in _set_names(out))  # no output in place: no partial set
-    result = jobs.run_summary(tmp_path / "small.nc", tmp_path / "b.geojson", (7, 8), (1991, 1993), out,
-                              figures=False)  # without overwrite
-    assert _set_names(out) == ["basin_report.html", "basin_summary.csv", "basin_summary.csv-metadata.json",
-                               "seasonal_share_normals.nc"]
+    result = jobs.run_summary(
+        tmp_path / "small.nc", tmp_path / "b.geojson", (7, 8), (1991, 1993), out, figures=False
+    )  # without overwrite
+    assert _set_names(out) == [
+        "basin_report.html",
+        "basin_summary.csv",
+        "basin_summary.csv-metadata.json",
+        "seasonal_share_normals.nc",
+    ]
     assert all(p.is_file() for p in result.paths.values())

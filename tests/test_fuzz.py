@@ -25,9 +25,13 @@ import climwidgets as cw
 from .corpus.make_corpus import _dataset, _write, field_values
 
 # CW_FUZZ_EXAMPLES=2000 CW_FUZZ_RANDOM=1 runs a longer, randomized search by hand
-FUZZ = settings(max_examples=int(os.environ.get("CW_FUZZ_EXAMPLES", 100)), deadline=None,
-                derandomize=not os.environ.get("CW_FUZZ_RANDOM"), database=None,
-                suppress_health_check=[HealthCheck.too_slow])
+FUZZ = settings(
+    max_examples=int(os.environ.get("CW_FUZZ_EXAMPLES", 100)),
+    deadline=None,
+    derandomize=not os.environ.get("CW_FUZZ_RANDOM"),
+    database=None,
+    suppress_health_check=[HealthCheck.too_slow],
+)
 _SEEDS = {}
 
 
@@ -69,14 +73,17 @@ byte_edits = st.lists(st.tuples(st.floats(0.0, 1.0), st.binary(min_size=1, max_s
 
 
 @pytest.mark.slow
-@given(fmt=st.sampled_from(["NETCDF4", "NETCDF3_CLASSIC"]), cut=st.one_of(st.none(), st.floats(0.0, 1.0)),
-       edits=st.one_of(st.just([]), byte_edits))
+@given(
+    fmt=st.sampled_from(["NETCDF4", "NETCDF3_CLASSIC"]),
+    cut=st.one_of(st.none(), st.floats(0.0, 1.0)),
+    edits=st.one_of(st.just([]), byte_edits),
+)
 @FUZZ
 def test_mutated_bytes_give_input_error_or_open(tmp_path_factory, fmt, cut, edits):
     data = bytearray(seed_bytes(fmt))
     for where, chunk in edits:
         at = int(where * (len(data) - 1))
-        data[at:at + len(chunk)] = chunk
+        data[at : at + len(chunk)] = chunk
     if cut is not None:
         data = data[: int(cut * len(data))]
     path = tmp_path_factory.mktemp("fuzz") / "mutated.nc"
@@ -85,14 +92,56 @@ def test_mutated_bytes_give_input_error_or_open(tmp_path_factory, fmt, cut, edit
 
 
 attr_values = st.one_of(
-    st.text(max_size=12), st.sampled_from(["mm", "kg m-2 s-1", "m", "mm/month", "days since 1-1-1", "hours since 2001",
-                                           "noleap", "360_day", "bogus", "", "degrees_north", "degrees_east"]),
-    st.floats(allow_nan=True, allow_infinity=True), st.integers(-2**31, 2**31 - 1))
-targets = st.sampled_from([("pr", "units"), ("pr", "scale_factor"), ("pr", "add_offset"), ("pr", "missing_value"),
-                           ("pr", "standard_name"), ("time", "units"), ("time", "calendar"), ("time", "bounds"),
-                           ("lat", "units"), ("lon", "units"), ("lat", "standard_name"), ("lon", "bounds")])
-coordinate_edits = st.sampled_from(["none", "lat_nan", "lat_huge", "lon_repeat", "time_repeat", "time_reverse",
-                                    "time_nan", "data_negative", "data_inf", "data_all_nan"])
+    st.text(max_size=12),
+    st.sampled_from(
+        [
+            "mm",
+            "kg m-2 s-1",
+            "m",
+            "mm/month",
+            "days since 1-1-1",
+            "hours since 2001",
+            "noleap",
+            "360_day",
+            "bogus",
+            "",
+            "degrees_north",
+            "degrees_east",
+        ]
+    ),
+    st.floats(allow_nan=True, allow_infinity=True),
+    st.integers(-(2**31), 2**31 - 1),
+)
+targets = st.sampled_from(
+    [
+        ("pr", "units"),
+        ("pr", "scale_factor"),
+        ("pr", "add_offset"),
+        ("pr", "missing_value"),
+        ("pr", "standard_name"),
+        ("time", "units"),
+        ("time", "calendar"),
+        ("time", "bounds"),
+        ("lat", "units"),
+        ("lon", "units"),
+        ("lat", "standard_name"),
+        ("lon", "bounds"),
+    ]
+)
+coordinate_edits = st.sampled_from(
+    [
+        "none",
+        "lat_nan",
+        "lat_huge",
+        "lon_repeat",
+        "time_repeat",
+        "time_reverse",
+        "time_nan",
+        "data_negative",
+        "data_inf",
+        "data_all_nan",
+    ]
+)
 
 
 @pytest.mark.slow

@@ -39,8 +39,9 @@ def basins(demo_files):
 def summary(demo_files, tmp_path_factory):
     out = tmp_path_factory.mktemp("summary")
     messages = []
-    result = jobs.run_summary(demo_files["daily"], demo_files["basins"], MONTHS, BASELINE, out,
-                              progress=messages.append)
+    result = jobs.run_summary(
+        demo_files["daily"], demo_files["basins"], MONTHS, BASELINE, out, progress=messages.append
+    )
     return result, messages
 
 
@@ -65,8 +66,9 @@ def test_summary_csv_agrees_with_basin_summary(summary, pr, basins):
     table = _csv(result.paths["csv"])
     direct = cw.basin_summary(pr, basins, months=MONTHS, baseline=BASELINE)
     assert list(table.columns) == list(direct.columns)
-    assert all(c.endswith(("_km2", "_mm", "_1", "_m3", "_acre_ft", "_years", "_year", "_normal"))
-               for c in table.columns)  # units in the column names
+    assert all(
+        c.endswith(("_km2", "_mm", "_1", "_m3", "_acre_ft", "_years", "_year", "_normal")) for c in table.columns
+    )  # units in the column names
     pd.testing.assert_frame_equal(table.astype(float), direct.astype(float), rtol=1e-9, check_names=False)
     meta = read_metadata(result.paths["csv"])  # the settings travel in the metadata file beside it
     assert meta["tool"].startswith("climwidgets") and any("sha256" in i for i in meta["inputs_in_words"])
@@ -107,15 +109,31 @@ def test_summary_on_synthetic_file_with_hand_totals(tmp_path):
     time = pd.date_range("1991-01-01", "1993-12-31", freq="D")
     lat, lon = np.array([10.25, 10.75]), np.array([-160.75, -160.25])
     values = np.where(time.month.isin([7, 8]), 2.0, 1.0)[:, None, None] * np.ones((1, 2, 2))
-    da = xr.DataArray(values, dims=("time", "lat", "lon"), coords={"time": time, "lat": lat, "lon": lon},
-                      name="pr", attrs={"units": "mm", "standard_name": "lwe_thickness_of_precipitation_amount"})
+    da = xr.DataArray(
+        values,
+        dims=("time", "lat", "lon"),
+        coords={"time": time, "lat": lat, "lon": lon},
+        name="pr",
+        attrs={"units": "mm", "standard_name": "lwe_thickness_of_precipitation_amount"},
+    )
     da.to_dataset().to_netcdf(tmp_path / "synthetic.nc")
-    gj = {"type": "FeatureCollection", "features": [{"type": "Feature", "properties": {"name": "square"},
-          "geometry": {"type": "Polygon", "coordinates": [[[-161, 10], [-160, 10], [-160, 11], [-161, 11],
-                                                           [-161, 10]]]}}]}
+    gj = {
+        "type": "FeatureCollection",
+        "features": [
+            {
+                "type": "Feature",
+                "properties": {"name": "square"},
+                "geometry": {
+                    "type": "Polygon",
+                    "coordinates": [[[-161, 10], [-160, 10], [-160, 11], [-161, 11], [-161, 10]]],
+                },
+            }
+        ],
+    }
     (tmp_path / "b.geojson").write_text(json.dumps(gj))
-    result = jobs.run_summary(tmp_path / "synthetic.nc", tmp_path / "b.geojson", (7, 8), (1991, 1993),
-                              tmp_path / "out", figures=False)
+    result = jobs.run_summary(
+        tmp_path / "synthetic.nc", tmp_path / "b.geojson", (7, 8), (1991, 1993), tmp_path / "out", figures=False
+    )
     row = _csv(result.paths["csv"]).loc["square"]
     mean = (427 + 428 + 427) / 3
     assert row["annual_mean_mm"] == pytest.approx(mean, rel=1e-12)
@@ -136,12 +154,15 @@ def test_existing_outputs_are_refused_before_any_data_is_read(summary, tmp_path)
     assert {p: p.stat().st_mtime_ns for p in out.iterdir()} == before
 
 
-@pytest.mark.parametrize("kwargs, words", [
-    ({"months": (7, 13)}, ["months", "13"]),
-    ({"months": (8, 7)}, ["consecutive"]),
-    ({"baseline": (2020, 1991)}, ["baseline", "ends before it starts"]),
-    ({"year_start": 0}, ["year_start"]),
-])
+@pytest.mark.parametrize(
+    "kwargs, words",
+    [
+        ({"months": (7, 13)}, ["months", "13"]),
+        ({"months": (8, 7)}, ["consecutive"]),
+        ({"baseline": (2020, 1991)}, ["baseline", "ends before it starts"]),
+        ({"year_start": 0}, ["year_start"]),
+    ],
+)
 def test_bad_parameters_raise_input_errors(demo_files, tmp_path, kwargs, words):
     args = dict(months=MONTHS, baseline=BASELINE, out_dir=tmp_path / "o")
     args.update(kwargs)
@@ -176,8 +197,15 @@ def test_load_basins_from_geojson_shapefile_and_errors(demo_files, tmp_path):
 @pytest.fixture(scope="module")
 def extremes(demo_files, tmp_path_factory):
     out = tmp_path_factory.mktemp("extremes")
-    return jobs.run_extremes(demo_files["daily"], demo_files["basins"], duration_days=1, periods=(2, 10, 100),
-                             ci=0.9, n_boot=100, out_dir=out)
+    return jobs.run_extremes(
+        demo_files["daily"],
+        demo_files["basins"],
+        duration_days=1,
+        periods=(2, 10, 100),
+        ci=0.9,
+        n_boot=100,
+        out_dir=out,
+    )
 
 
 def test_extremes_files_agree_with_return_levels(extremes, pr, basins):
@@ -234,15 +262,16 @@ def comparison(demo_files, tmp_path_factory):
 
 
 def test_compare_files_agree_with_compare_and_basin_table(comparison, demo_files, basins):
-    products = {"fine": cw.open_precip(demo_files["monthly"], chunks=None),
-                "coarse": cw.open_precip(demo_files["coarse_monthly"], chunks=None)}
+    products = {
+        "fine": cw.open_precip(demo_files["monthly"], chunks=None),
+        "coarse": cw.open_precip(demo_files["coarse_monthly"], chunks=None),
+    }
     aligned = cw.align(products)
     direct = cw.compare(aligned["fine"], aligned["coarse"]).compute()
     with xr.open_dataset(comparison.paths["netcdf"]) as ds:
         assert list(ds["product"].values) == ["coarse"] and ds.attrs["reference"] == "fine"
         for v in ("bias", "ratio", "rmse", "corr", "kge", "nse"):
-            np.testing.assert_allclose(ds[v].sel(product="coarse").values, direct[v].values, rtol=1e-9,
-                                       equal_nan=True)
+            np.testing.assert_allclose(ds[v].sel(product="coarse").values, direct[v].values, rtol=1e-9, equal_nan=True)
     table = read_csv(comparison.paths["csv"], index_col=[0, 1])
     expected = cw.products_basin_table(products, basins, months=MONTHS)
     np.testing.assert_allclose(table.values, expected.values, rtol=1e-9, equal_nan=True)
@@ -254,20 +283,36 @@ def test_compare_product_names(demo_files, tmp_path):
         jobs.run_compare([demo_files["monthly"]], out_dir=tmp_path)
     with pytest.raises(ParameterError, match="names repeat"):
         jobs.run_compare([demo_files["monthly"], demo_files["monthly"]], out_dir=tmp_path)
-    assert list(jobs._product_names([f"a={demo_files['monthly']}", demo_files["coarse_monthly"]])) == \
-        ["a", "pr_coarse_monthly_noleap"]
+    assert list(jobs._product_names([f"a={demo_files['monthly']}", demo_files["coarse_monthly"]])) == [
+        "a",
+        "pr_coarse_monthly_noleap",
+    ]
 
 
 # ------------------------------------------------------------------ all outputs or none
 def _small_inputs(folder):
     time = pd.date_range("1991-01-01", "1993-12-31", freq="D")
-    da = xr.DataArray(np.ones((time.size, 2, 2)), dims=("time", "lat", "lon"), name="pr",
-                      coords={"time": time, "lat": [10.25, 10.75], "lon": [-160.75, -160.25]},
-                      attrs={"units": "mm", "standard_name": "lwe_thickness_of_precipitation_amount"})
+    da = xr.DataArray(
+        np.ones((time.size, 2, 2)),
+        dims=("time", "lat", "lon"),
+        name="pr",
+        coords={"time": time, "lat": [10.25, 10.75], "lon": [-160.75, -160.25]},
+        attrs={"units": "mm", "standard_name": "lwe_thickness_of_precipitation_amount"},
+    )
     da.to_dataset().to_netcdf(folder / "small.nc")
-    gj = {"type": "FeatureCollection", "features": [{"type": "Feature", "properties": {"name": "square"},
-          "geometry": {"type": "Polygon", "coordinates": [[[-161, 10], [-160, 10], [-160, 11], [-161, 11],
-                                                           [-161, 10]]]}}]}
+    gj = {
+        "type": "FeatureCollection",
+        "features": [
+            {
+                "type": "Feature",
+                "properties": {"name": "square"},
+                "geometry": {
+                    "type": "Polygon",
+                    "coordinates": [[[-161, 10], [-160, 10], [-160, 11], [-161, 11], [-161, 10]]],
+                },
+            }
+        ],
+    }
     (folder / "b.geojson").write_text(json.dumps(gj))
     return folder / "small.nc", folder / "b.geojson"
 
@@ -281,8 +326,9 @@ def _run_small(data, basins, out, **kw):
 
 
 @pytest.mark.parametrize("failing", ["report", "netcdf"])
-def test_a_job_failing_mid_way_leaves_no_partial_set_and_the_next_run_needs_no_overwrite(tmp_path, monkeypatch,
-                                                                                          failing):
+def test_a_job_failing_mid_way_leaves_no_partial_set_and_the_next_run_needs_no_overwrite(
+    tmp_path, monkeypatch, failing
+):
     from climwidgets.report import html, netcdf
 
     data, basins = _small_inputs(tmp_path)
@@ -297,8 +343,12 @@ def test_a_job_failing_mid_way_leaves_no_partial_set_and_the_next_run_needs_no_o
             _run_small(data, basins, out)
     assert _files(out) == {}  # neither the CSV nor its metadata nor the NetCDF: no partial set
     result = _run_small(data, basins, out)  # and so no --overwrite needed now
-    assert sorted(_files(out)) == ["basin_report.html", "basin_summary.csv", "basin_summary.csv-metadata.json",
-                                   "seasonal_share_normals.nc"]
+    assert sorted(_files(out)) == [
+        "basin_report.html",
+        "basin_summary.csv",
+        "basin_summary.csv-metadata.json",
+        "seasonal_share_normals.nc",
+    ]
     assert all(p.is_file() for p in result.paths.values())
 
 
@@ -330,8 +380,9 @@ def test_leftovers_of_a_killed_run_are_cleaned_and_other_files_kept(tmp_path):
     data, basins = _small_inputs(tmp_path)
     out = tmp_path / "out"
     out.mkdir()
-    dead = int(subprocess.run([sys.executable, "-c", "import os; print(os.getpid())"],
-                              capture_output=True, text=True).stdout)
+    dead = int(
+        subprocess.run([sys.executable, "-c", "import os; print(os.getpid())"], capture_output=True, text=True).stdout
+    )
     stage = out / f".cw-stage.{_host()}-{dead}.k9.part"  # a run killed while writing its set
     stage.mkdir()
     (stage / "basin_summary.csv").write_text("half")
@@ -364,9 +415,13 @@ def _daily_runs(folder):
     for first, factors, name in ((1981, [1.0, 1.0], "hist.nc"), (2041, [1.1, 0.9], "future.nc")):
         time = pd.date_range(f"{first}-01-01", f"{first + 11}-12-31", freq="D")
         base = np.random.default_rng(5).gamma(0.6, 8.0, size=(time.size, 2, 2))  # the same weather
-        da = xr.DataArray(base[None] * np.array(factors)[:, None, None, None], dims=("member", "time", "lat", "lon"),
-                          coords={"member": ["a", "b"], "time": time, "lat": lat, "lon": lon}, name="pr",
-                          attrs={"units": "mm", "standard_name": "lwe_thickness_of_precipitation_amount"})
+        da = xr.DataArray(
+            base[None] * np.array(factors)[:, None, None, None],
+            dims=("member", "time", "lat", "lon"),
+            coords={"member": ["a", "b"], "time": time, "lat": lat, "lon": lon},
+            name="pr",
+            attrs={"units": "mm", "standard_name": "lwe_thickness_of_precipitation_amount"},
+        )
         da.to_dataset().to_netcdf(folder / name)
         out.append(folder / name)
     _, basins = _small_inputs(folder)
@@ -390,19 +445,26 @@ def test_scenario_job_writes_signals_depths_and_report_together(tmp_path, monkey
             jobs.run_scenario(hist, fut, basins, out_dir=out)
     assert _files(out) == {}  # staged: no CSV without its report
     result = jobs.run_scenario(hist, fut, basins, out_dir=out)
-    assert sorted(_files(out)) == ["scenario_basin_signals.csv", "scenario_basin_signals.csv-metadata.json",
-                                   "scenario_design_depths.csv", "scenario_design_depths.csv-metadata.json",
-                                   "scenario_report.html"]
+    assert sorted(_files(out)) == [
+        "scenario_basin_signals.csv",
+        "scenario_basin_signals.csv-metadata.json",
+        "scenario_design_depths.csv",
+        "scenario_design_depths.csv-metadata.json",
+        "scenario_report.html",
+    ]
     depths = read_csv(result.paths["depths_csv"], index_col=[0, 1])
     # a future that is the past times 1.1 and 0.9: every areal return level changes by that
     # factor (L-moment GEV fits are scale-equivariant, Hosking 1990)
     np.testing.assert_allclose(depths["depth_change_1_lower"].values, -0.1, rtol=1e-6)
     np.testing.assert_allclose(depths["depth_change_1_upper"].values, 0.1, rtol=1e-6)
-    ref = basin_depth_signals(cw.open_precip(hist), cw.open_precip(fut), cw.load_basins(basins),
-                              periods=(10, 100)).compute()
-    np.testing.assert_allclose(depths["historical_depth_mm_mean"].values,
-                               ref["historical_depth_mm_mean"].transpose("basin", "return_period").values.ravel(),
-                               rtol=1e-9)
+    ref = basin_depth_signals(
+        cw.open_precip(hist), cw.open_precip(fut), cw.load_basins(basins), periods=(10, 100)
+    ).compute()
+    np.testing.assert_allclose(
+        depths["historical_depth_mm_mean"].values,
+        ref["historical_depth_mm_mean"].transpose("basin", "return_period").values.ravel(),
+        rtol=1e-9,
+    )
     page = result.paths["report"].read_text(encoding="utf-8")
     assert "Change in design depths" in page and "hist.nc" in page and "future.nc" in page
     assert page.index(SCENARIO_CAUTIONS[0][:30]) < page.index("<table")

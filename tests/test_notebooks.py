@@ -37,8 +37,9 @@ def _run(path: Path, demo_dir: Path, workdir: Path) -> dict | None:
     old = {k: os.environ.get(k) for k in env}
     os.environ.update(env)  # the kernel inherits the environment
     try:
-        client = nbclient.NotebookClient(nb, timeout=300, kernel_name="python3",
-                                         resources={"metadata": {"path": str(workdir)}})
+        client = nbclient.NotebookClient(
+            nb, timeout=300, kernel_name="python3", resources={"metadata": {"path": str(workdir)}}
+        )
         client.execute()
     finally:
         for k, v in old.items():
@@ -121,8 +122,12 @@ def _check_planner(key, pr, basins):
         assert key["widget_delta_m3"][b.name] == pytest.approx(key["delta_m3"][b.name], rel=1e-12)
 
 
-CHECKS = {"tour": _check_tour, "analyst_summer_share": _check_analyst, "planner_basin_report": _check_planner,
-          "data_team_comparison": _check_data_team}
+CHECKS = {
+    "tour": _check_tour,
+    "analyst_summer_share": _check_analyst,
+    "planner_basin_report": _check_planner,
+    "data_team_comparison": _check_data_team,
+}
 NEEDS_PATHS = {"data_team_comparison"}
 
 

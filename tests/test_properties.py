@@ -18,8 +18,14 @@ from hypothesis import strategies as st
 
 import climwidgets as cw
 
-SETTINGS = settings(max_examples=15, deadline=None, derandomize=True, print_blob=True, database=None,
-                    suppress_health_check=[HealthCheck.too_slow, HealthCheck.data_too_large])
+SETTINGS = settings(
+    max_examples=15,
+    deadline=None,
+    derandomize=True,
+    print_blob=True,
+    database=None,
+    suppress_health_check=[HealthCheck.too_slow, HealthCheck.data_too_large],
+)
 LAT = np.array([-30.75, -30.25])
 LON = np.array([-140.75, -140.25, -139.75])
 
@@ -27,14 +33,24 @@ LON = np.array([-140.75, -140.25, -139.75])
 def _monthly(values, start="2001-01-01"):
     n = values.shape[0]
     time = pd.date_range(start, periods=n, freq="MS")
-    return xr.DataArray(values, dims=("time", "lat", "lon"), coords={"time": time, "lat": LAT, "lon": LON},
-                        attrs={"units": "mm", "step": "month"}, name="pr")
+    return xr.DataArray(
+        values,
+        dims=("time", "lat", "lon"),
+        coords={"time": time, "lat": LAT, "lon": LON},
+        attrs={"units": "mm", "step": "month"},
+        name="pr",
+    )
 
 
 def _daily(values, start="2001-01-01"):
     time = pd.date_range(start, periods=values.shape[0], freq="D")
-    return xr.DataArray(values, dims=("time", "lat", "lon"), coords={"time": time, "lat": LAT, "lon": LON},
-                        attrs={"units": "mm", "step": "day"}, name="pr")
+    return xr.DataArray(
+        values,
+        dims=("time", "lat", "lon"),
+        coords={"time": time, "lat": LAT, "lon": LON},
+        attrs={"units": "mm", "step": "day"},
+        name="pr",
+    )
 
 
 depth = st.one_of(st.just(0.0), st.floats(0.0, 500.0, allow_nan=False))
@@ -65,8 +81,12 @@ def seasons(draw):
     return tuple((first - 1 + i) % 12 + 1 for i in range(length))
 
 
-@given(values=monthly_fields(), months=seasons(), year_start=st.integers(1, 12), how=st.sampled_from(
-    ["ratio_of_sums", "mean_of_ratios"]))
+@given(
+    values=monthly_fields(),
+    months=seasons(),
+    year_start=st.integers(1, 12),
+    how=st.sampled_from(["ratio_of_sums", "mean_of_ratios"]),
+)
 @SETTINGS
 def test_season_share_is_between_0_and_1(values, months, year_start, how):
     pr = _monthly(values)
@@ -123,8 +143,12 @@ lat_c = st.floats(-33.0, -28.0, allow_nan=False)
 vertex = st.tuples(coord, lat_c)
 
 
-@given(vertices=st.lists(vertex, min_size=1, max_size=7) | st.lists(st.sampled_from(
-    [(-140.5, -30.5), (-140.0, -30.0), (-139.5, -29.5), (-140.5, -29.5)]), min_size=1, max_size=6))
+@given(
+    vertices=st.lists(vertex, min_size=1, max_size=7)
+    | st.lists(
+        st.sampled_from([(-140.5, -30.5), (-140.0, -30.0), (-139.5, -29.5), (-140.5, -29.5)]), min_size=1, max_size=6
+    )
+)
 @SETTINGS
 def test_coverage_weights_are_between_0_and_1_for_any_polygon(vertices):
     grid = _monthly(np.zeros((1, 2, 3))).isel(time=0, drop=True)
@@ -144,9 +168,13 @@ def test_coverage_weights_are_between_0_and_1_for_any_polygon(vertices):
 def test_conservative_regrid_keeps_the_area_weighted_total(values):
     lat = np.array([-31.75, -31.25, -30.75, -30.25])
     lon = np.array([-141.25, -140.75, -140.25, -139.75, -139.25, -138.75])
-    src = xr.DataArray(values, dims=("time", "lat", "lon"),
-                       coords={"time": pd.date_range("2001-01-01", periods=2, freq="MS"), "lat": lat, "lon": lon},
-                       attrs={"units": "mm", "step": "month"}, name="pr")
+    src = xr.DataArray(
+        values,
+        dims=("time", "lat", "lon"),
+        coords={"time": pd.date_range("2001-01-01", periods=2, freq="MS"), "lat": lat, "lon": lon},
+        attrs={"units": "mm", "step": "month"},
+        name="pr",
+    )
     target = {"lat": np.array([-31.5, -30.5]), "lon": np.array([-141.0, -140.0, -139.0])}
     out = cw.regrid(src, target, method="conservative")
     total_in = (src * cw.cell_area(src)).sum(("lat", "lon"))
@@ -167,8 +195,12 @@ def test_dask_and_numpy_inputs_give_the_same_numbers(values, months, year_start)
         (cw.annual_totals(pr, year_start), cw.annual_totals(lazy, year_start)),
     ]
     try:
-        pairs.append((cw.seasonal_fraction(pr, months, year_start=year_start, per_year=True),
-                      cw.seasonal_fraction(lazy, months, year_start=year_start, per_year=True)))
+        pairs.append(
+            (
+                cw.seasonal_fraction(pr, months, year_start=year_start, per_year=True),
+                cw.seasonal_fraction(lazy, months, year_start=year_start, per_year=True),
+            )
+        )
     except cw.InputError:
         pass
     basin = cw.Basin.from_vertices([(-141.0, -31.0), (-140.0, -31.0), (-140.0, -30.2), (-141.0, -30.2)], name="b")
@@ -180,11 +212,16 @@ def test_dask_and_numpy_inputs_give_the_same_numbers(values, months, year_start)
 
 @pytest.mark.parametrize("calendar", ["noleap", "360_day"])
 def test_annual_totals_are_sums_of_months_on_cftime_calendars(calendar):
-    time = xr.date_range("2001-01-01", periods=730 if calendar == "noleap" else 720, freq="D",
-                         calendar=calendar, use_cftime=True)
+    time = xr.date_range(
+        "2001-01-01", periods=730 if calendar == "noleap" else 720, freq="D", calendar=calendar, use_cftime=True
+    )
     rng = np.random.default_rng(3)
-    pr = xr.DataArray(rng.gamma(0.5, 4.0, (time.size, 2, 3)), dims=("time", "lat", "lon"),
-                      coords={"time": time, "lat": LAT, "lon": LON}, attrs={"units": "mm", "step": "day"})
+    pr = xr.DataArray(
+        rng.gamma(0.5, 4.0, (time.size, 2, 3)),
+        dims=("time", "lat", "lon"),
+        coords={"time": time, "lat": LAT, "lon": LON},
+        attrs={"units": "mm", "step": "day"},
+    )
     annual = cw.annual_totals(pr)
     monthly = cw.monthly_totals(pr)
     np.testing.assert_allclose(annual.values, monthly.groupby("time.year").sum("time").values, rtol=1e-12)

@@ -40,7 +40,11 @@ def test_with_history_without_a_source_starts_the_chain():
 
 def test_public_results_carry_a_history_line():
     time = xr.date_range("2001-01-01", periods=365 * 2, freq="D")
-    pr = xr.DataArray(np.ones((time.size, 1, 1)), dims=("time", "lat", "lon"),
-                      coords={"time": time, "lat": [0.0], "lon": [0.0]}, attrs={"units": "mm", "step": "day"})
+    pr = xr.DataArray(
+        np.ones((time.size, 1, 1)),
+        dims=("time", "lat", "lon"),
+        coords={"time": time, "lat": [0.0], "lon": [0.0]},
+        attrs={"units": "mm", "step": "day"},
+    )
     last = cw.annual_totals(pr).attrs["history"].splitlines()[-1]
     assert LINE.match(last) and "annual_totals(" in last

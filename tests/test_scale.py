@@ -56,7 +56,11 @@ def test_cluster_progress_and_cancellation(tmp_path):
         x = dsa.ones((400, 400), chunks=(50, 50)).sum()
         assert compute_on_cluster(x, client, on_progress=seen.append) == 160000
         with pytest.raises(CancelledComputation):
-            slow = dsa.ones((2000, 2000), chunks=(100, 100)).map_blocks(lambda b: (__import__("time").sleep(0.2), b)[1]).sum()
+            slow = (
+                dsa.ones((2000, 2000), chunks=(100, 100))
+                .map_blocks(lambda b: (__import__("time").sleep(0.2), b)[1])
+                .sum()
+            )
             compute_on_cluster(slow, client, is_current=lambda: False)
     finally:
         close_cluster()

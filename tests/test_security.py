@@ -36,7 +36,16 @@ def _name(func) -> str:
 
 
 def test_no_eval_exec_or_dynamic_code_anywhere():
-    banned = {"eval", "exec", "compile", "__import__", "builtins.eval", "builtins.exec", "pickle.loads", "marshal.loads"}
+    banned = {
+        "eval",
+        "exec",
+        "compile",
+        "__import__",
+        "builtins.eval",
+        "builtins.exec",
+        "pickle.loads",
+        "marshal.loads",
+    }
     found = [f"{p}:{n.lineno} {_name(n.func)}" for p, n in _calls() if _name(n.func) in banned]
     assert found == []
 
@@ -60,8 +69,13 @@ def test_cli_paths_with_shell_characters_are_only_paths(tmp_path):
     """A path full of shell syntax is reported as a missing file; nothing is run."""
     marker = tmp_path / "ran"
     evil = f"{tmp_path}/x.nc; touch {marker}; echo $(touch {marker}) `touch {marker}` #"
-    proc = subprocess.run([sys.executable, "-m", "climwidgets.cli", "info", evil], capture_output=True, text=True,
-                          timeout=120, cwd=tmp_path)
+    proc = subprocess.run(
+        [sys.executable, "-m", "climwidgets.cli", "info", evil],
+        capture_output=True,
+        text=True,
+        timeout=120,
+        cwd=tmp_path,
+    )
     assert proc.returncode != 0
     assert "does not exist" in proc.stderr or "matches no files" in proc.stderr, proc.stderr
     assert "Traceback" not in proc.stderr
@@ -78,8 +92,16 @@ def test_html_report_escapes_every_user_text(tmp_path):
     table.attrs = {"note": PAYLOAD, PAYLOAD: PAYLOAD}
     src = tmp_path / "in<put>.nc"
     src.write_bytes(b"not used")
-    out = cw.write_report(table, tmp_path / "r.html", title=PAYLOAD, inputs=[src], parameters={PAYLOAD: PAYLOAD},
-                          cautions=[PAYLOAD], notes=[PAYLOAD], figures=False)
+    out = cw.write_report(
+        table,
+        tmp_path / "r.html",
+        title=PAYLOAD,
+        inputs=[src],
+        parameters={PAYLOAD: PAYLOAD},
+        cautions=[PAYLOAD],
+        notes=[PAYLOAD],
+        figures=False,
+    )
     text = out.read_text()
     _no_raw_payload(text)
     assert "&lt;script&gt;" in text and "in&lt;put&gt;.nc" in text

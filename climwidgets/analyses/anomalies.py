@@ -22,22 +22,37 @@ from ..errors import ParameterError
 from .basins import basin_series
 from .meta import describe
 
-__all__ = ["ANOMALY_KINDS", "UNIT_WORDS", "anomaly_field", "anomaly_series", "basin_anomalies",
-           "anomaly_ranking", "step_labels", "decimal_time"]
+__all__ = [
+    "ANOMALY_KINDS",
+    "UNIT_WORDS",
+    "anomaly_field",
+    "anomaly_series",
+    "basin_anomalies",
+    "anomaly_ranking",
+    "step_labels",
+    "decimal_time",
+]
 
 #: The kinds of anomaly: plain words and the units they are shown in.
-ANOMALY_KINDS = {"percent": ("percent of normal", "%"), "absolute": ("difference from normal", "mm"),
-                 "standardized": ("standardized anomaly", "standard deviations"),
-                 "spi": ("SPI", "standard deviations")}
+ANOMALY_KINDS = {
+    "percent": ("percent of normal", "%"),
+    "absolute": ("difference from normal", "mm"),
+    "standardized": ("standardized anomaly", "standard deviations"),
+    "spi": ("SPI", "standard deviations"),
+}
 #: How the stored anomaly units read on screen.
 UNIT_WORDS = {"1": "standard deviations", "%": "%", "mm": "mm"}
 
 
 def _check_kind(kind):
     if kind not in ANOMALY_KINDS:
-        raise ParameterError(f"kind={kind!r} is not known", source="climwidgets.analyses.anomalies",
-                             variable="kind", expected=f"one of {sorted(ANOMALY_KINDS)}",
-                             fix="pass kind='percent', 'absolute', 'standardized' or 'spi'")
+        raise ParameterError(
+            f"kind={kind!r} is not known",
+            source="climwidgets.analyses.anomalies",
+            variable="kind",
+            expected=f"one of {sorted(ANOMALY_KINDS)}",
+            fix="pass kind='percent', 'absolute', 'standardized' or 'spi'",
+        )
 
 
 def _label(kind, scale):
@@ -51,8 +66,9 @@ def _anomaly(pr, kind, period, months, scale, baseline):
     return anomaly(pr, baseline=baseline, kind=kind, period=period, months=months)
 
 
-def anomaly_field(pr: xr.DataArray, kind: str = "percent", period: str = "month", months=None, scale: int = 3,
-                  baseline=(1991, 2020)) -> xr.DataArray:
+def anomaly_field(
+    pr: xr.DataArray, kind: str = "percent", period: str = "month", months=None, scale: int = 3, baseline=(1991, 2020)
+) -> xr.DataArray:
     """The anomaly of every cell and step, with the words it is shown under (lazy).
 
     Parameters
@@ -82,12 +98,21 @@ def anomaly_field(pr: xr.DataArray, kind: str = "percent", period: str = "month"
     WMO (2012) Standardized Precipitation Index User Guide, WMO-No. 1090.
     """
     out = _anomaly(pr, kind, period, months, scale, baseline)
-    return out.assign_attrs(label=_label(kind, scale), display_units=ANOMALY_KINDS[kind][1],
-                            display_format=".1f" if kind in ("percent", "absolute") else ".2f")
+    return out.assign_attrs(
+        label=_label(kind, scale),
+        display_units=ANOMALY_KINDS[kind][1],
+        display_format=".1f" if kind in ("percent", "absolute") else ".2f",
+    )
 
 
-def anomaly_series(series: xr.DataArray, kind: str = "percent", period: str = "month", months=None,
-                   scale: int = 3, baseline=(1991, 2020)) -> xr.Dataset:
+def anomaly_series(
+    series: xr.DataArray,
+    kind: str = "percent",
+    period: str = "month",
+    months=None,
+    scale: int = 3,
+    baseline=(1991, 2020),
+) -> xr.Dataset:
     """Anomalies of basin-mean series (basin, time): a Dataset (basin, step) (lazy).
 
     Parameters
@@ -106,15 +131,21 @@ def anomaly_series(series: xr.DataArray, kind: str = "percent", period: str = "m
     """
     series = series.reset_coords(drop=True)
     out = _anomaly(series, kind, period, months, scale, baseline)
-    ds = xr.Dataset({"anomaly": out.assign_attrs(label=_label(kind, scale),
-                                                 display_units=ANOMALY_KINDS[kind][1])})
+    ds = xr.Dataset({"anomaly": out.assign_attrs(label=_label(kind, scale), display_units=ANOMALY_KINDS[kind][1])})
     if kind == "spi":
         ds["spi_class"] = spi_category(out)
     return ds
 
 
-def basin_anomalies(pr: xr.DataArray, basins, kind: str = "percent", period: str = "month", months=None,
-                    scale: int = 3, baseline=(1991, 2020)) -> xr.Dataset:
+def basin_anomalies(
+    pr: xr.DataArray,
+    basins,
+    kind: str = "percent",
+    period: str = "month",
+    months=None,
+    scale: int = 3,
+    baseline=(1991, 2020),
+) -> xr.Dataset:
     """Anomalies of each basin's area-weighted mean precipitation (lazy).
 
     Parameters
@@ -189,9 +220,13 @@ def anomaly_ranking(series: xr.Dataset, step: str) -> xr.Dataset:
     values = series["anomaly"]
     labels = step_labels(values)
     if step not in labels:
-        raise ParameterError(f"step {step!r} is not in the record ({labels[0]} to {labels[-1]})",
-                             source="anomaly_ranking", variable="step", expected="a label from step_labels()",
-                             fix="choose a step inside the record")
+        raise ParameterError(
+            f"step {step!r} is not in the record ({labels[0]} to {labels[-1]})",
+            source="anomaly_ranking",
+            variable="step",
+            expected="a label from step_labels()",
+            fix="choose a step inside the record",
+        )
     dim = "time" if "time" in values.dims else "year"
     i = labels.index(step)
     a = np.asarray(values.transpose("basin", dim).values, dtype=float)
@@ -211,18 +246,28 @@ def anomaly_ranking(series: xr.Dataset, step: str) -> xr.Dataset:
     def var(x, name, **attrs):
         return describe(xr.DataArray(x, dims="basin", coords={"basin": basin}), name, **attrs)
 
-    out = xr.Dataset({
-        "anomaly_at_step": var(at, "anomaly_at_step", label=step, units=units, display_units=shown,
-                               display_format=fmt,
-                               description=f"{values.attrs.get('label', 'anomaly')} at {step}"),
-        "rank_from_driest": var(rank, "rank_from_driest"),
-        "steps_in_record": var(valid.sum(axis=1), "steps_in_record"),
-        "driest_in_record": var(driest, "driest_in_record", units=units, display_units=shown, display_format=fmt),
-        "wettest_in_record": var(wettest, "wettest_in_record", units=units, display_units=shown,
-                                 display_format=fmt),
-    })
+    out = xr.Dataset(
+        {
+            "anomaly_at_step": var(
+                at,
+                "anomaly_at_step",
+                label=step,
+                units=units,
+                display_units=shown,
+                display_format=fmt,
+                description=f"{values.attrs.get('label', 'anomaly')} at {step}",
+            ),
+            "rank_from_driest": var(rank, "rank_from_driest"),
+            "steps_in_record": var(valid.sum(axis=1), "steps_in_record"),
+            "driest_in_record": var(driest, "driest_in_record", units=units, display_units=shown, display_format=fmt),
+            "wettest_in_record": var(
+                wettest, "wettest_in_record", units=units, display_units=shown, display_format=fmt
+            ),
+        }
+    )
     if "spi_class" in series:
-        out["spi_class"] = var(np.asarray(series["spi_class"].transpose("basin", dim).values)[:, i].astype(str),
-                               "spi_class")
+        out["spi_class"] = var(
+            np.asarray(series["spi_class"].transpose("basin", dim).values)[:, i].astype(str), "spi_class"
+        )
     out.attrs = {"step": step, "anomaly": values.attrs.get("label", "")}
     return out

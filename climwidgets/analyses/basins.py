@@ -31,18 +31,49 @@ from ..geo.basinset import as_basin_list
 from ..provenance import history_line
 from .meta import CATALOGUE, describe, frame
 
-__all__ = ["basin_series", "basin_table", "summary_bundle", "summary_maps", "share_map", "field_means",
-           "field_means_table", "basin_shares", "what_if", "basin_summary", "scenario_delta",
-           "SUMMARY_COLUMNS", "WHAT_IF_COLUMNS", "AREA_DEFINITION"]
+__all__ = [
+    "basin_series",
+    "basin_table",
+    "summary_bundle",
+    "summary_maps",
+    "share_map",
+    "field_means",
+    "field_means_table",
+    "basin_shares",
+    "what_if",
+    "basin_summary",
+    "scenario_delta",
+    "SUMMARY_COLUMNS",
+    "WHAT_IF_COLUMNS",
+    "AREA_DEFINITION",
+]
 
-AREA_DEFINITION = ("basin area: the outline's area on a sphere of the authalic radius 6 371 007.2 m, "
-                   "edges straight in lon/lat; volumes are the basin mean depth times this area")
+AREA_DEFINITION = (
+    "basin area: the outline's area on a sphere of the authalic radius 6 371 007.2 m, "
+    "edges straight in lon/lat; volumes are the basin mean depth times this area"
+)
 
-SUMMARY_COLUMNS = ("area_km2", "annual_mean_mm", "n_years", "seasonal_share_1", "normal_annual_mm",
-                   "volume_per_year_m3", "volume_per_year_acre_ft", "latest_year", "latest_year_mm",
-                   "latest_year_percent_of_normal", "data_coverage_1")
-WHAT_IF_COLUMNS = ("season", "percent", "n_seasons", "seasonal_volume_per_year_m3",
-                   "delta_volume_per_year_m3", "delta_volume_per_year_acre_ft")
+SUMMARY_COLUMNS = (
+    "area_km2",
+    "annual_mean_mm",
+    "n_years",
+    "seasonal_share_1",
+    "normal_annual_mm",
+    "volume_per_year_m3",
+    "volume_per_year_acre_ft",
+    "latest_year",
+    "latest_year_mm",
+    "latest_year_percent_of_normal",
+    "data_coverage_1",
+)
+WHAT_IF_COLUMNS = (
+    "season",
+    "percent",
+    "n_seasons",
+    "seasonal_volume_per_year_m3",
+    "delta_volume_per_year_m3",
+    "delta_volume_per_year_acre_ft",
+)
 
 
 def _monthly(pr: xr.DataArray, bundle) -> xr.DataArray:
@@ -66,12 +97,12 @@ def basin_series(field: xr.DataArray, basins) -> xr.DataArray:
 
 
 def _areas(basins) -> xr.DataArray:
-    return xr.DataArray(np.array([b.area_m2 for b in basins]), dims="basin",
-                        coords={"basin": [b.name for b in basins]})
+    return xr.DataArray(np.array([b.area_m2 for b in basins]), dims="basin", coords={"basin": [b.name for b in basins]})
 
 
-def basin_shares(pr: xr.DataArray, basins, months=(7, 8), how: str = "ratio_of_sums", years=None,
-                 year_start: int = 1, bundle=None) -> xr.Dataset:
+def basin_shares(
+    pr: xr.DataArray, basins, months=(7, 8), how: str = "ratio_of_sums", years=None, year_start: int = 1, bundle=None
+) -> xr.Dataset:
     """Seasonal share of each basin, per year and over the years, with its Sen slope (lazy).
 
     Returns a Dataset (basin) with ``area_km2``, ``seasonal_share_1`` (``how`` over
@@ -82,13 +113,16 @@ def basin_shares(pr: xr.DataArray, basins, months=(7, 8), how: str = "ratio_of_s
     series = basin_series(_monthly(pr, bundle), basins).reset_coords("covered_fraction", drop=True)
     share = seasonal_fraction(series, months=months, how=how, years=years, year_start=year_start)
     per_year = seasonal_fraction(series, months=months, years=years, year_start=year_start, per_year=True)
-    ds = xr.Dataset({
-        "area_km2": describe(_areas(basins) / 1e6, "area_km2"),
-        "seasonal_share_1": describe(share.reset_coords(drop=True), "seasonal_share_1", how=how),
-        "n_share_years": describe(per_year.notnull().sum("year"), "n_share_years"),
-        "seasonal_share_per_year": per_year.reset_coords(drop=True).assign_attrs(
-            units="1", label="seasonal share, per year", long_name="basin seasonal share per year"),
-    })
+    ds = xr.Dataset(
+        {
+            "area_km2": describe(_areas(basins) / 1e6, "area_km2"),
+            "seasonal_share_1": describe(share.reset_coords(drop=True), "seasonal_share_1", how=how),
+            "n_share_years": describe(per_year.notnull().sum("year"), "n_share_years"),
+            "seasonal_share_per_year": per_year.reset_coords(drop=True).assign_attrs(
+                units="1", label="seasonal share, per year", long_name="basin seasonal share per year"
+            ),
+        }
+    )
     try:
         tr = trend(per_year.reset_coords(drop=True), dim="year")
     except InsufficientDataError:
@@ -97,10 +131,16 @@ def basin_shares(pr: xr.DataArray, basins, months=(7, 8), how: str = "ratio_of_s
         ds["share_slope"] = describe(tr["slope"], "share_slope")
         ds["share_pvalue"] = describe(tr["pvalue"], "share_pvalue")
         ds["share_intercept"] = tr["intercept"].assign_attrs(units="1")
-    ds.attrs = {"season": season_label(tuple(months)), "season_months": list(months), "how": how,
-                "year_start": year_start, "season_year_start": share.attrs.get("season_year_start", year_start),
-                "first_year": share.attrs.get("years", [None, None])[0],
-                "last_year": share.attrs.get("years", [None, None])[1], "area": AREA_DEFINITION}
+    ds.attrs = {
+        "season": season_label(tuple(months)),
+        "season_months": list(months),
+        "how": how,
+        "year_start": year_start,
+        "season_year_start": share.attrs.get("season_year_start", year_start),
+        "first_year": share.attrs.get("years", [None, None])[0],
+        "last_year": share.attrs.get("years", [None, None])[1],
+        "area": AREA_DEFINITION,
+    }
     return ds
 
 
@@ -118,12 +158,12 @@ def summary_bundle(pr: xr.DataArray, months=(7, 8), baseline=(1991, 2020), year_
     Pass it as ``bundle=`` to :func:`basin_table`, :func:`summary_maps` and :func:`what_if`
     so that they share one graph: one ``compute`` of them all reads each chunk once.
     """
-    return climatology_bundle(pr, months=tuple(months), baseline=tuple(baseline), year_start=year_start,
-                              maxima_days=())
+    return climatology_bundle(pr, months=tuple(months), baseline=tuple(baseline), year_start=year_start, maxima_days=())
 
 
-def summary_maps(pr: xr.DataArray | None, months=(7, 8), baseline=(1991, 2020), year_start: int = 1,
-                 bundle=None) -> xr.Dataset:
+def summary_maps(
+    pr: xr.DataArray | None, months=(7, 8), baseline=(1991, 2020), year_start: int = 1, bundle=None
+) -> xr.Dataset:
     """The two maps beside the basin table: seasonal share and annual normal of every cell (lazy).
 
     Parameters
@@ -145,20 +185,31 @@ def summary_maps(pr: xr.DataArray | None, months=(7, 8), baseline=(1991, 2020), 
     months, baseline = tuple(months), tuple(baseline)
     if bundle is None:
         if pr is None:
-            raise ParameterError("summary_maps needs pr or bundle", source="summary_maps", variable="pr",
-                                 expected="a precipitation DataArray, or the bundle of summary_bundle",
-                                 fix="pass pr=... or bundle=...")
+            raise ParameterError(
+                "summary_maps needs pr or bundle",
+                source="summary_maps",
+                variable="pr",
+                expected="a precipitation DataArray, or the bundle of summary_bundle",
+                fix="pass pr=... or bundle=...",
+            )
         bundle = summary_bundle(pr, months, baseline, year_start)
-    ds = xr.Dataset({"seasonal_share_map": _grid_map(bundle["seasonal_share"]).assign_attrs(
-        units="1", long_name=f"seasonal share ({season_label(months)})", **_share_display(months))})
+    ds = xr.Dataset(
+        {
+            "seasonal_share_map": _grid_map(bundle["seasonal_share"]).assign_attrs(
+                units="1", long_name=f"seasonal share ({season_label(months)})", **_share_display(months)
+            )
+        }
+    )
     if "normals" in bundle:
         ds["annual_normal_map"] = _grid_map(bundle["normals"].sum("month", skipna=False)).assign_attrs(
-            units="mm", long_name=f"annual normal {baseline[0]}–{baseline[1]}")
+            units="mm", long_name=f"annual normal {baseline[0]}–{baseline[1]}"
+        )
     return ds
 
 
-def share_map(pr: xr.DataArray, months=(7, 8), how: str = "ratio_of_sums", years=None,
-              year_start: int = 1) -> xr.DataArray:
+def share_map(
+    pr: xr.DataArray, months=(7, 8), how: str = "ratio_of_sums", years=None, year_start: int = 1
+) -> xr.DataArray:
     """The seasonal share of every cell (:func:`cw.seasonal_fraction`, lazy).
 
     Parameters
@@ -181,8 +232,12 @@ def share_map(pr: xr.DataArray, months=(7, 8), how: str = "ratio_of_sums", years
 def _share_display(months) -> dict:
     """How a share map is shown: in % like the basin tables (the catalogue's seasonal share)."""
     meta = CATALOGUE["seasonal_share_1"]
-    return {"label": f"seasonal share {season_label(tuple(months))}", "display_units": meta.display_units,
-            "display_scale": meta.display_scale, "display_format": meta.display_format}
+    return {
+        "label": f"seasonal share {season_label(tuple(months))}",
+        "display_units": meta.display_units,
+        "display_scale": meta.display_scale,
+        "display_format": meta.display_format,
+    }
 
 
 def field_means(field: xr.DataArray, basins) -> xr.Dataset:
@@ -207,15 +262,24 @@ def field_means(field: xr.DataArray, basins) -> xr.Dataset:
 def field_means_table(basins, means: xr.DataArray) -> xr.Dataset:
     """:func:`field_means` from basin means already at hand (``means`` on basin, with units)."""
     units = means.attrs.get("units", "")
-    return xr.Dataset({
-        "area_km2": describe(_areas(basins) / 1e6, "area_km2"),
-        "mean": describe(means, "mean", label="mean", units=units, display_units=units,
-                         description="area-weighted basin mean of the field shown"),
-    })
+    return xr.Dataset(
+        {
+            "area_km2": describe(_areas(basins) / 1e6, "area_km2"),
+            "mean": describe(
+                means,
+                "mean",
+                label="mean",
+                units=units,
+                display_units=units,
+                description="area-weighted basin mean of the field shown",
+            ),
+        }
+    )
 
 
-def basin_table(pr: xr.DataArray, basins, months=(7, 8), baseline=(1991, 2020), year_start: int = 1,
-                bundle=None) -> xr.Dataset:
+def basin_table(
+    pr: xr.DataArray, basins, months=(7, 8), baseline=(1991, 2020), year_start: int = 1, bundle=None
+) -> xr.Dataset:
     """The basin table of water-planning figures as a lazy Dataset, with its maps.
 
     Parameters
@@ -259,32 +323,41 @@ def basin_table(pr: xr.DataArray, basins, months=(7, 8), baseline=(1991, 2020), 
     area_m2 = _areas(basins)
     volume = mean_mm / 1000.0 * area_m2
     shares = basin_shares(pr, basins, months=months, year_start=year_start, bundle=bundle)
-    ds = xr.Dataset({
-        "area_km2": shares["area_km2"],
-        "annual_mean_mm": describe(mean_mm, "annual_mean_mm"),
-        "n_years": describe(n_years, "n_years"),
-        "seasonal_share_1": shares["seasonal_share_1"],
-        "normal_annual_mm": describe(normal, "normal_annual_mm"),
-        "volume_per_year_m3": describe(volume, "volume_per_year_m3"),
-        "volume_per_year_acre_ft": describe(volume / ACRE_FOOT_M3, "volume_per_year_acre_ft"),
-        "latest_year": describe(latest, "latest_year"),
-        "latest_year_mm": describe(latest_mm, "latest_year_mm"),
-        "latest_year_percent_of_normal": describe(100.0 * latest_mm / normal.where(normal > 0),
-                                                  "latest_year_percent_of_normal"),
-        "data_coverage_1": describe(covered.min("time"), "data_coverage_1"),
-        "monthly_normal": monthly_normal.assign_attrs(units="mm", label="monthly normal",
-                                                      long_name="monthly normal, basin mean"),
-    })
+    ds = xr.Dataset(
+        {
+            "area_km2": shares["area_km2"],
+            "annual_mean_mm": describe(mean_mm, "annual_mean_mm"),
+            "n_years": describe(n_years, "n_years"),
+            "seasonal_share_1": shares["seasonal_share_1"],
+            "normal_annual_mm": describe(normal, "normal_annual_mm"),
+            "volume_per_year_m3": describe(volume, "volume_per_year_m3"),
+            "volume_per_year_acre_ft": describe(volume / ACRE_FOOT_M3, "volume_per_year_acre_ft"),
+            "latest_year": describe(latest, "latest_year"),
+            "latest_year_mm": describe(latest_mm, "latest_year_mm"),
+            "latest_year_percent_of_normal": describe(
+                100.0 * latest_mm / normal.where(normal > 0), "latest_year_percent_of_normal"
+            ),
+            "data_coverage_1": describe(covered.min("time"), "data_coverage_1"),
+            "monthly_normal": monthly_normal.assign_attrs(
+                units="mm", label="monthly normal", long_name="monthly normal, basin mean"
+            ),
+        }
+    )
     ds.update(summary_maps(None, months, baseline, year_start, bundle=bundle))
     for name in ("seasonal_share_per_year", "share_slope", "share_pvalue", "share_intercept"):
         if name in shares:
             ds[name] = shares[name]
-    ds.attrs = {"months": list(months), "baseline": list(baseline), "year_start": year_start,
-                "season_year_start": shares.attrs["season_year_start"], "area": AREA_DEFINITION,
-                "note": "areas on a sphere of the authalic radius 6371007.2 m; planning-level figures "
-                        "from gridded data",
-                "history": history_line(func, basins=[b.name for b in basins], months=months,
-                                        baseline=baseline, year_start=year_start)}
+    ds.attrs = {
+        "months": list(months),
+        "baseline": list(baseline),
+        "year_start": year_start,
+        "season_year_start": shares.attrs["season_year_start"],
+        "area": AREA_DEFINITION,
+        "note": "areas on a sphere of the authalic radius 6371007.2 m; planning-level figures from gridded data",
+        "history": history_line(
+            func, basins=[b.name for b in basins], months=months, baseline=baseline, year_start=year_start
+        ),
+    }
     return ds
 
 
@@ -294,14 +367,25 @@ def _check_percent(percent, func):
     except (TypeError, ValueError):
         percent = np.nan
     if not np.isfinite(percent) or percent <= -100.0:
-        raise ParameterError(f"percent={percent!r} is not a usable change", source=func,
-                             variable="percent", expected="a finite number above -100",
-                             fix="pass e.g. percent=5.0 for 5 % more, -10.0 for 10 % less")
+        raise ParameterError(
+            f"percent={percent!r} is not a usable change",
+            source=func,
+            variable="percent",
+            expected="a finite number above -100",
+            fix="pass e.g. percent=5.0 for 5 % more, -10.0 for 10 % less",
+        )
     return percent
 
 
-def what_if(pr: xr.DataArray, basins, months=(11, 12, 1, 2, 3), percent: float = 5.0, year_start: int = 1,
-            years=None, bundle=None) -> xr.Dataset:
+def what_if(
+    pr: xr.DataArray,
+    basins,
+    months=(11, 12, 1, 2, 3),
+    percent: float = 5.0,
+    year_start: int = 1,
+    years=None,
+    bundle=None,
+) -> xr.Dataset:
     """Change in mean annual basin volume if the season's precipitation changed by ``percent``.
 
     The season's mean basin total over complete seasons (optionally ``years=(first,
@@ -318,25 +402,38 @@ def what_if(pr: xr.DataArray, basins, months=(11, 12, 1, 2, 3), percent: float =
         first, last = years
         seasonal = seasonal.sel(year=slice(int(first), int(last)))
         if seasonal.sizes["year"] == 0:
-            raise ParameterError(f"no seasons between {first} and {last}", source=func,
-                                 variable="years", expected="year labels inside the data",
-                                 fix="widen years= or leave it out")
+            raise ParameterError(
+                f"no seasons between {first} and {last}",
+                source=func,
+                variable="years",
+                expected="year labels inside the data",
+                fix="widen years= or leave it out",
+            )
     volume = seasonal.mean("year").reset_coords(drop=True) / 1000.0 * _areas(basins)
     delta = volume * percent / 100.0
     label = seasonal.attrs.get("season", season_label(tuple(months)))
     n = len(basins)
-    ds = xr.Dataset({
-        "season": describe(xr.DataArray(np.array([label] * n, dtype=object), dims="basin"), "season"),
-        "percent": describe(xr.DataArray(np.full(n, percent), dims="basin"), "percent"),
-        "n_seasons": describe(seasonal.notnull().sum("year").reset_coords(drop=True), "n_seasons"),
-        "seasonal_volume_per_year_m3": describe(volume, "seasonal_volume_per_year_m3"),
-        "delta_volume_per_year_m3": describe(delta, "delta_volume_per_year_m3"),
-        "delta_volume_per_year_acre_ft": describe(delta / ACRE_FOOT_M3, "delta_volume_per_year_acre_ft"),
-    }, coords={"basin": [b.name for b in basins]})
-    ds.attrs = {"months": list(months), "percent": percent, "year_start": year_start, "area": AREA_DEFINITION,
-                "note": "planning-level estimate: only the season's precipitation is scaled",
-                "history": history_line(func, basins=[b.name for b in basins], months=tuple(months),
-                                        percent=percent, year_start=year_start)}
+    ds = xr.Dataset(
+        {
+            "season": describe(xr.DataArray(np.array([label] * n, dtype=object), dims="basin"), "season"),
+            "percent": describe(xr.DataArray(np.full(n, percent), dims="basin"), "percent"),
+            "n_seasons": describe(seasonal.notnull().sum("year").reset_coords(drop=True), "n_seasons"),
+            "seasonal_volume_per_year_m3": describe(volume, "seasonal_volume_per_year_m3"),
+            "delta_volume_per_year_m3": describe(delta, "delta_volume_per_year_m3"),
+            "delta_volume_per_year_acre_ft": describe(delta / ACRE_FOOT_M3, "delta_volume_per_year_acre_ft"),
+        },
+        coords={"basin": [b.name for b in basins]},
+    )
+    ds.attrs = {
+        "months": list(months),
+        "percent": percent,
+        "year_start": year_start,
+        "area": AREA_DEFINITION,
+        "note": "planning-level estimate: only the season's precipitation is scaled",
+        "history": history_line(
+            func, basins=[b.name for b in basins], months=tuple(months), percent=percent, year_start=year_start
+        ),
+    }
     return ds
 
 
@@ -347,8 +444,7 @@ def _table(ds: xr.Dataset, columns, keys) -> pd.DataFrame:
     return out
 
 
-def basin_summary(pr: xr.DataArray, basins, months=(7, 8), baseline=(1991, 2020),
-                  year_start: int = 1) -> pd.DataFrame:
+def basin_summary(pr: xr.DataArray, basins, months=(7, 8), baseline=(1991, 2020), year_start: int = 1) -> pd.DataFrame:
     """One row per basin of water-planning figures from a precipitation grid (mm per step).
 
     The computed columns of :func:`basin_table` (:data:`SUMMARY_COLUMNS`, units in the
@@ -359,13 +455,15 @@ def basin_summary(pr: xr.DataArray, basins, months=(7, 8), baseline=(1991, 2020)
     ds = basin_table(pr, basins, months=months, baseline=baseline, year_start=year_start)
     ds = ds[list(SUMMARY_COLUMNS)].compute()
     out = _table(ds, SUMMARY_COLUMNS, ("months", "baseline", "year_start", "season_year_start", "note"))
-    out.attrs["history"] = history_line("basin_summary", basins=list(out.index), months=tuple(months),
-                                        baseline=tuple(baseline), year_start=year_start)
+    out.attrs["history"] = history_line(
+        "basin_summary", basins=list(out.index), months=tuple(months), baseline=tuple(baseline), year_start=year_start
+    )
     return out
 
 
-def scenario_delta(pr: xr.DataArray, basin, months=(11, 12, 1, 2, 3), percent: float = 5.0,
-                   year_start: int = 1, years=None) -> pd.DataFrame:
+def scenario_delta(
+    pr: xr.DataArray, basin, months=(11, 12, 1, 2, 3), percent: float = 5.0, year_start: int = 1, years=None
+) -> pd.DataFrame:
     """:func:`what_if` computed, as a DataFrame (one row per basin, :data:`WHAT_IF_COLUMNS`)."""
     ds = what_if(pr, basin, months=months, percent=percent, year_start=year_start, years=years).compute()
     return _table(ds, WHAT_IF_COLUMNS, ("months", "percent", "year_start", "note", "history"))

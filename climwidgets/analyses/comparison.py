@@ -22,9 +22,17 @@ from ..provenance import with_history
 from .basins import basin_series
 from .meta import describe, frame
 
-__all__ = ["products_table", "products_basin_table", "products_frame",
-           "agreement_maps", "aligned_products", "METRICS", "PRODUCT_COLUMNS",
-           "SPREAD_RANGE", "SPREAD_CV"]
+__all__ = [
+    "products_table",
+    "products_basin_table",
+    "products_frame",
+    "agreement_maps",
+    "aligned_products",
+    "METRICS",
+    "PRODUCT_COLUMNS",
+    "SPREAD_RANGE",
+    "SPREAD_CV",
+]
 
 #: The agreement metrics of two products: plain words, and how their units read on screen.
 METRICS = {
@@ -83,10 +91,21 @@ def products_table(datasets: dict, basins, months=(7, 8), baseline=None) -> xr.D
         series = basin_series(m, basins).reset_coords("covered_fraction", drop=True)
         annual = annual_totals(series)
         tr = trend(annual, dim="year")
-        values = (annual.mean("year"), seasonal_fraction(series, months), annual_normal(series, baseline=base),
-                  tr["slope"], tr["pvalue"])
-        parts.append(xr.Dataset({c: v.reset_coords(drop=True).drop_attrs() if hasattr(v, "drop_attrs")
-                                 else v.reset_coords(drop=True) for c, v in zip(PRODUCT_COLUMNS, values)}))
+        values = (
+            annual.mean("year"),
+            seasonal_fraction(series, months),
+            annual_normal(series, baseline=base),
+            tr["slope"],
+            tr["pvalue"],
+        )
+        parts.append(
+            xr.Dataset(
+                {
+                    c: v.reset_coords(drop=True).drop_attrs() if hasattr(v, "drop_attrs") else v.reset_coords(drop=True)
+                    for c, v in zip(PRODUCT_COLUMNS, values)
+                }
+            )
+        )
     per_product = xr.concat(parts, dim="product").assign_coords(product=np.array(list(products), dtype=object))
     mean = per_product.mean("product")
     cv = per_product.std("product") / mean.where(mean != 0)
@@ -94,15 +113,35 @@ def products_table(datasets: dict, basins, months=(7, 8), baseline=None) -> xr.D
         cv[c] = cv[c] * np.nan
     spread = per_product.max("product") - per_product.min("product")
     spread["trend_pvalue"] = spread["trend_pvalue"] * np.nan
-    table = xr.concat([per_product, spread.expand_dims(product=np.array([SPREAD_RANGE], dtype=object)),
-                       cv.expand_dims(product=np.array([SPREAD_CV], dtype=object))],
-                      dim="product").transpose(..., "basin", "product")  # ensemble members first
-    out = xr.Dataset({c: describe(table[c], c, **({"description": _DESCRIPTION[c]} if c in _DESCRIPTION else {}))
-                      for c in PRODUCT_COLUMNS})
-    out.attrs = {"period": f"{first}-{last}", "season_months": tuple(months), "baseline": base,
-                 "spread": "max - min and coefficient of variation (population sd / mean) across products"}
-    return with_history(out, func, None, products=tuple(products), basins=tuple(b.name for b in basins),
-                        months=tuple(months), baseline=base)
+    table = xr.concat(
+        [
+            per_product,
+            spread.expand_dims(product=np.array([SPREAD_RANGE], dtype=object)),
+            cv.expand_dims(product=np.array([SPREAD_CV], dtype=object)),
+        ],
+        dim="product",
+    ).transpose(..., "basin", "product")  # ensemble members first
+    out = xr.Dataset(
+        {
+            c: describe(table[c], c, **({"description": _DESCRIPTION[c]} if c in _DESCRIPTION else {}))
+            for c in PRODUCT_COLUMNS
+        }
+    )
+    out.attrs = {
+        "period": f"{first}-{last}",
+        "season_months": tuple(months),
+        "baseline": base,
+        "spread": "max - min and coefficient of variation (population sd / mean) across products",
+    }
+    return with_history(
+        out,
+        func,
+        None,
+        products=tuple(products),
+        basins=tuple(b.name for b in basins),
+        months=tuple(months),
+        baseline=base,
+    )
 
 
 def products_basin_table(datasets: dict, basins, months=(7, 8), baseline=None) -> pd.DataFrame:
@@ -159,9 +198,13 @@ def agreement_maps(aligned: dict, reference: str, other: str, kge: str = "2009")
     if reference == other:
         from ..errors import ParameterError
 
-        raise ParameterError(f"reference and other are both {reference!r}", source="agreement_maps",
-                             variable="other", expected="two different products",
-                             fix="choose another product as 'Other'")
+        raise ParameterError(
+            f"reference and other are both {reference!r}",
+            source="agreement_maps",
+            variable="other",
+            expected="two different products",
+            fix="choose another product as 'Other'",
+        )
     out = compare(aligned[reference], aligned[other], kge=kge)
     for name in out.data_vars:
         if name in METRICS:

@@ -14,8 +14,15 @@ import xarray as xr
 from ..errors import ParameterError
 from .meta import describe, frame
 
-__all__ = ["ddf_long_table", "ddf_wide_table", "DDF_COLUMNS", "basin_design_table", "design_depth_table",
-           "design_depth_cells", "DESIGN_TABLE_NOTE"]
+__all__ = [
+    "ddf_long_table",
+    "ddf_wide_table",
+    "DDF_COLUMNS",
+    "basin_design_table",
+    "design_depth_table",
+    "design_depth_cells",
+    "DESIGN_TABLE_NOTE",
+]
 
 DDF_COLUMNS = ("ddf_estimate", "ddf_lower", "ddf_upper")
 
@@ -26,14 +33,23 @@ def _one(ds: xr.Dataset, basin=None) -> xr.Dataset:
         if basin is None and len(names) == 1:
             basin = names[0]
         if basin not in names:
-            raise ParameterError(f"basin {basin!r} is not in the table", source="ddf table", variable="basin",
-                                 expected=f"one of {names}", fix="pass basin= one of those names")
+            raise ParameterError(
+                f"basin {basin!r} is not in the table",
+                source="ddf table",
+                variable="basin",
+                expected=f"one of {names}",
+                fix="pass basin= one of those names",
+            )
         return ds.sel(basin=basin)
     extra = [d for d in ds["estimate"].dims if d not in ("duration", "period")]
     if extra:
-        raise ParameterError(f"the table has per-cell dims {extra}", source="ddf table", variable="ds",
-                             expected="a basin table, or one cell (select it first)",
-                             fix="pass basins= to cw.depth_duration_frequency, or ds.isel(lat=..., lon=...)")
+        raise ParameterError(
+            f"the table has per-cell dims {extra}",
+            source="ddf table",
+            variable="ds",
+            expected="a basin table, or one cell (select it first)",
+            fix="pass basins= to cw.depth_duration_frequency, or ds.isel(lat=..., lon=...)",
+        )
     return ds
 
 
@@ -47,13 +63,29 @@ def ddf_long_table(ds: xr.Dataset, basin=None, display: bool = False) -> pd.Data
     one = _one(ds, basin)
     units = str(one["estimate"].attrs.get("units", "mm"))
     pct = f"{float(ds.attrs.get('ci', 0.9)):.0%}" if "ci" in ds.attrs else ""
-    described = xr.Dataset({
-        "ddf_estimate": describe(one["estimate"], "ddf_estimate", units=units, display_units=units),
-        "ddf_lower": describe(one["lower"], "ddf_lower", units=units, display_units=units,
-                              **({"label": f"lower {pct}"} if pct else {})),
-        "ddf_upper": describe(one["upper"], "ddf_upper", units=units, display_units=units,
-                              **({"label": f"upper {pct}"} if pct else {})),
-    }).assign_coords(duration=("duration", _labels(one))).transpose("duration", "period")
+    described = (
+        xr.Dataset(
+            {
+                "ddf_estimate": describe(one["estimate"], "ddf_estimate", units=units, display_units=units),
+                "ddf_lower": describe(
+                    one["lower"],
+                    "ddf_lower",
+                    units=units,
+                    display_units=units,
+                    **({"label": f"lower {pct}"} if pct else {}),
+                ),
+                "ddf_upper": describe(
+                    one["upper"],
+                    "ddf_upper",
+                    units=units,
+                    display_units=units,
+                    **({"label": f"upper {pct}"} if pct else {}),
+                ),
+            }
+        )
+        .assign_coords(duration=("duration", _labels(one)))
+        .transpose("duration", "period")
+    )
     table = frame(described, index=("duration", "period"), columns=DDF_COLUMNS, display=display)
     table.index = table.index.set_names(["duration", "return period [years]"])
     return table
@@ -64,20 +96,32 @@ def ddf_wide_table(ds: xr.Dataset, basin=None) -> pd.DataFrame:
     one = _one(ds, basin)
     units = str(one["estimate"].attrs.get("units", "mm"))
     est = one["estimate"].transpose("duration", "period")
-    table = pd.DataFrame(est.values, index=pd.Index(_labels(one), name="duration"),
-                         columns=[f"{int(p)} years" for p in one["period"].values])
+    table = pd.DataFrame(
+        est.values,
+        index=pd.Index(_labels(one), name="duration"),
+        columns=[f"{int(p)} years" for p in one["period"].values],
+    )
     attrs = describe(est, "ddf_estimate", units=units, display_units=units).attrs
     table.attrs = {"columns": {c: {**attrs, "label": f"{c}"} for c in table.columns}, "units": units}
     return table
 
 
-DESIGN_TABLE_NOTE = ("How deep a storm of each duration gets, on average once in N years, over the basin as a "
-                     "whole (the fit of the basin-mean series: areal depths, lower than point (gauge) depths). "
-                     "In brackets: the range the fit allows at the chosen confidence level (sampling only).")
+DESIGN_TABLE_NOTE = (
+    "How deep a storm of each duration gets, on average once in N years, over the basin as a "
+    "whole (the fit of the basin-mean series: areal depths, lower than point (gauge) depths). "
+    "In brackets: the range the fit allows at the chosen confidence level (sampling only)."
+)
 
 
-def basin_design_table(series: xr.DataArray, durations=None, periods=(2, 5, 10, 25, 50, 100), ci: float = 0.9,
-                       n_boot: int = 1000, year_start: int = 1, seed=0) -> xr.Dataset:
+def basin_design_table(
+    series: xr.DataArray,
+    durations=None,
+    periods=(2, 5, 10, 25, 50, 100),
+    ci: float = 0.9,
+    n_boot: int = 1000,
+    year_start: int = 1,
+    seed=0,
+) -> xr.Dataset:
     """Design depths of each basin by duration and return period, from its basin-mean series.
 
     Parameters
@@ -98,8 +142,9 @@ def basin_design_table(series: xr.DataArray, durations=None, periods=(2, 5, 10, 
     from ..compute.ddf import depth_duration_frequency
 
     series = series.drop_vars([c for c in series.coords if c not in series.dims], errors="ignore")
-    ds = depth_duration_frequency(series, durations=durations, periods=periods, ci=ci, n_boot=n_boot,
-                                  seed=seed, year_start=year_start)
+    ds = depth_duration_frequency(
+        series, durations=durations, periods=periods, ci=ci, n_boot=n_boot, seed=seed, year_start=year_start
+    )
     ds.attrs.update(areal="fit of the basin-mean series", ci=float(ci), note=DESIGN_TABLE_NOTE)
     return ds
 
@@ -145,7 +190,8 @@ def design_depth_cells(table: pd.DataFrame) -> pd.DataFrame:
         up = next(k for k in table.columns if k.startswith(f"{c} upper"))
         out[f"{c} [{units}]"] = [
             f"{format_cell(e, cols.get(c, {}))} ({format_cell(a, cols.get(low, {}))}–{format_cell(b, cols.get(up, {}))})"
-            for e, a, b in zip(table[c], table[low], table[up])]
+            for e, a, b in zip(table[c], table[low], table[up])
+        ]
     cells = pd.DataFrame(out, index=table.index)
     cells.columns.name = "once in"
     return cells

@@ -37,9 +37,13 @@ def _spread(spread, func):
     except (TypeError, ValueError):
         ok = False
     if not ok:
-        raise ParameterError(f"spread={spread!r} is not known", source=func, variable="spread",
-                             expected="'range' (lowest and highest member) or two increasing probabilities",
-                             fix="pass spread='range' or spread=(0.1, 0.9)")
+        raise ParameterError(
+            f"spread={spread!r} is not known",
+            source=func,
+            variable="spread",
+            expected="'range' (lowest and highest member) or two increasing probabilities",
+            fix="pass spread='range' or spread=(0.1, 0.9)",
+        )
     return lo, hi
 
 
@@ -81,8 +85,13 @@ def ensemble_basin_table(table: xr.Dataset, dim=None, spread="range", columns=No
     names: list = list(table.data_vars) if columns is None else list(columns)
     first = next((table[n] for n in names if n in table), None)
     if first is None:
-        raise ParameterError("the table has none of the columns asked for", source=func, variable="columns",
-                             expected="names of described variables of the table", fix="leave columns out")
+        raise ParameterError(
+            "the table has none of the columns asked for",
+            source=func,
+            variable="columns",
+            expected="names of described variables of the table",
+            fix="leave columns out",
+        )
     dim = member_dim(table, dim, func)
     index = ("basin", dim)
     if columns is None:
@@ -106,12 +115,20 @@ def ensemble_basin_table(table: xr.Dataset, dim=None, spread="range", columns=No
         if n_members is None:
             n_members = summary["n_members"]
     if n_members is not None:
-        out["n_members"] = n_members.assign_attrs(label="members", units="1", display_units="",
-                                                  display_scale=1.0, display_format=".0f",
-                                                  description="number of members with a value")
-    out.attrs = {**{k: v for k, v in table.attrs.items() if k != "history"}, "member_dim": dim,
-                 "spread": "range" if q is None else list(q),
-                 "history": history_line(func, dim=dim, spread=spread, columns=names)}
+        out["n_members"] = n_members.assign_attrs(
+            label="members",
+            units="1",
+            display_units="",
+            display_scale=1.0,
+            display_format=".0f",
+            description="number of members with a value",
+        )
+    out.attrs = {
+        **{k: v for k, v in table.attrs.items() if k != "history"},
+        "member_dim": dim,
+        "spread": "range" if q is None else list(q),
+        "history": history_line(func, dim=dim, spread=spread, columns=names),
+    }
     return out
 
 
@@ -209,24 +226,36 @@ def member_view(obj, choice, dim=None):
     """
     func = "member_view"
     if not isinstance(obj, (xr.DataArray, xr.Dataset)):
-        raise ParameterError(f"obj is a {type(obj).__name__}", source=func, variable="obj",
-                             expected="an xarray DataArray or Dataset with a member dimension",
-                             fix="pass the computed result (xarray), not a table")
+        raise ParameterError(
+            f"obj is a {type(obj).__name__}",
+            source=func,
+            variable="obj",
+            expected="an xarray DataArray or Dataset with a member dimension",
+            fix="pass the computed result (xarray), not a table",
+        )
     dim = member_dim(obj, dim, func)
     has_coord = dim in obj.coords
     labels = list(obj[dim].values.tolist()) if has_coord else list(range(obj.sizes[dim]))
     summary = isinstance(choice, str) and choice in MEMBER_VIEWS
     if not summary and choice not in labels:
-        raise ParameterError(f"{choice!r} is not a member of '{dim}'", source=func, variable="choice",
-                             expected=f"one of {labels} (members), 'mean' or 'spread'",
-                             fix="pick a member label, or 'mean' / 'spread' for the summaries")
+        raise ParameterError(
+            f"{choice!r} is not a member of '{dim}'",
+            source=func,
+            variable="choice",
+            expected=f"one of {labels} (members), 'mean' or 'spread'",
+            fix="pick a member label, or 'mean' / 'spread' for the summaries",
+        )
     n = int(obj.sizes[dim])
 
     def one(da):
         if summary and not _numeric(da):
-            raise ParameterError(f"{da.name or 'the DataArray'} holds {da.dtype} values, not numbers",
-                                 source=func, variable=str(da.name), expected="numbers for a mean or a spread",
-                                 fix="pick one member, or summarise the numbers the labels were made from")
+            raise ParameterError(
+                f"{da.name or 'the DataArray'} holds {da.dtype} values, not numbers",
+                source=func,
+                variable=str(da.name),
+                expected="numbers for a mean or a spread",
+                fix="pick one member, or summarise the numbers the labels were made from",
+            )
         if not summary:
             out = da.sel({dim: choice}, drop=True) if has_coord else da.isel({dim: choice}, drop=True)
         else:

@@ -20,22 +20,51 @@ from ..geo.basinset import as_basin_list
 from .basins import basin_series
 from .meta import describe, frame
 
-__all__ = ["depth_field", "warmed_field", "areal_design_depths", "point_design_depths", "warmed_depths",
-           "depth_table", "point_depth_table", "regional_depth_field", "warmed_point_depths", "AREAL_NOTE",
-           "POINT_NOTE", "DEPTH_COLUMNS", "POINT_COLUMNS"]
+__all__ = [
+    "depth_field",
+    "warmed_field",
+    "areal_design_depths",
+    "point_design_depths",
+    "warmed_depths",
+    "depth_table",
+    "point_depth_table",
+    "regional_depth_field",
+    "warmed_point_depths",
+    "AREAL_NOTE",
+    "POINT_NOTE",
+    "DEPTH_COLUMNS",
+    "POINT_COLUMNS",
+]
 
-AREAL_NOTE = ("basin depths are areal: the return level of the basin-mean annual maxima, lower than "
-              "point (gauge) depths of the same return period")
+AREAL_NOTE = (
+    "basin depths are areal: the return level of the basin-mean annual maxima, lower than "
+    "point (gauge) depths of the same return period"
+)
 DEPTH_COLUMNS = ("areal_estimate_mm", "areal_lower_mm", "areal_upper_mm", "warming_factor")
-POINT_NOTE = ("point depths: at-site is each cell's own fit, averaged over the basin; regional pools the "
-              "basin's cells by the index-flood method (one growth curve, each cell's own mean annual "
-              "maximum). Where H1 >= 2 the basin is not one region and the regional column is not to be used")
-POINT_COLUMNS = ("point_at_site_mm", "point_at_site_lower_mm", "point_at_site_upper_mm", "point_regional_mm",
-                 "point_regional_lower_mm", "point_regional_upper_mm")
+POINT_NOTE = (
+    "point depths: at-site is each cell's own fit, averaged over the basin; regional pools the "
+    "basin's cells by the index-flood method (one growth curve, each cell's own mean annual "
+    "maximum). Where H1 >= 2 the basin is not one region and the regional column is not to be used"
+)
+POINT_COLUMNS = (
+    "point_at_site_mm",
+    "point_at_site_lower_mm",
+    "point_at_site_upper_mm",
+    "point_regional_mm",
+    "point_regional_lower_mm",
+    "point_regional_upper_mm",
+)
 
 
-def depth_field(pr: xr.DataArray, periods=(2, 10, 25, 50, 100), ci: float = 0.9, n_boot: int = 1000,
-                year_start: int = 1, seed=0, **duration) -> xr.Dataset:
+def depth_field(
+    pr: xr.DataArray,
+    periods=(2, 10, 25, 50, 100),
+    ci: float = 0.9,
+    n_boot: int = 1000,
+    year_start: int = 1,
+    seed=0,
+    **duration,
+) -> xr.Dataset:
     """Return levels of every cell: the map of point design depths (lazy).
 
     Parameters
@@ -72,9 +101,17 @@ def warmed_field(levels: xr.Dataset, delta_t: float = 0.0, rate: float = 0.07) -
     return warming_scaling(levels, float(delta_t), rate=float(rate))
 
 
-def areal_design_depths(pr: xr.DataArray, basins, periods=(2, 10, 25, 50, 100), ci: float = 0.9,
-                        n_boot: int = 1000, year_start: int = 1, seed=0, series=None,
-                        **duration) -> xr.Dataset:
+def areal_design_depths(
+    pr: xr.DataArray,
+    basins,
+    periods=(2, 10, 25, 50, 100),
+    ci: float = 0.9,
+    n_boot: int = 1000,
+    year_start: int = 1,
+    seed=0,
+    series=None,
+    **duration,
+) -> xr.Dataset:
     """Areal return levels of each basin (lazy Dataset on basin × return_period).
 
     Parameters
@@ -109,23 +146,41 @@ def areal_design_depths(pr: xr.DataArray, basins, periods=(2, 10, 25, 50, 100), 
     # one warming factor per basin and period: the same for every member
     table_dims = ("basin", "return_period")
     ones = xr.ones_like(rl["estimate"].isel({d: 0 for d in rl["estimate"].dims if d not in table_dims}, drop=True))
-    ds = xr.Dataset({
-        "areal_estimate_mm": describe(rl["estimate"], "areal_estimate_mm"),
-        "areal_lower_mm": describe(rl["lower"], "areal_lower_mm", label=f"lower {pct}"),
-        "areal_upper_mm": describe(rl["upper"], "areal_upper_mm", label=f"upper {pct}"),
-        "warming_factor": describe(ones, "warming_factor"),
-        "n_years": describe(ams.notnull().sum("year"), "n_years"),
-    })
+    ds = xr.Dataset(
+        {
+            "areal_estimate_mm": describe(rl["estimate"], "areal_estimate_mm"),
+            "areal_lower_mm": describe(rl["lower"], "areal_lower_mm", label=f"lower {pct}"),
+            "areal_upper_mm": describe(rl["upper"], "areal_upper_mm", label=f"upper {pct}"),
+            "warming_factor": describe(ones, "warming_factor"),
+            "n_years": describe(ams.notnull().sum("year"), "n_years"),
+        }
+    )
     ds["return_period"].attrs = {"units": "years", "long_name": "return period"}
-    ds.attrs = {"duration": ams.attrs.get("duration", ""), "ci": float(ci), "n_boot": int(n_boot), "seed": seed,
-                "year_start": year_start, "note": AREAL_NOTE, "cautions": list(DESIGN_DEPTH_CAUTIONS),
-                "interval": rl.attrs.get("interval_method", "")}
+    ds.attrs = {
+        "duration": ams.attrs.get("duration", ""),
+        "ci": float(ci),
+        "n_boot": int(n_boot),
+        "seed": seed,
+        "year_start": year_start,
+        "note": AREAL_NOTE,
+        "cautions": list(DESIGN_DEPTH_CAUTIONS),
+        "interval": rl.attrs.get("interval_method", ""),
+    }
     return ds
 
 
-def point_design_depths(pr: xr.DataArray, basins, periods=(2, 10, 25, 50, 100), ci: float = 0.9,
-                        n_boot: int = 500, n_sim: int = 500, year_start: int = 1, seed=0, min_years: int = 10,
-                        **duration) -> xr.Dataset:
+def point_design_depths(
+    pr: xr.DataArray,
+    basins,
+    periods=(2, 10, 25, 50, 100),
+    ci: float = 0.9,
+    n_boot: int = 500,
+    n_sim: int = 500,
+    year_start: int = 1,
+    seed=0,
+    min_years: int = 10,
+    **duration,
+) -> xr.Dataset:
     """At-site and regional point depths of each basin, side by side (lazy Dataset, basin × return_period).
 
     Both columns are point (cell) depths averaged over the basin, so they compare with each
@@ -173,13 +228,19 @@ def point_design_depths(pr: xr.DataArray, basins, periods=(2, 10, 25, 50, 100), 
     basins = as_basin_list(basins, "point_design_depths")
     ams = annual_maxima(pr, year_start=year_start, **(duration or {"duration_days": 1}))
     at_site = return_levels(ams, periods=periods, ci=ci, n_boot=n_boot, seed=seed, min_years=min_years)
-    regional = regional_frequency(ams, regions=basins, periods=periods, ci=ci, n_sim=n_sim, n_boot=n_boot,
-                                  seed=seed, min_years=min_years)
-    fields = xr.Dataset({
-        "point_at_site_mm": at_site["estimate"], "point_at_site_lower_mm": at_site["lower"],
-        "point_at_site_upper_mm": at_site["upper"], "point_regional_mm": regional["estimate"],
-        "point_regional_lower_mm": regional["lower"], "point_regional_upper_mm": regional["upper"],
-    }).rename(period="return_period")
+    regional = regional_frequency(
+        ams, regions=basins, periods=periods, ci=ci, n_sim=n_sim, n_boot=n_boot, seed=seed, min_years=min_years
+    )
+    fields = xr.Dataset(
+        {
+            "point_at_site_mm": at_site["estimate"],
+            "point_at_site_lower_mm": at_site["lower"],
+            "point_at_site_upper_mm": at_site["upper"],
+            "point_regional_mm": regional["estimate"],
+            "point_regional_lower_mm": regional["lower"],
+            "point_regional_upper_mm": regional["upper"],
+        }
+    ).rename(period="return_period")
     pct = f"{float(ci):.0%}"
     ds = xr.Dataset()
     for name in POINT_COLUMNS:
@@ -202,14 +263,20 @@ def point_design_depths(pr: xr.DataArray, basins, periods=(2, 10, 25, 50, 100), 
     discordant = [((cell_region == n) & (regional["discordancy"] > critical.sel(basin=n))).sum() for n in names]
     counted = [(cell_region == n).sum() for n in names]
     ds["heterogeneity_h1"] = describe(h1.drop_vars([c for c in h1.coords if c != "basin"]), "heterogeneity_h1")
-    ds["discordant_cells"] = describe(xr.concat(discordant, dim="basin").assign_coords(basin=names),
-                                      "discordant_cells")
+    ds["discordant_cells"] = describe(xr.concat(discordant, dim="basin").assign_coords(basin=names), "discordant_cells")
     ds["region_cells"] = describe(xr.concat(counted, dim="basin").assign_coords(basin=names), "region_cells")
     ds["return_period"].attrs = {"units": "years", "long_name": "return period"}
-    ds.attrs = {"duration": ams.attrs.get("duration", ""), "ci": float(ci), "n_boot": int(n_boot),
-                "n_sim": int(n_sim), "seed": seed, "year_start": year_start, "note": POINT_NOTE,
-                "cautions": list(DESIGN_DEPTH_CAUTIONS),
-                "heterogeneity_rule": regional.attrs.get("heterogeneity_rule", "")}
+    ds.attrs = {
+        "duration": ams.attrs.get("duration", ""),
+        "ci": float(ci),
+        "n_boot": int(n_boot),
+        "n_sim": int(n_sim),
+        "seed": seed,
+        "year_start": year_start,
+        "note": POINT_NOTE,
+        "cautions": list(DESIGN_DEPTH_CAUTIONS),
+        "heterogeneity_rule": regional.attrs.get("heterogeneity_rule", ""),
+    }
     return ds
 
 
@@ -246,11 +313,18 @@ def depth_table(ds: xr.Dataset, period=None, display: bool = False):
     return table
 
 
-
-
-def regional_depth_field(pr: xr.DataArray, basins, periods=(2, 10, 25, 50, 100), ci: float = 0.9,
-                         n_boot: int = 500, n_sim: int = 500, year_start: int = 1, seed=0, min_years: int = 10,
-                         **duration) -> xr.Dataset:
+def regional_depth_field(
+    pr: xr.DataArray,
+    basins,
+    periods=(2, 10, 25, 50, 100),
+    ci: float = 0.9,
+    n_boot: int = 500,
+    n_sim: int = 500,
+    year_start: int = 1,
+    seed=0,
+    min_years: int = 10,
+    **duration,
+) -> xr.Dataset:
     """Regional (index-flood) point depths of every cell, each basin pooled as one region (lazy).
 
     The per-cell counterpart of the regional columns of :func:`point_design_depths`: the
@@ -276,13 +350,18 @@ def regional_depth_field(pr: xr.DataArray, basins, periods=(2, 10, 25, 50, 100),
     """
     basins = as_basin_list(basins, "regional_depth_field")
     ams = annual_maxima(pr, year_start=year_start, **(duration or {"duration_days": 1}))
-    regional = regional_frequency(ams, regions=basins, periods=periods, ci=ci, n_sim=n_sim, n_boot=n_boot,
-                                  seed=seed, min_years=min_years)
+    regional = regional_frequency(
+        ams, regions=basins, periods=periods, ci=ci, n_sim=n_sim, n_boot=n_boot, seed=seed, min_years=min_years
+    )
     out = regional[["estimate", "lower", "upper", "cell_region", "H1"]]
     for name in ("estimate", "lower", "upper"):
         out[name].attrs["units"] = "mm"
-    out.attrs = {"duration": ams.attrs.get("duration", ""), "ci": float(ci), "method": "index flood, each basin "
-                 "one region (Hosking & Wallis 1997)", "cautions": list(DESIGN_DEPTH_CAUTIONS)}
+    out.attrs = {
+        "duration": ams.attrs.get("duration", ""),
+        "ci": float(ci),
+        "method": "index flood, each basin one region (Hosking & Wallis 1997)",
+        "cautions": list(DESIGN_DEPTH_CAUTIONS),
+    }
     return out
 
 

@@ -26,12 +26,20 @@ from ..geo.basinset import as_basin_list
 from .basins import basin_series
 from .meta import describe, frame, index_meta
 
-__all__ = ["gridded_indices", "index_map", "index_trend_map", "basin_index_table", "index_table", "INDEX_TABLE_COLUMNS",
-           "BASIN_INDEX_NOTE"]
+__all__ = [
+    "gridded_indices",
+    "index_map",
+    "index_trend_map",
+    "basin_index_table",
+    "index_table",
+    "INDEX_TABLE_COLUMNS",
+    "BASIN_INDEX_NOTE",
+]
 
 INDEX_TABLE_COLUMNS = ("area_km2", "index_mean", "index_slope", "index_pvalue", "n_index_years")
-BASIN_INDEX_NOTE = ("a basin's index is the area-weighted mean of the per-cell index, not the index of the "
-                    "basin-mean series")
+BASIN_INDEX_NOTE = (
+    "a basin's index is the area-weighted mean of the per-cell index, not the index of the basin-mean series"
+)
 
 
 def _index_attrs(name: str, compute_attrs: dict) -> dict:
@@ -41,8 +49,14 @@ def _index_attrs(name: str, compute_attrs: dict) -> dict:
     return attrs
 
 
-def gridded_indices(pr: xr.DataArray, names=None, base_period=(1961, 1990), year_start: int = 1,
-                    thresholds=(), indices: xr.Dataset | None = None) -> xr.Dataset:
+def gridded_indices(
+    pr: xr.DataArray,
+    names=None,
+    base_period=(1961, 1990),
+    year_start: int = 1,
+    thresholds=(),
+    indices: xr.Dataset | None = None,
+) -> xr.Dataset:
     """Per-cell, per-year ETCCDI indices with their display attributes (lazy).
 
     Parameters
@@ -59,8 +73,11 @@ def gridded_indices(pr: xr.DataArray, names=None, base_period=(1961, 1990), year
     -------
     xr.Dataset on (year, space) with one variable per index; attrs state the conventions.
     """
-    ds = indices if indices is not None else precip_indices(pr, names=names, base_period=base_period,
-                                                           year_start=year_start, thresholds=thresholds)
+    ds = (
+        indices
+        if indices is not None
+        else precip_indices(pr, names=names, base_period=base_period, year_start=year_start, thresholds=thresholds)
+    )
     out = ds.copy(deep=False)
     for name in ds.data_vars:
         out[name].attrs = _index_attrs(str(name), ds[name].attrs)
@@ -74,21 +91,33 @@ def _years(indices: xr.Dataset, period, source: str):
     try:
         first, last = (int(v) for v in period)
     except (TypeError, ValueError):
-        raise ParameterError(f"period={period!r} is not a pair of years", source=source, variable="period",
-                             expected="(first, last) years", fix="pass for example period=(1991, 2020)") from None
+        raise ParameterError(
+            f"period={period!r} is not a pair of years",
+            source=source,
+            variable="period",
+            expected="(first, last) years",
+            fix="pass for example period=(1991, 2020)",
+        ) from None
     if first > last or first < have.min() or last > have.max():
-        raise ParameterError(f"period {first}-{last} is not within the index years {have.min()}-{have.max()}",
-                             source=source, variable="period",
-                             expected=f"first <= last within {have.min()}-{have.max()}",
-                             fix="choose years inside the record, or period=None for all of them")
+        raise ParameterError(
+            f"period {first}-{last} is not within the index years {have.min()}-{have.max()}",
+            source=source,
+            variable="period",
+            expected=f"first <= last within {have.min()}-{have.max()}",
+            fix="choose years inside the record, or period=None for all of them",
+        )
     return first, last
 
 
 def _check_name(indices: xr.Dataset, name: str, source: str):
     if name not in indices.data_vars:
-        raise ParameterError(f"index {name!r} was not computed", source=source, variable="name",
-                             expected=f"one of {tuple(map(str, indices.data_vars))}",
-                             fix="add it to names= (or thresholds= for R<nn>mm)")
+        raise ParameterError(
+            f"index {name!r} was not computed",
+            source=source,
+            variable="name",
+            expected=f"one of {tuple(map(str, indices.data_vars))}",
+            fix="add it to names= (or thresholds= for R<nn>mm)",
+        )
 
 
 def index_map(indices: xr.Dataset, name: str, period=None) -> xr.DataArray:
@@ -114,19 +143,34 @@ def index_trend_map(indices: xr.Dataset, name: str, period=None) -> xr.Dataset:
     _check_name(indices, name, "index_trend_map")
     first, last = _years(indices, period, "index_trend_map")
     if last - first < 2:
-        raise ParameterError(f"period {first}-{last} has fewer than 3 years", source="index_trend_map",
-                             variable="period", expected="at least 3 years for a trend",
-                             fix="choose a longer period")
+        raise ParameterError(
+            f"period {first}-{last} has fewer than 3 years",
+            source="index_trend_map",
+            variable="period",
+            expected="at least 3 years for a trend",
+            fix="choose a longer period",
+        )
     attrs = indices[name].attrs
     units, shown = attrs.get("units", ""), attrs.get("display_units", "")
     tr = trend(indices[name].sel(year=slice(first, last)), dim="year")
     slope = (10.0 * tr["slope"]).rename("slope_per_decade")
-    slope.attrs = {"units": f"{units}/decade", "label": f"{name} Sen slope", "display_units": f"{shown} per decade",
-                   "display_format": ".3g", "years": f"{first}-{last}",
-                   "description": f"Sen slope of the per-year {name}, per decade"}
+    slope.attrs = {
+        "units": f"{units}/decade",
+        "label": f"{name} Sen slope",
+        "display_units": f"{shown} per decade",
+        "display_format": ".3g",
+        "years": f"{first}-{last}",
+        "description": f"Sen slope of the per-year {name}, per decade",
+    }
     pvalue = tr["pvalue"].rename("pvalue")
-    pvalue.attrs = {"units": "1", "label": f"{name} Mann-Kendall p", "display_units": "", "display_format": ".2f",
-                    "years": f"{first}-{last}", "description": "two-sided Mann-Kendall p-value of the per-year index"}
+    pvalue.attrs = {
+        "units": "1",
+        "label": f"{name} Mann-Kendall p",
+        "display_units": "",
+        "display_format": ".2f",
+        "years": f"{first}-{last}",
+        "description": "two-sided Mann-Kendall p-value of the per-year index",
+    }
     return xr.Dataset({"slope_per_decade": slope, "pvalue": pvalue})
 
 
@@ -144,30 +188,61 @@ def basin_index_table(indices: xr.Dataset, basins, name: str, period=None) -> xr
     units, shown = attrs.get("units", ""), attrs.get("display_units", "")
     per_year = basin_series(indices[name].sel(year=slice(first, last)).assign_attrs(units=units), basins)
     per_year = per_year.reset_coords(drop=True)
-    areas = xr.DataArray(np.array([b.area_m2 for b in basins]) / 1e6, dims="basin",
-                         coords={"basin": [b.name for b in basins]})
-    ds = xr.Dataset({
-        "area_km2": describe(areas, "area_km2"),
-        "index_mean": describe(per_year.mean("year"), "index_mean", label=f"{name} mean", units=units,
-                               display_units=shown, display_format=attrs.get("display_format", ".4g")),
-        "n_index_years": describe(per_year.notnull().sum("year"), "n_index_years"),
-        "index_per_year": per_year.assign_attrs(label=f"{name} per year", units=units, display_units=shown,
-                                                long_name=attrs.get("label", name)),
-    })
+    areas = xr.DataArray(
+        np.array([b.area_m2 for b in basins]) / 1e6, dims="basin", coords={"basin": [b.name for b in basins]}
+    )
+    ds = xr.Dataset(
+        {
+            "area_km2": describe(areas, "area_km2"),
+            "index_mean": describe(
+                per_year.mean("year"),
+                "index_mean",
+                label=f"{name} mean",
+                units=units,
+                display_units=shown,
+                display_format=attrs.get("display_format", ".4g"),
+            ),
+            "n_index_years": describe(per_year.notnull().sum("year"), "n_index_years"),
+            "index_per_year": per_year.assign_attrs(
+                label=f"{name} per year", units=units, display_units=shown, long_name=attrs.get("label", name)
+            ),
+        }
+    )
     if per_year.sizes["year"] >= 3:
         try:
             tr = trend(per_year, dim="year")
         except InsufficientDataError:
             tr = None
         if tr is not None:
-            ds["index_slope"] = describe(tr["slope"], "index_slope", label=f"{name} Sen slope",
-                                         units=f"{units}/yr", display_units=f"{shown} per decade")
+            ds["index_slope"] = describe(
+                tr["slope"],
+                "index_slope",
+                label=f"{name} Sen slope",
+                units=f"{units}/yr",
+                display_units=f"{shown} per decade",
+            )
             ds["index_pvalue"] = describe(tr["pvalue"], "index_pvalue")
             ds["index_intercept"] = tr["intercept"].assign_attrs(units=units)
-    ds.attrs = {"index": name, "first_year": first, "last_year": last, "note": BASIN_INDEX_NOTE,
-                **{k: v for k, v in indices.attrs.items() if k in ("wet_day", "spell_convention", "missing_rule",
-                                                                   "percentile_method", "base_period",
-                                                                   "year_label", "history")}}
+    ds.attrs = {
+        "index": name,
+        "first_year": first,
+        "last_year": last,
+        "note": BASIN_INDEX_NOTE,
+        **{
+            k: v
+            for k, v in indices.attrs.items()
+            if k
+            in (
+                "wet_day",
+                "spell_convention",
+                "missing_rule",
+                "percentile_method",
+                "base_period",
+                "year_label",
+                "history",
+            )
+        },
+    }
     return ds
 
 

@@ -66,11 +66,31 @@ from ..compute.depth_units import MM_PER_INCH
 from ..errors import ParameterError
 from ..geo.aggregate import ACRE_FOOT_M3
 
-__all__ = ["Meta", "CATALOGUE", "INDEX_CATALOGUE", "ENSEMBLE_STATS", "MEMBER_VIEWS", "ensemble_attrs",
-           "member_view_attrs", "member_view_words", "index_meta", "describe",
-           "frame", "display_frame", "people_frame", "column_heading", "format_cell", "table_variables",
-           "UNIT_SYSTEMS", "KM2_PER_MI2", "unit_system", "unit_attrs", "to_units", "shown_in_units",
-           "field_in_units"]
+__all__ = [
+    "Meta",
+    "CATALOGUE",
+    "INDEX_CATALOGUE",
+    "ENSEMBLE_STATS",
+    "MEMBER_VIEWS",
+    "ensemble_attrs",
+    "member_view_attrs",
+    "member_view_words",
+    "index_meta",
+    "describe",
+    "frame",
+    "display_frame",
+    "people_frame",
+    "column_heading",
+    "format_cell",
+    "table_variables",
+    "UNIT_SYSTEMS",
+    "KM2_PER_MI2",
+    "unit_system",
+    "unit_attrs",
+    "to_units",
+    "shown_in_units",
+    "field_in_units",
+]
 
 
 @dataclass(frozen=True)
@@ -85,155 +105,299 @@ class Meta:
     display_format: str = ".4g"
 
     def attrs(self) -> dict:
-        return {"label": self.label, "units": self.units, "description": self.description,
-                "display_units": self.units if self.display_units is None else self.display_units,
-                "display_scale": float(self.display_scale), "display_format": self.display_format}
+        return {
+            "label": self.label,
+            "units": self.units,
+            "description": self.description,
+            "display_units": self.units if self.display_units is None else self.display_units,
+            "display_scale": float(self.display_scale),
+            "display_format": self.display_format,
+        }
 
 
-_AREA = ("area of the basin outline on the sphere of the authalic radius 6 371 007.2 m "
-         "(edges straight in lon/lat); every table, volume and export uses this one area")
+_AREA = (
+    "area of the basin outline on the sphere of the authalic radius 6 371 007.2 m "
+    "(edges straight in lon/lat); every table, volume and export uses this one area"
+)
 
 #: The suite's result variables by name.  An analysis may override any field per call
 #: (for example a label that names the confidence level) through :func:`describe`.
 CATALOGUE: dict[str, Meta] = {
     # basin table
     "area_km2": Meta("area", "km2", _AREA, "km²", 1.0, ",.1f"),
-    "annual_mean_mm": Meta("mean annual total", "mm", "mean of the basin's annual totals over the complete years",
-                           "mm", 1.0, ",.0f"),
+    "annual_mean_mm": Meta(
+        "mean annual total", "mm", "mean of the basin's annual totals over the complete years", "mm", 1.0, ",.0f"
+    ),
     "n_years": Meta("complete years", "1", "number of complete years behind the annual mean", "", 1.0, ".0f"),
-    "seasonal_share_1": Meta("seasonal share", "1", "share of the annual total that falls in the season "
-                             "(ratio of the basin's seasonal and annual sums)", "%", 100.0, ".1f"),
-    "normal_annual_mm": Meta("annual normal", "mm", "sum of the basin's 12 monthly normals over the baseline",
-                             "mm", 1.0, ",.0f"),
-    "volume_per_year_m3": Meta("volume per year", "m3", "annual mean depth times the basin area",
-                               "million m³", 1e-6, ",.2f"),
-    "volume_per_year_acre_ft": Meta("volume per year", "acre-ft", "annual mean depth times the basin area, "
-                                    "in acre-feet (international foot)", "acre-ft", 1.0, ",.0f"),
+    "seasonal_share_1": Meta(
+        "seasonal share",
+        "1",
+        "share of the annual total that falls in the season (ratio of the basin's seasonal and annual sums)",
+        "%",
+        100.0,
+        ".1f",
+    ),
+    "normal_annual_mm": Meta(
+        "annual normal", "mm", "sum of the basin's 12 monthly normals over the baseline", "mm", 1.0, ",.0f"
+    ),
+    "volume_per_year_m3": Meta(
+        "volume per year", "m3", "annual mean depth times the basin area", "million m³", 1e-6, ",.2f"
+    ),
+    "volume_per_year_acre_ft": Meta(
+        "volume per year",
+        "acre-ft",
+        "annual mean depth times the basin area, in acre-feet (international foot)",
+        "acre-ft",
+        1.0,
+        ",.0f",
+    ),
     "latest_year": Meta("latest year", "1", "the last complete year of the record", "", 1.0, ".0f"),
     "latest_year_mm": Meta("latest year total", "mm", "total of the latest complete year", "mm", 1.0, ",.0f"),
-    "latest_year_percent_of_normal": Meta("latest year, percent of normal", "%",
-                                          "latest year's total against the annual normal", "%", 1.0, ".0f"),
-    "data_coverage_1": Meta("area with data", "1", "smallest share of the basin's weighted area with data "
-                            "in any month of the record (1 = complete)", "%", 100.0, ".0f"),
+    "latest_year_percent_of_normal": Meta(
+        "latest year, percent of normal", "%", "latest year's total against the annual normal", "%", 1.0, ".0f"
+    ),
+    "data_coverage_1": Meta(
+        "area with data",
+        "1",
+        "smallest share of the basin's weighted area with data in any month of the record (1 = complete)",
+        "%",
+        100.0,
+        ".0f",
+    ),
     # seasonal share per basin
-    "share_slope": Meta("Sen slope of the seasonal share", "1/yr", "Sen slope of the basin's per-year share",
-                        "% points per decade", 1000.0, ".2f"),
-    "share_pvalue": Meta("Mann-Kendall p", "1", "two-sided Mann-Kendall p-value of the per-year share", "", 1.0,
-                         ".2f"),
+    "share_slope": Meta(
+        "Sen slope of the seasonal share",
+        "1/yr",
+        "Sen slope of the basin's per-year share",
+        "% points per decade",
+        1000.0,
+        ".2f",
+    ),
+    "share_pvalue": Meta("Mann-Kendall p", "1", "two-sided Mann-Kendall p-value of the per-year share", "", 1.0, ".2f"),
     "n_share_years": Meta("years", "1", "years with a seasonal share", "", 1.0, ".0f"),
     # what-if
     "season": Meta("season", "", "the season whose precipitation is changed", "", 1.0, ""),
     "percent": Meta("change", "%", "change applied to the season's precipitation", "%", 1.0, ".1f"),
     "n_seasons": Meta("seasons used", "1", "complete seasons behind the mean", "", 1.0, ".0f"),
-    "seasonal_volume_per_year_m3": Meta("season's volume per year", "m3", "mean seasonal depth times the basin "
-                                        "area", "million m³", 1e-6, ",.2f"),
-    "delta_volume_per_year_m3": Meta("change in volume per year", "m3", "the season's volume times the change",
-                                     "million m³", 1e-6, ",.2f"),
-    "delta_volume_per_year_acre_ft": Meta("change in volume per year", "acre-ft", "the change in acre-feet",
-                                          "acre-ft", 1.0, ",.0f"),
+    "seasonal_volume_per_year_m3": Meta(
+        "season's volume per year", "m3", "mean seasonal depth times the basin area", "million m³", 1e-6, ",.2f"
+    ),
+    "delta_volume_per_year_m3": Meta(
+        "change in volume per year", "m3", "the season's volume times the change", "million m³", 1e-6, ",.2f"
+    ),
+    "delta_volume_per_year_acre_ft": Meta(
+        "change in volume per year", "acre-ft", "the change in acre-feet", "acre-ft", 1.0, ",.0f"
+    ),
     # areal design depths
     "return_period": Meta("return period", "yr", "average recurrence interval", "years", 1.0, "g"),
-    "point_at_site_mm": Meta("point depth, at-site", "mm",
-                             "basin mean of each cell's own GEV return level (L-moments)", "mm", 1.0, ".1f"),
-    "point_at_site_lower_mm": Meta("at-site lower", "mm", "basin mean of the cells' lower interval ends", "mm",
-                                   1.0, ".1f"),
-    "point_at_site_upper_mm": Meta("at-site upper", "mm", "basin mean of the cells' upper interval ends", "mm",
-                                   1.0, ".1f"),
-    "point_regional_mm": Meta("point depth, regional", "mm",
-                              "basin mean of index (mean annual maximum) x the basin's regional growth curve",
-                              "mm", 1.0, ".1f"),
-    "point_regional_lower_mm": Meta("regional lower", "mm", "basin mean of the regional lower interval ends", "mm",
-                                    1.0, ".1f"),
-    "point_regional_upper_mm": Meta("regional upper", "mm", "basin mean of the regional upper interval ends", "mm",
-                                    1.0, ".1f"),
-    "heterogeneity_h1": Meta("heterogeneity H1", "1",
-                             "Hosking-Wallis H from the L-CV: < 1 acceptably homogeneous, >= 2 heterogeneous",
-                             "", 1.0, ".2f"),
+    "point_at_site_mm": Meta(
+        "point depth, at-site", "mm", "basin mean of each cell's own GEV return level (L-moments)", "mm", 1.0, ".1f"
+    ),
+    "point_at_site_lower_mm": Meta(
+        "at-site lower", "mm", "basin mean of the cells' lower interval ends", "mm", 1.0, ".1f"
+    ),
+    "point_at_site_upper_mm": Meta(
+        "at-site upper", "mm", "basin mean of the cells' upper interval ends", "mm", 1.0, ".1f"
+    ),
+    "point_regional_mm": Meta(
+        "point depth, regional",
+        "mm",
+        "basin mean of index (mean annual maximum) x the basin's regional growth curve",
+        "mm",
+        1.0,
+        ".1f",
+    ),
+    "point_regional_lower_mm": Meta(
+        "regional lower", "mm", "basin mean of the regional lower interval ends", "mm", 1.0, ".1f"
+    ),
+    "point_regional_upper_mm": Meta(
+        "regional upper", "mm", "basin mean of the regional upper interval ends", "mm", 1.0, ".1f"
+    ),
+    "heterogeneity_h1": Meta(
+        "heterogeneity H1",
+        "1",
+        "Hosking-Wallis H from the L-CV: < 1 acceptably homogeneous, >= 2 heterogeneous",
+        "",
+        1.0,
+        ".2f",
+    ),
     "discordant_cells": Meta("discordant cells", "1", "cells whose D_i exceeds the critical value", "", 1.0, ".0f"),
-    "region_cells": Meta("cells in region", "1", "cells pooled in the basin's region (at least half covered)", "",
-                         1.0, ".0f"),
-    "areal_estimate_mm": Meta("areal depth", "mm", "return level of the basin-mean annual maxima", "mm", 1.0,
-                              ".1f"),
+    "region_cells": Meta(
+        "cells in region", "1", "cells pooled in the basin's region (at least half covered)", "", 1.0, ".0f"
+    ),
+    "areal_estimate_mm": Meta("areal depth", "mm", "return level of the basin-mean annual maxima", "mm", 1.0, ".1f"),
     "areal_lower_mm": Meta("lower", "mm", "lower end of the bootstrap interval", "mm", 1.0, ".1f"),
     "areal_upper_mm": Meta("upper", "mm", "upper end of the bootstrap interval", "mm", 1.0, ".1f"),
     "warming_factor": Meta("warming factor", "1", "(1 + rate) ** warming applied to the depths", "", 1.0, ".3f"),
     # where a step stands in each basin's record (analyses.anomalies; label and units set per call)
     "anomaly_at_step": Meta("anomaly", "", "the basin's anomaly at the step shown", None, 1.0, ".2f"),
-    "rank_from_driest": Meta("rank (1 = driest)", "1", "place of the step among the record's steps, counted "
-                             "from the driest", "", 1.0, ".0f"),
+    "rank_from_driest": Meta(
+        "rank (1 = driest)", "1", "place of the step among the record's steps, counted from the driest", "", 1.0, ".0f"
+    ),
     "steps_in_record": Meta("steps in record", "1", "steps of the record with a value", "", 1.0, ".0f"),
     "driest_in_record": Meta("driest in record", "", "lowest anomaly of the record", None, 1.0, ".2f"),
     "wettest_in_record": Meta("wettest in record", "", "highest anomaly of the record", None, 1.0, ".2f"),
     "spi_class": Meta("SPI class", "", "class of the SPI value (WMO 2012, SPI User Guide, Table 1)", "", 1.0, ""),
     # windward / leeward bands
-    "windward_mean": Meta("windward mean", "mm/yr", "mean annual total of the windward cells of the band",
-                          "mm per year", 1.0, ",.0f"),
-    "leeward_mean": Meta("leeward mean", "mm/yr", "mean annual total of the leeward cells of the band",
-                         "mm per year", 1.0, ",.0f"),
+    "windward_mean": Meta(
+        "windward mean", "mm/yr", "mean annual total of the windward cells of the band", "mm per year", 1.0, ",.0f"
+    ),
+    "leeward_mean": Meta(
+        "leeward mean", "mm/yr", "mean annual total of the leeward cells of the band", "mm per year", 1.0, ",.0f"
+    ),
     "ratio": Meta("leeward / windward", "1", "leeward mean over windward mean", "", 1.0, ".3f"),
     "ratio_lower": Meta("lower", "1", "lower end of the bootstrap interval of the ratio", "", 1.0, ".3f"),
     "ratio_upper": Meta("upper", "1", "upper end of the bootstrap interval of the ratio", "", 1.0, ".3f"),
-    "model_ratio": Meta("linear model leeward / windward", "1", "the same ratio for the linear orographic "
-                        "model (Smith and Barstad 2004)", "", 1.0, ".3f"),
+    "model_ratio": Meta(
+        "linear model leeward / windward",
+        "1",
+        "the same ratio for the linear orographic model (Smith and Barstad 2004)",
+        "",
+        1.0,
+        ".3f",
+    ),
     # products
-    "seasonal_share": Meta("seasonal share", "1", "share of the annual total falling in the season "
-                           "(ratio of sums)", "fraction", 1.0, ".3f"),
-    "normal_mm": Meta("annual normal", "mm", "sum of the 12 monthly normals over the baseline", "mm", 1.0,
-                      ",.0f"),
+    "seasonal_share": Meta(
+        "seasonal share", "1", "share of the annual total falling in the season (ratio of sums)", "fraction", 1.0, ".3f"
+    ),
+    "normal_mm": Meta("annual normal", "mm", "sum of the 12 monthly normals over the baseline", "mm", 1.0, ",.0f"),
     "trend_mm_per_year": Meta("Sen slope", "mm/yr", "Sen slope of the annual totals", "mm per year", 1.0, ".2f"),
-    "trend_pvalue": Meta("Mann-Kendall p-value", "1", "two-sided Mann-Kendall p-value of the annual totals", "",
-                         1.0, ".2f"),
+    "trend_pvalue": Meta(
+        "Mann-Kendall p-value", "1", "two-sided Mann-Kendall p-value of the annual totals", "", 1.0, ".2f"
+    ),
     # depth-duration-frequency tables (units "mm" or "in", set per call)
     "duration": Meta("duration", "", "duration of the running total", "", 1.0, ""),
-    "ddf_estimate": Meta("depth", "", "GEV (L-moment) return level of the annual maxima of running totals, "
-                         "raised where needed so depths never fall with duration", None, 1.0, ".1f"),
+    "ddf_estimate": Meta(
+        "depth",
+        "",
+        "GEV (L-moment) return level of the annual maxima of running totals, "
+        "raised where needed so depths never fall with duration",
+        None,
+        1.0,
+        ".1f",
+    ),
     "ddf_lower": Meta("lower", "", "lower end of the bootstrap interval", None, 1.0, ".1f"),
     "ddf_upper": Meta("upper", "", "upper end of the bootstrap interval", None, 1.0, ".1f"),
     # precipitation indices per basin (labels name the index per call)
-    "index_mean": Meta("mean", "", "mean over the period's years of the basin mean of the per-cell index",
-                       None, 1.0, ".4g"),
+    "index_mean": Meta(
+        "mean", "", "mean over the period's years of the basin mean of the per-cell index", None, 1.0, ".4g"
+    ),
     "index_slope": Meta("Sen slope", "", "Sen slope of the basin's per-year index, per decade", None, 10.0, ",.2f"),
-    "index_pvalue": Meta("Mann-Kendall p", "1", "two-sided Mann-Kendall p-value of the basin's per-year index",
-                         "", 1.0, ".2f"),
+    "index_pvalue": Meta(
+        "Mann-Kendall p", "1", "two-sided Mann-Kendall p-value of the basin's per-year index", "", 1.0, ".2f"
+    ),
     "n_index_years": Meta("years", "1", "years with a value behind the mean and the trend", "", 1.0, ".0f"),
     # climate-change signals per basin (analyses.scenario)
-    "share_change_1": Meta("change in seasonal share", "1", "future minus historical seasonal share of the "
-                           "basin (ratio of sums over each period)", "% points", 100.0, "+.1f"),
-    "normal_change_1": Meta("change in annual normal", "1", "future over historical annual normal of the basin, "
-                            "minus one", "%", 100.0, "+.1f"),
-    "historical_depth_mm": Meta("areal design depth, historical", "mm", "return level of the basin-mean "
-                                "annual maxima of the historical run", "mm", 1.0, ".1f"),
-    "future_depth_mm": Meta("areal design depth, future", "mm", "return level of the basin-mean annual maxima "
-                            "of the future run", "mm", 1.0, ".1f"),
-    "depth_change_1": Meta("change in design depth", "1", "future over historical areal design depth of the "
-                           "basin, minus one", "%", 100.0, "+.1f"),
-    "agreement_1": Meta("members agreeing", "1", "share of members whose change has the sign of the "
-                        "ensemble-median change", "%", 100.0, ".0f"),
+    "share_change_1": Meta(
+        "change in seasonal share",
+        "1",
+        "future minus historical seasonal share of the basin (ratio of sums over each period)",
+        "% points",
+        100.0,
+        "+.1f",
+    ),
+    "normal_change_1": Meta(
+        "change in annual normal",
+        "1",
+        "future over historical annual normal of the basin, minus one",
+        "%",
+        100.0,
+        "+.1f",
+    ),
+    "historical_depth_mm": Meta(
+        "areal design depth, historical",
+        "mm",
+        "return level of the basin-mean annual maxima of the historical run",
+        "mm",
+        1.0,
+        ".1f",
+    ),
+    "future_depth_mm": Meta(
+        "areal design depth, future",
+        "mm",
+        "return level of the basin-mean annual maxima of the future run",
+        "mm",
+        1.0,
+        ".1f",
+    ),
+    "depth_change_1": Meta(
+        "change in design depth",
+        "1",
+        "future over historical areal design depth of the basin, minus one",
+        "%",
+        100.0,
+        "+.1f",
+    ),
+    "agreement_1": Meta(
+        "members agreeing",
+        "1",
+        "share of members whose change has the sign of the ensemble-median change",
+        "%",
+        100.0,
+        ".0f",
+    ),
 }
 
 
 #: ETCCDI precipitation indices (Karl, Nicholls & Ghazi 1999; Zhang et al. 2011), shown under their
 #: short names.  ``R<nn>mm`` for any threshold is made by :func:`index_meta`.
 INDEX_CATALOGUE: dict[str, Meta] = {
-    "PRCPTOT": Meta("PRCPTOT, total on wet days", "mm", "sum of daily precipitation on wet days (at least 1 mm)",
-                    "mm", 1.0, ",.0f"),
-    "SDII": Meta("SDII, mean wet-day intensity", "mm d-1", "PRCPTOT divided by the number of wet days "
-                 "(at least 1 mm)", "mm per wet day", 1.0, ".1f"),
-    "CDD": Meta("CDD, longest dry spell", "d", "longest run of days with less than 1 mm, cut at the year "
-                "boundary (each part counts in its own year)", "days", 1.0, ".0f"),
-    "CWD": Meta("CWD, longest wet spell", "d", "longest run of days with at least 1 mm, cut at the year "
-                "boundary (each part counts in its own year)", "days", 1.0, ".0f"),
+    "PRCPTOT": Meta(
+        "PRCPTOT, total on wet days", "mm", "sum of daily precipitation on wet days (at least 1 mm)", "mm", 1.0, ",.0f"
+    ),
+    "SDII": Meta(
+        "SDII, mean wet-day intensity",
+        "mm d-1",
+        "PRCPTOT divided by the number of wet days (at least 1 mm)",
+        "mm per wet day",
+        1.0,
+        ".1f",
+    ),
+    "CDD": Meta(
+        "CDD, longest dry spell",
+        "d",
+        "longest run of days with less than 1 mm, cut at the year boundary (each part counts in its own year)",
+        "days",
+        1.0,
+        ".0f",
+    ),
+    "CWD": Meta(
+        "CWD, longest wet spell",
+        "d",
+        "longest run of days with at least 1 mm, cut at the year boundary (each part counts in its own year)",
+        "days",
+        1.0,
+        ".0f",
+    ),
     "R10mm": Meta("R10mm, days with at least 10 mm", "d", "count of days with 10 mm or more", "days", 1.0, ".1f"),
     "R20mm": Meta("R20mm, days with at least 20 mm", "d", "count of days with 20 mm or more", "days", 1.0, ".1f"),
-    "R95p": Meta("R95p, total on very wet days", "mm", "precipitation on wet days above the 95th percentile of "
-                 "the base period's wet days", "mm", 1.0, ",.0f"),
-    "R99p": Meta("R99p, total on extremely wet days", "mm", "precipitation on wet days above the 99th percentile "
-                 "of the base period's wet days", "mm", 1.0, ",.0f"),
+    "R95p": Meta(
+        "R95p, total on very wet days",
+        "mm",
+        "precipitation on wet days above the 95th percentile of the base period's wet days",
+        "mm",
+        1.0,
+        ",.0f",
+    ),
+    "R99p": Meta(
+        "R99p, total on extremely wet days",
+        "mm",
+        "precipitation on wet days above the 99th percentile of the base period's wet days",
+        "mm",
+        1.0,
+        ",.0f",
+    ),
     "R95pTOT": Meta("R95pTOT, share from very wet days", "%", "100 × R95p / PRCPTOT", "%", 1.0, ".1f"),
     "R99pTOT": Meta("R99pTOT, share from extremely wet days", "%", "100 × R99p / PRCPTOT", "%", 1.0, ".1f"),
     "Rx1day": Meta("Rx1day, wettest day", "mm", "largest daily depth of the year", "mm", 1.0, ".1f"),
-    "Rx5day": Meta("Rx5day, wettest 5 days", "mm", "largest sum over 5 consecutive days; a window belongs to "
-                   "the year of its last day", "mm", 1.0, ".1f"),
+    "Rx5day": Meta(
+        "Rx5day, wettest 5 days",
+        "mm",
+        "largest sum over 5 consecutive days; a window belongs to the year of its last day",
+        "mm",
+        1.0,
+        ".1f",
+    ),
 }
 
 
@@ -247,8 +411,9 @@ def index_meta(name: str) -> Meta:
     if m is None:
         raise KeyError(f"{name!r} is not an ETCCDI precipitation index")
     nn = float(m.group(1))
-    return Meta(f"{name}, days with at least {nn:g} mm", "d", f"count of days with {nn:g} mm or more", "days",
-                1.0, ".1f")
+    return Meta(
+        f"{name}, days with at least {nn:g} mm", "d", f"count of days with {nn:g} mm or more", "days", 1.0, ".1f"
+    )
 
 
 #: How each ensemble figure of a basin table is named: the column's own label followed by
@@ -269,10 +434,16 @@ ENSEMBLE_STATS: dict[str, str] = {
 #: what the number is.  Both keep the units of the number they summarise (the spread is a
 #: difference of two members, so a share in % becomes a spread in % points).
 MEMBER_VIEWS: dict[str, dict[str, str]] = {
-    "mean": {"label": "ensemble mean", "tag": "ensemble-mean",
-             "description": "mean over the members (a member without a value is left out)"},
-    "spread": {"label": "spread between members", "tag": "ensemble-spread",
-               "description": "highest minus lowest member (a member without a value is left out)"},
+    "mean": {
+        "label": "ensemble mean",
+        "tag": "ensemble-mean",
+        "description": "mean over the members (a member without a value is left out)",
+    },
+    "spread": {
+        "label": "spread between members",
+        "tag": "ensemble-spread",
+        "description": "highest minus lowest member (a member without a value is left out)",
+    },
 }
 
 
@@ -322,9 +493,18 @@ def ensemble_attrs(attrs: dict, stat: str, words: str | None = None) -> dict:
 def describe(da: xr.DataArray, name: str, **overrides) -> xr.DataArray:
     """``da`` named ``name`` with the display attributes of :data:`CATALOGUE` (and overrides)."""
     meta = CATALOGUE.get(name)
-    attrs = meta.attrs() if meta is not None else {"label": name.replace("_", " "), "units": "",
-                                                   "description": "", "display_units": "",
-                                                   "display_scale": 1.0, "display_format": ".4g"}
+    attrs = (
+        meta.attrs()
+        if meta is not None
+        else {
+            "label": name.replace("_", " "),
+            "units": "",
+            "description": "",
+            "display_units": "",
+            "display_scale": 1.0,
+            "display_format": ".4g",
+        }
+    )
     attrs.update(overrides)
     if "units" in overrides and "display_units" not in overrides and meta is not None and meta.units == "":
         attrs["display_units"] = overrides["units"]
@@ -370,7 +550,7 @@ def table_variables(ds: xr.Dataset, index) -> list[str]:
 UNIT_SYSTEMS: dict[str, str] = {"SI": "SI (mm, million m³, km²)", "US": "US customary (in, acre-ft, mi²)"}
 
 #: Square kilometres in one square statute mile: (1.609344 km)² (international mile, 1959).
-KM2_PER_MI2 = 1.609344 ** 2
+KM2_PER_MI2 = 1.609344**2
 
 _SYSTEM_WORDS = {"si": "SI", "metric": "SI", "us": "US", "us customary": "US", "customary": "US"}
 
@@ -385,9 +565,13 @@ def unit_system(units, source: str = "units") -> str:
     """
     key = str(units).strip().lower() if isinstance(units, str) else None
     if key not in _SYSTEM_WORDS:
-        raise ParameterError(f"units={units!r} is not a unit system offered here", source=source,
-                             variable="units", expected="'SI' (mm, million m³, km²) or 'US' (in, acre-ft, mi²)",
-                             fix="pass units='SI' (default) or units='US'")
+        raise ParameterError(
+            f"units={units!r} is not a unit system offered here",
+            source=source,
+            variable="units",
+            expected="'SI' (mm, million m³, km²) or 'US' (in, acre-ft, mi²)",
+            fix="pass units='SI' (default) or units='US'",
+        )
     return _SYSTEM_WORDS[key]
 
 
@@ -458,8 +642,11 @@ def unit_attrs(attrs: dict, units: str = "SI") -> dict:
     if words is not None:
         out["display_units"] = words
     else:  # "mm" -> "in", "mm per year" -> "in per year", "mm per decade" -> "in per decade"
-        out["display_units"] = re.sub(r"^mm(?![a-zA-Z])", "in", si_units) if si_units.startswith("mm") \
+        out["display_units"] = (
+            re.sub(r"^mm(?![a-zA-Z])", "in", si_units)
+            if si_units.startswith("mm")
             else "in" + str(attrs.get("units", ""))[2:]
+        )
     out["display_format"] = rule(str(attrs.get("display_format") or ".4g"))
     return out
 
@@ -519,8 +706,7 @@ def to_units(table: pd.DataFrame, units: str = "SI") -> pd.DataFrame:
         attrs = dict(attrs)
         conv = _us_conversion(attrs.get("units", "")) if system == "US" else None
         if conv is None:
-            meta[col] = {**attrs, "values_in": attrs.get("values_in", attrs.get("units", "")),
-                         "unit_system": system}
+            meta[col] = {**attrs, "values_in": attrs.get("values_in", attrs.get("units", "")), "unit_system": system}
             continue
         factor, cf, _, _ = conv
         shown = unit_attrs(attrs, "US")
@@ -586,12 +772,15 @@ def field_in_units(field: xr.DataArray, units: str = "SI", label: str | None = N
         if "[" in label and f"[{old_units}]" not in label:
             return field, label  # a label naming other units: drawn as labelled, never mislabelled
         label = label.replace(f"[{old_units}]", f"[{new['display_units']}]")
-    return field.assign_attrs(display_scale=new["display_scale"], display_units=new["display_units"],
-                              display_format=new["display_format"], unit_system=system), label
+    return field.assign_attrs(
+        display_scale=new["display_scale"],
+        display_units=new["display_units"],
+        display_format=new["display_format"],
+        unit_system=system,
+    ), label
 
 
-def frame(ds: xr.Dataset, index=("basin",), display: bool = False, columns=None,
-          units: str = "SI") -> pd.DataFrame:
+def frame(ds: xr.Dataset, index=("basin",), display: bool = False, columns=None, units: str = "SI") -> pd.DataFrame:
     """A table of the described variables of ``ds`` over the ``index`` dims.
 
     ``display=False`` gives the numbers as stored, with the variable names as columns
@@ -614,8 +803,13 @@ def frame(ds: xr.Dataset, index=("basin",), display: bool = False, columns=None,
     table = table.drop(columns=[c for c in table.columns if c not in names])
     for name in names:  # stored ints come back as floats where NaN is possible
         col = table[name]
-        if (ds[name].attrs.get("units") == "1" and ds[name].attrs.get("display_format") == ".0f"
-                and pd.api.types.is_numeric_dtype(col) and col.notna().all() and (col % 1 == 0).all()):
+        if (
+            ds[name].attrs.get("units") == "1"
+            and ds[name].attrs.get("display_format") == ".0f"
+            and pd.api.types.is_numeric_dtype(col)
+            and col.notna().all()
+            and (col % 1 == 0).all()
+        ):
             table[name] = table[name].astype("int64")
     meta = {}
     if display:
@@ -630,8 +824,10 @@ def frame(ds: xr.Dataset, index=("basin",), display: bool = False, columns=None,
             meta[heading] = {**attrs, "values_in": attrs.get("display_units", attrs.get("units", ""))}
         table = _drop_twins(table, renamed, {n: ds[n].attrs for n in names}).rename(columns=renamed)
     else:
-        meta = {name: {**ds[name].attrs, "values_in": ds[name].attrs.get("units", ""), "unit_system": "SI"}
-                for name in names}
+        meta = {
+            name: {**ds[name].attrs, "values_in": ds[name].attrs.get("units", ""), "unit_system": "SI"}
+            for name in names
+        }
     table.attrs = {"columns": meta}
     if not display and system != "SI":
         return to_units(table, system)

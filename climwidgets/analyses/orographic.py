@@ -17,8 +17,15 @@ from ..compute.totals import annual_totals
 from ..errors import InsufficientDataError
 from .meta import describe, frame
 
-__all__ = ["band_dataset", "band_table", "orographic_contrast", "BAND_COLUMNS", "MODEL_NOTE",
-           "MODEL_BACKGROUND_MM_H", "MODEL_DELAY_S"]
+__all__ = [
+    "band_dataset",
+    "band_table",
+    "orographic_contrast",
+    "BAND_COLUMNS",
+    "MODEL_NOTE",
+    "MODEL_BACKGROUND_MM_H",
+    "MODEL_DELAY_S",
+]
 
 # A light frontal rain as the non-orographic background of the linear model: light rain is
 # up to about 2.5 mm/h (common practice).  Without it the model's lee is exactly 0 in
@@ -28,12 +35,14 @@ MODEL_BACKGROUND_MM_H = 2.0
 # range 200-2000 s (from memory).
 MODEL_DELAY_S = 1000.0
 
-MODEL_NOTE = ("How to read the linear model beside the observations: the model gives a rate in mm per hour "
-              "for one steady wind of the chosen direction, speed and temperature, with a uniform background "
-              "rain added, not a climatology of many storms and winds. Compare the pattern and the "
-              "leeward/windward ratio with the observed one, not the amounts. A model ratio near 0 means the "
-              "descending air in the lee dries out the background rain; a larger background or longer "
-              "delays carry more rain over the crest.")
+MODEL_NOTE = (
+    "How to read the linear model beside the observations: the model gives a rate in mm per hour "
+    "for one steady wind of the chosen direction, speed and temperature, with a uniform background "
+    "rain added, not a climatology of many storms and winds. Compare the pattern and the "
+    "leeward/windward ratio with the observed one, not the amounts. A model ratio near 0 means the "
+    "descending air in the lee dries out the background rain; a larger background or longer "
+    "delays carry more rain over the crest."
+)
 
 BAND_COLUMNS = ("windward_mean", "leeward_mean", "ratio", "ratio_lower", "ratio_upper", "model_ratio")
 
@@ -42,10 +51,20 @@ def _bands(ds: xr.Dataset) -> xr.Dataset:
     return ds if "band" in ds.dims else ds.expand_dims("band")
 
 
-def orographic_contrast(pr: xr.DataArray, elevation: xr.DataArray, wind_from: float = 270.0,
-                        band_km=(0.0, 25.0, 50.0), ci: float = 0.9, n_boot: int = 500, wind_speed: float = 10.0,
-                        temperature_c: float = 10.0, ridge=None, min_height: float | None = None,
-                        p_background: float = MODEL_BACKGROUND_MM_H, tau: float = MODEL_DELAY_S) -> dict:
+def orographic_contrast(
+    pr: xr.DataArray,
+    elevation: xr.DataArray,
+    wind_from: float = 270.0,
+    band_km=(0.0, 25.0, 50.0),
+    ci: float = 0.9,
+    n_boot: int = 500,
+    wind_speed: float = 10.0,
+    temperature_c: float = 10.0,
+    ridge=None,
+    min_height: float | None = None,
+    p_background: float = MODEL_BACKGROUND_MM_H,
+    tau: float = MODEL_DELAY_S,
+) -> dict:
     """The observed windward/leeward contrast beside the linear orographic model's.
 
     Parameters
@@ -91,9 +110,15 @@ def orographic_contrast(pr: xr.DataArray, elevation: xr.DataArray, wind_from: fl
     annual = cache.cached("annual_totals", lambda: annual_totals(pr), pr)
     crest = ridge if ridge is not None else crest_from_elevation(elevation, wind_from, min_height=min_height)
     observed = rain_shadow(annual, wind_from=wind_from, ridge=crest, band_km=band_km, n_boot=n_boot, ci=ci)
-    model = linear_orographic_precip(elevation, wind_speed=wind_speed, wind_from=wind_from,
-                                     temperature_c=temperature_c, p_background=p_background,
-                                     tau_c=tau, tau_f=tau)
+    model = linear_orographic_precip(
+        elevation,
+        wind_speed=wind_speed,
+        wind_from=wind_from,
+        temperature_c=temperature_c,
+        p_background=p_background,
+        tau_c=tau,
+        tau_f=tau,
+    )
     model_contrast = rain_shadow(model, wind_from=wind_from, ridge=crest, band_km=band_km)
     mean = annual.mean("year", keep_attrs=True)
     # sea-level cells (open water, or missing terrain read as 0 m) would pile up at 0 m
@@ -101,12 +126,19 @@ def orographic_contrast(pr: xr.DataArray, elevation: xr.DataArray, wind_from: fl
     gradients = {}
     for side in ("windward", "leeward"):
         try:
-            gradients[side] = elevation_gradient(mean, elevation, mask=land, side=side,
-                                                 distance_km=observed["distance_km"])
+            gradients[side] = elevation_gradient(
+                mean, elevation, mask=land, side=side, distance_km=observed["distance_km"]
+            )
         except InsufficientDataError:
             pass  # too few cells on that side: no fit
-    return {"observed": observed, "model": model, "model_contrast": model_contrast, "mean": mean,
-            "gradients": gradients, "crest": crest}
+    return {
+        "observed": observed,
+        "model": model,
+        "model_contrast": model_contrast,
+        "mean": mean,
+        "gradients": gradients,
+        "crest": crest,
+    }
 
 
 def band_dataset(observed: xr.Dataset, model: xr.Dataset, ci: float) -> xr.Dataset:
@@ -120,14 +152,16 @@ def band_dataset(observed: xr.Dataset, model: xr.Dataset, ci: float) -> xr.Datas
     def plain(da):
         return da.reset_coords(drop=True).drop_vars("band", errors="ignore")
 
-    ds = xr.Dataset({
-        "windward_mean": describe(plain(obs["windward_mean"]), "windward_mean"),
-        "leeward_mean": describe(plain(obs["leeward_mean"]), "leeward_mean"),
-        "ratio": describe(plain(obs["ratio"]), "ratio"),
-        "ratio_lower": describe(plain(obs["ratio_lower"]), "ratio_lower", label=f"lower {pct}"),
-        "ratio_upper": describe(plain(obs["ratio_upper"]), "ratio_upper", label=f"upper {pct}"),
-        "model_ratio": describe(plain(mod["ratio"]), "model_ratio"),
-    })
+    ds = xr.Dataset(
+        {
+            "windward_mean": describe(plain(obs["windward_mean"]), "windward_mean"),
+            "leeward_mean": describe(plain(obs["leeward_mean"]), "leeward_mean"),
+            "ratio": describe(plain(obs["ratio"]), "ratio"),
+            "ratio_lower": describe(plain(obs["ratio_lower"]), "ratio_lower", label=f"lower {pct}"),
+            "ratio_upper": describe(plain(obs["ratio_upper"]), "ratio_upper", label=f"upper {pct}"),
+            "model_ratio": describe(plain(mod["ratio"]), "model_ratio"),
+        }
+    )
     return ds.assign_coords(band=labels)
 
 

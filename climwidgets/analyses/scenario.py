@@ -38,20 +38,30 @@ from ..provenance import history_line
 from .basins import basin_series
 from .meta import describe, ensemble_attrs
 
-__all__ = ["AGREEMENT_LEVEL", "METHOD_LABELS", "SCENARIO_METHODS", "basin_depth_signals", "basin_signals", "signal_maps"]
+__all__ = [
+    "AGREEMENT_LEVEL",
+    "METHOD_LABELS",
+    "SCENARIO_METHODS",
+    "basin_depth_signals",
+    "basin_signals",
+    "signal_maps",
+]
 
 #: What each ``method`` compares, in plain words.
 SCENARIO_METHODS = {
     "none": "model runs as they are: future run against historical run",
     "monthly_ratio": "delta change: the observed record against the observed record times each member's "
-                     "monthly change factors (future / historical monthly normal)",
+    "monthly change factors (future / historical monthly normal)",
     "quantile_delta": "quantile delta mapping: the observations over the calibration period against the "
-                      "future run adjusted to them, quantile by quantile (Cannon et al. 2015)",
+    "future run adjusted to them, quantile by quantile (Cannon et al. 2015)",
 }
 
 #: The methods' short names, for menus.
-METHOD_LABELS = {"none": "model runs as they are", "monthly_ratio": "delta change (monthly ratio)",
-                 "quantile_delta": "quantile delta mapping"}
+METHOD_LABELS = {
+    "none": "model runs as they are",
+    "monthly_ratio": "delta change (monthly ratio)",
+    "quantile_delta": "quantile delta mapping",
+}
 
 #: Share of members that must agree on the sign of a change for it to count as agreed
 #: (the 80 % rule of IPCC AR6 WG I, Cross-Chapter Box Atlas.1, from memory); maps mark
@@ -100,13 +110,21 @@ def _pair_signals(base, scen, months, pb, pf, member):
 
 def _check_method(method, obs, func):
     if method not in SCENARIO_METHODS:
-        raise ParameterError(f"unknown method {method!r}", source=func, variable="method",
-                             expected=" or ".join(repr(m) for m in SCENARIO_METHODS),
-                             fix="use method='none', 'monthly_ratio' or 'quantile_delta'")
+        raise ParameterError(
+            f"unknown method {method!r}",
+            source=func,
+            variable="method",
+            expected=" or ".join(repr(m) for m in SCENARIO_METHODS),
+            fix="use method='none', 'monthly_ratio' or 'quantile_delta'",
+        )
     if method != "none" and obs is None:
-        raise ParameterError(f"method {method!r} adjusts the runs to observations, and none were given",
-                             source=func, variable="obs", expected="an observed record (cw.open_precip)",
-                             fix="pass obs=..., or method='none' to compare the model runs as they are")
+        raise ParameterError(
+            f"method {method!r} adjusts the runs to observations, and none were given",
+            source=func,
+            variable="obs",
+            expected="an observed record (cw.open_precip)",
+            fix="pass obs=..., or method='none' to compare the model runs as they are",
+        )
 
 
 def _scenario(model_hist, model_future, obs, method, historical, future, dim, func):
@@ -116,8 +134,10 @@ def _scenario(model_hist, model_future, obs, method, historical, future, dim, fu
     if method == "monthly_ratio":
         scen = delta_change(obs_m, hist_m, fut_m, "monthly_ratio", historical=historical, future=future, dim=dim)
         pb = pf = period_or_default(obs_m, None, "obs", func)
-        attrs = {"model_historical_period": list(scen.attrs["historical_period"]),
-                 "model_future_period": list(scen.attrs["future_period"])}
+        attrs = {
+            "model_historical_period": list(scen.attrs["historical_period"]),
+            "model_future_period": list(scen.attrs["future_period"]),
+        }
     else:
         # quantile delta mapping needs one time step: monthly totals of all three
         scen = delta_change(obs_m, hist_m, fut_m, "quantile_delta", historical=historical, future=future, dim=dim)
@@ -134,32 +154,55 @@ def _signals(model_hist, model_future, months, historical, future, dim, obs, met
         share = seasonal_share_signal(hist, fut, months=months, historical=historical, future=future, dim=dim)
         normal = annual_normal_signal(hist, fut, historical=historical, future=future, dim=dim)
         member = share.attrs.get("member_dim", "none")
-        return share, normal, (None if member == "none" else member), {
-            "historical_period": share.attrs["historical_period"], "future_period": share.attrs["future_period"]}
-    base, scen, pb, pf, member, attrs = _scenario(model_hist, model_future, obs, method, historical, future, dim,
-                                                  func)
+        return (
+            share,
+            normal,
+            (None if member == "none" else member),
+            {"historical_period": share.attrs["historical_period"], "future_period": share.attrs["future_period"]},
+        )
+    base, scen, pb, pf, member, attrs = _scenario(model_hist, model_future, obs, method, historical, future, dim, func)
     share, normal = _pair_signals(reduce(base), reduce(scen), months, pb, pf, member)
     return share, normal, member, dict(attrs, historical_period=list(pb), future_period=list(pf))
 
 
 def _dataset(share, normal, member, months, attrs, history):
-    ds = xr.Dataset({"share_change_1": describe(share["change"], "share_change_1"),
-                     "normal_change_1": describe(normal["change"] - 1.0, "normal_change_1")})
+    ds = xr.Dataset(
+        {
+            "share_change_1": describe(share["change"], "share_change_1"),
+            "normal_change_1": describe(normal["change"] - 1.0, "normal_change_1"),
+        }
+    )
     if member is not None:
         for name, sig, offset in (("share_change_1", share, 0.0), ("normal_change_1", normal, 1.0)):
             a = ds[name].attrs
             ds[f"{name}_mean"] = (sig["change_mean"] - offset).assign_attrs(ensemble_attrs(a, "mean"))
             ds[f"{name}_lower"] = (sig["change_min"] - offset).assign_attrs(ensemble_attrs(a, "min"))
             ds[f"{name}_upper"] = (sig["change_max"] - offset).assign_attrs(ensemble_attrs(a, "max"))
-            ds[f"{name}_agreement"] = describe(sig["change_agreement"], "agreement_1",
-                                               label=f"{a['label']}, members agreeing")
-    ds.attrs = {"months": list(months), "season": season_label(tuple(months)), **attrs,
-                "member_dim": member or "none", "cautions": list(SCENARIO_CAUTIONS), "history": history}
+            ds[f"{name}_agreement"] = describe(
+                sig["change_agreement"], "agreement_1", label=f"{a['label']}, members agreeing"
+            )
+    ds.attrs = {
+        "months": list(months),
+        "season": season_label(tuple(months)),
+        **attrs,
+        "member_dim": member or "none",
+        "cautions": list(SCENARIO_CAUTIONS),
+        "history": history,
+    }
     return ds
 
 
-def basin_signals(model_hist: xr.DataArray, model_future: xr.DataArray, basins, months=(7, 8),
-                  historical=None, future=None, dim=None, obs=None, method: str = "none") -> xr.Dataset:
+def basin_signals(
+    model_hist: xr.DataArray,
+    model_future: xr.DataArray,
+    basins,
+    months=(7, 8),
+    historical=None,
+    future=None,
+    dim=None,
+    obs=None,
+    method: str = "none",
+) -> xr.Dataset:
     """Change in seasonal share and annual normal of each basin, per member and over the ensemble.
 
     Parameters
@@ -206,15 +249,39 @@ def basin_signals(model_hist: xr.DataArray, model_future: xr.DataArray, basins, 
     precipitation by quantile mapping. J. Climate 28, 6938–6959, doi:10.1175/JCLI-D-14-00754.1.
     """
     func = "basin_signals"
-    share, normal, member, attrs = _signals(model_hist, model_future, months, historical, future, dim, obs,
-                                            method, lambda run: _per_basin(run, basins), func)
+    share, normal, member, attrs = _signals(
+        model_hist,
+        model_future,
+        months,
+        historical,
+        future,
+        dim,
+        obs,
+        method,
+        lambda run: _per_basin(run, basins),
+        func,
+    )
     attrs.update(method=method, comparison=SCENARIO_METHODS[method])
-    return _dataset(share, normal, member, months, attrs,
-                    history_line(func, months=tuple(months), historical=historical, future=future, method=method))
+    return _dataset(
+        share,
+        normal,
+        member,
+        months,
+        attrs,
+        history_line(func, months=tuple(months), historical=historical, future=future, method=method),
+    )
 
 
-def signal_maps(model_hist: xr.DataArray, model_future: xr.DataArray, months=(7, 8), historical=None,
-                future=None, dim=None, obs=None, method: str = "none") -> xr.Dataset:
+def signal_maps(
+    model_hist: xr.DataArray,
+    model_future: xr.DataArray,
+    months=(7, 8),
+    historical=None,
+    future=None,
+    dim=None,
+    obs=None,
+    method: str = "none",
+) -> xr.Dataset:
     """The changes of :func:`basin_signals` cell by cell: maps per member and over the ensemble.
 
     Parameters
@@ -249,16 +316,33 @@ def signal_maps(model_hist: xr.DataArray, model_future: xr.DataArray, months=(7,
     0.2222
     """
     func = "signal_maps"
-    share, normal, member, attrs = _signals(model_hist, model_future, months, historical, future, dim, obs,
-                                            method, lambda run: run, func)
+    share, normal, member, attrs = _signals(
+        model_hist, model_future, months, historical, future, dim, obs, method, lambda run: run, func
+    )
     attrs.update(method=method, comparison=SCENARIO_METHODS[method])
-    return _dataset(share, normal, member, months, attrs,
-                    history_line(func, months=tuple(months), historical=historical, future=future, method=method))
+    return _dataset(
+        share,
+        normal,
+        member,
+        months,
+        attrs,
+        history_line(func, months=tuple(months), historical=historical, future=future, method=method),
+    )
 
 
-def basin_depth_signals(model_hist: xr.DataArray, model_future: xr.DataArray, basins, periods=(100,),
-                        duration_days: int = 1, historical=None, future=None, dim=None, n_boot: int = 200,
-                        ci: float = 0.9, seed: int = 0) -> xr.Dataset:
+def basin_depth_signals(
+    model_hist: xr.DataArray,
+    model_future: xr.DataArray,
+    basins,
+    periods=(100,),
+    duration_days: int = 1,
+    historical=None,
+    future=None,
+    dim=None,
+    n_boot: int = 200,
+    ci: float = 0.9,
+    seed: int = 0,
+) -> xr.Dataset:
     """Change in each basin's areal design depth, future / historical − 1, per member and over the ensemble.
 
     Each member's historical and future run is averaged over the basin and the return
@@ -309,20 +393,36 @@ def basin_depth_signals(model_hist: xr.DataArray, model_future: xr.DataArray, ba
     member = check_model_runs(model_hist, model_future, dim, func)
     step = model_hist.attrs.get("step")
     if step not in ("day", "hour") and not str(step).endswith("hour"):
-        raise ParameterError(f"the runs are {step!r} totals", source=func, variable="model_hist",
-                             expected="daily or hourly runs for annual maxima of daily depths",
-                             fix="open the daily files of the runs; monthly runs give no design depths")
+        raise ParameterError(
+            f"the runs are {step!r} totals",
+            source=func,
+            variable="model_hist",
+            expected="daily or hourly runs for annual maxima of daily depths",
+            fix="open the daily files of the runs; monthly runs give no design depths",
+        )
     ph = period_or_default(model_hist, historical, "model_hist", func)
     pf = period_or_default(model_future, future, "model_future", func)
+
     def estimate(run: xr.DataArray) -> xr.DataArray:
-        return areal_design_depths(run, basins, periods=tuple(periods), ci=float(ci), n_boot=int(n_boot), seed=seed,
-                                   duration_days=int(duration_days))["areal_estimate_mm"]
+        return areal_design_depths(
+            run,
+            basins,
+            periods=tuple(periods),
+            ci=float(ci),
+            n_boot=int(n_boot),
+            seed=seed,
+            duration_days=int(duration_days),
+        )["areal_estimate_mm"]
 
     dh, df = estimate(_years(model_hist, *ph)), estimate(_years(model_future, *pf))
     ratio = _summary(df / dh.where(dh > 0), member, "ratio")
-    ds = xr.Dataset({"historical_depth_mm": describe(dh, "historical_depth_mm"),
-                     "future_depth_mm": describe(df, "future_depth_mm"),
-                     "depth_change_1": describe(ratio["change"] - 1.0, "depth_change_1")})
+    ds = xr.Dataset(
+        {
+            "historical_depth_mm": describe(dh, "historical_depth_mm"),
+            "future_depth_mm": describe(df, "future_depth_mm"),
+            "depth_change_1": describe(ratio["change"] - 1.0, "depth_change_1"),
+        }
+    )
     if member is not None:
         for name in ("historical_depth_mm", "future_depth_mm"):
             ds[f"{name}_mean"] = ds[name].mean(member).assign_attrs(ensemble_attrs(ds[name].attrs, "mean"))
@@ -330,12 +430,18 @@ def basin_depth_signals(model_hist: xr.DataArray, model_future: xr.DataArray, ba
         ds["depth_change_1_mean"] = (ratio["change_mean"] - 1.0).assign_attrs(ensemble_attrs(a, "mean"))
         ds["depth_change_1_lower"] = (ratio["change_min"] - 1.0).assign_attrs(ensemble_attrs(a, "min"))
         ds["depth_change_1_upper"] = (ratio["change_max"] - 1.0).assign_attrs(ensemble_attrs(a, "max"))
-        ds["depth_change_1_agreement"] = describe(ratio["change_agreement"], "agreement_1",
-                                                  label=f"{a['label']}, members agreeing")
+        ds["depth_change_1_agreement"] = describe(
+            ratio["change_agreement"], "agreement_1", label=f"{a['label']}, members agreeing"
+        )
     ds["return_period"].attrs = {"units": "years", "long_name": "return period"}
-    ds.attrs = {"duration": f"{int(duration_days)} day", "historical_period": list(ph), "future_period": list(pf),
-                "member_dim": member or "none", "ci": float(ci), "n_boot": int(n_boot),
-                "cautions": list(SCENARIO_CAUTIONS) + list(DESIGN_DEPTH_CAUTIONS),
-                "history": history_line(func, periods=tuple(periods), duration_days=duration_days,
-                                        historical=ph, future=pf)}
+    ds.attrs = {
+        "duration": f"{int(duration_days)} day",
+        "historical_period": list(ph),
+        "future_period": list(pf),
+        "member_dim": member or "none",
+        "ci": float(ci),
+        "n_boot": int(n_boot),
+        "cautions": list(SCENARIO_CAUTIONS) + list(DESIGN_DEPTH_CAUTIONS),
+        "history": history_line(func, periods=tuple(periods), duration_days=duration_days, historical=ph, future=pf),
+    }
     return ds

@@ -27,11 +27,12 @@ def check_wind_from(wind_from: Any, func: str) -> float:
     if not np.isfinite(value) or value < 0.0 or value > 360.0:
         raise ParameterError(
             f"wind_from={wind_from!r} is outside 0-360 degrees",
-            source=func, variable="wind_from",
+            source=func,
+            variable="wind_from",
             expected="the direction the wind blows FROM, in degrees clockwise from north, "
-                     "0 to 360 (270 = westerly, 90 = easterly)",
+            "0 to 360 (270 = westerly, 90 = easterly)",
             fix="pass a direction such as wind_from=270.0; a direction the wind blows "
-                "TOWARD becomes wind_from by adding 180 (modulo 360)",
+            "TOWARD becomes wind_from by adding 180 (modulo 360)",
         )
     return value % 360.0
 
@@ -41,7 +42,8 @@ def grid_coords(da: Any, func: str, what: str = "field") -> tuple[np.ndarray, np
     if not isinstance(da, xr.DataArray):
         raise ParameterError(
             f"{what} must be an xarray.DataArray, got {type(da).__name__}",
-            source=func, variable=what,
+            source=func,
+            variable=what,
             expected="DataArray with 1-D 'lat' and 'lon' dimensions",
             fix="build the array with xr.DataArray(values, coords={'lat': ..., 'lon': ...})",
         )
@@ -49,22 +51,27 @@ def grid_coords(da: Any, func: str, what: str = "field") -> tuple[np.ndarray, np
     if missing:
         raise GridError(
             f"{what} has dims {tuple(da.dims)}, missing {missing}",
-            source=func, variable=da.name or what,
+            source=func,
+            variable=da.name or what,
             expected="a rectilinear grid with dimensions 'lat' and 'lon' (curvilinear y/x "
-                     "grids are not supported here)",
+            "grids are not supported here)",
             fix="rename the grid dimensions to lat/lon or regrid onto a lat/lon grid",
         )
     lat = np.asarray(da["lat"].values, dtype=float)
     lon = np.asarray(da["lon"].values, dtype=float)
     if lat.size > 1 and np.any(np.diff(lat) <= 0):
         raise GridError(
-            "lat is not strictly ascending", source=func, variable=da.name or what,
+            "lat is not strictly ascending",
+            source=func,
+            variable=da.name or what,
             expected="lat ascending, as open_precip returns it",
             fix="sort with da.sortby('lat')",
         )
     if lon.size > 1 and np.any(np.diff(lon) <= 0):
         raise GridError(
-            "lon is not strictly ascending", source=func, variable=da.name or what,
+            "lon is not strictly ascending",
+            source=func,
+            variable=da.name or what,
             expected="lon in [-180, 180), sorted ascending",
             fix="wrap with ((lon + 180) % 360) - 180 and sort with da.sortby('lon')",
         )
@@ -76,33 +83,42 @@ def check_same_grid(field: xr.DataArray, other: xr.DataArray, func: str, what: s
     for coord in ("lat", "lon"):
         a = np.asarray(field[coord].values, dtype=float)
         b = np.asarray(other[coord].values, dtype=float)
-        fix = (f"regrid the {what} onto the precipitation grid first, for example "
-               f"climwidgets.regrid({what}, field, method='bilinear')")
+        fix = (
+            f"regrid the {what} onto the precipitation grid first, for example "
+            f"climwidgets.regrid({what}, field, method='bilinear')"
+        )
         if a.size != b.size:
             raise MismatchError(
-                f"the {what} grid has {b.size} {coord} values, the precipitation grid has "
-                f"{a.size}", source=func, variable=coord,
-                expected=f"the {what} on exactly the precipitation grid", fix=fix,
+                f"the {what} grid has {b.size} {coord} values, the precipitation grid has {a.size}",
+                source=func,
+                variable=coord,
+                expected=f"the {what} on exactly the precipitation grid",
+                fix=fix,
             )
         step = np.min(np.abs(np.diff(a))) if a.size > 1 else 1.0
         worst = float(np.max(np.abs(a - b))) if a.size else 0.0
         if worst > _GRID_RTOL * step:
             raise MismatchError(
-                f"the {what} {coord} coordinate differs from the precipitation grid by up "
-                f"to {worst:.6g} degrees", source=func, variable=coord,
-                expected=f"the {what} on exactly the precipitation grid", fix=fix,
+                f"the {what} {coord} coordinate differs from the precipitation grid by up to {worst:.6g} degrees",
+                source=func,
+                variable=coord,
+                expected=f"the {what} on exactly the precipitation grid",
+                fix=fix,
             )
 
 
-def _edges(centres: np.ndarray, lower: Any = None, upper: Any = None,
-           limit: float | None = None) -> tuple[np.ndarray, np.ndarray]:
+def _edges(
+    centres: np.ndarray, lower: Any = None, upper: Any = None, limit: float | None = None
+) -> tuple[np.ndarray, np.ndarray]:
     if lower is not None and upper is not None:
         return np.asarray(lower, float), np.asarray(upper, float)
     if centres.size == 1:
-        raise GridError("cannot infer cell bounds from a single coordinate value",
-                        expected="at least two cells along lat and lon, or lat_lower/"
-                                 "lat_upper and lon_lower/lon_upper bound coordinates",
-                        fix="add bound coordinates to the grid")
+        raise GridError(
+            "cannot infer cell bounds from a single coordinate value",
+            expected="at least two cells along lat and lon, or lat_lower/"
+            "lat_upper and lon_lower/lon_upper bound coordinates",
+            fix="add bound coordinates to the grid",
+        )
     from ..io.grid import infer_edges  # the loader's one edge inference
 
     return infer_edges(centres, clip=limit)
@@ -119,8 +135,9 @@ def cell_area(da: xr.DataArray) -> xr.DataArray:
         from ..geo.area import cell_area as shared_cell_area
     except ImportError:
         shared_cell_area = None  # type: ignore[assignment]
-    grid = xr.DataArray(np.zeros((da.sizes["lat"], da.sizes["lon"])),
-                        coords={"lat": da["lat"], "lon": da["lon"]}, dims=("lat", "lon"))
+    grid = xr.DataArray(
+        np.zeros((da.sizes["lat"], da.sizes["lon"])), coords={"lat": da["lat"], "lon": da["lon"]}, dims=("lat", "lon")
+    )
     for name in ("lat_lower", "lat_upper", "lon_lower", "lon_upper"):
         if name in da.coords:
             grid = grid.assign_coords({name: da.coords[name]})
@@ -144,21 +161,25 @@ def check_ridge(ridge: Any, func: str) -> np.ndarray:
         pts = None
     if pts is None or pts.ndim != 2 or pts.shape[1] != 2:
         raise ParameterError(
-            "ridge is not a list of (lon, lat) pairs", source=func, variable="ridge",
+            "ridge is not a list of (lon, lat) pairs",
+            source=func,
+            variable="ridge",
             expected="a crest polyline [(lon, lat), (lon, lat), ...] with at least 2 points",
-            fix="pass e.g. ridge=[(10.0, -5.0), (10.0, 5.0)], or elevation=... to derive "
-                "the crest from the terrain",
+            fix="pass e.g. ridge=[(10.0, -5.0), (10.0, 5.0)], or elevation=... to derive the crest from the terrain",
         )
     if pts.shape[0] < 2:
         raise ParameterError(
             f"ridge has {pts.shape[0]} point(s); a crest line needs at least 2",
-            source=func, variable="ridge",
+            source=func,
+            variable="ridge",
             expected="a crest polyline [(lon, lat), ...] with at least 2 points",
             fix="add a second (lon, lat) point, or pass elevation=... instead of ridge",
         )
     if not np.all(np.isfinite(pts)) or np.any(np.abs(pts[:, 1]) > 90) or np.any(np.abs(pts[:, 0]) > 360):
         raise ParameterError(
-            "ridge holds non-finite or out-of-range coordinates", source=func, variable="ridge",
+            "ridge holds non-finite or out-of-range coordinates",
+            source=func,
+            variable="ridge",
             expected="(lon, lat) pairs in degrees, lon in [-180, 180), lat in [-90, 90]",
             fix="check the order of the pairs: longitude first, then latitude",
         )
@@ -192,8 +213,14 @@ def unrotate(p: Any, q: Any, ex: float, ny: float) -> tuple[Any, Any]:
     return p * ny + q * ex, -p * ex + q * ny
 
 
-def crest_points(z: np.ndarray, lat: np.ndarray, lon: np.ndarray, wind_from: float,
-                 min_height: float | None = None, func: str = "crest_from_elevation") -> list[tuple[float, float]]:
+def crest_points(
+    z: np.ndarray,
+    lat: np.ndarray,
+    lon: np.ndarray,
+    wind_from: float,
+    min_height: float | None = None,
+    func: str = "crest_from_elevation",
+) -> list[tuple[float, float]]:
     """Highest cell of every line parallel to the wind; see crest_from_elevation."""
     ex, ny = wind_axes(wind_from)
     lon2, lat2 = np.meshgrid(lon, lat)
@@ -202,8 +229,11 @@ def crest_points(z: np.ndarray, lat: np.ndarray, lon: np.ndarray, wind_from: flo
         valid &= z >= float(min_height)
     if abs(ny) < 1e-9 or abs(ex) < 1e-9:
         # Wind along a grid axis: the lines are the grid rows (W/E) or columns (N/S).
-        line = np.broadcast_to(np.arange(lat.size)[:, None], z.shape) if abs(ny) < 1e-9 \
+        line = (
+            np.broadcast_to(np.arange(lat.size)[:, None], z.shape)
+            if abs(ny) < 1e-9
             else np.broadcast_to(np.arange(lon.size)[None, :], z.shape)
+        )
     else:
         lat0 = float(np.mean(lat))
         x, y = to_plane(lon2, lat2, lat0)
@@ -218,7 +248,9 @@ def crest_points(z: np.ndarray, lat: np.ndarray, lon: np.ndarray, wind_from: flo
     zz, lo, la = z[valid], lon2[valid], lat2[valid]
     if zz.size == 0:
         raise InsufficientDataError(
-            "the elevation holds no usable cell", source=func, variable="elevation",
+            "the elevation holds no usable cell",
+            source=func,
+            variable="elevation",
             expected="finite elevations (m), some at or above min_height",
             fix="check the elevation grid and min_height",
         )
@@ -229,15 +261,18 @@ def crest_points(z: np.ndarray, lat: np.ndarray, lon: np.ndarray, wind_from: flo
     pts = [(float(a), float(b)) for a, b in zip(lo[pick], la[pick])]
     if len(pts) < 2:
         raise InsufficientDataError(
-            f"only {len(pts)} crest point found", source=func, variable="elevation",
+            f"only {len(pts)} crest point found",
+            source=func,
+            variable="elevation",
             expected="terrain spanning at least two lines parallel to the wind",
             fix="use a larger elevation domain or pass ridge=[(lon, lat), ...] by hand",
         )
     return pts
 
 
-def signed_distance_km(lat: np.ndarray, lon: np.ndarray, ridge: np.ndarray, wind_from: float,
-                       beyond_ends: str = "exclude") -> np.ndarray:
+def signed_distance_km(
+    lat: np.ndarray, lon: np.ndarray, ridge: np.ndarray, wind_from: float, beyond_ends: str = "exclude"
+) -> np.ndarray:
     """Signed along-wind geodesic distance (km) of every cell from the crest.
 
     For every cell the straight line through it parallel to the wind (in the local tangent

@@ -42,15 +42,26 @@ OUTPUT_CHUNK_BYTES = 32 * 2**20  # monthly results are gathered into chunks of a
 
 
 def applicable(pr: xr.DataArray, step: str, maxima_days: Sequence[int]) -> bool:
-    return (ENABLED and step in ("day", "hour") and pr.chunks is not None and pr.dims[0] == "time"
-            and pr.ndim >= 2 and all(d == 1 for d in maxima_days) and (step == "day" or not maxima_days))
+    return (
+        ENABLED
+        and step in ("day", "hour")
+        and pr.chunks is not None
+        and pr.dims[0] == "time"
+        and pr.ndim >= 2
+        and all(d == 1 for d in maxima_days)
+        and (step == "day" or not maxima_days)
+    )
 
 
 def _stored_record(pr: xr.DataArray) -> tuple[Any, float] | None:
     """The loader's record of the stored values, if it still describes ``pr``; else None."""
     rec = pr.encoding.get("stored_values")
-    if rec is None or getattr(rec, "name", None) != pr.data.name or rec.data.shape != pr.shape \
-            or rec.data.chunks != pr.data.chunks:
+    if (
+        rec is None
+        or getattr(rec, "name", None) != pr.data.name
+        or rec.data.shape != pr.shape
+        or rec.data.chunks != pr.data.chunks
+    ):
         return None
     factor = np.unique(np.asarray(rec.factor, dtype=np.float64))
     if factor.size != 1 or not factor[0] > 0:
@@ -70,8 +81,16 @@ def _local_bounds(starts: np.ndarray, n_steps: int, lo: int, hi: int, t0: int, t
     return [(max(int(starts[i]), t0) - t0, min(int(ends[i]), t1) - t0) for i in range(lo, hi)]
 
 
-def _depth_block(block: Any, mask_fill: bool, guard: bool, factor: float, source: Any, variable: Any,
-                 max_depth: float | None = None, where: Any = None) -> np.ndarray:
+def _depth_block(
+    block: Any,
+    mask_fill: bool,
+    guard: bool,
+    factor: float,
+    source: Any,
+    variable: Any,
+    max_depth: float | None = None,
+    where: Any = None,
+) -> np.ndarray:
     """Fill masking and the negative guard on stored values, without converting every value.
 
     Same rules as the loader's conversion (fill heuristics for files without _FillValue,
@@ -90,9 +109,13 @@ def _depth_block(block: Any, mask_fill: bool, guard: bool, factor: float, source
         lo = float(np.fmin.reduce(x.reshape(-1))) if (~bad).any() else 0.0
     if guard and lo < 0:
         if lo * factor < -NEGATIVE_TOLERANCE_MM:
-            raise DataValueError(f"has negative precipitation (lowest {lo * factor:.4g} mm) in a chunk read from disk",
-                                 source=source, variable=variable, expected="precipitation depths >= 0",
-                                 fix="open with validate=True to find where, and check scale_factor/add_offset and units")
+            raise DataValueError(
+                f"has negative precipitation (lowest {lo * factor:.4g} mm) in a chunk read from disk",
+                source=source,
+                variable=variable,
+                expected="precipitation depths >= 0",
+                fix="open with validate=True to find where, and check scale_factor/add_offset and units",
+            )
         x = x.copy() if x is block else x
         x[x < 0] = 0
     if max_depth is not None and hi * factor > max_depth:  # the loader's bound, exact only when it may be passed
@@ -101,9 +124,21 @@ def _depth_block(block: Any, mask_fill: bool, guard: bool, factor: float, source
     return x
 
 
-def _partials(block: Any, month_starts: np.ndarray, year_starts: np.ndarray, n_steps: int, factor: float,
-              mask_fill: bool, guard: bool, source: Any, variable: Any, with_maxima: bool,
-              max_depth: float | None = None, dims: Any = None, block_info: Any = None) -> np.ndarray:
+def _partials(
+    block: Any,
+    month_starts: np.ndarray,
+    year_starts: np.ndarray,
+    n_steps: int,
+    factor: float,
+    mask_fill: bool,
+    guard: bool,
+    source: Any,
+    variable: Any,
+    with_maxima: bool,
+    max_depth: float | None = None,
+    dims: Any = None,
+    block_info: Any = None,
+) -> np.ndarray:
     """Rows of one block's partials: month sums, then (optionally) year maxima and valid counts."""
     t0, t1 = block_info[0]["array-location"][0]
     offset = [a for a, _ in block_info[0]["array-location"]]
@@ -129,16 +164,24 @@ def _combine(op: str, n_out: int, *parts_and_rows: Any) -> np.ndarray:
     shape = (n_out,) + parts[0].shape[1:]
     out = np.zeros(shape) if op == "sum" else np.full(shape, np.nan)
     for part, (src, dst, n) in zip(parts, placements):
-        piece = part[src:src + n]
+        piece = part[src : src + n]
         if op == "sum":
-            out[dst:dst + n] += piece
+            out[dst : dst + n] += piece
         else:
-            np.fmax(out[dst:dst + n], piece, out=out[dst:dst + n])
+            np.fmax(out[dst : dst + n], piece, out=out[dst : dst + n])
     return out
 
 
-def _assemble(partials: Any, block_ranges: Sequence[tuple[int, int]], row_offsets: Sequence[int], n_seg: int,
-              seg_starts: np.ndarray, tblock_starts: np.ndarray, op: str, name: str) -> Any:
+def _assemble(
+    partials: Any,
+    block_ranges: Sequence[tuple[int, int]],
+    row_offsets: Sequence[int],
+    n_seg: int,
+    seg_starts: np.ndarray,
+    tblock_starts: np.ndarray,
+    op: str,
+    name: str,
+) -> Any:
     """A dask array (n_seg, *space) from the block partials: one combine task per output chunk.
 
     Output chunks along time hold the segments that begin in the same time block (so a
@@ -169,23 +212,30 @@ def _assemble(partials: Any, block_ranges: Sequence[tuple[int, int]], row_offset
             dsk[(name, c) + idx] = (_combine, op, b - a, *args)
     graph = HighLevelGraph.from_collections(name, dsk, dependencies=[partials])
     chunks = (tuple(b - a for a, b in groups),) + space
-    return dsa.Array(graph, name, chunks=chunks, dtype=np.float64,  # type: ignore[no-untyped-call]
-                     meta=np.empty((0,) * partials.ndim))
+    return dsa.Array(
+        graph,
+        name,
+        chunks=chunks,
+        dtype=np.float64,  # type: ignore[no-untyped-call]
+        meta=np.empty((0,) * partials.ndim),
+    )
 
 
 def _stub(pr: xr.DataArray) -> xr.DataArray:
     """A numpy stand-in with ``pr``'s time axis and attrs, one cell: metadata without reading."""
     shape = (pr.sizes["time"],) + (1,) * (pr.ndim - 1)
-    return xr.DataArray(np.zeros(shape, np.float32), dims=pr.dims, coords={"time": pr["time"]}, attrs=pr.attrs,
-                        name=pr.name)
+    return xr.DataArray(
+        np.zeros(shape, np.float32), dims=pr.dims, coords={"time": pr["time"]}, attrs=pr.attrs, name=pr.name
+    )
 
 
 def _space_coords(pr: xr.DataArray) -> dict[Any, Any]:
     return {k: v for k, v in pr.coords.items() if "time" not in v.dims}
 
 
-def monthly_and_maxima(pr: xr.DataArray, step: str, maxima_days: Sequence[int],
-                       year_start: int) -> tuple[xr.DataArray, dict[int, xr.DataArray]] | None:
+def monthly_and_maxima(
+    pr: xr.DataArray, step: str, maxima_days: Sequence[int], year_start: int
+) -> tuple[xr.DataArray, dict[int, xr.DataArray]] | None:
     """Monthly totals and annual 1-day maxima of ``pr`` in one fused pass (see the module notes).
 
     Returns (monthly totals, {1: annual maxima} or {}) as lazy DataArrays with the same
@@ -212,8 +262,15 @@ def monthly_and_maxima(pr: xr.DataArray, step: str, maxima_days: Sequence[int],
     if found is not None:
         rec, factor = found
         source = rec.data
-        kwargs = {"factor": factor, "mask_fill": rec.mask_fill, "guard": rec.guard, "source": rec.source,
-                  "variable": rec.variable, "max_depth": getattr(rec, "max_depth", None), "dims": getattr(rec, "dims", None)}
+        kwargs = {
+            "factor": factor,
+            "mask_fill": rec.mask_fill,
+            "guard": rec.guard,
+            "source": rec.source,
+            "variable": rec.variable,
+            "max_depth": getattr(rec, "max_depth", None),
+            "dims": getattr(rec, "dims", None),
+        }
     else:
         source = pr.data
         kwargs = {"factor": 1.0, "mask_fill": False, "guard": False, "source": None, "variable": None}
@@ -225,30 +282,60 @@ def monthly_and_maxima(pr: xr.DataArray, step: str, maxima_days: Sequence[int],
         y_ranges.append(_segment_range(year_starts, t0, t0 + n) if with_maxima else (0, 0))
         rows.append((m_ranges[-1][1] - m_ranges[-1][0]) + 2 * (y_ranges[-1][1] - y_ranges[-1][0]))
     token = tokenize(source.name, month_starts, year_starts, kwargs, with_maxima)
-    partials = dsa.map_blocks(_partials, source, month_starts, year_starts, n_steps, **kwargs,  # type: ignore[no-untyped-call]
-                              with_maxima=with_maxima, dtype=np.float64, chunks=(tuple(rows),) + source.chunks[1:],
-                              name=f"climatology-partials-{token}", meta=np.empty((0,) * source.ndim))
+    partials = dsa.map_blocks(
+        _partials,
+        source,
+        month_starts,
+        year_starts,
+        n_steps,
+        **kwargs,  # type: ignore[no-untyped-call]
+        with_maxima=with_maxima,
+        dtype=np.float64,
+        chunks=(tuple(rows),) + source.chunks[1:],
+        name=f"climatology-partials-{token}",
+        meta=np.empty((0,) * source.ndim),
+    )
     zero = [0] * len(tchunks)
-    sums = _assemble(partials, m_ranges, zero, month_starts.size, month_starts, tblock_starts, "sum",
-                     f"climatology-monthly-{token}")
+    sums = _assemble(
+        partials, m_ranges, zero, month_starts.size, month_starts, tblock_starts, "sum", f"climatology-monthly-{token}"
+    )
     covered = month_template.notnull().values  # (months, 1, ...): broadcasts over the cells
     sums = dsa.where(covered, sums, np.nan)  # months the axis does not fully cover (WMO rule)
-    monthly = xr.DataArray(sums, dims=pr.dims, coords={"time": month_template["time"], **_space_coords(pr)},
-                           attrs=month_template.attrs, name=month_template.name)
+    monthly = xr.DataArray(
+        sums,
+        dims=pr.dims,
+        coords={"time": month_template["time"], **_space_coords(pr)},
+        attrs=month_template.attrs,
+        name=month_template.name,
+    )
     if not with_maxima:
         return monthly, {}
     n_months = [hi - lo for lo, hi in m_ranges]
     n_years = [hi - lo for lo, hi in y_ranges]
-    maxima = _assemble(partials, y_ranges, n_months, uniq.size, year_starts, tblock_starts, "max",
-                       f"climatology-maxima-{token}")
-    counts = _assemble(partials, y_ranges, [m + y for m, y in zip(n_months, n_years)], uniq.size, year_starts,
-                       tblock_starts, "sum", f"climatology-counts-{token}")
+    maxima = _assemble(
+        partials, y_ranges, n_months, uniq.size, year_starts, tblock_starts, "max", f"climatology-maxima-{token}"
+    )
+    counts = _assemble(
+        partials,
+        y_ranges,
+        [m + y for m, y in zip(n_months, n_years)],
+        uniq.size,
+        year_starts,
+        tblock_starts,
+        "sum",
+        f"climatology-counts-{token}",
+    )
     need = DEFAULT_MIN_VALID_FRACTION * _nominal_steps(time.values[0], uniq, year_start, step)
     need = need.reshape((-1,) + (1,) * (pr.ndim - 1))
     assert max_template is not None  # with_maxima is true past the early return above
     keep = np.flatnonzero(np.isin(uniq, max_template["year"].values))
     amax = dsa.where(counts >= need, maxima, np.nan)[keep]
     ydims = ("year",) + pr.dims[1:]
-    annual = xr.DataArray(amax, dims=ydims, coords={"year": max_template["year"], **_space_coords(pr)},
-                          attrs=max_template.attrs, name=max_template.name)
+    annual = xr.DataArray(
+        amax,
+        dims=ydims,
+        coords={"year": max_template["year"], **_space_coords(pr)},
+        attrs=max_template.attrs,
+        name=max_template.name,
+    )
     return monthly, {1: annual}

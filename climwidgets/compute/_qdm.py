@@ -33,8 +33,7 @@ def _splitmix64(x: Any) -> Any:
 def _uniform(key: np.ndarray, seed: int, salt: int, n: int) -> np.ndarray:
     """Uniform (0, 1) numbers for positions 0..n-1 of each series identified by ``key``."""
     with np.errstate(over="ignore"):
-        base = _splitmix64(key.astype(np.uint64) * np.uint64(4) + np.uint64(salt) + _splitmix64(
-            np.uint64(seed)))
+        base = _splitmix64(key.astype(np.uint64) * np.uint64(4) + np.uint64(salt) + _splitmix64(np.uint64(seed)))
         h: np.ndarray = _splitmix64(base[..., None] + np.arange(n, dtype=np.uint64))
     return ((h >> np.uint64(11)).astype(np.float64) + 0.5) / float(1 << 53)
 
@@ -57,9 +56,20 @@ def _quantile_at(sorted_x: np.ndarray, count: np.ndarray, tau: np.ndarray) -> np
     return np.where(count > 0, q, np.nan)
 
 
-def _qdm_block(obs: np.ndarray, hist: np.ndarray, fut: np.ndarray, key: np.ndarray, g_obs: np.ndarray,
-               g_hist: np.ndarray, g_fut: np.ndarray, trace: float, max_ratio: float, ratio_trace: float,
-               seed: int, jitter: bool) -> np.ndarray:
+def _qdm_block(
+    obs: np.ndarray,
+    hist: np.ndarray,
+    fut: np.ndarray,
+    key: np.ndarray,
+    g_obs: np.ndarray,
+    g_hist: np.ndarray,
+    g_fut: np.ndarray,
+    trace: float,
+    max_ratio: float,
+    ratio_trace: float,
+    seed: int,
+    jitter: bool,
+) -> np.ndarray:
     """Quantile delta mapping on one block: arrays (..., time); returns (..., time of fut)."""
     shape = np.broadcast_shapes(obs.shape[:-1], hist.shape[:-1], fut.shape[:-1], key.shape)
     obs = np.broadcast_to(obs, shape + obs.shape[-1:]).astype(float)
@@ -111,16 +121,28 @@ def _cell_key(template: xr.DataArray) -> xr.DataArray:
     return key.transpose(*dims) if dims else key
 
 
-def quantile_delta_map(obs: xr.DataArray, hist: xr.DataArray, fut: xr.DataArray, group: str, trace: float,
-                       max_ratio: float, seed: int, jitter: bool = True) -> xr.DataArray:
+def quantile_delta_map(
+    obs: xr.DataArray,
+    hist: xr.DataArray,
+    fut: xr.DataArray,
+    group: str,
+    trace: float,
+    max_ratio: float,
+    seed: int,
+    jitter: bool = True,
+) -> xr.DataArray:
     """Multiplicative QDM of ``fut`` (dims time, ...) against ``obs`` and ``hist``, lazily."""
     g_obs, g_hist, g_fut = (_group_ids(x, group) for x in (obs, hist, fut))
     missing = sorted(set(g_fut.tolist()) - set(g_obs.tolist()) | set(g_fut.tolist()) - set(g_hist.tolist()))
     if missing:
-        label = ([f"month {m}" for m in missing] if group == "month" else [_SEASONS[s] for s in missing])
-        raise InsufficientDataError(f"no calibration data for {', '.join(label)}", source="delta_change",
-                                    variable="time", expected="observations and historical run in every "
-                                    "month (season) of the future run", fix="use longer records")
+        label = [f"month {m}" for m in missing] if group == "month" else [_SEASONS[s] for s in missing]
+        raise InsufficientDataError(
+            f"no calibration data for {', '.join(label)}",
+            source="delta_change",
+            variable="time",
+            expected="observations and historical run in every month (season) of the future run",
+            fix="use longer records",
+        )
     o = obs.rename(time="time_obs").drop_vars("time_obs")
     h = hist.rename(time="time_hist").drop_vars("time_hist")
     key = _cell_key(o.isel(time_obs=0, drop=True))
@@ -129,10 +151,24 @@ def quantile_delta_map(obs: xr.DataArray, hist: xr.DataArray, fut: xr.DataArray,
     else:
         f = fut
     out: xr.DataArray = xr.apply_ufunc(
-        _qdm_block, o, h, f, key,
-        kwargs=dict(g_obs=g_obs, g_hist=g_hist, g_fut=g_fut, trace=float(trace), max_ratio=float(max_ratio),
-                    ratio_trace=10.0 * float(trace), seed=int(seed), jitter=jitter),
-        input_core_dims=[["time_obs"], ["time_hist"], ["time"], []], output_core_dims=[["time"]],
-        dask="parallelized", output_dtypes=[float],
+        _qdm_block,
+        o,
+        h,
+        f,
+        key,
+        kwargs=dict(
+            g_obs=g_obs,
+            g_hist=g_hist,
+            g_fut=g_fut,
+            trace=float(trace),
+            max_ratio=float(max_ratio),
+            ratio_trace=10.0 * float(trace),
+            seed=int(seed),
+            jitter=jitter,
+        ),
+        input_core_dims=[["time_obs"], ["time_hist"], ["time"], []],
+        output_core_dims=[["time"]],
+        dask="parallelized",
+        output_dtypes=[float],
     )
     return out.assign_coords(time=fut["time"])

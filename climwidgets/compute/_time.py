@@ -24,12 +24,26 @@ from ..io.timeaxis import CANONICAL_STEPS, infer_step, is_subhourly, steps_per_d
 from ..io.units import parse_units, step_factor
 
 #: The suite's one table of month names (full, and the three-letter forms derived from it).
-MONTH_FULL_NAMES = ("January", "February", "March", "April", "May", "June", "July", "August", "September",
-                    "October", "November", "December")
+MONTH_FULL_NAMES = (
+    "January",
+    "February",
+    "March",
+    "April",
+    "May",
+    "June",
+    "July",
+    "August",
+    "September",
+    "October",
+    "November",
+    "December",
+)
 MONTH_NAMES = tuple(name[:3] for name in MONTH_FULL_NAMES)
-_KEEP_ATTRS_FIX = ("keep the attributes through arithmetic: `with xr.set_options(keep_attrs=True): "
-                   "scaled = pr * 1.05`, or `scaled = (pr * 1.05).assign_attrs(pr.attrs)`; data built by "
-                   "hand need attrs['units'] (for example 'mm' per step, 'mm/day' or 'kg m-2 s-1')")
+_KEEP_ATTRS_FIX = (
+    "keep the attributes through arithmetic: `with xr.set_options(keep_attrs=True): "
+    "scaled = pr * 1.05`, or `scaled = (pr * 1.05).assign_attrs(pr.attrs)`; data built by "
+    "hand need attrs['units'] (for example 'mm' per step, 'mm/day' or 'kg m-2 s-1')"
+)
 
 
 def source_name(obj: object) -> str:
@@ -42,40 +56,55 @@ def check_precip(pr: Any, func: str) -> str:
     if not isinstance(pr, xr.DataArray):
         raise ParameterError(
             f"{func} needs an xarray.DataArray, got {type(pr).__name__}",
-            source=func, expected="DataArray of precipitation depth per time step (mm)",
+            source=func,
+            expected="DataArray of precipitation depth per time step (mm)",
             fix="open the data with climwidgets.open_precip or build an xr.DataArray",
         )
     src = source_name(pr)
     if "time" not in pr.dims:
         raise TimeAxisError(
-            f"no 'time' dimension (dims are {tuple(pr.dims)})", source=src, variable=pr.name,
+            f"no 'time' dimension (dims are {tuple(pr.dims)})",
+            source=src,
+            variable=pr.name,
             expected="dims (time, lat, lon) or (time, y, x)",
             fix="rename the time dimension to 'time'",
         )
     units = pr.attrs.get("units")
     if units != "mm":
         raise UnitsError(
-            f"units are {units!r}", source=src, variable=pr.name,
+            f"units are {units!r}",
+            source=src,
+            variable=pr.name,
             expected="attrs['units'] == 'mm' (depth per time step)",
             fix="convert with climwidgets.open_precip(pr), which takes DataArrays too",
         )
     step = pr.attrs.get("step")
     if step not in CANONICAL_STEPS:
         raise TimeAxisError(
-            f"attrs['step'] is {step!r}", source=src, variable=pr.name,
+            f"attrs['step'] is {step!r}",
+            source=src,
+            variable=pr.name,
             expected=f"attrs['step'] in {CANONICAL_STEPS}",
             fix="set attrs['step'] to the length of one time step, or pass the data through "
-                "climwidgets.open_precip(pr), which finds it (and sums sub-hourly steps to hours)",
+            "climwidgets.open_precip(pr), which finds it (and sums sub-hourly steps to hours)",
         )
     tindex = pr.indexes.get("time")
     if tindex is None or len(tindex) == 0:
-        raise TimeAxisError("the time axis is empty or has no coordinate", source=src,
-                            variable=pr.name, expected="a time coordinate with at least one step",
-                            fix="attach time coordinates")
+        raise TimeAxisError(
+            "the time axis is empty or has no coordinate",
+            source=src,
+            variable=pr.name,
+            expected="a time coordinate with at least one step",
+            fix="attach time coordinates",
+        )
     if not tindex.is_monotonic_increasing or not tindex.is_unique:
-        raise TimeAxisError("time coordinates are unsorted or duplicated", source=src,
-                            variable=pr.name, expected="strictly increasing time",
-                            fix="use pr.sortby('time') and drop duplicated steps")
+        raise TimeAxisError(
+            "time coordinates are unsorted or duplicated",
+            source=src,
+            variable=pr.name,
+            expected="strictly increasing time",
+            fix="use pr.sortby('time') and drop duplicated steps",
+        )
     return cast(str, step)  # one of CANONICAL_STEPS
 
 
@@ -97,19 +126,25 @@ def precip_mm(pr: Any, func: str) -> tuple[xr.DataArray, str]:
     units = pr.attrs.get("units")
     if units is None or str(units).strip() == "":
         lost = "has no attributes at all" if not pr.attrs else "has no 'units' attribute"
-        raise UnitsError(f"{lost}, so its depth per time step is unknown (xarray arithmetic such as "
-                         "pr * 1.05 drops attributes)", source=src, variable=pr.name,
-                         expected="attrs['units'] (a precipitation depth or rate) and attrs['step']",
-                         fix=_KEEP_ATTRS_FIX)
+        raise UnitsError(
+            f"{lost}, so its depth per time step is unknown (xarray arithmetic such as pr * 1.05 drops attributes)",
+            source=src,
+            variable=pr.name,
+            expected="attrs['units'] (a precipitation depth or rate) and attrs['step']",
+            fix=_KEEP_ATTRS_FIX,
+        )
     info = parse_units(units, source=src, variable=pr.name)
     step = pr.attrs.get("step")
     if step is None and "time" in pr.dims and pr.sizes["time"] >= 2:
         step = infer_step(pr["time"], source=src)
     if step is not None and is_subhourly(str(step)):
-        raise TimeAxisError(f"has {step} steps", source=src, variable=pr.name,
-                            expected="hourly or longer steps in the compute functions",
-                            fix="pass the data through climwidgets.open_precip(pr), which sums sub-hourly "
-                                "steps to hourly totals")
+        raise TimeAxisError(
+            f"has {step} steps",
+            source=src,
+            variable=pr.name,
+            expected="hourly or longer steps in the compute functions",
+            fix="pass the data through climwidgets.open_precip(pr), which sums sub-hourly steps to hourly totals",
+        )
     if units != "mm" and step in CANONICAL_STEPS and "time" in pr.dims:
         factor, how = step_factor(info, pr["time"], step, source=src, variable=pr.name)
         attrs = {**pr.attrs, "units": "mm", "step": step, "original_units": str(units), "conversion": how}
@@ -127,36 +162,56 @@ def check_months(months: Any, func: str, name: str = "months") -> tuple[int, ...
     try:
         items = tuple(months)
     except TypeError:
-        raise ParameterError(f"{name}={months!r} is not a sequence of month numbers", source=func,
-                             variable=name, expected="month numbers 1..12", fix=fix) from None
+        raise ParameterError(
+            f"{name}={months!r} is not a sequence of month numbers",
+            source=func,
+            variable=name,
+            expected="month numbers 1..12",
+            fix=fix,
+        ) from None
     if not items:
-        raise ParameterError(f"{name} is empty", source=func, variable=name,
-                             expected="at least one month number 1..12", fix=fix)
+        raise ParameterError(
+            f"{name} is empty", source=func, variable=name, expected="at least one month number 1..12", fix=fix
+        )
     for m in items:
         if isinstance(m, bool) or not isinstance(m, (int, np.integer)):
-            raise ParameterError(f"{name} contains {m!r}, not a month number", source=func,
-                                 variable=name, expected="integers 1..12 (not names)", fix=fix)
+            raise ParameterError(
+                f"{name} contains {m!r}, not a month number",
+                source=func,
+                variable=name,
+                expected="integers 1..12 (not names)",
+                fix=fix,
+            )
         if not 1 <= int(m) <= 12:
-            raise ParameterError(f"{name} contains {m}, outside 1..12", source=func, variable=name,
-                                 expected="integers 1..12", fix=fix)
+            raise ParameterError(
+                f"{name} contains {m}, outside 1..12", source=func, variable=name, expected="integers 1..12", fix=fix
+            )
     items = tuple(int(m) for m in items)
     if len(set(items)) != len(items):
-        raise ParameterError(f"{name}={items} repeats a month", source=func, variable=name,
-                             expected="each month at most once", fix=fix)
+        raise ParameterError(
+            f"{name}={items} repeats a month", source=func, variable=name, expected="each month at most once", fix=fix
+        )
     for a, b in zip(items, items[1:]):
         if b != a % 12 + 1:
             raise ParameterError(
-                f"{name}={items} is not a run of consecutive months", source=func, variable=name,
-                expected="consecutive months in calendar order, e.g. (11, 12, 1, 2, 3)", fix=fix)
+                f"{name}={items} is not a run of consecutive months",
+                source=func,
+                variable=name,
+                expected="consecutive months in calendar order, e.g. (11, 12, 1, 2, 3)",
+                fix=fix,
+            )
     return items
 
 
 def check_year_start(year_start: Any, func: str) -> int:
-    if isinstance(year_start, bool) or not isinstance(year_start, (int, np.integer)) \
-            or not 1 <= int(year_start) <= 12:
-        raise ParameterError(f"year_start={year_start!r} is not a month number", source=func,
-                             variable="year_start", expected="an integer 1..12 (10 = Oct-Sep water year)",
-                             fix="pass year_start=1 for calendar years or 10 for water years")
+    if isinstance(year_start, bool) or not isinstance(year_start, (int, np.integer)) or not 1 <= int(year_start) <= 12:
+        raise ParameterError(
+            f"year_start={year_start!r} is not a month number",
+            source=func,
+            variable="year_start",
+            expected="an integer 1..12 (10 = Oct-Sep water year)",
+            fix="pass year_start=1 for calendar years or 10 for water years",
+        )
     return int(year_start)
 
 
@@ -168,11 +223,21 @@ def check_year_range(rng: Any, func: str, name: str) -> tuple[int, int]:
     except (TypeError, ValueError):
         ok = False
     if not ok:
-        raise ParameterError(f"{name}={rng!r} is not a pair of years", source=func, variable=name,
-                             expected="(first_year, last_year) as integers", fix=fix)
+        raise ParameterError(
+            f"{name}={rng!r} is not a pair of years",
+            source=func,
+            variable=name,
+            expected="(first_year, last_year) as integers",
+            fix=fix,
+        )
     if first > last:
-        raise ParameterError(f"{name}={rng!r} ends before it starts", source=func, variable=name,
-                             expected="first_year <= last_year", fix=fix)
+        raise ParameterError(
+            f"{name}={rng!r} ends before it starts",
+            source=func,
+            variable=name,
+            expected="first_year <= last_year",
+            fix=fix,
+        )
     return int(first), int(last)
 
 
@@ -212,8 +277,13 @@ def data_period(monthly: xr.DataArray) -> str:
     return f"{t.dt.strftime('%Y-%m').values[0]} to {t.dt.strftime('%Y-%m').values[-1]}"
 
 
-def year_blocks(monthly: xr.DataArray, covered: np.ndarray, start_month: int, src: str = "input DataArray",
-                keep_partial: bool = False) -> xr.DataArray:
+def year_blocks(
+    monthly: xr.DataArray,
+    covered: np.ndarray,
+    start_month: int,
+    src: str = "input DataArray",
+    keep_partial: bool = False,
+) -> xr.DataArray:
     """Reshape monthly totals into 12-month years: dims (year, month, ...).
 
     Years start in ``start_month`` and are labelled by the calendar year of their last month.
@@ -240,32 +310,35 @@ def year_blocks(monthly: xr.DataArray, covered: np.ndarray, start_month: int, sr
         return blocks.assign_coords(year=("year", labels.astype(int)), month=("month", order.astype(int)))
     starts = np.flatnonzero(months == start_month)
     starts = starts[starts + 12 <= n]
-    full = [i for i in starts if covered[i:i + 12].all()]
+    full = [i for i in starts if covered[i : i + 12].all()]
     if not full:
         raise InsufficientDataError(
-            f"no complete 12-month year starting in {MONTH_NAMES[start_month - 1]} "
-            f"(data cover {data_period(monthly)})", source=src,
+            f"no complete 12-month year starting in {MONTH_NAMES[start_month - 1]} (data cover {data_period(monthly)})",
+            source=src,
             expected="at least one fully covered 12-month year",
-            fix="use a longer record or another year_start")
+            fix="use a longer record or another year_start",
+        )
     first, last = full[0], full[-1]
     seg = monthly.isel(time=slice(first, last + 12))
     blocks = seg.coarsen(time=12).construct(time=("year", "month")).drop_vars("time")
-    labels = years[first + 11:last + 12:12]
-    return blocks.assign_coords(year=("year", labels.astype(int)),
-                                month=("month", months[first:first + 12].astype(int)))
+    labels = years[first + 11 : last + 12 : 12]
+    return blocks.assign_coords(
+        year=("year", labels.astype(int)), month=("month", months[first : first + 12].astype(int))
+    )
 
 
-def select_years(obj: xr.DataArray, rng: Any, func: str, name: str, src: str,
-                 dim: str = "year") -> xr.DataArray:
+def select_years(obj: xr.DataArray, rng: Any, func: str, name: str, src: str, dim: str = "year") -> xr.DataArray:
     """Select labelled years; the range must lie within the data's years."""
     first, last = check_year_range(rng, func, name)
     have = obj[dim].values
     if first < have.min() or last > have.max():
         raise ParameterError(
-            f"{name}=({first}, {last}) lies outside the data, whose complete years are "
-            f"{have.min()}-{have.max()}", source=src, variable=name,
+            f"{name}=({first}, {last}) lies outside the data, whose complete years are {have.min()}-{have.max()}",
+            source=src,
+            variable=name,
             expected=f"years within {have.min()}-{have.max()}",
-            fix=f"choose {name} inside {have.min()}-{have.max()} or supply a longer record")
+            fix=f"choose {name} inside {have.min()}-{have.max()} or supply a longer record",
+        )
     return obj.sel({dim: (obj[dim] >= first) & (obj[dim] <= last)})
 
 

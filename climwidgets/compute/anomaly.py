@@ -37,8 +37,13 @@ _KINDS = {"absolute": "mm", "percent": "%", "standardized": "1"}
 _PERIODS = ("month", "season", "year", "water_year")
 
 
-def _period_values(pr: xr.DataArray, period: str, months: Any, year_start: int, func: str,
-                   ) -> tuple[xr.DataArray, xr.DataArray, Callable[[xr.DataArray], xr.DataArray], str, int]:
+def _period_values(
+    pr: xr.DataArray,
+    period: str,
+    months: Any,
+    year_start: int,
+    func: str,
+) -> tuple[xr.DataArray, xr.DataArray, Callable[[xr.DataArray], xr.DataArray], str, int]:
     """Return (x, values, to_x, label).
 
     ``x`` is the series to express as anomalies, ``values`` the same totals with a ``year``
@@ -46,16 +51,24 @@ def _period_values(pr: xr.DataArray, period: str, months: Any, year_start: int, 
     ``year`` back onto ``x``.
     """
     if period not in _PERIODS:
-        raise ParameterError(f"period={period!r} is not known", source=func, variable="period",
-                             expected="'month', 'season', 'year' or 'water_year'",
-                             fix="pass one of the listed periods")
+        raise ParameterError(
+            f"period={period!r} is not known",
+            source=func,
+            variable="period",
+            expected="'month', 'season', 'year' or 'water_year'",
+            fix="pass one of the listed periods",
+        )
     year_start = check_year_start(year_start, func)
     pr, step = precip_mm(pr, func)
     if period == "season":
         if months is None:
-            raise ParameterError("period='season' needs months", source=func, variable="months",
-                                 expected="consecutive month numbers, e.g. (11, 12, 1, 2, 3)",
-                                 fix="pass months=(7, 8) or another season")
+            raise ParameterError(
+                "period='season' needs months",
+                source=func,
+                variable="months",
+                expected="consecutive month numbers, e.g. (11, 12, 1, 2, 3)",
+                fix="pass months=(7, 8) or another season",
+            )
         months = check_months(months, func)
         x = seasonal_totals(pr, months, year_start)
         return x, x, lambda s: s, f"season {season_label(months)}", year_start
@@ -77,14 +90,24 @@ def _period_values(pr: xr.DataArray, period: str, months: Any, year_start: int, 
 
 def _check_kind(kind: str, func: str) -> None:
     if kind not in _KINDS:
-        raise ParameterError(f"kind={kind!r} is not known", source=func, variable="kind",
-                             expected="'absolute', 'percent' or 'standardized'",
-                             fix="pass kind='percent' (percent of normal) or another listed kind")
+        raise ParameterError(
+            f"kind={kind!r} is not known",
+            source=func,
+            variable="kind",
+            expected="'absolute', 'percent' or 'standardized'",
+            fix="pass kind='percent' (percent of normal) or another listed kind",
+        )
 
 
-def anomaly(pr: xr.DataArray, baseline: Sequence[int] = (1991, 2020), kind: str = "percent",
-            period: str = "month", months: Iterable[int] | int | None = None, year_start: int = 1,
-            min_fraction: float = 0.8) -> xr.DataArray:
+def anomaly(
+    pr: xr.DataArray,
+    baseline: Sequence[int] = (1991, 2020),
+    kind: str = "percent",
+    period: str = "month",
+    months: Iterable[int] | int | None = None,
+    year_start: int = 1,
+    min_fraction: float = 0.8,
+) -> xr.DataArray:
     """Precipitation anomaly of each month, season or year against the baseline normal.
 
     Parameters
@@ -146,8 +169,7 @@ def anomaly(pr: xr.DataArray, baseline: Sequence[int] = (1991, 2020), kind: str 
     func = "anomaly"
     _check_kind(kind, func)
     x, values, to_x, label, ys = _period_values(pr, period, months, year_start, func)
-    mean, sd, n, required, nyears = baseline_stats(values, baseline, min_fraction, func,
-                                                   source_name(pr))
+    mean, sd, n, required, nyears = baseline_stats(values, baseline, min_fraction, func, source_name(pr))
     ref = to_x(mean)
     out: xr.DataArray
     if kind == "absolute":
@@ -157,19 +179,37 @@ def anomaly(pr: xr.DataArray, baseline: Sequence[int] = (1991, 2020), kind: str 
     else:
         out = safe_divide(x - ref, to_x(sd))
     out.name = pr.name
-    names = {"absolute": "difference from normal", "percent": "percent of normal",
-             "standardized": "standardized anomaly"}
-    out.attrs = {"units": _KINDS[kind], "long_name": f"{names[kind]} ({label})", "kind": kind,
-                 "period": period, "baseline": list(check_year_range(baseline, func, "baseline")),
-                 "min_fraction": float(min_fraction), "years_required": required,
-                 "year_start": ys}
+    names = {
+        "absolute": "difference from normal",
+        "percent": "percent of normal",
+        "standardized": "standardized anomaly",
+    }
+    out.attrs = {
+        "units": _KINDS[kind],
+        "long_name": f"{names[kind]} ({label})",
+        "kind": kind,
+        "period": period,
+        "baseline": list(check_year_range(baseline, func, "baseline")),
+        "min_fraction": float(min_fraction),
+        "years_required": required,
+        "year_start": ys,
+    }
     if kind == "standardized":
         out.attrs["sd_ddof"] = 1
     if period == "season":
         out.attrs["season_months"] = x.attrs["season_months"]
         out.attrs["season_year_start"] = x.attrs["season_year_start"]
-    return with_history(out, func, pr.attrs, baseline=baseline, kind=kind, period=period,
-                        months=months, year_start=year_start, min_fraction=min_fraction)
+    return with_history(
+        out,
+        func,
+        pr.attrs,
+        baseline=baseline,
+        kind=kind,
+        period=period,
+        months=months,
+        year_start=year_start,
+        min_fraction=min_fraction,
+    )
 
 
 def _terciles_kernel(a: np.ndarray) -> np.ndarray:
@@ -180,9 +220,14 @@ def _terciles_kernel(a: np.ndarray) -> np.ndarray:
     return np.moveaxis(q, 0, -1)
 
 
-def tercile_category(pr: xr.DataArray, baseline: Sequence[int] = (1991, 2020), period: str = "month",
-                     months: Iterable[int] | int | None = None, year_start: int = 1,
-                     min_fraction: float = 0.8) -> xr.DataArray:
+def tercile_category(
+    pr: xr.DataArray,
+    baseline: Sequence[int] = (1991, 2020),
+    period: str = "month",
+    months: Iterable[int] | int | None = None,
+    year_start: int = 1,
+    min_fraction: float = 0.8,
+) -> xr.DataArray:
     """Tercile category of each total: -1 below normal, 0 near normal, +1 above normal.
 
     The tercile boundaries are the 1/3 and 2/3 quantiles of the baseline totals (per
@@ -242,21 +287,41 @@ def tercile_category(pr: xr.DataArray, baseline: Sequence[int] = (1991, 2020), p
     n = base.count("year")
     if is_dask(base):
         base = base.chunk({"year": -1})
-    bounds: xr.DataArray = xr.apply_ufunc(_terciles_kernel, base, input_core_dims=[["year"]],
-                            output_core_dims=[["tercile"]], dask="parallelized",
-                            output_dtypes=[float], dask_gufunc_kwargs={"output_sizes": {"tercile": 2}})
+    bounds: xr.DataArray = xr.apply_ufunc(
+        _terciles_kernel,
+        base,
+        input_core_dims=[["year"]],
+        output_core_dims=[["tercile"]],
+        dask="parallelized",
+        output_dtypes=[float],
+        dask_gufunc_kwargs={"output_sizes": {"tercile": 2}},
+    )
     bounds = bounds.where(n >= required)
     lower = to_x(bounds.isel(tercile=0))
     upper = to_x(bounds.isel(tercile=1))
     cat = xr.where(x < lower, -1.0, xr.where(x > upper, 1.0, 0.0))  # type: ignore[no-untyped-call]
     out: xr.DataArray = cat.where(x.notnull() & lower.notnull() & upper.notnull())
     out.name = "tercile_category"
-    out.attrs = {"units": "1", "long_name": f"tercile category ({label})",
-                 "flag_values": [-1, 0, 1],
-                 "flag_meanings": "below_normal near_normal above_normal",
-                 "quantile_method": "numpy 'linear' (WMO-No. 1203 §4.5 guidance)",
-                 "boundary_rule": "a total equal to a tercile boundary is near normal",
-                 "period": period, "baseline": list(check_year_range(baseline, func, "baseline")),
-                 "min_fraction": float(min_fraction), "years_required": required, "year_start": ys}
-    return with_history(out, func, pr.attrs, baseline=baseline, period=period, months=months,
-                        year_start=year_start, min_fraction=min_fraction)
+    out.attrs = {
+        "units": "1",
+        "long_name": f"tercile category ({label})",
+        "flag_values": [-1, 0, 1],
+        "flag_meanings": "below_normal near_normal above_normal",
+        "quantile_method": "numpy 'linear' (WMO-No. 1203 §4.5 guidance)",
+        "boundary_rule": "a total equal to a tercile boundary is near normal",
+        "period": period,
+        "baseline": list(check_year_range(baseline, func, "baseline")),
+        "min_fraction": float(min_fraction),
+        "years_required": required,
+        "year_start": ys,
+    }
+    return with_history(
+        out,
+        func,
+        pr.attrs,
+        baseline=baseline,
+        period=period,
+        months=months,
+        year_start=year_start,
+        min_fraction=min_fraction,
+    )

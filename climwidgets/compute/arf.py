@@ -33,9 +33,11 @@ __all__ = ["ARF_RANGE", "ARF_SOURCE", "SQUARE_MILE_KM2", "areal_reduction_factor
 SQUARE_MILE_KM2 = 1.609344**2
 #: Durations (hours) and areas (km²) covered by the published curves.
 ARF_RANGE = {"duration_hours": (0.5, 24.0), "area_km2": (0.0, 400 * SQUARE_MILE_KM2)}
-ARF_SOURCE = ("U.S. Weather Bureau (1957-1960) Technical Paper 29, fixed-area depth-area curves, "
-              "in the form fitted by Leclerc & Schaake (1972, MIT Ralph M. Parsons Laboratory Report 142): "
-              "ARF = 1 - exp(-1.1 t^0.25) + exp(-1.1 t^0.25 - 0.01 A), t hours, A square miles")
+ARF_SOURCE = (
+    "U.S. Weather Bureau (1957-1960) Technical Paper 29, fixed-area depth-area curves, "
+    "in the form fitted by Leclerc & Schaake (1972, MIT Ralph M. Parsons Laboratory Report 142): "
+    "ARF = 1 - exp(-1.1 t^0.25) + exp(-1.1 t^0.25 - 0.01 A), t hours, A square miles"
+)
 
 
 class ARFExtrapolationWarning(UserWarning):
@@ -47,8 +49,12 @@ def _check(values: Any, name: str, allow_zero: bool) -> np.ndarray:
     bad = ~np.isfinite(arr) | ((arr < 0) if allow_zero else (arr <= 0))
     if np.any(bad):
         lim = "0 or more" if allow_zero else "greater than 0"
-        raise ParameterError(f"{name} contains values that are not finite numbers {lim}", variable=name,
-                             expected=f"finite {name} {lim}", fix=f"pass {name} as positive numbers")
+        raise ParameterError(
+            f"{name} contains values that are not finite numbers {lim}",
+            variable=name,
+            expected=f"finite {name} {lim}",
+            fix=f"pass {name} as positive numbers",
+        )
     return arr
 
 
@@ -92,21 +98,34 @@ def areal_reduction_factor(duration_hours: Any, area_km2: Any) -> xr.DataArray:
     """
     t = _check(duration_hours, "duration_hours", allow_zero=False)
     a = _check(area_km2, "area_km2", allow_zero=True)
-    t_da = duration_hours if isinstance(duration_hours, xr.DataArray) else \
-        xr.DataArray(t, dims=("duration",) if t.ndim == 1 else tuple(f"duration_{i}" for i in range(t.ndim)))
-    a_da = area_km2 if isinstance(area_km2, xr.DataArray) else \
-        xr.DataArray(a, dims=("area",) if a.ndim == 1 else tuple(f"area_{i}" for i in range(a.ndim)))
+    t_da = (
+        duration_hours
+        if isinstance(duration_hours, xr.DataArray)
+        else xr.DataArray(t, dims=("duration",) if t.ndim == 1 else tuple(f"duration_{i}" for i in range(t.ndim)))
+    )
+    a_da = (
+        area_km2
+        if isinstance(area_km2, xr.DataArray)
+        else xr.DataArray(a, dims=("area",) if a.ndim == 1 else tuple(f"area_{i}" for i in range(a.ndim)))
+    )
     miles2 = a_da / SQUARE_MILE_KM2
     decay = 1.1 * t_da.astype(float) ** 0.25
     arf: xr.DataArray = 1.0 - np.exp(-decay) + np.exp(-decay - 0.01 * miles2)  # type: ignore[assignment]
     (t_lo, t_hi), (_, a_hi) = ARF_RANGE["duration_hours"], ARF_RANGE["area_km2"]
     extrapolated = bool(np.any((t < t_lo) | (t > t_hi)) or np.any(a > a_hi))
     if extrapolated:
-        warnings.warn("areal reduction factor outside the published curves (30 min to 24 h, up to "
-                      "400 square miles = 1036 km²): the values are an extrapolation of the formula",
-                      ARFExtrapolationWarning, stacklevel=2)
+        warnings.warn(
+            "areal reduction factor outside the published curves (30 min to 24 h, up to "
+            "400 square miles = 1036 km²): the values are an extrapolation of the formula",
+            ARFExtrapolationWarning,
+            stacklevel=2,
+        )
     arf = arf.rename("areal_reduction_factor")
-    arf.attrs = {"units": "1", "long_name": "areal reduction factor (fixed area)", "method": ARF_SOURCE,
-                 "extrapolated": int(extrapolated),
-                 "valid_range": "durations 0.5-24 h, areas up to 400 square miles (1036 km²)"}
+    arf.attrs = {
+        "units": "1",
+        "long_name": "areal reduction factor (fixed area)",
+        "method": ARF_SOURCE,
+        "extrapolated": int(extrapolated),
+        "valid_range": "durations 0.5-24 h, areas up to 400 square miles (1036 km²)",
+    }
     return arf

@@ -27,47 +27,75 @@ from .totals import annual_totals, monthly_totals
 __all__ = ["climatology_bundle"]
 
 
-def _build(pr: xr.DataArray, months: tuple[int, ...], baseline: Sequence[int] | None, year_start: int,
-           maxima_days: tuple[int, ...], indices: tuple[str, ...] = (),
-           index_base_period: Sequence[int] | None = None) -> xr.Dataset:
+def _build(
+    pr: xr.DataArray,
+    months: tuple[int, ...],
+    baseline: Sequence[int] | None,
+    year_start: int,
+    maxima_days: tuple[int, ...],
+    indices: tuple[str, ...] = (),
+    index_base_period: Sequence[int] | None = None,
+) -> xr.Dataset:
     pr, step = precip_mm(pr, "climatology_bundle")
     # one task per chunk read makes the monthly partials and maxima (see _fused); else plain
-    fused = _fused.monthly_and_maxima(pr, step, maxima_days, year_start) \
-        if _fused.applicable(pr, step, maxima_days) else None
+    fused = (
+        _fused.monthly_and_maxima(pr, step, maxima_days, year_start)
+        if _fused.applicable(pr, step, maxima_days)
+        else None
+    )
     monthly = fused[0] if fused is not None else monthly_totals(pr)
     out = {
         "monthly_totals": monthly,
         "annual_totals": annual_totals(monthly, year_start=year_start),
         "seasonal_share": seasonal_fraction(monthly, months=months, year_start=year_start),
-        "seasonal_share_per_year": seasonal_fraction(monthly, months=months, year_start=year_start,
-                                                     per_year=True).rename(year="season_year"),
+        "seasonal_share_per_year": seasonal_fraction(
+            monthly, months=months, year_start=year_start, per_year=True
+        ).rename(year="season_year"),
     }
     if baseline is not None:
         out["normals"] = normals(monthly, baseline=baseline)
     if step != "month":
         for days in maxima_days:
-            amax = fused[1][days] if fused is not None else annual_maxima(pr, duration_days=days,
-                                                                            year_start=year_start)
+            amax = fused[1][days] if fused is not None else annual_maxima(pr, duration_days=days, year_start=year_start)
             out[f"annual_max_{days}day"] = amax.rename(year="maxima_year")
     if indices:
         # same daily array, same graph: one compute reads each stored chunk once for all results
         ind = precip_indices(pr, names=tuple(indices), base_period=index_base_period, year_start=year_start)
         for name in ind.data_vars:
-            out[f"index_{name}"] = ind[name].rename(year="index_year").assign_attrs(
-                {**ind[name].attrs, **{k: v for k, v in ind.attrs.items() if k != "history"}})
+            out[f"index_{name}"] = (
+                ind[name]
+                .rename(year="index_year")
+                .assign_attrs({**ind[name].attrs, **{k: v for k, v in ind.attrs.items() if k != "history"}})
+            )
     grid = {"lat", "lon", "lat_lower", "lat_upper", "lon_lower", "lon_upper"}
     # per-variable bookkeeping coords (e.g. counts per cell) would clash when merged; grid coords stay
-    ds = xr.Dataset({k: v.drop_vars([c for c in v.coords if c not in v.dims and c not in grid])
-                     for k, v in out.items()})
+    ds = xr.Dataset(
+        {k: v.drop_vars([c for c in v.coords if c not in v.dims and c not in grid]) for k, v in out.items()}
+    )
     ds.attrs = {"source_history": pr.attrs.get("history", ""), "months": list(months), "year_start": year_start}
-    return with_history(ds, "climatology_bundle", pr.attrs, months=tuple(months), baseline=baseline,
-                        year_start=year_start, maxima_days=tuple(maxima_days), indices=tuple(indices))
+    return with_history(
+        ds,
+        "climatology_bundle",
+        pr.attrs,
+        months=tuple(months),
+        baseline=baseline,
+        year_start=year_start,
+        maxima_days=tuple(maxima_days),
+        indices=tuple(indices),
+    )
 
 
-def climatology_bundle(pr: xr.DataArray, months: Iterable[int] = (7, 8), baseline: Sequence[int] | None = None,
-                       year_start: int = 1, maxima_days: Iterable[int] = (1,), compute: bool = False,
-                       use_cache: bool = False, indices: str | Iterable[str] | None = (),
-                       index_base_period: Sequence[int] | None = None) -> xr.Dataset:
+def climatology_bundle(
+    pr: xr.DataArray,
+    months: Iterable[int] = (7, 8),
+    baseline: Sequence[int] | None = None,
+    year_start: int = 1,
+    maxima_days: Iterable[int] = (1,),
+    compute: bool = False,
+    use_cache: bool = False,
+    indices: str | Iterable[str] | None = (),
+    index_base_period: Sequence[int] | None = None,
+) -> xr.Dataset:
     """Monthly and annual totals, seasonal share, normals and annual maxima together.
 
     Parameters
@@ -133,9 +161,15 @@ def climatology_bundle(pr: xr.DataArray, months: Iterable[int] = (7, 8), baselin
     indices = (indices,) if isinstance(indices, str) else tuple(indices or ())
     extra: dict[str, Any] = {"indices": indices, "index_base_period": index_base_period} if indices else {}
     if use_cache:
-        return cache.cached("climatology_bundle", lambda: _build(pr, months, baseline, year_start, maxima_days,
-                                                                 **extra),
-                            pr, months=months, baseline=baseline, year_start=year_start, maxima_days=maxima_days,
-                            **extra)
+        return cache.cached(
+            "climatology_bundle",
+            lambda: _build(pr, months, baseline, year_start, maxima_days, **extra),
+            pr,
+            months=months,
+            baseline=baseline,
+            year_start=year_start,
+            maxima_days=maxima_days,
+            **extra,
+        )
     ds = _build(pr, months, baseline, year_start, maxima_days, **extra)
     return ds.compute() if compute else ds

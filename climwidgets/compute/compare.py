@@ -28,14 +28,20 @@ __all__ = ["align", "compare"]
 # ---------------------------------------------------------------- align
 def _check_products(datasets: Any, func: str) -> dict[str, xr.DataArray]:
     if not isinstance(datasets, dict) or not datasets:
-        raise ParameterError(f"{func} needs a non-empty dict of products", source=func,
-                             expected="{'name': DataArray, ...}",
-                             fix="pass e.g. {'gauge': pr_a, 'radar': pr_b}")
+        raise ParameterError(
+            f"{func} needs a non-empty dict of products",
+            source=func,
+            expected="{'name': DataArray, ...}",
+            fix="pass e.g. {'gauge': pr_a, 'radar': pr_b}",
+        )
     for name, da in datasets.items():
         if not isinstance(da, xr.DataArray):
-            raise ParameterError(f"product {name!r} is a {type(da).__name__}", source=func,
-                                 expected="an xarray.DataArray of precipitation (mm per step)",
-                                 fix="select the precipitation variable of the Dataset")
+            raise ParameterError(
+                f"product {name!r} is a {type(da).__name__}",
+                source=func,
+                expected="an xarray.DataArray of precipitation (mm per step)",
+                fix="select the precipitation variable of the Dataset",
+            )
         check_precip(da, func)
     return dict(datasets)
 
@@ -68,9 +74,10 @@ def _grid_key(obj: xr.DataArray | xr.Dataset) -> tuple[Any, ...]:
     b = cell_bounds(obj)
     if b.kind != "rectilinear":
         return ("curvilinear", id(obj))
-    return tuple(np.round(np.asarray(v, dtype=float), 9).tobytes()
-                 for v in (obj["lat"].values, obj["lon"].values, b.lat_lower, b.lat_upper,
-                           b.lon_lower, b.lon_upper))
+    return tuple(
+        np.round(np.asarray(v, dtype=float), 9).tobytes()
+        for v in (obj["lat"].values, obj["lon"].values, b.lat_lower, b.lat_upper, b.lon_lower, b.lon_upper)
+    )
 
 
 def _pick_grid(products: dict[str, xr.DataArray], grid: Any) -> Any:
@@ -83,26 +90,36 @@ def _pick_grid(products: dict[str, xr.DataArray], grid: Any) -> Any:
             return None
         rect = {n: da for n, da in products.items() if not is_curvilinear(da)}
         if not rect:
-            raise GridError("every product is on a curvilinear grid", source="align",
-                            expected="a rectilinear target grid",
-                            fix="pass grid=<a DataArray on a regular lat/lon grid>")
+            raise GridError(
+                "every product is on a curvilinear grid",
+                source="align",
+                expected="a rectilinear target grid",
+                fix="pass grid=<a DataArray on a regular lat/lon grid>",
+            )
         name = min(rect, key=lambda n: rect[n].sizes["lat"] * rect[n].sizes["lon"])
         return rect[name]
     if isinstance(grid, str):
         if grid not in products:
-            raise ParameterError(f"grid={grid!r} is not one of the products", source="align",
-                                 expected=" or ".join(repr(n) for n in products),
-                                 fix="name a product, pass a DataArray, or leave grid=None")
+            raise ParameterError(
+                f"grid={grid!r} is not one of the products",
+                source="align",
+                expected=" or ".join(repr(n) for n in products),
+                fix="name a product, pass a DataArray, or leave grid=None",
+            )
         if is_curvilinear(products[grid]):
-            raise GridError(f"product {grid!r} is on a curvilinear grid", source="align",
-                            expected="a rectilinear target grid",
-                            fix="pass grid=<a DataArray on a regular lat/lon grid>")
+            raise GridError(
+                f"product {grid!r} is on a curvilinear grid",
+                source="align",
+                expected="a rectilinear target grid",
+                fix="pass grid=<a DataArray on a regular lat/lon grid>",
+            )
         return products[grid]
     return grid
 
 
-def _common_months(products: dict[str, xr.DataArray], period: Any,
-                   func: str) -> tuple[dict[str, xr.DataArray], tuple[int, int]]:
+def _common_months(
+    products: dict[str, xr.DataArray], period: Any, func: str
+) -> tuple[dict[str, xr.DataArray], tuple[int, int]]:
     """Monthly totals of every product on standard month starts over the common complete
     years (or ``period``, which must lie inside them); returns (dict, (first, last))."""
     from .totals import monthly_totals
@@ -111,20 +128,30 @@ def _common_months(products: dict[str, xr.DataArray], period: Any,
     common = set.intersection(*years.values())
     spans = "; ".join(f"{n}: {min(y)}-{max(y)}" if y else f"{n}: none" for n, y in years.items())
     if not common:
-        raise MismatchError("the products share no complete year (disjoint periods)", source=func,
-                            expected="at least one calendar year fully covered by every product",
-                            fix=f"choose products that overlap in time (complete years {spans})")
+        raise MismatchError(
+            "the products share no complete year (disjoint periods)",
+            source=func,
+            expected="at least one calendar year fully covered by every product",
+            fix=f"choose products that overlap in time (complete years {spans})",
+        )
     if period is not None:
         try:
             first, last = (int(v) for v in period)
         except (TypeError, ValueError):
-            raise ParameterError(f"period={period!r} is not a pair of years", source=func,
-                                 expected="(first_year, last_year)", fix="e.g. period=(1991, 2020)") from None
+            raise ParameterError(
+                f"period={period!r} is not a pair of years",
+                source=func,
+                expected="(first_year, last_year)",
+                fix="e.g. period=(1991, 2020)",
+            ) from None
         wanted = set(range(first, last + 1))
         if first > last or not wanted <= common:
-            raise MismatchError(f"period {first}-{last} is not covered by every product", source=func,
-                                expected=f"years within the common complete years {min(common)}-{max(common)}",
-                                fix=f"choose a period inside the common years ({spans})")
+            raise MismatchError(
+                f"period {first}-{last} is not covered by every product",
+                source=func,
+                expected=f"years within the common complete years {min(common)}-{max(common)}",
+                fix=f"choose a period inside the common years ({spans})",
+            )
         common = wanted
     out = {}
     for name, da in products.items():
@@ -135,8 +162,13 @@ def _common_months(products: dict[str, xr.DataArray], period: Any,
     return out, (min(common), max(common))
 
 
-def align(datasets: dict[str, xr.DataArray], grid: Any = None, period: Any = None, method: str = "conservative",
-          **regrid_kwargs: Any) -> dict[str, xr.DataArray]:
+def align(
+    datasets: dict[str, xr.DataArray],
+    grid: Any = None,
+    period: Any = None,
+    method: str = "conservative",
+    **regrid_kwargs: Any,
+) -> dict[str, xr.DataArray]:
     """Bring several precipitation products to a common period, time index and grid.
 
     Parameters
@@ -202,8 +234,15 @@ def align(datasets: dict[str, xr.DataArray], grid: Any = None, period: Any = Non
             m.attrs.pop("history", None)  # the chain is rebuilt below from the product's own
         m.attrs.update(source_calendar=_calendar(da), period=f"{first}-{last}")
         m.name = da.name if da.name is not None else name
-        out[name] = with_history(m, "align", da.attrs, product=name, period=(first, last),
-                                 grid="native" if target is None else "common", method=method)
+        out[name] = with_history(
+            m,
+            "align",
+            da.attrs,
+            product=name,
+            period=(first, last),
+            grid="native" if target is None else "common",
+            method=method,
+        )
     return out
 
 
@@ -215,23 +254,28 @@ def _pearson(x: xr.DataArray, y: xr.DataArray, dim: str) -> xr.DataArray:
 
 
 _DESCRIPTIONS = {
-    "bias": ("mm/yr", "mean annual difference other - reference; monthly input: mean monthly "
-                      "difference x 12"),
+    "bias": ("mm/yr", "mean annual difference other - reference; monthly input: mean monthly difference x 12"),
     "ratio": ("1", "mean of other / mean of reference"),
     "rmse": ("mm", "root-mean-square difference per time step"),
     "corr": ("1", "Pearson correlation of the totals"),
-    "anomaly_corr": ("1", "Pearson correlation of monthly anomalies, each product against its "
-                          "own monthly climatology over the compared period"),
+    "anomaly_corr": (
+        "1",
+        "Pearson correlation of monthly anomalies, each product against its "
+        "own monthly climatology over the compared period",
+    ),
     "kge": ("1", "Kling-Gupta efficiency"),
-    "nse": ("1", "Nash-Sutcliffe efficiency, Nash & Sutcliffe (1970) J. Hydrol. 10, 282-290: "
-                 "1 - sum((other - reference)^2) / sum((reference - mean reference)^2)"),
+    "nse": (
+        "1",
+        "Nash-Sutcliffe efficiency, Nash & Sutcliffe (1970) J. Hydrol. 10, 282-290: "
+        "1 - sum((other - reference)^2) / sum((reference - mean reference)^2)",
+    ),
     "n": ("1", "number of time steps where both products have data"),
 }
 _KGE = {
     "2009": "Gupta, Kling, Yilmaz & Martinez (2009) J. Hydrol. 377, 80-91: "
-            "1 - sqrt((r-1)^2 + (alpha-1)^2 + (beta-1)^2), alpha = sd ratio, beta = mean ratio",
+    "1 - sqrt((r-1)^2 + (alpha-1)^2 + (beta-1)^2), alpha = sd ratio, beta = mean ratio",
     "2012": "Kling, Fuchs & Paulin (2012) J. Hydrol. 424-425, 264-277: "
-            "1 - sqrt((r-1)^2 + (gamma-1)^2 + (beta-1)^2), gamma = ratio of coefficients of variation",
+    "1 - sqrt((r-1)^2 + (gamma-1)^2 + (beta-1)^2), gamma = ratio of coefficients of variation",
 }
 
 
@@ -302,34 +346,55 @@ def compare(a: xr.DataArray, b: xr.DataArray, dim: str = "time", kge: str = "200
     """
     for name, x in (("a", a), ("b", b)):
         if not isinstance(x, xr.DataArray):
-            raise ParameterError(f"{name} is a {type(x).__name__}", source="compare",
-                                 expected="an xarray.DataArray", fix="select one variable first")
+            raise ParameterError(
+                f"{name} is a {type(x).__name__}",
+                source="compare",
+                expected="an xarray.DataArray",
+                fix="select one variable first",
+            )
         if dim not in x.dims:
-            raise ParameterError(f"{name} has no dimension {dim!r} (dims {tuple(x.dims)})",
-                                 source="compare", expected=f"a {dim!r} dimension",
-                                 fix="pass dim= the name of the time dimension")
+            raise ParameterError(
+                f"{name} has no dimension {dim!r} (dims {tuple(x.dims)})",
+                source="compare",
+                expected=f"a {dim!r} dimension",
+                fix="pass dim= the name of the time dimension",
+            )
     kge = str(kge)
     if kge not in _KGE:
-        raise ParameterError(f"unknown KGE form {kge!r}", source="compare",
-                             expected="'2009' (Gupta et al.) or '2012' (Kling et al.)", fix="use kge='2009'")
+        raise ParameterError(
+            f"unknown KGE form {kge!r}",
+            source="compare",
+            expected="'2009' (Gupta et al.) or '2012' (Kling et al.)",
+            fix="use kge='2009'",
+        )
     step = a.attrs.get("step")
     if dim == "year" or step == "year":
         per_year = 1.0
     elif step == "month":
         per_year = 12.0
     else:
-        raise ParameterError(f"compare needs monthly or annual totals, the reference has step {step!r}",
-                             source="compare", expected="attrs['step'] == 'month', or dim='year'",
-                             fix="pass products through cw.align (monthly totals) first")
+        raise ParameterError(
+            f"compare needs monthly or annual totals, the reference has step {step!r}",
+            source="compare",
+            expected="attrs['step'] == 'month', or dim='year'",
+            fix="pass products through cw.align (monthly totals) first",
+        )
     if b.attrs.get("step", step) != step:
-        raise MismatchError(f"steps differ: {step!r} and {b.attrs.get('step')!r}", source="compare",
-                            expected="the same time step", fix="pass both through cw.align first")
+        raise MismatchError(
+            f"steps differ: {step!r} and {b.attrs.get('step')!r}",
+            source="compare",
+            expected="the same time step",
+            fix="pass both through cw.align first",
+        )
     try:
         a, b = xr.align(a, b, join="exact")
     except ValueError as err:
-        raise MismatchError("the two products do not share coordinates", source="compare",
-                            expected="identical time and grid coordinates",
-                            fix=f"pass them through cw.align first ({err})") from None
+        raise MismatchError(
+            "the two products do not share coordinates",
+            source="compare",
+            expected="identical time and grid coordinates",
+            fix=f"pass them through cw.align first ({err})",
+        ) from None
 
     valid = a.notnull() & b.notnull()
     a, b = a.where(valid), b.where(valid)
@@ -352,8 +417,9 @@ def compare(a: xr.DataArray, b: xr.DataArray, dim: str = "time", kge: str = "200
         months = a[dim].dt.month
         ana = a.groupby(months) - a.groupby(months).mean(dim)
         anb = b.groupby(months) - b.groupby(months).mean(dim)
-        out["anomaly_corr"] = _pearson(ana.drop_vars("month", errors="ignore"),
-                                       anb.drop_vars("month", errors="ignore"), dim)
+        out["anomaly_corr"] = _pearson(
+            ana.drop_vars("month", errors="ignore"), anb.drop_vars("month", errors="ignore"), dim
+        )
     enough = n >= 2
     ds = xr.Dataset({k: v.where(enough) for k, v in out.items()})
     ds["n"] = n
@@ -362,6 +428,10 @@ def compare(a: xr.DataArray, b: xr.DataArray, dim: str = "time", kge: str = "200
         ds[k].attrs = {"units": units, "description": text}
     ds["kge"].attrs["description"] = _KGE[kge]
     ds["kge"].attrs["kge_form"] = kge
-    ds.attrs = {"reference": str(a.name), "other": str(b.name), "kge_form": kge,
-                "convention": "bias, ratio and efficiencies are of 'other' (b) against the reference (a)"}
+    ds.attrs = {
+        "reference": str(a.name),
+        "other": str(b.name),
+        "kge_form": kge,
+        "convention": "bias, ratio and efficiencies are of 'other' (b) against the reference (a)",
+    }
     return with_history(ds, "compare", a.attrs, dim=dim, kge=kge, reference=str(a.name), other=str(b.name))

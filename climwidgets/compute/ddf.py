@@ -49,8 +49,10 @@ __all__ = ["DDF_DAY_DURATIONS", "DDF_HOUR_DURATIONS", "depth_duration_frequency"
 DDF_HOUR_DURATIONS = (1, 2, 3, 6, 12, 24, 48, 72)
 DDF_DAY_DURATIONS = tuple(range(1, 11))
 _AREAL = ("series", "arf")
-CONSISTENCY_METHOD = ("running maximum along duration of estimate, lower and upper; "
-                      "monotonic in return period by construction of the GEV quantile")
+CONSISTENCY_METHOD = (
+    "running maximum along duration of estimate, lower and upper; "
+    "monotonic in return period by construction of the GEV quantile"
+)
 
 
 def _check_durations(durations: Any, step: str, src: str) -> tuple[int, ...]:
@@ -64,16 +66,26 @@ def _check_durations(durations: Any, step: str, src: str) -> tuple[int, ...]:
     fix = f"pass whole numbers of {unit}s, e.g. durations={DDF_HOUR_DURATIONS if step == 'hour' else (1, 2, 3, 5)}"
     limit = 24 * 31 if step == "hour" else 31
     if not items:
-        raise ParameterError("durations is empty", source=src, variable="durations",
-                             expected=f"whole numbers of {unit}s", fix=fix)
+        raise ParameterError(
+            "durations is empty", source=src, variable="durations", expected=f"whole numbers of {unit}s", fix=fix
+        )
     for d in items:
         if isinstance(d, bool) or not isinstance(d, (int, np.integer)) or not 1 <= d <= limit:
-            raise ParameterError(f"duration {d!r} is not allowed for {unit}ly data", source=src,
-                                 variable="durations", expected=f"whole numbers of {unit}s from 1 to {limit}",
-                                 fix=fix)
+            raise ParameterError(
+                f"duration {d!r} is not allowed for {unit}ly data",
+                source=src,
+                variable="durations",
+                expected=f"whole numbers of {unit}s from 1 to {limit}",
+                fix=fix,
+            )
     if len(set(items)) != len(items):
-        raise ParameterError(f"durations={items} repeats a duration", source=src, variable="durations",
-                             expected="each duration once", fix=fix)
+        raise ParameterError(
+            f"durations={items} repeats a duration",
+            source=src,
+            variable="durations",
+            expected="each duration once",
+            fix=fix,
+        )
     return tuple(sorted(int(d) for d in items))
 
 
@@ -88,12 +100,19 @@ def _basin_list(basins: Any) -> list[Any] | None:
         items = list(basins)
     names = [getattr(b, "name", None) for b in items]
     if not items or any(not hasattr(b, "geometry") for b in items):
-        raise ParameterError("basins must be Basin objects", variable="basins",
-                             expected="a Basin, a list of Basins or a dict of Basins",
-                             fix="build basins with climwidgets.Basin.from_geojson or Basin.from_vertices")
+        raise ParameterError(
+            "basins must be Basin objects",
+            variable="basins",
+            expected="a Basin, a list of Basins or a dict of Basins",
+            fix="build basins with climwidgets.Basin.from_geojson or Basin.from_vertices",
+        )
     if len(set(names)) != len(names):
-        raise ParameterError(f"basin names repeat: {names}", variable="basins",
-                             expected="one name per basin", fix="give every basin its own name")
+        raise ParameterError(
+            f"basin names repeat: {names}",
+            variable="basins",
+            expected="one name per basin",
+            fix="give every basin its own name",
+        )
     return items
 
 
@@ -103,8 +122,18 @@ def _running_max(x: np.ndarray) -> np.ndarray:
     return np.where(np.isnan(x), np.nan, acc)
 
 
-def _table(series: xr.DataArray, durations: tuple[int, ...], step: str, periods: Any, ci: float, n_boot: int,
-           seed: Any, year_start: int, min_valid_fraction: float, min_years: int) -> xr.Dataset:
+def _table(
+    series: xr.DataArray,
+    durations: tuple[int, ...],
+    step: str,
+    periods: Any,
+    ci: float,
+    n_boot: int,
+    seed: Any,
+    year_start: int,
+    min_valid_fraction: float,
+    min_years: int,
+) -> xr.Dataset:
     """Per-duration maxima and return levels, made consistent across durations."""
     maxima, levels = [], []
     for d in durations:  # a handful of durations, each vectorised over cells; d steps each
@@ -113,17 +142,34 @@ def _table(series: xr.DataArray, durations: tuple[int, ...], step: str, periods:
         levels.append(return_levels(am, periods=periods, ci=ci, n_boot=n_boot, seed=seed, min_years=min_years))
     dim = pd.Index(np.asarray(durations, dtype=int), name="duration")
     am = xr.concat(maxima, dim=dim, coords="minimal", compat="override", join="outer")
-    rl = xr.concat([r[["estimate", "lower", "upper", "loc", "scale", "shape"]] for r in levels], dim=dim,
-                   coords="minimal", compat="override")
+    rl = xr.concat(
+        [r[["estimate", "lower", "upper", "loc", "scale", "shape"]] for r in levels],
+        dim=dim,
+        coords="minimal",
+        compat="override",
+    )
     raw = rl["estimate"]
     consistent = {}
     for v in ("estimate", "lower", "upper"):
         x = rl[v].chunk({"duration": -1}) if rl[v].chunks is not None else rl[v]
-        consistent[v] = xr.apply_ufunc(_running_max, x, input_core_dims=[["duration"]],
-                                       output_core_dims=[["duration"]], dask="parallelized",
-                                       output_dtypes=[float]).transpose(*rl[v].dims)
-    ds = xr.Dataset({**consistent, "adjusted": consistent["estimate"] > raw,
-                     "loc": rl["loc"], "scale": rl["scale"], "shape": rl["shape"], "annual_max": am})
+        consistent[v] = xr.apply_ufunc(
+            _running_max,
+            x,
+            input_core_dims=[["duration"]],
+            output_core_dims=[["duration"]],
+            dask="parallelized",
+            output_dtypes=[float],
+        ).transpose(*rl[v].dims)
+    ds = xr.Dataset(
+        {
+            **consistent,
+            "adjusted": consistent["estimate"] > raw,
+            "loc": rl["loc"],
+            "scale": rl["scale"],
+            "shape": rl["shape"],
+            "annual_max": am,
+        }
+    )
     ds.attrs = {k: v for k, v in levels[0].attrs.items() if k not in ("history", "duration")}
     for v in ("estimate", "lower", "upper"):
         ds[v].attrs = dict(levels[0][v].attrs)
@@ -134,11 +180,20 @@ def _table(series: xr.DataArray, durations: tuple[int, ...], step: str, periods:
     return ds
 
 
-def depth_duration_frequency(pr: xr.DataArray, durations: Any = None, periods: Any = (2, 5, 10, 25, 50, 100),
-                             ci: float = 0.9, basins: Any = None, areal: str = "series", units: str = "mm",
-                             n_boot: int = 1000, seed: Any = 0, year_start: int = 1,
-                             min_valid_fraction: float = DEFAULT_MIN_VALID_FRACTION,
-                             min_years: int = 10) -> xr.Dataset:
+def depth_duration_frequency(
+    pr: xr.DataArray,
+    durations: Any = None,
+    periods: Any = (2, 5, 10, 25, 50, 100),
+    ci: float = 0.9,
+    basins: Any = None,
+    areal: str = "series",
+    units: str = "mm",
+    n_boot: int = 1000,
+    seed: Any = 0,
+    year_start: int = 1,
+    min_valid_fraction: float = DEFAULT_MIN_VALID_FRACTION,
+    min_years: int = 10,
+) -> xr.Dataset:
     """Depth-duration-frequency table: T-year depths by duration and return period.
 
     Parameters
@@ -206,21 +261,41 @@ def depth_duration_frequency(pr: xr.DataArray, durations: Any = None, periods: A
     pr, step = precip_mm(pr, "depth_duration_frequency")
     src = source_name(pr)
     if step == "month":
-        raise TimeAxisError("monthly totals cannot give depth-duration-frequency tables", source=src,
-                            variable=pr.name, expected="hourly or daily depths",
-                            fix="use hourly or daily data")
+        raise TimeAxisError(
+            "monthly totals cannot give depth-duration-frequency tables",
+            source=src,
+            variable=pr.name,
+            expected="hourly or daily depths",
+            fix="use hourly or daily data",
+        )
     durs = _check_durations(durations, step, src)
     check_depth_units(units)
     if areal not in _AREAL:
-        raise ParameterError(f"areal={areal!r} is not offered", variable="areal",
-                             expected="'series' (fit the basin-mean series) or 'arf' (point depths x ARF)",
-                             fix="pass areal='series' or areal='arf'")
+        raise ParameterError(
+            f"areal={areal!r} is not offered",
+            variable="areal",
+            expected="'series' (fit the basin-mean series) or 'arf' (point depths x ARF)",
+            fix="pass areal='series' or areal='arf'",
+        )
     if not isinstance(n_boot, numbers.Integral):
-        raise ParameterError(f"n_boot={n_boot!r} is not a whole number", variable="n_boot",
-                             expected="an integer of at least 50", fix="use n_boot=1000")
+        raise ParameterError(
+            f"n_boot={n_boot!r} is not a whole number",
+            variable="n_boot",
+            expected="an integer of at least 50",
+            fix="use n_boot=1000",
+        )
     items = _basin_list(basins)
-    fit = dict(durations=durs, step=step, periods=periods, ci=ci, n_boot=n_boot, seed=seed,
-               year_start=year_start, min_valid_fraction=min_valid_fraction, min_years=min_years)
+    fit = dict(
+        durations=durs,
+        step=step,
+        periods=periods,
+        ci=ci,
+        n_boot=n_boot,
+        seed=seed,
+        year_start=year_start,
+        min_valid_fraction=min_valid_fraction,
+        min_years=min_years,
+    )
     hours = np.asarray(durs, dtype=float) * (1 if step == "hour" else 24)
 
     if items is None:
@@ -235,15 +310,30 @@ def depth_duration_frequency(pr: xr.DataArray, durations: Any = None, periods: A
     ds = ds.assign_coords(duration_hours=("duration", hours, {"units": "hours"}))
     ds["duration"].attrs.update(units=f"{step}s", long_name="duration of the running total")
     ds.attrs.update(
-        cautions=DESIGN_DEPTH_CAUTIONS, duration_units=f"{step}s", consistency=CONSISTENCY_METHOD,
-        areal="none (per cell)" if items is None else
-        ("fit of the basin-mean series" if areal == "series" else f"mean point depth x ARF: {ARF_SOURCE}"),
+        cautions=DESIGN_DEPTH_CAUTIONS,
+        duration_units=f"{step}s",
+        consistency=CONSISTENCY_METHOD,
+        areal="none (per cell)"
+        if items is None
+        else ("fit of the basin-mean series" if areal == "series" else f"mean point depth x ARF: {ARF_SOURCE}"),
     )
     ds = convert_depth(ds, units)
-    return with_history(ds, "depth_duration_frequency", pr.attrs, durations=durs,
-                        periods=tuple(np.atleast_1d(periods).tolist()), ci=ci, basins=None if items is None else
-                        tuple(b.name for b in items), areal=areal, units=units, n_boot=n_boot, seed=seed,
-                        year_start=year_start, min_valid_fraction=min_valid_fraction, min_years=min_years)
+    return with_history(
+        ds,
+        "depth_duration_frequency",
+        pr.attrs,
+        durations=durs,
+        periods=tuple(np.atleast_1d(periods).tolist()),
+        ci=ci,
+        basins=None if items is None else tuple(b.name for b in items),
+        areal=areal,
+        units=units,
+        n_boot=n_boot,
+        seed=seed,
+        year_start=year_start,
+        min_valid_fraction=min_valid_fraction,
+        min_years=min_years,
+    )
 
 
 def _arf_tables(pr: xr.DataArray, items: list[Any], fit: dict[str, Any], hours: np.ndarray) -> xr.Dataset:
@@ -255,19 +345,23 @@ def _arf_tables(pr: xr.DataArray, items: list[Any], fit: dict[str, Any], hours: 
         area_km2 = float(b.area_m2) / 1e6
         with warnings.catch_warnings(record=True) as caught:
             warnings.simplefilter("always", ARFExtrapolationWarning)
-            arf = areal_reduction_factor(xr.DataArray(hours, dims="duration",
-                                                      coords={"duration": point["duration"]}), area_km2)
+            arf = areal_reduction_factor(
+                xr.DataArray(hours, dims="duration", coords={"duration": point["duration"]}), area_km2
+            )
         for w in caught:
             warnings.warn(f"basin {b.name!r}: {w.message}", ARFExtrapolationWarning, stacklevel=3)
-        mean = {v: basin_mean(point[v], b).drop_vars("covered_fraction", errors="ignore") * arf
-                for v in ("estimate", "lower", "upper")}
+        mean = {
+            v: basin_mean(point[v], b).drop_vars("covered_fraction", errors="ignore") * arf
+            for v in ("estimate", "lower", "upper")
+        }
         one = xr.Dataset(mean)
         for v in mean:
             one[v].attrs = dict(point[v].attrs)
         one["areal_reduction_factor"] = arf.drop_vars([c for c in arf.coords if c != "duration"])
         one["basin_area_km2"] = xr.DataArray(area_km2, attrs={"units": "km2", "long_name": "basin area (geodesic)"})
-        one["point_adjusted_cells"] = point["adjusted"].sum([d for d in point["adjusted"].dims
-                                                            if d not in ("duration", "period")])
+        one["point_adjusted_cells"] = point["adjusted"].sum(
+            [d for d in point["adjusted"].dims if d not in ("duration", "period")]
+        )
         one["point_adjusted_cells"].attrs = {"units": "1", "long_name": "cells whose point estimate was raised"}
         one.attrs = dict(point.attrs)
         one.attrs["arf_extrapolated"] = int(arf.attrs["extrapolated"])

@@ -46,8 +46,12 @@ def check_depth_units(units: str) -> str:
     'in'
     """
     if units not in DEPTH_UNITS:
-        raise ParameterError(f"units={units!r} is not a depth unit offered here", variable="units",
-                             expected="'mm' or 'in'", fix="pass units='mm' (default) or units='in'")
+        raise ParameterError(
+            f"units={units!r} is not a depth unit offered here",
+            variable="units",
+            expected="'mm' or 'in'",
+            fix="pass units='mm' (default) or units='in'",
+        )
     return units
 
 
@@ -108,5 +112,9 @@ def convert_depth(obj: _XR, units: str = "mm") -> _XR:
             out[name] = one(obj[name])
         out.attrs = {**obj.attrs, "depth_units": units}
         return out
-    raise ParameterError(f"cannot convert a {type(obj).__name__}", variable="obj",
-                         expected="an xarray DataArray or Dataset", fix="pass the result of a design-depth function")
+    raise ParameterError(
+        f"cannot convert a {type(obj).__name__}",
+        variable="obj",
+        expected="an xarray DataArray or Dataset",
+        fix="pass the result of a design-depth function",
+    )

@@ -40,8 +40,9 @@ def _name(obj: object) -> str:
     return f"DataArray {name!r}" if name is not None else "input DataArray"
 
 
-def member_dim(obj: xr.DataArray | xr.Dataset, dim: str | None = None, func: str = "ensemble_summary",
-               required: bool = True) -> str | None:
+def member_dim(
+    obj: xr.DataArray | xr.Dataset, dim: str | None = None, func: str = "ensemble_summary", required: bool = True
+) -> str | None:
     """The name of the member dimension of ``obj``.
 
     ``dim`` given: it must be a dimension of ``obj``.  Otherwise the first of
@@ -80,27 +81,39 @@ def member_dim(obj: xr.DataArray | xr.Dataset, dim: str | None = None, func: str
     """
     if dim is not None:
         if not isinstance(dim, str) or dim not in obj.dims:
-            raise ParameterError(f"dim={dim!r} is not a dimension of the input (dims {tuple(obj.dims)})",
-                                 source=func, variable="dim", expected="the name of the member dimension",
-                                 fix=f"pass one of {tuple(obj.dims)} or leave dim out to detect "
-                                     f"one of {MEMBER_DIMS}")
+            raise ParameterError(
+                f"dim={dim!r} is not a dimension of the input (dims {tuple(obj.dims)})",
+                source=func,
+                variable="dim",
+                expected="the name of the member dimension",
+                fix=f"pass one of {tuple(obj.dims)} or leave dim out to detect one of {MEMBER_DIMS}",
+            )
         return dim
     found = [d for d in MEMBER_DIMS if d in obj.dims]
     if len(found) > 1:
-        raise ParameterError(f"several member-like dimensions {tuple(found)}", source=func, variable="dim",
-                             expected="one member dimension", fix=f"pass dim= one of {tuple(found)}")
+        raise ParameterError(
+            f"several member-like dimensions {tuple(found)}",
+            source=func,
+            variable="dim",
+            expected="one member dimension",
+            fix=f"pass dim= one of {tuple(found)}",
+        )
     if not found:
         if not required:
             return None
-        raise ParameterError(f"no member dimension (dims are {tuple(obj.dims)})", source=_name(obj),
-                             variable=getattr(obj, "name", None),
-                             expected=f"a dimension named one of {MEMBER_DIMS}",
-                             fix="stack the runs with xr.concat(runs, dim='member') or pass dim=")
+        raise ParameterError(
+            f"no member dimension (dims are {tuple(obj.dims)})",
+            source=_name(obj),
+            variable=getattr(obj, "name", None),
+            expected=f"a dimension named one of {MEMBER_DIMS}",
+            fix="stack the runs with xr.concat(runs, dim='member') or pass dim=",
+        )
     return found[0]
 
 
-def check_members(hist: xr.DataArray, future: xr.DataArray, dim: str | None = None,
-                  func: str = "delta_change") -> str | None:
+def check_members(
+    hist: xr.DataArray, future: xr.DataArray, dim: str | None = None, func: str = "delta_change"
+) -> str | None:
     """The member dimension shared by a historical and a future run (None for single runs).
 
     Both runs must have the member dimension, or neither; its labels must be the same.
@@ -140,9 +153,13 @@ def check_members(hist: xr.DataArray, future: xr.DataArray, dim: str | None = No
     df = member_dim(future, dim, func, required=dim is not None)
     if dh != df:
         missing = "model_future" if dh else "model_hist"
-        raise MismatchError(f"{missing} has no member dimension '{dh or df}'", source=func,
-                            variable=dh or df, expected="the same member dimension in the historical and future runs",
-                            fix="give both runs the same member dimension, or select one member of each")
+        raise MismatchError(
+            f"{missing} has no member dimension '{dh or df}'",
+            source=func,
+            variable=dh or df,
+            expected="the same member dimension in the historical and future runs",
+            fix="give both runs the same member dimension, or select one member of each",
+        )
     if dh is None:
         return None
     if dh in hist.coords and dh in future.coords:
@@ -151,10 +168,13 @@ def check_members(hist: xr.DataArray, future: xr.DataArray, dim: str | None = No
     else:
         same = hist.sizes[dh] == future.sizes[dh]
     if not same:
-        raise MismatchError(f"the historical and future runs have different members along '{dh}'",
-                            source=func, variable=dh,
-                            expected="the same member labels in the same order in both runs",
-                            fix=f"select the common members, e.g. future.sel({dh}=hist.{dh})")
+        raise MismatchError(
+            f"the historical and future runs have different members along '{dh}'",
+            source=func,
+            variable=dh,
+            expected="the same member labels in the same order in both runs",
+            fix=f"select the common members, e.g. future.sel({dh}=hist.{dh})",
+        )
     return dh
 
 
@@ -163,8 +183,9 @@ def _member_chunks(field: xr.DataArray, dim: str) -> xr.DataArray:
     return field.chunk({dim: -1}) if field.chunks is not None else field
 
 
-def ensemble_summary(field: xr.DataArray, dim: str | None = None, change: str | None = None,
-                     quantiles: Sequence[float] = (0.25, 0.75)) -> xr.Dataset:
+def ensemble_summary(
+    field: xr.DataArray, dim: str | None = None, change: str | None = None, quantiles: Sequence[float] = (0.25, 0.75)
+) -> xr.Dataset:
     """Ensemble mean, median, spread and (for a change field) agreement over members.
 
     Parameters
@@ -214,22 +235,34 @@ def ensemble_summary(field: xr.DataArray, dim: str | None = None, change: str | 
     """
     func = "ensemble_summary"
     if not isinstance(field, xr.DataArray):
-        raise ParameterError(f"field is a {type(field).__name__}", source=func, variable="field",
-                             expected="an xarray.DataArray with a member dimension",
-                             fix="select one variable of the Dataset first")
+        raise ParameterError(
+            f"field is a {type(field).__name__}",
+            source=func,
+            variable="field",
+            expected="an xarray.DataArray with a member dimension",
+            fix="select one variable of the Dataset first",
+        )
     if change not in _CHANGE_KINDS:
-        raise ParameterError(f"change={change!r} is not known", source=func, variable="change",
-                             expected="None, 'difference' or 'ratio'",
-                             fix="pass change='difference' for future − historical, 'ratio' for future / historical")
+        raise ParameterError(
+            f"change={change!r} is not known",
+            source=func,
+            variable="change",
+            expected="None, 'difference' or 'ratio'",
+            fix="pass change='difference' for future − historical, 'ratio' for future / historical",
+        )
     try:
         qlo, qhi = (float(q) for q in quantiles)
         ok = 0.0 <= qlo < qhi <= 1.0
     except (TypeError, ValueError):
         ok = False
     if not ok:
-        raise ParameterError(f"quantiles={quantiles!r} is not a pair of increasing probabilities",
-                             source=func, variable="quantiles", expected="(low, high) with 0 <= low < high <= 1",
-                             fix="pass quantiles=(0.25, 0.75) for the interquartile range")
+        raise ParameterError(
+            f"quantiles={quantiles!r} is not a pair of increasing probabilities",
+            source=func,
+            variable="quantiles",
+            expected="(low, high) with 0 <= low < high <= 1",
+            fix="pass quantiles=(0.25, 0.75) for the interquartile range",
+        )
     dim = cast(str, member_dim(field, dim, func))  # required: never None
     x = _member_chunks(field.astype(float), dim)
     units = field.attrs.get("units", "")
@@ -259,10 +292,14 @@ def ensemble_summary(field: xr.DataArray, dim: str | None = None, change: str | 
         centre = np.sign(stats["median"][0] - ref)
         agree = (sign == centre).where(x.notnull()).sum(dim) / n.where(n > 0)
         ds["agreement"] = agree.assign_attrs(
-            units="1", long_name=f"share of members agreeing with the sign of the ensemble-median change of {what}")
-    ds.attrs = {"member_dim": dim, "n_members_total": int(field.sizes[dim]),
-                "percentile_method": "linear interpolation of sorted members (Hyndman & Fan 1996 type 7)",
-                "change_kind": "none" if change is None else change}
+            units="1", long_name=f"share of members agreeing with the sign of the ensemble-median change of {what}"
+        )
+    ds.attrs = {
+        "member_dim": dim,
+        "n_members_total": int(field.sizes[dim]),
+        "percentile_method": "linear interpolation of sorted members (Hyndman & Fan 1996 type 7)",
+        "change_kind": "none" if change is None else change,
+    }
     if change is not None:
         ds.attrs["agreement_reference"] = 0.0 if change == "difference" else 1.0
     return with_history(ds, func, field.attrs, dim=dim, change=change, quantiles=(qlo, qhi))

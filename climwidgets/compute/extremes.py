@@ -42,35 +42,47 @@ _STEP = {name: _dt.timedelta(seconds=seconds) for name, seconds in STEP_SECONDS.
 def _check_positive_int(value: Any, name: str, allowed: tuple[int, ...], extra: str = "") -> int:
     fix = f"choose one of {allowed}{extra}"
     if isinstance(value, bool) or not isinstance(value, (int, np.integer)):
-        raise ParameterError(f"{name}={value!r} is not a whole number", variable=name,
-                             expected=f"one of {allowed}", fix=fix)
+        raise ParameterError(
+            f"{name}={value!r} is not a whole number", variable=name, expected=f"one of {allowed}", fix=fix
+        )
     if value <= 0:
-        raise ParameterError(f"{name}={value} is not positive", variable=name,
-                             expected=f"a positive duration, one of {allowed}", fix=fix)
+        raise ParameterError(
+            f"{name}={value} is not positive", variable=name, expected=f"a positive duration, one of {allowed}", fix=fix
+        )
     if value not in allowed:
-        raise ParameterError(f"{name}={value} is not a supported duration", variable=name,
-                             expected=f"one of {allowed}", fix=fix)
+        raise ParameterError(
+            f"{name}={value} is not a supported duration", variable=name, expected=f"one of {allowed}", fix=fix
+        )
     return int(value)
 
 
 def _window(step: str, duration_days: Any, duration_hours: Any, src: str) -> tuple[int, str]:
     """Number of steps per window and a label such as '3 day'."""
     if step == "month":
-        raise TimeAxisError("monthly totals cannot give n-day maxima", source=src,
-                            expected="daily or hourly depths (attrs['step'] 'day' or 'hour')",
-                            fix="use daily or hourly data for annual maxima")
+        raise TimeAxisError(
+            "monthly totals cannot give n-day maxima",
+            source=src,
+            expected="daily or hourly depths (attrs['step'] 'day' or 'hour')",
+            fix="use daily or hourly data for annual maxima",
+        )
     if duration_hours is not None:
         if duration_days not in (None, 1):
-            raise ParameterError("both duration_days and duration_hours were given",
-                                 variable="duration_hours", expected="one duration",
-                                 fix="pass duration_hours alone, or duration_days alone")
+            raise ParameterError(
+                "both duration_days and duration_hours were given",
+                variable="duration_hours",
+                expected="one duration",
+                fix="pass duration_hours alone, or duration_days alone",
+            )
         hours = _check_positive_int(duration_hours, "duration_hours", HOUR_DURATIONS)
         step_hours = STEP_SECONDS.get(step, 86400.0) / 3600.0
         if step == "day" or hours % step_hours:
-            raise ParameterError(f"duration_hours={hours} needs hourly input (or a step that divides it); "
-                                 f"the data step is {step!r}", source=src, variable="duration_hours",
-                                 expected="attrs['step'] 'hour', or an n-hour step that divides the duration",
-                                 fix="use duration_days with daily data")
+            raise ParameterError(
+                f"duration_hours={hours} needs hourly input (or a step that divides it); the data step is {step!r}",
+                source=src,
+                variable="duration_hours",
+                expected="attrs['step'] 'hour', or an n-hour step that divides the duration",
+                fix="use duration_days with daily data",
+            )
         return int(hours // step_hours), f"{hours} hour"
     days = _check_positive_int(duration_days, "duration_days", DAY_DURATIONS)
     return int(round(days * 86400.0 / STEP_SECONDS[step])), f"{days} day"
@@ -85,9 +97,12 @@ def _check_regular(times: np.ndarray, step: str, src: str) -> None:
     if isinstance(times[0], np.datetime64):
         expected = np.timedelta64(expected)
     if not np.all(diffs == expected):
-        raise TimeAxisError(f"the time axis has gaps or steps other than one {step}", source=src,
-                            expected=f"consecutive {step}s (missing values as NaN, not missing steps)",
-                            fix="reindex onto a complete time axis, e.g. pr.resample(time=...).asfreq()")
+        raise TimeAxisError(
+            f"the time axis has gaps or steps other than one {step}",
+            source=src,
+            expected=f"consecutive {step}s (missing values as NaN, not missing steps)",
+            fix="reindex onto a complete time axis, e.g. pr.resample(time=...).asfreq()",
+        )
 
 
 def _year_start_date(template: Any, year: int, month: int) -> Any:
@@ -109,10 +124,15 @@ def _nominal_steps(template: Any, labels: np.ndarray, year_start: int, step: str
     return np.asarray(out)
 
 
-def annual_maxima(pr: xr.DataArray, duration_days: int | None = 1, duration_hours: int | None = None,
-                  year_start: int = 1, min_valid_fraction: float = DEFAULT_MIN_VALID_FRACTION,
-                  fixed_to_sliding: float | None = None,
-                  return_dates: bool = False) -> Any:  # DataArray, or Dataset with return_dates
+def annual_maxima(
+    pr: xr.DataArray,
+    duration_days: int | None = 1,
+    duration_hours: int | None = None,
+    year_start: int = 1,
+    min_valid_fraction: float = DEFAULT_MIN_VALID_FRACTION,
+    fixed_to_sliding: float | None = None,
+    return_dates: bool = False,
+) -> Any:  # DataArray, or Dataset with return_dates
     """Annual maximum of n-day (or n-hour) running totals, per cell.
 
     Parameters
@@ -180,10 +200,15 @@ def annual_maxima(pr: xr.DataArray, duration_days: int | None = 1, duration_hour
     return annual_maxima_window(pr, n, label, year_start, min_valid_fraction, fixed_to_sliding, return_dates)
 
 
-def annual_maxima_window(pr: xr.DataArray, n: int, label: str, year_start: int = 1,
-                         min_valid_fraction: float = DEFAULT_MIN_VALID_FRACTION,
-                         fixed_to_sliding: float | None = None,
-                         return_dates: bool = False) -> Any:  # DataArray, or Dataset with return_dates
+def annual_maxima_window(
+    pr: xr.DataArray,
+    n: int,
+    label: str,
+    year_start: int = 1,
+    min_valid_fraction: float = DEFAULT_MIN_VALID_FRACTION,
+    fixed_to_sliding: float | None = None,
+    return_dates: bool = False,
+) -> Any:  # DataArray, or Dataset with return_dates
     """:func:`annual_maxima` for a window of ``n`` steps named ``label`` (e.g. "4 day").
 
     For callers that need durations outside the widget's short lists (the depth-duration-
@@ -229,21 +254,36 @@ def annual_maxima_window(pr: xr.DataArray, n: int, label: str, year_start: int =
     pr, step = precip_mm(pr, "annual_maxima")
     src = source_name(pr)
     year_start = check_year_start(year_start, "annual_maxima")
-    if isinstance(min_valid_fraction, bool) or not isinstance(min_valid_fraction, numbers.Real) \
-            or not 0 < min_valid_fraction <= 1:
-        raise ParameterError(f"min_valid_fraction={min_valid_fraction!r} is not a fraction",
-                             variable="min_valid_fraction", expected="a number in (0, 1]",
-                             fix=f"use min_valid_fraction={DEFAULT_MIN_VALID_FRACTION}")
-    if fixed_to_sliding is not None and (isinstance(fixed_to_sliding, bool)
-                                         or not isinstance(fixed_to_sliding, numbers.Real)
-                                         or not 1 <= fixed_to_sliding <= 1.5):
-        raise ParameterError(f"fixed_to_sliding={fixed_to_sliding!r} is not allowed", variable="fixed_to_sliding",
-                             expected="None, or a factor between 1 and 1.5 (Hershfield 1961 gives 1.13 for 1 day)",
-                             fix="pass fixed_to_sliding=1.13 for daily data, or leave it None")
+    if (
+        isinstance(min_valid_fraction, bool)
+        or not isinstance(min_valid_fraction, numbers.Real)
+        or not 0 < min_valid_fraction <= 1
+    ):
+        raise ParameterError(
+            f"min_valid_fraction={min_valid_fraction!r} is not a fraction",
+            variable="min_valid_fraction",
+            expected="a number in (0, 1]",
+            fix=f"use min_valid_fraction={DEFAULT_MIN_VALID_FRACTION}",
+        )
+    if fixed_to_sliding is not None and (
+        isinstance(fixed_to_sliding, bool)
+        or not isinstance(fixed_to_sliding, numbers.Real)
+        or not 1 <= fixed_to_sliding <= 1.5
+    ):
+        raise ParameterError(
+            f"fixed_to_sliding={fixed_to_sliding!r} is not allowed",
+            variable="fixed_to_sliding",
+            expected="None, or a factor between 1 and 1.5 (Hershfield 1961 gives 1.13 for 1 day)",
+            fix="pass fixed_to_sliding=1.13 for daily data, or leave it None",
+        )
     if not is_dask(pr) and bool((pr < 0).any()):
-        raise DataValueError("negative precipitation depths", source=src, variable=pr.name,
-                             expected="depths >= 0 mm (missing values as NaN)",
-                             fix="set negative fill values to NaN before calling")
+        raise DataValueError(
+            "negative precipitation depths",
+            source=src,
+            variable=pr.name,
+            expected="depths >= 0 mm (missing values as NaN)",
+            fix="set negative fill values to NaN before calling",
+        )
 
     times = pr["time"].values
     _check_regular(times, step, src)
@@ -256,9 +296,12 @@ def annual_maxima_window(pr: xr.DataArray, n: int, label: str, year_start: int =
     need = min_valid_fraction * nominal
     keep = axis_count >= need  # years the axis covers well enough (drops partial end years)
     if not keep.any():
-        raise TimeAxisError(f"no year has {min_valid_fraction:.0%} of its steps on the time axis",
-                            source=src, expected="at least one (nearly) complete year",
-                            fix="use a longer record or lower min_valid_fraction")
+        raise TimeAxisError(
+            f"no year has {min_valid_fraction:.0%} of its steps on the time axis",
+            source=src,
+            expected="at least one (nearly) complete year",
+            fix="use a longer record or lower min_valid_fraction",
+        )
 
     label_da = xr.DataArray(labels, dims="time", coords={"time": pr["time"]}, name="year")
     # a window with any missing step is NaN (min_periods = full window)
@@ -273,43 +316,57 @@ def annual_maxima_window(pr: xr.DataArray, n: int, label: str, year_start: int =
     if is_dask(pr):  # dask's rolling splits the spatial chunks; restore the input's layout
         amax = amax.chunk({d: pr.chunksizes[d] for d in amax.dims if d in pr.chunksizes and d != "time"})
     amax = amax.drop_vars([c for c in amax.coords if "time" in amax[c].dims])
-    year_label = "calendar year" if year_start == 1 else \
-        f"12-month year starting in month {year_start}, labelled by the year it ends"
+    year_label = (
+        "calendar year"
+        if year_start == 1
+        else f"12-month year starting in month {year_start}, labelled by the year it ends"
+    )
     amax.attrs = {
         "units": "mm",
         "long_name": f"annual maximum {label} precipitation",
-        "duration": label, "duration_steps": n, "step": step,
-        "year_start": year_start, "year_label": year_label,
+        "duration": label,
+        "duration_steps": n,
+        "step": step,
+        "year_start": year_start,
+        "year_label": year_label,
         "min_valid_fraction": float(min_valid_fraction),
-        "completeness_rule": (f"a year counts if at least {min_valid_fraction:.0%} of its steps are present; "
-                              "windows with any missing step are skipped; a window belongs to the year of its last step"),
+        "completeness_rule": (
+            f"a year counts if at least {min_valid_fraction:.0%} of its steps are present; "
+            "windows with any missing step are skipped; a window belongs to the year of its last step"
+        ),
         "fixed_to_sliding": "none" if fixed_to_sliding is None else float(fixed_to_sliding),
     }
     if fixed_to_sliding is not None:
         amax.attrs["fixed_to_sliding_source"] = "Hershfield (1961), U.S. Weather Bureau Technical Paper 40"
-    params = dict(duration=label, year_start=year_start, min_valid_fraction=min_valid_fraction,
-                  fixed_to_sliding=fixed_to_sliding)
+    params = dict(
+        duration=label, year_start=year_start, min_valid_fraction=min_valid_fraction, fixed_to_sliding=fixed_to_sliding
+    )
     if not return_dates:
         return with_history(amax, "annual_maxima", pr.attrs, **params)
 
     # Dates: per kept year, the position of the maximum within that year's windows.
     trimmed = totals.isel(time=slice(n - 1, None))
-    starts = times[:len(times) - n + 1]
-    lab_t = labels[n - 1:]
+    starts = times[: len(times) - n + 1]
+    lab_t = labels[n - 1 :]
     end_list, start_list = [], []
     for y in uniq[keep]:  # loop over years, not cells
         sel = np.flatnonzero(lab_t == y)
         block = trimmed.isel(time=slice(sel[0], sel[-1] + 1))
         end_list.append(block.idxmax("time", skipna=True))
-        start_list.append(block.assign_coords(time=starts[sel[0]:sel[-1] + 1]).idxmax("time", skipna=True))
+        start_list.append(block.assign_coords(time=starts[sel[0] : sel[-1] + 1]).idxmax("time", skipna=True))
     ok = amax.notnull()
     year_coord = {"year": uniq[keep]}
     end = xr.concat(end_list, dim="year").assign_coords(year_coord).transpose("year", ...).where(ok)
     start = xr.concat(start_list, dim="year").assign_coords(year_coord).transpose("year", ...).where(ok)
     end.attrs = {"long_name": "last time step of the window with the annual maximum"}
     start.attrs = {"long_name": "first time step of the window with the annual maximum"}
-    ds = xr.Dataset({"annual_max": amax, "start": start.drop_vars("time", errors="ignore"),
-                     "end": end.drop_vars("time", errors="ignore")})
+    ds = xr.Dataset(
+        {
+            "annual_max": amax,
+            "start": start.drop_vars("time", errors="ignore"),
+            "end": end.drop_vars("time", errors="ignore"),
+        }
+    )
     ds.attrs = {k: v for k, v in amax.attrs.items() if k not in ("units", "long_name")}
     with_history(amax, "annual_maxima", pr.attrs, **params)
     return with_history(ds, "annual_maxima", pr.attrs, return_dates=True, **params)

@@ -65,6 +65,7 @@ _BOOT_BLOCK_ELEMENTS = 2_000_000
 
 # ----------------------------------------------------------------------------- numpy core
 
+
 def _sample_lmoments(x: Any) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
     """L-moments along the last axis, ignoring NaN per row.
 
@@ -93,8 +94,13 @@ def _sample_lmoments(x: Any) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.nda
         t4 = l4 / l2
     short = n < 4
     nanify = short | ~(l2 > 0)
-    return (n, np.where(short, np.nan, l1), np.where(short, np.nan, l2),
-            np.where(nanify, np.nan, t3), np.where(nanify, np.nan, t4))
+    return (
+        n,
+        np.where(short, np.nan, l1),
+        np.where(short, np.nan, l2),
+        np.where(nanify, np.nan, t3),
+        np.where(nanify, np.nan, t4),
+    )
 
 
 def _pwm(x: Any) -> np.ndarray:
@@ -182,7 +188,7 @@ def _cdf(x: Any, loc: Any, scale: Any, k: Any) -> np.ndarray:
         z = (x - loc) / scale
         ks = np.where(k == 0, 1.0, k)
         arg = 1.0 - ks * z
-        gev = np.where(arg > 0, np.exp(-np.abs(arg) ** (1.0 / ks)), np.where(ks > 0, 1.0, 0.0))
+        gev = np.where(arg > 0, np.exp(-(np.abs(arg) ** (1.0 / ks))), np.where(ks > 0, 1.0, 0.0))
         gum = np.exp(-np.exp(-z))
     return np.where(k == 0, gum, gev)
 
@@ -272,8 +278,9 @@ def _pwm_weights(n: int) -> np.ndarray:
     return np.stack([np.ones(n), w1, w2])
 
 
-def _bootstrap_block(x: np.ndarray, F: np.ndarray, dist: str, min_years: int, ci: float, n_boot: int,
-                     seed: Any) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+def _bootstrap_block(
+    x: np.ndarray, F: np.ndarray, dist: str, min_years: int, ci: float, n_boot: int, seed: Any
+) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """Estimates and percentile intervals for every row of x (..., year) at probabilities F.
 
     The same uniform draws (one (n_boot, n_years) table from ``seed``) serve every cell
@@ -307,7 +314,7 @@ def _bootstrap_block(x: np.ndarray, F: np.ndarray, dist: str, min_years: int, ci
         gumbel_b = -lnln @ w  # the Gumbel replicates' sums, shared by every cell
         group = ok_rows[sizes == size]
         for start in range(0, group.size, step):  # memory bound, not a loop over single cells
-            rows = group[start:start + step]
+            rows = group[start : start + step]
             kk = k[rows]
             ks = np.where(kk == 0, 1.0, kk)[:, None, None]
             # x(u) = loc + scale/k (1 - (-ln u)^k) = loc + (scale/k) d,  d = -expm1(k ln(-ln u));
@@ -338,21 +345,29 @@ def _bootstrap_block(x: np.ndarray, F: np.ndarray, dist: str, min_years: int, ci
 
 # ----------------------------------------------------------------------------- validation
 
+
 def _name(obj: object) -> str:
     return getattr(obj, "name", None) or "annual maxima"
 
 
 def _check_dist(dist: str) -> None:
     if dist not in ("gev", "gumbel"):
-        raise ParameterError(f"unknown distribution {dist!r}", variable="dist",
-                             expected="'gev' or 'gumbel'", fix="pass dist='gev' (default) or dist='gumbel'")
+        raise ParameterError(
+            f"unknown distribution {dist!r}",
+            variable="dist",
+            expected="'gev' or 'gumbel'",
+            fix="pass dist='gev' (default) or dist='gumbel'",
+        )
 
 
 def _check_min_years(min_years: Any) -> None:
     if not isinstance(min_years, (int, np.integer)) or isinstance(min_years, bool) or min_years < 4:
-        raise ParameterError(f"min_years={min_years!r} is not allowed", variable="min_years",
-                             expected="an integer of at least 4 (L-moments up to order 4 need 4 values)",
-                             fix="use min_years=10 or more for design work")
+        raise ParameterError(
+            f"min_years={min_years!r} is not allowed",
+            variable="min_years",
+            expected="an integer of at least 4 (L-moments up to order 4 need 4 values)",
+            fix="use min_years=10 or more for design work",
+        )
 
 
 def _as_maxima(annual_max: Any, dim: str, min_years: int) -> xr.DataArray:
@@ -362,18 +377,27 @@ def _as_maxima(annual_max: Any, dim: str, min_years: int) -> xr.DataArray:
     else:
         arr = np.asarray(annual_max, dtype=float)
         if arr.ndim != 1:
-            raise ParameterError("a plain array of annual maxima must be one-dimensional",
-                                 source="annual maxima", expected="a 1-D sequence or a DataArray with a 'year' dimension",
-                                 fix="wrap gridded maxima in an xarray.DataArray with a 'year' dimension")
+            raise ParameterError(
+                "a plain array of annual maxima must be one-dimensional",
+                source="annual maxima",
+                expected="a 1-D sequence or a DataArray with a 'year' dimension",
+                fix="wrap gridded maxima in an xarray.DataArray with a 'year' dimension",
+            )
         da = xr.DataArray(arr, dims=(dim,), name="annual_max")
     if dim not in da.dims:
-        raise ParameterError(f"no '{dim}' dimension (dims are {da.dims})", source=_name(da),
-                             expected=f"annual maxima with a '{dim}' dimension, as from annual_maxima()",
-                             fix=f"pass dim= naming the year dimension, or rename it to '{dim}'")
+        raise ParameterError(
+            f"no '{dim}' dimension (dims are {da.dims})",
+            source=_name(da),
+            expected=f"annual maxima with a '{dim}' dimension, as from annual_maxima()",
+            fix=f"pass dim= naming the year dimension, or rename it to '{dim}'",
+        )
     if da.sizes[dim] < min_years:
-        raise InsufficientDataError(f"only {da.sizes[dim]} years of annual maxima", source=_name(da),
-                                    expected=f"at least min_years={min_years} years",
-                                    fix="use a longer record or lower min_years (not advised below 10)")
+        raise InsufficientDataError(
+            f"only {da.sizes[dim]} years of annual maxima",
+            source=_name(da),
+            expected=f"at least min_years={min_years} years",
+            fix="use a longer record or lower min_years (not advised below 10)",
+        )
     if da.chunks is not None:
         da = da.chunk({dim: -1})
     return da.astype(float)
@@ -385,23 +409,29 @@ def _require_some_cell(n_years: xr.DataArray, min_years: int, source: str) -> in
         return None
     n_short = int((n_years < min_years).sum())
     if n_short == n_years.size:
-        raise InsufficientDataError(f"no series has {min_years} or more non-missing years "
-                                    f"(most has {int(n_years.max())})", source=source,
-                                    expected=f"at least min_years={min_years} valid annual maxima",
-                                    fix="use a longer record, fill gaps, or lower min_years (not advised below 10)")
+        raise InsufficientDataError(
+            f"no series has {min_years} or more non-missing years (most has {int(n_years.max())})",
+            source=source,
+            expected=f"at least min_years={min_years} valid annual maxima",
+            fix="use a longer record, fill gaps, or lower min_years (not advised below 10)",
+        )
     return n_short
 
 
 def _check_periods(periods: Any) -> np.ndarray:
     arr = np.atleast_1d(np.asarray(periods, dtype=float))
     if arr.ndim != 1 or arr.size == 0 or not np.all(np.isfinite(arr)) or np.any(arr <= 1):
-        raise ParameterError(f"return periods {periods!r} are not allowed", variable="periods",
-                             expected="finite return periods in years, each greater than 1",
-                             fix="pass for example periods=(2, 10, 25, 50, 100)")
+        raise ParameterError(
+            f"return periods {periods!r} are not allowed",
+            variable="periods",
+            expected="finite return periods in years, each greater than 1",
+            fix="pass for example periods=(2, 10, 25, 50, 100)",
+        )
     return arr
 
 
 # ----------------------------------------------------------------------------- public
+
 
 def lmoments(x: Any) -> dict[str, Any]:
     """Sample L-moments of a 1-D series: dict with b0..b3, l1..l4, t3, t4 (NaN dropped).
@@ -501,24 +531,36 @@ def gev_lmoments(annual_max: Any, dist: str = "gev", min_years: int = 10, dim: s
     _check_min_years(min_years)
     da = _as_maxima(annual_max, dim, min_years)
     outs = xr.apply_ufunc(
-        _fit_block, da, kwargs=dict(dist=dist, min_years=min_years),
-        input_core_dims=[[dim]], output_core_dims=[[]] * 8,
-        dask="parallelized", output_dtypes=[float] * 8,
+        _fit_block,
+        da,
+        kwargs=dict(dist=dist, min_years=min_years),
+        input_core_dims=[[dim]],
+        output_core_dims=[[]] * 8,
+        dask="parallelized",
+        output_dtypes=[float] * 8,
     )
     names = ("loc", "scale", "shape", "n_years", "l1", "l2", "t3", "t4")
     ds = xr.Dataset(dict(zip(names, outs)))
     units = da.attrs.get("units", "")
-    for v, u, ln in (("loc", units, "GEV location"), ("scale", units, "GEV scale"),
-                     ("shape", "1", "GEV shape k (Hosking)"), ("n_years", "1", "non-missing years"),
-                     ("l1", units, "L-mean"), ("l2", units, "L-scale"),
-                     ("t3", "1", "L-skewness"), ("t4", "1", "L-kurtosis")):
+    for v, u, ln in (
+        ("loc", units, "GEV location"),
+        ("scale", units, "GEV scale"),
+        ("shape", "1", "GEV shape k (Hosking)"),
+        ("n_years", "1", "non-missing years"),
+        ("l1", units, "L-mean"),
+        ("l2", units, "L-scale"),
+        ("t3", "1", "L-skewness"),
+        ("t4", "1", "L-kurtosis"),
+    ):
         ds[v].attrs.update(units=u, long_name=ln)
     n_short = _require_some_cell(ds["n_years"], min_years, _name(da))
     ds.attrs.update(
-        distribution=dist, method="L-moments (Hosking 1990; Hosking & Wallis 1997); "
+        distribution=dist,
+        method="L-moments (Hosking 1990; Hosking & Wallis 1997); "
         "shape by the approximation of Hosking, Wallis & Wood (1985) for -0.5 <= k <= 0.5, "
         "by exact numerical inversion of the t3-k relation outside",
-        sign_convention=SIGN_CONVENTION, min_years=min_years,
+        sign_convention=SIGN_CONVENTION,
+        min_years=min_years,
         insufficient_rule=f"cells with fewer than {min_years} non-missing years are NaN",
     )
     if n_short is not None:
@@ -529,8 +571,16 @@ def gev_lmoments(annual_max: Any, dist: str = "gev", min_years: int = 10, dim: s
     return with_history(ds, "gev_lmoments", da.attrs, dist=dist, min_years=min_years)
 
 
-def return_levels(annual_max: Any, periods: Any = (2, 10, 25, 50, 100), ci: float = 0.9, n_boot: int = 1000,
-                  seed: Any = 0, dist: str = "gev", min_years: int = 10, dim: str = "year") -> xr.Dataset:
+def return_levels(
+    annual_max: Any,
+    periods: Any = (2, 10, 25, 50, 100),
+    ci: float = 0.9,
+    n_boot: int = 1000,
+    seed: Any = 0,
+    dist: str = "gev",
+    min_years: int = 10,
+    dim: str = "year",
+) -> xr.Dataset:
     """Return levels (T-year depths) with parametric-bootstrap percentile intervals.
 
     The estimate is the quantile of the L-moment fit at F = 1 - 1/T.  The interval: draw
@@ -597,44 +647,69 @@ def return_levels(annual_max: Any, periods: Any = (2, 10, 25, 50, 100), ci: floa
     _check_min_years(min_years)
     T = _check_periods(periods)
     if not (isinstance(ci, (float, int)) and 0 < ci < 1):
-        raise ParameterError(f"ci={ci!r} is not a probability", variable="ci",
-                             expected="a confidence level strictly between 0 and 1", fix="use ci=0.9 for a 90 % interval")
+        raise ParameterError(
+            f"ci={ci!r} is not a probability",
+            variable="ci",
+            expected="a confidence level strictly between 0 and 1",
+            fix="use ci=0.9 for a 90 % interval",
+        )
     if not isinstance(n_boot, (int, np.integer)) or isinstance(n_boot, bool) or n_boot < 50:
-        raise ParameterError(f"n_boot={n_boot!r} is too small for percentile intervals", variable="n_boot",
-                             expected="an integer of at least 50 (1000 or more for final numbers)",
-                             fix="use n_boot=1000")
+        raise ParameterError(
+            f"n_boot={n_boot!r} is too small for percentile intervals",
+            variable="n_boot",
+            expected="an integer of at least 50 (1000 or more for final numbers)",
+            fix="use n_boot=1000",
+        )
     da = _as_maxima(annual_max, dim, min_years)
     params = gev_lmoments(da, dist=dist, min_years=min_years, dim=dim)
     F = 1.0 - 1.0 / T
     est, lo, hi = xr.apply_ufunc(
-        _bootstrap_block, da,
+        _bootstrap_block,
+        da,
         kwargs=dict(F=F, dist=dist, min_years=min_years, ci=float(ci), n_boot=int(n_boot), seed=seed),
-        input_core_dims=[[dim]], output_core_dims=[["period"]] * 3,
-        dask="parallelized", output_dtypes=[float] * 3,
+        input_core_dims=[[dim]],
+        output_core_dims=[["period"]] * 3,
+        dask="parallelized",
+        output_dtypes=[float] * 3,
         dask_gufunc_kwargs=dict(output_sizes={"period": T.size}),
     )
     units = da.attrs.get("units", "")
     ds = xr.Dataset(dict(estimate=est, lower=lo, upper=hi))
     ds = ds.assign_coords(period=("period", T, {"units": "years", "long_name": "return period"}))
     ds = ds.transpose("period", ...)
-    for v, ln in (("estimate", "return level"), ("lower", f"lower bound of the {ci:.0%} interval"),
-                  ("upper", f"upper bound of the {ci:.0%} interval")):
+    for v, ln in (
+        ("estimate", "return level"),
+        ("lower", f"lower bound of the {ci:.0%} interval"),
+        ("upper", f"upper bound of the {ci:.0%} interval"),
+    ):
         ds[v].attrs.update(units=units, long_name=ln)
     for v in ("loc", "scale", "shape"):
         ds[v] = params[v]
     ds.attrs.update({k: v for k, v in params.attrs.items() if k != "history"})
     ds.attrs.update(
-        ci=float(ci), n_boot=int(n_boot), seed=seed,
+        ci=float(ci),
+        n_boot=int(n_boot),
+        seed=seed,
         interval_method="parametric bootstrap, refit by L-moments, percentile interval, common random numbers",
         quantile="x(F) = loc + scale/k (1 - (-ln F)^k), F = 1 - 1/T; Gumbel when k = 0",
         cautions=DESIGN_DEPTH_CAUTIONS,
     )
-    return with_history(ds, "return_levels", da.attrs, periods=tuple(T.tolist()), ci=ci,
-                        n_boot=n_boot, seed=seed, dist=dist, min_years=min_years)
+    return with_history(
+        ds,
+        "return_levels",
+        da.attrs,
+        periods=tuple(T.tolist()),
+        ci=ci,
+        n_boot=n_boot,
+        seed=seed,
+        dist=dist,
+        min_years=min_years,
+    )
 
 
-def return_period(annual_max_or_params: Any, depth: Any, dist: str = "gev", min_years: int = 10,
-                  dim: str = "year") -> xr.DataArray:
+def return_period(
+    annual_max_or_params: Any, depth: Any, dist: str = "gev", min_years: int = 10, dim: str = "year"
+) -> xr.DataArray:
     """Return period (years) of a depth: the inverse of :func:`return_levels`.
 
     ``annual_max_or_params`` is either a Dataset with ``loc``, ``scale``, ``shape`` (as from
@@ -689,11 +764,13 @@ def return_period(annual_max_or_params: Any, depth: Any, dist: str = "gev", min_
     else:
         params = gev_lmoments(annual_max_or_params, dist=dist, min_years=min_years, dim=dim)
     depth = depth if isinstance(depth, xr.DataArray) else xr.DataArray(np.asarray(depth, dtype=float))
-    T: xr.DataArray = xr.apply_ufunc(_period, depth, params["loc"], params["scale"], params["shape"], dask="parallelized",
-                       output_dtypes=[float])
+    T: xr.DataArray = xr.apply_ufunc(
+        _period, depth, params["loc"], params["scale"], params["shape"], dask="parallelized", output_dtypes=[float]
+    )
     T = T.rename("return_period")
-    T.attrs.update(units="years", long_name="return period", sign_convention=SIGN_CONVENTION,
-                   cautions=DESIGN_DEPTH_CAUTIONS)
+    T.attrs.update(
+        units="years", long_name="return period", sign_convention=SIGN_CONVENTION, cautions=DESIGN_DEPTH_CAUTIONS
+    )
     return with_history(T, "return_period", params.attrs)
 
 
@@ -742,22 +819,35 @@ def gev_mle(series: Any, min_years: int = 10) -> xr.Dataset:
     _check_min_years(min_years)
     arr = np.asarray(series.values if isinstance(series, xr.DataArray) else series, dtype=float)
     if arr.ndim != 1:
-        raise ParameterError(f"gev_mle fits one series; got {arr.ndim} dimensions", source=_name(series),
-                             expected="a 1-D series of annual maxima",
-                             fix="select one cell (e.g. .isel(lat=0, lon=0)) or use gev_lmoments for grids")
+        raise ParameterError(
+            f"gev_mle fits one series; got {arr.ndim} dimensions",
+            source=_name(series),
+            expected="a 1-D series of annual maxima",
+            fix="select one cell (e.g. .isel(lat=0, lon=0)) or use gev_lmoments for grids",
+        )
     x = arr[np.isfinite(arr)]
     if x.size < min_years:
-        raise InsufficientDataError(f"only {x.size} non-missing annual maxima", source=_name(series),
-                                    expected=f"at least min_years={min_years} values",
-                                    fix="use a longer record")
+        raise InsufficientDataError(
+            f"only {x.size} non-missing annual maxima",
+            source=_name(series),
+            expected=f"at least min_years={min_years} values",
+            fix="use a longer record",
+        )
     m = lmoments(x)
     loc0, scale0, k0 = (float(v) for v in _params_from_lmoments(m["l1"], m["l2"], m["t3"], "gev"))
     if not np.isfinite(k0):
         loc0, scale0, k0 = float(np.mean(x)), float(np.std(x)), 0.0
     c, loc, scale = stats.genextreme.fit(x, k0, loc=loc0, scale=scale0)
     units = getattr(series, "attrs", {}).get("units", "")
-    ds = xr.Dataset(dict(loc=((), loc, {"units": units}), scale=((), scale, {"units": units}),
-                         shape=((), c, {"units": "1"}), n_years=((), float(x.size), {"units": "1"})))
-    ds.attrs.update(distribution="gev", method="maximum likelihood, scipy.stats.genextreme.fit",
-                    sign_convention=SIGN_CONVENTION)
+    ds = xr.Dataset(
+        dict(
+            loc=((), loc, {"units": units}),
+            scale=((), scale, {"units": units}),
+            shape=((), c, {"units": "1"}),
+            n_years=((), float(x.size), {"units": "1"}),
+        )
+    )
+    ds.attrs.update(
+        distribution="gev", method="maximum likelihood, scipy.stats.genextreme.fit", sign_convention=SIGN_CONVENTION
+    )
     return with_history(ds, "gev_mle", getattr(series, "attrs", {}), min_years=min_years)

@@ -58,8 +58,20 @@ from .extremes import _check_regular
 __all__ = ["INDEX_NAMES", "WET_DAY_MM", "precip_indices", "wet_day_percentiles"]
 
 WET_DAY_MM = 1.0
-INDEX_NAMES = ("PRCPTOT", "SDII", "R10mm", "R20mm", "CDD", "CWD", "R95p", "R99p",
-               "R95pTOT", "R99pTOT", "Rx1day", "Rx5day")
+INDEX_NAMES = (
+    "PRCPTOT",
+    "SDII",
+    "R10mm",
+    "R20mm",
+    "CDD",
+    "CWD",
+    "R95p",
+    "R99p",
+    "R95pTOT",
+    "R99pTOT",
+    "Rx1day",
+    "Rx5day",
+)
 _SPELLS = ("CDD", "CWD")
 _FREQS = ("year", "season", "month")
 _SEASONS = ("DJF", "MAM", "JJA", "SON")
@@ -67,17 +79,28 @@ _THRESHOLD_NAME = re.compile(r"^R(\d+(?:\.\d+)?)mm$")
 _PERCENTILE = {"R95p": 95, "R99p": 99, "R95pTOT": 95, "R99pTOT": 99}
 
 _META = {
-    "PRCPTOT": ("mm", "total precipitation on wet days",
-                "sum of daily precipitation on days with at least 1 mm"),
-    "SDII": ("mm d-1", "simple daily intensity index",
-             "PRCPTOT divided by the number of wet days (at least 1 mm); NaN without wet days"),
-    "CDD": ("d", "maximum number of consecutive dry days",
-            "longest run of days with less than 1 mm, counted within the period"),
-    "CWD": ("d", "maximum number of consecutive wet days",
-            "longest run of days with at least 1 mm, counted within the period"),
+    "PRCPTOT": ("mm", "total precipitation on wet days", "sum of daily precipitation on days with at least 1 mm"),
+    "SDII": (
+        "mm d-1",
+        "simple daily intensity index",
+        "PRCPTOT divided by the number of wet days (at least 1 mm); NaN without wet days",
+    ),
+    "CDD": (
+        "d",
+        "maximum number of consecutive dry days",
+        "longest run of days with less than 1 mm, counted within the period",
+    ),
+    "CWD": (
+        "d",
+        "maximum number of consecutive wet days",
+        "longest run of days with at least 1 mm, counted within the period",
+    ),
     "Rx1day": ("mm", "maximum 1-day precipitation", "largest daily depth in the period"),
-    "Rx5day": ("mm", "maximum consecutive 5-day precipitation",
-               "largest sum over 5 consecutive days; a window belongs to the period of its last day"),
+    "Rx5day": (
+        "mm",
+        "maximum consecutive 5-day precipitation",
+        "largest sum over 5 consecutive days; a window belongs to the period of its last day",
+    ),
 }
 
 
@@ -86,16 +109,27 @@ def _meta(name: str) -> tuple[str, str, str]:
         return _META[name]
     if name in _PERCENTILE and name.endswith("TOT"):
         p = _PERCENTILE[name]
-        return ("%", f"contribution to PRCPTOT from days above the {p}th percentile",
-                f"100 * R{p}p / PRCPTOT; NaN where PRCPTOT is 0")
+        return (
+            "%",
+            f"contribution to PRCPTOT from days above the {p}th percentile",
+            f"100 * R{p}p / PRCPTOT; NaN where PRCPTOT is 0",
+        )
     if name in _PERCENTILE:
         p = _PERCENTILE[name]
-        return ("mm", f"precipitation on days above the {p}th percentile",
-                (f"sum of daily precipitation on wet days with more than the {p}th percentile of "
-                 "the base period's wet days"))
+        return (
+            "mm",
+            f"precipitation on days above the {p}th percentile",
+            (
+                f"sum of daily precipitation on wet days with more than the {p}th percentile of "
+                "the base period's wet days"
+            ),
+        )
     nn = _threshold(name)
-    return ("d", f"number of days with at least {nn:g} mm",
-            f"count of days with daily precipitation of {nn:g} mm or more")
+    return (
+        "d",
+        f"number of days with at least {nn:g} mm",
+        f"count of days with daily precipitation of {nn:g} mm or more",
+    )
 
 
 def _threshold(name: str) -> float | None:
@@ -109,13 +143,20 @@ def _threshold_name(value: float) -> str:
 
 # ----------------------------------------------------------------------------- numpy/dask core
 
+
 def _cummax_last_axis(a: Any) -> Any:
     """Running maximum along the last axis (numpy or dask, time may stay chunked)."""
     if hasattr(a, "dask"):
         from dask.array.reductions import cumreduction
 
-        return cumreduction(np.maximum.accumulate, np.maximum, np.iinfo(a.dtype).min, a,  # type: ignore[no-untyped-call]
-                            axis=a.ndim - 1, dtype=a.dtype)
+        return cumreduction(
+            np.maximum.accumulate,
+            np.maximum,
+            np.iinfo(a.dtype).min,
+            a,  # type: ignore[no-untyped-call]
+            axis=a.ndim - 1,
+            dtype=a.dtype,
+        )
     return np.maximum.accumulate(a, axis=-1)
 
 
@@ -129,8 +170,9 @@ def _longest_spell(flag: xr.DataArray, period_start: np.ndarray, label: xr.DataA
     idx = xr.DataArray(np.arange(nt, dtype=np.int32), dims="time")
     start = xr.DataArray(period_start, dims="time")
     reset = xr.where(flag, xr.where(start, idx - 1, np.int32(-1)), idx).astype(np.int32)  # type: ignore[no-untyped-call]
-    last = xr.apply_ufunc(_cummax_last_axis, reset, input_core_dims=[["time"]],
-                          output_core_dims=[["time"]], dask="allowed")
+    last = xr.apply_ufunc(
+        _cummax_last_axis, reset, input_core_dims=[["time"]], output_core_dims=[["time"]], dask="allowed"
+    )
     run = (idx - last).assign_coords(time=flag["time"])
     longest: xr.DataArray = run.groupby(label).max("time", skipna=False)
     return longest
@@ -159,6 +201,7 @@ def _quantile_type8(x: np.ndarray, probs: np.ndarray) -> np.ndarray:
 
 
 # ----------------------------------------------------------------------------- time labels
+
 
 def _labels(times: xr.DataArray, freq: str, year_start: int) -> tuple[np.ndarray, tuple[int, ...]]:
     """Integer period code per day and the first month of each period kind."""
@@ -191,6 +234,7 @@ def _complete_codes(times: xr.DataArray, code: np.ndarray, start_months: tuple[i
 
 # ----------------------------------------------------------------------------- validation
 
+
 def _check_names(names: Any, thresholds: Any, freq: str, src: str) -> list[str]:
     fix = f"choose from {INDEX_NAMES} or 'R<nn>mm' such as 'R25mm'"
     if names is None:
@@ -201,12 +245,17 @@ def _check_names(names: Any, thresholds: Any, freq: str, src: str) -> list[str]:
         chosen = []
         for n in names:
             if not isinstance(n, str) or (n not in INDEX_NAMES and _threshold(n) is None):
-                raise ParameterError(f"unknown index {n!r}", source=src, variable="names",
-                                     expected="ETCCDI short names", fix=fix)
+                raise ParameterError(
+                    f"unknown index {n!r}", source=src, variable="names", expected="ETCCDI short names", fix=fix
+                )
             if n in _SPELLS and freq != "year":
-                raise ParameterError(f"{n} is defined for years only, not freq={freq!r}", source=src,
-                                     variable="names", expected="freq='year' for CDD and CWD",
-                                     fix="drop CDD/CWD from names or use freq='year'")
+                raise ParameterError(
+                    f"{n} is defined for years only, not freq={freq!r}",
+                    source=src,
+                    variable="names",
+                    expected="freq='year' for CDD and CWD",
+                    fix="drop CDD/CWD from names or use freq='year'",
+                )
             if n not in chosen:
                 chosen.append(n)
     try:
@@ -214,11 +263,14 @@ def _check_names(names: Any, thresholds: Any, freq: str, src: str) -> list[str]:
     except TypeError:
         extra = (thresholds,)
     for t in extra:
-        if isinstance(t, bool) or not isinstance(t, numbers.Real) \
-                or not np.isfinite(t) or t <= 0:  # type: ignore[call-overload]  # numbers.Real stubs
-            raise ParameterError(f"threshold {t!r} is not a positive depth", source=src,
-                                 variable="thresholds", expected="depths in mm greater than 0",
-                                 fix="pass for example thresholds=(25, 50)")
+        if isinstance(t, bool) or not isinstance(t, numbers.Real) or not np.isfinite(t) or t <= 0:  # type: ignore[call-overload]  # numbers.Real stubs
+            raise ParameterError(
+                f"threshold {t!r} is not a positive depth",
+                source=src,
+                variable="thresholds",
+                expected="depths in mm greater than 0",
+                fix="pass for example thresholds=(25, 50)",
+            )
         name = _threshold_name(float(t))
         if name not in chosen:
             chosen.append(name)
@@ -227,12 +279,21 @@ def _check_names(names: Any, thresholds: Any, freq: str, src: str) -> list[str]:
 
 def _check_freq(freq: str, year_start: int, src: str) -> None:
     if freq not in _FREQS:
-        raise ParameterError(f"freq={freq!r} is not supported", source=src, variable="freq",
-                             expected="'year', 'season' or 'month'", fix="pass freq='year'")
+        raise ParameterError(
+            f"freq={freq!r} is not supported",
+            source=src,
+            variable="freq",
+            expected="'year', 'season' or 'month'",
+            fix="pass freq='year'",
+        )
     if freq != "year" and year_start != 1:
-        raise ParameterError(f"year_start={year_start} only applies to freq='year'", source=src,
-                             variable="year_start", expected="year_start=1 with seasons or months",
-                             fix="leave year_start at 1, or use freq='year' for water years")
+        raise ParameterError(
+            f"year_start={year_start} only applies to freq='year'",
+            source=src,
+            variable="year_start",
+            expected="year_start=1 with seasons or months",
+            fix="leave year_start at 1, or use freq='year' for water years",
+        )
 
 
 def _whole_time(da: xr.DataArray) -> xr.DataArray:
@@ -247,8 +308,13 @@ def _whole_time(da: xr.DataArray) -> xr.DataArray:
 
 # ----------------------------------------------------------------------------- public
 
-def wet_day_percentiles(pr: xr.DataArray, base_period: Sequence[int] | None = (1961, 1990), year_start: int = 1,
-                        percentiles: Sequence[float] = (95, 99)) -> xr.DataArray:
+
+def wet_day_percentiles(
+    pr: xr.DataArray,
+    base_period: Sequence[int] | None = (1961, 1990),
+    year_start: int = 1,
+    percentiles: Sequence[float] = (95, 99),
+) -> xr.DataArray:
     """Percentiles of the base period's wet days (>= 1 mm) per cell, Hyndman & Fan type 8.
 
     See the module notes.
@@ -297,8 +363,13 @@ def wet_day_percentiles(pr: xr.DataArray, base_period: Sequence[int] | None = (1
     pr, step = precip_mm(pr, "wet_day_percentiles")
     src = source_name(pr)
     if step != "day":
-        raise TimeAxisError(f"the data step is {step!r}", source=src, variable=pr.name,
-                            expected="daily depths", fix="sum to days first: pr.resample(time='1D').sum(skipna=False)")
+        raise TimeAxisError(
+            f"the data step is {step!r}",
+            source=src,
+            variable=pr.name,
+            expected="daily depths",
+            fix="sum to days first: pr.resample(time='1D').sum(skipna=False)",
+        )
     year_start = check_year_start(year_start, "wet_day_percentiles")
     code, starts = _labels(pr["time"], "year", year_start)
     complete = _complete_codes(pr["time"], code, starts)
@@ -309,27 +380,47 @@ def wet_day_percentiles(pr: xr.DataArray, base_period: Sequence[int] | None = (1
         if first < complete.min() or last > complete.max():
             raise ParameterError(
                 f"base_period=({first}, {last}) lies outside the data's complete years "
-                f"{complete.min()}-{complete.max()}", source=src, variable="base_period",
+                f"{complete.min()}-{complete.max()}",
+                source=src,
+                variable="base_period",
                 expected=f"years within {complete.min()}-{complete.max()}",
-                fix="choose a base period inside the record, or base_period=None for the whole record")
+                fix="choose a base period inside the record, or base_period=None for the whole record",
+            )
     in_base = (code >= first) & (code <= last)
     base = pr.isel(time=np.flatnonzero(in_base))
     wet = _whole_time(base.where(base >= WET_DAY_MM))
     probs = np.asarray(percentiles, dtype=float) / 100.0
-    out: xr.DataArray = xr.apply_ufunc(_quantile_type8, wet, kwargs=dict(probs=probs), input_core_dims=[["time"]],
-                         output_core_dims=[["percentile"]], dask="parallelized", output_dtypes=[float],
-                         dask_gufunc_kwargs=dict(output_sizes={"percentile": probs.size}))
+    out: xr.DataArray = xr.apply_ufunc(
+        _quantile_type8,
+        wet,
+        kwargs=dict(probs=probs),
+        input_core_dims=[["time"]],
+        output_core_dims=[["percentile"]],
+        dask="parallelized",
+        output_dtypes=[float],
+        dask_gufunc_kwargs=dict(output_sizes={"percentile": probs.size}),
+    )
     out = out.assign_coords(percentile=("percentile", np.asarray(percentiles, dtype=float)))
     if is_dask(pr):
         out = out.chunk({d: pr.chunksizes[d] for d in out.dims if d in pr.chunksizes})
     out = out.rename("wet_day_percentile")
-    out.attrs = dict(units="mm", long_name="percentile of wet-day precipitation in the base period",
-                     base_period=f"{first}-{last}", method="Hyndman & Fan (1996) type 8 (median-unbiased)")
+    out.attrs = dict(
+        units="mm",
+        long_name="percentile of wet-day precipitation in the base period",
+        base_period=f"{first}-{last}",
+        method="Hyndman & Fan (1996) type 8 (median-unbiased)",
+    )
     return out
 
 
-def precip_indices(pr: xr.DataArray, names: Any = None, base_period: Sequence[int] | None = (1961, 1990),
-                   year_start: int = 1, freq: str = "year", thresholds: Any = ()) -> xr.Dataset:
+def precip_indices(
+    pr: xr.DataArray,
+    names: Any = None,
+    base_period: Sequence[int] | None = (1961, 1990),
+    year_start: int = 1,
+    freq: str = "year",
+    thresholds: Any = (),
+) -> xr.Dataset:
     """ETCCDI precipitation indices per cell and period.
 
     Parameters
@@ -394,23 +485,36 @@ def precip_indices(pr: xr.DataArray, names: Any = None, base_period: Sequence[in
     pr, step = precip_mm(pr, "precip_indices")
     src = source_name(pr)
     if step != "day":
-        raise TimeAxisError(f"the data step is {step!r}; the ETCCDI indices are defined on days",
-                            source=src, variable=pr.name, expected="daily depths (attrs['step'] == 'day')",
-                            fix="sum to days first: pr.resample(time='1D').sum(skipna=False), step='day'")
+        raise TimeAxisError(
+            f"the data step is {step!r}; the ETCCDI indices are defined on days",
+            source=src,
+            variable=pr.name,
+            expected="daily depths (attrs['step'] == 'day')",
+            fix="sum to days first: pr.resample(time='1D').sum(skipna=False), step='day'",
+        )
     year_start = check_year_start(year_start, "precip_indices")
     _check_freq(freq, year_start, src)
     chosen = _check_names(names, thresholds, freq, src)
     _check_regular(pr["time"].values, "day", src)
     if not is_dask(pr) and bool((pr < 0).any()):
-        raise DataValueError("negative precipitation depths", source=src, variable=pr.name,
-                             expected="depths >= 0 mm (missing values as NaN)",
-                             fix="set negative fill values to NaN before calling")
+        raise DataValueError(
+            "negative precipitation depths",
+            source=src,
+            variable=pr.name,
+            expected="depths >= 0 mm (missing values as NaN)",
+            fix="set negative fill values to NaN before calling",
+        )
 
     code, starts = _labels(pr["time"], freq, year_start)
     complete = _complete_codes(pr["time"], code, starts)
     if complete.size == 0:
-        raise TimeAxisError(f"no complete {freq} on the time axis", source=src, variable=pr.name,
-                            expected=f"at least one fully covered {freq}", fix="use a longer record")
+        raise TimeAxisError(
+            f"no complete {freq} on the time axis",
+            source=src,
+            variable=pr.name,
+            expected=f"at least one fully covered {freq}",
+            fix="use a longer record",
+        )
     label = xr.DataArray(code, dims="time", coords={"time": pr["time"]}, name="period")
     period_start = np.r_[True, code[1:] != code[:-1]]
     data = pr.astype(float) if pr.dtype.kind != "f" else pr
@@ -463,29 +567,37 @@ def precip_indices(pr: xr.DataArray, names: Any = None, base_period: Sequence[in
     for n in chosen:
         units, long_name, description = _meta(n)
         ds[n].attrs = dict(units=units, long_name=long_name, description=description)
-    year_label = "calendar year" if year_start == 1 else \
-        f"12-month year starting in month {year_start}, labelled by the year it ends"
+    year_label = (
+        "calendar year"
+        if year_start == 1
+        else f"12-month year starting in month {year_start}, labelled by the year it ends"
+    )
     ds.attrs = dict(
-        indices="ETCCDI (Karl et al. 1999; Zhang et al. 2011)", freq=freq, year_start=year_start,
-        year_label=year_label if freq == "year" else ("DJF, MAM, JJA, SON; December counts to the next year's DJF"
-                                                      if freq == "season" else "calendar month"),
+        indices="ETCCDI (Karl et al. 1999; Zhang et al. 2011)",
+        freq=freq,
+        year_start=year_start,
+        year_label=year_label
+        if freq == "year"
+        else ("DJF, MAM, JJA, SON; December counts to the next year's DJF" if freq == "season" else "calendar month"),
         wet_day=f"daily precipitation >= {WET_DAY_MM:g} mm; dry day < {WET_DAY_MM:g} mm",
         missing_rule="a period with any missing day is NaN; periods the time axis covers only in part are dropped",
         spell_convention="spells are cut at the period boundary; each part counts in its own period",
-        percentile_method=("wet days of the base period pooled per cell; Hyndman & Fan (1996) type 8 "
-                           "(median-unbiased); above means strictly greater"),
+        percentile_method=(
+            "wet days of the base period pooled per cell; Hyndman & Fan (1996) type 8 "
+            "(median-unbiased); above means strictly greater"
+        ),
         rolling_window="Rx5day windows belong to the period of their last day",
     )
     if base_label is not None:
         ds.attrs["base_period"] = base_label
     if freq != "year" and names is None:
         ds.attrs["omitted"] = "CDD and CWD (defined for years only)"
-    return with_history(ds, "precip_indices", pr.attrs, names=tuple(chosen),
-                        base_period=base_period, year_start=year_start, freq=freq)
+    return with_history(
+        ds, "precip_indices", pr.attrs, names=tuple(chosen), base_period=base_period, year_start=year_start, freq=freq
+    )
 
 
-def _relabel(ds: xr.Dataset, times: xr.DataArray, code: np.ndarray, complete: np.ndarray,
-             freq: str) -> xr.Dataset:
+def _relabel(ds: xr.Dataset, times: xr.DataArray, code: np.ndarray, complete: np.ndarray, freq: str) -> xr.Dataset:
     """Replace the integer period code with the house coordinates."""
     if freq == "year":
         return ds.rename(period="year").assign_coords(year=("year", complete.astype(int)))
@@ -495,5 +607,4 @@ def _relabel(ds: xr.Dataset, times: xr.DataArray, code: np.ndarray, complete: np
     ds = ds.rename(period="time").assign_coords(time=("time", t))
     if freq == "month":
         return ds.assign_coords(year=("time", complete // 12), month=("time", complete % 12 + 1))
-    return ds.assign_coords(year=("time", complete // 4),
-                            season=("time", np.asarray(_SEASONS)[complete % 4]))
+    return ds.assign_coords(year=("time", complete // 4), season=("time", np.asarray(_SEASONS)[complete % 4]))

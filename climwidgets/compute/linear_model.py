@@ -31,17 +31,16 @@ from scipy.fft import next_fast_len
 from ..errors import ParameterError
 from ..provenance import with_history
 from . import _crest
-from .thermo import (LATENT_HEAT_VAPORISATION, R_VAPOUR, moist_adiabatic_lapse_rate,
-                     saturation_vapor_density)
+from .thermo import LATENT_HEAT_VAPORISATION, R_VAPOUR, moist_adiabatic_lapse_rate, saturation_vapor_density
 
-__all__ = ["linear_orographic_precip", "condensation_coefficient",
-           "water_vapour_scale_height", "vertical_wavenumber"]
+__all__ = ["linear_orographic_precip", "condensation_coefficient", "water_vapour_scale_height", "vertical_wavenumber"]
 
 STANDARD_LAPSE_RATE = 0.0065  # K m-1, environmental lapse rate of the standard atmosphere
 
 
-def condensation_coefficient(temperature_c: Any, lapse_rate: float = STANDARD_LAPSE_RATE,
-                             pressure_pa: float = 101325.0) -> Any:
+def condensation_coefficient(
+    temperature_c: Any, lapse_rate: float = STANDARD_LAPSE_RATE, pressure_pa: float = 101325.0
+) -> Any:
     """Thermodynamic uplift sensitivity Cw = ρ_Sref · Γm / γ in kg m-3.
 
     ρ_Sref is the saturation water-vapour density at the surface, Γm the moist-adiabatic
@@ -158,15 +157,27 @@ def vertical_wavenumber(sigma: Any, k: Any, l: Any, nm: float) -> np.ndarray:
     return np.where(m2 >= 0, np.sign(sigma) * root, 1j * root)
 
 
-def _lt_core(h: np.ndarray, dx: float, dy: float, u: float, v: float, cw: float, hw: float, nm: float,
-             tau_c: float, tau_f: float, pad_y: int, pad_x: int) -> np.ndarray:
+def _lt_core(
+    h: np.ndarray,
+    dx: float,
+    dy: float,
+    u: float,
+    v: float,
+    cw: float,
+    hw: float,
+    nm: float,
+    tau_c: float,
+    tau_f: float,
+    pad_y: int,
+    pad_x: int,
+) -> np.ndarray:
     """Precipitation (kg m-2 s-1) on the last two axes (lat, lon) of terrain h (m)."""
     # Sea and missing cells are flat at sea level: the theory needs terrain heights >= 0.
     h = np.maximum(np.nan_to_num(np.asarray(h, dtype=float), nan=0.0), 0.0)
     ny, nx = h.shape[-2:]
     big_y, big_x = next_fast_len(ny + 2 * pad_y), next_fast_len(nx + 2 * pad_x)
     hp = np.zeros(h.shape[:-2] + (big_y, big_x))
-    hp[..., pad_y:pad_y + ny, pad_x:pad_x + nx] = h
+    hp[..., pad_y : pad_y + ny, pad_x : pad_x + nx] = h
     k = 2 * np.pi * np.fft.fftfreq(big_x, dx)
     l = 2 * np.pi * np.fft.fftfreq(big_y, dy)
     kk, ll = np.meshgrid(k, l)
@@ -175,22 +186,28 @@ def _lt_core(h: np.ndarray, dx: float, dy: float, u: float, v: float, cw: float,
     denom = (1 - 1j * m * hw) * (1 + 1j * sigma * tau_c) * (1 + 1j * sigma * tau_f)
     phat = cw * 1j * sigma * np.fft.fft2(hp) / denom
     p = np.fft.ifft2(phat).real
-    return p[..., pad_y:pad_y + ny, pad_x:pad_x + nx]
+    return p[..., pad_y : pad_y + ny, pad_x : pad_x + nx]
 
 
 def _spacing(coord: np.ndarray, name: str, func: str) -> float:
     if coord.size < 3:
         raise ParameterError(
-            f"the elevation grid has {coord.size} {name} value(s)", source=func, variable=name,
-            expected="at least 3 cells along lat and lon", fix="use a larger terrain domain")
+            f"the elevation grid has {coord.size} {name} value(s)",
+            source=func,
+            variable=name,
+            expected="at least 3 cells along lat and lon",
+            fix="use a larger terrain domain",
+        )
     d = np.diff(coord)
     if np.max(np.abs(d - d.mean())) > 1e-6 * abs(d.mean()) + 1e-9:
         raise ParameterError(
-            f"the {name} spacing is not uniform: steps range from {d.min():.6g} to "
-            f"{d.max():.6g} degrees", source=func, variable=name,
+            f"the {name} spacing is not uniform: steps range from {d.min():.6g} to {d.max():.6g} degrees",
+            source=func,
+            variable=name,
             expected="a regular lat/lon grid (the model works with a Fourier transform)",
             fix="regrid the elevation onto a regular grid first, for example with "
-                "climwidgets.regrid(elevation, target, method='bilinear')")
+            "climwidgets.regrid(elevation, target, method='bilinear')",
+        )
     return float(d.mean())
 
 
@@ -201,18 +218,28 @@ def _positive(value: Any, name: str, func: str, expected: str, fix: str, allow_z
         v = float("nan")
     if not np.isfinite(v) or v < 0 or (v == 0 and not allow_zero):
         bound = ">= 0" if allow_zero else "> 0"
-        raise ParameterError(f"{name}={value!r} must be a finite number {bound}", source=func,
-                             variable=name, expected=expected, fix=fix)
+        raise ParameterError(
+            f"{name}={value!r} must be a finite number {bound}", source=func, variable=name, expected=expected, fix=fix
+        )
     return v
 
 
-def linear_orographic_precip(elevation: xr.DataArray, wind_speed: float = 10.0,
-                             wind_from: float = 270.0, temperature_c: float = 10.0, *,
-                             nm: float = 0.005, hw: float | None = None, tau_c: float = 1000.0,
-                             tau_f: float = 1000.0, p_background: float = 0.0,
-                             duration_hours: float | None = None, pad: float = 1.0,
-                             lapse_rate: float = STANDARD_LAPSE_RATE,
-                             pressure_pa: float = 101325.0) -> xr.DataArray:
+def linear_orographic_precip(
+    elevation: xr.DataArray,
+    wind_speed: float = 10.0,
+    wind_from: float = 270.0,
+    temperature_c: float = 10.0,
+    *,
+    nm: float = 0.005,
+    hw: float | None = None,
+    tau_c: float = 1000.0,
+    tau_f: float = 1000.0,
+    p_background: float = 0.0,
+    duration_hours: float | None = None,
+    pad: float = 1.0,
+    lapse_rate: float = STANDARD_LAPSE_RATE,
+    pressure_pa: float = 101325.0,
+) -> xr.DataArray:
     """Orographic precipitation from the linear theory of Smith & Barstad (2004).
 
     The terrain is Fourier transformed, multiplied by the transfer function
@@ -323,37 +350,65 @@ def linear_orographic_precip(elevation: xr.DataArray, wind_speed: float = 10.0,
     """
     func = "linear_orographic_precip"
     lat, lon = _crest.grid_coords(elevation, func, "elevation")
-    speed = _positive(wind_speed, "wind_speed", func, "wind speed in m/s, > 0 (usual 5-25)",
-                      "pass a positive speed such as wind_speed=10.0", allow_zero=False)
+    speed = _positive(
+        wind_speed,
+        "wind_speed",
+        func,
+        "wind speed in m/s, > 0 (usual 5-25)",
+        "pass a positive speed such as wind_speed=10.0",
+        allow_zero=False,
+    )
     w = _crest.check_wind_from(wind_from, func)
     try:
         t = float(temperature_c)
     except (TypeError, ValueError):
         t = float("nan")
     if not -40.0 <= t <= 45.0:
-        raise ParameterError(f"temperature_c={temperature_c!r} is outside -40..45 °C", source=func,
-                             variable="temperature_c", expected="surface air temperature in °C",
-                             fix="pass degrees Celsius, e.g. 10.0 (not kelvin)")
-    nm = _positive(nm, "nm", func, "moist buoyancy frequency in s-1, >= 0 (usual 0-0.01)",
-                   "pass nm=0.005")
+        raise ParameterError(
+            f"temperature_c={temperature_c!r} is outside -40..45 °C",
+            source=func,
+            variable="temperature_c",
+            expected="surface air temperature in °C",
+            fix="pass degrees Celsius, e.g. 10.0 (not kelvin)",
+        )
+    nm = _positive(nm, "nm", func, "moist buoyancy frequency in s-1, >= 0 (usual 0-0.01)", "pass nm=0.005")
     tau_c = _positive(tau_c, "tau_c", func, "time delay in s, >= 0 (usual 200-2000)", "pass tau_c=1000.0")
     tau_f = _positive(tau_f, "tau_f", func, "time delay in s, >= 0 (usual 200-2000)", "pass tau_f=1000.0")
-    p_background = _positive(p_background, "p_background", func, "rate in mm/h, >= 0",
-                             "pass p_background=0.0")
+    p_background = _positive(p_background, "p_background", func, "rate in mm/h, >= 0", "pass p_background=0.0")
     pad = _positive(pad, "pad", func, "padding as a fraction of the domain, >= 0", "pass pad=1.0")
-    gamma = _positive(lapse_rate, "lapse_rate", func, "environmental lapse rate in K/m, "
-                      "0 < lapse_rate < 0.0098", "pass lapse_rate=0.0065", allow_zero=False)
+    gamma = _positive(
+        lapse_rate,
+        "lapse_rate",
+        func,
+        "environmental lapse rate in K/m, 0 < lapse_rate < 0.0098",
+        "pass lapse_rate=0.0065",
+        allow_zero=False,
+    )
     if gamma >= 0.0098:
-        raise ParameterError(f"lapse_rate={lapse_rate!r} is not below the dry adiabatic rate",
-                             source=func, variable="lapse_rate",
-                             expected="a stable environmental lapse rate, 0 < lapse_rate < 0.0098 K/m",
-                             fix="pass K per metre, e.g. 0.0065 (not K/km)")
+        raise ParameterError(
+            f"lapse_rate={lapse_rate!r} is not below the dry adiabatic rate",
+            source=func,
+            variable="lapse_rate",
+            expected="a stable environmental lapse rate, 0 < lapse_rate < 0.0098 K/m",
+            fix="pass K per metre, e.g. 0.0065 (not K/km)",
+        )
     if hw is not None:
-        hw = _positive(hw, "hw", func, "water-vapour scale height in m, >= 0 (usual 1500-3500)",
-                       "pass hw=None to derive it from the temperature")
+        hw = _positive(
+            hw,
+            "hw",
+            func,
+            "water-vapour scale height in m, >= 0 (usual 1500-3500)",
+            "pass hw=None to derive it from the temperature",
+        )
     if duration_hours is not None:
-        duration_hours = _positive(duration_hours, "duration_hours", func, "hours, > 0",
-                                   "pass duration_hours=24 or None for a rate", allow_zero=False)
+        duration_hours = _positive(
+            duration_hours,
+            "duration_hours",
+            func,
+            "hours, > 0",
+            "pass duration_hours=24 or None for a rate",
+            allow_zero=False,
+        )
     dlat, dlon = _spacing(lat, "lat", func), _spacing(lon, "lon", func)
 
     lat0 = float(np.mean(lat))
@@ -367,11 +422,17 @@ def linear_orographic_precip(elevation: xr.DataArray, wind_speed: float = 10.0,
     pad_y, pad_x = int(round(pad * lat.size)), int(round(pad * lon.size))
 
     rate: xr.DataArray = xr.apply_ufunc(
-        _lt_core, elevation,
-        kwargs=dict(dx=dx, dy=dy, u=u, v=v, cw=cw, hw=hw_used, nm=nm, tau_c=tau_c, tau_f=tau_f,
-                    pad_y=pad_y, pad_x=pad_x),
-        input_core_dims=[["lat", "lon"]], output_core_dims=[["lat", "lon"]],
-        dask="parallelized", output_dtypes=[float], dask_gufunc_kwargs={"allow_rechunk": True})
+        _lt_core,
+        elevation,
+        kwargs=dict(
+            dx=dx, dy=dy, u=u, v=v, cw=cw, hw=hw_used, nm=nm, tau_c=tau_c, tau_f=tau_f, pad_y=pad_y, pad_x=pad_x
+        ),
+        input_core_dims=[["lat", "lon"]],
+        output_core_dims=[["lat", "lon"]],
+        dask="parallelized",
+        output_dtypes=[float],
+        dask_gufunc_kwargs={"allow_rechunk": True},
+    )
     # kg m-2 s-1 -> mm h-1 (1 kg m-2 of water is 1 mm deep)
     out = (rate * 3600.0 + p_background).clip(min=0.0)
     if duration_hours is not None:
@@ -380,15 +441,35 @@ def linear_orographic_precip(elevation: xr.DataArray, wind_speed: float = 10.0,
     out.name = "orographic_precipitation"
     out.attrs = {
         "units": "mm" if duration_hours is not None else "mm h-1",
-        "long_name": "orographic precipitation, linear theory" + (
-            f" over {duration_hours:g} h" if duration_hours is not None else " (rate)"),
+        "long_name": "orographic precipitation, linear theory"
+        + (f" over {duration_hours:g} h" if duration_hours is not None else " (rate)"),
         "method": "Smith & Barstad (2004), J. Atmos. Sci. 61, 1377-1391",
-        "Cw_kg_m-3": cw, "Hw_m": hw_used, "moist_lapse_rate_K_m-1": gm,
-        "lapse_rate_K_m-1": gamma, "wind_u_m_s-1": u, "wind_v_m_s-1": v, "nm_s-1": nm,
-        "tau_c_s": tau_c, "tau_f_s": tau_f, "p_background_mm_h-1": p_background,
-        "grid_dx_m": float(dx), "grid_dy_m": float(dy),
+        "Cw_kg_m-3": cw,
+        "Hw_m": hw_used,
+        "moist_lapse_rate_K_m-1": gm,
+        "lapse_rate_K_m-1": gamma,
+        "wind_u_m_s-1": u,
+        "wind_v_m_s-1": v,
+        "nm_s-1": nm,
+        "tau_c_s": tau_c,
+        "tau_f_s": tau_f,
+        "p_background_mm_h-1": p_background,
+        "grid_dx_m": float(dx),
+        "grid_dy_m": float(dy),
     }
-    return with_history(out, func, elevation.attrs, wind_speed=speed, wind_from=w,
-                        temperature_c=t, nm=nm, hw=hw_used, tau_c=tau_c, tau_f=tau_f,
-                        p_background=p_background, duration_hours=duration_hours, pad=pad,
-                        lapse_rate=gamma)
+    return with_history(
+        out,
+        func,
+        elevation.attrs,
+        wind_speed=speed,
+        wind_from=w,
+        temperature_c=t,
+        nm=nm,
+        hw=hw_used,
+        tau_c=tau_c,
+        tau_f=tau_f,
+        p_background=p_background,
+        duration_hours=duration_hours,
+        pad=pad,
+        lapse_rate=gamma,
+    )

@@ -42,17 +42,20 @@ __all__ = ["normals", "annual_normal", "seasonal_normal", "baseline_stats"]
 
 
 def _check_fraction(min_fraction: Any, func: str) -> float:
-    if isinstance(min_fraction, bool) or not isinstance(min_fraction, (int, float)) \
-            or not 0 < min_fraction <= 1:
-        raise ParameterError(f"min_fraction={min_fraction!r} is not a fraction in (0, 1]",
-                             source=func, variable="min_fraction",
-                             expected="a number in (0, 1]; 0.8 is the WMO 80 % rule",
-                             fix="pass min_fraction=0.8")
+    if isinstance(min_fraction, bool) or not isinstance(min_fraction, (int, float)) or not 0 < min_fraction <= 1:
+        raise ParameterError(
+            f"min_fraction={min_fraction!r} is not a fraction in (0, 1]",
+            source=func,
+            variable="min_fraction",
+            expected="a number in (0, 1]; 0.8 is the WMO 80 % rule",
+            fix="pass min_fraction=0.8",
+        )
     return float(min_fraction)
 
 
-def baseline_values(values: xr.DataArray, baseline: Sequence[int], min_fraction: float, func: str, src: str,
-                    dim: str = "year") -> tuple[xr.DataArray, int, int]:
+def baseline_values(
+    values: xr.DataArray, baseline: Sequence[int], min_fraction: float, func: str, src: str, dim: str = "year"
+) -> tuple[xr.DataArray, int, int]:
     """The values of the baseline years along ``dim``, every baseline year present (NaN
     where the record has none), and ``(required, nyears)`` of the completeness rule.
 
@@ -74,15 +77,19 @@ def baseline_values(values: xr.DataArray, baseline: Sequence[int], min_fraction:
             f"baseline=({first}, {last}) lies outside the data or overlaps it too little: {inside} of its "
             f"{nyears} years are in the data (years {span}), a normal needs at least {required} "
             f"(WMO-No. 1203: {min_fraction:.0%} of the years)",
-            source=src, variable="baseline", expected=f"at least {required} baseline years inside the data",
-            fix="choose a baseline that the record covers, supply a longer record, or lower min_fraction")
+            source=src,
+            variable="baseline",
+            expected=f"at least {required} baseline years inside the data",
+            fix="choose a baseline that the record covers, supply a longer record, or lower min_fraction",
+        )
     base = values.sel({dim: (values[dim] >= first) & (values[dim] <= last)})
     base = base.reindex({dim: np.arange(first, last + 1)})  # absent years are missing (lazy)
     return base, required, nyears
 
 
-def baseline_stats(values: xr.DataArray, baseline: Sequence[int], min_fraction: float, func: str, src: str,
-                   dim: str = "year") -> tuple[xr.DataArray, xr.DataArray, xr.DataArray, int, int]:
+def baseline_stats(
+    values: xr.DataArray, baseline: Sequence[int], min_fraction: float, func: str, src: str, dim: str = "year"
+) -> tuple[xr.DataArray, xr.DataArray, xr.DataArray, int, int]:
     """Mean and sample standard deviation (ddof=1) over the baseline years along ``dim``.
 
     Parameters
@@ -142,8 +149,10 @@ def _completeness_attrs(n: xr.DataArray, required: int, per_cell_dims: list[str]
         return {"cells_failing_completeness": note, "cells_without_data": note}
     has_data = (n > 0).any(per_cell_dims)
     failing = (n < required).any(per_cell_dims) & has_data
-    return {"cells_failing_completeness": int(np.asarray(failing).sum()),
-            "cells_without_data": int(np.asarray(~has_data).sum())}
+    return {
+        "cells_failing_completeness": int(np.asarray(failing).sum()),
+        "cells_without_data": int(np.asarray(~has_data).sum()),
+    }
 
 
 def normals(pr: xr.DataArray, baseline: Sequence[int] = (1991, 2020), min_fraction: float = 0.8) -> xr.DataArray:
@@ -202,20 +211,23 @@ def normals(pr: xr.DataArray, baseline: Sequence[int] = (1991, 2020), min_fracti
     mean, _, n, required, nyears = baseline_stats(blocks, baseline, min_fraction, func, src)
     out = mean.assign_coords(n_years=n)
     out.name = pr.name
-    out.attrs = {"standard_name": "lwe_thickness_of_precipitation_amount", "units": "mm",
-                 "long_name": "monthly normal precipitation total",
-                 "cell_methods": "time: sum within months time: mean over years",
-                 "baseline": list(check_year_range(baseline, func, "baseline")),
-                 "min_fraction": float(min_fraction), "years_required": required,
-                 "completeness_rule": f"a monthly normal needs >= {required} of {nyears} "
-                                      "baseline years with a complete monthly total (a month "
-                                      "with any missing day is missing); WMO-No. 1203 (2017)",
-                 **_completeness_attrs(n, required, ["month"])}
+    out.attrs = {
+        "standard_name": "lwe_thickness_of_precipitation_amount",
+        "units": "mm",
+        "long_name": "monthly normal precipitation total",
+        "cell_methods": "time: sum within months time: mean over years",
+        "baseline": list(check_year_range(baseline, func, "baseline")),
+        "min_fraction": float(min_fraction),
+        "years_required": required,
+        "completeness_rule": f"a monthly normal needs >= {required} of {nyears} "
+        "baseline years with a complete monthly total (a month "
+        "with any missing day is missing); WMO-No. 1203 (2017)",
+        **_completeness_attrs(n, required, ["month"]),
+    }
     return with_history(out, func, pr.attrs, baseline=baseline, min_fraction=min_fraction)
 
 
-def annual_normal(pr: xr.DataArray, baseline: Sequence[int] = (1991, 2020),
-                  min_fraction: float = 0.8) -> xr.DataArray:
+def annual_normal(pr: xr.DataArray, baseline: Sequence[int] = (1991, 2020), min_fraction: float = 0.8) -> xr.DataArray:
     """Annual normal total (mm): the sum of the 12 monthly normals, NaN if any is NaN.
 
     Parameters
@@ -258,14 +270,17 @@ def annual_normal(pr: xr.DataArray, baseline: Sequence[int] = (1991, 2020),
     mon = normals(pr, baseline, min_fraction)
     out = mon.sum("month", skipna=False).drop_vars("n_years", errors="ignore")
     out.name = pr.name
-    out.attrs = {**{k: v for k, v in mon.attrs.items() if k != "history"},
-                 "long_name": "annual normal precipitation total",
-                 "method": "sum of the 12 monthly normals (WMO-No. 1203)"}
+    out.attrs = {
+        **{k: v for k, v in mon.attrs.items() if k != "history"},
+        "long_name": "annual normal precipitation total",
+        "method": "sum of the 12 monthly normals (WMO-No. 1203)",
+    }
     return with_history(out, "annual_normal", pr.attrs, baseline=baseline, min_fraction=min_fraction)
 
 
-def seasonal_normal(pr: xr.DataArray, months: Iterable[int] | int, baseline: Sequence[int] = (1991, 2020),
-                    min_fraction: float = 0.8) -> xr.DataArray:
+def seasonal_normal(
+    pr: xr.DataArray, months: Iterable[int] | int, baseline: Sequence[int] = (1991, 2020), min_fraction: float = 0.8
+) -> xr.DataArray:
     """Seasonal normal total (mm): the sum of the season's monthly normals, NaN if any is NaN.
 
     Parameters
@@ -311,9 +326,10 @@ def seasonal_normal(pr: xr.DataArray, months: Iterable[int] | int, baseline: Seq
     mon = normals(pr, baseline, min_fraction)
     out = mon.sel(month=list(months)).sum("month", skipna=False).drop_vars("n_years", errors="ignore")
     out.name = pr.name
-    out.attrs = {**{k: v for k, v in mon.attrs.items() if k != "history"},
-                 "long_name": f"seasonal normal precipitation total ({season_label(months)})",
-                 "season_months": list(months),
-                 "method": "sum of the season's monthly normals"}
-    return with_history(out, "seasonal_normal", pr.attrs, months=months, baseline=baseline,
-                        min_fraction=min_fraction)
+    out.attrs = {
+        **{k: v for k, v in mon.attrs.items() if k != "history"},
+        "long_name": f"seasonal normal precipitation total ({season_label(months)})",
+        "season_months": list(months),
+        "method": "sum of the season's monthly normals",
+    }
+    return with_history(out, "seasonal_normal", pr.attrs, months=months, baseline=baseline, min_fraction=min_fraction)

@@ -27,8 +27,9 @@ __all__ = ["crest_from_elevation", "rain_shadow", "elevation_gradient", "side_ma
 _BOOT_DIM = "year"
 
 
-def crest_from_elevation(elevation: xr.DataArray, wind_from: float = 270.0,
-                         min_height: float | None = None) -> list[tuple[float, float]]:
+def crest_from_elevation(
+    elevation: xr.DataArray, wind_from: float = 270.0, min_height: float | None = None
+) -> list[tuple[float, float]]:
     """Crest polyline ``[(lon, lat), ...]`` derived from the terrain.
 
     Method: the grid is cut into lines parallel to the wind and the highest cell of each
@@ -107,13 +108,21 @@ def _parse_bands(band_km: Any, func: str) -> tuple[list[tuple[float, float]], bo
     elif arr.ndim == 2 and arr.shape[1] == 2 and arr.shape[0] >= 1:
         bands, squeeze = arr, False
     else:
-        raise ParameterError(f"band_km={band_km!r} is not a band or a list of bands", source=func,
-                             variable="band_km", expected="distances from the crest in km", fix=fix)
+        raise ParameterError(
+            f"band_km={band_km!r} is not a band or a list of bands",
+            source=func,
+            variable="band_km",
+            expected="distances from the crest in km",
+            fix=fix,
+        )
     if np.any(np.isnan(bands)) or np.any(bands[:, 0] < 0) or np.any(bands[:, 1] <= bands[:, 0]):
         raise ParameterError(
             f"band_km={band_km!r} holds a band that is empty, negative or not increasing",
-            source=func, variable="band_km",
-            expected="bands (lo, hi) with 0 <= lo < hi, in km from the crest on each side", fix=fix)
+            source=func,
+            variable="band_km",
+            expected="bands (lo, hi) with 0 <= lo < hi, in km from the crest on each side",
+            fix=fix,
+        )
     return [(float(a), float(b)) for a, b in bands], squeeze
 
 
@@ -129,17 +138,22 @@ def _coverage(basin: Any, field: xr.DataArray, func: str) -> xr.DataArray | None
         except ImportError as exc:
             raise ParameterError(
                 "basin restriction needs climwidgets.geo.coverage, which is not available",
-                source=func, variable="basin",
+                source=func,
+                variable="basin",
                 expected="a climwidgets Basin (with climwidgets.geo installed) or a DataArray "
-                         "of covered fractions in [0, 1] on the field's grid",
-                fix="pass the coverage fractions as a DataArray") from exc
+                "of covered fractions in [0, 1] on the field's grid",
+                fix="pass the coverage fractions as a DataArray",
+            ) from exc
         cov = np.asarray(coverage_weights(basin, field).transpose("lat", "lon").values, dtype=float)
     if np.any(cov[np.isfinite(cov)] < 0) or np.any(cov[np.isfinite(cov)] > 1 + 1e-9):
-        raise ParameterError("basin coverage holds values outside [0, 1]", source=func,
-                             variable="basin", expected="covered fraction of each cell in [0, 1]",
-                             fix="pass coverage fractions, not areas or percent")
-    return xr.DataArray(np.nan_to_num(cov), coords={"lat": field["lat"], "lon": field["lon"]},
-                        dims=("lat", "lon"))
+        raise ParameterError(
+            "basin coverage holds values outside [0, 1]",
+            source=func,
+            variable="basin",
+            expected="covered fraction of each cell in [0, 1]",
+            fix="pass coverage fractions, not areas or percent",
+        )
+    return xr.DataArray(np.nan_to_num(cov), coords={"lat": field["lat"], "lon": field["lon"]}, dims=("lat", "lon"))
 
 
 def _weights(field: xr.DataArray, basin: Any, func: str) -> xr.DataArray:
@@ -184,13 +198,17 @@ def side_mask(distance_km: xr.DataArray, side: str, band_km: Any = None) -> xr.D
     (array([ True,  True, False, False, False]), array([False, False, False,  True, False]))
     """
     if side not in ("windward", "leeward"):
-        raise ParameterError(f"side={side!r} is not a side of the crest", source="side_mask",
-                             variable="side", expected="'windward' or 'leeward'",
-                             fix="pass side='windward' or side='leeward'")
+        raise ParameterError(
+            f"side={side!r} is not a side of the crest",
+            source="side_mask",
+            variable="side",
+            expected="'windward' or 'leeward'",
+            fix="pass side='windward' or side='leeward'",
+        )
     d = distance_km
     mask = (d < 0) if side == "windward" else (d > 0)
     if band_km is not None:
-        (lo, hi), = _parse_bands(band_km, "side_mask")[0][:1]
+        ((lo, hi),) = _parse_bands(band_km, "side_mask")[0][:1]
         mask = mask & (abs(d) >= lo) & (abs(d) < hi)
     mask.name = f"{side}_mask"
     mask.attrs = {"long_name": f"{side} cells", "units": "1"}
@@ -207,10 +225,18 @@ def _bootstrap_bounds(ww: np.ndarray, lw: np.ndarray, idx: np.ndarray, q: Any) -
     return np.moveaxis(out, 0, -1)
 
 
-def rain_shadow(field: xr.DataArray, wind_from: float = 270.0, ridge: Sequence[tuple[float, float]] | None = None,
-                elevation: xr.DataArray | None = None, band_km: Any = (0, 50), basin: Any = None,
-                n_boot: int = 1000, ci: float = 0.9, seed: int = 0,
-                beyond_ends: str = "exclude") -> xr.Dataset:
+def rain_shadow(
+    field: xr.DataArray,
+    wind_from: float = 270.0,
+    ridge: Sequence[tuple[float, float]] | None = None,
+    elevation: xr.DataArray | None = None,
+    band_km: Any = (0, 50),
+    basin: Any = None,
+    n_boot: int = 1000,
+    ci: float = 0.9,
+    seed: int = 0,
+    beyond_ends: str = "exclude",
+) -> xr.Dataset:
     """Windward/leeward contrast of a precipitation climatology across a crest.
 
     Parameters
@@ -301,14 +327,21 @@ def rain_shadow(field: xr.DataArray, wind_from: float = 270.0, ridge: Sequence[t
     lat, lon = _crest.grid_coords(field, func, "field")
     if (ridge is None) == (elevation is None):
         raise ParameterError(
-            "give exactly one of ridge and elevation", source=func, variable="ridge",
+            "give exactly one of ridge and elevation",
+            source=func,
+            variable="ridge",
             expected="ridge=[(lon, lat), ...] (the crest drawn by hand) or elevation=<terrain "
-                     "in m on the field's grid> (crest derived from it)",
-            fix="pass one of them and leave the other None")
+            "in m on the field's grid> (crest derived from it)",
+            fix="pass one of them and leave the other None",
+        )
     if beyond_ends not in ("exclude", "nearest"):
-        raise ParameterError(f"beyond_ends={beyond_ends!r} is not a known choice", source=func,
-                             variable="beyond_ends", expected="'exclude' or 'nearest'",
-                             fix="pass beyond_ends='exclude' (default) or 'nearest'")
+        raise ParameterError(
+            f"beyond_ends={beyond_ends!r} is not a known choice",
+            source=func,
+            variable="beyond_ends",
+            expected="'exclude' or 'nearest'",
+            fix="pass beyond_ends='exclude' (default) or 'nearest'",
+        )
     if elevation is not None:
         _crest.grid_coords(elevation, func, "elevation")
         _crest.check_same_grid(field, elevation, func, "elevation")
@@ -332,11 +365,12 @@ def rain_shadow(field: xr.DataArray, wind_from: float = 270.0, ridge: Sequence[t
             b = bands[int(np.argmax(counts == 0))]
             raise InsufficientDataError(
                 f"no cell on the {name} side of the crest within {b[0]:g}-{b[1]:g} km",
-                source=func, variable="band_km",
-                expected=f"at least one grid cell {b[0]:g}-{b[1]:g} km {name} of the crest "
-                         f"(wind from {w:g} degrees)",
+                source=func,
+                variable="band_km",
+                expected=f"at least one grid cell {b[0]:g}-{b[1]:g} km {name} of the crest (wind from {w:g} degrees)",
                 fix="widen or move the band, check wind_from and the crest position, or use "
-                    "a grid that extends further on that side")
+                "a grid that extends further on that side",
+            )
 
     coords = {"band": np.arange(len(bands)), "lat": field["lat"], "lon": field["lon"]}
     dims = ("band", "lat", "lon")
@@ -355,10 +389,16 @@ def rain_shadow(field: xr.DataArray, wind_from: float = 270.0, ridge: Sequence[t
         idx = rng.integers(0, field.sizes[_BOOT_DIM], size=(n_boot, field.sizes[_BOOT_DIM]))
         q = np.array([(1 - ci) / 2, (1 + ci) / 2])
         bounds = xr.apply_ufunc(
-            _bootstrap_bounds, ww_y, lw_y, kwargs={"idx": idx, "q": q},
-            input_core_dims=[[_BOOT_DIM], [_BOOT_DIM]], output_core_dims=[["bound"]],
-            dask="parallelized", output_dtypes=[float],
-            dask_gufunc_kwargs={"output_sizes": {"bound": 2}, "allow_rechunk": True})
+            _bootstrap_bounds,
+            ww_y,
+            lw_y,
+            kwargs={"idx": idx, "q": q},
+            input_core_dims=[[_BOOT_DIM], [_BOOT_DIM]],
+            output_core_dims=[["bound"]],
+            dask="parallelized",
+            output_dtypes=[float],
+            dask_gufunc_kwargs={"output_sizes": {"bound": 2}, "allow_rechunk": True},
+        )
         ds["ratio_per_year"] = lw_y / ww_y
         ds["ratio_lower"] = bounds.isel(bound=0, drop=True)
         ds["ratio_upper"] = bounds.isel(bound=1, drop=True)
@@ -370,20 +410,30 @@ def rain_shadow(field: xr.DataArray, wind_from: float = 270.0, ridge: Sequence[t
     ds["difference"] = lw - ww
     ds["n_windward"] = counts["windward"]
     ds["n_leeward"] = counts["leeward"]
-    ds = ds.assign_coords(band_lower_km=("band", [b[0] for b in bands]),
-                          band_upper_km=("band", [b[1] for b in bands]))
-    ds["distance_km"] = xr.DataArray(dist, coords={"lat": field["lat"], "lon": field["lon"]},
-                                     dims=("lat", "lon"))
+    ds = ds.assign_coords(band_lower_km=("band", [b[0] for b in bands]), band_upper_km=("band", [b[1] for b in bands]))
+    ds["distance_km"] = xr.DataArray(dist, coords={"lat": field["lat"], "lon": field["lon"]}, dims=("lat", "lon"))
     _rain_shadow_attrs(ds, units, w, has_years, ci)
     if squeeze:
         ds = ds.isel(band=0).drop_vars("band")
-    ds.attrs.update(wind_from_deg=w, crest=repr([tuple(map(float, p)) for p in pts]),
-                    weights="cell area" + (" x basin coverage" if basin is not None else ""),
-                    distance="signed along-wind WGS84 geodesic distance from the crest "
-                             "(pyproj.Geod.inv); negative windward, positive leeward")
-    return with_history(ds, func, field.attrs, wind_from=w, band_km=tuple(map(tuple, bands)),
-                        ridge="given" if elevation is None else "from elevation",
-                        basin=basin is not None, n_boot=n_boot if has_years else 0, ci=ci, seed=seed)
+    ds.attrs.update(
+        wind_from_deg=w,
+        crest=repr([tuple(map(float, p)) for p in pts]),
+        weights="cell area" + (" x basin coverage" if basin is not None else ""),
+        distance="signed along-wind WGS84 geodesic distance from the crest "
+        "(pyproj.Geod.inv); negative windward, positive leeward",
+    )
+    return with_history(
+        ds,
+        func,
+        field.attrs,
+        wind_from=w,
+        band_km=tuple(map(tuple, bands)),
+        ridge="given" if elevation is None else "from elevation",
+        basin=basin is not None,
+        n_boot=n_boot if has_years else 0,
+        ci=ci,
+        seed=seed,
+    )
 
 
 def _check_boot(field: xr.DataArray, n_boot: Any, ci: Any, func: str) -> tuple[int, float]:
@@ -391,19 +441,31 @@ def _check_boot(field: xr.DataArray, n_boot: Any, ci: Any, func: str) -> tuple[i
     if n_years < 3:
         raise InsufficientDataError(
             f"the year dim has {n_years} value(s); the bootstrap needs at least 3 years",
-            source=func, variable=_BOOT_DIM, expected="3 or more years",
-            fix="pass a longer record, or average over years first (drop the year dim)")
+            source=func,
+            variable=_BOOT_DIM,
+            expected="3 or more years",
+            fix="pass a longer record, or average over years first (drop the year dim)",
+        )
     if not isinstance(n_boot, (int, np.integer)) or n_boot < 50:
-        raise ParameterError(f"n_boot={n_boot!r} is too small or not an integer", source=func,
-                             variable="n_boot", expected="an integer of at least 50 (1000 is usual)",
-                             fix="pass n_boot=1000")
+        raise ParameterError(
+            f"n_boot={n_boot!r} is too small or not an integer",
+            source=func,
+            variable="n_boot",
+            expected="an integer of at least 50 (1000 is usual)",
+            fix="pass n_boot=1000",
+        )
     try:
         ci = float(ci)
     except (TypeError, ValueError):
         ci = float("nan")
     if not 0 < ci < 1:
-        raise ParameterError(f"ci={ci!r} is not a confidence level", source=func, variable="ci",
-                             expected="a level between 0 and 1, such as 0.9", fix="pass ci=0.9")
+        raise ParameterError(
+            f"ci={ci!r} is not a confidence level",
+            source=func,
+            variable="ci",
+            expected="a level between 0 and 1, such as 0.9",
+            fix="pass ci=0.9",
+        )
     return int(n_boot), ci
 
 
@@ -414,21 +476,33 @@ def _rain_shadow_attrs(ds: xr.Dataset, units: str, w: float, has_years: bool, ci
     ds["difference"].attrs = {"units": units, "long_name": "leeward minus windward"}
     ds["n_windward"].attrs = {"units": "1", "long_name": "windward cells in band"}
     ds["n_leeward"].attrs = {"units": "1", "long_name": "leeward cells in band"}
-    ds["distance_km"].attrs = {"units": "km", "long_name": "signed along-wind distance from "
-                               f"the crest (wind from {w:g} deg; < 0 windward, > 0 leeward)"}
+    ds["distance_km"].attrs = {
+        "units": "km",
+        "long_name": f"signed along-wind distance from the crest (wind from {w:g} deg; < 0 windward, > 0 leeward)",
+    }
     ds["band_lower_km"].attrs = {"units": "km"}
     ds["band_upper_km"].attrs = {"units": "km"}
     if has_years:
         ds["ratio_per_year"].attrs = {"units": "1", "long_name": "leeward / windward, per year"}
         for k, which in (("ratio_lower", "lower"), ("ratio_upper", "upper")):
-            ds[k].attrs = {"units": "1", "long_name": f"{which} bound of ratio, {ci:g} "
-                           "percentile bootstrap over years (Efron & Tibshirani 1993)"}
+            ds[k].attrs = {
+                "units": "1",
+                "long_name": f"{which} bound of ratio, {ci:g} "
+                "percentile bootstrap over years (Efron & Tibshirani 1993)",
+            }
 
 
-def elevation_gradient(field: xr.DataArray, elevation: xr.DataArray, mask: xr.DataArray | None = None,
-                       side: str | None = None, band_m: float = 250.0, ci: float = 0.9, *,
-                       distance_km: xr.DataArray | None = None,
-                       weighted: bool = True) -> xr.Dataset:
+def elevation_gradient(
+    field: xr.DataArray,
+    elevation: xr.DataArray,
+    mask: xr.DataArray | None = None,
+    side: str | None = None,
+    band_m: float = 250.0,
+    ci: float = 0.9,
+    *,
+    distance_km: xr.DataArray | None = None,
+    weighted: bool = True,
+) -> xr.Dataset:
     """Change of precipitation with height: least-squares slope in mm per 100 m.
 
     Parameters
@@ -499,12 +573,21 @@ def elevation_gradient(field: xr.DataArray, elevation: xr.DataArray, mask: xr.Da
     except (TypeError, ValueError):
         band_m = ci = float("nan")
     if not band_m > 0:
-        raise ParameterError(f"band_m={band_m!r} is not a positive band width", source=func,
-                             variable="band_m", expected="elevation band width in m, > 0",
-                             fix="pass band_m=250.0")
+        raise ParameterError(
+            f"band_m={band_m!r} is not a positive band width",
+            source=func,
+            variable="band_m",
+            expected="elevation band width in m, > 0",
+            fix="pass band_m=250.0",
+        )
     if not 0 < ci < 1:
-        raise ParameterError(f"ci={ci!r} is not a confidence level", source=func, variable="ci",
-                             expected="a level between 0 and 1, such as 0.9", fix="pass ci=0.9")
+        raise ParameterError(
+            f"ci={ci!r} is not a confidence level",
+            source=func,
+            variable="ci",
+            expected="a level between 0 and 1, such as 0.9",
+            fix="pass ci=0.9",
+        )
     z = np.asarray(elevation.transpose("lat", "lon").values, dtype=float)
     sel = np.isfinite(z)
     if mask is not None:
@@ -512,15 +595,22 @@ def elevation_gradient(field: xr.DataArray, elevation: xr.DataArray, mask: xr.Da
         sel &= np.asarray(mask.transpose("lat", "lon").values).astype(bool)
     if side is not None:
         if distance_km is None:
-            raise ParameterError("side needs distance_km", source=func, variable="distance_km",
-                                 expected="the distance_km of rain_shadow(...) on the field's grid",
-                                 fix="pass distance_km=rain_shadow(...)['distance_km']")
+            raise ParameterError(
+                "side needs distance_km",
+                source=func,
+                variable="distance_km",
+                expected="the distance_km of rain_shadow(...) on the field's grid",
+                fix="pass distance_km=rain_shadow(...)['distance_km']",
+            )
         sel &= np.asarray(side_mask(distance_km, side).transpose("lat", "lon").values)
     if sel.sum() < 3 or np.ptp(z[sel]) == 0:
         raise InsufficientDataError(
-            f"{int(sel.sum())} cells selected, elevation range "
-            f"{float(np.ptp(z[sel])) if sel.any() else 0:g} m", source=func, variable="elevation",
-            expected="at least 3 cells at different elevations", fix="widen the mask or side")
+            f"{int(sel.sum())} cells selected, elevation range {float(np.ptp(z[sel])) if sel.any() else 0:g} m",
+            source=func,
+            variable="elevation",
+            expected="at least 3 cells at different elevations",
+            fix="widen the mask or side",
+        )
     grid = {"lat": field["lat"], "lon": field["lon"]}
     wcell = np.asarray(_crest.cell_area(field).values) if weighted else np.ones(z.shape)
     wts = xr.DataArray(np.where(sel, wcell, 0.0), coords=grid, dims=("lat", "lon"))
@@ -562,18 +652,26 @@ def elevation_gradient(field: xr.DataArray, elevation: xr.DataArray, mask: xr.Da
     centre = 0.5 * (lower + upper)
     bcoords = {"elevation_band": centre, **grid}
     bw = xr.DataArray(np.where(member, wcell, 0.0), coords=bcoords, dims=("elevation_band",) + dims)
-    ds["band_mean"] = field.weighted(bw).mean(dims).assign_attrs(
-        units=units, long_name="area-weighted mean in elevation band")
+    ds["band_mean"] = (
+        field.weighted(bw).mean(dims).assign_attrs(units=units, long_name="area-weighted mean in elevation band")
+    )
     with np.errstate(invalid="ignore", divide="ignore"):
-        zb = (np.where(member, wcell * z, 0.0).sum(axis=(1, 2))
-              / np.where(member, wcell, 0.0).sum(axis=(1, 2)))
-    ds["band_elevation"] = xr.DataArray(zb, coords={"elevation_band": centre}, dims="elevation_band",
-                                        attrs={"units": "m", "long_name": "mean elevation of band"})
-    ds["band_cells"] = xr.DataArray(member.sum(axis=(1, 2)), coords={"elevation_band": centre},
-                                    dims="elevation_band", attrs={"units": "1"})
+        zb = np.where(member, wcell * z, 0.0).sum(axis=(1, 2)) / np.where(member, wcell, 0.0).sum(axis=(1, 2))
+    ds["band_elevation"] = xr.DataArray(
+        zb,
+        coords={"elevation_band": centre},
+        dims="elevation_band",
+        attrs={"units": "m", "long_name": "mean elevation of band"},
+    )
+    ds["band_cells"] = xr.DataArray(
+        member.sum(axis=(1, 2)), coords={"elevation_band": centre}, dims="elevation_band", attrs={"units": "1"}
+    )
     ds = ds.assign_coords(band_lower_m=("elevation_band", lower), band_upper_m=("elevation_band", upper))
     ds["elevation_band"].attrs = {"units": "m", "long_name": "elevation band centre"}
-    ds.attrs.update(method="weighted least squares (cell-area weights)" if weighted
-                    else "ordinary least squares", interval=f"{ci:g} t-based, n - 2 degrees of freedom")
-    return with_history(ds, func, field.attrs, band_m=band_m, ci=ci, weighted=weighted,
-                        mask=mask is not None, side=side)
+    ds.attrs.update(
+        method="weighted least squares (cell-area weights)" if weighted else "ordinary least squares",
+        interval=f"{ci:g} t-based, n - 2 degrees of freedom",
+    )
+    return with_history(
+        ds, func, field.attrs, band_m=band_m, ci=ci, weighted=weighted, mask=mask is not None, side=side
+    )

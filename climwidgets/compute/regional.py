@@ -54,11 +54,32 @@ __all__ = ["DISCORDANCY_CRITICAL", "discordancy", "discordancy_critical", "regio
 
 #: Critical D_i by number of sites, Hosking & Wallis (1997) Table 3.1 (recalled from memory, and equal to
 #: 3 decimals to the table in Hosking's lmomRFA 3.0-1, regtst.s: tests/compute/test_regional.py); 3 from 15 on.
-DISCORDANCY_CRITICAL = {5: 1.333, 6: 1.648, 7: 1.917, 8: 2.140, 9: 2.329, 10: 2.491, 11: 2.632,
-                        12: 2.757, 13: 2.869, 14: 2.971}
+DISCORDANCY_CRITICAL = {
+    5: 1.333,
+    6: 1.648,
+    7: 1.917,
+    8: 2.140,
+    9: 2.329,
+    10: 2.491,
+    11: 2.632,
+    12: 2.757,
+    13: 2.869,
+    14: 2.971,
+}
 _BLOCK_ELEMENTS = 2_000_000
-_STATS = ("H1", "H2", "H3", "t_R", "t3_R", "t4_R", "growth_loc", "growth_scale", "growth_shape", "n_sites",
-          "kappa_used")
+_STATS = (
+    "H1",
+    "H2",
+    "H3",
+    "t_R",
+    "t3_R",
+    "t4_R",
+    "growth_loc",
+    "growth_scale",
+    "growth_shape",
+    "n_sites",
+    "kappa_used",
+)
 
 
 def discordancy_critical(n_sites: Any) -> float:
@@ -171,8 +192,9 @@ def _kappa(tr: Any, t3r: Any, t4r: Any) -> tuple[Any, str, dict[str, Any]]:
     return distr.glo(**params), "generalized logistic (kappa with h = -1)", dict(params)
 
 
-def _simulate(draw: Callable[[np.ndarray], Any], n_rep: int, n_sites: int, n_years: np.ndarray,
-              rng: np.random.Generator) -> Iterator[np.ndarray]:
+def _simulate(
+    draw: Callable[[np.ndarray], Any], n_rep: int, n_sites: int, n_years: np.ndarray, rng: np.random.Generator
+) -> Iterator[np.ndarray]:
     """Yield blocks of simulated regions (rep, site, year), NaN beyond each site's record."""
     ymax = int(n_years.max())
     col = np.arange(ymax)
@@ -184,8 +206,9 @@ def _simulate(draw: Callable[[np.ndarray], Any], n_rep: int, n_sites: int, n_yea
         yield np.where(col[None, None, :] < n_years[None, :, None], x, np.nan)
 
 
-def _region_block(x: np.ndarray, member: np.ndarray, F: np.ndarray, min_years: int, n_sim: int, n_boot: int,
-                  ci: float, seed: Any) -> tuple[np.ndarray, ...]:
+def _region_block(
+    x: np.ndarray, member: np.ndarray, F: np.ndarray, min_years: int, n_sim: int, n_boot: int, ci: float, seed: Any
+) -> tuple[np.ndarray, ...]:
     """Regional analysis of the member cells of x (..., year).  See the module notes."""
     lead = x.shape[:-1]
     xf = x.reshape(-1, x.shape[-1])
@@ -207,8 +230,7 @@ def _region_block(x: np.ndarray, member: np.ndarray, F: np.ndarray, min_years: i
         v_obs = _spreads(ns, ts, t3s, t4s)
         dist, dist_name, _ = _kappa(tr, t3r, t4r)
         with np.errstate(invalid="ignore", divide="ignore"):  # lmoments3's kappa ppf evaluates both branches
-            sims = [_spreads(ns[None, :], *_ratios(block)[2:])
-                    for block in _simulate(dist.ppf, n_sim, nsite, ns, rng)]
+            sims = [_spreads(ns[None, :], *_ratios(block)[2:]) for block in _simulate(dist.ppf, n_sim, nsite, ns, rng)]
         v_sim = np.concatenate(sims, axis=0)
         h = (v_obs - v_sim.mean(axis=0)) / v_sim.std(axis=0, ddof=1)
         loc, scale, k = (float(v) for v in _params_from_lmoments(1.0, tr, t3r, "gev"))
@@ -244,35 +266,59 @@ def _labels(annual_max: xr.DataArray, regions: Any, dim: str) -> tuple[np.ndarra
         lab = np.full(template.shape, "region", dtype=object)
     elif isinstance(regions, xr.DataArray):
         if set(regions.dims) != set(spatial):
-            raise ParameterError(f"region labels have dims {regions.dims}, the maxima {tuple(spatial)}",
-                                 variable="regions", expected="labels on the same spatial dims as the maxima",
-                                 fix="build labels on the maxima's grid, e.g. xr.full_like(am.isel(year=0), 1)")
+            raise ParameterError(
+                f"region labels have dims {regions.dims}, the maxima {tuple(spatial)}",
+                variable="regions",
+                expected="labels on the same spatial dims as the maxima",
+                fix="build labels on the maxima's grid, e.g. xr.full_like(am.isel(year=0), 1)",
+            )
         vals = np.asarray(regions.transpose(*template.dims).values, dtype=object)
-        lab = np.where([v is None or (isinstance(v, float) and np.isnan(v)) or v == "" for v in vals.ravel()],  # type: ignore[call-overload]
-                       None, vals.ravel()).reshape(vals.shape)
+        lab = np.where(
+            [v is None or (isinstance(v, float) and np.isnan(v)) or v == "" for v in vals.ravel()],  # type: ignore[call-overload]
+            None,
+            vals.ravel(),
+        ).reshape(vals.shape)
     else:
         from ..geo.coverage import coverage_weights
 
-        basins = list(regions.values()) if isinstance(regions, dict) else \
-            ([regions] if hasattr(regions, "geometry") else list(regions))
+        basins = (
+            list(regions.values())
+            if isinstance(regions, dict)
+            else ([regions] if hasattr(regions, "geometry") else list(regions))
+        )
         if not basins or any(not hasattr(b, "geometry") for b in basins):
-            raise ParameterError("regions must be None, a label DataArray or Basins", variable="regions",
-                                 expected="a DataArray of region labels per cell, a Basin or a list of Basins",
-                                 fix="pass regions=labels or regions=[basin_a, basin_b]")
+            raise ParameterError(
+                "regions must be None, a label DataArray or Basins",
+                variable="regions",
+                expected="a DataArray of region labels per cell, a Basin or a list of Basins",
+                fix="pass regions=labels or regions=[basin_a, basin_b]",
+            )
         lab = np.full(template.shape, None, dtype=object)
         for b in basins:  # a cell belongs to the basin covering at least half of it
             cov = coverage_weights(b, template).transpose(*template.dims).values
             lab = np.where((cov >= 0.5) & (lab == None), b.name, lab)
     names = [v for v in dict.fromkeys(lab.ravel().tolist()) if v is not None]
     if not names:
-        raise ParameterError("no cell lies in any region", variable="regions",
-                             expected="at least one labelled cell", fix="check the labels or basins")
+        raise ParameterError(
+            "no cell lies in any region",
+            variable="regions",
+            expected="at least one labelled cell",
+            fix="check the labels or basins",
+        )
     return lab, names
 
 
-def regional_frequency(annual_max: Any, regions: Any = None, periods: Any = (2, 5, 10, 25, 50, 100), ci: float = 0.9,
-                       n_sim: int = 500, n_boot: int = 500, seed: Any = 0, min_years: int = 10,
-                       dim: str = "year") -> xr.Dataset:
+def regional_frequency(
+    annual_max: Any,
+    regions: Any = None,
+    periods: Any = (2, 5, 10, 25, 50, 100),
+    ci: float = 0.9,
+    n_sim: int = 500,
+    n_boot: int = 500,
+    seed: Any = 0,
+    min_years: int = 10,
+    dim: str = "year",
+) -> xr.Dataset:
     """Index-flood regional frequency analysis (Hosking & Wallis 1997) of gridded annual maxima.
 
     Parameters
@@ -337,19 +383,30 @@ def regional_frequency(annual_max: Any, regions: Any = None, periods: Any = (2, 
     _check_min_years(min_years)
     T = _check_periods(periods)
     if not (isinstance(ci, (float, int)) and 0 < ci < 1):
-        raise ParameterError(f"ci={ci!r} is not a probability", variable="ci",
-                             expected="a confidence level strictly between 0 and 1", fix="use ci=0.9")
+        raise ParameterError(
+            f"ci={ci!r} is not a probability",
+            variable="ci",
+            expected="a confidence level strictly between 0 and 1",
+            fix="use ci=0.9",
+        )
     for name, value in (("n_sim", n_sim), ("n_boot", n_boot)):
         if isinstance(value, bool) or not isinstance(value, (int, np.integer)) or value < 50:
-            raise ParameterError(f"{name}={value!r} is too small", variable=name,
-                                 expected="an integer of at least 50 (500 as in Hosking & Wallis)",
-                                 fix=f"use {name}=500")
+            raise ParameterError(
+                f"{name}={value!r} is too small",
+                variable=name,
+                expected="an integer of at least 50 (500 as in Hosking & Wallis)",
+                fix=f"use {name}=500",
+            )
     da = _as_maxima(annual_max, dim, min_years)
     lab, names = _labels(da, regions, dim)
     spatial = [d for d in da.dims if d != dim]
     if not spatial:
-        raise InsufficientDataError("one series is not a region", source="annual maxima",
-                                    expected="annual maxima on several cells", fix="pass gridded annual maxima")
+        raise InsufficientDataError(
+            "one series is not a region",
+            source="annual maxima",
+            expected="annual maxima on several cells",
+            fix="pass gridded annual maxima",
+        )
     F = 1.0 - 1.0 / T
     kw = dict(F=F, min_years=min_years, n_sim=int(n_sim), n_boot=int(n_boot), ci=float(ci), seed=seed)
     if da.chunks is not None:
@@ -359,18 +416,28 @@ def regional_frequency(annual_max: Any, regions: Any = None, periods: Any = (2, 
     for name in names:  # a few regions, each vectorised over its cells
         member = xr.DataArray(lab == name, dims=template.dims)
         out = xr.apply_ufunc(
-            _region_block, da, member, kwargs=kw,
+            _region_block,
+            da,
+            member,
+            kwargs=kw,
             input_core_dims=[[*spatial, dim], spatial],
-            output_core_dims=[spatial, [*spatial, "period"], [*spatial, "period"], [*spatial, "period"],
-                              ["stat"], ["curve", "period"]],
-            dask="parallelized", output_dtypes=[float] * 6,
+            output_core_dims=[
+                spatial,
+                [*spatial, "period"],
+                [*spatial, "period"],
+                [*spatial, "period"],
+                ["stat"],
+                ["curve", "period"],
+            ],
+            dask="parallelized",
+            output_dtypes=[float] * 6,
             dask_gufunc_kwargs={"output_sizes": {"period": T.size, "stat": len(_STATS), "curve": 3}},
         )
         per_cell.append((member, out[:4]))
         per_region.append(out[4:])
     n_all, l1_all, t_all, t3_all, t4_all = xr.apply_ufunc(
-        _ratios, da, input_core_dims=[[dim]], output_core_dims=[[]] * 5, dask="parallelized",
-        output_dtypes=[float] * 5)
+        _ratios, da, input_core_dims=[[dim]], output_core_dims=[[]] * 5, dask="parallelized", output_dtypes=[float] * 5
+    )
     ds = xr.Dataset({"index": l1_all, "l_cv": t_all, "t3": t3_all, "t4": t4_all, "n_years": n_all})
     cell_vars = ("discordancy", "estimate", "lower", "upper")
     for v, i in zip(cell_vars, range(4)):
@@ -385,26 +452,38 @@ def regional_frequency(annual_max: Any, regions: Any = None, periods: Any = (2, 
         ds[s] = stats_.isel(stat=i, drop=True)
     for i, s in enumerate(("growth", "growth_lower", "growth_upper")):
         ds[s] = curves.isel(curve=i, drop=True)
-    ds = ds.assign_coords(region=("region", np.array([str(n) for n in names])),
-                          period=("period", T, {"units": "years", "long_name": "return period"}))
-    ds["discordancy_critical"] = xr.apply_ufunc(np.vectorize(discordancy_critical, otypes=[float]), ds["n_sites"],
-                                                dask="parallelized", output_dtypes=[float])
+    ds = ds.assign_coords(
+        region=("region", np.array([str(n) for n in names])),
+        period=("period", T, {"units": "years", "long_name": "return period"}),
+    )
+    ds["discordancy_critical"] = xr.apply_ufunc(
+        np.vectorize(discordancy_critical, otypes=[float]), ds["n_sites"], dask="parallelized", output_dtypes=[float]
+    )
     units = annual_max.attrs.get("units", "") if isinstance(annual_max, xr.DataArray) else ""
     meta = {
-        "index": (units, "index: mean annual maximum"), "l_cv": ("1", "L-CV t = l2 / l1"),
-        "t3": ("1", "L-skewness"), "t4": ("1", "L-kurtosis"), "n_years": ("1", "non-missing years"),
+        "index": (units, "index: mean annual maximum"),
+        "l_cv": ("1", "L-CV t = l2 / l1"),
+        "t3": ("1", "L-skewness"),
+        "t4": ("1", "L-kurtosis"),
+        "n_years": ("1", "non-missing years"),
         "discordancy": ("1", "discordancy D_i within the cell's region"),
         "cell_region": ("", "region of the cell (empty: none)"),
         "estimate": (units, "regional estimate: index x growth curve"),
-        "lower": (units, f"lower bound of the {ci:.0%} interval"), "upper": (units, f"upper bound of the {ci:.0%} interval"),
-        "H1": ("1", "heterogeneity H from the L-CV"), "H2": ("1", "heterogeneity H from L-CV and L-skewness"),
+        "lower": (units, f"lower bound of the {ci:.0%} interval"),
+        "upper": (units, f"upper bound of the {ci:.0%} interval"),
+        "H1": ("1", "heterogeneity H from the L-CV"),
+        "H2": ("1", "heterogeneity H from L-CV and L-skewness"),
         "H3": ("1", "heterogeneity H from L-skewness and L-kurtosis"),
-        "t_R": ("1", "regional L-CV (record-length weighted)"), "t3_R": ("1", "regional L-skewness"),
-        "t4_R": ("1", "regional L-kurtosis"), "growth_loc": ("1", "growth-curve GEV location"),
-        "growth_scale": ("1", "growth-curve GEV scale"), "growth_shape": ("1", "growth-curve GEV shape k (Hosking)"),
+        "t_R": ("1", "regional L-CV (record-length weighted)"),
+        "t3_R": ("1", "regional L-skewness"),
+        "t4_R": ("1", "regional L-kurtosis"),
+        "growth_loc": ("1", "growth-curve GEV location"),
+        "growth_scale": ("1", "growth-curve GEV scale"),
+        "growth_shape": ("1", "growth-curve GEV shape k (Hosking)"),
         "n_sites": ("1", "cells used in the region"),
         "kappa_used": ("1", "1: heterogeneity simulated from the kappa fit; 0: from the generalized logistic"),
-        "discordancy_critical": ("1", "critical D_i (Hosking & Wallis 1997, Table 3.1) for n_sites"), "growth": ("1", "regional growth curve x(F) / index"),
+        "discordancy_critical": ("1", "critical D_i (Hosking & Wallis 1997, Table 3.1) for n_sites"),
+        "growth": ("1", "regional growth curve x(F) / index"),
         "growth_lower": ("1", f"lower bound of the {ci:.0%} interval of the growth curve"),
         "growth_upper": ("1", f"upper bound of the {ci:.0%} interval of the growth curve"),
     }
@@ -412,13 +491,26 @@ def regional_frequency(annual_max: Any, regions: Any = None, periods: Any = (2, 
         ds[v].attrs.update(units=u, long_name=ln)
     ds.attrs.update(
         method="index flood with L-moments, Hosking & Wallis (1997): discordancy (sec. 3.2), heterogeneity "
-               "by kappa simulation (sec. 4.3), GEV growth curve from record-length-weighted ratios",
+        "by kappa simulation (sec. 4.3), GEV growth curve from record-length-weighted ratios",
         heterogeneity_rule="H < 1 acceptably homogeneous; 1 <= H < 2 possibly heterogeneous; H >= 2 definitely heterogeneous",
         interval_method="simulated regions from the fitted regional GEV, sites independent; "
-                        "interval estimate/U to estimate/L of the ratio estimate/true (sec. 6.4)",
-        n_sim=int(n_sim), n_boot=int(n_boot), seed=seed, ci=float(ci), min_years=min_years,
+        "interval estimate/U to estimate/L of the ratio estimate/true (sec. 6.4)",
+        n_sim=int(n_sim),
+        n_boot=int(n_boot),
+        seed=seed,
+        ci=float(ci),
+        min_years=min_years,
         cautions=DESIGN_DEPTH_CAUTIONS,
     )
     src_attrs = annual_max.attrs if isinstance(annual_max, xr.DataArray) else {}
-    return with_history(ds, "regional_frequency", src_attrs, periods=tuple(T.tolist()), ci=ci,
-                        n_sim=n_sim, n_boot=n_boot, seed=seed, min_years=min_years)
+    return with_history(
+        ds,
+        "regional_frequency",
+        src_attrs,
+        periods=tuple(T.tolist()),
+        ci=ci,
+        n_sim=n_sim,
+        n_boot=n_boot,
+        seed=seed,
+        min_years=min_years,
+    )

@@ -53,28 +53,40 @@ def _target_grid(target: Any, need_bounds: bool = True) -> tuple[Any, ...]:
     """(lat, lon, lat_lo, lat_hi, lon_lo, lon_hi) of a rectilinear target."""
     if isinstance(target, dict):
         if "lat" not in target or "lon" not in target:
-            raise GridError("the target grid has no lat/lon", source="target",
-                            expected="a dict with 1-D 'lat' and 'lon' arrays",
-                            fix="pass {'lat': [...], 'lon': [...]} or a DataArray on the target grid")
+            raise GridError(
+                "the target grid has no lat/lon",
+                source="target",
+                expected="a dict with 1-D 'lat' and 'lon' arrays",
+                fix="pass {'lat': [...], 'lon': [...]} or a DataArray on the target grid",
+            )
         lat = np.atleast_1d(np.asarray(target["lat"], dtype=float))
         lon = np.atleast_1d(np.asarray(target["lon"], dtype=float))
         obj: xr.DataArray | xr.Dataset = xr.Dataset(coords={"lat": lat, "lon": lon})
     elif isinstance(target, (xr.DataArray, xr.Dataset)):
         if "lat" not in target.coords or "lon" not in target.coords:
-            raise GridError("the target grid has no lat/lon coordinates", source="target",
-                            expected="coordinates 'lat' and 'lon'",
-                            fix="pass a DataArray or Dataset with lat/lon coordinates")
+            raise GridError(
+                "the target grid has no lat/lon coordinates",
+                source="target",
+                expected="coordinates 'lat' and 'lon'",
+                fix="pass a DataArray or Dataset with lat/lon coordinates",
+            )
         obj = target
         lat = np.asarray(target["lat"].values, dtype=float)
         lon = np.asarray(target["lon"].values, dtype=float)
     else:
-        raise GridError(f"the target grid is a {type(target).__name__}", source="target",
-                        expected="a DataArray, Dataset or dict with 1-D lat/lon",
-                        fix="pass a DataArray on the target grid")
+        raise GridError(
+            f"the target grid is a {type(target).__name__}",
+            source="target",
+            expected="a DataArray, Dataset or dict with 1-D lat/lon",
+            fix="pass a DataArray on the target grid",
+        )
     if lat.ndim != 1 or lon.ndim != 1:
-        raise GridError("the target grid is curvilinear", source="target",
-                        expected="1-D lat and lon (a rectilinear target)",
-                        fix="regrid onto a regular lat/lon grid")
+        raise GridError(
+            "the target grid is curvilinear",
+            source="target",
+            expected="1-D lat and lon (a rectilinear target)",
+            fix="regrid onto a regular lat/lon grid",
+        )
     if not need_bounds:  # bilinear needs centres only; bounds are a courtesy
         try:
             return (lat, lon, *_bounds(obj))
@@ -84,8 +96,14 @@ def _target_grid(target: Any, need_bounds: bool = True) -> tuple[Any, ...]:
 
 
 # ---------------------------------------------------------------- separable weights
-def _overlap_matrix(s_lo: np.ndarray, s_hi: np.ndarray, t_lo: np.ndarray, t_hi: np.ndarray,
-                    measure: Callable[[np.ndarray], np.ndarray], period: float | None = None) -> sp.csr_matrix:
+def _overlap_matrix(
+    s_lo: np.ndarray,
+    s_hi: np.ndarray,
+    t_lo: np.ndarray,
+    t_hi: np.ndarray,
+    measure: Callable[[np.ndarray], np.ndarray],
+    period: float | None = None,
+) -> sp.csr_matrix:
     """Sparse (n_target, n_source) overlap of 1-D intervals, in ``measure`` units.
 
     ``measure`` is monotonic (sin∘radians for latitude, radians for longitude), so the
@@ -95,9 +113,12 @@ def _overlap_matrix(s_lo: np.ndarray, s_hi: np.ndarray, t_lo: np.ndarray, t_hi: 
     order = np.argsort(s_lo, kind="stable")
     slo, shi = s_lo[order], s_hi[order]
     if np.any(np.diff(shi) < 0):
-        raise GridError("source cell bounds overlap or are not sorted", source="field",
-                        expected="non-overlapping cells along each axis",
-                        fix="sort lat/lon and check the *_lower/*_upper coordinates")
+        raise GridError(
+            "source cell bounds overlap or are not sorted",
+            source="field",
+            expected="non-overlapping cells along each axis",
+            fix="sort lat/lon and check the *_lower/*_upper coordinates",
+        )
     rows: Any
     cols: Any
     vals: Any  # lists of pieces, then their concatenation
@@ -130,23 +151,32 @@ def _sin_deg(x: Any) -> Any:
     return np.sin(np.deg2rad(x))
 
 
-def separable_weights(src_lat_bounds: Any, src_lon_bounds: Any, tgt_lat_bounds: Any,
-                      tgt_lon_bounds: Any) -> tuple[sp.csr_matrix, sp.csr_matrix]:
+def separable_weights(
+    src_lat_bounds: Any, src_lon_bounds: Any, tgt_lat_bounds: Any, tgt_lon_bounds: Any
+) -> tuple[sp.csr_matrix, sp.csr_matrix]:
     """Overlap matrices ``(Wlat, Wlon)`` between two rectilinear grids.
 
     ``Wlat[i, j]`` is the overlap of target row i and source row j in sin φ, ``Wlon[k, l]``
     the overlap in longitude in radians (periodic), so that R²·Wlat[i, j]·Wlon[k, l] is the
     spherical area shared by target cell (i, k) and source cell (j, l).
     """
-    wlat = _overlap_matrix(*map(np.asarray, src_lat_bounds), *map(np.asarray, tgt_lat_bounds),  # type: ignore[arg-type, call-arg]
-                           _sin_deg)
-    wlon = _overlap_matrix(*map(np.asarray, src_lon_bounds), *map(np.asarray, tgt_lon_bounds),  # type: ignore[arg-type, call-arg, misc]
-                           np.deg2rad, period=360.0)
+    wlat = _overlap_matrix(
+        *map(np.asarray, src_lat_bounds),  # type: ignore[arg-type, call-arg]
+        *map(np.asarray, tgt_lat_bounds),
+        _sin_deg,
+    )
+    wlon = _overlap_matrix(
+        *map(np.asarray, src_lon_bounds),  # type: ignore[arg-type, call-arg, misc]
+        *map(np.asarray, tgt_lon_bounds),
+        np.deg2rad,
+        period=360.0,
+    )
     return wlat, wlon
 
 
-def _finish(num: np.ndarray, den: np.ndarray, tgt_area: np.ndarray, min_coverage: float,
-            strict: bool) -> tuple[np.ndarray, np.ndarray]:
+def _finish(
+    num: np.ndarray, den: np.ndarray, tgt_area: np.ndarray, min_coverage: float, strict: bool
+) -> tuple[np.ndarray, np.ndarray]:
     cov = den / tgt_area
     with np.errstate(invalid="ignore", divide="ignore"):
         out = num / den
@@ -155,8 +185,9 @@ def _finish(num: np.ndarray, den: np.ndarray, tgt_area: np.ndarray, min_coverage
     return out, np.clip(cov, 0.0, 1.0)
 
 
-def _apply_separable(wlat: Any, wlonT: Any, tgt_area: np.ndarray, min_coverage: float, strict: bool,
-                     x: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+def _apply_separable(
+    wlat: Any, wlonT: Any, tgt_area: np.ndarray, min_coverage: float, strict: bool, x: np.ndarray
+) -> tuple[np.ndarray, np.ndarray]:
     """Block function: x (..., nlat, nlon) -> value and coverage (..., ntlat, ntlon)."""
     lead = x.shape[:-2]
     x = x.reshape((-1,) + x.shape[-2:]).astype(float, copy=False)
@@ -177,8 +208,9 @@ def _apply_separable(wlat: Any, wlonT: Any, tgt_area: np.ndarray, min_coverage: 
 
 
 # ---------------------------------------------------------------- curvilinear weights
-def _curvilinear_matrix(field: xr.DataArray, t_lat_b: tuple[np.ndarray, np.ndarray],
-                        t_lon_b: tuple[np.ndarray, np.ndarray], key: Any) -> sp.csr_matrix:
+def _curvilinear_matrix(
+    field: xr.DataArray, t_lat_b: tuple[np.ndarray, np.ndarray], t_lon_b: tuple[np.ndarray, np.ndarray], key: Any
+) -> sp.csr_matrix:
     """Sparse (n_target_cells, n_source_cells) overlap areas on the unit sphere."""
     import shapely
 
@@ -217,8 +249,9 @@ def _curvilinear_matrix(field: xr.DataArray, t_lat_b: tuple[np.ndarray, np.ndarr
     return m
 
 
-def _apply_matrix(w: Any, tgt_area: np.ndarray, shape_out: tuple[int, ...], min_coverage: float, strict: bool,
-                  x: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+def _apply_matrix(
+    w: Any, tgt_area: np.ndarray, shape_out: tuple[int, ...], min_coverage: float, strict: bool, x: np.ndarray
+) -> tuple[np.ndarray, np.ndarray]:
     lead = x.shape[:-2]
     x = x.reshape((-1, x.shape[-2] * x.shape[-1])).astype(float, copy=False)
     valid = np.isfinite(x)
@@ -232,39 +265,63 @@ def _apply_matrix(w: Any, tgt_area: np.ndarray, shape_out: tuple[int, ...], min_
 # ---------------------------------------------------------------- public function
 def _check_params(method: str, coverage: str, min_coverage: float) -> None:
     if method not in _METHODS:
-        raise ParameterError(f"unknown regridding method {method!r}", source="regrid",
-                             expected=" or ".join(repr(m) for m in _METHODS),
-                             fix="use method='conservative' for depths (keeps totals)")
+        raise ParameterError(
+            f"unknown regridding method {method!r}",
+            source="regrid",
+            expected=" or ".join(repr(m) for m in _METHODS),
+            fix="use method='conservative' for depths (keeps totals)",
+        )
     if coverage not in _COVERAGE:
-        raise ParameterError(f"unknown coverage rule {coverage!r}", source="regrid",
-                             expected="'renormalise' or 'strict'",
-                             fix="use coverage='renormalise' with min_coverage, or 'strict'")
+        raise ParameterError(
+            f"unknown coverage rule {coverage!r}",
+            source="regrid",
+            expected="'renormalise' or 'strict'",
+            fix="use coverage='renormalise' with min_coverage, or 'strict'",
+        )
     if not (0.0 < float(min_coverage) <= 1.0):
-        raise ParameterError(f"min_coverage={min_coverage} is outside (0, 1]", source="regrid",
-                             expected="a fraction of the target cell in (0, 1]",
-                             fix="use e.g. min_coverage=0.5")
+        raise ParameterError(
+            f"min_coverage={min_coverage} is outside (0, 1]",
+            source="regrid",
+            expected="a fraction of the target cell in (0, 1]",
+            fix="use e.g. min_coverage=0.5",
+        )
 
 
 def _source_kind(field: xr.DataArray) -> str:
     if "lat" not in field.coords or "lon" not in field.coords:
-        raise GridError("the field has no lat/lon coordinates", source=field.name or "field",
-                        expected="coordinates 'lat' and 'lon' (1-D or 2-D)",
-                        fix="open the file with cw.open_precip or add lat/lon coordinates")
+        raise GridError(
+            "the field has no lat/lon coordinates",
+            source=field.name or "field",
+            expected="coordinates 'lat' and 'lon' (1-D or 2-D)",
+            fix="open the file with cw.open_precip or add lat/lon coordinates",
+        )
     if field["lat"].ndim == 1 and field["lon"].ndim == 1:
         if "lat" not in field.dims or "lon" not in field.dims:
-            raise GridError("lat/lon are not dimensions of the field", source=field.name or "field",
-                            expected="dims (..., lat, lon)", fix="swap_dims to lat/lon")
+            raise GridError(
+                "lat/lon are not dimensions of the field",
+                source=field.name or "field",
+                expected="dims (..., lat, lon)",
+                fix="swap_dims to lat/lon",
+            )
         return "rect"
     if field["lat"].ndim == 2 and field["lat"].dims == field["lon"].dims:
         return "curv"
-    raise GridError("lat/lon coordinates have an unexpected shape", source=field.name or "field",
-                    expected="1-D lat and lon, or 2-D lat(y, x) and lon(y, x)",
-                    fix="check the grid coordinates of the file")
+    raise GridError(
+        "lat/lon coordinates have an unexpected shape",
+        source=field.name or "field",
+        expected="1-D lat and lon, or 2-D lat(y, x) and lon(y, x)",
+        fix="check the grid coordinates of the file",
+    )
 
 
-def regrid(field: xr.DataArray, target: Any, method: str = "conservative",
-           coverage: str = "renormalise", min_coverage: float = 0.5,
-           return_coverage: bool = False) -> Any:  # a DataArray, or (regridded, coverage)
+def regrid(
+    field: xr.DataArray,
+    target: Any,
+    method: str = "conservative",
+    coverage: str = "renormalise",
+    min_coverage: float = 0.5,
+    return_coverage: bool = False,
+) -> Any:  # a DataArray, or (regridded, coverage)
     """Remap a precipitation field onto the lat/lon grid of ``target``.
 
     Parameters
@@ -333,22 +390,34 @@ def regrid(field: xr.DataArray, target: Any, method: str = "conservative",
     """
     _check_params(method, coverage, min_coverage)
     if not isinstance(field, xr.DataArray):
-        raise ParameterError(f"field is a {type(field).__name__}", source="regrid",
-                             expected="an xarray.DataArray", fix="select one variable first")
+        raise ParameterError(
+            f"field is a {type(field).__name__}",
+            source="regrid",
+            expected="an xarray.DataArray",
+            fix="select one variable first",
+        )
     kind = _source_kind(field)
     lat, lon, tlat_lo, tlat_hi, tlon_lo, tlon_hi = _target_grid(target, method != "bilinear")
-    params = dict(method=method, coverage=coverage, min_coverage=float(min_coverage),
-                  target=f"{lat.size}x{lon.size} lat/lon")
+    params = dict(
+        method=method, coverage=coverage, min_coverage=float(min_coverage), target=f"{lat.size}x{lon.size} lat/lon"
+    )
     tcoords = {"lat": lat, "lon": lon}
     if tlat_lo is not None:
-        tcoords.update(lat_lower=("lat", tlat_lo), lat_upper=("lat", tlat_hi),
-                       lon_lower=("lon", tlon_lo), lon_upper=("lon", tlon_hi))
+        tcoords.update(
+            lat_lower=("lat", tlat_lo),
+            lat_upper=("lat", tlat_hi),
+            lon_lower=("lon", tlon_lo),
+            lon_upper=("lon", tlon_hi),
+        )
 
     if method == "bilinear":
         if kind != "rect":
-            raise ParameterError("bilinear regridding needs a rectilinear source",
-                                 source=field.name or "field", expected="1-D lat and lon",
-                                 fix="use method='conservative' for curvilinear grids")
+            raise ParameterError(
+                "bilinear regridding needs a rectilinear source",
+                source=field.name or "field",
+                expected="1-D lat and lon",
+                fix="use method='conservative' for curvilinear grids",
+            )
         out = _bilinear(field, lat, lon).assign_coords(tcoords)
         out.attrs = dict(field.attrs)
         out = with_history(out, "regrid", field.attrs, **params)
@@ -362,30 +431,39 @@ def regrid(field: xr.DataArray, target: Any, method: str = "conservative",
     tgt_area = np.outer(_sin_deg(tlat_hi) - _sin_deg(tlat_lo), np.deg2rad(tlon_hi - tlon_lo))
     if kind == "rect":
         slat_lo, slat_hi, slon_lo, slon_hi = _bounds(field)
-        wlat, wlon = separable_weights((slat_lo, slat_hi), (slon_lo, slon_hi),
-                                       (tlat_lo, tlat_hi), (tlon_lo, tlon_hi))
+        wlat, wlon = separable_weights((slat_lo, slat_hi), (slon_lo, slon_hi), (tlat_lo, tlat_hi), (tlon_lo, tlon_hi))
         if wlat.nnz == 0 or wlon.nnz == 0:
             _no_overlap(field)
         core = ["lat", "lon"]
         func, args = _apply_separable, (wlat, wlon.T.tocsr(), tgt_area, float(min_coverage), strict)
     else:
         ydim, xdim = field["lat"].dims
-        key = (grid_token(field), lat.tobytes(), lon.tobytes(), tlat_lo.tobytes(),
-               tlat_hi.tobytes(), tlon_lo.tobytes(), tlon_hi.tobytes())
+        key = (
+            grid_token(field),
+            lat.tobytes(),
+            lon.tobytes(),
+            tlat_lo.tobytes(),
+            tlat_hi.tobytes(),
+            tlon_lo.tobytes(),
+            tlon_hi.tobytes(),
+        )
         w = _curvilinear_matrix(field, (tlat_lo, tlat_hi), (tlon_lo, tlon_hi), key)
         if w.nnz == 0:
             _no_overlap(field)
         core = [ydim, xdim]
         func, args = _apply_matrix, (w, tgt_area, tgt_area.shape, float(min_coverage), strict)
 
-    src = field.drop_vars([c for c in field.coords if c not in field.dims
-                           and set(field[c].dims) & set(core)])
+    src = field.drop_vars([c for c in field.coords if c not in field.dims and set(field[c].dims) & set(core)])
     if src.chunks is not None:
         src = src.chunk({d: -1 for d in core})
     val, cov = xr.apply_ufunc(
-        partial(func, *args), src,
-        input_core_dims=[core], output_core_dims=[["lat", "lon"], ["lat", "lon"]],
-        exclude_dims=set(core), dask="parallelized", output_dtypes=[float, float],
+        partial(func, *args),
+        src,
+        input_core_dims=[core],
+        output_core_dims=[["lat", "lon"], ["lat", "lon"]],
+        exclude_dims=set(core),
+        dask="parallelized",
+        output_dtypes=[float, float],
         dask_gufunc_kwargs={"output_sizes": {"lat": lat.size, "lon": lon.size}},
     )
     val = val.assign_coords(tcoords)
@@ -401,15 +479,17 @@ def regrid(field: xr.DataArray, target: Any, method: str = "conservative",
 
 
 def _no_overlap(field: xr.DataArray) -> None:
-    raise GridError("the source and target grids do not overlap", source=field.name or "field",
-                    expected="a target grid that shares area with the source grid",
-                    fix="check the target's lat/lon ranges and the source's longitude convention")
+    raise GridError(
+        "the source and target grids do not overlap",
+        source=field.name or "field",
+        expected="a target grid that shares area with the source grid",
+        fix="check the target's lat/lon ranges and the source's longitude convention",
+    )
 
 
 def _bilinear(field: xr.DataArray, lat: np.ndarray, lon: np.ndarray) -> xr.DataArray:
     """Linear in lat and lon as DataArray.interp, with longitude wrap for global sources."""
-    src = field.drop_vars([c for c in ("lat_lower", "lat_upper", "lon_lower", "lon_upper")
-                           if c in field.coords])
+    src = field.drop_vars([c for c in ("lat_lower", "lat_upper", "lon_lower", "lon_upper") if c in field.coords])
     slon = np.asarray(src["lon"].values, dtype=float)
     try:
         _, _, lo, hi = _bounds(field)

@@ -57,19 +57,29 @@ from .ensemble import MEMBER_DIMS, check_members
 __all__ = ["SCENARIO_CAUTIONS", "check_model_runs", "delta_change", "period_or_default"]
 
 SCENARIO_CAUTIONS = (
-    ("Projections, not forecasts: a climate-change scenario depends on the climate models, the "
-     "emission pathway (forcing scenario) and the downscaling or adjustment method chosen."),
-    ("The spread of a small ensemble understates the full range of possible futures; members "
-     "that agree are not thereby right."),
-    ("Delta change keeps the observed sequence of weather and changes only monthly amounts; "
-     "quantile delta mapping keeps the model's changes in each quantile and its own sequence."),
+    (
+        "Projections, not forecasts: a climate-change scenario depends on the climate models, the "
+        "emission pathway (forcing scenario) and the downscaling or adjustment method chosen."
+    ),
+    (
+        "The spread of a small ensemble understates the full range of possible futures; members "
+        "that agree are not thereby right."
+    ),
+    (
+        "Delta change keeps the observed sequence of weather and changes only monthly amounts; "
+        "quantile delta mapping keeps the model's changes in each quantile and its own sequence."
+    ),
     "For planning, defer to adopted local climate-change guidance, codes and licensed engineering practice.",
 )
 
 _METHODS = ("monthly_ratio", "quantile_delta")
 _GROUPS = ("month", "season")
-_SAME_CALENDAR = {"gregorian": "standard", "proleptic_gregorian": "standard", "365_day": "noleap",
-                  "366_day": "all_leap"}
+_SAME_CALENDAR = {
+    "gregorian": "standard",
+    "proleptic_gregorian": "standard",
+    "365_day": "noleap",
+    "366_day": "all_leap",
+}
 
 
 # ---------------------------------------------------------------- validation
@@ -78,8 +88,7 @@ def _calendar_of(da: xr.DataArray) -> str:
     return _SAME_CALENDAR.get(cal, cal)
 
 
-def check_model_runs(model_hist: xr.DataArray, model_future: xr.DataArray, dim: str | None,
-                     func: str) -> str | None:
+def check_model_runs(model_hist: xr.DataArray, model_future: xr.DataArray, dim: str | None, func: str) -> str | None:
     """Validate a historical and a future run: precipitation convention, members, calendar.
 
     Parameters
@@ -125,23 +134,31 @@ def check_model_runs(model_hist: xr.DataArray, model_future: xr.DataArray, dim: 
     member = check_members(model_hist, model_future, dim, func)
     ch, cf = _calendar_of(model_hist), _calendar_of(model_future)
     if ch != cf:
-        raise CalendarError(f"the historical run uses the {ch!r} calendar and the future run {cf!r}",
-                            source=func, variable="time",
-                            expected="both runs of a model on the same calendar",
-                            fix="pair runs of the same model, or convert one with DataArray.convert_calendar")
+        raise CalendarError(
+            f"the historical run uses the {ch!r} calendar and the future run {cf!r}",
+            source=func,
+            variable="time",
+            expected="both runs of a model on the same calendar",
+            fix="pair runs of the same model, or convert one with DataArray.convert_calendar",
+        )
     return member
 
 
 def _check_series(da: Any, label: str, func: str) -> str:
     if not isinstance(da, xr.DataArray):
-        raise ParameterError(f"{label} is a {type(da).__name__}", source=func, variable=label,
-                             expected="an xarray.DataArray of precipitation depth per step (mm)",
-                             fix="open it with cw.open_precip or select one variable")
+        raise ParameterError(
+            f"{label} is a {type(da).__name__}",
+            source=func,
+            variable=label,
+            expected="an xarray.DataArray of precipitation depth per step (mm)",
+            fix="open it with cw.open_precip or select one variable",
+        )
     try:
         return check_precip(da, func)
     except InputError as err:  # say which of the inputs is wrong
-        raise type(err)(f"{label}: {err.problem}", source=func, variable=da.name, expected=err.expected,
-                        fix=err.fix) from None
+        raise type(err)(
+            f"{label}: {err.problem}", source=func, variable=da.name, expected=err.expected, fix=err.fix
+        ) from None
 
 
 def period_or_default(da: xr.DataArray, period: Any, label: str, func: str) -> tuple[int, int]:
@@ -180,19 +197,25 @@ def period_or_default(da: xr.DataArray, period: Any, label: str, func: str) -> t
     """
     years = _complete_years(da)
     if not years:
-        raise InsufficientDataError(f"{label} has no complete calendar year", source=func, variable=label,
-                                    expected="at least one fully covered calendar year",
-                                    fix="supply a longer record")
+        raise InsufficientDataError(
+            f"{label} has no complete calendar year",
+            source=func,
+            variable=label,
+            expected="at least one fully covered calendar year",
+            fix="supply a longer record",
+        )
     if period is None:
         return min(years), max(years)
     first, last = check_year_range(period, func, label)
     missing = sorted(set(range(first, last + 1)) - years)
     if missing:
         raise InsufficientDataError(
-            f"the period {first}-{last} is not covered by {label} (incomplete or absent years, "
-            f"e.g. {missing[0]})", source=func, variable=label,
+            f"the period {first}-{last} is not covered by {label} (incomplete or absent years, e.g. {missing[0]})",
+            source=func,
+            variable=label,
             expected=f"complete years of {label} within {min(years)}-{max(years)}",
-            fix=f"choose a period inside {min(years)}-{max(years)}")
+            fix=f"choose a period inside {min(years)}-{max(years)}",
+        )
     return first, last
 
 
@@ -200,9 +223,13 @@ def _check_obs(obs: Any, func: str) -> str:
     step = _check_series(obs, "obs", func)
     extra = [d for d in MEMBER_DIMS if d in obs.dims]
     if extra:
-        raise ParameterError(f"the observations have a member dimension {extra[0]!r}", source=func,
-                             variable="obs", expected="one observed record (no member dimension)",
-                             fix=f"select one observed product, e.g. obs.isel({extra[0]}=0)")
+        raise ParameterError(
+            f"the observations have a member dimension {extra[0]!r}",
+            source=func,
+            variable="obs",
+            expected="one observed record (no member dimension)",
+            fix=f"select one observed product, e.g. obs.isel({extra[0]}=0)",
+        )
     return step
 
 
@@ -214,10 +241,13 @@ def _check_grids(obs: xr.DataArray, model_hist: xr.DataArray, func: str) -> None
     """Gridded observations, or series (e.g. basin means) for observations and runs alike."""
     if _has_grid(obs) != _has_grid(model_hist):
         which = "the observations have" if not _has_grid(obs) else "the model runs have"
-        raise GridError(f"{which} no lat/lon coordinates while the other input is gridded", source=func,
-                        variable="obs" if not _has_grid(obs) else "model_hist",
-                        expected="all inputs gridded (lat/lon), or all series such as basin means",
-                        fix="open gridded data with cw.open_precip, or take cw.basin_mean of every input")
+        raise GridError(
+            f"{which} no lat/lon coordinates while the other input is gridded",
+            source=func,
+            variable="obs" if not _has_grid(obs) else "model_hist",
+            expected="all inputs gridded (lat/lon), or all series such as basin means",
+            fix="open gridded data with cw.open_precip, or take cw.basin_mean of every input",
+        )
 
 
 def _same_grid(a: xr.DataArray, b: xr.DataArray) -> bool:
@@ -251,9 +281,14 @@ def _years(da: xr.DataArray, first: int, last: int) -> xr.DataArray:
 
 
 # ---------------------------------------------------------------- monthly ratio
-def _monthly_factors(obs: xr.DataArray, model_hist: xr.DataArray, model_future: xr.DataArray,
-                     hist_period: tuple[int, int], fut_period: tuple[int, int],
-                     min_fraction: float) -> xr.DataArray:
+def _monthly_factors(
+    obs: xr.DataArray,
+    model_hist: xr.DataArray,
+    model_future: xr.DataArray,
+    hist_period: tuple[int, int],
+    fut_period: tuple[int, int],
+    min_fraction: float,
+) -> xr.DataArray:
     from .normals import normals
 
     nh = normals(model_hist, baseline=hist_period, min_fraction=min_fraction).drop_vars("n_years")
@@ -261,11 +296,18 @@ def _monthly_factors(obs: xr.DataArray, model_hist: xr.DataArray, model_future: 
     nh, nf = _on_obs_grid(nh, obs), _on_obs_grid(nf, obs)
     # a month that is dry in both periods does not change (factor 1); one that is dry only
     # in the historical period cannot be scaled from zero (NaN)
-    factor: xr.DataArray = xr.where(nh > 0, nf / nh.where(nh > 0),  # type: ignore[no-untyped-call]
-                                    xr.where((nh == 0) & (nf == 0), 1.0, np.nan))  # type: ignore[no-untyped-call]
+    factor: xr.DataArray = xr.where(  # type: ignore[no-untyped-call]
+        nh > 0,
+        nf / nh.where(nh > 0),
+        xr.where((nh == 0) & (nf == 0), 1.0, np.nan),  # type: ignore[no-untyped-call]
+    )
     factor.name = "change_factor"
-    factor.attrs = {"units": "1", "long_name": "monthly change factor (future / historical monthly normal)",
-                    "historical_period": list(hist_period), "future_period": list(fut_period)}
+    factor.attrs = {
+        "units": "1",
+        "long_name": "monthly change factor (future / historical monthly normal)",
+        "historical_period": list(hist_period),
+        "future_period": list(fut_period),
+    }
     return factor
 
 
@@ -276,11 +318,22 @@ def _apply_monthly(obs: xr.DataArray, factor: xr.DataArray) -> xr.DataArray:
 
 
 # ---------------------------------------------------------------- public function
-def delta_change(obs: xr.DataArray, model_hist: xr.DataArray, model_future: xr.DataArray,
-                 method: str = "monthly_ratio", *, historical: Any = None, future: Any = None,
-                 dim: str | None = None, group: str = "month", trace: float = 0.05, max_ratio: float = 2.0,
-                 seed: int = 0, min_fraction: float = 0.8,
-                 return_factors: bool = False) -> Any:  # a DataArray, or (scenario, factors)
+def delta_change(
+    obs: xr.DataArray,
+    model_hist: xr.DataArray,
+    model_future: xr.DataArray,
+    method: str = "monthly_ratio",
+    *,
+    historical: Any = None,
+    future: Any = None,
+    dim: str | None = None,
+    group: str = "month",
+    trace: float = 0.05,
+    max_ratio: float = 2.0,
+    seed: int = 0,
+    min_fraction: float = 0.8,
+    return_factors: bool = False,
+) -> Any:  # a DataArray, or (scenario, factors)
     """A climate-change scenario on the observed grid, per member, from a model ensemble.
 
     Parameters
@@ -377,9 +430,13 @@ def delta_change(obs: xr.DataArray, model_hist: xr.DataArray, model_future: xr.D
     """
     func = "delta_change"
     if method not in _METHODS:
-        raise ParameterError(f"unknown method {method!r}", source=func, variable="method",
-                             expected=" or ".join(repr(m) for m in _METHODS),
-                             fix="use method='monthly_ratio' (delta change) or 'quantile_delta'")
+        raise ParameterError(
+            f"unknown method {method!r}",
+            source=func,
+            variable="method",
+            expected=" or ".join(repr(m) for m in _METHODS),
+            fix="use method='monthly_ratio' (delta change) or 'quantile_delta'",
+        )
     step_obs = _check_obs(obs, func)
     member = check_model_runs(model_hist, model_future, dim, func)
     _check_grids(obs, model_hist, func)
@@ -390,33 +447,51 @@ def delta_change(obs: xr.DataArray, model_hist: xr.DataArray, model_future: xr.D
         hist_period = period_or_default(model_hist, historical, "model_hist", func)
         factor = _monthly_factors(obs, model_hist, model_future, hist_period, fut_period, min_fraction)
         out = _apply_monthly(obs, factor)
-        attrs: dict[str, Any] = {"method": "monthly ratio (delta change): each observed step times its month's change factor, "
-                           "future / historical monthly normal of the model run, per member",
-                 "historical_period": list(hist_period), "future_period": list(fut_period),
-                 "observed_period": f"{obs['time'].dt.year.values[0]}-{obs['time'].dt.year.values[-1]}"}
+        attrs: dict[str, Any] = {
+            "method": "monthly ratio (delta change): each observed step times its month's change factor, "
+            "future / historical monthly normal of the model run, per member",
+            "historical_period": list(hist_period),
+            "future_period": list(fut_period),
+            "observed_period": f"{obs['time'].dt.year.values[0]}-{obs['time'].dt.year.values[-1]}",
+        }
         params["historical"] = hist_period
     else:
         if group not in _GROUPS:
-            raise ParameterError(f"unknown group {group!r}", source=func, variable="group",
-                                 expected="'month' or 'season'", fix="use group='month'")
+            raise ParameterError(
+                f"unknown group {group!r}",
+                source=func,
+                variable="group",
+                expected="'month' or 'season'",
+                fix="use group='month'",
+            )
         for name, value in (("trace", trace), ("max_ratio", max_ratio)):
-            if isinstance(value, bool) or not isinstance(value, (int, float)) or not np.isfinite(value) \
-                    or value <= 0:
-                raise ParameterError(f"{name}={value!r} is not a positive number", source=func, variable=name,
-                                     expected="a positive number", fix="use trace=0.05 (mm) and max_ratio=2")
+            if isinstance(value, bool) or not isinstance(value, (int, float)) or not np.isfinite(value) or value <= 0:
+                raise ParameterError(
+                    f"{name}={value!r} is not a positive number",
+                    source=func,
+                    variable=name,
+                    expected="a positive number",
+                    fix="use trace=0.05 (mm) and max_ratio=2",
+                )
         step_model = model_hist.attrs["step"]
         if step_obs != step_model or model_future.attrs["step"] != step_model:
             raise MismatchError(
                 f"quantile delta mapping needs one time step; obs is per {step_obs}, the runs per "
-                f"{step_model}/{model_future.attrs['step']}", source=func, variable="step",
+                f"{step_model}/{model_future.attrs['step']}",
+                source=func,
+                variable="step",
                 expected="observations and both runs on the same step (e.g. all daily)",
-                fix="aggregate the finer series with cw.monthly_totals, or use method='monthly_ratio'")
+                fix="aggregate the finer series with cw.monthly_totals, or use method='monthly_ratio'",
+            )
         common = _complete_years(obs) & _complete_years(model_hist)
         if not common:
-            raise MismatchError("the observations and the historical run share no complete year",
-                                source=func, variable="historical",
-                                expected="an overlapping calibration period",
-                                fix="use a historical run that overlaps the observed record")
+            raise MismatchError(
+                "the observations and the historical run share no complete year",
+                source=func,
+                variable="historical",
+                expected="an overlapping calibration period",
+                fix="use a historical run that overlaps the observed record",
+            )
         if historical is None:
             hist_period = (min(common), max(common))
         else:
@@ -424,34 +499,50 @@ def delta_change(obs: xr.DataArray, model_hist: xr.DataArray, model_future: xr.D
             if not set(range(hist_period[0], hist_period[1] + 1)) <= common:
                 raise MismatchError(
                     f"historical={hist_period} is not covered by both the observations and the historical run",
-                    source=func, variable="historical",
+                    source=func,
+                    variable="historical",
                     expected=f"years within their common complete years {min(common)}-{max(common)}",
-                    fix=f"choose a calibration period inside {min(common)}-{max(common)}")
+                    fix=f"choose a calibration period inside {min(common)}-{max(common)}",
+                )
         o = _years(obs, *hist_period)
         h = _on_obs_grid(_years(model_hist, *hist_period), obs)
         f = _on_obs_grid(_years(model_future, *fut_period), obs)
         out = quantile_delta_map(o, h, f, group, trace, max_ratio, seed)
-        attrs = {"method": "quantile delta mapping, multiplicative (Cannon, Sobie & Murdock 2015, "
-                           "doi:10.1175/JCLI-D-14-00754.1), empirical type-7 quantiles, per member",
-                 "calibration_period": list(hist_period), "future_period": list(fut_period),
-                 "group": group, "trace_mm": float(trace),
-                 "dry_days": (f"amounts below {trace:g} mm are dry: replaced by pseudo-random amounts in "
-                              f"(0, {trace / 2:g}) mm before the mapping (seed {seed}), and adjusted amounts "
-                              f"below {trace:g} mm set to 0"),
-                 "max_ratio": float(max_ratio),
-                 "max_ratio_rule": f"relative change capped at {max_ratio:g} where the historical quantile "
-                                   f"is below {10 * trace:g} mm"}
+        attrs = {
+            "method": "quantile delta mapping, multiplicative (Cannon, Sobie & Murdock 2015, "
+            "doi:10.1175/JCLI-D-14-00754.1), empirical type-7 quantiles, per member",
+            "calibration_period": list(hist_period),
+            "future_period": list(fut_period),
+            "group": group,
+            "trace_mm": float(trace),
+            "dry_days": (
+                f"amounts below {trace:g} mm are dry: replaced by pseudo-random amounts in "
+                f"(0, {trace / 2:g}) mm before the mapping (seed {seed}), and adjusted amounts "
+                f"below {trace:g} mm set to 0"
+            ),
+            "max_ratio": float(max_ratio),
+            "max_ratio_rule": f"relative change capped at {max_ratio:g} where the historical quantile "
+            f"is below {10 * trace:g} mm",
+        }
         params.update(historical=hist_period, group=group, trace=trace, max_ratio=max_ratio, seed=seed)
 
     out = out.transpose(*([member] if member else []), "time", ...)
     out.name = obs.name if method == "monthly_ratio" else (model_future.name or obs.name)
     base = obs.attrs if method == "monthly_ratio" else model_future.attrs
     out.attrs = {k: v for k, v in base.items() if k != "history"}
-    out.attrs.update(units="mm", step=base.get("step"),
-                     long_name="precipitation, climate-change scenario", **attrs,
-                     grid=("series without a grid" if not _has_grid(obs) else "observed grid"
-                           + ("" if _same_grid(model_hist, obs) else " (model runs remapped conservatively)")),
-                     member_dim=member or "none", cautions=SCENARIO_CAUTIONS)
+    out.attrs.update(
+        units="mm",
+        step=base.get("step"),
+        long_name="precipitation, climate-change scenario",
+        **attrs,
+        grid=(
+            "series without a grid"
+            if not _has_grid(obs)
+            else "observed grid" + ("" if _same_grid(model_hist, obs) else " (model runs remapped conservatively)")
+        ),
+        member_dim=member or "none",
+        cautions=SCENARIO_CAUTIONS,
+    )
     out = with_history(out, func, base, **params)
     if return_factors and method == "monthly_ratio":
         return out, with_history(factor, func, model_hist.attrs, **params)

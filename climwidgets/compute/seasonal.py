@@ -60,8 +60,9 @@ def season_label(months: Iterable[int]) -> str:
     return MONTH_NAMES[months[0] - 1] + ("" if len(months) == 1 else "-" + MONTH_NAMES[months[-1] - 1])
 
 
-def _season_blocks(pr: xr.DataArray, months: Any, year_start: int,
-                   func: str) -> tuple[xr.DataArray, tuple[int, ...], int, int]:
+def _season_blocks(
+    pr: xr.DataArray, months: Any, year_start: int, func: str
+) -> tuple[xr.DataArray, tuple[int, ...], int, int]:
     pr, step = precip_mm(pr, func)
     months = check_months(months, func)
     year_start = check_year_start(year_start, func)
@@ -72,10 +73,14 @@ def _season_blocks(pr: xr.DataArray, months: Any, year_start: int,
 
 
 def _season_attrs(months: tuple[int, ...], year_start: int, start: int) -> dict[str, Any]:
-    return {"season_months": list(months), "season": season_label(months),
-            "year_start": year_start, "season_year_start": start,
-            "season_year": f"{MONTH_NAMES[start - 1]}-{MONTH_NAMES[(start + 10) % 12]} year, "
-                           "labelled by the calendar year in which it ends"}
+    return {
+        "season_months": list(months),
+        "season": season_label(months),
+        "year_start": year_start,
+        "season_year_start": start,
+        "season_year": f"{MONTH_NAMES[start - 1]}-{MONTH_NAMES[(start + 10) % 12]} year, "
+        "labelled by the calendar year in which it ends",
+    }
 
 
 def seasonal_totals(pr: xr.DataArray, months: Iterable[int] | int, year_start: int = 1) -> xr.DataArray:
@@ -117,15 +122,24 @@ def seasonal_totals(pr: xr.DataArray, months: Iterable[int] | int, year_start: i
     blocks, months, year_start, start = _season_blocks(pr, months, year_start, "seasonal_totals")
     out = blocks.sel(month=list(months)).sum("month", skipna=False)
     out.name = pr.name
-    out.attrs = {"standard_name": "lwe_thickness_of_precipitation_amount", "units": "mm",
-                 "long_name": f"seasonal precipitation total ({season_label(months)})",
-                 "cell_methods": "time: sum", **_season_attrs(months, year_start, start)}
+    out.attrs = {
+        "standard_name": "lwe_thickness_of_precipitation_amount",
+        "units": "mm",
+        "long_name": f"seasonal precipitation total ({season_label(months)})",
+        "cell_methods": "time: sum",
+        **_season_attrs(months, year_start, start),
+    }
     return with_history(out, "seasonal_totals", pr.attrs, months=months, year_start=year_start)
 
 
-def seasonal_fraction(pr: xr.DataArray, months: Iterable[int] | int = (7, 8), how: str = "ratio_of_sums",
-                      years: Sequence[int] | None = None,
-                      year_start: int = 1, per_year: bool = False) -> xr.DataArray:
+def seasonal_fraction(
+    pr: xr.DataArray,
+    months: Iterable[int] | int = (7, 8),
+    how: str = "ratio_of_sums",
+    years: Sequence[int] | None = None,
+    year_start: int = 1,
+    per_year: bool = False,
+) -> xr.DataArray:
     """Seasonal share of the annual precipitation (fraction, units "1").
 
     Parameters
@@ -175,9 +189,13 @@ def seasonal_fraction(pr: xr.DataArray, months: Iterable[int] | int = (7, 8), ho
     """
     func = "seasonal_fraction"
     if how not in ("ratio_of_sums", "mean_of_ratios"):
-        raise ParameterError(f"how={how!r} is not known", source=func, variable="how",
-                             expected="'ratio_of_sums' or 'mean_of_ratios'",
-                             fix="pass how='ratio_of_sums' (default) or how='mean_of_ratios'")
+        raise ParameterError(
+            f"how={how!r} is not known",
+            source=func,
+            variable="how",
+            expected="'ratio_of_sums' or 'mean_of_ratios'",
+            fix="pass how='ratio_of_sums' (default) or how='mean_of_ratios'",
+        )
     blocks, months, year_start, start = _season_blocks(pr, months, year_start, func)
     if years is not None:
         blocks = select_years(blocks, years, func, "years", source_name(pr))
@@ -185,11 +203,13 @@ def seasonal_fraction(pr: xr.DataArray, months: Iterable[int] | int = (7, 8), ho
     seasonal = blocks.sel(month=list(months)).sum("month", skipna=False)
     valid = annual.notnull()  # a year with any missing month is dropped
     seasonal = seasonal.where(valid)
-    attrs = {"units": "1", "long_name": f"seasonal share of annual precipitation "
-                                        f"({season_label(months)})",
-             **_season_attrs(months, year_start, start),
-             "years": [int(blocks.year.values[0]), int(blocks.year.values[-1])],
-             "missing_rule": "years with any missing month are left out"}
+    attrs = {
+        "units": "1",
+        "long_name": f"seasonal share of annual precipitation ({season_label(months)})",
+        **_season_attrs(months, year_start, start),
+        "years": [int(blocks.year.values[0]), int(blocks.year.values[-1])],
+        "missing_rule": "years with any missing month are left out",
+    }
     if per_year:
         out = safe_divide(seasonal, annual)
         attrs["how"] = "per year"
@@ -207,9 +227,12 @@ def seasonal_fraction(pr: xr.DataArray, months: Iterable[int] | int = (7, 8), ho
         out = out.assign_coords(n_years=n, n_zero_annual_years=zero)
         attrs["how"] = how
         attrs["years_with_zero_annual_total"] = (
-            "not counted for lazy input; see coordinate n_zero_annual_years" if is_dask(zero)
-            else int(np.asarray(zero).sum()))
+            "not counted for lazy input; see coordinate n_zero_annual_years"
+            if is_dask(zero)
+            else int(np.asarray(zero).sum())
+        )
     out.name = "seasonal_share"
     out.attrs = attrs
-    return with_history(out, func, pr.attrs, months=months, how=how, years=years,
-                        year_start=year_start, per_year=per_year)
+    return with_history(
+        out, func, pr.attrs, months=months, how=how, years=years, year_start=year_start, per_year=per_year
+    )

@@ -30,15 +30,27 @@ from .scenario import SCENARIO_CAUTIONS, _years, check_model_runs, period_or_def
 __all__ = ["annual_normal_signal", "design_depth_signal", "seasonal_share_signal"]
 
 
-def _periods(model_hist: xr.DataArray, model_future: xr.DataArray, historical: Any, future: Any,
-             func: str) -> tuple[tuple[int, int], tuple[int, int]]:
-    return (period_or_default(model_hist, historical, "model_hist", func),
-            period_or_default(model_future, future, "model_future", func))
+def _periods(
+    model_hist: xr.DataArray, model_future: xr.DataArray, historical: Any, future: Any, func: str
+) -> tuple[tuple[int, int], tuple[int, int]]:
+    return (
+        period_or_default(model_hist, historical, "model_hist", func),
+        period_or_default(model_future, future, "model_future", func),
+    )
 
 
-def _signal(hist_value: xr.DataArray, fut_value: xr.DataArray, change: xr.DataArray, kind: str, member: str | None,
-            func: str, attrs: dict[str, Any], cautions: Sequence[str], source_attrs: dict[str, Any],
-            **params: Any) -> xr.Dataset:
+def _signal(
+    hist_value: xr.DataArray,
+    fut_value: xr.DataArray,
+    change: xr.DataArray,
+    kind: str,
+    member: str | None,
+    func: str,
+    attrs: dict[str, Any],
+    cautions: Sequence[str],
+    source_attrs: dict[str, Any],
+    **params: Any,
+) -> xr.Dataset:
     ds = xr.Dataset({"historical": hist_value, "future": fut_value, "change": change})
     if member is not None:
         summary = ensemble_summary(change, dim=member, change=kind)
@@ -54,9 +66,15 @@ def _strip(da: xr.DataArray) -> xr.DataArray:
     return da.drop_vars([c for c in da.coords if c not in da.dims])
 
 
-def seasonal_share_signal(model_hist: xr.DataArray, model_future: xr.DataArray, months: Iterable[int] = (7, 8),
-                          historical: Any = None, future: Any = None, dim: str | None = None,
-                          year_start: int = 1) -> xr.Dataset:
+def seasonal_share_signal(
+    model_hist: xr.DataArray,
+    model_future: xr.DataArray,
+    months: Iterable[int] = (7, 8),
+    historical: Any = None,
+    future: Any = None,
+    dim: str | None = None,
+    year_start: int = 1,
+) -> xr.Dataset:
     """Change in the seasonal share of the annual total: future minus historical, per member.
 
     Parameters
@@ -110,16 +128,39 @@ def seasonal_share_signal(model_hist: xr.DataArray, model_future: xr.DataArray, 
     ph, pf = _periods(model_hist, model_future, historical, future, func)
     sh = _strip(seasonal_fraction(_years(model_hist, *ph), months, year_start=year_start))
     sf = _strip(seasonal_fraction(_years(model_future, *pf), months, year_start=year_start))
-    change = (sf - sh).assign_attrs(units="1", long_name=f"change in {sh.attrs.get('long_name', 'seasonal share')}"
-                                                         " (future − historical)")
-    attrs = {"signal": "seasonal share, future minus historical", "season_months": list(months),
-             "historical_period": list(ph), "future_period": list(pf)}
-    return _signal(sh, sf, change, "difference", member, func, attrs, SCENARIO_CAUTIONS, model_hist.attrs,
-                   months=tuple(months), historical=ph, future=pf)
+    change = (sf - sh).assign_attrs(
+        units="1", long_name=f"change in {sh.attrs.get('long_name', 'seasonal share')} (future − historical)"
+    )
+    attrs = {
+        "signal": "seasonal share, future minus historical",
+        "season_months": list(months),
+        "historical_period": list(ph),
+        "future_period": list(pf),
+    }
+    return _signal(
+        sh,
+        sf,
+        change,
+        "difference",
+        member,
+        func,
+        attrs,
+        SCENARIO_CAUTIONS,
+        model_hist.attrs,
+        months=tuple(months),
+        historical=ph,
+        future=pf,
+    )
 
 
-def annual_normal_signal(model_hist: xr.DataArray, model_future: xr.DataArray, historical: Any = None,
-                         future: Any = None, dim: str | None = None, min_fraction: float = 0.8) -> xr.Dataset:
+def annual_normal_signal(
+    model_hist: xr.DataArray,
+    model_future: xr.DataArray,
+    historical: Any = None,
+    future: Any = None,
+    dim: str | None = None,
+    min_fraction: float = 0.8,
+) -> xr.Dataset:
     """Ratio of annual normals, future / historical, per member.
 
     The annual normal is the sum of the 12 monthly normals (:func:`cw.annual_normal`, WMO
@@ -181,16 +222,40 @@ def annual_normal_signal(model_hist: xr.DataArray, model_future: xr.DataArray, h
     nh = _strip(annual_normal(model_hist, baseline=ph, min_fraction=min_fraction))
     nf = _strip(annual_normal(model_future, baseline=pf, min_fraction=min_fraction))
     change = (nf / nh.where(nh > 0)).assign_attrs(units="1", long_name="ratio of annual normals (future / historical)")
-    attrs = {"signal": "annual normal, future / historical", "historical_period": list(ph),
-             "future_period": list(pf), "min_fraction": float(min_fraction)}
-    return _signal(nh, nf, change, "ratio", member, func, attrs, SCENARIO_CAUTIONS, model_hist.attrs,
-                   historical=ph, future=pf, min_fraction=min_fraction)
+    attrs = {
+        "signal": "annual normal, future / historical",
+        "historical_period": list(ph),
+        "future_period": list(pf),
+        "min_fraction": float(min_fraction),
+    }
+    return _signal(
+        nh,
+        nf,
+        change,
+        "ratio",
+        member,
+        func,
+        attrs,
+        SCENARIO_CAUTIONS,
+        model_hist.attrs,
+        historical=ph,
+        future=pf,
+        min_fraction=min_fraction,
+    )
 
 
-def design_depth_signal(model_hist: xr.DataArray, model_future: xr.DataArray, periods: Any = (2, 10, 25, 50, 100),
-                        duration_days: int = 1, historical: Any = None, future: Any = None, dim: str | None = None,
-                        n_boot: int = 200, ci: float = 0.9,
-                        seed: int = 0) -> xr.Dataset:
+def design_depth_signal(
+    model_hist: xr.DataArray,
+    model_future: xr.DataArray,
+    periods: Any = (2, 10, 25, 50, 100),
+    duration_days: int = 1,
+    historical: Any = None,
+    future: Any = None,
+    dim: str | None = None,
+    n_boot: int = 200,
+    ci: float = 0.9,
+    seed: int = 0,
+) -> xr.Dataset:
     """Ratio of design depths (T-year n-day depths), future / historical, per member.
 
     Annual maxima of ``duration_days`` running totals (:func:`cw.annual_maxima`, daily or
@@ -269,11 +334,30 @@ def design_depth_signal(model_hist: xr.DataArray, model_future: xr.DataArray, pe
     rh, rf = fits
     eh, ef = _strip(rh["estimate"]), _strip(rf["estimate"])
     change = (ef / eh.where(eh > 0)).assign_attrs(
-        units="1", long_name=f"ratio of {duration_days}-day design depths (future / historical)")
-    attrs = {"signal": f"{duration_days}-day design depth (return level), future / historical",
-             "historical_period": list(ph), "future_period": list(pf), "ci": float(ci), "n_boot": int(n_boot)}
-    ds = _signal(eh, ef, change, "ratio", member, func, attrs, SCENARIO_CAUTIONS + tuple(DESIGN_DEPTH_CAUTIONS),
-                 model_hist.attrs, periods=tuple(periods), duration_days=duration_days, historical=ph, future=pf)
+        units="1", long_name=f"ratio of {duration_days}-day design depths (future / historical)"
+    )
+    attrs = {
+        "signal": f"{duration_days}-day design depth (return level), future / historical",
+        "historical_period": list(ph),
+        "future_period": list(pf),
+        "ci": float(ci),
+        "n_boot": int(n_boot),
+    }
+    ds = _signal(
+        eh,
+        ef,
+        change,
+        "ratio",
+        member,
+        func,
+        attrs,
+        SCENARIO_CAUTIONS + tuple(DESIGN_DEPTH_CAUTIONS),
+        model_hist.attrs,
+        periods=tuple(periods),
+        duration_days=duration_days,
+        historical=ph,
+        future=pf,
+    )
     for prefix, fit in (("historical", rh), ("future", rf)):
         for bound in ("lower", "upper"):
             ds[f"{prefix}_{bound}"] = _strip(fit[bound])

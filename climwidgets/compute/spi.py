@@ -43,15 +43,14 @@ SPI_CLASSES = (
     (2.0, "extremely wet"),
     (1.5, "very wet"),
     (1.0, "moderately wet"),
-    (-1.0, "near normal"),   # -0.99 .. 0.99: strictly between -1 and 1
+    (-1.0, "near normal"),  # -0.99 .. 0.99: strictly between -1 and 1
     (-1.5, "moderately dry"),  # -1.0 .. -1.49
     (-2.0, "severely dry"),  # -1.5 .. -1.99
     (-np.inf, "extremely dry"),  # <= -2.0
 )
 
 
-def thom_gamma_fit(values: xr.DataArray,
-                   dim: str) -> tuple[xr.DataArray, xr.DataArray, xr.DataArray, xr.DataArray]:
+def thom_gamma_fit(values: xr.DataArray, dim: str) -> tuple[xr.DataArray, xr.DataArray, xr.DataArray, xr.DataArray]:
     """Gamma shape and scale by the Thom (1958) approximation, fitted to the positive values.
 
     Parameters
@@ -93,7 +92,7 @@ def thom_gamma_fit(values: xr.DataArray,
     mean = positive.sum(dim) / n_pos.where(n_pos > 0)
     # log of NaN stays NaN; positive has no zeros, so no divide warning
     mean_log = xr.apply_ufunc(np.log, positive, dask="allowed").sum(dim) / n_pos.where(n_pos > 0)
-    a = (xr.apply_ufunc(np.log, mean, dask="allowed") - mean_log)
+    a = xr.apply_ufunc(np.log, mean, dask="allowed") - mean_log
     a = a.where(a > 0)
     alpha = (1 + np.sqrt(1 + 4 * a / 3)) / (4 * a)
     beta = mean / alpha
@@ -101,8 +100,7 @@ def thom_gamma_fit(values: xr.DataArray,
     return alpha, beta, q, n_valid
 
 
-def _spi_kernel(x: np.ndarray, alpha: np.ndarray, beta: np.ndarray, q: np.ndarray,
-                clip: float) -> np.ndarray:
+def _spi_kernel(x: np.ndarray, alpha: np.ndarray, beta: np.ndarray, q: np.ndarray, clip: float) -> np.ndarray:
     with np.errstate(invalid="ignore", divide="ignore"):
         g = special.gammainc(alpha, np.where(x > 0, x, 0.0) / beta)
         h = np.where(x > 0, q + (1 - q) * g, q)
@@ -111,8 +109,7 @@ def _spi_kernel(x: np.ndarray, alpha: np.ndarray, beta: np.ndarray, q: np.ndarra
     return np.clip(z, -clip, clip)
 
 
-def spi(pr: xr.DataArray, scale: int = 3, baseline: Sequence[int] = (1991, 2020),
-        clip: float = 8.21) -> xr.DataArray:
+def spi(pr: xr.DataArray, scale: int = 3, baseline: Sequence[int] = (1991, 2020), clip: float = 8.21) -> xr.DataArray:
     """Monthly Standardized Precipitation Index on the monthly time axis.
 
     Parameters
@@ -171,37 +168,48 @@ def spi(pr: xr.DataArray, scale: int = 3, baseline: Sequence[int] = (1991, 2020)
     """
     func = "spi"
     if isinstance(scale, bool) or scale not in SPI_SCALES:
-        raise ParameterError(f"scale={scale!r} is not an accepted SPI scale", source=func,
-                             variable="scale", expected=f"one of {SPI_SCALES} months",
-                             fix="pass scale=3 (or another listed scale)")
+        raise ParameterError(
+            f"scale={scale!r} is not an accepted SPI scale",
+            source=func,
+            variable="scale",
+            expected=f"one of {SPI_SCALES} months",
+            fix="pass scale=3 (or another listed scale)",
+        )
     if not isinstance(clip, (int, float)) or isinstance(clip, bool) or not clip > 0:
-        raise ParameterError(f"clip={clip!r} must be a positive number", source=func,
-                             variable="clip", expected="a positive number, e.g. 8.21",
-                             fix="pass clip=8.21")
+        raise ParameterError(
+            f"clip={clip!r} must be a positive number",
+            source=func,
+            variable="clip",
+            expected="a positive number, e.g. 8.21",
+            fix="pass clip=8.21",
+        )
     pr, step = precip_mm(pr, func)
     src = source_name(pr)
     first, last = check_year_range(baseline, func, "baseline")
     monthly, covered = monthly_with_coverage(pr, step)
     if int(covered.sum()) < scale:
         raise ParameterError(
-            f"the data hold {int(covered.sum())} complete months ({data_period(monthly)}), "
-            f"fewer than scale={scale}", source=src, variable="scale",
+            f"the data hold {int(covered.sum())} complete months ({data_period(monthly)}), fewer than scale={scale}",
+            source=src,
+            variable="scale",
             expected=f"at least {scale} months of data",
-            fix="use a shorter scale or a longer record")
+            fix="use a shorter scale or a longer record",
+        )
     years = monthly["time"].dt.year
     if first < int(years.min()) or last > int(years.max()):
         raise ParameterError(
             f"baseline=({first}, {last}) lies outside the data period {data_period(monthly)}",
-            source=src, variable="baseline",
+            source=src,
+            variable="baseline",
             expected=f"years within {int(years.min())}-{int(years.max())}",
-            fix="choose a baseline inside the data period or supply a longer record")
+            fix="choose a baseline inside the data period or supply a longer record",
+        )
     acc = monthly.rolling(time=scale, min_periods=scale).sum() if scale > 1 else monthly
     in_base = ((years >= first) & (years <= last)).values
     base = acc.isel(time=np.flatnonzero(in_base))
     base_months = base["time"].dt.month.values
     # one fit per calendar month (a loop over 12 months, not over cells)
-    fits = [thom_gamma_fit(base.isel(time=np.flatnonzero(base_months == m)), "time")
-            for m in range(1, 13)]
+    fits = [thom_gamma_fit(base.isel(time=np.flatnonzero(base_months == m)), "time") for m in range(1, 13)]
     keys = xr.DataArray(np.arange(1, 13), dims="month", name="month")
     alpha, beta, q, n = (xr.concat([f[i] for f in fits], dim=keys) for i in range(4))
     month_of = acc["time"].dt.month
@@ -209,16 +217,27 @@ def spi(pr: xr.DataArray, scale: int = 3, baseline: Sequence[int] = (1991, 2020)
     def per_step(p: xr.DataArray) -> xr.DataArray:
         return p.sel(month=month_of).drop_vars("month")
 
-    out: xr.DataArray = xr.apply_ufunc(_spi_kernel, acc, per_step(alpha), per_step(beta), per_step(q),
-                         kwargs={"clip": float(clip)}, dask="parallelized", output_dtypes=[float])
+    out: xr.DataArray = xr.apply_ufunc(
+        _spi_kernel,
+        acc,
+        per_step(alpha),
+        per_step(beta),
+        per_step(q),
+        kwargs={"clip": float(clip)},
+        dask="parallelized",
+        output_dtypes=[float],
+    )
     out.name = "spi"
     out.attrs = {
-        "units": "1", "long_name": f"Standardized Precipitation Index, {scale}-month",
-        "scale_months": int(scale), "baseline": [first, last], "clip": float(clip),
+        "units": "1",
+        "long_name": f"Standardized Precipitation Index, {scale}-month",
+        "scale_months": int(scale),
+        "baseline": [first, last],
+        "clip": float(clip),
         "fit_method": "two-parameter gamma per calendar month fitted to the non-zero baseline "
-                      "sums by the Thom (1958) approximation of maximum likelihood; "
-                      "H = q + (1 - q) G(x) with q the share of zero sums; SPI = exact inverse "
-                      "normal of H (McKee, Doesken & Kleist 1993; WMO-No. 1090, 2012)",
+        "sums by the Thom (1958) approximation of maximum likelihood; "
+        "H = q + (1 - q) G(x) with q the share of zero sums; SPI = exact inverse "
+        "normal of H (McKee, Doesken & Kleist 1993; WMO-No. 1090, 2012)",
         "clip_rule": f"values beyond +-{clip:g} are clipped (H of 0 or 1 would be infinite)",
         "zero_rule": "a zero sum gets the inverse normal of q",
     }
@@ -276,9 +295,12 @@ def spi_category(spi_values: xr.DataArray) -> xr.DataArray:
            'severely dry', 'missing'], dtype='<U14')
     """
     if not isinstance(spi_values, xr.DataArray):
-        raise ParameterError(f"spi_category needs a DataArray, got {type(spi_values).__name__}",
-                             source="spi_category", expected="the DataArray returned by spi()",
-                             fix="pass the result of climwidgets.spi")
+        raise ParameterError(
+            f"spi_category needs a DataArray, got {type(spi_values).__name__}",
+            source="spi_category",
+            expected="the DataArray returned by spi()",
+            fix="pass the result of climwidgets.spi",
+        )
     out: xr.DataArray = xr.apply_ufunc(_category_kernel, spi_values, dask="parallelized", output_dtypes=["<U14"])
     out.name = "spi_category"
     out.attrs = {"long_name": "SPI class", "classes": "WMO (2012) SPI User Guide, Table 1"}

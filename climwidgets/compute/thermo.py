@@ -70,13 +70,17 @@ def saturation_vapor_pressure(temperature_c: Any) -> Any:
     >>> cw.saturation_vapor_pressure(np.array([0.0, 10.0, 30.0])).round(0)
     array([ 611., 1226., 4237.])
     """
+
     def f(t: Any) -> Any:
         return MAGNUS_A_PA * np.exp(MAGNUS_B * t / (t + MAGNUS_C_DEGC))
 
     out = _apply(f, temperature_c)
     if hasattr(out, "attrs"):
-        out.attrs.update(units="Pa", long_name="saturation vapour pressure over water",
-                         formula="Magnus form, Alduchov & Eskridge (1996) eq. 21")
+        out.attrs.update(
+            units="Pa",
+            long_name="saturation vapour pressure over water",
+            formula="Magnus form, Alduchov & Eskridge (1996) eq. 21",
+        )
     return out
 
 
@@ -171,6 +175,7 @@ def moist_adiabatic_lapse_rate(temperature_c: Any, pressure_pa: float = 101325.0
     >>> round(float(moist_adiabatic_lapse_rate(20.0)) * 1000, 2)  # K per km at 1013.25 hPa
     4.25
     """
+
     def f(t: Any) -> Any:
         tk = t + 273.15
         es = MAGNUS_A_PA * np.exp(MAGNUS_B * t / (t + MAGNUS_C_DEGC))

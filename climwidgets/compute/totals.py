@@ -19,10 +19,14 @@ _PRECIP_ATTRS = {"standard_name": "lwe_thickness_of_precipitation_amount", "unit
 
 def _monthly_attrs(da: xr.DataArray, pr: xr.DataArray) -> xr.DataArray:
     da.name = pr.name
-    da.attrs = {**_PRECIP_ATTRS, "long_name": "monthly precipitation total", "step": "month",
-                "cell_methods": "time: sum",
-                "missing_rule": "a month with any missing step, or not fully covered by the "
-                                "time axis, is missing (WMO-No. 1203 rule for sums)"}
+    da.attrs = {
+        **_PRECIP_ATTRS,
+        "long_name": "monthly precipitation total",
+        "step": "month",
+        "cell_methods": "time: sum",
+        "missing_rule": "a month with any missing step, or not fully covered by the "
+        "time axis, is missing (WMO-No. 1203 rule for sums)",
+    }
     return da
 
 
@@ -100,9 +104,13 @@ def annual_totals(pr: xr.DataArray, year_start: int = 1) -> xr.DataArray:
     out: xr.DataArray = blocks.sum("month", skipna=False)
     out.name = pr.name
     kind = "calendar year" if year_start == 1 else "12-month (water) year"
-    out.attrs = {**_PRECIP_ATTRS, "long_name": f"annual precipitation total ({kind})",
-                 "cell_methods": "year: sum", "year_start": year_start,
-                 "year_label": "calendar year in which the 12-month year ends",
-                 "missing_rule": "a year with any missing month is missing; edge years not "
-                                 "fully covered by the time axis are dropped"}
+    out.attrs = {
+        **_PRECIP_ATTRS,
+        "long_name": f"annual precipitation total ({kind})",
+        "cell_methods": "year: sum",
+        "year_start": year_start,
+        "year_label": "calendar year in which the 12-month year ends",
+        "missing_rule": "a year with any missing month is missing; edge years not "
+        "fully covered by the time axis are dropped",
+    }
     return with_history(out, "annual_totals", pr.attrs, year_start=year_start)

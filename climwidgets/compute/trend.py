@@ -58,7 +58,7 @@ def _trend_kernel(y: np.ndarray, t: np.ndarray) -> tuple[np.ndarray, ...]:
     s = np.where(pair_ok, np.sign(dy) * np.sign(dt), 0.0).sum(axis=-1)
     # ties in x: each member of a tie group of size g sees g equal values (itself included),
     # so sum over members of f(g)/g equals sum over groups of f(g)
-    eq = (y[..., :, None] == y[..., None, :])  # NaN never equals, so only valid values count
+    eq = y[..., :, None] == y[..., None, :]  # NaN never equals, so only valid values count
     g = eq.sum(axis=-1).astype(float)
     with np.errstate(invalid="ignore", divide="ignore"):
         tie_term = np.where(valid, (g - 1) * (2 * g + 5), 0.0).sum(axis=-1)  # = sum t(t-1)(2t+5)
@@ -66,8 +66,7 @@ def _trend_kernel(y: np.ndarray, t: np.ndarray) -> tuple[np.ndarray, ...]:
     var = (n * (n - 1) * (2 * n + 5) - tie_term) / 18.0
     # ties in t (repeated positions) only matter for tau_b; the Mann-Kendall S ignores them
     tt = t[:, None] == t[None, :]
-    tied_pairs_t = np.where(valid[..., :, None] & valid[..., None, :] & tt, 1.0, 0.0).sum(
-        axis=(-2, -1))
+    tied_pairs_t = np.where(valid[..., :, None] & valid[..., None, :] & tt, 1.0, 0.0).sum(axis=(-2, -1))
     tied_pairs_t = (tied_pairs_t - n) / 2.0
     n0 = n * (n - 1) / 2.0
     with np.errstate(invalid="ignore", divide="ignore"):
@@ -117,44 +116,67 @@ def trend(series: xr.DataArray, dim: str = "year") -> xr.Dataset:
     """
     func = "trend"
     if not isinstance(series, xr.DataArray):
-        raise ParameterError(f"trend needs a DataArray, got {type(series).__name__}", source=func,
-                             expected="a DataArray with a year (or other) dimension",
-                             fix="pass e.g. climwidgets.annual_totals(pr)")
+        raise ParameterError(
+            f"trend needs a DataArray, got {type(series).__name__}",
+            source=func,
+            expected="a DataArray with a year (or other) dimension",
+            fix="pass e.g. climwidgets.annual_totals(pr)",
+        )
     src = source_name(series)
     if dim not in series.dims:
-        raise ParameterError(f"dimension {dim!r} not found (dims are {tuple(series.dims)})",
-                             source=src, variable="dim", expected="a dimension of the series",
-                             fix=f"pass dim= one of {tuple(series.dims)}")
+        raise ParameterError(
+            f"dimension {dim!r} not found (dims are {tuple(series.dims)})",
+            source=src,
+            variable="dim",
+            expected="a dimension of the series",
+            fix=f"pass dim= one of {tuple(series.dims)}",
+        )
     if series.sizes[dim] < 2:
-        raise InsufficientDataError(f"only {series.sizes[dim]} value(s) along {dim!r}",
-                                    source=src, variable=dim, expected="at least 3 points",
-                                    fix="use a longer series")
+        raise InsufficientDataError(
+            f"only {series.sizes[dim]} value(s) along {dim!r}",
+            source=src,
+            variable=dim,
+            expected="at least 3 points",
+            fix="use a longer series",
+        )
     if dim in series.coords:
         coord = series[dim].values
         if not np.issubdtype(coord.dtype, np.number):
             raise ParameterError(
-                f"the {dim!r} coordinate is not numeric ({coord.dtype})", source=src,
-                variable="dim", expected="numeric positions such as years",
-                fix="aggregate to annual values (dim 'year') or assign numeric coordinates")
+                f"the {dim!r} coordinate is not numeric ({coord.dtype})",
+                source=src,
+                variable="dim",
+                expected="numeric positions such as years",
+                fix="aggregate to annual values (dim 'year') or assign numeric coordinates",
+            )
         t = coord.astype(float)
     else:
         t = np.arange(series.sizes[dim], dtype=float)
     data = series.chunk({dim: -1}) if is_dask(series) else series
     tcoord = xr.DataArray(t, dims=dim)
-    res = xr.apply_ufunc(_trend_kernel, data, tcoord, input_core_dims=[[dim], [dim]],
-                         output_core_dims=[[]] * 5, dask="parallelized",
-                         output_dtypes=[float] * 5)
+    res = xr.apply_ufunc(
+        _trend_kernel,
+        data,
+        tcoord,
+        input_core_dims=[[dim], [dim]],
+        output_core_dims=[[]] * 5,
+        dask="parallelized",
+        output_dtypes=[float] * 5,
+    )
     ds = xr.Dataset(dict(zip(_OUTPUTS, res)))
     units = series.attrs.get("units", "")
-    ds["slope"].attrs = {"units": f"{units} per {dim}".strip(),
-                         "long_name": "Sen slope (median of pairwise slopes)"}
-    ds["intercept"].attrs = {"units": units, "long_name": "intercept, median(x) - slope * median(t)",
-                             "time_origin": f"{dim} = 0"}
-    ds["pvalue"].attrs = {"units": "1", "long_name": "Mann-Kendall two-sided p-value",
-                          "method": "normal approximation, tie-corrected variance, "
-                                    "continuity-corrected Z"}
+    ds["slope"].attrs = {"units": f"{units} per {dim}".strip(), "long_name": "Sen slope (median of pairwise slopes)"}
+    ds["intercept"].attrs = {
+        "units": units,
+        "long_name": "intercept, median(x) - slope * median(t)",
+        "time_origin": f"{dim} = 0",
+    }
+    ds["pvalue"].attrs = {
+        "units": "1",
+        "long_name": "Mann-Kendall two-sided p-value",
+        "method": "normal approximation, tie-corrected variance, continuity-corrected Z",
+    }
     ds["tau"].attrs = {"units": "1", "long_name": "Kendall tau_b"}
     ds["n"].attrs = {"units": "1", "long_name": "number of valid points"}
-    ds.attrs = {"method": "Sen (1968) slope; Mann-Kendall test (Mann 1945, Kendall 1975)",
-                "dim": dim}
+    ds.attrs = {"method": "Sen (1968) slope; Mann-Kendall test (Mann 1945, Kendall 1975)", "dim": dim}
     return with_history(ds, func, series.attrs, dim=dim)

@@ -25,8 +25,7 @@ DESIGN_DEPTH_CAUTIONS = (
     "and is usually lower.",
     "Assumes the climate of the record is stationary; a trend or shift in the record biases the estimates.",
     "Return-level intervals cover sampling error of the fit only, not the choice of distribution or data errors.",
-    "Defer to the jurisdiction's adopted design-rainfall estimates, local codes and "
-    "licensed engineering practice.",
+    "Defer to the jurisdiction's adopted design-rainfall estimates, local codes and licensed engineering practice.",
 )
 
 # d ln(e_s)/dT at 20 degC from the Magnus form of Alduchov & Eskridge (1996): about 0.0619 per K.
@@ -39,9 +38,12 @@ _XR = TypeVar("_XR", xr.DataArray, xr.Dataset)
 def _check_number(value: Any, name: str, lo: float, hi: float, expected: str, fix: str) -> None:
     if isinstance(value, xr.DataArray):
         return
-    if (not isinstance(value, numbers.Real) or isinstance(value, bool)
-            or not np.isfinite(value)  # type: ignore[call-overload]  # numpy stubs take no numbers.Real
-            or not (lo <= value <= hi)):  # type: ignore[operator]
+    if (
+        not isinstance(value, numbers.Real)
+        or isinstance(value, bool)
+        or not np.isfinite(value)  # type: ignore[call-overload]  # numpy stubs take no numbers.Real
+        or not (lo <= value <= hi)  # type: ignore[operator]
+    ):
         raise ParameterError(f"{name}={value!r} is not allowed", variable=name, expected=expected, fix=fix)
 
 
@@ -102,17 +104,35 @@ def warming_scaling(field: _XR, delta_t: Any, rate: float = 0.07, convention: st
     array([115.027,  57.514])
     """
     if convention not in _CONVENTIONS:
-        raise ParameterError(f"unknown convention {convention!r}", variable="convention",
-                             expected="'compound' ((1 + rate)**delta_t) or 'exponential' (exp(rate*delta_t))",
-                             fix="use convention='compound'")
-    _check_number(rate, "rate", 0.0, 0.25, "a fraction per kelvin between 0 and 0.25 (0.07 means 7 %/K)",
-                  "pass rate=0.07; a percentage like 7 must be given as 0.07")
-    _check_number(delta_t, "delta_t", -20.0, 20.0, "a warming in kelvin between -20 and 20",
-                  "pass the temperature change in kelvin, e.g. delta_t=2.0")
+        raise ParameterError(
+            f"unknown convention {convention!r}",
+            variable="convention",
+            expected="'compound' ((1 + rate)**delta_t) or 'exponential' (exp(rate*delta_t))",
+            fix="use convention='compound'",
+        )
+    _check_number(
+        rate,
+        "rate",
+        0.0,
+        0.25,
+        "a fraction per kelvin between 0 and 0.25 (0.07 means 7 %/K)",
+        "pass rate=0.07; a percentage like 7 must be given as 0.07",
+    )
+    _check_number(
+        delta_t,
+        "delta_t",
+        -20.0,
+        20.0,
+        "a warming in kelvin between -20 and 20",
+        "pass the temperature change in kelvin, e.g. delta_t=2.0",
+    )
     if not isinstance(field, (xr.DataArray, xr.Dataset)):
-        raise ParameterError(f"field is a {type(field).__name__}", variable="field",
-                             expected="an xarray DataArray or Dataset of depths in mm",
-                             fix="wrap the values in an xarray.DataArray with attrs units='mm'")
+        raise ParameterError(
+            f"field is a {type(field).__name__}",
+            variable="field",
+            expected="an xarray DataArray or Dataset of depths in mm",
+            fix="wrap the values in an xarray.DataArray with attrs units='mm'",
+        )
     factor = (1.0 + rate) ** delta_t if convention == "compound" else np.exp(rate * delta_t)
 
     def scale(da: xr.DataArray) -> xr.DataArray:
@@ -130,9 +150,10 @@ def warming_scaling(field: _XR, delta_t: Any, rate: float = 0.07, convention: st
         out = scale(field)
     out.attrs.update(
         warming_delta_t=delta_t if not isinstance(delta_t, xr.DataArray) else "see delta_t coordinate",
-        warming_rate=rate, warming_convention=convention,
+        warming_rate=rate,
+        warming_convention=convention,
         warming_note="planning approximation: depths scaled with the saturation vapour pressure of air "
-                     f"(Clausius-Clapeyron; d ln e_s/dT = {CC_RATE_20C:.4f} per K at 20 degC)",
+        f"(Clausius-Clapeyron; d ln e_s/dT = {CC_RATE_20C:.4f} per K at 20 degC)",
         cautions=DESIGN_DEPTH_CAUTIONS,
     )
     dt = "DataArray" if isinstance(delta_t, xr.DataArray) else delta_t

@@ -33,8 +33,9 @@ ACRE_FOOT_M3 = 43_560 * 0.3048**3  # = 1233.48183754752
 _VOLUME_UNITS = {"m3": 1.0, "acre-ft": ACRE_FOOT_M3}
 
 
-def basin_weights(basin: Basin | None, grid: xr.DataArray | xr.Dataset,
-                  weights: xr.DataArray | None = None) -> tuple[dict[str, slice], xr.DataArray]:
+def basin_weights(
+    basin: Basin | None, grid: xr.DataArray | xr.Dataset, weights: xr.DataArray | None = None
+) -> tuple[dict[str, slice], xr.DataArray]:
     """Area × coverage weights (m²) on the basin's bounding box of ``grid``.
 
     Returns ``(isel, w)``: the dict of slices to apply to the grid and the DataArray of
@@ -82,28 +83,44 @@ def basin_weights(basin: Basin | None, grid: xr.DataArray | xr.Dataset,
     dims = horizontal_dims(grid)
     if weights is None:
         if basin is None:
-            raise ParameterError("neither a basin nor weights were given", expected="a Basin",
-                                 fix="pass a Basin (or weights=coverage_weights(basin, grid))")
+            raise ParameterError(
+                "neither a basin nor weights were given",
+                expected="a Basin",
+                fix="pass a Basin (or weights=coverage_weights(basin, grid))",
+            )
         (j0, j1, i0, i1), block = coverage_block(basin, grid)
     else:
         if tuple(weights.dims) != dims or any(weights.sizes[d] != grid.sizes[d] for d in dims):
             raise MismatchError(
-                f"weights have dims {dict(weights.sizes)} but the field's grid is "
-                f"{ {d: grid.sizes[d] for d in dims} }",
-                source="weights", expected="coverage weights computed on the field's own grid",
-                fix="compute weights with coverage_weights(basin, field)")
+                f"weights have dims {dict(weights.sizes)} but the field's grid is { {d: grid.sizes[d] for d in dims} }",
+                source="weights",
+                expected="coverage weights computed on the field's own grid",
+                fix="compute weights with coverage_weights(basin, field)",
+            )
         for d in dims:
             if d in weights.coords and d in grid.coords and not np.allclose(weights[d], grid[d]):
-                raise MismatchError(f"weights and field differ along '{d}'", source="weights",
-                                    expected="the same coordinates", fix="compute weights on the field's grid")
+                raise MismatchError(
+                    f"weights and field differ along '{d}'",
+                    source="weights",
+                    expected="the same coordinates",
+                    fix="compute weights on the field's grid",
+                )
         full = np.asarray(weights.values, dtype=float)
         if np.any(~np.isfinite(full)) or np.any(full < 0) or np.any(full > 1):
-            raise ParameterError("weights must be finite fractions in [0, 1]", source="weights",
-                                 expected="coverage fractions", fix="use coverage_weights(basin, field)")
+            raise ParameterError(
+                "weights must be finite fractions in [0, 1]",
+                source="weights",
+                expected="coverage fractions",
+                fix="use coverage_weights(basin, field)",
+            )
         rows, cols = np.nonzero(full.any(axis=1))[0], np.nonzero(full.any(axis=0))[0]
         if rows.size == 0:
-            raise BasinError("the weights are zero everywhere", source="weights",
-                             expected="a basin that overlaps the grid", fix="check the basin and the grid")
+            raise BasinError(
+                "the weights are zero everywhere",
+                source="weights",
+                expected="a basin that overlaps the grid",
+                fix="check the basin and the grid",
+            )
         j0, j1, i0, i1 = rows[0], rows[-1] + 1, cols[0], cols[-1] + 1
         block = full[j0:j1, i0:i1]
     isel = {dims[0]: slice(int(j0), int(j1)), dims[1]: slice(int(i0), int(i1))}
@@ -115,13 +132,15 @@ def basin_weights(basin: Basin | None, grid: xr.DataArray | xr.Dataset,
 def _check_field(field: Any, func: str) -> xr.DataArray:
     """The field under the house names (CF ``latitude``/``longitude`` renamed to lat/lon)."""
     if not isinstance(field, xr.DataArray):
-        raise ParameterError(f"{func} needs a DataArray, got {type(field).__name__}",
-                             expected="a DataArray on a lat/lon grid", fix="select one variable, e.g. ds['pr']")
+        raise ParameterError(
+            f"{func} needs a DataArray, got {type(field).__name__}",
+            expected="a DataArray on a lat/lon grid",
+            fix="select one variable, e.g. ds['pr']",
+        )
     return cast(xr.DataArray, canonical_names(field))  # io is not typed yet
 
 
-def _weighted_mean(sub: xr.DataArray, w: xr.DataArray,
-                   dims: Iterable[Hashable]) -> tuple[xr.DataArray, xr.DataArray]:
+def _weighted_mean(sub: xr.DataArray, w: xr.DataArray, dims: Iterable[Hashable]) -> tuple[xr.DataArray, xr.DataArray]:
     """(weighted mean, weight with data) of ``sub`` over ``dims`` with weights ``w`` (positional)."""
     valid = sub.notnull()
     num = xr.dot(sub.fillna(0.0), w, dim=list(dims))
@@ -129,8 +148,9 @@ def _weighted_mean(sub: xr.DataArray, w: xr.DataArray,
     return num / den.where(den > 0), den
 
 
-def _reduce(field: xr.DataArray, basin: Basin | None,
-            weights: xr.DataArray | None) -> tuple[xr.DataArray, xr.DataArray, float]:
+def _reduce(
+    field: xr.DataArray, basin: Basin | None, weights: xr.DataArray | None
+) -> tuple[xr.DataArray, xr.DataArray, float]:
     """(weighted mean, covered fraction, total weighted area m²) over the basin."""
     dims = horizontal_dims(field)
     isel, w = basin_weights(basin, field, weights)
@@ -212,20 +232,31 @@ def basin_means(field: xr.DataArray, basins: Iterable[Basin]) -> xr.DataArray:
     covered = (den / total).clip(0.0, 1.0)
     out = mean.assign_coords(covered_fraction=covered)
     out["covered_fraction"].attrs.update(
-        units="1", long_name="fraction of the basin's weighted area with data in this slice")
+        units="1", long_name="fraction of the basin's weighted area with data in this slice"
+    )
     out.name = field.name or "basin_mean"
     out.attrs = {k: v for k, v in field.attrs.items() if k in ("standard_name", "step", "cell_methods", "units")}
     out.attrs.update(
         weighting="cell area on a sphere of radius %.1f m × planar lon/lat coverage" % AUTHALIC_RADIUS_M,
-        missing_data="cells with NaN are left out per slice; see the covered_fraction coordinate")
+        missing_data="cells with NaN are left out per slice; see the covered_fraction coordinate",
+    )
     return with_history(out, "basin_means", field.attrs, basins=[b.name for b in basins])
 
 
-def _finish(out: xr.DataArray, field: xr.DataArray, covered: xr.DataArray, name: Hashable, units: str,
-            func: str, basin: Basin | None, **params: Any) -> xr.DataArray:
+def _finish(
+    out: xr.DataArray,
+    field: xr.DataArray,
+    covered: xr.DataArray,
+    name: Hashable,
+    units: str,
+    func: str,
+    basin: Basin | None,
+    **params: Any,
+) -> xr.DataArray:
     out = out.assign_coords(covered_fraction=covered)
     out["covered_fraction"].attrs.update(
-        units="1", long_name="fraction of the basin's weighted area with data in this slice")
+        units="1", long_name="fraction of the basin's weighted area with data in this slice"
+    )
     out.name = name
     out.attrs = {k: v for k, v in field.attrs.items() if k in ("standard_name", "step", "cell_methods")}
     out.attrs.update(
@@ -242,20 +273,27 @@ def _depth_to_mm(field: xr.DataArray) -> float:
     fu = field.attrs.get("units")
     src = field.name or "field"
     if fu is None or str(fu).strip() == "":
-        raise UnitsError("has no 'units' attribute (xarray arithmetic such as field * 1.05 drops attributes)",
-                         source=src, variable=field.name, expected="a depth such as 'mm' (per step, a total, or a normal)",
-                         fix="keep the attributes: `with xr.set_options(keep_attrs=True): ...`, or "
-                             "`.assign_attrs(units='mm')` when the values are mm")
+        raise UnitsError(
+            "has no 'units' attribute (xarray arithmetic such as field * 1.05 drops attributes)",
+            source=src,
+            variable=field.name,
+            expected="a depth such as 'mm' (per step, a total, or a normal)",
+            fix="keep the attributes: `with xr.set_options(keep_attrs=True): ...`, or "
+            "`.assign_attrs(units='mm')` when the values are mm",
+        )
     info = parse_units(fu, source=src, variable=field.name)
     if info.kind != "depth":
-        raise UnitsError(f"units are {fu!r}, a rate", source=src, variable=field.name,
-                         expected="a depth in 'mm' (per step, a total, or a normal)",
-                         fix="convert to a depth in mm first (cw.open_precip, or a total such as cw.annual_totals)")
+        raise UnitsError(
+            f"units are {fu!r}, a rate",
+            source=src,
+            variable=field.name,
+            expected="a depth in 'mm' (per step, a total, or a normal)",
+            fix="convert to a depth in mm first (cw.open_precip, or a total such as cw.annual_totals)",
+        )
     return info.to_mm
 
 
-def basin_mean(field: xr.DataArray, basin: Basin | None,
-               weights: xr.DataArray | None = None) -> xr.DataArray:
+def basin_mean(field: xr.DataArray, basin: Basin | None, weights: xr.DataArray | None = None) -> xr.DataArray:
     """Area-weighted mean of ``field`` over ``basin``, keeping every other dimension.
 
     Weights are cell area × coverage.  Cells with NaN are left out slice by slice; the
@@ -308,12 +346,12 @@ def basin_mean(field: xr.DataArray, basin: Basin | None,
     """
     field = _check_field(field, "basin_mean")
     mean, covered, _ = _reduce(field, basin, weights)
-    return _finish(mean, field, covered, field.name or "basin_mean", field.attrs.get("units", ""),
-                   "basin_mean", basin)
+    return _finish(mean, field, covered, field.name or "basin_mean", field.attrs.get("units", ""), "basin_mean", basin)
 
 
-def basin_volume(field: xr.DataArray, basin: Basin | None, units: str = "m3",
-                 weights: xr.DataArray | None = None) -> xr.DataArray:
+def basin_volume(
+    field: xr.DataArray, basin: Basin | None, units: str = "m3", weights: xr.DataArray | None = None
+) -> xr.DataArray:
     """Volume of water over ``basin`` from a depth field in mm: basin mean depth × basin area.
 
     The area is :attr:`cw.Basin.area_m2` (the outline on the authalic sphere), the one area
@@ -362,8 +400,9 @@ def basin_volume(field: xr.DataArray, basin: Basin | None, units: str = "m3",
     """
     field = _check_field(field, "basin_volume")
     if units not in _VOLUME_UNITS:
-        raise ParameterError(f"units={units!r} is not supported", expected="'m3' or 'acre-ft'",
-                             fix="pass units='m3' or units='acre-ft'")
+        raise ParameterError(
+            f"units={units!r} is not supported", expected="'m3' or 'acre-ft'", fix="pass units='m3' or units='acre-ft'"
+        )
     to_mm = _depth_to_mm(field)
     mean, covered, total = _reduce(field, basin, weights)
     # one area per basin: the outline's (Basin.area_m2), so volumes match every table

@@ -194,4 +194,3 @@ def cell_area(grid: xr.DataArray | xr.Dataset, radius: float = AUTHALIC_RADIUS_M
         radius_note="authalic sphere of WGS84" if radius == AUTHALIC_RADIUS_M else "user radius",
     )
     return with_history(out, "cell_area", radius=float(radius))
-

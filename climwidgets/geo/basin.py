@@ -61,8 +61,11 @@ def _in_file(exc: BasinError, where: object) -> BasinError:
 
 def _unreadable(path: object, exc: OSError, expected: str) -> SourceError:
     reason = exc.strerror or type(exc).__name__
-    fix = ("give read permission on the file (e.g. chmod u+r) or copy it somewhere readable"
-           if isinstance(exc, PermissionError) else "check the path points at a readable file")
+    fix = (
+        "give read permission on the file (e.g. chmod u+r) or copy it somewhere readable"
+        if isinstance(exc, PermissionError)
+        else "check the path points at a readable file"
+    )
     return SourceError(f"cannot be read ({reason})", source=path, expected=expected, fix=fix)
 
 
@@ -70,20 +73,28 @@ def _parse_json(text: str, where: object) -> Any:
     try:
         return json.loads(text)
     except RecursionError:
-        raise SourceError("is nested too deeply to be GeoJSON (json gave up at Python's recursion limit)",
-                          source=where, expected=_MAX_GEOJSON_DEPTH_WORDS,
-                          fix="export the basin outlines again as GeoJSON from your GIS tool") from None
+        raise SourceError(
+            "is nested too deeply to be GeoJSON (json gave up at Python's recursion limit)",
+            source=where,
+            expected=_MAX_GEOJSON_DEPTH_WORDS,
+            fix="export the basin outlines again as GeoJSON from your GIS tool",
+        ) from None
     except ValueError as exc:  # json.JSONDecodeError is a ValueError
-        raise SourceError(f"not valid JSON ({exc})", source=where, expected="a GeoJSON file",
-                          fix="check the file is GeoJSON text") from None
+        raise SourceError(
+            f"not valid JSON ({exc})", source=where, expected="a GeoJSON file", fix="check the file is GeoJSON text"
+        ) from None
 
 
 def _read_json(path: Path) -> Any:
     try:
         text = path.read_text(encoding="utf-8")
     except UnicodeDecodeError as exc:
-        raise SourceError(f"not valid JSON (not UTF-8 text: {exc.reason} at byte {exc.start})", source=path,
-                          expected="a GeoJSON file (UTF-8 text)", fix="check the file is GeoJSON text") from None
+        raise SourceError(
+            f"not valid JSON (not UTF-8 text: {exc.reason} at byte {exc.start})",
+            source=path,
+            expected="a GeoJSON file (UTF-8 text)",
+            fix="check the file is GeoJSON text",
+        ) from None
     except OSError as exc:
         raise _unreadable(path, exc, "a readable GeoJSON file") from None
     return _parse_json(text, path)
@@ -93,25 +104,45 @@ def _clean_ring(coords: Any, name: object) -> np.ndarray:
     try:
         ring = np.asarray(coords, dtype=float)
     except (TypeError, ValueError):
-        raise _err("vertices are not numbers", name, "give vertices as (lon, lat) pairs of numbers",
-                   expected="a sequence of (lon, lat) pairs") from None
+        raise _err(
+            "vertices are not numbers",
+            name,
+            "give vertices as (lon, lat) pairs of numbers",
+            expected="a sequence of (lon, lat) pairs",
+        ) from None
     if ring.ndim != 2 or ring.shape[1] < 2:
-        raise _err(f"vertices have shape {ring.shape}", name, "give vertices as (lon, lat) pairs",
-                   expected="a sequence of (lon, lat) pairs")
+        raise _err(
+            f"vertices have shape {ring.shape}",
+            name,
+            "give vertices as (lon, lat) pairs",
+            expected="a sequence of (lon, lat) pairs",
+        )
     ring = ring[:, :2]
     if not np.all(np.isfinite(ring)):
-        raise _err("a vertex is NaN or infinite", name, "remove or correct the missing vertex",
-                   expected="finite lon/lat in degrees")
+        raise _err(
+            "a vertex is NaN or infinite",
+            name,
+            "remove or correct the missing vertex",
+            expected="finite lon/lat in degrees",
+        )
     if np.any(np.abs(ring[:, 1]) > 90.0):
         bad = ring[np.abs(ring[:, 1]) > 90.0][0]
-        raise _err(f"latitude {bad[1]:g} is beyond ±90 (vertex ({bad[0]:g}, {bad[1]:g}))", name,
-                   "check the vertex order is (lon, lat), not (lat, lon)", expected="|lat| ≤ 90")
+        raise _err(
+            f"latitude {bad[1]:g} is beyond ±90 (vertex ({bad[0]:g}, {bad[1]:g}))",
+            name,
+            "check the vertex order is (lon, lat), not (lat, lon)",
+            expected="|lat| ≤ 90",
+        )
     if len(ring) > 1 and np.array_equal(ring[0], ring[-1]):
         ring = ring[:-1]
     distinct = np.unique(ring, axis=0)
     if len(distinct) < 3:
-        raise _err(f"a ring has {len(distinct)} distinct vertices", name,
-                   "draw at least three corners", expected="at least 3 distinct vertices")
+        raise _err(
+            f"a ring has {len(distinct)} distinct vertices",
+            name,
+            "draw at least three corners",
+            expected="at least 3 distinct vertices",
+        )
     ring[:, 0] = _unwrap_lon(ring[:, 0])
     return ring
 
@@ -166,10 +197,16 @@ def _repair(poly: Polygon, name: object) -> Polygon:
         raise _err(
             f"the outline crosses itself ({reason}) and splits into {len(fixed)} parts; the largest holds "
             f"only {share:.1%} of the area, so a repair would have to guess which part was meant",
-            name, "redraw the outline so that its edges do not cross",
-            expected=f"a simple ring (a repair must keep ≥ {_REPAIR_KEEP:.1%} of the area in one polygon)")
-    raise _err("the outline encloses zero area (its vertices lie on one line)", name,
-               "add a vertex off the line", expected="a polygon with non-zero area")
+            name,
+            "redraw the outline so that its edges do not cross",
+            expected=f"a simple ring (a repair must keep ≥ {_REPAIR_KEEP:.1%} of the area in one polygon)",
+        )
+    raise _err(
+        "the outline encloses zero area (its vertices lie on one line)",
+        name,
+        "add a vertex off the line",
+        expected="a polygon with non-zero area",
+    )
 
 
 def _build(polygons_rings: Iterable[Any], name: object) -> Any:
@@ -186,8 +223,12 @@ def _build(polygons_rings: Iterable[Any], name: object) -> Any:
             holes.append(h)
         poly = _repair(Polygon(ext, holes), name)
         if poly.area <= 0.0:
-            raise _err("the outline encloses zero area (all vertices on one line)", name,
-                       "add a vertex off the line", expected="a polygon with non-zero area")
+            raise _err(
+                "the outline encloses zero area (all vertices on one line)",
+                name,
+                "add a vertex off the line",
+                expected="a polygon with non-zero area",
+            )
         parts.append(poly)
     if not parts:
         raise _err("no polygon given", name, "give at least one ring of (lon, lat) vertices")
@@ -196,8 +237,12 @@ def _build(polygons_rings: Iterable[Any], name: object) -> Any:
     geom = shapely.normalize(shapely.make_valid(geom) if not geom.is_valid else geom)
     polys = _polygons(geom)
     if not polys or sum(p.area for p in polys) <= 0.0:
-        raise _err("the outline encloses zero area", name, "draw a polygon with an interior",
-                   expected="a polygon with non-zero area")
+        raise _err(
+            "the outline encloses zero area",
+            name,
+            "draw a polygon with an interior",
+            expected="a polygon with non-zero area",
+        )
     return polys[0] if len(polys) == 1 else MultiPolygon(polys)
 
 
@@ -208,12 +253,19 @@ def _rings_from_geometry(geom: dict[str, Any], name: object) -> list[Any]:
         depth = "rings" if kind == "Polygon" else "polygons, each a list of rings"
         if not isinstance(coords, (list, tuple)) or not all(isinstance(c, (list, tuple)) for c in coords):
             got = "no coordinates" if coords is None else f"coordinates that are not a list of {depth}"
-            raise _err(f"the {kind} has {got}", name, "export the basin outlines again as GeoJSON",
-                       expected=f"'coordinates': a list of {depth} of (lon, lat) vertices")
+            raise _err(
+                f"the {kind} has {got}",
+                name,
+                "export the basin outlines again as GeoJSON",
+                expected=f"'coordinates': a list of {depth} of (lon, lat) vertices",
+            )
         return [coords] if kind == "Polygon" else list(coords)
-    raise _err(f"geometry type {kind!r} is not a polygon", name,
-               "give a Polygon or MultiPolygon (points and lines have no area)",
-               expected="Polygon, MultiPolygon, Feature or FeatureCollection")
+    raise _err(
+        f"geometry type {kind!r} is not a polygon",
+        name,
+        "give a Polygon or MultiPolygon (points and lines have no area)",
+        expected="Polygon, MultiPolygon, Feature or FeatureCollection",
+    )
 
 
 class Basin:
@@ -276,8 +328,11 @@ class Basin:
         if geometry is None or geometry.is_empty or geometry.geom_type not in ("Polygon", "MultiPolygon"):
             raise _err("geometry is empty or not a polygon", name, "use one of the Basin.from_* constructors")
         if not geometry.is_valid:
-            raise _err(f"geometry is not valid ({shapely.is_valid_reason(geometry)})", name,
-                       "build it with Basin.from_wkt or Basin.from_geojson, which check and repair outlines")
+            raise _err(
+                f"geometry is not valid ({shapely.is_valid_reason(geometry)})",
+                name,
+                "build it with Basin.from_wkt or Basin.from_geojson, which check and repair outlines",
+            )
         self._geometry = geometry
         self._name = str(name)
         self._origin: str | None = None  # the file it was read from, if any
@@ -350,11 +405,14 @@ class Basin:
             else:
                 path = Path(obj)
                 if not path.exists():
-                    raise SourceError("file not found", source=path, expected="a GeoJSON file",
-                                      fix="check the path")
+                    raise SourceError("file not found", source=path, expected="a GeoJSON file", fix="check the path")
                 if not path.is_file():
-                    raise SourceError("is not a regular file (a folder, pipe or device)", source=path,
-                                      expected="a GeoJSON file", fix="give the path of the .geojson file itself")
+                    raise SourceError(
+                        "is not a regular file (a folder, pipe or device)",
+                        source=path,
+                        expected="a GeoJSON file",
+                        fix="give the path of the .geojson file itself",
+                    )
                 where = path
                 obj = _read_json(path)
         try:
@@ -368,30 +426,46 @@ class Basin:
     @classmethod
     def _from_mapping(cls, obj: Any, stem: str, name_property: str) -> list["Basin"]:
         if not isinstance(obj, dict):
-            raise BasinError(f"got {type(obj).__name__}", source="GeoJSON input",
-                             expected="a GeoJSON mapping, file path or JSON text",
-                             fix="pass the path to a .geojson file")
+            raise BasinError(
+                f"got {type(obj).__name__}",
+                source="GeoJSON input",
+                expected="a GeoJSON mapping, file path or JSON text",
+                fix="pass the path to a .geojson file",
+            )
         kind = obj.get("type")
         if kind in ("Polygon", "MultiPolygon"):
             return [cls._from_rings(_rings_from_geometry(obj, stem), stem)]
         features = obj.get("features") if kind == "FeatureCollection" else [obj] if kind == "Feature" else None
         if features is None:
-            raise BasinError(f"GeoJSON type {kind!r} is not supported", source="GeoJSON input",
-                             expected="Polygon, MultiPolygon, Feature or FeatureCollection",
-                             fix="wrap the polygons in a FeatureCollection")
+            raise BasinError(
+                f"GeoJSON type {kind!r} is not supported",
+                source="GeoJSON input",
+                expected="Polygon, MultiPolygon, Feature or FeatureCollection",
+                fix="wrap the polygons in a FeatureCollection",
+            )
         if not isinstance(features, list):
-            raise BasinError(f"'features' is a {type(features).__name__}, not a list", source="GeoJSON input",
-                             expected="a FeatureCollection whose 'features' is a list of Feature objects",
-                             fix="export the basin outlines again as GeoJSON")
+            raise BasinError(
+                f"'features' is a {type(features).__name__}, not a list",
+                source="GeoJSON input",
+                expected="a FeatureCollection whose 'features' is a list of Feature objects",
+                fix="export the basin outlines again as GeoJSON",
+            )
         if not features:
-            raise BasinError("the FeatureCollection holds no features", source="GeoJSON input",
-                             expected="at least one polygon feature", fix="add a basin outline")
+            raise BasinError(
+                "the FeatureCollection holds no features",
+                source="GeoJSON input",
+                expected="at least one polygon feature",
+                fix="add a basin outline",
+            )
         basins = []
         for i, feat in enumerate(features):
             if not isinstance(feat, dict):
-                raise BasinError(f"feature {i + 1} is not a Feature object (got {type(feat).__name__})",
-                                 source="GeoJSON input", expected='{"type": "Feature", "geometry": ..., '
-                                 '"properties": ...}', fix="export the basin outlines again as GeoJSON")
+                raise BasinError(
+                    f"feature {i + 1} is not a Feature object (got {type(feat).__name__})",
+                    source="GeoJSON input",
+                    expected='{"type": "Feature", "geometry": ..., "properties": ...}',
+                    fix="export the basin outlines again as GeoJSON",
+                )
             props = feat.get("properties")
             props = props if isinstance(props, dict) else {}
             name = props.get(name_property)
@@ -426,8 +500,12 @@ class Basin:
         try:
             geom = shapely.from_wkt(text)
         except (shapely.errors.GEOSException, TypeError) as exc:
-            raise _err(f"could not read WKT ({exc})", name, "give POLYGON((lon lat, ...)) text",
-                       expected="WKT POLYGON or MULTIPOLYGON") from None
+            raise _err(
+                f"could not read WKT ({exc})",
+                name,
+                "give POLYGON((lon lat, ...)) text",
+                expected="WKT POLYGON or MULTIPOLYGON",
+            ) from None
         return cls._from_rings(_rings_from_geometry(mapping(geom), name), name)
 
     @classmethod
@@ -464,22 +542,34 @@ class Basin:
         path = Path(path)
         shp = path.with_suffix(".shp")
         if not shp.exists():
-            raise SourceError("file not found", source=shp, expected="a .shp file with its .shx and .dbf",
-                              fix="check the path")
+            raise SourceError(
+                "file not found", source=shp, expected="a .shp file with its .shx and .dbf", fix="check the path"
+            )
         if not shp.is_file():
-            raise SourceError("is not a regular file (a folder, pipe or device)", source=shp,
-                              expected="a .shp file", fix="give the path of the .shp file itself")
+            raise SourceError(
+                "is not a regular file (a folder, pipe or device)",
+                source=shp,
+                expected="a .shp file",
+                fix="give the path of the .shp file itself",
+            )
         dbf = next((shp.with_suffix(x) for x in (".dbf", ".DBF", ".Dbf") if shp.with_suffix(x).is_file()), None)
         if dbf is None:
-            raise SourceError(f"the shapefile has no {shp.stem}.dbf beside it (the table of names and "
-                              "attributes)", source=shp, expected="a .shp file with its .shx and .dbf",
-                              fix=f"copy {shp.stem}.dbf (and {shp.stem}.shx, {shp.stem}.prj) into the same folder, "
-                                  "or save the outlines as GeoJSON")
+            raise SourceError(
+                f"the shapefile has no {shp.stem}.dbf beside it (the table of names and attributes)",
+                source=shp,
+                expected="a .shp file with its .shx and .dbf",
+                fix=f"copy {shp.stem}.dbf (and {shp.stem}.shx, {shp.stem}.prj) into the same folder, "
+                "or save the outlines as GeoJSON",
+            )
         try:
             reader = shapefile.Reader(str(shp))
         except shapefile.ShapefileException as exc:
-            raise SourceError(f"cannot read the shapefile ({exc})", source=shp,
-                              expected="a .shp with its .shx and .dbf", fix="copy all parts of the shapefile") from None
+            raise SourceError(
+                f"cannot read the shapefile ({exc})",
+                source=shp,
+                expected="a .shp with its .shx and .dbf",
+                fix="copy all parts of the shapefile",
+            ) from None
         except OSError as exc:
             raise _unreadable(shp, exc, "a readable .shp file with its .shx and .dbf") from None
         try:
@@ -488,9 +578,12 @@ class Basin:
         except BasinError as exc:
             raise _in_file(exc, shp) from None
         except (shapefile.ShapefileException, struct.error, OSError, UnicodeDecodeError) as exc:
-            raise SourceError(f"cannot read the shapefile ({' '.join(str(exc).split())})", source=shp,
-                              expected="a .shp with its .shx and .dbf, all from one export",
-                              fix="copy all parts of the shapefile again, or save the outlines as GeoJSON") from None
+            raise SourceError(
+                f"cannot read the shapefile ({' '.join(str(exc).split())})",
+                source=shp,
+                expected="a .shp with its .shx and .dbf, all from one export",
+                fix="copy all parts of the shapefile again, or save the outlines as GeoJSON",
+            ) from None
         for b in basins:
             b._origin = str(shp)
         return basins
@@ -499,8 +592,12 @@ class Basin:
     def _from_reader(cls, reader: Any, shp: Path, name_field: str | None) -> list["Basin"]:
         fields = [f[0] for f in reader.fields[1:]]
         if name_field is not None and name_field not in fields:
-            raise BasinError(f"no field {name_field!r}", source=shp, expected=f"one of {fields}",
-                             fix="pass name_field= one of the listed fields")
+            raise BasinError(
+                f"no field {name_field!r}",
+                source=shp,
+                expected=f"one of {fields}",
+                fix="pass name_field= one of the listed fields",
+            )
         if name_field is None:
             name_field = next((f for f in fields if f.lower() == "name"), None)
         transform = _prj_transform(shp.with_suffix(".prj"))
@@ -509,14 +606,19 @@ class Basin:
             name = str(rec.record[name_field]) if name_field else f"{shp.stem} {i + 1}"
             geo = rec.shape.__geo_interface__
             if geo.get("type") not in ("Polygon", "MultiPolygon"):
-                raise _err(f"shape type {geo.get('type')!r} is not a polygon", name,
-                           "save the outlines as a polygon layer", expected="Polygon records")
+                raise _err(
+                    f"shape type {geo.get('type')!r} is not a polygon",
+                    name,
+                    "save the outlines as a polygon layer",
+                    expected="Polygon records",
+                )
             if transform is not None:
                 geo = mapping(transform(shape(geo)))
             basins.append(cls._from_rings(_rings_from_geometry(geo, name), name))
         if not basins:
-            raise BasinError("the shapefile holds no records", source=shp, expected="at least one polygon",
-                             fix="add a basin outline")
+            raise BasinError(
+                "the shapefile holds no records", source=shp, expected="at least one polygon", fix="add a basin outline"
+            )
         return basins
 
     # ---------------------------------------------------------------- properties
@@ -588,15 +690,20 @@ def _prj_transform(prj: Path) -> Callable[[Any], Any] | None:
     try:
         crs = CRS.from_wkt(prj.read_text(encoding="utf-8", errors="replace"))
     except CRSError as exc:
-        raise SourceError(f"cannot read the projection ({exc})", source=prj, expected="ESRI/OGC WKT",
-                          fix="re-export the shapefile with its .prj, or delete a broken .prj if the data is lon/lat") from None
+        raise SourceError(
+            f"cannot read the projection ({exc})",
+            source=prj,
+            expected="ESRI/OGC WKT",
+            fix="re-export the shapefile with its .prj, or delete a broken .prj if the data is lon/lat",
+        ) from None
     target = CRS.from_epsg(4326)
-    if crs.equals(target, ignore_axis_order=True) or (crs.is_geographic and crs.ellipsoid == target.ellipsoid
-                                                      and not crs.is_projected and crs.datum == target.datum):
+    if crs.equals(target, ignore_axis_order=True) or (
+        crs.is_geographic and crs.ellipsoid == target.ellipsoid and not crs.is_projected and crs.datum == target.datum
+    ):
         return None
     tr = Transformer.from_crs(crs, target, always_xy=True)
     # Densify in the source units: 1/200 of the outline's extent per segment.
-    step_fn: Callable[[Any], float] = (lambda g: max(g.bounds[2] - g.bounds[0], g.bounds[3] - g.bounds[1]) / 200.0 or 1.0)
+    step_fn: Callable[[Any], float] = lambda g: max(g.bounds[2] - g.bounds[0], g.bounds[3] - g.bounds[1]) / 200.0 or 1.0
 
     def transform(geom: Any) -> Any:
         dense = shapely.segmentize(geom, max_segment_length=step_fn(geom))
@@ -647,5 +754,4 @@ def write_geojson(basins: Basin | Iterable[Basin], path: str | os.PathLike[str],
     """
     basins = [basins] if isinstance(basins, Basin) else list(basins)
     data = {"type": "FeatureCollection", "features": [b.to_geojson() for b in basins]}
-    return atomic_write_file(path, lambda fh: json.dump(data, fh), mode="w", overwrite=overwrite,
-                             what="write_geojson")
+    return atomic_write_file(path, lambda fh: json.dump(data, fh), mode="w", overwrite=overwrite, what="write_geojson")

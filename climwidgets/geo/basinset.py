@@ -102,18 +102,32 @@ class BasinSet:
     # ------------------------------------------------------------ changing
     def _check_new_name(self, name: object) -> None:
         if not isinstance(name, str) or not name.strip():
-            raise BasinError("the basin name is empty", source="BasinSet", variable="name",
-                             expected="a non-empty name", fix="give the basin a name")
+            raise BasinError(
+                "the basin name is empty",
+                source="BasinSet",
+                variable="name",
+                expected="a non-empty name",
+                fix="give the basin a name",
+            )
         if name in self.names:
-            raise BasinError(f"a basin named {name!r} is already in the set", source="BasinSet",
-                             variable="name", expected="a name not yet used",
-                             fix="choose another name, or remove or rename the existing basin first")
+            raise BasinError(
+                f"a basin named {name!r} is already in the set",
+                source="BasinSet",
+                variable="name",
+                expected="a name not yet used",
+                fix="choose another name, or remove or rename the existing basin first",
+            )
 
     def add(self, basin: Basin) -> Basin:
         """Append ``basin``; raises BasinError when its name is taken."""
         if not isinstance(basin, Basin):
-            raise ParameterError(f"got {type(basin).__name__}", source="BasinSet.add", variable="basin",
-                                 expected="a cw.Basin", fix="build it with cw.Basin.from_vertices or from_geojson")
+            raise ParameterError(
+                f"got {type(basin).__name__}",
+                source="BasinSet.add",
+                variable="basin",
+                expected="a cw.Basin",
+                fix="build it with cw.Basin.from_vertices or from_geojson",
+            )
         with self._lock:
             self._check_new_name(basin.name)
             self._basins.append(basin)
@@ -127,9 +141,13 @@ class BasinSet:
             seen = set(self.names)
             for b in new:
                 if b.name in seen:
-                    raise BasinError(f"a basin named {b.name!r} is already in the set", source="BasinSet",
-                                     variable="name", expected="names not yet used",
-                                     fix="rename the basins in the file, or remove the existing ones first")
+                    raise BasinError(
+                        f"a basin named {b.name!r} is already in the set",
+                        source="BasinSet",
+                        variable="name",
+                        expected="names not yet used",
+                        fix="rename the basins in the file, or remove the existing ones first",
+                    )
                 seen.add(b.name)
             self._basins.extend(new)
         if new:
@@ -169,8 +187,13 @@ class BasinSet:
         for b in self._basins:
             if b.name == name:
                 return b
-        raise BasinError(f"no basin named {name!r} in the set", source="BasinSet", variable="name",
-                         expected=f"one of {self.names}", fix="pick a name from BasinSet.names")
+        raise BasinError(
+            f"no basin named {name!r} in the set",
+            source="BasinSet",
+            variable="name",
+            expected=f"one of {self.names}",
+            fix="pick a name from BasinSet.names",
+        )
 
     # ------------------------------------------------------------ listeners
     def observe(self, callback: Listener) -> None:
@@ -201,8 +224,7 @@ class BasinSet:
         """A set from a GeoJSON file or a shapefile (:func:`load_basins`)."""
         return cls(load_basins(path))
 
-    def to_geojson(self, path: str | os.PathLike[str] | None = None,
-                   overwrite: bool = False) -> dict[str, Any] | Path:
+    def to_geojson(self, path: str | os.PathLike[str] | None = None, overwrite: bool = False) -> dict[str, Any] | Path:
         """A GeoJSON FeatureCollection mapping, or with ``path`` the written file (atomic)."""
         if path is not None:
             if not self._basins:
@@ -223,9 +245,13 @@ def _basins_of(basins: Any, func: str) -> list[Basin]:
     except TypeError:
         out = None
     if out is None or not all(isinstance(b, Basin) for b in out):
-        raise ParameterError(f"basins must be Basin objects (got {type(basins).__name__})", source=func,
-                             variable="basins", expected="a Basin, a list of Basin or a cw.BasinSet",
-                             fix="build them with cw.Basin.from_vertices / from_geojson / from_shapefile")
+        raise ParameterError(
+            f"basins must be Basin objects (got {type(basins).__name__})",
+            source=func,
+            variable="basins",
+            expected="a Basin, a list of Basin or a cw.BasinSet",
+            fix="build them with cw.Basin.from_vertices / from_geojson / from_shapefile",
+        )
     return out
 
 
@@ -260,13 +286,22 @@ def as_basin_list(basins: Any, func: str) -> list[Basin]:
     """
     out = _basins_of(basins, func)
     if not out:
-        raise ParameterError("basins must be a Basin or a non-empty list of Basin objects", source=func,
-                             variable="basins", expected="Basin objects",
-                             fix="build them with cw.Basin.from_vertices / from_geojson / from_shapefile")
+        raise ParameterError(
+            "basins must be a Basin or a non-empty list of Basin objects",
+            source=func,
+            variable="basins",
+            expected="Basin objects",
+            fix="build them with cw.Basin.from_vertices / from_geojson / from_shapefile",
+        )
     names = [b.name for b in out]
     if len(set(names)) != len(names):
-        raise ParameterError(f"basin names repeat: {names}", source=func, variable="basins",
-                             expected="one name per basin", fix="give every basin its own name")
+        raise ParameterError(
+            f"basin names repeat: {names}",
+            source=func,
+            variable="basins",
+            expected="one name per basin",
+            fix="give every basin its own name",
+        )
     return out
 
 
@@ -304,23 +339,35 @@ def load_basins(source: Any) -> list[Basin]:
     ...     cw.load_basins(path)
     [Basin('north fork', Polygon, lon 10..11, lat 0..1)]
     """
-    if isinstance(source, (Basin, BasinSet)) or (isinstance(source, (list, tuple)) and source
-                                                 and all(isinstance(b, Basin) for b in source)):
+    if isinstance(source, (Basin, BasinSet)) or (
+        isinstance(source, (list, tuple)) and source and all(isinstance(b, Basin) for b in source)
+    ):
         return _basins_of(source, "load_basins")
     if not isinstance(source, (str, os.PathLike)) or not str(source).strip():
-        raise BasinError(f"got {type(source).__name__} {source!r}", source="basins",
-                         expected="a GeoJSON or shapefile path", fix="pass the path of the basin outline file")
+        raise BasinError(
+            f"got {type(source).__name__} {source!r}",
+            source="basins",
+            expected="a GeoJSON or shapefile path",
+            fix="pass the path of the basin outline file",
+        )
     path = Path(str(source).strip())
     suffix = path.suffix.lower()
     if suffix in (".shp", ".shx", ".dbf"):
         return Basin.from_shapefile(path)
     if not path.exists():
-        raise SourceError("basin file not found", source=path, expected="a GeoJSON (.geojson, .json) or "
-                          "shapefile (.shp)", fix="check the basin file path")
+        raise SourceError(
+            "basin file not found",
+            source=path,
+            expected="a GeoJSON (.geojson, .json) or shapefile (.shp)",
+            fix="check the basin file path",
+        )
     if not path.is_file():  # a folder, FIFO or device: never opened (a FIFO would block)
-        raise SourceError("is not a regular file (a folder, pipe or device)", source=path,
-                          expected="a GeoJSON (.geojson, .json) or shapefile (.shp) file",
-                          fix="give the path of the basin outline file itself")
+        raise SourceError(
+            "is not a regular file (a folder, pipe or device)",
+            source=path,
+            expected="a GeoJSON (.geojson, .json) or shapefile (.shp) file",
+            fix="give the path of the basin outline file itself",
+        )
     if suffix not in (".geojson", ".json"):
         try:
             with open(path, "rb") as f:
@@ -330,9 +377,12 @@ def load_basins(source: Any) -> list[Basin]:
 
             raise _unreadable(path, exc, "a readable GeoJSON or shapefile") from None
         if not head.startswith(b"{"):
-            raise BasinError("is not a basin outline file", source=path,
-                             expected="GeoJSON (.geojson, .json) or an ESRI shapefile (.shp)",
-                             fix="save the basin outlines as GeoJSON or a shapefile")
+            raise BasinError(
+                "is not a basin outline file",
+                source=path,
+                expected="GeoJSON (.geojson, .json) or an ESRI shapefile (.shp)",
+                fix="save the basin outlines as GeoJSON or a shapefile",
+            )
     return Basin.from_geojson(path)
 
 
@@ -369,8 +419,13 @@ def whole_grid_basin(field: Any, name: str = "whole grid") -> Basin | None:
     from .grid import cell_bounds
 
     b = cell_bounds(field)
-    if b.kind != "rectilinear" or b.lon_lower is None or b.lon_upper is None \
-            or b.lat_lower is None or b.lat_upper is None:
+    if (
+        b.kind != "rectilinear"
+        or b.lon_lower is None
+        or b.lon_upper is None
+        or b.lat_lower is None
+        or b.lat_upper is None
+    ):
         return None
     w, e = float(np.min(b.lon_lower)), float(np.max(b.lon_upper))
     s, n = float(np.min(b.lat_lower)), float(np.max(b.lat_upper))

@@ -90,8 +90,9 @@ def _boundary_cells(geom: Any, xe: np.ndarray, ye: np.ndarray) -> np.ndarray:
     return mask
 
 
-def _rect_fractions(pieces: np.ndarray, piece_of_cell: np.ndarray, x0: np.ndarray, y0: np.ndarray,
-                    x1: np.ndarray, y1: np.ndarray) -> np.ndarray:
+def _rect_fractions(
+    pieces: np.ndarray, piece_of_cell: np.ndarray, x0: np.ndarray, y0: np.ndarray, x1: np.ndarray, y1: np.ndarray
+) -> np.ndarray:
     """Covered fraction of rectangles [x0, x1] × [y0, y1] by polygonal ``pieces[piece_of_cell]``.
 
     Exact and vectorised: clamping a closed curve onto a rectangle (x → clip(x, x0, x1),
@@ -131,8 +132,7 @@ def _rect_fractions(pieces: np.ndarray, piece_of_cell: np.ndarray, x0: np.ndarra
     return fraction
 
 
-def _fast_rectilinear(geom: Any, ylo: np.ndarray, yhi: np.ndarray, xlo: np.ndarray,
-                      xhi: np.ndarray) -> np.ndarray:
+def _fast_rectilinear(geom: Any, ylo: np.ndarray, yhi: np.ndarray, xlo: np.ndarray, xhi: np.ndarray) -> np.ndarray:
     xe = np.append(xlo, xhi[-1])
     ye = np.append(ylo, yhi[-1])
     boundary = _boundary_cells(geom, xe, ye)
@@ -259,9 +259,12 @@ def _compute_block(basin: Basin, bounds: Any) -> tuple[tuple[int, int, int, int]
         if flip:
             ylo, yhi = ylo[::-1], yhi[::-1]
         contiguous = (
-            np.all(np.diff(xlo) > 0) and np.allclose(xlo[1:], xhi[:-1], rtol=0, atol=1e-9)
-            and np.all(np.diff(ylo) > 0) and np.allclose(ylo[1:], yhi[:-1], rtol=0, atol=1e-9)
-            and np.all(xhi > xlo) and np.all(yhi > ylo)
+            np.all(np.diff(xlo) > 0)
+            and np.allclose(xlo[1:], xhi[:-1], rtol=0, atol=1e-9)
+            and np.all(np.diff(ylo) > 0)
+            and np.allclose(ylo[1:], yhi[:-1], rtol=0, atol=1e-9)
+            and np.all(xhi > xlo)
+            and np.all(yhi > ylo)
         )
         if contiguous:
             block = _fast_rectilinear(geom, ylo, yhi, xlo, xhi)
@@ -284,8 +287,7 @@ def _compute_block(basin: Basin, bounds: Any) -> tuple[tuple[int, int, int, int]
     return (int(j0), int(j1), int(i0), int(i1)), np.clip(block, 0.0, 1.0)
 
 
-def coverage_block(basin: Basin,
-                   grid: xr.DataArray | xr.Dataset) -> tuple[tuple[int, int, int, int], np.ndarray]:
+def coverage_block(basin: Basin, grid: xr.DataArray | xr.Dataset) -> tuple[tuple[int, int, int, int], np.ndarray]:
     """Coverage weights restricted to the basin's bounding box.
 
     Parameters

@@ -94,8 +94,9 @@ def _fletcher32(data) -> int:
     cols = words.reshape(-1, _ROW).sum(axis=0, dtype=np.int64) % 65535
     total = int(rows.sum())
     rows %= 65535
-    index_weighted = (_ROW * int(np.dot(np.arange(rows.size, dtype=np.int64) % 65535, rows))
-                      + int(np.dot(np.arange(_ROW, dtype=np.int64), cols)))
+    index_weighted = _ROW * int(np.dot(np.arange(rows.size, dtype=np.int64) % 65535, rows)) + int(
+        np.dot(np.arange(_ROW, dtype=np.int64), cols)
+    )
     s1, s2 = total % 65535, (n * total - index_weighted) % 65535
     if total:  # HDF5's folding never reaches 0 once any word is non-zero
         s1, s2 = s1 or 65535, s2 or 65535
@@ -167,8 +168,7 @@ def _check_fletcher32(data: bytes):
 class ChunkIndex:
     """Byte offset and size of every stored chunk of one variable, by its chunk-grid position."""
 
-    def __init__(self, path, shape, chunk_shape, dtype, fill, filters, entries, varname=None, stamp=None,
-                 dims=None):
+    def __init__(self, path, shape, chunk_shape, dtype, fill, filters, entries, varname=None, stamp=None, dims=None):
         self.path = path
         self.dims = dims  # dimension names (from the file's dimension scales), for messages
         self.varname, self.stamp = varname, stamp  # stamp: (size, mtime_ns) of the file indexed
@@ -205,8 +205,10 @@ class ChunkIndex:
                     raise ChunkCheckError(f"deflate stream is damaged (zlib.error: {exc})") from None
             elif fid == _SHUFFLE:
                 if len(data) % self.dtype.itemsize:
-                    raise ChunkCheckError(f"shuffled chunk of {len(data)} bytes is not a whole number of "
-                                          f"{self.dtype.itemsize}-byte values")
+                    raise ChunkCheckError(
+                        f"shuffled chunk of {len(data)} bytes is not a whole number of "
+                        f"{self.dtype.itemsize}-byte values"
+                    )
                 data = _unshuffle(data, self.dtype.itemsize)
             elif fid == _FLETCHER32:
                 data = _check_fletcher32(data)
@@ -215,8 +217,9 @@ class ChunkIndex:
         expected = int(np.prod(self.chunk_shape)) * self.dtype.itemsize
         nbytes = data.nbytes if hasattr(data, "nbytes") else len(data)  # bytes, memoryview or array
         if nbytes != expected:
-            raise ChunkCheckError(f"decoded chunk has {nbytes} bytes, {expected} expected for its shape "
-                                  f"{self.chunk_shape}")
+            raise ChunkCheckError(
+                f"decoded chunk has {nbytes} bytes, {expected} expected for its shape {self.chunk_shape}"
+            )
         if isinstance(data, np.ndarray):
             return data.view(self.dtype).reshape(self.chunk_shape)
         return np.frombuffer(data, dtype=self.dtype).reshape(self.chunk_shape)
@@ -237,8 +240,12 @@ class ChunkIndex:
             else:
                 what = f"{name or f'axis {axis}'} indices {lo}–{hi - 1}"
             parts.append(what)
-        where = ", ".join(f"{name or f'axis {a}'} {lo}:{hi}" for a, (name, lo, hi) in enumerate(
-            (nm, p * c, min((p + 1) * c, n)) for p, c, n, nm in zip(pos, self.chunk_shape, self.shape, names)))
+        where = ", ".join(
+            f"{name or f'axis {a}'} {lo}:{hi}"
+            for a, (name, lo, hi) in enumerate(
+                (nm, p * c, min((p + 1) * c, n)) for p, c, n, nm in zip(pos, self.chunk_shape, self.shape, names)
+            )
+        )
         return f"the stored chunk at {', '.join(parts)} [{where}]"
 
 
@@ -273,8 +280,18 @@ def _build_index(path: str, varname: str) -> ChunkIndex | None:
             else:  # pragma: no cover - older HDF5
                 for i in range(d.id.get_num_chunks()):
                     add(d.id.get_chunk_info(i))
-            return ChunkIndex(path, d.shape, d.chunks, d.dtype, d.fillvalue, filters, entries, varname,
-                              _stamp(path), dims=_dim_names(d))
+            return ChunkIndex(
+                path,
+                d.shape,
+                d.chunks,
+                d.dtype,
+                d.fillvalue,
+                filters,
+                entries,
+                varname,
+                _stamp(path),
+                dims=_dim_names(d),
+            )
     except (OSError, ValueError, KeyError, RuntimeError):
         return None
 
@@ -308,9 +325,13 @@ def _index_in_process(path, varname, stamp):
             now = None
         index = _build_index(path, varname) if now == stamp else None
         if index is None:
-            raise SourceError("changed, moved or became unreadable after it was opened", source=path,
-                              variable=varname, expected="the file as it was when opened",
-                              fix="open the data again (cw.open_precip) and recompute")
+            raise SourceError(
+                "changed, moved or became unreadable after it was opened",
+                source=path,
+                variable=varname,
+                expected="the file as it was when opened",
+                fix="open the data again (cw.open_precip) and recompute",
+            )
         _INDEXES[key] = index
     return _INDEXES[key]
 
@@ -330,8 +351,10 @@ def read_region(index: ChunkIndex, region: tuple) -> np.ndarray:
                 offset, size, mask = entry
                 raw = os.pread(fd, size, offset)
                 if len(raw) != size:
-                    raise ChunkReadError(index.describe(pos), ChunkCheckError(
-                        f"only {len(raw)} of its {size} bytes are in the file (cut short)"))
+                    raise ChunkReadError(
+                        index.describe(pos),
+                        ChunkCheckError(f"only {len(raw)} of its {size} bytes are in the file (cut short)"),
+                    )
                 try:
                     block = index.decode(raw, mask)
                 except ChunkCheckError as exc:
@@ -373,9 +396,13 @@ def _read_error(path, varname, region, exc):
 
     where = ", ".join(f"{s.start}:{s.stop}" for s in region)
     kind = "zlib.error" if isinstance(exc, zlib.error) else type(exc).__name__
-    return SourceError(f"could not read the values [{where}] ({kind}: {exc}); the file is damaged "
-                       "or truncated", source=path, variable=varname, expected="a complete, readable file",
-                       fix="check the file with 'ncdump' and copy or download it again")
+    return SourceError(
+        f"could not read the values [{where}] ({kind}: {exc}); the file is damaged or truncated",
+        source=path,
+        variable=varname,
+        expected="a complete, readable file",
+        fix="check the file with 'ncdump' and copy or download it again",
+    )
 
 
 def _chunk_error(path, varname, exc: ChunkReadError):
@@ -383,11 +410,14 @@ def _chunk_error(path, varname, exc: ChunkReadError):
     from ..errors import SourceError
 
     what = "checksum" if isinstance(exc.cause, ChecksumError) else "check"
-    return SourceError(f"{exc.where} fails its {what}: {exc.cause}; the file is damaged (changed since "
-                       "it was written), so its values there cannot be trusted",
-                       source=path, variable=varname, expected="every stored chunk as it was written",
-                       fix="copy or download the file again (check it with 'h5dump' or 'ncdump'); "
-                           "the other chunks read normally")
+    return SourceError(
+        f"{exc.where} fails its {what}: {exc.cause}; the file is damaged (changed since "
+        "it was written), so its values there cannot be trusted",
+        source=path,
+        variable=varname,
+        expected="every stored chunk as it was written",
+        fix="copy or download the file again (check it with 'h5dump' or 'ncdump'); the other chunks read normally",
+    )
 
 
 def _read_block(index, fills, scale, offset, varname=None, block_info=None):
@@ -401,7 +431,8 @@ def _read_block(index, fills, scale, offset, varname=None, block_info=None):
             out = np.full(tuple(s.stop - s.start for s in region), np.nan)
             if all(s.stop > s.start for s in stored):
                 out[tuple(slice(0, s.stop - s.start) for s in stored)] = _decode_cf(
-                    read_region(index, stored), fills, scale, offset)
+                    read_region(index, stored), fills, scale, offset
+                )
             return out
         return _decode_cf(read_region(index, region), fills, scale, offset)
     except ChunkReadError as exc:
@@ -462,12 +493,21 @@ def backend_reader(variable, path, varname: str, chunks: tuple, name: str):
     import dask.array as dsa
 
     normalized = dsa.core.normalize_chunks(chunks, variable.shape)
-    data = dsa.map_blocks(_read_backend_block, _Backend(variable), path, varname, dtype=variable.dtype,
-                          chunks=normalized, name=name, meta=np.array((), dtype=variable.dtype))
+    data = dsa.map_blocks(
+        _read_backend_block,
+        _Backend(variable),
+        path,
+        varname,
+        dtype=variable.dtype,
+        chunks=normalized,
+        name=name,
+        meta=np.array((), dtype=variable.dtype),
+    )
     extent = stored_extent(path, varname) if isinstance(path, str) else None
     if extent is not None and len(extent) == variable.ndim and tuple(extent) != tuple(variable.shape):
-        data = dsa.map_blocks(_missing_beyond, data, extent, dtype=np.float64, name=f"{name}-written",
-                              meta=np.array((), dtype=np.float64))
+        data = dsa.map_blocks(
+            _missing_beyond, data, extent, dtype=np.float64, name=f"{name}-written", meta=np.array((), dtype=np.float64)
+        )
     return data
 
 
@@ -495,8 +535,18 @@ def direct_reader(path: str, varname: str, encoding: dict, chunks: tuple, name: 
     normalized = dsa.core.normalize_chunks(chunks, shape)
     packed = scale is not None or offset is not None or index.dtype.kind != "f" or shape != index.shape
     out = np.dtype(np.float64) if packed else index.dtype.newbyteorder("=")
-    return dsa.map_blocks(_read_block, index, fills, scale, offset, varname, dtype=out, chunks=normalized,
-                          name=name, meta=np.array((), dtype=out))
+    return dsa.map_blocks(
+        _read_block,
+        index,
+        fills,
+        scale,
+        offset,
+        varname,
+        dtype=out,
+        chunks=normalized,
+        name=name,
+        meta=np.array((), dtype=out),
+    )
 
 
 class StoredValues:
@@ -544,6 +594,7 @@ def _store_access(store):
                 rel = os.path.relpath(folder, base)
                 for f in files:
                     yield f if rel == "." else f"{rel.replace(os.sep, '/')}/{f}"
+
         return read, keys
     try:
         import fsspec
@@ -562,7 +613,8 @@ def _store_access(store):
         base = f"{root}/{prefix}".rstrip("/")
         for p in fs.find(base):
             p = str(p)
-            yield p[len(base) + 1:] if p.startswith(base + "/") else p.rsplit("/", 1)[-1]
+            yield p[len(base) + 1 :] if p.startswith(base + "/") else p.rsplit("/", 1)[-1]
+
     return read_fs, keys_fs
 
 
@@ -612,7 +664,7 @@ def zarr_stored_chunks(store, varname: str):
     for key in keys(varname):
         if not key.startswith(prefix) or key in ("zarr.json", ".zarray", ".zattrs"):
             continue
-        parts = key[len(prefix):].split(sep)
+        parts = key[len(prefix) :].split(sep)
         if len(parts) == len(shape) and all(p.isdigit() for p in parts):
             present.add(tuple(int(p) for p in parts))
     return grid_shape, tuple(chunk), present

@@ -33,26 +33,37 @@ def _check_parts_in_sequence(parts) -> None:
     steps = []
     for da, info in parts:
         t = da["time"]
-        steps.append(timeaxis.infer_step(t, info.get("time_bounds"), source=info["path"])
-                     if t.size >= 2 or info.get("time_bounds") is not None else None)
+        steps.append(
+            timeaxis.infer_step(t, info.get("time_bounds"), source=info["path"])
+            if t.size >= 2 or info.get("time_bounds") is not None
+            else None
+        )
     known = [(s, info["path"]) for s, (_, info) in zip(steps, parts) if s is not None]
     for s, path in known[1:]:
         if s != known[0][0]:
-            raise MismatchError(f"has {s} steps but {known[0][1]} has {known[0][0]} steps", source=path,
-                                variable="time", expected="one time step in every file of one product",
-                                fix="open the files of each step separately (for example 'pr_day_*.nc' and "
-                                    "'pr_mon_*.nc') as two products")
+            raise MismatchError(
+                f"has {s} steps but {known[0][1]} has {known[0][0]} steps",
+                source=path,
+                variable="time",
+                expected="one time step in every file of one product",
+                fix="open the files of each step separately (for example 'pr_day_*.nc' and "
+                "'pr_mon_*.nc') as two products",
+            )
     for (a, ia), (b, ib) in zip(parts, parts[1:]):
         ta, tb = a["time"].values, b["time"].values
         if tb[0] > ta[-1]:
             continue
         shared = np.intersect1d(ta, tb).size
-        what = ("the same times appear in two files" if shared
-                else "the times of one file fall inside the times of another")
-        raise MismatchError(f"{what}: {ib['path']} and {ia['path']} ({shared} time stamp(s) in both)",
-                            source=ib["path"], variable="time",
-                            expected="files that follow one another in time without overlap",
-                            fix="remove the duplicate or overlapping file from the list or pattern")
+        what = (
+            "the same times appear in two files" if shared else "the times of one file fall inside the times of another"
+        )
+        raise MismatchError(
+            f"{what}: {ib['path']} and {ia['path']} ({shared} time stamp(s) in both)",
+            source=ib["path"],
+            variable="time",
+            expected="files that follow one another in time without overlap",
+            fix="remove the duplicate or overlapping file from the list or pattern",
+        )
 
 
 _FILL_NOTE = "values >= 1e15 and -9999/-999/-99999 treated as missing (no _FillValue in the file)"
@@ -101,9 +112,13 @@ def _check_labels_per_file(parts) -> None:
     ends = [k for k in kinds if " end " in k[0]]
     others = [k for k in kinds if " end " not in k[0]]
     if ends and others:
-        raise MismatchError(f"{ends[0][0]} but {others[0][1]} {others[0][0]}", source=ends[0][1], variable="time",
-                            expected="the same time stamping (and time bounds) in every file of one product",
-                            fix="open the files separately, or give every file the same CF time bounds")
+        raise MismatchError(
+            f"{ends[0][0]} but {others[0][1]} {others[0][0]}",
+            source=ends[0][1],
+            variable="time",
+            expected="the same time stamping (and time bounds) in every file of one product",
+            fix="open the files separately, or give every file the same CF time bounds",
+        )
 
 
 def combine_parts(parts, source_list):
@@ -118,17 +133,29 @@ def combine_parts(parts, source_list):
     for _, info in parts[1:]:
         u = parse_units(info["attrs"].get("units"), source=info["path"], variable=info["name"])
         if (u.kind, u.to_mm, u.per_month) != (u0.kind, u0.to_mm, u0.per_month):
-            raise MismatchError(f"has units '{u.text}' but {first['path']} has '{u0.text}'", source=info["path"],
-                                variable=info["name"], expected="the same units in every file of one product",
-                                fix="open the files separately, or convert them to common units first")
+            raise MismatchError(
+                f"has units '{u.text}' but {first['path']} has '{u0.text}'",
+                source=info["path"],
+                variable=info["name"],
+                expected="the same units in every file of one product",
+                fix="open the files separately, or convert them to common units first",
+            )
         if info.get("calendar") != first.get("calendar"):
-            raise MismatchError(f"uses the calendar '{info.get('calendar')}' but {first['path']} uses "
-                                f"'{first.get('calendar')}'", source=info["path"], variable="time",
-                                expected="one calendar across the files", fix="open the files as separate products")
+            raise MismatchError(
+                f"uses the calendar '{info.get('calendar')}' but {first['path']} uses '{first.get('calendar')}'",
+                source=info["path"],
+                variable="time",
+                expected="one calendar across the files",
+                fix="open the files as separate products",
+            )
         if not _same_grid(info["grid"], first["grid"]):
-            raise MismatchError(f"is on a different grid from {first['path']}", source=info["path"],
-                                variable=info["name"], expected="the same lat/lon grid in every file",
-                                fix="open the files as separate products and use cw.regrid to bring them together")
+            raise MismatchError(
+                f"is on a different grid from {first['path']}",
+                source=info["path"],
+                variable=info["name"],
+                expected="the same lat/lon grid in every file",
+                fix="open the files as separate products and use cw.regrid to bring them together",
+            )
     if len(parts) == 1:
         mask_fill = needs_fill_heuristics(first["encoding"], first["attrs"])
         return first_da, first["time_bounds"], mask_fill, (_FILL_NOTE if mask_fill else None)
@@ -136,9 +163,17 @@ def combine_parts(parts, source_list):
     _check_labels_per_file(parts)  # first: a one-step shift would also look like an overlap
     _check_parts_in_sequence(parts)
     parts, mask_fill, fill_note = _fill_per_file(parts)
-    da = xr.concat([p[0] for p in parts], dim="time", coords="minimal", compat="override", join="override",
-                   combine_attrs="override")
-    timeaxis.check_monotonic(da["time"].values, source=", ".join(source_list[:3]) + (" …" if len(source_list) > 3 else ""))
+    da = xr.concat(
+        [p[0] for p in parts],
+        dim="time",
+        coords="minimal",
+        compat="override",
+        join="override",
+        combine_attrs="override",
+    )
+    timeaxis.check_monotonic(
+        da["time"].values, source=", ".join(source_list[:3]) + (" …" if len(source_list) > 3 else "")
+    )
     bounds = [p[1]["time_bounds"] for p in parts]
     tb = xr.concat(bounds, dim=bounds[0].dims[0]) if all(b is not None for b in bounds) else None
     return da, tb, mask_fill, fill_note

@@ -15,8 +15,14 @@ from ..errors import GridError, SourceError
 from . import grid as gridmod
 from .chunkreader import zarr_stored_chunks
 
-__all__ = ["MAX_CHUNKS", "MAX_FIELD_CELLS", "MAX_TIME_STEPS", "check_chunk_count", "check_declared_sizes",
-           "check_zarr_chunks"]
+__all__ = [
+    "MAX_CHUNKS",
+    "MAX_FIELD_CELLS",
+    "MAX_TIME_STEPS",
+    "check_chunk_count",
+    "check_declared_sizes",
+    "check_zarr_chunks",
+]
 
 # Declared sizes refused before anything is allocated. 2**31 cells per field is 17 GB as
 # float64 for one time step (a 1 km global grid, 21 600 x 43 200, is 0.93e9); 1e8 steps is a
@@ -34,28 +40,41 @@ def check_declared_sizes(da, spatial, tdim, where, name) -> None:
     cells = math.prod(sizes[d] for d in spatial if d in sizes)
     grid = " x ".join(f"{sizes[d]:,}" for d in spatial if d in sizes)
     if cells > MAX_FIELD_CELLS:
-        raise GridError(f"declares a grid of {grid} cells ({cells:.3g} per time step, {8 * cells / 1e9:.3g} GB "
-                        "per step as float64)", source=where, variable=name,
-                        expected=f"at most {MAX_FIELD_CELLS:.3g} cells per time step",
-                        fix="check the file's dimensions (ncdump -h); to work on part of a large grid, cut a "
-                            "region first (for example ncks -d lat,... -d lon,...) and open that")
+        raise GridError(
+            f"declares a grid of {grid} cells ({cells:.3g} per time step, {8 * cells / 1e9:.3g} GB "
+            "per step as float64)",
+            source=where,
+            variable=name,
+            expected=f"at most {MAX_FIELD_CELLS:.3g} cells per time step",
+            fix="check the file's dimensions (ncdump -h); to work on part of a large grid, cut a "
+            "region first (for example ncks -d lat,... -d lon,...) and open that",
+        )
     if tdim is not None and sizes.get(tdim, 0) > MAX_TIME_STEPS:
-        raise GridError(f"declares {sizes[tdim]:,} time steps", source=where, variable=name,
-                        expected=f"at most {MAX_TIME_STEPS:.3g} time steps",
-                        fix="check the file's time dimension (ncdump -h); resample to coarser steps or open "
-                            "a shorter period")
+        raise GridError(
+            f"declares {sizes[tdim]:,} time steps",
+            source=where,
+            variable=name,
+            expected=f"at most {MAX_TIME_STEPS:.3g} time steps",
+            fix="check the file's time dimension (ncdump -h); resample to coarser steps or open a shorter period",
+        )
 
 
 def check_chunk_count(da, plan, where, name, chunks) -> None:
-    n = math.prod(-(-size // max(int(plan.get(d, size) or size), 1)) if size else 1
-                  for d, size in da.sizes.items())
+    n = math.prod(-(-size // max(int(plan.get(d, size) or size), 1)) if size else 1 for d, size in da.sizes.items())
     if n > MAX_CHUNKS:
         shape = " x ".join(f"{int(plan.get(d, s)):,}" for d, s in da.sizes.items())
-        raise GridError(f"would be read in {n:,} chunks of {shape} values", source=where, variable=name,
-                        expected=f"at most {MAX_CHUNKS:,} chunks (dask's graph grows with every chunk)",
-                        fix=("pass larger chunks, e.g. chunks={'time': 365}" if isinstance(chunks, dict) else
-                             "pass larger chunks to cw.open_precip, e.g. chunks={'time': 365, 'lat': -1, "
-                             "'lon': -1}, or rewrite the file with larger stored chunks"))
+        raise GridError(
+            f"would be read in {n:,} chunks of {shape} values",
+            source=where,
+            variable=name,
+            expected=f"at most {MAX_CHUNKS:,} chunks (dask's graph grows with every chunk)",
+            fix=(
+                "pass larger chunks, e.g. chunks={'time': 365}"
+                if isinstance(chunks, dict)
+                else "pass larger chunks to cw.open_precip, e.g. chunks={'time': 365, 'lat': -1, "
+                "'lon': -1}, or rewrite the file with larger stored chunks"
+            ),
+        )
 
 
 def check_zarr_chunks(store, ds, da, info, where) -> None:
@@ -83,7 +102,7 @@ def check_zarr_chunks(store, ds, da, info, where) -> None:
     absent_at: dict = {}
     for pos in np.ndindex(*grid):
         if pos not in present:
-            absent_at.setdefault(pos[:taxis] + pos[taxis + 1:], []).append(pos)
+            absent_at.setdefault(pos[:taxis] + pos[taxis + 1 :], []).append(pos)
     holes = sorted(p for ps in absent_at.values() if len(ps) < grid[taxis] for p in ps)
     missing = total - len(present)
     if holes:
@@ -93,12 +112,18 @@ def check_zarr_chunks(store, ds, da, info, where) -> None:
         times = da["time"].values if "time" in da.coords else None
         stamp = f", {str(times[a])[:10]} to {str(times[b])[:10]}" if times is not None and b < times.size else ""
         what = f"chunk {first}: time steps {a}..{b}{stamp}"
-        raise SourceError(f"has {len(holes)} of {total} chunks of '{name}' missing from the store where other "
-                          f"times of the same cells are stored (first {what}); Zarr would read them as "
-                          "missing values", source=where, variable=name,
-                          expected="every chunk of the array in the store",
-                          fix="copy or download the store again (an interrupted copy leaves chunks out); if "
-                              "those chunks were left out on purpose because they held only missing values, "
-                              "open the store with xr.open_zarr and pass the Dataset to cw.open_precip")
-    info["absent_chunks"] = (f"{missing} of {total} Zarr chunks absent from the store at every time (tiles "
-                             "holding only the fill value), read as missing")
+        raise SourceError(
+            f"has {len(holes)} of {total} chunks of '{name}' missing from the store where other "
+            f"times of the same cells are stored (first {what}); Zarr would read them as "
+            "missing values",
+            source=where,
+            variable=name,
+            expected="every chunk of the array in the store",
+            fix="copy or download the store again (an interrupted copy leaves chunks out); if "
+            "those chunks were left out on purpose because they held only missing values, "
+            "open the store with xr.open_zarr and pass the Dataset to cw.open_precip",
+        )
+    info["absent_chunks"] = (
+        f"{missing} of {total} Zarr chunks absent from the store at every time (tiles "
+        "holding only the fill value), read as missing"
+    )

@@ -20,16 +20,24 @@ _TIME_NAMES = ("time", "t", "valid_time", "date", "times")
 
 def _is_lat(var) -> bool:
     a = var.attrs
-    return (a.get("standard_name") == "latitude" or str(a.get("units", "")).lower() in
-            ("degrees_north", "degree_north", "degree_n", "degrees_n", "degreen", "degreesn")
-            or a.get("axis") == "Y" and "deg" in str(a.get("units", "")).lower())
+    return (
+        a.get("standard_name") == "latitude"
+        or str(a.get("units", "")).lower()
+        in ("degrees_north", "degree_north", "degree_n", "degrees_n", "degreen", "degreesn")
+        or a.get("axis") == "Y"
+        and "deg" in str(a.get("units", "")).lower()
+    )
 
 
 def _is_lon(var) -> bool:
     a = var.attrs
-    return (a.get("standard_name") == "longitude" or str(a.get("units", "")).lower() in
-            ("degrees_east", "degree_east", "degree_e", "degrees_e", "degreee", "degreese")
-            or a.get("axis") == "X" and "deg" in str(a.get("units", "")).lower())
+    return (
+        a.get("standard_name") == "longitude"
+        or str(a.get("units", "")).lower()
+        in ("degrees_east", "degree_east", "degree_e", "degrees_e", "degreee", "degreese")
+        or a.get("axis") == "X"
+        and "deg" in str(a.get("units", "")).lower()
+    )
 
 
 def _cf_candidates(ds: xr.Dataset, which: str) -> list:
@@ -69,8 +77,13 @@ def find_coord(ds: xr.Dataset, da: xr.DataArray, which: str):
         var = ds[name]
         if which == "time":
             units = str(var.attrs.get("units", ""))
-            if (" since " in units or var.attrs.get("standard_name") == "time" or var.attrs.get("axis") == "T"
-                    or np.issubdtype(var.dtype, np.datetime64) or var.dtype == object):
+            if (
+                " since " in units
+                or var.attrs.get("standard_name") == "time"
+                or var.attrs.get("axis") == "T"
+                or np.issubdtype(var.dtype, np.datetime64)
+                or var.dtype == object
+            ):
                 return name
         elif test(var):
             return name
@@ -170,29 +183,45 @@ def normalise_rectilinear(da: xr.DataArray, lat_edges=None, lon_edges=None, *, s
     lat = np.asarray(da["lat"].values, dtype=float)
     lon = np.asarray(da["lon"].values, dtype=float)
     if np.any(~np.isfinite(lat)) or np.any(~np.isfinite(lon)):
-        raise GridError("has missing (NaN) latitude or longitude values", source=source, variable="lat/lon",
-                        expected="finite coordinates", fix="repair the coordinate variables in the file")
+        raise GridError(
+            "has missing (NaN) latitude or longitude values",
+            source=source,
+            variable="lat/lon",
+            expected="finite coordinates",
+            fix="repair the coordinate variables in the file",
+        )
     if np.any(np.abs(lat) > 90):
-        raise GridError(f"has latitudes outside -90..90 (min {lat.min():g}, max {lat.max():g})", source=source,
-                        variable="lat", expected="degrees_north within -90..90",
-                        fix="check whether lat and lon are swapped or in radians")
+        raise GridError(
+            f"has latitudes outside -90..90 (min {lat.min():g}, max {lat.max():g})",
+            source=source,
+            variable="lat",
+            expected="degrees_north within -90..90",
+            fix="check whether lat and lon are swapped or in radians",
+        )
     for which, values, edges in (("latitude", lat, lat_edges), ("longitude", lon, lon_edges)):
         if values.size == 1 and edges is None:
             short = which[:3]
-            raise GridError(f"has a single {which} ({values[0]:g}) and no {which} bounds, so the size of its "
-                            "cells is unknown", source=source, variable=short,
-                            expected=f"two or more {which}s, or CF bounds on {short}",
-                            fix=f"add a bounds variable ({short}_bnds with the lower and upper edge, and the "
-                                f"attribute {short}:bounds = '{short}_bnds'); on an in-memory object, "
-                                f"coordinates {short}_lower and {short}_upper on {short}")
+            raise GridError(
+                f"has a single {which} ({values[0]:g}) and no {which} bounds, so the size of its cells is unknown",
+                source=source,
+                variable=short,
+                expected=f"two or more {which}s, or CF bounds on {short}",
+                fix=f"add a bounds variable ({short}_bnds with the lower and upper edge, and the "
+                f"attribute {short}:bounds = '{short}_bnds'); on an in-memory object, "
+                f"coordinates {short}_lower and {short}_upper on {short}",
+            )
     bounds_from = "file"
     for which, edges in (("latitude", lat_edges), ("longitude", lon_edges)):
         if edges is not None and not (np.all(np.isfinite(edges[0])) and np.all(np.isfinite(edges[1]))):
             bad = int(np.flatnonzero(~(np.isfinite(edges[0]) & np.isfinite(edges[1])))[0])
-            raise GridError(f"has a missing (NaN) value in its {which} bounds (cell {bad + 1})", source=source,
-                            variable=f"{which[:3]} bounds", expected="finite cell bounds for every cell",
-                            fix=f"repair the {which} bounds variable, or delete the 'bounds' attribute of {which[:3]} "
-                                "in a copy of the file so that bounds are inferred from the cell centres")
+            raise GridError(
+                f"has a missing (NaN) value in its {which} bounds (cell {bad + 1})",
+                source=source,
+                variable=f"{which[:3]} bounds",
+                expected="finite cell bounds for every cell",
+                fix=f"repair the {which} bounds variable, or delete the 'bounds' attribute of {which[:3]} "
+                "in a copy of the file so that bounds are inferred from the cell centres",
+            )
     if lat_edges is None:
         lat_edges = infer_edges(lat, clip=90.0)
         bounds_from = "inferred from cell centres"
@@ -208,12 +237,19 @@ def normalise_rectilinear(da: xr.DataArray, lat_edges=None, lon_edges=None, *, s
         bounds_from = "inferred from cell centres"
     da = da.assign_coords(
         lon=("lon", wrapped, da["lon"].attrs),
-        lat_lower=("lat", lat_edges[0]), lat_upper=("lat", lat_edges[1]),
-        lon_lower=("lon", lon_edges[0] + shift), lon_upper=("lon", lon_edges[1] + shift),
+        lat_lower=("lat", lat_edges[0]),
+        lat_upper=("lat", lat_edges[1]),
+        lon_lower=("lon", lon_edges[0] + shift),
+        lon_upper=("lon", lon_edges[1] + shift),
     )
     if len(np.unique(wrapped)) != wrapped.size:
-        raise GridError("has duplicated longitudes after wrapping to -180..180", source=source, variable="lon",
-                        expected="each longitude once", fix="drop the repeated (cyclic) column from the grid")
+        raise GridError(
+            "has duplicated longitudes after wrapping to -180..180",
+            source=source,
+            variable="lon",
+            expected="each longitude once",
+            fix="drop the repeated (cyclic) column from the grid",
+        )
     order_lat = np.argsort(lat, kind="stable")
     order_lon = np.argsort(wrapped, kind="stable")
     if not np.array_equal(order_lat, np.arange(lat.size)):

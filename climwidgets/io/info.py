@@ -26,22 +26,32 @@ def describe(source, var=None, scan=False) -> str:
     if a.get("native_step"):
         lines.append(f"native step:  {a['native_step']} (summed to hourly totals)")
     for dim in (d for d in pr.dims if d not in ("time", "lat", "lon", "y", "x")):
-        labels = ", ".join(map(str, pr[dim].values[:5])) + (" …" if pr.sizes[dim] > 5 else "") if dim in pr.coords else ""
+        labels = (
+            ", ".join(map(str, pr[dim].values[:5])) + (" …" if pr.sizes[dim] > 5 else "") if dim in pr.coords else ""
+        )
         lines.append(f"{dim + ':':<13} {pr.sizes[dim]} ({labels})" if labels else f"{dim + ':':<13} {pr.sizes[dim]}")
     if a.get("time_gaps_filled_with_missing"):
-        lines.append(f"gaps:         {a['time_gaps_filled_with_missing']} missing time steps filled with missing values")
+        lines.append(
+            f"gaps:         {a['time_gaps_filled_with_missing']} missing time steps filled with missing values"
+        )
     if "lat" in pr.dims:
         lat, lon = pr.lat.values, pr.lon.values
         dlat = float(np.median(np.diff(lat))) if lat.size > 1 else float("nan")
         dlon = float(np.median(np.diff(lon))) if lon.size > 1 else float("nan")
-        lines.append(f"grid:         rectilinear {lat.size} x {lon.size} (lat x lon), spacing {dlat:.4g} x {dlon:.4g} deg")
-        lines.append(f"extent:       lat {pr.lat_lower.values.min():.4g}..{pr.lat_upper.values.max():.4g}, "
-                     f"lon {pr.lon_lower.values.min():.4g}..{pr.lon_upper.values.max():.4g}")
+        lines.append(
+            f"grid:         rectilinear {lat.size} x {lon.size} (lat x lon), spacing {dlat:.4g} x {dlon:.4g} deg"
+        )
+        lines.append(
+            f"extent:       lat {pr.lat_lower.values.min():.4g}..{pr.lat_upper.values.max():.4g}, "
+            f"lon {pr.lon_lower.values.min():.4g}..{pr.lon_upper.values.max():.4g}"
+        )
     else:
         kind = "projected, lat/lon from the grid mapping" if "crs" in pr.coords else "2-D lat/lon"
         lines.append(f"grid:         curvilinear {pr.sizes['y']} x {pr.sizes['x']} (y x x), {kind}")
-        lines.append(f"extent:       lat {float(pr.lat.min()):.4g}..{float(pr.lat.max()):.4g}, "
-                     f"lon {float(pr.lon.min()):.4g}..{float(pr.lon.max()):.4g}")
+        lines.append(
+            f"extent:       lat {float(pr.lat.min()):.4g}..{float(pr.lat.max()):.4g}, "
+            f"lon {float(pr.lon.min()):.4g}..{float(pr.lon.max()):.4g}"
+        )
     lines.append(f"cell bounds:  {a.get('cell_bounds', '?')}")
     if pr.chunks is not None:
         shape = tuple(c[0] for c in pr.chunks)

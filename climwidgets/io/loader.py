@@ -37,11 +37,19 @@ from .units import length_to_metres, parse_units, step_factor
 from .values import check_packing, check_values, convert_block, default_max_depth
 
 PRECIP_STANDARD_NAMES = (
-    "lwe_thickness_of_precipitation_amount", "precipitation_amount", "precipitation_flux",
-    "lwe_precipitation_rate", "thickness_of_rainfall_amount", "rainfall_amount", "rainfall_flux",
-    "rainfall_rate", "lwe_thickness_of_stratiform_precipitation_amount",
-    "lwe_thickness_of_convective_precipitation_amount", "convective_precipitation_flux",
-    "stratiform_precipitation_flux", "lwe_convective_precipitation_rate",
+    "lwe_thickness_of_precipitation_amount",
+    "precipitation_amount",
+    "precipitation_flux",
+    "lwe_precipitation_rate",
+    "thickness_of_rainfall_amount",
+    "rainfall_amount",
+    "rainfall_flux",
+    "rainfall_rate",
+    "lwe_thickness_of_stratiform_precipitation_amount",
+    "lwe_thickness_of_convective_precipitation_amount",
+    "convective_precipitation_flux",
+    "stratiform_precipitation_flux",
+    "lwe_convective_precipitation_rate",
 )
 PRECIP_NAMES = ("pr", "precip", "precipitation", "prcp", "tp", "rain", "rainfall", "ppt", "rr", "prec", "apcp")
 ELEVATION_STANDARD_NAMES = ("surface_altitude", "height_above_mean_sea_level", "altitude", "height_above_geoid")
@@ -64,8 +72,13 @@ def _choose_variable(ds: xr.Dataset, var, source, standard_names, names, kind) -
     listing = "; ".join(_describe(ds, n) for n in ds.data_vars) or "none"
     if var is not None:
         if var not in ds.data_vars:
-            raise VariableError(f"has no variable '{var}'", source=source, variable=var,
-                                expected=f"one of the file's variables: {listing}", fix="pass var= with one of those names")
+            raise VariableError(
+                f"has no variable '{var}'",
+                source=source,
+                variable=var,
+                expected=f"one of the file's variables: {listing}",
+                fix="pass var= with one of those names",
+            )
         return var
     by_sn = [n for n in data_vars if ds[n].attrs.get("standard_name") in standard_names]
     if len(by_sn) == 1:
@@ -78,27 +91,38 @@ def _choose_variable(ds: xr.Dataset, var, source, standard_names, names, kind) -
             return True
         except UnitsError:
             return False
+
     pool = by_sn or [n for n in data_vars if plausible(n)]
     if kind == "precipitation" and not by_sn and pool:
         # a conventionally named variable without units beside one with units is more likely
         # a file whose units sit on the wrong variable than a choice to make silently
         bare = [n for n in data_vars if n.lower() in names and n not in pool and not ds[n].attrs.get("units")]
         if bare:
-            raise VariableError(f"has '{bare[0]}' without units, while {', '.join(pool)} has precipitation units",
-                                source=source, variable=bare[0], expected="units on the precipitation variable",
-                                fix=f"set the 'units' attribute of '{bare[0]}', or pass var='{pool[0]}' if that "
-                                    "is the precipitation")
+            raise VariableError(
+                f"has '{bare[0]}' without units, while {', '.join(pool)} has precipitation units",
+                source=source,
+                variable=bare[0],
+                expected="units on the precipitation variable",
+                fix=f"set the 'units' attribute of '{bare[0]}', or pass var='{pool[0]}' if that is the precipitation",
+            )
     if len(pool) == 1:
         return pool[0]
     named = [n for n in (pool or data_vars) if n.lower() in names]
     if len(named) == 1:
         return named[0]
     if len(pool) > 1:
-        raise VariableError(f"has several {kind}-like variables: {', '.join(pool)}", source=source,
-                            expected=f"exactly one {kind} variable", fix=f"pass var= with one of: {', '.join(pool)}")
-    raise VariableError(f"has no {kind}-like variable (found: {listing})", source=source,
-                        expected=f"a variable with a {kind} standard_name or units",
-                        fix="pass var= with the variable's name, and make sure it has a 'units' attribute")
+        raise VariableError(
+            f"has several {kind}-like variables: {', '.join(pool)}",
+            source=source,
+            expected=f"exactly one {kind} variable",
+            fix=f"pass var= with one of: {', '.join(pool)}",
+        )
+    raise VariableError(
+        f"has no {kind}-like variable (found: {listing})",
+        source=source,
+        expected=f"a variable with a {kind} standard_name or units",
+        fix="pass var= with the variable's name, and make sure it has a 'units' attribute",
+    )
 
 
 def _chunk_plan(var: xr.Variable, dims: tuple, time_dim: str | None) -> dict:
@@ -132,22 +156,33 @@ def _decode_time(ds: xr.Dataset, tname: str, source) -> tuple[xr.DataArray, xr.D
     units = str(tvar.attrs.get("units", "")).strip()
     unit_word = units.split(" ")[0].lower()
     if " since " not in units and not np.issubdtype(tvar.dtype, np.datetime64) and tvar.dtype != object:
-        raise TimeAxisError("has time values without CF units (" + (f"units={units!r})" if units else "no units attribute)"),
-                            source=source,
-                            variable=tname, expected="units such as 'days since 2001-01-01'",
-                            fix=f"set the units attribute of '{tname}', e.g. ds['{tname}'].attrs['units'] = "
-                                "'days since 2001-01-01', and save a copy of the file")
+        raise TimeAxisError(
+            "has time values without CF units (" + (f"units={units!r})" if units else "no units attribute)"),
+            source=source,
+            variable=tname,
+            expected="units such as 'days since 2001-01-01'",
+            fix=f"set the units attribute of '{tname}', e.g. ds['{tname}'].attrs['units'] = "
+            "'days since 2001-01-01', and save a copy of the file",
+        )
     try:
         decoded = xr.decode_cf(small).load()  # decode now, so bad stamps or bounds fail here
     except Exception as exc:
         if unit_word in ("month", "months", "year", "years", "common_year", "common_years"):
-            raise TimeAxisError(f"has time units '{units}': a {unit_word.rstrip('s')} has no fixed length in the "
-                                f"'{tvar.attrs.get('calendar', 'standard')}' calendar", source=source,
-                                variable=tname, expected="units of days, hours or seconds since a date",
-                                fix="rewrite the time as 'days since ...' (for example with cftime.date2num)") from None
-        raise TimeAxisError(f"has a time axis that cannot be decoded ({type(exc).__name__}: {exc})", source=source,
-                            variable=tname, expected="CF time units such as 'days since 1990-01-01'",
-                            fix="set the time variable's units and calendar attributes") from None
+            raise TimeAxisError(
+                f"has time units '{units}': a {unit_word.rstrip('s')} has no fixed length in the "
+                f"'{tvar.attrs.get('calendar', 'standard')}' calendar",
+                source=source,
+                variable=tname,
+                expected="units of days, hours or seconds since a date",
+                fix="rewrite the time as 'days since ...' (for example with cftime.date2num)",
+            ) from None
+        raise TimeAxisError(
+            f"has a time axis that cannot be decoded ({type(exc).__name__}: {exc})",
+            source=source,
+            variable=tname,
+            expected="CF time units such as 'days since 1990-01-01'",
+            fix="set the time variable's units and calendar attributes",
+        ) from None
     bounds = decoded[bname] if bname in decoded else None
     if not np.issubdtype(np.asarray(raw).dtype, np.number):  # given decoded (xarray objects)
         timeaxis.check_monotonic(decoded[tname].values, source=source)
@@ -178,11 +213,15 @@ def _spatial_names(ds, da, name, source):
         return latn, lonn, None
     projected = gridmod.find_projected(ds, da)
     if projected is None:
-        raise GridError("has no latitude/longitude coordinates", source=source, variable=name,
-                        expected="lat and lon coordinate variables (CF units degrees_north/degrees_east), or "
-                                 "projected x/y coordinates with a CF grid_mapping",
-                        fix="add lat/lon coordinates, or the grid_mapping attribute and its variable; "
-                            "projected grids may instead carry 2-D lat(y, x) and lon(y, x) variables")
+        raise GridError(
+            "has no latitude/longitude coordinates",
+            source=source,
+            variable=name,
+            expected="lat and lon coordinate variables (CF units degrees_north/degrees_east), or "
+            "projected x/y coordinates with a CF grid_mapping",
+            fix="add lat/lon coordinates, or the grid_mapping attribute and its variable; "
+            "projected grids may instead carry 2-D lat(y, x) and lon(y, x) variables",
+        )
     return None, None, projected
 
 
@@ -192,11 +231,15 @@ def _extra_dims(da, spatial, time_dims, source, name):
     members = [d for d in extra if d in MEMBER_DIMS and da.sizes[d] > 1]
     for d in extra:
         if d not in members and da.sizes[d] != 1:
-            raise GridError(f"has an extra dimension '{d}' of length {da.sizes[d]}", source=source, variable=name,
-                            expected="dimensions time, lat, lon, with ensemble members on one of "
-                                     f"{', '.join(MEMBER_DIMS)} (singleton extras are dropped)",
-                            fix=f"select one {d} first, e.g. ds['{name}'].isel({d}=0), or rename it to 'member' "
-                                f"if it holds ensemble members (ds.rename({d}='member'))")
+            raise GridError(
+                f"has an extra dimension '{d}' of length {da.sizes[d]}",
+                source=source,
+                variable=name,
+                expected="dimensions time, lat, lon, with ensemble members on one of "
+                f"{', '.join(MEMBER_DIMS)} (singleton extras are dropped)",
+                fix=f"select one {d} first, e.g. ds['{name}'].isel({d}=0), or rename it to 'member' "
+                f"if it holds ensemble members (ds.rename({d}='member'))",
+            )
     return [d for d in extra if d not in members], members
 
 
@@ -204,8 +247,14 @@ def _file_data(da, path, name, plan, ident, dims):
     """A dask array that reads the file's chunks (directly where the codec allows)."""
     direct = None
     if DIRECT_CHUNK_READS and "_Unsigned" not in da.encoding and "_Unsigned" not in da.attrs:
-        direct = direct_reader(path, name, da.encoding, tuple(plan[d] for d in dims),
-                               name=f"open_precip-{name}-direct-{ident}", shape=da.shape)
+        direct = direct_reader(
+            path,
+            name,
+            da.encoding,
+            tuple(plan[d] for d in dims),
+            name=f"open_precip-{name}-direct-{ident}",
+            shape=da.shape,
+        )
     if direct is not None:
         return direct, "direct chunk reads (parallel decompression)"
     data = backend_reader(da.variable, path, name, tuple(plan[d] for d in dims), name=f"open_precip-{name}-{ident}")
@@ -244,23 +293,37 @@ def _open_object(obj, var, kind, chunks="auto"):
 
 def _layout(ds, var, kind, chunks, where, path):
     """Choose the variable, decode time, find lat/lon (or derive them), normalise the grid."""
-    sn, names = (PRECIP_STANDARD_NAMES, PRECIP_NAMES) if kind == "precipitation" else (ELEVATION_STANDARD_NAMES, ELEVATION_NAMES)
+    sn, names = (
+        (PRECIP_STANDARD_NAMES, PRECIP_NAMES)
+        if kind == "precipitation"
+        else (ELEVATION_STANDARD_NAMES, ELEVATION_NAMES)
+    )
     name = _choose_variable(ds, var, where, sn, names, kind)
     da = ds[name]
     if da.dtype.kind not in "biuf":
-        what = (f"a compound type (fields {', '.join(da.dtype.names)})" if da.dtype.names
-                else f"values of type {da.dtype}")
-        raise VariableError(f"holds {what}, not numbers", source=where, variable=name,
-                            expected="a numeric variable (integer or floating point)",
-                            fix="write the numeric field to a variable of its own in a copy of the file (with "
-                                f"netCDF4: new[:] = old['{name}'][:]['field_name']) and open that")
+        what = (
+            f"a compound type (fields {', '.join(da.dtype.names)})" if da.dtype.names else f"values of type {da.dtype}"
+        )
+        raise VariableError(
+            f"holds {what}, not numbers",
+            source=where,
+            variable=name,
+            expected="a numeric variable (integer or floating point)",
+            fix="write the numeric field to a variable of its own in a copy of the file (with "
+            f"netCDF4: new[:] = old['{name}'][:]['field_name']) and open that",
+        )
     check_packing(da, where, name)
     tname = gridmod.find_coord(ds, da, "time")
     latn, lonn, projected = _spatial_names(ds, da, name, where)
     info = {"name": name, "path": where, "attrs": dict(da.attrs)}
     if kind == "precipitation" and tname is None:
-        raise TimeAxisError("has no time coordinate", source=where, variable=name,
-                            expected="a CF time coordinate", fix="open a file that has a time axis")
+        raise TimeAxisError(
+            "has no time coordinate",
+            source=where,
+            variable=name,
+            expected="a CF time coordinate",
+            fix="open a file that has a time axis",
+        )
     if projected is None:
         spatial = list(ds[latn].dims) + [d for d in ds[lonn].dims if d not in ds[latn].dims]
     else:
@@ -317,7 +380,9 @@ def _layout(ds, var, kind, chunks, where, path):
         lat, lon = ds[latn], ds[lonn]
         ydim, xdim = lat.dims
         da = da.rename({ydim: "y", xdim: "x"})
-        da = da.assign_coords(lat=(("y", "x"), lat.values, dict(lat.attrs)), lon=(("y", "x"), lon.values, dict(lon.attrs)))
+        da = da.assign_coords(
+            lat=(("y", "x"), lat.values, dict(lat.attrs)), lon=(("y", "x"), lon.values, dict(lon.attrs))
+        )
         da.attrs["cell_bounds"] = "inferred from cell centres"
         mapping = gridmod.find_projected(ds, ds[name])
         if mapping is not None and (ds[mapping[1]].dims[0], ds[mapping[0]].dims[0]) == (ydim, xdim):
@@ -325,8 +390,13 @@ def _layout(ds, var, kind, chunks, where, path):
             da.attrs["cell_bounds"] = "cell corners from the grid mapping (pyproj) at the projected cell edges"
         da = da.transpose(*head, "y", "x")
     else:
-        raise GridError("has latitude and longitude of different shapes", source=where, variable=f"{latn}/{lonn}",
-                        expected="both 1-D (rectilinear) or both 2-D (curvilinear)", fix="repair the coordinates")
+        raise GridError(
+            "has latitude and longitude of different shapes",
+            source=where,
+            variable=f"{latn}/{lonn}",
+            expected="both 1-D (rectilinear) or both 2-D (curvilinear)",
+            fix="repair the coordinates",
+        )
     info["grid"] = (da["lat"].values, da["lon"].values)
     return da, info
 
@@ -362,9 +432,12 @@ def _max_depth(max_depth_mm, step, where) -> float | None:
     except (TypeError, ValueError):
         bound = float("nan")
     if not bound > 0:
-        raise ParameterError(f"max_depth_mm={max_depth_mm!r} is not a positive number", source=where,
-                             expected="'auto', a positive depth in mm per step, or None",
-                             fix="pass max_depth_mm='auto' (the default), a number such as 2000, or None")
+        raise ParameterError(
+            f"max_depth_mm={max_depth_mm!r} is not a positive number",
+            source=where,
+            expected="'auto', a positive depth in mm per step, or None",
+            fix="pass max_depth_mm='auto' (the default), a number such as 2000, or None",
+        )
     return bound
 
 
@@ -446,15 +519,31 @@ def open_precip(source, var=None, chunks="auto", validate="auto", max_depth_mm="
         da = da.compute()
     eager = validate is True or (validate == "auto" and da.size <= EAGER_CHECK_MAX_VALUES)
     bound = _max_depth(max_depth_mm, step, where)
-    guard = {"mask_fill": mask_fill, "guard": not eager, "source": where, "name": name, "max_depth": bound,
-             "dims": list(da.dims), "files": _file_starts(parts, da["time"].values) if len(parts) > 1 else None}
+    guard = {
+        "mask_fill": mask_fill,
+        "guard": not eager,
+        "source": where,
+        "name": name,
+        "max_depth": bound,
+        "dims": list(da.dims),
+        "files": _file_starts(parts, da["time"].values) if len(parts) > 1 else None,
+    }
     stored = da.data
     labels = _block_labels(da) if bound is not None else []
-    da = xr.apply_ufunc(convert_block, da, factor, *labels, kwargs=guard,
-                        dask="parallelized", output_dtypes=[np.float64], keep_attrs=False)
+    da = xr.apply_ufunc(
+        convert_block,
+        da,
+        factor,
+        *labels,
+        kwargs=guard,
+        dask="parallelized",
+        output_dtypes=[np.float64],
+        keep_attrs=False,
+    )
     if dask.is_dask_collection(stored):  # lets compute/_fused.py sum stored float32 and convert the sums
-        da.encoding["stored_values"] = StoredValues(da.data.name, stored, factor, mask_fill, not eager, where, name,
-                                                    max_depth=bound, dims=list(da.dims))
+        da.encoding["stored_values"] = StoredValues(
+            da.data.name, stored, factor, mask_fill, not eager, where, name, max_depth=bound, dims=list(da.dims)
+        )
     if eager:
         check_values(da, where, name)
         da = da.where(~(da < 0), 0.0)  # tiny negatives within tolerance
@@ -495,8 +584,9 @@ def open_precip(source, var=None, chunks="auto", validate="auto", max_depth_mm="
         out_attrs["time_labels"] = label_note
     if native_step != step:
         out_attrs["native_step"] = native_step
-        out_attrs["conversion"] += (f"; {native_step} steps summed to hourly totals "
-                                    "(an hour with any missing step is missing)")
+        out_attrs["conversion"] += (
+            f"; {native_step} steps summed to hourly totals (an hour with any missing step is missing)"
+        )
     da.attrs = out_attrs
     da.name = "pr"
     return with_history(da, "open_precip", None, source=where, var=name)
@@ -517,13 +607,24 @@ def open_elevation(source, var=None) -> xr.DataArray:
     name = info["name"]
     if "time" in da.dims:
         if da.sizes["time"] != 1:
-            raise GridError(f"has {da.sizes['time']} time steps", source=sources[0], variable=name,
-                            expected="a single terrain field", fix="select one time step first")
+            raise GridError(
+                f"has {da.sizes['time']} time steps",
+                source=sources[0],
+                variable=name,
+                expected="a single terrain field",
+                fix="select one time step first",
+            )
         da = da.isel(time=0, drop=True)
     factor = length_to_metres(info["attrs"].get("units", "m"), source=sources[0], variable=name)
     da = (da * factor).compute()
-    da.attrs = {"units": "m", "standard_name": "surface_altitude", "long_name": "elevation",
-                "original_units": str(info["attrs"].get("units", "m (assumed)")), "original_variable": name,
-                "sources": sources[0], "cell_bounds": da.attrs.get("cell_bounds", "")}
+    da.attrs = {
+        "units": "m",
+        "standard_name": "surface_altitude",
+        "long_name": "elevation",
+        "original_units": str(info["attrs"].get("units", "m (assumed)")),
+        "original_variable": name,
+        "sources": sources[0],
+        "cell_bounds": da.attrs.get("cell_bounds", ""),
+    }
     da.name = "elevation"
     return with_history(da, "open_elevation", None, source=sources[0], var=name)

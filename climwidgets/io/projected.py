@@ -24,17 +24,31 @@ __all__ = ["CRS_COORD", "EDGE_COORDS", "crs_from_attrs", "lonlat", "projected_co
 CRS_COORD = "crs"  # name of the scalar coordinate that carries the grid-mapping attributes
 #: per-cell coordinates holding stored CF bounds (m); 1-D on the axis, so they follow slicing
 EDGE_COORDS = {"x": ("x_lower_edge", "x_upper_edge"), "y": ("y_lower_edge", "y_upper_edge")}
-_TO_METRES = {"m": 1.0, "metre": 1.0, "meter": 1.0, "metres": 1.0, "meters": 1.0, "km": 1000.0,
-              "kilometre": 1000.0, "kilometer": 1000.0, "kilometres": 1000.0, "kilometers": 1000.0}
+_TO_METRES = {
+    "m": 1.0,
+    "metre": 1.0,
+    "meter": 1.0,
+    "metres": 1.0,
+    "meters": 1.0,
+    "km": 1000.0,
+    "kilometre": 1000.0,
+    "kilometer": 1000.0,
+    "kilometres": 1000.0,
+    "kilometers": 1000.0,
+}
 
 
 def to_metres(units, *, source=None, variable=None) -> float:
     """Factor from a projection coordinate's units to metres (CF: m by default)."""
     key = str(units or "m").strip().lower()
     if key not in _TO_METRES:
-        raise GridError(f"has projection coordinates in '{units}'", source=source, variable=variable,
-                        expected="projection coordinates in m or km",
-                        fix="set the units attribute of the x/y coordinates to 'm' or 'km'")
+        raise GridError(
+            f"has projection coordinates in '{units}'",
+            source=source,
+            variable=variable,
+            expected="projection coordinates in m or km",
+            fix="set the units attribute of the x/y coordinates to 'm' or 'km'",
+        )
     return _TO_METRES[key]
 
 
@@ -46,11 +60,13 @@ def crs_from_attrs(attrs: dict, *, source=None, variable=None):
     try:
         return CRS.from_cf(dict(attrs))
     except (CRSError, KeyError, ValueError, TypeError) as exc:
-        raise GridError(f"has a grid mapping pyproj cannot read ({type(exc).__name__}: {exc})", source=source,
-                        variable=variable, expected="CF grid-mapping attributes (grid_mapping_name and its "
-                                                    "parameters, or crs_wkt)",
-                        fix="complete the grid-mapping variable's attributes, or add 2-D lat/lon "
-                            "coordinates to the file") from None
+        raise GridError(
+            f"has a grid mapping pyproj cannot read ({type(exc).__name__}: {exc})",
+            source=source,
+            variable=variable,
+            expected="CF grid-mapping attributes (grid_mapping_name and its parameters, or crs_wkt)",
+            fix="complete the grid-mapping variable's attributes, or add 2-D lat/lon coordinates to the file",
+        ) from None
 
 
 def lonlat(crs, x, y):
@@ -68,9 +84,11 @@ def _edges(centres: np.ndarray) -> np.ndarray:
     from .grid import infer_edges
 
     if centres.size == 1:
-        raise GridError("cannot infer the cell edges of a single projected cell",
-                        expected="at least two cells along x and y, or CF bounds variables",
-                        fix="add x_bounds/y_bounds variables (CF 'bounds' attribute) to the file")
+        raise GridError(
+            "cannot infer the cell edges of a single projected cell",
+            expected="at least two cells along x and y, or CF bounds variables",
+            fix="add x_bounds/y_bounds variables (CF 'bounds' attribute) to the file",
+        )
     lower, upper = infer_edges(centres)
     return np.append(lower, upper[-1]) if centres[-1] > centres[0] else np.append(upper, lower[-1])
 
@@ -94,30 +112,45 @@ def _stored_edges(ds, name: str, centres: np.ndarray, factor: float, *, source=N
     b = np.asarray(ds[bname].values, dtype=float)
     n = centres.size
     if b.shape != (n, 2):
-        raise GridError(f"has a bounds variable '{bname}' of shape {b.shape}", source=source, variable=bname,
-                        expected=f"shape ({n}, 2): two edges per cell of '{name}'",
-                        fix=f"repair '{bname}' or delete its name from the bounds attribute of '{name}'")
+        raise GridError(
+            f"has a bounds variable '{bname}' of shape {b.shape}",
+            source=source,
+            variable=bname,
+            expected=f"shape ({n}, 2): two edges per cell of '{name}'",
+            fix=f"repair '{bname}' or delete its name from the bounds attribute of '{name}'",
+        )
     if not np.isfinite(b).all():
-        raise GridError(f"has missing values in the bounds variable '{bname}'", source=source, variable=bname,
-                        expected="finite edges for every cell",
-                        fix=f"repair '{bname}' or delete its name from the bounds attribute of '{name}'")
+        raise GridError(
+            f"has missing values in the bounds variable '{bname}'",
+            source=source,
+            variable=bname,
+            expected="finite edges for every cell",
+            fix=f"repair '{bname}' or delete its name from the bounds attribute of '{name}'",
+        )
     b = b * factor
     rising = n < 2 or centres[-1] > centres[0]
     lower, upper = (b.min(axis=1), b.max(axis=1)) if rising else (b.max(axis=1), b.min(axis=1))
     tol = 1e-6 * max(float(np.abs(np.diff(b, axis=1)).max()), 1.0)
     if n > 1 and not np.allclose(upper[:-1], lower[1:], rtol=0.0, atol=tol):
         k = int(np.flatnonzero(~np.isclose(upper[:-1], lower[1:], rtol=0.0, atol=tol))[0])
-        raise GridError(f"has bounds in '{bname}' that are not contiguous (cell {k} ends at {upper[k] / factor:g}, "
-                        f"cell {k + 1} starts at {lower[k + 1] / factor:g})", source=source, variable=bname,
-                        expected="each cell starting where the previous one ends",
-                        fix=f"repair '{bname}' or delete its name from the bounds attribute of '{name}'")
+        raise GridError(
+            f"has bounds in '{bname}' that are not contiguous (cell {k} ends at {upper[k] / factor:g}, "
+            f"cell {k + 1} starts at {lower[k + 1] / factor:g})",
+            source=source,
+            variable=bname,
+            expected="each cell starting where the previous one ends",
+            fix=f"repair '{bname}' or delete its name from the bounds attribute of '{name}'",
+        )
     inside = (np.minimum(lower, upper) - tol <= centres) & (centres <= np.maximum(lower, upper) + tol)
     if not inside.all():
         k = int(np.flatnonzero(~inside)[0])
-        raise GridError(f"has the centre of cell {k} of '{name}' ({centres[k] / factor:g}) outside its bounds in "
-                        f"'{bname}'", source=source, variable=bname,
-                        expected="every cell centre between its two edges",
-                        fix=f"check the units of '{bname}' and '{name}' (they must agree)")
+        raise GridError(
+            f"has the centre of cell {k} of '{name}' ({centres[k] / factor:g}) outside its bounds in '{bname}'",
+            source=source,
+            variable=bname,
+            expected="every cell centre between its two edges",
+            fix=f"check the units of '{bname}' and '{name}' (they must agree)",
+        )
     return lower, upper
 
 
@@ -145,8 +178,12 @@ def projected_corners(grid):
     lon, lat = lonlat(crs, gx, gy)
     # unwrap each row and column so a cell never jumps across the antimeridian
     lon = np.unwrap(np.unwrap(lon, period=360.0, axis=1), period=360.0, axis=0)
-    corners = [(slice(None, -1), slice(None, -1)), (slice(None, -1), slice(1, None)),
-               (slice(1, None), slice(1, None)), (slice(1, None), slice(None, -1))]
+    corners = [
+        (slice(None, -1), slice(None, -1)),
+        (slice(None, -1), slice(1, None)),
+        (slice(1, None), slice(1, None)),
+        (slice(1, None), slice(None, -1)),
+    ]
     lat_c = np.stack([lat[r, c] for r, c in corners], axis=-1)
     lon_c = np.stack([lon[r, c] for r, c in corners], axis=-1)
     return np.clip(lat_c, -90.0, 90.0), lon_c

@@ -61,17 +61,29 @@ def _resolve_fsspec(text: str) -> list:
     try:
         fs, _, paths = fsspec.get_fs_token_paths(text)
     except (ImportError, ValueError) as exc:
-        raise SourceError(f"cannot be opened: {exc}", source=text, expected="an fsspec URL whose protocol is installed",
-                          fix="install the object-store client (pip install 'climwidgets[cloud]' for s3:// "
-                              "and gs://) or copy the data to a local folder") from None
+        raise SourceError(
+            f"cannot be opened: {exc}",
+            source=text,
+            expected="an fsspec URL whose protocol is installed",
+            fix="install the object-store client (pip install 'climwidgets[cloud]' for s3:// "
+            "and gs://) or copy the data to a local folder",
+        ) from None
     if _GLOB_CHARS & set(text):
         if not paths:
-            raise SourceError("the pattern matches no files", source=text, expected="at least one matching file",
-                              fix="check the folder and the pattern")
+            raise SourceError(
+                "the pattern matches no files",
+                source=text,
+                expected="at least one matching file",
+                fix="check the folder and the pattern",
+            )
         return [fs.unstrip_protocol(p) for p in sorted(paths)]
     if not fs.exists(paths[0]):
-        raise SourceError("does not exist", source=text, expected="an existing NetCDF file or Zarr store",
-                          fix="check the address (protocol, bucket and path)")
+        raise SourceError(
+            "does not exist",
+            source=text,
+            expected="an existing NetCDF file or Zarr store",
+            fix="check the address (protocol, bucket and path)",
+        )
     return [text]
 
 
@@ -88,8 +100,11 @@ def resolve(source) -> list[str]:
     """A list of concrete sources (paths, stores or URLs) in the order given or sorted by name."""
     if isinstance(source, (list, tuple)):
         if not source:
-            raise SourceError("an empty list of files was given", expected="one or more paths",
-                              fix="pass a path, a glob pattern such as 'data/pr_*.nc', or a list of paths")
+            raise SourceError(
+                "an empty list of files was given",
+                expected="one or more paths",
+                fix="pass a path, a glob pattern such as 'data/pr_*.nc', or a list of paths",
+            )
         out = []
         for item in source:
             out.extend(resolve(item))
@@ -105,21 +120,31 @@ def resolve(source) -> list[str]:
     if _GLOB_CHARS & set(expanded):
         matches = sorted(glob.glob(expanded))
         if not matches:
-            raise SourceError("the pattern matches no files", source=text, expected="at least one matching file",
-                              fix="check the folder and the pattern (is the extension .nc or .nc4?)")
+            raise SourceError(
+                "the pattern matches no files",
+                source=text,
+                expected="at least one matching file",
+                fix="check the folder and the pattern (is the extension .nc or .nc4?)",
+            )
         for match in matches:
             _check_local(match)
         return matches
     if os.path.islink(expanded) and not os.path.exists(expanded):
         _check_local(expanded)  # a dangling link or a link loop, said as such
     if not os.path.exists(expanded):
-        raise SourceError("does not exist", source=text, expected="an existing NetCDF file or Zarr store",
-                          fix="check the path; relative paths are taken from the notebook's working folder "
-                              f"({os.getcwd()})")
+        raise SourceError(
+            "does not exist",
+            source=text,
+            expected="an existing NetCDF file or Zarr store",
+            fix=f"check the path; relative paths are taken from the notebook's working folder ({os.getcwd()})",
+        )
     if os.path.isdir(expanded) and not is_zarr(expanded):
-        raise SourceError("is a folder but not a Zarr store", source=text,
-                          expected="a NetCDF file, a glob pattern, or a Zarr store",
-                          fix=f"pass a pattern such as '{os.path.join(text, '*.nc')}'")
+        raise SourceError(
+            "is a folder but not a Zarr store",
+            source=text,
+            expected="a NetCDF file, a glob pattern, or a Zarr store",
+            fix=f"pass a pattern such as '{os.path.join(text, '*.nc')}'",
+        )
     _check_local(expanded)
     return [expanded]
 
@@ -134,36 +159,66 @@ def _check_local(path: str) -> None:
         st = os.stat(path)
     except OSError as exc:
         if exc.errno == errno.ELOOP:
-            raise SourceError("is a symbolic link that loops (it points, directly or not, to itself)",
-                              source=path, expected="a link that ends at a NetCDF file or Zarr store",
-                              fix="repair the link with 'ls -l' and 'ln -sf TARGET LINK'") from None
+            raise SourceError(
+                "is a symbolic link that loops (it points, directly or not, to itself)",
+                source=path,
+                expected="a link that ends at a NetCDF file or Zarr store",
+                fix="repair the link with 'ls -l' and 'ln -sf TARGET LINK'",
+            ) from None
         if exc.errno == errno.ENOENT and os.path.islink(path):
-            raise SourceError(f"is a symbolic link to '{os.readlink(path)}', which does not exist",
-                              source=path, expected="a link that ends at an existing file",
-                              fix="repair the link or pass the target's path") from None
+            raise SourceError(
+                f"is a symbolic link to '{os.readlink(path)}', which does not exist",
+                source=path,
+                expected="a link that ends at an existing file",
+                fix="repair the link or pass the target's path",
+            ) from None
         if exc.errno in (errno.EACCES, errno.EPERM):
-            raise SourceError("cannot be examined: permission denied", source=path,
-                              expected="a file this user may read",
-                              fix="ask the owner for read permission (chmod o+r) or copy the file") from None
-        raise SourceError(f"cannot be examined: {exc.strerror}", source=path,
-                          expected="an existing NetCDF file or Zarr store", fix="check the path") from None
+            raise SourceError(
+                "cannot be examined: permission denied",
+                source=path,
+                expected="a file this user may read",
+                fix="ask the owner for read permission (chmod o+r) or copy the file",
+            ) from None
+        raise SourceError(
+            f"cannot be examined: {exc.strerror}",
+            source=path,
+            expected="an existing NetCDF file or Zarr store",
+            fix="check the path",
+        ) from None
     if stat.S_ISDIR(st.st_mode):
         if not os.access(path, os.R_OK | os.X_OK):
-            raise SourceError("is a folder this user may not read (permission denied)", source=path,
-                              expected="a readable Zarr store", fix="ask the owner for read permission")
+            raise SourceError(
+                "is a folder this user may not read (permission denied)",
+                source=path,
+                expected="a readable Zarr store",
+                fix="ask the owner for read permission",
+            )
         return
     if not stat.S_ISREG(st.st_mode):
-        kind = ("a named pipe (FIFO)" if stat.S_ISFIFO(st.st_mode)
-                else "a character device" if stat.S_ISCHR(st.st_mode)
-                else "a block device" if stat.S_ISBLK(st.st_mode)
-                else "a socket" if stat.S_ISSOCK(st.st_mode) else "not a regular file")
-        raise SourceError(f"is {kind}, not a regular file; reading it could block or never end",
-                          source=path, expected="a NetCDF file on disk or a Zarr store",
-                          fix="write the data to a regular file first, then pass that file")
+        kind = (
+            "a named pipe (FIFO)"
+            if stat.S_ISFIFO(st.st_mode)
+            else "a character device"
+            if stat.S_ISCHR(st.st_mode)
+            else "a block device"
+            if stat.S_ISBLK(st.st_mode)
+            else "a socket"
+            if stat.S_ISSOCK(st.st_mode)
+            else "not a regular file"
+        )
+        raise SourceError(
+            f"is {kind}, not a regular file; reading it could block or never end",
+            source=path,
+            expected="a NetCDF file on disk or a Zarr store",
+            fix="write the data to a regular file first, then pass that file",
+        )
     if not os.access(path, os.R_OK):
-        raise SourceError("cannot be read: permission denied", source=path,
-                          expected="a file this user may read",
-                          fix="ask the owner for read permission (chmod o+r) or copy the file")
+        raise SourceError(
+            "cannot be read: permission denied",
+            source=path,
+            expected="a file this user may read",
+            fix="ask the owner for read permission (chmod o+r) or copy the file",
+        )
 
 
 def _fsspec_is_zarr(url: str) -> bool:
@@ -212,7 +267,7 @@ def netcdf3_min_size(head: bytes) -> int | None:
         nonlocal pos
         if pos + n > len(head):
             raise EOFError
-        chunk = head[pos:pos + n]
+        chunk = head[pos : pos + n]
         pos += n
         return chunk
 
@@ -274,9 +329,12 @@ def _check_not_short(source: str) -> None:
         return
     need = netcdf3_min_size(head)
     if need is not None and size < need:
-        raise SourceError(f"is shorter than its header says ({size} bytes, at least {need} needed): it is truncated",
-                          source=source, expected="a complete NetCDF file",
-                          fix="copy or download the file again; a transfer was probably cut short")
+        raise SourceError(
+            f"is shorter than its header says ({size} bytes, at least {need} needed): it is truncated",
+            source=source,
+            expected="a complete NetCDF file",
+            fix="copy or download the file again; a transfer was probably cut short",
+        )
 
 
 def open_raw(source) -> xr.Dataset:
@@ -304,7 +362,9 @@ def open_raw(source) -> xr.Dataset:
             fix = "check the address; NetCDF-3 files need a local copy (fsspec reads NetCDF-4 with h5netcdf)"
         else:
             size = os.path.getsize(source) if os.path.exists(source) else 0
-            problem = (f"could not be read as NetCDF ({size} bytes; it may be truncated, still being "
-                       "written, or not a NetCDF file)")
+            problem = (
+                f"could not be read as NetCDF ({size} bytes; it may be truncated, still being "
+                "written, or not a NetCDF file)"
+            )
             fix = "check the file with 'ncdump -h', download or copy it again"
         raise SourceError(f"{problem}: {type(exc).__name__}: {exc}", source=label, fix=fix) from None

@@ -14,22 +14,36 @@ import xarray as xr
 from ..errors import CalendarError, TimeAxisError
 
 SUPPORTED_CALENDARS = {
-    "standard", "gregorian", "proleptic_gregorian", "noleap", "365_day",
-    "all_leap", "366_day", "360_day", "julian",
+    "standard",
+    "gregorian",
+    "proleptic_gregorian",
+    "noleap",
+    "365_day",
+    "all_leap",
+    "366_day",
+    "360_day",
+    "julian",
 }
 # Regular steps the loader accepts.  Sub-hourly steps are summed to hourly totals on open
 # (so every function downstream sees at most hourly data); n-hourly steps that divide a day
 # are kept as they are ("3hour", "6hour", ...); "month" has no fixed length.
 SUBHOURLY_MINUTES = (1, 2, 3, 4, 5, 6, 10, 12, 15, 20, 30)
 MULTIHOUR_HOURS = (2, 3, 4, 6, 8, 12)
-STEP_SECONDS = {"hour": 3600.0, "day": 86400.0,
-                **{f"{n}min": 60.0 * n for n in SUBHOURLY_MINUTES},
-                **{f"{n}hour": 3600.0 * n for n in MULTIHOUR_HOURS}}
+STEP_SECONDS = {
+    "hour": 3600.0,
+    "day": 86400.0,
+    **{f"{n}min": 60.0 * n for n in SUBHOURLY_MINUTES},
+    **{f"{n}hour": 3600.0 * n for n in MULTIHOUR_HOURS},
+}
 #: steps a canonical precipitation DataArray may have (after open_precip)
 CANONICAL_STEPS = ("hour", *(f"{n}hour" for n in MULTIHOUR_HOURS), "day", "month")
-_FREQ = {"hour": "h", "day": "D", "month": "MS",
-         **{f"{n}min": f"{n}min" for n in SUBHOURLY_MINUTES},
-         **{f"{n}hour": f"{n}h" for n in MULTIHOUR_HOURS}}
+_FREQ = {
+    "hour": "h",
+    "day": "D",
+    "month": "MS",
+    **{f"{n}min": f"{n}min" for n in SUBHOURLY_MINUTES},
+    **{f"{n}hour": f"{n}h" for n in MULTIHOUR_HOURS},
+}
 
 
 def steps_per_day(step: str) -> float:
@@ -43,15 +57,22 @@ def is_subhourly(step: str) -> bool:
 
 def check_calendar(calendar, *, source=None, variable="time") -> str:
     if calendar is not None and not isinstance(calendar, str):
-        raise CalendarError(f"has a calendar attribute that is not text ({calendar!r})", source=source,
-                            variable=variable, expected="a CF calendar name such as 'standard' or 'noleap'",
-                            fix="set the time variable's calendar attribute to a calendar name")
+        raise CalendarError(
+            f"has a calendar attribute that is not text ({calendar!r})",
+            source=source,
+            variable=variable,
+            expected="a CF calendar name such as 'standard' or 'noleap'",
+            fix="set the time variable's calendar attribute to a calendar name",
+        )
     cal = (calendar or "standard").strip().lower()
     if cal not in SUPPORTED_CALENDARS:
         raise CalendarError(
-            f"uses the calendar '{calendar}', which is not supported", source=source, variable=variable,
+            f"uses the calendar '{calendar}', which is not supported",
+            source=source,
+            variable=variable,
             expected="one of " + ", ".join(sorted(SUPPORTED_CALENDARS)),
-            fix="convert the time axis to a CF calendar (for example with cftime) before opening")
+            fix="convert the time axis to a CF calendar (for example with cftime) before opening",
+        )
     return cal
 
 
@@ -92,10 +113,14 @@ def _say_length(seconds: float, step: str | None) -> str:
 def _check_finite(lengths, what, source) -> None:
     if not np.all(np.isfinite(lengths)):
         bad = int(np.flatnonzero(~np.isfinite(lengths))[0])
-        raise TimeAxisError(f"has a missing (NaN) value in its {what} near position {bad + 1}",
-                            source=source, variable="time", expected="a time stamp for every step",
-                            fix="fill in or drop the step with the missing time (ds.dropna('time') on the "
-                                "time coordinate) before opening")
+        raise TimeAxisError(
+            f"has a missing (NaN) value in its {what} near position {bad + 1}",
+            source=source,
+            variable="time",
+            expected="a time stamp for every step",
+            fix="fill in or drop the step with the missing time (ds.dropna('time') on the "
+            "time coordinate) before opening",
+        )
 
 
 def infer_step(time: xr.DataArray, bounds: xr.DataArray | None = None, *, source=None) -> str:
@@ -112,17 +137,24 @@ def infer_step(time: xr.DataArray, bounds: xr.DataArray | None = None, *, source
         _check_finite(spacing, "time stamps", source)
     if bounds is not None and bounds.size >= 2:
         b = bounds.values
-        lengths = np.asarray(pd.TimedeltaIndex(
-            pd.Index(b[:, 1]) - pd.Index(b[:, 0]) if not np.issubdtype(b.dtype, np.datetime64)
-            else b[:, 1] - b[:, 0]).total_seconds())
+        lengths = np.asarray(
+            pd.TimedeltaIndex(
+                pd.Index(b[:, 1]) - pd.Index(b[:, 0])
+                if not np.issubdtype(b.dtype, np.datetime64)
+                else b[:, 1] - b[:, 0]
+            ).total_seconds()
+        )
         _check_finite(lengths, "time bounds", source)
     elif spacing is not None:
         lengths = spacing
     else:
         raise TimeAxisError(
             "has a single time step and no time bounds, so the length of the step is unknown",
-            source=source, variable="time", expected="at least two time steps or a 'bounds' variable on time",
-            fix="add CF time bounds (time_bnds) to the file, or open more than one time step")
+            source=source,
+            variable="time",
+            expected="at least two time steps or a 'bounds' variable on time",
+            fix="add CF time bounds (time_bnds) to the file, or open more than one time step",
+        )
     typical = float(np.median(lengths))
     step = _name_step(typical)
     if lengths is not spacing and spacing is not None:
@@ -132,20 +164,26 @@ def infer_step(time: xr.DataArray, bounds: xr.DataArray | None = None, *, source
         if named_differ or ((step is None or by_stamps is None) and not 2 / 3 <= apart / max(typical, 1e-9) <= 1.5):
             raise TimeAxisError(
                 f"has time bounds {_say_length(typical, step)} long, but its time stamps are "
-                f"{_say_length(apart, by_stamps)} apart", source=source, variable="time",
+                f"{_say_length(apart, by_stamps)} apart",
+                source=source,
+                variable="time",
                 expected="time bounds that span the step between stamps (one day for daily data, one month "
-                         "for monthly data)",
+                "for monthly data)",
                 fix="correct the time bounds, or drop them in a copy (xr.open_dataset(path).drop_vars('time_bnds') "
-                    "and delete time's 'bounds' attribute) and open that")
+                "and delete time's 'bounds' attribute) and open that",
+            )
     if step is not None:
         return step
     minutes = ", ".join(str(n) for n in SUBHOURLY_MINUTES)
     hours = ", ".join(str(n) for n in MULTIHOUR_HOURS)
     raise TimeAxisError(
-        f"has a time step of about {typical / 3600:.4g} hours", source=source, variable="time",
+        f"has a time step of about {typical / 3600:.4g} hours",
+        source=source,
+        variable="time",
         expected=f"a regular step of {minutes} minutes, 1, {hours} hours, one day or one month "
-                 "(steps that divide a day or are a calendar month)",
-        fix="resample to daily or monthly totals before opening (for example with xarray's resample)")
+        "(steps that divide a day or are a calendar month)",
+        fix="resample to daily or monthly totals before opening (for example with xarray's resample)",
+    )
 
 
 def step_seconds(time: xr.DataArray, step: str) -> xr.DataArray:
@@ -170,14 +208,20 @@ def check_monotonic(time_values, *, source=None):
     if dup.size:
         raise TimeAxisError(
             f"has {dup.size} duplicated time stamp(s); the first at position {int(dup[0]) + 1}",
-            source=source, variable="time", expected="strictly increasing times",
-            fix="drop the duplicates (for example ds.drop_duplicates('time')) or remove overlapping files from the list")
+            source=source,
+            variable="time",
+            expected="strictly increasing times",
+            fix="drop the duplicates (for example ds.drop_duplicates('time')) or remove overlapping files from the list",
+        )
     back = np.flatnonzero(d < 0)
     if back.size:
         raise TimeAxisError(
             f"has times that go backwards ({back.size} place(s); the first at position {int(back[0]) + 1})",
-            source=source, variable="time", expected="strictly increasing times",
-            fix="sort by time (ds.sortby('time')) or list the files in time order")
+            source=source,
+            variable="time",
+            expected="strictly increasing times",
+            fix="sort by time (ds.sortby('time')) or list the files in time order",
+        )
 
 
 def month_starts(time: xr.DataArray) -> xr.DataArray:
@@ -235,9 +279,13 @@ def sum_to_hours(da: xr.DataArray, step: str, *, source=None) -> xr.DataArray:
     end = index[-1].replace(minute=0, second=0, microsecond=0) + datetime.timedelta(seconds=3600 - STEP_SECONDS[step])
     full = xr.date_range(start=start, end=end, freq=_FREQ[step], calendar=cal, use_cftime=use_cftime)
     if not index.isin(full).all():
-        raise TimeAxisError(f"has {step} stamps that are not whole multiples of the step after the hour",
-                            source=source, variable="time", expected=f"stamps at regular {step} steps from the hour",
-                            fix="resample to hourly totals before opening")
+        raise TimeAxisError(
+            f"has {step} stamps that are not whole multiples of the step after the hour",
+            source=source,
+            variable="time",
+            expected=f"stamps at regular {step} steps from the hour",
+            fix="resample to hourly totals before opening",
+        )
     blocks = da.reindex(time=full).coarsen(time=k, boundary="trim").construct(time=("hour", "within"))
     out = blocks.sum("within", skipna=False).rename(hour="time")
     hours = xr.date_range(start=start, periods=out.sizes["time"], freq="h", calendar=cal, use_cftime=use_cftime)

@@ -21,30 +21,76 @@ from ..errors import UnitsError
 
 # metres per unit of length
 _LENGTH = {
-    "m": 1.0, "meter": 1.0, "meters": 1.0, "metre": 1.0, "metres": 1.0,
-    "mm": 1e-3, "millimeter": 1e-3, "millimeters": 1e-3, "millimetre": 1e-3, "millimetres": 1e-3,
-    "cm": 1e-2, "centimeter": 1e-2, "centimeters": 1e-2, "centimetre": 1e-2, "centimetres": 1e-2,
+    "m": 1.0,
+    "meter": 1.0,
+    "meters": 1.0,
+    "metre": 1.0,
+    "metres": 1.0,
+    "mm": 1e-3,
+    "millimeter": 1e-3,
+    "millimeters": 1e-3,
+    "millimetre": 1e-3,
+    "millimetres": 1e-3,
+    "cm": 1e-2,
+    "centimeter": 1e-2,
+    "centimeters": 1e-2,
+    "centimetre": 1e-2,
+    "centimetres": 1e-2,
     "km": 1e3,
-    "in": 0.0254, "inch": 0.0254, "inches": 0.0254,  # international inch, exactly 25.4 mm
-    "ft": 0.3048, "foot": 0.3048, "feet": 0.3048,  # international foot
+    "in": 0.0254,
+    "inch": 0.0254,
+    "inches": 0.0254,  # international inch, exactly 25.4 mm
+    "ft": 0.3048,
+    "foot": 0.3048,
+    "feet": 0.3048,  # international foot
 }
 # kilograms per unit of mass
 _MASS = {"kg": 1.0, "kilogram": 1.0, "kilograms": 1.0, "g": 1e-3, "gram": 1e-3, "grams": 1e-3}
 # seconds per unit of time; "month" has no fixed length and is handled separately
 _TIME = {
-    "s": 1.0, "sec": 1.0, "second": 1.0, "seconds": 1.0,
-    "min": 60.0, "minute": 60.0, "minutes": 60.0,
-    "h": 3600.0, "hr": 3600.0, "hour": 3600.0, "hours": 3600.0,
-    "d": 86400.0, "day": 86400.0, "days": 86400.0,
-    "month": None, "months": None, "mon": None,
+    "s": 1.0,
+    "sec": 1.0,
+    "second": 1.0,
+    "seconds": 1.0,
+    "min": 60.0,
+    "minute": 60.0,
+    "minutes": 60.0,
+    "h": 3600.0,
+    "hr": 3600.0,
+    "hour": 3600.0,
+    "hours": 3600.0,
+    "d": 86400.0,
+    "day": 86400.0,
+    "days": 86400.0,
+    "month": None,
+    "months": None,
+    "mon": None,
 }
 WATER_DENSITY = 1000.0  # kg m-3, the convention behind "1 kg m-2 = 1 mm"
 # SI prefixes (SI Brochure, 9th edition, 2019, table 7); symbols are case-sensitive:
 # "Mm" is the megametre, "mm" the millimetre. "u" stands for micro as in UDUNITS.
 _SI_PREFIX = {
-    "Y": 1e24, "Z": 1e21, "E": 1e18, "P": 1e15, "T": 1e12, "G": 1e9, "M": 1e6, "k": 1e3,
-    "h": 1e2, "da": 1e1, "d": 1e-1, "c": 1e-2, "m": 1e-3, "u": 1e-6, "µ": 1e-6, "n": 1e-9,
-    "p": 1e-12, "f": 1e-15, "a": 1e-18, "z": 1e-21, "y": 1e-24,
+    "Y": 1e24,
+    "Z": 1e21,
+    "E": 1e18,
+    "P": 1e15,
+    "T": 1e12,
+    "G": 1e9,
+    "M": 1e6,
+    "k": 1e3,
+    "h": 1e2,
+    "da": 1e1,
+    "d": 1e-1,
+    "c": 1e-2,
+    "m": 1e-3,
+    "u": 1e-6,
+    "µ": 1e-6,
+    "n": 1e-9,
+    "p": 1e-12,
+    "f": 1e-15,
+    "a": 1e-18,
+    "z": 1e-21,
+    "y": 1e-24,
 }
 # symbols that take a prefix, with their kind and factor to m, kg or s
 _PREFIXABLE = {"m": ("length", 1.0), "g": ("mass", 1e-3), "s": ("time", 1.0)}
@@ -71,15 +117,24 @@ def _lookup(name: str, text, source, variable, fix) -> tuple[str, float | None]:
         kind, factor = _PREFIXABLE[base]
         if prefix in _SI_PREFIX:
             return kind, _SI_PREFIX[prefix] * factor
-        raise UnitsError(f"has units '{text}'; '{prefix}' in '{name}' is not an SI prefix (prefixes are "
-                         "case-sensitive: k is kilo, M is mega, m is milli)", source=source, variable=variable,
-                         expected="a precipitation depth or rate unit such as mm, kg m-2 s-1 or mm/day", fix=fix)
+        raise UnitsError(
+            f"has units '{text}'; '{prefix}' in '{name}' is not an SI prefix (prefixes are "
+            "case-sensitive: k is kilo, M is mega, m is milli)",
+            source=source,
+            variable=variable,
+            expected="a precipitation depth or rate unit such as mm, kg m-2 s-1 or mm/day",
+            fix=fix,
+        )
     hint = ""
     if name != low and any(low in table for _, table in tables):
         hint = f" (unit symbols are case-sensitive; write '{low}' if that is meant)"
-    raise UnitsError(f"has units '{text}'; '{name}' is not a unit of mass, length or time{hint}",
-                     source=source, variable=variable,
-                     expected="a precipitation depth or rate unit", fix=fix)
+    raise UnitsError(
+        f"has units '{text}'; '{name}' is not a unit of mass, length or time{hint}",
+        source=source,
+        variable=variable,
+        expected="a precipitation depth or rate unit",
+        fix=fix,
+    )
 
 
 @dataclass(frozen=True)
@@ -114,11 +169,18 @@ def _normalise(text: str) -> str:
 
 def parse_units(text, *, source=None, variable=None) -> UnitInfo:
     """Read a units string as a precipitation depth or rate, or raise :class:`UnitsError`."""
-    fix = ("set the variable's 'units' attribute to one of: kg m-2 s-1, kg m-2, mm, mm/day, "
-           "mm/h, m, m/s, cm, in, in/day (or pass the data through xarray and set attrs['units'])")
+    fix = (
+        "set the variable's 'units' attribute to one of: kg m-2 s-1, kg m-2, mm, mm/day, "
+        "mm/h, m, m/s, cm, in, in/day (or pass the data through xarray and set attrs['units'])"
+    )
     if text is None or str(text).strip() == "":
-        raise UnitsError("has no units attribute, so its depth per time step cannot be known",
-                         source=source, variable=variable, expected="a precipitation depth or rate unit", fix=fix)
+        raise UnitsError(
+            "has no units attribute, so its depth per time step cannot be known",
+            source=source,
+            variable=variable,
+            expected="a precipitation depth or rate unit",
+            fix=fix,
+        )
     t = _normalise(str(text))
     scale, mass, length, time = 1.0, 0, 0, 0
     per_month = False
@@ -138,8 +200,13 @@ def parse_units(text, *, source=None, variable=None) -> UnitInfo:
             pass
         m = _TOKEN.match(part)
         if not m:
-            raise UnitsError(f"has units '{text}', which are not understood", source=source,
-                             variable=variable, expected="a precipitation depth or rate unit", fix=fix)
+            raise UnitsError(
+                f"has units '{text}', which are not understood",
+                source=source,
+                variable=variable,
+                expected="a precipitation depth or rate unit",
+                fix=fix,
+            )
         name, power = m.group(1), int(m.group(2) or 1) * sign
         # "m2" with no sign means squared metres; a trailing number is the power
         kind, factor = _lookup(name, text, source, variable, fix)
@@ -152,11 +219,15 @@ def parse_units(text, *, source=None, variable=None) -> UnitInfo:
         else:
             if factor is None:
                 if power != -1:
-                    raise UnitsError(f"has units '{text}' with a month power other than -1", source=source,
-                                     variable=variable, fix=fix)
+                    raise UnitsError(
+                        f"has units '{text}' with a month power other than -1",
+                        source=source,
+                        variable=variable,
+                        fix=fix,
+                    )
                 per_month = True
             else:
-                scale *= factor ** power
+                scale *= factor**power
             time += power
         denominator = False  # "a/b c" is (a/b)·c, as in UDUNITS
     if mass == 1 and length == -2:
@@ -164,15 +235,24 @@ def parse_units(text, *, source=None, variable=None) -> UnitInfo:
     elif mass == 0 and length == 1:
         to_mm = scale * 1000.0
     else:
-        raise UnitsError(f"has units '{text}', which are not a precipitation depth or rate",
-                         source=source, variable=variable,
-                         expected="length (mm, m, in), mass per area (kg m-2), or either per time", fix=fix)
+        raise UnitsError(
+            f"has units '{text}', which are not a precipitation depth or rate",
+            source=source,
+            variable=variable,
+            expected="length (mm, m, in), mass per area (kg m-2), or either per time",
+            fix=fix,
+        )
     if time == 0:
         return UnitInfo(str(text), "depth", to_mm)
     if time == -1:
         return UnitInfo(str(text), "rate", to_mm, per_month=per_month)
-    raise UnitsError(f"has units '{text}' with time to the power {time}", source=source, variable=variable,
-                     expected="a depth or a depth per time", fix=fix)
+    raise UnitsError(
+        f"has units '{text}' with time to the power {time}",
+        source=source,
+        variable=variable,
+        expected="a depth or a depth per time",
+        fix=fix,
+    )
 
 
 def length_to_metres(text, *, source=None, variable=None) -> float:
@@ -182,8 +262,13 @@ def length_to_metres(text, *, source=None, variable=None) -> float:
         return 1.0
     if t in _LENGTH:
         return _LENGTH[t]
-    raise UnitsError(f"has units '{text}', not a length", source=source, variable=variable,
-                     expected="m, km or ft", fix="set the elevation variable's 'units' attribute to 'm' or 'ft'")
+    raise UnitsError(
+        f"has units '{text}', not a length",
+        source=source,
+        variable=variable,
+        expected="m, km or ft",
+        fix="set the elevation variable's 'units' attribute to 'm' or 'ft'",
+    )
 
 
 def step_factor(units: UnitInfo, time, step: str, *, source=None, variable=None):
@@ -199,11 +284,18 @@ def step_factor(units: UnitInfo, time, step: str, *, source=None, variable=None)
         return units.to_mm, f"depth in '{units.text}' x {units.to_mm:g} -> mm"
     if units.per_month:
         if step != "month":
-            raise UnitsError(f"has per-month units '{units.text}' but {step} steps", source=source,
-                             variable=variable, expected="monthly data for per-month units",
-                             fix="set the units to the actual rate (for example mm/day)")
+            raise UnitsError(
+                f"has per-month units '{units.text}' but {step} steps",
+                source=source,
+                variable=variable,
+                expected="monthly data for per-month units",
+                fix="set the units to the actual rate (for example mm/day)",
+            )
         return units.to_mm, f"monthly depth in '{units.text}' x {units.to_mm:g} -> mm"
     seconds = timeaxis.step_seconds(time, step)
-    how = ("x days in each month of the file's calendar x 86400 s" if step == "month"
-           else f"x {timeaxis.STEP_SECONDS[step]:g} s per {step}")
+    how = (
+        "x days in each month of the file's calendar x 86400 s"
+        if step == "month"
+        else f"x {timeaxis.STEP_SECONDS[step]:g} s per {step}"
+    )
     return seconds * units.to_mm, f"rate in '{units.text}' x {units.to_mm:g} -> mm/s, {how}"

@@ -10,8 +10,17 @@ import xarray as xr
 
 from ..errors import DataValueError
 
-__all__ = ["NEGATIVE_TOLERANCE_MM", "PLAUSIBLE_FACTOR", "check_depth_bound", "check_packing", "check_values",
-           "convert_block", "default_max_depth", "mask_likely_fill", "needs_fill_heuristics"]
+__all__ = [
+    "NEGATIVE_TOLERANCE_MM",
+    "PLAUSIBLE_FACTOR",
+    "check_depth_bound",
+    "check_packing",
+    "check_values",
+    "convert_block",
+    "default_max_depth",
+    "mask_likely_fill",
+    "needs_fill_heuristics",
+]
 
 NEGATIVE_TOLERANCE_MM = 0.01  # tiny negatives from packing or interpolation are set to 0
 _LIKELY_FILL = (-9999.0, -999.0, -99999.0)
@@ -34,13 +43,22 @@ def check_packing(da: xr.DataArray, source, name) -> None:
                 continue
             arr = np.asarray(value)
             if arr.dtype.kind not in "biuf" or (key in ("scale_factor", "add_offset") and arr.size != 1):
-                raise DataValueError(f"has {key}={value!r}, which is not a number", source=source, variable=name,
-                                     expected=f"a numeric {key} attribute",
-                                     fix=f"correct or delete the {key} attribute (for example with ncatted or "
-                                         "netCDF4) in a copy of the file")
+                raise DataValueError(
+                    f"has {key}={value!r}, which is not a number",
+                    source=source,
+                    variable=name,
+                    expected=f"a numeric {key} attribute",
+                    fix=f"correct or delete the {key} attribute (for example with ncatted or "
+                    "netCDF4) in a copy of the file",
+                )
             if key in ("scale_factor", "add_offset") and not np.all(np.isfinite(arr)):
-                raise DataValueError(f"has {key}={value!r}", source=source, variable=name,
-                                     expected=f"a finite {key}", fix=f"correct the {key} attribute in a copy of the file")
+                raise DataValueError(
+                    f"has {key}={value!r}",
+                    source=source,
+                    variable=name,
+                    expected=f"a finite {key}",
+                    fix=f"correct the {key} attribute in a copy of the file",
+                )
 
 
 def needs_fill_heuristics(encoding: dict, attrs: dict) -> bool:
@@ -85,7 +103,7 @@ def default_max_depth(step_seconds: float) -> float:
     3819
     """
     hours = float(step_seconds) / 3600.0
-    return PLAUSIBLE_FACTOR * RECORD_ENVELOPE_MM * hours ** RECORD_ENVELOPE_EXPONENT
+    return PLAUSIBLE_FACTOR * RECORD_ENVELOPE_MM * hours**RECORD_ENVELOPE_EXPONENT
 
 
 def _label(value) -> str:
@@ -93,8 +111,9 @@ def _label(value) -> str:
     return text[:19].replace("T", " ") if len(text) >= 19 and text[4] == "-" else text
 
 
-def check_depth_bound(x, max_depth: float, source=None, name=None, labels=None, dims=None, offset=None,
-                      files=None) -> None:
+def check_depth_bound(
+    x, max_depth: float, source=None, name=None, labels=None, dims=None, offset=None, files=None
+) -> None:
     """Raise a DataValueError when a depth of ``x`` (mm per step; NaN missing) exceeds ``max_depth``.
 
     ``labels`` (one 1-D array per axis of ``x``: the coordinate values of the block) or
@@ -115,16 +134,21 @@ def check_depth_bound(x, max_depth: float, source=None, name=None, labels=None, 
     else:
         where = ", ".join(f"{d} index {int(i) + int(o)}" for d, i, o in zip(dims, first, offset or [0] * over.ndim))
     count, top = int(over.sum()), float(np.nanmax(x))
-    raise DataValueError(f"has {count} depth(s) above the plausible {max_depth:.6g} mm per step in a chunk "
-                         f"(largest {top:.4g} mm; first at {where})", source=source, variable=name,
-                         expected="depths below twice the world-record rainfall for the step length",
-                         fix="check the units (a rate in mm/s read as mm/day?) and the _FillValue/missing_value "
-                             "(a fill code that is not declared is read as a depth); pass max_depth_mm= to "
-                             "cw.open_precip to set another bound, or None to turn the check off")
+    raise DataValueError(
+        f"has {count} depth(s) above the plausible {max_depth:.6g} mm per step in a chunk "
+        f"(largest {top:.4g} mm; first at {where})",
+        source=source,
+        variable=name,
+        expected="depths below twice the world-record rainfall for the step length",
+        fix="check the units (a rate in mm/s read as mm/day?) and the _FillValue/missing_value "
+        "(a fill code that is not declared is read as a depth); pass max_depth_mm= to "
+        "cw.open_precip to set another bound, or None to turn the check off",
+    )
 
 
-def convert_block(block, factor, *labels, mask_fill: bool, guard: bool, source=None, name=None,
-                  max_depth=None, dims=None, files=None):
+def convert_block(
+    block, factor, *labels, mask_fill: bool, guard: bool, source=None, name=None, max_depth=None, dims=None, files=None
+):
     """Stored values -> mm per step (float64 for accurate sums), with few passes over a chunk.
 
     Two NaN-ignoring reductions (min, max) tell whether a chunk holds fill codes or
@@ -152,9 +176,13 @@ def convert_block(block, factor, *labels, mask_fill: bool, guard: bool, source=N
         lo = float(np.fmin.reduce(x.reshape(-1)))  # in mm, after the factor
     if guard and lo < 0:
         if lo < -NEGATIVE_TOLERANCE_MM:
-            raise DataValueError(f"has negative precipitation (lowest {lo:.4g} mm) in a chunk read from disk",
-                                 source=source, variable=name, expected="precipitation depths >= 0",
-                                 fix="open with validate=True to find where, and check scale_factor/add_offset and units")
+            raise DataValueError(
+                f"has negative precipitation (lowest {lo:.4g} mm) in a chunk read from disk",
+                source=source,
+                variable=name,
+                expected="precipitation depths >= 0",
+                fix="open with validate=True to find where, and check scale_factor/add_offset and units",
+            )
         x[x < 0] = 0.0
     if max_depth is not None and hi * float(np.max(factor)) > max_depth:
         check_depth_bound(x, max_depth, source, name, labels=labels or None, dims=dims, files=files)
@@ -167,14 +195,24 @@ def check_values(da: xr.DataArray, source, name):
 
     lowest, valid = dask.compute(da.min(skipna=True), da.count())
     if int(valid) == 0:
-        raise DataValueError("contains no valid values (all missing)", source=source, variable=name,
-                             expected="some non-missing precipitation", fix="check _FillValue/missing_value and the period chosen")
+        raise DataValueError(
+            "contains no valid values (all missing)",
+            source=source,
+            variable=name,
+            expected="some non-missing precipitation",
+            fix="check _FillValue/missing_value and the period chosen",
+        )
     if float(lowest) < -NEGATIVE_TOLERANCE_MM:
         neg = da < -NEGATIVE_TOLERANCE_MM
         count = int(neg.sum())
         where = neg.argmax(dim=...)
         loc = ", ".join(f"{k}={da[k].values[int(v)]}" for k, v in where.items())
-        raise DataValueError(f"has {count} negative value(s) below -{NEGATIVE_TOLERANCE_MM} mm (lowest {float(lowest):.4g} mm; "
-                             f"first at {loc})", source=source, variable=name,
-                             expected="precipitation depths >= 0", fix="check the scale_factor/add_offset and units; "
-                             "clip small negatives with .clip(min=0) if they are interpolation noise")
+        raise DataValueError(
+            f"has {count} negative value(s) below -{NEGATIVE_TOLERANCE_MM} mm (lowest {float(lowest):.4g} mm; "
+            f"first at {loc})",
+            source=source,
+            variable=name,
+            expected="precipitation depths >= 0",
+            fix="check the scale_factor/add_offset and units; "
+            "clip small negatives with .clip(min=0) if they are interpolation noise",
+        )

@@ -23,7 +23,18 @@ def voila_command(notebook, port: int, extra=()) -> tuple[list[str], dict[str, s
     The template folder is put first on ``JUPYTER_PATH`` (where Voila looks for templates).
     """
     env = dict(os.environ)
-    env["JUPYTER_PATH"] = os.pathsep.join([str(_DATA)] + [p for p in env.get("JUPYTER_PATH", "").split(os.pathsep) if p])
-    argv = [sys.executable, "-m", "voila", str(notebook), f"--port={int(port)}", "--no-browser",
-            "--Voila.ip=127.0.0.1", f"--template={TEMPLATE}", *extra]
+    env["JUPYTER_PATH"] = os.pathsep.join(
+        [str(_DATA)] + [p for p in env.get("JUPYTER_PATH", "").split(os.pathsep) if p]
+    )
+    argv = [
+        sys.executable,
+        "-m",
+        "voila",
+        str(notebook),
+        f"--port={int(port)}",
+        "--no-browser",
+        "--Voila.ip=127.0.0.1",
+        f"--template={TEMPLATE}",
+        *extra,
+    ]
     return argv, env

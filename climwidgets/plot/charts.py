@@ -7,8 +7,16 @@ from __future__ import annotations
 
 import numpy as np
 
-__all__ = ["series_with_trend", "monthly_normals", "design_depth_chart", "anomaly_chart", "spi_bands", "contrast_chart",
-           "products_chart", "MONTH_LABELS"]
+__all__ = [
+    "series_with_trend",
+    "monthly_normals",
+    "design_depth_chart",
+    "anomaly_chart",
+    "spi_bands",
+    "contrast_chart",
+    "products_chart",
+    "MONTH_LABELS",
+]
 
 from ..compute._time import MONTH_NAMES as MONTH_LABELS  # noqa: E402  (the one month-name table)
 
@@ -45,7 +53,9 @@ def series_with_trend(series, trend=None, ax=None, label=None, scale=1.0, units=
         intercept = float(trend["intercept"]) * scale
         p = float(trend["pvalue"])
         fit = intercept + slope * years
-        text = f"Sen slope {slope * 10:+.3g} {'% points' if units == '%' else units} per decade (Mann-Kendall p = {p:.2f})"
+        text = (
+            f"Sen slope {slope * 10:+.3g} {'% points' if units == '%' else units} per decade (Mann-Kendall p = {p:.2f})"
+        )
         artists += ax.plot(years, fit, "--", color="#d95f02", lw=1.5, label=text)
     ax.set_xlabel("year")
     ax.set_ylabel(f"{series.attrs.get('long_name', series.name or 'value')} [{units}]", fontsize=8)
@@ -106,14 +116,28 @@ def design_depth_chart(table, warming=None, period=None, ci=0.9, max_panels=6, f
         one = table.sel(basin=name)
         for p, shade in zip(periods, shades):
             est = one["estimate"].sel(period=p).values
-            ax.plot(x, est, "-", color=cmap(shade), lw=1.6 if p == period else 1.0,
-                    label=f"once in {p} years", marker="o" if p == period else None, ms=3)
+            ax.plot(
+                x,
+                est,
+                "-",
+                color=cmap(shade),
+                lw=1.6 if p == period else 1.0,
+                label=f"once in {p} years",
+                marker="o" if p == period else None,
+                ms=3,
+            )
             if p == period:
                 lo, hi = one["lower"].sel(period=p).values, one["upper"].sel(period=p).values
                 ax.vlines(x, lo, hi, color=cmap(shade), lw=0.8, alpha=0.8)
                 if warming is not None:
-                    ax.plot(x, est * warming[2], "--", color="#b2182b", lw=1.0,
-                            label=f"+{warming[0]:g} °C at {warming[1]:g} % per °C")
+                    ax.plot(
+                        x,
+                        est * warming[2],
+                        "--",
+                        color="#b2182b",
+                        lw=1.0,
+                        label=f"+{warming[0]:g} °C at {warming[1]:g} % per °C",
+                    )
         ax.set_title(name, fontsize=10)
         ax.set_xticks(x, [f"{int(d)}{short}" for d in durations], fontsize=8)
         ax.tick_params(axis="y", labelsize=8)
@@ -146,8 +170,9 @@ def spi_bands(ax):
         colour = cmap(1.0 - (i + 0.5) / n)
         ax.axhspan(lo, hi, color=colour, alpha=0.25 if name != "near normal" else 0.08, lw=0)
         mid = {"extremely wet": 2.5, "extremely dry": -2.5}.get(name, (lo + hi) / 2)
-        ax.text(1.005, mid, name, transform=ax.get_yaxis_transform(), fontsize=6, va="center",
-                color="0.25", clip_on=False)
+        ax.text(
+            1.005, mid, name, transform=ax.get_yaxis_transform(), fontsize=6, va="center", color="0.25", clip_on=False
+        )
 
 
 def anomaly_chart(series, step_index, kind, ylabel, title, figsize=(7.5, 3.0)):
@@ -223,9 +248,12 @@ def contrast_chart(observed, mean, model, elevation, gradients, figsize=(9.0, 3.
             continue
         zz = np.linspace(np.nanmin(z[sign]), np.nanmax(z[sign]), 2)
         slope = float(g["slope"])
-        ax_z.plot(zz, float(g["intercept"]) + slope / 100.0 * zz, color=_SIDE_COLOURS[side],
-                  label=f"{side}: {slope:+.0f} mm per 100 m ({float(g['lower']):+.0f} to "
-                        f"{float(g['upper']):+.0f})")
+        ax_z.plot(
+            zz,
+            float(g["intercept"]) + slope / 100.0 * zz,
+            color=_SIDE_COLOURS[side],
+            label=f"{side}: {slope:+.0f} mm per 100 m ({float(g['lower']):+.0f} to {float(g['upper']):+.0f})",
+        )
     ax_z.set_xlabel("terrain height [m]")
     ax_z.set_ylabel("mean annual total [mm]", fontsize=8)
     ax_z.legend(fontsize=7, loc="upper left")
@@ -241,10 +269,22 @@ def _band_steps(ax, obs):
     for i in range(1 if one else obs.sizes["band"]):
         o = obs if one else obs.isel(band=i)
         lo, hi = float(o["band_lower_km"]), float(o["band_upper_km"])
-        ax.hlines(float(o["windward_mean"]), -hi, -lo, color=_SIDE_COLOURS["windward"], lw=2.5,
-                  label="windward band mean" if i == 0 else None)
-        ax.hlines(float(o["leeward_mean"]), lo, hi, color=_SIDE_COLOURS["leeward"], lw=2.5,
-                  label="leeward band mean" if i == 0 else None)
+        ax.hlines(
+            float(o["windward_mean"]),
+            -hi,
+            -lo,
+            color=_SIDE_COLOURS["windward"],
+            lw=2.5,
+            label="windward band mean" if i == 0 else None,
+        )
+        ax.hlines(
+            float(o["leeward_mean"]),
+            lo,
+            hi,
+            color=_SIDE_COLOURS["leeward"],
+            lw=2.5,
+            label="leeward band mean" if i == 0 else None,
+        )
 
 
 def products_chart(table, products, figsize=(6.5, 3.0)):

@@ -101,15 +101,17 @@ def choose_projection(lon, lat):
     if e - w > 180:
         return ccrs.Robinson()
     span = n - s
-    return ccrs.LambertConformal(central_longitude=(w + e) / 2, central_latitude=(s + n) / 2,
-                                 standard_parallels=(s + span / 6, n - span / 6))
+    return ccrs.LambertConformal(
+        central_longitude=(w + e) / 2, central_latitude=(s + n) / 2, standard_parallels=(s + span / 6, n - span / 6)
+    )
 
 
 def lonlat_to_map(proj, lon, lat):
     """Projected x, y of lon/lat points (arrays) for ``proj``."""
     ccrs = _ccrs()
-    pts = proj.transform_points(ccrs.PlateCarree(), np.atleast_1d(np.asarray(lon, float)),
-                                np.atleast_1d(np.asarray(lat, float)))
+    pts = proj.transform_points(
+        ccrs.PlateCarree(), np.atleast_1d(np.asarray(lon, float)), np.atleast_1d(np.asarray(lat, float))
+    )
     return pts[..., 0], pts[..., 1]
 
 
@@ -197,14 +199,25 @@ def colour_style(kind: str = "total", values=None, vmin=None, vmax=None, robust:
     if kind not in KINDS:
         from ..errors import ParameterError
 
-        raise ParameterError(f"kind={kind!r} is not known", source="climwidgets.plot", variable="kind",
-                             expected=f"one of {sorted(KINDS)}", fix="pass kind='total', 'share' or 'percent'")
+        raise ParameterError(
+            f"kind={kind!r} is not known",
+            source="climwidgets.plot",
+            variable="kind",
+            expected=f"one of {sorted(KINDS)}",
+            fix="pass kind='total', 'share' or 'percent'",
+        )
     cmap, centre = KINDS[kind]
-    finite = np.asarray(values, dtype=float)[np.isfinite(np.asarray(values, dtype=float))] \
-        if values is not None else np.array([])
+    finite = (
+        np.asarray(values, dtype=float)[np.isfinite(np.asarray(values, dtype=float))]
+        if values is not None
+        else np.array([])
+    )
     if finite.size:
-        data_lo, data_hi = ((float(v) for v in np.percentile(finite, ROBUST_PERCENTILES)) if robust
-                            else (float(finite.min()), float(finite.max())))
+        data_lo, data_hi = (
+            (float(v) for v in np.percentile(finite, ROBUST_PERCENTILES))
+            if robust
+            else (float(finite.min()), float(finite.max()))
+        )
     else:
         data_lo, data_hi = 0.0, 1.0
     lo = vmin if vmin is not None else data_lo
@@ -217,8 +230,9 @@ def colour_style(kind: str = "total", values=None, vmin=None, vmax=None, robust:
     return cmap, float(lo), float(hi)
 
 
-def record_limits(field, centre: float = 0.0, percentile: float = 98.0, floor: float = 1.0,
-                  ceiling: float | None = None):
+def record_limits(
+    field, centre: float = 0.0, percentile: float = 98.0, floor: float = 1.0, ceiling: float | None = None
+):
     """Colour limits symmetric about ``centre``, fixed over a whole record.
 
     The half-width is the ``percentile`` of the absolute deviations from the centre over
@@ -292,8 +306,16 @@ def draw_field(ax, field, kind: str = "total", vmin=None, vmax=None, cax=None, l
     values = np.asarray(field.values, dtype=float)
     cmap, lo, hi = colour_style(kind, values, vmin, vmax)
     lon_e, lat_e = _edges(field)
-    mesh = ax.pcolormesh(lon_e, lat_e, np.ma.masked_invalid(values), cmap=cmap, vmin=lo, vmax=hi,
-                         transform=ccrs.PlateCarree(), shading="flat")
+    mesh = ax.pcolormesh(
+        lon_e,
+        lat_e,
+        np.ma.masked_invalid(values),
+        cmap=cmap,
+        vmin=lo,
+        vmax=hi,
+        transform=ccrs.PlateCarree(),
+        shading="flat",
+    )
     fig = ax.figure
     cbar = fig.colorbar(mesh, cax=cax, ax=None if cax is not None else ax, shrink=0.85)
     cbar.set_label(label or field_label(field))
@@ -348,9 +370,17 @@ def draw_basins(ax, basins, color="#d62728", labels=True, highlight=None, linewi
             pt = basin.geometry.representative_point()
             x, y = lonlat_to_map(ax.projection, pt.x, pt.y) if hasattr(ax, "projection") else ([pt.x], [pt.y])
             # annotation_clip: not drawn when the point is outside the view (matplotlib Annotation)
-            txt = ax.annotate(basin.name, xy=(float(x[0]), float(y[0])), xycoords="data", fontsize=7,
-                              color="black", ha="center", va="center", annotation_clip=True,
-                              bbox=dict(boxstyle="round,pad=0.15", fc="white", ec="none", alpha=0.7))
+            txt = ax.annotate(
+                basin.name,
+                xy=(float(x[0]), float(y[0])),
+                xycoords="data",
+                fontsize=7,
+                color="black",
+                ha="center",
+                va="center",
+                annotation_clip=True,
+                bbox=dict(boxstyle="round,pad=0.15", fc="white", ec="none", alpha=0.7),
+            )
             txt.set_clip_path(ax.patch)
             artists.append(txt)
     return artists
@@ -380,8 +410,11 @@ _MASK_NAMES = ("land", "land_mask", "landmask", "lsm", "land_binary_mask")
 
 
 def _is_mask(da) -> bool:
-    return da.dtype == bool or da.attrs.get("standard_name") == "land_binary_mask" or \
-        "land" in str(da.attrs.get("flag_meanings", ""))
+    return (
+        da.dtype == bool
+        or da.attrs.get("standard_name") == "land_binary_mask"
+        or "land" in str(da.attrs.get("flag_meanings", ""))
+    )
 
 
 def _mask_from_source(terrain):
@@ -434,8 +467,9 @@ def land_mask(terrain):
     if _is_mask(terrain):
         mask, where = terrain, "land mask"
     else:
-        coord = next((terrain.coords[c] for c in _MASK_NAMES if c in terrain.coords and terrain.coords[c].ndim == 2),
-                     None)
+        coord = next(
+            (terrain.coords[c] for c in _MASK_NAMES if c in terrain.coords and terrain.coords[c].ndim == 2), None
+        )
         mask, where = (coord, f"land mask '{coord.name}'") if coord is not None else (_mask_from_source(terrain), None)
         if mask is not None and where is None:
             where = f"land mask of {Path(str(terrain.attrs['sources'])).name}"
@@ -479,16 +513,26 @@ def draw_mask_outline(ax, mask, color="0.15", linewidth=0.7, label=None):
     x, y = _joined(_mask_lines(mask))
     if not x.size:
         return []
-    (line,) = ax.plot(x, y, color=color, lw=linewidth, transform=ccrs.PlateCarree(),
-                      label=label or mask.attrs.get("outline_source") or "land/sea outline")
+    (line,) = ax.plot(
+        x,
+        y,
+        color=color,
+        lw=linewidth,
+        transform=ccrs.PlateCarree(),
+        label=label or mask.attrs.get("outline_source") or "land/sea outline",
+    )
     return [line]
 
 
 def _layer_error(problem, source, fix="check the path"):
     from ..errors import SourceError
 
-    return SourceError(problem, source=source, fix=fix,
-                       expected="a GeoJSON (.geojson, .json) or shapefile (.shp) of lines or polygons in lon/lat")
+    return SourceError(
+        problem,
+        source=source,
+        fix=fix,
+        expected="a GeoJSON (.geojson, .json) or shapefile (.shp) of lines or polygons in lon/lat",
+    )
 
 
 def _geoms_of(obj):
@@ -526,8 +570,11 @@ def _read_shapefile_lines(shp):
         with shapefile.Reader(str(shp)) as reader:
             geoms = [shape(s.__geo_interface__) for s in reader.iterShapes() if s.points]
     except (shapefile.ShapefileException, OSError, ValueError) as exc:
-        raise _layer_error(f"cannot read the shapefile ({' '.join(str(exc).split())})", shp,
-                           fix="copy all parts of the shapefile (.shp, .shx, .prj) or save it as GeoJSON") from None
+        raise _layer_error(
+            f"cannot read the shapefile ({' '.join(str(exc).split())})",
+            shp,
+            fix="copy all parts of the shapefile (.shp, .shx, .prj) or save it as GeoJSON",
+        ) from None
     transform = _prj_transform(shp.with_suffix(".prj"))
     return [transform(g) for g in geoms] if transform is not None else geoms
 
@@ -569,20 +616,27 @@ def read_layer(source):
             try:
                 geoms = _geoms_of(_read_json(path))
             except (TypeError, ValueError, AttributeError, KeyError) as exc:
-                raise _layer_error(f"is not GeoJSON geometry ({exc})", path,
-                                   fix="save the layer as a GeoJSON FeatureCollection") from None
+                raise _layer_error(
+                    f"is not GeoJSON geometry ({exc})", path, fix="save the layer as a GeoJSON FeatureCollection"
+                ) from None
         elif suffix == ".shp":
             geoms = _read_shapefile_lines(path)
         else:
-            raise _layer_error(f"has the extension {path.suffix or '(none)'!r}", path,
-                               fix="save the layer as GeoJSON or as a shapefile")
+            raise _layer_error(
+                f"has the extension {path.suffix or '(none)'!r}",
+                path,
+                fix="save the layer as GeoJSON or as a shapefile",
+            )
         where = path
     else:
         try:
             geoms = _geoms_of(source)
         except (TypeError, ValueError, AttributeError, KeyError) as exc:
-            raise _layer_error(f"is not a geometry ({exc})", f"outline layer {type(source).__name__}",
-                               fix="pass a file path, a GeoJSON mapping or shapely geometries") from None
+            raise _layer_error(
+                f"is not a geometry ({exc})",
+                f"outline layer {type(source).__name__}",
+                fix="pass a file path, a GeoJSON mapping or shapely geometries",
+            ) from None
         where = f"outline layer {type(source).__name__}"
     geoms = [g for g in geoms if g is not None and not g.is_empty and g.geom_type not in ("Point", "MultiPoint")]
     if not geoms:
@@ -661,8 +715,11 @@ def add_coastlines(ax, resolution="50m", note=True):
     if path is None:
         if note and not _NOTED["coastlines"]:
             _NOTED["coastlines"] = True
-            warnings.warn("Natural Earth coastlines are not on disk: maps show the grid without coastlines.",
-                          UserWarning, stacklevel=2)
+            warnings.warn(
+                "Natural Earth coastlines are not on disk: maps show the grid without coastlines.",
+                UserWarning,
+                stacklevel=2,
+            )
         return None
     from cartopy.io.shapereader import Reader
 
@@ -671,8 +728,9 @@ def add_coastlines(ax, resolution="50m", note=True):
     return ax.add_geometries(geoms, ccrs.PlateCarree(), facecolor="none", edgecolor="0.2", linewidth=0.6)
 
 
-def map_field(field, basins=None, kind="total", title=None, ax=None, figsize=(6.4, 4.8), vmin=None,
-              vmax=None, coastlines=True):
+def map_field(
+    field, basins=None, kind="total", title=None, ax=None, figsize=(6.4, 4.8), vmin=None, vmax=None, coastlines=True
+):
     """A complete static map for reports: field, colour bar, basins, coastlines if on disk.
 
     Returns ``(figure, ax, mesh)``.  With ``ax=None`` a new figure is made (not shown).

@@ -25,8 +25,9 @@ def mark_low_agreement(ax, agreement, level: float):
     if not low.any():
         return None
     lon_e, lat_e = _edges(agreement)
-    marks = ax.pcolor(lon_e, lat_e, np.ma.masked_where(~low, np.ones_like(values)), transform=_ccrs().PlateCarree(),
-                      zorder=1.5)  # above the colours, under the basin outlines and names
+    marks = ax.pcolor(
+        lon_e, lat_e, np.ma.masked_where(~low, np.ones_like(values)), transform=_ccrs().PlateCarree(), zorder=1.5
+    )  # above the colours, under the basin outlines and names
     marks.set_facecolor("none")  # only the hatching: the colours of the change show through
     marks.set_edgecolor("0.2")
     marks.set_linewidth(0.0)

@@ -46,8 +46,9 @@ def map_figure(field, basins=(), kind: str = "total"):
     from ..plot.maps import map_field
 
     # squeeze extra singleton dims only: a one-cell grid keeps its lat/lon (or y/x) to draw
-    field = field.squeeze([d for d in field.dims if field.sizes[d] == 1 and d not in ("lat", "lon", "y", "x")],
-                          drop=True)
+    field = field.squeeze(
+        [d for d in field.dims if field.sizes[d] == 1 and d not in ("lat", "lon", "y", "x")], drop=True
+    )
     field.attrs = {**field.attrs, "long_name": plain_label(field.attrs.get("long_name", field.name or "value"))}
     with warnings.catch_warnings():
         warnings.simplefilter("ignore", UserWarning)  # "no coastlines on disk" is said in the caption
@@ -87,8 +88,14 @@ def share_figure(by_year, trends=None, season: str = ""):
         if name in trends:
             slope, intercept, p = trends[name]
             if np.isfinite(slope) and np.isfinite(intercept):
-                ax.plot(years, 100.0 * (intercept + slope * years), "--", color="#d95f02", lw=1.4,
-                        label=f"Sen slope {1000.0 * slope:+.2g} % points per decade (Mann–Kendall p = {p:.2f})")
+                ax.plot(
+                    years,
+                    100.0 * (intercept + slope * years),
+                    "--",
+                    color="#d95f02",
+                    lw=1.4,
+                    label=f"Sen slope {1000.0 * slope:+.2g} % points per decade (Mann–Kendall p = {p:.2f})",
+                )
         finite = values[np.isfinite(values)]
         if finite.size:
             mean = finite.mean()

@@ -14,26 +14,30 @@ from dataclasses import dataclass
 from datetime import datetime, timezone
 from pathlib import Path
 
-__all__ = ["InputRecord", "describe_input", "describe_inputs", "cautions_for_columns",
-           "VOLUME_CAUTIONS", "HASH_LIMIT_BYTES", "format_value"]
+__all__ = [
+    "InputRecord",
+    "describe_input",
+    "describe_inputs",
+    "cautions_for_columns",
+    "VOLUME_CAUTIONS",
+    "HASH_LIMIT_BYTES",
+    "format_value",
+]
 
 #: Files up to this size get a SHA-256 checksum; larger ones are identified by size and mtime.
 HASH_LIMIT_BYTES = 200 * 1024**2
 
 #: Cautions for basin volumes and other water-supply figures from gridded precipitation.
 VOLUME_CAUTIONS = (
-    "Planning-level estimates only: volumes are precipitation falling on the basin, not runoff "
-    "or yield.",
+    "Planning-level estimates only: volumes are precipitation falling on the basin, not runoff or yield.",
     "Gridded values smooth point extremes and local detail; basin means depend on the grid's "
     "resolution and on how the gridded product was made.",
-    "Normals and shares assume the climate of the record is stationary; a trend in the record "
-    "shifts them.",
+    "Normals and shares assume the climate of the record is stationary; a trend in the record shifts them.",
     "Defer to the jurisdiction's adopted design-rainfall estimates, local codes and "
     "licensed engineering practice for design.",
 )
 
-_DESIGN_WORDS = ("return_level", "return level", "estimate", "design", "annual_max", "_year_24h",
-                 "year_depth", "rl_")
+_DESIGN_WORDS = ("return_level", "return level", "estimate", "design", "annual_max", "_year_24h", "year_depth", "rl_")
 _VOLUME_WORDS = ("volume", "_m3", "acre_ft", "acre-ft")
 
 
@@ -42,11 +46,11 @@ class InputRecord:
     """One input: a file (with size and checksum or mtime) or a described object."""
 
     name: str
-    kind: str = "file"              # "file" or "object"
+    kind: str = "file"  # "file" or "object"
     size_bytes: int | None = None
     sha256: str | None = None
-    modified: str | None = None     # ISO time, for files too big to hash
-    detail: str = ""                # variable, dims, units, period …
+    modified: str | None = None  # ISO time, for files too big to hash
+    detail: str = ""  # variable, dims, units, period …
 
     def summary(self) -> str:
         """One plain line, e.g. 'grid.nc, 1.2 MB, sha256 ab12…'."""

@@ -80,9 +80,13 @@ class ReportContent:
 
     def __post_init__(self):
         if not isinstance(self.table, pd.DataFrame):
-            raise ParameterError(f"table is a {type(self.table).__name__}", source="ReportContent",
-                                 variable="table", expected="a pandas DataFrame such as cw.basin_summary(...)",
-                                 fix="pass the basin table")
+            raise ParameterError(
+                f"table is a {type(self.table).__name__}",
+                source="ReportContent",
+                variable="table",
+                expected="a pandas DataFrame such as cw.basin_summary(...)",
+                fix="pass the basin table",
+            )
         self.inputs = [i if isinstance(i, InputRecord) else describe_inputs(i)[0] for i in self.inputs]
         if self.cautions is None:
             cols = list(self.table.columns)
@@ -105,9 +109,17 @@ def _grid_detail(pr: xr.DataArray) -> str:
     return ", ".join(parts)
 
 
-def content_from_analysis(ds: xr.Dataset, basins, pr_attrs: dict, what: xr.Dataset | None = None,
-                          sources=None, title: str = DEFAULT_TITLE, notes=None, pr_detail: str = "",
-                          pr_name: str = "precipitation") -> ReportContent:
+def content_from_analysis(
+    ds: xr.Dataset,
+    basins,
+    pr_attrs: dict,
+    what: xr.Dataset | None = None,
+    sources=None,
+    title: str = DEFAULT_TITLE,
+    notes=None,
+    pr_detail: str = "",
+    pr_name: str = "precipitation",
+) -> ReportContent:
     """A :class:`ReportContent` from a computed :func:`cw.basin_table` (and :func:`cw.what_if`).
 
     Nothing is computed here: the numbers are those of the analysis, so the report, the
@@ -152,23 +164,41 @@ def content_from_analysis(ds: xr.Dataset, basins, pr_attrs: dict, what: xr.Datas
         what_if_table.index.name = "basin"
         smonths, percent = tuple(what.attrs["months"]), float(what.attrs["percent"])
         wi_title = f"What-if: {season_label(smonths)} precipitation {percent:+g} %"
-        wi_note = ("The season's mean precipitation over each basin is changed by the stated percentage; "
-                   "the rest of the year is unchanged, so the annual volume changes by the same amount. "
-                   "Volumes are precipitation on the basin, not runoff.")
+        wi_note = (
+            "The season's mean precipitation over each basin is changed by the stated percentage; "
+            "the rest of the year is unchanged, so the annual volume changes by the same amount. "
+            "Volumes are precipitation on the basin, not runoff."
+        )
         parameters["what-if change"] = f"{percent:+g} % in {season_label(smonths)}"
     inputs = describe_inputs(sources or [])
     inputs.append(InputRecord(name=str(pr_name), kind="object", detail=pr_detail))
     return ReportContent(
-        table=table, title=title, inputs=inputs, parameters=parameters, basins=basins, maps=maps,
-        monthly_normals=monthly, share_by_year=share_by_year, share_trends=trends,
-        what_if=what_if_table, what_if_title=wi_title, what_if_note=wi_note,
+        table=table,
+        title=title,
+        inputs=inputs,
+        parameters=parameters,
+        basins=basins,
+        maps=maps,
+        monthly_normals=monthly,
+        share_by_year=share_by_year,
+        share_trends=trends,
+        what_if=what_if_table,
+        what_if_title=wi_title,
+        what_if_note=wi_note,
         notes=list(notes or []) + ([ds.attrs["note"]] if "note" in ds.attrs else []),
         history=str(pr_attrs.get("history", "")),
     )
 
 
-def report_content(analysis: xr.Dataset, basins, pr: xr.DataArray, what: xr.Dataset | None = None,
-                   title: str = DEFAULT_TITLE, notes=None, sources=None) -> ReportContent:
+def report_content(
+    analysis: xr.Dataset,
+    basins,
+    pr: xr.DataArray,
+    what: xr.Dataset | None = None,
+    title: str = DEFAULT_TITLE,
+    notes=None,
+    sources=None,
+) -> ReportContent:
     """The basin report of a computed analysis: the one function behind the page's, the notebook's
     and the command line's report, so all three hold the same sections.
 
@@ -195,13 +225,24 @@ def report_content(analysis: xr.Dataset, basins, pr: xr.DataArray, what: xr.Data
     if sources is None:
         sources = [s for s in str(pr.attrs.get("sources", "")).split("; ") if s]
     notes = list(notes or []) + invented_data_notice(sources)
-    return content_from_analysis(analysis, basins, pr.attrs, what=what, sources=sources, title=title, notes=notes,
-                                 pr_detail=_grid_detail(pr), pr_name=str(pr.name or "precipitation"))
+    return content_from_analysis(
+        analysis,
+        basins,
+        pr.attrs,
+        what=what,
+        sources=sources,
+        title=title,
+        notes=notes,
+        pr_detail=_grid_detail(pr),
+        pr_name=str(pr.name or "precipitation"),
+    )
 
 
 #: Said in every report whose inputs are the invented demo data.
-INVENTED_DATA_NOTICE = ("The input data are invented (the climwidgets demo scenario): not observations and not "
-                        "a model run. The numbers show how the tool works; use them for nothing else.")
+INVENTED_DATA_NOTICE = (
+    "The input data are invented (the climwidgets demo scenario): not observations and not "
+    "a model run. The numbers show how the tool works; use them for nothing else."
+)
 
 
 def invented_data_notice(sources) -> list[str]:
@@ -225,10 +266,19 @@ def invented_data_notice(sources) -> list[str]:
     return []
 
 
-def build_report_content(pr: xr.DataArray, basins, months=(7, 8), baseline=(1991, 2020),
-                         sources=None, title: str = DEFAULT_TITLE, year_start: int = 1,
-                         scenario_percent: float | None = None, scenario_months=None,
-                         notes=None, bundle=None) -> ReportContent:
+def build_report_content(
+    pr: xr.DataArray,
+    basins,
+    months=(7, 8),
+    baseline=(1991, 2020),
+    sources=None,
+    title: str = DEFAULT_TITLE,
+    year_start: int = 1,
+    scenario_percent: float | None = None,
+    scenario_months=None,
+    notes=None,
+    bundle=None,
+) -> ReportContent:
     """Compute the figures of a basin report from a precipitation grid (mm per step).
 
     The numbers are :func:`cw.basin_table` (the table, the monthly normals and the
@@ -248,8 +298,14 @@ def build_report_content(pr: xr.DataArray, basins, months=(7, 8), baseline=(1991
     ds = basin_table(pr, basins, months=months, baseline=baseline, year_start=year_start, bundle=bundle)
     what = None
     if scenario_percent is not None:
-        what = what_if(pr, basins, months=tuple(scenario_months or months), percent=scenario_percent,
-                       year_start=year_start, bundle=bundle)
+        what = what_if(
+            pr,
+            basins,
+            months=tuple(scenario_months or months),
+            percent=scenario_percent,
+            year_start=year_start,
+            bundle=bundle,
+        )
     ds, what = compute(ds, what)
     return report_content(ds, basins, pr, what=what, title=title, notes=notes, sources=sources)
 

@@ -68,7 +68,6 @@ footer { margin-top: 2.5rem; font-size: .8rem; color: var(--muted); border-top: 
 """
 
 
-
 def _e(text) -> str:
     return html.escape(str(text), quote=True)
 
@@ -105,8 +104,7 @@ def _head(name, unit) -> str:
     return _e(name) + (f" <span class='unit'>({_e(unit)})</span>" if unit else "")
 
 
-def _table_html(table: pd.DataFrame, label_columns: bool = True, max_wide: int | None = 7,
-                units: str = "SI") -> str:
+def _table_html(table: pd.DataFrame, label_columns: bool = True, max_wide: int | None = 7, units: str = "SI") -> str:
     """A table; with more than ``max_wide`` columns and few rows it is turned on its side
     (one row per quantity, one column per basin) so that it fits a printed page."""
     t = table
@@ -114,15 +112,27 @@ def _table_html(table: pd.DataFrame, label_columns: bool = True, max_wide: int |
     labels = [_column_label(t, c, label_columns, units) for c in t.columns]
     if max_wide is not None and len(t.columns) > max_wide and len(t) <= 6:
         first = _e(t.index.name or "") if show_index else ""
-        out = ["<table class='sideways'><thead><tr><th scope='col'>" + first + "</th>"
-               + "".join(f"<th scope='col'>{_e(i)}</th>" for i in t.index) + "</tr></thead><tbody>"]
+        out = [
+            "<table class='sideways'><thead><tr><th scope='col'>"
+            + first
+            + "</th>"
+            + "".join(f"<th scope='col'>{_e(i)}</th>" for i in t.index)
+            + "</tr></thead><tbody>"
+        ]
         for col, (name, unit, scale, dec) in zip(t.columns, labels):
-            out.append(f"<tr><th scope='row'>{_head(name, unit)}</th>"
-                       + "".join(_cell(v, scale, dec) for v in t[col].tolist()) + "</tr>")
+            out.append(
+                f"<tr><th scope='row'>{_head(name, unit)}</th>"
+                + "".join(_cell(v, scale, dec) for v in t[col].tolist())
+                + "</tr>"
+            )
         out.append("</tbody></table>")
         return "\n".join(out)
-    out = ["<table><thead><tr>" + (f"<th scope='col'>{_e(t.index.name or '')}</th>" if show_index else "")
-           + "".join(f"<th scope='col'>{_head(n, u)}</th>" for n, u, _, _ in labels) + "</tr></thead><tbody>"]
+    out = [
+        "<table><thead><tr>"
+        + (f"<th scope='col'>{_e(t.index.name or '')}</th>" if show_index else "")
+        + "".join(f"<th scope='col'>{_head(n, u)}</th>" for n, u, _, _ in labels)
+        + "</tr></thead><tbody>"
+    ]
     for idx, row in zip(t.index, t.itertuples(index=False)):
         cells = [f"<th scope='row'>{_e(idx)}</th>"] if show_index else []
         cells += [_cell(v, scale, dec) for v, (_, _, scale, dec) in zip(row, labels)]
@@ -137,12 +147,11 @@ def _kv_table(pairs) -> str:
 
 
 def _figure(uri: str, caption: str, alt: str) -> str:
-    return (f"<figure><img src=\"{_e(uri)}\" alt=\"{_e(alt)}\">"
-            f"<figcaption>{_e(caption)}</figcaption></figure>")
+    return f'<figure><img src="{_e(uri)}" alt="{_e(alt)}"><figcaption>{_e(caption)}</figcaption></figure>'
 
 
 def _section(sid: str, title: str, body: str) -> str:
-    return f"<section id=\"{sid}\"><h2>{_e(title)}</h2>\n{body}\n</section>"
+    return f'<section id="{sid}"><h2>{_e(title)}</h2>\n{body}\n</section>'
 
 
 def _inputs_html(content: ReportContent) -> str:
@@ -151,12 +160,21 @@ def _inputs_html(content: ReportContent) -> str:
     rows = []
     for rec in content.inputs:
         size = "" if rec.size_bytes is None else f"{rec.size_bytes:,} bytes"
-        ident = (f"SHA-256 <span class='mono'>{_e(rec.sha256)}</span>" if rec.sha256 else
-                 f"modified {_e(rec.modified)} (not checksummed: larger than 200 MB)" if rec.modified else "")
-        rows.append(f"<tr><td class='mono'>{_e(rec.name)}</td><td>{_e(rec.kind)}</td>"
-                    f"<td class='num'>{_e(size)}</td><td>{ident}</td><td>{_e(rec.detail)}</td></tr>")
-    return ("<table><thead><tr><th>Input</th><th>Kind</th><th>Size</th><th>Identity</th><th>Details</th>"
-            "</tr></thead><tbody>" + "".join(rows) + "</tbody></table>")
+        ident = (
+            f"SHA-256 <span class='mono'>{_e(rec.sha256)}</span>"
+            if rec.sha256
+            else f"modified {_e(rec.modified)} (not checksummed: larger than 200 MB)"
+            if rec.modified
+            else ""
+        )
+        rows.append(
+            f"<tr><td class='mono'>{_e(rec.name)}</td><td>{_e(rec.kind)}</td>"
+            f"<td class='num'>{_e(size)}</td><td>{ident}</td><td>{_e(rec.detail)}</td></tr>"
+        )
+    return (
+        "<table><thead><tr><th>Input</th><th>Kind</th><th>Size</th><th>Identity</th><th>Details</th>"
+        "</tr></thead><tbody>" + "".join(rows) + "</tbody></table>"
+    )
 
 
 def render_html(content: ReportContent, figures: bool = True, units: str = "SI") -> str:
@@ -168,29 +186,41 @@ def render_html(content: ReportContent, figures: bool = True, units: str = "SI")
     from . import _figures as F
 
     system = unit_system(units, "render_html")
-    depth = unit_attrs({"units": "mm", "display_units": "mm", "display_scale": 1.0, "display_format": ",.1f"},
-                       system)  # the monthly normals: mm to one decimal, inches to two
+    depth = unit_attrs(
+        {"units": "mm", "display_units": "mm", "display_scale": 1.0, "display_format": ",.1f"}, system
+    )  # the monthly normals: mm to one decimal, inches to two
     parts = []
     stamp = content.created.strftime("%Y-%m-%d %H:%M UTC")
     parts.append(
         f"<header><h1>{_e(content.title)}</h1>"
         f"<p>Prepared {_e(stamp)} with climwidgets {_e(__version__)}</p>"
-        f"<p>{len(content.table)} basin(s)</p></header>")
+        f"<p>{len(content.table)} basin(s)</p></header>"
+    )
     if content.cautions:
-        parts.append("<div class='notice'><strong>Planning-level figures.</strong> "
-                     "Read the cautions at the end of this report before using these numbers.</div>")
+        parts.append(
+            "<div class='notice'><strong>Planning-level figures.</strong> "
+            "Read the cautions at the end of this report before using these numbers.</div>"
+        )
     parts.append(_section("inputs", "Inputs", _inputs_html(content)))
     params = list(content.parameters.items()) + [("units shown", UNIT_SYSTEMS[system])]
     parts.append(_section("parameters", "Parameters", _kv_table(params)))
-    parts.append(_section("basins", "Basin summary",
-                          "<div id='basin-table'>" + _table_html(to_units(content.table, system), units=system) + "</div>"
-                          + "".join(f"<p>{_e(str(n)[:1].upper() + str(n)[1:])}</p>" for n in content.notes)))
+    parts.append(
+        _section(
+            "basins",
+            "Basin summary",
+            "<div id='basin-table'>"
+            + _table_html(to_units(content.table, system), units=system)
+            + "</div>"
+            + "".join(f"<p>{_e(str(n)[:1].upper() + str(n)[1:])}</p>" for n in content.notes),
+        )
+    )
     if figures and content.maps:
         body = []
         for caption, (field, kind) in content.maps.items():
             fig = F.map_figure(field_in_units(field, system)[0], content.basins, kind=kind)
-            body.append(_figure(F.png_data_uri(fig), caption + ". Basin outlines in red; grid cells as drawn.",
-                                alt=caption))
+            body.append(
+                _figure(F.png_data_uri(fig), caption + ". Basin outlines in red; grid cells as drawn.", alt=caption)
+            )
         body.append("<p>Coastlines are drawn only when map data is on the computer; the grid is shown as is.</p>")
         parts.append(_section("maps", "Maps", "\n".join(body)))
     if figures and content.monthly_normals is not None and not content.monthly_normals.empty:
@@ -199,20 +229,45 @@ def render_html(content: ReportContent, figures: bool = True, units: str = "SI")
         table = normals.T.copy()  # one row per basin, one column per month
         table.columns = [MONTH_NAMES[int(m) - 1] for m in table.columns]
         table.index.name = f"basin ({depth['display_units']})"
-        table.attrs = {"columns": {m: {"label": m, "units": "", "display_units": "", "display_scale": 1.0,
-                                       "display_format": depth["display_format"]} for m in table.columns}}
-        parts.append(_section("normals", "Monthly normals",
-                              _figure(F.png_data_uri(fig), "Area-weighted monthly normal precipitation of each basin "
-                                      f"({depth['display_units']}).", alt="monthly normals chart")
-                              + _table_html(table, max_wide=None)))
+        table.attrs = {
+            "columns": {
+                m: {
+                    "label": m,
+                    "units": "",
+                    "display_units": "",
+                    "display_scale": 1.0,
+                    "display_format": depth["display_format"],
+                }
+                for m in table.columns
+            }
+        }
+        parts.append(
+            _section(
+                "normals",
+                "Monthly normals",
+                _figure(
+                    F.png_data_uri(fig),
+                    f"Area-weighted monthly normal precipitation of each basin ({depth['display_units']}).",
+                    alt="monthly normals chart",
+                )
+                + _table_html(table, max_wide=None),
+            )
+        )
     if figures and content.share_by_year is not None and not content.share_by_year.empty:
         season = str(content.parameters.get("season (months)", "")).split(" (")[0]
         fig = F.share_figure(content.share_by_year, content.share_trends, season=season)
-        text = ("Share of each year's basin precipitation that fell in the season. The dashed line is the "
-                "Sen slope; the Mann–Kendall p-value says how likely a trend this strong is by chance alone.")
+        text = (
+            "Share of each year's basin precipitation that fell in the season. The dashed line is the "
+            "Sen slope; the Mann–Kendall p-value says how likely a trend this strong is by chance alone."
+        )
         extra = "" if len(content.share_by_year.columns) <= 8 else "<p>Only the first eight basins are drawn.</p>"
-        parts.append(_section("share", "Seasonal share over time",
-                              _figure(F.png_data_uri(fig), text, alt="seasonal share by year") + extra))
+        parts.append(
+            _section(
+                "share",
+                "Seasonal share over time",
+                _figure(F.png_data_uri(fig), text, alt="seasonal share by year") + extra,
+            )
+        )
     if content.what_if is not None:
         body = _table_html(to_units(content.what_if, system), units=system)
         if content.what_if_note:
@@ -220,21 +275,37 @@ def render_html(content: ReportContent, figures: bool = True, units: str = "SI")
         parts.append(_section("what-if", content.what_if_title, body))
     parts.extend(getattr(content, "extra_sections", ()) or ())  # e.g. report.indices_section
     cautions = content.cautions or ("Planning-level figures from gridded data.",)
-    parts.append(_section("cautions", "Cautions",
-                          "<ol class='cautions'>" + "".join(f"<li>{_e(c)}</li>" for c in cautions) + "</ol>"))
+    parts.append(
+        _section(
+            "cautions", "Cautions", "<ol class='cautions'>" + "".join(f"<li>{_e(c)}</li>" for c in cautions) + "</ol>"
+        )
+    )
     if content.history:
         parts.append(_section("provenance", "Provenance", f"<pre>{_e(content.history)}</pre>"))
-    parts.append(f"<footer><p>climwidgets {_e(__version__)}. Figures are planning-level estimates; "
-                 f"see Cautions.</p></footer>")
-    return ("<!DOCTYPE html>\n<html lang=\"en\"><head><meta charset=\"utf-8\">"
-            "<meta name=\"viewport\" content=\"width=device-width, initial-scale=1\">"
-            f"<title>{_e(content.title)}</title><style>{_CSS}</style></head>\n<body>\n"
-            + "\n".join(parts) + "\n</body></html>\n")
+    parts.append(
+        f"<footer><p>climwidgets {_e(__version__)}. Figures are planning-level estimates; see Cautions.</p></footer>"
+    )
+    return (
+        '<!DOCTYPE html>\n<html lang="en"><head><meta charset="utf-8">'
+        '<meta name="viewport" content="width=device-width, initial-scale=1">'
+        f"<title>{_e(content.title)}</title><style>{_CSS}</style></head>\n<body>\n"
+        + "\n".join(parts)
+        + "\n</body></html>\n"
+    )
 
 
-def write_report(summary, path, overwrite: bool = False, title: str | None = None, inputs=None,
-                 parameters: dict | None = None, cautions=None, notes=None, figures: bool = True,
-                 units: str = "SI") -> Path:
+def write_report(
+    summary,
+    path,
+    overwrite: bool = False,
+    title: str | None = None,
+    inputs=None,
+    parameters: dict | None = None,
+    cautions=None,
+    notes=None,
+    figures: bool = True,
+    units: str = "SI",
+) -> Path:
     """Write a self-contained HTML report, atomically.
 
     Parameters
@@ -270,10 +341,13 @@ def write_report(summary, path, overwrite: bool = False, title: str | None = Non
     elif isinstance(summary, ReportContent):
         content = summary
     else:
-        raise ParameterError(f"cannot report a {type(summary).__name__}", source="write_report",
-                             variable="summary",
-                             expected="a ReportContent or a basin table (pandas DataFrame)",
-                             fix="pass cw.basin_summary(...) or build_report_content(pr, basins)")
+        raise ParameterError(
+            f"cannot report a {type(summary).__name__}",
+            source="write_report",
+            variable="summary",
+            expected="a ReportContent or a basin table (pandas DataFrame)",
+            fix="pass cw.basin_summary(...) or build_report_content(pr, basins)",
+        )
     changes = {}
     if title is not None:
         changes["title"] = str(title)

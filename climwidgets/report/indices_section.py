@@ -24,9 +24,14 @@ from ..compute.warming import DESIGN_DEPTH_CAUTIONS
 __all__ = ["indices_section", "ddf_section", "indices_csv", "ddf_csv", "INDEX_CONVENTIONS"]
 
 #: dataset attrs of cw.precip_indices that state its conventions, with their plain headings
-INDEX_CONVENTIONS = (("wet_day", "Wet day"), ("spell_convention", "Spells"), ("percentile_method", "Percentiles"),
-                     ("base_period", "Percentile base period"), ("missing_rule", "Missing days"),
-                     ("year_label", "Year"))
+INDEX_CONVENTIONS = (
+    ("wet_day", "Wet day"),
+    ("spell_convention", "Spells"),
+    ("percentile_method", "Percentiles"),
+    ("base_period", "Percentile base period"),
+    ("missing_rule", "Missing days"),
+    ("year_label", "Year"),
+)
 
 
 def _e(text) -> str:
@@ -43,15 +48,19 @@ def _table(df: pd.DataFrame) -> str:
     for idx, row in zip(df.index, df.itertuples(index=False)):
         keys = idx if isinstance(idx, tuple) else (idx,)
         cells = "".join(f"<th scope='row'>{_e(k)}</th>" for k in keys)
-        cells += "".join(f"<td class='num'>{_e(format_cell(v, described.get(c, {})))}</td>"
-                         for c, v in zip(df.columns, row))
+        cells += "".join(
+            f"<td class='num'>{_e(format_cell(v, described.get(c, {})))}</td>" for c, v in zip(df.columns, row)
+        )
         rows.append(f"<tr>{cells}</tr>")
     return f"<table><thead><tr>{head}</tr></thead><tbody>{''.join(rows)}</tbody></table>"
 
 
 def _cautions(cautions) -> str:
-    return ("<div class='notice'><strong>Design-depth cautions</strong><ol class='cautions'>"
-            + "".join(f"<li>{_e(c)}</li>" for c in cautions) + "</ol></div>")
+    return (
+        "<div class='notice'><strong>Design-depth cautions</strong><ol class='cautions'>"
+        + "".join(f"<li>{_e(c)}</li>" for c in cautions)
+        + "</ol></div>"
+    )
 
 
 def indices_section(table: xr.Dataset, maps=None) -> str:
@@ -63,17 +72,21 @@ def indices_section(table: xr.Dataset, maps=None) -> str:
     name = table.attrs.get("index", "")
     years = f"{table.attrs.get('first_year', '')}-{table.attrs.get('last_year', '')}"
     shown = index_table(table, display=True)
-    body = [f"<p>ETCCDI index {_e(name)} per basin over {_e(years)}: the mean, the Sen slope (per decade) and "
-            f"the two-sided Mann-Kendall p of the basin's per-year values. {_e(table.attrs.get('note', ''))}.</p>",
-            _table(shown)]
+    body = [
+        f"<p>ETCCDI index {_e(name)} per basin over {_e(years)}: the mean, the Sen slope (per decade) and "
+        f"the two-sided Mann-Kendall p of the basin's per-year values. {_e(table.attrs.get('note', ''))}.</p>",
+        _table(shown),
+    ]
     for uri, caption in maps or ():
-        body.append(f"<figure><img src=\"{_e(uri)}\" alt=\"{_e(caption)}\"><figcaption>{_e(caption)}"
-                    "</figcaption></figure>")
+        body.append(f'<figure><img src="{_e(uri)}" alt="{_e(caption)}"><figcaption>{_e(caption)}</figcaption></figure>')
     conv = [(label, table.attrs[key]) for key, label in INDEX_CONVENTIONS if key in table.attrs]
     if conv:
-        body.append("<table class='kv'><tbody>" + "".join(
-            f"<tr><th scope='row'>{_e(k)}</th><td>{_e(v)}</td></tr>" for k, v in conv) + "</tbody></table>")
-    return f"<section id=\"indices\"><h2>Precipitation indices: {_e(name)}</h2>\n" + "\n".join(body) + "\n</section>"
+        body.append(
+            "<table class='kv'><tbody>"
+            + "".join(f"<tr><th scope='row'>{_e(k)}</th><td>{_e(v)}</td></tr>" for k, v in conv)
+            + "</tbody></table>"
+        )
+    return f'<section id="indices"><h2>Precipitation indices: {_e(name)}</h2>\n' + "\n".join(body) + "\n</section>"
 
 
 def ddf_section(ds: xr.Dataset, basin=None) -> str:
@@ -83,12 +96,16 @@ def ddf_section(ds: xr.Dataset, basin=None) -> str:
     where = basin if basin is not None else ("" if "basin" not in ds.dims else str(ds["basin"].values[0]))
     long = ddf_long_table(ds, basin, display=True)
     heading = column_heading({"label": "depth", "display_units": units})
-    body = [_cautions(ds.attrs.get("cautions") or DESIGN_DEPTH_CAUTIONS),
-            f"<p>{_e(heading)} by duration (rows) and return period (columns){' for ' + _e(where) if where else ''}. "
-            f"Areal method: {_e(ds.attrs.get('areal', ''))}. Consistency across durations: "
-            f"{_e(ds.attrs.get('consistency', ''))}.</p>",
-            _table(wide), "<p>With the bootstrap interval:</p>", _table(long)]
-    return "<section id=\"ddf\"><h2>Depth-duration-frequency table</h2>\n" + "\n".join(body) + "\n</section>"
+    body = [
+        _cautions(ds.attrs.get("cautions") or DESIGN_DEPTH_CAUTIONS),
+        f"<p>{_e(heading)} by duration (rows) and return period (columns){' for ' + _e(where) if where else ''}. "
+        f"Areal method: {_e(ds.attrs.get('areal', ''))}. Consistency across durations: "
+        f"{_e(ds.attrs.get('consistency', ''))}.</p>",
+        _table(wide),
+        "<p>With the bootstrap interval:</p>",
+        _table(long),
+    ]
+    return '<section id="ddf"><h2>Depth-duration-frequency table</h2>\n' + "\n".join(body) + "\n</section>"
 
 
 def indices_csv(table: xr.Dataset, path, overwrite: bool = False, inputs=None):
@@ -97,12 +114,21 @@ def indices_csv(table: xr.Dataset, path, overwrite: bool = False, inputs=None):
 
     stored = index_table(table)
     units = {c: stored.attrs["columns"][c].get("units", "") for c in stored.columns}
-    notes = [table.attrs.get("note", "")] + [f"{label}: {table.attrs[key]}" for key, label in INDEX_CONVENTIONS
-                                             if key in table.attrs]
+    notes = [table.attrs.get("note", "")] + [
+        f"{label}: {table.attrs[key]}" for key, label in INDEX_CONVENTIONS if key in table.attrs
+    ]
     notes.append("units: " + ", ".join(f"{c} [{u}]" for c, u in units.items() if u))
-    return to_csv(stored, path, overwrite=overwrite,
-                  provenance={"title": f"ETCCDI index {table.attrs.get('index', '')} per basin",
-                              "inputs": inputs, "notes": notes, "cautions": []})
+    return to_csv(
+        stored,
+        path,
+        overwrite=overwrite,
+        provenance={
+            "title": f"ETCCDI index {table.attrs.get('index', '')} per basin",
+            "inputs": inputs,
+            "notes": notes,
+            "cautions": [],
+        },
+    )
 
 
 def ddf_csv(ds: xr.Dataset, path, basin=None, overwrite: bool = False, inputs=None):
@@ -112,8 +138,14 @@ def ddf_csv(ds: xr.Dataset, path, basin=None, overwrite: bool = False, inputs=No
     stored = ddf_long_table(ds, basin)
     units = str(ds["estimate"].attrs.get("units", "mm"))
     stored = stored.rename(columns={c: f"{c}_{units}" for c in stored.columns})
-    return to_csv(stored, path, overwrite=overwrite,
-                  provenance={"title": "depth-duration-frequency table", "inputs": inputs,
-                              "notes": [f"depths in {units}", str(ds.attrs.get("areal", "")),
-                                        str(ds.attrs.get("consistency", ""))],
-                              "cautions": list(ds.attrs.get("cautions") or DESIGN_DEPTH_CAUTIONS)})
+    return to_csv(
+        stored,
+        path,
+        overwrite=overwrite,
+        provenance={
+            "title": "depth-duration-frequency table",
+            "inputs": inputs,
+            "notes": [f"depths in {units}", str(ds.attrs.get("areal", "")), str(ds.attrs.get("consistency", ""))],
+            "cautions": list(ds.attrs.get("cautions") or DESIGN_DEPTH_CAUTIONS),
+        },
+    )

@@ -73,7 +73,7 @@ def _clean_value(value):
     if isinstance(value, (str, np.str_)):
         return str(value)
     if isinstance(value, numbers.Integral):
-        return np.int32(value) if -2**31 < int(value) < 2**31 else np.float64(value)
+        return np.int32(value) if -(2**31) < int(value) < 2**31 else np.float64(value)
     if isinstance(value, numbers.Real):
         return np.float64(value)
     if isinstance(value, (datetime, date, np.datetime64)):
@@ -110,7 +110,8 @@ def _clean_attrs(attrs: dict, drop=()) -> dict:
 # ----------------------------------------------------------------- coordinates
 def _is_time_like(var) -> bool:
     return np.issubdtype(var.dtype, np.datetime64) or (
-        var.dtype == object and var.size > 0 and hasattr(np.ravel(var.values)[0], "calendar"))
+        var.dtype == object and var.size > 0 and hasattr(np.ravel(var.values)[0], "calendar")
+    )
 
 
 def _time_bounds(time: xr.DataArray, step: str):
@@ -158,7 +159,7 @@ def _int_dtype(var):
         if var.size == 0 or var.chunks is not None:
             return np.int32
         vals = np.asarray(var.values)
-        if vals.min() > -2**31 and vals.max() < 2**31:
+        if vals.min() > -(2**31) and vals.max() < 2**31:
             return np.int32
         return np.float64
     return None
@@ -170,21 +171,33 @@ def _as_dataset(obj) -> tuple[xr.Dataset, str]:
         name = obj.name if obj.name is not None else "data"
         name = str(name)
         if name in obj.coords or name in _BOUND_COORDS:
-            raise ParameterError(f"the DataArray is named {name!r}, like one of its coordinates",
-                                 source="to_netcdf", variable=name, expected="a variable name distinct from its coordinates",
-                                 fix="rename it first, e.g. da.rename('pr')")
+            raise ParameterError(
+                f"the DataArray is named {name!r}, like one of its coordinates",
+                source="to_netcdf",
+                variable=name,
+                expected="a variable name distinct from its coordinates",
+                fix="rename it first, e.g. da.rename('pr')",
+            )
         ds = obj.to_dataset(name=name).copy(deep=False)
         ds.attrs = {"history": obj.attrs["history"]} if "history" in obj.attrs else {}
         ds[name].attrs = {k: v for k, v in obj.attrs.items() if k != "history"}
         return ds, f"DataArray '{name}'"
     if isinstance(obj, xr.Dataset):
         if not obj.data_vars:
-            raise ParameterError("the Dataset holds no data variables", source="to_netcdf",
-                                 expected="at least one data variable", fix="pass the result Dataset, not an empty one")
+            raise ParameterError(
+                "the Dataset holds no data variables",
+                source="to_netcdf",
+                expected="at least one data variable",
+                fix="pass the result Dataset, not an empty one",
+            )
         return obj.copy(deep=False), "Dataset"
-    raise ParameterError(f"cannot write a {type(obj).__name__}", source="to_netcdf", variable="obj",
-                         expected="an xarray DataArray or Dataset",
-                         fix="pass a result of the suite; for tables (pandas) use cw.to_csv")
+    raise ParameterError(
+        f"cannot write a {type(obj).__name__}",
+        source="to_netcdf",
+        variable="obj",
+        expected="an xarray DataArray or Dataset",
+        fix="pass a result of the suite; for tables (pandas) use cw.to_csv",
+    )
 
 
 def _looks_like_precip(name: str, attrs: dict) -> bool:
@@ -195,8 +208,14 @@ def _looks_like_precip(name: str, attrs: dict) -> bool:
     if "standard_name" in attrs:
         return False
     text = str(attrs.get("long_name", "")).lower()
-    return (name.lower() in _PRECIP_NAMES or "step" in attrs or "cell_methods" in attrs
-            or "precipitation" in text or "return level" in text or "interval" in text)
+    return (
+        name.lower() in _PRECIP_NAMES
+        or "step" in attrs
+        or "cell_methods" in attrs
+        or "precipitation" in text
+        or "return level" in text
+        or "interval" in text
+    )
 
 
 def _add_grid(ds: xr.Dataset, notes: list) -> xr.Dataset:
@@ -373,8 +392,10 @@ def _disk_full_error(exc: BaseException, ds: xr.Dataset, tmp: Path) -> OSError |
         return None
     if free > max(_FULL_DISK_MARGIN, _largest_chunk_bytes(ds)):
         return None
-    return OSError(errno.ENOSPC, f"{os.strerror(errno.ENOSPC)} ({free} bytes free; the netCDF library said: "
-                                 f"{' '.join(str(exc).split())})")
+    return OSError(
+        errno.ENOSPC,
+        f"{os.strerror(errno.ENOSPC)} ({free} bytes free; the netCDF library said: {' '.join(str(exc).split())})",
+    )
 
 
 # Lazy results up to this size are computed in memory before the file is opened, so that an
@@ -438,8 +459,14 @@ def _write_in_worker(ds: xr.Dataset, tmp: Path, encoding: dict) -> None:
         raise error
 
 
-def to_netcdf(obj, path, overwrite: bool = False, title: str | None = None,
-              source: str | None = None, institution: str | None = None) -> Path:
+def to_netcdf(
+    obj,
+    path,
+    overwrite: bool = False,
+    title: str | None = None,
+    source: str | None = None,
+    institution: str | None = None,
+) -> Path:
     """Write a DataArray or Dataset to a CF-1.10 NetCDF file, atomically.
 
     Parameters

@@ -28,8 +28,11 @@ __all__ = ["depth_section", "scenario_report", "scenario_section", "write_scenar
 
 
 def _cautions_box(cautions) -> str:
-    return ("<div class='notice'><strong>Before using these numbers:</strong><ol class='cautions'>"
-            + "".join(f"<li>{_e(c)}</li>" for c in cautions) + "</ol></div>")
+    return (
+        "<div class='notice'><strong>Before using these numbers:</strong><ol class='cautions'>"
+        + "".join(f"<li>{_e(c)}</li>" for c in cautions)
+        + "</ol></div>"
+    )
 
 
 def scenario_section(signals: xr.Dataset, title: str = "Climate-change scenario") -> str:
@@ -54,12 +57,18 @@ def scenario_section(signals: xr.Dataset, title: str = "Climate-change scenario"
     hp, fp = signals.attrs.get("historical_period", ["?", "?"]), signals.attrs.get("future_period", ["?", "?"])
     season = signals.attrs.get("season") or ", ".join(str(m) for m in signals.attrs.get("months", []))
     compared = signals.attrs.get("comparison")
-    what = (f"<p>Historical period {_e(hp[0])}–{_e(hp[1])}, future period {_e(fp[0])}–{_e(fp[1])}; "
-            f"season {_e(season)}. "
-            + (f"Compared: {_e(compared)}. " if compared else "")
-            + ("Each change is shown as the ensemble mean with the lowest and highest member and the "
-               "share of members agreeing on its sign." if ensemble else "A single run: no ensemble spread.")
-            + "</p>")
+    what = (
+        f"<p>Historical period {_e(hp[0])}–{_e(hp[1])}, future period {_e(fp[0])}–{_e(fp[1])}; "
+        f"season {_e(season)}. "
+        + (f"Compared: {_e(compared)}. " if compared else "")
+        + (
+            "Each change is shown as the ensemble mean with the lowest and highest member and the "
+            "share of members agreeing on its sign."
+            if ensemble
+            else "A single run: no ensemble spread."
+        )
+        + "</p>"
+    )
     return _section("scenario", title, notice + "\n" + what + "\n" + _table_html(table, max_wide=99))
 
 
@@ -79,19 +88,32 @@ def depth_section(depths: xr.Dataset, title: str = "Change in design depths") ->
         HTML: the design-depth cautions, the periods and the table.
     """
     ensemble = depths.attrs.get("member_dim", "none") != "none"
-    names = [n for n in depths.data_vars if set(depths[n].dims) == {"basin", "return_period"}] if ensemble \
+    names = (
+        [n for n in depths.data_vars if set(depths[n].dims) == {"basin", "return_period"}]
+        if ensemble
         else ["historical_depth_mm", "future_depth_mm", "depth_change_1"]
+    )
     table = frame(depths, index=("basin", "return_period"), columns=names)
     hp, fp = depths.attrs.get("historical_period", ["?", "?"]), depths.attrs.get("future_period", ["?", "?"])
-    text = (f"<p>Areal {_e(depths.attrs.get('duration', ''))} design depths (return level of the basin-mean annual "
-            f"maxima, GEV by L-moments) of the model runs as they are, {_e(hp[0])}–{_e(hp[1])} against "
-            f"{_e(fp[0])}–{_e(fp[1])}.</p>")
-    return _section("scenario-depths", title, _cautions_box(depths.attrs.get("cautions", [])) + text
-                    + _table_html(table, max_wide=99))
+    text = (
+        f"<p>Areal {_e(depths.attrs.get('duration', ''))} design depths (return level of the basin-mean annual "
+        f"maxima, GEV by L-moments) of the model runs as they are, {_e(hp[0])}–{_e(hp[1])} against "
+        f"{_e(fp[0])}–{_e(fp[1])}.</p>"
+    )
+    return _section(
+        "scenario-depths",
+        title,
+        _cautions_box(depths.attrs.get("cautions", [])) + text + _table_html(table, max_wide=99),
+    )
 
 
-def scenario_report(signals: xr.Dataset, inputs=None, parameters: dict | None = None, depths=None,
-                    title: str = "Climate-change signals per basin") -> str:
+def scenario_report(
+    signals: xr.Dataset,
+    inputs=None,
+    parameters: dict | None = None,
+    depths=None,
+    title: str = "Climate-change signals per basin",
+) -> str:
     """One self-contained HTML page: cautions, basin signals, design depths, inputs, parameters.
 
     Parameters
@@ -112,9 +134,11 @@ def scenario_report(signals: xr.Dataset, inputs=None, parameters: dict | None = 
     str
         The HTML page (no scripts, nothing fetched).
     """
-    parts = [f"<header><h1>{_e(title)}</h1><p>Prepared with climwidgets {_e(__version__)}</p>"
-             f"<p>{signals.sizes.get('basin', 0)} basin(s)</p></header>",
-             scenario_section(signals)]
+    parts = [
+        f"<header><h1>{_e(title)}</h1><p>Prepared with climwidgets {_e(__version__)}</p>"
+        f"<p>{signals.sizes.get('basin', 0)} basin(s)</p></header>",
+        scenario_section(signals),
+    ]
     if depths is not None:
         parts.append(depth_section(depths))
     listed = ReportContent(table=pd.DataFrame(), inputs=describe_inputs(inputs))  # only its inputs are read
@@ -123,12 +147,15 @@ def scenario_report(signals: xr.Dataset, inputs=None, parameters: dict | None = 
     parts.append(_section("parameters", "Parameters", _kv_table(params)))
     if signals.attrs.get("history"):
         parts.append(_section("provenance", "Provenance", f"<pre>{_e(signals.attrs['history'])}</pre>"))
-    parts.append(f"<footer><p>climwidgets {_e(__version__)}. Projections, not forecasts: see the cautions at the "
-                 f"top.</p></footer>")
-    return ("<!DOCTYPE html>\n<html lang=\"en\"><head><meta charset=\"utf-8\">"
-            "<meta name=\"viewport\" content=\"width=device-width, initial-scale=1\">"
-            f"<title>{_e(title)}</title><style>{_CSS}</style></head>\n<body>\n"
-            + "\n".join(parts) + "\n</body></html>\n")
+    parts.append(
+        f"<footer><p>climwidgets {_e(__version__)}. Projections, not forecasts: see the cautions at the "
+        f"top.</p></footer>"
+    )
+    return (
+        '<!DOCTYPE html>\n<html lang="en"><head><meta charset="utf-8">'
+        '<meta name="viewport" content="width=device-width, initial-scale=1">'
+        f"<title>{_e(title)}</title><style>{_CSS}</style></head>\n<body>\n" + "\n".join(parts) + "\n</body></html>\n"
+    )
 
 
 def write_scenario_report(signals: xr.Dataset, path, overwrite: bool = False, **kwargs) -> Path:

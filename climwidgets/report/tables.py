@@ -43,8 +43,16 @@ from ..errors import ParameterError
 from ..atomic import atomic_write, check_target, staged_outputs
 from ._provenance import cautions_for_columns, describe_inputs, format_value
 
-__all__ = ["to_csv", "csv_files", "read_csv", "read_metadata", "metadata_path", "metadata", "guard_formulas",
-           "column_units"]
+__all__ = [
+    "to_csv",
+    "csv_files",
+    "read_csv",
+    "read_metadata",
+    "metadata_path",
+    "metadata",
+    "guard_formulas",
+    "column_units",
+]
 
 # Cells a spreadsheet would run as a formula (OWASP "CSV injection"): text starting so
 # gets a leading apostrophe, which spreadsheets show as text.
@@ -88,10 +96,13 @@ def metadata(table: pd.DataFrame, provenance=None, what: str = "table", file_nam
     prov = dict(provenance or {}) if not isinstance(provenance, str) else {"notes": [provenance]}
     unknown = set(prov) - {"inputs", "parameters", "notes", "cautions", "title"}
     if unknown:
-        raise ParameterError(f"provenance has unknown keys {sorted(unknown)}", source="to_csv",
-                             variable="provenance",
-                             expected="a dict with keys inputs, parameters, notes, cautions, title",
-                             fix="e.g. provenance={'inputs': ['grid.nc'], 'parameters': {'months': (7, 8)}}")
+        raise ParameterError(
+            f"provenance has unknown keys {sorted(unknown)}",
+            source="to_csv",
+            variable="provenance",
+            expected="a dict with keys inputs, parameters, notes, cautions, title",
+            fix="e.g. provenance={'inputs': ['grid.nc'], 'parameters': {'months': (7, 8)}}",
+        )
     records = describe_inputs(prov.get("inputs"))
     params = dict(table.attrs or {})
     params.pop("note", None)
@@ -154,8 +165,10 @@ def _guard(v):
 
 def _guard_index(index: pd.Index) -> pd.Index:
     if isinstance(index, pd.MultiIndex):
-        levels = [lvl.map(_guard) if (lvl.dtype == object or pd.api.types.is_string_dtype(lvl)) else lvl
-                  for lvl in index.levels]
+        levels = [
+            lvl.map(_guard) if (lvl.dtype == object or pd.api.types.is_string_dtype(lvl)) else lvl
+            for lvl in index.levels
+        ]
         names = [_guard(n) for n in index.names]
         return index.set_levels(levels, verify_integrity=False).set_names(names)
     out = index.map(_guard) if (index.dtype == object or pd.api.types.is_string_dtype(index)) else index
@@ -181,15 +194,26 @@ def _keep_index(table: pd.DataFrame) -> bool:
 
 def _check_table(table):
     if not isinstance(table, pd.DataFrame):
-        hint = "use cw.to_netcdf for xarray objects" if hasattr(table, "dims") else \
-            "build a DataFrame first (pandas.DataFrame(...) or series.to_frame())"
-        raise ParameterError(f"cannot write a {type(table).__name__} as a table", source="to_csv",
-                             variable="table", expected="a pandas DataFrame", fix=hint)
+        hint = (
+            "use cw.to_netcdf for xarray objects"
+            if hasattr(table, "dims")
+            else "build a DataFrame first (pandas.DataFrame(...) or series.to_frame())"
+        )
+        raise ParameterError(
+            f"cannot write a {type(table).__name__} as a table",
+            source="to_csv",
+            variable="table",
+            expected="a pandas DataFrame",
+            fix=hint,
+        )
     if isinstance(table.columns, pd.MultiIndex):
-        raise ParameterError("a table with several header rows cannot be read back by a plain "
-                             "pandas.read_csv", source="to_csv", variable="table.columns",
-                             expected="one row of column names",
-                             fix="join the levels, e.g. table.columns = [' '.join(map(str, c)) for c in table.columns]")
+        raise ParameterError(
+            "a table with several header rows cannot be read back by a plain pandas.read_csv",
+            source="to_csv",
+            variable="table.columns",
+            expected="one row of column names",
+            fix="join the levels, e.g. table.columns = [' '.join(map(str, c)) for c in table.columns]",
+        )
 
 
 def csv_files(table, name: str, provenance=None, float_format: str | None = None) -> dict[str, bytes]:
@@ -203,8 +227,10 @@ def csv_files(table, name: str, provenance=None, float_format: str | None = None
     # with a carriage return cannot split a row
     guard_formulas(table).to_csv(buf, index=_keep_index(table), lineterminator="\r\n", float_format=float_format)
     meta = metadata(table, provenance, what="table", file_name=Path(name).name)
-    return {Path(name).name: buf.getvalue().encode("utf-8"),
-            metadata_path(name).name: (json.dumps(meta, indent=1, ensure_ascii=False) + "\n").encode("utf-8")}
+    return {
+        Path(name).name: buf.getvalue().encode("utf-8"),
+        metadata_path(name).name: (json.dumps(meta, indent=1, ensure_ascii=False) + "\n").encode("utf-8"),
+    }
 
 
 def to_csv(table, path, overwrite: bool = False, provenance=None, float_format: str | None = None) -> Path:

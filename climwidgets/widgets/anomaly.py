@@ -19,8 +19,14 @@ from __future__ import annotations
 import ipywidgets as widgets
 import xarray as xr
 
-from ..analyses.anomalies import ANOMALY_KINDS, anomaly_field, anomaly_ranking, anomaly_series, decimal_time, \
-    step_labels
+from ..analyses.anomalies import (
+    ANOMALY_KINDS,
+    anomaly_field,
+    anomaly_ranking,
+    anomaly_series,
+    decimal_time,
+    step_labels,
+)
 from ..analyses.basins import basin_series
 from ..analyses.meta import frame
 from ..analyses.run import compute, small_in_memory
@@ -36,13 +42,15 @@ from .mapframe import MapFrame
 
 __all__ = ["AnomalyWidget", "whole_grid_basin", "step_labels", "decimal_time", "season_months"]
 
-PERIODS = [("month", "month"), ("season", "season"), ("year (Jan-Dec)", "year"),
-           ("water year (Oct-Sep)", "water_year")]
-KINDS = [("percent of normal", "percent"), ("difference from normal (mm)", "absolute"),
-         ("standardized anomaly", "standardized"), ("SPI", "spi")]
+PERIODS = [("month", "month"), ("season", "season"), ("year (Jan-Dec)", "year"), ("water year (Oct-Sep)", "water_year")]
+KINDS = [
+    ("percent of normal", "percent"),
+    ("difference from normal (mm)", "absolute"),
+    ("standardized anomaly", "standardized"),
+    ("SPI", "spi"),
+]
 # colour style of the map for each kind (see climwidgets.plot.maps.KINDS)
-_MAP_KIND = {"absolute": "difference", "percent": "percent", "standardized": "standardized",
-             "spi": "standardized"}
+_MAP_KIND = {"absolute": "difference", "percent": "percent", "standardized": "standardized", "spi": "standardized"}
 
 
 class AnomalyWidget(BaseWidget):
@@ -64,9 +72,13 @@ class AnomalyWidget(BaseWidget):
 
     def __init__(self, pr, basins=None, baseline=None, export_dir="out"):
         if not isinstance(pr, xr.DataArray) or "time" not in pr.dims:
-            raise ParameterError(f"pr is a {type(pr).__name__}", source="AnomalyWidget", variable="pr",
-                                 expected="a precipitation DataArray with a time dimension (mm per step)",
-                                 fix="open the data with cw.open_precip")
+            raise ParameterError(
+                f"pr is a {type(pr).__name__}",
+                source="AnomalyWidget",
+                variable="pr",
+                expected="a precipitation DataArray with a time dimension (mm per step)",
+                fix="open the data with cw.open_precip",
+            )
         self.pr = pr
         self.use_basins(basins)
         self._whole = whole_grid_basin(pr)
@@ -83,25 +95,39 @@ class AnomalyWidget(BaseWidget):
         lay = widgets.Layout(width="290px")
         self.period = widgets.Dropdown(options=PERIODS, value="month", description="Period", style=style, layout=lay)
         self.kind = widgets.Dropdown(options=KINDS, value="percent", description="Kind", style=style, layout=lay)
-        self.scale = widgets.Dropdown(options=[(f"{s} month{'s' if s > 1 else ''}", s) for s in SPI_SCALES],
-                                      value=3, description="SPI scale", style=style, layout=lay)
+        self.scale = widgets.Dropdown(
+            options=[(f"{s} month{'s' if s > 1 else ''}", s) for s in SPI_SCALES],
+            value=3,
+            description="SPI scale",
+            style=style,
+            layout=lay,
+        )
         month_opts = [(name, i + 1) for i, name in enumerate(MONTH_NAMES)]
-        self.season_from = widgets.Dropdown(options=month_opts, value=12, description="Season from",
-                                            style=style, layout=lay)
-        self.season_to = widgets.Dropdown(options=month_opts, value=2, description="through",
-                                          style=style, layout=lay)
-        self.baseline = widgets.IntRangeSlider(value=(max(y0, baseline[0]), min(y1, baseline[1])), min=y0, max=y1,
-                                               description="Baseline years", style=style, layout=lay,
-                                               continuous_update=False, readout=False)
+        self.season_from = widgets.Dropdown(
+            options=month_opts, value=12, description="Season from", style=style, layout=lay
+        )
+        self.season_to = widgets.Dropdown(options=month_opts, value=2, description="through", style=style, layout=lay)
+        self.baseline = widgets.IntRangeSlider(
+            value=(max(y0, baseline[0]), min(y1, baseline[1])),
+            min=y0,
+            max=y1,
+            description="Baseline years",
+            style=style,
+            layout=lay,
+            continuous_update=False,
+            readout=False,
+        )
         self.baseline_first, self.baseline_last = year_range_entry(self.baseline)
-        self.step = widgets.SelectionSlider(options=["-"], description="Time step", style=style,
-                                            layout=lay, continuous_update=False, readout=False)
+        self.step = widgets.SelectionSlider(
+            options=["-"], description="Time step", style=style, layout=lay, continuous_update=False, readout=False
+        )
         # hundreds of months on a short track: a typed 'YYYY-MM' box and one-step buttons
         self.step_note = widgets.HTML("")
         self.step_box, self.step_prev, self.step_next = step_entry(self.step, self.step_note)
         # a long record of several basins overplots: the chart shows one basin, or all of them
-        self.chart_basin = widgets.Dropdown(options=[("all basins", None)], value=None, description="Chart shows",
-                                            style=style, layout=lay)
+        self.chart_basin = widgets.Dropdown(
+            options=[("all basins", None)], value=None, description="Chart shows", style=style, layout=lay
+        )
         super().__init__(map_frame=MapFrame(basins=self.basins, kind="percent"), export_dir=export_dir)
         self.watch(self.period, self.kind, self.scale, self.season_from, self.season_to, self.baseline)
         self.chart_basin.observe(self._on_chart_basin, names="value")
@@ -113,13 +139,27 @@ class AnomalyWidget(BaseWidget):
 
     # ------------------------------------------------------------ BaseWidget hooks
     def build_controls(self):
-        note = widgets.HTML("<small>SPI is monthly: it ignores the period setting. "
-                            "Basin values are anomalies of the basin-mean precipitation.</small>")
+        note = widgets.HTML(
+            "<small>SPI is monthly: it ignores the period setting. "
+            "Basin values are anomalies of the basin-mean precipitation.</small>"
+        )
         indent = widgets.Layout(margin="0 0 2px 114px", align_items="center")
         years = widgets.HBox([self.baseline_first, widgets.Label("to"), self.baseline_last], layout=indent)
         step = widgets.HBox([self.step_prev, self.step_box, self.step_next], layout=indent)
-        return [self.period, self.season_from, self.season_to, self.kind, self.scale, self.baseline, years,
-                self.step, step, self.step_note, self.chart_basin, note]
+        return [
+            self.period,
+            self.season_from,
+            self.season_to,
+            self.kind,
+            self.scale,
+            self.baseline,
+            years,
+            self.step,
+            step,
+            self.step_note,
+            self.chart_basin,
+            note,
+        ]
 
     def _enable(self, *_):
         spi_kind = self.kind.value == "spi"
@@ -132,9 +172,13 @@ class AnomalyWidget(BaseWidget):
         kind = self.kind.value
         params = {"kind": kind, "baseline": tuple(int(v) for v in self.baseline.value)}
         if params["baseline"][0] == params["baseline"][1]:
-            raise ParameterError("the baseline is a single year", source="AnomalyWidget", variable="baseline",
-                                 expected="a range of years, 30 by WMO practice",
-                                 fix="widen the baseline years slider")
+            raise ParameterError(
+                "the baseline is a single year",
+                source="AnomalyWidget",
+                variable="baseline",
+                expected="a range of years, 30 by WMO practice",
+                fix="widen the baseline years slider",
+            )
         if kind == "spi":
             params.update(period="month", months=None, scale=int(self.scale.value))
         else:
@@ -219,8 +263,14 @@ class AnomalyWidget(BaseWidget):
         field = self.shown()
         kind = self._params["kind"]
         vmin, vmax = self._limits
-        self.map.show_field(field, kind=_MAP_KIND[kind], vmin=vmin, vmax=vmax, label=self._label(),
-                            title=f"{ANOMALY_KINDS[kind][0]}, {self.step.value}")
+        self.map.show_field(
+            field,
+            kind=_MAP_KIND[kind],
+            vmin=vmin,
+            vmax=vmax,
+            label=self._label(),
+            title=f"{ANOMALY_KINDS[kind][0]}, {self.step.value}",
+        )
         self.show_table(frame(anomaly_ranking(self.basin_anomalies, self.step.value), display=True))
         title = "basin-mean series" if self.basins else "area-weighted mean of the whole grid"
         series = self.basin_anomalies["anomaly"]
@@ -238,8 +288,9 @@ class AnomalyWidget(BaseWidget):
         if self.chart_basin.value is not None:
             series = series.sel(basin=[self.chart_basin.value])
             title = f"{self.chart_basin.value}, basin-mean series"
-        self.show_chart(anomaly_chart(series, self.step_index, kind, self._label(),
-                                      f"{title}; dotted line: {self.step.value}"))
+        self.show_chart(
+            anomaly_chart(series, self.step_index, kind, self._label(), f"{title}; dotted line: {self.step.value}")
+        )
 
     def _on_chart_basin(self, change):
         if self._updating or self.result is None:

@@ -180,10 +180,19 @@ def df_to_html(df: pd.DataFrame, float_format="{:.4g}".format) -> str:
     if df is None or len(df) == 0:
         return "<i>No rows yet.</i>"
     described = df.attrs.get("columns") or {}
-    formatters = {c: (lambda v, a=described[c]: "no data" if format_cell(v, a) == "–" else format_cell(v, a))
-                  for c in df.columns if isinstance(described.get(c), dict)}
-    return df.to_html(escape=True, float_format=float_format, border=0, classes="cw-table",
-                      na_rep="no data", formatters=formatters or None)
+    formatters = {
+        c: (lambda v, a=described[c]: "no data" if format_cell(v, a) == "–" else format_cell(v, a))
+        for c in df.columns
+        if isinstance(described.get(c), dict)
+    }
+    return df.to_html(
+        escape=True,
+        float_format=float_format,
+        border=0,
+        classes="cw-table",
+        na_rep="no data",
+        formatters=formatters or None,
+    )
 
 
 _CSS = """<style>
@@ -228,8 +237,13 @@ class BaseWidget(widgets.VBox):
         self._finish_lock = threading.RLock()  # finish (worker) against a member change (kernel's thread)
         self._done = {0: threading.Event()}
         self._done[0].set()
-        self.progress = widgets.FloatProgress(value=0.0, min=0.0, max=1.0, description="Working",
-                                              layout=widgets.Layout(visibility="hidden", width="320px"))
+        self.progress = widgets.FloatProgress(
+            value=0.0,
+            min=0.0,
+            max=1.0,
+            description="Working",
+            layout=widgets.Layout(visibility="hidden", width="320px"),
+        )
         self.message = widgets.HTML("")  # errors and notes, under the controls that cause them
         self.stale_note = widgets.HTML("")
         self.table_html = widgets.HTML(_CSS + "<i>No rows yet.</i>")
@@ -244,8 +258,9 @@ class BaseWidget(widgets.VBox):
         self._init_units()
         head = [self.member] if self.member is not None else []
         tail = [self.units] if self.units is not None else []
-        self.controls = widgets.VBox(head + self.build_controls() + tail + [self.message],
-                                     layout=widgets.Layout(min_width="300px"))
+        self.controls = widgets.VBox(
+            head + self.build_controls() + tail + [self.message], layout=widgets.Layout(min_width="300px")
+        )
         panels = [self.controls] + ([self.map] if self.map is not None else [])
         children = []
         if self.title:
@@ -288,10 +303,12 @@ class BaseWidget(widgets.VBox):
         self._map_call = None
         self.units = None
         if self.units_choice:
-            self.units = widgets.Dropdown(options=[("SI (mm, million m³, km²)", "SI"),
-                                                   ("US customary (in, acre-ft, mi²)", "US")],
-                                          value="SI", description="Units",
-                                          layout=widgets.Layout(width="300px"))
+            self.units = widgets.Dropdown(
+                options=[("SI (mm, million m³, km²)", "SI"), ("US customary (in, acre-ft, mi²)", "US")],
+                value="SI",
+                description="Units",
+                layout=widgets.Layout(width="300px"),
+            )
             self.units.observe(self._units_changed, names="value")
         if self.map is not None:
             self._wrap_map()
@@ -497,8 +514,9 @@ class BaseWidget(widgets.VBox):
         self.progress.value = 0.0
         self.progress.layout.visibility = "visible"
         if background:
-            threading.Thread(target=self._run, args=(gen, params), daemon=True,
-                             name=f"climwidgets-{type(self).__name__}-{gen}").start()
+            threading.Thread(
+                target=self._run, args=(gen, params), daemon=True, name=f"climwidgets-{type(self).__name__}-{gen}"
+            ).start()
         else:
             self._run(gen, params)
             self.kernel.drain()
@@ -544,9 +562,12 @@ class BaseWidget(widgets.VBox):
                 (computed,) = compute(self._members_of(self.compute(**params), gen))
             return computed
         try:  # a dask cluster is in use (cw.use_cluster): its progress feeds the same bar
-            return compute_on_cluster(self._members_of(self.compute(**params), gen), client,
-                                      on_progress=lambda f: self._set_progress(gen, f),
-                                      is_current=lambda: self._is_current(gen))
+            return compute_on_cluster(
+                self._members_of(self.compute(**params), gen),
+                client,
+                on_progress=lambda f: self._set_progress(gen, f),
+                is_current=lambda: self._is_current(gen),
+            )
         except CancelledComputation:
             raise Superseded() from None
 
@@ -612,8 +633,10 @@ class BaseWidget(widgets.VBox):
             else:
                 self.error = exc
                 self._traceback = tb
-                self.message.value = (f"<span style='color:#b30000'>Unexpected problem "
-                                      f"({html.escape(type(exc).__name__)}): {html.escape(str(exc))}</span>")
+                self.message.value = (
+                    f"<span style='color:#b30000'>Unexpected problem "
+                    f"({html.escape(type(exc).__name__)}): {html.escape(str(exc))}</span>"
+                )
         finally:
             if finished:
                 self._finished(gen)
@@ -646,9 +669,15 @@ class BaseWidget(widgets.VBox):
             (view.add_class if shown else view.remove_class)("cw-stale")
         for button in self.exports.children:
             button.disabled = shown
-        self.stale_note.value = ("<div style='color:#b30000;font-size:12px'>The map and table below are for "
-                                 "the previous settings: fix the setting named beside the controls to "
-                                 "update them.</div>") if shown else ""
+        self.stale_note.value = (
+            (
+                "<div style='color:#b30000;font-size:12px'>The map and table below are for "
+                "the previous settings: fix the setting named beside the controls to "
+                "update them.</div>"
+            )
+            if shown
+            else ""
+        )
 
     @property
     def stale(self) -> bool:
@@ -699,8 +728,12 @@ class BaseWidget(widgets.VBox):
         inside the link: nothing goes over the network) and, when :attr:`save_copies` is
         true, is also moved atomically into ``export_dir`` under a name not yet taken.
         """
-        button = widgets.Button(description=label, icon="download", layout=widgets.Layout(width="auto"),
-                                tooltip=f"{label}: prepares a download link below")
+        button = widgets.Button(
+            description=label,
+            icon="download",
+            layout=widgets.Layout(width="auto"),
+            tooltip=f"{label}: prepares a download link below",
+        )
 
         def on_click(_):
             try:
@@ -708,10 +741,14 @@ class BaseWidget(widgets.VBox):
             except InputError as exc:
                 self._show_error(exc, invalidates=False)
             except Exception as exc:  # a message in the widget, not a silent failure in a callback
-                self._show_error(InputError(f"could not export ({type(exc).__name__}: {exc})",
-                                            source=str(self.export_dir),
-                                            fix="check the export folder (widget.export_dir) and try again"),
-                                 invalidates=False)
+                self._show_error(
+                    InputError(
+                        f"could not export ({type(exc).__name__}: {exc})",
+                        source=str(self.export_dir),
+                        fix="check the export folder (widget.export_dir) and try again",
+                    ),
+                    invalidates=False,
+                )
             else:
                 self.offer_downloads(files)
                 saved = self.last_saved
@@ -723,7 +760,7 @@ class BaseWidget(widgets.VBox):
         return button
 
     # ------------------------------------------------------------ exports
-    save_copies = True     # also keep every export in export_dir (beside the notebook)
+    save_copies = True  # also keep every export in export_dir (beside the notebook)
 
     def export_tag(self) -> str:
         """Settings and basin set for export file names, e.g. ``jul-aug_1991-2020_3-basins``."""
@@ -735,6 +772,7 @@ class BaseWidget(widgets.VBox):
         months = params.get("months")
         if isinstance(months, (list, tuple)) and months and all(isinstance(m, int) for m in months):
             from ..compute._time import MONTH_NAMES
+
             parts.append(f"{MONTH_NAMES[months[0] - 1][:3]}-{MONTH_NAMES[months[-1] - 1][:3]}".lower())
         for key in ("baseline", "years"):
             span = params.get(key)
@@ -753,8 +791,7 @@ class BaseWidget(widgets.VBox):
         from datetime import date
 
         tag = self.export_tag()
-        return "_".join(p for p in (stem or self.export_stem, tag, date.today().strftime("%Y%m%d")) if p) \
-            + f".{suffix}"
+        return "_".join(p for p in (stem or self.export_stem, tag, date.today().strftime("%Y%m%d")) if p) + f".{suffix}"
 
     def export_files(self, write, suffix, stem=None) -> dict:
         """Run ``write`` now; returns ``{file name: bytes}`` of what it wrote (and saves copies)."""
@@ -765,8 +802,9 @@ class BaseWidget(widgets.VBox):
             write(Path(tmp) / name)
             written = sorted(Path(tmp).iterdir(), key=lambda p: (p.name != name, p.name))
             if not written or written[0].name != name:
-                raise InputError(f"the export wrote no {name}", source=type(self).__name__,
-                                 fix="report this as a bug of the widget")
+                raise InputError(
+                    f"the export wrote no {name}", source=type(self).__name__, fix="report this as a bug of the widget"
+                )
             files = {p.name: p.read_bytes() for p in written}
         self.last_saved = self._save_copies(files) if self.save_copies else []
         return files
@@ -777,11 +815,12 @@ class BaseWidget(widgets.VBox):
         folder = self.export_dir
         folder.mkdir(parents=True, exist_ok=True)
         main = unique_path(folder, first)
-        while any((folder / (main.name + n[len(first):])).exists() for n in files if n != first):
+        while any((folder / (main.name + n[len(first) :])).exists() for n in files if n != first):
             main = unique_path(folder, main.stem + "-x" + main.suffix)
         saved = []
         for n, data in files.items():
-            target = folder / (main.name + n[len(first):]) if n != first else main
+            target = folder / (main.name + n[len(first) :]) if n != first else main
+
             def write(tmp: Path, data: bytes = data) -> None:
                 tmp.write_bytes(data)
 
@@ -795,12 +834,17 @@ class BaseWidget(widgets.VBox):
 
         links = []
         for n, data in files.items():
-            mime = "application/json" if n.endswith(".json") else (mimetypes.guess_type(n)[0]
-                                                                     or "application/octet-stream")
+            mime = (
+                "application/json"
+                if n.endswith(".json")
+                else (mimetypes.guess_type(n)[0] or "application/octet-stream")
+            )
             href = f"data:{mime};base64,{base64.b64encode(data).decode('ascii')}"
-            links.append(f"<a class='cw-download' download='{html.escape(n, quote=True)}' href='{href}' "
-                         f"style='margin-right:14px'>&#x2B07; {html.escape(n)}</a>"
-                         f" <small>({len(data) / 1024:.1f} kB)</small>")
+            links.append(
+                f"<a class='cw-download' download='{html.escape(n, quote=True)}' href='{href}' "
+                f"style='margin-right:14px'>&#x2B07; {html.escape(n)}</a>"
+                f" <small>({len(data) / 1024:.1f} kB)</small>"
+            )
         self.downloads.value = "<div style='margin:4px 0'>" + " ".join(links) + "</div>"
 
     def export(self, write, suffix, stem=None):
@@ -831,8 +875,7 @@ class BaseWidget(widgets.VBox):
         clean["units"] = UNIT_SYSTEMS[self.unit_system]
         pr = getattr(self, "pr", None)
         source = getattr(pr, "encoding", {}).get("source") if pr is not None else None
-        return {"title": self.title or self.export_stem, "parameters": clean,
-                "inputs": [source] if source else None}
+        return {"title": self.title or self.export_stem, "parameters": clean, "inputs": [source] if source else None}
 
     def write_table_csv(self, table, path, provenance=None, float_format=None):
         """Write ``table`` and its metadata with the package's one CSV writer."""
@@ -844,6 +887,7 @@ class BaseWidget(widgets.VBox):
 
     def _write_csv(self, path):
         if self.table is None:
-            raise InputError("there is no table to export yet", source=type(self).__name__,
-                              fix="wait for the computation to finish")
+            raise InputError(
+                "there is no table to export yet", source=type(self).__name__, fix="wait for the computation to finish"
+            )
         self.write_table_csv(self.table, path)

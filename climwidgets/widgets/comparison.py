@@ -29,6 +29,7 @@ from .mapframe import MapFrame
 
 __all__ = ["ComparisonWidget", "METRICS"]
 
+
 class ComparisonWidget(BaseWidget):
     """Agreement map of two products and the basin table across all products.
 
@@ -58,9 +59,13 @@ class ComparisonWidget(BaseWidget):
 
     def __init__(self, datasets, basins=None, months=(7, 8), export_dir="out"):
         if not isinstance(datasets, dict) or len(datasets) < 2:
-            raise ParameterError("a comparison needs at least two products", source="ComparisonWidget",
-                                 variable="datasets", expected="{'name': DataArray, ...} with two or more entries",
-                                 fix="pass e.g. {'gauge grid': pr_a, 'reanalysis': pr_b}")
+            raise ParameterError(
+                "a comparison needs at least two products",
+                source="ComparisonWidget",
+                variable="datasets",
+                expected="{'name': DataArray, ...} with two or more entries",
+                fix="pass e.g. {'gauge grid': pr_a, 'reanalysis': pr_b}",
+            )
         self.datasets = dict(datasets)
         self.use_basins(basins)
         self.months = tuple(months)
@@ -70,12 +75,17 @@ class ComparisonWidget(BaseWidget):
         names = list(self.datasets)
         style = {"description_width": "90px"}
         lay = widgets.Layout(width="300px")
-        self.reference = widgets.Dropdown(options=names, value=names[0], description="Reference",
-                                          style=style, layout=lay)
-        self.other = widgets.Dropdown(options=names, value=names[1], description="Other",
-                                      style=style, layout=lay)
-        self.metric = widgets.Dropdown(options=[(label, key) for key, label in METRICS.items()], value="bias",
-                                       description="Metric", style=style, layout=lay)
+        self.reference = widgets.Dropdown(
+            options=names, value=names[0], description="Reference", style=style, layout=lay
+        )
+        self.other = widgets.Dropdown(options=names, value=names[1], description="Other", style=style, layout=lay)
+        self.metric = widgets.Dropdown(
+            options=[(label, key) for key, label in METRICS.items()],
+            value="bias",
+            description="Metric",
+            style=style,
+            layout=lay,
+        )
         super().__init__(map_frame=MapFrame(basins=self.basins, kind="difference"), export_dir=export_dir)
         # choosing as reference the product shown as other swaps the two (never one against itself)
         self._choice = (self.reference.value, self.other.value)
@@ -107,16 +117,22 @@ class ComparisonWidget(BaseWidget):
 
     # ------------------------------------------------------------ BaseWidget hooks
     def build_controls(self):
-        note = widgets.HTML("<small>Products are compared as monthly totals over their common complete "
-                            "years, on the coarsest product's grid (conservative regridding).</small>")
+        note = widgets.HTML(
+            "<small>Products are compared as monthly totals over their common complete "
+            "years, on the coarsest product's grid (conservative regridding).</small>"
+        )
         return [self.reference, self.other, self.metric, note]
 
     def parameters(self):
         ref, other = self.reference.value, self.other.value
         if ref == other:
-            raise ParameterError(f"reference and other are both {ref!r}", source="ComparisonWidget",
-                                 variable="other", expected="two different products",
-                                 fix="choose another product as 'Other'")
+            raise ParameterError(
+                f"reference and other are both {ref!r}",
+                source="ComparisonWidget",
+                variable="other",
+                expected="two different products",
+                fix="choose another product as 'Other'",
+            )
         return {"reference": ref, "other": other}
 
     def compute(self, reference, other):
@@ -153,8 +169,12 @@ class ComparisonWidget(BaseWidget):
         ref, other = self._params["reference"], self._params["other"]
         mean = float(np.nanmean(np.asarray(field.values, dtype=float)))
         words = field.attrs.get("label", metric)
-        self.map.show_field(field, kind=kind, label=f"{words} [{field.attrs.get('display_units', '')}]",
-                            title=f"{other} against {ref}: {words} (grid mean {mean:,.2f})")
+        self.map.show_field(
+            field,
+            kind=kind,
+            label=f"{words} [{field.attrs.get('display_units', '')}]",
+            title=f"{other} against {ref}: {words} (grid mean {mean:,.2f})",
+        )
         self.show_table(self._display_table())
         if self.basin_table is not None:
             self.show_chart(self._chart())

@@ -48,25 +48,36 @@ class DrawingTools(widgets.VBox):
         self._listeners = []
         self._report = report or (lambda message: None)
         lay = widgets.Layout(width="auto")
-        self.draw = widgets.ToggleButton(value=False, description="Draw", icon="pencil",
-                                         tooltip="click on the map to add vertices", layout=lay)
-        self.name = widgets.Text(value="", placeholder="name of the new basin", description="Name",
-                                 layout=widgets.Layout(width="260px"))
-        self.close = widgets.Button(description="Close basin", icon="check", layout=lay,
-                                    tooltip="close the outline and add the basin (or double-click)")
+        self.draw = widgets.ToggleButton(
+            value=False, description="Draw", icon="pencil", tooltip="click on the map to add vertices", layout=lay
+        )
+        self.name = widgets.Text(
+            value="", placeholder="name of the new basin", description="Name", layout=widgets.Layout(width="260px")
+        )
+        self.close = widgets.Button(
+            description="Close basin",
+            icon="check",
+            layout=lay,
+            tooltip="close the outline and add the basin (or double-click)",
+        )
         self.undo = widgets.Button(description="Undo vertex", icon="undo", layout=lay)
         self.cancel = widgets.Button(description="Discard outline", icon="times", layout=lay)
         self.select = widgets.Dropdown(options=[], description="Basin", layout=widgets.Layout(width="260px"))
         self.new_name = widgets.Text(value="", placeholder="new name", layout=widgets.Layout(width="150px"))
         self.rename = widgets.Button(description="Rename", layout=lay)
         self.delete = widgets.Button(description="Delete", icon="trash", layout=lay)
-        self.path = widgets.Text(value="", placeholder="basins.geojson or outlines.shp", description="File",
-                                 layout=widgets.Layout(width="260px"))
+        self.path = widgets.Text(
+            value="",
+            placeholder="basins.geojson or outlines.shp",
+            description="File",
+            layout=widgets.Layout(width="260px"),
+        )
         self.load = widgets.Button(description="Load", icon="folder-open", layout=lay)
         self.save = widgets.Button(description="Save all as GeoJSON", icon="save", layout=lay)
         self.overwrite = widgets.Checkbox(value=False, description="replace an existing file", indent=False)
-        self.upload = widgets.FileUpload(accept=".geojson,.json", multiple=False, description="Upload GeoJSON",
-                                         layout=widgets.Layout(width="auto"))  # the whole label, unclipped
+        self.upload = widgets.FileUpload(
+            accept=".geojson,.json", multiple=False, description="Upload GeoJSON", layout=widgets.Layout(width="auto")
+        )  # the whole label, unclipped
         self.close.on_click(lambda _: self.close_basin())
         self.undo.on_click(lambda _: self.undo_vertex())
         self.cancel.on_click(lambda _: self.discard())
@@ -76,11 +87,20 @@ class DrawingTools(widgets.VBox):
         self.save.on_click(lambda _: self.save_file(self.path.value, overwrite=self.overwrite.value))
         self.upload.observe(self._on_upload, names="value")
         self.map.on_click(self._on_map_click)
-        super().__init__(children=[
-            widgets.HTML("<b>Basins</b>: switch on <i>Draw</i>, click the corners on the map, then close."),
-            widgets.HBox([self.draw, self.undo, self.cancel]), self.name, self.close,
-            widgets.HBox([self.select]), widgets.HBox([self.new_name, self.rename, self.delete]),
-            self.path, widgets.HBox([self.load, self.save]), self.overwrite, self.upload])
+        super().__init__(
+            children=[
+                widgets.HTML("<b>Basins</b>: switch on <i>Draw</i>, click the corners on the map, then close."),
+                widgets.HBox([self.draw, self.undo, self.cancel]),
+                self.name,
+                self.close,
+                widgets.HBox([self.select]),
+                widgets.HBox([self.new_name, self.rename, self.delete]),
+                self.path,
+                widgets.HBox([self.load, self.save]),
+                self.overwrite,
+                self.upload,
+            ]
+        )
         self._sync()
 
     # ------------------------------------------------------------ events
@@ -141,8 +161,12 @@ class DrawingTools(widgets.VBox):
         name = (self.name.value if name is None else name).strip() or self._default_name()
         try:
             if len(self.vertices) < 3:
-                raise BasinError(f"the outline has {len(self.vertices)} vertices", source=f"basin {name!r}",
-                                 expected="at least 3 corners", fix="click more corners on the map")
+                raise BasinError(
+                    f"the outline has {len(self.vertices)} vertices",
+                    source=f"basin {name!r}",
+                    expected="at least 3 corners",
+                    fix="click more corners on the map",
+                )
             basin = Basin.from_vertices(self.vertices, name=name)
             self.basin_set.add(basin)  # a taken name is an error: the outline stays for another try
         except InputError as exc:
@@ -184,8 +208,14 @@ class DrawingTools(widgets.VBox):
 
     def load_file(self, path):
         if not str(path).strip():
-            self._report(SourceError("no file given", source="basin file", expected="a .geojson or .shp path",
-                                     fix="type the path of the file to load"))
+            self._report(
+                SourceError(
+                    "no file given",
+                    source="basin file",
+                    expected="a .geojson or .shp path",
+                    fix="type the path of the file to load",
+                )
+            )
             return []
         try:
             loaded = load_basins(path)
@@ -202,16 +232,26 @@ class DrawingTools(widgets.VBox):
                 mapping = json.loads(bytes(item["content"]).decode("utf-8"))
                 self.add_basins(Basin.from_geojson(mapping))
             except (ValueError, UnicodeDecodeError) as exc:  # InputError is a ValueError
-                self._report(exc if isinstance(exc, InputError) else SourceError(
-                    f"not valid GeoJSON ({exc})", source=item.get("name", "upload"),
-                    fix="upload a GeoJSON FeatureCollection of polygons"))
+                self._report(
+                    exc
+                    if isinstance(exc, InputError)
+                    else SourceError(
+                        f"not valid GeoJSON ({exc})",
+                        source=item.get("name", "upload"),
+                        fix="upload a GeoJSON FeatureCollection of polygons",
+                    )
+                )
 
     def save_file(self, path, overwrite=False):
         path = str(path).strip()
         try:
             if not path:
-                raise SourceError("no file given", source="basin file", expected="a .geojson path",
-                                  fix="type where to save, e.g. out/basins.geojson")
+                raise SourceError(
+                    "no file given",
+                    source="basin file",
+                    expected="a .geojson path",
+                    fix="type where to save, e.g. out/basins.geojson",
+                )
             written = self.basin_set.to_geojson(path, overwrite=overwrite)
         except InputError as exc:
             self._report(exc)
@@ -303,8 +343,12 @@ class BasinDrawer(HostsDrawingTools, BaseWidget):
                 if b.name in computed["basin"].values:
                     self._rows[(b.token, b.name)] = float(computed.sel(basin=b.name))
         units = self.field.attrs.get("units", "")
-        means = xr.DataArray([self._rows[(b.token, b.name)] for b in basins], dims="basin",
-                             coords={"basin": [b.name for b in basins]}, attrs={"units": units})
+        means = xr.DataArray(
+            [self._rows[(b.token, b.name)] for b in basins],
+            dims="basin",
+            coords={"basin": [b.name for b in basins]},
+            attrs={"units": units},
+        )
         out = frame(field_means_table(basins, means), columns=["area_km2", "mean"])
         out = out.rename(columns={"mean": f"mean [{units}]"})
         columns = dict(out.attrs.get("columns") or {})

@@ -23,8 +23,14 @@ def number_entry(slider, width: str = "72px"):
     Returns the box; put it beside the slider (``widgets.HBox([slider, box])``).
     """
     cls = widgets.BoundedIntText if isinstance(slider, widgets.IntSlider) else widgets.BoundedFloatText
-    box = cls(value=slider.value, min=slider.min, max=slider.max, step=slider.step,
-              layout=widgets.Layout(width=width), tooltip=f"type a value ({slider.min:g}-{slider.max:g})")
+    box = cls(
+        value=slider.value,
+        min=slider.min,
+        max=slider.max,
+        step=slider.step,
+        layout=widgets.Layout(width=width),
+        tooltip=f"type a value ({slider.min:g}-{slider.max:g})",
+    )
     widgets.link((box, "value"), (slider, "value"))
     return box
 
@@ -36,10 +42,8 @@ def year_range_entry(slider):
     ordered.  Returns ``(first_box, last_box)``.
     """
     lo, hi = slider.value
-    first = widgets.BoundedIntText(value=lo, min=slider.min, max=slider.max, layout=_BOX,
-                                   tooltip="first year")
-    last = widgets.BoundedIntText(value=hi, min=slider.min, max=slider.max, layout=_BOX,
-                                  tooltip="last year")
+    first = widgets.BoundedIntText(value=lo, min=slider.min, max=slider.max, layout=_BOX, tooltip="first year")
+    last = widgets.BoundedIntText(value=hi, min=slider.min, max=slider.max, layout=_BOX, tooltip="last year")
 
     busy = []  # set while the slider rewrites the boxes: half-updated pairs are not typed values
 
@@ -72,8 +76,13 @@ def step_entry(slider, message=None):
     and says so in ``message`` (an HTML widget), with the first and last labels.
     Returns ``(box, previous_button, next_button)``.
     """
-    box = widgets.Text(value=str(slider.value), placeholder="YYYY-MM", continuous_update=False,
-                       layout=widgets.Layout(width="90px"), tooltip="type a step such as 2010-07")
+    box = widgets.Text(
+        value=str(slider.value),
+        placeholder="YYYY-MM",
+        continuous_update=False,
+        layout=widgets.Layout(width="90px"),
+        tooltip="type a step such as 2010-07",
+    )
     prev = widgets.Button(icon="chevron-left", tooltip="previous step", layout=widgets.Layout(width="34px"))
     nxt = widgets.Button(icon="chevron-right", tooltip="next step", layout=widgets.Layout(width="34px"))
 
@@ -91,8 +100,10 @@ def step_entry(slider, message=None):
             slider.value = text
         else:
             first, last = (options[0], options[-1]) if options else ("-", "-")
-            say(f"<small style='color:#a11'>{text!r} is not a step of the record: type a step from "
-                f"{first} to {last} in the same form.</small>")
+            say(
+                f"<small style='color:#a11'>{text!r} is not a step of the record: type a step from "
+                f"{first} to {last} in the same form.</small>"
+            )
 
     def moved(change):
         box.value = str(change["new"])

@@ -34,9 +34,18 @@ import xarray as xr
 
 from ..analyses.basins import basin_series
 from ..analyses.ddf_table import DESIGN_TABLE_NOTE, basin_design_table, design_depth_cells, design_depth_table
-from ..analyses.extremes import (POINT_NOTE, areal_design_depths, depth_field, depth_table, point_design_depths,
-                                 point_depth_table, regional_depth_field, warmed_depths, warmed_field,
-                                 warmed_point_depths)
+from ..analyses.extremes import (
+    POINT_NOTE,
+    areal_design_depths,
+    depth_field,
+    depth_table,
+    point_design_depths,
+    point_depth_table,
+    regional_depth_field,
+    warmed_depths,
+    warmed_field,
+    warmed_point_depths,
+)
 from ..cache import LRUCache
 from ..compute.extremes import DAY_DURATIONS, HOUR_DURATIONS
 from ..compute.warming import DESIGN_DEPTH_CAUTIONS
@@ -49,20 +58,27 @@ __all__ = ["ExtremesWidget", "PERIODS", "cautions_html"]
 
 PERIODS = (2, 5, 10, 25, 50, 100)
 LEVELS = (0.8, 0.9, 0.95)
-AREAL_NOTE = ("Basin depths are areal: the return level of the basin-mean maxima. "
-              "Areal depths are lower than point (gauge) depths of the same return period.")
-TABLE_KINDS = [("depths by duration", "ddf"), ("all basins, one period", "areal"),
-               ("at-site and regional", "point")]
-MAP_LAYERS = [("at-site", "estimate"), ("at-site, lower bound", "lower"), ("at-site, upper bound", "upper"),
-              ("regional (pooled)", "regional")]
+AREAL_NOTE = (
+    "Basin depths are areal: the return level of the basin-mean maxima. "
+    "Areal depths are lower than point (gauge) depths of the same return period."
+)
+TABLE_KINDS = [("depths by duration", "ddf"), ("all basins, one period", "areal"), ("at-site and regional", "point")]
+MAP_LAYERS = [
+    ("at-site", "estimate"),
+    ("at-site, lower bound", "lower"),
+    ("at-site, upper bound", "upper"),
+    ("regional (pooled)", "regional"),
+]
 N_SIM = 500  # simulated regions for the heterogeneity H1 (Hosking & Wallis 1997 use 500)
 
 
 def cautions_html(cautions=DESIGN_DEPTH_CAUTIONS) -> str:
     items = "".join(f"<li>{html.escape(c)}</li>" for c in cautions)
-    return ("<div style='border:1px solid #c9a227;background:#fff8e1;padding:4px 10px;"
-            "font-size:12px;margin:4px 0'><b>Design-depth cautions</b><ul style='margin:2px 0'>"
-            f"{items}</ul></div>")
+    return (
+        "<div style='border:1px solid #c9a227;background:#fff8e1;padding:4px 10px;"
+        "font-size:12px;margin:4px 0'><b>Design-depth cautions</b><ul style='margin:2px 0'>"
+        f"{items}</ul></div>"
+    )
 
 
 class ExtremesWidget(BaseWidget):
@@ -87,9 +103,13 @@ class ExtremesWidget(BaseWidget):
     def __init__(self, pr, basins=None, n_boot=200, export_dir="out"):
         step = getattr(pr, "attrs", {}).get("step") if isinstance(pr, xr.DataArray) else None
         if step not in ("day", "hour"):
-            raise ParameterError(f"the precipitation step is {step!r}", source="ExtremesWidget", variable="pr",
-                                 expected="daily or hourly precipitation (attrs['step'] 'day' or 'hour')",
-                                 fix="open the daily or hourly file with cw.open_precip")
+            raise ParameterError(
+                f"the precipitation step is {step!r}",
+                source="ExtremesWidget",
+                variable="pr",
+                expected="daily or hourly precipitation (attrs['step'] 'day' or 'hour')",
+                fix="open the daily or hourly file with cw.open_precip",
+            )
         self.pr = pr
         self.step_kind = step
         self.use_basins(basins)
@@ -106,25 +126,60 @@ class ExtremesWidget(BaseWidget):
             opts = [(f"{d} day{'s' if d > 1 else ''}", d) for d in DAY_DURATIONS]
         else:
             opts = [(f"{h} hour{'s' if h > 1 else ''}", h) for h in HOUR_DURATIONS]
-        self.duration = widgets.Dropdown(options=opts, value=opts[0][1] if step == "day" else 24,
-                                         description="Duration", style=style, layout=lay)
-        self.period = widgets.Dropdown(options=[(f"{t} years", t) for t in PERIODS], value=100,
-                                       description="Return period", style=style, layout=lay)
-        self.level = widgets.Dropdown(options=[(f"{c:.0%}", c) for c in LEVELS], value=0.9,
-                                      description="Confidence level", style=style, layout=lay)
-        self.year = widgets.Dropdown(options=[("calendar (Jan-Dec)", 1), ("water year (Oct-Sep)", 10)], value=1,
-                                     description="Year", style=style, layout=lay)
-        self.n_boot = widgets.BoundedIntText(value=int(n_boot), min=50, max=20000, step=50,
-                                             description="Bootstrap samples", style=style, layout=lay)
-        self.layer = widgets.Dropdown(options=MAP_LAYERS, value="estimate", description="Map shows", style=style,
-                                      layout=lay)
-        self.table_kind = widgets.Dropdown(options=TABLE_KINDS, value="ddf", description="Table shows",
-                                           style=style, layout=lay)
+        self.duration = widgets.Dropdown(
+            options=opts, value=opts[0][1] if step == "day" else 24, description="Duration", style=style, layout=lay
+        )
+        self.period = widgets.Dropdown(
+            options=[(f"{t} years", t) for t in PERIODS],
+            value=100,
+            description="Return period",
+            style=style,
+            layout=lay,
+        )
+        self.level = widgets.Dropdown(
+            options=[(f"{c:.0%}", c) for c in LEVELS],
+            value=0.9,
+            description="Confidence level",
+            style=style,
+            layout=lay,
+        )
+        self.year = widgets.Dropdown(
+            options=[("calendar (Jan-Dec)", 1), ("water year (Oct-Sep)", 10)],
+            value=1,
+            description="Year",
+            style=style,
+            layout=lay,
+        )
+        self.n_boot = widgets.BoundedIntText(
+            value=int(n_boot), min=50, max=20000, step=50, description="Bootstrap samples", style=style, layout=lay
+        )
+        self.layer = widgets.Dropdown(
+            options=MAP_LAYERS, value="estimate", description="Map shows", style=style, layout=lay
+        )
+        self.table_kind = widgets.Dropdown(
+            options=TABLE_KINDS, value="ddf", description="Table shows", style=style, layout=lay
+        )
         self.table_basin = widgets.Dropdown(options=[], description="Table basin", style=style, layout=lay)
-        self.delta_t = widgets.FloatSlider(value=0.0, min=0.0, max=5.0, step=0.5, description="Warming ΔT (°C)",
-                                           style=style, layout=lay, continuous_update=False)
-        self.rate = widgets.FloatSlider(value=7.0, min=0.0, max=14.0, step=0.5, description="Rate (% per °C)",
-                                        style=style, layout=lay, continuous_update=False)
+        self.delta_t = widgets.FloatSlider(
+            value=0.0,
+            min=0.0,
+            max=5.0,
+            step=0.5,
+            description="Warming ΔT (°C)",
+            style=style,
+            layout=lay,
+            continuous_update=False,
+        )
+        self.rate = widgets.FloatSlider(
+            value=7.0,
+            min=0.0,
+            max=14.0,
+            step=0.5,
+            description="Rate (% per °C)",
+            style=style,
+            layout=lay,
+            continuous_update=False,
+        )
         super().__init__(map_frame=MapFrame(basins=self.basins, kind="total"), export_dir=export_dir)
         self.add_export("Basin depths as CSV", self._write_depths, "csv", stem="basin_return_levels")
         # the cautions sit under the title and never go away
@@ -165,20 +220,42 @@ class ExtremesWidget(BaseWidget):
 
     # ------------------------------------------------------------ BaseWidget hooks
     def build_controls(self):
-        what_if = widgets.HTML("<small>Warming what-if: depths scaled by (1 + rate)<sup>ΔT</sup>, "
-                               "about 7 % per °C from the Clausius-Clapeyron relation.</small>")
-        return [self.duration, self.period, self.level, self.year, self.n_boot, self.table_kind, self.table_basin,
-                self.layer, self.delta_t, self.rate, what_if]
+        what_if = widgets.HTML(
+            "<small>Warming what-if: depths scaled by (1 + rate)<sup>ΔT</sup>, "
+            "about 7 % per °C from the Clausius-Clapeyron relation.</small>"
+        )
+        return [
+            self.duration,
+            self.period,
+            self.level,
+            self.year,
+            self.n_boot,
+            self.table_kind,
+            self.table_basin,
+            self.layer,
+            self.delta_t,
+            self.rate,
+            what_if,
+        ]
 
     def parameters(self):
         n_boot = int(self.n_boot.value)
         if n_boot < 50:
-            raise ParameterError(f"{n_boot} bootstrap samples are too few", source="ExtremesWidget",
-                                 variable="n_boot", expected="at least 50 (1000 for final numbers)",
-                                 fix="raise the bootstrap samples")
+            raise ParameterError(
+                f"{n_boot} bootstrap samples are too few",
+                source="ExtremesWidget",
+                variable="n_boot",
+                expected="at least 50 (1000 for final numbers)",
+                fix="raise the bootstrap samples",
+            )
         key = "duration_days" if self.step_kind == "day" else "duration_hours"
-        return {key: int(self.duration.value), "year_start": int(self.year.value),
-                "ci": float(self.level.value), "n_boot": n_boot, "regional": bool(self._wants_regional())}
+        return {
+            key: int(self.duration.value),
+            "year_start": int(self.year.value),
+            "ci": float(self.level.value),
+            "n_boot": n_boot,
+            "regional": bool(self._wants_regional()),
+        }
 
     @property
     def _table_basins(self):
@@ -197,19 +274,42 @@ class ExtremesWidget(BaseWidget):
         out = {"levels": levels, "fresh": fresh, "key": key}
         if basins:
             parts = {b.name: self._series.get((b.token, b.name)) for b in basins}
-            series = xr.concat([parts[b.name] if parts[b.name] is not None else fresh.sel(basin=[b.name])
-                                for b in basins], dim="basin")
-            out["depths"] = areal_design_depths(None, basins, periods=PERIODS, ci=ci, n_boot=n_boot,
-                                                year_start=year_start, series=series, **duration)
+            series = xr.concat(
+                [parts[b.name] if parts[b.name] is not None else fresh.sel(basin=[b.name]) for b in basins], dim="basin"
+            )
+            out["depths"] = areal_design_depths(
+                None, basins, periods=PERIODS, ci=ci, n_boot=n_boot, year_start=year_start, series=series, **duration
+            )
             durations = [v for _, v in self.duration.options]
-            out["design"] = basin_design_table(series.reset_coords(drop=True), durations=durations, periods=PERIODS,
-                                               ci=ci, n_boot=n_boot, year_start=year_start)
+            out["design"] = basin_design_table(
+                series.reset_coords(drop=True),
+                durations=durations,
+                periods=PERIODS,
+                ci=ci,
+                n_boot=n_boot,
+                year_start=year_start,
+            )
             if regional and self.basins:
-                out["point"] = point_design_depths(self.pr, self.basins, periods=PERIODS, ci=ci, n_boot=n_boot,
-                                                   n_sim=N_SIM, year_start=year_start, **duration)
-                out["regional"] = regional_depth_field(self.pr, self.basins, periods=PERIODS, ci=ci,
-                                                       n_boot=n_boot, n_sim=N_SIM, year_start=year_start,
-                                                       **duration)
+                out["point"] = point_design_depths(
+                    self.pr,
+                    self.basins,
+                    periods=PERIODS,
+                    ci=ci,
+                    n_boot=n_boot,
+                    n_sim=N_SIM,
+                    year_start=year_start,
+                    **duration,
+                )
+                out["regional"] = regional_depth_field(
+                    self.pr,
+                    self.basins,
+                    periods=PERIODS,
+                    ci=ci,
+                    n_boot=n_boot,
+                    n_sim=N_SIM,
+                    year_start=year_start,
+                    **duration,
+                )
         return out
 
     def finish(self, computed, params):
@@ -260,15 +360,21 @@ class ExtremesWidget(BaseWidget):
             field = self.result[layer].sel(period=t)
             what = {"estimate": "at-site", "lower": "at-site lower bound", "upper": "at-site upper bound"}[layer]
         self.table_basin.disabled = self.table_kind.value != "ddf"  # the other tables list every basin
-        self.map.show_field(field, kind="total", label=f"{dur} depth, once in {t} years [mm]",
-                            title=f"{dur} storm depth once in {t} years, {what}{warm}")
+        self.map.show_field(
+            field,
+            kind="total",
+            label=f"{dur} depth, once in {t} years [mm]",
+            title=f"{dur} storm depth once in {t} years, {what}{warm}",
+        )
         kind = self.table_kind.value
         table = self._table(t)
         self.show_table(table)
         if kind == "ddf" and table is not None:
             # people read one cell per return period, 'depth (lower–upper)'; the CSV keeps the numbers
-            caption = (f"<b>{html.escape(str(self.table_basin.value))}</b>: design depths by storm duration and "
-                       f"return period{html.escape(warm)}")
+            caption = (
+                f"<b>{html.escape(str(self.table_basin.value))}</b>: design depths by storm duration and "
+                f"return period{html.escape(warm)}"
+            )
             self.table_html.value = _CSS + caption + df_to_html(design_depth_cells(table))
         notes = {"ddf": DESIGN_TABLE_NOTE, "areal": AREAL_NOTE, "point": POINT_NOTE}
         note = notes[kind]
@@ -297,23 +403,27 @@ class ExtremesWidget(BaseWidget):
     def _write_csv(self, path):
         """The table shown, with the design-depth cautions and the table's note in its metadata."""
         if self.table is None:
-            raise ParameterError("there is no table to export yet", source="design depths",
-                                 fix="wait for the computation to finish")
+            raise ParameterError(
+                "there is no table to export yet", source="design depths", fix="wait for the computation to finish"
+            )
         prov = self.csv_provenance()
         note = {"ddf": DESIGN_TABLE_NOTE, "areal": AREAL_NOTE, "point": POINT_NOTE}[self.table_kind.value]
-        title = {"ddf": f"design depths of {self.table_basin.value} by duration and return period",
-                 "areal": "areal depths of the basins", "point": "at-site and regional point depths"}
+        title = {
+            "ddf": f"design depths of {self.table_basin.value} by duration and return period",
+            "areal": "areal depths of the basins",
+            "point": "at-site and regional point depths",
+        }
         prov.update(notes=[note], cautions=DESIGN_DEPTH_CAUTIONS, title=title[self.table_kind.value])
         self.write_table_csv(self.table, path, provenance=prov)
 
     def _write_depths(self, path):
         warmed = self.warmed()
         if warmed is None:
-            raise ParameterError("there are no basin depths yet", source="design-storm depths",
-                                 fix="wait for the computation to finish")
+            raise ParameterError(
+                "there are no basin depths yet", source="design-storm depths", fix="wait for the computation to finish"
+            )
         prov = self.csv_provenance()
-        prov.update(notes=[warmed.attrs.get("note", "")], cautions=DESIGN_DEPTH_CAUTIONS,
-                    title="basin return levels")
+        prov.update(notes=[warmed.attrs.get("note", "")], cautions=DESIGN_DEPTH_CAUTIONS, title="basin return levels")
         self.write_table_csv(depth_table(warmed), path, provenance=prov)
 
     def _chart(self):
@@ -322,8 +432,14 @@ class ExtremesWidget(BaseWidget):
 
         warming = None
         if self.delta_t.value:
-            factor = float(warming_scaling(xr.DataArray(1.0, attrs={"units": "mm"}), float(self.delta_t.value),
-                                           rate=float(self.rate.value) / 100.0))
+            factor = float(
+                warming_scaling(
+                    xr.DataArray(1.0, attrs={"units": "mm"}),
+                    float(self.delta_t.value),
+                    rate=float(self.rate.value) / 100.0,
+                )
+            )
             warming = (self.delta_t.value, self.rate.value, factor)
-        return design_depth_chart(self.design, warming=warming, period=int(self.period.value),
-                                  ci=self.levels.attrs.get("ci", 0.9))
+        return design_depth_chart(
+            self.design, warming=warming, period=int(self.period.value), ci=self.levels.attrs.get("ci", 0.9)
+        )

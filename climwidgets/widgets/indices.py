@@ -50,9 +50,13 @@ class IndicesWidget(BaseWidget):
     def __init__(self, pr, basins=None, threshold=25.0, base_period=None, export_dir="out"):
         step = pr.attrs.get("step") if isinstance(pr, xr.DataArray) else None
         if step != "day":
-            raise ParameterError(f"the precipitation step is {step!r}", source="IndicesWidget", variable="pr",
-                                 expected="daily precipitation (attrs['step'] == 'day')",
-                                 fix="open the daily file with cw.open_precip")
+            raise ParameterError(
+                f"the precipitation step is {step!r}",
+                source="IndicesWidget",
+                variable="pr",
+                expected="daily precipitation (attrs['step'] == 'day')",
+                fix="open the daily file with cw.open_precip",
+            )
         self.pr = pr
         self.use_basins(basins)
         self._whole = whole_grid_basin(pr)
@@ -60,17 +64,33 @@ class IndicesWidget(BaseWidget):
         years = sorted({int(y) for y in pr["time"].dt.year.values})
         style = {"description_width": "110px"}
         lay = widgets.Layout(width="290px")
-        self.index = widgets.Dropdown(options=self._options(float(threshold)), value="PRCPTOT",
-                                      description="Index", style=style, layout=widgets.Layout(width="390px"))
-        self.first = widgets.BoundedIntText(value=years[0], min=years[0], max=years[-1], description="First year",
-                                            style=style, layout=lay)
-        self.last = widgets.BoundedIntText(value=years[-1], min=years[0], max=years[-1], description="Last year",
-                                           style=style, layout=lay)
-        self.threshold = widgets.BoundedFloatText(value=float(threshold), min=1.0, max=500.0, step=5.0,
-                                                  description="Threshold (mm)", style=style, layout=lay)
-        self.layer = widgets.Dropdown(options=[("mean over the years", "mean"), ("Sen slope per decade", "slope"),
-                                               ("Mann-Kendall p of the trend", "pvalue")], value="mean",
-                                      description="Map shows", style=style, layout=lay)
+        self.index = widgets.Dropdown(
+            options=self._options(float(threshold)),
+            value="PRCPTOT",
+            description="Index",
+            style=style,
+            layout=widgets.Layout(width="390px"),
+        )
+        self.first = widgets.BoundedIntText(
+            value=years[0], min=years[0], max=years[-1], description="First year", style=style, layout=lay
+        )
+        self.last = widgets.BoundedIntText(
+            value=years[-1], min=years[0], max=years[-1], description="Last year", style=style, layout=lay
+        )
+        self.threshold = widgets.BoundedFloatText(
+            value=float(threshold), min=1.0, max=500.0, step=5.0, description="Threshold (mm)", style=style, layout=lay
+        )
+        self.layer = widgets.Dropdown(
+            options=[
+                ("mean over the years", "mean"),
+                ("Sen slope per decade", "slope"),
+                ("Mann-Kendall p of the trend", "pvalue"),
+            ],
+            value="mean",
+            description="Map shows",
+            style=style,
+            layout=lay,
+        )
         self.base_period = base_period
         self.about = widgets.HTML("", layout=widgets.Layout(width="390px"))
         super().__init__(map_frame=MapFrame(basins=self.basins, kind="total"), export_dir=export_dir)
@@ -84,17 +104,24 @@ class IndicesWidget(BaseWidget):
 
     # ------------------------------------------------------------ BaseWidget hooks
     def build_controls(self):
-        note = widgets.HTML("<small>Wet day: at least 1 mm. The threshold sets the extra index R&lt;nn&gt;mm. "
-                            "The map is the mean over the years chosen; "
-                            "a basin's value is the area-weighted mean of its cells' index.</small>",
-                            layout=widgets.Layout(width="390px"))
+        note = widgets.HTML(
+            "<small>Wet day: at least 1 mm. The threshold sets the extra index R&lt;nn&gt;mm. "
+            "The map is the mean over the years chosen; "
+            "a basin's value is the area-weighted mean of its cells' index.</small>",
+            layout=widgets.Layout(width="390px"),
+        )
         return [self.index, self.first, self.last, self.threshold, self.layer, note, self.about]
 
     def parameters(self):
         first, last = int(self.first.value), int(self.last.value)
         if first > last:
-            raise ParameterError(f"the first year {first} is after the last year {last}", source="IndicesWidget",
-                                 variable="years", expected="first year <= last year", fix="swap the years")
+            raise ParameterError(
+                f"the first year {first} is after the last year {last}",
+                source="IndicesWidget",
+                variable="years",
+                expected="first year <= last year",
+                fix="swap the years",
+            )
         nn = float(self.threshold.value)
         name = f"R{nn:g}mm"
         if self.index.value not in INDEX_NAMES and self.index.value != name:
@@ -119,8 +146,12 @@ class IndicesWidget(BaseWidget):
         else:
             trends = index_trend_map(ind, name, period)
             field = trends["slope_per_decade" if layer == "slope" else "pvalue"]
-        return {"indices": ind, "map": field,
-                "table": basin_index_table(ind, basins, name, period) if basins else None, "key": key}
+        return {
+            "indices": ind,
+            "map": field,
+            "table": basin_index_table(ind, basins, name, period) if basins else None,
+            "key": key,
+        }
 
     def finish(self, computed, params):
         self._indices = {computed["key"]: computed["indices"]}  # computed: kept for the next index or period
@@ -135,8 +166,12 @@ class IndicesWidget(BaseWidget):
         kind = {"mean": "share" if name in _SHARE else "total", "slope": "difference", "pvalue": "share"}[layer]
         what = {"mean": "mean", "slope": "Sen slope", "pvalue": "Mann-Kendall p"}[layer]
         units = a.get("display_units", a.get("units", ""))
-        self.map.show_field(field, kind=kind, label=f"{name} {what}" + (f" [{units}]" if units else ""),
-                            title=f"{index_meta(name).label}, {what} {first}-{last}")
+        self.map.show_field(
+            field,
+            kind=kind,
+            label=f"{name} {what}" + (f" [{units}]" if units else ""),
+            title=f"{index_meta(name).label}, {what} {first}-{last}",
+        )
         self.about.value = f"<small>{a.get('description', '')}</small>"
         table = result["table"]
         self.show_table(None if table is None else index_table(table, display=True))

@@ -87,33 +87,52 @@ class MapFrame(widgets.VBox):
         Draw Natural Earth coastlines when the data is on disk (never downloads).
     """
 
-    def __init__(self, field=None, basins=(), kind="total", figsize=None, dpi=100,
-                 coastlines=True, title=None, outline=None, layers=()):
+    def __init__(
+        self,
+        field=None,
+        basins=(),
+        kind="total",
+        figsize=None,
+        dpi=100,
+        coastlines=True,
+        title=None,
+        outline=None,
+        layers=(),
+    ):
         self._figsize = figsize
         self.figure = Figure(figsize=figsize or (_WIDTH, 6.0), dpi=dpi)
         self.canvas = _make_canvas(self.figure)
         self.readout = widgets.Label("Point at the map to read a value.")
-        self.zoom = widgets.Dropdown(options=[("whole grid", "")], value="", description="Zoom to basin",
-                                     style={"description_width": "initial"},
-                                     layout=widgets.Layout(width="260px"))
+        self.zoom = widgets.Dropdown(
+            options=[("whole grid", "")],
+            value="",
+            description="Zoom to basin",
+            style={"description_width": "initial"},
+            layout=widgets.Layout(width="260px"),
+        )
         self.zoom.observe(lambda change: self.zoom_to(change["new"] or None), names="value")
         self.range_mode = widgets.ToggleButtons(
-            options=[("auto", "auto"), ("fixed", "fixed")], value="auto",
-            tooltips=["from the data: 2nd to 98th percentile (or the view's own scale)",
-                      "the limits typed beside"],
-            style={"button_width": "52px"}, layout=widgets.Layout(width="auto"))
+            options=[("auto", "auto"), ("fixed", "fixed")],
+            value="auto",
+            tooltips=["from the data: 2nd to 98th percentile (or the view's own scale)", "the limits typed beside"],
+            style={"button_width": "52px"},
+            layout=widgets.Layout(width="auto"),
+        )
         box = widgets.Layout(width="150px")
-        self.range_min = widgets.FloatText(description="from", disabled=True, layout=box,
-                                           style={"description_width": "initial"})
-        self.range_max = widgets.FloatText(description="to", disabled=True, layout=box,
-                                           style={"description_width": "initial"})
+        self.range_min = widgets.FloatText(
+            description="from", disabled=True, layout=box, style={"description_width": "initial"}
+        )
+        self.range_max = widgets.FloatText(
+            description="to", disabled=True, layout=box, style={"description_width": "initial"}
+        )
         self.range_units = widgets.HTML()
         self.range_mode.observe(self._range_mode_changed, names="value")
         self.range_min.observe(self._range_typed, names="value")
         self.range_max.observe(self._range_typed, names="value")
-        self.range_row = widgets.HBox([widgets.Label("Colour range"), self.range_mode, self.range_min, self.range_max,
-                                       self.range_units],
-                                      layout=widgets.Layout(align_items="center", flex_flow="row wrap"))
+        self.range_row = widgets.HBox(
+            [widgets.Label("Colour range"), self.range_mode, self.range_min, self.range_max, self.range_units],
+            layout=widgets.Layout(align_items="center", flex_flow="row wrap"),
+        )
         self.note = widgets.HTML()
         self.legend = widgets.HTML()
         self.ax = None
@@ -158,8 +177,14 @@ class MapFrame(widgets.VBox):
     def _map_aspect(self, field):
         """Height / width of the whole grid as drawn in its projection."""
         lon_e, lat_e = maps._edges(field)
-        edge = np.concatenate([np.c_[lon_e[0], lat_e[0]], np.c_[lon_e[-1], lat_e[-1]],
-                               np.c_[lon_e[:, 0], lat_e[:, 0]], np.c_[lon_e[:, -1], lat_e[:, -1]]])
+        edge = np.concatenate(
+            [
+                np.c_[lon_e[0], lat_e[0]],
+                np.c_[lon_e[-1], lat_e[-1]],
+                np.c_[lon_e[:, 0], lat_e[:, 0]],
+                np.c_[lon_e[:, -1], lat_e[:, -1]],
+            ]
+        )
         x, y = maps.lonlat_to_map(self.projection, edge[:, 0], edge[:, 1])
         ok = np.isfinite(x) & np.isfinite(y)
         dx, dy = np.ptp(x[ok]), np.ptp(y[ok])
@@ -179,8 +204,12 @@ class MapFrame(widgets.VBox):
                 self.figure.set_size_inches(width, height, forward=True)
         ax_rect = (_LEFT / width, _BOTTOM / height, map_w / width, map_h / height)
         bar_h = 0.8 * map_h
-        cax_rect = ((_LEFT + map_w + _CBAR_GAP) / width, (_BOTTOM + 0.1 * map_h) / height, _CBAR_W / width,
-                    bar_h / height)
+        cax_rect = (
+            (_LEFT + map_w + _CBAR_GAP) / width,
+            (_BOTTOM + 0.1 * map_h) / height,
+            _CBAR_W / width,
+            bar_h / height,
+        )
         return ax_rect, cax_rect
 
     def _build_axes(self, field):
@@ -201,8 +230,11 @@ class MapFrame(widgets.VBox):
                 warnings.simplefilter("always")
                 drawn = maps.add_coastlines(self.ax)
             if drawn is None:
-                self.note.value = "<small>Coastlines: Natural Earth data is not on disk, map drawn without them.</small>" \
-                    if caught else ""
+                self.note.value = (
+                    "<small>Coastlines: Natural Earth data is not on disk, map drawn without them.</small>"
+                    if caught
+                    else ""
+                )
         maps.add_gridlines(self.ax, width_px=ax_rect[2] * self.figure.bbox.width)
 
     @property
@@ -248,8 +280,9 @@ class MapFrame(widgets.VBox):
             maps.update_field(self.mesh, self.cbar, field, kind=kind, vmin=vmin, vmax=vmax, label=label)
         else:
             self._build_axes(field)
-            self.mesh, self.cbar = maps.draw_field(self.ax, field, kind=kind, vmin=vmin, vmax=vmax,
-                                                   cax=self.cax, label=label)
+            self.mesh, self.cbar = maps.draw_field(
+                self.ax, field, kind=kind, vmin=vmin, vmax=vmax, cax=self.cax, label=label
+            )
             self._edges = maps._edges(field)
             self._draw_basins()
             self._draw_context()
@@ -287,10 +320,17 @@ class MapFrame(widgets.VBox):
         lo, hi = self.mesh.get_clim()
         self._set_quietly(self.range_min, _short(lo))
         self._set_quietly(self.range_max, _short(hi))
-        how = ("typed" if self.range_mode.value == "fixed" else
-               "the scale of this view" if self._requested != (None, None) else "2nd–98th percentile of the map")
-        self.range_units.value = (f"<span style='margin-left:6px'>{html.escape(self._shown_units())}</span>"
-                                  f" <small style='color:#555'>({how})</small>")
+        how = (
+            "typed"
+            if self.range_mode.value == "fixed"
+            else "the scale of this view"
+            if self._requested != (None, None)
+            else "2nd–98th percentile of the map"
+        )
+        self.range_units.value = (
+            f"<span style='margin-left:6px'>{html.escape(self._shown_units())}</span>"
+            f" <small style='color:#555'>({how})</small>"
+        )
 
     def _range_mode_changed(self, change):
         if self._quiet:
@@ -324,8 +364,10 @@ class MapFrame(widgets.VBox):
         if self.range_mode.value == "fixed":
             lo, hi = self._typed_limits()
             if not (np.isfinite(lo) and np.isfinite(hi)) or hi <= lo:
-                self.range_units.value = ("<span style='color:#b00'>The upper limit must be above the lower "
-                                          "one: type two different numbers.</span>")
+                self.range_units.value = (
+                    "<span style='color:#b00'>The upper limit must be above the lower "
+                    "one: type two different numbers.</span>"
+                )
                 return
         else:
             _, lo, hi = maps.colour_style(self._kind, self._values, *self._requested)
@@ -366,8 +408,15 @@ class MapFrame(widgets.VBox):
         if label is None:
             label = Path(source).stem if isinstance(source, (str, Path)) else f"layer {len(self.layers) + 1}"
         style_color, style_ls = maps.LAYER_STYLES[len(self.layers) % len(maps.LAYER_STYLES)]
-        self.layers.append({"geoms": geoms, "label": str(label), "color": color or style_color,
-                            "linewidth": float(linewidth), "linestyle": linestyle or style_ls})
+        self.layers.append(
+            {
+                "geoms": geoms,
+                "label": str(label),
+                "color": color or style_color,
+                "linewidth": float(linewidth),
+                "linestyle": linestyle or style_ls,
+            }
+        )
         if self.ax is not None:
             self._draw_context()
             self.redraw()
@@ -385,13 +434,26 @@ class MapFrame(widgets.VBox):
             if "mask" in self.outline:
                 drawn = maps.draw_mask_outline(self.ax, self.outline["mask"], label=self.outline["label"])
             else:
-                drawn = maps.draw_lines(self.ax, self.outline["geoms"], color="0.15", linewidth=0.7,
-                                        label=self.outline["label"], bounds=bounds)
+                drawn = maps.draw_lines(
+                    self.ax,
+                    self.outline["geoms"],
+                    color="0.15",
+                    linewidth=0.7,
+                    label=self.outline["label"],
+                    bounds=bounds,
+                )
             self._context_artists += drawn
             entries.append(("0.15", "-", self.outline["label"], bool(drawn)))
         for layer in self.layers:
-            drawn = maps.draw_lines(self.ax, layer["geoms"], color=layer["color"], linewidth=layer["linewidth"],
-                                    linestyle=layer["linestyle"], label=layer["label"], bounds=bounds)
+            drawn = maps.draw_lines(
+                self.ax,
+                layer["geoms"],
+                color=layer["color"],
+                linewidth=layer["linewidth"],
+                linestyle=layer["linestyle"],
+                label=layer["label"],
+                bounds=bounds,
+            )
             self._context_artists += drawn
             entries.append((layer["color"], layer["linestyle"], layer["label"], bool(drawn)))
         self.legend.value = self._legend_html(entries)
@@ -405,8 +467,10 @@ class MapFrame(widgets.VBox):
         parts = []
         for color, ls, label, drawn in entries:
             border = "dashed" if ls in ("--", "-.") else "solid"
-            swatch = (f"<span style='display:inline-block;width:18px;border-top:2px {border} {to_hex(color)};"
-                      "vertical-align:middle;margin-right:4px'></span>")
+            swatch = (
+                f"<span style='display:inline-block;width:18px;border-top:2px {border} {to_hex(color)};"
+                "vertical-align:middle;margin-right:4px'></span>"
+            )
             note = "" if drawn else " <i>(nothing inside the map)</i>"
             parts.append(f"{swatch}{html.escape(label)}{note}")
         return "<small>Lines: " + " &nbsp; ".join(parts) + "</small>"
@@ -446,8 +510,9 @@ class MapFrame(widgets.VBox):
             pts = np.asarray(lonlat, dtype=float)
             if closed:
                 pts = np.vstack([pts, pts[:1]])
-            self._overlay = self.ax.plot(pts[:, 0], pts[:, 1], "o-", color="#ff7f00", ms=4, lw=1.2,
-                                         transform=self._pc())
+            self._overlay = self.ax.plot(
+                pts[:, 0], pts[:, 1], "o-", color="#ff7f00", ms=4, lw=1.2, transform=self._pc()
+            )
         self.redraw()
 
     def zoom_to(self, name=None, pad=0.25):
@@ -553,4 +618,3 @@ class MapFrame(widgets.VBox):
         buf = io.BytesIO()
         self.figure.savefig(buf, format="png", dpi=dpi)
         return buf.getvalue()
-

@@ -38,8 +38,15 @@ from ..cache import LRUCache
 from ..compute.ensemble import MEMBER_DIMS, member_dim
 from ..errors import ParameterError
 
-__all__ = ["DEFAULT_CHOICE", "MEMBER_LABEL", "find_member_dim", "member_menu", "reduce_members", "fresh_like",
-           "caption"]
+__all__ = [
+    "DEFAULT_CHOICE",
+    "MEMBER_LABEL",
+    "find_member_dim",
+    "member_menu",
+    "reduce_members",
+    "fresh_like",
+    "caption",
+]
 
 #: The words of the menu.
 MEMBER_LABEL = "Ensemble member"
@@ -58,11 +65,14 @@ def find_member_dim(obj) -> str | None:
         return None
     found = [d for d in MEMBER_DIMS if d in obj.dims]
     if len(found) > 1:
-        raise ParameterError(f"the data have several member-like dimensions {tuple(found)}",
-                             source=getattr(obj, "name", None) or "widget input", variable=str(found),
-                             expected="at most one member dimension for the Ensemble member menu",
-                             fix=f"select one of them (e.g. pr.isel({found[1]}=0)) or stack them into one: "
-                                 f"pr.stack(member={tuple(found)!r})")
+        raise ParameterError(
+            f"the data have several member-like dimensions {tuple(found)}",
+            source=getattr(obj, "name", None) or "widget input",
+            variable=str(found),
+            expected="at most one member dimension for the Ensemble member menu",
+            fix=f"select one of them (e.g. pr.isel({found[1]}=0)) or stack them into one: "
+            f"pr.stack(member={tuple(found)!r})",
+        )
     return member_dim(obj, None, "ensemble member menu", required=False)
 
 
@@ -79,9 +89,13 @@ def member_menu(obj, dim: str, style=None, layout=None) -> widgets.Dropdown:
     for choice in member_choices(source, dim):
         words = member_view_words(choice)
         options.append((words["label"] if choice in MEMBER_VIEWS else str(choice), choice))
-    return widgets.Dropdown(options=options, value=DEFAULT_CHOICE, description=MEMBER_LABEL,
-                            style=style or {"description_width": "120px"},
-                            layout=layout or widgets.Layout(width="330px"))
+    return widgets.Dropdown(
+        options=options,
+        value=DEFAULT_CHOICE,
+        description=MEMBER_LABEL,
+        style=style or {"description_width": "120px"},
+        layout=layout or widgets.Layout(width="330px"),
+    )
 
 
 def _numeric(da) -> bool:
@@ -129,5 +143,7 @@ def fresh_like(value):
 def caption(choice, n_members: int) -> str:
     """The line above a widget's table saying which member view it shows (HTML)."""
     words = member_view_words(choice, n_members if choice in MEMBER_VIEWS else None)
-    return f"<div style='margin:2px 0'><small><b>{html.escape(MEMBER_LABEL)}:</b> " \
-           f"{html.escape(words['description'])}</small></div>"
+    return (
+        f"<div style='margin:2px 0'><small><b>{html.escape(MEMBER_LABEL)}:</b> "
+        f"{html.escape(words['description'])}</small></div>"
+    )

@@ -26,8 +26,7 @@ import ipywidgets as widgets
 import numpy as np
 import xarray as xr
 
-from ..analyses.orographic import (MODEL_BACKGROUND_MM_H, MODEL_DELAY_S, MODEL_NOTE, band_table,
-                                   orographic_contrast)
+from ..analyses.orographic import MODEL_BACKGROUND_MM_H, MODEL_DELAY_S, MODEL_NOTE, band_table, orographic_contrast
 from ..errors import ParameterError
 from ..plot.charts import contrast_chart
 from .base import BaseWidget
@@ -36,8 +35,12 @@ from .mapframe import MapFrame
 
 __all__ = ["OrographicContrastWidget", "parse_bands"]
 
-LAYERS = [("mean annual total", "observed"), ("distance from the crest", "distance"),
-          ("linear model (rate)", "model"), ("terrain", "terrain")]
+LAYERS = [
+    ("mean annual total", "observed"),
+    ("distance from the crest", "distance"),
+    ("linear model (rate)", "model"),
+    ("terrain", "terrain"),
+]
 
 
 def parse_bands(text: str) -> tuple[float, ...]:
@@ -47,9 +50,13 @@ def parse_bands(text: str) -> tuple[float, ...]:
     except ValueError:
         edges = ()
     if len(edges) < 2 or any(b <= a for a, b in zip(edges, edges[1:])) or edges[0] < 0:
-        raise ParameterError(f"distance bands {text!r} are not increasing distances", source="OrographicContrastWidget",
-                             variable="distance bands", expected="two or more increasing distances in km, "
-                             "starting at 0 or more, e.g. '0, 25, 50'", fix="type the band edges separated by commas")
+        raise ParameterError(
+            f"distance bands {text!r} are not increasing distances",
+            source="OrographicContrastWidget",
+            variable="distance bands",
+            expected="two or more increasing distances in km, starting at 0 or more, e.g. '0, 25, 50'",
+            fix="type the band edges separated by commas",
+        )
     return edges
 
 
@@ -75,9 +82,13 @@ class OrographicContrastWidget(BaseWidget):
     def __init__(self, pr, elevation, basins=None, n_boot=500, export_dir="out"):
         for name, obj in (("pr", pr), ("elevation", elevation)):
             if not isinstance(obj, xr.DataArray):
-                raise ParameterError(f"{name} is a {type(obj).__name__}", source="OrographicContrastWidget",
-                                     variable=name, expected="an xarray DataArray",
-                                     fix="open it with cw.open_precip / cw.open_elevation")
+                raise ParameterError(
+                    f"{name} is a {type(obj).__name__}",
+                    source="OrographicContrastWidget",
+                    variable=name,
+                    expected="an xarray DataArray",
+                    fix="open it with cw.open_precip / cw.open_elevation",
+                )
         self.pr = pr
         self.elevation = elevation
         self.use_basins(basins)
@@ -90,40 +101,112 @@ class OrographicContrastWidget(BaseWidget):
         style = {"description_width": "130px"}
         lay = widgets.Layout(width="310px")
         # 360 degrees on a short track: a typed box beside the slider, to the degree
-        self.wind_from = widgets.IntSlider(value=270, min=0, max=359, step=1, description="Wind from (°)",
-                                             style=style, layout=widgets.Layout(width="236px"), readout=False,
-                                             continuous_update=False)
+        self.wind_from = widgets.IntSlider(
+            value=270,
+            min=0,
+            max=359,
+            step=1,
+            description="Wind from (°)",
+            style=style,
+            layout=widgets.Layout(width="236px"),
+            readout=False,
+            continuous_update=False,
+        )
         self.wind_from_box = number_entry(self.wind_from)
-        self.crest_mode = widgets.ToggleButtons(options=[("from terrain", "terrain"), ("drawn on map", "drawn")],
-                                                value="terrain", description="Crest", style=style)
-        self.min_height = widgets.BoundedFloatText(value=round(0.1 * top, -1), min=0.0, max=max(top, 1.0),
-                                                   description="Lowest crest (m)", style=style, layout=lay)
-        self.draw = widgets.ToggleButton(value=False, description="Draw crest", icon="pencil",
-                                         tooltip="click on the map to add crest points",
-                                         layout=widgets.Layout(width="auto"))
+        self.crest_mode = widgets.ToggleButtons(
+            options=[("from terrain", "terrain"), ("drawn on map", "drawn")],
+            value="terrain",
+            description="Crest",
+            style=style,
+        )
+        self.min_height = widgets.BoundedFloatText(
+            value=round(0.1 * top, -1),
+            min=0.0,
+            max=max(top, 1.0),
+            description="Lowest crest (m)",
+            style=style,
+            layout=lay,
+        )
+        self.draw = widgets.ToggleButton(
+            value=False,
+            description="Draw crest",
+            icon="pencil",
+            tooltip="click on the map to add crest points",
+            layout=widgets.Layout(width="auto"),
+        )
         self.clear = widgets.Button(description="Clear crest", icon="times", layout=widgets.Layout(width="auto"))
-        self.bands = widgets.Text(value="0, 25, 50", description="Bands (km)", style=style, layout=lay,
-                                  continuous_update=False)
-        self.level = widgets.Dropdown(options=[("80%", 0.8), ("90%", 0.9), ("95%", 0.95)], value=0.9,
-                                      description="Confidence level", style=style, layout=lay)
-        self.n_boot = widgets.BoundedIntText(value=int(n_boot), min=50, max=20000, step=50,
-                                             description="Bootstrap samples", style=style, layout=lay)
-        self.wind_speed = widgets.FloatSlider(value=10.0, min=2.0, max=30.0, step=1.0, description="Wind speed (m/s)",
-                                              style=style, layout=lay, continuous_update=False)
-        self.temperature = widgets.FloatSlider(value=10.0, min=-10.0, max=30.0, step=1.0,
-                                               description="Temperature (°C)", style=style, layout=lay,
-                                               continuous_update=False)
-        self.background = widgets.BoundedFloatText(value=MODEL_BACKGROUND_MM_H, min=0.0, max=50.0, step=0.5,
-                                                   description="Background (mm/h)", style=style, layout=lay,
-                                                   tooltip="uniform non-orographic rain rate added to the model")
-        self.delay = widgets.FloatSlider(value=MODEL_DELAY_S, min=200.0, max=2000.0, step=100.0,
-                                         description="Delays τc = τf (s)", style=style, layout=lay,
-                                         continuous_update=False, readout_format=".0f")
-        self.layer = widgets.Dropdown(options=LAYERS, value="observed", description="Map shows",
-                                      style=style, layout=lay)
-        super().__init__(map_frame=MapFrame(basins=self.basins, kind="difference", outline=elevation), export_dir=export_dir)
-        self.watch(self.wind_from, self.crest_mode, self.min_height, self.bands, self.level, self.n_boot,
-                   self.wind_speed, self.temperature, self.background, self.delay)
+        self.bands = widgets.Text(
+            value="0, 25, 50", description="Bands (km)", style=style, layout=lay, continuous_update=False
+        )
+        self.level = widgets.Dropdown(
+            options=[("80%", 0.8), ("90%", 0.9), ("95%", 0.95)],
+            value=0.9,
+            description="Confidence level",
+            style=style,
+            layout=lay,
+        )
+        self.n_boot = widgets.BoundedIntText(
+            value=int(n_boot), min=50, max=20000, step=50, description="Bootstrap samples", style=style, layout=lay
+        )
+        self.wind_speed = widgets.FloatSlider(
+            value=10.0,
+            min=2.0,
+            max=30.0,
+            step=1.0,
+            description="Wind speed (m/s)",
+            style=style,
+            layout=lay,
+            continuous_update=False,
+        )
+        self.temperature = widgets.FloatSlider(
+            value=10.0,
+            min=-10.0,
+            max=30.0,
+            step=1.0,
+            description="Temperature (°C)",
+            style=style,
+            layout=lay,
+            continuous_update=False,
+        )
+        self.background = widgets.BoundedFloatText(
+            value=MODEL_BACKGROUND_MM_H,
+            min=0.0,
+            max=50.0,
+            step=0.5,
+            description="Background (mm/h)",
+            style=style,
+            layout=lay,
+            tooltip="uniform non-orographic rain rate added to the model",
+        )
+        self.delay = widgets.FloatSlider(
+            value=MODEL_DELAY_S,
+            min=200.0,
+            max=2000.0,
+            step=100.0,
+            description="Delays τc = τf (s)",
+            style=style,
+            layout=lay,
+            continuous_update=False,
+            readout_format=".0f",
+        )
+        self.layer = widgets.Dropdown(
+            options=LAYERS, value="observed", description="Map shows", style=style, layout=lay
+        )
+        super().__init__(
+            map_frame=MapFrame(basins=self.basins, kind="difference", outline=elevation), export_dir=export_dir
+        )
+        self.watch(
+            self.wind_from,
+            self.crest_mode,
+            self.min_height,
+            self.bands,
+            self.level,
+            self.n_boot,
+            self.wind_speed,
+            self.temperature,
+            self.background,
+            self.delay,
+        )
         self.watch_display(self.layer)
         self.clear.on_click(lambda _: self.clear_crest())
         self.map.on_click(self._on_map_click)
@@ -141,21 +224,43 @@ class OrographicContrastWidget(BaseWidget):
         head = widgets.HTML("<b>Observed contrast</b>")
         model = widgets.HTML("<b>Linear orographic model</b> <small>(Smith &amp; Barstad 2004)</small>")
         wind = widgets.HBox([self.wind_from, self.wind_from_box])
-        return [head, wind, self.crest_mode, self.min_height, widgets.HBox([self.draw, self.clear]),
-                self.bands, self.level, self.n_boot, model, self.wind_speed, self.temperature, self.background, self.delay,
-                self.layer]
+        return [
+            head,
+            wind,
+            self.crest_mode,
+            self.min_height,
+            widgets.HBox([self.draw, self.clear]),
+            self.bands,
+            self.level,
+            self.n_boot,
+            model,
+            self.wind_speed,
+            self.temperature,
+            self.background,
+            self.delay,
+            self.layer,
+        ]
 
     def parameters(self):
-        params = {"wind_from": float(self.wind_from.value), "band_km": parse_bands(self.bands.value),
-                  "ci": float(self.level.value), "n_boot": int(self.n_boot.value),
-                  "wind_speed": float(self.wind_speed.value), "temperature_c": float(self.temperature.value),
-                  "p_background": float(self.background.value), "tau": float(self.delay.value)}
+        params = {
+            "wind_from": float(self.wind_from.value),
+            "band_km": parse_bands(self.bands.value),
+            "ci": float(self.level.value),
+            "n_boot": int(self.n_boot.value),
+            "wind_speed": float(self.wind_speed.value),
+            "temperature_c": float(self.temperature.value),
+            "p_background": float(self.background.value),
+            "tau": float(self.delay.value),
+        }
         if self.crest_mode.value == "drawn":
             if len(self.drawn_crest) < 2:
-                raise ParameterError(f"the drawn crest has {len(self.drawn_crest)} point(s)",
-                                     source="OrographicContrastWidget", variable="crest",
-                                     expected="at least two points along the crest",
-                                     fix="switch on 'Draw crest' and click along the crest on the map")
+                raise ParameterError(
+                    f"the drawn crest has {len(self.drawn_crest)} point(s)",
+                    source="OrographicContrastWidget",
+                    variable="crest",
+                    expected="at least two points along the crest",
+                    fix="switch on 'Draw crest' and click along the crest on the map",
+                )
             params["ridge"] = list(self.drawn_crest)
         else:
             params["min_height"] = float(self.min_height.value)
@@ -210,17 +315,26 @@ class OrographicContrastWidget(BaseWidget):
         layer = self.layer.value
         if layer == "distance":
             field = self.result["distance_km"]
-            self.map.show_field(field, kind="difference", label="distance from crest [km], < 0 windward",
-                                title=f"windward (< 0) and leeward (> 0), wind from {self._params['wind_from']:g}°")
+            self.map.show_field(
+                field,
+                kind="difference",
+                label="distance from crest [km], < 0 windward",
+                title=f"windward (< 0) and leeward (> 0), wind from {self._params['wind_from']:g}°",
+            )
             self.map.mesh.set_cmap("PuOr_r")  # sides, not wetness: a neutral purple-orange scale
         elif layer == "observed":
-            self.map.show_field(self._mean, kind="total", label="mean annual total [mm]",
-                                title="observed mean annual total")
+            self.map.show_field(
+                self._mean, kind="total", label="mean annual total [mm]", title="observed mean annual total"
+            )
         elif layer == "model":
-            self.map.show_field(self.model, kind="total", label="linear model rate [mm per hour]",
-                                title=f"linear model, {self._params['wind_speed']:g} m/s, "
-                                      f"{self._params['temperature_c']:g} °C, background "
-                                      f"{self._params['p_background']:g} mm/h")
+            self.map.show_field(
+                self.model,
+                kind="total",
+                label="linear model rate [mm per hour]",
+                title=f"linear model, {self._params['wind_speed']:g} m/s, "
+                f"{self._params['temperature_c']:g} °C, background "
+                f"{self._params['p_background']:g} mm/h",
+            )
         else:
             self.map.show_field(self.elevation, kind="total", label="terrain height [m]", title="terrain")
         self.map.set_overlay(self.crest)

@@ -83,13 +83,29 @@ class ScenarioWidget(BaseWidget):
     export_stem = "scenario_signals"
     member_whole = ("signals", "depths")  # the table gives the ensemble figures whatever the map shows
 
-    def __init__(self, hist, future, basins=None, obs=None, months=(7, 8), historical=None, future_period=None,
-                 method="none", design_period=100, n_boot=200, export_dir="out"):
+    def __init__(
+        self,
+        hist,
+        future,
+        basins=None,
+        obs=None,
+        months=(7, 8),
+        historical=None,
+        future_period=None,
+        method="none",
+        design_period=100,
+        n_boot=200,
+        export_dir="out",
+    ):
         for label, da in (("hist", hist), ("future", future)):
             if not isinstance(da, xr.DataArray):
-                raise ParameterError(f"{label} is a {type(da).__name__}", source="ScenarioWidget", variable=label,
-                                     expected="a DataArray of precipitation (cw.open_precip)",
-                                     fix="open the run with cw.open_precip")
+                raise ParameterError(
+                    f"{label} is a {type(da).__name__}",
+                    source="ScenarioWidget",
+                    variable=label,
+                    expected="a DataArray of precipitation (cw.open_precip)",
+                    fix="open the run with cw.open_precip",
+                )
         self.pr, self.future, self.obs = hist, future, obs
         self.n_boot = int(n_boot)
         self.use_basins(basins)
@@ -104,26 +120,38 @@ class ScenarioWidget(BaseWidget):
         self.future_years, self.future_label = self._slider("Future years", future, future_period)
         methods = ["none"] + (["monthly_ratio", "quantile_delta"] if obs is not None else [])
         if method not in methods:
-            raise ParameterError(f"method {method!r} is not offered here", source="ScenarioWidget",
-                                 variable="method", expected=" or ".join(repr(m) for m in methods),
-                                 fix="pass obs=... for delta change or quantile delta mapping")
-        self.method = widgets.Dropdown(options=[(METHOD_LABELS[m], m) for m in methods], value=method,
-                                       description="Method", **lab)
+            raise ParameterError(
+                f"method {method!r} is not offered here",
+                source="ScenarioWidget",
+                variable="method",
+                expected=" or ".join(repr(m) for m in methods),
+                fix="pass obs=... for delta change or quantile delta mapping",
+            )
+        self.method = widgets.Dropdown(
+            options=[(METHOD_LABELS[m], m) for m in methods], value=method, description="Method", **lab
+        )
         self.layer = widgets.Dropdown(options=_LAYERS, value="normal_change_1", description="Map shows", **lab)
         self.daily = hist.attrs.get("step") in _DAILY or str(hist.attrs.get("step", "")).endswith("hour")
-        self.design_period = widgets.Dropdown(options=[(f"{t}-year 1-day", t) for t in (10, 25, 50, 100)],
-                                              value=design_period if design_period in (10, 25, 50, 100) else 100,
-                                              description="Design depth", style=lab["style"],
-                                              layout=widgets.Layout(width="340px"))  # its own: hidden alone
+        self.design_period = widgets.Dropdown(
+            options=[(f"{t}-year 1-day", t) for t in (10, 25, 50, 100)],
+            value=design_period if design_period in (10, 25, 50, 100) else 100,
+            description="Design depth",
+            style=lab["style"],
+            layout=widgets.Layout(width="340px"),
+        )  # its own: hidden alone
         if not self.daily:  # monthly runs give no design depths: the note under the controls says so
             self.design_period.layout.display = "none"
         self.about = widgets.HTML(layout=widgets.Layout(width="340px"))
         self.cautions = widgets.HTML(
             "<div style='border-left:4px solid #b5651d;background:#fbf4ec;padding:4px 10px;margin:4px 0;"
             "font-size:12px;max-width:980px'><b>Before using these numbers:</b><ol style='margin:2px 0 2px 18px;"
-            "padding:0'>" + "".join(f"<li>{html.escape(c)}</li>" for c in SCENARIO_CAUTIONS) + "</ol></div>")
-        super().__init__(map_frame=MapFrame(basins=self.basins, kind="difference", figsize=(5.6, 4.2)),
-                         export_dir=export_dir, chart=False)
+            "padding:0'>" + "".join(f"<li>{html.escape(c)}</li>" for c in SCENARIO_CAUTIONS) + "</ol></div>"
+        )
+        super().__init__(
+            map_frame=MapFrame(basins=self.basins, kind="difference", figsize=(5.6, 4.2)),
+            export_dir=export_dir,
+            chart=False,
+        )
         self.add_export("Report as HTML", self._write_report, "html", stem="scenario_report")
         if self.member is not None:  # the menu's words need a little more room than the base gives
             self.member.style.description_width = "130px"
@@ -137,25 +165,45 @@ class ScenarioWidget(BaseWidget):
     @staticmethod
     def _slider(description, run, period):
         lo, hi = _years(run)
-        slider = widgets.IntRangeSlider(value=tuple(period) if period else (lo, hi), min=lo, max=hi,
-                                        description=description, continuous_update=False, readout=False,
-                                        style={"description_width": "130px"}, layout=widgets.Layout(width="270px"))
+        slider = widgets.IntRangeSlider(
+            value=tuple(period) if period else (lo, hi),
+            min=lo,
+            max=hi,
+            description=description,
+            continuous_update=False,
+            readout=False,
+            style={"description_width": "130px"},
+            layout=widgets.Layout(width="270px"),
+        )
         label = widgets.Label(f"{slider.value[0]}–{slider.value[1]}")
         slider.observe(lambda c: setattr(label, "value", f"{c['new'][0]}–{c['new'][1]}"), names="value")
         return slider, label
 
     # ------------------------------------------------------------ BaseWidget hooks
     def build_controls(self):
-        depth_note = ("" if self.daily else
-                      "<br>Design-depth change: needs daily or hourly runs; these runs are "
-                      f"{html.escape(str(self.pr.attrs.get('step', '?')))} totals.")
-        note = widgets.HTML(f"<small>Dotted cells on the map: fewer than {100 * AGREEMENT_LEVEL:.0f} % of the members agree on "
-                            f"the sign of the change. The table gives the ensemble figures of every basin; the "
-                            f"member menu chooses what the map shows.{depth_note}</small>",
-                            layout=widgets.Layout(width="340px"))
-        return [self.first, self.last, widgets.HBox([self.historical, self.historical_label]),
-                widgets.HBox([self.future_years, self.future_label]), self.method, self.layer, self.design_period,
-                note, self.about]
+        depth_note = (
+            ""
+            if self.daily
+            else "<br>Design-depth change: needs daily or hourly runs; these runs are "
+            f"{html.escape(str(self.pr.attrs.get('step', '?')))} totals."
+        )
+        note = widgets.HTML(
+            f"<small>Dotted cells on the map: fewer than {100 * AGREEMENT_LEVEL:.0f} % of the members agree on "
+            f"the sign of the change. The table gives the ensemble figures of every basin; the "
+            f"member menu chooses what the map shows.{depth_note}</small>",
+            layout=widgets.Layout(width="340px"),
+        )
+        return [
+            self.first,
+            self.last,
+            widgets.HBox([self.historical, self.historical_label]),
+            widgets.HBox([self.future_years, self.future_label]),
+            self.method,
+            self.layer,
+            self.design_period,
+            note,
+            self.about,
+        ]
 
     @staticmethod
     def _period(slider):
@@ -165,12 +213,21 @@ class ScenarioWidget(BaseWidget):
     def parameters(self):
         months = season_months(self.first.value, self.last.value)
         if len(months) == 12:
-            raise ParameterError("the season covers the whole year", source="ScenarioWidget", variable="season",
-                                 expected="a season shorter than 12 months",
-                                 fix="choose an end month before the start month's predecessor")
-        return {"months": months, "historical": self._period(self.historical),
-                "future": self._period(self.future_years), "method": self.method.value,
-                "design_period": self.design_period.value if self.daily else None, "basins": self.basins}
+            raise ParameterError(
+                "the season covers the whole year",
+                source="ScenarioWidget",
+                variable="season",
+                expected="a season shorter than 12 months",
+                fix="choose an end month before the start month's predecessor",
+            )
+        return {
+            "months": months,
+            "historical": self._period(self.historical),
+            "future": self._period(self.future_years),
+            "method": self.method.value,
+            "design_period": self.design_period.value if self.daily else None,
+            "basins": self.basins,
+        }
 
     def compute(self, months, historical, future, method, design_period, basins):
         key = (months, historical, future, method, design_period, tuple((b.token, b.name) for b in basins))
@@ -179,12 +236,22 @@ class ScenarioWidget(BaseWidget):
             return cached
         shown = self.basins_or_whole_grid(self._whole)
         run = dict(months=months, historical=historical, future=future, obs=self.obs, method=method)
-        out = {"maps": signal_maps(self.pr, self.future, **run),
-               "signals": basin_signals(self.pr, self.future, shown, **run),
-               "depths": None, "key": key}
+        out = {
+            "maps": signal_maps(self.pr, self.future, **run),
+            "signals": basin_signals(self.pr, self.future, shown, **run),
+            "depths": None,
+            "key": key,
+        }
         if design_period is not None:
-            depths = basin_depth_signals(self.pr, self.future, shown, periods=(design_period,), historical=historical,
-                                         future=future, n_boot=self.n_boot)
+            depths = basin_depth_signals(
+                self.pr,
+                self.future,
+                shown,
+                periods=(design_period,),
+                historical=historical,
+                future=future,
+                n_boot=self.n_boot,
+            )
             out["depths"] = depths.sel(return_period=design_period, drop=True)
         return out
 
@@ -205,10 +272,14 @@ class ScenarioWidget(BaseWidget):
         depth = ""
         if result["depths"] is not None:
             d = result["depths"].attrs
-            depth = (f" Design depths: the model runs as they are, {d['future_period'][0]}–"
-                     f"{d['future_period'][1]} against {d['historical_period'][0]}–{d['historical_period'][1]}.")
-        self.about.value = (f"<small><b>Compared:</b> {html.escape(signals.attrs['comparison'])}; "
-                            f"{fp[0]}–{fp[1]} against {hp[0]}–{hp[1]}.{html.escape(extra + depth)}</small>")
+            depth = (
+                f" Design depths: the model runs as they are, {d['future_period'][0]}–"
+                f"{d['future_period'][1]} against {d['historical_period'][0]}–{d['historical_period'][1]}."
+            )
+        self.about.value = (
+            f"<small><b>Compared:</b> {html.escape(signals.attrs['comparison'])}; "
+            f"{fp[0]}–{fp[1]} against {hp[0]}–{hp[1]}.{html.escape(extra + depth)}</small>"
+        )
 
     def _show(self):
         result = self.result
@@ -217,8 +288,9 @@ class ScenarioWidget(BaseWidget):
         hp, fp = signals.attrs["historical_period"], signals.attrs["future_period"]
         season = signals.attrs["season"]
         words = "annual normal" if self.layer.value == "normal_change_1" else f"{season} share"
-        self.map.show_field(field, kind="difference",
-                            title=f"Change in {words}, {fp[0]}–{fp[1]} against {hp[0]}–{hp[1]}")
+        self.map.show_field(
+            field, kind="difference", title=f"Change in {words}, {fp[0]}–{fp[1]} against {hp[0]}–{hp[1]}"
+        )
         self._mark(result["maps"].get(f"{self.layer.value}_agreement"))
 
     def _mark(self, agreement):
@@ -250,8 +322,14 @@ class ScenarioWidget(BaseWidget):
         self.table = df
         signals = self.result["signals"] if self.result is not None else None
         n = signals.sizes.get(signals.attrs.get("member_dim", ""), 0) if signals is not None else 0
-        head = (f"<div style='margin:2px 0'><small><b>Table:</b> ensemble figures of {n} members (mean, lowest and "
-                f"highest member, members agreeing on the sign)</small></div>") if n else ""
+        head = (
+            (
+                f"<div style='margin:2px 0'><small><b>Table:</b> ensemble figures of {n} members (mean, lowest and "
+                f"highest member, members agreeing on the sign)</small></div>"
+            )
+            if n
+            else ""
+        )
         self.table_html.value = _CSS + head + df_to_html(df)
 
     # ------------------------------------------------------------ exports
@@ -277,20 +355,29 @@ class ScenarioWidget(BaseWidget):
         out["cautions"] = list(SCENARIO_CAUTIONS)
         if self.result is not None:
             a = self.result["signals"].attrs
-            out["notes"] = [f"compared: {a['comparison']}; {a['future_period'][0]}-{a['future_period'][1]} "
-                            f"against {a['historical_period'][0]}-{a['historical_period'][1]}"]
+            out["notes"] = [
+                f"compared: {a['comparison']}; {a['future_period'][0]}-{a['future_period'][1]} "
+                f"against {a['historical_period'][0]}-{a['historical_period'][1]}"
+            ]
         return out
 
     def _write_report(self, path):
         from ..report.scenario_section import write_scenario_report
 
         if self.result is None:
-            raise ParameterError("there are no numbers to report yet", source="ScenarioWidget",
-                                 fix="wait for the computation to finish")
+            raise ParameterError(
+                "there are no numbers to report yet", source="ScenarioWidget", fix="wait for the computation to finish"
+            )
         prov = self.csv_provenance()
         params = {k: v for k, v in prov["parameters"].items() if v is not None}
-        write_scenario_report(self.result["signals"], path, overwrite=True, inputs=prov["inputs"], parameters=params,
-                              depths=None if self.result["depths"] is None else self._depths_for_report())
+        write_scenario_report(
+            self.result["signals"],
+            path,
+            overwrite=True,
+            inputs=prov["inputs"],
+            parameters=params,
+            depths=None if self.result["depths"] is None else self._depths_for_report(),
+        )
 
     def _depths_for_report(self):
         depths = self.result["depths"]

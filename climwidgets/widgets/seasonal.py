@@ -49,8 +49,15 @@ from .mapframe import MapFrame
 
 __all__ = ["SeasonalShareWidget", "season_months"]
 
-_BASIN_VARS = ("area_km2", "seasonal_share_1", "n_share_years", "seasonal_share_per_year", "share_slope",
-               "share_pvalue", "share_intercept")
+_BASIN_VARS = (
+    "area_km2",
+    "seasonal_share_1",
+    "n_share_years",
+    "seasonal_share_per_year",
+    "share_slope",
+    "share_pvalue",
+    "share_intercept",
+)
 
 
 class SeasonalShareWidget(HostsDrawingTools, BaseWidget):
@@ -76,8 +83,7 @@ class SeasonalShareWidget(HostsDrawingTools, BaseWidget):
     title = "Seasonal share of annual precipitation"
     export_stem = "seasonal_share"
 
-    def __init__(self, pr, basins=None, months=(7, 8), how="ratio_of_sums", years=None, year_start=1,
-                 export_dir="out"):
+    def __init__(self, pr, basins=None, months=(7, 8), how="ratio_of_sums", years=None, year_start=1, export_dir="out"):
         self.pr = pr
         self._maps = LRUCache(maxsize=16)
         self._rows = LRUCache(maxsize=256)
@@ -87,17 +93,30 @@ class SeasonalShareWidget(HostsDrawingTools, BaseWidget):
         lab = {"style": {"description_width": "110px"}, "layout": widgets.Layout(width="330px")}
         self.first = widgets.Dropdown(options=_MONTH_OPTIONS, value=months[0], description="Season from", **lab)
         self.last = widgets.Dropdown(options=_MONTH_OPTIONS, value=months[-1], description="to", **lab)
-        self.year_start = widgets.Dropdown(options=[("January (calendar year)", 1), ("October (water year)", 10)],
-                                           value=year_start, description="Year starts in", **lab)
-        self.years = widgets.IntRangeSlider(value=tuple(years) if years else (lo, hi), min=lo, max=hi,
-                                            description="Years", continuous_update=False, readout=False,
-                                            style={"description_width": "110px"},
-                                            layout=widgets.Layout(width="330px"))
+        self.year_start = widgets.Dropdown(
+            options=[("January (calendar year)", 1), ("October (water year)", 10)],
+            value=year_start,
+            description="Year starts in",
+            **lab,
+        )
+        self.years = widgets.IntRangeSlider(
+            value=tuple(years) if years else (lo, hi),
+            min=lo,
+            max=hi,
+            description="Years",
+            continuous_update=False,
+            readout=False,
+            style={"description_width": "110px"},
+            layout=widgets.Layout(width="330px"),
+        )
         # the slider's own readout is too narrow for a range of two years: typed year boxes instead
         self.years_first, self.years_last = year_range_entry(self.years)
-        self.how = widgets.RadioButtons(options=[("ratio of sums", "ratio_of_sums"),
-                                                 ("mean of ratios", "mean_of_ratios")],
-                                        value=how, description="Averaging", **lab)
+        self.how = widgets.RadioButtons(
+            options=[("ratio of sums", "ratio_of_sums"), ("mean of ratios", "mean_of_ratios")],
+            value=how,
+            description="Averaging",
+            **lab,
+        )
         self.chart_basin = widgets.Dropdown(options=[], description="Chart basin", **lab)
         self.season_note = widgets.HTML()
         frame = MapFrame(kind="share", title=None)
@@ -110,12 +129,21 @@ class SeasonalShareWidget(HostsDrawingTools, BaseWidget):
 
     # ------------------------------------------------------------ layout and parameters
     def build_controls(self):
-        return [self.first, self.last, self.season_note, self.year_start,
-                self.years, widgets.HBox([self.years_first, widgets.Label("to"), self.years_last],
-                                         layout=widgets.Layout(margin="0 0 2px 114px", align_items="center")),
-                self.how, self.chart_basin,
-                widgets.HTML("<hr style='margin:4px 0'>"), self.tools]
-
+        return [
+            self.first,
+            self.last,
+            self.season_note,
+            self.year_start,
+            self.years,
+            widgets.HBox(
+                [self.years_first, widgets.Label("to"), self.years_last],
+                layout=widgets.Layout(margin="0 0 2px 114px", align_items="center"),
+            ),
+            self.how,
+            self.chart_basin,
+            widgets.HTML("<hr style='margin:4px 0'>"),
+            self.tools,
+        ]
 
     def basins_changed(self, event, details):
         self.tools.sync()
@@ -133,19 +161,29 @@ class SeasonalShareWidget(HostsDrawingTools, BaseWidget):
     def parameters(self):
         months = season_months(self.first.value, self.last.value)
         if len(months) == 12:
-            raise ParameterError("the season covers the whole year", source="seasonal share",
-                                 variable="season", expected="a season shorter than 12 months",
-                                 fix="choose an end month before the start month's predecessor")
+            raise ParameterError(
+                "the season covers the whole year",
+                source="seasonal share",
+                variable="season",
+                expected="a season shorter than 12 months",
+                fix="choose an end month before the start month's predecessor",
+            )
         label = f"{MONTH_LABELS[months[0] - 1]}–{MONTH_LABELS[months[-1] - 1]}"
         wraps = months[-1] < months[0]
-        self.season_note.value = (f"<small>{len(months)} months ({label})"
-                                  f"{', over the new year' if wraps else ''}</small>")
+        self.season_note.value = (
+            f"<small>{len(months)} months ({label}){', over the new year' if wraps else ''}</small>"
+        )
         years = tuple(self.years.value)
         if years == (self.years.min, self.years.max):
             years = None  # the whole record: every complete season-year, whatever its label
-        return {"months": months, "how": self.how.value, "years": years,
-                "year_start": self.year_start.value, "basins": self.basins,
-                "chart_basin": self.chart_basin.value}
+        return {
+            "months": months,
+            "how": self.how.value,
+            "years": years,
+            "year_start": self.year_start.value,
+            "basins": self.basins,
+            "chart_basin": self.chart_basin.value,
+        }
 
     # ------------------------------------------------------------ computation
     def compute(self, months, how, years, year_start, basins, chart_basin):
@@ -155,8 +193,7 @@ class SeasonalShareWidget(HostsDrawingTools, BaseWidget):
         if share is None:
             share = share_map(monthly, months=months, how=how, years=years, year_start=year_start)
         new = [b for b in basins if self._rows.get(key + (b.token, b.name)) is None]
-        rows = basin_shares(monthly, new, months=months, how=how, years=years, year_start=year_start) \
-            if new else None
+        rows = basin_shares(monthly, new, months=months, how=how, years=years, year_start=year_start) if new else None
         return {"share": share, "rows": rows}
 
     def finish(self, computed, params):
@@ -173,18 +210,23 @@ class SeasonalShareWidget(HostsDrawingTools, BaseWidget):
         if basins:
             # only the basins not seen before were computed; the others come from the cache
             parts = [self._rows.get(key + (b.token, b.name)) for b in basins]
-            rows = xr.concat([p[[v for v in _BASIN_VARS if v in p]] for p in parts], dim="basin",
-                             combine_attrs="override")
+            rows = xr.concat(
+                [p[[v for v in _BASIN_VARS if v in p]] for p in parts], dim="basin", combine_attrs="override"
+            )
             ds["basin_share"] = rows["seasonal_share_1"]
             ds["per_year"] = rows["seasonal_share_per_year"]
-            for name, var in (("slope", "share_slope"), ("pvalue", "share_pvalue"),
-                              ("intercept", "share_intercept")):
+            for name, var in (("slope", "share_slope"), ("pvalue", "share_pvalue"), ("intercept", "share_intercept")):
                 if var in rows:
                     ds[name] = rows[var]
             self._basin_rows = rows
         used = computed["share"].attrs.get("years", [None, None])
-        ds.attrs = {"season_months": list(months), "how": how, "first_year": used[0], "last_year": used[1],
-                    "year_start": ys}
+        ds.attrs = {
+            "season_months": list(months),
+            "how": how,
+            "first_year": used[0],
+            "last_year": used[1],
+            "year_start": ys,
+        }
         return ds
 
     # ------------------------------------------------------------ display
@@ -199,10 +241,13 @@ class SeasonalShareWidget(HostsDrawingTools, BaseWidget):
     def render(self, result, params):
         months = params["months"]
         label = f"{MONTH_LABELS[months[0] - 1]}–{MONTH_LABELS[months[-1] - 1]}"
-        self.map.show_field(result["share"], kind="share",
-                            label=f"seasonal share {label} [%]",
-                            title=f"Share of annual precipitation falling {label}, "
-                                  f"{result.attrs['first_year']}–{result.attrs['last_year']}")
+        self.map.show_field(
+            result["share"],
+            kind="share",
+            label=f"seasonal share {label} [%]",
+            title=f"Share of annual precipitation falling {label}, "
+            f"{result.attrs['first_year']}–{result.attrs['last_year']}",
+        )
         self.show_table(self.basin_table(result))
         name = params["chart_basin"]
         if name is not None and "basin_share" in result and name in list(result["basin"].values):
@@ -221,8 +266,9 @@ class SeasonalShareWidget(HostsDrawingTools, BaseWidget):
 
     def _write_per_year(self, path):
         if self.result is None or "per_year" not in self.result:
-            raise ParameterError("there are no basin series yet", source="seasonal share",
-                                 fix="draw or load a basin first")
+            raise ParameterError(
+                "there are no basin series yet", source="seasonal share", fix="draw or load a basin first"
+            )
         table = (100 * self.result["per_year"]).to_pandas().T
         table.columns = [f"{c} seasonal share [%]" for c in table.columns]
         self.write_table_csv(table, path, float_format="%.4f")

@@ -24,8 +24,7 @@ import ipywidgets as widgets
 import numpy as np
 import xarray as xr
 
-from ..analyses.basins import SUMMARY_COLUMNS, WHAT_IF_COLUMNS, basin_table, summary_bundle, summary_maps, \
-    what_if
+from ..analyses.basins import SUMMARY_COLUMNS, WHAT_IF_COLUMNS, basin_table, summary_bundle, summary_maps, what_if
 from ..analyses.meta import frame, unit_attrs
 from ..analyses.run import monthly_source
 from ..cache import LRUCache
@@ -39,8 +38,13 @@ from .mapframe import MapFrame
 
 __all__ = ["BasinSummaryWidget"]
 
-_ROW_VARS = SUMMARY_COLUMNS + ("monthly_normal", "seasonal_share_per_year", "share_slope", "share_pvalue",
-                               "share_intercept")
+_ROW_VARS = SUMMARY_COLUMNS + (
+    "monthly_normal",
+    "seasonal_share_per_year",
+    "share_slope",
+    "share_pvalue",
+    "share_intercept",
+)
 
 
 def _has(module):
@@ -71,8 +75,17 @@ class BasinSummaryWidget(HostsDrawingTools, BaseWidget):
     title = "Basin summary"
     export_stem = "basin_summary"
 
-    def __init__(self, pr, basins=(), months=(7, 8), baseline=(1991, 2020), scenario_months=(11, 12, 1, 2, 3),
-                 percent=5.0, year_start=1, export_dir="out"):
+    def __init__(
+        self,
+        pr,
+        basins=(),
+        months=(7, 8),
+        baseline=(1991, 2020),
+        scenario_months=(11, 12, 1, 2, 3),
+        percent=5.0,
+        year_start=1,
+        export_dir="out",
+    ):
         self.pr = pr
         self._rows = LRUCache(maxsize=256)
         years = pr["time"].dt.year.values
@@ -82,31 +95,57 @@ class BasinSummaryWidget(HostsDrawingTools, BaseWidget):
         months, scenario_months = tuple(months), tuple(scenario_months)
         self.first = widgets.Dropdown(options=_MONTH_OPTIONS, value=months[0], description="Season from", **lab)
         self.last = widgets.Dropdown(options=_MONTH_OPTIONS, value=months[-1], description="to", **lab)
-        self.baseline = widgets.IntRangeSlider(value=(b0, b1), min=lo, max=hi, description="Normal period",
-                                               continuous_update=False, readout=False,
-                                               style={"description_width": "120px"},
-                                               layout=widgets.Layout(width="250px"))
+        self.baseline = widgets.IntRangeSlider(
+            value=(b0, b1),
+            min=lo,
+            max=hi,
+            description="Normal period",
+            continuous_update=False,
+            readout=False,
+            style={"description_width": "120px"},
+            layout=widgets.Layout(width="250px"),
+        )
         self.baseline_label = widgets.Label(f"{b0}–{b1}")
-        self.baseline.observe(lambda c: setattr(self.baseline_label, "value", f"{c['new'][0]}–{c['new'][1]}"),
-                              names="value")
-        self.year_start = widgets.Dropdown(options=[("January (calendar year)", 1), ("October (water year)", 10)],
-                                           value=year_start, description="Year starts in", **lab)
-        self.s_first = widgets.Dropdown(options=_MONTH_OPTIONS, value=scenario_months[0],
-                                        description="What-if season", **lab)
+        self.baseline.observe(
+            lambda c: setattr(self.baseline_label, "value", f"{c['new'][0]}–{c['new'][1]}"), names="value"
+        )
+        self.year_start = widgets.Dropdown(
+            options=[("January (calendar year)", 1), ("October (water year)", 10)],
+            value=year_start,
+            description="Year starts in",
+            **lab,
+        )
+        self.s_first = widgets.Dropdown(
+            options=_MONTH_OPTIONS, value=scenario_months[0], description="What-if season", **lab
+        )
         self.s_last = widgets.Dropdown(options=_MONTH_OPTIONS, value=scenario_months[-1], description="to", **lab)
-        self.percent = widgets.FloatSlider(value=percent, min=-50, max=50, step=1, description="Change [%]",
-                                           continuous_update=False, readout_format=".0f", **lab)
+        self.percent = widgets.FloatSlider(
+            value=percent,
+            min=-50,
+            max=50,
+            step=1,
+            description="Change [%]",
+            continuous_update=False,
+            readout_format=".0f",
+            **lab,
+        )
         self.scenario_html = widgets.HTML()
         self.caution = widgets.HTML(
             "<small><i>Planning-level estimates from gridded data: gridded values smooth point extremes "
             "and assume the record represents the planning period. Defer to adopted local estimates "
-            "and licensed engineering practice for design.</i></small>")
+            "and licensed engineering practice for design.</i></small>"
+        )
         frame_ = MapFrame(kind="total")
         self._make_tools(frame_, basins)
         super().__init__(map_frame=frame_, export_dir=export_dir)
         at = list(self.children).index(self.table_html) + 1  # the what-if goes under the basin table
-        self.children = (*self.children[:at], widgets.HTML("<b>What if the season changed?</b>"),
-                         self.scenario_html, *self.children[at:], self.caution)
+        self.children = (
+            *self.children[:at],
+            widgets.HTML("<b>What if the season changed?</b>"),
+            self.scenario_html,
+            *self.children[at:],
+            self.caution,
+        )
         self.export_formats = ["csv"]
         if _has("climwidgets.report.netcdf"):
             self.add_export("Basin analysis as NetCDF", self._write_netcdf, "nc", stem="basin_summary")
@@ -122,35 +161,62 @@ class BasinSummaryWidget(HostsDrawingTools, BaseWidget):
         self.refresh()
 
     def build_controls(self):
-        return [widgets.HTML("<b>Summary</b>"), self.first, self.last,
-                widgets.HBox([self.baseline, self.baseline_label]), self.year_start,
-                widgets.HTML("<b>What-if</b>"), self.s_first, self.s_last, self.percent,
-                widgets.HTML("<hr style='margin:4px 0'>"), self.tools]
+        return [
+            widgets.HTML("<b>Summary</b>"),
+            self.first,
+            self.last,
+            widgets.HBox([self.baseline, self.baseline_label]),
+            self.year_start,
+            widgets.HTML("<b>What-if</b>"),
+            self.s_first,
+            self.s_last,
+            self.percent,
+            widgets.HTML("<hr style='margin:4px 0'>"),
+            self.tools,
+        ]
 
     def parameters(self):
-        return {"months": season_months(self.first.value, self.last.value),
-                "baseline": tuple(self.baseline.value), "year_start": self.year_start.value,
-                "scenario_months": season_months(self.s_first.value, self.s_last.value),
-                "percent": float(self.percent.value), "basins": self.basins}
+        return {
+            "months": season_months(self.first.value, self.last.value),
+            "baseline": tuple(self.baseline.value),
+            "year_start": self.year_start.value,
+            "scenario_months": season_months(self.s_first.value, self.s_last.value),
+            "percent": float(self.percent.value),
+            "basins": self.basins,
+        }
 
     @staticmethod
     def _key(params):
-        return (params["months"], params["baseline"], params["year_start"], params["scenario_months"],
-                params["percent"])
+        return (
+            params["months"],
+            params["baseline"],
+            params["year_start"],
+            params["scenario_months"],
+            params["percent"],
+        )
 
     def compute(self, months, baseline, year_start, scenario_months, percent, basins):
         monthly = monthly_source(self.pr)  # one read of the data, kept for every later change
         bundle = summary_bundle(monthly, months=months, baseline=baseline, year_start=year_start)
-        key = self._key({"months": months, "baseline": baseline, "year_start": year_start,
-                         "scenario_months": scenario_months, "percent": percent})
+        key = self._key(
+            {
+                "months": months,
+                "baseline": baseline,
+                "year_start": year_start,
+                "scenario_months": scenario_months,
+                "percent": percent,
+            }
+        )
         new = [b for b in basins if self._rows.get(key + (b.token, b.name)) is None]
         maps = summary_maps(None, months, baseline, year_start, bundle=bundle)
         out = {"normal_map": maps["annual_normal_map"], "share_map": maps["seasonal_share_map"]}
         if new:  # only basins not seen with these parameters are computed
-            out["table"] = basin_table(monthly, new, months=months, baseline=baseline, year_start=year_start,
-                                       bundle=bundle)[list(_ROW_VARS)]
-            out["what_if"] = what_if(monthly, new, months=scenario_months, percent=percent, year_start=year_start,
-                                     bundle=bundle)
+            out["table"] = basin_table(
+                monthly, new, months=months, baseline=baseline, year_start=year_start, bundle=bundle
+            )[list(_ROW_VARS)]
+            out["what_if"] = what_if(
+                monthly, new, months=scenario_months, percent=percent, year_start=year_start, bundle=bundle
+            )
         return out
 
     def finish(self, computed, params):
@@ -158,21 +224,27 @@ class BasinSummaryWidget(HostsDrawingTools, BaseWidget):
         if "table" in computed:
             for name in computed["table"]["basin"].values:
                 b = next(b for b in params["basins"] if b.name == name)
-                self._rows.put(key + (b.token, b.name), (computed["table"].sel(basin=[name]),
-                                                          computed["what_if"].sel(basin=[name])))
+                self._rows.put(
+                    key + (b.token, b.name),
+                    (computed["table"].sel(basin=[name]), computed["what_if"].sel(basin=[name])),
+                )
         normal_map = computed["normal_map"]
-        normal_map.attrs = {"units": "mm", "long_name": f"annual normal {params['baseline'][0]}–"
-                                                        f"{params['baseline'][1]}"}
+        normal_map.attrs = {
+            "units": "mm",
+            "long_name": f"annual normal {params['baseline'][0]}–{params['baseline'][1]}",
+        }
         result = {"normal_map": normal_map, "share_map": computed["share_map"]}
         if params["basins"]:
             parts = [self._rows.get(key + (b.token, b.name)) for b in params["basins"]]
             analysis = xr.concat([p[0] for p in parts], dim="basin", combine_attrs="override")
             what = xr.concat([p[1] for p in parts], dim="basin", combine_attrs="override")
-            result.update(analysis=analysis, what_if=what,
-                          summary=self._frame(analysis, SUMMARY_COLUMNS, params, "basin_summary"),
-                          scenario=self._frame(what, WHAT_IF_COLUMNS, params, "scenario_delta"),
-                          normals=analysis["monthly_normal"].assign_attrs(units="mm",
-                                                                            long_name="monthly normal, basin mean"))
+            result.update(
+                analysis=analysis,
+                what_if=what,
+                summary=self._frame(analysis, SUMMARY_COLUMNS, params, "basin_summary"),
+                scenario=self._frame(what, WHAT_IF_COLUMNS, params, "scenario_delta"),
+                normals=analysis["monthly_normal"].assign_attrs(units="mm", long_name="monthly normal, basin mean"),
+            )
         return result
 
     @staticmethod
@@ -184,12 +256,17 @@ class BasinSummaryWidget(HostsDrawingTools, BaseWidget):
         if func == "basin_summary":
             keys = ("months", "baseline", "year_start", "season_year_start", "note")
             table.attrs = {k: ds.attrs[k] for k in keys if k in ds.attrs}
-            table.attrs["history"] = history_line(func, basins=list(table.index), months=tuple(params["months"]),
-                                                  baseline=tuple(params["baseline"]),
-                                                  year_start=params["year_start"])
+            table.attrs["history"] = history_line(
+                func,
+                basins=list(table.index),
+                months=tuple(params["months"]),
+                baseline=tuple(params["baseline"]),
+                year_start=params["year_start"],
+            )
         else:
-            table.attrs = {k: ds.attrs[k] for k in ("months", "percent", "year_start", "note", "history")
-                           if k in ds.attrs}
+            table.attrs = {
+                k: ds.attrs[k] for k in ("months", "percent", "year_start", "note", "history") if k in ds.attrs
+            }
         return table
 
     def summary_table(self, result):
@@ -238,8 +315,11 @@ class BasinSummaryWidget(HostsDrawingTools, BaseWidget):
     # ------------------------------------------------------------ exports
     def _need_result(self):
         if self.result is None or "analysis" not in self.result:
-            raise InputError("there is nothing to export yet", source="basin summary",
-                             fix="draw or load a basin and wait for the computation to finish")
+            raise InputError(
+                "there is nothing to export yet",
+                source="basin summary",
+                fix="draw or load a basin and wait for the computation to finish",
+            )
 
     def _write_netcdf(self, path):
         from ..report.netcdf import to_netcdf
@@ -257,6 +337,11 @@ class BasinSummaryWidget(HostsDrawingTools, BaseWidget):
         analysis = self.result["analysis"].copy()
         analysis["seasonal_share_map"] = self.result["share_map"]
         analysis["annual_normal_map"] = self.result["normal_map"]
-        content = report_content(analysis, self.basins, self.pr, what=self.result["what_if"],
-                                 title=self.with_member("Basin precipitation summary"))
+        content = report_content(
+            analysis,
+            self.basins,
+            self.pr,
+            what=self.result["what_if"],
+            title=self.with_member("Basin precipitation summary"),
+        )
         write_report(content, path, overwrite=True, units=self.unit_system)

@@ -31,8 +31,13 @@ def _pr(years=(2001, 2012), seed=4):
     lat = np.arange(10.125, 11.0, 0.25)
     lon = np.arange(-30.125, -28.9, 0.25)
     data = rng.gamma(2.0, 30.0, size=(time.size, lat.size, lon.size))
-    return xr.DataArray(data, coords={"time": time, "lat": lat, "lon": lon}, dims=("time", "lat", "lon"),
-                        name="pr", attrs={"units": "mm", "step": "month"})
+    return xr.DataArray(
+        data,
+        coords={"time": time, "lat": lat, "lon": lon},
+        dims=("time", "lat", "lon"),
+        name="pr",
+        attrs={"units": "mm", "step": "month"},
+    )
 
 
 BASE = (2002, 2011)
@@ -40,8 +45,7 @@ WEST = cw.Basin.from_vertices([(-30.2, 10.0), (-29.5, 10.0), (-29.5, 10.7), (-30
 EAST = cw.Basin.from_vertices([(-29.6, 10.2), (-28.9, 10.2), (-28.9, 10.9), (-29.6, 10.9)], name="east")
 
 
-@pytest.mark.parametrize("kind,period", [("percent", "month"), ("absolute", "year"),
-                                         ("standardized", "water_year")])
+@pytest.mark.parametrize("kind,period", [("percent", "month"), ("absolute", "year"), ("standardized", "water_year")])
 def test_basin_anomalies_are_anomalies_of_the_basin_means(kind, period):
     pr = _pr()
     ds = basin_anomalies(pr, [WEST, EAST], kind=kind, period=period, baseline=BASE).compute()
@@ -54,8 +58,7 @@ def test_basin_anomalies_are_anomalies_of_the_basin_means(kind, period):
 def test_seasonal_and_spi_series():
     pr = _pr()
     ds = basin_anomalies(pr, [WEST], kind="percent", period="season", months=(11, 12, 1), baseline=BASE)
-    expected = cw.anomaly(cw.basin_mean(pr, WEST), baseline=BASE, kind="percent", period="season",
-                          months=(11, 12, 1))
+    expected = cw.anomaly(cw.basin_mean(pr, WEST), baseline=BASE, kind="percent", period="season", months=(11, 12, 1))
     np.testing.assert_allclose(ds["anomaly"].sel(basin="west").values, expected.values, rtol=1e-12)
     ds = basin_anomalies(pr, [WEST], kind="spi", scale=6, baseline=BASE).compute()
     spi = cw.spi(cw.basin_mean(pr, WEST), scale=6, baseline=BASE)
@@ -100,16 +103,16 @@ def test_ranking_of_spi_names_the_class_and_the_scale():
     series = basin_anomalies(pr, [WEST], kind="spi", scale=3, baseline=BASE).compute()
     table = anomaly_ranking(series, "2009-05")
     spi = cw.spi(cw.basin_mean(pr, WEST), scale=3, baseline=BASE)
-    assert str(table["spi_class"].sel(basin="west").item()) == str(
-        cw.spi_category(spi).sel(time="2009-05-01").item())
+    assert str(table["spi_class"].sel(basin="west").item()) == str(cw.spi_category(spi).sel(time="2009-05-01").item())
     shown = frame(table, display=True)
     assert "2009-05 [standard deviations]" in shown.columns and "SPI class" in shown.columns
 
 
 def test_a_missing_step_has_no_rank():
     pr = _pr()
-    series = anomaly_series(cw.basin_mean(pr, WEST).expand_dims(basin=["west"]), kind="percent",
-                            period="month", baseline=BASE).compute()
+    series = anomaly_series(
+        cw.basin_mean(pr, WEST).expand_dims(basin=["west"]), kind="percent", period="month", baseline=BASE
+    ).compute()
     series["anomaly"][0, 5] = np.nan
     table = anomaly_ranking(series, step_labels(series["anomaly"])[5])
     assert np.isnan(float(table["rank_from_driest"].sel(basin="west")))

@@ -26,8 +26,12 @@ def _pr():
     factor = 1.0 + 0.2 * np.arange(lon.size)[None, :] + 0.0 * lat[:, None]
     summer = np.isin(month, (7, 8))[:, None, None]
     data = np.where(summer, 40.0 * factor[None], 10.0) * np.where(year == 2022, 1.5, 1.0)[:, None, None]
-    return xr.DataArray(data, dims=("time", "lat", "lon"), coords={"time": time, "lat": lat, "lon": lon},
-                        attrs={"units": "mm", "step": "month", "standard_name": "lwe_thickness_of_precipitation_amount"})
+    return xr.DataArray(
+        data,
+        dims=("time", "lat", "lon"),
+        coords={"time": time, "lat": lat, "lon": lon},
+        attrs={"units": "mm", "step": "month", "standard_name": "lwe_thickness_of_precipitation_amount"},
+    )
 
 
 def _expected(pr, basin):
@@ -57,8 +61,9 @@ def test_summary_table_against_hand_sums():
         np.testing.assert_allclose(row["normal_annual_mm"], annual, rtol=1e-12)
         np.testing.assert_allclose(row["volume_per_year_m3"], mean_annual / 1000 * area, rtol=1e-12)
         # acre-foot = 43 560 ft² × 0.3048³ m³/ft³ (international foot; QUDT unit:AC-FT)
-        np.testing.assert_allclose(row["volume_per_year_acre_ft"], mean_annual / 1000 * area / 1233.48183754752,
-                                   rtol=1e-12)
+        np.testing.assert_allclose(
+            row["volume_per_year_acre_ft"], mean_annual / 1000 * area / 1233.48183754752, rtol=1e-12
+        )
         assert row["latest_year"] == 2022 and row["n_years"] == 32
         np.testing.assert_allclose(row["latest_year_percent_of_normal"], 150.0, rtol=1e-12)
         assert row["data_coverage_1"] == 1.0
@@ -94,8 +99,9 @@ def test_scenario_delta():
         assert row["n_seasons"] == 31
         np.testing.assert_allclose(row["seasonal_volume_per_year_m3"], seasonal_mm / 1000 * area, rtol=1e-12)
         np.testing.assert_allclose(row["delta_volume_per_year_m3"], 0.05 * seasonal_mm / 1000 * area, rtol=1e-12)
-        np.testing.assert_allclose(row["delta_volume_per_year_acre_ft"],
-                                   0.05 * seasonal_mm / 1000 * area / 1233.48183754752, rtol=1e-12)
+        np.testing.assert_allclose(
+            row["delta_volume_per_year_acre_ft"], 0.05 * seasonal_mm / 1000 * area / 1233.48183754752, rtol=1e-12
+        )
     with pytest.raises(ParameterError, match="percent=-150.0 is not a usable change"):
         cw.scenario_delta(pr, WEST, percent=-150)
 
@@ -118,11 +124,13 @@ def test_a_member_dimension_passes_through_as_an_index_level():
     assert table.index.names == ["basin", "member"]
     single = cw.basin_summary(pr, [WEST, EAST])
     np.testing.assert_allclose(table.xs("a", level="member")["annual_mean_mm"], single["annual_mean_mm"], rtol=1e-12)
-    np.testing.assert_allclose(table.xs("b", level="member")["annual_mean_mm"], 2 * single["annual_mean_mm"],
-                               rtol=1e-12)
+    np.testing.assert_allclose(
+        table.xs("b", level="member")["annual_mean_mm"], 2 * single["annual_mean_mm"], rtol=1e-12
+    )
     # the share does not change when every month doubles
-    np.testing.assert_allclose(table.xs("b", level="member")["seasonal_share_1"], single["seasonal_share_1"],
-                               rtol=1e-12)
+    np.testing.assert_allclose(
+        table.xs("b", level="member")["seasonal_share_1"], single["seasonal_share_1"], rtol=1e-12
+    )
 
 
 def test_field_means_of_whole_cells_follow_the_cell_area_formula():
@@ -148,9 +156,14 @@ def test_summary_maps_and_share_map_are_the_public_functions():
 
     pr = _pr()
     maps = summary_maps(pr, months=(7, 8), baseline=(1991, 2020))
-    xr.testing.assert_allclose(maps["seasonal_share_map"], cw.seasonal_fraction(pr, months=(7, 8)).reset_coords(
-        drop=True))
-    xr.testing.assert_allclose(maps["annual_normal_map"],
-                               cw.normals(pr, baseline=(1991, 2020)).sum("month", skipna=False).reset_coords(drop=True))
-    xr.testing.assert_allclose(share_map(pr, months=(7, 8), how="mean_of_ratios"),
-                               cw.seasonal_fraction(pr, months=(7, 8), how="mean_of_ratios"))
+    xr.testing.assert_allclose(
+        maps["seasonal_share_map"], cw.seasonal_fraction(pr, months=(7, 8)).reset_coords(drop=True)
+    )
+    xr.testing.assert_allclose(
+        maps["annual_normal_map"],
+        cw.normals(pr, baseline=(1991, 2020)).sum("month", skipna=False).reset_coords(drop=True),
+    )
+    xr.testing.assert_allclose(
+        share_map(pr, months=(7, 8), how="mean_of_ratios"),
+        cw.seasonal_fraction(pr, months=(7, 8), how="mean_of_ratios"),
+    )

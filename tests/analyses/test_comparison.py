@@ -20,15 +20,22 @@ def _product(res, seed, factor=1.0):
     lon = np.arange(60.0 + res / 2, 62.0, res)
     time = xr.date_range("2001-01-01", periods=48, freq="MS")
     data = factor * rng.gamma(3.0, 25.0, size=(time.size, lat.size, lon.size))
-    return xr.DataArray(data, coords={"time": time, "lat": lat, "lon": lon}, dims=("time", "lat", "lon"),
-                        name="pr", attrs={"units": "mm", "step": "month"})
+    return xr.DataArray(
+        data,
+        coords={"time": time, "lat": lat, "lon": lon},
+        dims=("time", "lat", "lon"),
+        name="pr",
+        attrs={"units": "mm", "step": "month"},
+    )
 
 
 @pytest.fixture(scope="module")
 def setup():
     products = {"fine": _product(0.5, 1), "coarse": _product(1.0, 2, factor=1.2)}
-    basins = [cw.Basin.from_vertices([(60.0, -5.0), (61.0, -5.0), (61.0, -4.0), (60.0, -4.0)], name="sw"),
-              cw.Basin.from_vertices([(60.5, -4.5), (62.0, -4.5), (62.0, -3.0), (60.5, -3.0)], name="ne")]
+    basins = [
+        cw.Basin.from_vertices([(60.0, -5.0), (61.0, -5.0), (61.0, -4.0), (60.0, -4.0)], name="sw"),
+        cw.Basin.from_vertices([(60.5, -4.5), (62.0, -4.5), (62.0, -3.0), (60.5, -3.0)], name="ne"),
+    ]
     table = comparison.products_table(products, basins, months=(7, 8)).compute()
     return products, basins, table
 

@@ -21,8 +21,13 @@ def _pr(seed=5):
     lat, lon = np.array([10.125, 10.375]), np.array([5.125, 5.375])
     wet = rng.random((time.size, 2, 2)) < 0.3
     data = np.where(wet, rng.gamma(0.8, 10.0, size=(time.size, 2, 2)), 0.0)
-    return xr.DataArray(data, coords={"time": time, "lat": lat, "lon": lon}, dims=("time", "lat", "lon"),
-                        name="pr", attrs={"units": "mm", "step": "day"})
+    return xr.DataArray(
+        data,
+        coords={"time": time, "lat": lat, "lon": lon},
+        dims=("time", "lat", "lon"),
+        name="pr",
+        attrs={"units": "mm", "step": "day"},
+    )
 
 
 BASIN = cw.Basin.from_vertices([(5.0, 10.0), (5.5, 10.0), (5.5, 10.5), (5.0, 10.5)], name="box")

@@ -26,10 +26,12 @@ def _members():
     # a member-specific summer boost so the shares differ between members too
     summer = np.isin(time.month, (7, 8))[None, :, None, None]
     data = np.where(summer, data * (1.0 + 0.3 * np.arange(4))[:, None, None, None], data)
-    return xr.DataArray(data, dims=("member", "time", "lat", "lon"),
-                        coords={"member": ["m1", "m2", "m3", "m4"], "time": time, "lat": lat, "lon": lon},
-                        attrs={"units": "mm", "step": "month",
-                               "standard_name": "lwe_thickness_of_precipitation_amount"})
+    return xr.DataArray(
+        data,
+        dims=("member", "time", "lat", "lon"),
+        coords={"member": ["m1", "m2", "m3", "m4"], "time": time, "lat": lat, "lon": lon},
+        attrs={"units": "mm", "step": "month", "standard_name": "lwe_thickness_of_precipitation_amount"},
+    )
 
 
 @pytest.fixture(scope="module")
@@ -62,8 +64,9 @@ def test_per_member_rows_equal_single_member_tables(tables):
     table, _, _ = tables
     pr = _members()
     single = basin_table(pr.sel(member="m3", drop=True).assign_attrs(pr.attrs), [WEST, EAST]).compute()
-    np.testing.assert_allclose(table["annual_mean_mm"].sel(member="m3").values, single["annual_mean_mm"].values,
-                               rtol=1e-12)
+    np.testing.assert_allclose(
+        table["annual_mean_mm"].sel(member="m3").values, single["annual_mean_mm"].values, rtol=1e-12
+    )
 
 
 def test_annual_mean_scales_with_the_known_member_factors(tables):
@@ -101,8 +104,13 @@ from climwidgets.analyses.meta import describe  # noqa: E402
 def _three():
     # hand-made: three members at two cells, one missing value
     values = np.array([[1.0, 10.0], [4.0, np.nan], [7.0, 16.0]])
-    return xr.DataArray(values, dims=("member", "cell"), coords={"member": ["r1", "r2", "r3"]},
-                        name="depth", attrs={"units": "mm", "long_name": "depth"})
+    return xr.DataArray(
+        values,
+        dims=("member", "cell"),
+        coords={"member": ["r1", "r2", "r3"]},
+        name="depth",
+        attrs={"units": "mm", "long_name": "depth"},
+    )
 
 
 def test_member_view_by_hand():
@@ -126,10 +134,10 @@ def test_member_view_equals_numpy_on_the_basin_table(tables):
     stacked = table["seasonal_share_1"].transpose("basin", "member").values
     spread = member_view(table, "spread")
     np.testing.assert_allclose(spread["seasonal_share_1"].values, np.ptp(stacked, axis=1), rtol=1e-12)
-    np.testing.assert_allclose(member_view(table, "mean")["seasonal_share_1"].values, stacked.mean(axis=1),
-                               rtol=1e-12)
-    np.testing.assert_array_equal(member_view(table, "m3")["seasonal_share_1"].values,
-                                  table["seasonal_share_1"].sel(member="m3").values)
+    np.testing.assert_allclose(member_view(table, "mean")["seasonal_share_1"].values, stacked.mean(axis=1), rtol=1e-12)
+    np.testing.assert_array_equal(
+        member_view(table, "m3")["seasonal_share_1"].values, table["seasonal_share_1"].sel(member="m3").values
+    )
     # the area has no member dimension: kept as it is, not a spread of zero
     np.testing.assert_array_equal(spread["area_km2"].values, table["area_km2"].values)
     assert spread["seasonal_share_1"].attrs["label"] == "seasonal share, spread between members"

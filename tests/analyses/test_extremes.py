@@ -34,8 +34,13 @@ def _daily(seed=3):
     values = np.zeros((time.size, LAT.size, LON.size))
     for k, year in enumerate(range(1981, 1981 + N_YEARS)):
         values[np.flatnonzero(time == f"{year}-07-15")[0]] = maxima[k]
-    pr = xr.DataArray(values, dims=("time", "lat", "lon"), name="pr", attrs={"units": "mm"},
-                      coords={"time": time, "lat": LAT, "lon": LON})
+    pr = xr.DataArray(
+        values,
+        dims=("time", "lat", "lon"),
+        name="pr",
+        attrs={"units": "mm"},
+        coords={"time": time, "lat": LAT, "lon": LON},
+    )
     return pr, maxima
 
 
@@ -112,8 +117,9 @@ def test_regional_field_per_cell_against_lmoments3():
     cells = [(j, i) for j in range(4) for i in (0, 1)]
     ratios = np.array([lmoments3.lmom_ratios(maxima[:, j, i], 4) for j, i in cells])
     l1 = ratios[:, 0]
-    growth = distr.gev.ppf(F, **distr.gev.lmom_fit(lmom_ratios=[1.0, (ratios[:, 1] / l1).mean(),
-                                                                 ratios[:, 2].mean(), ratios[:, 3].mean()]))
+    growth = distr.gev.ppf(
+        F, **distr.gev.lmom_fit(lmom_ratios=[1.0, (ratios[:, 1] / l1).mean(), ratios[:, 2].mean(), ratios[:, 3].mean()])
+    )
     for (j, i), index in zip(cells, l1):
         np.testing.assert_allclose(field["estimate"].isel(lat=j, lon=i).values, index * growth, rtol=2e-3)
     assert np.isnan(field["estimate"].isel(lon=[2, 3]).values).all()  # outside the basin
@@ -132,6 +138,6 @@ def test_warmed_point_depths_scale_depths_not_h1():
     ds = point_design_depths(pr, [west], periods=PERIODS, n_boot=60, n_sim=60).compute()
     warm = warmed_point_depths(ds, 2.0, rate=0.07)
     for name in POINT_COLUMNS:  # (1 + rate) ** delta_t, the compound Clausius-Clapeyron scaling
-        np.testing.assert_allclose(warm[name].values, ds[name].values * 1.07 ** 2, rtol=1e-12)
+        np.testing.assert_allclose(warm[name].values, ds[name].values * 1.07**2, rtol=1e-12)
         assert warm[name].attrs == ds[name].attrs
     xr.testing.assert_identical(warm["heterogeneity_h1"], ds["heterogeneity_h1"])

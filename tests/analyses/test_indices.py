@@ -35,9 +35,13 @@ def _daily(years=(1991, 2010), seed=1, dask=False):
     # wetter towards the end of the record, so the trend is not zero
     grow = 1.0 + 0.02 * (time.year.values - years[0])[:, None, None]
     data = np.where(wet, rng.gamma(0.8, 9.0, wet.shape) * grow, 0.0)
-    pr = xr.DataArray(data, dims=("time", "lat", "lon"), coords={"time": time, "lat": lat, "lon": lon},
-                      attrs={"units": "mm", "step": "day", "standard_name": "lwe_thickness_of_precipitation_amount"},
-                      name="pr")
+    pr = xr.DataArray(
+        data,
+        dims=("time", "lat", "lon"),
+        coords={"time": time, "lat": lat, "lon": lon},
+        attrs={"units": "mm", "step": "day", "standard_name": "lwe_thickness_of_precipitation_amount"},
+        name="pr",
+    )
     return pr.chunk({"time": 365}) if dask else pr
 
 
@@ -75,8 +79,13 @@ def test_maps_and_basin_table_against_numpy_and_scipy():
     assert int(table["n_index_years"].sel(basin="box")) == 20
 
     shown = index_table(table, display=True)
-    assert list(shown.columns) == ["area [km²]", "PRCPTOT mean [mm]", "PRCPTOT Sen slope [mm per decade]",
-                                   "Mann-Kendall p", "years"]
+    assert list(shown.columns) == [
+        "area [km²]",
+        "PRCPTOT mean [mm]",
+        "PRCPTOT Sen slope [mm per decade]",
+        "Mann-Kendall p",
+        "years",
+    ]
     np.testing.assert_allclose(shown.iloc[0, 2], 10 * sen.slope, rtol=1e-10)  # shown per decade
     stored = index_table(table)
     assert list(stored.columns) == ["area_km2", "index_mean", "index_slope", "index_pvalue", "n_index_years"]

@@ -11,9 +11,15 @@ from climwidgets.analyses.meta import people_frame
 
 
 def test_people_frame_has_no_scientific_notation_and_thousands_separators():
-    t = pd.DataFrame({"basin": ["a", "b"], "latest_year": [2020, 2019],
-                      "volume_per_year_acre_ft": [4.441e6, 1234567.8], "annual_mean_mm": [1955.2, np.nan],
-                      "unknown_column": [1.5e-7, 3.0e9]}).set_index("basin")
+    t = pd.DataFrame(
+        {
+            "basin": ["a", "b"],
+            "latest_year": [2020, 2019],
+            "volume_per_year_acre_ft": [4.441e6, 1234567.8],
+            "annual_mean_mm": [1955.2, np.nan],
+            "unknown_column": [1.5e-7, 3.0e9],
+        }
+    ).set_index("basin")
     shown = people_frame(t)
     cells = [str(v) for v in shown.to_numpy().ravel()]
     assert not [c for c in cells if re.search(r"\de[+-]?\d", c)], cells

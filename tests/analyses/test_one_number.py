@@ -31,8 +31,25 @@ def test_area_and_share_agree_everywhere(demo, tmp_path):
     area = np.array([b.area_m2 / 1e6 for b in basins])
 
     # the command line: CSV and HTML report
-    assert main(["--quiet", "summary", "--data", str(files["daily"]), "--basins", str(files["basins"]),
-                 "--months", "7,8", "--baseline", "1991-2020", "--out", str(tmp_path / "cli")]) == 0
+    assert (
+        main(
+            [
+                "--quiet",
+                "summary",
+                "--data",
+                str(files["daily"]),
+                "--basins",
+                str(files["basins"]),
+                "--months",
+                "7,8",
+                "--baseline",
+                "1991-2020",
+                "--out",
+                str(tmp_path / "cli"),
+            ]
+        )
+        == 0
+    )
     csv = read_csv(tmp_path / "cli" / "basin_summary.csv").set_index("basin").loc[names]
     np.testing.assert_allclose(csv["area_km2"], area, rtol=FLOAT)
     share = csv["seasonal_share_1"].to_numpy()

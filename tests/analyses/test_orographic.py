@@ -26,8 +26,13 @@ def _scene(seed=4):
     pattern = 60.0 + 0.05 * z + np.where(lon[None, :] > ridge_lon, -25.0, 0.0)
     time = pd.date_range("2001-01-01", "2005-12-01", freq="MS")
     data = pattern[None] * rng.gamma(8.0, 1 / 8.0, size=(time.size, 1, 1))
-    pr = xr.DataArray(data, coords={"time": time, "lat": lat, "lon": lon}, dims=("time", "lat", "lon"),
-                      name="pr", attrs={"units": "mm", "step": "month"})
+    pr = xr.DataArray(
+        data,
+        coords={"time": time, "lat": lat, "lon": lon},
+        dims=("time", "lat", "lon"),
+        name="pr",
+        attrs={"units": "mm", "step": "month"},
+    )
     return pr, elev
 
 
@@ -41,15 +46,23 @@ def setup():
 def test_contrast_is_rain_shadow_of_the_annual_totals_and_of_the_model(setup):
     pr, elev, out = setup
     crest = cw.crest_from_elevation(elev, 270.0, min_height=150.0)
-    expected = cw.rain_shadow(cw.annual_totals(pr), wind_from=270.0, ridge=crest, band_km=(0.0, 25.0, 50.0),
-                              n_boot=N_BOOT, ci=0.9)
+    expected = cw.rain_shadow(
+        cw.annual_totals(pr), wind_from=270.0, ridge=crest, band_km=(0.0, 25.0, 50.0), n_boot=N_BOOT, ci=0.9
+    )
     xr.testing.assert_allclose(out["observed"], expected)
-    model = cw.linear_orographic_precip(elev, wind_speed=10.0, wind_from=270.0, temperature_c=10.0,
-                                        p_background=orographic.MODEL_BACKGROUND_MM_H,
-                                        tau_c=orographic.MODEL_DELAY_S, tau_f=orographic.MODEL_DELAY_S)
+    model = cw.linear_orographic_precip(
+        elev,
+        wind_speed=10.0,
+        wind_from=270.0,
+        temperature_c=10.0,
+        p_background=orographic.MODEL_BACKGROUND_MM_H,
+        tau_c=orographic.MODEL_DELAY_S,
+        tau_f=orographic.MODEL_DELAY_S,
+    )
     xr.testing.assert_allclose(out["model"], model)
-    xr.testing.assert_allclose(out["model_contrast"],
-                               cw.rain_shadow(model, wind_from=270.0, ridge=crest, band_km=(0.0, 25.0, 50.0)))
+    xr.testing.assert_allclose(
+        out["model_contrast"], cw.rain_shadow(model, wind_from=270.0, ridge=crest, band_km=(0.0, 25.0, 50.0))
+    )
     xr.testing.assert_allclose(out["mean"], cw.annual_totals(pr).mean("year"))
     assert (out["observed"]["ratio"] < 1).all()  # the scene's lee is drier
     assert float(out["gradients"]["windward"]["slope"]) > 0  # rain rises up the wet slope

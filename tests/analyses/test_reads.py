@@ -14,8 +14,10 @@ from climwidgets.io import chunkreader, loader  # noqa: F401  (the fixture patch
 
 from ..compute.test_bundle import _write, counted_reads  # noqa: F401  (a fixture)
 
-BASINS = [cw.Basin.from_vertices([(0.2, 0.2), (2.6, 0.4), (1.5, 2.7)], name="first"),
-          cw.Basin.from_vertices([(2.2, 1.1), (3.9, 1.0), (3.8, 2.9), (2.4, 2.8)], name="second")]
+BASINS = [
+    cw.Basin.from_vertices([(0.2, 0.2), (2.6, 0.4), (1.5, 2.7)], name="first"),
+    cw.Basin.from_vertices([(2.2, 1.1), (3.9, 1.0), (3.8, 2.9), (2.4, 2.8)], name="second"),
+]
 
 
 def _open(path):
@@ -84,8 +86,10 @@ def test_bundle_with_indices_reads_each_chunk_once(data, counted_reads):  # noqa
     counted_reads.clear()
     names = ("PRCPTOT", "SDII", "CDD", "CWD", "R10mm", "R95pTOT", "Rx1day", "Rx5day")
     ds = climatology_bundle(pr, months=(7, 8), baseline=(2001, 2003), indices=names)
-    ind = gridded_indices(None, indices=ds[[f"index_{n}" for n in names]].rename(
-        {f"index_{n}": n for n in names}).rename(index_year="year"))
+    ind = gridded_indices(
+        None,
+        indices=ds[[f"index_{n}" for n in names]].rename({f"index_{n}": n for n in names}).rename(index_year="year"),
+    )
     table = basin_index_table(ind, BASINS, "PRCPTOT")
     bundle, table = run.compute(ds, table)
     assert len(counted_reads) == n_chunks

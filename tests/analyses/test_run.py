@@ -16,8 +16,10 @@ from climwidgets.compute.bundle import climatology_bundle
 
 from ..compute.test_bundle import _write
 
-BASINS = [cw.Basin.from_vertices([(0.2, 0.2), (2.6, 0.4), (1.5, 2.7)], name="first"),
-          cw.Basin.from_vertices([(2.2, 1.1), (3.9, 1.0), (3.8, 2.9), (2.4, 2.8)], name="second")]
+BASINS = [
+    cw.Basin.from_vertices([(0.2, 0.2), (2.6, 0.4), (1.5, 2.7)], name="first"),
+    cw.Basin.from_vertices([(2.2, 1.1), (3.9, 1.0), (3.8, 2.9), (2.4, 2.8)], name="second"),
+]
 
 
 def _analyses(path):
@@ -53,8 +55,10 @@ def test_run_compute_on_local_cluster_matches_threads(tmp_path):
     path = _write(tmp_path / "d.nc", years=3)
     lazy = _analyses(path)
     threaded = run.compute(*lazy, scheduler="threads")
-    with distributed.LocalCluster(processes=False, n_workers=1, threads_per_worker=2,
-                                  dashboard_address=None) as cluster, distributed.Client(cluster) as client:
+    with (
+        distributed.LocalCluster(processes=False, n_workers=1, threads_per_worker=2, dashboard_address=None) as cluster,
+        distributed.Client(cluster) as client,
+    ):
         on_cluster = run.compute(*_analyses(path))
         assert client.scheduler_info()["workers"]  # the default scheduler was the cluster
     _assert_same(on_cluster, threaded)

@@ -27,10 +27,12 @@ def _run(first, factors):
     time = pd.date_range(f"{first}-01-01", periods=12 * 20, freq="MS")
     summer = np.isin(time.month, (7, 8))
     data = np.where(summer[None, :], 40.0 * factors[:, None], 10.0)[:, :, None, None] * np.ones((lat.size, lon.size))
-    return xr.DataArray(data, dims=("member", "time", "lat", "lon"),
-                        coords={"member": ["a", "b", "c", "d"], "time": time, "lat": lat, "lon": lon},
-                        attrs={"units": "mm", "step": "month",
-                               "standard_name": "lwe_thickness_of_precipitation_amount"})
+    return xr.DataArray(
+        data,
+        dims=("member", "time", "lat", "lon"),
+        coords={"member": ["a", "b", "c", "d"], "time": time, "lat": lat, "lon": lon},
+        attrs={"units": "mm", "step": "month", "standard_name": "lwe_thickness_of_precipitation_amount"},
+    )
 
 
 @pytest.fixture(scope="module")
@@ -43,8 +45,7 @@ def test_per_member_changes_match_the_hand_computation(signals):
     normal = (80.0 * F + 100.0) / 180.0 - 1.0
     for basin in ("west", "east"):
         np.testing.assert_allclose(signals["share_change_1"].sel(basin=basin).values, share, rtol=1e-10, atol=1e-14)
-        np.testing.assert_allclose(signals["normal_change_1"].sel(basin=basin).values, normal, rtol=1e-10,
-                                   atol=1e-14)
+        np.testing.assert_allclose(signals["normal_change_1"].sel(basin=basin).values, normal, rtol=1e-10, atol=1e-14)
 
 
 def test_ensemble_figures_equal_numpy_on_the_members(signals):
@@ -74,10 +75,12 @@ def _daily(first, factors, years=15):
     lat, lon = np.arange(-34.75, -30.0, 0.5), np.arange(-149.75, -144.0, 0.5)
     base = rng.gamma(0.6, 8.0, size=(time.size, lat.size, lon.size))
     data = base[None] * np.asarray(factors, dtype=float)[:, None, None, None]
-    return xr.DataArray(data, dims=("member", "time", "lat", "lon"),
-                        coords={"member": ["a", "b", "c", "d"][: len(factors)], "time": time, "lat": lat,
-                                "lon": lon},
-                        attrs={"units": "mm", "step": "day", "standard_name": "lwe_thickness_of_precipitation_amount"})
+    return xr.DataArray(
+        data,
+        dims=("member", "time", "lat", "lon"),
+        coords={"member": ["a", "b", "c", "d"][: len(factors)], "time": time, "lat": lat, "lon": lon},
+        attrs={"units": "mm", "step": "day", "standard_name": "lwe_thickness_of_precipitation_amount"},
+    )
 
 
 def test_design_depth_change_is_the_factor_of_a_scaled_future():
@@ -88,16 +91,24 @@ def test_design_depth_change_is_the_factor_of_a_scaled_future():
     # Hosking 1990, sec. 2), so a future that is the historical weather times F has every
     # return level times F: the change is F - 1 exactly.  Same weather, later years.
     hist = _daily(1981, [1.0, 1.0, 1.0])
-    fut = (_daily(1981, [1.1, 0.95, 1.2])).assign_coords(time=pd.date_range("2041-01-01", periods=hist.sizes["time"],
-                                                                              freq="D"))
+    fut = (_daily(1981, [1.1, 0.95, 1.2])).assign_coords(
+        time=pd.date_range("2041-01-01", periods=hist.sizes["time"], freq="D")
+    )
     ds = basin_depth_signals(hist, fut, [WEST, EAST], periods=(10, 100), n_boot=50).compute()
     factors = np.array([1.1, 0.95, 1.2])
-    np.testing.assert_allclose(ds["depth_change_1"].transpose("basin", "return_period", "member").values,
-                               np.broadcast_to(factors - 1.0, (2, 2, 3)), rtol=1e-6, atol=1e-9)
+    np.testing.assert_allclose(
+        ds["depth_change_1"].transpose("basin", "return_period", "member").values,
+        np.broadcast_to(factors - 1.0, (2, 2, 3)),
+        rtol=1e-6,
+        atol=1e-9,
+    )
     # the per-member depths are those of areal_design_depths called directly on the runs
     ref = areal_design_depths(hist, [WEST, EAST], periods=(10, 100), n_boot=50).compute()
-    np.testing.assert_allclose(ds["historical_depth_mm"].values,
-                               ref["areal_estimate_mm"].transpose(*ds["historical_depth_mm"].dims).values, rtol=1e-12)
+    np.testing.assert_allclose(
+        ds["historical_depth_mm"].values,
+        ref["areal_estimate_mm"].transpose(*ds["historical_depth_mm"].dims).values,
+        rtol=1e-12,
+    )
     stacked = ds["depth_change_1"].transpose("basin", "return_period", "member").values
     np.testing.assert_allclose(ds["depth_change_1_mean"].values, stacked.mean(axis=-1), rtol=1e-12)
     np.testing.assert_allclose(ds["depth_change_1_lower"].values, stacked.min(axis=-1), rtol=1e-12)
@@ -123,9 +134,11 @@ def test_signal_maps_equal_the_hand_computation_in_every_cell():
 
     maps = signal_maps(_run(1981, np.ones(4)), _run(2041, F)).compute()
     normal = (80.0 * F + 100.0) / 180.0 - 1.0
-    np.testing.assert_allclose(maps["normal_change_1"].transpose("member", ...).values,
-                               np.broadcast_to(normal[:, None, None], (4,) + maps["normal_change_1"].shape[1:]),
-                               rtol=1e-10)
+    np.testing.assert_allclose(
+        maps["normal_change_1"].transpose("member", ...).values,
+        np.broadcast_to(normal[:, None, None], (4,) + maps["normal_change_1"].shape[1:]),
+        rtol=1e-10,
+    )
     np.testing.assert_allclose(maps["normal_change_1_mean"].values, normal.mean(), rtol=1e-10)
     np.testing.assert_allclose(maps["share_change_1_agreement"].values, 0.5)
 
@@ -144,8 +157,9 @@ def test_delta_change_method_compares_observations_with_the_scenario():
     # the same numbers as the scenario of delta_change averaged over the basin directly
     scen = delta_change(obs, _run(1981, np.ones(4)), _run(2041, F))
     series = cw.basin_mean(scen, WEST)
-    ratio = cw.annual_normal(series, baseline=(1991, 2010)) / cw.annual_normal(cw.basin_mean(obs, WEST),
-                                                                               baseline=(1991, 2010))
+    ratio = cw.annual_normal(series, baseline=(1991, 2010)) / cw.annual_normal(
+        cw.basin_mean(obs, WEST), baseline=(1991, 2010)
+    )
     np.testing.assert_allclose(ds["normal_change_1"].sel(basin="west").values, ratio.values - 1.0, rtol=1e-10)
 
 

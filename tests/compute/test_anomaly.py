@@ -23,8 +23,13 @@ def mon():
     rng = np.random.default_rng(7)
     t = pd.date_range("1991-01-01", periods=12 * YEARS, freq="MS")
     vals = rng.gamma(2.0, 30.0, (t.size, 2))
-    return xr.DataArray(vals, dims=("time", "lon"), coords={"time": t, "lon": [0.0, 1.0]},
-                        attrs={"units": "mm", "step": "month"}, name="pr")
+    return xr.DataArray(
+        vals,
+        dims=("time", "lon"),
+        coords={"time": t, "lon": [0.0, 1.0]},
+        attrs={"units": "mm", "step": "month"},
+        name="pr",
+    )
 
 
 def table(mon):
@@ -65,7 +70,7 @@ def test_season_year_and_water_year(mon):
 
 def test_completeness_rule_applies(mon):
     gappy = mon.copy()
-    gappy[0:12 * 7:12, 0] = np.nan  # 7 Januaries missing in cell 0 -> 23 of 30
+    gappy[0 : 12 * 7 : 12, 0] = np.nan  # 7 Januaries missing in cell 0 -> 23 of 30
     a = anomaly(gappy, kind="absolute")
     jan = a.sel(time=a.time.dt.month == 1)
     assert np.isnan(jan[:, 0]).all() and not np.isnan(jan[:, 1]).any()
@@ -88,8 +93,12 @@ def test_tercile_category_matches_numpy_quantiles(mon):
 
 def test_dask_same_numbers(mon):
     lazy_in = mon.chunk({"time": 100})
-    for f, kw in ((anomaly, {"kind": "standardized"}), (anomaly, {"period": "season", "months": (7, 8)}),
-                  (tercile_category, {}), (tercile_category, {"period": "year"})):
+    for f, kw in (
+        (anomaly, {"kind": "standardized"}),
+        (anomaly, {"period": "season", "months": (7, 8)}),
+        (tercile_category, {}),
+        (tercile_category, {"period": "year"}),
+    ):
         lazy = f(lazy_in, **kw)
         assert lazy.chunks is not None
         xr.testing.assert_allclose(lazy.compute().drop_attrs(), f(mon, **kw).drop_attrs())
@@ -119,8 +128,10 @@ def test_record_starting_in_march_1991_has_1991_2020_anomalies(mon):
     np.testing.assert_allclose(a.sel(time=jan.time).values, expected.values, rtol=1e-12)
     yearly = anomaly(late, kind="percent", period="year")  # 1991 missing: 29 of 30 years
     totals = late.resample(time="YS").sum().sel(time=slice("1992", "2020"))
-    np.testing.assert_allclose(yearly.sel(year=2021).values,
-                               100 * late.sel(time="2021").sum("time").values / totals.mean("time").values,
-                               rtol=1e-12)
+    np.testing.assert_allclose(
+        yearly.sel(year=2021).values,
+        100 * late.sel(time="2021").sum("time").values / totals.mean("time").values,
+        rtol=1e-12,
+    )
     cats = tercile_category(late)
     assert np.isfinite(cats.sel(time="1991-03")).all()

@@ -16,9 +16,14 @@ def _write(path, years=4, chunks=(30, 4, 5)):
     t = pd.date_range("2001-01-01", f"{2000 + years}-12-31", freq="D")
     rng = np.random.default_rng(1)
     data = rng.gamma(0.6, 5.0, size=(t.size, 4, 5)).astype("f4")
-    ds = xr.Dataset({"pr": (("time", "lat", "lon"), data, {"units": "mm", "standard_name": "precipitation_amount"})},
-                    coords={"time": t, "lat": ("lat", np.arange(4.0), {"units": "degrees_north"}),
-                            "lon": ("lon", np.arange(5.0), {"units": "degrees_east"})})
+    ds = xr.Dataset(
+        {"pr": (("time", "lat", "lon"), data, {"units": "mm", "standard_name": "precipitation_amount"})},
+        coords={
+            "time": t,
+            "lat": ("lat", np.arange(4.0), {"units": "degrees_north"}),
+            "lon": ("lon", np.arange(5.0), {"units": "degrees_east"}),
+        },
+    )
     ds.to_netcdf(path, encoding={"pr": {"chunksizes": chunks, "zlib": True}})
     return path
 
@@ -60,8 +65,9 @@ def test_bundle_matches_the_separate_functions(tmp_path):
     pr = cw.open_precip(_write(tmp_path / "d.nc"), validate=False)
     ds = climatology_bundle(pr, months=(11, 12, 1, 2, 3), baseline=(2001, 2004), compute=True)
     # the bundle sums months in the stored float32 (compute/_fused.py): float32 rounding, 1e-6 relative
-    xr.testing.assert_allclose(ds["annual_totals"], cw.annual_totals(pr).compute().drop_attrs(), check_dim_order=False,
-                               rtol=1e-6)
+    xr.testing.assert_allclose(
+        ds["annual_totals"], cw.annual_totals(pr).compute().drop_attrs(), check_dim_order=False, rtol=1e-6
+    )
     np.testing.assert_allclose(ds["seasonal_share"], cw.seasonal_fraction(pr, months=(11, 12, 1, 2, 3)), rtol=1e-6)
     np.testing.assert_allclose(ds["normals"], cw.normals(pr, baseline=(2001, 2004)), rtol=1e-6)
     np.testing.assert_allclose(ds["annual_max_1day"], cw.annual_maxima(pr, duration_days=1))

@@ -21,8 +21,7 @@ MONTHLY = {"units": "mm", "step": "month"}
 
 def _series(values, name, start="2001-01-01"):
     t = pd.date_range(start, periods=len(values), freq="MS")
-    return xr.DataArray(np.asarray(values, float), dims="time", coords={"time": t},
-                        attrs=dict(MONTHLY), name=name)
+    return xr.DataArray(np.asarray(values, float), dims="time", coords={"time": t}, attrs=dict(MONTHLY), name=name)
 
 
 # ------------------------------------------------------------------ compare: worked example
@@ -36,8 +35,7 @@ def test_metrics_worked_example():
     np.testing.assert_allclose(ds.ratio, beta, rtol=1e-9)  # beta = mean s / mean o
     # KGE = 1 - sqrt((r-1)^2 + (alpha-1)^2 + (beta-1)^2): Gupta, Kling, Yilmaz & Martinez
     # (2009) J. Hydrol. 377, 80-91; components alpha = sd ratio, beta = mean ratio
-    np.testing.assert_allclose(1 - np.sqrt((r - 1) ** 2 + (alpha - 1) ** 2 + (beta - 1) ** 2),
-                               0.8116543843, rtol=1e-9)
+    np.testing.assert_allclose(1 - np.sqrt((r - 1) ** 2 + (alpha - 1) ** 2 + (beta - 1) ** 2), 0.8116543843, rtol=1e-9)
     np.testing.assert_allclose(ds.kge, 0.8116543843, rtol=1e-9)
     # NSE: Nash & Sutcliffe (1970) J. Hydrol. 10, 282-290 (formula from memory)
     np.testing.assert_allclose(ds.nse, 0.9407346924, rtol=1e-9)
@@ -50,8 +48,15 @@ def test_metrics_worked_example():
     np.testing.assert_allclose(ds12.kge, 0.8438284266, rtol=1e-9)
     assert "Kling, Fuchs & Paulin (2012)" in ds12.kge.attrs["description"]
     assert "Gupta" in ds.kge.attrs["description"]
-    for var, units in {"bias": "mm/yr", "ratio": "1", "rmse": "mm", "corr": "1", "kge": "1",
-                       "nse": "1", "anomaly_corr": "1"}.items():
+    for var, units in {
+        "bias": "mm/yr",
+        "ratio": "1",
+        "rmse": "mm",
+        "corr": "1",
+        "kge": "1",
+        "nse": "1",
+        "anomaly_corr": "1",
+    }.items():
         assert ds[var].attrs["units"] == units and ds[var].attrs["description"]
     assert "compare" in ds.attrs["history"]
 
@@ -65,8 +70,7 @@ def test_identical_products_score_perfectly():
 def test_missing_pairs_are_dropped_from_both():
     a, b = _series(O + [99.0], "o"), _series(S + [np.nan], "s")
     ds = cw.compare(a, b)  # the 11th month has no partner: same as the 10-value example
-    np.testing.assert_allclose([ds.kge, ds.nse, ds.corr], [0.8116543843, 0.9407346924, 0.9867374830],
-                               rtol=1e-9)
+    np.testing.assert_allclose([ds.kge, ds.nse, ds.corr], [0.8116543843, 0.9407346924, 0.9867374830], rtol=1e-9)
     assert int(ds.n) == 10
 
 
@@ -83,16 +87,18 @@ def test_anomaly_correlation_against_own_climatology():
     # general case against scipy.stats.pearsonr on anomalies made with pandas groupby
     b2 = _series(np.tile(clim, 5) + rng.normal(0, 5, 60), "b2")
     anom = [s.to_series() - s.to_series().groupby(s.time.dt.month.values).transform("mean") for s in (a, b2)]
-    np.testing.assert_allclose(cw.compare(a, b2).anomaly_corr,
-                               scipy.stats.pearsonr(anom[0], anom[1]).statistic, rtol=1e-10)
+    np.testing.assert_allclose(
+        cw.compare(a, b2).anomaly_corr, scipy.stats.pearsonr(anom[0], anom[1]).statistic, rtol=1e-10
+    )
 
 
 def _maps(nt=24, seed=0):
     rng = np.random.default_rng(seed)
     t = pd.date_range("2001-01-01", periods=nt, freq="MS")
     coords = {"time": t, "lat": [1.0, 2.0, 3.0], "lon": [10.0, 11.0]}
-    a = xr.DataArray(rng.gamma(2, 20, (nt, 3, 2)), dims=("time", "lat", "lon"), coords=coords,
-                     attrs=dict(MONTHLY), name="a")
+    a = xr.DataArray(
+        rng.gamma(2, 20, (nt, 3, 2)), dims=("time", "lat", "lon"), coords=coords, attrs=dict(MONTHLY), name="a"
+    )
     b = (a * rng.uniform(0.7, 1.3, a.shape) + 2).rename("b")
     b.attrs = dict(MONTHLY)
     return a, b
@@ -111,14 +117,13 @@ def test_maps_equal_per_cell_scalars_and_dask_stays_lazy():
         for v in ("bias", "ratio", "rmse", "corr", "kge", "nse", "anomaly_corr"):
             np.testing.assert_allclose(eager[v][i, j], one[v], rtol=1e-12)
     ok = np.isfinite(b[:, 1, 1].values)
-    np.testing.assert_allclose(eager.corr[1, 1],
-                               scipy.stats.pearsonr(a[:, 1, 1].values[ok], b[:, 1, 1].values[ok]).statistic,
-                               rtol=1e-12)
+    np.testing.assert_allclose(
+        eager.corr[1, 1], scipy.stats.pearsonr(a[:, 1, 1].values[ok], b[:, 1, 1].values[ok]).statistic, rtol=1e-12
+    )
 
 
 def test_annual_totals_bias_is_per_year():
-    a = xr.DataArray([800.0, 900.0, 1000.0], dims="year", coords={"year": [2001, 2002, 2003]},
-                     attrs={"units": "mm"})
+    a = xr.DataArray([800.0, 900.0, 1000.0], dims="year", coords={"year": [2001, 2002, 2003]}, attrs={"units": "mm"})
     b = a + 50.0
     np.testing.assert_allclose(cw.compare(a, b, dim="year").bias, 50.0)
     assert "anomaly_corr" not in cw.compare(a, b, dim="year")
@@ -149,21 +154,30 @@ def _noleap_monthly(first=2000, last=2004):
     # a monthly mean-rate product on a noleap calendar, already converted to mm per month
     # (rate x days in the file's month: a noleap February has 28 days), labelled mid-month
     times = [cftime.DatetimeNoLeap(y, m, 15) for y in range(first, last + 1) for m in range(1, 13)]
-    vals = [_rate(t.year, t.month) * (28 if t.month == 2 else pd.Period(f"2001-{t.month:02d}").days_in_month)
-            for t in times]
+    vals = [
+        _rate(t.year, t.month) * (28 if t.month == 2 else pd.Period(f"2001-{t.month:02d}").days_in_month) for t in times
+    ]
     data = np.broadcast_to(np.asarray(vals)[:, None, None], (len(vals), 2, 2)).copy()
-    return xr.DataArray(data, dims=("time", "lat", "lon"),
-                        coords={"time": times, "lat": [0.5, 1.5], "lon": [0.5, 1.5]},
-                        attrs=dict(MONTHLY), name="model")
+    return xr.DataArray(
+        data,
+        dims=("time", "lat", "lon"),
+        coords={"time": times, "lat": [0.5, 1.5], "lon": [0.5, 1.5]},
+        attrs=dict(MONTHLY),
+        name="model",
+    )
 
 
 def _standard_daily(start="2001-01-01", end="2005-12-31"):
     t = pd.date_range(start, end, freq="D")
     vals = _rate(t.year.values, t.month.values)
     data = np.broadcast_to(vals[:, None, None], (t.size, 2, 2)).copy()
-    return xr.DataArray(data, dims=("time", "lat", "lon"),
-                        coords={"time": t, "lat": [0.5, 1.5], "lon": [0.5, 1.5]},
-                        attrs={"units": "mm", "step": "day"}, name="gauge")
+    return xr.DataArray(
+        data,
+        dims=("time", "lat", "lon"),
+        coords={"time": t, "lat": [0.5, 1.5], "lon": [0.5, 1.5]},
+        attrs={"units": "mm", "step": "day"},
+        name="gauge",
+    )
 
 
 def test_align_noleap_and_standard_months_line_up():
@@ -226,13 +240,17 @@ def _uniform_product(years, lat, lon, factor, calendar):
         times = [cftime.datetime(y, m, 15, calendar=calendar) for y in years for m in range(1, 13)]
     vals = np.concatenate([BASE * (1 + 0.03 * (y - 2001)) for y in years]) * factor
     data = np.broadcast_to(vals[:, None, None], (vals.size, len(lat), len(lon))).copy()
-    return xr.DataArray(data, dims=("time", "lat", "lon"), coords={"time": times, "lat": lat, "lon": lon},
-                        attrs=dict(MONTHLY), name="pr")
+    return xr.DataArray(
+        data,
+        dims=("time", "lat", "lon"),
+        coords={"time": times, "lat": lat, "lon": lon},
+        attrs=dict(MONTHLY),
+        name="pr",
+    )
 
 
 def test_products_basin_table_against_analytic_values():
-    a = _uniform_product(range(2001, 2011), np.arange(10.25, 12.0, 0.5), np.arange(-30.75, -29.0, 0.5),
-                         1.0, "standard")
+    a = _uniform_product(range(2001, 2011), np.arange(10.25, 12.0, 0.5), np.arange(-30.75, -29.0, 0.5), 1.0, "standard")
     b = _uniform_product(range(2000, 2013), [10.5, 11.5], [-30.5, -29.5], 1.2, "noleap")
     square = cw.Basin.from_vertices([(-30.6, 10.4), (-29.4, 10.4), (-29.4, 11.6), (-30.6, 11.6)], name="upper")
     strip = cw.Basin.from_vertices([(-30.9, 10.1), (-29.1, 10.1), (-29.1, 10.6), (-30.9, 10.6)], name="lower")

@@ -16,8 +16,9 @@ from climwidgets.compute import _crest
 from climwidgets.errors import GridError, ParameterError
 
 
-@pytest.mark.parametrize("wind_from, toward", [(270.0, (1.0, 0.0)), (90.0, (-1.0, 0.0)),
-                                               (0.0, (0.0, -1.0)), (180.0, (0.0, 1.0))])
+@pytest.mark.parametrize(
+    "wind_from, toward", [(270.0, (1.0, 0.0)), (90.0, (-1.0, 0.0)), (0.0, (0.0, -1.0)), (180.0, (0.0, 1.0))]
+)
 def test_wind_axes_point_where_the_wind_goes(wind_from, toward):
     # a westerly (from 270) blows toward the east
     np.testing.assert_allclose(_crest.wind_axes(wind_from), toward, atol=1e-12)
@@ -61,9 +62,14 @@ def test_grid_coords_need_ascending_latitude():
         _crest.grid_coords(da, "rain_shadow")
 
 
-@pytest.mark.parametrize("ridge, words", [
-    ([1.0, 2.0], "not a list of"), ([(0.0, 0.0)], "at least 2"), ([(0.0, 0.0), (0.0, 95.0)], "out-of-range"),
-])
+@pytest.mark.parametrize(
+    "ridge, words",
+    [
+        ([1.0, 2.0], "not a list of"),
+        ([(0.0, 0.0)], "at least 2"),
+        ([(0.0, 0.0), (0.0, 95.0)], "out-of-range"),
+    ],
+)
 def test_check_ridge_refuses(ridge, words):
     with pytest.raises(ParameterError, match=words):
         _crest.check_ridge(ridge, "rain_shadow")

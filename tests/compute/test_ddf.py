@@ -31,9 +31,13 @@ def daily(seed=1):
     rng = np.random.default_rng(seed)
     shape = (t.size, 2, 3)
     depth = rng.gamma(0.6, 7.0, shape) * (rng.random(shape) < 0.45)
-    return xr.DataArray(depth, dims=("time", "lat", "lon"), name="pr",
-                        coords={"time": t, "lat": [10.0, 10.5], "lon": [-40.0, -39.5, -39.0]},
-                        attrs={"units": "mm", "step": "day"})
+    return xr.DataArray(
+        depth,
+        dims=("time", "lat", "lon"),
+        name="pr",
+        coords={"time": t, "lat": [10.0, 10.5], "lon": [-40.0, -39.5, -39.0]},
+        attrs={"units": "mm", "step": "day"},
+    )
 
 
 @pytest.fixture(scope="module")
@@ -90,8 +94,13 @@ def test_monotonic_in_duration_and_period(table):
 
 
 def test_consistency_is_a_running_maximum_of_the_single_duration_fits(pr, table):
-    raw = xr.concat([cw.return_levels(annual_maxima_window(pr, d, f"{d} day"), periods=PERIODS, n_boot=N_BOOT)
-                     ["estimate"] for d in range(1, 11)], dim="duration")
+    raw = xr.concat(
+        [
+            cw.return_levels(annual_maxima_window(pr, d, f"{d} day"), periods=PERIODS, n_boot=N_BOOT)["estimate"]
+            for d in range(1, 11)
+        ],
+        dim="duration",
+    )
     expect = np.maximum.accumulate(raw.values, axis=0)
     np.testing.assert_allclose(table["estimate"].values, expect, rtol=1e-12)
     np.testing.assert_array_equal(table["adjusted"].values, expect > raw.values)
@@ -119,15 +128,17 @@ def test_basin_series_and_arf(pr):
     series = cw.depth_duration_frequency(pr, durations=(1, 3), periods=PERIODS, n_boot=N_BOOT, basins=[basin])
     assert series["estimate"].dims == ("duration", "period", "basin")
     # the areal version is the fit of the basin-mean series (climwidgets.geo.aggregate.basin_mean)
-    direct = cw.return_levels(cw.annual_maxima(cw.basin_mean(pr, basin), duration_days=3), periods=PERIODS,
-                              n_boot=N_BOOT)["estimate"]
+    direct = cw.return_levels(
+        cw.annual_maxima(cw.basin_mean(pr, basin), duration_days=3), periods=PERIODS, n_boot=N_BOOT
+    )["estimate"]
     got = series["estimate"].sel(duration=3, basin="upper")
     raised = series["adjusted"].sel(duration=3, basin="upper")
     np.testing.assert_allclose(got.values[~raised.values], direct.values[~raised.values], rtol=1e-12)
 
     with pytest.warns(ARFExtrapolationWarning, match="upper"):  # the basin is larger than 400 square miles
-        arf = cw.depth_duration_frequency(pr, durations=(1,), periods=PERIODS, n_boot=N_BOOT,
-                                          basins={"upper": basin}, areal="arf")
+        arf = cw.depth_duration_frequency(
+            pr, durations=(1,), periods=PERIODS, n_boot=N_BOOT, basins={"upper": basin}, areal="arf"
+        )
     point = cw.depth_duration_frequency(pr, durations=(1,), periods=PERIODS, n_boot=N_BOOT)
     with warnings.catch_warnings():
         warnings.simplefilter("ignore", ARFExtrapolationWarning)
@@ -151,8 +162,7 @@ def test_inches(pr, table):
 
 
 def test_dask_is_lazy_and_equal(pr, table):
-    lazy = cw.depth_duration_frequency(pr.chunk(time=3650, lon=2), durations=(1, 2, 5), periods=PERIODS,
-                                       n_boot=N_BOOT)
+    lazy = cw.depth_duration_frequency(pr.chunk(time=3650, lon=2), durations=(1, 2, 5), periods=PERIODS, n_boot=N_BOOT)
     assert lazy["estimate"].chunks is not None
     xr.testing.assert_allclose(lazy["estimate"].compute(), table["estimate"].sel(duration=[1, 2, 5]))
 

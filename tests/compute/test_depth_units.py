@@ -17,8 +17,13 @@ def test_inch_constant_against_pint():
 
 
 def test_convert_only_depths_and_keep_input():
-    ds = xr.Dataset({"estimate": ("period", [25.4, 50.8], {"units": "mm"}),
-                     "shape": ((), -0.1, {"units": "1"}), "n_years": ((), 40.0)})
+    ds = xr.Dataset(
+        {
+            "estimate": ("period", [25.4, 50.8], {"units": "mm"}),
+            "shape": ((), -0.1, {"units": "1"}),
+            "n_years": ((), 40.0),
+        }
+    )
     out = convert_depth(ds, "in")
     np.testing.assert_allclose(out["estimate"], [1.0, 2.0])
     assert out["estimate"].attrs["units"] == "in" and out["shape"].attrs["units"] == "1"

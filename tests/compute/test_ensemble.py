@@ -18,10 +18,13 @@ def _field(n_members=5, dim="member", seed=1, nan=False):
     if nan:
         values[1, 0, 0] = np.nan
         values[:, 2, 3] = np.nan  # a cell with no member at all
-    return xr.DataArray(values, dims=(dim, "lat", "lon"),
-                        coords={dim: [f"m{i}" for i in range(n_members)], "lat": [1.0, 2.0, 3.0],
-                                "lon": [10.0, 11.0, 12.0, 13.0]},
-                        attrs={"units": "1", "long_name": "change in seasonal share"}, name="change")
+    return xr.DataArray(
+        values,
+        dims=(dim, "lat", "lon"),
+        coords={dim: [f"m{i}" for i in range(n_members)], "lat": [1.0, 2.0, 3.0], "lon": [10.0, 11.0, 12.0, 13.0]},
+        attrs={"units": "1", "long_name": "change in seasonal share"},
+        name="change",
+    )
 
 
 @pytest.mark.parametrize("nan", [False, True])
@@ -34,10 +37,15 @@ def test_statistics_equal_numpy_on_stacked_members(nan):
         # numpy reference: nan-aware functions on axis 0 (numpy's default quantile method is
         # linear, Hyndman & Fan type 7)
         expected = {
-            "mean": np.nanmean(v, 0), "median": np.nanmedian(v, 0), "min": np.nanmin(v, 0),
-            "max": np.nanmax(v, 0), "range": np.nanmax(v, 0) - np.nanmin(v, 0),
-            "lower_quartile": np.nanquantile(v, 0.25, 0), "upper_quartile": np.nanquantile(v, 0.75, 0),
-            "iqr": np.nanquantile(v, 0.75, 0) - np.nanquantile(v, 0.25, 0), "std": np.nanstd(v, 0, ddof=1),
+            "mean": np.nanmean(v, 0),
+            "median": np.nanmedian(v, 0),
+            "min": np.nanmin(v, 0),
+            "max": np.nanmax(v, 0),
+            "range": np.nanmax(v, 0) - np.nanmin(v, 0),
+            "lower_quartile": np.nanquantile(v, 0.25, 0),
+            "upper_quartile": np.nanquantile(v, 0.75, 0),
+            "iqr": np.nanquantile(v, 0.75, 0) - np.nanquantile(v, 0.25, 0),
+            "std": np.nanstd(v, 0, ddof=1),
         }
         n = (~np.isnan(v)).sum(0)
         agree = (np.sign(v) == np.sign(np.nanmedian(v, 0))).sum(0) / np.where(n > 0, n, np.nan)

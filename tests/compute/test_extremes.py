@@ -13,18 +13,29 @@ import climwidgets as cw
 from climwidgets.errors import DataValueError, ParameterError, TimeAxisError
 
 EVENTS = {  # date -> depth (mm); zero elsewhere
-    "2001-03-10": 30.0, "2001-03-11": 25.0, "2001-03-12": 20.0, "2001-08-01": 40.0, "2001-11-15": 33.0,
-    "2002-06-05": 12.0, "2002-12-30": 18.0, "2002-12-31": 20.0,
-    "2003-01-01": 25.0, "2003-07-04": 5.0,
+    "2001-03-10": 30.0,
+    "2001-03-11": 25.0,
+    "2001-03-12": 20.0,
+    "2001-08-01": 40.0,
+    "2001-11-15": 33.0,
+    "2002-06-05": 12.0,
+    "2002-12-30": 18.0,
+    "2002-12-31": 20.0,
+    "2003-01-01": 25.0,
+    "2003-07-04": 5.0,
 }
 
 
 def daily(calendar="standard", start="2001-01-01", end="2003-12-31"):
     """Two cells: cell 0 complete; cell 1 misses 2001-03-11 and 60 days of 2002."""
     t = xr.date_range(start, end, freq="D", calendar=calendar, use_cftime=calendar != "standard")
-    pr = xr.DataArray(np.zeros((t.size, 1, 2)), dims=("time", "lat", "lon"),
-                      coords={"time": t, "lat": [10.0], "lon": [20.0, 21.0]}, name="pr",
-                      attrs={"units": "mm", "step": "day"})
+    pr = xr.DataArray(
+        np.zeros((t.size, 1, 2)),
+        dims=("time", "lat", "lon"),
+        coords={"time": t, "lat": [10.0], "lon": [20.0, 21.0]},
+        name="pr",
+        attrs={"units": "mm", "step": "day"},
+    )
     for day, v in EVENTS.items():
         if pr["time"].sel(time=day).size:
             pr.loc[{"time": day}] = v
@@ -145,7 +156,7 @@ def test_errors():
     with pytest.raises(TimeAxisError, match="daily or hourly"):
         cw.annual_maxima(pr.assign_attrs(step="month"))
     with pytest.raises(TimeAxisError, match="gaps"):
-        cw.annual_maxima(pr.isel(time=np.r_[0:100, 101:pr.sizes["time"]]))
+        cw.annual_maxima(pr.isel(time=np.r_[0:100, 101 : pr.sizes["time"]]))
     neg = pr.copy()
     neg[5, 0, 0] = -9999.0
     with pytest.raises(DataValueError, match="negative"):

@@ -40,9 +40,14 @@ def _write(path, years=3, chunks=(30, 4, 5), missing=False, fill=None, scale=1.0
     if fill is not None:
         data = np.where(np.isnan(data), np.float32(fill), data)
         enc["_FillValue"] = None  # no _FillValue attribute: the loader's fill heuristics apply
-    ds = xr.Dataset({"pr": (("time", "lat", "lon"), data, {"units": units, "standard_name": "precipitation_amount"})},
-                    coords={"time": t, "lat": ("lat", np.arange(4.0), {"units": "degrees_north"}),
-                            "lon": ("lon", np.arange(5.0), {"units": "degrees_east"})})
+    ds = xr.Dataset(
+        {"pr": (("time", "lat", "lon"), data, {"units": units, "standard_name": "precipitation_amount"})},
+        coords={
+            "time": t,
+            "lat": ("lat", np.arange(4.0), {"units": "degrees_north"}),
+            "lon": ("lon", np.arange(5.0), {"units": "degrees_east"}),
+        },
+    )
     ds.to_netcdf(path, encoding={"pr": enc})
     return path
 
@@ -130,8 +135,9 @@ def test_one_task_per_chunk_read_and_only_partials_leave_it(tmp_path):
     pr = cw.open_precip(_write(tmp_path / "d.nc", years=4), chunks={"time": 90}, validate=False)
     ds = climatology_bundle(pr, baseline=(2001, 2004))
     (opt,) = dask.optimize(ds)
-    kinds = collections.Counter(str(k[0] if isinstance(k, tuple) else k).rsplit("-", 1)[0]
-                                for k in opt.__dask_graph__())
+    kinds = collections.Counter(
+        str(k[0] if isinstance(k, tuple) else k).rsplit("-", 1)[0] for k in opt.__dask_graph__()
+    )
     # by prefix: dask 2024.6 appends a token to map_blocks' name and keeps block_info in tasks of
     # its own (small dicts, not daily blocks)
     assert sum(n for k, n in kinds.items() if k.startswith("climatology-partials")) == len(pr.chunks[0])

@@ -17,27 +17,70 @@ from climwidgets.errors import InsufficientDataError, ParameterError
 
 # 40 annual daily maxima (mm), a worked example; values below are computed from the
 # published formulas of Hosking (1990) and Hosking & Wallis (1997) and checked with lmoments3 1.0.8.
-X = np.array([
-    38.2, 52.7, 41.9, 67.3, 45.0, 33.8, 59.4, 48.6, 72.1, 40.3,
-    55.8, 36.4, 88.9, 47.2, 43.5, 61.0, 39.7, 50.1, 95.6, 44.8,
-    57.3, 35.9, 49.4, 66.2, 42.6, 53.9, 78.5, 46.1, 37.5, 58.8,
-    51.2, 63.7, 41.1, 70.4, 45.7, 34.6, 54.5, 112.3, 48.0, 60.2,
-])
+X = np.array(
+    [
+        38.2,
+        52.7,
+        41.9,
+        67.3,
+        45.0,
+        33.8,
+        59.4,
+        48.6,
+        72.1,
+        40.3,
+        55.8,
+        36.4,
+        88.9,
+        47.2,
+        43.5,
+        61.0,
+        39.7,
+        50.1,
+        95.6,
+        44.8,
+        57.3,
+        35.9,
+        49.4,
+        66.2,
+        42.6,
+        53.9,
+        78.5,
+        46.1,
+        37.5,
+        58.8,
+        51.2,
+        63.7,
+        41.1,
+        70.4,
+        45.7,
+        34.6,
+        54.5,
+        112.3,
+        48.0,
+        60.2,
+    ]
+)
 PERIODS = (2, 10, 50, 100)
 
 
 def series(x=X):
-    return xr.DataArray(np.asarray(x, float), dims="year", coords={"year": np.arange(1981, 1981 + len(x))},
-                        name="annual_max", attrs={"units": "mm", "duration": "1 day"})
+    return xr.DataArray(
+        np.asarray(x, float),
+        dims="year",
+        coords={"year": np.arange(1981, 1981 + len(x))},
+        name="annual_max",
+        attrs={"units": "mm", "duration": "1 day"},
+    )
 
 
 def test_pwm_and_lmoments_worked_example():
     m = lmoments(X)
     # Unbiased PWMs b0..b3 and L-moments (Hosking 1990; Hosking & Wallis 1997, sec. 2.4)
-    np.testing.assert_allclose([m["b0"], m["b1"], m["b2"], m["b3"]],
-                               [54.255, 31.6541025641, 23.0339203779, 18.3569342926], rtol=1e-9)
-    np.testing.assert_allclose([m["l2"], m["t3"], m["t4"]], [9.0532051282, 0.2798905853, 0.1894693935],
-                               rtol=1e-9)
+    np.testing.assert_allclose(
+        [m["b0"], m["b1"], m["b2"], m["b3"]], [54.255, 31.6541025641, 23.0339203779, 18.3569342926], rtol=1e-9
+    )
+    np.testing.assert_allclose([m["l2"], m["t3"], m["t4"]], [9.0532051282, 0.2798905853, 0.1894693935], rtol=1e-9)
     # lmoments3 1.0.8 lmom_ratios: l1, l2, t3, t4
     np.testing.assert_allclose([m["l1"], m["l2"], m["t3"], m["t4"]], lmoments3.lmom_ratios(X, 4), rtol=1e-9)
     # the gridded path gives the same sample L-moments
@@ -88,8 +131,7 @@ def test_gumbel_worked_example():
     np.testing.assert_allclose([g["loc"], g["scale"]], [ref["loc"], ref["scale"]], rtol=1e-9)
     rl = cw.return_levels(series(), periods=PERIODS, dist="gumbel", n_boot=200)
     np.testing.assert_allclose(rl["estimate"], [51.503008, 76.108058, 97.679254, 106.798592], rtol=1e-8)
-    np.testing.assert_allclose(rl["estimate"], distr.gum.ppf(1 - 1 / np.asarray(PERIODS, float), **ref),
-                               rtol=1e-9)
+    np.testing.assert_allclose(rl["estimate"], distr.gum.ppf(1 - 1 / np.asarray(PERIODS, float), **ref), rtol=1e-9)
 
 
 def test_gumbel_reduced_variate_100_year():
@@ -214,9 +256,10 @@ def test_errors():
 
 # ----------------------------------------------------------------------------- heavy tails
 
+
 def population_t3(k):
     """GEV L-skewness for Hosking's k (Hosking 1990): 2 (1 - 3^-k) / (1 - 2^-k) - 3."""
-    return 2 * (1 - 3.0 ** -k) / (1 - 2.0 ** -k) - 3
+    return 2 * (1 - 3.0**-k) / (1 - 2.0**-k) - 3
 
 
 @pytest.mark.parametrize("k", [-0.8, -0.7, -0.6, -0.5, -0.3, 0.3, 0.5, 0.8, 1.5])
@@ -280,8 +323,9 @@ def test_nanquantile_linear_is_numpys_nanquantile():
             assert got.shape == np.shape(expected)
             np.testing.assert_array_equal(got, expected)
     complete = rng.normal(size=(40, 501))  # no NaN: the partial-sort path
-    np.testing.assert_array_equal(nanquantile_linear(complete, [0.05, 0.5, 0.95], axis=1),
-                                  np.quantile(complete, [0.05, 0.5, 0.95], axis=1))
+    np.testing.assert_array_equal(
+        nanquantile_linear(complete, [0.05, 0.5, 0.95], axis=1), np.quantile(complete, [0.05, 0.5, 0.95], axis=1)
+    )
 
 
 def test_vectorised_bootstrap_matches_a_per_cell_bootstrap():
@@ -302,11 +346,11 @@ def test_vectorised_bootstrap_matches_a_per_cell_bootstrap():
         est, lo, hi = _bootstrap_block(x, F, dist, 10, ci, n_boot, seed)
         u = np.clip(np.random.default_rng(seed).random((n_boot, x.shape[1])), 1e-300, 1.0)
         for c in range(x.shape[0]):
-            loc, scale, k, n = (float(v[0]) for v in _fit_block(x[c:c + 1], dist, 10)[:4])
+            loc, scale, k, n = (float(v[0]) for v in _fit_block(x[c : c + 1], dist, 10)[:4])
             if not np.isfinite(loc):
                 assert np.isnan(lo[c]).all() and np.isnan(hi[c]).all()
                 continue
-            sample = stats.genextreme.ppf(u[:, :int(n)], c=k, loc=loc, scale=scale)
+            sample = stats.genextreme.ppf(u[:, : int(n)], c=k, loc=loc, scale=scale)
             bl, bs, bk = _fit_block(sample, dist, 10)[:3]
             xt = _quantile(F[None, :], bl[:, None], bs[:, None], bk[:, None])
             with warnings.catch_warnings():

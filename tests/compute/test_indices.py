@@ -32,9 +32,13 @@ def random_daily(seed=0, start="1958-01-01", end="1995-12-31", shape=(3, 4), cal
     rng = np.random.default_rng(seed)
     n = (t.size, *shape)
     depth = rng.gamma(0.7, 8.0, n) * (rng.random(n) < 0.4)
-    pr = xr.DataArray(depth, dims=("time", "lat", "lon"),
-                      coords={"time": t, "lat": np.arange(shape[0]) + 5.0, "lon": np.arange(shape[1]) - 30.0},
-                      name="pr", attrs={"units": "mm", "step": "day"})
+    pr = xr.DataArray(
+        depth,
+        dims=("time", "lat", "lon"),
+        coords={"time": t, "lat": np.arange(shape[0]) + 5.0, "lon": np.arange(shape[1]) - 30.0},
+        name="pr",
+        attrs={"units": "mm", "step": "day"},
+    )
     for year in (1962, 1970, 1985, 1990):  # dry from mid-November to late January
         pr.loc[{"time": slice(f"{year}-11-15", f"{year + 1}-01-25"), "lat": 5.0}] = 0.0
     for year in (1966, 1987):  # a wet run across the year end
@@ -126,16 +130,21 @@ def test_percentile_indices_against_xclim(pr, ours):
     p = for_xclim(pr)
     base = pr.sel(time=slice("1961-01-01", "1990-12-31"))
     # per-cell wet-day percentiles by xclim.core.utils.calc_perc(alpha=beta=1/3)
-    per = xr.apply_ufunc(lambda a: calc_perc(a, [95, 99], alpha=1 / 3, beta=1 / 3),
-                         base.where(base >= 1), input_core_dims=[["time"]], output_core_dims=[["percentile"]])
+    per = xr.apply_ufunc(
+        lambda a: calc_perc(a, [95, 99], alpha=1 / 3, beta=1 / 3),
+        base.where(base >= 1),
+        input_core_dims=[["time"]],
+        output_core_dims=[["percentile"]],
+    )
     ours_per = wet_day_percentiles(pr)
     np.testing.assert_allclose(ours_per.transpose(*per.dims).values, per.values, rtol=1e-12)
     total = xi.prcptot(p, thresh="1 mm/d", freq="YS")
     for i, q in enumerate((95, 99)):
         # xclim.indices.fraction_over_precip_thresh(pr, pr_per, thresh="1 mm/d", op=">"): share of
         # wet-day precipitation from days above the percentile (random depths never equal 1 mm)
-        frac = xi.fraction_over_precip_thresh(p, per.isel(percentile=i).assign_attrs(units="mm/d"),
-                                              thresh="1 mm/d", op=">")
+        frac = xi.fraction_over_precip_thresh(
+            p, per.isel(percentile=i).assign_attrs(units="mm/d"), thresh="1 mm/d", op=">"
+        )
         compare(ours[f"R{q}pTOT"], xclim_masked(100 * frac, pr, "year"))
         compare(ours[f"R{q}p"], xclim_masked(frac * total, pr, "year"))
 
@@ -185,6 +194,7 @@ def test_noleap_calendar_against_xclim():
 
 # ----------------------------------------------------------------------------- worked by hand
 
+
 def hand_series():
     """Two calendar years 2001-2002 (730 days), one cell; zero except the days below.
 
@@ -193,11 +203,24 @@ def hand_series():
     years is in the base: the 8 wet days sorted are 1, 2, 3, 5, 10, 20, 25, 30.
     """
     t = xr.date_range("2001-01-01", "2002-12-31", freq="D")
-    pr = xr.DataArray(np.zeros((t.size, 1)), dims=("time", "cell"), coords={"time": t}, name="pr",
-                      attrs={"units": "mm", "step": "day"})
-    for day, v in {"2001-01-31": 1.0, "2001-02-01": 10.0, "2001-02-02": 20.0, "2001-02-03": 0.5,
-                   "2001-07-10": 30.0, "2001-07-11": 5.0, "2002-01-01": 2.0, "2002-01-02": 3.0,
-                   "2002-12-20": 25.0}.items():
+    pr = xr.DataArray(
+        np.zeros((t.size, 1)),
+        dims=("time", "cell"),
+        coords={"time": t},
+        name="pr",
+        attrs={"units": "mm", "step": "day"},
+    )
+    for day, v in {
+        "2001-01-31": 1.0,
+        "2001-02-01": 10.0,
+        "2001-02-02": 20.0,
+        "2001-02-03": 0.5,
+        "2001-07-10": 30.0,
+        "2001-07-11": 5.0,
+        "2002-01-01": 2.0,
+        "2002-01-02": 3.0,
+        "2002-12-20": 25.0,
+    }.items():
         pr.loc[{"time": day}] = v
     return pr
 
@@ -218,7 +241,10 @@ def test_hand_worked_example_every_index():
         "CWD": [3, 2],
         # type 8 on n = 8: 95th at h = (8 + 1/3) 0.95 + 1/3 = 8.25 -> above the 8th value: 30;
         # 99th likewise 30.  Nothing is strictly above 30: R95p = R99p = 0
-        "R95p": [0.0, 0.0], "R99p": [0.0, 0.0], "R95pTOT": [0.0, 0.0], "R99pTOT": [0.0, 0.0],
+        "R95p": [0.0, 0.0],
+        "R99p": [0.0, 0.0],
+        "R95pTOT": [0.0, 0.0],
+        "R99pTOT": [0.0, 0.0],
         "Rx1day": [30.0, 25.0],
         # 2001: 31 Jan - 4 Feb = 1 + 10 + 20 + 0.5 + 0 = 31.5 vs 10-14 Jul = 35; 2002: 25 (20 Dec)
         "Rx5day": [35.0, 25.0],

@@ -8,8 +8,7 @@ import pytest
 import xarray as xr
 
 import climwidgets as cw
-from climwidgets.compute.linear_model import (condensation_coefficient, vertical_wavenumber,
-                                              water_vapour_scale_height)
+from climwidgets.compute.linear_model import condensation_coefficient, vertical_wavenumber, water_vapour_scale_height
 from climwidgets.compute.thermo import moist_adiabatic_lapse_rate, saturation_vapor_density
 from climwidgets.errors import ParameterError
 
@@ -26,8 +25,7 @@ def _hill(step=0.01, half=0.6, lat_c=0.0):
     y = R * np.deg2rad(lat - lat_c)[:, None]
     x = R * np.deg2rad(lon)[None, :] * np.cos(np.deg2rad(lat.mean()))
     h = H0_M * np.exp(-(x**2 + y**2) / A_M**2)
-    z = xr.DataArray(h, coords={"lat": lat, "lon": lon}, dims=("lat", "lon"),
-                     attrs={"units": "m"})
+    z = xr.DataArray(h, coords={"lat": lat, "lon": lon}, dims=("lat", "lon"), attrs={"units": "m"})
     return z, x[0], y[:, 0]
 
 
@@ -142,8 +140,7 @@ def test_cw_hw_and_moist_lapse_rate_plausible():
     rho_crc = 2338.8 / (461.5 * 293.15)
     assert float(saturation_vapor_density(20.0)) == pytest.approx(rho_crc, rel=3e-3)
     c_w = float(condensation_coefficient(20.0, 0.0065, 100000.0))
-    assert c_w == pytest.approx(rho_crc * float(moist_adiabatic_lapse_rate(20.0, 100000.0)) / 0.0065,
-                                rel=3e-3)
+    assert c_w == pytest.approx(rho_crc * float(moist_adiabatic_lapse_rate(20.0, 100000.0)) / 0.0065, rel=3e-3)
     assert 0.005 < c_w < 0.02  # kg m-3: ρ_S of order 1e-2 times Γm/γ below 1
     # Hw = R_v T²/(L γ) (S&B 2004): about 2.3 km at 10 °C, 6.5 K/km (L = 2.501e6 J/kg,
     # from memory); S&B describe Hw as a few km (from memory).
@@ -152,17 +149,20 @@ def test_cw_hw_and_moist_lapse_rate_plausible():
     assert 2000 < hw < 3000
 
 
-@pytest.mark.parametrize("kwargs, variable, words", [
-    (dict(wind_speed=0.0), "wind_speed", "> 0"),
-    (dict(wind_speed=-3.0), "wind_speed", "> 0"),
-    (dict(wind_from=400.0), "wind_from", "0-360"),
-    (dict(wind_from=-1.0), "wind_from", "0-360"),
-    (dict(nm=-0.01), "nm", ">= 0"),
-    (dict(tau_c=-1.0), "tau_c", ">= 0"),
-    (dict(lapse_rate=6.5), "lapse_rate", "dry adiabatic"),
-    (dict(temperature_c=290.0), "temperature_c", "Celsius"),
-    (dict(duration_hours=0), "duration_hours", "> 0"),
-])
+@pytest.mark.parametrize(
+    "kwargs, variable, words",
+    [
+        (dict(wind_speed=0.0), "wind_speed", "> 0"),
+        (dict(wind_speed=-3.0), "wind_speed", "> 0"),
+        (dict(wind_from=400.0), "wind_from", "0-360"),
+        (dict(wind_from=-1.0), "wind_from", "0-360"),
+        (dict(nm=-0.01), "nm", ">= 0"),
+        (dict(tau_c=-1.0), "tau_c", ">= 0"),
+        (dict(lapse_rate=6.5), "lapse_rate", "dry adiabatic"),
+        (dict(temperature_c=290.0), "temperature_c", "Celsius"),
+        (dict(duration_hours=0), "duration_hours", "> 0"),
+    ],
+)
 def test_bad_parameters(hill, kwargs, variable, words):
     z, _, _ = hill
     with pytest.raises(ParameterError) as err:
@@ -188,10 +188,18 @@ def test_zero_background_is_the_earlier_output(hill):
     z, _, _ = hill
     cells = ((60, 50), (60, 60), (60, 70), (40, 55), (80, 65))
     for kwargs, total, peak, values in [
-        ({}, 1338.0384378233762, 3.3677457765967,
-         (1.5970125772168955, 3.006619355956781, 0.0, 0.25522847762176576, 0.1340889525907481)),
-        (dict(wind_speed=15.0, wind_from=240.0, temperature_c=5.0), 1468.6226935370405, 3.7137889639295043,
-         (1.2678693855505687, 3.7137889639295043, 0.21445052095462908, 0.19431347299185944, 0.0)),
+        (
+            {},
+            1338.0384378233762,
+            3.3677457765967,
+            (1.5970125772168955, 3.006619355956781, 0.0, 0.25522847762176576, 0.1340889525907481),
+        ),
+        (
+            dict(wind_speed=15.0, wind_from=240.0, temperature_c=5.0),
+            1468.6226935370405,
+            3.7137889639295043,
+            (1.2678693855505687, 3.7137889639295043, 0.21445052095462908, 0.19431347299185944, 0.0),
+        ),
     ]:
         p = cw.linear_orographic_precip(z, **kwargs).values
         assert float(p.sum()) == pytest.approx(total, rel=1e-9)
@@ -229,12 +237,15 @@ def test_one_dimensional_ridge_with_one_delay_matches_the_analytic_answer():
     lat = np.arange(-0.1, 0.1 + 1e-9, 0.01)
     lon = np.arange(-1.5, 1.5 + 1e-9, 0.01)  # ±167 km: the ridge and its delayed rain fit
     x = R * np.deg2rad(lon)  # at the equator, cos(lat0) = 1
-    g = np.exp(-(x / a) ** 2)
-    z = xr.DataArray(np.repeat((h0 * g)[None, :], lat.size, axis=0), coords={"lat": lat, "lon": lon},
-                     dims=("lat", "lon"), attrs={"units": "m"})
+    g = np.exp(-((x / a) ** 2))
+    z = xr.DataArray(
+        np.repeat((h0 * g)[None, :], lat.size, axis=0),
+        coords={"lat": lat, "lon": lon},
+        dims=("lat", "lon"),
+        attrs={"units": "m"},
+    )
     bg = 1000.0  # mm/h, far above any drying, so nothing is truncated
-    p = cw.linear_orographic_precip(z, u, 270.0, 10.0, nm=0.0, hw=0.0, tau_c=tau, tau_f=0.0,
-                                    p_background=bg, pad=2.0)
+    p = cw.linear_orographic_precip(z, u, 270.0, 10.0, nm=0.0, hw=0.0, tau_c=tau, tau_f=0.0, p_background=bg, pad=2.0)
     c_w = p.attrs["Cw_kg_m-3"]
     big_l = u * tau
     e = np.sqrt(np.pi) * a / (2 * big_l) * g * erfcx(a / (2 * big_l) - x / a)
@@ -245,5 +256,4 @@ def test_one_dimensional_ridge_with_one_delay_matches_the_analytic_answer():
     assert x[np.argmax(row)] > -a / np.sqrt(2) + 2e3  # downstream of the upslope peak at -a/√2
     # the same ridge without background is truncated at zero exactly where expected < 0
     p0 = cw.linear_orographic_precip(z, u, 270.0, 10.0, nm=0.0, hw=0.0, tau_c=tau, tau_f=0.0, pad=2.0)
-    np.testing.assert_allclose(p0.isel(lat=10).values, np.maximum(expected, 0.0),
-                               atol=1e-3 * np.max(np.abs(expected)))
+    np.testing.assert_allclose(p0.isel(lat=10).values, np.maximum(expected, 0.0), atol=1e-3 * np.max(np.abs(expected)))

@@ -18,9 +18,13 @@ def ensemble():
     t = pd.date_range("1991-03-01", "2021-12-31", freq="D")  # starts in March: partial first year
     vals = rng.gamma(0.6, 5.0, (3, t.size, 2, 2))
     vals[1, 40:45, 0, 0] = np.nan  # a gap in one member only
-    return xr.DataArray(vals, dims=("member", "time", "lat", "lon"),
-                        coords={"member": ["a", "b", "c"], "time": t, "lat": [1.0, 2.0], "lon": [3.0, 4.0]},
-                        attrs={"units": "mm", "step": "day"}, name="pr")
+    return xr.DataArray(
+        vals,
+        dims=("member", "time", "lat", "lon"),
+        coords={"member": ["a", "b", "c"], "time": t, "lat": [1.0, 2.0], "lon": [3.0, 4.0]},
+        attrs={"units": "mm", "step": "day"},
+        name="pr",
+    )
 
 
 FUNCS = {
@@ -46,8 +50,9 @@ def test_per_member_results_equal_per_member_computations(ensemble, name):
     assert "member" in together.dims
     for m in ensemble.member.values:
         alone = f(ensemble.sel(member=m, drop=True))
-        np.testing.assert_allclose(together.sel(member=m).transpose(*alone.dims).values, alone.values,
-                                   rtol=1e-12, equal_nan=True)
+        np.testing.assert_allclose(
+            together.sel(member=m).transpose(*alone.dims).values, alone.values, rtol=1e-12, equal_nan=True
+        )
 
 
 @pytest.mark.parametrize("name", ["annual_totals", "normals", "spi"])

@@ -19,9 +19,13 @@ LEAP_1991_2020 = 8  # 1992, 1996, ..., 2020 (Gregorian leap-year rule, from memo
 
 def daily(start="1991-01-01", end="2020-12-31", ncell=2):
     t = pd.date_range(start, end, freq="D")
-    return xr.DataArray(np.ones((t.size, 1, ncell)), dims=("time", "lat", "lon"),
-                        coords={"time": t, "lat": [5.0], "lon": np.arange(ncell, dtype=float)},
-                        attrs={"units": "mm", "step": "day"}, name="pr")
+    return xr.DataArray(
+        np.ones((t.size, 1, ncell)),
+        dims=("time", "lat", "lon"),
+        coords={"time": t, "lat": [5.0], "lon": np.arange(ncell, dtype=float)},
+        attrs={"units": "mm", "step": "day"},
+        name="pr",
+    )
 
 
 @pytest.fixture(scope="module")
@@ -72,7 +76,7 @@ def test_looser_fraction_and_monthly_input():
     t = pd.date_range("1991-01-01", periods=360, freq="MS")
     rng = np.random.default_rng(3)
     vals = rng.gamma(2.0, 20.0, 360)
-    vals[0:12 * 10:12] = np.nan  # 10 Januaries missing -> 20 of 30 valid
+    vals[0 : 12 * 10 : 12] = np.nan  # 10 Januaries missing -> 20 of 30 valid
     pr = xr.DataArray(vals, dims="time", coords={"time": t}, attrs={"units": "mm", "step": "month"})
     assert np.isnan(normals(pr).sel(month=1))
     loose = normals(pr, min_fraction=0.6)
@@ -90,8 +94,11 @@ def test_dask_same_numbers(gappy):
 def test_baseline_outside_data_names_the_period():
     pr = daily("2001-01-01", "2010-12-31")
     # judged by the WMO-No. 1203 count (24 of 30 years), not by whole years inside the record
-    with pytest.raises(ParameterError, match="baseline=\\(1991, 2020\\) lies outside the data or overlaps "
-                                             "it too little: 10 of its 30 years .*2001-2010.*at least 24") as err:
+    with pytest.raises(
+        ParameterError,
+        match="baseline=\\(1991, 2020\\) lies outside the data or overlaps "
+        "it too little: 10 of its 30 years .*2001-2010.*at least 24",
+    ) as err:
         normals(pr)
     assert "Fix:" in str(err.value)
     with pytest.raises(ParameterError, match="ends before it starts"):
@@ -104,6 +111,7 @@ def test_baseline_outside_data_names_the_period():
 
 # ---- a record that starts in March 1991: judged month by month (WMO-No. 1203, 2017:
 # a monthly normal needs at least 80 % of the baseline years, i.e. 24 of 30)
+
 
 def test_record_starting_in_march_1991_uses_the_1991_2020_baseline():
     pr = daily("1991-03-01", "2020-12-31")

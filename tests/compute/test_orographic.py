@@ -22,8 +22,7 @@ R = 6_371_007.2
 
 
 def _grid(values, name="pr", units="mm"):
-    return xr.DataArray(values, coords={"lat": LAT, "lon": LON}, dims=("lat", "lon"),
-                        name=name, attrs={"units": units})
+    return xr.DataArray(values, coords={"lat": LAT, "lon": LON}, dims=("lat", "lon"), name=name, attrs={"units": units})
 
 
 def _sides(west, east):
@@ -31,8 +30,7 @@ def _sides(west, east):
 
 
 def _ridge_terrain(height=2000.0):
-    return _grid(height * np.exp(-(((LON[None, :] - 0.5) / 0.3) ** 2)) + 0 * LAT[:, None],
-                 name="elevation", units="m")
+    return _grid(height * np.exp(-(((LON[None, :] - 0.5) / 0.3) ** 2)) + 0 * LAT[:, None], name="elevation", units="m")
 
 
 def _cell_areas():
@@ -44,6 +42,7 @@ def _cell_areas():
 
 
 # --- distances -------------------------------------------------------------------------
+
 
 @pytest.mark.parametrize("i, j", [(0, 0), (3, 14), (5, 16), (10, 30), (7, 5)])
 def test_signed_distance_matches_pyproj_geodesic(i, j):
@@ -86,13 +85,13 @@ def test_cells_beyond_crest_ends():
     short = [(RIDGE_LON, 40.25), (RIDGE_LON, 40.75)]
     ex = cw.rain_shadow(_sides(1.0, 1.0), ridge=short, band_km=(0, 200)).distance_km
     assert np.all(np.isnan(ex.sel(lat=40.0))) and np.all(np.isfinite(ex.sel(lat=40.5)))
-    near = cw.rain_shadow(_sides(1.0, 1.0), ridge=short, band_km=(0, 200),
-                          beyond_ends="nearest").distance_km
+    near = cw.rain_shadow(_sides(1.0, 1.0), ridge=short, band_km=(0, 200), beyond_ends="nearest").distance_km
     assert np.all(np.isfinite(near))
     np.testing.assert_allclose(near.sel(lat=40.5), ex.sel(lat=40.5))
 
 
 # --- contrast --------------------------------------------------------------------------
+
 
 def test_constant_sides_recover_ratio_exactly():
     ds = cw.rain_shadow(_sides(120.0, 45.0), 270.0, ridge=RIDGE, band_km=(0, 25, 50, 100))
@@ -124,8 +123,7 @@ def test_means_are_area_weighted_and_basin_restricted():
     assert float(basin.windward_mean) == pytest.approx(manual_b, rel=1e-9)
     assert float(basin.n_windward) == mb.sum()
     # the same restriction drawn as a basin polygon (coverage from climwidgets.geo)
-    poly = cw.Basin.from_vertices([(-1.05, 39.95), (2.05, 39.95), (2.05, 40.45), (-1.05, 40.45)],
-                                  name="southern strip")
+    poly = cw.Basin.from_vertices([(-1.05, 39.95), (2.05, 39.95), (2.05, 40.45), (-1.05, 40.45)], name="southern strip")
     drawn = cw.rain_shadow(field, 270.0, ridge=RIDGE, band_km=(0, 60), basin=poly)
     assert float(drawn.windward_mean) == pytest.approx(manual_b, rel=1e-9)
 
@@ -155,12 +153,14 @@ def test_crest_from_elevation_and_rain_shadow_with_terrain():
 def _yearly(rep_values_west, rep_values_east):
     """(rep, year, lat, lon) field, each side constant within a year."""
     west = LON < RIDGE_LON
-    vals = np.where(west[None, None, None, :], rep_values_west[..., None, None],
-                    rep_values_east[..., None, None])
+    vals = np.where(west[None, None, None, :], rep_values_west[..., None, None], rep_values_east[..., None, None])
     vals = np.broadcast_to(vals, rep_values_west.shape + (LAT.size, LON.size))
-    return xr.DataArray(vals, dims=("rep", "year", "lat", "lon"),
-                        coords={"year": np.arange(2000, 2000 + rep_values_west.shape[1]),
-                                "lat": LAT, "lon": LON}, attrs={"units": "mm"})
+    return xr.DataArray(
+        vals,
+        dims=("rep", "year", "lat", "lon"),
+        coords={"year": np.arange(2000, 2000 + rep_values_west.shape[1]), "lat": LAT, "lon": LON},
+        attrs={"units": "mm"},
+    )
 
 
 def test_bootstrap_interval_covers_at_about_nominal_rate():
@@ -173,8 +173,7 @@ def test_bootstrap_interval_covers_at_about_nominal_rate():
     n_rep, n_year = 300, 30
     west = 100.0 + 12.0 * rng.standard_normal((n_rep, n_year))
     east = 60.0 + 9.0 * rng.standard_normal((n_rep, n_year))
-    ds = cw.rain_shadow(_yearly(west, east), 270.0, ridge=RIDGE, band_km=(0, 60),
-                        n_boot=400, ci=0.9, seed=1)
+    ds = cw.rain_shadow(_yearly(west, east), 270.0, ridge=RIDGE, band_km=(0, 60), n_boot=400, ci=0.9, seed=1)
     assert ds.ratio_per_year.dims == ("rep", "year")
     np.testing.assert_allclose(ds.ratio_per_year, east / west, rtol=1e-12)
     np.testing.assert_allclose(ds.ratio, east.mean(1) / west.mean(1), rtol=1e-12)
@@ -197,6 +196,7 @@ def test_dask_input_stays_lazy_with_same_numbers():
 
 
 # --- errors ----------------------------------------------------------------------------
+
 
 def test_ridge_with_one_point():
     with pytest.raises(ParameterError) as err:
@@ -242,6 +242,7 @@ def test_bad_bands():
 
 # --- elevation gradient ----------------------------------------------------------------
 
+
 def test_gradient_recovers_linear_rise():
     z = _ridge_terrain()
     field = (400.0 + 0.8 * z).assign_attrs(units="mm")  # 80 mm per 100 m
@@ -253,8 +254,9 @@ def test_gradient_recovers_linear_rise():
     assert "elevation_gradient" in g.attrs["history"]
     # band means of a linear field sit on the line at the band's mean elevation
     ok = g.band_cells > 0
-    np.testing.assert_allclose(g.band_mean.where(ok, drop=True),
-                               (400 + 0.8 * g.band_elevation).where(ok, drop=True), rtol=1e-9)
+    np.testing.assert_allclose(
+        g.band_mean.where(ok, drop=True), (400 + 0.8 * g.band_elevation).where(ok, drop=True), rtol=1e-9
+    )
     assert int(g.band_cells.sum()) == LAT.size * LON.size
 
 
@@ -273,9 +275,9 @@ def test_gradient_matches_scipy_regressions():
     assert int(ols.n) == z.size
     # weighted: scipy.optimize.curve_fit with sigma = 1/sqrt(area), relative sigma
     w = _cell_areas().ravel()
-    popt, pcov = optimize.curve_fit(lambda x, a, b: a + b * x, z.values.ravel(),
-                                    field.values.ravel(), sigma=1 / np.sqrt(w),
-                                    absolute_sigma=False)
+    popt, pcov = optimize.curve_fit(
+        lambda x, a, b: a + b * x, z.values.ravel(), field.values.ravel(), sigma=1 / np.sqrt(w), absolute_sigma=False
+    )
     wls = cw.elevation_gradient(field, z)
     assert float(wls.slope) == pytest.approx(100 * popt[1], rel=1e-7)
     se = np.sqrt(pcov[1, 1])

@@ -30,7 +30,7 @@ def test_each_value_keeps_its_quantiles_relative_change():
     fut = _series(_wet(rng, 20, 9.0), "2003-01-01")
     out = quantile_delta_map(obs, hist, fut, "month", trace=0.1, max_ratio=10.0, seed=0, jitter=False)
     f = fut.values
-    tau = (np.argsort(np.argsort(f)) / (f.size - 1.0))  # rank / (n - 1), no ties
+    tau = np.argsort(np.argsort(f)) / (f.size - 1.0)  # rank / (n - 1), no ties
     # Outside reference: numpy.quantile (its default "linear" method is Hyndman & Fan type 7).
     q_obs = np.array([np.quantile(obs.values, t) for t in tau])
     q_hist = np.array([np.quantile(hist.values, t) for t in tau])

@@ -47,9 +47,17 @@ def region(l_cv, n_years=40, shape=(4, 5), k=-0.1, seed=0, lengths=None):
     if lengths is not None:  # shorter records: NaN at the start
         for (j, i), n in np.ndenumerate(lengths):
             x[: n_years - n, j, i] = np.nan
-    return xr.DataArray(x, dims=("year", "lat", "lon"), name="annual_max", attrs={"units": "mm"},
-                        coords={"year": np.arange(1961, 1961 + n_years), "lat": 10.0 + np.arange(shape[0]) * 0.5,
-                                "lon": -30.0 + np.arange(shape[1]) * 0.5})
+    return xr.DataArray(
+        x,
+        dims=("year", "lat", "lon"),
+        name="annual_max",
+        attrs={"units": "mm"},
+        coords={
+            "year": np.arange(1961, 1961 + n_years),
+            "lat": 10.0 + np.arange(shape[0]) * 0.5,
+            "lon": -30.0 + np.arange(shape[1]) * 0.5,
+        },
+    )
 
 
 def test_discordancy_properties_and_scipy():
@@ -73,7 +81,18 @@ def test_discordancy_properties_and_scipy():
 def test_critical_values_table_3_1():
     # Hosking & Wallis (1997) Table 3.1 (from memory)
     assert [discordancy_critical(n) for n in range(5, 16)] == [
-        1.333, 1.648, 1.917, 2.140, 2.329, 2.491, 2.632, 2.757, 2.869, 2.971, 3.0]
+        1.333,
+        1.648,
+        1.917,
+        2.140,
+        2.329,
+        2.491,
+        2.632,
+        2.757,
+        2.869,
+        2.971,
+        3.0,
+    ]
     assert discordancy_critical(40) == 3.0 and np.isnan(discordancy_critical(4))
     assert len(DISCORDANCY_CRITICAL) == 10
 
@@ -119,8 +138,9 @@ def test_growth_curve_is_the_pooled_lmoment_fit():
     F = 1 - 1 / np.asarray(PERIODS, float)
     np.testing.assert_allclose(ds["growth"].isel(region=0), distr.gev.ppf(F, **ref), rtol=1e-3)
     # scipy.stats.genextreme with the growth-curve parameters (c = Hosking's k)
-    sp = stats.genextreme.ppf(F, c=ds["growth_shape"].item(), loc=ds["growth_loc"].item(),
-                              scale=ds["growth_scale"].item())
+    sp = stats.genextreme.ppf(
+        F, c=ds["growth_shape"].item(), loc=ds["growth_loc"].item(), scale=ds["growth_scale"].item()
+    )
     np.testing.assert_allclose(ds["growth"].isel(region=0), sp, rtol=1e-10)
     # each cell's estimate = its index (mean annual maximum) x growth
     est = ds["estimate"].transpose("lat", "lon", "period").values
@@ -174,8 +194,18 @@ def test_bad_input():
 # February 2015; function regtst.s in R/lmomRFA.r, read in its published source): the
 # critical discordancy values of Hosking & Wallis (1997) Table 3.1 to four decimals
 # (vector dc1, N = 5 ... 14), and the heterogeneity measure H written out below.
-LMOMRFA_DC1 = {5: 1.3330, 6: 1.6481, 7: 1.9166, 8: 2.1401, 9: 2.3287, 10: 2.4906, 11: 2.6321, 12: 2.7573,
-               13: 2.8694, 14: 2.9709}
+LMOMRFA_DC1 = {
+    5: 1.3330,
+    6: 1.6481,
+    7: 1.9166,
+    8: 2.1401,
+    9: 2.3287,
+    10: 2.4906,
+    11: 2.6321,
+    12: 2.7573,
+    13: 2.8694,
+    14: 2.9709,
+}
 
 
 def test_critical_values_match_the_lmomrfa_reference():
@@ -207,12 +237,16 @@ def _h_as_in_lmomrfa(x, n_sim, seed):
     def v(r):
         reg = (n[:, None] * r).sum(0) / n.sum()
         d = r - reg
-        return np.array([np.sqrt((n * d[:, 0] ** 2).sum() / n.sum()),
-                         (n * np.hypot(d[:, 0], d[:, 1])).sum() / n.sum(),
-                         (n * np.hypot(d[:, 1], d[:, 2])).sum() / n.sum()]), reg
+        return np.array(
+            [
+                np.sqrt((n * d[:, 0] ** 2).sum() / n.sum()),
+                (n * np.hypot(d[:, 0], d[:, 1])).sum() / n.sum(),
+                (n * np.hypot(d[:, 1], d[:, 2])).sum() / n.sum(),
+            ]
+        ), reg
 
     v_obs, (tr, t3r, t4r) = v(ratios(sites))
-    if t4r <= (1 + 5 * t3r ** 2) / 6:
+    if t4r <= (1 + 5 * t3r**2) / 6:
         dist = distr.kap(**distr.kap.lmom_fit(lmom_ratios=[1.0, tr, t3r, t4r]))
     else:
         dist = distr.glo(**distr.glo.lmom_fit(lmom_ratios=[1.0, tr, t3r, t4r]))

@@ -15,9 +15,13 @@ R1 = 6_371_008.7714  # GRS80 mean radius (2a+b)/3, Moritz (1980) Bull. Geod. 54(
 
 def _field(lat, lon, nt=2, seed=0, bounds=None):
     rng = np.random.default_rng(seed)
-    da = xr.DataArray(rng.gamma(2.0, 20.0, (nt, len(lat), len(lon))), dims=("time", "lat", "lon"),
-                      coords={"time": np.arange(nt), "lat": lat, "lon": lon},
-                      attrs={"units": "mm", "step": "month"}, name="pr")
+    da = xr.DataArray(
+        rng.gamma(2.0, 20.0, (nt, len(lat), len(lon))),
+        dims=("time", "lat", "lon"),
+        coords={"time": np.arange(nt), "lat": lat, "lon": lon},
+        attrs={"units": "mm", "step": "month"},
+        name="pr",
+    )
     if bounds is not None:
         da = da.assign_coords({k: (k[:3], v) for k, v in bounds.items()})
     return da
@@ -38,8 +42,9 @@ def _total(da):
 # covers the source domain (common practice for first-order conservative remapping).
 def test_conservation_coarsening_0p1_to_0p5():
     src = _field(np.arange(-4.95, 5.0, 0.1), np.arange(10.05, 20.0, 0.1))
-    out, cov = cw.regrid(src, {"lat": np.arange(-4.75, 5.0, 0.5), "lon": np.arange(10.25, 20.0, 0.5)},
-                         return_coverage=True)
+    out, cov = cw.regrid(
+        src, {"lat": np.arange(-4.75, 5.0, 0.5), "lon": np.arange(10.25, 20.0, 0.5)}, return_coverage=True
+    )
     assert out.shape == (2, 20, 20)
     np.testing.assert_allclose(_total(out), _total(src), rtol=1e-10)
     np.testing.assert_allclose(cov.values, 1.0, rtol=1e-10)
@@ -51,8 +56,11 @@ def test_conservation_refining():
     out = cw.regrid(src, {"lat": np.arange(-4.95, 5.0, 0.1), "lon": np.arange(10.05, 20.0, 0.1)})
     np.testing.assert_allclose(_total(out), _total(src), rtol=1e-10)
     # refining a piecewise-constant field reproduces it exactly inside each source cell
-    np.testing.assert_allclose(out.isel(lat=slice(0, 5), lon=slice(0, 5)).values,
-                               np.broadcast_to(src.isel(lat=[0], lon=[0]).values, (2, 5, 5)), rtol=1e-12)
+    np.testing.assert_allclose(
+        out.isel(lat=slice(0, 5), lon=slice(0, 5)).values,
+        np.broadcast_to(src.isel(lat=[0], lon=[0]).values, (2, 5, 5)),
+        rtol=1e-12,
+    )
 
 
 def test_conservation_shifted_global_grids_with_wrap():
@@ -64,9 +72,16 @@ def test_conservation_shifted_global_grids_with_wrap():
     lon_edges = lon_edges[lon_edges <= 180.7]
     lat_c = 0.5 * (lat_edges[1:] + lat_edges[:-1])
     lon_c = 0.5 * (lon_edges[1:] + lon_edges[:-1])
-    tgt = xr.Dataset(coords={"lat": lat_c, "lon": lon_c,
-                             "lat_lower": ("lat", lat_edges[:-1]), "lat_upper": ("lat", lat_edges[1:]),
-                             "lon_lower": ("lon", lon_edges[:-1]), "lon_upper": ("lon", lon_edges[1:])})
+    tgt = xr.Dataset(
+        coords={
+            "lat": lat_c,
+            "lon": lon_c,
+            "lat_lower": ("lat", lat_edges[:-1]),
+            "lat_upper": ("lat", lat_edges[1:]),
+            "lon_lower": ("lon", lon_edges[:-1]),
+            "lon_upper": ("lon", lon_edges[1:]),
+        }
+    )
     assert lon_edges[-1] - lon_edges[0] == pytest.approx(360.0)
     out, cov = cw.regrid(src, tgt, return_coverage=True)
     np.testing.assert_allclose(cov.values, 1.0, rtol=1e-10)
@@ -88,13 +103,21 @@ def test_target_in_0_360_convention_is_a_roll():
 def test_separable_weights_equal_analytic_spherical_areas():
     # A = R² Δλ (sin φ2 − sin φ1): area of a lat/lon cell from the spherical cap 2πR²(1 − sin φ)
     # (Snyder 1987, USGS PP 1395 — from memory).  No shapely involved on either side.
-    wlat, wlon = separable_weights((np.array([0.0]), np.array([1.0])), (np.array([0.0]), np.array([1.0])),
-                                   (np.array([0.0]), np.array([1.0])), (np.array([0.0]), np.array([1.0])))
+    wlat, wlon = separable_weights(
+        (np.array([0.0]), np.array([1.0])),
+        (np.array([0.0]), np.array([1.0])),
+        (np.array([0.0]), np.array([1.0])),
+        (np.array([0.0]), np.array([1.0])),
+    )
     # computed value for R1 (GRS80 mean radius): 12 363 718 034.18 m² for the 1°x1° cell 0–1°N
     np.testing.assert_allclose(R1**2 * wlat[0, 0] * wlon[0, 0], 12_363_718_034.18, rtol=1e-10)
     # a partial overlap: source [0,1]x[0,1] with target [0.25,3]x[0.5,2] shares [0.25,1]x[0.5,1]
-    wlat, wlon = separable_weights((np.array([0.0]), np.array([1.0])), (np.array([0.0]), np.array([1.0])),
-                                   (np.array([0.25]), np.array([3.0])), (np.array([0.5]), np.array([2.0])))
+    wlat, wlon = separable_weights(
+        (np.array([0.0]), np.array([1.0])),
+        (np.array([0.0]), np.array([1.0])),
+        (np.array([0.25]), np.array([3.0])),
+        (np.array([0.5]), np.array([2.0])),
+    )
     expect = R1**2 * np.deg2rad(0.5) * (np.sin(np.deg2rad(1.0)) - np.sin(np.deg2rad(0.25)))
     np.testing.assert_allclose(R1**2 * wlat[0, 0] * wlon[0, 0], expect, rtol=1e-12)
     # a global 1° grid: the overlap weights sum to the whole sphere, 4π (telescoping sum)
@@ -105,8 +128,9 @@ def test_separable_weights_equal_analytic_spherical_areas():
     np.testing.assert_allclose(wlat.sum() * wlon.sum(), 4 * np.pi, rtol=1e-12)
     # and cell by cell they equal geo.area.cell_area on the same grid
     grid = xr.Dataset(coords={"lat": np.arange(-89.5, 90.0), "lon": np.arange(-179.5, 180.0)})
-    np.testing.assert_allclose(R1**2 * np.outer(wlat.diagonal(), wlon.diagonal()),
-                               cw.cell_area(grid, radius=R1).values, rtol=1e-10)
+    np.testing.assert_allclose(
+        R1**2 * np.outer(wlat.diagonal(), wlon.diagonal()), cw.cell_area(grid, radius=R1).values, rtol=1e-10
+    )
 
 
 # ------------------------------------------------------------------ missing values
@@ -147,9 +171,12 @@ def test_bilinear_matches_xarray_interp_on_smooth_field():
     lat = np.arange(-10.0, 10.1, 1.0)
     lon = np.arange(20.0, 40.1, 1.0)
     la, lo = np.meshgrid(lat, lon, indexing="ij")
-    src = xr.DataArray((50 + 10 * np.sin(np.deg2rad(3 * la)) * np.cos(np.deg2rad(2 * lo)))[None],
-                       dims=("time", "lat", "lon"), coords={"time": [0], "lat": lat, "lon": lon},
-                       attrs={"units": "mm", "step": "month"})
+    src = xr.DataArray(
+        (50 + 10 * np.sin(np.deg2rad(3 * la)) * np.cos(np.deg2rad(2 * lo)))[None],
+        dims=("time", "lat", "lon"),
+        coords={"time": [0], "lat": lat, "lon": lon},
+        attrs={"units": "mm", "step": "month"},
+    )
     tlat, tlon = np.linspace(-9.3, 9.7, 13), np.linspace(20.2, 39.9, 17)
     out = cw.regrid(src, {"lat": tlat, "lon": tlon}, method="bilinear")
     ref = src.interp(lat=tlat, lon=tlon, method="linear")  # xarray's own DataArray.interp
@@ -159,9 +186,12 @@ def test_bilinear_matches_xarray_interp_on_smooth_field():
 def test_bilinear_wraps_a_global_source():
     lat = np.arange(-60.0, 61.0, 2.0)
     lon = np.arange(-179.0, 180.0, 2.0)
-    src = xr.DataArray(np.broadcast_to(np.cos(np.deg2rad(lon)), (1, lat.size, lon.size)).copy(),
-                       dims=("time", "lat", "lon"), coords={"time": [0], "lat": lat, "lon": lon},
-                       attrs={"units": "mm", "step": "month"})
+    src = xr.DataArray(
+        np.broadcast_to(np.cos(np.deg2rad(lon)), (1, lat.size, lon.size)).copy(),
+        dims=("time", "lat", "lon"),
+        coords={"time": [0], "lat": lat, "lon": lon},
+        attrs={"units": "mm", "step": "month"},
+    )
     out = cw.regrid(src, {"lat": [0.0], "lon": [179.5, -179.5, 180.0]}, method="bilinear")
     # between centres 179 and -179 (=181): linear interpolation of cos gives cos(179°) there
     np.testing.assert_allclose(out.values[0, 0], np.cos(np.deg2rad(179.0)), rtol=1e-12)
@@ -170,9 +200,13 @@ def test_bilinear_wraps_a_global_source():
 # ------------------------------------------------------------------ curvilinear
 def _curvilinear_copy(da):
     la, lo = np.meshgrid(da.lat.values, da.lon.values, indexing="ij")
-    return xr.DataArray(da.values, dims=("time", "y", "x"),
-                        coords={"time": da.time.values, "lat": (("y", "x"), la), "lon": (("y", "x"), lo)},
-                        attrs=dict(da.attrs), name="pr")
+    return xr.DataArray(
+        da.values,
+        dims=("time", "y", "x"),
+        coords={"time": da.time.values, "lat": (("y", "x"), la), "lon": (("y", "x"), lo)},
+        attrs=dict(da.attrs),
+        name="pr",
+    )
 
 
 def test_curvilinear_polygon_path_agrees_with_separable_path():
@@ -194,9 +228,12 @@ def test_curvilinear_rotated_grid_conserves_total():
     lon = 0.3 * (np.sin(t) * j + np.cos(t) * i) + 179.0  # crosses the antimeridian
     lon = (lon + 180.0) % 360.0 - 180.0
     rng = np.random.default_rng(3)
-    src = xr.DataArray(rng.gamma(2.0, 10.0, (1, 12, 14)), dims=("time", "y", "x"),
-                       coords={"time": [0], "lat": (("y", "x"), lat), "lon": (("y", "x"), lon)},
-                       attrs={"units": "mm", "step": "month"})
+    src = xr.DataArray(
+        rng.gamma(2.0, 10.0, (1, 12, 14)),
+        dims=("time", "y", "x"),
+        coords={"time": [0], "lat": (("y", "x"), lat), "lon": (("y", "x"), lon)},
+        attrs={"units": "mm", "step": "month"},
+    )
     tgt = {"lat": np.arange(-1.75, 8.0, 0.5), "lon": np.arange(-179.75, 180.0, 0.5)}
     out, cov = cw.regrid(src, tgt, coverage="renormalise", min_coverage=1e-12, return_coverage=True)
     g = cell_bounds(src)

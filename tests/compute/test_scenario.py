@@ -19,11 +19,25 @@ from climwidgets.errors import (
 )
 
 
-def _series(y0, y1, *, calendar="noleap", members=None, step="day", lat=(0.0, 1.0), lon=(0.0, 1.0, 2.0),
-            seed=0, scale=5.0, k=0.8, dry=0.4, floor=0.0):
+def _series(
+    y0,
+    y1,
+    *,
+    calendar="noleap",
+    members=None,
+    step="day",
+    lat=(0.0, 1.0),
+    lon=(0.0, 1.0, 2.0),
+    seed=0,
+    scale=5.0,
+    k=0.8,
+    dry=0.4,
+    floor=0.0,
+):
     freq = "D" if step == "day" else "MS"
-    time = xr.date_range(f"{y0}-01-01", f"{y1 + 1}-01-01", freq=freq, calendar=calendar,
-                         use_cftime=calendar != "standard")[:-1]
+    time = xr.date_range(
+        f"{y0}-01-01", f"{y1 + 1}-01-01", freq=freq, calendar=calendar, use_cftime=calendar != "standard"
+    )[:-1]
     rng = np.random.default_rng(seed)
     shape = ((len(members),) if members else ()) + (len(time), len(lat), len(lon))
     values = floor + rng.gamma(k, scale, shape) * (rng.random(shape) >= dry)
@@ -84,11 +98,13 @@ def test_monthly_ratio_regrids_model_factors_conservatively():
     # model cell must reach the four observed cells inside it unchanged (nested grids).
     hist = _series(1981, 1983, members=MEMBERS, step="month", lat=(1.0, 3.0), lon=(1.0, 3.0), dry=0.0)
     fut = hist.copy(data=hist.values * np.array([1.2, 0.7])[:, None, None, None])
-    fut = fut.assign_coords(time=xr.date_range("2041-01-01", periods=hist.sizes["time"], freq="MS",
-                                               calendar="noleap", use_cftime=True))
+    fut = fut.assign_coords(
+        time=xr.date_range("2041-01-01", periods=hist.sizes["time"], freq="MS", calendar="noleap", use_cftime=True)
+    )
     fut[:, :, 0, 0] *= 2.0  # one model cell doubles on top
-    obs = _series(1991, 1991, calendar="standard", step="month", lat=(0.5, 1.5, 2.5, 3.5),
-                  lon=(0.5, 1.5, 2.5, 3.5), dry=0.0)
+    obs = _series(
+        1991, 1991, calendar="standard", step="month", lat=(0.5, 1.5, 2.5, 3.5), lon=(0.5, 1.5, 2.5, 3.5), dry=0.0
+    )
     out, factors = delta_change(obs, hist, fut, return_factors=True)
     np.testing.assert_allclose(factors.sel(member="m1").values[:, :2, :2], 2.4, rtol=1e-12)
     np.testing.assert_allclose(factors.sel(member="m2").values[:, 2:, 2:], 0.7, rtol=1e-12)
@@ -108,10 +124,10 @@ def test_monthly_ratio_lazy():
 def _wet_case():
     """Daily series with every amount >= 1 mm: no dry days, so the trace rule is idle."""
     obs = _series(1981, 1990, lat=(0.0, 1.0), lon=(0.0,), k=0.7, scale=6.0, dry=0.0, floor=1.0, seed=1)
-    hist = _series(1981, 1990, members=MEMBERS, lat=(0.0, 1.0), lon=(0.0,), k=0.9, scale=4.0, dry=0.0,
-                   floor=1.0, seed=2)
-    fut = _series(2041, 2050, members=MEMBERS, lat=(0.0, 1.0), lon=(0.0,), k=0.8, scale=5.0, dry=0.0,
-                  floor=1.0, seed=3)
+    hist = _series(
+        1981, 1990, members=MEMBERS, lat=(0.0, 1.0), lon=(0.0,), k=0.9, scale=4.0, dry=0.0, floor=1.0, seed=2
+    )
+    fut = _series(2041, 2050, members=MEMBERS, lat=(0.0, 1.0), lon=(0.0,), k=0.8, scale=5.0, dry=0.0, floor=1.0, seed=3)
     return obs, hist, fut
 
 
@@ -131,14 +147,17 @@ def test_quantile_delta_matches_xsdba(group):
     # four months keep the test quick (every month is its own mapping); DJF spans the year end
     chosen = [(1,), (2,), (7,), (12,)] if group == "month" else [(12, 1, 2), (6, 7, 8)]
     for months in chosen:
+
         def sel(x, months=months):
             return x.isel(time=np.flatnonzero(np.isin(x["time"].dt.month.values, months)))
+
         ref, hst, sim = sel(obs), sel(hist), sel(fut)
         nodes = np.linspace(0.0, 1.0, sim.sizes["time"])
         with warnings.catch_warnings():
             warnings.simplefilter("ignore")
-            qdm = xsdba.QuantileDeltaMapping.train(ref.assign_attrs(units="mm/d"), hst.assign_attrs(units="mm/d"),
-                                                   nquantiles=nodes, kind="*", group="time")
+            qdm = xsdba.QuantileDeltaMapping.train(
+                ref.assign_attrs(units="mm/d"), hst.assign_attrs(units="mm/d"), nquantiles=nodes, kind="*", group="time"
+            )
             scen = qdm.adjust(sim.assign_attrs(units="mm/d"), interp="linear", extrapolation="constant")
         mine = sel(ours)
         np.testing.assert_allclose(scen.transpose(*mine.dims).values, mine.values, rtol=1e-10)
@@ -158,10 +177,14 @@ def _smooth_sample(template, dist, seed):
         shape = list(template.shape)
         shape[axis] = n
         q = dist.ppf((np.arange(n) + 0.5) / n)
-        block = np.moveaxis(np.broadcast_to(q, shape[:axis] + shape[axis + 1:] + [n]), -1, axis).copy()
+        block = np.moveaxis(np.broadcast_to(q, shape[:axis] + shape[axis + 1 :] + [n]), -1, axis).copy()
         block = rng.permuted(block, axis=axis)
-        np.put_along_axis(out.values, np.broadcast_to(
-            idx.reshape([-1 if d == axis else 1 for d in range(len(shape))]), shape), block, axis)
+        np.put_along_axis(
+            out.values,
+            np.broadcast_to(idx.reshape([-1 if d == axis else 1 for d in range(len(shape))]), shape),
+            block,
+            axis,
+        )
     return out
 
 
@@ -176,9 +199,12 @@ def test_quantile_delta_preserves_relative_change_in_each_quantile():
     fut = _smooth_sample(fut, stats.gamma(1.8, loc=1.0, scale=5.0), 3)
     adj = delta_change(obs, hist, fut, method="quantile_delta").compute()
     for month in (1, 2, 7):
+
         def vals(x, month=month):
-            return np.moveaxis(x.isel(time=np.flatnonzero((x["time"].dt.month == month).values)).values,
-                               x.dims.index("time"), -1)
+            return np.moveaxis(
+                x.isel(time=np.flatnonzero((x["time"].dt.month == month).values)).values, x.dims.index("time"), -1
+            )
+
         a, f, h, o = vals(adj), vals(fut), vals(hist), vals(obs)
         tau = np.linspace(0.0, 1.0, f.shape[-1])
         q_adj, q_fut = np.sort(a, -1), np.sort(f, -1)
@@ -194,8 +220,9 @@ def test_quantile_delta_without_change_is_quantile_mapping_including_dry_days():
     # days (below the 0.05 mm trace) come out as exact zeros at about the observed frequency.
     obs = _series(1981, 2000, lon=(0.0,), dry=0.5, seed=4)
     hist = _series(1981, 2000, members=MEMBERS, lon=(0.0,), dry=0.3, scale=3.0, seed=5)
-    fut = hist.assign_coords(time=xr.date_range("2041-01-01", periods=hist.sizes["time"], freq="D",
-                                                calendar="noleap", use_cftime=True))
+    fut = hist.assign_coords(
+        time=xr.date_range("2041-01-01", periods=hist.sizes["time"], freq="D", calendar="noleap", use_cftime=True)
+    )
     adj = delta_change(obs, hist, fut, method="quantile_delta").compute()
     assert not bool(((adj > 0) & (adj < 0.05)).any()) and not bool(adj.isnull().any())
     dry_obs = float((obs < 0.05).mean())
@@ -217,8 +244,13 @@ def test_quantile_delta_season_groups_and_chunking():
     hist = _series(1981, 1990, members=MEMBERS, dry=0.3, seed=10)
     fut = _series(2041, 2050, members=MEMBERS, dry=0.5, seed=11)
     eager = delta_change(obs, hist, fut, method="quantile_delta", group="season")
-    lazy = delta_change(obs.chunk({"lat": 1}), hist.chunk({"member": 1, "time": 500}), fut.chunk({"lon": 2}),
-                        method="quantile_delta", group="season")
+    lazy = delta_change(
+        obs.chunk({"lat": 1}),
+        hist.chunk({"member": 1, "time": 500}),
+        fut.chunk({"lon": 2}),
+        method="quantile_delta",
+        group="season",
+    )
     assert lazy.chunks is not None
     # the pseudo-random dry-day amounts depend on position and seed, not on the chunking
     np.testing.assert_array_equal(lazy.compute().values, eager.values)
@@ -266,8 +298,9 @@ def test_basin_series():
     np.testing.assert_allclose(factors.sel(month=1).values, expected.values, rtol=1e-12)
     assert delta_change(obs, hist, fut, method="quantile_delta").dims == ("member", "time")
     with pytest.raises(GridError, match="no lat/lon"):
-        delta_change(obs, _series(1981, 1990, members=MEMBERS, step="month"),
-                     _series(2041, 2050, members=MEMBERS, step="month"))
+        delta_change(
+            obs, _series(1981, 1990, members=MEMBERS, step="month"), _series(2041, 2050, members=MEMBERS, step="month")
+        )
 
 
 def test_quantile_delta_missing_values_stay_missing():

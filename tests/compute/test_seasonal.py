@@ -17,24 +17,32 @@ from climwidgets.compute.seasonal import seasonal_fraction, seasonal_totals
 def daily(start, end, calendar="standard", value=1.0):
     t = xr.date_range(start, end, freq="D", calendar=calendar, use_cftime=calendar != "standard")
     data = np.full((t.size, 1, 2), value, dtype=float)
-    return xr.DataArray(data, dims=("time", "lat", "lon"),
-                        coords={"time": t, "lat": [10.0], "lon": [0.0, 1.0]},
-                        attrs={"units": "mm", "step": "day"}, name="pr")
+    return xr.DataArray(
+        data,
+        dims=("time", "lat", "lon"),
+        coords={"time": t, "lat": [10.0], "lon": [0.0, 1.0]},
+        attrs={"units": "mm", "step": "day"},
+        name="pr",
+    )
 
 
 def monthly(values, start="2001-01-01"):
     t = pd.date_range(start, periods=len(values), freq="MS")
-    return xr.DataArray(np.asarray(values, float), dims="time", coords={"time": t},
-                        attrs={"units": "mm", "step": "month"})
+    return xr.DataArray(
+        np.asarray(values, float), dims="time", coords={"time": t}, attrs={"units": "mm", "step": "month"}
+    )
 
 
-@pytest.mark.parametrize("calendar, year, expected", [
-    ("standard", 2001, 62 / 365),  # Jul 31 + Aug 31
-    ("standard", 2000, 62 / 366),  # leap year
-    ("noleap", 2000, 62 / 365),
-    ("360_day", 2000, 60 / 360),
-    ("all_leap", 2001, 62 / 366),
-])
+@pytest.mark.parametrize(
+    "calendar, year, expected",
+    [
+        ("standard", 2001, 62 / 365),  # Jul 31 + Aug 31
+        ("standard", 2000, 62 / 366),  # leap year
+        ("noleap", 2000, 62 / 365),
+        ("360_day", 2000, 60 / 360),
+        ("all_leap", 2001, 62 / 366),
+    ],
+)
 def test_constant_rain_share_is_day_fraction(calendar, year, expected):
     end = f"{year}-12-30" if calendar == "360_day" else f"{year}-12-31"
     share = seasonal_fraction(daily(f"{year}-01-01", end, calendar), (7, 8))
@@ -93,10 +101,13 @@ def test_daily_and_monthly_input_agree():
     pr = daily("2001-01-01", "2004-12-31")
     pr = pr.copy(data=rng.gamma(0.6, 5.0, pr.shape))
     mon = pr.resample(time="MS").sum().assign_attrs(units="mm", step="month")
-    for kw in ({"months": (7, 8)}, {"months": (11, 12, 1, 2, 3)},
-               {"months": (6, 7, 8), "how": "mean_of_ratios"}, {"months": (3, 4), "year_start": 10}):
-        xr.testing.assert_allclose(seasonal_fraction(pr, **kw).drop_attrs(),
-                                   seasonal_fraction(mon, **kw).drop_attrs())
+    for kw in (
+        {"months": (7, 8)},
+        {"months": (11, 12, 1, 2, 3)},
+        {"months": (6, 7, 8), "how": "mean_of_ratios"},
+        {"months": (3, 4), "year_start": 10},
+    ):
+        xr.testing.assert_allclose(seasonal_fraction(pr, **kw).drop_attrs(), seasonal_fraction(mon, **kw).drop_attrs())
 
 
 @pytest.mark.filterwarnings("error")
@@ -118,9 +129,12 @@ def test_dask_and_curvilinear():
     rng = np.random.default_rng(2)
     t = pd.date_range("2001-01-01", "2003-12-31", freq="D")
     lat2d = np.array([[1.0, 1.1], [1.5, 1.6]])
-    pr = xr.DataArray(rng.gamma(0.5, 4.0, (t.size, 2, 2)), dims=("time", "y", "x"),
-                      coords={"time": t, "lat": (("y", "x"), lat2d), "lon": (("y", "x"), -lat2d)},
-                      attrs={"units": "mm", "step": "day"})
+    pr = xr.DataArray(
+        rng.gamma(0.5, 4.0, (t.size, 2, 2)),
+        dims=("time", "y", "x"),
+        coords={"time": t, "lat": (("y", "x"), lat2d), "lon": (("y", "x"), -lat2d)},
+        attrs={"units": "mm", "step": "day"},
+    )
     for kw in ({}, {"how": "mean_of_ratios"}, {"per_year": True}):
         lazy = seasonal_fraction(pr.chunk({"time": 300, "x": 1}), (11, 12, 1), **kw)
         assert lazy.chunks is not None
@@ -130,13 +144,16 @@ def test_dask_and_curvilinear():
     assert seasonal_totals(pr.chunk({"time": 300}), (7, 8)).chunks is not None
 
 
-@pytest.mark.parametrize("months, message", [
-    (("Jul", "Aug"), "contains 'Jul', not a month number"),
-    ((7, 13), "contains 13, outside 1..12"),
-    ((7, 7), "repeats a month"),
-    ((1, 7), "not a run of consecutive months"),
-    ((), "empty"),
-])
+@pytest.mark.parametrize(
+    "months, message",
+    [
+        (("Jul", "Aug"), "contains 'Jul', not a month number"),
+        ((7, 13), "contains 13, outside 1..12"),
+        ((7, 7), "repeats a month"),
+        ((1, 7), "not a run of consecutive months"),
+        ((), "empty"),
+    ],
+)
 def test_bad_months(months, message):
     pr = daily("2001-01-01", "2001-12-31")
     with pytest.raises(ParameterError, match=message) as err:

@@ -46,8 +46,7 @@ def test_seasonal_share_signal_per_member_and_spread():
     v = ds["change"].transpose("member", ...).values
     np.testing.assert_allclose(ds["change_mean"].values, v.mean(0), rtol=1e-12)
     np.testing.assert_allclose(ds["change_std"].values, v.std(0, ddof=1), rtol=1e-12)
-    np.testing.assert_allclose(ds["change_iqr"].values,
-                               np.quantile(v, 0.75, 0) - np.quantile(v, 0.25, 0), rtol=1e-12)
+    np.testing.assert_allclose(ds["change_iqr"].values, np.quantile(v, 0.75, 0) - np.quantile(v, 0.25, 0), rtol=1e-12)
     agree = (np.sign(v) == np.sign(np.median(v, 0))).mean(0)
     np.testing.assert_allclose(ds["change_agreement"].values, agree, rtol=1e-12)
     assert ds["change"].attrs["units"] == "1" and ds.attrs["cautions"] == SCENARIO_CAUTIONS
@@ -58,12 +57,18 @@ def test_annual_normal_signal_known_ratio_and_agreement():
     factor = xr.DataArray([1.1, 0.9, 1.2], dims="member", coords={"member": MEMBERS})
     fut = (hist * factor).assign_coords(time=_run(2041, 2070)["time"]).assign_attrs(hist.attrs)
     ds = annual_normal_signal(hist, fut)
-    np.testing.assert_allclose(ds["change"].transpose("member", ...).values,
-                               np.broadcast_to(factor.values[:, None, None], (3, 2, 3)), rtol=1e-12)
+    np.testing.assert_allclose(
+        ds["change"].transpose("member", ...).values,
+        np.broadcast_to(factor.values[:, None, None], (3, 2, 3)),
+        rtol=1e-12,
+    )
     assert float(ds["change_agreement"].mean()) == pytest.approx(2 / 3)
     assert float(ds["change_median"].mean()) == pytest.approx(1.1)
-    np.testing.assert_allclose(ds["historical"].sel(member="m2").values,
-                               annual_normal(_member(hist, "m2"), baseline=(1981, 2010)).values, rtol=1e-12)
+    np.testing.assert_allclose(
+        ds["historical"].sel(member="m2").values,
+        annual_normal(_member(hist, "m2"), baseline=(1981, 2010)).values,
+        rtol=1e-12,
+    )
     xr.testing.assert_allclose(ds["change_range"], ensemble_summary(ds["change"], change="ratio")["range"])
 
 
@@ -103,8 +108,11 @@ def test_signals_are_lazy_without_computing():
     hist = _run(1981, 1990, step="day", members=["m1", "m2"]).chunk({"time": 365})
     fut = _run(2041, 2050, step="day", seed=3, members=["m1", "m2"]).chunk({"time": 365})
     with dask.config.set(scheduler=_no_compute):
-        out = [seasonal_share_signal(hist, fut), annual_normal_signal(hist, fut),
-               design_depth_signal(hist, fut, periods=(10,), n_boot=50)]
+        out = [
+            seasonal_share_signal(hist, fut),
+            annual_normal_signal(hist, fut),
+            design_depth_signal(hist, fut, periods=(10,), n_boot=50),
+        ]
     assert all(ds["change_agreement"].chunks is not None for ds in out)
 
 
@@ -114,6 +122,9 @@ def test_signals_of_basin_series():
     fut = _run(2041, 2050, seed=4).mean(("lat", "lon")).assign_attrs(units="mm", step="month")
     ds = annual_normal_signal(hist, fut)
     assert ds["change"].dims == ("member",) and ds["change_median"].dims == ()
-    expected = [annual_normal(fut.sel(member=m), baseline=(2041, 2050)).item()
-                / annual_normal(hist.sel(member=m), baseline=(1981, 1990)).item() for m in MEMBERS]
+    expected = [
+        annual_normal(fut.sel(member=m), baseline=(2041, 2050)).item()
+        / annual_normal(hist.sel(member=m), baseline=(1981, 1990)).item()
+        for m in MEMBERS
+    ]
     np.testing.assert_allclose(ds["change"].values, expected, rtol=1e-12)

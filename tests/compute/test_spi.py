@@ -18,9 +18,40 @@ from climwidgets import ParameterError
 from climwidgets.compute.spi import spi, spi_category, thom_gamma_fit
 
 # Worked sample: 30 monthly totals (mm), one per year.
-S = np.array([45.2, 12.8, 78.4, 33.1, 5.6, 101.3, 60.0, 27.9, 88.7, 41.5,
-              19.4, 134.6, 52.3, 70.1, 8.9, 36.7, 95.2, 23.0, 64.8, 47.6,
-              15.3, 112.9, 30.4, 57.7, 82.5, 39.8, 21.6, 68.3, 50.9, 74.2])
+S = np.array(
+    [
+        45.2,
+        12.8,
+        78.4,
+        33.1,
+        5.6,
+        101.3,
+        60.0,
+        27.9,
+        88.7,
+        41.5,
+        19.4,
+        134.6,
+        52.3,
+        70.1,
+        8.9,
+        36.7,
+        95.2,
+        23.0,
+        64.8,
+        47.6,
+        15.3,
+        112.9,
+        30.4,
+        57.7,
+        82.5,
+        39.8,
+        21.6,
+        68.3,
+        50.9,
+        74.2,
+    ]
+)
 SZ = S.copy()
 SZ[[1, 4, 14]] = 0.0  # the 2nd, 5th and 15th values set to zero
 
@@ -28,19 +59,23 @@ SZ[[1, 4, 14]] = 0.0  # the 2nd, 5th and 15th values set to zero
 def repeated(sample):
     """Each sample value in all 12 months of its year: 360 months, 1991-2020."""
     t = pd.date_range("1991-01-01", periods=360, freq="MS")
-    return xr.DataArray(np.repeat(sample, 12), dims="time", coords={"time": t},
-                        attrs={"units": "mm", "step": "month"}, name="pr")
+    return xr.DataArray(
+        np.repeat(sample, 12), dims="time", coords={"time": t}, attrs={"units": "mm", "step": "month"}, name="pr"
+    )
 
 
 def at_january(da):
     return da.values[::12]
 
 
-@pytest.mark.parametrize("sample, alpha, beta, q", [
-    # Thom estimates computed with numpy from Edwards & McKee (1997) eqs. 3.6-3.8
-    (S, 2.3073958419, 23.1241929530, 0.0),
-    (SZ, 3.6405982931, 16.0067300432, 0.1),
-])
+@pytest.mark.parametrize(
+    "sample, alpha, beta, q",
+    [
+        # Thom estimates computed with numpy from Edwards & McKee (1997) eqs. 3.6-3.8
+        (S, 2.3073958419, 23.1241929530, 0.0),
+        (SZ, 3.6405982931, 16.0067300432, 0.1),
+    ],
+)
 def test_thom_parameters_of_the_worked_sample(sample, alpha, beta, q):
     a, b, qq, n = thom_gamma_fit(xr.DataArray(sample, dims="t"), "t")
     np.testing.assert_allclose([float(a), float(b)], [alpha, beta], rtol=1e-9)
@@ -53,8 +88,8 @@ def xclim_spi(da):
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")
         return xclim.indices.standardized_precipitation_index(
-            da.assign_attrs(units="mm/month"), freq=None, window=1, dist="gamma", method="APP",
-            fitkwargs={"floc": 0})
+            da.assign_attrs(units="mm/month"), freq=None, window=1, dist="gamma", method="APP", fitkwargs={"floc": 0}
+        )
 
 
 @pytest.mark.parametrize("sample", [S, SZ], ids=["no zeros", "with zeros"])
@@ -97,15 +132,16 @@ def test_scale_3_running_sums_and_xclim_window():
     assert np.isnan(ours[:2]).all() and ours.attrs["scale_months"] == 3
     # same as scale 1 on hand-made 3-month sums (pandas rolling) ending in each month
     sums = da.copy(data=pd.Series(vals).rolling(3).sum().values)
-    np.testing.assert_allclose(ours.values, spi(sums, scale=1, baseline=(1991, 2020)).values,
-                               atol=1e-12, equal_nan=True)
+    np.testing.assert_allclose(
+        ours.values, spi(sums, scale=1, baseline=(1991, 2020)).values, atol=1e-12, equal_nan=True
+    )
     import xclim
 
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")
         ref = xclim.indices.standardized_precipitation_index(
-            da.assign_attrs(units="mm/month"), freq=None, window=3, dist="gamma", method="APP",
-            fitkwargs={"floc": 0})
+            da.assign_attrs(units="mm/month"), freq=None, window=3, dist="gamma", method="APP", fitkwargs={"floc": 0}
+        )
     np.testing.assert_allclose(ours.values[2:], ref.values[2:], atol=1e-9)
 
 
@@ -114,9 +150,12 @@ def test_daily_input_dask_and_curvilinear():
     t = pd.date_range("2001-01-01", "2005-12-31", freq="D")
     lat2d = np.array([[1.0, 1.2]])
     vals = rng.gamma(0.4, 6.0, (t.size, 1, 2)) * (rng.random((t.size, 1, 2)) < 0.5)
-    pr = xr.DataArray(vals, dims=("time", "y", "x"),
-                      coords={"time": t, "lat": (("y", "x"), lat2d), "lon": (("y", "x"), lat2d)},
-                      attrs={"units": "mm", "step": "day"})
+    pr = xr.DataArray(
+        vals,
+        dims=("time", "y", "x"),
+        coords={"time": t, "lat": (("y", "x"), lat2d), "lon": (("y", "x"), lat2d)},
+        attrs={"units": "mm", "step": "day"},
+    )
     eager = spi(pr, scale=6, baseline=(2001, 2005))
     mon = pr.resample(time="MS").sum().assign_attrs(units="mm", step="month")
     xr.testing.assert_allclose(eager.drop_attrs(), spi(mon, scale=6, baseline=(2001, 2005)).drop_attrs())
@@ -137,12 +176,24 @@ def test_clip_outside_baseline():
 
 def test_category_boundaries():
     # WMO (2012) SPI User Guide, Table 1 (boundaries as tabulated)
-    z = xr.DataArray([-2.5, -2.0, -1.99, -1.5, -1.49, -1.0, -0.99, 0.0, 0.99, 1.0, 1.49, 1.5,
-                      1.99, 2.0, np.nan])
+    z = xr.DataArray([-2.5, -2.0, -1.99, -1.5, -1.49, -1.0, -0.99, 0.0, 0.99, 1.0, 1.49, 1.5, 1.99, 2.0, np.nan])
     assert spi_category(z).values.tolist() == [
-        "extremely dry", "extremely dry", "severely dry", "severely dry", "moderately dry",
-        "moderately dry", "near normal", "near normal", "near normal", "moderately wet",
-        "moderately wet", "very wet", "very wet", "extremely wet", "missing"]
+        "extremely dry",
+        "extremely dry",
+        "severely dry",
+        "severely dry",
+        "moderately dry",
+        "moderately dry",
+        "near normal",
+        "near normal",
+        "near normal",
+        "moderately wet",
+        "moderately wet",
+        "very wet",
+        "very wet",
+        "extremely wet",
+        "missing",
+    ]
 
 
 def test_bad_parameters():

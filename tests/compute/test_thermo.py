@@ -24,8 +24,7 @@ def test_against_crc_handbook_table():
 def test_alduchov_eskridge_formula_values():
     # Alduchov & Eskridge (1996), J. Appl. Meteor. 35, eq. 21: 6.1094 exp(17.625 T / (T + 243.04)) hPa,
     # evaluated by hand to 4-5 significant digits
-    np.testing.assert_allclose(saturation_vapor_pressure(T_C) / 100.0, [6.1094, 12.2602, 23.3344, 42.3665],
-                               rtol=1e-4)
+    np.testing.assert_allclose(saturation_vapor_pressure(T_C) / 100.0, [6.1094, 12.2602, 23.3344, 42.3665], rtol=1e-4)
     assert saturation_vapor_pressure(0.0) == pytest.approx(610.94, rel=1e-12)  # e_s(0) = a exactly
 
 

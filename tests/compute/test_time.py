@@ -18,14 +18,28 @@ from climwidgets.errors import TimeAxisError, UnitsError
 def _daily(units="mm", step="day", value=1.0, names=("time", "lat", "lon")):
     t = pd.date_range("2001-01-01", "2002-12-31", freq="D")
     attrs = {k: v for k, v in (("units", units), ("step", step)) if v is not None}
-    return xr.DataArray(np.full((t.size, 2, 2), value), dims=names,
-                        coords={names[0]: t, names[1]: [1.0, 2.0], names[2]: [3.0, 4.0]}, attrs=attrs, name="pr")
+    return xr.DataArray(
+        np.full((t.size, 2, 2), value),
+        dims=names,
+        coords={names[0]: t, names[1]: [1.0, 2.0], names[2]: [3.0, 4.0]},
+        attrs=attrs,
+        name="pr",
+    )
 
 
-@pytest.mark.parametrize("units,value,per_day_mm", [
-    ("mm", 2.0, 2.0), ("cm", 0.2, 2.0), ("in", 1.0, 25.4), ("kg m-2", 2.0, 2.0),
-    ("mm/day", 2.0, 2.0), ("mm/h", 0.5, 12.0), ("kg m-2 s-1", 1e-5, 0.864), ("m", 0.002, 2.0),
-])
+@pytest.mark.parametrize(
+    "units,value,per_day_mm",
+    [
+        ("mm", 2.0, 2.0),
+        ("cm", 0.2, 2.0),
+        ("in", 1.0, 25.4),
+        ("kg m-2", 2.0, 2.0),
+        ("mm/day", 2.0, 2.0),
+        ("mm/h", 0.5, 12.0),
+        ("kg m-2 s-1", 1e-5, 0.864),
+        ("m", 0.002, 2.0),
+    ],
+)
 def test_any_accepted_units_give_hand_computed_totals(units, value, per_day_mm):
     annual = cw.annual_totals(_daily(units, value=value))
     np.testing.assert_allclose(annual.values, per_day_mm * 365, rtol=1e-12)  # 2001 and 2002: 365 days
@@ -63,8 +77,12 @@ def test_other_bad_inputs_are_explained():
         cw.annual_totals(_daily("mm/month"))
     with pytest.raises(UnitsError, match="not a precipitation depth or rate"):
         cw.annual_totals(_daily("m2"))
-    half_hourly = _daily().isel(time=slice(0, 48)).assign_coords(
-        time=pd.date_range("2001-01-01", periods=48, freq="30min")).assign_attrs(step=None)
+    half_hourly = (
+        _daily()
+        .isel(time=slice(0, 48))
+        .assign_coords(time=pd.date_range("2001-01-01", periods=48, freq="30min"))
+        .assign_attrs(step=None)
+    )
     half_hourly.attrs.pop("step")
     with pytest.raises(TimeAxisError, match="30min steps.*open_precip\\(pr\\).*hourly totals"):
         cw.monthly_totals(half_hourly)

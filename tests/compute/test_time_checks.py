@@ -21,38 +21,56 @@ from climwidgets.errors import InsufficientDataError, ParameterError, TimeAxisEr
 
 def _daily(start="2001-01-01", end="2002-12-31", calendar="standard", value=1.0):
     time = xr.date_range(start, end, freq="D", calendar=calendar, use_cftime=calendar != "standard")
-    return xr.DataArray(np.full(time.size, value), dims="time", coords={"time": time}, name="pr",
-                        attrs={"units": "mm", "step": "day"})
+    return xr.DataArray(
+        np.full(time.size, value), dims="time", coords={"time": time}, name="pr", attrs={"units": "mm", "step": "day"}
+    )
 
 
 def test_check_precip_returns_the_step():
     assert _time.check_precip(_daily(), "f") == "day"
 
 
-@pytest.mark.parametrize("change, error, words", [
-    (lambda pr: pr.values, ParameterError, "needs an xarray.DataArray"),
-    (lambda pr: pr.rename(time="t"), TimeAxisError, "no 'time' dimension"),
-    (lambda pr: pr.assign_attrs(units="kg m-2 s-1"), UnitsError, "units are"),
-    (lambda pr: pr.assign_attrs(step="week"), TimeAxisError, "attrs\\['step'\\]"),
-    (lambda pr: pr.isel(time=[2, 1, 0]), TimeAxisError, "unsorted or duplicated"),
-    (lambda pr: pr.isel(time=[0, 0, 1]), TimeAxisError, "unsorted or duplicated"),
-])
+@pytest.mark.parametrize(
+    "change, error, words",
+    [
+        (lambda pr: pr.values, ParameterError, "needs an xarray.DataArray"),
+        (lambda pr: pr.rename(time="t"), TimeAxisError, "no 'time' dimension"),
+        (lambda pr: pr.assign_attrs(units="kg m-2 s-1"), UnitsError, "units are"),
+        (lambda pr: pr.assign_attrs(step="week"), TimeAxisError, "attrs\\['step'\\]"),
+        (lambda pr: pr.isel(time=[2, 1, 0]), TimeAxisError, "unsorted or duplicated"),
+        (lambda pr: pr.isel(time=[0, 0, 1]), TimeAxisError, "unsorted or duplicated"),
+    ],
+)
 def test_check_precip_refuses_what_breaks_the_convention(change, error, words):
     with pytest.raises(error, match=words):
         _time.check_precip(change(_daily()), "monthly_totals")
 
 
-@pytest.mark.parametrize("months, expected", [
-    ((7, 8), (7, 8)), (7, (7,)), ((11, 12, 1, 2, 3), (11, 12, 1, 2, 3)), (np.array([12, 1]), (12, 1)),
-])
+@pytest.mark.parametrize(
+    "months, expected",
+    [
+        ((7, 8), (7, 8)),
+        (7, (7,)),
+        ((11, 12, 1, 2, 3), (11, 12, 1, 2, 3)),
+        (np.array([12, 1]), (12, 1)),
+    ],
+)
 def test_check_months_accepts_runs_that_may_wrap(months, expected):
     assert _time.check_months(months, "f") == expected
 
 
-@pytest.mark.parametrize("months, words", [
-    ((), "empty"), ((0, 1), "outside 1..12"), ((7, 7), "repeats"), ((7, 9), "consecutive"),
-    (("Jul",), "not a month number"), ((True,), "not a month number"), (None, "not a sequence"),
-])
+@pytest.mark.parametrize(
+    "months, words",
+    [
+        ((), "empty"),
+        ((0, 1), "outside 1..12"),
+        ((7, 7), "repeats"),
+        ((7, 9), "consecutive"),
+        (("Jul",), "not a month number"),
+        ((True,), "not a month number"),
+        (None, "not a sequence"),
+    ],
+)
 def test_check_months_refuses(months, words):
     with pytest.raises(ParameterError, match=words):
         _time.check_months(months, "f")
@@ -69,22 +87,25 @@ def test_check_year_start_and_year_range():
             _time.check_year_range(bad, "f", "baseline")
 
 
-@pytest.mark.parametrize("months, year_start, expected", [
-    ((7, 8), 1, 1),            # fits in the calendar year
-    ((12, 1, 2), 1, 12),       # crosses Dec-Jan: the Dec-Nov year
-    ((11, 12, 1, 2, 3), 1, 11),  # Nov-Oct year
-    ((12, 1, 2), 10, 10),      # fits in the Oct-Sep water year
-    ((9, 10), 10, 9),          # crosses the water-year start
-])
+@pytest.mark.parametrize(
+    "months, year_start, expected",
+    [
+        ((7, 8), 1, 1),  # fits in the calendar year
+        ((12, 1, 2), 1, 12),  # crosses Dec-Jan: the Dec-Nov year
+        ((11, 12, 1, 2, 3), 1, 11),  # Nov-Oct year
+        ((12, 1, 2), 10, 10),  # fits in the Oct-Sep water year
+        ((9, 10), 10, 9),  # crosses the water-year start
+    ],
+)
 def test_season_year_start(months, year_start, expected):
     assert _time.season_year_start(months, year_start) == expected
 
 
-@pytest.mark.parametrize("calendar, feb_days", [("standard", 28), ("noleap", 28), ("all_leap", 29),
-                                                ("360_day", 30)])
+@pytest.mark.parametrize("calendar, feb_days", [("standard", 28), ("noleap", 28), ("all_leap", 29), ("360_day", 30)])
 def test_monthly_sums_count_every_day_of_the_calendar(calendar, feb_days):
-    monthly, covered = _time.monthly_with_coverage(_daily("2001-01-01", "2001-12-30" if calendar == "360_day"
-                                                          else "2001-12-31", calendar), "day")
+    monthly, covered = _time.monthly_with_coverage(
+        _daily("2001-01-01", "2001-12-30" if calendar == "360_day" else "2001-12-31", calendar), "day"
+    )
     assert covered.all()
     assert monthly.isel(time=1).item() == feb_days  # 1 mm a day
 

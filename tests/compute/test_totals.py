@@ -21,9 +21,13 @@ DAYS = {
 def daily(start, end, calendar="standard", value=1.0, ncell=2):
     t = xr.date_range(start, end, freq="D", calendar=calendar, use_cftime=calendar != "standard")
     data = np.full((t.size, 1, ncell), value, dtype=float)
-    return xr.DataArray(data, dims=("time", "lat", "lon"),
-                        coords={"time": t, "lat": [10.0], "lon": np.arange(ncell, dtype=float)},
-                        attrs={"units": "mm", "step": "day"}, name="pr")
+    return xr.DataArray(
+        data,
+        dims=("time", "lat", "lon"),
+        coords={"time": t, "lat": [10.0], "lon": np.arange(ncell, dtype=float)},
+        attrs={"units": "mm", "step": "day"},
+        name="pr",
+    )
 
 
 @pytest.mark.parametrize("calendar", list(DAYS))
@@ -55,8 +59,7 @@ def test_edge_months_not_covered_are_missing():
 
 def test_hourly_input_sums_to_months():
     t = pd.date_range("2001-02-01", "2001-03-31 23:00", freq="h")
-    pr = xr.DataArray(np.full(t.size, 0.5), dims="time", coords={"time": t},
-                      attrs={"units": "mm", "step": "hour"})
+    pr = xr.DataArray(np.full(t.size, 0.5), dims="time", coords={"time": t}, attrs={"units": "mm", "step": "hour"})
     np.testing.assert_allclose(monthly_totals(pr).values, [0.5 * 24 * 28, 0.5 * 24 * 31])
     pr[5] = np.nan
     assert np.isnan(monthly_totals(pr)[0])
@@ -65,8 +68,7 @@ def test_hourly_input_sums_to_months():
 def test_monthly_input_passes_through_relabelled():
     t = xr.date_range("2001-01-16", periods=3, freq="MS", calendar="noleap", use_cftime=True)
     t = [d.replace(day=16) for d in t]
-    pr = xr.DataArray([5.0, np.nan, 7.0], dims="time", coords={"time": t},
-                      attrs={"units": "mm", "step": "month"})
+    pr = xr.DataArray([5.0, np.nan, 7.0], dims="time", coords={"time": t}, attrs={"units": "mm", "step": "month"})
     m = monthly_totals(pr)
     np.testing.assert_array_equal(m.values, [5.0, np.nan, 7.0])
     assert [d.day for d in m.time.values] == [1, 1, 1]
@@ -105,9 +107,12 @@ def test_dask_gives_dask_and_same_numbers():
 def test_curvilinear_grid():
     t = pd.date_range("2001-01-01", "2001-12-31", freq="D")
     lat2d = np.array([[10.0, 10.1], [10.5, 10.6]])
-    pr = xr.DataArray(np.ones((t.size, 2, 2)), dims=("time", "y", "x"),
-                      coords={"time": t, "lat": (("y", "x"), lat2d), "lon": (("y", "x"), lat2d + 100)},
-                      attrs={"units": "mm", "step": "day"})
+    pr = xr.DataArray(
+        np.ones((t.size, 2, 2)),
+        dims=("time", "y", "x"),
+        coords={"time": t, "lat": (("y", "x"), lat2d), "lon": (("y", "x"), lat2d + 100)},
+        attrs={"units": "mm", "step": "day"},
+    )
     a = annual_totals(pr)
     assert a.dims == ("year", "y", "x") and a.lat.dims == ("y", "x")
     assert float(a.sum()) == 4 * 365

@@ -28,8 +28,7 @@ def test_worked_example():
     np.testing.assert_allclose(float(ds.slope), 0.45, rtol=1e-12)  # median of 45 pairwise slopes
     np.testing.assert_allclose(float(ds.tau), 31 / 45, rtol=1e-9)
     ref = stats.theilslopes(Y, T)
-    np.testing.assert_allclose([float(ds.slope), float(ds.intercept)], [ref.slope, ref.intercept],
-                               rtol=1e-12)
+    np.testing.assert_allclose([float(ds.slope), float(ds.intercept)], [ref.slope, ref.intercept], rtol=1e-12)
     assert int(ds.n) == 10 and ds.slope.attrs["units"] == "mm per year"
     assert set(ds.data_vars) >= {"slope", "pvalue", "intercept", "n"}
 
@@ -58,15 +57,15 @@ def test_nans_skipped_per_cell_dask_and_curvilinear():
     data[1, 2, :] = np.nan  # a cell with no data
     data[1, 1, :-1] = np.nan  # a cell with one value
     lat2d = np.array([[1.0, 1.1, 1.2], [2.0, 2.1, 2.2]])
-    da = xr.DataArray(data, dims=("y", "x", "year"),
-                      coords={"year": t, "lat": (("y", "x"), lat2d), "lon": (("y", "x"), lat2d)})
+    da = xr.DataArray(
+        data, dims=("y", "x", "year"), coords={"year": t, "lat": (("y", "x"), lat2d), "lon": (("y", "x"), lat2d)}
+    )
     ds = trend(da)
     keep = ~np.isnan(data[0, 0])
     ref = stats.theilslopes(data[0, 0][keep], t[keep])
     np.testing.assert_allclose(float(ds.slope[0, 0]), ref.slope, rtol=1e-12)
     np.testing.assert_allclose(float(ds.intercept[0, 0]), ref.intercept, rtol=1e-12)
-    np.testing.assert_allclose(float(ds.tau[0, 0]), stats.kendalltau(t[keep], data[0, 0][keep]).statistic,
-                               rtol=1e-12)
+    np.testing.assert_allclose(float(ds.tau[0, 0]), stats.kendalltau(t[keep], data[0, 0][keep]).statistic, rtol=1e-12)
     assert int(ds.n[0, 0]) == t.size - 4 and ds.lat.dims == ("y", "x")
     assert np.isnan(ds.slope[1, 2]) and np.isnan(ds.pvalue[1, 2]) and int(ds.n[1, 2]) == 0
     assert np.isnan(ds.slope[1, 1]) and np.isnan(ds.pvalue[1, 1])

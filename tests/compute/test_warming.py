@@ -13,8 +13,12 @@ from climwidgets.errors import ParameterError
 
 
 def depths():
-    return xr.DataArray([[100.0, 50.0], [80.0, 0.0]], dims=("lat", "lon"), name="estimate",
-                        attrs={"units": "mm", "history": "made by hand"})
+    return xr.DataArray(
+        [[100.0, 50.0], [80.0, 0.0]],
+        dims=("lat", "lon"),
+        name="estimate",
+        attrs={"units": "mm", "history": "made by hand"},
+    )
 
 
 def test_compound_and_exponential_factors():

@@ -25,7 +25,14 @@ import numpy as np
 import xarray as xr
 
 from climwidgets.errors import (
-    CalendarError, DataValueError, GridError, MismatchError, SourceError, TimeAxisError, UnitsError, VariableError,
+    CalendarError,
+    DataValueError,
+    GridError,
+    MismatchError,
+    SourceError,
+    TimeAxisError,
+    UnitsError,
+    VariableError,
 )
 
 LAT = np.array([-31.0, -30.5, -30.0])
@@ -40,8 +47,21 @@ def field_values(nt, ny=LAT.size, nx=LON.size):
     return (t + 0.1 * y + 0.01 * x).astype(float)
 
 
-def _dataset(data, *, name="pr", units="mm", standard_name="precipitation_amount", time=None, time_units=TIME_UNITS,
-             calendar="standard", lat=LAT, lon=LON, dims=("time", "lat", "lon"), coord_names=None, attrs=None):
+def _dataset(
+    data,
+    *,
+    name="pr",
+    units="mm",
+    standard_name="precipitation_amount",
+    time=None,
+    time_units=TIME_UNITS,
+    calendar="standard",
+    lat=LAT,
+    lon=LON,
+    dims=("time", "lat", "lon"),
+    coord_names=None,
+    attrs=None,
+):
     nt = data.shape[0]
     time = np.arange(nt, dtype=float) if time is None else np.asarray(time, dtype=float)
     tn, yn, xn = coord_names or dims
@@ -117,8 +137,16 @@ def b_packed_int16(d):
     data = field_values(6)
     data[2, 1, 1] = np.nan
     ds = _dataset(data)
-    enc = {"pr": {"dtype": "int16", "scale_factor": 0.01, "add_offset": 1.0, "_FillValue": -32767,
-                  "zlib": True, "chunksizes": (2, 3, 4)}}
+    enc = {
+        "pr": {
+            "dtype": "int16",
+            "scale_factor": 0.01,
+            "add_offset": 1.0,
+            "_FillValue": -32767,
+            "zlib": True,
+            "chunksizes": (2, 3, 4),
+        }
+    }
     return _write(ds, d / "packed_int16.nc", encoding=enc)
 
 
@@ -235,8 +263,10 @@ def b_daily_and_monthly(d):
     sub.mkdir()
     _write(_dataset(field_values(40), time=np.arange(40)), sub / "pr_d.nc")
     # monthly stamps of the following year (month starts, days since the reference)
-    _write(_dataset(field_values(12), time=[365 + x for x in (0, 31, 59, 90, 120, 151, 181, 212, 243, 273,
-                                                                304, 334)]), sub / "pr_m.nc")
+    _write(
+        _dataset(field_values(12), time=[365 + x for x in (0, 31, 59, 90, 120, 151, 181, 212, 243, 273, 304, 334)]),
+        sub / "pr_m.nc",
+    )
     return str(sub / "pr_*.nc")
 
 
@@ -310,8 +340,9 @@ def b_nan_time_stamp(d):
 def b_reference_year_one(d):
     # "days since 0001-01-01" in the standard (mixed Julian/Gregorian) calendar: the day
     # numbers of 2001-01-01..05 are cftime's, so decoding must use the same calendar
-    t0 = cftime.date2num(cftime.datetime(2001, 1, 1, calendar="standard"), "days since 0001-01-01 00:00:00",
-                         calendar="standard")
+    t0 = cftime.date2num(
+        cftime.datetime(2001, 1, 1, calendar="standard"), "days since 0001-01-01 00:00:00", calendar="standard"
+    )
     ds = _dataset(field_values(5), time=t0 + np.arange(5), time_units="days since 0001-01-01 00:00:00")
     return _write(ds, d / "reference_year_one.nc")
 
@@ -329,8 +360,9 @@ def b_reference_year_zero_noleap(d):
 
 
 def b_months_since(d):
-    return _write(_dataset(field_values(4), time=np.arange(4), time_units="months since 2001-01-01"),
-                  d / "months_since.nc")
+    return _write(
+        _dataset(field_values(4), time=np.arange(4), time_units="months since 2001-01-01"), d / "months_since.nc"
+    )
 
 
 def b_time_without_units(d):
@@ -372,9 +404,12 @@ def b_curvilinear(d):
     lat2 = -30.0 + 0.5 * (i * np.sin(a) + j * np.cos(a))
     ds = xr.Dataset(
         {"pr": (("time", "y", "x"), field_values(3), {"units": "mm", "coordinates": "lat lon"})},
-        coords={"time": ("time", np.arange(3.0), {"units": TIME_UNITS, "calendar": "standard"}),
-                "lat": (("y", "x"), lat2, {"units": "degrees_north", "standard_name": "latitude"}),
-                "lon": (("y", "x"), lon2, {"units": "degrees_east", "standard_name": "longitude"})})
+        coords={
+            "time": ("time", np.arange(3.0), {"units": TIME_UNITS, "calendar": "standard"}),
+            "lat": (("y", "x"), lat2, {"units": "degrees_north", "standard_name": "latitude"}),
+            "lon": (("y", "x"), lon2, {"units": "degrees_east", "standard_name": "longitude"}),
+        },
+    )
     return _write(ds, d / "curvilinear_no_bounds.nc")
 
 
@@ -467,7 +502,9 @@ def b_dims_latitude_longitude(d):
 
 
 def b_dims_valid_time(d):
-    ds = _dataset(field_values(4), name="tp", units="m", standard_name=None, dims=("valid_time", "latitude", "longitude"))
+    ds = _dataset(
+        field_values(4), name="tp", units="m", standard_name=None, dims=("valid_time", "latitude", "longitude")
+    )
     ds["tp"].values[:] = field_values(4) / 1000.0
     return _write(ds, d / "dims_valid_time.nc")
 
@@ -512,13 +549,28 @@ def b_monthly_end_stamped(d):
 
 def b_projected_only(d):
     ds = xr.Dataset(
-        {"pr": (("time", "y", "x"), field_values(4), {"units": "mm", "grid_mapping": "crs"}),
-         "crs": ((), 0, {"grid_mapping_name": "polar_stereographic", "latitude_of_projection_origin": -90.0,
-                         "straight_vertical_longitude_from_pole": -140.0, "standard_parallel": -60.0,
-                         "false_easting": 0.0, "false_northing": 0.0, "earth_radius": 6371229.0})},
-        coords={"time": ("time", np.arange(4.0), {"units": TIME_UNITS, "standard_name": "time"}),
-                "y": ("y", np.array([6.0e6, 6.05e6, 6.1e6]), {"standard_name": "projection_y_coordinate", "units": "m"}),
-                "x": ("x", np.array([0.0, 5e4, 1e5, 1.5e5]), {"standard_name": "projection_x_coordinate", "units": "m"})})
+        {
+            "pr": (("time", "y", "x"), field_values(4), {"units": "mm", "grid_mapping": "crs"}),
+            "crs": (
+                (),
+                0,
+                {
+                    "grid_mapping_name": "polar_stereographic",
+                    "latitude_of_projection_origin": -90.0,
+                    "straight_vertical_longitude_from_pole": -140.0,
+                    "standard_parallel": -60.0,
+                    "false_easting": 0.0,
+                    "false_northing": 0.0,
+                    "earth_radius": 6371229.0,
+                },
+            ),
+        },
+        coords={
+            "time": ("time", np.arange(4.0), {"units": TIME_UNITS, "standard_name": "time"}),
+            "y": ("y", np.array([6.0e6, 6.05e6, 6.1e6]), {"standard_name": "projection_y_coordinate", "units": "m"}),
+            "x": ("x", np.array([0.0, 5e4, 1e5, 1.5e5]), {"standard_name": "projection_x_coordinate", "units": "m"}),
+        },
+    )
     return _write(ds, d / "projected_only.nc")
 
 
@@ -684,6 +736,7 @@ def _c_masked(where, nt=5):
         expect = field_values(nt)
         expect[where] = np.nan
         _close(pr.values, expect)
+
     return check
 
 
@@ -811,9 +864,17 @@ def c_projected_only(pr):
     from pyproj import CRS, Transformer
 
     assert pr.dims == ("time", "y", "x") and pr.lat.dims == ("y", "x")
-    crs = CRS.from_cf({"grid_mapping_name": "polar_stereographic", "latitude_of_projection_origin": -90.0,
-                       "straight_vertical_longitude_from_pole": -140.0, "standard_parallel": -60.0,
-                       "false_easting": 0.0, "false_northing": 0.0, "earth_radius": 6371229.0})
+    crs = CRS.from_cf(
+        {
+            "grid_mapping_name": "polar_stereographic",
+            "latitude_of_projection_origin": -90.0,
+            "straight_vertical_longitude_from_pole": -140.0,
+            "standard_parallel": -60.0,
+            "false_easting": 0.0,
+            "false_northing": 0.0,
+            "earth_radius": 6371229.0,
+        }
+    )
     lon, lat = Transformer.from_crs(crs, crs.geodetic_crs, always_xy=True).transform(0.0, 6.0e6)
     _close([pr.lon.values[0, 0], pr.lat.values[0, 0]], [lon, lat])
     _close(pr.values, field_values(4))
@@ -841,172 +902,486 @@ def c_huge(pr):
 # ---------------------------------------------------------------- the corpus
 FIX = "Fix:"
 CASES = [
-    Case("no_units", "precipitation variable without a units attribute", b_no_units,
-         Raises(UnitsError, ("no units", "pr"), "UnitsError: has no units; lists the accepted units")),
-    Case("unknown_units", "units 'furlongs/fortnight'", b_unknown_units,
-         Raises(UnitsError, ("furlongs",), "UnitsError naming the unit that is not understood")),
-    Case("units_on_wrong_variable", "'pr' has no units, a second variable 'pr_spread' has 'mm'",
-         b_units_on_wrong_variable,
-         Raises(VariableError, ("pr", "pr_spread", "var="),
-                "VariableError: 'pr' has no units while 'pr_spread' has; asks for var= or units")),
-    Case("packed_int16", "int16 with scale_factor, add_offset, _FillValue; deflate-chunked", b_packed_int16,
-         Opens(c_packed, "opens (direct chunk reader); unpacked values within scale/2; fill -> NaN")),
-    Case("packed_int16_contiguous", "int16 packed, contiguous storage", b_packed_int16_contiguous,
-         Opens(c_packed_contiguous, "opens (xarray backend); unpacked values; fill -> NaN")),
-    Case("fill_1e20_no_attr", "1e20 for missing, no _FillValue attribute", b_fill_1e20_no_attr,
-         Opens(_c_masked((1, 2, 3)), "opens; 1e20 -> NaN, noted in attrs['missing_value_heuristics']")),
-    Case("fill_9999_no_attr", "-9999 for missing, no _FillValue attribute", b_fill_9999_no_attr,
-         Opens(_c_masked((3, 0, 2)), "opens; -9999 -> NaN (not a negative-value error)")),
-    Case("missing_value_only", "-999 declared by missing_value only", b_missing_value_only,
-         Opens(_c_masked((4, 1, 0)), "opens; -999 -> NaN")),
-    Case("negative", "a value of -3.5 mm", b_negative,
-         Raises(DataValueError, ("negative", "-3.5"), "DataValueError with count, lowest value and where")),
-    Case("all_nan", "every value missing", b_all_nan,
-         Raises(DataValueError, ("no valid values",), "DataValueError: all missing")),
-    Case("single_step", "one time step, no time bounds", b_single_step,
-         Raises(TimeAxisError, ("single time step", "bounds"), "TimeAxisError: step length unknown; add time_bnds")),
-    Case("single_step_bounds", "one time step with time bounds of one day", b_single_step_bounds,
-         Opens(c_single_bounds, "opens as daily from the bounds")),
-    Case("duplicated_times", "time stamps 0,1,2,2,3", b_duplicated_times,
-         Raises(TimeAxisError, ("duplicated", "position 3"), "TimeAxisError with the first position")),
-    Case("unsorted_times", "time stamps 0,1,3,2,4", b_unsorted_times,
-         Raises(TimeAxisError, ("backwards",), "TimeAxisError with the first position")),
-    Case("month_gap", "monthly, April missing", b_month_gap,
-         Opens(c_month_gap, "opens; the missing month is a NaN step, counted in attrs")),
-    Case("month_gap_across_files", "glob of two monthly files with April missing between them",
-         b_month_gap_across_files, Opens(c_month_gap_files, "opens; combined, missing month as NaN")),
-    Case("mixed_calendars", "glob: standard and noleap files", b_mixed_calendars,
-         Raises(MismatchError, ("calendar", "noleap"), "MismatchError naming both files' calendars")),
-    Case("mixed_grids", "glob: second file's lon shifted by 0.25 deg", b_mixed_grids,
-         Raises(MismatchError, ("different grid", "regrid"), "MismatchError; suggests cw.regrid")),
-    Case("overlapping_files", "glob: two files sharing one day", b_overlapping_files,
-         Raises(MismatchError, ("same times appear in two files", "pr_1.nc", "pr_2.nc"),
-                "MismatchError naming both files; suggests removing the overlapping one")),
-    Case("duplicate_copy_in_glob", "glob: one file and its byte copy", b_duplicate_copy,
-         Raises(MismatchError, ("same times appear in two files", "pr_a.nc", "pr_a_copy.nc"),
-                "MismatchError naming both copies (not 'times go backwards')")),
-    Case("daily_and_monthly_glob", "glob: a daily file and a monthly file", b_daily_and_monthly,
-         Raises(MismatchError, ("month steps", "day steps", "pr_d.nc", "pr_m.nc"),
-                "MismatchError naming both files and their steps (never monthly read as daily)")),
-    Case("glob_fill_in_later_file", "glob: first file declares _FillValue -9999, second has none and stores 1e20",
-         b_glob_fill_in_later_file,
-         Opens(c_fill_in_later_file, "opens; each file's own fill handling (the 1e20 is missing, not 1e20 mm)")),
-    Case("glob_fills_differ", "glob: _FillValue -9999, 1e20 and -1 in three files (chunked and contiguous)",
-         b_glob_fills_differ, Opens(c_fills_differ, "opens; every file's own _FillValue is honoured")),
-    Case("glob_mixed_units", "glob: a file in mm and one in kg m-2 s-1", b_glob_mixed_units,
-         Raises(MismatchError, ("units", "kg m-2 s-1", "pr_1.nc", "pr_2.nc"), "MismatchError naming both files' units")),
-    Case("glob_end_stamped_and_bare", "glob: a file stamped at each day's end (time bounds) and one without bounds",
-         b_glob_end_stamped_and_bare,
-         Raises(MismatchError, ("at its end", "no time bounds", "pr_1.nc", "pr_2.nc"),
-                "MismatchError naming both files (never a one-step shift of one file)")),
-    Case("monthly_stamps_daily_bounds", "monthly stamps whose time bounds span one day each",
-         b_monthly_stamps_daily_bounds,
-         Raises(TimeAxisError, ("one day long", "one month apart", "time bounds"),
-                "TimeAxisError: bounds disagree with the spacing (never daily data 97 % missing)")),
-    Case("glob_bounds_disagree_in_later_file", "glob: the second file's time bounds span 6 hours of each day",
-         b_glob_bounds_disagree_in_later_file,
-         Raises(TimeAxisError, ("pr_2.nc", "about 6 hours long", "one day apart"),
-                "TimeAxisError naming the file whose bounds disagree with its stamps")),
-    Case("nan_time_stamp", "a NaN among the time stamps", b_nan_time_stamp,
-         Raises(TimeAxisError, ("missing (NaN)",), "TimeAxisError naming the missing stamp")),
-    Case("reference_year_one", "'days since 0001-01-01 00:00:00', standard calendar", b_reference_year_one,
-         Opens(c_daily_2001, "opens; dates decoded to 2001-01-01..")),
-    Case("reference_odd_format", "'hours since 2000-12-31 06:00:00Z'", b_reference_odd_format,
-         Opens(c_reference_odd, "opens; daily, first stamp 2001-01-01T00")),
-    Case("reference_year_zero_noleap", "'days since 0000-01-01', noleap", b_reference_year_zero_noleap,
-         Opens(c_year_zero, "opens as cftime noleap, year 2001")),
-    Case("months_since", "'months since 2001-01-01', standard calendar", b_months_since,
-         Raises(TimeAxisError, ("months since", "no fixed length", "days since"),
-                "TimeAxisError: a month has no fixed length; rewrite as days since")),
-    Case("time_without_units", "time coordinate with plain numbers, no units", b_time_without_units,
-         Raises(TimeAxisError, ("time", "units"), "TimeAxisError: time has no units; set them")),
-    Case("unsupported_calendar", "calendar 'lunar_pentad'", b_unsupported_calendar,
-         Raises(CalendarError, ("lunar_pentad",), "CalendarError listing the supported calendars")),
-    Case("three_hourly", "3-hourly steps", b_three_hourly,
-         Opens(c_three_hourly, "opens; step '3hour', values as stored")),
-    Case("five_daily", "5-day steps (pentads)", b_five_daily,
-         Raises(TimeAxisError, ("about 120 hours", "divide a day", "resample"),
-                "TimeAxisError; lists the accepted steps, suggests resampling")),
-    Case("half_hourly", "30-minute rates in mm/h", b_half_hourly,
-         Opens(c_half_hourly, "opens; summed to hourly totals, native step in attrs")),
-    Case("monthly_end_stamped", "monthly 1 mm/day stamped at each month's end (time = upper time_bnds)",
-         b_monthly_end_stamped, Opens(c_monthly_end_stamped, "opens; relabelled to month starts, January 31 mm")),
-    Case("projected_only", "polar stereographic x/y with a CF grid_mapping, no lat/lon", b_projected_only,
-         Opens(c_projected_only, "opens curvilinear; lat/lon from the mapping (pyproj)")),
-    Case("lat_desc_lon_wrap", "lat descending, lon 350,355,0,5 (wraps through 0)", b_lat_desc_lon_wrap,
-         Opens(c_lat_desc_lon_wrap, "opens; lat ascending, lon -10..5, values follow, bounds shifted")),
-    Case("cyclic_lon", "lon 0,120,240,360 (360 repeats 0)", b_cyclic_lon,
-         Raises(GridError, ("duplicated longitudes",), "GridError; drop the cyclic column")),
-    Case("lat_out_of_range", "latitudes -140..-130", b_lat_out_of_range,
-         Raises(GridError, ("outside -90..90",), "GridError; lat/lon swapped or radians?")),
-    Case("nan_coordinate", "a NaN latitude", b_nan_coordinate,
-         Raises(GridError, ("NaN",), "GridError; repair the coordinates")),
-    Case("curvilinear_no_bounds", "2-D lat(y,x)/lon(y,x), no bounds", b_curvilinear,
-         Opens(c_curvilinear, "opens on (time, y, x); bounds noted as inferred")),
-    Case("truncated", "a deflated NetCDF-4 file cut in half", b_truncated,
-         Raises(SourceError, ("truncated", "bytes"), "SourceError with the size; copy the file again")),
-    Case("truncated_netcdf3", "a NETCDF3_CLASSIC file missing its last 1000 bytes", b_truncated_netcdf3,
-         Raises(SourceError, ("shorter than its header says", "truncated"),
-                "SourceError: size against the size its header declares")),
-    Case("empty_file", "a file of 0 bytes", b_empty_file,
-         Raises(SourceError, ("0 bytes",), "SourceError")),
-    Case("not_netcdf", "a CSV file named .nc", b_not_netcdf,
-         Raises(SourceError, ("not a NetCDF file",), "SourceError")),
-    Case("plain_hdf5", "an HDF5 file with a bare array (no dims, no attributes)", b_plain_hdf5,
-         Raises(GridError, ("no latitude/longitude",), "GridError: no lat/lon coordinates; says how to add them")),
-    Case("netcdf3_classic", "NETCDF3_CLASSIC format", b_netcdf3_classic,
-         Opens(c_netcdf3, "opens through the xarray backend")),
-    Case("empty_zarr", "an empty folder named .zarr", b_empty_zarr,
-         Raises(SourceError, ("Zarr",), "SourceError: empty or incomplete store")),
-    Case("zarr_without_variables", "a Zarr group with no arrays", b_zarr_without_variables,
-         Raises(VariableError, ("no precipitation-like variable", "none"), "VariableError (found: none)")),
+    Case(
+        "no_units",
+        "precipitation variable without a units attribute",
+        b_no_units,
+        Raises(UnitsError, ("no units", "pr"), "UnitsError: has no units; lists the accepted units"),
+    ),
+    Case(
+        "unknown_units",
+        "units 'furlongs/fortnight'",
+        b_unknown_units,
+        Raises(UnitsError, ("furlongs",), "UnitsError naming the unit that is not understood"),
+    ),
+    Case(
+        "units_on_wrong_variable",
+        "'pr' has no units, a second variable 'pr_spread' has 'mm'",
+        b_units_on_wrong_variable,
+        Raises(
+            VariableError,
+            ("pr", "pr_spread", "var="),
+            "VariableError: 'pr' has no units while 'pr_spread' has; asks for var= or units",
+        ),
+    ),
+    Case(
+        "packed_int16",
+        "int16 with scale_factor, add_offset, _FillValue; deflate-chunked",
+        b_packed_int16,
+        Opens(c_packed, "opens (direct chunk reader); unpacked values within scale/2; fill -> NaN"),
+    ),
+    Case(
+        "packed_int16_contiguous",
+        "int16 packed, contiguous storage",
+        b_packed_int16_contiguous,
+        Opens(c_packed_contiguous, "opens (xarray backend); unpacked values; fill -> NaN"),
+    ),
+    Case(
+        "fill_1e20_no_attr",
+        "1e20 for missing, no _FillValue attribute",
+        b_fill_1e20_no_attr,
+        Opens(_c_masked((1, 2, 3)), "opens; 1e20 -> NaN, noted in attrs['missing_value_heuristics']"),
+    ),
+    Case(
+        "fill_9999_no_attr",
+        "-9999 for missing, no _FillValue attribute",
+        b_fill_9999_no_attr,
+        Opens(_c_masked((3, 0, 2)), "opens; -9999 -> NaN (not a negative-value error)"),
+    ),
+    Case(
+        "missing_value_only",
+        "-999 declared by missing_value only",
+        b_missing_value_only,
+        Opens(_c_masked((4, 1, 0)), "opens; -999 -> NaN"),
+    ),
+    Case(
+        "negative",
+        "a value of -3.5 mm",
+        b_negative,
+        Raises(DataValueError, ("negative", "-3.5"), "DataValueError with count, lowest value and where"),
+    ),
+    Case(
+        "all_nan",
+        "every value missing",
+        b_all_nan,
+        Raises(DataValueError, ("no valid values",), "DataValueError: all missing"),
+    ),
+    Case(
+        "single_step",
+        "one time step, no time bounds",
+        b_single_step,
+        Raises(TimeAxisError, ("single time step", "bounds"), "TimeAxisError: step length unknown; add time_bnds"),
+    ),
+    Case(
+        "single_step_bounds",
+        "one time step with time bounds of one day",
+        b_single_step_bounds,
+        Opens(c_single_bounds, "opens as daily from the bounds"),
+    ),
+    Case(
+        "duplicated_times",
+        "time stamps 0,1,2,2,3",
+        b_duplicated_times,
+        Raises(TimeAxisError, ("duplicated", "position 3"), "TimeAxisError with the first position"),
+    ),
+    Case(
+        "unsorted_times",
+        "time stamps 0,1,3,2,4",
+        b_unsorted_times,
+        Raises(TimeAxisError, ("backwards",), "TimeAxisError with the first position"),
+    ),
+    Case(
+        "month_gap",
+        "monthly, April missing",
+        b_month_gap,
+        Opens(c_month_gap, "opens; the missing month is a NaN step, counted in attrs"),
+    ),
+    Case(
+        "month_gap_across_files",
+        "glob of two monthly files with April missing between them",
+        b_month_gap_across_files,
+        Opens(c_month_gap_files, "opens; combined, missing month as NaN"),
+    ),
+    Case(
+        "mixed_calendars",
+        "glob: standard and noleap files",
+        b_mixed_calendars,
+        Raises(MismatchError, ("calendar", "noleap"), "MismatchError naming both files' calendars"),
+    ),
+    Case(
+        "mixed_grids",
+        "glob: second file's lon shifted by 0.25 deg",
+        b_mixed_grids,
+        Raises(MismatchError, ("different grid", "regrid"), "MismatchError; suggests cw.regrid"),
+    ),
+    Case(
+        "overlapping_files",
+        "glob: two files sharing one day",
+        b_overlapping_files,
+        Raises(
+            MismatchError,
+            ("same times appear in two files", "pr_1.nc", "pr_2.nc"),
+            "MismatchError naming both files; suggests removing the overlapping one",
+        ),
+    ),
+    Case(
+        "duplicate_copy_in_glob",
+        "glob: one file and its byte copy",
+        b_duplicate_copy,
+        Raises(
+            MismatchError,
+            ("same times appear in two files", "pr_a.nc", "pr_a_copy.nc"),
+            "MismatchError naming both copies (not 'times go backwards')",
+        ),
+    ),
+    Case(
+        "daily_and_monthly_glob",
+        "glob: a daily file and a monthly file",
+        b_daily_and_monthly,
+        Raises(
+            MismatchError,
+            ("month steps", "day steps", "pr_d.nc", "pr_m.nc"),
+            "MismatchError naming both files and their steps (never monthly read as daily)",
+        ),
+    ),
+    Case(
+        "glob_fill_in_later_file",
+        "glob: first file declares _FillValue -9999, second has none and stores 1e20",
+        b_glob_fill_in_later_file,
+        Opens(c_fill_in_later_file, "opens; each file's own fill handling (the 1e20 is missing, not 1e20 mm)"),
+    ),
+    Case(
+        "glob_fills_differ",
+        "glob: _FillValue -9999, 1e20 and -1 in three files (chunked and contiguous)",
+        b_glob_fills_differ,
+        Opens(c_fills_differ, "opens; every file's own _FillValue is honoured"),
+    ),
+    Case(
+        "glob_mixed_units",
+        "glob: a file in mm and one in kg m-2 s-1",
+        b_glob_mixed_units,
+        Raises(MismatchError, ("units", "kg m-2 s-1", "pr_1.nc", "pr_2.nc"), "MismatchError naming both files' units"),
+    ),
+    Case(
+        "glob_end_stamped_and_bare",
+        "glob: a file stamped at each day's end (time bounds) and one without bounds",
+        b_glob_end_stamped_and_bare,
+        Raises(
+            MismatchError,
+            ("at its end", "no time bounds", "pr_1.nc", "pr_2.nc"),
+            "MismatchError naming both files (never a one-step shift of one file)",
+        ),
+    ),
+    Case(
+        "monthly_stamps_daily_bounds",
+        "monthly stamps whose time bounds span one day each",
+        b_monthly_stamps_daily_bounds,
+        Raises(
+            TimeAxisError,
+            ("one day long", "one month apart", "time bounds"),
+            "TimeAxisError: bounds disagree with the spacing (never daily data 97 % missing)",
+        ),
+    ),
+    Case(
+        "glob_bounds_disagree_in_later_file",
+        "glob: the second file's time bounds span 6 hours of each day",
+        b_glob_bounds_disagree_in_later_file,
+        Raises(
+            TimeAxisError,
+            ("pr_2.nc", "about 6 hours long", "one day apart"),
+            "TimeAxisError naming the file whose bounds disagree with its stamps",
+        ),
+    ),
+    Case(
+        "nan_time_stamp",
+        "a NaN among the time stamps",
+        b_nan_time_stamp,
+        Raises(TimeAxisError, ("missing (NaN)",), "TimeAxisError naming the missing stamp"),
+    ),
+    Case(
+        "reference_year_one",
+        "'days since 0001-01-01 00:00:00', standard calendar",
+        b_reference_year_one,
+        Opens(c_daily_2001, "opens; dates decoded to 2001-01-01.."),
+    ),
+    Case(
+        "reference_odd_format",
+        "'hours since 2000-12-31 06:00:00Z'",
+        b_reference_odd_format,
+        Opens(c_reference_odd, "opens; daily, first stamp 2001-01-01T00"),
+    ),
+    Case(
+        "reference_year_zero_noleap",
+        "'days since 0000-01-01', noleap",
+        b_reference_year_zero_noleap,
+        Opens(c_year_zero, "opens as cftime noleap, year 2001"),
+    ),
+    Case(
+        "months_since",
+        "'months since 2001-01-01', standard calendar",
+        b_months_since,
+        Raises(
+            TimeAxisError,
+            ("months since", "no fixed length", "days since"),
+            "TimeAxisError: a month has no fixed length; rewrite as days since",
+        ),
+    ),
+    Case(
+        "time_without_units",
+        "time coordinate with plain numbers, no units",
+        b_time_without_units,
+        Raises(TimeAxisError, ("time", "units"), "TimeAxisError: time has no units; set them"),
+    ),
+    Case(
+        "unsupported_calendar",
+        "calendar 'lunar_pentad'",
+        b_unsupported_calendar,
+        Raises(CalendarError, ("lunar_pentad",), "CalendarError listing the supported calendars"),
+    ),
+    Case(
+        "three_hourly", "3-hourly steps", b_three_hourly, Opens(c_three_hourly, "opens; step '3hour', values as stored")
+    ),
+    Case(
+        "five_daily",
+        "5-day steps (pentads)",
+        b_five_daily,
+        Raises(
+            TimeAxisError,
+            ("about 120 hours", "divide a day", "resample"),
+            "TimeAxisError; lists the accepted steps, suggests resampling",
+        ),
+    ),
+    Case(
+        "half_hourly",
+        "30-minute rates in mm/h",
+        b_half_hourly,
+        Opens(c_half_hourly, "opens; summed to hourly totals, native step in attrs"),
+    ),
+    Case(
+        "monthly_end_stamped",
+        "monthly 1 mm/day stamped at each month's end (time = upper time_bnds)",
+        b_monthly_end_stamped,
+        Opens(c_monthly_end_stamped, "opens; relabelled to month starts, January 31 mm"),
+    ),
+    Case(
+        "projected_only",
+        "polar stereographic x/y with a CF grid_mapping, no lat/lon",
+        b_projected_only,
+        Opens(c_projected_only, "opens curvilinear; lat/lon from the mapping (pyproj)"),
+    ),
+    Case(
+        "lat_desc_lon_wrap",
+        "lat descending, lon 350,355,0,5 (wraps through 0)",
+        b_lat_desc_lon_wrap,
+        Opens(c_lat_desc_lon_wrap, "opens; lat ascending, lon -10..5, values follow, bounds shifted"),
+    ),
+    Case(
+        "cyclic_lon",
+        "lon 0,120,240,360 (360 repeats 0)",
+        b_cyclic_lon,
+        Raises(GridError, ("duplicated longitudes",), "GridError; drop the cyclic column"),
+    ),
+    Case(
+        "lat_out_of_range",
+        "latitudes -140..-130",
+        b_lat_out_of_range,
+        Raises(GridError, ("outside -90..90",), "GridError; lat/lon swapped or radians?"),
+    ),
+    Case(
+        "nan_coordinate",
+        "a NaN latitude",
+        b_nan_coordinate,
+        Raises(GridError, ("NaN",), "GridError; repair the coordinates"),
+    ),
+    Case(
+        "curvilinear_no_bounds",
+        "2-D lat(y,x)/lon(y,x), no bounds",
+        b_curvilinear,
+        Opens(c_curvilinear, "opens on (time, y, x); bounds noted as inferred"),
+    ),
+    Case(
+        "truncated",
+        "a deflated NetCDF-4 file cut in half",
+        b_truncated,
+        Raises(SourceError, ("truncated", "bytes"), "SourceError with the size; copy the file again"),
+    ),
+    Case(
+        "truncated_netcdf3",
+        "a NETCDF3_CLASSIC file missing its last 1000 bytes",
+        b_truncated_netcdf3,
+        Raises(
+            SourceError,
+            ("shorter than its header says", "truncated"),
+            "SourceError: size against the size its header declares",
+        ),
+    ),
+    Case("empty_file", "a file of 0 bytes", b_empty_file, Raises(SourceError, ("0 bytes",), "SourceError")),
+    Case(
+        "not_netcdf", "a CSV file named .nc", b_not_netcdf, Raises(SourceError, ("not a NetCDF file",), "SourceError")
+    ),
+    Case(
+        "plain_hdf5",
+        "an HDF5 file with a bare array (no dims, no attributes)",
+        b_plain_hdf5,
+        Raises(GridError, ("no latitude/longitude",), "GridError: no lat/lon coordinates; says how to add them"),
+    ),
+    Case(
+        "netcdf3_classic",
+        "NETCDF3_CLASSIC format",
+        b_netcdf3_classic,
+        Opens(c_netcdf3, "opens through the xarray backend"),
+    ),
+    Case(
+        "empty_zarr",
+        "an empty folder named .zarr",
+        b_empty_zarr,
+        Raises(SourceError, ("Zarr",), "SourceError: empty or incomplete store"),
+    ),
+    Case(
+        "zarr_without_variables",
+        "a Zarr group with no arrays",
+        b_zarr_without_variables,
+        Raises(VariableError, ("no precipitation-like variable", "none"), "VariableError (found: none)"),
+    ),
     Case("zarr", "a valid Zarr store", b_zarr, Opens(c_daily_2001, "opens")),
-    Case("zarr_missing_chunk", "a Zarr store whose middle time chunk was deleted", b_zarr_missing_chunk,
-         Raises(SourceError, ("missing from the store", "time steps 2..3", "xr.open_zarr"),
-                "SourceError from the chunk listing at open (never a silent block of missing values)")),
-    Case("zarr_absent_tile", "a Zarr store written without its all-missing tile (write_empty_chunks=False)",
-         b_zarr_absent_tile, Opens(c_absent_tile, "opens; the tile is missing, noted in attrs['absent_chunks']")),
-    Case("dims_t_y_x", "dims (t, y, x) with 1-D y/x coordinates in degrees", b_dims_t_y_x,
-         Opens(c_plain4, "opens; renamed to time/lat/lon")),
-    Case("dims_latitude_longitude", "dims (time, latitude, longitude)", b_dims_latitude_longitude,
-         Opens(c_plain4, "opens; renamed to lat/lon")),
-    Case("dims_valid_time", "variable 'tp' in m on (valid_time, latitude, longitude)", b_dims_valid_time,
-         Opens(c_valid_time, "opens; m -> mm")),
-    Case("singleton_height", "extra dim height=1 between time and lat", b_singleton_height,
-         Opens(c_plain4, "opens; singleton dropped")),
-    Case("singleton_member", "extra leading dim member=1", b_singleton_member,
-         Opens(c_plain4, "opens; singleton dropped")),
-    Case("three_members", "extra dim member=3", b_three_members,
-         Opens(c_three_members, "opens; member dimension kept in front of time")),
-    Case("three_levels", "extra dim level=3 between time and lat", b_three_levels,
-         Raises(GridError, ("level", "isel", "member"), "GridError; select one level, or rename to member")),
-    Case("two_candidates", "two variables 'pr' and 'rain', both in mm, no standard_name", b_two_candidates,
-         Raises(VariableError, ("several", "var="), "VariableError listing both")),
-    Case("fill_not_declared", "1e20 stored for missing while _FillValue says -9999", b_fill_not_declared,
-         Raises(DataValueError, ("above the plausible", "time=2001-01-03", "max_depth_mm"),
-                "DataValueError from the depth bound, naming the first place (never 1e20 mm)")),
-    Case("rate_read_as_depth", "daily depths of 2-6 mm labelled 'mm s-1'", b_rate_read_as_depth,
-         Raises(DataValueError, ("above the plausible", "units"), "DataValueError: implausible depths; check the units")),
-    Case("declared_1e5_grid", "NetCDF-4 declaring 365 x 1e5 x 1e5 float32, no data written", b_declared_1e5_grid,
-         Raises(GridError, ("100,000 x 100,000", "cells per time step"),
-                "GridError from the declared sizes, before any coordinate or chunk index is read")),
-    Case("declared_2e6_grid", "NetCDF-4 declaring 2 x 2e6 x 2e6 float32, no data written", b_declared_2e6_grid,
-         Raises(GridError, ("2,000,000 x 2,000,000",), "GridError at once (no millions of dask chunks)")),
-    Case("nan_lat_bounds", "a NaN in the latitude bounds variable", b_nan_lat_bounds,
-         Raises(GridError, ("NaN", "latitude bounds"), "GridError at open (was a raw error in the area weights)")),
-    Case("compound_type", "'pr' of an HDF5 compound type (depth, flag)", b_compound_type,
-         Raises(VariableError, ("compound type", "depth, flag"), "VariableError naming the fields")),
-    Case("int16_shorter_than_time", "packed int16 written for 5 of 10 records of the unlimited time",
-         b_int16_shorter_than_time,
-         Opens(c_shorter_than_time, "opens; the 5 records never written are missing (NaN)")),
-    Case("one_cell", "a grid of one cell without bounds", b_one_cell,
-         Raises(GridError, ("single latitude", "bounds"), "GridError: cell size unknown; add bounds (no guess)")),
-    Case("one_cell_bounds", "a grid of one cell with CF bounds", b_one_cell_bounds,
-         Opens(c_one_cell_bounds, "opens; cell from its bounds")),
-    Case("huge_chunks", "stored chunk (100000, 3, 4) on a 6-step unlimited time", b_huge_chunks,
-         Opens(c_huge_chunks, "opens; values exact")),
-    Case("huge_sparse", f"NetCDF-3 64-bit-data file of {HUGE_SHAPE} float32 (4 GB, sparse)", b_huge_sparse,
-         Opens(c_huge, "opens lazily; no data read at open; a corner reads back")),
+    Case(
+        "zarr_missing_chunk",
+        "a Zarr store whose middle time chunk was deleted",
+        b_zarr_missing_chunk,
+        Raises(
+            SourceError,
+            ("missing from the store", "time steps 2..3", "xr.open_zarr"),
+            "SourceError from the chunk listing at open (never a silent block of missing values)",
+        ),
+    ),
+    Case(
+        "zarr_absent_tile",
+        "a Zarr store written without its all-missing tile (write_empty_chunks=False)",
+        b_zarr_absent_tile,
+        Opens(c_absent_tile, "opens; the tile is missing, noted in attrs['absent_chunks']"),
+    ),
+    Case(
+        "dims_t_y_x",
+        "dims (t, y, x) with 1-D y/x coordinates in degrees",
+        b_dims_t_y_x,
+        Opens(c_plain4, "opens; renamed to time/lat/lon"),
+    ),
+    Case(
+        "dims_latitude_longitude",
+        "dims (time, latitude, longitude)",
+        b_dims_latitude_longitude,
+        Opens(c_plain4, "opens; renamed to lat/lon"),
+    ),
+    Case(
+        "dims_valid_time",
+        "variable 'tp' in m on (valid_time, latitude, longitude)",
+        b_dims_valid_time,
+        Opens(c_valid_time, "opens; m -> mm"),
+    ),
+    Case(
+        "singleton_height",
+        "extra dim height=1 between time and lat",
+        b_singleton_height,
+        Opens(c_plain4, "opens; singleton dropped"),
+    ),
+    Case(
+        "singleton_member",
+        "extra leading dim member=1",
+        b_singleton_member,
+        Opens(c_plain4, "opens; singleton dropped"),
+    ),
+    Case(
+        "three_members",
+        "extra dim member=3",
+        b_three_members,
+        Opens(c_three_members, "opens; member dimension kept in front of time"),
+    ),
+    Case(
+        "three_levels",
+        "extra dim level=3 between time and lat",
+        b_three_levels,
+        Raises(GridError, ("level", "isel", "member"), "GridError; select one level, or rename to member"),
+    ),
+    Case(
+        "two_candidates",
+        "two variables 'pr' and 'rain', both in mm, no standard_name",
+        b_two_candidates,
+        Raises(VariableError, ("several", "var="), "VariableError listing both"),
+    ),
+    Case(
+        "fill_not_declared",
+        "1e20 stored for missing while _FillValue says -9999",
+        b_fill_not_declared,
+        Raises(
+            DataValueError,
+            ("above the plausible", "time=2001-01-03", "max_depth_mm"),
+            "DataValueError from the depth bound, naming the first place (never 1e20 mm)",
+        ),
+    ),
+    Case(
+        "rate_read_as_depth",
+        "daily depths of 2-6 mm labelled 'mm s-1'",
+        b_rate_read_as_depth,
+        Raises(DataValueError, ("above the plausible", "units"), "DataValueError: implausible depths; check the units"),
+    ),
+    Case(
+        "declared_1e5_grid",
+        "NetCDF-4 declaring 365 x 1e5 x 1e5 float32, no data written",
+        b_declared_1e5_grid,
+        Raises(
+            GridError,
+            ("100,000 x 100,000", "cells per time step"),
+            "GridError from the declared sizes, before any coordinate or chunk index is read",
+        ),
+    ),
+    Case(
+        "declared_2e6_grid",
+        "NetCDF-4 declaring 2 x 2e6 x 2e6 float32, no data written",
+        b_declared_2e6_grid,
+        Raises(GridError, ("2,000,000 x 2,000,000",), "GridError at once (no millions of dask chunks)"),
+    ),
+    Case(
+        "nan_lat_bounds",
+        "a NaN in the latitude bounds variable",
+        b_nan_lat_bounds,
+        Raises(GridError, ("NaN", "latitude bounds"), "GridError at open (was a raw error in the area weights)"),
+    ),
+    Case(
+        "compound_type",
+        "'pr' of an HDF5 compound type (depth, flag)",
+        b_compound_type,
+        Raises(VariableError, ("compound type", "depth, flag"), "VariableError naming the fields"),
+    ),
+    Case(
+        "int16_shorter_than_time",
+        "packed int16 written for 5 of 10 records of the unlimited time",
+        b_int16_shorter_than_time,
+        Opens(c_shorter_than_time, "opens; the 5 records never written are missing (NaN)"),
+    ),
+    Case(
+        "one_cell",
+        "a grid of one cell without bounds",
+        b_one_cell,
+        Raises(GridError, ("single latitude", "bounds"), "GridError: cell size unknown; add bounds (no guess)"),
+    ),
+    Case(
+        "one_cell_bounds",
+        "a grid of one cell with CF bounds",
+        b_one_cell_bounds,
+        Opens(c_one_cell_bounds, "opens; cell from its bounds"),
+    ),
+    Case(
+        "huge_chunks",
+        "stored chunk (100000, 3, 4) on a 6-step unlimited time",
+        b_huge_chunks,
+        Opens(c_huge_chunks, "opens; values exact"),
+    ),
+    Case(
+        "huge_sparse",
+        f"NetCDF-3 64-bit-data file of {HUGE_SHAPE} float32 (4 GB, sparse)",
+        b_huge_sparse,
+        Opens(c_huge, "opens lazily; no data read at open; a corner reads back"),
+    ),
 ]
 
 
@@ -1053,8 +1428,14 @@ def _job_data(d):
     import pandas as pd
 
     time = pd.date_range("1991-01-01", "1993-12-31", freq="D")
-    ds = _dataset(np.ones((time.size, 2, 2)), time=np.arange(time.size), time_units="days since 1991-01-01",
-                  lat=JOB_LAT, lon=JOB_LON, standard_name="lwe_thickness_of_precipitation_amount")
+    ds = _dataset(
+        np.ones((time.size, 2, 2)),
+        time=np.arange(time.size),
+        time_units="days since 1991-01-01",
+        lat=JOB_LAT,
+        lon=JOB_LON,
+        standard_name="lwe_thickness_of_precipitation_amount",
+    )
     return _write(ds, d / "pr.nc")
 
 
@@ -1064,8 +1445,21 @@ def _job_square(name="square", west=-141.0):
 
 
 def _summary(d, basins, out=None, *extra):
-    return ["summary", "--data", _job_data(d), "--basins", str(basins), "--months", "7,8", "--baseline",
-            "1991-1993", "--out", str(out if out is not None else d / "out"), "--quiet", *extra]
+    return [
+        "summary",
+        "--data",
+        _job_data(d),
+        "--basins",
+        str(basins),
+        "--months",
+        "7,8",
+        "--baseline",
+        "1991-1993",
+        "--out",
+        str(out if out is not None else d / "out"),
+        "--quiet",
+        *extra,
+    ]
 
 
 def _geojson(d, name, obj):
@@ -1101,8 +1495,11 @@ def j_fifo(d):
 
 
 def j_zero_area(d):
-    line = {"type": "Feature", "properties": {"name": "flat"},
-            "geometry": {"type": "Polygon", "coordinates": [[[-141, -31], [-140, -31], [-139, -31], [-141, -31]]]}}
+    line = {
+        "type": "Feature",
+        "properties": {"name": "flat"},
+        "geometry": {"type": "Polygon", "coordinates": [[[-141, -31], [-140, -31], [-139, -31], [-141, -31]]]},
+    }
     return _summary(d, _geojson(d, "flat.geojson", {"type": "FeatureCollection", "features": [line]}))
 
 
@@ -1133,28 +1530,97 @@ def j_typo_choice(d):
 
 
 JOB_CASES = [
-    JobCase("job_valid", "summary of a valid file and basin (control)", j_valid, 0, (),
-            "exit 0; CSV, metadata, NetCDF and report written"),
-    JobCase("job_basins_nested", "GeoJSON nested 100 000 levels", j_nested, 2, ("nested too deeply",),
-            "exit 2: SourceError naming the file (no RecursionError)"),
-    JobCase("job_shapefile_without_dbf", "shapefile whose .dbf is missing", j_shapefile_without_dbf, 2,
-            ("outline.dbf",), "exit 2: SourceError naming the .shp and the missing .dbf"),
-    JobCase("job_basins_fifo", "a named pipe given as the basin file", j_fifo, 2, ("not a regular file",),
-            "exit 2 at once: SourceError (the pipe is never opened, so nothing blocks)"),
-    JobCase("job_basin_zero_area", "a basin whose vertices lie on one line", j_zero_area, 2,
-            ("basin 'flat'", "zero area"), "exit 2: BasinError naming the file and the basin"),
-    JobCase("job_basin_outside_grid", "a basin far from the grid", j_outside, 2,
-            ("basin 'far'", "outside the grid"), "exit 2: BasinError naming the file and the basin"),
-    JobCase("job_features_not_list", "'features' is an object, not a list", j_features_not_list, 2,
-            ("'features' is a dict",), "exit 2: BasinError naming the file (no AttributeError)"),
-    JobCase("job_out_proc", "--out /proc", j_out_proc, 2, ("does not accept new files",),
-            "exit 2 before any data are read: OutputError naming /proc (no raw errno)", names=("/proc",)),
-    JobCase("job_out_is_file", "--out names a regular file", j_out_is_file, 2, ("is a file, not a folder",),
-            "exit 2: ParameterError naming the file"),
-    JobCase("job_typo_number", "--duration dayly", j_typo, 2, ("'dayly' is not a whole number",),
-            "exit 2: says a whole number of days is expected", names=("--duration",)),
-    JobCase("job_typo_choice", "--method bilinaer", j_typo_choice, 2, ("did you mean 'bilinear'",),
-            "exit 2: suggests the nearest valid word (difflib)", names=("--method",)),
+    JobCase(
+        "job_valid",
+        "summary of a valid file and basin (control)",
+        j_valid,
+        0,
+        (),
+        "exit 0; CSV, metadata, NetCDF and report written",
+    ),
+    JobCase(
+        "job_basins_nested",
+        "GeoJSON nested 100 000 levels",
+        j_nested,
+        2,
+        ("nested too deeply",),
+        "exit 2: SourceError naming the file (no RecursionError)",
+    ),
+    JobCase(
+        "job_shapefile_without_dbf",
+        "shapefile whose .dbf is missing",
+        j_shapefile_without_dbf,
+        2,
+        ("outline.dbf",),
+        "exit 2: SourceError naming the .shp and the missing .dbf",
+    ),
+    JobCase(
+        "job_basins_fifo",
+        "a named pipe given as the basin file",
+        j_fifo,
+        2,
+        ("not a regular file",),
+        "exit 2 at once: SourceError (the pipe is never opened, so nothing blocks)",
+    ),
+    JobCase(
+        "job_basin_zero_area",
+        "a basin whose vertices lie on one line",
+        j_zero_area,
+        2,
+        ("basin 'flat'", "zero area"),
+        "exit 2: BasinError naming the file and the basin",
+    ),
+    JobCase(
+        "job_basin_outside_grid",
+        "a basin far from the grid",
+        j_outside,
+        2,
+        ("basin 'far'", "outside the grid"),
+        "exit 2: BasinError naming the file and the basin",
+    ),
+    JobCase(
+        "job_features_not_list",
+        "'features' is an object, not a list",
+        j_features_not_list,
+        2,
+        ("'features' is a dict",),
+        "exit 2: BasinError naming the file (no AttributeError)",
+    ),
+    JobCase(
+        "job_out_proc",
+        "--out /proc",
+        j_out_proc,
+        2,
+        ("does not accept new files",),
+        "exit 2 before any data are read: OutputError naming /proc (no raw errno)",
+        names=("/proc",),
+    ),
+    JobCase(
+        "job_out_is_file",
+        "--out names a regular file",
+        j_out_is_file,
+        2,
+        ("is a file, not a folder",),
+        "exit 2: ParameterError naming the file",
+    ),
+    JobCase(
+        "job_typo_number",
+        "--duration dayly",
+        j_typo,
+        2,
+        ("'dayly' is not a whole number",),
+        "exit 2: says a whole number of days is expected",
+        names=("--duration",),
+    ),
+    JobCase(
+        "job_typo_choice",
+        "--method bilinaer",
+        j_typo_choice,
+        2,
+        ("did you mean 'bilinear'",),
+        "exit 2: suggests the nearest valid word (difflib)",
+        names=("--method",),
+    ),
 ]
 
 

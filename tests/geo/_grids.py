@@ -12,12 +12,19 @@ def rect_grid(lat0, lat1, lon0, lon1, step, ntime=None, value=0.0):
     lat = np.arange(lat0 + step / 2, lat1, step)
     lon = np.arange(lon0 + step / 2, lon1, step)
     if ntime is None:
-        return xr.DataArray(np.full((lat.size, lon.size), value), coords={"lat": lat, "lon": lon},
-                            dims=("lat", "lon"), attrs={"units": "mm"})
+        return xr.DataArray(
+            np.full((lat.size, lon.size), value),
+            coords={"lat": lat, "lon": lon},
+            dims=("lat", "lon"),
+            attrs={"units": "mm"},
+        )
     time = pd.date_range("2001-01-01", periods=ntime, freq="MS")
-    return xr.DataArray(np.full((ntime, lat.size, lon.size), value),
-                        coords={"time": time, "lat": lat, "lon": lon},
-                        dims=("time", "lat", "lon"), attrs={"units": "mm", "step": "month"})
+    return xr.DataArray(
+        np.full((ntime, lat.size, lon.size), value),
+        coords={"time": time, "lat": lat, "lon": lon},
+        dims=("time", "lat", "lon"),
+        attrs={"units": "mm", "step": "month"},
+    )
 
 
 def rotated_grid(ny=12, nx=15, lat0=-30.0, lon0=-140.0, step=0.5, angle_deg=20.0):
@@ -26,8 +33,12 @@ def rotated_grid(ny=12, nx=15, lat0=-30.0, lon0=-140.0, step=0.5, angle_deg=20.0
     a = np.radians(angle_deg)
     lon = lon0 + step * (i * np.cos(a) - j * np.sin(a))
     lat = lat0 + step * (i * np.sin(a) + j * np.cos(a))
-    return xr.DataArray(np.zeros((ny, nx)), dims=("y", "x"),
-                        coords={"lat": (("y", "x"), lat), "lon": (("y", "x"), lon)}, attrs={"units": "mm"})
+    return xr.DataArray(
+        np.zeros((ny, nx)),
+        dims=("y", "x"),
+        coords={"lat": (("y", "x"), lat), "lon": (("y", "x"), lon)},
+        attrs={"units": "mm"},
+    )
 
 
 def star_polygon(rng, cx, cy, r_min, r_max, n=12):

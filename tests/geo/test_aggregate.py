@@ -120,6 +120,7 @@ def test_basin_means_equal_basin_mean_of_each_basin():
 
 # ---- ensemble members, CF names, depth units
 
+
 def _members(grid):
     rng = np.random.default_rng(5)
     data = rng.gamma(2.0, 3.0, (2,) + grid.shape)
@@ -127,8 +128,10 @@ def _members(grid):
     return grid.expand_dims(member=["a", "b"]).copy(data=data).assign_attrs(units="mm")
 
 
-@pytest.mark.parametrize("make", [lambda: rect_grid(-35, -30, -150, -144, 0.25, ntime=3, value=1.0),
-                                  lambda: rotated_grid(lat0=-35.0, lon0=-150.0)])
+@pytest.mark.parametrize(
+    "make",
+    [lambda: rect_grid(-35, -30, -150, -144, 0.25, ntime=3, value=1.0), lambda: rotated_grid(lat0=-35.0, lon0=-150.0)],
+)
 def test_members_equal_per_member_basin_means_and_volumes(make):
     field = _members(make())
     for f in (cw.basin_mean, cw.basin_volume):
@@ -137,8 +140,9 @@ def test_members_equal_per_member_basin_means_and_volumes(make):
         for m in ("a", "b"):
             alone = f(field.sel(member=m, drop=True), BASIN)
             np.testing.assert_allclose(together.sel(member=m).values, alone.values, rtol=1e-12)
-            np.testing.assert_allclose(together.covered_fraction.sel(member=m).values,
-                                       alone.covered_fraction.values, rtol=1e-12)
+            np.testing.assert_allclose(
+                together.covered_fraction.sel(member=m).values, alone.covered_fraction.values, rtol=1e-12
+            )
     lazy = cw.basin_mean(field.chunk({"member": 1}), BASIN)
     assert isinstance(lazy.data, dask.array.Array)
     np.testing.assert_allclose(lazy.values, cw.basin_mean(field, BASIN).values, rtol=1e-12)

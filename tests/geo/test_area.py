@@ -38,8 +38,9 @@ def test_global_grid_sums_to_sphere():
     ],
 )
 def test_single_cell_matches_cap_formula(lat0, expected):
-    g = xr.DataArray(np.zeros((2, 2)), dims=("lat", "lon"),
-                     coords={"lat": [lat0 + 0.5, lat0 + 1.5], "lon": [-29.5, -28.5]})
+    g = xr.DataArray(
+        np.zeros((2, 2)), dims=("lat", "lon"), coords={"lat": [lat0 + 0.5, lat0 + 1.5], "lon": [-29.5, -28.5]}
+    )
     area = cw.cell_area(g, radius=R1)
     np.testing.assert_allclose(float(area[0, 0]), expected, rtol=1e-10)
     assert area.attrs["radius_m"] == R1
@@ -47,23 +48,36 @@ def test_single_cell_matches_cap_formula(lat0, expected):
 
 def test_explicit_bounds_are_used():
     # Bounds carried as lat_lower/lat_upper/lon_lower/lon_upper (DEVELOPERS.md) win over centres.
-    g = xr.DataArray(np.zeros((1, 1)), dims=("lat", "lon"),
-                     coords={"lat": [0.3], "lon": [-29.8], "lat_lower": ("lat", [0.0]),
-                             "lat_upper": ("lat", [1.0]), "lon_lower": ("lon", [-30.0]),
-                             "lon_upper": ("lon", [-29.0])})
+    g = xr.DataArray(
+        np.zeros((1, 1)),
+        dims=("lat", "lon"),
+        coords={
+            "lat": [0.3],
+            "lon": [-29.8],
+            "lat_lower": ("lat", [0.0]),
+            "lat_upper": ("lat", [1.0]),
+            "lon_lower": ("lon", [-30.0]),
+            "lon_upper": ("lon", [-29.0]),
+        },
+    )
     np.testing.assert_allclose(float(cw.cell_area(g, radius=R1)[0, 0]), 12_363_718_034.18, rtol=1e-10)
     ds = xr.Dataset(
-        {"pr": (("lat", "lon"), np.zeros((1, 1))), "lat_bnds": (("lat", "nv"), [[60.0, 61.0]]),
-         "lon_bnds": (("lon", "nv"), [[-30.0, -29.0]])},
-        coords={"lat": [60.4], "lon": [-29.3]})
+        {
+            "pr": (("lat", "lon"), np.zeros((1, 1))),
+            "lat_bnds": (("lat", "nv"), [[60.0, 61.0]]),
+            "lon_bnds": (("lon", "nv"), [[-30.0, -29.0]]),
+        },
+        coords={"lat": [60.4], "lon": [-29.3]},
+    )
     np.testing.assert_allclose(float(cw.cell_area(ds, radius=R1)[0, 0]), 6_088_417_878.80, rtol=1e-10)
 
 
 def test_curvilinear_copy_of_rectilinear_grid_has_same_areas():
     g = rect_grid(40, 43, -150, -146, 0.5)
     lon2, lat2 = np.meshgrid(g.lon.values, g.lat.values)
-    c = xr.DataArray(np.zeros(lat2.shape), dims=("y", "x"),
-                     coords={"lat": (("y", "x"), lat2), "lon": (("y", "x"), lon2)})
+    c = xr.DataArray(
+        np.zeros(lat2.shape), dims=("y", "x"), coords={"lat": (("y", "x"), lat2), "lon": (("y", "x"), lon2)}
+    )
     np.testing.assert_allclose(cw.cell_area(c).values, cw.cell_area(g).values, rtol=1e-12)
 
 
@@ -80,9 +94,15 @@ def test_skewed_quadrilateral_against_numerical_integration():
         ys = np.asarray(cut.coords)[:, 1]
         return ys.min(), ys.max()
 
-    val, _ = integrate.dblquad(lambda phi, lam: np.cos(np.radians(phi)), lam_lo, lam_hi,
-                               lambda lam: phi_range(lam)[0], lambda lam: phi_range(lam)[1],
-                               epsabs=1e-13, epsrel=1e-12)
+    val, _ = integrate.dblquad(
+        lambda phi, lam: np.cos(np.radians(phi)),
+        lam_lo,
+        lam_hi,
+        lambda lam: phi_range(lam)[0],
+        lambda lam: phi_range(lam)[1],
+        epsabs=1e-13,
+        epsrel=1e-12,
+    )
     expected = val * np.radians(1) ** 2 * AUTHALIC_RADIUS_M**2
     np.testing.assert_allclose(ring_area(lon, lat), expected, rtol=1e-8)
 

@@ -92,14 +92,28 @@ def test_geojson_feature_collection_with_holes(tmp_path):
     fc = {
         "type": "FeatureCollection",
         "features": [
-            {"type": "Feature", "properties": {"name": "upper"},
-             "geometry": {"type": "Polygon", "coordinates": [
-                 [[-140, 20], [-136, 20], [-136, 24], [-140, 24], [-140, 20]],
-                 [[-139, 21], [-138, 21], [-138, 22], [-139, 22], [-139, 21]]]}},
-            {"type": "Feature", "properties": {"label": "x"},
-             "geometry": {"type": "MultiPolygon", "coordinates": [
-                 [[[-130, 20], [-129, 20], [-129, 21], [-130, 20]]],
-                 [[[-128, 20], [-127, 20], [-127, 21], [-128, 20]]]]}},
+            {
+                "type": "Feature",
+                "properties": {"name": "upper"},
+                "geometry": {
+                    "type": "Polygon",
+                    "coordinates": [
+                        [[-140, 20], [-136, 20], [-136, 24], [-140, 24], [-140, 20]],
+                        [[-139, 21], [-138, 21], [-138, 22], [-139, 22], [-139, 21]],
+                    ],
+                },
+            },
+            {
+                "type": "Feature",
+                "properties": {"label": "x"},
+                "geometry": {
+                    "type": "MultiPolygon",
+                    "coordinates": [
+                        [[[-130, 20], [-129, 20], [-129, 21], [-130, 20]]],
+                        [[[-128, 20], [-127, 20], [-127, 21], [-128, 20]]],
+                    ],
+                },
+            },
         ],
     }
     path = tmp_path / "basins.geojson"
@@ -118,8 +132,9 @@ def test_geojson_errors(tmp_path):
     with pytest.raises(SourceError, match="file not found"):
         cw.Basin.from_geojson(tmp_path / "none.geojson")
     with pytest.raises(BasinError, match="'LineString' is not a polygon"):
-        cw.Basin.from_geojson({"type": "Feature", "properties": {},
-                               "geometry": {"type": "LineString", "coordinates": [[0, 0], [1, 1]]}})
+        cw.Basin.from_geojson(
+            {"type": "Feature", "properties": {}, "geometry": {"type": "LineString", "coordinates": [[0, 0], [1, 1]]}}
+        )
     with pytest.raises(BasinError, match="'Point' is not supported"):
         cw.Basin.from_geojson({"type": "Point", "coordinates": [0, 0]})
     with pytest.raises(BasinError, match="holds no features"):
@@ -180,6 +195,7 @@ def test_shapefile_projected_is_reprojected(tmp_path):
 
 # ---- outlines with 360-degree edges (whole globe, polar caps)
 
+
 def test_whole_globe_outline_has_the_authalic_sphere_area():
     from climwidgets.geo.area import AUTHALIC_RADIUS_M
 
@@ -191,10 +207,13 @@ def test_whole_globe_outline_has_the_authalic_sphere_area():
     assert globe.area_m2 == pytest.approx(4 * np.pi * AUTHALIC_RADIUS_M**2, rel=1e-7)
 
 
-@pytest.mark.parametrize("ring", [
-    [(-180, 60), (180, 60), (180, 90), (-180, 90)],
-    [(-180, 60), (-90, 60), (0, 60), (90, 60), (180, 60), (180, 90), (-180, 90)],
-])
+@pytest.mark.parametrize(
+    "ring",
+    [
+        [(-180, 60), (180, 60), (180, 90), (-180, 90)],
+        [(-180, 60), (-90, 60), (0, 60), (90, 60), (180, 60), (180, 90), (-180, 90)],
+    ],
+)
 def test_polar_cap_outline_matches_pyproj_geod(ring):
     from pyproj import Geod
 
@@ -278,18 +297,30 @@ def test_a_pipe_given_as_basin_file_is_refused_without_blocking(tmp_path):
         cw.Basin.from_geojson(fifo)
 
 
-@pytest.mark.parametrize("obj, words", [
-    ({"type": "FeatureCollection", "features": [1]}, ["feature 1 is not a Feature"]),
-    ({"type": "FeatureCollection", "features": {"a": 1}}, ["'features' is a dict"]),
-    ({"type": "Feature", "properties": {"name": "flat"}, "geometry": {"type": "Polygon"}},
-     ["basin 'flat'", "no coordinates"]),
-    ({"type": "Feature", "properties": [], "geometry": {"type": "Polygon", "coordinates": 5}},
-     ["basin 'basin 1'", "not a list of rings"]),
-    ({"type": "MultiPolygon", "coordinates": [1, 2]}, ["not a list of polygons"]),
-    ({"type": "Feature", "properties": {"name": "line"},
-      "geometry": {"type": "Polygon", "coordinates": [[[-140, 20], [-139, 20], [-138, 20], [-140, 20]]]}},
-     ["basin 'line'", "zero area"]),
-])
+@pytest.mark.parametrize(
+    "obj, words",
+    [
+        ({"type": "FeatureCollection", "features": [1]}, ["feature 1 is not a Feature"]),
+        ({"type": "FeatureCollection", "features": {"a": 1}}, ["'features' is a dict"]),
+        (
+            {"type": "Feature", "properties": {"name": "flat"}, "geometry": {"type": "Polygon"}},
+            ["basin 'flat'", "no coordinates"],
+        ),
+        (
+            {"type": "Feature", "properties": [], "geometry": {"type": "Polygon", "coordinates": 5}},
+            ["basin 'basin 1'", "not a list of rings"],
+        ),
+        ({"type": "MultiPolygon", "coordinates": [1, 2]}, ["not a list of polygons"]),
+        (
+            {
+                "type": "Feature",
+                "properties": {"name": "line"},
+                "geometry": {"type": "Polygon", "coordinates": [[[-140, 20], [-139, 20], [-138, 20], [-140, 20]]]},
+            },
+            ["basin 'line'", "zero area"],
+        ),
+    ],
+)
 def test_basin_errors_name_the_file_and_the_basin(tmp_path, obj, words):
     path = tmp_path / "outlines.geojson"
     path.write_text(json.dumps(obj))
@@ -310,9 +341,13 @@ def test_a_basin_outside_the_grid_is_named_with_its_file(tmp_path):
     path.write_text(json.dumps({"type": "FeatureCollection", "features": [_square_feature("far")]}))
     (basin,) = cw.load_basins(path)
     assert basin.origin == str(path) and basin.renamed("other").origin == str(path)
-    pr = xr.DataArray(np.ones((2, 2, 2)), dims=("time", "lat", "lon"),
-                      coords={"time": pd.date_range("2001-01-01", periods=2), "lat": [-30.25, -29.75],
-                              "lon": [10.25, 10.75]}, attrs={"units": "mm", "step": "day"}, name="pr")
+    pr = xr.DataArray(
+        np.ones((2, 2, 2)),
+        dims=("time", "lat", "lon"),
+        coords={"time": pd.date_range("2001-01-01", periods=2), "lat": [-30.25, -29.75], "lon": [10.25, 10.75]},
+        attrs={"units": "mm", "step": "day"},
+        name="pr",
+    )
     with pytest.raises(BasinError) as info:
         cw.basin_mean(pr, basin)
     assert f"{path}, basin 'far'" in str(info.value) and "outside the grid" in str(info.value)

@@ -43,13 +43,16 @@ def test_renamed_basin_keeps_its_outline_and_place():
     assert s.rename("b", "b") is s["b"]  # same name: nothing changes
 
 
-@pytest.mark.parametrize("action", [
-    lambda s: s.add(_square("a", 12.0)),
-    lambda s: s.rename("b", "a"),
-    lambda s: s.rename("b", "   "),
-    lambda s: s.remove("missing"),
-    lambda s: BasinSet([_square("x"), _square("x", 11.0)]),
-])
+@pytest.mark.parametrize(
+    "action",
+    [
+        lambda s: s.add(_square("a", 12.0)),
+        lambda s: s.rename("b", "a"),
+        lambda s: s.rename("b", "   "),
+        lambda s: s.remove("missing"),
+        lambda s: BasinSet([_square("x"), _square("x", 11.0)]),
+    ],
+)
 def test_taken_empty_or_missing_names_are_refused(action):
     s = BasinSet([_square("a"), _square("b", 11.0)])
     with pytest.raises(BasinError):

@@ -62,4 +62,3 @@ def test_threads_share_one_consistent_cache():
     for t in threads:
         t.join()
     assert len(c) == 50
-

@@ -23,10 +23,12 @@ def _exactextract_fractions(basin, grid):
     lat, lon = grid.lat.values, grid.lon.values
     step = lat[1] - lat[0]
     ny, nx = lat.size, lon.size
-    raster = NumPyRasterSource(np.zeros((ny, nx)), lon[0] - step / 2, lat[0] - step / 2,
-                               lon[-1] + step / 2, lat[-1] + step / 2)
-    feats = JSONFeatureSource([{"type": "Feature", "properties": {"id": 1},
-                                "geometry": shapely.geometry.mapping(basin.geometry)}])
+    raster = NumPyRasterSource(
+        np.zeros((ny, nx)), lon[0] - step / 2, lat[0] - step / 2, lon[-1] + step / 2, lat[-1] + step / 2
+    )
+    feats = JSONFeatureSource(
+        [{"type": "Feature", "properties": {"id": 1}, "geometry": shapely.geometry.mapping(basin.geometry)}]
+    )
     (res,) = exact_extract(raster, feats, ["cell_id", "coverage"])
     out = np.zeros((ny, nx))
     rows, cols = np.divmod(np.asarray(res["properties"]["cell_id"]), nx)
@@ -38,11 +40,15 @@ def _shapely_cell_by_cell(basin, grid):
     """Reference: each cell polygon intersected with the basin, one by one."""
     b = cell_bounds(grid)
     if b.kind == "rectilinear":
-        cells = [[shapely.box(x0, y0, x1, y1) for x0, x1 in zip(b.lon_lower, b.lon_upper)]
-                 for y0, y1 in zip(b.lat_lower, b.lat_upper)]
+        cells = [
+            [shapely.box(x0, y0, x1, y1) for x0, x1 in zip(b.lon_lower, b.lon_upper)]
+            for y0, y1 in zip(b.lat_lower, b.lat_upper)
+        ]
     else:
-        cells = [[shapely.Polygon(np.c_[b.lon_corners[j, i], b.lat_corners[j, i]])
-                  for i in range(b.shape[1])] for j in range(b.shape[0])]
+        cells = [
+            [shapely.Polygon(np.c_[b.lon_corners[j, i], b.lat_corners[j, i]]) for i in range(b.shape[1])]
+            for j in range(b.shape[0])
+        ]
     return np.array([[c.intersection(basin.geometry).area / c.area for c in row] for row in cells])
 
 
@@ -61,10 +67,11 @@ def test_matches_exactextract(seed):
 def test_basin_with_hole_matches_exactextract():
     basin = cw.Basin.from_wkt(
         "POLYGON((-149.1 -34.2, -145.3 -34.6, -144.9 -30.8, -149.6 -31.1, -149.1 -34.2),"
-        "(-148.13 -33.07, -146.41 -33.3, -146.9 -31.77, -148.13 -33.07))", name="ring")
+        "(-148.13 -33.07, -146.41 -33.3, -146.9 -31.77, -148.13 -33.07))",
+        name="ring",
+    )
     grid = rect_grid(-35, -30, -150, -144, 0.25)
-    np.testing.assert_allclose(cw.coverage_weights(basin, grid).values,
-                               _exactextract_fractions(basin, grid), atol=1e-6)
+    np.testing.assert_allclose(cw.coverage_weights(basin, grid).values, _exactextract_fractions(basin, grid), atol=1e-6)
 
 
 def test_curvilinear_against_shapely_cell_polygons():
@@ -77,12 +84,15 @@ def test_curvilinear_against_shapely_cell_polygons():
     assert ((w > 0) & (w < 1)).any() and w.values.max() == 1.0
 
 
-@pytest.mark.parametrize("wkt", [
-    "POLYGON((-139.8 -25.6, -139.78 -25.6, -139.78 -25.58, -139.8 -25.58, -139.8 -25.6))",  # inside one cell
-    "POLYGON((-150 -40, -120 -40, -120 -10, -150 -10, -150 -40))",  # covers the whole grid
-    "POLYGON((-142.5 -28.6, -138.6 -28.9, -138.2 -24.9, -142.8 -25.3, -142.5 -28.6),"
-    "(-141.3 -27.4, -139.6 -27.7, -140.1 -26.0, -141.3 -27.4))",  # with a hole
-])
+@pytest.mark.parametrize(
+    "wkt",
+    [
+        "POLYGON((-139.8 -25.6, -139.78 -25.6, -139.78 -25.58, -139.8 -25.58, -139.8 -25.6))",  # inside one cell
+        "POLYGON((-150 -40, -120 -40, -120 -10, -150 -10, -150 -40))",  # covers the whole grid
+        "POLYGON((-142.5 -28.6, -138.6 -28.9, -138.2 -24.9, -142.8 -25.3, -142.5 -28.6),"
+        "(-141.3 -27.4, -139.6 -27.7, -140.1 -26.0, -141.3 -27.4))",  # with a hole
+    ],
+)
 def test_curvilinear_small_large_and_holed_basins(wkt):
     # Cells far from, next to and around the outline on the curvilinear path: each cell
     # matches its own polygon's shapely intersection.
@@ -100,14 +110,21 @@ def test_irregular_and_descending_grids():
     np.testing.assert_array_equal(flipped.values, w.values[::-1])
     # Cells with gaps between them (explicit bounds narrower than the spacing).
     gappy = grid.assign_coords(lat_lower=("lat", grid.lat.values - 0.2), lat_upper=("lat", grid.lat.values + 0.2))
-    np.testing.assert_allclose(cw.coverage_weights(basin, gappy).values,
-                               _shapely_cell_by_cell(basin, gappy), atol=1e-12)
+    np.testing.assert_allclose(
+        cw.coverage_weights(basin, gappy).values, _shapely_cell_by_cell(basin, gappy), atol=1e-12
+    )
     # Uneven spacing takes the fast path too.
-    uneven = xr.DataArray(np.zeros((6, 7)), dims=("lat", "lon"),
-                          coords={"lat": [-34.5, -34.0, -33.0, -32.5, -31.0, -30.5],
-                                  "lon": [-149.5, -148.8, -148.0, -147.0, -146.5, -145.0, -144.5]})
-    np.testing.assert_allclose(cw.coverage_weights(basin, uneven).values,
-                               _shapely_cell_by_cell(basin, uneven), atol=1e-12)
+    uneven = xr.DataArray(
+        np.zeros((6, 7)),
+        dims=("lat", "lon"),
+        coords={
+            "lat": [-34.5, -34.0, -33.0, -32.5, -31.0, -30.5],
+            "lon": [-149.5, -148.8, -148.0, -147.0, -146.5, -145.0, -144.5],
+        },
+    )
+    np.testing.assert_allclose(
+        cw.coverage_weights(basin, uneven).values, _shapely_cell_by_cell(basin, uneven), atol=1e-12
+    )
 
 
 def test_antimeridian_basin_on_global_grid():
@@ -118,8 +135,9 @@ def test_antimeridian_basin_on_global_grid():
     np.testing.assert_allclose(planar, 4.0 * 2.5, rtol=1e-12)
     assert float(w.sel(lon=179.5, lat=11.5)) == 1.0 and float(w.sel(lon=-178.5, lat=11.5)) == 1.0
     # A grid whose first cell straddles 180° (centre -180, edges -180.5..-179.5).
-    shifted = xr.DataArray(np.zeros((3, 360)), dims=("lat", "lon"),
-                           coords={"lat": [10.5, 11.5, 12.5], "lon": np.arange(-180.0, 180.0)})
+    shifted = xr.DataArray(
+        np.zeros((3, 360)), dims=("lat", "lon"), coords={"lat": [10.5, 11.5, 12.5], "lon": np.arange(-180.0, 180.0)}
+    )
     box = cw.Basin.from_vertices([(179.6, 10.0), (180.0, 10.0), (180.0, 13.0), (179.6, 13.0)])
     ws = cw.coverage_weights(box, shifted)
     np.testing.assert_allclose(ws.sel(lon=-180.0).values, 0.4, rtol=1e-12)
@@ -144,8 +162,13 @@ _GRID = rect_grid(-35, -30, -150, -144, 0.5)
 
 
 @settings(max_examples=40, deadline=None)
-@given(cx=st.floats(-152.0, -142.0), cy=st.floats(-37.0, -28.0), rmax=st.floats(0.2, 4.0),
-       n=st.integers(3, 30), seed=st.integers(0, 2**31))
+@given(
+    cx=st.floats(-152.0, -142.0),
+    cy=st.floats(-37.0, -28.0),
+    rmax=st.floats(0.2, 4.0),
+    n=st.integers(3, 30),
+    seed=st.integers(0, 2**31),
+)
 def test_property_weights_bounded_and_area_consistent(cx, cy, rmax, n, seed):
     verts = star_polygon(np.random.default_rng(seed), cx, cy, 0.1 * rmax, rmax, n=n)
     try:
@@ -183,8 +206,9 @@ def test_curvilinear_grid_and_basin_across_antimeridian():
     grid = grid.assign_coords(lon=((grid.lon + 180.0) % 360.0) - 180.0)
     moved = grid.assign_coords(lon=grid.lon - 10.0)
     moved = moved.assign_coords(lon=((moved.lon + 180.0) % 360.0) - 180.0)
-    np.testing.assert_allclose(cw.coverage_weights(crossing, grid).values,
-                               cw.coverage_weights(near, moved).values, atol=1e-9)
+    np.testing.assert_allclose(
+        cw.coverage_weights(crossing, grid).values, cw.coverage_weights(near, moved).values, atol=1e-9
+    )
 
 
 def test_whole_globe_and_polar_cap_cover_the_right_cells():

@@ -11,8 +11,7 @@ from ._grids import rect_grid, rotated_grid
 
 
 def test_bounds_inferred_from_centres():
-    g = xr.DataArray(np.zeros((3, 3)), dims=("lat", "lon"),
-                     coords={"lat": [-89.0, 0.0, 89.5], "lon": [0.0, 1.0, 3.0]})
+    g = xr.DataArray(np.zeros((3, 3)), dims=("lat", "lon"), coords={"lat": [-89.0, 0.0, 89.5], "lon": [0.0, 1.0, 3.0]})
     b = cell_bounds(g)
     assert b.kind == "rectilinear"
     # Midpoints between centres, edge cells extrapolated by half a step, lat clipped to ±90.
@@ -25,8 +24,9 @@ def test_bounds_inferred_from_centres():
 def test_curvilinear_corners_of_a_regular_mesh():
     g = rect_grid(10, 12, -20, -17, 0.5)
     lon2, lat2 = np.meshgrid(g.lon.values, g.lat.values)
-    c = xr.DataArray(np.zeros(lat2.shape), dims=("y", "x"),
-                     coords={"lat": (("y", "x"), lat2), "lon": (("y", "x"), lon2)})
+    c = xr.DataArray(
+        np.zeros(lat2.shape), dims=("y", "x"), coords={"lat": (("y", "x"), lat2), "lon": (("y", "x"), lon2)}
+    )
     b, r = cell_bounds(c), cell_bounds(g)
     assert b.kind == "curvilinear" and b.lon_corners.shape == lat2.shape + (4,)
     np.testing.assert_allclose(b.lon_corners.min(-1), np.broadcast_to(r.lon_lower, lat2.shape))
@@ -37,8 +37,7 @@ def test_curvilinear_corners_of_a_regular_mesh():
 def test_curvilinear_across_antimeridian_stays_continuous():
     lon = np.array([[178.5, 179.5, -179.5], [178.5, 179.5, -179.5]])
     lat = np.array([[0.5, 0.5, 0.5], [1.5, 1.5, 1.5]])
-    c = xr.DataArray(np.zeros((2, 3)), dims=("y", "x"),
-                     coords={"lat": (("y", "x"), lat), "lon": (("y", "x"), lon)})
+    c = xr.DataArray(np.zeros((2, 3)), dims=("y", "x"), coords={"lat": (("y", "x"), lat), "lon": (("y", "x"), lon)})
     b = cell_bounds(c)
     width = b.lon_corners.max(-1) - b.lon_corners.min(-1)
     np.testing.assert_allclose(width, 1.0)

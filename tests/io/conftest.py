@@ -6,9 +6,25 @@ import pytest
 import xarray as xr
 
 
-def write_cf(path, data=None, *, units="mm", freq="D", start="2001-01-01", periods=None, calendar="standard",
-             lat=(10.0, 10.5, 11.0), lon=(20.0, 20.5, 21.0, 21.5), name="pr", standard_name="precipitation_amount",
-             bounds=True, time_values=None, extra_attrs=None, encoding=None, engine_format="NETCDF4"):
+def write_cf(
+    path,
+    data=None,
+    *,
+    units="mm",
+    freq="D",
+    start="2001-01-01",
+    periods=None,
+    calendar="standard",
+    lat=(10.0, 10.5, 11.0),
+    lon=(20.0, 20.5, 21.0, 21.5),
+    name="pr",
+    standard_name="precipitation_amount",
+    bounds=True,
+    time_values=None,
+    extra_attrs=None,
+    encoding=None,
+    engine_format="NETCDF4",
+):
     """Write a small CF-style precipitation file and return its path."""
     lat, lon = np.asarray(lat, float), np.asarray(lon, float)
     if time_values is None:
@@ -27,7 +43,11 @@ def write_cf(path, data=None, *, units="mm", freq="D", start="2001-01-01", perio
     ds = xr.Dataset(
         {name: (("time", "lat", "lon"), np.asarray(data, float), attrs)},
         coords={
-            "time": ("time", time_num, {"units": "days since 1900-01-01", "calendar": calendar, "standard_name": "time"}),
+            "time": (
+                "time",
+                time_num,
+                {"units": "days since 1900-01-01", "calendar": calendar, "standard_name": "time"},
+            ),
             "lat": ("lat", lat, {"units": "degrees_north", "standard_name": "latitude"}),
             "lon": ("lon", lon, {"units": "degrees_east", "standard_name": "longitude"}),
         },

@@ -41,8 +41,14 @@ def test_matches_netcdf4_library(tmp_path, name):
 def test_packed_int16_with_scale_offset_and_fill(tmp_path):
     data = np.linspace(0, 300, 11 * 13 * 9).reshape(11, 13, 9)
     data[0, 0, :3] = np.nan
-    enc = {"dtype": "int16", "scale_factor": 0.01, "add_offset": 100.0, "_FillValue": -32767,
-           "zlib": True, "chunksizes": (4, 13, 9)}
+    enc = {
+        "dtype": "int16",
+        "scale_factor": 0.01,
+        "add_offset": 100.0,
+        "_FillValue": -32767,
+        "zlib": True,
+        "chunksizes": (4, 13, 9),
+    }
     path = _write(tmp_path / "p.nc", data, enc)
     expected, arr = _direct(path, (4, 13, 9))
     np.testing.assert_allclose(arr.compute(), expected, rtol=0, atol=1e-12, equal_nan=True)
@@ -97,11 +103,15 @@ def test_fletcher32_matches_hdf5_on_every_stored_chunk(tmp_path, monkeypatch, fa
         monkeypatch.setattr(chunkreader, "_FAST_FLETCHER32", [None])
 
     rng = np.random.default_rng(5)
-    for n, shape, chunks, dtype in ((0, (7, 5, 3), (3, 5, 3), "f4"), (1, (9, 7), (4, 3), "i2"),
-                                    (2, (6, 4), (5, 3), "u1"), (3, (700, 600), (700, 600), "f8")):
+    for n, shape, chunks, dtype in (
+        (0, (7, 5, 3), (3, 5, 3), "f4"),
+        (1, (9, 7), (4, 3), "i2"),
+        (2, (6, 4), (5, 3), "u1"),
+        (3, (700, 600), (700, 600), "f8"),
+    ):
         path = str(tmp_path / f"f{n}.nc")
         values = (rng.random(shape) * 100).astype(dtype)
-        values[:chunks[0]] = 0  # an all-zero chunk: HDF5's sums stay 0
+        values[: chunks[0]] = 0  # an all-zero chunk: HDF5's sums stay 0
         with h5py.File(path, "w") as f:
             f.create_dataset("v", data=values, chunks=chunks, fletcher32=True)
         index = chunkreader._build_index(path, "v")
@@ -119,7 +129,7 @@ def test_fletcher32_published_check_values():
     # big-endian, so the same words are fed here with each byte pair swapped.
     def swapped(text):
         b = text.encode() + (b"\0" if len(text) % 2 else b"")
-        return b"".join(b[i + 1:i + 2] + b[i:i + 1] for i in range(0, len(b), 2))
+        return b"".join(b[i + 1 : i + 2] + b[i : i + 1] for i in range(0, len(b), 2))
 
     assert chunkreader._fletcher32(swapped("abcde")) == 0xF04FC729
     assert chunkreader._fletcher32(swapped("abcdef")) == 0x56502D2A
@@ -190,11 +200,14 @@ def _netcdf4_values(path, varname="pr"):
         return v[...]
 
 
-@pytest.mark.parametrize("filters", [
-    {"fletcher32": True},
-    {"fletcher32": True, "compression": "gzip", "compression_opts": 1, "shuffle": True},
-    {"fletcher32": True, "shuffle": True},
-])
+@pytest.mark.parametrize(
+    "filters",
+    [
+        {"fletcher32": True},
+        {"fletcher32": True, "compression": "gzip", "compression_opts": 1, "shuffle": True},
+        {"fletcher32": True, "shuffle": True},
+    ],
+)
 def test_h5py_fletcher32_file_reads_as_netcdf4_and_a_flipped_byte_is_refused(tmp_path, filters):
     # Reference: the netCDF4 library (netCDF-C over HDF5) reads the clean file; HDF5 itself
     # verifies every chunk's Fletcher-32 sum there.

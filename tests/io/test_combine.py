@@ -13,10 +13,20 @@ LAT, LON = np.array([10.0, 11.0]), np.array([20.0, 21.0])
 
 def _part(path, start, periods=3, units="mm", calendar="standard", lat=LAT, encoding=None, value=1.0):
     time = pd.date_range(start, periods=periods, freq="D")
-    da = xr.DataArray(np.full((periods, lat.size, LON.size), value), dims=("time", "lat", "lon"),
-                      coords={"time": time, "lat": lat, "lon": LON})
-    info = {"path": path, "name": "pr", "attrs": {"units": units}, "calendar": calendar, "grid": (lat, LON),
-            "encoding": {"_FillValue": -1.0} if encoding is None else encoding, "time_bounds": None}
+    da = xr.DataArray(
+        np.full((periods, lat.size, LON.size), value),
+        dims=("time", "lat", "lon"),
+        coords={"time": time, "lat": lat, "lon": LON},
+    )
+    info = {
+        "path": path,
+        "name": "pr",
+        "attrs": {"units": units},
+        "calendar": calendar,
+        "grid": (lat, LON),
+        "encoding": {"_FillValue": -1.0} if encoding is None else encoding,
+        "time_bounds": None,
+    }
     return da, info
 
 
@@ -28,11 +38,14 @@ def test_files_are_joined_in_time_order_whatever_the_list_order():
     assert bounds is None and mask_fill is False and note is None
 
 
-@pytest.mark.parametrize("other, match", [
-    (dict(units="cm"), "units 'cm'"),
-    (dict(calendar="noleap"), "calendar 'noleap'"),
-    (dict(lat=np.array([10.0, 12.0])), "different grid"),
-])
+@pytest.mark.parametrize(
+    "other, match",
+    [
+        (dict(units="cm"), "units 'cm'"),
+        (dict(calendar="noleap"), "calendar 'noleap'"),
+        (dict(lat=np.array([10.0, 12.0])), "different grid"),
+    ],
+)
 def test_a_file_that_disagrees_is_named(other, match):
     parts = [_part("a.nc", "2001-01-01"), _part("b.nc", "2001-01-04", **other)]
     with pytest.raises(MismatchError, match=match) as err:

@@ -33,30 +33,41 @@ def test_bounds_to_edges_orders_each_pair():
 
 
 def test_find_coord_by_cf_attributes_then_by_name():
-    ds = xr.Dataset({"pr": (("t", "yy", "xx"), np.zeros((2, 2, 3)))},
-                    coords={"yy": ("yy", [1.0, 2.0], {"units": "degrees_north"}),
-                            "xx": ("xx", [1.0, 2.0, 3.0], {"standard_name": "longitude"}),
-                            "t": ("t", [0, 1], {"units": "days since 2000-01-01"})})
+    ds = xr.Dataset(
+        {"pr": (("t", "yy", "xx"), np.zeros((2, 2, 3)))},
+        coords={
+            "yy": ("yy", [1.0, 2.0], {"units": "degrees_north"}),
+            "xx": ("xx", [1.0, 2.0, 3.0], {"standard_name": "longitude"}),
+            "t": ("t", [0, 1], {"units": "days since 2000-01-01"}),
+        },
+    )
     assert grid.find_coord(ds, ds["pr"], "lat") == "yy"
     assert grid.find_coord(ds, ds["pr"], "lon") == "xx"
     assert grid.find_coord(ds, ds["pr"], "time") == "t"
-    plain = xr.Dataset({"pr": (("latitude", "longitude"), np.zeros((2, 2)))},
-                       coords={"latitude": [0.0, 1.0], "longitude": [0.0, 1.0]})
+    plain = xr.Dataset(
+        {"pr": (("latitude", "longitude"), np.zeros((2, 2)))}, coords={"latitude": [0.0, 1.0], "longitude": [0.0, 1.0]}
+    )
     assert grid.find_coord(plain, plain["pr"], "lat") == "latitude"
 
 
 def test_canonical_names_renames_without_changing_the_input():
-    da = xr.DataArray(np.zeros((2, 3)), dims=("latitude", "longitude"),
-                      coords={"latitude": ("latitude", [0.0, 1.0], {"standard_name": "latitude"}),
-                              "longitude": ("longitude", [0.0, 1.0, 2.0], {"standard_name": "longitude"})})
+    da = xr.DataArray(
+        np.zeros((2, 3)),
+        dims=("latitude", "longitude"),
+        coords={
+            "latitude": ("latitude", [0.0, 1.0], {"standard_name": "latitude"}),
+            "longitude": ("longitude", [0.0, 1.0, 2.0], {"standard_name": "longitude"}),
+        },
+    )
     out = grid.canonical_names(da)
     assert out.dims == ("lat", "lon")
     assert da.dims == ("latitude", "longitude")
 
 
 def test_normalise_rectilinear_sorts_wraps_and_attaches_bounds():
-    da = xr.DataArray(np.arange(6.0).reshape(2, 3), dims=("lat", "lon"),
-                      coords={"lat": [11.0, 10.0], "lon": [350.0, 355.0, 0.0]})
+    da = xr.DataArray(
+        np.arange(6.0).reshape(2, 3), dims=("lat", "lon"), coords={"lat": [11.0, 10.0], "lon": [350.0, 355.0, 0.0]}
+    )
     out = grid.normalise_rectilinear(da)
     np.testing.assert_array_equal(out.lat, [10.0, 11.0])
     # Hand arithmetic: 350, 355, 0 east are -10, -5, 0 in [-180, 180), 5-degree cells.
@@ -68,9 +79,14 @@ def test_normalise_rectilinear_sorts_wraps_and_attaches_bounds():
     assert out.attrs["cell_bounds"] == "inferred from cell centres"
 
 
-@pytest.mark.parametrize("lat, lon, match", [([0.0, 95.0], [0.0, 1.0], "outside -90..90"),
-                                             ([0.0], [0.0, 1.0], "single latitude"),
-                                             ([0.0, np.nan], [0.0, 1.0], "NaN")])
+@pytest.mark.parametrize(
+    "lat, lon, match",
+    [
+        ([0.0, 95.0], [0.0, 1.0], "outside -90..90"),
+        ([0.0], [0.0, 1.0], "single latitude"),
+        ([0.0, np.nan], [0.0, 1.0], "NaN"),
+    ],
+)
 def test_normalise_rectilinear_refuses_bad_coordinates(lat, lon, match):
     da = xr.DataArray(np.zeros((len(lat), len(lon))), dims=("lat", "lon"), coords={"lat": lat, "lon": lon})
     with pytest.raises(GridError, match=match):

@@ -16,7 +16,14 @@ import xarray as xr
 
 import climwidgets as cw
 from climwidgets.errors import (
-    CalendarError, DataValueError, GridError, MismatchError, SourceError, TimeAxisError, UnitsError, VariableError,
+    CalendarError,
+    DataValueError,
+    GridError,
+    MismatchError,
+    SourceError,
+    TimeAxisError,
+    UnitsError,
+    VariableError,
 )
 
 from .conftest import checksum, write_cf
@@ -36,11 +43,27 @@ def test_daily_flux_to_mm_per_day(tmp_path):
     assert checksum(path) == before  # the input is never modified
 
 
-@pytest.mark.parametrize("units,factor", [
-    ("mm", 1.0), ("mm/day", 1.0), ("mm d-1", 1.0), ("mm day-1", 1.0), ("mm/d", 1.0), ("mm/h", 24.0),
-    ("mm/s", DAY), ("cm", 10.0), ("m", 1000.0), ("m/s", 1000 * DAY), ("m/day", 1000.0), ("in", 25.4),
-    ("in/day", 25.4), ("kg m-2", 1.0), ("kg m-2 d-1", 1.0), ("kg m-2 s-1", DAY),
-])
+@pytest.mark.parametrize(
+    "units,factor",
+    [
+        ("mm", 1.0),
+        ("mm/day", 1.0),
+        ("mm d-1", 1.0),
+        ("mm day-1", 1.0),
+        ("mm/d", 1.0),
+        ("mm/h", 24.0),
+        ("mm/s", DAY),
+        ("cm", 10.0),
+        ("m", 1000.0),
+        ("m/s", 1000 * DAY),
+        ("m/day", 1000.0),
+        ("in", 25.4),
+        ("in/day", 25.4),
+        ("kg m-2", 1.0),
+        ("kg m-2 d-1", 1.0),
+        ("kg m-2 s-1", DAY),
+    ],
+)
 def test_every_unit_spelling_daily(tmp_path, units, factor):
     # 5 mm per day in every spelling (a plausible depth, so the depth bound does not apply)
     path = write_cf(tmp_path / "u.nc", np.full((4, 3, 4), 5.0 / factor), units=units, standard_name=None)
@@ -48,21 +71,48 @@ def test_every_unit_spelling_daily(tmp_path, units, factor):
     np.testing.assert_allclose(pr.values, 5.0, rtol=1e-12)
 
 
-@pytest.mark.parametrize("calendar,feb_days,year", [
-    ("noleap", 28, 2000), ("365_day", 28, 2000), ("all_leap", 29, 2001), ("366_day", 29, 2001), ("360_day", 30, 2001),
-    ("standard", 29, 2000), ("gregorian", 28, 2001), ("proleptic_gregorian", 29, 2000), ("julian", 29, 1900),
-])
+@pytest.mark.parametrize(
+    "calendar,feb_days,year",
+    [
+        ("noleap", 28, 2000),
+        ("365_day", 28, 2000),
+        ("all_leap", 29, 2001),
+        ("366_day", 29, 2001),
+        ("360_day", 30, 2001),
+        ("standard", 29, 2000),
+        ("gregorian", 28, 2001),
+        ("proleptic_gregorian", 29, 2000),
+        ("julian", 29, 1900),
+    ],
+)
 def test_monthly_mean_flux_uses_calendar_month_length(tmp_path, calendar, feb_days, year):
     # A constant 1e-4 kg m-2 s-1 monthly mean in February is feb_days x 8.64 mm.
-    path = write_cf(tmp_path / "m.nc", np.full((3, 3, 4), 1e-4), units="kg m-2 s-1", freq="MS",
-                    start=f"{year}-01-01", calendar=calendar, standard_name="precipitation_flux")
+    path = write_cf(
+        tmp_path / "m.nc",
+        np.full((3, 3, 4), 1e-4),
+        units="kg m-2 s-1",
+        freq="MS",
+        start=f"{year}-01-01",
+        calendar=calendar,
+        standard_name="precipitation_flux",
+    )
     pr = cw.open_precip(path)
     assert pr.attrs["step"] == "month"
     jan_days = 30 if calendar == "360_day" else 31
     np.testing.assert_allclose(pr.isel(time=0).values, jan_days * DAY * 1e-4, rtol=1e-12)
     np.testing.assert_allclose(pr.isel(time=1).values, feb_days * DAY * 1e-4, rtol=1e-12)
-    assert pr.attrs["calendar"] in (calendar, "standard", "gregorian", "proleptic_gregorian", "noleap", "all_leap",
-                                    "360_day", "julian", "365_day", "366_day")
+    assert pr.attrs["calendar"] in (
+        calendar,
+        "standard",
+        "gregorian",
+        "proleptic_gregorian",
+        "noleap",
+        "all_leap",
+        "360_day",
+        "julian",
+        "365_day",
+        "366_day",
+    )
 
 
 def test_monthly_labels_are_month_starts(tmp_path):
@@ -107,9 +157,12 @@ def test_curvilinear_grid_is_kept(tmp_path):
     lon2d = -30 + 0.1 * x[None, :] - 0.02 * y[:, None]
     ds = xr.Dataset(
         {"precip": (("time", "y", "x"), np.ones((6, 3, 4)), {"units": "mm/day", "coordinates": "lat lon"})},
-        coords={"time": ("time", np.arange(6.0), {"units": "days since 2000-01-01"}),
-                "lat": (("y", "x"), lat2d, {"units": "degrees_north", "standard_name": "latitude"}),
-                "lon": (("y", "x"), lon2d, {"units": "degrees_east", "standard_name": "longitude"})})
+        coords={
+            "time": ("time", np.arange(6.0), {"units": "days since 2000-01-01"}),
+            "lat": (("y", "x"), lat2d, {"units": "degrees_north", "standard_name": "latitude"}),
+            "lon": (("y", "x"), lon2d, {"units": "degrees_east", "standard_name": "longitude"}),
+        },
+    )
     path = tmp_path / "c.nc"
     ds.to_netcdf(path)
     pr = cw.open_precip(path)
@@ -151,9 +204,13 @@ def test_gap_in_time_is_filled_with_missing(tmp_path):
 
 
 def test_elevation_in_feet(tmp_path):
-    ds = xr.Dataset({"orog": (("lat", "lon"), np.full((3, 4), 1000.0), {"units": "ft", "standard_name": "surface_altitude"})},
-                    coords={"lat": ("lat", [1.0, 2.0, 3.0], {"units": "degrees_north"}),
-                            "lon": ("lon", [1.0, 2.0, 3.0, 4.0], {"units": "degrees_east"})})
+    ds = xr.Dataset(
+        {"orog": (("lat", "lon"), np.full((3, 4), 1000.0), {"units": "ft", "standard_name": "surface_altitude"})},
+        coords={
+            "lat": ("lat", [1.0, 2.0, 3.0], {"units": "degrees_north"}),
+            "lon": ("lon", [1.0, 2.0, 3.0, 4.0], {"units": "degrees_east"}),
+        },
+    )
     ds.to_netcdf(tmp_path / "e.nc")
     elev = cw.open_elevation(tmp_path / "e.nc")
     np.testing.assert_allclose(elev.values, 304.8)  # 1 ft = 0.3048 m exactly (international foot)
@@ -173,6 +230,7 @@ def test_small_negative_noise_is_clipped_large_negative_is_an_error(tmp_path):
 
 
 # ---------------------------------------------------------------- errors, message content
+
 
 def test_error_no_precipitation_variable_lists_candidates(tmp_path):
     path = write_cf(tmp_path / "t.nc", name="tas", units="K", standard_name="air_temperature")
@@ -212,8 +270,10 @@ def test_error_bad_time_order(tmp_path, t, word):
 
 
 def test_error_missing_lat_lon(tmp_path):
-    ds = xr.Dataset({"pr": (("time", "a", "b"), np.ones((3, 2, 2)), {"units": "mm"})},
-                    coords={"time": ("time", [0.0, 1, 2], {"units": "days since 2000-01-01"})})
+    ds = xr.Dataset(
+        {"pr": (("time", "a", "b"), np.ones((3, 2, 2)), {"units": "mm"})},
+        coords={"time": ("time", [0.0, 1, 2], {"units": "days since 2000-01-01"})},
+    )
     ds.to_netcdf(tmp_path / "nolat.nc")
     with pytest.raises(GridError, match="no latitude/longitude"):
         cw.open_precip(tmp_path / "nolat.nc")
@@ -266,12 +326,20 @@ def test_end_of_hour_stamps_with_bounds_are_relabelled_to_the_start(tmp_path):
     start = cftime.date2num(cftime.DatetimeGregorian(2001, 1, 31), "hours since 2001-01-01", "standard")
     ends = start + np.arange(1, 49, dtype=float)
     ds = xr.Dataset(
-        {"pr": (("time", "lat", "lon"), np.ones((48, 2, 2)), {"units": "mm", "standard_name": "precipitation_amount"}),
-         "time_bnds": (("time", "nv"), np.stack([ends - 1, ends], axis=1))},
-        coords={"time": ("time", ends, {"units": "hours since 2001-01-01", "calendar": "standard",
-                                         "bounds": "time_bnds"}),
-                "lat": ("lat", [1.0, 2.0], {"units": "degrees_north"}),
-                "lon": ("lon", [1.0, 2.0], {"units": "degrees_east"})})
+        {
+            "pr": (
+                ("time", "lat", "lon"),
+                np.ones((48, 2, 2)),
+                {"units": "mm", "standard_name": "precipitation_amount"},
+            ),
+            "time_bnds": (("time", "nv"), np.stack([ends - 1, ends], axis=1)),
+        },
+        coords={
+            "time": ("time", ends, {"units": "hours since 2001-01-01", "calendar": "standard", "bounds": "time_bnds"}),
+            "lat": ("lat", [1.0, 2.0], {"units": "degrees_north"}),
+            "lon": ("lon", [1.0, 2.0], {"units": "degrees_east"}),
+        },
+    )
     ds.to_netcdf(tmp_path / "h.nc")
     pr = cw.open_precip(tmp_path / "h.nc")
     assert pr.attrs["step"] == "hour" and "relabelled" in pr.attrs["time_labels"]
@@ -323,8 +391,9 @@ def test_default_depth_bound_is_above_the_world_records():
 def _with_undeclared_fill(tmp_path, name="d.nc", value=1e20):
     data = np.full((6, 3, 4), 2.0)
     data[4, 1, 2] = value  # missing stored as 1e20 while the file declares -9999
-    return write_cf(tmp_path / name, data, encoding={"pr": {"_FillValue": -9999.0, "zlib": True,
-                                                              "chunksizes": (2, 3, 4)}})
+    return write_cf(
+        tmp_path / name, data, encoding={"pr": {"_FillValue": -9999.0, "zlib": True, "chunksizes": (2, 3, 4)}}
+    )
 
 
 @pytest.mark.parametrize("validate", ["auto", False])
@@ -371,8 +440,11 @@ def test_depth_bound_is_checked_as_chunks_are_read_without_an_extra_pass(tmp_pat
 def test_depth_bound_holds_on_the_fused_climatology_path(tmp_path):
     data = np.full((730, 3, 4), 2.0)
     data[400, 0, 1] = 1e20
-    path = write_cf(tmp_path / "two_years.nc", data, encoding={"pr": {"_FillValue": -9999.0, "zlib": True,
-                                                                       "chunksizes": (73, 3, 4)}})
+    path = write_cf(
+        tmp_path / "two_years.nc",
+        data,
+        encoding={"pr": {"_FillValue": -9999.0, "zlib": True, "chunksizes": (73, 3, 4)}},
+    )
     pr = cw.open_precip(path, validate=False)
     with pytest.raises(DataValueError, match="above the plausible") as err:
         cw.climatology_bundle(pr).compute()

@@ -25,12 +25,16 @@ def _ds(times, data=None, *, units="kg m-2 s-1", names=("time", "lat", "lon"), t
     data = np.full((len(times), 3, 4), 1e-5) if data is None else data
     return xr.Dataset(
         {"precip": ((tn, yn, xn), data, {"units": units, "standard_name": "precipitation_flux", **(extra or {})})},
-        coords={tn: (tn, times, time_attrs or {}),
-                yn: (yn, lat, {"units": "degrees_north", "standard_name": "latitude"}),
-                xn: (xn, lon, {"units": "degrees_east", "standard_name": "longitude"})})
+        coords={
+            tn: (tn, times, time_attrs or {}),
+            yn: (yn, lat, {"units": "degrees_north", "standard_name": "latitude"}),
+            xn: (xn, lon, {"units": "degrees_east", "standard_name": "longitude"}),
+        },
+    )
 
 
 # ---- xr.Dataset and xr.DataArray sources
+
 
 @pytest.mark.parametrize("dasked", [False, True])
 def test_dataset_in_hand_gives_the_same_as_the_file(tmp_path, dasked):
@@ -74,10 +78,14 @@ def test_cf_detection_agrees_with_cf_xarray():
     assert find_coord(ds, da, "lon") == ds.cf["longitude"].name == "longitude"
     assert find_coord(ds, da, "time") == ds.cf["time"].name == "valid_time"
     # axis attributes only (no standard_name, no units on time)
-    ds2 = xr.Dataset({"rr": (("t", "y", "x"), np.ones((3, 2, 2)), {"units": "mm"})},
-                     coords={"t": ("t", times, {"axis": "T"}),
-                             "y": ("y", [1.0, 2.0], {"axis": "Y", "units": "degrees_north"}),
-                             "x": ("x", [1.0, 2.0], {"axis": "X", "units": "degrees_east"})})
+    ds2 = xr.Dataset(
+        {"rr": (("t", "y", "x"), np.ones((3, 2, 2)), {"units": "mm"})},
+        coords={
+            "t": ("t", times, {"axis": "T"}),
+            "y": ("y", [1.0, 2.0], {"axis": "Y", "units": "degrees_north"}),
+            "x": ("x", [1.0, 2.0], {"axis": "X", "units": "degrees_east"}),
+        },
+    )
     assert find_coord(ds2, ds2["rr"], "time") == ds2.cf.axes["T"][0] == "t"
     assert find_coord(ds2, ds2["rr"], "lat") == ds2.cf["latitude"].name == "y"
     pr = cw.open_precip(ds2)
@@ -94,13 +102,15 @@ def test_object_errors_name_the_object():
     bad = ds.assign_coords(time=ds.time.values[::-1])
     with pytest.raises(TimeAxisError, match="go backwards"):
         cw.open_precip(bad)
-    nogrid = xr.DataArray(np.ones((3, 2)), dims=("time", "station"), coords={"time": times}, name="pr",
-                          attrs={"units": "mm"})
+    nogrid = xr.DataArray(
+        np.ones((3, 2)), dims=("time", "station"), coords={"time": times}, name="pr", attrs={"units": "mm"}
+    )
     with pytest.raises(GridError, match="no latitude/longitude.*grid_mapping"):
         cw.open_precip(nogrid)
 
 
 # ---- ensemble members
+
 
 @pytest.mark.parametrize("dim", ["member", "realization", "ensemble", "model"])
 def test_member_dimension_is_kept_in_front(dim):
@@ -133,14 +143,19 @@ def test_member_file_opens_and_other_extra_dims_are_refused(tmp_path):
 
 # ---- monthly stamps at the end of each month (time = upper bound of time_bnds)
 
+
 def _monthly_end_stamped(tmp_path, with_bounds=True):
     starts = [cftime.DatetimeGregorian(1991, m, 1) for m in range(1, 13)] + [cftime.DatetimeGregorian(1992, 1, 1)]
     num = cftime.date2num(starts, "days since 1991-01-01", "standard")
     ends = num[1:]
-    ds = xr.Dataset({"pr": (("time", "lat", "lon"), np.full((12, 2, 2), 1.0), {"units": "mm/day"})},
-                    coords={"time": ("time", ends, {"units": "days since 1991-01-01", "calendar": "standard"}),
-                            "lat": ("lat", [1.0, 2.0], {"units": "degrees_north"}),
-                            "lon": ("lon", [1.0, 2.0], {"units": "degrees_east"})})
+    ds = xr.Dataset(
+        {"pr": (("time", "lat", "lon"), np.full((12, 2, 2), 1.0), {"units": "mm/day"})},
+        coords={
+            "time": ("time", ends, {"units": "days since 1991-01-01", "calendar": "standard"}),
+            "lat": ("lat", [1.0, 2.0], {"units": "degrees_north"}),
+            "lon": ("lon", [1.0, 2.0], {"units": "degrees_east"}),
+        },
+    )
     if with_bounds:
         ds["time_bnds"] = (("time", "nv"), np.stack([num[:-1], ends], axis=1))
         ds["time"].attrs["bounds"] = "time_bnds"
@@ -156,14 +171,14 @@ def test_end_of_month_stamps_with_bounds_are_relabelled(tmp_path):
     assert pr.attrs["step"] == "month" and "relabelled" in pr.attrs["time_labels"]
     assert str(pr.time.values[0])[:10] == "1991-01-01"  # the first year is kept
     # hand-computed: 1 mm/day over the Gregorian months of 1991
-    np.testing.assert_allclose(pr.isel(lat=0, lon=0).values,
-                               [31, 28, 31, 30, 31, 30, 31, 31, 30, 31, 30, 31])
+    np.testing.assert_allclose(pr.isel(lat=0, lon=0).values, [31, 28, 31, 30, 31, 30, 31, 31, 30, 31, 30, 31])
     annual = cw.annual_totals(pr)
     assert list(annual.year.values) == [1991] and float(annual.isel(year=0, lat=0, lon=0)) == 365.0
     assert checksum(path) == before
 
 
 # ---- any regular step
+
 
 @pytest.mark.parametrize("hours", [3, 6])
 def test_three_and_six_hourly_rates_are_exact(hours):
@@ -182,10 +197,14 @@ def test_six_hourly_accumulations_with_bounds_at_the_end(tmp_path):
     # 6-hour accumulations stamped at the end of each interval: 2001-01-31 06:00 .. 2001-02-02 00:00
     start = cftime.date2num(cftime.DatetimeGregorian(2001, 1, 31), "hours since 2001-01-01", "standard")
     ends = start + 6.0 * np.arange(1, 9)
-    ds = xr.Dataset({"tp": (("time", "lat", "lon"), np.full((8, 2, 2), 0.002), {"units": "m"})},
-                    coords={"time": ("time", ends, {"units": "hours since 2001-01-01", "bounds": "time_bnds"}),
-                            "lat": ("lat", [1.0, 2.0], {"units": "degrees_north"}),
-                            "lon": ("lon", [1.0, 2.0], {"units": "degrees_east"})})
+    ds = xr.Dataset(
+        {"tp": (("time", "lat", "lon"), np.full((8, 2, 2), 0.002), {"units": "m"})},
+        coords={
+            "time": ("time", ends, {"units": "hours since 2001-01-01", "bounds": "time_bnds"}),
+            "lat": ("lat", [1.0, 2.0], {"units": "degrees_north"}),
+            "lon": ("lon", [1.0, 2.0], {"units": "degrees_east"}),
+        },
+    )
     ds["time_bnds"] = (("time", "nv"), np.stack([ends - 6, ends], axis=1))
     ds.to_netcdf(tmp_path / "six.nc")
     pr = cw.open_precip(tmp_path / "six.nc")
@@ -219,10 +238,16 @@ def test_step_that_does_not_divide_a_day_is_refused():
 
 
 def test_elevation_from_a_dataarray_in_feet():
-    z = xr.DataArray(np.full((3, 4), 1000.0), dims=("latitude", "longitude"), name="orog",
-                     coords={"latitude": ("latitude", [10.0, 10.5, 11.0], {"standard_name": "latitude"}),
-                             "longitude": ("longitude", [20.0, 20.5, 21.0, 21.5], {"standard_name": "longitude"})},
-                     attrs={"units": "ft"})
+    z = xr.DataArray(
+        np.full((3, 4), 1000.0),
+        dims=("latitude", "longitude"),
+        name="orog",
+        coords={
+            "latitude": ("latitude", [10.0, 10.5, 11.0], {"standard_name": "latitude"}),
+            "longitude": ("longitude", [20.0, 20.5, 21.0, 21.5], {"standard_name": "longitude"}),
+        },
+        attrs={"units": "ft"},
+    )
     elev = cw.open_elevation(z)
     assert elev.dims == ("lat", "lon")
     np.testing.assert_allclose(elev.values, 304.8)  # international foot = 0.3048 m exactly
@@ -248,20 +273,32 @@ def test_unnamed_dask_dataarray_and_chunks_asked_for():
 
 def test_subhourly_stamps_off_the_step_grid_are_refused():
     times = pd.date_range("2001-01-01 00:10", periods=12, freq="30min")  # 00:10, 00:40, ...
-    with pytest.raises(TimeAxisError, match="the given Dataset.*30min stamps that are not whole multiples.*resample to hourly"):
+    with pytest.raises(
+        TimeAxisError, match="the given Dataset.*30min stamps that are not whole multiples.*resample to hourly"
+    ):
         cw.open_precip(_ds(times, np.ones((12, 3, 4)), units="mm"))
 
 
 def test_one_cell_object_needs_bounds_and_keeps_them_when_reopened():
     time = pd.date_range("2001-01-01", periods=4, freq="D")
-    bare = xr.DataArray(np.ones((4, 1, 1)), dims=("time", "lat", "lon"),
-                        coords={"time": time, "lat": [10.5], "lon": [-160.5]}, attrs={"units": "mm"}, name="pr")
+    bare = xr.DataArray(
+        np.ones((4, 1, 1)),
+        dims=("time", "lat", "lon"),
+        coords={"time": time, "lat": [10.5], "lon": [-160.5]},
+        attrs={"units": "mm"},
+        name="pr",
+    )
     with pytest.raises(cw.InputError, match="single latitude"):
         cw.open_precip(bare)
-    edged = bare.assign_coords(lat_lower=("lat", [10.0]), lat_upper=("lat", [11.0]),
-                               lon_lower=("lon", [-161.0]), lon_upper=("lon", [-160.0]))
+    edged = bare.assign_coords(
+        lat_lower=("lat", [10.0]), lat_upper=("lat", [11.0]), lon_lower=("lon", [-161.0]), lon_upper=("lon", [-160.0])
+    )
     pr = cw.open_precip(edged)
     again = cw.open_precip(pr)  # an opened one-cell grid opens again with its own bounds
     for p in (pr, again):
-        assert (p.lat_lower.item(), p.lat_upper.item(), p.lon_lower.item(), p.lon_upper.item()) == \
-            (10.0, 11.0, -161.0, -160.0)
+        assert (p.lat_lower.item(), p.lat_upper.item(), p.lon_lower.item(), p.lon_upper.item()) == (
+            10.0,
+            11.0,
+            -161.0,
+            -160.0,
+        )

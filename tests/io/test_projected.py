@@ -13,9 +13,15 @@ from climwidgets.geo.grid import cell_bounds
 from .conftest import checksum
 
 # Lambert conformal conic on open ocean (an invented product grid), spherical earth
-MAPPING = {"grid_mapping_name": "lambert_conformal_conic", "standard_parallel": [30.0, 60.0],
-           "longitude_of_central_meridian": -30.0, "latitude_of_projection_origin": 45.0,
-           "false_easting": 0.0, "false_northing": 0.0, "earth_radius": 6371229.0}
+MAPPING = {
+    "grid_mapping_name": "lambert_conformal_conic",
+    "standard_parallel": [30.0, 60.0],
+    "longitude_of_central_meridian": -30.0,
+    "latitude_of_projection_origin": 45.0,
+    "false_easting": 0.0,
+    "false_northing": 0.0,
+    "earth_radius": 6371229.0,
+}
 X = np.arange(-200.0, 201.0, 20.0)  # km, cell centres
 Y = np.arange(-160.0, 161.0, 20.0)
 
@@ -29,18 +35,23 @@ def _field(nt=4):
 def _projected_ds(with_latlon=False, with_mapping=True):
     times = pd.date_range("2001-01-01", periods=4, freq="D")
     attrs = {"units": "mm/day", **({"grid_mapping": "lambert"} if with_mapping else {})}
-    ds = xr.Dataset({"rr": (("time", "yc", "xc"), _field(), attrs)},
-                    coords={"time": times,
-                            "xc": ("xc", X, {"standard_name": "projection_x_coordinate", "units": "km"}),
-                            "yc": ("yc", Y, {"standard_name": "projection_y_coordinate", "units": "km"})})
+    ds = xr.Dataset(
+        {"rr": (("time", "yc", "xc"), _field(), attrs)},
+        coords={
+            "time": times,
+            "xc": ("xc", X, {"standard_name": "projection_x_coordinate", "units": "km"}),
+            "yc": ("yc", Y, {"standard_name": "projection_y_coordinate", "units": "km"}),
+        },
+    )
     if with_mapping:
         ds["lambert"] = ((), 0, MAPPING)
     if with_latlon:
         to_geo = Transformer.from_crs(CRS.from_cf(MAPPING), CRS.from_cf(MAPPING).geodetic_crs, always_xy=True)
         gx, gy = np.meshgrid(X * 1000.0, Y * 1000.0)
         lon, lat = to_geo.transform(gx, gy)
-        ds = ds.assign_coords(lat=(("yc", "xc"), lat, {"units": "degrees_north"}),
-                              lon=(("yc", "xc"), lon, {"units": "degrees_east"}))
+        ds = ds.assign_coords(
+            lat=(("yc", "xc"), lat, {"units": "degrees_north"}), lon=(("yc", "xc"), lon, {"units": "degrees_east"})
+        )
     return ds
 
 
@@ -85,8 +96,9 @@ def test_basin_mean_equals_the_same_grid_with_explicit_latlon():
     np.testing.assert_allclose(a.values, b.values, rtol=1e-12)
     # without the mapping the corners are inferred from the centres: the same to 1e-4
     np.testing.assert_allclose(a.values, c.values, rtol=1e-4)
-    np.testing.assert_allclose(cw.basin_volume(mapping_only, basin).values,
-                               cw.basin_volume(both, basin).values, rtol=1e-12)
+    np.testing.assert_allclose(
+        cw.basin_volume(mapping_only, basin).values, cw.basin_volume(both, basin).values, rtol=1e-12
+    )
 
 
 def test_bad_grid_mapping_and_units_are_explained():
@@ -118,8 +130,7 @@ def test_stored_projected_bounds_give_the_corners():
     # cell's lower-left quarter): the stored bounds, not the centres, define the corners
     x_edges, y_edges = np.append(X - 10.0, X[-1] + 10.0), np.append(Y - 10.0, Y[-1] + 10.0)
     x_edges[5] += 4.0  # one uneven edge
-    ds = _with_bounds(_projected_ds(), x_edges, y_edges,
-                      centre_x=0.5 * (x_edges[:-1] + x_edges[1:]) - 3.0)
+    ds = _with_bounds(_projected_ds(), x_edges, y_edges, centre_x=0.5 * (x_edges[:-1] + x_edges[1:]) - 3.0)
     pr = cw.open_precip(ds)
     b = cell_bounds(pr)
     crs = CRS.from_cf(MAPPING)

@@ -26,8 +26,9 @@ def memfs():
 def _dataset(tmp_path, n=6):
     import xarray as xr
 
-    path = write_cf(tmp_path / "src.nc", np.full((n, 3, 4), 2e-5), units="kg m-2 s-1",
-                    standard_name="precipitation_flux")
+    path = write_cf(
+        tmp_path / "src.nc", np.full((n, 3, 4), 2e-5), units="kg m-2 s-1", standard_name="precipitation_flux"
+    )
     return path, xr.open_dataset(path, decode_times=False).load()
 
 
@@ -105,8 +106,9 @@ def test_glob_in_memory_filesystem_combines_files(tmp_path, memfs):
 
 # Writing a Zarr v3 store needs zarr-python 3; with zarr 2 (allowed by the declared minimum)
 # only the v2 layout can be made here.
-_ZARR3 = pytest.mark.skipif(int(importlib.metadata.version("zarr").split(".")[0]) < 3,
-                            reason="zarr-python 2 cannot write a Zarr v3 store")
+_ZARR3 = pytest.mark.skipif(
+    int(importlib.metadata.version("zarr").split(".")[0]) < 3, reason="zarr-python 2 cannot write a Zarr v3 store"
+)
 
 
 @pytest.mark.parametrize("zarr_format", [2, pytest.param(3, marks=_ZARR3)])

@@ -29,10 +29,16 @@ def _classic(path, fmt, nrec=5):
     return path
 
 
-@pytest.mark.parametrize("text, url", [
-    ("https://example.invalid/data.nc", True), ("HTTP://example.invalid/x", True),
-    ("dap4://example.invalid/x", True), ("data/pr.nc", False), ("/tmp/https.nc", False),
-])
+@pytest.mark.parametrize(
+    "text, url",
+    [
+        ("https://example.invalid/data.nc", True),
+        ("HTTP://example.invalid/x", True),
+        ("dap4://example.invalid/x", True),
+        ("data/pr.nc", False),
+        ("/tmp/https.nc", False),
+    ],
+)
 def test_is_url(text, url):
     assert sources.is_url(text) is url
 
@@ -59,12 +65,15 @@ def test_resolve_paths_globs_and_lists(tmp_path):
     assert sources.resolve("https://example.invalid/x.nc") == ["https://example.invalid/x.nc"]
 
 
-@pytest.mark.parametrize("make, words", [
-    (lambda d: [], "empty list"),
-    (lambda d: str(d / "none_*.nc"), "matches no files"),
-    (lambda d: str(d / "missing.nc"), "does not exist"),
-    (lambda d: str(d), "is a folder but not a Zarr store"),
-])
+@pytest.mark.parametrize(
+    "make, words",
+    [
+        (lambda d: [], "empty list"),
+        (lambda d: str(d / "none_*.nc"), "matches no files"),
+        (lambda d: str(d / "missing.nc"), "does not exist"),
+        (lambda d: str(d), "is a folder but not a Zarr store"),
+    ],
+)
 def test_resolve_refuses_with_a_fix(tmp_path, make, words):
     with pytest.raises(SourceError, match=words) as info:
         sources.resolve(make(tmp_path))

@@ -18,8 +18,9 @@ from climwidgets.io import timeaxis
 
 
 def _months(calendar, start="2000-01-01", periods=24):
-    return xr.DataArray(xr.date_range(start, periods=periods, freq="MS", calendar=calendar, use_cftime=True),
-                        dims="time", name="time")
+    return xr.DataArray(
+        xr.date_range(start, periods=periods, freq="MS", calendar=calendar, use_cftime=True), dims="time", name="time"
+    )
 
 
 def _cftime_days_in_month(calendar, year, month):
@@ -37,8 +38,10 @@ def test_monthly_step_lengths_follow_the_calendar(calendar):
 
 
 def test_february_lengths_from_cf_conventions():
-    feb = {cal: timeaxis.step_seconds(_months(cal, "2001-02-01", 1), "month").item() / 86400
-           for cal in ("noleap", "all_leap", "360_day")}
+    feb = {
+        cal: timeaxis.step_seconds(_months(cal, "2001-02-01", 1), "month").item() / 86400
+        for cal in ("noleap", "all_leap", "360_day")
+    }
     assert feb == {"noleap": 28, "all_leap": 29, "360_day": 30}
 
 
@@ -50,16 +53,16 @@ def test_hour_and_day_steps_have_fixed_lengths():
 
 @pytest.mark.parametrize("freq, step", [("h", "hour"), ("D", "day"), ("MS", "month")])
 def test_infer_step_from_spacing(freq, step):
-    time = xr.DataArray(xr.date_range("2001-01-01", periods=40, freq=freq, calendar="noleap", use_cftime=True),
-                        dims="time")
+    time = xr.DataArray(
+        xr.date_range("2001-01-01", periods=40, freq=freq, calendar="noleap", use_cftime=True), dims="time"
+    )
     assert timeaxis.infer_step(time) == step
 
 
 def test_infer_step_prefers_bounds():
     # one monthly step whose bounds say how long it is
     time = xr.DataArray(pd.to_datetime(["2001-01-16"]), dims="time")
-    bounds = xr.DataArray(pd.to_datetime(["2001-01-01", "2001-02-01"]).values.reshape(1, 2),
-                          dims=("time", "nv"))
+    bounds = xr.DataArray(pd.to_datetime(["2001-01-01", "2001-02-01"]).values.reshape(1, 2), dims=("time", "nv"))
     assert timeaxis.infer_step(time, bounds) == "month"
 
 
@@ -99,12 +102,16 @@ def test_month_starts_keep_the_calendar():
     starts = timeaxis.month_starts(mid).values
     assert [(t.year, t.month, t.day, t.calendar) for t in starts] == [(2001, m, 1, "360_day") for m in (1, 2, 3)]
     numpy_mid = xr.DataArray(pd.to_datetime(["2001-02-15", "2001-03-31"]), dims="time")
-    assert timeaxis.month_starts(numpy_mid).values.tolist() == pd.to_datetime(["2001-02-01", "2001-03-01"]).values.tolist()
+    assert (
+        timeaxis.month_starts(numpy_mid).values.tolist() == pd.to_datetime(["2001-02-01", "2001-03-01"]).values.tolist()
+    )
 
 
 def test_full_axis_has_the_calendar_year_length():
-    first_last = xr.DataArray([cftime.datetime(2001, 1, 1, calendar="360_day"),
-                               cftime.datetime(2001, 12, 30, calendar="360_day")], dims="time")
+    first_last = xr.DataArray(
+        [cftime.datetime(2001, 1, 1, calendar="360_day"), cftime.datetime(2001, 12, 30, calendar="360_day")],
+        dims="time",
+    )
     assert len(timeaxis.full_axis(first_last, "day")) == 360
     leap = xr.DataArray(pd.to_datetime(["2000-01-01", "2000-12-31"]), dims="time")
     assert len(timeaxis.full_axis(leap, "day")) == 366  # 2000 is a Gregorian leap year

@@ -14,16 +14,43 @@ WATER = ureg.Quantity(1000.0, "kg/m**3")
 
 # our spelling -> (kind, pint expression of one unit)
 DEPTHS = {
-    "mm": "mm", "millimeters": "mm", "cm": "cm", "m": "m", "meters": "m", "in": "inch",
-    "inches": "inch", "kg m-2": "kg/m**2", "kg/m2": "kg/m**2", "kg m^-2": "kg/m**2", "1e-3 m": "1e-3*m",
+    "mm": "mm",
+    "millimeters": "mm",
+    "cm": "cm",
+    "m": "m",
+    "meters": "m",
+    "in": "inch",
+    "inches": "inch",
+    "kg m-2": "kg/m**2",
+    "kg/m2": "kg/m**2",
+    "kg m^-2": "kg/m**2",
+    "1e-3 m": "1e-3*m",
 }
 RATES = {
-    "kg m-2 s-1": "kg/m**2/s", "kg/m2/s": "kg/m**2/s", "kg m^-2 s^-1": "kg/m**2/s", "kg.m-2.s-1": "kg/m**2/s",
-    "kg m-2 d-1": "kg/m**2/day", "kg m-2 day-1": "kg/m**2/day",
-    "mm/s": "mm/s", "mm s-1": "mm/s", "mm/h": "mm/hour", "mm h-1": "mm/hour", "mm hr-1": "mm/hour",
-    "mm/hr": "mm/hour", "mm/day": "mm/day", "mm d-1": "mm/day", "mm day-1": "mm/day", "mm/d": "mm/day",
-    "millimeters per day": "mm/day", "m/s": "m/s", "m s-1": "m/s", "m/day": "m/day", "m d-1": "m/day",
-    "in/day": "inch/day", "in d-1": "inch/day", "cm/day": "cm/day",
+    "kg m-2 s-1": "kg/m**2/s",
+    "kg/m2/s": "kg/m**2/s",
+    "kg m^-2 s^-1": "kg/m**2/s",
+    "kg.m-2.s-1": "kg/m**2/s",
+    "kg m-2 d-1": "kg/m**2/day",
+    "kg m-2 day-1": "kg/m**2/day",
+    "mm/s": "mm/s",
+    "mm s-1": "mm/s",
+    "mm/h": "mm/hour",
+    "mm h-1": "mm/hour",
+    "mm hr-1": "mm/hour",
+    "mm/hr": "mm/hour",
+    "mm/day": "mm/day",
+    "mm d-1": "mm/day",
+    "mm day-1": "mm/day",
+    "mm/d": "mm/day",
+    "millimeters per day": "mm/day",
+    "m/s": "m/s",
+    "m s-1": "m/s",
+    "m/day": "m/day",
+    "m d-1": "m/day",
+    "in/day": "inch/day",
+    "in d-1": "inch/day",
+    "cm/day": "cm/day",
 }
 
 
@@ -63,11 +90,19 @@ def test_inch_is_exactly_25_4_mm():
 def test_cf_canonical_units_of_precipitation_standard_names_parse():
     # Canonical units from the CF standard name table (from memory): fluxes kg m-2 s-1,
     # amounts kg m-2, lwe thickness m, lwe rate m s-1.
-    canonical = {"precipitation_flux": "kg m-2 s-1", "precipitation_amount": "kg m-2",
-                 "lwe_thickness_of_precipitation_amount": "m", "lwe_precipitation_rate": "m s-1"}
+    canonical = {
+        "precipitation_flux": "kg m-2 s-1",
+        "precipitation_amount": "kg m-2",
+        "lwe_thickness_of_precipitation_amount": "m",
+        "lwe_precipitation_rate": "m s-1",
+    }
     kinds = {name: parse_units(u).kind for name, u in canonical.items()}
-    assert kinds == {"precipitation_flux": "rate", "precipitation_amount": "depth",
-                     "lwe_thickness_of_precipitation_amount": "depth", "lwe_precipitation_rate": "rate"}
+    assert kinds == {
+        "precipitation_flux": "rate",
+        "precipitation_amount": "depth",
+        "lwe_thickness_of_precipitation_amount": "depth",
+        "lwe_precipitation_rate": "rate",
+    }
 
 
 def test_per_month_is_flagged():
@@ -97,8 +132,10 @@ def test_elevation_length_units():
 
 # SI prefixes are case-sensitive (SI Brochure, 9th edition, 2019, section 3 and table 7):
 # M is mega (1e6), m is milli (1e-3); checked against pint, which follows the same table.
-@pytest.mark.parametrize("text,expr", {"Mm/day": "megametre/day", "um/s": "micrometre/second",
-                                       "dam": "decametre", "Gg m-2": "gigagram/metre**2"}.items())
+@pytest.mark.parametrize(
+    "text,expr",
+    {"Mm/day": "megametre/day", "um/s": "micrometre/second", "dam": "decametre", "Gg m-2": "gigagram/metre**2"}.items(),
+)
 def test_si_prefixes_are_case_sensitive_and_match_pint(text, expr):
     assert parse_units(text).to_mm == pytest.approx(_pint_mm(expr), rel=1e-12)
 
@@ -111,9 +148,14 @@ def test_words_are_read_in_any_case():
     assert parse_units("Millimeters per Day").to_mm == parse_units("mm/day").to_mm
 
 
-@pytest.mark.parametrize("bad,says", [("Kg m-2 s-1", "'K' in 'Kg' is not an SI prefix"),
-                                      ("Qm", "'Q' in 'Qm' is not an SI prefix"),
-                                      ("MM/DAY", "case-sensitive; write 'mm'")])
+@pytest.mark.parametrize(
+    "bad,says",
+    [
+        ("Kg m-2 s-1", "'K' in 'Kg' is not an SI prefix"),
+        ("Qm", "'Q' in 'Qm' is not an SI prefix"),
+        ("MM/DAY", "case-sensitive; write 'mm'"),
+    ],
+)
 def test_unknown_prefix_or_wrong_case_is_refused(bad, says):
     with pytest.raises(UnitsError, match=re.escape(says)) as err:
         parse_units(bad, source="f.nc", variable="pr")

@@ -38,10 +38,14 @@ def test_design_depth_chart_one_panel_per_basin_one_line_per_period():
 
     durations, periods, basins = [1, 2, 3], [2, 10, 100], ["A", "B"]
     est = np.array([[[10.0 * d * np.log(t) + b for b in range(2)] for t in periods] for d in durations])
-    ds = xr.Dataset({v: (("duration", "period", "basin"), est * f, {"units": "mm"})
-                     for v, f in (("estimate", 1.0), ("lower", 0.8), ("upper", 1.2))},
-                    coords={"duration": durations, "period": periods, "basin": basins},
-                    attrs={"duration_units": "days"})
+    ds = xr.Dataset(
+        {
+            v: (("duration", "period", "basin"), est * f, {"units": "mm"})
+            for v, f in (("estimate", 1.0), ("lower", 0.8), ("upper", 1.2))
+        },
+        coords={"duration": durations, "period": periods, "basin": basins},
+        attrs={"duration_units": "days"},
+    )
     fig = design_depth_chart(ds, period=10, ci=0.9)
     axes = fig.axes
     assert [a.get_title() for a in axes] == basins
@@ -50,5 +54,5 @@ def test_design_depth_chart_one_panel_per_basin_one_line_per_period():
     np.testing.assert_allclose(lines[2].get_ydata(), est[:, 2, 1])  # basin B, 100 years
     assert axes[0].get_xlabel() == "storm duration [days]" and axes[0].get_ylabel() == "depth [mm]"
     assert axes[0].get_xscale() == "linear"  # depth against duration, not a log return-period axis
-    warm = design_depth_chart(ds, period=10, warming=(2.0, 7.0, 1.07 ** 2))
-    np.testing.assert_allclose(warm.axes[0].get_lines()[2].get_ydata(), est[:, 1, 0] * 1.07 ** 2)
+    warm = design_depth_chart(ds, period=10, warming=(2.0, 7.0, 1.07**2))
+    np.testing.assert_allclose(warm.axes[0].get_lines()[2].get_ydata(), est[:, 1, 0] * 1.07**2)

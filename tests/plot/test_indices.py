@@ -10,10 +10,15 @@ def _table():
     years = np.arange(2001, 2006)
     per_year = np.array([[10.0, 11.0, 12.0, 13.0, 14.0], [5.0, 5.0, 6.0, 5.0, 5.0]])
     return xr.Dataset(
-        {"index_per_year": (("basin", "year"), per_year, {"units": "d", "display_units": "days"}),
-         "index_slope": ("basin", [1.0, np.nan]), "index_intercept": ("basin", [-1990.0, np.nan]),
-         "index_pvalue": ("basin", [0.01, np.nan])},
-        coords={"basin": ["upper", "lower"], "year": years}, attrs={"index": "R10mm"})
+        {
+            "index_per_year": (("basin", "year"), per_year, {"units": "d", "display_units": "days"}),
+            "index_slope": ("basin", [1.0, np.nan]),
+            "index_intercept": ("basin", [-1990.0, np.nan]),
+            "index_pvalue": ("basin", [0.01, np.nan]),
+        },
+        coords={"basin": ["upper", "lower"], "year": years},
+        attrs={"index": "R10mm"},
+    )
 
 
 def test_dots_per_basin_and_a_dashed_sen_line_where_the_slope_is_known():

@@ -22,17 +22,24 @@ def _field(units="mm", lat0=10.0, lon0=-30.0, n=(4, 5), value=None):
     lat = lat0 + np.arange(n[0]) + 0.5
     lon = lon0 + np.arange(n[1]) + 0.5
     data = np.arange(n[0] * n[1], dtype=float).reshape(n) if value is None else np.full(n, value)
-    return xr.DataArray(data, dims=("lat", "lon"), coords={"lat": lat, "lon": lon}, name="total",
-                        attrs={"units": units, "long_name": "annual total"})
+    return xr.DataArray(
+        data,
+        dims=("lat", "lon"),
+        coords={"lat": lat, "lon": lon},
+        name="total",
+        attrs={"units": units, "long_name": "annual total"},
+    )
 
 
 @pytest.mark.parametrize(
     "lon, lat, expected",
-    [((-30, -20), (10, 20), ccrs.PlateCarree),
-     ((-179, 179), (-80, 80), ccrs.Robinson),
-     ((0, 90), (62, 88), ccrs.NorthPolarStereo),
-     ((0, 90), (-88, -62), ccrs.SouthPolarStereo),
-     ((-120, -60), (20, 55), ccrs.LambertConformal)],
+    [
+        ((-30, -20), (10, 20), ccrs.PlateCarree),
+        ((-179, 179), (-80, 80), ccrs.Robinson),
+        ((0, 90), (62, 88), ccrs.NorthPolarStereo),
+        ((0, 90), (-88, -62), ccrs.SouthPolarStereo),
+        ((-120, -60), (20, 55), ccrs.LambertConformal),
+    ],
 )
 def test_projection_rule(lon, lat, expected):
     assert isinstance(maps.choose_projection(np.array(lon), np.array(lat)), expected)
@@ -145,10 +152,18 @@ def test_a_share_is_drawn_in_the_units_of_the_tables():
 
     from climwidgets.plot.maps import as_shown, draw_field
 
-    share = xr.DataArray(np.array([[0.1, 0.2], [0.3, 0.4]]), dims=("lat", "lon"),
-                         coords={"lat": [0.5, 1.5], "lon": [0.5, 1.5]},
-                         attrs={"units": "1", "label": "seasonal share Jul-Aug", "display_units": "%",
-                                "display_scale": 100.0, "display_format": ".1f"})
+    share = xr.DataArray(
+        np.array([[0.1, 0.2], [0.3, 0.4]]),
+        dims=("lat", "lon"),
+        coords={"lat": [0.5, 1.5], "lon": [0.5, 1.5]},
+        attrs={
+            "units": "1",
+            "label": "seasonal share Jul-Aug",
+            "display_units": "%",
+            "display_scale": 100.0,
+            "display_format": ".1f",
+        },
+    )
     shown, vmin, vmax, label = as_shown(share, 0.0, None, None)
     np.testing.assert_allclose(shown.values, 100 * share.values)
     assert (vmin, vmax, label) == (0.0, None, "seasonal share Jul-Aug [%]")
@@ -191,9 +206,21 @@ def _square_geojson(path, w=-29.0, s=11.0, e=-28.0, n=12.0):
     import json
 
     ring = [[w, s], [e, s], [e, n], [w, n], [w, s]]
-    path.write_text(json.dumps({"type": "FeatureCollection", "features": [
-        {"type": "Feature", "properties": {"name": "square"}, "geometry": {"type": "Polygon", "coordinates": [ring]}},
-        {"type": "Feature", "properties": {}, "geometry": {"type": "Point", "coordinates": [w, s]}}]}))
+    path.write_text(
+        json.dumps(
+            {
+                "type": "FeatureCollection",
+                "features": [
+                    {
+                        "type": "Feature",
+                        "properties": {"name": "square"},
+                        "geometry": {"type": "Polygon", "coordinates": [ring]},
+                    },
+                    {"type": "Feature", "properties": {}, "geometry": {"type": "Point", "coordinates": [w, s]}},
+                ],
+            }
+        )
+    )
     return np.array(ring)
 
 
@@ -241,8 +268,12 @@ def test_land_mask_outline_follows_the_coast():
     centres lies on the block's cell edges (hand-computed: half-way between land and sea centres)."""
     height = np.zeros((6, 6))
     height[2:4, 1:3] = 300.0
-    terrain = xr.DataArray(height, dims=("lat", "lon"),
-                           coords={"lat": 10.5 + np.arange(6), "lon": -30.5 + np.arange(6)}, attrs={"units": "m"})
+    terrain = xr.DataArray(
+        height,
+        dims=("lat", "lon"),
+        coords={"lat": 10.5 + np.arange(6), "lon": -30.5 + np.arange(6)},
+        attrs={"units": "m"},
+    )
     mask = maps.land_mask(terrain)
     assert mask.dtype == bool and int(mask.sum()) == 4 and mask.attrs["outline_source"] == "terrain above 0 m"
     ax = Figure().add_subplot(1, 1, 1, projection=ccrs.PlateCarree())
@@ -253,8 +284,12 @@ def test_land_mask_outline_follows_the_coast():
     assert xy[:, 0].min() == pytest.approx(-30.0) and xy[:, 0].max() == pytest.approx(-28.0)
     assert xy[:, 1].min() == pytest.approx(12.0) and xy[:, 1].max() == pytest.approx(14.0)
     # a mask given as such (CF land_binary_mask, 0/1) is used as it is
-    flags = xr.DataArray((height > 0).astype("int8"), dims=terrain.dims, coords=terrain.coords,
-                         attrs={"standard_name": "land_binary_mask"})
+    flags = xr.DataArray(
+        (height > 0).astype("int8"),
+        dims=terrain.dims,
+        coords=terrain.coords,
+        attrs={"standard_name": "land_binary_mask"},
+    )
     assert (maps.land_mask(flags).values == mask.values).all()
 
 
@@ -265,11 +300,17 @@ def test_land_mask_of_the_demo_file_is_its_mask_variable(tmp_path):
 
     lat = np.array([35.0, 35.5])
     lon = np.array([-148.0, -147.5, -147.0])
-    ds = xr.Dataset({"elevation": (("lat", "lon"), np.array([[0.0, 10.0, 0.0], [0.0, 0.0, 0.0]]), {"units": "m"}),
-                     "land": (("lat", "lon"), np.array([[0, 1, 1], [0, 0, 0]], dtype="int8"),
-                              {"standard_name": "land_binary_mask"})},
-                    coords={"lat": ("lat", lat, {"units": "degrees_north"}),
-                            "lon": ("lon", lon, {"units": "degrees_east"})})
+    ds = xr.Dataset(
+        {
+            "elevation": (("lat", "lon"), np.array([[0.0, 10.0, 0.0], [0.0, 0.0, 0.0]]), {"units": "m"}),
+            "land": (
+                ("lat", "lon"),
+                np.array([[0, 1, 1], [0, 0, 0]], dtype="int8"),
+                {"standard_name": "land_binary_mask"},
+            ),
+        },
+        coords={"lat": ("lat", lat, {"units": "degrees_north"}), "lon": ("lon", lon, {"units": "degrees_east"})},
+    )
     path = tmp_path / "terrain.nc"
     ds.to_netcdf(path)
     elevation = cw.open_elevation(path, var="elevation")

@@ -23,13 +23,19 @@ def _pr(path=None):
     time = pd.date_range("2001-01-01", "2006-12-01", freq="MS")
     lat, lon = 10.25 + 0.5 * np.arange(4), -30.25 + 0.5 * np.arange(4)
     data = 50 + 30 * rng.random((time.size, lat.size, lon.size))
-    return xr.DataArray(data, dims=("time", "lat", "lon"), coords={"time": time, "lat": lat, "lon": lon},
-                        name="pr", attrs={"units": "mm", "step": "month", "sources": path or "",
-                                          "history": "opened for a test"})
+    return xr.DataArray(
+        data,
+        dims=("time", "lat", "lon"),
+        coords={"time": time, "lat": lat, "lon": lon},
+        name="pr",
+        attrs={"units": "mm", "step": "month", "sources": path or "", "history": "opened for a test"},
+    )
 
 
-BASINS = [cw.Basin.from_vertices([(-30.5, 10.0), (-29.5, 10.0), (-29.5, 11.0), (-30.5, 11.0)], name="west"),
-          cw.Basin.from_vertices([(-29.5, 10.5), (-28.5, 10.5), (-28.5, 12.0), (-29.5, 12.0)], name="east")]
+BASINS = [
+    cw.Basin.from_vertices([(-30.5, 10.0), (-29.5, 10.0), (-29.5, 11.0), (-30.5, 11.0)], name="west"),
+    cw.Basin.from_vertices([(-29.5, 10.5), (-28.5, 10.5), (-28.5, 12.0), (-29.5, 12.0)], name="east"),
+]
 
 
 @pytest.fixture(scope="module")
@@ -50,8 +56,10 @@ def test_sections_come_from_the_analysis(built):
     assert list(content.monthly_normals.index) == list(range(1, 13))
     assert set(content.share_by_year.columns) == {"west", "east"}
     label = season_label((7, 8))
-    assert list(content.maps) == ["Annual normal precipitation 2001–2006",
-                                  f"Seasonal share ({label}) of the annual total, all complete years"]
+    assert list(content.maps) == [
+        "Annual normal precipitation 2001–2006",
+        f"Seasonal share ({label}) of the annual total, all complete years",
+    ]
     assert content.parameters["normal period (baseline)"] == "2001–2006"
     assert content.parameters["basins"] == 2
     what = cw.what_if(pr, BASINS, months=(7, 8), percent=-10.0).compute()

@@ -53,8 +53,12 @@ def test_share_figure_in_percent_with_sen_line_and_mean():
 
 def test_map_figure_draws_the_field():
     pytest.importorskip("cartopy")
-    field = xr.DataArray(np.arange(6.0).reshape(2, 3), dims=("lat", "lon"),
-                         coords={"lat": [0.5, 1.5], "lon": [10.5, 11.5, 12.5]}, attrs={"units": "mm"})
+    field = xr.DataArray(
+        np.arange(6.0).reshape(2, 3),
+        dims=("lat", "lon"),
+        coords={"lat": [0.5, 1.5], "lon": [10.5, 11.5, 12.5]},
+        attrs={"units": "mm"},
+    )
     basin = Basin.from_vertices([(10.0, 0.0), (11.0, 0.0), (11.0, 1.0)], name="a $ b")
     fig = figs.map_figure(field.expand_dims(member=1), basins=[basin])
     meshes = [c for ax in fig.axes for c in ax.collections if hasattr(c, "get_array") and c.get_array() is not None]

@@ -29,8 +29,13 @@ def _precip():
     lat = np.arange(10.125, 11.0, 0.25)
     lon = np.arange(-150.125, -149.0, 0.25)
     values = np.broadcast_to(MONTHLY[t.month.values - 1][:, None, None], (t.size, lat.size, lon.size)).copy()
-    da = xr.DataArray(values, dims=("time", "lat", "lon"), coords={"time": t, "lat": lat, "lon": lon},
-                      name="pr", attrs={"units": "mm", "step": "month", "history": "synthetic field for a test"})
+    da = xr.DataArray(
+        values,
+        dims=("time", "lat", "lon"),
+        coords={"time": t, "lat": lat, "lon": lon},
+        name="pr",
+        attrs={"units": "mm", "step": "month", "history": "synthetic field for a test"},
+    )
     return normalise_rectilinear(da)
 
 
@@ -39,11 +44,21 @@ def report(tmp_path_factory):
     folder = tmp_path_factory.mktemp("report")
     src = folder / "grid.nc"
     src.write_bytes(b"stand-in for the input grid")
-    basins = [cw.Basin.from_vertices([(-150.1, 10.1), (-149.6, 10.15), (-149.55, 10.6), (-150.05, 10.7)], name=EVIL),
-              cw.Basin.from_vertices([(-149.5, 10.3), (-149.1, 10.3), (-149.1, 10.85), (-149.5, 10.8)],
-                                     name="Ridge & Vale \"east\" $x$")]
-    content = build_report_content(_precip(), basins, months=(7, 8), baseline=(1991, 2000), sources=[src],
-                                   scenario_percent=-10, title="Water plan <b>draft</b>")
+    basins = [
+        cw.Basin.from_vertices([(-150.1, 10.1), (-149.6, 10.15), (-149.55, 10.6), (-150.05, 10.7)], name=EVIL),
+        cw.Basin.from_vertices(
+            [(-149.5, 10.3), (-149.1, 10.3), (-149.1, 10.85), (-149.5, 10.8)], name='Ridge & Vale "east" $x$'
+        ),
+    ]
+    content = build_report_content(
+        _precip(),
+        basins,
+        months=(7, 8),
+        baseline=(1991, 2000),
+        sources=[src],
+        scenario_percent=-10,
+        title="Water plan <b>draft</b>",
+    )
     path = write_report(content, folder / "report.html")
     return content, path, path.read_text(encoding="utf-8")
 
@@ -97,19 +112,24 @@ def test_nothing_is_fetched_from_outside(report):
 
 def test_print_layout(report):
     _, _, text = report
-    css = text[text.index("@media print"):]
+    css = text[text.index("@media print") :]
     assert "break-before: page" in css and "page-break-before: always" in css
     assert re.search(r"table, figure[^{]*\{[^}]*break-inside: avoid", css)
 
 
 def test_table_alone_and_overrides(tmp_path):
-    table = pd.DataFrame({"basin": [EVIL, "b"], "area_km2": [10.0, 20.0], "annual_mean_mm": [900.0, 1200.0],
-                          "volume_per_year_m3": [9e6, 2.4e7]}).set_index("basin")
+    table = pd.DataFrame(
+        {
+            "basin": [EVIL, "b"],
+            "area_km2": [10.0, 20.0],
+            "annual_mean_mm": [900.0, 1200.0],
+            "volume_per_year_m3": [9e6, 2.4e7],
+        }
+    ).set_index("basin")
     table.attrs.update(months=[7, 8], baseline=[1991, 2020])
     grid = tmp_path / "grid.nc"
     grid.write_bytes(b"abc")
-    path = write_report(table, tmp_path / "t.html", title="Summary", inputs=[grid],
-                        parameters={"analyst": "<i>me</i>"})
+    path = write_report(table, tmp_path / "t.html", title="Summary", inputs=[grid], parameters={"analyst": "<i>me</i>"})
     text = path.read_text()
     assert "<script" not in text.lower() and "&lt;i&gt;me&lt;/i&gt;" in text
     # SHA-256 of "abc": the FIPS 180-2 example message (NIST), value from memory
@@ -139,22 +159,34 @@ def test_refuses_overwrite_and_keeps_old_file_on_failure(tmp_path, monkeypatch):
 
 # ----------------------------------------------------------------- real browser
 CHROMIUM = "/usr/bin/chromium"
-ARGS = ["--headless", "--no-sandbox", "--disable-gpu", "--disable-quic", "--no-first-run",
-        "--disable-background-networking", "--disable-component-update", "--disable-sync"]
+ARGS = [
+    "--headless",
+    "--no-sandbox",
+    "--disable-gpu",
+    "--disable-quic",
+    "--no-first-run",
+    "--disable-background-networking",
+    "--disable-component-update",
+    "--disable-sync",
+]
 
 
 @pytest.mark.browser
 def test_opens_in_headless_chromium_without_errors_or_requests(report, tmp_path):
     if not os.path.exists(CHROMIUM) and os.environ.get("CI") != "true":
         pytest.skip("Debian chromium is not installed (runs in CI)")
-    sync_api = pytest.importorskip("playwright.sync_api") if os.environ.get("CI") != "true" \
+    sync_api = (
+        pytest.importorskip("playwright.sync_api")
+        if os.environ.get("CI") != "true"
         else __import__("playwright.sync_api", fromlist=["sync_playwright"])
+    )
     _, path, _ = report
     errors, requests, dialogs = [], [], []
     user_dir = tempfile.mkdtemp(dir=tmp_path)
     with sync_api.sync_playwright() as p:
-        ctx = p.chromium.launch_persistent_context(user_dir, executable_path=CHROMIUM, args=ARGS, headless=True,
-                                                   viewport={"width": 1000, "height": 800})
+        ctx = p.chromium.launch_persistent_context(
+            user_dir, executable_path=CHROMIUM, args=ARGS, headless=True, viewport={"width": 1000, "height": 800}
+        )
         try:
             page = ctx.new_page()
             page.on("console", lambda m: errors.append(m.text) if m.type == "error" else None)

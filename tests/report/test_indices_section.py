@@ -28,8 +28,9 @@ def _tables():
     pr = _daily(years=(1991, 2010))
     ind = gridded_indices(pr, names=("PRCPTOT", "CDD"))
     table = basin_index_table(ind, [BASIN], "PRCPTOT").compute()
-    ddf = cw.depth_duration_frequency(pr, durations=(1, 2, 3), periods=(2, 10, 100), basins=[BASIN],
-                                      n_boot=100).compute()
+    ddf = cw.depth_duration_frequency(
+        pr, durations=(1, 2, 3), periods=(2, 10, 100), basins=[BASIN], n_boot=100
+    ).compute()
     return table, ddf
 
 
@@ -57,7 +58,7 @@ def test_sections_show_units_formats_and_cautions(tmp_path):
     content = ReportContent(table=pd.DataFrame({"area_km2": [1.0]}, index=pd.Index(["a"], name="basin")))
     content.extra_sections = (html, body)
     page = render_html(content, figures=False)
-    assert page.index("id=\"indices\"") < page.index("id=\"ddf\"") < page.index("id=\"cautions\"")
+    assert page.index('id="indices"') < page.index('id="ddf"') < page.index('id="cautions"')
 
 
 def test_ddf_in_inches_and_csv_files(tmp_path):

@@ -29,18 +29,25 @@ LON = np.array([-150.25, -149.75])
 def _precip(kind="daily", calendar="standard", chunks=None):
     rng = np.random.default_rng(1)
     if kind == "daily":
-        t = xr.date_range("1991-01-01", "1991-12-31", freq="D", calendar=calendar,
-                          use_cftime=calendar != "standard")
+        t = xr.date_range("1991-01-01", "1991-12-31", freq="D", calendar=calendar, use_cftime=calendar != "standard")
         step = "day"
     else:
-        t = xr.date_range("1991-01-01", periods=36, freq="MS", calendar=calendar,
-                          use_cftime=calendar != "standard")
+        t = xr.date_range("1991-01-01", periods=36, freq="MS", calendar=calendar, use_cftime=calendar != "standard")
         step = "month"
-    da = xr.DataArray(rng.gamma(0.6, 5.0, (t.size, LAT.size, LON.size)), dims=("time", "lat", "lon"),
-                      coords={"time": t, "lat": LAT, "lon": LON}, name="pr",
-                      attrs={"units": "mm", "step": step, "standard_name": "lwe_thickness_of_precipitation_amount",
-                             "cell_methods": "time: sum", "long_name": "precipitation depth per time step",
-                             "history": "2001-01-01T00:00:00Z made by hand for a test"})
+    da = xr.DataArray(
+        rng.gamma(0.6, 5.0, (t.size, LAT.size, LON.size)),
+        dims=("time", "lat", "lon"),
+        coords={"time": t, "lat": LAT, "lon": LON},
+        name="pr",
+        attrs={
+            "units": "mm",
+            "step": step,
+            "standard_name": "lwe_thickness_of_precipitation_amount",
+            "cell_methods": "time: sum",
+            "long_name": "precipitation depth per time step",
+            "history": "2001-01-01T00:00:00Z made by hand for a test",
+        },
+    )
     da = normalise_rectilinear(da)
     return da.chunk(chunks) if chunks else da
 
@@ -58,8 +65,11 @@ def _cf_errors(path, version="cf:1.10"):
     finally:
         ds.close()
     assert not crashes, crashes  # a check that raised is a failure too
-    return [(r.name, r.msgs) for r in results
-            if r.weight == BaseCheck.HIGH and isinstance(r.value, tuple) and r.value[0] < r.value[1]]
+    return [
+        (r.name, r.msgs)
+        for r in results
+        if r.weight == BaseCheck.HIGH and isinstance(r.value, tuple) and r.value[0] < r.value[1]
+    ]
 
 
 # ----------------------------------------------------------------- CF checker
@@ -98,9 +108,13 @@ def test_per_year_share_and_return_levels_pass_cf_checker(tmp_path):
     per_year = cw.seasonal_fraction(_precip("monthly"), months=(7, 8), per_year=True)
     p1 = to_netcdf(per_year, tmp_path / "share_year.nc")
     rng = np.random.default_rng(2)
-    am = xr.DataArray(rng.gumbel(50, 10, (30, LAT.size, LON.size)), dims=("year", "lat", "lon"),
-                      coords={"year": np.arange(1991, 2021), "lat": LAT, "lon": LON},
-                      attrs={"units": "mm"}, name="annual_max")
+    am = xr.DataArray(
+        rng.gumbel(50, 10, (30, LAT.size, LON.size)),
+        dims=("year", "lat", "lon"),
+        coords={"year": np.arange(1991, 2021), "lat": LAT, "lon": LON},
+        attrs={"units": "mm"},
+        name="annual_max",
+    )
     rl = cw.return_levels(am, periods=(2, 10, 100), n_boot=60)
     p2 = to_netcdf(rl, tmp_path / "return_levels.nc")
     assert _cf_errors(p1) == []
@@ -120,10 +134,17 @@ def test_per_year_share_and_return_levels_pass_cf_checker(tmp_path):
 def test_curvilinear_grid_has_auxiliary_coordinates(tmp_path):
     t = pd.date_range("2001-01-01", periods=24, freq="MS")
     yy, xx = np.meshgrid(np.arange(4), np.arange(5), indexing="ij")
-    da = xr.DataArray(np.ones((24, 4, 5)), dims=("time", "y", "x"),
-                      coords={"time": t, "lat": (("y", "x"), 20 + 0.5 * yy + 0.1 * xx),
-                              "lon": (("y", "x"), -140 + 0.5 * xx - 0.1 * yy)},
-                      name="pr", attrs={"units": "mm", "step": "month"})
+    da = xr.DataArray(
+        np.ones((24, 4, 5)),
+        dims=("time", "y", "x"),
+        coords={
+            "time": t,
+            "lat": (("y", "x"), 20 + 0.5 * yy + 0.1 * xx),
+            "lon": (("y", "x"), -140 + 0.5 * xx - 0.1 * yy),
+        },
+        name="pr",
+        attrs={"units": "mm", "step": "month"},
+    )
     path = to_netcdf(da, tmp_path / "curv.nc")
     assert _cf_errors(path) == []
     with netCDF4.Dataset(path) as nc:
@@ -168,8 +189,14 @@ def test_dask_input_is_written_and_not_modified(tmp_path):
 
 def test_attributes_are_made_serialisable(tmp_path):
     da = _precip("monthly")
-    da.attrs.update(flag=True, settings={"months": [7, 8]}, nothing=None, years=[1991, 2020],
-                    notes=("first", "second"), mixed=[1, "a"])
+    da.attrs.update(
+        flag=True,
+        settings={"months": [7, 8]},
+        nothing=None,
+        years=[1991, 2020],
+        notes=("first", "second"),
+        mixed=[1, "a"],
+    )
     path = to_netcdf(da, tmp_path / "pr.nc", source="test grid", institution="test team")
     with netCDF4.Dataset(path) as nc:
         v = nc["pr"]

@@ -30,8 +30,25 @@ def demo(tmp_path_factory):
 
 def test_page_and_command_line_reports_hold_the_same_sections(demo, tmp_path):
     out = tmp_path / "cli"
-    assert main(["--quiet", "summary", "--data", str(demo["monthly"]), "--basins", str(demo["basins"]),
-                 "--out", str(out), "--what-if", "-10", "--what-if-months", "7,8"]) == 0
+    assert (
+        main(
+            [
+                "--quiet",
+                "summary",
+                "--data",
+                str(demo["monthly"]),
+                "--basins",
+                str(demo["basins"]),
+                "--out",
+                str(out),
+                "--what-if",
+                "-10",
+                "--what-if-months",
+                "7,8",
+            ]
+        )
+        == 0
+    )
     cli_html = (out / "basin_report.html").read_text(encoding="utf-8")
 
     pr = cw.open_precip(demo["monthly"])
@@ -57,5 +74,6 @@ def test_page_and_command_line_reports_hold_the_same_sections(demo, tmp_path):
         assert "No input files were recorded" not in html
     # the same basin figures in both (the table is formatted by the one catalogue)
     cells = re.compile(r"<td[^>]*>([^<]+)</td>")
-    assert cells.findall(page_html.split('id="basins"')[1].split("</section>")[0]) == \
-        cells.findall(cli_html.split('id="basins"')[1].split("</section>")[0])
+    assert cells.findall(page_html.split('id="basins"')[1].split("</section>")[0]) == cells.findall(
+        cli_html.split('id="basins"')[1].split("</section>")[0]
+    )

@@ -9,12 +9,19 @@ from climwidgets.report.scenario_section import scenario_section
 def _signals():
     from climwidgets.analyses.meta import describe, ensemble_attrs
 
-    share = describe(xr.DataArray([[0.01, 0.03]], dims=("basin", "member"),
-                                  coords={"basin": ["north <b>"], "member": ["a", "b"]}), "share_change_1")
+    share = describe(
+        xr.DataArray([[0.01, 0.03]], dims=("basin", "member"), coords={"basin": ["north <b>"], "member": ["a", "b"]}),
+        "share_change_1",
+    )
     ds = xr.Dataset({"share_change_1": share})
     ds["share_change_1_mean"] = share.mean("member").assign_attrs(ensemble_attrs(share.attrs, "mean"))
-    ds.attrs = {"member_dim": "member", "cautions": list(SCENARIO_CAUTIONS), "historical_period": [1981, 2010],
-                "future_period": [2041, 2070], "months": [7, 8]}
+    ds.attrs = {
+        "member_dim": "member",
+        "cautions": list(SCENARIO_CAUTIONS),
+        "historical_period": [1981, 2010],
+        "future_period": [2041, 2070],
+        "months": [7, 8],
+    }
     return ds
 
 
@@ -33,8 +40,9 @@ def test_report_page_has_cautions_inputs_and_parameters(tmp_path):
 
     src = tmp_path / "hist.nc"
     src.write_bytes(b"not really netcdf")
-    path = write_scenario_report(_signals(), tmp_path / "scenario_report.html", inputs=[src],
-                                 parameters={"season": "Jul-Aug", "method": "none"})
+    path = write_scenario_report(
+        _signals(), tmp_path / "scenario_report.html", inputs=[src], parameters={"season": "Jul-Aug", "method": "none"}
+    )
     page = path.read_text(encoding="utf-8")
     assert page.startswith("<!DOCTYPE html>") and "<script" not in page
     assert page.index(SCENARIO_CAUTIONS[0][:30]) < page.index("+2.0")

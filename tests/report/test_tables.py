@@ -14,9 +14,15 @@ from climwidgets.report.tables import csv_files, metadata_path, read_csv, read_m
 
 
 def _summary():
-    t = pd.DataFrame({"basin": ["Upper Fern", "Lower Fern"], "area_km2": [120.5, 88.25],
-                      "annual_mean_mm": [1450.0, 980.5], "seasonal_share_1": [0.31, 0.27],
-                      "volume_per_year_m3": [1.747e8, 8.653e7]}).set_index("basin")
+    t = pd.DataFrame(
+        {
+            "basin": ["Upper Fern", "Lower Fern"],
+            "area_km2": [120.5, 88.25],
+            "annual_mean_mm": [1450.0, 980.5],
+            "seasonal_share_1": [0.31, 0.27],
+            "volume_per_year_m3": [1.747e8, 8.653e7],
+        }
+    ).set_index("basin")
     t.attrs.update(months=[7, 8], baseline=[1991, 2020], note="planning-level figures from gridded data")
     return t
 
@@ -34,8 +40,7 @@ def _header(path):
 def test_header_then_table_round_trips(tmp_path):
     grid = tmp_path / "grid.nc"
     grid.write_bytes(b"abc")
-    path = to_csv(_summary(), tmp_path / "summary.csv",
-                  provenance={"inputs": [grid], "parameters": {"year_start": 10}})
+    path = to_csv(_summary(), tmp_path / "summary.csv", provenance={"inputs": [grid], "parameters": {"year_start": 10}})
     head = _header(path)
     assert head[0].startswith(f"# climwidgets {cw.__version__}")
     assert head[1].startswith("# written: ")
@@ -117,7 +122,7 @@ def test_plain_pandas_reads_it_and_every_setting_is_in_the_metadata(tmp_path):
 
 # Payloads from OWASP "CSV Injection" (owasp.org/www-community/attacks/CSV_Injection): cells
 # starting with = + - @ tab or carriage return are run as formulas by spreadsheets.
-_PAYLOADS = ["=HYPERLINK(\"http://x\",\"y\")", "+1-1", "@SUM(1+1)", "-2+3", "\t=1", "\r=1"]
+_PAYLOADS = ['=HYPERLINK("http://x","y")', "+1-1", "@SUM(1+1)", "-2+3", "\t=1", "\r=1"]
 
 
 def test_formula_guard_on_every_cell_index_level_and_header(tmp_path):

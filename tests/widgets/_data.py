@@ -17,18 +17,29 @@ def monthly_pr(years=(2001, 2012), ny=6, nx=8, seed=0, dask=False):
     base = 50 + 30 * rng.random((time.size, ny, nx))
     summer = np.isin(month, (7, 8))[:, None, None] * (40 + 10 * (ny - np.arange(ny)))[None, :, None]
     data = base + summer
-    pr = xr.DataArray(data, dims=("time", "lat", "lon"), coords={"time": time, "lat": lat, "lon": lon},
-                      name="pr", attrs={"units": "mm", "step": "month", "long_name": "precipitation",
-                                        "standard_name": "lwe_thickness_of_precipitation_amount",
-                                        "cell_methods": "time: sum"})
+    pr = xr.DataArray(
+        data,
+        dims=("time", "lat", "lon"),
+        coords={"time": time, "lat": lat, "lon": lon},
+        name="pr",
+        attrs={
+            "units": "mm",
+            "step": "month",
+            "long_name": "precipitation",
+            "standard_name": "lwe_thickness_of_precipitation_amount",
+            "cell_methods": "time: sum",
+        },
+    )
     return pr.chunk({"time": 48}) if dask else pr
 
 
 def basins():
     from climwidgets.geo.basin import Basin
 
-    return [Basin.from_vertices([(-30.0, 10.2), (-28.6, 10.2), (-28.6, 11.4), (-30.0, 11.4)], name="South"),
-            Basin.from_vertices([(-29.5, 11.6), (-27.4, 11.6), (-27.9, 12.9)], name="North")]
+    return [
+        Basin.from_vertices([(-30.0, 10.2), (-28.6, 10.2), (-28.6, 11.4), (-30.0, 11.4)], name="South"),
+        Basin.from_vertices([(-29.5, 11.6), (-27.4, 11.6), (-27.9, 12.9)], name="North"),
+    ]
 
 
 def click(frame, lon, lat, dblclick=False, name="button_press_event"):
@@ -84,8 +95,9 @@ def check_every_export(w):
                     nidx = len(meta["index"])
                     shown = w.table.select_dtypes("number")
                     back = table.iloc[:, nidx:][[str(c) for c in shown.columns]]
-                    np.testing.assert_allclose(back.to_numpy(dtype=float), shown.to_numpy(dtype=float),
-                                               rtol=1e-12, equal_nan=True)
+                    np.testing.assert_allclose(
+                        back.to_numpy(dtype=float), shown.to_numpy(dtype=float), rtol=1e-12, equal_nan=True
+                    )
             elif name.endswith(".png"):
                 assert data[:4] == b"\x89PNG"
             elif name.endswith(".html"):

@@ -23,8 +23,13 @@ def _pr(years=(2001, 2012), seed=1):
     lat = np.arange(10.125, 11.0, 0.25)
     lon = np.arange(-30.125, -28.9, 0.25)
     data = rng.gamma(2.0, 30.0, size=(time.size, lat.size, lon.size))
-    return xr.DataArray(data, coords={"time": time, "lat": lat, "lon": lon}, dims=("time", "lat", "lon"),
-                        name="pr", attrs={"units": "mm", "step": "month"})
+    return xr.DataArray(
+        data,
+        coords={"time": time, "lat": lat, "lon": lon},
+        dims=("time", "lat", "lon"),
+        name="pr",
+        attrs={"units": "mm", "step": "month"},
+    )
 
 
 BASE = (2002, 2011)  # inside the complete water years of the record
@@ -97,8 +102,9 @@ def test_time_step_redraws_without_recomputing(setup):
     gen = w._gen
     w.step.value = "2005-03"
     assert w._gen == gen  # no new computation
-    np.testing.assert_allclose(np.asarray(w.map.mesh.get_array()).reshape(w.result.shape[1:]),
-                               w.result.sel(time="2005-03-01").values)
+    np.testing.assert_allclose(
+        np.asarray(w.map.mesh.get_array()).reshape(w.result.shape[1:]), w.result.sel(time="2005-03-01").values
+    )
     assert w.map.cbar.ax.get_ylabel().endswith("[%]")
     lo, hi = w.map.mesh.get_clim()
     assert lo + hi == pytest.approx(200.0)  # centred on 100 % of normal
@@ -175,8 +181,9 @@ def test_typed_baseline_years_compute_once(setup):
     w.baseline_first.value = 2003
     assert w.baseline.value == (2003, 2011) and w._gen == gen + 1
     w.wait()
-    xr.testing.assert_allclose(w.result, cw.anomaly(pr, baseline=(2003, 2011), kind=w.kind.value,
-                                                    period=w.period.value))
+    xr.testing.assert_allclose(
+        w.result, cw.anomaly(pr, baseline=(2003, 2011), kind=w.kind.value, period=w.period.value)
+    )
     w.baseline.value = BASE
     assert (w.baseline_first.value, w.baseline_last.value) == BASE and w._gen == gen + 2
     w.wait()

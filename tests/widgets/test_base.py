@@ -95,8 +95,9 @@ class _Checked(_Totals):
 
     def parameters(self):
         if self.year_start.value == 12:
-            raise ParameterError("year_start 12 is refused here", source="test", variable="year_start",
-                                 fix="choose another month")
+            raise ParameterError(
+                "year_start 12 is refused here", source="test", variable="year_start", fix="choose another month"
+            )
         return super().parameters()
 
 
@@ -141,7 +142,8 @@ def test_csv_export_is_written_and_never_overwrites(tmp_path):
     day = date.today().strftime("%Y%m%d")
     name = f"climwidgets_{day}.csv"
     assert sorted(p.name for p in tmp_path.iterdir()) == sorted(
-        [name, name + "-metadata.json", f"climwidgets_{day}-2.csv", f"climwidgets_{day}-2.csv-metadata.json"])
+        [name, name + "-metadata.json", f"climwidgets_{day}-2.csv", f"climwidgets_{day}-2.csv-metadata.json"]
+    )
     assert "to download" in w.message.value and str(tmp_path) in w.message.value
     assert unique_path(tmp_path, name).name == f"climwidgets_{day}-3.csv"
 
@@ -186,8 +188,10 @@ def test_units_menu_shows_the_table_in_us_customary_without_computing():
     class _Described(_Totals):
         def render(self, result, params):
             self.rendered.append(params["year_start"])
-            table = pd.DataFrame({"annual_mean_mm": [254.0, 508.0], "seasonal_share_1": [0.25, 0.5]},
-                                 index=pd.Index(["a", "b"], name="basin"))
+            table = pd.DataFrame(
+                {"annual_mean_mm": [254.0, 508.0], "seasonal_share_1": [0.25, 0.5]},
+                index=pd.Index(["a", "b"], name="basin"),
+            )
             self.show_table(display_frame(table))
 
     w = _Described(monthly_pr())

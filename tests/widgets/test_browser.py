@@ -28,8 +28,16 @@ CHROMIUM = "/usr/bin/chromium"
 IN_CI = os.environ.get("CI", "").lower() == "true"
 NOTEBOOK = Path(__file__).with_name("browser_seasonal.ipynb")
 REPO = Path(__file__).resolve().parents[2]
-CHROMIUM_ARGS = ["--headless", "--no-sandbox", "--disable-gpu", "--disable-quic", "--no-first-run",
-                 "--disable-background-networking", "--disable-component-update", "--disable-sync"]
+CHROMIUM_ARGS = [
+    "--headless",
+    "--no-sandbox",
+    "--disable-gpu",
+    "--disable-quic",
+    "--no-first-run",
+    "--disable-background-networking",
+    "--disable-component-update",
+    "--disable-sync",
+]
 
 if not IN_CI and not os.path.exists(CHROMIUM):
     pytest.skip("Chromium is not installed (the test runs in CI)", allow_module_level=True)
@@ -89,8 +97,12 @@ def page(server, tmp_path):
 
     with sync_playwright() as p:
         context = p.chromium.launch_persistent_context(
-            str(tmp_path / "chromium-profile"), executable_path=CHROMIUM, headless=True, args=CHROMIUM_ARGS,
-            viewport={"width": 1400, "height": 1600})
+            str(tmp_path / "chromium-profile"),
+            executable_path=CHROMIUM,
+            headless=True,
+            args=CHROMIUM_ARGS,
+            viewport={"width": 1400, "height": 1600},
+        )
         pg = context.new_page()
         pg.set_default_timeout(180_000)
         pg.requested = []  # every address the page asked for
@@ -185,8 +197,7 @@ def test_every_export_button_downloads_in_the_browser(page, server, demo, tmp_pa
     basin = cw.Basin.from_geojson(paths["basins"])[0]
     share = float(cw.seasonal_fraction(cw.basin_mean(pr, basin), months=(7, 8)))
     page.goto(server, timeout=180_000)
-    page.wait_for_function(f"() => ({_ROW_TEXT})([{basin.name!r}, 1]) === {_share_text(share)!r}",
-                           timeout=180_000)
+    page.wait_for_function(f"() => ({_ROW_TEXT})([{basin.name!r}, 1]) === {_share_text(share)!r}", timeout=180_000)
     buttons = page.locator("button:has(i.fa-download)")
     labels = [t.strip() for t in buttons.all_inner_texts()]
     assert {"Table as CSV", "Map as PNG", "Per-year shares as CSV"} <= set(labels)
@@ -198,8 +209,11 @@ def test_every_export_button_downloads_in_the_browser(page, server, demo, tmp_pa
         page.wait_for_function(
             "(n) => document.querySelectorAll('a.cw-download').length > 0 && "
             "[...document.querySelectorAll('a.cw-download')].every(a => a.download.includes(n))",
-            arg={"Table as CSV": "seasonal_share_", "Map as PNG": ".png",
-                 "Per-year shares as CSV": "per_year"}.get(label, ""), timeout=60_000)
+            arg={"Table as CSV": "seasonal_share_", "Map as PNG": ".png", "Per-year shares as CSV": "per_year"}.get(
+                label, ""
+            ),
+            timeout=60_000,
+        )
         for j in range(links.count()):
             with page.expect_download(timeout=60_000) as info:
                 links.nth(j).click()

@@ -95,8 +95,12 @@ def test_the_tour_as_a_planner_sees_it(tour, tmp_path):
     shots.mkdir(parents=True, exist_ok=True)
     with sync_playwright() as p:
         context = p.chromium.launch_persistent_context(
-            str(tmp_path / "profile"), executable_path=CHROMIUM, headless=True, args=CHROMIUM_ARGS,
-            viewport={"width": 1400, "height": 2200})
+            str(tmp_path / "profile"),
+            executable_path=CHROMIUM,
+            headless=True,
+            args=CHROMIUM_ARGS,
+            viewport={"width": 1400, "height": 2200},
+        )
         page = context.new_page()
         page.set_default_timeout(300_000)
         requested, errors = [], []
@@ -107,10 +111,14 @@ def test_the_tour_as_a_planner_sees_it(tour, tmp_path):
             page.goto(tour, timeout=300_000)
             # every widget has drawn its table and no computation is still running
             n_widgets = TOUR.read_text().count("Widget(")
-            page.wait_for_function(f"() => document.querySelectorAll('table.cw-table').length >= {n_widgets}",
-                                   timeout=600_000)
-            page.wait_for_function("() => [...document.querySelectorAll('.widget-progress')]"
-                                   ".every(e => getComputedStyle(e).visibility === 'hidden')", timeout=600_000)
+            page.wait_for_function(
+                f"() => document.querySelectorAll('table.cw-table').length >= {n_widgets}", timeout=600_000
+            )
+            page.wait_for_function(
+                "() => [...document.querySelectorAll('.widget-progress')]"
+                ".every(e => getComputedStyle(e).visibility === 'hidden')",
+                timeout=600_000,
+            )
             assert not [u for u in requested if not u.startswith(LOOPBACK)]
             assert errors == [], errors
             assert page.evaluate(_OVERFLOW) == []

@@ -21,19 +21,34 @@ def _product(res, calendar="standard", factor=1.0, seed=0, years=(2001, 2006)):
     rng = np.random.default_rng(seed)
     lat = np.arange(-5.0 + res / 2, -3.0, res)
     lon = np.arange(60.0 + res / 2, 62.0, res)
-    time = xr.date_range(f"{years[0]}-01-01", periods=12 * (years[1] - years[0] + 1), freq="MS",
-                         calendar=calendar, use_cftime=calendar != "standard")
+    time = xr.date_range(
+        f"{years[0]}-01-01",
+        periods=12 * (years[1] - years[0] + 1),
+        freq="MS",
+        calendar=calendar,
+        use_cftime=calendar != "standard",
+    )
     data = factor * rng.gamma(3.0, 25.0, size=(time.size, lat.size, lon.size))
-    return xr.DataArray(data, coords={"time": time, "lat": lat, "lon": lon}, dims=("time", "lat", "lon"),
-                        name="pr", attrs={"units": "mm", "step": "month"})
+    return xr.DataArray(
+        data,
+        coords={"time": time, "lat": lat, "lon": lon},
+        dims=("time", "lat", "lon"),
+        name="pr",
+        attrs={"units": "mm", "step": "month"},
+    )
 
 
 @pytest.fixture(scope="module")
 def setup():
-    products = {"fine": _product(0.5, seed=1), "coarse": _product(1.0, "noleap", 1.1, seed=2),
-                "third": _product(0.5, seed=3, factor=0.9)}
-    basins = [cw.Basin.from_vertices([(60.0, -5.0), (61.0, -5.0), (61.0, -4.0), (60.0, -4.0)], name="south-west"),
-              cw.Basin.from_vertices([(61.0, -4.0), (62.0, -4.0), (62.0, -3.0), (61.0, -3.0)], name="north-east")]
+    products = {
+        "fine": _product(0.5, seed=1),
+        "coarse": _product(1.0, "noleap", 1.1, seed=2),
+        "third": _product(0.5, seed=3, factor=0.9),
+    }
+    basins = [
+        cw.Basin.from_vertices([(60.0, -5.0), (61.0, -5.0), (61.0, -4.0), (60.0, -4.0)], name="south-west"),
+        cw.Basin.from_vertices([(61.0, -4.0), (62.0, -4.0), (62.0, -3.0), (61.0, -3.0)], name="north-east"),
+    ]
     w = cw.ComparisonWidget(products, basins=basins, export_dir="unused")
     w.wait()
     return products, basins, w
@@ -61,9 +76,10 @@ def test_swapping_products_recomputes(setup):
     w.wait()
 
 
-@pytest.mark.parametrize("metric, kind, units", [("bias", "difference", "mm per year"),
-                                                 ("kge", "sequential", "no unit"),
-                                                 ("rmse", "sequential", "mm per month")])
+@pytest.mark.parametrize(
+    "metric, kind, units",
+    [("bias", "difference", "mm per year"), ("kge", "sequential", "no unit"), ("rmse", "sequential", "mm per month")],
+)
 def test_metric_redraws_without_recomputing(setup, metric, kind, units):
     products, basins, w = setup
     gen = w._gen
@@ -133,12 +149,12 @@ def test_a_basin_joining_the_set_computes_only_its_own_rows(setup, monkeypatch):
     shared.rename("middle", "centre")
     w.wait()
     assert calls == [["middle"]]  # nothing computed for a new name
-    assert list(dict.fromkeys(w.basin_table.index.get_level_values("basin"))) == ["south-west", "north-east",
-                                                                                 "centre"]
+    assert list(dict.fromkeys(w.basin_table.index.get_level_values("basin"))) == ["south-west", "north-east", "centre"]
     shared.remove("south-west")
     w.wait()
     assert calls == [["middle"]]
     assert "south-west" not in w.basin_table.index.get_level_values("basin")
+
 
 def test_every_export_reaches_the_browser(setup):
     """Each button gives a download link whose bytes are the result (CSV read by plain pandas)."""
@@ -155,14 +171,20 @@ def test_basin_and_product_names_cannot_become_spreadsheet_formulas():
     import pandas as pd
 
     products = {"=HYPERLINK(1)": _product(0.5, seed=1), "+1-1": _product(1.0, seed=2)}
-    basins = [cw.Basin.from_vertices([(60.0, -5.0), (61.0, -5.0), (61.0, -4.0), (60.0, -4.0)], name="@SUM(1+1)"),
-              cw.Basin.from_vertices([(61.0, -4.0), (62.0, -4.0), (62.0, -3.0), (61.0, -3.0)], name="-2+3")]
+    basins = [
+        cw.Basin.from_vertices([(60.0, -5.0), (61.0, -5.0), (61.0, -4.0), (60.0, -4.0)], name="@SUM(1+1)"),
+        cw.Basin.from_vertices([(61.0, -4.0), (62.0, -4.0), (62.0, -3.0), (61.0, -3.0)], name="-2+3"),
+    ]
     w = cw.ComparisonWidget(products, basins=basins, export_dir="unused")
     w.wait()
     got = check_every_export(w)
     csv = next(v for k, v in got["Table as CSV"].items() if k.endswith(".csv"))
     back = pd.read_csv(io.BytesIO(csv), dtype=str, keep_default_na=False)
     texts = list(back.columns) + [v for c in back.columns for v in back[c]]
-    assert not [t for t in texts if t.startswith(("=", "+", "@", "\t", "\r")) or
-                (t.startswith("-") and not t[1:].replace(".", "", 1).replace("e-", "", 1).isdigit())]
+    assert not [
+        t
+        for t in texts
+        if t.startswith(("=", "+", "@", "\t", "\r"))
+        or (t.startswith("-") and not t[1:].replace(".", "", 1).replace("e-", "", 1).isdigit())
+    ]
     assert any(t in ("'@SUM(1+1)", "'-2+3") for t in texts)

@@ -123,9 +123,12 @@ def test_units_menu_converts_the_drawers_mean_and_map():
 
     import climwidgets as cw
 
-    field = xr.DataArray(np.full((4, 5), 508.0), dims=("lat", "lon"),
-                         coords={"lat": np.arange(10.125, 11.0, 0.25), "lon": np.arange(-150.125, -148.9, 0.25)},
-                         attrs={"units": "mm", "long_name": "annual total"})
+    field = xr.DataArray(
+        np.full((4, 5), 508.0),
+        dims=("lat", "lon"),
+        coords={"lat": np.arange(10.125, 11.0, 0.25), "lon": np.arange(-150.125, -148.9, 0.25)},
+        attrs={"units": "mm", "long_name": "annual total"},
+    )
     box = cw.Basin.from_vertices([(-150.2, 10.0), (-149.0, 10.0), (-149.0, 11.0), (-150.2, 11.0)], name="box")
     d = cw.BasinDrawer(field, [box], export_dir="unused")
     d.wait()

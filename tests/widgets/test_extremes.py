@@ -30,8 +30,13 @@ def _pr(years=(2001, 2020), freq="D", step="day", seed=2):
     lon = np.array([40.125, 40.375, 40.625])
     wet = rng.random((time.size, 3, 3)) < 0.3
     data = np.where(wet, rng.gamma(0.8, 12.0, size=(time.size, 3, 3)), 0.0)
-    return xr.DataArray(data, coords={"time": time, "lat": lat, "lon": lon}, dims=("time", "lat", "lon"),
-                        name="pr", attrs={"units": "mm", "step": step})
+    return xr.DataArray(
+        data,
+        coords={"time": time, "lat": lat, "lon": lon},
+        dims=("time", "lat", "lon"),
+        name="pr",
+        attrs={"units": "mm", "step": step},
+    )
 
 
 @pytest.fixture(scope="module")
@@ -63,8 +68,9 @@ def test_default_levels_and_cautions(setup):
     assert w.table_kind.value == "ddf" and w.table_basin.value == "upper"
     from climwidgets.compute.extremes import DAY_DURATIONS
 
-    ddf = cw.depth_duration_frequency(pr, durations=list(DAY_DURATIONS), periods=PERIODS, ci=0.9, basins=[basin],
-                                      n_boot=N_BOOT).sel(basin="upper")
+    ddf = cw.depth_duration_frequency(
+        pr, durations=list(DAY_DURATIONS), periods=PERIODS, ci=0.9, basins=[basin], n_boot=N_BOOT
+    ).sel(basin="upper")
     assert list(w.table.index) == ["1 day"] + [f"{d} days" for d in DAY_DURATIONS[1:]]
     for t in PERIODS:
         np.testing.assert_allclose(w.table[f"{t} years"], ddf["estimate"].sel(period=t).values, rtol=1e-9)
@@ -77,8 +83,9 @@ def test_default_levels_and_cautions(setup):
     # the wording is plain: no agency-style phrasing
     assert "frequency estimate" not in (w.title + w.areal_note.value).lower()
     # map shows the 100-year estimate
-    np.testing.assert_allclose(np.asarray(w.map.mesh.get_array()).reshape(3, 3),
-                               expected["estimate"].sel(period=100).values)
+    np.testing.assert_allclose(
+        np.asarray(w.map.mesh.get_array()).reshape(3, 3), expected["estimate"].sel(period=100).values
+    )
     assert w.map.cbar.ax.get_ylabel().endswith("[mm]")
 
 
@@ -105,13 +112,14 @@ def test_period_and_warming_redraw_without_refit(setup):
     w.rate.value = 6.0
     assert w._gen == gen and w.levels is levels
     xr.testing.assert_allclose(w.result, cw.warming_scaling(levels, 2.0, rate=0.06))
-    factor = 1.06 ** 2  # (1 + rate) ** delta_t
+    factor = 1.06**2  # (1 + rate) ** delta_t
     np.testing.assert_allclose(w.result["estimate"].values, levels["estimate"].values * factor)
     areal = w.basin_levels["areal_estimate_mm"].sel(basin="upper", return_period=25)
     assert w.table.loc["upper", "areal depth [mm]"] == pytest.approx(float(areal) * factor)
     w.layer.value = "upper"
-    np.testing.assert_allclose(np.asarray(w.map.mesh.get_array()).reshape(3, 3),
-                               levels["upper"].sel(period=25).values * factor)
+    np.testing.assert_allclose(
+        np.asarray(w.map.mesh.get_array()).reshape(3, 3), levels["upper"].sel(period=25).values * factor
+    )
     w.delta_t.value = 0.0
 
 
@@ -166,7 +174,7 @@ def test_design_table_follows_the_warming_and_the_chart_draws(setup):
     w.delta_t.value = 2.0
     w.rate.value = 7.0
     assert w._gen == gen  # a redraw
-    np.testing.assert_allclose(w.table.to_numpy(), before.to_numpy() * 1.07 ** 2, rtol=1e-12)
+    np.testing.assert_allclose(w.table.to_numpy(), before.to_numpy() * 1.07**2, rtol=1e-12)
     assert w.chart.value[:4] == b"\x89PNG"
     w.delta_t.value = 0.0
 
@@ -189,9 +197,11 @@ def test_at_site_and_regional_side_by_side(setup):
     t = w.period.value
     row = w.table.loc["upper"]
     assert row["point depth, at-site [mm]"] == pytest.approx(
-        float(expected["point_at_site_mm"].sel(basin="upper", return_period=t)))
+        float(expected["point_at_site_mm"].sel(basin="upper", return_period=t))
+    )
     assert row["point depth, regional [mm]"] == pytest.approx(
-        float(expected["point_regional_mm"].sel(basin="upper", return_period=t)))
+        float(expected["point_regional_mm"].sel(basin="upper", return_period=t))
+    )
     assert "heterogeneity H1" in w.table.columns and "H1 &gt;= 2" in w.areal_note.value
     gen = w._gen
     w.layer.value = "regional"
@@ -199,7 +209,8 @@ def test_at_site_and_regional_side_by_side(setup):
     field = regional_depth_field(pr, [basin], **kw)["estimate"].sel(period=t)
     np.testing.assert_allclose(np.asarray(w.map.mesh.get_array()).reshape(3, 3), field.values)
     w.layer.value = "estimate"
-    np.testing.assert_allclose(np.asarray(w.map.mesh.get_array()).reshape(3, 3),
-                               w.levels["estimate"].sel(period=t).values)
+    np.testing.assert_allclose(
+        np.asarray(w.map.mesh.get_array()).reshape(3, 3), w.levels["estimate"].sel(period=t).values
+    )
     w.table_kind.value = "ddf"
     w.wait()

@@ -151,8 +151,9 @@ def test_land_outline_and_layers_are_lines_at_their_coordinates(field, tmp_path)
     height[1:4, 2:5] = 250.0  # land on 3 x 3 cells
     ring = [[-29.5, 10.5], [-28.5, 10.5], [-28.5, 11.5], [-29.5, 11.5], [-29.5, 10.5]]
     path = tmp_path / "coast.geojson"
-    path.write_text(json.dumps({"type": "Feature", "properties": {},
-                                "geometry": {"type": "Polygon", "coordinates": [ring]}}))
+    path.write_text(
+        json.dumps({"type": "Feature", "properties": {}, "geometry": {"type": "Polygon", "coordinates": [ring]}})
+    )
     frame = MapFrame(field, outline=height, layers=[(path, "coast")])
     outline, coast = frame._context_artists
     xy = outline.get_xydata()

@@ -67,8 +67,9 @@ def _exports_carry(w, tag):
 
 def _frames_close(a, b, rtol=1e-9):
     assert list(a.columns) == list(b.columns) and list(a.index) == list(b.index)
-    np.testing.assert_allclose(a.select_dtypes("number").to_numpy(float), b.select_dtypes("number").to_numpy(float),
-                               rtol=rtol, equal_nan=True)
+    np.testing.assert_allclose(
+        a.select_dtypes("number").to_numpy(float), b.select_dtypes("number").to_numpy(float), rtol=rtol, equal_nan=True
+    )
 
 
 def test_no_member_dimension_no_menu(tmp_path):
@@ -97,8 +98,12 @@ def test_seasonal_share(monthly, tmp_path):
     # the share is not linear: per member first (cw.seasonal_fraction of each member alone)
     shares = np.stack([cw.seasonal_fraction(_alone(monthly, m), months=(7, 8)).values for m in MEMBERS])
     np.testing.assert_allclose(w.result["share"].values, shares.mean(axis=0), rtol=1e-9)
-    per_basin = np.stack([[float(cw.seasonal_fraction(cw.basin_mean(_alone(monthly, m), b), months=(7, 8)))
-                           for b in basins()] for m in MEMBERS])
+    per_basin = np.stack(
+        [
+            [float(cw.seasonal_fraction(cw.basin_mean(_alone(monthly, m), b), months=(7, 8))) for b in basins()]
+            for m in MEMBERS
+        ]
+    )
     np.testing.assert_allclose(w.result["basin_share"].values, per_basin.mean(axis=0), rtol=1e-9)
     assert "seasonal share, ensemble mean [%]" in w.table.columns
     assert "ensemble mean" in w.map.ax.get_title() and "Ensemble member" in w.table_html.value
@@ -222,8 +227,14 @@ def test_extremes(tmp_path):
     from climwidgets.widgets.extremes import PERIODS
 
     # return levels are not linear: each member's levels (cw.return_levels), then numpy's mean
-    levels = np.stack([cw.return_levels(cw.annual_maxima(_alone(pr, m), year_start=1, duration_days=1),
-                                        periods=PERIODS, ci=0.9, n_boot=50)["estimate"].values for m in MEMBERS])
+    levels = np.stack(
+        [
+            cw.return_levels(
+                cw.annual_maxima(_alone(pr, m), year_start=1, duration_days=1), periods=PERIODS, ci=0.9, n_boot=50
+            )["estimate"].values
+            for m in MEMBERS
+        ]
+    )
     np.testing.assert_allclose(w.levels["estimate"].values, levels.mean(axis=0), rtol=1e-9)
     _choose(w, "m2")
     alone = cw.ExtremesWidget(_alone(pr, "m2"), basins=[BASIN], n_boot=50, export_dir=tmp_path)
@@ -255,8 +266,12 @@ def test_indices(tmp_path):
     assert w.error is None, w.message.value
     from climwidgets.analyses.indices import gridded_indices, index_map
 
-    per = np.stack([index_map(gridded_indices(_alone(pr, m), base_period=None, thresholds=(25,)), "PRCPTOT").values
-                    for m in MEMBERS])
+    per = np.stack(
+        [
+            index_map(gridded_indices(_alone(pr, m), base_period=None, thresholds=(25,)), "PRCPTOT").values
+            for m in MEMBERS
+        ]
+    )
     np.testing.assert_allclose(w.result["map"].values, per.mean(axis=0), rtol=1e-9)
     _choose(w, "spread")
     np.testing.assert_allclose(w.result["map"].values, np.ptp(per, axis=0), rtol=1e-9)
@@ -312,11 +327,17 @@ def test_comparison(tmp_path):
     _frames_close(w.basin_table, alone.basin_table)
     _exports_carry(w, "member-m2")
     _choose(w, "mean")
-    tables = [cw.products_basin_table({"gauge": gauge, "model": _alone(ens, m)},
-                                      [cw.geo.basinset.whole_grid_basin(alone._aligned["gauge"])])
-              for m in MEMBERS]
-    np.testing.assert_allclose(w.basin_table["annual_mean_mm"].to_numpy(),
-                               np.mean([t["annual_mean_mm"].to_numpy() for t in tables], axis=0), rtol=1e-9)
+    tables = [
+        cw.products_basin_table(
+            {"gauge": gauge, "model": _alone(ens, m)}, [cw.geo.basinset.whole_grid_basin(alone._aligned["gauge"])]
+        )
+        for m in MEMBERS
+    ]
+    np.testing.assert_allclose(
+        w.basin_table["annual_mean_mm"].to_numpy(),
+        np.mean([t["annual_mean_mm"].to_numpy() for t in tables], axis=0),
+        rtol=1e-9,
+    )
 
 
 @pytest.fixture(scope="module")
@@ -332,8 +353,7 @@ def test_demo_ensemble_file_through_the_summary_and_every_export(demo_ensemble, 
     from climwidgets.demo_ensemble import MEMBERS
 
     pr = cw.open_precip(demo_ensemble["ensemble_historical"])
-    w = cw.BasinSummaryWidget(pr, cw.load_basins(demo_ensemble["basins"]), baseline=(1981, 2010),
-                              export_dir=tmp_path)
+    w = cw.BasinSummaryWidget(pr, cw.load_basins(demo_ensemble["basins"]), baseline=(1981, 2010), export_dir=tmp_path)
     w.wait()
     assert w.error is None, w.message.value
     assert [v for _, v in w.member.options] == list(MEMBERS) + ["mean", "spread"]

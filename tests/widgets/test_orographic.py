@@ -27,14 +27,18 @@ def _scene(seed=4):
     lon = np.arange(-100.95, -98.6, 0.1)
     ridge_lon = lon[11]  # on a cell centre, so the highest cell is 1500 m
     z = 1500.0 * np.exp(-(((lon - ridge_lon) / 0.25) ** 2))[None, :] * np.ones((lat.size, 1))
-    elev = xr.DataArray(z, coords={"lat": lat, "lon": lon}, dims=("lat", "lon"), name="elevation",
-                        attrs={"units": "m"})
+    elev = xr.DataArray(z, coords={"lat": lat, "lon": lon}, dims=("lat", "lon"), name="elevation", attrs={"units": "m"})
     # wetter up the west (windward) slope, drier east of the ridge
     pattern = 60.0 + 0.05 * z + np.where(lon[None, :] > ridge_lon, -25.0, 0.0)
     time = pd.date_range("2001-01-01", "2006-12-01", freq="MS")
     data = pattern[None] * rng.gamma(8.0, 1 / 8.0, size=(time.size, 1, 1))
-    pr = xr.DataArray(data, coords={"time": time, "lat": lat, "lon": lon}, dims=("time", "lat", "lon"),
-                      name="pr", attrs={"units": "mm", "step": "month"})
+    pr = xr.DataArray(
+        data,
+        coords={"time": time, "lat": lat, "lon": lon},
+        dims=("time", "lat", "lon"),
+        name="pr",
+        attrs={"units": "mm", "step": "month"},
+    )
     return pr, elev
 
 
@@ -48,8 +52,9 @@ def setup():
 
 def _observed(pr, elev, wind_from=270.0, band_km=(0, 25, 50), ridge=None, ci=0.9):
     ridge = ridge if ridge is not None else cw.crest_from_elevation(elev, wind_from, min_height=150.0)
-    return cw.rain_shadow(cw.annual_totals(pr), wind_from=wind_from, ridge=ridge, band_km=band_km,
-                          n_boot=N_BOOT, ci=ci), ridge
+    return cw.rain_shadow(
+        cw.annual_totals(pr), wind_from=wind_from, ridge=ridge, band_km=band_km, n_boot=N_BOOT, ci=ci
+    ), ridge
 
 
 def test_default_contrast_model_and_gradients(setup):
@@ -61,8 +66,9 @@ def test_default_contrast_model_and_gradients(setup):
     assert w.crest == [tuple(p) for p in ridge]
     assert (w.result["ratio"] < 1).all()  # the lee is drier
     # the view's model carries a 2 mm/h background and delays of 1000 s (analyses.orographic)
-    model = cw.linear_orographic_precip(elev, wind_speed=10.0, wind_from=270.0, temperature_c=10.0,
-                                        p_background=2.0, tau_c=1000.0, tau_f=1000.0)
+    model = cw.linear_orographic_precip(
+        elev, wind_speed=10.0, wind_from=270.0, temperature_c=10.0, p_background=2.0, tau_c=1000.0, tau_f=1000.0
+    )
     xr.testing.assert_allclose(w.model, model)
     model_rs = cw.rain_shadow(model, wind_from=270.0, ridge=ridge, band_km=(0, 25, 50))
     xr.testing.assert_allclose(w.model_contrast, model_rs)
@@ -76,8 +82,9 @@ def test_default_contrast_model_and_gradients(setup):
     assert float(w.gradients["windward"]["slope"]) > 0  # rain rises up the slope
     # the page opens on the precipitation itself, the observed mean annual total
     assert w.layer.value == "observed"
-    np.testing.assert_allclose(np.asarray(w.map.mesh.get_array()).reshape(elev.shape),
-                               mean.transpose("lat", "lon").values)
+    np.testing.assert_allclose(
+        np.asarray(w.map.mesh.get_array()).reshape(elev.shape), mean.transpose("lat", "lon").values
+    )
 
 
 def test_wind_direction_flips_the_sides(setup):
@@ -101,8 +108,9 @@ def test_bands_level_and_model_controls(setup):
     expected, ridge = _observed(pr, elev, band_km=(0, 30), ci=0.8)
     xr.testing.assert_allclose(w.result, expected)
     assert list(w.table.index) == ["0-30"] and "lower 80%" in w.table.columns
-    model = cw.linear_orographic_precip(elev, wind_speed=15.0, wind_from=270.0, temperature_c=5.0,
-                                        p_background=2.0, tau_c=1000.0, tau_f=1000.0)
+    model = cw.linear_orographic_precip(
+        elev, wind_speed=15.0, wind_from=270.0, temperature_c=5.0, p_background=2.0, tau_c=1000.0, tau_f=1000.0
+    )
     xr.testing.assert_allclose(w.model, model)
     w.bands.value = "0, 25, 50"
     w.level.value = 0.9
@@ -118,8 +126,9 @@ def test_background_and_delay_reach_the_model_and_the_note_is_shown(setup):
     w.background.value = 10.0  # a heavy background outweighs the lee's descent
     w.delay.value = 1500.0
     w.wait()
-    model = cw.linear_orographic_precip(elev, wind_speed=10.0, wind_from=270.0, temperature_c=10.0,
-                                        p_background=10.0, tau_c=1500.0, tau_f=1500.0)
+    model = cw.linear_orographic_precip(
+        elev, wind_speed=10.0, wind_from=270.0, temperature_c=10.0, p_background=10.0, tau_c=1500.0, tau_f=1500.0
+    )
     xr.testing.assert_allclose(w.model, model)
     ratio = w.table["linear model leeward / windward"]
     assert (ratio > 0).all() and (ratio < 1).all()  # a rain shadow, no longer an empty lee

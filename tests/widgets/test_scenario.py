@@ -28,8 +28,12 @@ def files(demo_files):
 
 @pytest.fixture(scope="module")
 def runs(files):
-    return (cw.open_precip(files["ensemble_historical"]), cw.open_precip(files["ensemble_future"]),
-            cw.open_precip(files["monthly"]), cw.load_basins(files["basins"]))
+    return (
+        cw.open_precip(files["ensemble_historical"]),
+        cw.open_precip(files["ensemble_future"]),
+        cw.open_precip(files["monthly"]),
+        cw.load_basins(files["basins"]),
+    )
 
 
 @pytest.fixture(scope="module")
@@ -53,8 +57,7 @@ def test_numbers_equal_basin_signals_called_directly(widget, runs):
     # the shown table is the analysis in its display units (% and % points)
     shown = widget.table
     _close(shown["change in annual normal, ensemble mean [%]"].values, 100 * ref["normal_change_1_mean"].values)
-    _close(shown["change in seasonal share, members agreeing [%]"].values,
-           100 * ref["share_change_1_agreement"].values)
+    _close(shown["change in seasonal share, members agreeing [%]"].values, 100 * ref["share_change_1_agreement"].values)
     maps = signal_maps(hist, fut).compute()
     _close(widget.result["maps"]["normal_change_1"].values, maps["normal_change_1_mean"].values)  # ensemble mean
     assert widget.map.field is not None and widget._dots is not None  # m4 disagrees: dots where < 80 % agree
@@ -66,9 +69,11 @@ def test_demo_ensemble_recovers_its_known_change_factors(widget, runs):
     hist, fut, obs, basins = runs
     # the future is the historical weather times F(member, month): the annual normal of a
     # basin changes by sum_m F N_m / sum_m N_m (N_m its historical monthly normals)
-    factors = xr.DataArray(np.array([demo_ensemble.CHANGE_FACTORS[m] for m in demo_ensemble.MEMBERS]),
-                           dims=("member", "month"), coords={"member": list(demo_ensemble.MEMBERS),
-                                                             "month": np.arange(1, 13)})
+    factors = xr.DataArray(
+        np.array([demo_ensemble.CHANGE_FACTORS[m] for m in demo_ensemble.MEMBERS]),
+        dims=("member", "month"),
+        coords={"member": list(demo_ensemble.MEMBERS), "month": np.arange(1, 13)},
+    )
     for b in basins:
         n = cw.normals(cw.basin_mean(hist, b), baseline=demo_ensemble.HISTORICAL_YEARS)
         n = n.drop_vars([c for c in n.coords if c not in n.dims])
@@ -145,9 +150,13 @@ def _daily(first, factors):
     time = pd.date_range(f"{first}-01-01", f"{first + 11}-12-31", freq="D")
     lat, lon = 10.25 + 0.5 * np.arange(3), -30.25 + 0.5 * np.arange(4)
     base = rng.gamma(0.6, 8.0, size=(time.size, lat.size, lon.size))
-    return xr.DataArray(base[None] * np.asarray(factors)[:, None, None, None], dims=("member", "time", "lat", "lon"),
-                        coords={"member": ["a", "b"], "time": time, "lat": lat, "lon": lon}, name="pr",
-                        attrs={"units": "mm", "step": "day", "standard_name": "lwe_thickness_of_precipitation_amount"})
+    return xr.DataArray(
+        base[None] * np.asarray(factors)[:, None, None, None],
+        dims=("member", "time", "lat", "lon"),
+        coords={"member": ["a", "b"], "time": time, "lat": lat, "lon": lon},
+        name="pr",
+        attrs={"units": "mm", "step": "day", "standard_name": "lwe_thickness_of_precipitation_amount"},
+    )
 
 
 def test_daily_runs_add_the_design_depth_change():

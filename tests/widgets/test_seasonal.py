@@ -128,8 +128,9 @@ def test_exports(widget, tmp_path):
     assert len(names) == 5 and all(n.endswith(("csv", "png", "json")) and day in n for n in names)
     if tag:
         assert all(tag in n for n in names)
-    per_year = next(p for p in tmp_path.iterdir() if p.name.startswith("seasonal_share_per_year")
-                    and p.suffix == ".csv")
+    per_year = next(
+        p for p in tmp_path.iterdir() if p.name.startswith("seasonal_share_per_year") and p.suffix == ".csv"
+    )
     assert np.isfinite(pd.read_csv(per_year).iloc[:, 1]).all()
 
 

@@ -27,8 +27,7 @@ def test_numbers_follow_the_controls(pr, tmp_path):
     pd.testing.assert_frame_equal(w.result["summary"], basin_summary(pr, basins(), baseline=(2001, 2010)))
     pd.testing.assert_frame_equal(w.result["scenario"], scenario_delta(pr, basins(), percent=5.0))
     south = basins()[0]
-    assert np.allclose(w.result["normals"].sel(basin="South"),
-                       basin_mean(normals(pr, baseline=(2001, 2010)), south))
+    assert np.allclose(w.result["normals"].sel(basin="South"), basin_mean(normals(pr, baseline=(2001, 2010)), south))
     # the what-if: acre-feet are m³ / 1233.48 (international foot; 43 560 ft² × 1 ft)
     w.percent.value = -12
     w.s_first.value, w.s_last.value = 6, 9
@@ -36,20 +35,22 @@ def test_numbers_follow_the_controls(pr, tmp_path):
     ref = scenario_delta(pr, basins(), months=(6, 7, 8, 9), percent=-12.0)
     pd.testing.assert_frame_equal(w.result["scenario"], ref)
     row = w.scenario_table(w.result).loc["South"]
-    assert row["change in volume per year [acre-ft]"] == pytest.approx(ref.loc["South", "delta_volume_per_year_m3"]
-                                                                / ACRE_FOOT_M3)
+    assert row["change in volume per year [acre-ft]"] == pytest.approx(
+        ref.loc["South", "delta_volume_per_year_m3"] / ACRE_FOOT_M3
+    )
     assert "acre-ft" in w.scenario_html.value
     w.baseline.value = (2003, 2011)
     w.wait()
-    assert np.allclose(w.result["normals"].sel(basin="South"),
-                       basin_mean(normals(pr, baseline=(2003, 2011)), south))
+    assert np.allclose(w.result["normals"].sel(basin="South"), basin_mean(normals(pr, baseline=(2003, 2011)), south))
     w.first.value, w.last.value = 12, 2
     w.year_start.value = 10
     w.wait()
-    pd.testing.assert_frame_equal(w.result["summary"], basin_summary(pr, basins(), months=(12, 1, 2),
-                                                                     baseline=(2003, 2011), year_start=10))
+    pd.testing.assert_frame_equal(
+        w.result["summary"], basin_summary(pr, basins(), months=(12, 1, 2), baseline=(2003, 2011), year_start=10)
+    )
     assert w.table.loc["North", "seasonal share [%]"] == pytest.approx(
-        100 * w.result["summary"].loc["North", "seasonal_share_1"])
+        100 * w.result["summary"].loc["North", "seasonal_share_1"]
+    )
     assert w.chart.value[:4] == b"\x89PNG"
 
 
