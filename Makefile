@@ -57,9 +57,10 @@ $(VENV)/.installed-lint: pyproject.toml | $(PY)
 docs: $(VENV)/.installed-docs
 	$(PY) -m sphinx -W --keep-going -q -b html docs docs/_build/html
 
-# ruff (rules in pyproject.toml) and mypy (strict where listed in pyproject.toml).
+# ruff (rules and format in pyproject.toml) and mypy (strict where listed in pyproject.toml).
 lint: $(VENV)/.installed-lint
 	$(VENV)/bin/ruff check climwidgets tests benchmarks docs notebooks
+	$(VENV)/bin/ruff format --check climwidgets tests benchmarks docs notebooks
 	$(VENV)/bin/mypy
 
 types: $(VENV)/.installed-lint
