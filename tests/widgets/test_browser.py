@@ -9,6 +9,7 @@ Chromium or Playwright is missing.
 
 from __future__ import annotations
 
+import contextlib
 import os
 import shutil
 import socket
@@ -57,38 +58,46 @@ def demo(tmp_path_factory):
     return folder, generate(directory=folder, size="test", quiet=True)
 
 
-@pytest.fixture(scope="module")
-def server(demo, tmp_path_factory):
-    folder, _ = demo
-    workdir = tmp_path_factory.mktemp("voila")
-    port = _free_port()
+@contextlib.contextmanager
+def serve(notebook, demo_dir, workdir):
+    """Voilà serving ``notebook`` on the demo in ``demo_dir`` with the page template users get;
+    yields the page's address, stops the server after."""
     from climwidgets.page import voila_command
 
-    argv, env = voila_command(NOTEBOOK, port, extra=["--show_tracebacks=True"])  # the page template users get
-    env.update(CLIMWIDGETS_DEMO_DIR=str(folder), CLIMWIDGETS_DEMO_SIZE="test")
+    port = _free_port()
+    argv, env = voila_command(notebook, port, extra=["--show_tracebacks=True"])
+    env.update(CLIMWIDGETS_DEMO_DIR=str(demo_dir), CLIMWIDGETS_DEMO_SIZE="test")
     log = open(workdir / "voila.log", "w")
     proc = subprocess.Popen(argv, cwd=workdir, env=env, stdout=log, stderr=subprocess.STDOUT)
     url = f"http://127.0.0.1:{port}/"
     deadline = time.monotonic() + 120
-    while True:
-        try:
-            urllib.request.urlopen(url + "api", timeout=5)
-            break
-        except OSError as exc:
-            if getattr(exc, "code", None):  # an HTTP error means the server answers
-                break
-            if proc.poll() is not None or time.monotonic() > deadline:
-                log.close()
-                proc.kill()
-                pytest.fail("Voilà did not start:\n" + (workdir / "voila.log").read_text()[-3000:])
-            time.sleep(0.5)
-    yield url
-    proc.terminate()
     try:
-        proc.wait(20)
-    except subprocess.TimeoutExpired:
-        proc.kill()
-    log.close()
+        while True:
+            try:
+                urllib.request.urlopen(url + "api", timeout=5)
+                break
+            except OSError as exc:
+                if getattr(exc, "code", None):  # an HTTP error means the server answers
+                    break
+                if proc.poll() is not None or time.monotonic() > deadline:
+                    log.flush()
+                    pytest.fail("Voilà did not start:\n" + (workdir / "voila.log").read_text()[-3000:])
+                time.sleep(0.5)
+        yield url
+    finally:
+        proc.terminate()
+        try:
+            proc.wait(20)
+        except subprocess.TimeoutExpired:
+            proc.kill()
+        log.close()
+
+
+@pytest.fixture(scope="module")
+def server(demo, tmp_path_factory):
+    folder, _ = demo
+    with serve(NOTEBOOK, folder, tmp_path_factory.mktemp("voila")) as url:
+        yield url
 
 
 @pytest.fixture

@@ -13,14 +13,12 @@ from __future__ import annotations
 
 import io
 import re
-import subprocess
 import time
-import urllib.request
 from pathlib import Path
 
 import pytest
 
-from .test_browser import CHROMIUM, CHROMIUM_ARGS, LOOPBACK, REPO, _free_port
+from .test_browser import CHROMIUM, CHROMIUM_ARGS, LOOPBACK, REPO, serve
 
 pytestmark = pytest.mark.browser
 
@@ -38,37 +36,11 @@ SIGNATURES = {".png": (b"\x89PNG",), ".nc": (b"CDF", b"\x89HDF"), ".html": (b"<!
 @pytest.fixture(scope="module")
 def tour(tmp_path_factory):
     from climwidgets.demo import generate
-    from climwidgets.page import voila_command
 
     folder = tmp_path_factory.mktemp("demo")
     generate(directory=folder, size="test", quiet=True)
-    workdir = tmp_path_factory.mktemp("voila-tour")
-    port = _free_port()
-    argv, env = voila_command(TOUR, port, extra=["--show_tracebacks=True"])
-    env.update(CLIMWIDGETS_DEMO_DIR=str(folder), CLIMWIDGETS_DEMO_SIZE="test")
-    log = open(workdir / "voila.log", "w")
-    proc = subprocess.Popen(argv, cwd=workdir, env=env, stdout=log, stderr=subprocess.STDOUT)
-    url = f"http://127.0.0.1:{port}/"
-    deadline = time.monotonic() + 120
-    while True:
-        try:
-            urllib.request.urlopen(url + "api", timeout=5)
-            break
-        except OSError as exc:
-            if getattr(exc, "code", None):
-                break
-            if proc.poll() is not None or time.monotonic() > deadline:
-                log.close()
-                proc.kill()
-                pytest.fail("Voilà did not start:\n" + (workdir / "voila.log").read_text()[-3000:])
-            time.sleep(0.5)
-    yield url
-    proc.terminate()
-    try:
-        proc.wait(20)
-    except subprocess.TimeoutExpired:
-        proc.kill()
-    log.close()
+    with serve(TOUR, folder, tmp_path_factory.mktemp("voila-tour")) as url:
+        yield url
 
 
 def _read(name: str, data: bytes):
