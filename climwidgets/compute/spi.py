@@ -73,8 +73,7 @@ def thom_gamma_fit(values: xr.DataArray, dim: str) -> tuple[xr.DataArray, xr.Dat
     117-122.
 
     Edwards, D. C. and McKee, T. B. (1997). Characteristics of 20th century drought in the
-    United States at multiple time scales. Climatology Report 97-2, Department of
-    Atmospheric Science, Colorado State University, Fort Collins (eqs. 3.6-3.8).
+    United States at multiple time scales. Climatology Report 97-2 (eqs. 3.6-3.8).
 
     Examples
     --------
