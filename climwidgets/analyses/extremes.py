@@ -23,6 +23,7 @@ from .meta import describe, frame
 __all__ = [
     "depth_field",
     "warmed_field",
+    "regional_fit",
     "areal_design_depths",
     "point_design_depths",
     "warmed_depths",
@@ -179,9 +180,14 @@ def point_design_depths(
     year_start: int = 1,
     seed=0,
     min_years: int = 10,
+    regional: xr.Dataset | None = None,
     **duration,
 ) -> xr.Dataset:
     """At-site and regional point depths of each basin, side by side (lazy Dataset, basin × return_period).
+
+    ``regional`` is :func:`regional_fit` of the same data, basins and settings when already
+    at hand (the design-depth view shares it with :func:`regional_depth_field`, so the
+    regional analysis is built once).
 
     Both columns are point (cell) depths averaged over the basin, so they compare with each
     other, not with the areal depths of :func:`areal_design_depths`:
@@ -228,9 +234,10 @@ def point_design_depths(
     basins = as_basin_list(basins, "point_design_depths")
     ams = annual_maxima(pr, year_start=year_start, **(duration or {"duration_days": 1}))
     at_site = return_levels(ams, periods=periods, ci=ci, n_boot=n_boot, seed=seed, min_years=min_years)
-    regional = regional_frequency(
-        ams, regions=basins, periods=periods, ci=ci, n_sim=n_sim, n_boot=n_boot, seed=seed, min_years=min_years
-    )
+    if regional is None:
+        regional = regional_frequency(
+            ams, regions=basins, periods=periods, ci=ci, n_sim=n_sim, n_boot=n_boot, seed=seed, min_years=min_years
+        )
     fields = xr.Dataset(
         {
             "point_at_site_mm": at_site["estimate"],
@@ -313,6 +320,31 @@ def depth_table(ds: xr.Dataset, period=None, display: bool = False):
     return table
 
 
+def regional_fit(
+    pr: xr.DataArray,
+    basins,
+    periods=(2, 10, 25, 50, 100),
+    ci: float = 0.9,
+    n_boot: int = 500,
+    n_sim: int = 500,
+    year_start: int = 1,
+    seed=0,
+    min_years: int = 10,
+    **duration,
+) -> xr.Dataset:
+    """:func:`cw.regional_frequency` of the annual maxima, each basin one region (lazy).
+
+    The one regional analysis behind :func:`point_design_depths` and
+    :func:`regional_depth_field`; pass it to both as ``regional=`` to build it once.
+    Parameters as in :func:`point_design_depths`.
+    """
+    basins = as_basin_list(basins, "regional_fit")
+    ams = annual_maxima(pr, year_start=year_start, **(duration or {"duration_days": 1}))
+    return regional_frequency(
+        ams, regions=basins, periods=periods, ci=ci, n_sim=n_sim, n_boot=n_boot, seed=seed, min_years=min_years
+    )
+
+
 def regional_depth_field(
     pr: xr.DataArray,
     basins,
@@ -323,6 +355,7 @@ def regional_depth_field(
     year_start: int = 1,
     seed=0,
     min_years: int = 10,
+    regional: xr.Dataset | None = None,
     **duration,
 ) -> xr.Dataset:
     """Regional (index-flood) point depths of every cell, each basin pooled as one region (lazy).
@@ -348,11 +381,9 @@ def regional_depth_field(
     Hosking, J. R. M. & Wallis, J. R. (1997) Regional Frequency Analysis: An Approach Based
     on L-Moments. Cambridge University Press. doi:10.1017/CBO9780511529443
     """
-    basins = as_basin_list(basins, "regional_depth_field")
     ams = annual_maxima(pr, year_start=year_start, **(duration or {"duration_days": 1}))
-    regional = regional_frequency(
-        ams, regions=basins, periods=periods, ci=ci, n_sim=n_sim, n_boot=n_boot, seed=seed, min_years=min_years
-    )
+    if regional is None:
+        regional = regional_fit(pr, basins, periods, ci, n_boot, n_sim, year_start, seed, min_years, **duration)
     out = regional[["estimate", "lower", "upper", "cell_region", "H1"]]
     for name in ("estimate", "lower", "upper"):
         out[name].attrs["units"] = "mm"

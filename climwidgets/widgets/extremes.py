@@ -42,6 +42,7 @@ from ..analyses.extremes import (
     point_design_depths,
     point_depth_table,
     regional_depth_field,
+    regional_fit,
     warmed_depths,
     warmed_field,
     warmed_point_depths,
@@ -290,26 +291,10 @@ class ExtremesWidget(BaseWidget):
                 year_start=year_start,
             )
             if regional and self.basins:
-                out["point"] = point_design_depths(
-                    self.pr,
-                    self.basins,
-                    periods=PERIODS,
-                    ci=ci,
-                    n_boot=n_boot,
-                    n_sim=N_SIM,
-                    year_start=year_start,
-                    **duration,
-                )
-                out["regional"] = regional_depth_field(
-                    self.pr,
-                    self.basins,
-                    periods=PERIODS,
-                    ci=ci,
-                    n_boot=n_boot,
-                    n_sim=N_SIM,
-                    year_start=year_start,
-                    **duration,
-                )
+                fit = dict(periods=PERIODS, ci=ci, n_boot=n_boot, n_sim=N_SIM, year_start=year_start, **duration)
+                pooled = regional_fit(self.pr, self.basins, **fit)  # one regional analysis for table and map
+                out["point"] = point_design_depths(self.pr, self.basins, regional=pooled, **fit)
+                out["regional"] = regional_depth_field(self.pr, self.basins, regional=pooled, **fit)
         return out
 
     def finish(self, computed, params):
