@@ -230,9 +230,10 @@ def run_summary(
         report shows them.
 
     The report is :func:`report.content.report_content`, the one function behind the
-    page's and the notebook's report too.  The data are read once: :func:`cw.basin_table` (built on :func:`cw.climatology_bundle`)
-    gives the table, the report's figures and the maps in one ``compute``, and the CSV,
-    the NetCDF and the report are written from that one result.
+    page's and the notebook's report too.  The data are read once: :func:`cw.basin_table`
+    (built on :func:`cw.climatology_bundle`) gives the table, the report's figures and the
+    maps in one ``compute``, and the CSV, the NetCDF and the report are written from that one
+    result.
     """
 
     from .analyses.basins import basin_table, summary_bundle, what_if

@@ -189,7 +189,8 @@ def design_depth_cells(table: pd.DataFrame) -> pd.DataFrame:
         low = next(k for k in table.columns if k.startswith(f"{c} lower"))
         up = next(k for k in table.columns if k.startswith(f"{c} upper"))
         out[f"{c} [{units}]"] = [
-            f"{format_cell(e, cols.get(c, {}))} ({format_cell(a, cols.get(low, {}))}–{format_cell(b, cols.get(up, {}))})"
+            f"{format_cell(e, cols.get(c, {}))} "
+            f"({format_cell(a, cols.get(low, {}))}–{format_cell(b, cols.get(up, {}))})"
             for e, a, b in zip(table[c], table[low], table[up])
         ]
     cells = pd.DataFrame(out, index=table.index)

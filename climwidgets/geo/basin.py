@@ -6,8 +6,8 @@ through the same checks, so a basin that exists is valid:
 * each ring has at least 3 distinct vertices, all finite, with |lat| ≤ 90;
 * a ring whose consecutive vertices jump by more than 180° of longitude is taken to cross
   the antimeridian (an edge of exactly 360°, from -180 to 180, is an edge along a parallel
-  or the pole, as whole-globe and polar-cap outlines are drawn): it is unwrapped, and the polygon is split into parts inside
-  [-180, 180) (a MultiPolygon).  Longitudes given in [0, 360) are moved the same way;
+  or the pole, as whole-globe and polar-cap outlines are drawn): it is unwrapped, and the
+  polygon is split into parts inside [-180, 180) (a MultiPolygon).  Longitudes given in [0, 360) are moved the same way;
 * a self-intersecting ring is repaired with ``shapely.make_valid`` only when the repair
   keeps ≥ 99.9 % of its area in one polygon (a tiny loop where a vertex was clicked twice);
   a figure-of-eight is rejected, since which part was meant is a guess;

@@ -211,7 +211,9 @@ def check_monotonic(time_values, *, source=None):
             source=source,
             variable="time",
             expected="strictly increasing times",
-            fix="drop the duplicates (for example ds.drop_duplicates('time')) or remove overlapping files from the list",
+            fix=(
+                "drop the duplicates (for example ds.drop_duplicates('time')) or remove overlapping files from the list"
+            ),
         )
     back = np.flatnonzero(d < 0)
     if back.size:

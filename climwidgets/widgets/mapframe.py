@@ -5,7 +5,8 @@ outlines, a hover readout (lon, lat, value, units of the cell under the pointer)
 "zoom to basin" menu, a colour range control and optional outline layers.
 :meth:`MapFrame.show_field` redraws a new field on the same grid by swapping the QuadMesh
 array and colour limits (no new figure, fast); a field on another grid rebuilds the mesh.
-:meth:`MapFrame.on_click` registers a callback receiving ``(lon, lat, event)`` for clicks inside the map (the basin drawer uses it).
+:meth:`MapFrame.on_click` registers a callback receiving ``(lon, lat, event)`` for clicks
+inside the map (the basin drawer uses it).
 
 The figure is made with ipympl's ``Canvas`` directly (not through pyplot), so no global
 figure registry is touched and the frame works headless in tests: a notebook front-end,
