@@ -8,6 +8,9 @@ fill heuristics even when the first file declares its fill.
 
 from __future__ import annotations
 
+from collections.abc import Sequence
+from typing import Any
+
 import numpy as np
 import xarray as xr
 from dask.base import is_dask_collection
@@ -19,12 +22,16 @@ from .values import mask_likely_fill, needs_fill_heuristics
 
 __all__ = ["combine_parts"]
 
+# One opened file: its DataArray and what the loader's layout step learnt about it (path,
+# name, attrs, encoding, calendar, grid, time_bounds).
+Part = tuple[xr.DataArray, dict[str, Any]]
 
-def _same_grid(a, b) -> bool:
+
+def _same_grid(a: Sequence[Any], b: Sequence[Any]) -> bool:
     return all(x.shape == y.shape and np.allclose(x, y, atol=1e-6) for x, y in zip(a, b))
 
 
-def _check_parts_in_sequence(parts) -> None:
+def _check_parts_in_sequence(parts: Sequence[Part]) -> None:
     """File by file: one time step in every file, and no file's times inside another's.
 
     Run on the parts sorted by first time, so a pair that overlaps is named by its two files
@@ -69,7 +76,7 @@ def _check_parts_in_sequence(parts) -> None:
 _FILL_NOTE = "values >= 1e15 and -9999/-999/-99999 treated as missing (no _FillValue in the file)"
 
 
-def _fill_per_file(parts):
+def _fill_per_file(parts: Sequence[Part]) -> tuple[Sequence[Part], bool, str | None]:
     """``(parts, mask_fill, note)``: the fill heuristics decided file by file.
 
     A file without _FillValue/missing_value gets the heuristics (1e20, -9999 ... as
@@ -82,18 +89,18 @@ def _fill_per_file(parts):
         return parts, needs[0], (_FILL_NOTE if needs[0] else None)
     import dask.array as dsa
 
-    out = []
+    out: list[Part] = []
     for (da, info), need in zip(parts, needs):
         if need:
-            data = da.data if is_dask_collection(da.data) else dsa.from_array(np.asarray(da.data))
+            data = da.data if is_dask_collection(da.data) else dsa.from_array(np.asarray(da.data))  # type: ignore[no-untyped-call]
             dtype = da.dtype.newbyteorder("=") if da.dtype.kind == "f" else np.dtype(np.float64)
-            da = da.copy(data=dsa.map_blocks(mask_likely_fill, data, dtype=dtype))
+            da = da.copy(data=dsa.map_blocks(mask_likely_fill, data, dtype=dtype))  # type: ignore[no-untyped-call]
         out.append((da, info))
     which = ", ".join(info["path"] for (_, info), need in zip(parts, needs) if need)
     return out, False, f"values >= 1e15 and -9999/-999/-99999 treated as missing in {which} (no _FillValue there)"
 
 
-def _check_labels_per_file(parts) -> None:
+def _check_labels_per_file(parts: Sequence[Part]) -> None:
     """Every file's stamps taken the same way: start of step, or end of step by its bounds.
 
     Bounds are combined only when every file has them; a file stamped at the end of each
@@ -121,7 +128,9 @@ def _check_labels_per_file(parts) -> None:
         )
 
 
-def combine_parts(parts, source_list):
+def combine_parts(
+    parts: Sequence[Part], source_list: Sequence[str]
+) -> tuple[xr.DataArray, xr.DataArray | None, bool, str | None]:
     """The opened parts of a glob or list as one DataArray along time, checked file by file.
 
     ``parts`` are ``(DataArray, info)`` pairs from the loader's layout step. Returns

@@ -8,8 +8,11 @@ grid its metadata declares. Nothing here reads data values.
 from __future__ import annotations
 
 import math
+from collections.abc import Mapping, Sequence
+from typing import Any
 
 import numpy as np
+import xarray as xr
 
 from ..errors import GridError, SourceError
 from . import grid as gridmod
@@ -34,7 +37,7 @@ MAX_TIME_STEPS = 10**8
 MAX_CHUNKS = 1_000_000
 
 
-def check_declared_sizes(da, spatial, tdim, where, name) -> None:
+def check_declared_sizes(da: xr.DataArray, spatial: Sequence[Any], tdim: Any, where: object, name: object) -> None:
     """Sizes from the header, refused before coordinates or chunk indexes are read."""
     sizes = dict(da.sizes)
     cells = math.prod(sizes[d] for d in spatial if d in sizes)
@@ -59,7 +62,7 @@ def check_declared_sizes(da, spatial, tdim, where, name) -> None:
         )
 
 
-def check_chunk_count(da, plan, where, name, chunks) -> None:
+def check_chunk_count(da: xr.DataArray, plan: Mapping[Any, Any], where: object, name: object, chunks: object) -> None:
     n = math.prod(-(-size // max(int(plan.get(d, size) or size), 1)) if size else 1 for d, size in da.sizes.items())
     if n > MAX_CHUNKS:
         shape = " x ".join(f"{int(plan.get(d, s)):,}" for d, s in da.sizes.items())
@@ -77,7 +80,7 @@ def check_chunk_count(da, plan, where, name, chunks) -> None:
         )
 
 
-def check_zarr_chunks(store, ds, da, info, where) -> None:
+def check_zarr_chunks(store: Any, ds: xr.Dataset, da: xr.DataArray, info: dict[str, Any], where: object) -> None:
     """Chunks absent from a Zarr store, found by listing its chunk names (no data read).
 
     Zarr reads an absent chunk as the fill value, so a chunk lost in an interrupted copy
@@ -99,7 +102,7 @@ def check_zarr_chunks(store, ds, da, info, where) -> None:
     if tname is None or ds[tname].dims[0] not in dims:
         return  # a single field (terrain): nothing to compare an absent chunk with
     taxis = dims.index(ds[tname].dims[0])
-    absent_at: dict = {}
+    absent_at: dict[tuple[int, ...], list[tuple[int, ...]]] = {}
     for pos in np.ndindex(*grid):
         if pos not in present:
             absent_at.setdefault(pos[:taxis] + pos[taxis + 1 :], []).append(pos)

@@ -8,8 +8,12 @@ as they are, with the dims renamed to ``y``/``x``.
 
 from __future__ import annotations
 
+from collections.abc import Hashable
+from typing import Any, TypeVar, cast
+
 import numpy as np
 import xarray as xr
+from numpy.typing import NDArray
 
 from ..errors import GridError
 
@@ -18,7 +22,7 @@ _LON_NAMES = ("lon", "longitude", "nav_lon", "lon_rho", "xlong", "x_lon")
 _TIME_NAMES = ("time", "t", "valid_time", "date", "times")
 
 
-def _is_lat(var) -> bool:
+def _is_lat(var: xr.DataArray) -> bool:
     a = var.attrs
     return (
         a.get("standard_name") == "latitude"
@@ -29,7 +33,7 @@ def _is_lat(var) -> bool:
     )
 
 
-def _is_lon(var) -> bool:
+def _is_lon(var: xr.DataArray) -> bool:
     a = var.attrs
     return (
         a.get("standard_name") == "longitude"
@@ -40,7 +44,7 @@ def _is_lon(var) -> bool:
     )
 
 
-def _cf_candidates(ds: xr.Dataset, which: str) -> list:
+def _cf_candidates(ds: xr.Dataset, which: str) -> list[Hashable]:
     """Names cf-xarray finds for ``which`` by standard_name, axis, units or _CoordinateAxisType."""
     import cf_xarray  # noqa: F401  (registers the .cf accessor)
 
@@ -52,7 +56,7 @@ def _cf_candidates(ds: xr.Dataset, which: str) -> list:
     return found
 
 
-def find_coord(ds: xr.Dataset, da: xr.DataArray, which: str):
+def find_coord(ds: xr.Dataset, da: xr.DataArray | xr.Dataset, which: str) -> Hashable | None:
     """Name of the variable in ``ds`` serving as ``which`` ("lat", "lon", "time") for ``da``.
 
     CF first, as cf-xarray reads it (standard_name, axis, units); then CF time units
@@ -62,14 +66,14 @@ def find_coord(ds: xr.Dataset, da: xr.DataArray, which: str):
     test = {"lat": _is_lat, "lon": _is_lon}.get(which)
     names = {"lat": _LAT_NAMES, "lon": _LON_NAMES, "time": _TIME_NAMES}[which]
 
-    def fits(name):
+    def fits(name: Hashable) -> bool:
         return name in ds.variables and set(ds[name].dims) <= set(da.dims) and ds[name].ndim > 0
 
     for name in _cf_candidates(ds, which):
         if fits(name):
             return name
     candidates = list(da.coords) + list(da.dims) + [n for n in ds.variables if n not in da.coords]
-    seen = []
+    seen: list[Hashable] = []
     for name in candidates:
         if name in seen or not fits(name):
             continue
@@ -85,7 +89,7 @@ def find_coord(ds: xr.Dataset, da: xr.DataArray, which: str):
                 or var.dtype == object
             ):
                 return name
-        elif test(var):
+        elif test is not None and test(var):
             return name
     for name in names:  # fall back to conventional names
         if fits(name):
@@ -93,7 +97,7 @@ def find_coord(ds: xr.Dataset, da: xr.DataArray, which: str):
     return None
 
 
-def find_projected(ds: xr.Dataset, da: xr.DataArray):
+def find_projected(ds: xr.Dataset, da: xr.DataArray) -> tuple[Hashable, Hashable, str] | None:
     """``(x, y, grid_mapping)`` names of a projected grid for ``da``, or None.
 
     A projected grid has 1-D coordinates with standard_name projection_x_coordinate /
@@ -106,7 +110,7 @@ def find_projected(ds: xr.Dataset, da: xr.DataArray):
     if not gm or str(gm).split(":")[0].strip() not in ds.variables:
         return None
     gm = str(gm).split(":")[0].strip()
-    names = {}
+    names: dict[str, Hashable] = {}
     for axis, sn in (("X", "projection_x_coordinate"), ("Y", "projection_y_coordinate")):
         pool = list(ds.cf.standard_names.get(sn, [])) + list(ds.cf.axes.get(axis, []))
         hits = [n for n in pool if n in ds.variables and ds[n].ndim == 1 and ds[n].dims[0] in da.dims]
@@ -116,7 +120,7 @@ def find_projected(ds: xr.Dataset, da: xr.DataArray):
     return names["X"], names["Y"], gm
 
 
-def _holds_dates(var) -> bool:
+def _holds_dates(var: xr.DataArray) -> bool:
     if np.issubdtype(var.dtype, np.datetime64):
         return True
     if var.dtype != object or var.size == 0:
@@ -126,7 +130,10 @@ def _holds_dates(var) -> bool:
     return isinstance(var.values.flat[0], cftime.datetime)
 
 
-def canonical_names(obj):
+_Obj = TypeVar("_Obj")
+
+
+def canonical_names(obj: _Obj) -> _Obj:
     """Rename CF-identified time, latitude and longitude of an in-memory object to time/lat/lon.
 
     1-D coordinates that are their own dimension are renamed with it (``valid_time``,
@@ -138,7 +145,7 @@ def canonical_names(obj):
         return obj
     ds = obj.rename(None).to_dataset(name="__value__") if isinstance(obj, xr.DataArray) else obj
     da = ds["__value__"] if isinstance(obj, xr.DataArray) else ds
-    rename = {}
+    rename: dict[Hashable, str] = {}
     for which in ("time", "lat", "lon"):
         if which in obj.dims or which in obj.coords:
             continue
@@ -153,7 +160,7 @@ def canonical_names(obj):
         if which == "time" and not _holds_dates(ds[name]):
             continue  # an in-memory time axis holds decoded dates; labels such as members do not
         rename[name] = which
-    return obj.rename(rename) if rename else obj
+    return cast(_Obj, obj.rename(rename)) if rename else obj
 
 
 def bounds_to_edges(bounds: np.ndarray, centres: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
@@ -175,7 +182,13 @@ def infer_edges(centres: np.ndarray, clip: float | None = None) -> tuple[np.ndar
     return lower, upper
 
 
-def normalise_rectilinear(da: xr.DataArray, lat_edges=None, lon_edges=None, *, source=None) -> xr.DataArray:
+def normalise_rectilinear(
+    da: xr.DataArray,
+    lat_edges: tuple[NDArray[Any], NDArray[Any]] | None = None,
+    lon_edges: tuple[NDArray[Any], NDArray[Any]] | None = None,
+    *,
+    source: object = None,
+) -> xr.DataArray:
     """Rename to lat/lon, make lat ascending and lon [-180, 180) sorted, attach bounds.
 
     Reordering uses ``isel``/``sortby`` so it stays lazy on dask arrays.

@@ -2,17 +2,22 @@
 
 from __future__ import annotations
 
+from collections.abc import Sequence
+from os import PathLike
+
 import numpy as np
 
 from .loader import open_precip
 
 
-def _fmt_time(value) -> str:
+def _fmt_time(value: object) -> str:
     text = str(value)
     return text[:19].replace("T", " ")
 
 
-def describe(source, var=None, scan=False) -> str:
+def describe(
+    source: str | PathLike[str] | Sequence[str | PathLike[str]], var: str | None = None, scan: bool = False
+) -> str:
     src = source[0] if isinstance(source, (list, tuple)) and len(source) == 1 else source
     pr = open_precip(src, var=var, validate=False)
     a = pr.attrs
@@ -25,7 +30,7 @@ def describe(source, var=None, scan=False) -> str:
     ]
     if a.get("native_step"):
         lines.append(f"native step:  {a['native_step']} (summed to hourly totals)")
-    for dim in (d for d in pr.dims if d not in ("time", "lat", "lon", "y", "x")):
+    for dim in (str(d) for d in pr.dims if d not in ("time", "lat", "lon", "y", "x")):
         labels = (
             ", ".join(map(str, pr[dim].values[:5])) + (" …" if pr.sizes[dim] > 5 else "") if dim in pr.coords else ""
         )
@@ -64,7 +69,7 @@ def describe(source, var=None, scan=False) -> str:
     if scan:
         import dask
 
-        total, valid, lowest, highest = dask.compute(pr.size, pr.count(), pr.min(), pr.max())
+        total, valid, lowest, highest = dask.compute(pr.size, pr.count(), pr.min(), pr.max())  # type: ignore[attr-defined,no-untyped-call]
         frac = 1 - int(valid) / total
         lines.append(f"missing data: {frac:.2%} of values; range {float(lowest):.4g}..{float(highest):.4g} mm per step")
     else:

@@ -14,10 +14,17 @@ The ``crs`` coordinate holds the CRS as WKT text and the CF grid-mapping attribu
 
 from __future__ import annotations
 
+from collections.abc import Hashable, Mapping
+from typing import TYPE_CHECKING, Any
+
 import numpy as np
 import xarray as xr
+from numpy.typing import ArrayLike, NDArray
 
 from ..errors import GridError
+
+if TYPE_CHECKING:
+    from pyproj import CRS
 
 __all__ = ["CRS_COORD", "EDGE_COORDS", "crs_from_attrs", "lonlat", "projected_corners", "to_metres"]
 
@@ -38,7 +45,7 @@ _TO_METRES = {
 }
 
 
-def to_metres(units, *, source=None, variable=None) -> float:
+def to_metres(units: object, *, source: object = None, variable: object = None) -> float:
     """Factor from a projection coordinate's units to metres (CF: m by default)."""
     key = str(units or "m").strip().lower()
     if key not in _TO_METRES:
@@ -52,7 +59,7 @@ def to_metres(units, *, source=None, variable=None) -> float:
     return _TO_METRES[key]
 
 
-def crs_from_attrs(attrs: dict, *, source=None, variable=None):
+def crs_from_attrs(attrs: Mapping[Any, Any], *, source: object = None, variable: object = None) -> CRS:
     """A pyproj CRS from CF grid-mapping attributes (``CRS.from_cf``)."""
     from pyproj import CRS
     from pyproj.exceptions import CRSError
@@ -69,7 +76,7 @@ def crs_from_attrs(attrs: dict, *, source=None, variable=None):
         ) from None
 
 
-def lonlat(crs, x, y):
+def lonlat(crs: CRS, x: ArrayLike, y: ArrayLike) -> tuple[NDArray[np.float64], NDArray[np.float64]]:
     """Longitude and latitude (degrees, lon in [-180, 180)) of projected points ``x``, ``y`` (m)."""
     from pyproj import Transformer
 
@@ -79,7 +86,7 @@ def lonlat(crs, x, y):
     return lon, np.asarray(lat)
 
 
-def _edges(centres: np.ndarray) -> np.ndarray:
+def _edges(centres: NDArray[np.float64]) -> NDArray[np.float64]:
     """The n + 1 edges along an axis, in the order of its centres (the loader's one inference)."""
     from .grid import infer_edges
 
@@ -93,7 +100,7 @@ def _edges(centres: np.ndarray) -> np.ndarray:
     return np.append(lower, upper[-1]) if centres[-1] > centres[0] else np.append(upper, lower[-1])
 
 
-def _axis_edges(grid, axis: str) -> np.ndarray:
+def _axis_edges(grid: xr.DataArray, axis: str) -> NDArray[np.float64]:
     """Cell edges along ``axis`` (m): the stored bounds when the grid carries them, else
     half-way between centres."""
     low, high = EDGE_COORDS[axis]
@@ -103,7 +110,9 @@ def _axis_edges(grid, axis: str) -> np.ndarray:
     return _edges(np.asarray(grid[axis].values, float))
 
 
-def _stored_edges(ds, name: str, centres: np.ndarray, factor: float, *, source=None):
+def _stored_edges(
+    ds: xr.Dataset, name: Hashable, centres: NDArray[np.float64], factor: float, *, source: object = None
+) -> tuple[NDArray[np.float64], NDArray[np.float64]] | None:
     """``(lower, upper)`` edges (m, along the axis direction) of each cell from the CF
     ``bounds`` variable of coordinate ``name``, checked; None when there is none."""
     bname = ds[name].attrs.get("bounds")
@@ -154,7 +163,7 @@ def _stored_edges(ds, name: str, centres: np.ndarray, factor: float, *, source=N
     return lower, upper
 
 
-def projected_corners(grid):
+def projected_corners(grid: xr.DataArray) -> tuple[NDArray[np.float64], NDArray[np.float64]] | None:
     """``(lat_corners, lon_corners)`` of shape (ny, nx, 4) for a grid carrying the ``crs``
     coordinate and 1-D projected ``x``/``y`` (m), or None for any other grid.
 
@@ -189,13 +198,17 @@ def projected_corners(grid):
     return np.clip(lat_c, -90.0, 90.0), lon_c
 
 
-def _projected_axes(ds, xname, yname, *, source=None):
+def _projected_axes(
+    ds: xr.Dataset, xname: Hashable, yname: Hashable, *, source: object = None
+) -> tuple[NDArray[np.float64], NDArray[np.float64]]:
     fx = to_metres(ds[xname].attrs.get("units"), source=source, variable=xname)
     fy = to_metres(ds[yname].attrs.get("units"), source=source, variable=yname)
     return np.asarray(ds[xname].values, float) * fx, np.asarray(ds[yname].values, float) * fy
 
 
-def attach_mapping(da: xr.DataArray, ds: xr.Dataset, xname: str, yname: str, gm: str, *, source=None):
+def attach_mapping(
+    da: xr.DataArray, ds: xr.Dataset, xname: Hashable, yname: Hashable, gm: str, *, source: object = None
+) -> tuple[xr.DataArray, CRS]:
     """``da`` on dims (…, y, x) with metres ``x``/``y`` and the scalar ``crs`` coordinate, which
     let cell corners be derived exactly from the grid mapping."""
     crs = crs_from_attrs(ds[gm].attrs, source=source, variable=gm)
@@ -203,7 +216,7 @@ def attach_mapping(da: xr.DataArray, ds: xr.Dataset, xname: str, yname: str, gm:
     da = da.rename({k: v for k, v in ((ds[yname].dims[0], "y"), (ds[xname].dims[0], "x")) if k != v and k in da.dims})
     gm_attrs = dict(ds[gm].attrs)
     gm_attrs.setdefault("crs_wkt", crs.to_wkt())
-    edges = {}
+    edges: dict[Hashable, Any] = {}
     for axis, name, centres in (("x", xname, x), ("y", yname, y)):
         factor = to_metres(ds[name].attrs.get("units"), source=source, variable=name)
         stored = _stored_edges(ds, name, centres, factor, source=source)
@@ -212,14 +225,17 @@ def attach_mapping(da: xr.DataArray, ds: xr.Dataset, xname: str, yname: str, gm:
             attrs = {"units": "m", "long_name": f"cell edges along {axis} from '{ds[name].attrs['bounds']}'"}
             edges[low] = (axis, stored[0], attrs)
             edges[high] = (axis, stored[1], attrs)
-    return da.assign_coords(**edges).assign_coords(
-        x=("x", x, {"standard_name": "projection_x_coordinate", "units": "m", "axis": "X"}),
-        y=("y", y, {"standard_name": "projection_y_coordinate", "units": "m", "axis": "Y"}),
-        **{CRS_COORD: ((), crs.to_wkt(), gm_attrs)},  # the value survives where attrs are dropped
-    ), crs
+    axes: dict[Hashable, Any] = {
+        "x": ("x", x, {"standard_name": "projection_x_coordinate", "units": "m", "axis": "X"}),
+        "y": ("y", y, {"standard_name": "projection_y_coordinate", "units": "m", "axis": "Y"}),
+        CRS_COORD: ((), crs.to_wkt(), gm_attrs),  # the value survives where attrs are dropped
+    }
+    return da.assign_coords(edges).assign_coords(axes), crs
 
 
-def attach_latlon(da: xr.DataArray, ds: xr.Dataset, xname: str, yname: str, gm: str, *, source=None):
+def attach_latlon(
+    da: xr.DataArray, ds: xr.Dataset, xname: Hashable, yname: Hashable, gm: str, *, source: object = None
+) -> xr.DataArray:
     """``da`` on dims (…, y, x) with 2-D lat/lon from the grid mapping, metres x/y and ``crs``."""
     da, crs = attach_mapping(da, ds, xname, yname, gm, source=source)
     gx, gy = np.meshgrid(da["x"].values, da["y"].values)

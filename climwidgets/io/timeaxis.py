@@ -7,9 +7,12 @@ month of a ``360_day`` calendar has 30.
 
 from __future__ import annotations
 
+from typing import Any
+
 import numpy as np
 import pandas as pd
 import xarray as xr
+from numpy.typing import ArrayLike, NDArray
 
 from ..errors import CalendarError, TimeAxisError
 
@@ -55,7 +58,7 @@ def is_subhourly(step: str) -> bool:
     return step.endswith("min")
 
 
-def check_calendar(calendar, *, source=None, variable="time") -> str:
+def check_calendar(calendar: object, *, source: object = None, variable: str = "time") -> str:
     if calendar is not None and not isinstance(calendar, str):
         raise CalendarError(
             f"has a calendar attribute that is not text ({calendar!r})",
@@ -83,7 +86,7 @@ def calendar_of(time: xr.DataArray) -> str:
     return time.dt.calendar
 
 
-def _offsets_seconds(index) -> np.ndarray:
+def _offsets_seconds(index: pd.Index) -> NDArray[np.float64]:
     """Seconds between consecutive time stamps, for datetime64 or cftime indexes."""
     deltas = index[1:] - index[:-1]
     return np.asarray(pd.TimedeltaIndex(deltas).total_seconds(), dtype=float)
@@ -110,7 +113,7 @@ def _say_length(seconds: float, step: str | None) -> str:
     return f"about {seconds / 3600:.4g} hours"
 
 
-def _check_finite(lengths, what, source) -> None:
+def _check_finite(lengths: ArrayLike, what: str, source: object) -> None:
     if not np.all(np.isfinite(lengths)):
         bad = int(np.flatnonzero(~np.isfinite(lengths))[0])
         raise TimeAxisError(
@@ -123,7 +126,7 @@ def _check_finite(lengths, what, source) -> None:
         )
 
 
-def infer_step(time: xr.DataArray, bounds: xr.DataArray | None = None, *, source=None) -> str:
+def infer_step(time: xr.DataArray, bounds: xr.DataArray | None = None, *, source: object = None) -> str:
     """The step name (a key of STEP_SECONDS, or "month"), from time bounds when present, else
     from the spacing of the stamps.
 
@@ -193,7 +196,7 @@ def step_seconds(time: xr.DataArray, step: str) -> xr.DataArray:
     return xr.full_like(time, STEP_SECONDS[step], dtype=float)
 
 
-def check_monotonic(time_values, *, source=None):
+def check_monotonic(time_values: ArrayLike, *, source: object = None) -> None:
     """Raise for duplicated or decreasing times; tell where the first one is."""
     values = np.asarray(time_values)
     if values.size < 2:
@@ -239,7 +242,7 @@ def month_starts(time: xr.DataArray) -> xr.DataArray:
     return xr.DataArray(values, dims=time.dims, attrs=time.attrs)
 
 
-def full_axis(time: xr.DataArray, step: str):
+def full_axis(time: xr.DataArray, step: str) -> pd.Index:
     """Every time stamp the axis should have between its first and last entries."""
     cal = calendar_of(time)
     start, end = time.values[0], time.values[-1]
@@ -247,7 +250,7 @@ def full_axis(time: xr.DataArray, step: str):
     return xr.date_range(start=start, end=end, freq=_FREQ[step], calendar=cal, use_cftime=use_cftime)
 
 
-def start_labels(time: xr.DataArray, bounds: xr.DataArray | None):
+def start_labels(time: xr.DataArray, bounds: xr.DataArray | None) -> tuple[NDArray[Any], str | None]:
     """Stamps taken as the start of each step, and a note when they were moved.
 
     Sums are attributed to the step that holds the stamp, taken as its start.  Files that
@@ -265,7 +268,7 @@ def start_labels(time: xr.DataArray, bounds: xr.DataArray | None):
     return stamps, None
 
 
-def sum_to_hours(da: xr.DataArray, step: str, *, source=None) -> xr.DataArray:
+def sum_to_hours(da: xr.DataArray, step: str, *, source: object = None) -> xr.DataArray:
     """Depths per sub-hourly step summed to hourly totals (lazy).
 
     The axis is first completed to whole hours with missing steps, so an hour with any

@@ -16,8 +16,12 @@ from __future__ import annotations
 
 import re
 from dataclasses import dataclass
+from typing import TYPE_CHECKING
 
 from ..errors import UnitsError
+
+if TYPE_CHECKING:
+    import xarray as xr
 
 # metres per unit of length
 _LENGTH = {
@@ -100,7 +104,7 @@ _SYMBOLS = {"m", "mm", "cm", "km", "in", "ft", "kg", "g", "s", "min", "h", "hr",
 _TOKEN = re.compile(r"^([A-Za-zµ]+)(-?\d+)?$")
 
 
-def _lookup(name: str, text, source, variable, fix) -> tuple[str, float | None]:
+def _lookup(name: str, text: object, source: object, variable: object, fix: str) -> tuple[str, float | None]:
     """``(kind, factor)`` of one unit name: kind is length, mass or time."""
     tables = (("length", _LENGTH), ("mass", _MASS), ("time", _TIME))
     for kind, table in tables:
@@ -167,7 +171,7 @@ def _normalise(text: str) -> str:
     return re.sub(r"\s+", " ", t)
 
 
-def parse_units(text, *, source=None, variable=None) -> UnitInfo:
+def parse_units(text: object, *, source: object = None, variable: object = None) -> UnitInfo:
     """Read a units string as a precipitation depth or rate, or raise :class:`UnitsError`."""
     fix = (
         "set the variable's 'units' attribute to one of: kg m-2 s-1, kg m-2, mm, mm/day, "
@@ -211,9 +215,11 @@ def parse_units(text, *, source=None, variable=None) -> UnitInfo:
         # "m2" with no sign means squared metres; a trailing number is the power
         kind, factor = _lookup(name, text, source, variable, fix)
         if kind == "length":
+            assert factor is not None  # only month (a time unit) has no fixed factor
             scale *= float(factor) ** power
             length += power
         elif kind == "mass":
+            assert factor is not None
             scale *= float(factor) ** power
             mass += power
         else:
@@ -255,7 +261,7 @@ def parse_units(text, *, source=None, variable=None) -> UnitInfo:
     )
 
 
-def length_to_metres(text, *, source=None, variable=None) -> float:
+def length_to_metres(text: object, *, source: object = None, variable: object = None) -> float:
     """Factor from a length unit (m, km, ft, …) to metres, for elevation grids."""
     t = _normalise(str(text or "")).lower()
     if t in ("metre", "meter", "m", "metres", "meters", "m above sea level", "m asl"):
@@ -271,7 +277,9 @@ def length_to_metres(text, *, source=None, variable=None) -> float:
     )
 
 
-def step_factor(units: UnitInfo, time, step: str, *, source=None, variable=None):
+def step_factor(
+    units: UnitInfo, time: xr.DataArray, step: str, *, source: object = None, variable: object = None
+) -> tuple[float | xr.DataArray, str]:
     """``(factor, description)``: what turns values in ``units`` into mm per time step.
 
     A depth needs only its length factor; a rate is multiplied by the length of each step

@@ -5,8 +5,12 @@ Used by the loader on every chunk as it is read (or once at open for small input
 
 from __future__ import annotations
 
+from collections.abc import Mapping, Sequence
+from typing import Any
+
 import numpy as np
 import xarray as xr
+from numpy.typing import ArrayLike, NDArray
 
 from ..errors import DataValueError
 
@@ -34,7 +38,7 @@ RECORD_ENVELOPE_MM, RECORD_ENVELOPE_EXPONENT = 422.0, 0.475
 PLAUSIBLE_FACTOR = 2.0
 
 
-def check_packing(da: xr.DataArray, source, name) -> None:
+def check_packing(da: xr.DataArray, source: object, name: object) -> None:
     """scale_factor, add_offset, _FillValue and missing_value must be numbers to be applied."""
     for key in ("scale_factor", "add_offset", "_FillValue", "missing_value"):
         for where in (da.encoding, da.attrs):
@@ -61,12 +65,12 @@ def check_packing(da: xr.DataArray, source, name) -> None:
                 )
 
 
-def needs_fill_heuristics(encoding: dict, attrs: dict) -> bool:
+def needs_fill_heuristics(encoding: Mapping[Any, Any], attrs: Mapping[Any, Any]) -> bool:
     """Files without a _FillValue sometimes store 1e20 or -9999 for missing values."""
     return not ("_FillValue" in encoding or "missing_value" in encoding or "_FillValue" in attrs)
 
 
-def mask_likely_fill(block):
+def mask_likely_fill(block: ArrayLike) -> NDArray[np.floating[Any]]:
     """A float copy of ``block`` with the fill codes of files without _FillValue set to NaN.
 
     Used on the files of a glob that need the heuristics when other files declare their
@@ -103,16 +107,23 @@ def default_max_depth(step_seconds: float) -> float:
     3819
     """
     hours = float(step_seconds) / 3600.0
-    return PLAUSIBLE_FACTOR * RECORD_ENVELOPE_MM * hours**RECORD_ENVELOPE_EXPONENT
+    return float(PLAUSIBLE_FACTOR * RECORD_ENVELOPE_MM * hours**RECORD_ENVELOPE_EXPONENT)
 
 
-def _label(value) -> str:
+def _label(value: object) -> str:
     text = str(value)
     return text[:19].replace("T", " ") if len(text) >= 19 and text[4] == "-" else text
 
 
 def check_depth_bound(
-    x, max_depth: float, source=None, name=None, labels=None, dims=None, offset=None, files=None
+    x: ArrayLike,
+    max_depth: float,
+    source: object = None,
+    name: object = None,
+    labels: Sequence[ArrayLike] | None = None,
+    dims: Sequence[str] | None = None,
+    offset: Sequence[int] | None = None,
+    files: Sequence[tuple[Any, str]] | None = None,
 ) -> None:
     """Raise a DataValueError when a depth of ``x`` (mm per step; NaN missing) exceeds ``max_depth``.
 
@@ -147,8 +158,17 @@ def check_depth_bound(
 
 
 def convert_block(
-    block, factor, *labels, mask_fill: bool, guard: bool, source=None, name=None, max_depth=None, dims=None, files=None
-):
+    block: ArrayLike,
+    factor: float | NDArray[Any],
+    *labels: ArrayLike,
+    mask_fill: bool,
+    guard: bool,
+    source: object = None,
+    name: object = None,
+    max_depth: float | None = None,
+    dims: Sequence[str] | None = None,
+    files: Sequence[tuple[Any, str]] | None = None,
+) -> NDArray[np.float64]:
     """Stored values -> mm per step (float64 for accurate sums), with few passes over a chunk.
 
     Two NaN-ignoring reductions (min, max) tell whether a chunk holds fill codes or
@@ -189,11 +209,11 @@ def convert_block(
     return x
 
 
-def check_values(da: xr.DataArray, source, name):
+def check_values(da: xr.DataArray, source: object, name: object) -> None:
     """Negative depths and all-missing data, checked in one pass."""
     import dask
 
-    lowest, valid = dask.compute(da.min(skipna=True), da.count())
+    lowest, valid = dask.compute(da.min(skipna=True), da.count())  # type: ignore[attr-defined,no-untyped-call]
     if int(valid) == 0:
         raise DataValueError(
             "contains no valid values (all missing)",
