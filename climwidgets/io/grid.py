@@ -56,7 +56,7 @@ def _cf_candidates(ds: xr.Dataset, which: str) -> list[Hashable]:
     return found
 
 
-def find_coord(ds: xr.Dataset, da: xr.DataArray | xr.Dataset, which: str) -> Hashable | None:
+def find_coord(ds: xr.Dataset, da: xr.DataArray | xr.Dataset, which: str) -> str | None:
     """Name of the variable in ``ds`` serving as ``which`` ("lat", "lon", "time") for ``da``.
 
     CF first, as cf-xarray reads it (standard_name, axis, units); then CF time units
@@ -67,11 +67,14 @@ def find_coord(ds: xr.Dataset, da: xr.DataArray | xr.Dataset, which: str) -> Has
     names = {"lat": _LAT_NAMES, "lon": _LON_NAMES, "time": _TIME_NAMES}[which]
 
     def fits(name: Hashable) -> bool:
-        return name in ds.variables and set(ds[name].dims) <= set(da.dims) and ds[name].ndim > 0
+        # names in files are text; a non-text name in memory is never a CF coordinate
+        return (
+            isinstance(name, str) and name in ds.variables and set(ds[name].dims) <= set(da.dims) and ds[name].ndim > 0
+        )
 
     for name in _cf_candidates(ds, which):
         if fits(name):
-            return name
+            return str(name)
     candidates = list(da.coords) + list(da.dims) + [n for n in ds.variables if n not in da.coords]
     seen: list[Hashable] = []
     for name in candidates:
@@ -88,12 +91,12 @@ def find_coord(ds: xr.Dataset, da: xr.DataArray | xr.Dataset, which: str) -> Has
                 or np.issubdtype(var.dtype, np.datetime64)
                 or var.dtype == object
             ):
-                return name
+                return str(name)
         elif test is not None and test(var):
-            return name
+            return str(name)
     for name in names:  # fall back to conventional names
         if fits(name):
-            return name
+            return str(name)
     return None
 
 

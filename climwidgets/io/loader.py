@@ -18,6 +18,8 @@ from __future__ import annotations
 
 import math
 import os
+from collections.abc import Hashable, Sequence
+from typing import Any
 
 import dask.base
 import numpy as np
@@ -62,13 +64,23 @@ DIRECT_CHUNK_READS = True
 EAGER_CHECK_MAX_VALUES = 20_000_000  # small inputs are checked for bad values at open
 
 
-def _describe(ds, name) -> str:
+def _describe(ds: xr.Dataset, name: Hashable) -> str:
     a = ds[name].attrs
     return f"{name} (units={a.get('units', '?')!r}, standard_name={a.get('standard_name', '-')}, dims={ds[name].dims})"
 
 
-def _choose_variable(ds: xr.Dataset, var, source, standard_names, names, kind) -> str:
-    data_vars = [n for n in ds.data_vars if not n.endswith(("_bnds", "_bounds")) and ds[n].ndim >= 2]
+def _choose_variable(
+    ds: xr.Dataset,
+    var: str | None,
+    source: object,
+    standard_names: Sequence[str],
+    names: Sequence[str],
+    kind: str,
+) -> str:
+    # names in files are text; a variable with another name is chosen with var=
+    data_vars = [
+        n for n in ds.data_vars if isinstance(n, str) and not n.endswith(("_bnds", "_bounds")) and ds[n].ndim >= 2
+    ]
     listing = "; ".join(_describe(ds, n) for n in ds.data_vars) or "none"
     if var is not None:
         if var not in ds.data_vars:
@@ -79,13 +91,13 @@ def _choose_variable(ds: xr.Dataset, var, source, standard_names, names, kind) -
                 expected=f"one of the file's variables: {listing}",
                 fix="pass var= with one of those names",
             )
-        return var
+        return str(var)
     by_sn = [n for n in data_vars if ds[n].attrs.get("standard_name") in standard_names]
     if len(by_sn) == 1:
         return by_sn[0]
     units_parser = parse_units if kind == "precipitation" else length_to_metres
 
-    def plausible(n):
+    def plausible(n: str) -> bool:
         try:
             units_parser(ds[n].attrs.get("units"))
             return True
@@ -125,7 +137,7 @@ def _choose_variable(ds: xr.Dataset, var, source, standard_names, names, kind) -
     )
 
 
-def _chunk_plan(var: xr.Variable, dims: tuple, time_dim: str | None) -> dict:
+def _chunk_plan(var: xr.Variable, dims: tuple[Hashable, ...], time_dim: Hashable | None) -> dict[Hashable, int]:
     """Dask chunks aligned with the stored chunks (see the module docstring)."""
     enc = var.encoding
     stored = enc.get("chunksizes") or enc.get("chunks") or enc.get("preferred_chunks")
@@ -144,7 +156,7 @@ def _chunk_plan(var: xr.Variable, dims: tuple, time_dim: str | None) -> dict:
     return plan
 
 
-def _decode_time(ds: xr.Dataset, tname: str, source) -> tuple[xr.DataArray, xr.DataArray | None]:
+def _decode_time(ds: xr.Dataset, tname: str, source: object) -> tuple[xr.DataArray, xr.DataArray | None]:
     tvar = ds[tname]
     timeaxis.check_calendar(tvar.attrs.get("calendar"), source=source, variable=tname)
     raw = tvar.values
@@ -189,9 +201,16 @@ def _decode_time(ds: xr.Dataset, tname: str, source) -> tuple[xr.DataArray, xr.D
     return decoded[tname], bounds
 
 
-def _user_plan(plan: dict, chunks: dict, da, ds, tname, spatial) -> dict:
+def _user_plan(
+    plan: dict[Hashable, int],
+    chunks: dict[str, int | None],
+    da: xr.DataArray,
+    ds: xr.Dataset,
+    tname: str | None,
+    spatial: Sequence[Hashable],
+) -> dict[Hashable, int]:
     """Apply chunk sizes given with house names (time, lat, lon, y, x) to the file's own dims."""
-    names = {}
+    names: dict[str, Hashable] = {}
     if tname:
         names["time"] = ds[tname].dims[0]
     names["lat"] = names["y"] = spatial[0]
@@ -206,7 +225,9 @@ def _user_plan(plan: dict, chunks: dict, da, ds, tname, spatial) -> dict:
 MEMBER_DIMS = ("member", "realization", "ensemble", "model")  # extra dims kept as they are
 
 
-def _spatial_names(ds, da, name, source):
+def _spatial_names(
+    ds: xr.Dataset, da: xr.DataArray, name: str, source: object
+) -> tuple[str | None, str | None, tuple[Hashable, Hashable, str] | None]:
     """``(latn, lonn, projected)``: lat/lon variables, or a projected (x, y, grid_mapping)."""
     latn, lonn = gridmod.find_coord(ds, da, "lat"), gridmod.find_coord(ds, da, "lon")
     if latn is not None and lonn is not None:
@@ -225,10 +246,12 @@ def _spatial_names(ds, da, name, source):
     return None, None, projected
 
 
-def _extra_dims(da, spatial, time_dims, source, name):
+def _extra_dims(
+    da: xr.DataArray, spatial: Sequence[Hashable], time_dims: Sequence[Hashable], source: object, name: str
+) -> tuple[list[Hashable], list[Hashable]]:
     """Dims beyond time and space: members kept, other singletons dropped, the rest refused."""
     extra = [d for d in da.dims if d not in spatial and d not in time_dims]
-    members = [d for d in extra if d in MEMBER_DIMS and da.sizes[d] > 1]
+    members: list[Hashable] = [d for d in extra if d in MEMBER_DIMS and da.sizes[d] > 1]
     for d in extra:
         if d not in members and da.sizes[d] != 1:
             raise GridError(
@@ -243,7 +266,9 @@ def _extra_dims(da, spatial, time_dims, source, name):
     return [d for d in extra if d not in members], members
 
 
-def _file_data(da, path, name, plan, ident, dims):
+def _file_data(
+    da: xr.DataArray, path: str, name: str, plan: dict[Hashable, int], ident: str, dims: Sequence[Hashable]
+) -> tuple[Any, str]:
     """A dask array that reads the file's chunks (directly where the codec allows)."""
     direct = None
     if DIRECT_CHUNK_READS and "_Unsigned" not in da.encoding and "_Unsigned" not in da.attrs:
@@ -261,7 +286,7 @@ def _file_data(da, path, name, plan, ident, dims):
     return data, "xarray netCDF4 backend"
 
 
-def _object_data(da, plan, rechunk=False):
+def _object_data(da: xr.DataArray, plan: dict[Hashable, int], rechunk: bool = False) -> tuple[Any, str]:
     """A dask array over an in-memory or lazily backed variable (dask input kept as it is,
     unless chunk sizes were asked for)."""
     if is_dask_collection(da.data):
@@ -269,7 +294,7 @@ def _object_data(da, plan, rechunk=False):
     return da.chunk({d: plan[d] for d in da.dims}).data, "xarray (in-memory object or fsspec store)"
 
 
-def _open_part(path, var, kind, chunks="auto"):
+def _open_part(path: Any, var: str | None, kind: str, chunks: Any = "auto") -> tuple[xr.DataArray, dict[str, Any]]:
     """One file or store: open it lazily, then lay it out (see _layout)."""
     ds = open_raw(path)
     zarr = is_zarr(path)
@@ -280,10 +305,12 @@ def _open_part(path, var, kind, chunks="auto"):
     return da, info
 
 
-def _open_object(obj, var, kind, chunks="auto"):
+def _open_object(
+    obj: xr.Dataset | xr.DataArray, var: str | None, kind: str, chunks: Any = "auto"
+) -> tuple[xr.DataArray, dict[str, Any]]:
     """An xr.Dataset or xr.DataArray given by the user (never modified: a shallow copy is used)."""
     if isinstance(obj, xr.DataArray):
-        name = obj.name if obj.name is not None and obj.name not in obj.coords else "pr"
+        name = str(obj.name) if obj.name is not None and obj.name not in obj.coords else "pr"
         ds = obj.to_dataset(name=name)
         var = name if var is None else var
     else:
@@ -291,7 +318,9 @@ def _open_object(obj, var, kind, chunks="auto"):
     return _layout(ds, var, kind, chunks, source_label(obj), None)
 
 
-def _layout(ds, var, kind, chunks, where, path):
+def _layout(
+    ds: xr.Dataset, var: str | None, kind: str, chunks: Any, where: str, path: str | None
+) -> tuple[xr.DataArray, dict[str, Any]]:
     """Choose the variable, decode time, find lat/lon (or derive them), normalise the grid."""
     sn, names = (
         (PRECIP_STANDARD_NAMES, PRECIP_NAMES)
@@ -315,7 +344,7 @@ def _layout(ds, var, kind, chunks, where, path):
     check_packing(da, where, name)
     tname = gridmod.find_coord(ds, da, "time")
     latn, lonn, projected = _spatial_names(ds, da, name, where)
-    info = {"name": name, "path": where, "attrs": dict(da.attrs)}
+    info: dict[str, Any] = {"name": name, "path": where, "attrs": dict(da.attrs)}
     if kind == "precipitation" and tname is None:
         raise TimeAxisError(
             "has no time coordinate",
@@ -364,7 +393,7 @@ def _layout(ds, var, kind, chunks, where, path):
         lat, lon = ds[latn], ds[lonn]
         da = da.rename({lat.dims[0]: "lat", lon.dims[0]: "lon"})
         da = da.assign_coords(lat=("lat", lat.values, dict(lat.attrs)), lon=("lon", lon.values, dict(lon.attrs)))
-        edges = []
+        edges: list[tuple[np.ndarray, np.ndarray] | None] = []
         for c, short in ((lat, "lat"), (lon, "lon")):
             b = c.attrs.get("bounds")
             lower, upper = ds.coords.get(f"{short}_lower"), ds.coords.get(f"{short}_upper")
@@ -401,7 +430,7 @@ def _layout(ds, var, kind, chunks, where, path):
     return da, info
 
 
-def _block_labels(da) -> list:
+def _block_labels(da: xr.DataArray) -> list[xr.DataArray]:
     """One 1-D array per dim of ``da`` (coordinate values, else positions), chunked as ``da``,
     so that each block of the conversion knows where it lies (for the depth bound's message)."""
     import dask.array as dsa
@@ -409,19 +438,19 @@ def _block_labels(da) -> list:
     out = []
     for i, d in enumerate(da.dims):
         values = da[d].values if d in da.coords and da[d].dims == (d,) else np.arange(da.sizes[d])
-        data = dsa.from_array(values, chunks=(da.chunks[i],)) if da.chunks is not None else values
+        data = dsa.from_array(values, chunks=(da.chunks[i],)) if da.chunks is not None else values  # type: ignore[no-untyped-call]
         out.append(xr.DataArray(data, dims=(d,)))
     return out
 
 
-def _file_starts(parts, stamps) -> list:
+def _file_starts(parts: Sequence[tuple[xr.DataArray, dict[str, Any]]], stamps: np.ndarray) -> list[tuple[Any, str]]:
     """``(first stamp, path)`` of each file in the combined time order (to name a file in a glob)."""
     ordered = sorted(parts, key=lambda p: p[0]["time"].values[0])
     starts = np.cumsum([0] + [p[0].sizes["time"] for p in ordered[:-1]])
     return [(stamps[int(i)], p[1]["path"]) for i, p in zip(starts, ordered)]
 
 
-def _max_depth(max_depth_mm, step, where) -> float | None:
+def _max_depth(max_depth_mm: Any, step: str, where: object) -> float | None:  # user input, checked here
     if max_depth_mm is None:
         return None
     if isinstance(max_depth_mm, str) and max_depth_mm == "auto":
@@ -441,7 +470,13 @@ def _max_depth(max_depth_mm, step, where) -> float | None:
     return bound
 
 
-def open_precip(source, var=None, chunks="auto", validate="auto", max_depth_mm="auto") -> xr.DataArray:
+def open_precip(
+    source: Any,
+    var: str | None = None,
+    chunks: Any = "auto",
+    validate: bool | str = "auto",
+    max_depth_mm: float | str | None = "auto",
+) -> xr.DataArray:
     """Open precipitation lazily as depth per time step in mm.
 
     Parameters
@@ -540,7 +575,7 @@ def open_precip(source, var=None, chunks="auto", validate="auto", max_depth_mm="
         output_dtypes=[np.float64],
         keep_attrs=False,
     )
-    if dask.is_dask_collection(stored):  # lets compute/_fused.py sum stored float32 and convert the sums
+    if is_dask_collection(stored):  # lets compute/_fused.py sum stored float32 and convert the sums
         da.encoding["stored_values"] = StoredValues(
             da.data.name, stored, factor, mask_fill, not eager, where, name, max_depth=bound, dims=list(da.dims)
         )
@@ -592,7 +627,7 @@ def open_precip(source, var=None, chunks="auto", validate="auto", max_depth_mm="
     return with_history(da, "open_precip", None, source=where, var=name)
 
 
-def open_elevation(source, var=None) -> xr.DataArray:
+def open_elevation(source: Any, var: str | None = None) -> xr.DataArray:
     """Open a terrain grid as elevation in metres on the house grid layout (lat, lon) or (y, x).
 
     ``source`` is anything :func:`open_precip` takes, an ``xr.Dataset`` or ``xr.DataArray`` too.

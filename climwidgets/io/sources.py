@@ -18,6 +18,7 @@ import os
 import stat
 import warnings
 from pathlib import Path
+from typing import Any
 
 import xarray as xr
 
@@ -27,18 +28,18 @@ _GLOB_CHARS = set("*?[")
 _URL_PREFIXES = ("http://", "https://", "dods://", "dap://", "dap4://")
 
 
-def is_url(text) -> bool:
+def is_url(text: object) -> bool:
     return isinstance(text, str) and text.lower().startswith(_URL_PREFIXES)
 
 
-def is_fsspec(source) -> bool:
+def is_fsspec(source: object) -> bool:
     """An fsspec URL such as memory://… or s3://… (not OPeNDAP over http), or a mapper."""
     if type(source).__name__ == "FSMap" and hasattr(source, "fs"):
         return True
     return isinstance(source, str) and "://" in source and not is_url(source)
 
 
-def source_label(source) -> str:
+def source_label(source: Any) -> str:
     """A short text naming a source in messages and attrs."""
     import xarray as xr
 
@@ -52,7 +53,7 @@ def source_label(source) -> str:
     return str(source)
 
 
-def _resolve_fsspec(text: str) -> list:
+def _resolve_fsspec(text: str) -> list[str]:
     import fsspec
 
     protocol = text.split("://", 1)[0].lower()
@@ -87,7 +88,7 @@ def _resolve_fsspec(text: str) -> list:
     return [text]
 
 
-def is_zarr(path) -> bool:
+def is_zarr(path: Any) -> bool:
     if type(path).__name__ == "FSMap":
         return any(m in path for m in (".zgroup", ".zarray", "zarr.json"))
     if isinstance(path, str) and is_fsspec(path):
@@ -96,7 +97,7 @@ def is_zarr(path) -> bool:
     return p.suffix == ".zarr" or (p.is_dir() and any((p / m).exists() for m in (".zgroup", ".zarray", "zarr.json")))
 
 
-def resolve(source) -> list[str]:
+def resolve(source: Any) -> list[str]:
     """A list of concrete sources (paths, stores or URLs) in the order given or sorted by name."""
     if isinstance(source, (list, tuple)):
         if not source:
@@ -228,7 +229,7 @@ def _fsspec_is_zarr(url: str) -> bool:
     return fs.isdir(paths[0]) and any(fs.exists(f"{paths[0].rstrip('/')}/{m}") for m in (".zgroup", "zarr.json"))
 
 
-def _open_fsspec(source) -> xr.Dataset:
+def _open_fsspec(source: Any) -> xr.Dataset:
     """A Zarr store (URL or mapper) or a NetCDF-4 file object over fsspec, lazily."""
     import fsspec
 
@@ -263,7 +264,7 @@ def netcdf3_min_size(head: bytes) -> int | None:
     version, pos = head[3], 4
     big = version == 5
 
-    def take(n):
+    def take(n: int) -> bytes:
         nonlocal pos
         if pos + n > len(head):
             raise EOFError
@@ -271,14 +272,14 @@ def netcdf3_min_size(head: bytes) -> int | None:
         pos += n
         return chunk
 
-    def count():
-        return struct.unpack(">Q", take(8))[0] if big else struct.unpack(">I", take(4))[0]
+    def count() -> int:
+        return int(struct.unpack(">Q", take(8))[0] if big else struct.unpack(">I", take(4))[0])
 
-    def name():
+    def name() -> None:
         n = count()
         take((n + 3) // 4 * 4)
 
-    def attrs():
+    def attrs() -> None:
         tag, n = struct.unpack(">I", take(4))[0], count()
         for _ in range(n if tag else 0):
             name()
@@ -316,7 +317,7 @@ def netcdf3_min_size(head: bytes) -> int | None:
     except (EOFError, IndexError, struct.error):
         return None
     if rec_begin is not None and numrecs:
-        return max(fixed_end, rec_begin + numrecs * rec_bytes)
+        return int(max(fixed_end, rec_begin + numrecs * rec_bytes))
     return fixed_end
 
 
@@ -337,7 +338,7 @@ def _check_not_short(source: str) -> None:
         )
 
 
-def open_raw(source) -> xr.Dataset:
+def open_raw(source: Any) -> xr.Dataset:
     """Open one source lazily with times left undecoded (they are checked before decoding)."""
     if not is_fsspec(source) and not is_zarr(source) and not is_url(source) and os.path.isfile(source):
         _check_not_short(source)
