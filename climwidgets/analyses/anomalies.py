@@ -13,6 +13,9 @@ widget, its CSV and a report show the same words.
 
 from __future__ import annotations
 
+from collections.abc import Sequence
+from typing import Any
+
 import numpy as np
 import xarray as xr
 
@@ -44,7 +47,7 @@ ANOMALY_KINDS = {
 UNIT_WORDS = {"1": "standard deviations", "%": "%", "mm": "mm"}
 
 
-def _check_kind(kind):
+def _check_kind(kind: str) -> None:
     if kind not in ANOMALY_KINDS:
         raise ParameterError(
             f"kind={kind!r} is not known",
@@ -55,11 +58,13 @@ def _check_kind(kind):
         )
 
 
-def _label(kind, scale):
+def _label(kind: str, scale: int) -> str:
     return f"SPI, {int(scale)}-month" if kind == "spi" else ANOMALY_KINDS[kind][0]
 
 
-def _anomaly(pr, kind, period, months, scale, baseline):
+def _anomaly(
+    pr: xr.DataArray, kind: str, period: Any, months: Any, scale: int, baseline: Sequence[int]
+) -> xr.DataArray:
     _check_kind(kind)
     if kind == "spi":
         return spi(pr, scale=scale, baseline=baseline)
@@ -67,7 +72,12 @@ def _anomaly(pr, kind, period, months, scale, baseline):
 
 
 def anomaly_field(
-    pr: xr.DataArray, kind: str = "percent", period: str = "month", months=None, scale: int = 3, baseline=(1991, 2020)
+    pr: xr.DataArray,
+    kind: str = "percent",
+    period: str = "month",
+    months: Any = None,
+    scale: int = 3,
+    baseline: Sequence[int] = (1991, 2020),
 ) -> xr.DataArray:
     """The anomaly of every cell and step, with the words it is shown under (lazy).
 
@@ -109,9 +119,9 @@ def anomaly_series(
     series: xr.DataArray,
     kind: str = "percent",
     period: str = "month",
-    months=None,
+    months: Any = None,
     scale: int = 3,
-    baseline=(1991, 2020),
+    baseline: Sequence[int] = (1991, 2020),
 ) -> xr.Dataset:
     """Anomalies of basin-mean series (basin, time): a Dataset (basin, step) (lazy).
 
@@ -139,12 +149,12 @@ def anomaly_series(
 
 def basin_anomalies(
     pr: xr.DataArray,
-    basins,
+    basins: Any,
     kind: str = "percent",
     period: str = "month",
-    months=None,
+    months: Any = None,
     scale: int = 3,
-    baseline=(1991, 2020),
+    baseline: Sequence[int] = (1991, 2020),
 ) -> xr.Dataset:
     """Anomalies of each basin's area-weighted mean precipitation (lazy).
 
@@ -152,7 +162,7 @@ def basin_anomalies(
     ----------
     pr : xarray.DataArray
         Precipitation depth per step (dims time, lat, lon).
-    basins : list of Basin or BasinSet
+    basins : list[Any] of Basin or BasinSet
         The basins; their means come from one weighted sum (one read for all basins).
     kind, period, months, scale, baseline
         As in :func:`anomaly_field`.
@@ -178,7 +188,7 @@ def basin_anomalies(
     return anomaly_series(series, kind=kind, period=period, months=months, scale=scale, baseline=baseline)
 
 
-def step_labels(da) -> list[str]:
+def step_labels(da: xr.DataArray) -> list[str]:
     """Readable labels of the steps of a result: 'YYYY-MM' on a time axis, 'YYYY' on years."""
     if "time" in da.dims:
         t = da["time"]
@@ -186,7 +196,7 @@ def step_labels(da) -> list[str]:
     return [str(int(y)) for y in da["year"].values]
 
 
-def decimal_time(da) -> np.ndarray:
+def decimal_time(da: xr.DataArray) -> np.ndarray:
     """Year + (month - 1) / 12 on a time axis (any calendar), the year itself on years."""
     if "time" in da.dims:
         t = da["time"]
@@ -243,7 +253,7 @@ def anomaly_ranking(series: xr.Dataset, step: str) -> xr.Dataset:
     fmt = ".1f" if units in ("%", "mm") else ".2f"
     basin = values["basin"].values
 
-    def var(x, name, **attrs):
+    def var(x: Any, name: str, **attrs: Any) -> xr.DataArray:
         return describe(xr.DataArray(x, dims="basin", coords={"basin": basin}), name, **attrs)
 
     out = xr.Dataset(

@@ -16,6 +16,9 @@ no data, the rest stands for it, and ``data_coverage_1`` says how much had data.
 
 from __future__ import annotations
 
+from collections.abc import Sequence
+from typing import Any
+
 import numpy as np
 import pandas as pd
 import xarray as xr
@@ -76,13 +79,13 @@ WHAT_IF_COLUMNS = (
 )
 
 
-def _monthly(pr: xr.DataArray, bundle) -> xr.DataArray:
+def _monthly(pr: xr.DataArray, bundle: xr.Dataset | None) -> xr.DataArray:
     if bundle is not None:
         return bundle["monthly_totals"]
     return pr if pr.attrs.get("step") == "month" else monthly_totals(pr)
 
 
-def basin_series(field: xr.DataArray, basins) -> xr.DataArray:
+def basin_series(field: xr.DataArray, basins: Any) -> xr.DataArray:
     """Area-weighted basin means of ``field`` stacked on a ``basin`` dimension (lazy).
 
     Other dimensions (time, month, member ...) pass through; the coordinate
@@ -96,12 +99,18 @@ def basin_series(field: xr.DataArray, basins) -> xr.DataArray:
     return out
 
 
-def _areas(basins) -> xr.DataArray:
+def _areas(basins: Any) -> xr.DataArray:
     return xr.DataArray(np.array([b.area_m2 for b in basins]), dims="basin", coords={"basin": [b.name for b in basins]})
 
 
 def basin_shares(
-    pr: xr.DataArray, basins, months=(7, 8), how: str = "ratio_of_sums", years=None, year_start: int = 1, bundle=None
+    pr: xr.DataArray,
+    basins: Any,
+    months: Any = (7, 8),
+    how: str = "ratio_of_sums",
+    years: Sequence[int] | None = None,
+    year_start: int = 1,
+    bundle: xr.Dataset | None = None,
 ) -> xr.Dataset:
     """Seasonal share of each basin, per year and over the years, with its Sen slope (lazy).
 
@@ -152,7 +161,9 @@ def _grid_map(da: xr.DataArray) -> xr.DataArray:
     return da.reset_coords([c for c in da.coords if c not in da.dims and c not in _CELL_BOUNDS], drop=True)
 
 
-def summary_bundle(pr: xr.DataArray, months=(7, 8), baseline=(1991, 2020), year_start: int = 1) -> xr.Dataset:
+def summary_bundle(
+    pr: xr.DataArray, months: Any = (7, 8), baseline: Sequence[int] = (1991, 2020), year_start: int = 1
+) -> xr.Dataset:
     """The :func:`cw.climatology_bundle` behind the basin table and its maps (lazy).
 
     Pass it as ``bundle=`` to :func:`basin_table`, :func:`summary_maps` and :func:`what_if`
@@ -162,7 +173,11 @@ def summary_bundle(pr: xr.DataArray, months=(7, 8), baseline=(1991, 2020), year_
 
 
 def summary_maps(
-    pr: xr.DataArray | None, months=(7, 8), baseline=(1991, 2020), year_start: int = 1, bundle=None
+    pr: xr.DataArray | None,
+    months: Any = (7, 8),
+    baseline: Sequence[int] = (1991, 2020),
+    year_start: int = 1,
+    bundle: xr.Dataset | None = None,
 ) -> xr.Dataset:
     """The two maps beside the basin table: seasonal share and annual normal of every cell (lazy).
 
@@ -208,7 +223,11 @@ def summary_maps(
 
 
 def share_map(
-    pr: xr.DataArray, months=(7, 8), how: str = "ratio_of_sums", years=None, year_start: int = 1
+    pr: xr.DataArray,
+    months: Any = (7, 8),
+    how: str = "ratio_of_sums",
+    years: Sequence[int] | None = None,
+    year_start: int = 1,
 ) -> xr.DataArray:
     """The seasonal share of every cell (:func:`cw.seasonal_fraction`, lazy).
 
@@ -229,7 +248,7 @@ def share_map(
     return share.assign_attrs(_share_display(months))
 
 
-def _share_display(months) -> dict:
+def _share_display(months: Any) -> dict[str, Any]:
     """How a share map is shown: in % like the basin tables (the catalogue's seasonal share)."""
     meta = CATALOGUE["seasonal_share_1"]
     return {
@@ -240,14 +259,14 @@ def _share_display(months) -> dict:
     }
 
 
-def field_means(field: xr.DataArray, basins) -> xr.Dataset:
+def field_means(field: xr.DataArray, basins: Any) -> xr.Dataset:
     """Area and area-weighted mean of any field per basin (lazy): the table beside drawn basins.
 
     Parameters
     ----------
     field : xarray.DataArray
         A map (lat, lon) in any units; its ``units`` attribute names the mean's.
-    basins : list of Basin or BasinSet
+    basins : list[Any] of Basin or BasinSet
 
     Returns
     -------
@@ -259,7 +278,7 @@ def field_means(field: xr.DataArray, basins) -> xr.Dataset:
     return field_means_table(basins, means.assign_attrs(units=field.attrs.get("units", "")))
 
 
-def field_means_table(basins, means: xr.DataArray) -> xr.Dataset:
+def field_means_table(basins: Any, means: xr.DataArray) -> xr.Dataset:
     """:func:`field_means` from basin means already at hand (``means`` on basin, with units)."""
     units = means.attrs.get("units", "")
     return xr.Dataset(
@@ -278,7 +297,12 @@ def field_means_table(basins, means: xr.DataArray) -> xr.Dataset:
 
 
 def basin_table(
-    pr: xr.DataArray, basins, months=(7, 8), baseline=(1991, 2020), year_start: int = 1, bundle=None
+    pr: xr.DataArray,
+    basins: Any,
+    months: Any = (7, 8),
+    baseline: Sequence[int] = (1991, 2020),
+    year_start: int = 1,
+    bundle: xr.Dataset | None = None,
 ) -> xr.Dataset:
     """The basin table of water-planning figures as a lazy Dataset, with its maps.
 
@@ -361,9 +385,9 @@ def basin_table(
     return ds
 
 
-def _check_percent(percent, func):
+def _check_percent(given: object, func: str) -> float:
     try:
-        percent = float(percent)
+        percent = float(given)  # type: ignore[arg-type]  # anything float() takes
     except (TypeError, ValueError):
         percent = np.nan
     if not np.isfinite(percent) or percent <= -100.0:
@@ -379,12 +403,12 @@ def _check_percent(percent, func):
 
 def what_if(
     pr: xr.DataArray,
-    basins,
-    months=(11, 12, 1, 2, 3),
+    basins: Any,
+    months: Any = (11, 12, 1, 2, 3),
     percent: float = 5.0,
     year_start: int = 1,
-    years=None,
-    bundle=None,
+    years: Sequence[int] | None = None,
+    bundle: xr.Dataset | None = None,
 ) -> xr.Dataset:
     """Change in mean annual basin volume if the season's precipitation changed by ``percent``.
 
@@ -437,14 +461,20 @@ def what_if(
     return ds
 
 
-def _table(ds: xr.Dataset, columns, keys) -> pd.DataFrame:
+def _table(ds: xr.Dataset, columns: Sequence[str] | None, keys: Sequence[str]) -> pd.DataFrame:
     out = frame(ds, index=("basin",), columns=columns)
     out.index.name = "basin"
     out.attrs = {k: ds.attrs[k] for k in keys if k in ds.attrs}
     return out
 
 
-def basin_summary(pr: xr.DataArray, basins, months=(7, 8), baseline=(1991, 2020), year_start: int = 1) -> pd.DataFrame:
+def basin_summary(
+    pr: xr.DataArray,
+    basins: Any,
+    months: Any = (7, 8),
+    baseline: Sequence[int] = (1991, 2020),
+    year_start: int = 1,
+) -> pd.DataFrame:
     """One row per basin of water-planning figures from a precipitation grid (mm per step).
 
     The computed columns of :func:`basin_table` (:data:`SUMMARY_COLUMNS`, units in the
@@ -462,7 +492,12 @@ def basin_summary(pr: xr.DataArray, basins, months=(7, 8), baseline=(1991, 2020)
 
 
 def scenario_delta(
-    pr: xr.DataArray, basin, months=(11, 12, 1, 2, 3), percent: float = 5.0, year_start: int = 1, years=None
+    pr: xr.DataArray,
+    basin: Any,
+    months: Any = (11, 12, 1, 2, 3),
+    percent: float = 5.0,
+    year_start: int = 1,
+    years: Sequence[int] | None = None,
 ) -> pd.DataFrame:
     """:func:`what_if` computed, as a DataFrame (one row per basin, :data:`WHAT_IF_COLUMNS`)."""
     ds = what_if(pr, basin, months=months, percent=percent, year_start=year_start, years=years).compute()

@@ -8,6 +8,9 @@ products are computed in one ``dask.compute``.
 
 from __future__ import annotations
 
+from collections.abc import Sequence
+from typing import Any
+
 import numpy as np
 import pandas as pd
 import xarray as xr
@@ -51,7 +54,9 @@ PRODUCT_COLUMNS = ("annual_mean_mm", "seasonal_share", "normal_mm", "trend_mm_pe
 _DESCRIPTION = {"annual_mean_mm": "mean annual total of the basin over the complete years common to all products"}
 
 
-def products_table(datasets: dict, basins, months=(7, 8), baseline=None) -> xr.Dataset:
+def products_table(
+    datasets: dict[str, Any], basins: Any, months: Any = (7, 8), baseline: Sequence[int] | None = None
+) -> xr.Dataset:
     """Basin climatology per product, with the spread across products (lazy Dataset).
 
     Per basin and product: mean annual total, seasonal share of ``months`` (ratio of
@@ -65,9 +70,9 @@ def products_table(datasets: dict, basins, months=(7, 8), baseline=None) -> xr.D
 
     Parameters
     ----------
-    datasets : dict of {name: DataArray}
+    datasets : dict[str, Any] of {name: DataArray}
         Precipitation products (any step, calendar and grid); at least two.
-    basins : list of Basin or BasinSet
+    basins : list[Any] of Basin or BasinSet
     months : sequence of int
         The season whose share is reported.
     baseline : (int, int), optional
@@ -144,7 +149,9 @@ def products_table(datasets: dict, basins, months=(7, 8), baseline=None) -> xr.D
     )
 
 
-def products_basin_table(datasets: dict, basins, months=(7, 8), baseline=None) -> pd.DataFrame:
+def products_basin_table(
+    datasets: dict[str, Any], basins: Any, months: Any = (7, 8), baseline: Sequence[int] | None = None
+) -> pd.DataFrame:
     """:func:`products_table` computed into a table indexed by (basin, product).
 
     The columns are the :data:`PRODUCT_COLUMNS` (numbers as stored); ``attrs["columns"]``
@@ -164,18 +171,18 @@ def products_frame(ds: xr.Dataset) -> pd.DataFrame:
     return table
 
 
-def aligned_products(datasets: dict, **options) -> dict:
+def aligned_products(datasets: dict[str, Any], **options: Any) -> dict[str, Any]:
     """The products on their common complete months and one grid (:func:`cw.align`; by default the
     coarsest product's grid; ``options`` are those of :func:`cw.align`)."""
     return align(datasets, **options)
 
 
-def agreement_maps(aligned: dict, reference: str, other: str, kge: str = "2009") -> xr.Dataset:
+def agreement_maps(aligned: dict[str, Any], reference: str, other: str, kge: str = "2009") -> xr.Dataset:
     """Per-cell agreement of ``other`` with ``reference`` (lazy), each metric with its words.
 
     Parameters
     ----------
-    aligned : dict of {name: DataArray}
+    aligned : dict[str, Any] of {name: DataArray}
         Products from :func:`aligned_products` (one grid, one period).
     reference, other : str
         The two products compared.

@@ -8,6 +8,9 @@ cautions travel in ``attrs["cautions"]``.
 
 from __future__ import annotations
 
+from collections.abc import Iterator, Sequence
+from typing import Any
+
 import pandas as pd
 import xarray as xr
 
@@ -27,7 +30,7 @@ __all__ = [
 DDF_COLUMNS = ("ddf_estimate", "ddf_lower", "ddf_upper")
 
 
-def _one(ds: xr.Dataset, basin=None) -> xr.Dataset:
+def _one(ds: xr.Dataset, basin: Any = None) -> xr.Dataset:
     if "basin" in ds.dims:
         names = [str(b) for b in ds["basin"].values]
         if basin is None and len(names) == 1:
@@ -58,7 +61,7 @@ def _labels(ds: xr.Dataset) -> list[str]:
     return [f"{int(d)} {unit}{'s' if int(d) > 1 else ''}" for d in ds["duration"].values]
 
 
-def ddf_long_table(ds: xr.Dataset, basin=None, display: bool = False) -> pd.DataFrame:
+def ddf_long_table(ds: xr.Dataset, basin: Any = None, display: bool = False) -> pd.DataFrame:
     """One row per (duration, return period): depth, lower, upper (stored, or shown)."""
     one = _one(ds, basin)
     units = str(one["estimate"].attrs.get("units", "mm"))
@@ -91,7 +94,7 @@ def ddf_long_table(ds: xr.Dataset, basin=None, display: bool = False) -> pd.Data
     return table
 
 
-def ddf_wide_table(ds: xr.Dataset, basin=None) -> pd.DataFrame:
+def ddf_wide_table(ds: xr.Dataset, basin: Any = None) -> pd.DataFrame:
     """Depths as shown: rows durations, columns return periods ("100 years"), in the table's units."""
     one = _one(ds, basin)
     units = str(one["estimate"].attrs.get("units", "mm"))
@@ -115,12 +118,12 @@ DESIGN_TABLE_NOTE = (
 
 def basin_design_table(
     series: xr.DataArray,
-    durations=None,
-    periods=(2, 5, 10, 25, 50, 100),
+    durations: Sequence[float] | None = None,
+    periods: Sequence[float] = (2, 5, 10, 25, 50, 100),
     ci: float = 0.9,
     n_boot: int = 1000,
     year_start: int = 1,
-    seed=0,
+    seed: Any = 0,
 ) -> xr.Dataset:
     """Design depths of each basin by duration and return period, from its basin-mean series.
 
@@ -149,7 +152,7 @@ def basin_design_table(
     return ds
 
 
-def _columns(one: xr.Dataset, pct: str):
+def _columns(one: xr.Dataset, pct: str) -> Iterator[tuple[str, str, Any, dict[str, str]]]:
     for p in one["period"].values:
         name = f"{int(p)} years"
         yield name, "estimate", p, {"label": name}
@@ -157,7 +160,7 @@ def _columns(one: xr.Dataset, pct: str):
         yield f"{name} upper {pct}", "upper", p, {"label": f"{name} upper {pct}"}
 
 
-def design_depth_table(ds: xr.Dataset, basin=None) -> pd.DataFrame:
+def design_depth_table(ds: xr.Dataset, basin: Any = None) -> pd.DataFrame:
     """Numbers of the design-depth table: rows durations, per return period the depth and its interval.
 
     Columns "10 years", "10 years lower 90%", "10 years upper 90%", ... in the table's

@@ -17,6 +17,9 @@ lowest member).  The widgets' "Ensemble member" menu applies it to what they com
 
 from __future__ import annotations
 
+from collections.abc import Sequence
+from typing import Any
+
 import numpy as np
 import xarray as xr
 
@@ -28,7 +31,7 @@ from .meta import MEMBER_VIEWS, ensemble_attrs, member_view_attrs, table_variabl
 __all__ = ["MEMBER_VIEWS", "ensemble_basin_table", "member_choices", "member_view"]
 
 
-def _spread(spread, func):
+def _spread(spread: Any, func: str) -> tuple[float, float] | None:
     if isinstance(spread, str) and spread == "range":
         return None
     try:
@@ -47,7 +50,9 @@ def _spread(spread, func):
     return lo, hi
 
 
-def ensemble_basin_table(table: xr.Dataset, dim=None, spread="range", columns=None) -> xr.Dataset:
+def ensemble_basin_table(
+    table: xr.Dataset, dim: str | None = None, spread: Any = "range", columns: Sequence[str] | None = None
+) -> xr.Dataset:
     """The ensemble mean and spread of every described column of a basin table.
 
     Parameters
@@ -82,7 +87,7 @@ def ensemble_basin_table(table: xr.Dataset, dim=None, spread="range", columns=No
     """
     func = "ensemble_basin_table"
     q = _spread(spread, func)
-    names: list = list(table.data_vars) if columns is None else list(columns)
+    names: list[Any] = list(table.data_vars) if columns is None else list(columns)
     first = next((table[n] for n in names if n in table), None)
     if first is None:
         raise ParameterError(
@@ -132,7 +137,7 @@ def ensemble_basin_table(table: xr.Dataset, dim=None, spread="range", columns=No
     return out
 
 
-def member_choices(obj, dim=None) -> list:
+def member_choices(obj: Any, dim: str | None = None) -> list[Any]:
     """The choices :func:`member_view` takes for ``obj``: every member label, then the summaries.
 
     Parameters
@@ -165,11 +170,11 @@ def member_choices(obj, dim=None) -> list:
     return labels + list(MEMBER_VIEWS)
 
 
-def _numeric(da) -> bool:
+def _numeric(da: xr.DataArray) -> bool:
     return bool(np.issubdtype(da.dtype, np.number) or np.issubdtype(da.dtype, np.bool_))
 
 
-def member_view(obj, choice, dim=None):
+def member_view(obj: Any, choice: str, dim: str | None = None) -> Any:
     """One member, the ensemble mean or the spread between members of a result.
 
     The view of a result computed for every member of an ensemble.  For a statistic that
@@ -247,7 +252,7 @@ def member_view(obj, choice, dim=None):
         )
     n = int(obj.sizes[dim])
 
-    def one(da):
+    def one(da: xr.DataArray) -> xr.DataArray:
         if summary and not _numeric(da):
             raise ParameterError(
                 f"{da.name or 'the DataArray'} holds {da.dtype} values, not numbers",
@@ -267,6 +272,7 @@ def member_view(obj, choice, dim=None):
         out.attrs = member_view_attrs(da.attrs, choice, n)
         return out
 
+    result: xr.DataArray | xr.Dataset
     if isinstance(obj, xr.DataArray):
         result = one(obj)
         result.name = obj.name

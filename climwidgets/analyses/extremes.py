@@ -9,6 +9,10 @@ period.  :func:`warmed_depths` scales the depths by the Clausius-Clapeyron facto
 
 from __future__ import annotations
 
+from collections.abc import Sequence
+from typing import Any
+import pandas as pd
+
 import xarray as xr
 
 from ..compute.extremes import annual_maxima
@@ -59,12 +63,12 @@ POINT_COLUMNS = (
 
 def depth_field(
     pr: xr.DataArray,
-    periods=(2, 10, 25, 50, 100),
+    periods: Sequence[float] = (2, 10, 25, 50, 100),
     ci: float = 0.9,
     n_boot: int = 1000,
     year_start: int = 1,
-    seed=0,
-    **duration,
+    seed: Any = 0,
+    **duration: Any,
 ) -> xr.Dataset:
     """Return levels of every cell: the map of point design depths (lazy).
 
@@ -104,14 +108,14 @@ def warmed_field(levels: xr.Dataset, delta_t: float = 0.0, rate: float = 0.07) -
 
 def areal_design_depths(
     pr: xr.DataArray,
-    basins,
-    periods=(2, 10, 25, 50, 100),
+    basins: Any,
+    periods: Sequence[float] = (2, 10, 25, 50, 100),
     ci: float = 0.9,
     n_boot: int = 1000,
     year_start: int = 1,
-    seed=0,
-    series=None,
-    **duration,
+    seed: Any = 0,
+    series: xr.DataArray | None = None,
+    **duration: Any,
 ) -> xr.Dataset:
     """Areal return levels of each basin (lazy Dataset on basin × return_period).
 
@@ -172,16 +176,16 @@ def areal_design_depths(
 
 def point_design_depths(
     pr: xr.DataArray,
-    basins,
-    periods=(2, 10, 25, 50, 100),
+    basins: Any,
+    periods: Sequence[float] = (2, 10, 25, 50, 100),
     ci: float = 0.9,
     n_boot: int = 500,
     n_sim: int = 500,
     year_start: int = 1,
-    seed=0,
+    seed: Any = 0,
     min_years: int = 10,
     regional: xr.Dataset | None = None,
-    **duration,
+    **duration: Any,
 ) -> xr.Dataset:
     """At-site and regional point depths of each basin, side by side (lazy Dataset, basin × return_period).
 
@@ -287,7 +291,7 @@ def point_design_depths(
     return ds
 
 
-def point_depth_table(ds: xr.Dataset, period=None, display: bool = False):
+def point_depth_table(ds: xr.Dataset, period: Any = None, display: bool = False) -> pd.DataFrame:
     """The at-site / regional table of :func:`point_design_depths`, per basin (at ``period``) or basin × period."""
     columns = (*POINT_COLUMNS, "heterogeneity_h1", "discordant_cells")
     if period is not None:
@@ -310,7 +314,7 @@ def warmed_depths(ds: xr.Dataset, delta_t: float = 0.0, rate: float = 0.07) -> x
     return out
 
 
-def depth_table(ds: xr.Dataset, period=None, display: bool = False):
+def depth_table(ds: xr.Dataset, period: Any = None, display: bool = False) -> pd.DataFrame:
     """The areal-depth table: one row per basin (at ``period``) or per basin and period."""
     if period is not None:
         one = ds.sel(return_period=period)
@@ -322,15 +326,15 @@ def depth_table(ds: xr.Dataset, period=None, display: bool = False):
 
 def regional_fit(
     pr: xr.DataArray,
-    basins,
-    periods=(2, 10, 25, 50, 100),
+    basins: Any,
+    periods: Sequence[float] = (2, 10, 25, 50, 100),
     ci: float = 0.9,
     n_boot: int = 500,
     n_sim: int = 500,
     year_start: int = 1,
-    seed=0,
+    seed: Any = 0,
     min_years: int = 10,
-    **duration,
+    **duration: Any,
 ) -> xr.Dataset:
     """:func:`cw.regional_frequency` of the annual maxima, each basin one region (lazy).
 
@@ -347,16 +351,16 @@ def regional_fit(
 
 def regional_depth_field(
     pr: xr.DataArray,
-    basins,
-    periods=(2, 10, 25, 50, 100),
+    basins: Any,
+    periods: Sequence[float] = (2, 10, 25, 50, 100),
     ci: float = 0.9,
     n_boot: int = 500,
     n_sim: int = 500,
     year_start: int = 1,
-    seed=0,
+    seed: Any = 0,
     min_years: int = 10,
     regional: xr.Dataset | None = None,
-    **duration,
+    **duration: Any,
 ) -> xr.Dataset:
     """Regional (index-flood) point depths of every cell, each basin pooled as one region (lazy).
 

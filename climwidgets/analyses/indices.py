@@ -16,6 +16,10 @@ Zhang, X. et al. (2011) WIREs Climate Change 2, 851-870. doi:10.1002/wcc.147
 
 from __future__ import annotations
 
+from collections.abc import Sequence
+from typing import Any
+import pandas as pd
+
 import numpy as np
 import xarray as xr
 
@@ -42,7 +46,7 @@ BASIN_INDEX_NOTE = (
 )
 
 
-def _index_attrs(name: str, compute_attrs: dict) -> dict:
+def _index_attrs(name: str, compute_attrs: dict[str, Any]) -> dict[str, Any]:
     attrs = index_meta(name).attrs()
     attrs["long_name"] = compute_attrs.get("long_name", attrs["label"])
     attrs["definition"] = compute_attrs.get("description", "")
@@ -51,10 +55,10 @@ def _index_attrs(name: str, compute_attrs: dict) -> dict:
 
 def gridded_indices(
     pr: xr.DataArray,
-    names=None,
-    base_period=(1961, 1990),
+    names: Sequence[str] | None = None,
+    base_period: Sequence[int] = (1961, 1990),
     year_start: int = 1,
-    thresholds=(),
+    thresholds: Sequence[float] = (),
     indices: xr.Dataset | None = None,
 ) -> xr.Dataset:
     """Per-cell, per-year ETCCDI indices with their display attributes (lazy).
@@ -84,7 +88,7 @@ def gridded_indices(
     return out
 
 
-def _years(indices: xr.Dataset, period, source: str):
+def _years(indices: xr.Dataset, period: Any, source: str) -> tuple[int, int]:
     have = np.asarray(indices["year"].values, dtype=int)
     if period is None:
         return int(have.min()), int(have.max())
@@ -109,7 +113,7 @@ def _years(indices: xr.Dataset, period, source: str):
     return first, last
 
 
-def _check_name(indices: xr.Dataset, name: str, source: str):
+def _check_name(indices: xr.Dataset, name: str, source: str) -> None:
     if name not in indices.data_vars:
         raise ParameterError(
             f"index {name!r} was not computed",
@@ -120,7 +124,7 @@ def _check_name(indices: xr.Dataset, name: str, source: str):
         )
 
 
-def index_map(indices: xr.Dataset, name: str, period=None) -> xr.DataArray:
+def index_map(indices: xr.Dataset, name: str, period: Any = None) -> xr.DataArray:
     """Mean of one index over the years of ``period`` (first, last), per cell (lazy).
 
     A cell is NaN when any year of the period is NaN (a year with a missing day), so the
@@ -134,7 +138,7 @@ def index_map(indices: xr.Dataset, name: str, period=None) -> xr.DataArray:
     return out.rename(name)
 
 
-def index_trend_map(indices: xr.Dataset, name: str, period=None) -> xr.Dataset:
+def index_trend_map(indices: xr.Dataset, name: str, period: Any = None) -> xr.Dataset:
     """Per-cell Sen slope (per decade) and two-sided Mann-Kendall p of one index over ``period`` (lazy).
 
     Returns a Dataset with ``slope_per_decade`` (index units per decade) and ``pvalue``
@@ -174,7 +178,7 @@ def index_trend_map(indices: xr.Dataset, name: str, period=None) -> xr.Dataset:
     return xr.Dataset({"slope_per_decade": slope, "pvalue": pvalue})
 
 
-def basin_index_table(indices: xr.Dataset, basins, name: str, period=None) -> xr.Dataset:
+def basin_index_table(indices: xr.Dataset, basins: Any, name: str, period: Any = None) -> xr.Dataset:
     """One index per basin over ``period``: mean, Sen slope, Mann-Kendall p and the per-year series.
 
     Returns a lazy Dataset on ``basin`` with ``area_km2``, ``index_mean``, ``index_slope``
@@ -246,7 +250,7 @@ def basin_index_table(indices: xr.Dataset, basins, name: str, period=None) -> xr
     return ds
 
 
-def index_table(ds: xr.Dataset, display: bool = False):
+def index_table(ds: xr.Dataset, display: bool = False) -> pd.DataFrame:
     """The basin index table (rows: basins) as stored (CSV) or as shown (widgets, report)."""
     columns = [c for c in INDEX_TABLE_COLUMNS if c in ds.data_vars]
     return frame(ds, columns=columns, display=display)

@@ -55,6 +55,9 @@ and the statute mile 1 609.344 m.
 
 from __future__ import annotations
 
+from collections.abc import Callable, Hashable, Sequence
+from typing import Any
+
 import re
 from dataclasses import dataclass
 
@@ -104,7 +107,7 @@ class Meta:
     display_scale: float = 1.0
     display_format: str = ".4g"
 
-    def attrs(self) -> dict:
+    def attrs(self) -> dict[str, Any]:
         return {
             "label": self.label,
             "units": self.units,
@@ -447,7 +450,7 @@ MEMBER_VIEWS: dict[str, dict[str, str]] = {
 }
 
 
-def member_view_words(choice, n_members: int | None = None) -> dict[str, str]:
+def member_view_words(choice: str, n_members: int | None = None) -> dict[str, str]:
     """Menu words, file-name tag and description of one member view.
 
     ``choice`` is ``"mean"``, ``"spread"`` or a member label; ``n_members`` adds the
@@ -462,7 +465,7 @@ def member_view_words(choice, n_members: int | None = None) -> dict[str, str]:
     return {"label": f"member {choice}", "tag": f"member-{safe}", "description": f"ensemble member {choice}"}
 
 
-def member_view_attrs(attrs: dict, choice, n_members: int | None = None) -> dict:
+def member_view_attrs(attrs: dict[str, Any], choice: str, n_members: int | None = None) -> dict[str, Any]:
     """The attributes of a variable seen as one member view (see :data:`MEMBER_VIEWS`).
 
     Every view records itself in ``ensemble_member``.  A summary also names itself in the
@@ -481,7 +484,7 @@ def member_view_attrs(attrs: dict, choice, n_members: int | None = None) -> dict
     return out
 
 
-def ensemble_attrs(attrs: dict, stat: str, words: str | None = None) -> dict:
+def ensemble_attrs(attrs: dict[str, Any], stat: str, words: str | None = None) -> dict[str, Any]:
     """The display attributes of one ensemble figure of a described column."""
     words = ENSEMBLE_STATS[stat] if words is None else words
     out = dict(attrs)
@@ -490,7 +493,7 @@ def ensemble_attrs(attrs: dict, stat: str, words: str | None = None) -> dict:
     return out
 
 
-def describe(da: xr.DataArray, name: str, **overrides) -> xr.DataArray:
+def describe(da: xr.DataArray, name: str, **overrides: Any) -> xr.DataArray:
     """``da`` named ``name`` with the display attributes of :data:`CATALOGUE` (and overrides)."""
     meta = CATALOGUE.get(name)
     attrs = (
@@ -513,21 +516,21 @@ def describe(da: xr.DataArray, name: str, **overrides) -> xr.DataArray:
     return out
 
 
-def column_heading(attrs: dict, name: str = "") -> str:
+def column_heading(attrs: dict[str, Any], name: str = "") -> str:
     """'label [display units]', or the label alone when the number has no units."""
     label = attrs.get("label", name)
     units = attrs.get("display_units", attrs.get("units", ""))
     return f"{label} [{units}]" if units and units != "1" else str(label)
 
 
-def format_cell(value, attrs: dict) -> str:
+def format_cell(value: object, attrs: dict[str, Any]) -> str:
     """One shown value as text (the display scale is already applied), '–' when missing."""
     if value is None or value is pd.NA:
         return "–"
     if isinstance(value, (str, bytes)):
         return str(value)
     try:
-        v = float(value)
+        v = float(value)  # type: ignore[arg-type]  # anything float() takes
     except (TypeError, ValueError):
         return str(value)
     if not np.isfinite(v):
@@ -539,10 +542,10 @@ def format_cell(value, attrs: dict) -> str:
     return text
 
 
-def table_variables(ds: xr.Dataset, index) -> list[str]:
+def table_variables(ds: xr.Dataset, index: Sequence[Hashable]) -> list[str]:
     """The variables of ``ds`` that are columns of a table indexed by ``index`` dims."""
     index = tuple(index)
-    return [k for k, v in ds.data_vars.items() if set(v.dims) == set(index) and "label" in v.attrs]
+    return [str(k) for k, v in ds.data_vars.items() if set(v.dims) == set(index) and "label" in v.attrs]
 
 
 # ------------------------------------------------------------------ unit systems
@@ -555,7 +558,7 @@ KM2_PER_MI2 = 1.609344**2
 _SYSTEM_WORDS = {"si": "SI", "metric": "SI", "us": "US", "us customary": "US", "customary": "US"}
 
 
-def unit_system(units, source: str = "units") -> str:
+def unit_system(units: object, source: str = "units") -> str:
     """``"SI"`` or ``"US"`` for a unit-system choice ("SI", "si", "US", "us", "US customary").
 
     Raises
@@ -581,7 +584,7 @@ def _one_more_decimal(spec: str) -> str:
     return f"{m.group(1)}.{int(m.group(2)) + 1}f" if m else spec
 
 
-def _us_conversion(units: str):
+def _us_conversion(units: str) -> tuple[float, str, str | None, Callable[[str], str]] | None:
     """(factor from the stored number, CF units, words replacing the SI display units or
     None to keep them with 'mm' made 'in', format rule) for stored SI ``units``; None if
     the units stay."""
@@ -595,12 +598,12 @@ def _us_conversion(units: str):
     return None
 
 
-def unit_attrs(attrs: dict, units: str = "SI") -> dict:
+def unit_attrs(attrs: dict[str, Any], units: str = "SI") -> dict[str, Any]:
     """The display attributes of a described number in the unit system ``units``.
 
     Parameters
     ----------
-    attrs : dict
+    attrs : dict[str, Any]
         The variable's attributes (``units`` of the stored SI number, ``display_units``,
         ``display_scale``, ``display_format``, ``label``).
     units : {"SI", "US"}
@@ -661,7 +664,7 @@ def _us_name(name: str) -> str:
     return name
 
 
-def _column_attrs(table: pd.DataFrame, col) -> dict | None:
+def _column_attrs(table: pd.DataFrame, col: Hashable) -> dict[str, Any] | None:
     described = table.attrs.get("columns") or {}
     attrs = described.get(col) if isinstance(described.get(col), dict) else None
     if attrs is None and col in CATALOGUE:
@@ -754,7 +757,7 @@ def shown_in_units(table: pd.DataFrame, units: str = "SI") -> pd.DataFrame:
     return out
 
 
-def field_in_units(field: xr.DataArray, units: str = "SI", label: str | None = None):
+def field_in_units(field: xr.DataArray, units: str = "SI", label: str | None = None) -> tuple[xr.DataArray, str | None]:
     """``field`` with the display attributes of the unit system (``(field, label)``).
 
     The numbers are not changed: :func:`climwidgets.plot.maps.as_shown` scales them when
@@ -780,7 +783,13 @@ def field_in_units(field: xr.DataArray, units: str = "SI", label: str | None = N
     ), label
 
 
-def frame(ds: xr.Dataset, index=("basin",), display: bool = False, columns=None, units: str = "SI") -> pd.DataFrame:
+def frame(
+    ds: xr.Dataset,
+    index: Sequence[Hashable] = ("basin",),
+    display: bool = False,
+    columns: Sequence[str] | None = None,
+    units: str = "SI",
+) -> pd.DataFrame:
     """A table of the described variables of ``ds`` over the ``index`` dims.
 
     ``display=False`` gives the numbers as stored, with the variable names as columns
@@ -834,7 +843,7 @@ def frame(ds: xr.Dataset, index=("basin",), display: bool = False, columns=None,
     return table
 
 
-def display_frame(table: pd.DataFrame, units: str = "SI", **overrides) -> pd.DataFrame:
+def display_frame(table: pd.DataFrame, units: str = "SI", **overrides: Any) -> pd.DataFrame:
     """A stored table (variable names as columns) as shown: scaled, under 'label [units]'.
 
     The attributes come from ``table.attrs["columns"]`` when they are dicts, else from
@@ -863,7 +872,7 @@ def display_frame(table: pd.DataFrame, units: str = "SI", **overrides) -> pd.Dat
     return out
 
 
-def _drop_twins(table: pd.DataFrame, renamed: dict, before: dict) -> pd.DataFrame:
+def _drop_twins(table: pd.DataFrame, renamed: dict[str, Any], before: dict[str, Any]) -> pd.DataFrame:
     """``table`` without the converted columns whose new heading another column already
     has (a volume in m³ shown in acre-feet beside its acre-foot twin): never two columns
     of one name, and the twin holds the same number.  ``before`` gives each column's
@@ -874,7 +883,7 @@ def _drop_twins(table: pd.DataFrame, renamed: dict, before: dict) -> pd.DataFram
     return table.drop(columns=drop) if drop else table
 
 
-def _plain_number(v) -> str:
+def _plain_number(v: object) -> str:
     """A number no catalogue describes, in fixed notation with four significant digits."""
     if isinstance(v, (bool, str, bytes)) or not isinstance(v, (int, float, np.number)):
         return format_cell(v, {})
@@ -886,7 +895,7 @@ def _plain_number(v) -> str:
     return f"{v:,.{max(0, 3 - int(np.floor(np.log10(abs(v)))))}f}"
 
 
-def people_frame(table: pd.DataFrame, units: str = "SI", **overrides) -> pd.DataFrame:
+def people_frame(table: pd.DataFrame, units: str = "SI", **overrides: Any) -> pd.DataFrame:
     """:func:`display_frame` with every cell as text in its display format (for notebooks
     and other tables read by people: no scientific notation, '–' for missing), in the
     unit system ``units``."""

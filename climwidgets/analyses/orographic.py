@@ -7,6 +7,10 @@ through the same crest and bands; this module puts them side by side, one row pe
 
 from __future__ import annotations
 
+from collections.abc import Sequence
+from typing import Any
+import pandas as pd
+
 import numpy as np
 import xarray as xr
 
@@ -55,16 +59,16 @@ def orographic_contrast(
     pr: xr.DataArray,
     elevation: xr.DataArray,
     wind_from: float = 270.0,
-    band_km=(0.0, 25.0, 50.0),
+    band_km: Sequence[float] = (0.0, 25.0, 50.0),
     ci: float = 0.9,
     n_boot: int = 500,
     wind_speed: float = 10.0,
     temperature_c: float = 10.0,
-    ridge=None,
+    ridge: Any = None,
     min_height: float | None = None,
     p_background: float = MODEL_BACKGROUND_MM_H,
     tau: float = MODEL_DELAY_S,
-) -> dict:
+) -> dict[str, Any]:
     """The observed windward/leeward contrast beside the linear orographic model's.
 
     Parameters
@@ -82,7 +86,7 @@ def orographic_contrast(
         Confidence level and bootstrap resamples of years for the ratio's interval.
     wind_speed, temperature_c : float
         Wind speed (m/s) and near-surface temperature (°C) of the linear model.
-    ridge : list of (lon, lat), optional
+    ridge : list[Any] of (lon, lat), optional
         A crest drawn by hand; otherwise it is found on the terrain.
     min_height : float, optional
         Lowest terrain height of the crest found on the terrain (m).
@@ -149,7 +153,7 @@ def band_dataset(observed: xr.Dataset, model: xr.Dataset, ci: float) -> xr.Datas
     labels = [f"{float(a):g}-{float(b):g}" for a, b in zip(lower, upper)]
     pct = f"{float(ci):.0%}"
 
-    def plain(da):
+    def plain(da: xr.DataArray) -> xr.DataArray:
         return da.reset_coords(drop=True).drop_vars("band", errors="ignore")
 
     ds = xr.Dataset(
@@ -165,7 +169,7 @@ def band_dataset(observed: xr.Dataset, model: xr.Dataset, ci: float) -> xr.Datas
     return ds.assign_coords(band=labels)
 
 
-def band_table(observed: xr.Dataset, model: xr.Dataset, ci: float, display: bool = True):
+def band_table(observed: xr.Dataset, model: xr.Dataset, ci: float, display: bool = True) -> pd.DataFrame:
     """The band table (index 'band [km]'), as shown (``display=True``) or as stored."""
     table = frame(band_dataset(observed, model, ci), index=("band",), columns=BAND_COLUMNS, display=display)
     table.index.name = "band [km]"

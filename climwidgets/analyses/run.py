@@ -9,13 +9,16 @@ collections (which some dask versions fail to finalize when the graphs overlap).
 
 from __future__ import annotations
 
+from typing import Any
+
 import dask
+from dask.base import is_dask_collection
 import xarray as xr
 
 __all__ = ["compute", "monthly_source", "small_in_memory", "IN_MEMORY_BYTES"]
 
 
-def _walk(obj, found, path=()):
+def _walk(obj: Any, found: list[tuple[tuple[Any, ...], Any]], path: tuple[Any, ...] = ()) -> None:
     if isinstance(obj, (xr.Dataset, xr.DataArray)):
         found.append((path, obj))
     elif isinstance(obj, dict):
@@ -26,13 +29,13 @@ def _walk(obj, found, path=()):
             _walk(v, found, path + (i,))
 
 
-def _variables(obj):
+def _variables(obj: Any) -> dict[tuple[Any, ...], xr.Variable]:
     if isinstance(obj, xr.DataArray):
         return {**{("coord", k): v.variable for k, v in obj.coords.items()}, ("data",): obj.variable}
     return {("var", k): v for k, v in obj.variables.items()}
 
 
-def _rebuild(obj, values: dict):
+def _rebuild(obj: Any, values: dict[tuple[Any, ...], Any]) -> Any:
     out = obj.copy(deep=False)
     for key, value in values.items():
         if key == ("data",):
@@ -44,7 +47,7 @@ def _rebuild(obj, values: dict):
     return out
 
 
-def _replace(obj, path, new):
+def _replace(obj: Any, path: tuple[Any, ...], new: Any) -> Any:
     if not path:
         return new
     head, rest = path[0], path[1:]
@@ -55,20 +58,20 @@ def _replace(obj, path, new):
     return type(obj)(items) if isinstance(obj, tuple) else items
 
 
-def compute(*objs, **dask_kwargs):
+def compute(*objs: Any, **dask_kwargs: Any) -> Any:
     """Compute xarray objects (possibly inside dicts, lists, tuples) in one dask pass.
 
     Returns the objects in memory, in the same structure; other values pass through.
     """
-    found = []
+    found: list[tuple[tuple[Any, ...], Any]] = []
     _walk(objs, found)
-    lazy = []
+    lazy: list[tuple[tuple[Any, ...], tuple[Any, ...], Any]] = []
     for path, obj in found:
         for key, var in _variables(obj).items():
-            if dask.is_dask_collection(var.data):
+            if is_dask_collection(var.data):
                 lazy.append((path, key, var.data))
-    values = dask.compute(*[x for _, _, x in lazy], **dask_kwargs) if lazy else ()
-    by_path = {}
+    values = dask.compute(*[x for _, _, x in lazy], **dask_kwargs) if lazy else ()  # type: ignore[no-untyped-call]
+    by_path: dict[tuple[Any, ...], dict[tuple[Any, ...], Any]] = {}
     for (path, key, _), value in zip(lazy, values):
         by_path.setdefault(path, {})[key] = value
     out = objs
@@ -94,7 +97,7 @@ def monthly_source(pr: xr.DataArray) -> xr.DataArray:
     from ..compute.totals import monthly_totals
 
     monthly = pr if pr.attrs.get("step") == "month" else monthly_totals(pr)
-    if not dask.is_dask_collection(monthly):
+    if not is_dask_collection(monthly):
         return monthly
     if monthly.nbytes <= IN_MEMORY_BYTES:
         return cache.cached("monthly_totals", lambda: monthly, pr)

@@ -25,6 +25,9 @@ attributes; every view of these numbers shows them.
 
 from __future__ import annotations
 
+from collections.abc import Callable, Sequence
+from typing import Any
+
 import xarray as xr
 
 from ..compute.ensemble import ensemble_summary
@@ -71,22 +74,22 @@ AGREEMENT_LEVEL = 0.8
 _SIGNALS = ("share_change_1", "normal_change_1")
 
 
-def _monthly(run):
+def _monthly(run: xr.DataArray) -> xr.DataArray:
     return run if run.attrs.get("step") == "month" else monthly_totals(run)
 
 
-def _per_basin(run, basins):
+def _per_basin(run: xr.DataArray, basins: Any) -> xr.DataArray:
     series = basin_series(_monthly(run), basins)
     out = series.reset_coords("covered_fraction", drop=True)
     out.attrs = dict(run.attrs, step="month")
     return out
 
 
-def _strip(da):
+def _strip(da: xr.DataArray) -> xr.DataArray:
     return da.drop_vars([c for c in da.coords if c not in da.dims])
 
 
-def _summary(change, member, kind):
+def _summary(change: xr.DataArray, member: str | None, kind: str) -> xr.Dataset:
     """``change`` with the ensemble figures as ``change_<stat>`` (compute.signals' names)."""
     out = xr.Dataset({"change": change})
     if member is not None:
@@ -95,7 +98,9 @@ def _summary(change, member, kind):
     return out
 
 
-def _pair_signals(base, scen, months, pb, pf, member):
+def _pair_signals(
+    base: xr.DataArray, scen: xr.DataArray, months: Any, pb: Sequence[int], pf: Sequence[int], member: str | None
+) -> tuple[xr.Dataset, xr.Dataset]:
     """Share difference and normal ratio of ``scen`` over ``pf`` against ``base`` over ``pb``.
 
     ``base`` (the observations) may lack the member dimension and be on another calendar
@@ -108,7 +113,7 @@ def _pair_signals(base, scen, months, pb, pf, member):
     return _summary(sf - sh, member, "difference"), _summary(nf / nh.where(nh > 0), member, "ratio")
 
 
-def _check_method(method, obs, func):
+def _check_method(method: str, obs: xr.DataArray | None, func: str) -> None:
     if method not in SCENARIO_METHODS:
         raise ParameterError(
             f"unknown method {method!r}",
@@ -127,9 +132,19 @@ def _check_method(method, obs, func):
         )
 
 
-def _scenario(model_hist, model_future, obs, method, historical, future, dim, func):
+def _scenario(
+    model_hist: xr.DataArray,
+    model_future: xr.DataArray,
+    obs: xr.DataArray | None,
+    method: str,
+    historical: Sequence[int] | None,
+    future: Sequence[int] | None,
+    dim: str | None,
+    func: str,
+) -> tuple[xr.DataArray, xr.DataArray, tuple[int, ...], tuple[int, ...], str | None, dict[str, Any]]:
     """(base, scenario, base period, scenario period, member dim, attrs) for an observation-based method."""
     member = check_model_runs(model_hist, model_future, dim, func)
+    assert obs is not None  # _check_method refuses these methods without observations
     obs_m, hist_m, fut_m = _monthly(obs), _monthly(model_hist), _monthly(model_future)
     if method == "monthly_ratio":
         scen = delta_change(obs_m, hist_m, fut_m, "monthly_ratio", historical=historical, future=future, dim=dim)
@@ -146,7 +161,18 @@ def _scenario(model_hist, model_future, obs, method, historical, future, dim, fu
     return obs_m, scen, pb, pf, member, attrs
 
 
-def _signals(model_hist, model_future, months, historical, future, dim, obs, method, reduce, func):
+def _signals(
+    model_hist: xr.DataArray,
+    model_future: xr.DataArray,
+    months: Any,
+    historical: Sequence[int] | None,
+    future: Sequence[int] | None,
+    dim: str | None,
+    obs: xr.DataArray | None,
+    method: str,
+    reduce: Callable[[xr.DataArray], xr.DataArray],
+    func: str,
+) -> tuple[xr.Dataset, xr.Dataset, str | None, dict[str, Any]]:
     """The share and normal signals (compute.signals layout) of the chosen comparison."""
     _check_method(method, obs, func)
     if method == "none":
@@ -165,7 +191,9 @@ def _signals(model_hist, model_future, months, historical, future, dim, obs, met
     return share, normal, member, dict(attrs, historical_period=list(pb), future_period=list(pf))
 
 
-def _dataset(share, normal, member, months, attrs, history):
+def _dataset(
+    share: xr.Dataset, normal: xr.Dataset, member: str | None, months: Any, attrs: Any, history: str
+) -> xr.Dataset:
     ds = xr.Dataset(
         {
             "share_change_1": describe(share["change"], "share_change_1"),
@@ -195,12 +223,12 @@ def _dataset(share, normal, member, months, attrs, history):
 def basin_signals(
     model_hist: xr.DataArray,
     model_future: xr.DataArray,
-    basins,
-    months=(7, 8),
-    historical=None,
-    future=None,
-    dim=None,
-    obs=None,
+    basins: Any,
+    months: Any = (7, 8),
+    historical: Sequence[int] | None = None,
+    future: Sequence[int] | None = None,
+    dim: str | None = None,
+    obs: xr.DataArray | None = None,
     method: str = "none",
 ) -> xr.Dataset:
     """Change in seasonal share and annual normal of each basin, per member and over the ensemble.
@@ -275,11 +303,11 @@ def basin_signals(
 def signal_maps(
     model_hist: xr.DataArray,
     model_future: xr.DataArray,
-    months=(7, 8),
-    historical=None,
-    future=None,
-    dim=None,
-    obs=None,
+    months: Any = (7, 8),
+    historical: Sequence[int] | None = None,
+    future: Sequence[int] | None = None,
+    dim: str | None = None,
+    obs: xr.DataArray | None = None,
     method: str = "none",
 ) -> xr.Dataset:
     """The changes of :func:`basin_signals` cell by cell: maps per member and over the ensemble.
@@ -333,12 +361,12 @@ def signal_maps(
 def basin_depth_signals(
     model_hist: xr.DataArray,
     model_future: xr.DataArray,
-    basins,
-    periods=(100,),
+    basins: Any,
+    periods: Sequence[float] = (100,),
     duration_days: int = 1,
-    historical=None,
-    future=None,
-    dim=None,
+    historical: Sequence[int] | None = None,
+    future: Sequence[int] | None = None,
+    dim: str | None = None,
     n_boot: int = 200,
     ci: float = 0.9,
     seed: int = 0,

@@ -9,7 +9,7 @@ small numpy arrays; the reduction is xarray arithmetic and stays lazy.
 from __future__ import annotations
 
 from collections.abc import Hashable, Iterable
-from typing import TYPE_CHECKING, Any, cast
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
 import xarray as xr
@@ -137,7 +137,7 @@ def _check_field(field: Any, func: str) -> xr.DataArray:
             expected="a DataArray on a lat/lon grid",
             fix="select one variable, e.g. ds['pr']",
         )
-    return cast(xr.DataArray, canonical_names(field))  # io is not typed yet
+    return canonical_names(field)
 
 
 def _weighted_mean(sub: xr.DataArray, w: xr.DataArray, dims: Iterable[Hashable]) -> tuple[xr.DataArray, xr.DataArray]:

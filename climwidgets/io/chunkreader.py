@@ -29,13 +29,20 @@ from __future__ import annotations
 
 import os
 import zlib
+from collections.abc import Callable, Iterator, Mapping, Sequence
+from typing import Any
 
 import numpy as np
+from numpy.typing import NDArray
+
+# a chunk's bytes between filters: bytes from disk, or what a filter step returns
+RawBytes = bytes | memoryview | NDArray[np.uint8]
+Region = tuple[slice, ...]
 
 _DEFLATE, _SHUFFLE, _FLETCHER32 = 1, 2, 3
 
 
-def _unshuffle(data: bytes, size: int):
+def _unshuffle(data: RawBytes, size: int) -> RawBytes:
     """Undo HDF5's byte shuffle: stored as all first bytes, then all second bytes, ...
 
     One contiguous column copy per byte position: several times faster than a transposed
@@ -69,7 +76,7 @@ class ChunkReadError(ValueError):
 _ROW = 4096  # words per row when the checksum folds the chunk into a 2-D array
 
 
-def _fletcher32(data) -> int:
+def _fletcher32(data: RawBytes) -> int:
     """HDF5's Fletcher-32 checksum of a byte string (16-bit words read big-endian).
 
     The same value as HDF5's ``H5_checksum_fletcher32``: with words w_0 … w_{n-1},
@@ -103,10 +110,10 @@ def _fletcher32(data) -> int:
     return (s2 << 16) | s1
 
 
-_FAST_FLETCHER32: list = []  # [codec or None], decided on first use
+_FAST_FLETCHER32: list[Any] = []  # [codec or None], decided on first use
 
 
-def _fast_fletcher32():
+def _fast_fletcher32() -> Any:
     """numcodecs' Fletcher32 codec if it follows HDF5's convention here, else None.
 
     numcodecs 0.16 computes HDF5's sum (big-endian 16-bit words, an odd last byte as a
@@ -140,7 +147,7 @@ def _fast_fletcher32():
     return _FAST_FLETCHER32[0]
 
 
-def _check_fletcher32(data: bytes):
+def _check_fletcher32(data: RawBytes) -> RawBytes:
     """The chunk without its checksum trailer, after checking the trailer against the data.
 
     HDF5 accepts the correct sum and, for files written by its releases before 1.6.3,
@@ -152,7 +159,8 @@ def _check_fletcher32(data: bytes):
     codec = _fast_fletcher32()
     if codec is not None:
         try:
-            return codec.decode(data)
+            decoded: RawBytes = codec.decode(data)
+            return decoded
         except (RuntimeError, AssertionError, ValueError):
             pass
     body, trailer = data[:-4], data[-4:]
@@ -168,7 +176,19 @@ def _check_fletcher32(data: bytes):
 class ChunkIndex:
     """Byte offset and size of every stored chunk of one variable, by its chunk-grid position."""
 
-    def __init__(self, path, shape, chunk_shape, dtype, fill, filters, entries, varname=None, stamp=None, dims=None):
+    def __init__(
+        self,
+        path: str,
+        shape: Sequence[int],
+        chunk_shape: Sequence[int],
+        dtype: Any,
+        fill: Any,
+        filters: list[int],
+        entries: dict[tuple[int, ...], tuple[int, int, int]],
+        varname: str | None = None,
+        stamp: tuple[int, int] | None = None,
+        dims: list[str] | None = None,
+    ) -> None:
         self.path = path
         self.dims = dims  # dimension names (from the file's dimension scales), for messages
         self.varname, self.stamp = varname, stamp  # stamp: (size, mtime_ns) of the file indexed
@@ -179,7 +199,7 @@ class ChunkIndex:
         self.filters = filters  # list of filter ids in pipeline order
         self.entries = entries  # {chunk grid position tuple: (byte offset, size, filter mask)}
 
-    def __reduce__(self):
+    def __reduce__(self) -> Any:
         # sent to another process (a dask worker) as the file's name only: the worker opens
         # the file and reads its chunk index itself, once per process, instead of receiving
         # every chunk's offset with every task
@@ -187,20 +207,22 @@ class ChunkIndex:
             return object.__reduce__(self)
         return _index_in_process, (self.path, self.varname, self.stamp)
 
-    def positions(self, region):
+    def positions(self, region: Region) -> NDArray[np.intp]:
         """Chunk-grid positions overlapping a region given as a tuple of slices."""
         ranges = [range(s.start // c, (s.stop - 1) // c + 1) for s, c in zip(region, self.chunk_shape)]
         return np.array(np.meshgrid(*ranges, indexing="ij")).reshape(len(ranges), -1).T
 
     def decode(self, raw: bytes, mask: int) -> np.ndarray:
         """One stored chunk's values; every filter undone is checked (ChunkCheckError if not)."""
-        data = raw
+        data: RawBytes = raw
         for i, fid in reversed(list(enumerate(self.filters))):  # undo the pipeline in reverse
             if mask & (1 << i):
                 continue  # filter skipped for this chunk
             if fid == _DEFLATE:
                 try:
-                    data = zlib.decompress(data)  # checks the stream's Adler-32 and its end
+                    data = zlib.decompress(
+                        bytes(data) if isinstance(data, np.ndarray) else data
+                    )  # checks the stream's Adler-32 and its end
                 except zlib.error as exc:
                     raise ChunkCheckError(f"deflate stream is damaged (zlib.error: {exc})") from None
             elif fid == _SHUFFLE:
@@ -221,13 +243,16 @@ class ChunkIndex:
                 f"decoded chunk has {nbytes} bytes, {expected} expected for its shape {self.chunk_shape}"
             )
         if isinstance(data, np.ndarray):
-            return data.view(self.dtype).reshape(self.chunk_shape)
+            values: np.ndarray = data.view(self.dtype).reshape(self.chunk_shape)
+            return values
         return np.frombuffer(data, dtype=self.dtype).reshape(self.chunk_shape)
 
-    def describe(self, pos) -> str:
+    def describe(self, pos: Sequence[int]) -> str:
         """Where the stored chunk at grid position ``pos`` lies, in words and as slices."""
         parts = []
-        names = self.dims if self.dims and len(self.dims) == len(self.shape) else [None] * len(self.shape)
+        names: Sequence[str | None] = (
+            self.dims if self.dims and len(self.dims) == len(self.shape) else [None] * len(self.shape)
+        )
         nd = len(self.shape)
         for axis, (p, c, n, name) in enumerate(zip(pos, self.chunk_shape, self.shape, names)):
             lo, hi = p * c, min((p + 1) * c, n)
@@ -269,10 +294,10 @@ def _build_index(path: str, varname: str) -> ChunkIndex | None:
             for fid, _flags, values, _name in specs:
                 if fid == _SHUFFLE and values and int(values[0]) != d.dtype.itemsize:
                     return None  # shuffled with another element size than the values have
-            entries = {}
+            entries: dict[tuple[int, ...], tuple[int, int, int]] = {}
             chunk = np.array(d.chunks)
 
-            def add(info):
+            def add(info: Any) -> None:
                 entries[tuple(np.array(info.chunk_offset) // chunk)] = (info.byte_offset, info.size, info.filter_mask)
 
             if hasattr(d.id, "chunk_iter"):
@@ -296,24 +321,26 @@ def _build_index(path: str, varname: str) -> ChunkIndex | None:
         return None
 
 
-def _dim_names(d):
+def _dim_names(d: Any) -> list[str] | None:
     """The names of a NetCDF-4 variable's dimensions (its HDF5 dimension scales), or None."""
     try:
         names = [dim[0].name.rsplit("/", 1)[-1] if len(dim) else None for dim in d.dims]
     except (KeyError, ValueError, RuntimeError, OSError, IndexError):
         return None
-    return names if all(names) else None
+    return [str(n) for n in names] if all(names) else None
 
 
-def _stamp(path):
+def _stamp(path: str) -> tuple[int, int]:
     st = os.stat(path)
     return st.st_size, st.st_mtime_ns
 
 
-_INDEXES: dict = {}  # chunk indexes rebuilt in this process, by (path, variable, stamp)
+_INDEXES: dict[
+    tuple[str, str, tuple[int, int] | None], ChunkIndex
+] = {}  # chunk indexes rebuilt in this process, by (path, variable, stamp)
 
 
-def _index_in_process(path, varname, stamp):
+def _index_in_process(path: str, varname: str, stamp: tuple[int, int] | None) -> ChunkIndex:
     """The chunk index of a file in a worker process, read once; the file must be unchanged."""
     from ..errors import SourceError
 
@@ -336,7 +363,7 @@ def _index_in_process(path, varname, stamp):
     return _INDEXES[key]
 
 
-def read_region(index: ChunkIndex, region: tuple) -> np.ndarray:
+def read_region(index: ChunkIndex, region: Region) -> np.ndarray:
     """The stored values of a region (tuple of slices), assembled from whole chunks."""
     out = np.empty(tuple(s.stop - s.start for s in region), dtype=index.dtype)
     fd = os.open(index.path, os.O_RDONLY)
@@ -370,7 +397,7 @@ def read_region(index: ChunkIndex, region: tuple) -> np.ndarray:
     return out
 
 
-def _decode_cf(values: np.ndarray, fills, scale, offset) -> np.ndarray:
+def _decode_cf(values: np.ndarray, fills: Sequence[Any], scale: Any, offset: Any) -> np.ndarray:
     """CF decoding of one region; unpacked floats stay in their stored precision here."""
     packed = scale is not None or offset is not None or values.dtype.kind != "f"
     # the loader converts to float64 next; unpacked floats only get native byte order here
@@ -390,7 +417,7 @@ def _decode_cf(values: np.ndarray, fills, scale, offset) -> np.ndarray:
     return x
 
 
-def _read_error(path, varname, region, exc):
+def _read_error(path: object, varname: object, region: Region, exc: BaseException) -> Exception:
     """A damaged or truncated file found while reading values, as a SourceError naming it."""
     from ..errors import SourceError
 
@@ -405,7 +432,7 @@ def _read_error(path, varname, region, exc):
     )
 
 
-def _chunk_error(path, varname, exc: ChunkReadError):
+def _chunk_error(path: object, varname: object, exc: ChunkReadError) -> Exception:
     """A stored chunk that failed a check, as a SourceError naming the file, variable and chunk."""
     from ..errors import SourceError
 
@@ -420,7 +447,15 @@ def _chunk_error(path, varname, exc: ChunkReadError):
     )
 
 
-def _read_block(index, fills, scale, offset, varname=None, block_info=None):
+def _read_block(
+    index: ChunkIndex,
+    fills: Sequence[Any],
+    scale: Any,
+    offset: Any,
+    varname: str | None = None,
+    block_info: dict[Any, Any] | None = None,
+) -> np.ndarray:
+    assert block_info is not None  # dask passes it to functions that take it
     loc = block_info[None]["array-location"]
     region = tuple(slice(a, b) for a, b in loc)
     try:
@@ -444,11 +479,14 @@ def _read_block(index, fills, scale, offset, varname=None, block_info=None):
 class _Backend:
     """Holds a lazily read xarray Variable so that dask passes it to tasks as it is."""
 
-    def __init__(self, variable):
+    def __init__(self, variable: Any) -> None:
         self.variable = variable
 
 
-def _read_backend_block(backend, path, varname, block_info=None):
+def _read_backend_block(
+    backend: _Backend, path: object, varname: str, block_info: dict[Any, Any] | None = None
+) -> np.ndarray:
+    assert block_info is not None
     loc = block_info[None]["array-location"]
     region = tuple(slice(a, b) for a, b in loc)
     try:
@@ -457,7 +495,7 @@ def _read_backend_block(backend, path, varname, block_info=None):
         raise _read_error(path, varname, region, exc) from None
 
 
-def stored_extent(path, varname: str):
+def stored_extent(path: str, varname: str) -> tuple[int, ...] | None:
     """The shape a NetCDF-4 variable was written to (its HDF5 extent), or None if unknown.
 
     A variable on an unlimited dimension may be written for fewer records than the
@@ -473,7 +511,8 @@ def stored_extent(path, varname: str):
         return None  # NetCDF-3 or not HDF5: every variable has the dimensions' lengths
 
 
-def _missing_beyond(block, extent, block_info=None):
+def _missing_beyond(block: np.ndarray, extent: Sequence[int], block_info: dict[Any, Any] | None = None) -> np.ndarray:
+    assert block_info is not None
     """``block`` as floats, NaN where it lies beyond the variable's written extent."""
     loc = block_info[0]["array-location"]
     keep = tuple(slice(0, max(0, min(b, n) - a)) for (a, b), n in zip(loc, extent))
@@ -482,7 +521,7 @@ def _missing_beyond(block, extent, block_info=None):
     return out
 
 
-def backend_reader(variable, path, varname: str, chunks: tuple, name: str):
+def backend_reader(variable: Any, path: Any, varname: str, chunks: tuple[Any, ...], name: str) -> Any:
     """A dask array reading ``variable`` (lazy, from xarray's backend) in ``chunks``.
 
     Same as ``variable.chunk``, except that a failing read (damaged or truncated file)
@@ -492,8 +531,8 @@ def backend_reader(variable, path, varname: str, chunks: tuple, name: str):
     """
     import dask.array as dsa
 
-    normalized = dsa.core.normalize_chunks(chunks, variable.shape)
-    data = dsa.map_blocks(
+    normalized = dsa.core.normalize_chunks(chunks, variable.shape)  # type: ignore[no-untyped-call]
+    data = dsa.map_blocks(  # type: ignore[no-untyped-call]
         _read_backend_block,
         _Backend(variable),
         path,
@@ -505,13 +544,20 @@ def backend_reader(variable, path, varname: str, chunks: tuple, name: str):
     )
     extent = stored_extent(path, varname) if isinstance(path, str) else None
     if extent is not None and len(extent) == variable.ndim and tuple(extent) != tuple(variable.shape):
-        data = dsa.map_blocks(
+        data = dsa.map_blocks(  # type: ignore[no-untyped-call]
             _missing_beyond, data, extent, dtype=np.float64, name=f"{name}-written", meta=np.array((), dtype=np.float64)
         )
     return data
 
 
-def direct_reader(path: str, varname: str, encoding: dict, chunks: tuple, name: str, shape=None):
+def direct_reader(
+    path: str,
+    varname: str,
+    encoding: Mapping[str, Any],
+    chunks: tuple[Any, ...],
+    name: str,
+    shape: Sequence[int] | None = None,
+) -> Any:
     """A dask array of the decoded variable read chunk by chunk outside the HDF5 lock, or None.
 
     ``chunks`` are dask chunk sizes per dim (whole multiples of the stored chunks are
@@ -532,10 +578,10 @@ def direct_reader(path: str, varname: str, encoding: dict, chunks: tuple, name: 
     fills = [v for k in ("_FillValue", "missing_value") if (v := encoding.get(k)) is not None]
     fills = [f for v in fills for f in np.atleast_1d(v)]
     scale, offset = encoding.get("scale_factor"), encoding.get("add_offset")
-    normalized = dsa.core.normalize_chunks(chunks, shape)
+    normalized = dsa.core.normalize_chunks(chunks, shape)  # type: ignore[no-untyped-call]
     packed = scale is not None or offset is not None or index.dtype.kind != "f" or shape != index.shape
     out = np.dtype(np.float64) if packed else index.dtype.newbyteorder("=")
-    return dsa.map_blocks(
+    return dsa.map_blocks(  # type: ignore[no-untyped-call]
         _read_block,
         index,
         fills,
@@ -559,7 +605,18 @@ class StoredValues:
     dask array, and the record is then ignored.
     """
 
-    def __init__(self, name, data, factor, mask_fill, guard, source, variable, max_depth=None, dims=None):
+    def __init__(
+        self,
+        name: str,
+        data: Any,
+        factor: Any,
+        mask_fill: bool,
+        guard: bool,
+        source: object,
+        variable: object,
+        max_depth: float | None = None,
+        dims: list[Any] | None = None,
+    ) -> None:
         self.name = name  # dask name of the converted array this record belongs to
         self.data = data  # dask array of decoded stored values (fill values already NaN)
         self.factor = factor  # stored units -> mm per step
@@ -568,14 +625,16 @@ class StoredValues:
         self.max_depth = max_depth  # the loader's plausibility bound in mm per step (None: off)
         self.dims = dims  # the dims of ``data``, to say where a bound is passed
 
-    def __copy__(self):
+    def __copy__(self) -> StoredValues:
         return self
 
-    def __deepcopy__(self, memo):
+    def __deepcopy__(self, memo: object) -> StoredValues:
         return self  # immutable record; copying a DataArray must not copy a dask graph
 
 
-def _store_access(store):
+def _store_access(
+    store: Any,
+) -> tuple[Callable[[str], bytes], Callable[[str], Iterator[str]]] | None:
     """``(read(key) -> bytes, keys(prefix) -> relative keys)`` for a Zarr store, or None.
 
     Local folders are listed with ``os.walk``, fsspec mappers and URLs with their file
@@ -584,11 +643,11 @@ def _store_access(store):
     if isinstance(store, str) and "://" not in store and os.path.isdir(store):
         root = store
 
-        def read(key):
+        def read(key: str) -> bytes:
             with open(os.path.join(root, key), "rb") as fh:
                 return fh.read()
 
-        def keys(prefix):
+        def keys(prefix: str) -> Iterator[str]:
             base = os.path.join(root, prefix)
             for folder, _, files in os.walk(base):
                 rel = os.path.relpath(folder, base)
@@ -601,15 +660,15 @@ def _store_access(store):
     except ImportError:  # pragma: no cover - fsspec comes with xarray's zarr support
         return None
     mapper = fsspec.get_mapper(store) if isinstance(store, str) else store
-    fs, root = getattr(mapper, "fs", None), getattr(mapper, "root", None)
-    if fs is None or root is None:
+    fs, root_name = getattr(mapper, "fs", None), getattr(mapper, "root", None)
+    if fs is None or root_name is None:
         return None
-    root = root.rstrip("/")
+    root = str(root_name).rstrip("/")
 
-    def read_fs(key):
-        return mapper[key]
+    def read_fs(key: str) -> bytes:
+        return bytes(mapper[key])
 
-    def keys_fs(prefix):
+    def keys_fs(prefix: str) -> Iterator[str]:
         base = f"{root}/{prefix}".rstrip("/")
         for p in fs.find(base):
             p = str(p)
@@ -618,7 +677,9 @@ def _store_access(store):
     return read_fs, keys_fs
 
 
-def zarr_stored_chunks(store, varname: str):
+def zarr_stored_chunks(
+    store: Any, varname: str
+) -> tuple[tuple[int, ...], tuple[int, ...], set[tuple[int, ...]]] | None:
     """``(grid shape, chunk shape, set of stored chunk positions)`` of a Zarr array, from names
     only; or None when the store or its layout is not one this reads.
 
@@ -660,7 +721,7 @@ def zarr_stored_chunks(store, varname: str):
     if len(chunk) != len(shape) or not shape:
         return None
     grid_shape = tuple(-(-s // c) if c else 0 for s, c in zip(shape, chunk))
-    present = set()
+    present: set[tuple[int, ...]] = set()
     for key in keys(varname):
         if not key.startswith(prefix) or key in ("zarr.json", ".zarray", ".zattrs"):
             continue

@@ -69,7 +69,7 @@ def describe(
     if scan:
         import dask
 
-        total, valid, lowest, highest = dask.compute(pr.size, pr.count(), pr.min(), pr.max())  # type: ignore[attr-defined,no-untyped-call]
+        total, valid, lowest, highest = dask.compute(pr.size, pr.count(), pr.min(), pr.max())  # type: ignore[no-untyped-call]
         frac = 1 - int(valid) / total
         lines.append(f"missing data: {frac:.2%} of values; range {float(lowest):.4g}..{float(highest):.4g} mm per step")
     else:

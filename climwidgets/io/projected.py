@@ -100,7 +100,7 @@ def _edges(centres: NDArray[np.float64]) -> NDArray[np.float64]:
     return np.append(lower, upper[-1]) if centres[-1] > centres[0] else np.append(upper, lower[-1])
 
 
-def _axis_edges(grid: xr.DataArray, axis: str) -> NDArray[np.float64]:
+def _axis_edges(grid: xr.DataArray | xr.Dataset, axis: str) -> NDArray[np.float64]:
     """Cell edges along ``axis`` (m): the stored bounds when the grid carries them, else
     half-way between centres."""
     low, high = EDGE_COORDS[axis]
@@ -163,7 +163,7 @@ def _stored_edges(
     return lower, upper
 
 
-def projected_corners(grid: xr.DataArray) -> tuple[NDArray[np.float64], NDArray[np.float64]] | None:
+def projected_corners(grid: xr.DataArray | xr.Dataset) -> tuple[NDArray[np.float64], NDArray[np.float64]] | None:
     """``(lat_corners, lon_corners)`` of shape (ny, nx, 4) for a grid carrying the ``crs``
     coordinate and 1-D projected ``x``/``y`` (m), or None for any other grid.
 

@@ -213,7 +213,7 @@ def check_values(da: xr.DataArray, source: object, name: object) -> None:
     """Negative depths and all-missing data, checked in one pass."""
     import dask
 
-    lowest, valid = dask.compute(da.min(skipna=True), da.count())  # type: ignore[attr-defined,no-untyped-call]
+    lowest, valid = dask.compute(da.min(skipna=True), da.count())  # type: ignore[no-untyped-call]
     if int(valid) == 0:
         raise DataValueError(
             "contains no valid values (all missing)",

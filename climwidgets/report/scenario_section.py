@@ -89,7 +89,7 @@ def depth_section(depths: xr.Dataset, title: str = "Change in design depths") ->
     """
     ensemble = depths.attrs.get("member_dim", "none") != "none"
     names = (
-        [n for n in depths.data_vars if set(depths[n].dims) == {"basin", "return_period"}]
+        [str(n) for n in depths.data_vars if set(depths[n].dims) == {"basin", "return_period"}]
         if ensemble
         else ["historical_depth_mm", "future_depth_mm", "depth_change_1"]
     )
