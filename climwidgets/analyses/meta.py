@@ -539,6 +539,9 @@ def format_cell(value: object, attrs: dict[str, Any]) -> str:
     text = format(v, spec)
     if "e" in text.lower():  # no scientific notation in a table for people
         return _plain_number(v)
+    if text.startswith("-") and not text.strip("-+0.,% "):
+        # a value that rounds to zero has no sign to show ("-0.0" from rounding noise)
+        text = ("+" if "+" in spec else "") + text[1:]
     return text
 
 

@@ -35,3 +35,14 @@ def test_people_never_see_scientific_notation():
     assert format_cell(12345.6, {"display_format": ".4g"}) == "12,346"
     assert format_cell(1960.2, {"display_format": ".4g"}) == "1960"
     assert "e" not in format_cell(2.5e-7, {"display_format": ".3g"})
+
+
+def test_a_value_rounding_to_zero_shows_no_minus_sign():
+    """Rounding noise (-1e-14) is shown as zero, signed like a positive zero where the format
+    signs numbers (Python's format gives "-0.0", which reads as a decrease)."""
+    from climwidgets.analyses.meta import format_cell
+
+    assert format_cell(-1e-14, {"display_format": "+.1f"}) == "+0.0"
+    assert format_cell(-0.04, {"display_format": ".1f"}) == "0.0"
+    assert format_cell(-0.06, {"display_format": "+.1f"}) == "-0.1"
+    assert format_cell(-10.0, {"display_format": ".0f"}) == "-10"
