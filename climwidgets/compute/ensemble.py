@@ -33,6 +33,9 @@ __all__ = ["MEMBER_DIMS", "check_members", "ensemble_summary", "member_dim"]
 MEMBER_DIMS = ("member", "realization", "ensemble", "model")
 
 _CHANGE_KINDS = (None, "difference", "ratio")
+#: A change smaller than this (in the field's units; for a ratio, from 1) counts as none when
+#: members vote on its sign: far below any shown precision, above float rounding noise.
+NO_CHANGE_TOLERANCE = 1e-9
 
 
 def _name(obj: object) -> str:
@@ -288,9 +291,16 @@ def ensemble_summary(
     ds["n_members"] = n.assign_attrs(units="1", long_name="number of members with a value")
     if change is not None:
         ref = 0.0 if change == "difference" else 1.0
-        sign = np.sign(x - ref)
-        centre = np.sign(stats["median"][0] - ref)
-        agree = (sign == centre).where(x.notnull()).sum(dim) / n.where(n > 0)
+
+        def sign(d: xr.DataArray) -> xr.DataArray:
+            # a change within float rounding noise of none (1e-14 after a ratio of two equal
+            # sums) is no change: its sign is not the member's vote
+            out: xr.DataArray = xr.apply_ufunc(np.sign, d.where(abs(d) > NO_CHANGE_TOLERANCE, 0.0), dask="allowed")
+            return out
+
+        member_sign = sign(x - ref)
+        centre = sign(stats["median"][0] - ref)
+        agree = (member_sign == centre).where(x.notnull()).sum(dim) / n.where(n > 0)
         ds["agreement"] = agree.assign_attrs(
             units="1", long_name=f"share of members agreeing with the sign of the ensemble-median change of {what}"
         )

@@ -70,6 +70,14 @@ def test_agreement_by_hand():
     assert ds.attrs["member_dim"] == "model"
 
 
+def test_rounding_noise_is_no_change():
+    # by hand: ratios 1 ± 1e-15 (two equal sums divided in floating point) are "no change";
+    # with a median of no change, only the members with no change agree (three of four)
+    r = xr.DataArray([1.0 + 1e-15, 1.0 - 1e-15, 1.0, 1.2], dims="member", attrs={"units": "1"})
+    ds = ensemble_summary(r, change="ratio")
+    assert float(ds["agreement"]) == pytest.approx(3 / 4)
+
+
 def test_no_agreement_for_plain_field_and_single_member_std():
     da = _field(n_members=1)
     ds = ensemble_summary(da)
