@@ -50,15 +50,75 @@ _FREQ = {
 
 
 def steps_per_day(step: str) -> float:
-    """How many steps of ``step`` make one day (not defined for "month")."""
+    """How many steps of ``step`` make one day (not defined for "month").
+
+    Parameters
+    ----------
+    step : str
+        A key of :data:`STEP_SECONDS` ("hour", "day", "3hour", "15min", ...).
+
+    Returns
+    -------
+    float
+        Steps per day.
+
+    Examples
+    --------
+    >>> steps_per_day("3hour"), steps_per_day("day")
+    (8.0, 1.0)
+    """
     return 86400.0 / STEP_SECONDS[step]
 
 
 def is_subhourly(step: str) -> bool:
+    """Whether ``step`` is shorter than an hour (such steps are summed to hours on open).
+
+    Parameters
+    ----------
+    step : str
+        A step name ("15min", "hour", "day", ...).
+
+    Returns
+    -------
+    bool
+
+    Examples
+    --------
+    >>> is_subhourly("10min"), is_subhourly("hour")
+    (True, False)
+    """
     return step.endswith("min")
 
 
 def check_calendar(calendar: object, *, source: object = None, variable: str = "time") -> str:
+    """The CF calendar name in lower case, or a :class:`~climwidgets.errors.CalendarError`.
+
+    Parameters
+    ----------
+    calendar : str or None
+        The time variable's ``calendar`` attribute; None means "standard" (CF default).
+    source, variable : optional
+        Named in the error message.
+
+    Returns
+    -------
+    str
+        One of :data:`SUPPORTED_CALENDARS`.
+
+    Raises
+    ------
+    CalendarError
+        When the attribute is not text or names a calendar that is not supported.
+
+    References
+    ----------
+    CF Conventions 1.11, section 4.4.1 "Calendar".
+
+    Examples
+    --------
+    >>> check_calendar("NoLeap"), check_calendar(None)
+    ('noleap', 'standard')
+    """
     if calendar is not None and not isinstance(calendar, str):
         raise CalendarError(
             f"has a calendar attribute that is not text ({calendar!r})",
@@ -80,7 +140,23 @@ def check_calendar(calendar: object, *, source: object = None, variable: str = "
 
 
 def calendar_of(time: xr.DataArray) -> str:
-    """The CF calendar name of a decoded time coordinate."""
+    """The CF calendar name of a decoded time coordinate.
+
+    Parameters
+    ----------
+    time : xarray.DataArray
+        Decoded times: numpy datetime64 ("standard") or cftime objects.
+
+    Returns
+    -------
+    str
+
+    Examples
+    --------
+    >>> import pandas as pd, xarray as xr
+    >>> calendar_of(xr.DataArray(pd.date_range("2001-01-01", periods=3), dims="time"))
+    'standard'
+    """
     if np.issubdtype(time.dtype, np.datetime64):
         return "standard"
     return time.dt.calendar
@@ -133,6 +209,32 @@ def infer_step(time: xr.DataArray, bounds: xr.DataArray | None = None, *, source
     Where both are there they must agree: monthly stamps with one-day bounds (or bounds
     spanning several steps) are refused rather than read as daily data with every day but
     one missing in each month.
+
+    Parameters
+    ----------
+    time : xarray.DataArray
+        Decoded time stamps.
+    bounds : xarray.DataArray, optional
+        CF time bounds, shape (time, 2).
+    source : optional
+        Named in error messages.
+
+    Returns
+    -------
+    str
+        The step name.
+
+    Raises
+    ------
+    TimeAxisError
+        For a single step without bounds, bounds that disagree with the spacing, missing
+        stamps, or a step that is not regular.
+
+    Examples
+    --------
+    >>> import pandas as pd, xarray as xr
+    >>> infer_step(xr.DataArray(pd.date_range("2001-01-01", periods=4, freq="6h"), dims="time"))
+    '6hour'
     """
     index = time.to_index()
     spacing = _offsets_seconds(index) if len(index) >= 2 else None
@@ -190,14 +292,60 @@ def infer_step(time: xr.DataArray, bounds: xr.DataArray | None = None, *, source
 
 
 def step_seconds(time: xr.DataArray, step: str) -> xr.DataArray:
-    """Length of each time step in seconds in the time axis's own calendar."""
+    """Length of each time step in seconds in the time axis's own calendar.
+
+    Parameters
+    ----------
+    time : xarray.DataArray
+        Decoded time stamps.
+    step : str
+        The step name (:func:`infer_step`).
+
+    Returns
+    -------
+    xarray.DataArray
+        Seconds per step, on ``time``.
+
+    Examples
+    --------
+    >>> import pandas as pd, xarray as xr
+    >>> t = xr.DataArray(pd.date_range("2001-01-01", periods=2, freq="MS"), dims="time")
+    >>> step_seconds(t, "month").values / 86400
+    array([31., 28.])
+    """
     if step == "month":
         return (time.dt.days_in_month * 86400.0).astype(float)
     return xr.full_like(time, STEP_SECONDS[step], dtype=float)
 
 
 def check_monotonic(time_values: ArrayLike, *, source: object = None) -> None:
-    """Raise for duplicated or decreasing times; tell where the first one is."""
+    """Raise for duplicated or decreasing times; tell where the first one is.
+
+    Parameters
+    ----------
+    time_values : array_like
+        Raw numbers (undecoded) or decoded times.
+    source : optional
+        Named in the error message.
+
+    Returns
+    -------
+    None
+
+    Raises
+    ------
+    TimeAxisError
+        At the first duplicated or backward step.
+
+    Examples
+    --------
+    >>> check_monotonic([0.0, 1.0, 2.0])
+    >>> try:
+    ...     check_monotonic([0.0, 1.0, 1.0])
+    ... except TimeAxisError as err:
+    ...     print(err.problem)
+    has 1 duplicated time stamp(s); the first at position 2
+    """
     values = np.asarray(time_values)
     if values.size < 2:
         return
@@ -230,7 +378,25 @@ def check_monotonic(time_values: ArrayLike, *, source: object = None) -> None:
 
 
 def month_starts(time: xr.DataArray) -> xr.DataArray:
-    """The first instant of each time stamp's month, in the same calendar."""
+    """The first instant of each time stamp's month, in the same calendar.
+
+    Parameters
+    ----------
+    time : xarray.DataArray
+        Decoded time stamps.
+
+    Returns
+    -------
+    xarray.DataArray
+        Month starts, same dims and attributes.
+
+    Examples
+    --------
+    >>> import pandas as pd, xarray as xr
+    >>> t = xr.DataArray(pd.to_datetime(["2001-01-31", "2001-02-15"]), dims="time")
+    >>> [str(v)[:10] for v in month_starts(t).values]
+    ['2001-01-01', '2001-02-01']
+    """
     cal = calendar_of(time)
     years, months = time.dt.year.values, time.dt.month.values
     if cal == "standard" and np.issubdtype(time.dtype, np.datetime64):
@@ -243,7 +409,28 @@ def month_starts(time: xr.DataArray) -> xr.DataArray:
 
 
 def full_axis(time: xr.DataArray, step: str) -> pd.Index:
-    """Every time stamp the axis should have between its first and last entries."""
+    """Every time stamp the axis should have between its first and last entries.
+
+    Parameters
+    ----------
+    time : xarray.DataArray
+        Decoded time stamps.
+    step : str
+        The step name.
+
+    Returns
+    -------
+    pandas.Index
+        The complete axis in the time axis's calendar (gaps show as stamps missing from
+        ``time``).
+
+    Examples
+    --------
+    >>> import pandas as pd, xarray as xr
+    >>> t = xr.DataArray(pd.to_datetime(["2001-01-01", "2001-01-04"]), dims="time")
+    >>> len(full_axis(t, "day"))
+    4
+    """
     cal = calendar_of(time)
     start, end = time.values[0], time.values[-1]
     use_cftime = not np.issubdtype(time.dtype, np.datetime64)
@@ -258,6 +445,28 @@ def start_labels(time: xr.DataArray, bounds: xr.DataArray | None) -> tuple[NDArr
     at the first instant of the next month) say so in their CF time bounds: where every
     stamp equals its upper bound, the lower bounds become the stamps, so no hour, day or
     month is counted in the next one.  Without bounds the two cannot be told apart.
+
+    Parameters
+    ----------
+    time : xarray.DataArray
+        Decoded time stamps.
+    bounds : xarray.DataArray or None
+        CF time bounds, shape (time, 2).
+
+    Returns
+    -------
+    tuple
+        ``(stamps, note)``: the stamps to use and a sentence saying they were moved, or None.
+
+    Examples
+    --------
+    >>> import pandas as pd, xarray as xr
+    >>> t = xr.DataArray(pd.to_datetime(["2001-01-02", "2001-01-03"]), dims="time")
+    >>> edges = np.array(["2001-01-01", "2001-01-02", "2001-01-03"], dtype="datetime64[ns]")
+    >>> b = xr.DataArray(np.stack([edges[:-1], edges[1:]], axis=1), dims=("time", "nv"))
+    >>> stamps, note = start_labels(t, b)
+    >>> str(stamps[0])[:10], note is not None
+    ('2001-01-01', True)
     """
     if bounds is None or bounds.shape != (time.size, 2):
         return time.values, None
@@ -273,6 +482,32 @@ def sum_to_hours(da: xr.DataArray, step: str, *, source: object = None) -> xr.Da
 
     The axis is first completed to whole hours with missing steps, so an hour with any
     missing step (including the partial first and last hours) is missing, never short.
+
+    Parameters
+    ----------
+    da : xarray.DataArray
+        Depths per sub-hourly step on ``time``.
+    step : str
+        The sub-hourly step name ("10min", "15min", ...).
+    source : optional
+        Named in the error message.
+
+    Returns
+    -------
+    xarray.DataArray
+        Hourly totals (lazy on dask input).
+
+    Raises
+    ------
+    TimeAxisError
+        When stamps are not whole multiples of the step after the hour.
+
+    Examples
+    --------
+    >>> import numpy as np, pandas as pd, xarray as xr
+    >>> t = pd.date_range("2001-01-01", periods=8, freq="30min")
+    >>> sum_to_hours(xr.DataArray(np.ones(8), coords={"time": t}, dims="time"), "30min").values
+    array([2., 2., 2., 2.])
     """
     import datetime
 

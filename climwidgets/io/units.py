@@ -147,6 +147,22 @@ class UnitInfo:
 
     ``kind`` is "depth" (per step) or "rate"; ``to_mm`` converts one unit of depth to mm,
     or one unit of rate to mm per second (or mm per month when ``per_month``).
+
+    Parameters
+    ----------
+    text : str
+        The units string as written in the file.
+    kind : {"depth", "rate"}
+        A depth per step, or a depth per unit of time.
+    to_mm : float
+        Factor to mm (depth) or mm per second (rate).
+    per_month : bool, default False
+        A rate per calendar month (only meaningful for monthly data).
+
+    Examples
+    --------
+    >>> UnitInfo("mm", "depth", 1.0).describe()
+    'depth per step; x 1 to mm'
     """
 
     text: str
@@ -172,7 +188,37 @@ def _normalise(text: str) -> str:
 
 
 def parse_units(text: object, *, source: object = None, variable: object = None) -> UnitInfo:
-    """Read a units string as a precipitation depth or rate, or raise :class:`UnitsError`."""
+    """Read a units string as a precipitation depth or rate, or raise :class:`UnitsError`.
+
+    Parameters
+    ----------
+    text : str
+        A UDUNITS-style string ("kg m-2 s-1", "mm/day", "in", "m") in any common spelling.
+    source, variable : optional
+        Named in the error message.
+
+    Returns
+    -------
+    UnitInfo
+
+    Raises
+    ------
+    UnitsError
+        For a missing, unknown or non-precipitation unit (a length per area, a temperature).
+
+    References
+    ----------
+    CF Conventions 1.11, section 3.1 "Units" (UDUNITS syntax). A mass of water per area
+    is a depth through the density of water, 1000 kg m-3 (1 kg m-2 = 1 mm).
+
+    Examples
+    --------
+    >>> u = parse_units("kg m-2 s-1")
+    >>> u.kind, u.to_mm
+    ('rate', 1.0)
+    >>> round(parse_units("in/day").to_mm * 86400, 6)
+    25.4
+    """
     fix = (
         "set the variable's 'units' attribute to one of: kg m-2 s-1, kg m-2, mm, mm/day, "
         "mm/h, m, m/s, cm, in, in/day (or pass the data through xarray and set attrs['units'])"
@@ -262,7 +308,29 @@ def parse_units(text: object, *, source: object = None, variable: object = None)
 
 
 def length_to_metres(text: object, *, source: object = None, variable: object = None) -> float:
-    """Factor from a length unit (m, km, ft, …) to metres, for elevation grids."""
+    """Factor from a length unit (m, km, ft, …) to metres, for elevation grids.
+
+    Parameters
+    ----------
+    text : str
+        The elevation variable's units; None or "" mean metres.
+    source, variable : optional
+        Named in the error message.
+
+    Returns
+    -------
+    float
+
+    Raises
+    ------
+    UnitsError
+        When the units are not a length.
+
+    Examples
+    --------
+    >>> length_to_metres("ft")
+    0.3048
+    """
     t = _normalise(str(text or "")).lower()
     if t in ("metre", "meter", "m", "metres", "meters", "m above sea level", "m asl"):
         return 1.0
@@ -285,6 +353,35 @@ def step_factor(
     A depth needs only its length factor; a rate is multiplied by the length of each step
     in seconds in the time axis's own calendar (``factor`` is then a DataArray on time);
     per-month units are depths per step for monthly data only.
+
+    Parameters
+    ----------
+    units : UnitInfo
+        From :func:`parse_units`.
+    time : xarray.DataArray
+        Decoded time stamps (for the length of each step).
+    step : str
+        The step name (``timeaxis.infer_step``).
+    source, variable : optional
+        Named in the error message.
+
+    Returns
+    -------
+    tuple
+        ``(factor, description)``; ``factor`` is a float or a DataArray on time.
+
+    Raises
+    ------
+    UnitsError
+        For per-month units on data that are not monthly.
+
+    Examples
+    --------
+    >>> import pandas as pd, xarray as xr
+    >>> t = xr.DataArray(pd.date_range("2001-01-01", periods=2), dims="time")
+    >>> factor, how = step_factor(parse_units("mm/h"), t, "day")
+    >>> factor.values
+    array([24., 24.])
     """
     from . import timeaxis
 
