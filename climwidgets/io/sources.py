@@ -29,18 +29,67 @@ _URL_PREFIXES = ("http://", "https://", "dods://", "dap://", "dap4://")
 
 
 def is_url(text: object) -> bool:
+    """Whether ``text`` is an OPeNDAP/HTTP address (read by the netCDF library).
+
+    Parameters
+    ----------
+    text : object
+        What the user passed.
+
+    Returns
+    -------
+    bool
+
+    Examples
+    --------
+    >>> is_url("https://example.org/thredds/dodsC/pr.nc"), is_url("pr.nc")
+    (True, False)
+    """
     return isinstance(text, str) and text.lower().startswith(_URL_PREFIXES)
 
 
 def is_fsspec(source: object) -> bool:
-    """An fsspec URL such as memory://… or s3://… (not OPeNDAP over http), or a mapper."""
+    """An fsspec URL such as memory://… or s3://… (not OPeNDAP over http), or a mapper.
+
+    Parameters
+    ----------
+    source : object
+        What the user passed.
+
+    Returns
+    -------
+    bool
+
+    Examples
+    --------
+    >>> is_fsspec("memory://pr.zarr"), is_fsspec("https://example.org/pr.nc")
+    (True, False)
+    """
     if type(source).__name__ == "FSMap" and hasattr(source, "fs"):
         return True
     return isinstance(source, str) and "://" in source and not is_url(source)
 
 
 def source_label(source: Any) -> str:
-    """A short text naming a source in messages and attrs."""
+    """A short text naming a source in messages and attrs.
+
+    Parameters
+    ----------
+    source : object
+        A path, URL, fsspec mapper, or an xarray object given in memory.
+
+    Returns
+    -------
+    str
+
+    Examples
+    --------
+    >>> import xarray as xr
+    >>> source_label(xr.DataArray([1.0], dims="time", name="pr"))
+    "DataArray 'pr'"
+    >>> source_label("data/pr_2001.nc")
+    'data/pr_2001.nc'
+    """
     import xarray as xr
 
     if isinstance(source, xr.DataArray):
@@ -89,6 +138,21 @@ def _resolve_fsspec(text: str) -> list[str]:
 
 
 def is_zarr(path: Any) -> bool:
+    """Whether ``path`` is a Zarr store (a ``.zarr`` name, or Zarr metadata inside).
+
+    Parameters
+    ----------
+    path : str, os.PathLike or fsspec mapper
+
+    Returns
+    -------
+    bool
+
+    Examples
+    --------
+    >>> is_zarr("pr.zarr"), is_zarr("pr.nc")
+    (True, False)
+    """
     if type(path).__name__ == "FSMap":
         return any(m in path for m in (".zgroup", ".zarray", "zarr.json"))
     if isinstance(path, str) and is_fsspec(path):
@@ -98,7 +162,32 @@ def is_zarr(path: Any) -> bool:
 
 
 def resolve(source: Any) -> list[str]:
-    """A list of concrete sources (paths, stores or URLs) in the order given or sorted by name."""
+    """A list of concrete sources (paths, stores or URLs) in the order given or sorted by name.
+
+    Parameters
+    ----------
+    source : str, os.PathLike, list or fsspec mapper
+        A path, a glob pattern ("data/pr_*.nc"), a list of either, a URL or a store.
+
+    Returns
+    -------
+    list of str
+        Globs expanded and sorted by name; lists kept in their order.
+
+    Raises
+    ------
+    SourceError
+        For an empty list, a glob that matches nothing, or a path that does not exist.
+
+    Examples
+    --------
+    >>> import pathlib, tempfile
+    >>> folder = pathlib.Path(tempfile.mkdtemp())
+    >>> for year in (2002, 2001):
+    ...     _ = (folder / f"pr_{year}.nc").write_bytes(b"")
+    >>> [pathlib.Path(p).name for p in resolve(str(folder / "pr_*.nc"))]
+    ['pr_2001.nc', 'pr_2002.nc']
+    """
     if isinstance(source, (list, tuple)):
         if not source:
             raise SourceError(
@@ -256,6 +345,26 @@ def netcdf3_min_size(head: bytes) -> int | None:
     error, so a cut download would open as silent zeros; comparing the file's size with
     what its header declares catches it.  Record sizes are summed without padding, so the
     bound is never larger than the true size (no false alarms).
+
+    Parameters
+    ----------
+    head : bytes
+        The first bytes of the file (its header).
+
+    Returns
+    -------
+    int or None
+        None for files that are not NetCDF-3, streaming files, or a header cut short.
+
+    References
+    ----------
+    Unidata, "The NetCDF Classic Format Specification" (NetCDF Users Guide, appendix:
+    file format specifications).
+
+    Examples
+    --------
+    >>> netcdf3_min_size(b"HDF5 or anything else") is None  # only NetCDF-3 headers are read
+    True
     """
     import struct
 
@@ -339,7 +448,33 @@ def _check_not_short(source: str) -> None:
 
 
 def open_raw(source: Any) -> xr.Dataset:
-    """Open one source lazily with times left undecoded (they are checked before decoding)."""
+    """Open one source lazily with times left undecoded (they are checked before decoding).
+
+    Parameters
+    ----------
+    source : str or fsspec mapper
+        One concrete source from :func:`resolve`.
+
+    Returns
+    -------
+    xarray.Dataset
+        Lazily opened; no data values are read.
+
+    Raises
+    ------
+    SourceError
+        For a truncated, unreadable or missing file, naming it.
+
+    Examples
+    --------
+    >>> import os, tempfile, xarray as xr
+    >>> path = os.path.join(tempfile.mkdtemp(), "one.nc")
+    >>> xr.Dataset({"pr": ("time", [1.0, 2.0])}).to_netcdf(path)
+    >>> ds = open_raw(path)
+    >>> list(ds.data_vars)
+    ['pr']
+    >>> ds.close()
+    """
     if not is_fsspec(source) and not is_zarr(source) and not is_url(source) and os.path.isfile(source):
         _check_not_short(source)
     try:
