@@ -62,6 +62,32 @@ def find_coord(ds: xr.Dataset, da: xr.DataArray | xr.Dataset, which: str) -> str
     CF first, as cf-xarray reads it (standard_name, axis, units); then CF time units
     ("... since ...") and degree units the accessor does not look at on undecoded files;
     then conventional names.
+
+    Parameters
+    ----------
+    ds : xarray.Dataset
+        The opened file (or the object given, as a Dataset).
+    da : xarray.DataArray or xarray.Dataset
+        The data variable; the coordinate's dims must be among its dims.
+    which : {"lat", "lon", "time"}
+
+    Returns
+    -------
+    str or None
+        The variable's name, or None when there is none.
+
+    References
+    ----------
+    CF Conventions 1.11, sections 4.1 (latitude), 4.2 (longitude) and 4.4 (time).
+
+    Examples
+    --------
+    >>> import numpy as np, xarray as xr
+    >>> ds = xr.Dataset({"pr": (("y", "x"), np.zeros((2, 3)))},
+    ...                 coords={"y": ("y", [10.0, 11.0], {"units": "degrees_north"}),
+    ...                         "x": ("x", [0.0, 1.0, 2.0], {"units": "degrees_east"})})
+    >>> find_coord(ds, ds["pr"], "lat"), find_coord(ds, ds["pr"], "lon")
+    ('y', 'x')
     """
     test = {"lat": _is_lat, "lon": _is_lon}.get(which)
     names = {"lat": _LAT_NAMES, "lon": _LON_NAMES, "time": _TIME_NAMES}[which]
@@ -106,6 +132,32 @@ def find_projected(ds: xr.Dataset, da: xr.DataArray) -> tuple[Hashable, Hashable
     A projected grid has 1-D coordinates with standard_name projection_x_coordinate /
     projection_y_coordinate (or axis X / Y, as cf-xarray reads them) and a CF
     ``grid_mapping`` attribute on the data variable that names an existing variable.
+
+    Parameters
+    ----------
+    ds : xarray.Dataset
+    da : xarray.DataArray
+        The data variable (its ``grid_mapping`` attribute or encoding).
+
+    Returns
+    -------
+    tuple or None
+        ``(x name, y name, grid-mapping variable name)``.
+
+    References
+    ----------
+    CF Conventions 1.11, section 5.6 "Horizontal coordinate reference systems, grid
+    mappings, and projections".
+
+    Examples
+    --------
+    >>> import numpy as np, xarray as xr
+    >>> ds = xr.Dataset(
+    ...     {"pr": (("y", "x"), np.zeros((2, 2)), {"grid_mapping": "crs"}), "crs": ((), 0)},
+    ...     coords={"x": ("x", [0.0, 1e3], {"standard_name": "projection_x_coordinate"}),
+    ...             "y": ("y", [0.0, 1e3], {"standard_name": "projection_y_coordinate"})})
+    >>> find_projected(ds, ds["pr"])
+    ('x', 'y', 'crs')
     """
     import cf_xarray  # noqa: F401
 
@@ -142,7 +194,24 @@ def canonical_names(obj: _Obj) -> _Obj:
     1-D coordinates that are their own dimension are renamed with it (``valid_time``,
     ``latitude``, ``longitude``), 2-D latitude/longitude coordinates on their own; names
     already canonical, or absent, are left alone.
-    Returns a new object; the input is not changed.
+
+    Parameters
+    ----------
+    obj : xarray.DataArray or xarray.Dataset
+        Anything else is returned as it is.
+
+    Returns
+    -------
+    same type as ``obj``
+        A new object; the input is not changed.
+
+    Examples
+    --------
+    >>> import numpy as np, xarray as xr
+    >>> da = xr.DataArray(np.zeros(2), dims="latitude",
+    ...                   coords={"latitude": ("latitude", [1.0, 2.0], {"units": "degrees_north"})})
+    >>> canonical_names(da).dims
+    ('lat',)
     """
     if not isinstance(obj, (xr.DataArray, xr.Dataset)):
         return obj
@@ -167,13 +236,55 @@ def canonical_names(obj: _Obj) -> _Obj:
 
 
 def bounds_to_edges(bounds: np.ndarray, centres: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """Lower and upper edge of each cell from a CF (n, 2) bounds array, in centre order."""
+    """Lower and upper edge of each cell from a CF (n, 2) bounds array, in centre order.
+
+    Parameters
+    ----------
+    bounds : numpy.ndarray
+        Shape (n, 2); either column may hold the lower edge (descending axes).
+    centres : numpy.ndarray
+        The n cell centres.
+
+    Returns
+    -------
+    tuple of numpy.ndarray
+        ``(lower, upper)``.
+
+    References
+    ----------
+    CF Conventions 1.11, section 7.1 "Cell boundaries".
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> bounds_to_edges(np.array([[1.0, 0.0], [2.0, 1.0]]), np.array([0.5, 1.5]))
+    (array([0., 1.]), array([1., 2.]))
+    """
     b = np.asarray(bounds, dtype=float)
     return np.minimum(b[:, 0], b[:, 1]), np.maximum(b[:, 0], b[:, 1])
 
 
 def infer_edges(centres: np.ndarray, clip: float | None = None) -> tuple[np.ndarray, np.ndarray]:
-    """Cell edges half-way between centres; the outer edges mirror the first and last gaps."""
+    """Cell edges half-way between centres; the outer edges mirror the first and last gaps.
+
+    Parameters
+    ----------
+    centres : numpy.ndarray
+        Cell centres along one axis (a single cell gets a width of one unit).
+    clip : float, optional
+        Clip edges to [-clip, clip] (90 for latitudes).
+
+    Returns
+    -------
+    tuple of numpy.ndarray
+        ``(lower, upper)`` of each cell.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> infer_edges(np.array([88.0, 89.5]), clip=90.0)
+    (array([87.25, 88.75]), array([88.75, 90.  ]))
+    """
     c = np.asarray(centres, dtype=float)
     if c.size == 1:
         return c - 0.5, c + 0.5  # a single cell: 1 degree (normalise_rectilinear refuses to guess)
@@ -195,6 +306,35 @@ def normalise_rectilinear(
     """Rename to lat/lon, make lat ascending and lon [-180, 180) sorted, attach bounds.
 
     Reordering uses ``isel``/``sortby`` so it stays lazy on dask arrays.
+
+    Parameters
+    ----------
+    da : xarray.DataArray
+        With 1-D ``lat`` and ``lon`` coordinates.
+    lat_edges, lon_edges : tuple of numpy.ndarray, optional
+        ``(lower, upper)`` cell edges from the file's CF bounds; inferred when absent.
+    source : optional
+        Named in error messages.
+
+    Returns
+    -------
+    xarray.DataArray
+        On ascending lat and lon in [-180, 180), with ``lat_lower`` ... ``lon_upper``.
+
+    Raises
+    ------
+    GridError
+        For NaN coordinates, latitudes beyond ±90, a single cell without bounds, or
+        longitudes that repeat after wrapping.
+
+    Examples
+    --------
+    >>> import numpy as np, xarray as xr
+    >>> da = xr.DataArray(np.zeros((2, 2)), dims=("lat", "lon"),
+    ...                   coords={"lat": [11.0, 10.0], "lon": [359.0, 1.0]})
+    >>> out = normalise_rectilinear(da)
+    >>> out["lat"].values, out["lon"].values, out["lon_lower"].values
+    (array([10., 11.]), array([-1.,  1.]), array([-2.,  0.]))
     """
     lat = np.asarray(da["lat"].values, dtype=float)
     lon = np.asarray(da["lon"].values, dtype=float)
