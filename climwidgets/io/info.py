@@ -18,6 +18,37 @@ def _fmt_time(value: object) -> str:
 def describe(
     source: str | PathLike[str] | Sequence[str | PathLike[str]], var: str | None = None, scan: bool = False
 ) -> str:
+    """A plain-text page on what :func:`~climwidgets.io.loader.open_precip` sees in a source.
+
+    Parameters
+    ----------
+    source : str, os.PathLike or list
+        What ``climwidgets info`` was given.
+    var : str, optional
+        The variable, when the file has several.
+    scan : bool, default False
+        Also read the data once to count missing values and the range.
+
+    Returns
+    -------
+    str
+        Lines "sources:", "variable:", "conversion:", "time step:", "grid:", ...
+
+    Raises
+    ------
+    climwidgets.InputError
+        Whatever the reader refuses.
+
+    Examples
+    --------
+    >>> import os, tempfile, numpy as np, pandas as pd, xarray as xr
+    >>> path = os.path.join(tempfile.mkdtemp(), "pr.nc")
+    >>> xr.Dataset({"pr": (("time", "lat", "lon"), np.ones((3, 2, 2)), {"units": "mm"})},
+    ...            coords={"time": pd.date_range("2001-01-01", periods=3),
+    ...                    "lat": [10.0, 11.0], "lon": [0.0, 1.0]}).to_netcdf(path)
+    >>> print(describe(path).splitlines()[3])
+    time step:    day  calendar: standard
+    """
     src = source[0] if isinstance(source, (list, tuple)) and len(source) == 1 else source
     pr = open_precip(src, var=var, validate=False)
     a = pr.attrs

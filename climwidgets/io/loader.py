@@ -532,6 +532,22 @@ def open_precip(
     ``units="mm"``, ``step`` in {"hour", "2hour" … "12hour", "day", "month"}, and the
     original units, conversion and sources in attrs.  The input (file or object) is never
     modified.
+
+    References
+    ----------
+    CF Conventions 1.11: sections 3.1 (units), 4.4 (time), 5.6 (grid mappings) and 7.1
+    (cell boundaries).
+
+    Examples
+    --------
+    >>> import numpy as np, pandas as pd, xarray as xr
+    >>> given = xr.DataArray(
+    ...     np.full((3, 2, 2), 1e-5, dtype="float32"), dims=("time", "lat", "lon"),
+    ...     coords={"time": pd.date_range("2001-01-01", periods=3), "lat": [10.0, 11.0], "lon": [0.0, 1.0]},
+    ...     attrs={"units": "kg m-2 s-1"}, name="pr")
+    >>> pr = open_precip(given)
+    >>> pr.attrs["units"], pr.attrs["step"], round(float(pr[0, 0, 0]), 3)
+    ('mm', 'day', 0.864)
     """
     if isinstance(source, (xr.Dataset, xr.DataArray)):
         sources = [source_label(source)]
@@ -630,7 +646,33 @@ def open_precip(
 def open_elevation(source: Any, var: str | None = None) -> xr.DataArray:
     """Open a terrain grid as elevation in metres on the house grid layout (lat, lon) or (y, x).
 
-    ``source`` is anything :func:`open_precip` takes, an ``xr.Dataset`` or ``xr.DataArray`` too.
+    Parameters
+    ----------
+    source : str, os.PathLike, list, fsspec mapper, xarray.Dataset or xarray.DataArray
+        Anything :func:`open_precip` takes.
+    var : str, optional
+        The elevation variable; found by standard_name (``surface_altitude``) or name
+        otherwise.
+
+    Returns
+    -------
+    xarray.DataArray
+        Elevation in metres, in memory, ``units="m"``, with the original units in attrs.
+
+    Raises
+    ------
+    climwidgets.InputError
+        For units that are not a length, more than one time step, or the reader's checks.
+
+    Examples
+    --------
+    >>> import numpy as np, xarray as xr
+    >>> given = xr.DataArray(np.array([[100.0, 2000.0]]), dims=("lat", "lon"),
+    ...                      coords={"lat": [10.0], "lon": [0.0, 1.0]}, name="orog",
+    ...                      attrs={"units": "ft", "standard_name": "surface_altitude"})
+    >>> given = given.assign_coords(lat_lower=("lat", [9.5]), lat_upper=("lat", [10.5]))
+    >>> open_elevation(given).values.round(1)
+    array([[ 30.5, 609.6]])
     """
     if isinstance(source, (xr.Dataset, xr.DataArray)):
         sources = [source_label(source)]

@@ -39,7 +39,33 @@ PLAUSIBLE_FACTOR = 2.0
 
 
 def check_packing(da: xr.DataArray, source: object, name: object) -> None:
-    """scale_factor, add_offset, _FillValue and missing_value must be numbers to be applied."""
+    """scale_factor, add_offset, _FillValue and missing_value must be numbers to be applied.
+
+    Parameters
+    ----------
+    da : xarray.DataArray
+        The variable as opened (attributes and encoding are read).
+    source, name : object
+        Named in the error message.
+
+    Returns
+    -------
+    None
+
+    Raises
+    ------
+    DataValueError
+        For a packing attribute that is text, or a scale or offset that is not finite.
+
+    References
+    ----------
+    CF Conventions 1.11, section 8.1 "Packed data".
+
+    Examples
+    --------
+    >>> import xarray as xr
+    >>> check_packing(xr.DataArray([1], attrs={"scale_factor": 0.1}), "pr.nc", "pr")
+    """
     for key in ("scale_factor", "add_offset", "_FillValue", "missing_value"):
         for where in (da.encoding, da.attrs):
             value = where.get(key)
@@ -66,7 +92,23 @@ def check_packing(da: xr.DataArray, source: object, name: object) -> None:
 
 
 def needs_fill_heuristics(encoding: Mapping[Any, Any], attrs: Mapping[Any, Any]) -> bool:
-    """Files without a _FillValue sometimes store 1e20 or -9999 for missing values."""
+    """Files without a _FillValue sometimes store 1e20 or -9999 for missing values.
+
+    Parameters
+    ----------
+    encoding, attrs : mapping
+        The variable's encoding and attributes.
+
+    Returns
+    -------
+    bool
+        True when neither declares a fill value (the heuristics then apply).
+
+    Examples
+    --------
+    >>> needs_fill_heuristics({}, {}), needs_fill_heuristics({"_FillValue": -9999.0}, {})
+    (True, False)
+    """
     return not ("_FillValue" in encoding or "missing_value" in encoding or "_FillValue" in attrs)
 
 
@@ -75,6 +117,20 @@ def mask_likely_fill(block: ArrayLike) -> NDArray[np.floating[Any]]:
 
     Used on the files of a glob that need the heuristics when other files declare their
     fill (each file's own fill handling, never the first file's for all).
+
+    Parameters
+    ----------
+    block : array_like
+
+    Returns
+    -------
+    numpy.ndarray
+        Floating point, native byte order.
+
+    Examples
+    --------
+    >>> mask_likely_fill([1.0, -9999.0, 1e20])
+    array([ 1., nan, nan])
     """
     b = np.asarray(block)
     x = b.astype(np.float64) if b.dtype.kind != "f" else b.astype(b.dtype.newbyteorder("="), copy=True)
@@ -131,6 +187,35 @@ def check_depth_bound(
     ``offset`` (the block's first index on each axis) say where the first offending value is;
     ``files`` (``(first time stamp, path)`` of each file of a glob, in time order) names the
     file it came from.
+
+    Parameters
+    ----------
+    x : array_like
+        Depths in mm per step.
+    max_depth : float
+        The bound (:func:`default_max_depth`).
+    source, name : optional
+        Named in the message.
+    labels, dims, offset, files : optional
+        Where the block lies (see above).
+
+    Returns
+    -------
+    None
+
+    Raises
+    ------
+    DataValueError
+        At the first depth above the bound, saying where.
+
+    Examples
+    --------
+    >>> check_depth_bound([1.0, 2.0], 100.0)
+    >>> try:
+    ...     check_depth_bound([1.0, 1e20], 100.0, dims=["time"])
+    ... except DataValueError as err:
+    ...     print(err.problem.split(";")[1].strip())
+    first at time index 1)
     """
     over = np.asarray(x) > max_depth
     if not over.any():
@@ -179,6 +264,34 @@ def convert_block(
     maximum times the factor is above the bound. ``labels`` are the block's coordinate
     values along each axis, to say where. The input block is never modified (dask may
     share it).
+
+    Parameters
+    ----------
+    block : array_like
+        Stored values of one chunk.
+    factor : float or numpy.ndarray
+        Stored units to mm per step (broadcast against the block).
+    *labels : array_like
+        Coordinate values of the block along each axis.
+    mask_fill, guard : bool
+        Apply the fill heuristics; refuse negatives.
+    source, name, max_depth, dims, files : optional
+        As for :func:`check_depth_bound`.
+
+    Returns
+    -------
+    numpy.ndarray
+        float64 depths in mm per step.
+
+    Raises
+    ------
+    DataValueError
+        For negatives beyond the tolerance (``guard``) or depths above ``max_depth``.
+
+    Examples
+    --------
+    >>> convert_block([0.5, -1e-9, 2.0], 2.0, mask_fill=False, guard=True)
+    array([1., 0., 4.])
     """
     b = np.asarray(block)
     if b.size == 0:
@@ -210,7 +323,29 @@ def convert_block(
 
 
 def check_values(da: xr.DataArray, source: object, name: object) -> None:
-    """Negative depths and all-missing data, checked in one pass."""
+    """Negative depths and all-missing data, checked in one pass.
+
+    Parameters
+    ----------
+    da : xarray.DataArray
+        Depths in mm per step (lazy or in memory).
+    source, name : object
+        Named in the message.
+
+    Returns
+    -------
+    None
+
+    Raises
+    ------
+    DataValueError
+        When every value is missing, or for negatives below the tolerance (saying where).
+
+    Examples
+    --------
+    >>> import xarray as xr
+    >>> check_values(xr.DataArray([0.0, 1.5], dims="time", coords={"time": [0, 1]}), "pr.nc", "pr")
+    """
     import dask
 
     lowest, valid = dask.compute(da.min(skipna=True), da.count())  # type: ignore[no-untyped-call]
