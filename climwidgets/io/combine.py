@@ -133,9 +133,38 @@ def combine_parts(
 ) -> tuple[xr.DataArray, xr.DataArray | None, bool, str | None]:
     """The opened parts of a glob or list as one DataArray along time, checked file by file.
 
-    ``parts`` are ``(DataArray, info)`` pairs from the loader's layout step. Returns
-    ``(data, time bounds or None, mask_fill, fill note)``; raises a MismatchError naming
-    the two files that disagree (units, calendar, grid, time step, stamping, overlap).
+    Parameters
+    ----------
+    parts : sequence of (xarray.DataArray, dict)
+        ``(DataArray, info)`` pairs from the loader's layout step (info holds path, name,
+        attrs, encoding, calendar, grid and time_bounds).
+    source_list : sequence of str
+        The sources, to name in messages.
+
+    Returns
+    -------
+    tuple
+        ``(data, time bounds or None, mask_fill, fill note)``.
+
+    Raises
+    ------
+    MismatchError
+        Naming the two files that disagree (units, calendar, grid, time step, stamping,
+        overlap).
+
+    Examples
+    --------
+    >>> import numpy as np, pandas as pd, xarray as xr
+    >>> def part(start, path):
+    ...     t = pd.date_range(start, periods=2)
+    ...     da = xr.DataArray(np.ones((2, 1, 1)), dims=("time", "lat", "lon"), coords={"time": t})
+    ...     info = {"path": path, "name": "pr", "attrs": {"units": "mm"}, "encoding": {"_FillValue": -1.0},
+    ...             "calendar": "standard", "grid": (np.array([10.0]), np.array([0.0])), "time_bounds": None}
+    ...     return da, info
+    >>> data, bounds, mask_fill, note = combine_parts([part("2001-01-03", "b.nc"), part("2001-01-01", "a.nc")],
+    ...                                              ["a.nc", "b.nc"])
+    >>> data.sizes["time"], bounds is None, mask_fill
+    (4, True, False)
     """
     first_da, first = parts[0]
     u0 = parse_units(first["attrs"].get("units"), source=first["path"], variable=first["name"])

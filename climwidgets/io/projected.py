@@ -46,7 +46,29 @@ _TO_METRES = {
 
 
 def to_metres(units: object, *, source: object = None, variable: object = None) -> float:
-    """Factor from a projection coordinate's units to metres (CF: m by default)."""
+    """Factor from a projection coordinate's units to metres (CF: m by default).
+
+    Parameters
+    ----------
+    units : str or None
+        The x/y coordinate's units attribute.
+    source, variable : optional
+        Named in the error message.
+
+    Returns
+    -------
+    float
+
+    Raises
+    ------
+    GridError
+        For units other than metres or kilometres.
+
+    Examples
+    --------
+    >>> to_metres("km"), to_metres(None)
+    (1000.0, 1.0)
+    """
     key = str(units or "m").strip().lower()
     if key not in _TO_METRES:
         raise GridError(
@@ -60,7 +82,36 @@ def to_metres(units: object, *, source: object = None, variable: object = None) 
 
 
 def crs_from_attrs(attrs: Mapping[Any, Any], *, source: object = None, variable: object = None) -> CRS:
-    """A pyproj CRS from CF grid-mapping attributes (``CRS.from_cf``)."""
+    """A pyproj CRS from CF grid-mapping attributes (``CRS.from_cf``).
+
+    Parameters
+    ----------
+    attrs : mapping
+        The grid-mapping variable's attributes (``grid_mapping_name`` and its parameters,
+        or ``crs_wkt``).
+    source, variable : optional
+        Named in the error message.
+
+    Returns
+    -------
+    pyproj.CRS
+
+    Raises
+    ------
+    GridError
+        When pyproj cannot build a CRS from them.
+
+    References
+    ----------
+    CF Conventions 1.11, appendix F "Grid mappings".
+
+    Examples
+    --------
+    >>> crs = crs_from_attrs({"grid_mapping_name": "lambert_azimuthal_equal_area",
+    ...                       "longitude_of_projection_origin": 10.0, "latitude_of_projection_origin": 52.0})
+    >>> crs.is_projected
+    True
+    """
     from pyproj import CRS
     from pyproj.exceptions import CRSError
 
@@ -77,7 +128,28 @@ def crs_from_attrs(attrs: Mapping[Any, Any], *, source: object = None, variable:
 
 
 def lonlat(crs: CRS, x: ArrayLike, y: ArrayLike) -> tuple[NDArray[np.float64], NDArray[np.float64]]:
-    """Longitude and latitude (degrees, lon in [-180, 180)) of projected points ``x``, ``y`` (m)."""
+    """Longitude and latitude (degrees, lon in [-180, 180)) of projected points ``x``, ``y`` (m).
+
+    Parameters
+    ----------
+    crs : pyproj.CRS
+        The projection.
+    x, y : array_like
+        Projected coordinates in metres.
+
+    Returns
+    -------
+    tuple of numpy.ndarray
+        ``(lon, lat)`` on the projection's own geodetic datum.
+
+    Examples
+    --------
+    >>> crs = crs_from_attrs({"grid_mapping_name": "lambert_azimuthal_equal_area",
+    ...                       "longitude_of_projection_origin": 10.0, "latitude_of_projection_origin": 52.0})
+    >>> lon, lat = lonlat(crs, [0.0], [0.0])
+    >>> float(lon[0]), float(lat[0])
+    (10.0, 52.0)
+    """
     from pyproj import Transformer
 
     to_geo = Transformer.from_crs(crs, crs.geodetic_crs, always_xy=True)
@@ -170,6 +242,21 @@ def projected_corners(grid: xr.DataArray | xr.Dataset) -> tuple[NDArray[np.float
     Edges are the file's CF ``bounds`` of x and y when it has them (kept as the per-cell
     :data:`EDGE_COORDS`), else half-way between projected centres (exact for regular
     grids); each corner is transformed with pyproj; corners are in ring order.
+
+    Parameters
+    ----------
+    grid : xarray.DataArray or xarray.Dataset
+        A field as :func:`~climwidgets.io.loader.open_precip` returns it.
+
+    Returns
+    -------
+    tuple of numpy.ndarray or None
+
+    Examples
+    --------
+    >>> import numpy as np, xarray as xr
+    >>> projected_corners(xr.DataArray(np.zeros((2, 2)), dims=("lat", "lon"))) is None
+    True
     """
     if CRS_COORD not in grid.coords or "x" not in grid.coords or "y" not in grid.coords:
         return None
