@@ -66,7 +66,21 @@ class ChecksumError(ChunkCheckError):
 
 
 class ChunkReadError(ValueError):
-    """A chunk check failed; carries the chunk's description for the user's message."""
+    """A chunk check failed; carries the chunk's description for the user's message.
+
+    Parameters
+    ----------
+    where : str
+        The chunk in words (:meth:`ChunkIndex.describe`).
+    cause : ChunkCheckError
+        The check that failed.
+
+    Examples
+    --------
+    >>> err = ChunkReadError("the stored chunk at rows 0–1", ChecksumError("Fletcher-32 checksum mismatch"))
+    >>> str(err)
+    'the stored chunk at rows 0–1: Fletcher-32 checksum mismatch'
+    """
 
     def __init__(self, where: str, cause: ChunkCheckError):
         self.where, self.cause = where, cause
@@ -174,7 +188,38 @@ def _check_fletcher32(data: RawBytes) -> RawBytes:
 
 
 class ChunkIndex:
-    """Byte offset and size of every stored chunk of one variable, by its chunk-grid position."""
+    """Byte offset and size of every stored chunk of one variable, by its chunk-grid position.
+
+    Parameters
+    ----------
+    path : str
+        The NetCDF-4 (HDF5) file.
+    shape, chunk_shape : sequence of int
+        The variable's stored shape and chunk shape.
+    dtype : numpy dtype
+        Stored values' type.
+    fill : scalar
+        HDF5 fill value (for chunks never written).
+    filters : list of int
+        HDF5 filter ids in pipeline order (deflate 1, shuffle 2, Fletcher-32 3).
+    entries : dict
+        ``{chunk grid position: (byte offset, size, filter mask)}``.
+    varname, stamp, dims : optional
+        The variable, the file's (size, mtime_ns) when indexed, and dimension names.
+
+    References
+    ----------
+    The HDF Group, "HDF5 File Format Specification Version 3.0", section III.E (filter
+    pipeline message) and the chunk B-tree.
+
+    Examples
+    --------
+    >>> from climwidgets.io.chunkreader import _example_file
+    >>> path = _example_file()  # 4 x 6 float32, chunks 2 x 3, deflate + shuffle + Fletcher-32
+    >>> index = _build_index(path, "pr")
+    >>> index.chunk_shape, index.filters, len(index.entries)
+    ((2, 3), [3, 2, 1], 4)
+    """
 
     def __init__(
         self,
@@ -364,7 +409,34 @@ def _index_in_process(path: str, varname: str, stamp: tuple[int, int] | None) ->
 
 
 def read_region(index: ChunkIndex, region: Region) -> np.ndarray:
-    """The stored values of a region (tuple of slices), assembled from whole chunks."""
+    """The stored values of a region (tuple of slices), assembled from whole chunks.
+
+    Every filter undone is checked (:meth:`ChunkIndex.decode`).
+
+    Parameters
+    ----------
+    index : ChunkIndex
+    region : tuple of slice
+        One slice per axis, with start and stop.
+
+    Returns
+    -------
+    numpy.ndarray
+        In the stored type.
+
+    Raises
+    ------
+    ChunkReadError
+        For a chunk that fails a check or is cut short.
+
+    Examples
+    --------
+    >>> from climwidgets.io.chunkreader import _example_file
+    >>> path = _example_file()  # 4 x 6 float32, chunks 2 x 3, deflate + shuffle + Fletcher-32
+    >>> read_region(_build_index(path, "pr"), (slice(1, 3), slice(2, 5)))
+    array([[ 8.,  9., 10.],
+           [14., 15., 16.]], dtype=float32)
+    """
     out = np.empty(tuple(s.stop - s.start for s in region), dtype=index.dtype)
     fd = os.open(index.path, os.O_RDONLY)
     try:
@@ -500,6 +572,23 @@ def stored_extent(path: str, varname: str) -> tuple[int, ...] | None:
 
     A variable on an unlimited dimension may be written for fewer records than the
     dimension holds; the netCDF library pads the rest with the fill value on reading.
+
+    Parameters
+    ----------
+    path : str
+    varname : str
+
+    Returns
+    -------
+    tuple of int or None
+        None for NetCDF-3 or files h5py cannot read.
+
+    Examples
+    --------
+    >>> from climwidgets.io.chunkreader import _example_file
+    >>> path = _example_file()  # 4 x 6 float32, chunks 2 x 3, deflate + shuffle + Fletcher-32
+    >>> stored_extent(path, "pr")
+    (4, 6)
     """
     try:
         import h5py
@@ -528,6 +617,33 @@ def backend_reader(variable: Any, path: Any, varname: str, chunks: tuple[Any, ..
     raises a :class:`~climwidgets.errors.SourceError` that names the file, and records a
     variable was never written for (beyond its own extent on an unlimited dimension) are
     missing rather than the padding the netCDF library reads there.
+
+    Parameters
+    ----------
+    variable : xarray.Variable
+        Lazily backed by xarray's netCDF4 backend.
+    path : str
+        The file (named in errors).
+    varname : str
+    chunks : tuple
+        Dask chunk sizes per axis.
+    name : str
+        The dask array's name.
+
+    Returns
+    -------
+    dask.array.Array
+
+    Examples
+    --------
+    >>> import xarray as xr
+    >>> from climwidgets.io.chunkreader import _example_file
+    >>> path = _example_file()  # 4 x 6 float32, chunks 2 x 3, deflate + shuffle + Fletcher-32
+    >>> ds = xr.open_dataset(path)
+    >>> data = backend_reader(ds["pr"].variable, path, "pr", (2, 6), name="pr-example")
+    >>> float(data.sum().compute())
+    276.0
+    >>> ds.close()
     """
     import dask.array as dsa
 
@@ -564,6 +680,34 @@ def direct_reader(
     best); ``encoding`` is xarray's encoding of the variable (fill values, scale, offset).
     ``shape`` is the shape the file declares (its dimensions' lengths); a variable stored
     shorter than its unlimited dimension reads as missing (NaN) beyond its own extent.
+
+    Parameters
+    ----------
+    path : str
+        A local NetCDF-4 file.
+    varname : str
+    encoding : mapping
+        xarray's encoding of the variable.
+    chunks : tuple
+        Dask chunk sizes per axis.
+    name : str
+        The dask array's name.
+    shape : sequence of int, optional
+        The declared shape.
+
+    Returns
+    -------
+    dask.array.Array or None
+        None when the file, its filters or its layout are not ones this reader undoes
+        (the caller then reads through the library).
+
+    Examples
+    --------
+    >>> from climwidgets.io.chunkreader import _example_file
+    >>> path = _example_file()  # 4 x 6 float32, chunks 2 x 3, deflate + shuffle + Fletcher-32
+    >>> data = direct_reader(path, "pr", {}, (4, 3), name="pr-direct-example")
+    >>> data.dtype, float(data.sum().compute())
+    (dtype('float32'), 276.0)
     """
     if not isinstance(path, str) or not os.path.isfile(path):
         return None
@@ -603,6 +747,30 @@ class StoredValues:
     small results (``compute/_fused.py``). It describes the DataArray only while that
     DataArray's dask array is still the one named ``name``: any later operation renames the
     dask array, and the record is then ignored.
+
+    Parameters
+    ----------
+    name : str
+        Dask name of the converted array the record belongs to.
+    data : dask.array.Array
+        Decoded stored values (fill values already NaN).
+    factor : float or array
+        Stored units to mm per step.
+    mask_fill, guard : bool
+        The loader's fill heuristics and negative guard.
+    source, variable : object
+        For messages.
+    max_depth : float, optional
+        The plausibility bound in mm per step.
+    dims : list, optional
+        The dims of ``data``.
+
+    Examples
+    --------
+    >>> import copy
+    >>> record = StoredValues("pr-abc", None, 1.0, False, True, "pr.nc", "pr")
+    >>> copy.deepcopy(record) is record  # copying a DataArray never copies the graph
+    True
     """
 
     def __init__(
@@ -687,6 +855,31 @@ def zarr_stored_chunks(
     a copy looks like missing data. Comparing the listed chunk names with the chunk grid the
     metadata declares finds such holes without reading any data. Zarr v2 and v3 (default and
     "v2" chunk key encodings) are understood; with sharding the shards are listed.
+
+    Parameters
+    ----------
+    store : str or fsspec mapper
+        A Zarr store.
+    varname : str
+
+    Returns
+    -------
+    tuple or None
+        ``(grid shape, chunk shape, set of stored chunk positions)``.
+
+    References
+    ----------
+    Zarr storage specification, versions 2 and 3 (zarr-specs.readthedocs.io).
+
+    Examples
+    --------
+    >>> import os, tempfile, numpy as np, xarray as xr
+    >>> store = os.path.join(tempfile.mkdtemp(), "pr.zarr")
+    >>> ds = xr.Dataset({"pr": (("time", "x"), np.ones((4, 2)))}).chunk({"time": 2})
+    >>> _ = ds.to_zarr(store, zarr_format=2)
+    >>> grid, chunk, present = zarr_stored_chunks(store, "pr")
+    >>> grid, chunk, sorted(present)
+    ((2, 1), (2, 2), [(0, 0), (1, 0)])
     """
     import json
 
@@ -729,3 +922,17 @@ def zarr_stored_chunks(
         if len(parts) == len(shape) and all(p.isdigit() for p in parts):
             present.add(tuple(int(p) for p in parts))
     return grid_shape, tuple(chunk), present
+
+
+def _example_file() -> str:
+    """A small NetCDF-4 file for the examples: ``pr`` 4 x 6 float32 (values 0 … 23), chunks
+    2 x 3, deflate + shuffle + Fletcher-32, in a new temporary folder."""
+    import tempfile
+
+    import xarray as xr
+
+    path = os.path.join(tempfile.mkdtemp(), "example.nc")
+    values = np.arange(24, dtype=np.float32).reshape(4, 6)
+    enc = {"pr": {"zlib": True, "shuffle": True, "fletcher32": True, "chunksizes": (2, 3), "_FillValue": None}}
+    xr.Dataset({"pr": (("time", "x"), values)}).to_netcdf(path, engine="netcdf4", encoding=enc)
+    return path

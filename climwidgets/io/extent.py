@@ -38,7 +38,34 @@ MAX_CHUNKS = 1_000_000
 
 
 def check_declared_sizes(da: xr.DataArray, spatial: Sequence[Any], tdim: Any, where: object, name: object) -> None:
-    """Sizes from the header, refused before coordinates or chunk indexes are read."""
+    """Sizes from the header, refused before coordinates or chunk indexes are read.
+
+    Parameters
+    ----------
+    da : xarray.DataArray
+        The variable as opened (lazily; only its sizes are read).
+    spatial : sequence
+        Its spatial dims.
+    tdim : hashable or None
+        Its time dim.
+    where, name : object
+        Named in the error message.
+
+    Returns
+    -------
+    None
+
+    Raises
+    ------
+    GridError
+        For more than :data:`MAX_FIELD_CELLS` cells per step or :data:`MAX_TIME_STEPS` steps.
+
+    Examples
+    --------
+    >>> import numpy as np, xarray as xr
+    >>> check_declared_sizes(xr.DataArray(np.zeros((2, 3, 4)), dims=("time", "lat", "lon")),
+    ...                      ["lat", "lon"], "time", "pr.nc", "pr")
+    """
     sizes = dict(da.sizes)
     cells = math.prod(sizes[d] for d in spatial if d in sizes)
     grid = " x ".join(f"{sizes[d]:,}" for d in spatial if d in sizes)
@@ -63,6 +90,33 @@ def check_declared_sizes(da: xr.DataArray, spatial: Sequence[Any], tdim: Any, wh
 
 
 def check_chunk_count(da: xr.DataArray, plan: Mapping[Any, Any], where: object, name: object, chunks: object) -> None:
+    """Refuse a chunk plan that would make more than :data:`MAX_CHUNKS` dask chunks.
+
+    Parameters
+    ----------
+    da : xarray.DataArray
+        The variable as opened.
+    plan : mapping
+        Chunk size per dim.
+    where, name : object
+        Named in the error message.
+    chunks : object
+        What the user passed as ``chunks=`` (the fix differs for a dict).
+
+    Returns
+    -------
+    None
+
+    Raises
+    ------
+    GridError
+
+    Examples
+    --------
+    >>> import numpy as np, xarray as xr
+    >>> check_chunk_count(xr.DataArray(np.zeros((10, 4)), dims=("time", "x")), {"time": 5, "x": 4},
+    ...                   "pr.nc", "pr", "auto")
+    """
     n = math.prod(-(-size // max(int(plan.get(d, size) or size), 1)) if size else 1 for d, size in da.sizes.items())
     if n > MAX_CHUNKS:
         shape = " x ".join(f"{int(plan.get(d, s)):,}" for d, s in da.sizes.items())
@@ -88,6 +142,36 @@ def check_zarr_chunks(store: Any, ds: xr.Dataset, da: xr.DataArray, info: dict[s
     times but stored at others is refused; a tile absent at every time is what Zarr leaves
     when it skips chunks that hold only the fill value (ocean tiles of a land product), and
     is noted in attrs.
+
+    Parameters
+    ----------
+    store : str or fsspec mapper
+        The Zarr store.
+    ds : xarray.Dataset
+        The store as opened.
+    da : xarray.DataArray
+        The laid-out variable (gets ``attrs["absent_chunks"]`` for skipped fill-only tiles).
+    info : dict
+        The loader's record of the variable (its ``name``).
+    where : object
+        Named in the error message.
+
+    Returns
+    -------
+    None
+
+    Raises
+    ------
+    SourceError
+        For chunks absent at some times but stored at others.
+
+    Examples
+    --------
+    >>> import os, tempfile, numpy as np, xarray as xr
+    >>> store = os.path.join(tempfile.mkdtemp(), "pr.zarr")
+    >>> ds = xr.Dataset({"pr": (("time", "x"), np.ones((4, 2)))}).chunk({"time": 2})
+    >>> _ = ds.to_zarr(store, zarr_format=2)
+    >>> check_zarr_chunks(store, ds, ds["pr"], {"name": "pr"}, store)
     """
     name = info["name"]
     found = zarr_stored_chunks(store, name)
