@@ -54,6 +54,7 @@ DOCUMENTED = [
     "climwidgets.geo.basinset",
     "climwidgets.geo.coverage",
     "climwidgets.geo.grid",
+    "climwidgets.analyses.anomalies",
     "climwidgets.analyses.ensemble",
     "climwidgets.analyses.orographic",
     "climwidgets.analyses.run",
