@@ -55,6 +55,7 @@ DOCUMENTED = [
     "climwidgets.geo.coverage",
     "climwidgets.geo.grid",
     "climwidgets.analyses.anomalies",
+    "climwidgets.analyses.ddf_table",
     "climwidgets.analyses.ensemble",
     "climwidgets.analyses.orographic",
     "climwidgets.analyses.run",
