@@ -57,6 +57,7 @@ DOCUMENTED = [
     "climwidgets.analyses.anomalies",
     "climwidgets.analyses.ddf_table",
     "climwidgets.analyses.ensemble",
+    "climwidgets.analyses.indices",
     "climwidgets.analyses.orographic",
     "climwidgets.analyses.run",
     "climwidgets.analyses.scenario",
