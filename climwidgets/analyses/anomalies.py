@@ -106,6 +106,20 @@ def anomaly_field(
     ----------
     WMO (2017) WMO Guidelines on the Calculation of Climate Normals, WMO-No. 1203.
     WMO (2012) Standardized Precipitation Index User Guide, WMO-No. 1090.
+
+    Examples
+    --------
+    Four years of one cell whose monthly totals grow by 1 mm a month; the annual totals
+    against their 2001-2004 normal:
+
+    >>> import numpy as np, pandas as pd, xarray as xr
+    >>> t = pd.date_range("2001-01-01", "2004-12-01", freq="MS")
+    >>> pr = xr.DataArray(np.arange(1.0, 49.0)[:, None, None], dims=("time", "lat", "lon"),
+    ...                   coords={"time": t, "lat": [0.5], "lon": [0.5]},
+    ...                   attrs={"units": "mm", "step": "month"})
+    >>> a = anomaly_field(pr, kind="absolute", period="year", baseline=(2001, 2004))
+    >>> a.squeeze().values.round(1).tolist(), a.attrs["display_format"]
+    ([-216.0, -72.0, 72.0, 216.0], '.1f')
     """
     out = _anomaly(pr, kind, period, months, scale, baseline)
     return out.assign_attrs(
@@ -138,6 +152,17 @@ def anomaly_series(
     xarray.Dataset
         ``anomaly`` (basin, time) — or (basin, year) for years and seasons — and, for SPI,
         ``spi_class`` (the WMO class of every value).
+
+    Examples
+    --------
+    >>> import numpy as np, pandas as pd, xarray as xr
+    >>> t = pd.date_range("2001-01-01", "2004-12-01", freq="MS")
+    >>> series = xr.DataArray(np.arange(1.0, 49.0)[None, :], dims=("basin", "time"),
+    ...                       coords={"basin": ["square"], "time": t},
+    ...                       attrs={"units": "mm", "step": "month"})
+    >>> ds = anomaly_series(series, kind="percent", period="year", baseline=(2001, 2004))
+    >>> ds["anomaly"].sel(basin="square").values.round(1).tolist()  # 78, 222, 366, 510 of 294 mm
+    [26.5, 75.5, 124.5, 173.5]
     """
     series = series.reset_coords(drop=True)
     out = _anomaly(series, kind, period, months, scale, baseline)
@@ -189,7 +214,26 @@ def basin_anomalies(
 
 
 def step_labels(da: xr.DataArray) -> list[str]:
-    """Readable labels of the steps of a result: 'YYYY-MM' on a time axis, 'YYYY' on years."""
+    """Readable labels of the steps of a result: 'YYYY-MM' on a time axis, 'YYYY' on years.
+
+    Parameters
+    ----------
+    da : xarray.DataArray
+        A result on ``time`` or on ``year``.
+
+    Returns
+    -------
+    list of str
+        One label per step, in order.
+
+    Examples
+    --------
+    >>> import pandas as pd, xarray as xr
+    >>> da = xr.DataArray([1.0, 2.0], dims="time",
+    ...                   coords={"time": pd.to_datetime(["2010-07-01", "2010-08-01"])})
+    >>> step_labels(da), step_labels(xr.DataArray([1.0], dims="year", coords={"year": [2010]}))
+    (['2010-07', '2010-08'], ['2010'])
+    """
     if "time" in da.dims:
         t = da["time"]
         return [f"{y:04d}-{m:02d}" for y, m in zip(t.dt.year.values, t.dt.month.values)]
@@ -197,7 +241,26 @@ def step_labels(da: xr.DataArray) -> list[str]:
 
 
 def decimal_time(da: xr.DataArray) -> np.ndarray:
-    """Year + (month - 1) / 12 on a time axis (any calendar), the year itself on years."""
+    """Year + (month - 1) / 12 on a time axis (any calendar), the year itself on years.
+
+    Parameters
+    ----------
+    da : xarray.DataArray
+        A result on ``time`` or on ``year``.
+
+    Returns
+    -------
+    numpy.ndarray
+        One float per step, for a time axis of a plot or a trend.
+
+    Examples
+    --------
+    >>> import pandas as pd, xarray as xr
+    >>> da = xr.DataArray([1.0, 2.0], dims="time",
+    ...                   coords={"time": pd.to_datetime(["2010-01-01", "2010-07-01"])})
+    >>> decimal_time(da).tolist()
+    [2010.0, 2010.5]
+    """
     if "time" in da.dims:
         t = da["time"]
         return t.dt.year.values + (t.dt.month.values - 1) / 12.0
@@ -226,6 +289,16 @@ def anomaly_ranking(series: xr.Dataset, step: str) -> xr.Dataset:
     ------
     ParameterError
         If ``step`` is not a step of the series.
+
+    Examples
+    --------
+    >>> import numpy as np, xarray as xr
+    >>> series = xr.Dataset({"anomaly": (("basin", "year"), np.array([[-5.0, 10.0, -20.0, 3.0]]),
+    ...                                  {"units": "%"})},
+    ...                     coords={"basin": ["square"], "year": [2001, 2002, 2003, 2004]})
+    >>> r = anomaly_ranking(series, "2001")
+    >>> [float(r[k][0]) for k in ("anomaly_at_step", "rank_from_driest", "driest_in_record")]
+    [-5.0, 2.0, -20.0]
     """
     values = series["anomaly"]
     labels = step_labels(values)

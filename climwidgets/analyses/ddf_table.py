@@ -62,7 +62,41 @@ def _labels(ds: xr.Dataset) -> list[str]:
 
 
 def ddf_long_table(ds: xr.Dataset, basin: Any = None, display: bool = False) -> pd.DataFrame:
-    """One row per (duration, return period): depth, lower, upper (stored, or shown)."""
+    """One row per (duration, return period): depth, lower, upper (stored, or shown).
+
+    Parameters
+    ----------
+    ds : xarray.Dataset
+        :func:`cw.depth_duration_frequency` (``estimate``, ``lower``, ``upper`` on duration
+        and period) of basins (a ``basin`` dimension) or of one cell.
+    basin : str, optional
+        The basin to show; may be left out when the table has one basin or none.
+    display : bool
+        ``True``: columns headed and scaled as shown to a user; ``False`` (default): as stored.
+
+    Returns
+    -------
+    pandas.DataFrame
+        Index (duration, return period [years]); columns :data:`DDF_COLUMNS`.
+
+    Raises
+    ------
+    ParameterError
+        A basin not in the table, or per-cell dimensions left (several cells).
+
+    Examples
+    --------
+    >>> import numpy as np, xarray as xr
+    >>> depths = {"estimate": [[80.0, 100.0], [110.0, 140.0]],
+    ...           "lower": [[70.0, 85.0], [95.0, 115.0]], "upper": [[90.0, 120.0], [125.0, 170.0]]}
+    >>> ds = xr.Dataset({k: (("duration", "period"), np.array(v), {"units": "mm"})
+    ...                  for k, v in depths.items()},
+    ...                 coords={"duration": [1, 2], "period": [10.0, 100.0]},
+    ...                 attrs={"ci": 0.9, "duration_units": "days"})
+    >>> table = ddf_long_table(ds)
+    >>> table.index.names, table.loc[("2 days", 100.0)].tolist()
+    (FrozenList(['duration', 'return period [years]']), [140.0, 115.0, 170.0])
+    """
     one = _one(ds, basin)
     units = str(one["estimate"].attrs.get("units", "mm"))
     pct = f"{float(ds.attrs.get('ci', 0.9)):.0%}" if "ci" in ds.attrs else ""
@@ -95,7 +129,40 @@ def ddf_long_table(ds: xr.Dataset, basin: Any = None, display: bool = False) -> 
 
 
 def ddf_wide_table(ds: xr.Dataset, basin: Any = None) -> pd.DataFrame:
-    """Depths as shown: rows durations, columns return periods ("100 years"), in the table's units."""
+    """Depths as shown: rows durations, columns return periods ("100 years"), in the table's units.
+
+    Parameters
+    ----------
+    ds : xarray.Dataset
+        :func:`cw.depth_duration_frequency` (``estimate``, ``lower``, ``upper`` on duration
+        and period) of basins (a ``basin`` dimension) or of one cell.
+    basin : str, optional
+        The basin to show; may be left out when the table has one basin or none.
+
+    Returns
+    -------
+    pandas.DataFrame
+        The estimates, rows durations ("1 day"), columns return periods ("10 years");
+        ``attrs["columns"]`` holds each column's display attributes, ``attrs["units"]``
+        the depth units.
+
+    Raises
+    ------
+    ParameterError
+        A basin not in the table, or per-cell dimensions left (several cells).
+
+    Examples
+    --------
+    >>> import numpy as np, xarray as xr
+    >>> depths = {"estimate": [[80.0, 100.0], [110.0, 140.0]],
+    ...           "lower": [[70.0, 85.0], [95.0, 115.0]], "upper": [[90.0, 120.0], [125.0, 170.0]]}
+    >>> ds = xr.Dataset({k: (("duration", "period"), np.array(v), {"units": "mm"})
+    ...                  for k, v in depths.items()},
+    ...                 coords={"duration": [1, 2], "period": [10.0, 100.0]},
+    ...                 attrs={"ci": 0.9, "duration_units": "days"})
+    >>> ddf_wide_table(ds).to_dict()
+    {'10 years': {'1 day': 80.0, '2 days': 110.0}, '100 years': {'1 day': 100.0, '2 days': 140.0}}
+    """
     one = _one(ds, basin)
     units = str(one["estimate"].attrs.get("units", "mm"))
     est = one["estimate"].transpose("duration", "period")
@@ -141,6 +208,24 @@ def basin_design_table(
         :func:`cw.depth_duration_frequency` of the series: ``estimate``, ``lower`` and
         ``upper`` on (duration, period, basin), depths consistent across durations, with
         ``attrs["areal"]`` saying they are fits of the basin-mean series and the cautions.
+
+    References
+    ----------
+    Hosking, J. R. M. (1990): L-moments: analysis and estimation of distributions using
+    linear combinations of order statistics. J. R. Stat. Soc. B 52, 105–124,
+    doi:10.1111/j.2517-6161.1990.tb01775.x.
+
+    Examples
+    --------
+    >>> import numpy as np, xarray as xr
+    >>> t = xr.date_range("1981-01-01", periods=20 * 365, freq="D", calendar="noleap")
+    >>> rain = np.random.default_rng(0).gamma(0.5, 8.0, (1, t.size))
+    >>> series = xr.DataArray(rain, dims=("basin", "time"), coords={"basin": ["west"], "time": t},
+    ...                       attrs={"units": "mm", "step": "day"})
+    >>> ds = basin_design_table(series, durations=[1, 2], periods=[10], n_boot=50)
+    >>> depth = ds["estimate"].sel(basin="west", period=10.0)
+    >>> ds.attrs["areal"], bool(depth.sel(duration=2) >= depth.sel(duration=1))
+    ('fit of the basin-mean series', True)
     """
     from ..compute.ddf import depth_duration_frequency
 
@@ -166,6 +251,36 @@ def design_depth_table(ds: xr.Dataset, basin: Any = None) -> pd.DataFrame:
     Columns "10 years", "10 years lower 90%", "10 years upper 90%", ... in the table's
     units; ``attrs["columns"]`` carries their display formats (meta ``ddf_estimate``).
     This is what the CSV export holds; :func:`design_depth_cells` is what people read.
+
+    Parameters
+    ----------
+    ds : xarray.Dataset
+        :func:`cw.depth_duration_frequency` (``estimate``, ``lower``, ``upper`` on duration
+        and period) of basins (a ``basin`` dimension) or of one cell.
+    basin : str, optional
+        The basin to show; may be left out when the table has one basin or none.
+
+    Returns
+    -------
+    pandas.DataFrame
+        Rows durations; per return period the depth and the bounds of its interval.
+
+    Raises
+    ------
+    ParameterError
+        A basin not in the table, or per-cell dimensions left (several cells).
+
+    Examples
+    --------
+    >>> import numpy as np, xarray as xr
+    >>> depths = {"estimate": [[80.0, 100.0], [110.0, 140.0]],
+    ...           "lower": [[70.0, 85.0], [95.0, 115.0]], "upper": [[90.0, 120.0], [125.0, 170.0]]}
+    >>> ds = xr.Dataset({k: (("duration", "period"), np.array(v), {"units": "mm"})
+    ...                  for k, v in depths.items()},
+    ...                 coords={"duration": [1, 2], "period": [10.0, 100.0]},
+    ...                 attrs={"ci": 0.9, "duration_units": "days"})
+    >>> design_depth_table(ds).columns.tolist()[:3]
+    ['10 years', '10 years lower 90%', '10 years upper 90%']
     """
     one = _one(ds, basin)
     units = str(one["estimate"].attrs.get("units", "mm"))
@@ -181,7 +296,30 @@ def design_depth_table(ds: xr.Dataset, basin: Any = None) -> pd.DataFrame:
 
 
 def design_depth_cells(table: pd.DataFrame) -> pd.DataFrame:
-    """The table of :func:`design_depth_table` as people read it: one cell 'depth (lower–upper)' per period."""
+    """The table of :func:`design_depth_table` as people read it: one cell 'depth (lower–upper)' per period.
+
+    Parameters
+    ----------
+    table : pandas.DataFrame
+        A result of :func:`design_depth_table` (its ``attrs`` give formats and units).
+
+    Returns
+    -------
+    pandas.DataFrame
+        Text cells, rows durations, one column per return period ("10 years [mm]").
+
+    Examples
+    --------
+    >>> import numpy as np, xarray as xr
+    >>> depths = {"estimate": [[80.0, 100.0], [110.0, 140.0]],
+    ...           "lower": [[70.0, 85.0], [95.0, 115.0]], "upper": [[90.0, 120.0], [125.0, 170.0]]}
+    >>> ds = xr.Dataset({k: (("duration", "period"), np.array(v), {"units": "mm"})
+    ...                  for k, v in depths.items()},
+    ...                 coords={"duration": [1, 2], "period": [10.0, 100.0]},
+    ...                 attrs={"ci": 0.9, "duration_units": "days"})
+    >>> design_depth_cells(design_depth_table(ds)).loc["1 day"].tolist()
+    ['80.0 (70.0–90.0)', '100.0 (85.0–120.0)']
+    """
     from .meta import format_cell
 
     cols = table.attrs.get("columns", {})

@@ -84,6 +84,17 @@ def ensemble_basin_table(
     ----------
     Hyndman, R. J. and Fan, Y. (1996): Sample quantiles in statistical packages. The
     American Statistician 50, 361–365, doi:10.1080/00031305.1996.10473566.
+
+    Examples
+    --------
+    >>> import numpy as np, xarray as xr
+    >>> t = xr.Dataset(
+    ...     {"annual": (("basin", "member"), np.array([[900.0, 1000.0, 1100.0]]), {"units": "mm"})},
+    ...     coords={"basin": ["A"], "member": ["m1", "m2", "m3"]},
+    ... )
+    >>> out = ensemble_basin_table(t, columns=["annual"])
+    >>> [float(out[f"annual_{k}"][0]) for k in ("mean", "lower", "upper")]
+    [1000.0, 900.0, 1100.0]
     """
     func = "ensemble_basin_table"
     q = _spread(spread, func)

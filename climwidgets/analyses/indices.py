@@ -75,7 +75,28 @@ def gridded_indices(
 
     Returns
     -------
-    xr.Dataset on (year, space) with one variable per index; attrs state the conventions.
+    xr.Dataset
+        On (year, space) with one variable per index; attrs state the conventions.
+
+    References
+    ----------
+    Zhang, X. et al. (2011): Indices for monitoring changes in extremes based on daily
+    temperature and precipitation data. WIREs Climate Change 2, 851–870,
+    doi:10.1002/wcc.147.
+
+    Examples
+    --------
+    >>> import numpy as np, xarray as xr
+    >>> t = xr.date_range("2001-01-01", periods=5 * 365, freq="D", calendar="noleap")
+    >>> daily = np.broadcast_to((np.asarray(t.year) - 1999.0)[:, None, None], (t.size, 2, 3))
+    >>> pr = xr.DataArray(daily.copy(), dims=("time", "lat", "lon"),
+    ...                   coords={"time": t, "lat": [0.5, 1.5], "lon": [0.5, 1.5, 2.5]},
+    ...                   attrs={"units": "mm", "step": "day"})  # 2 mm a day in 2001 ... 6 in 2005
+    >>> ind = gridded_indices(pr, names=["PRCPTOT", "Rx1day"], base_period=(2001, 2005))
+    >>> ind["PRCPTOT"].isel(lat=0, lon=0).values.tolist()  # 365 wet days a year
+    [730.0, 1095.0, 1460.0, 1825.0, 2190.0]
+    >>> ind["Rx1day"].attrs["units"]
+    'mm'
     """
     ds = (
         indices
@@ -129,6 +150,39 @@ def index_map(indices: xr.Dataset, name: str, period: Any = None) -> xr.DataArra
 
     A cell is NaN when any year of the period is NaN (a year with a missing day), so the
     mean never rests on fewer years than the period says.
+
+    Parameters
+    ----------
+    indices : xarray.Dataset
+        Per-year indices, as from :func:`gridded_indices`.
+    name : str
+        The index (a variable of ``indices``, e.g. ``"Rx1day"``).
+    period : (int, int), optional
+        First and last year; default all years of ``indices``.
+
+    Returns
+    -------
+    xarray.DataArray
+        The mean per cell, named ``name``, with the index's attributes and ``years``.
+
+    Raises
+    ------
+    ParameterError
+        An index that was not computed, or a period that is not a pair of years inside
+        the record.
+
+    Examples
+    --------
+    >>> import numpy as np, xarray as xr
+    >>> t = xr.date_range("2001-01-01", periods=5 * 365, freq="D", calendar="noleap")
+    >>> daily = np.broadcast_to((np.asarray(t.year) - 1999.0)[:, None, None], (t.size, 2, 3))
+    >>> pr = xr.DataArray(daily.copy(), dims=("time", "lat", "lon"),
+    ...                   coords={"time": t, "lat": [0.5, 1.5], "lon": [0.5, 1.5, 2.5]},
+    ...                   attrs={"units": "mm", "step": "day"})  # 2 mm a day in 2001 ... 6 in 2005
+    >>> ind = gridded_indices(pr, names=["PRCPTOT", "Rx1day"], base_period=(2001, 2005))
+    >>> m = index_map(ind, "Rx1day", period=(2001, 2003))
+    >>> float(m.isel(lat=0, lon=0)), m.attrs["years"]
+    (3.0, '2001-2003')
     """
     _check_name(indices, name, "index_map")
     first, last = _years(indices, period, "index_map")
@@ -143,6 +197,51 @@ def index_trend_map(indices: xr.Dataset, name: str, period: Any = None) -> xr.Da
 
     Returns a Dataset with ``slope_per_decade`` (index units per decade) and ``pvalue``
     (:func:`cw.trend` along ``year``; NaN years are skipped per cell).
+
+    Parameters
+    ----------
+    indices : xarray.Dataset
+        Per-year indices, as from :func:`gridded_indices`.
+    name : str
+        The index (a variable of ``indices``, e.g. ``"Rx1day"``).
+    period : (int, int), optional
+        First and last year; default all years of ``indices``.
+
+    Returns
+    -------
+    xarray.Dataset
+        ``slope_per_decade`` and ``pvalue`` per cell, with labels and display formats.
+
+    Raises
+    ------
+    ParameterError
+        An index that was not computed, or a period that is not a pair of years inside
+        the record.  Also a period of fewer than 3 years.
+
+    References
+    ----------
+    Sen, P. K. (1968): Estimates of the regression coefficient based on Kendall's tau.
+    J. Am. Stat. Assoc. 63, 1379–1389, doi:10.1080/01621459.1968.10480934.
+
+    Mann, H. B. (1945): Nonparametric tests against trend. Econometrica 13, 245–259,
+    doi:10.2307/1907187.
+
+    Examples
+    --------
+    Rx1day grows by 1 mm a year; five rising years give Mann-Kendall S = 10, variance
+    5·4·15/18, z = 9/√16.67 = 2.20 and p = 0.027 (normal approximation with continuity
+    correction, hand-computed):
+
+    >>> import numpy as np, xarray as xr
+    >>> t = xr.date_range("2001-01-01", periods=5 * 365, freq="D", calendar="noleap")
+    >>> daily = np.broadcast_to((np.asarray(t.year) - 1999.0)[:, None, None], (t.size, 2, 3))
+    >>> pr = xr.DataArray(daily.copy(), dims=("time", "lat", "lon"),
+    ...                   coords={"time": t, "lat": [0.5, 1.5], "lon": [0.5, 1.5, 2.5]},
+    ...                   attrs={"units": "mm", "step": "day"})  # 2 mm a day in 2001 ... 6 in 2005
+    >>> ind = gridded_indices(pr, names=["PRCPTOT", "Rx1day"], base_period=(2001, 2005))
+    >>> tr = index_trend_map(ind, "Rx1day")
+    >>> float(tr["slope_per_decade"][0, 0]), round(float(tr["pvalue"][0, 0]), 3)
+    (10.0, 0.027)
     """
     _check_name(indices, name, "index_trend_map")
     first, last = _years(indices, period, "index_trend_map")
@@ -184,6 +283,51 @@ def basin_index_table(indices: xr.Dataset, basins: Any, name: str, period: Any =
     Returns a lazy Dataset on ``basin`` with ``area_km2``, ``index_mean``, ``index_slope``
     (index units per year; shown per decade), ``index_pvalue``, ``n_index_years``, and
     ``index_per_year`` (basin, year) with ``index_intercept`` for the trend line.
+
+    Parameters
+    ----------
+    indices : xarray.Dataset
+        Per-year indices, as from :func:`gridded_indices`.
+    basins : Basin, list of Basin or BasinSet
+        The basins.
+    name : str
+        The index (a variable of ``indices``, e.g. ``"Rx1day"``).
+    period : (int, int), optional
+        First and last year; default all years of ``indices``.
+
+    Returns
+    -------
+    xarray.Dataset
+        As described above; ``attrs`` name the index, the years and :data:`BASIN_INDEX_NOTE`.
+
+    Raises
+    ------
+    ParameterError
+        An index that was not computed, or a period that is not a pair of years inside
+        the record.
+
+    References
+    ----------
+    Sen, P. K. (1968): Estimates of the regression coefficient based on Kendall's tau.
+    J. Am. Stat. Assoc. 63, 1379–1389, doi:10.1080/01621459.1968.10480934.
+
+    Mann, H. B. (1945): Nonparametric tests against trend. Econometrica 13, 245–259,
+    doi:10.2307/1907187.
+
+    Examples
+    --------
+    >>> import climwidgets as cw
+    >>> import numpy as np, xarray as xr
+    >>> t = xr.date_range("2001-01-01", periods=5 * 365, freq="D", calendar="noleap")
+    >>> daily = np.broadcast_to((np.asarray(t.year) - 1999.0)[:, None, None], (t.size, 2, 3))
+    >>> pr = xr.DataArray(daily.copy(), dims=("time", "lat", "lon"),
+    ...                   coords={"time": t, "lat": [0.5, 1.5], "lon": [0.5, 1.5, 2.5]},
+    ...                   attrs={"units": "mm", "step": "day"})  # 2 mm a day in 2001 ... 6 in 2005
+    >>> ind = gridded_indices(pr, names=["PRCPTOT", "Rx1day"], base_period=(2001, 2005))
+    >>> west = cw.Basin.from_vertices([(0, 0), (2, 0), (2, 2), (0, 2)], name="west")
+    >>> bt = basin_index_table(ind, [west], "Rx1day")
+    >>> [float(bt[k][0]) for k in ("index_mean", "index_slope")], int(bt["n_index_years"][0])
+    ([4.0, 1.0], 5)
     """
     _check_name(indices, name, "basin_index_table")
     basins = as_basin_list(basins, "basin_index_table")
@@ -251,6 +395,34 @@ def basin_index_table(indices: xr.Dataset, basins: Any, name: str, period: Any =
 
 
 def index_table(ds: xr.Dataset, display: bool = False) -> pd.DataFrame:
-    """The basin index table (rows: basins) as stored (CSV) or as shown (widgets, report)."""
+    """The basin index table (rows: basins) as stored (CSV) or as shown (widgets, report).
+
+    Parameters
+    ----------
+    ds : xarray.Dataset
+        A result of :func:`basin_index_table`.
+    display : bool
+        ``True``: columns headed and scaled as shown to a user; ``False`` (default): as stored.
+
+    Returns
+    -------
+    pandas.DataFrame
+        Rows basins; the :data:`INDEX_TABLE_COLUMNS` present in ``ds``.
+
+    Examples
+    --------
+    >>> import climwidgets as cw
+    >>> import numpy as np, xarray as xr
+    >>> t = xr.date_range("2001-01-01", periods=5 * 365, freq="D", calendar="noleap")
+    >>> daily = np.broadcast_to((np.asarray(t.year) - 1999.0)[:, None, None], (t.size, 2, 3))
+    >>> pr = xr.DataArray(daily.copy(), dims=("time", "lat", "lon"),
+    ...                   coords={"time": t, "lat": [0.5, 1.5], "lon": [0.5, 1.5, 2.5]},
+    ...                   attrs={"units": "mm", "step": "day"})  # 2 mm a day in 2001 ... 6 in 2005
+    >>> ind = gridded_indices(pr, names=["PRCPTOT", "Rx1day"], base_period=(2001, 2005))
+    >>> west = cw.Basin.from_vertices([(0, 0), (2, 0), (2, 2), (0, 2)], name="west")
+    >>> table = index_table(basin_index_table(ind, [west], "Rx1day"))
+    >>> table.columns.tolist()
+    ['area_km2', 'index_mean', 'index_slope', 'index_pvalue', 'n_index_years']
+    """
     columns = [c for c in INDEX_TABLE_COLUMNS if c in ds.data_vars]
     return frame(ds, columns=columns, display=display)

@@ -110,6 +110,26 @@ def orographic_contrast(
     ----------
     Smith, R. B. and Barstad, I. (2004) A linear theory of orographic precipitation.
     J. Atmos. Sci. 61, 1377-1391. doi:10.1175/1520-0469(2004)061<1377:ALTOOP>2.0.CO;2
+
+    Examples
+    --------
+    A north-south ridge at 11° E, 4 mm a day west of it and 2 mm east of it (wind from
+    the west): the observed leeward/windward ratio is 0.5.
+
+    >>> import numpy as np, xarray as xr
+    >>> lon, lat = np.arange(10.0, 12.0, 0.05), np.arange(45.0, 45.5, 0.05)
+    >>> z = np.tile(1500.0 * np.exp(-(((lon - 11.0) / 0.2) ** 2)), (lat.size, 1))
+    >>> elevation = xr.DataArray(z, dims=("lat", "lon"), coords={"lat": lat, "lon": lon},
+    ...                          attrs={"units": "m"})
+    >>> t = xr.date_range("2001-01-01", periods=5 * 365, freq="D", calendar="noleap")
+    >>> daily = np.broadcast_to(np.where(lon < 11.0, 4.0, 2.0), (t.size, lat.size, lon.size))
+    >>> pr = xr.DataArray(daily.copy(), dims=("time", "lat", "lon"),
+    ...                   coords={"time": t, "lat": lat, "lon": lon},
+    ...                   attrs={"units": "mm", "step": "day"})
+    >>> out = orographic_contrast(pr, elevation, band_km=(0.0, 25.0), n_boot=50)
+    >>> obs = out["observed"]
+    >>> [round(float(obs[k]), 3) for k in ("windward_mean", "leeward_mean", "ratio")]
+    [1460.0, 730.0, 0.5]
     """
     annual = cache.cached("annual_totals", lambda: annual_totals(pr), pr)
     crest = ridge if ridge is not None else crest_from_elevation(elevation, wind_from, min_height=min_height)
@@ -146,7 +166,37 @@ def orographic_contrast(
 
 
 def band_dataset(observed: xr.Dataset, model: xr.Dataset, ci: float) -> xr.Dataset:
-    """Observed and modelled contrast on a ``band`` dimension labelled 'lower-upper' (km)."""
+    """Observed and modelled contrast on a ``band`` dimension labelled 'lower-upper' (km).
+
+    Parameters
+    ----------
+    observed : xarray.Dataset
+        :func:`cw.rain_shadow` of the observed annual totals (``observed`` of
+        :func:`orographic_contrast`): ``windward_mean``, ``leeward_mean``, ``ratio``,
+        ``ratio_lower``, ``ratio_upper`` and the band edges ``band_lower_km`` /
+        ``band_upper_km``, on ``band`` or for one band.
+    model : xarray.Dataset
+        The same through the linear model (``model_contrast``): its ``ratio`` is used.
+    ci : float
+        Confidence level of the ratio's interval, for the column labels.
+
+    Returns
+    -------
+    xarray.Dataset
+        The :data:`BAND_COLUMNS` on ``band`` (labels such as ``"0-25"``), each with its
+        label, units and format (:func:`climwidgets.analyses.meta.describe`).
+
+    Examples
+    --------
+    >>> import xarray as xr
+    >>> edges = {"band_lower_km": 0.0, "band_upper_km": 25.0}
+    >>> observed = xr.Dataset({"windward_mean": 1460.0, "leeward_mean": 730.0, "ratio": 0.5,
+    ...                        "ratio_lower": 0.45, "ratio_upper": 0.55}, coords=edges)
+    >>> model = xr.Dataset({"ratio": 0.1}, coords=edges)
+    >>> ds = band_dataset(observed, model, 0.9)
+    >>> ds.band.values.tolist(), float(ds["model_ratio"][0]), ds["ratio_lower"].attrs["label"]
+    (['0-25'], 0.1, 'lower 90%')
+    """
     obs, mod = _bands(observed), _bands(model)
     lower = np.atleast_1d(obs["band_lower_km"].values)
     upper = np.atleast_1d(obs["band_upper_km"].values)
@@ -170,7 +220,38 @@ def band_dataset(observed: xr.Dataset, model: xr.Dataset, ci: float) -> xr.Datas
 
 
 def band_table(observed: xr.Dataset, model: xr.Dataset, ci: float, display: bool = True) -> pd.DataFrame:
-    """The band table (index 'band [km]'), as shown (``display=True``) or as stored."""
+    """The band table (index 'band [km]'), as shown (``display=True``) or as stored.
+
+    Parameters
+    ----------
+    observed : xarray.Dataset
+        :func:`cw.rain_shadow` of the observed annual totals (``observed`` of
+        :func:`orographic_contrast`): ``windward_mean``, ``leeward_mean``, ``ratio``,
+        ``ratio_lower``, ``ratio_upper`` and the band edges ``band_lower_km`` /
+        ``band_upper_km``, on ``band`` or for one band.
+    model : xarray.Dataset
+        The same through the linear model (``model_contrast``): its ``ratio`` is used.
+    ci : float
+        Confidence level of the ratio's interval, for the column labels.
+    display : bool
+        ``True``: columns headed and scaled as shown to a user; ``False``: as stored.
+
+    Returns
+    -------
+    pandas.DataFrame
+        One row per band, the :data:`BAND_COLUMNS` as columns.
+
+    Examples
+    --------
+    >>> import xarray as xr
+    >>> edges = {"band_lower_km": 0.0, "band_upper_km": 25.0}
+    >>> observed = xr.Dataset({"windward_mean": 1460.0, "leeward_mean": 730.0, "ratio": 0.5,
+    ...                        "ratio_lower": 0.45, "ratio_upper": 0.55}, coords=edges)
+    >>> model = xr.Dataset({"ratio": 0.1}, coords=edges)
+    >>> table = band_table(observed, model, 0.9, display=False)
+    >>> table.index.name, float(table.loc["0-25", "ratio"])
+    ('band [km]', 0.5)
+    """
     table = frame(band_dataset(observed, model, ci), index=("band",), columns=BAND_COLUMNS, display=display)
     table.index.name = "band [km]"
     return table

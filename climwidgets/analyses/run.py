@@ -11,7 +11,7 @@ from __future__ import annotations
 
 from typing import Any
 
-import dask
+from dask.base import compute as dask_compute
 from dask.base import is_dask_collection
 import xarray as xr
 
@@ -61,7 +61,27 @@ def _replace(obj: Any, path: tuple[Any, ...], new: Any) -> Any:
 def compute(*objs: Any, **dask_kwargs: Any) -> Any:
     """Compute xarray objects (possibly inside dicts, lists, tuples) in one dask pass.
 
-    Returns the objects in memory, in the same structure; other values pass through.
+    Parameters
+    ----------
+    *objs : Any
+        xarray Datasets or DataArrays, or dicts, lists and tuples holding them; any other
+        value passes through unchanged.
+    **dask_kwargs : Any
+        Passed on to ``dask.compute`` (``scheduler=...``, for example).
+
+    Returns
+    -------
+    Any
+        A tuple with one item per argument: the same structure, with every xarray object
+        in memory.
+
+    Examples
+    --------
+    >>> import numpy as np, xarray as xr
+    >>> a = xr.DataArray(np.arange(4.0), dims="x").chunk(2)
+    >>> (out,) = compute({"a": a, "n": 3})
+    >>> out["a"].chunks is None, out["n"]
+    (True, 3)
     """
     found: list[tuple[tuple[Any, ...], Any]] = []
     _walk(objs, found)
@@ -70,7 +90,7 @@ def compute(*objs: Any, **dask_kwargs: Any) -> Any:
         for key, var in _variables(obj).items():
             if is_dask_collection(var.data):
                 lazy.append((path, key, var.data))
-    values = dask.compute(*[x for _, _, x in lazy], **dask_kwargs) if lazy else ()  # type: ignore[no-untyped-call]
+    values = dask_compute(*[x for _, _, x in lazy], **dask_kwargs) if lazy else ()  # type: ignore[no-untyped-call]
     by_path: dict[tuple[Any, ...], dict[tuple[Any, ...], Any]] = {}
     for (path, key, _), value in zip(lazy, values):
         by_path.setdefault(path, {})[key] = value
@@ -92,6 +112,24 @@ def monthly_source(pr: xr.DataArray) -> xr.DataArray:
     of every stored chunk — and kept in the result cache (``climwidgets.cache``), so every
     later analysis of the same data (another season, a new basin, another widget) reads
     nothing.  Larger ones stay lazy and each analysis reads the data again.
+
+    Parameters
+    ----------
+    pr : xarray.DataArray
+        Precipitation (daily or monthly, ``attrs["step"] == "month"`` for monthly).
+
+    Returns
+    -------
+    xarray.DataArray
+        Monthly totals: in memory when they were lazy and small, else lazy.
+
+    Examples
+    --------
+    >>> import numpy as np, xarray as xr
+    >>> t = xr.date_range("2000-01-01", periods=3, freq="MS")
+    >>> pr = xr.DataArray(np.ones(3), dims="time", coords={"time": t}, attrs={"step": "month"})
+    >>> monthly_source(pr) is pr  # already monthly and in memory
+    True
     """
     from .. import cache
     from ..compute.totals import monthly_totals
@@ -110,6 +148,23 @@ def small_in_memory(pr: xr.DataArray) -> xr.DataArray:
     For interactive analyses that build many small graphs over the same data (anomalies of
     every basin and period): on a small grid the dask overhead of those graphs costs more
     than the arithmetic, so the data are read once and kept.
+
+    Parameters
+    ----------
+    pr : xarray.DataArray
+        Precipitation, lazy (dask) or in memory.
+
+    Returns
+    -------
+    xarray.DataArray
+        A new in-memory array when ``pr`` was lazy and small, else ``pr`` itself.
+
+    Examples
+    --------
+    >>> import numpy as np, xarray as xr
+    >>> pr = xr.DataArray(np.ones(4), dims="x").chunk(2)
+    >>> small_in_memory(pr).chunks is None, pr.chunks is None
+    (True, False)
     """
     if pr.chunks is not None and pr.nbytes <= IN_MEMORY_BYTES:
         return pr.compute()  # a new object: the caller's stays lazy
