@@ -84,6 +84,20 @@ def products_table(
         The :data:`PRODUCT_COLUMNS` on (basin, product), described for tables; ``attrs``
         hold the period, the season, the baseline and the spread's definition.  One
         ``compute`` reads each product's chunks once.
+
+    Examples
+    --------
+    >>> import numpy as np, pandas as pd, xarray as xr, climwidgets as cw
+    >>> t = pd.date_range("2001-01-01", "2004-12-31", freq="D")
+    >>> def product(mm_per_day):  # two invented products: 1 and 1.5 mm every day
+    ...     return cw.open_precip(xr.DataArray(
+    ...         np.full((t.size, 2, 2), mm_per_day), dims=("time", "lat", "lon"), name="pr",
+    ...         coords={"time": t, "lat": [0.5, 1.5], "lon": [0.5, 1.5]}, attrs={"units": "mm"}))
+    >>> products = {"a": product(1.0), "b": product(1.5)}
+    >>> b = cw.Basin.from_vertices([(0, 0), (2, 0), (2, 2), (0, 2)], name="square")
+    >>> ds = products_table(products, [b]).compute()
+    >>> ds["annual_mean_mm"].sel(basin="square").values.round(3).tolist()  # 1461 days / 4 years
+    [365.25, 547.875, 182.625, 0.2]
     """
     func = "products_basin_table"
     products = _check_products(datasets, func)
@@ -157,6 +171,28 @@ def products_basin_table(
     The columns are the :data:`PRODUCT_COLUMNS` (numbers as stored); ``attrs["columns"]``
     holds each column's label, units and description, and ``attrs`` the period, the
     season, the baseline and a history line.
+
+    Parameters
+    ----------
+    datasets, basins, months, baseline
+        As for :func:`products_table`.
+
+    Returns
+    -------
+    pandas.DataFrame
+
+    Examples
+    --------
+    >>> import numpy as np, pandas as pd, xarray as xr, climwidgets as cw
+    >>> t = pd.date_range("2001-01-01", "2004-12-31", freq="D")
+    >>> def product(mm_per_day):  # two invented products: 1 and 1.5 mm every day
+    ...     return cw.open_precip(xr.DataArray(
+    ...         np.full((t.size, 2, 2), mm_per_day), dims=("time", "lat", "lon"), name="pr",
+    ...         coords={"time": t, "lat": [0.5, 1.5], "lon": [0.5, 1.5]}, attrs={"units": "mm"}))
+    >>> products = {"a": product(1.0), "b": product(1.5)}
+    >>> b = cw.Basin.from_vertices([(0, 0), (2, 0), (2, 2), (0, 2)], name="square")
+    >>> products_basin_table(products, [b])["annual_mean_mm"].round(2).tolist()
+    [365.25, 547.88, 182.62, 0.2]
     """
     from .run import compute
 
@@ -165,7 +201,31 @@ def products_basin_table(
 
 
 def products_frame(ds: xr.Dataset) -> pd.DataFrame:
-    """A computed :func:`products_table` as a DataFrame indexed by (basin, product)."""
+    """A computed :func:`products_table` as a DataFrame indexed by (basin, product).
+
+    Parameters
+    ----------
+    ds : xarray.Dataset
+        From :func:`products_table`, computed.
+
+    Returns
+    -------
+    pandas.DataFrame
+        Numbers as stored; ``attrs["columns"]`` holds each column's words.
+
+    Examples
+    --------
+    >>> import numpy as np, pandas as pd, xarray as xr, climwidgets as cw
+    >>> t = pd.date_range("2001-01-01", "2004-12-31", freq="D")
+    >>> def product(mm_per_day):  # two invented products: 1 and 1.5 mm every day
+    ...     return cw.open_precip(xr.DataArray(
+    ...         np.full((t.size, 2, 2), mm_per_day), dims=("time", "lat", "lon"), name="pr",
+    ...         coords={"time": t, "lat": [0.5, 1.5], "lon": [0.5, 1.5]}, attrs={"units": "mm"}))
+    >>> products = {"a": product(1.0), "b": product(1.5)}
+    >>> b = cw.Basin.from_vertices([(0, 0), (2, 0), (2, 2), (0, 2)], name="square")
+    >>> products_frame(products_table(products, [b]).compute()).index.tolist()[:2]
+    [('square', 'a'), ('square', 'b')]
+    """
     table = frame(ds, index=("basin", "product"), columns=PRODUCT_COLUMNS)
     table.attrs.update(ds.attrs)
     return table
@@ -173,7 +233,33 @@ def products_frame(ds: xr.Dataset) -> pd.DataFrame:
 
 def aligned_products(datasets: dict[str, Any], **options: Any) -> dict[str, Any]:
     """The products on their common complete months and one grid (:func:`cw.align`; by default the
-    coarsest product's grid; ``options`` are those of :func:`cw.align`)."""
+    coarsest product's grid; ``options`` are those of :func:`cw.align`).
+
+    Parameters
+    ----------
+    datasets : dict of {name: xarray.DataArray}
+        Precipitation products.
+    **options
+        Passed to :func:`cw.align`.
+
+    Returns
+    -------
+    dict of {name: xarray.DataArray}
+        Monthly totals on one grid and one period.
+
+    Examples
+    --------
+    >>> import numpy as np, pandas as pd, xarray as xr, climwidgets as cw
+    >>> t = pd.date_range("2001-01-01", "2004-12-31", freq="D")
+    >>> def product(mm_per_day):  # two invented products: 1 and 1.5 mm every day
+    ...     return cw.open_precip(xr.DataArray(
+    ...         np.full((t.size, 2, 2), mm_per_day), dims=("time", "lat", "lon"), name="pr",
+    ...         coords={"time": t, "lat": [0.5, 1.5], "lon": [0.5, 1.5]}, attrs={"units": "mm"}))
+    >>> products = {"a": product(1.0), "b": product(1.5)}
+    >>> aligned = aligned_products(products)
+    >>> dict(aligned["b"].sizes)
+    {'time': 48, 'lat': 2, 'lon': 2}
+    """
     return align(datasets, **options)
 
 
@@ -201,6 +287,19 @@ def agreement_maps(aligned: dict[str, Any], reference: str, other: str, kge: str
     Gupta, H. V., Kling, H., Yilmaz, K. K. and Martinez, G. F. (2009) Decomposition of the
     mean squared error and NSE performance criteria. J. Hydrol. 377, 80-91.
     doi:10.1016/j.jhydrol.2009.08.003
+
+    Examples
+    --------
+    >>> import numpy as np, pandas as pd, xarray as xr, climwidgets as cw
+    >>> t = pd.date_range("2001-01-01", "2004-12-31", freq="D")
+    >>> def product(mm_per_day):  # two invented products: 1 and 1.5 mm every day
+    ...     return cw.open_precip(xr.DataArray(
+    ...         np.full((t.size, 2, 2), mm_per_day), dims=("time", "lat", "lon"), name="pr",
+    ...         coords={"time": t, "lat": [0.5, 1.5], "lon": [0.5, 1.5]}, attrs={"units": "mm"}))
+    >>> products = {"a": product(1.0), "b": product(1.5)}
+    >>> maps = agreement_maps(aligned_products(products), "a", "b")
+    >>> float(maps["ratio"].mean())  # b is 1.5 times a everywhere
+    1.5
     """
     if reference == other:
         from ..errors import ParameterError
