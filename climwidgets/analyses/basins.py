@@ -90,6 +90,29 @@ def basin_series(field: xr.DataArray, basins: Any) -> xr.DataArray:
 
     Other dimensions (time, month, member ...) pass through; the coordinate
     ``covered_fraction`` (basin, ...) is the share of each basin's weighted area with data.
+
+    Parameters
+    ----------
+    field : xarray.DataArray
+        On the grid (lat, lon) or (y, x), with any other dimensions.
+    basins : Basin, list of Basin or BasinSet
+
+    Returns
+    -------
+    xarray.DataArray
+        On ``basin`` and the other dimensions of ``field``.
+
+    Examples
+    --------
+    >>> import numpy as np, pandas as pd, xarray as xr, climwidgets as cw
+    >>> t = pd.date_range("2001-01-01", "2004-12-31", freq="D")  # 3 mm a day in Jul-Aug, else 1
+    >>> pr = cw.open_precip(xr.DataArray(
+    ...     np.where(t.month.isin([7, 8]), 3.0, 1.0)[:, None, None] * np.ones((1, 2, 2)),
+    ...     dims=("time", "lat", "lon"), name="pr", attrs={"units": "mm"},
+    ...     coords={"time": t, "lat": [0.5, 1.5], "lon": [0.5, 1.5]}))
+    >>> square = cw.Basin.from_vertices([(0, 0), (2, 0), (2, 2), (0, 2)], name="square")
+    >>> basin_series(pr, [square]).isel(time=[0, 190]).values.round(6).tolist()
+    [[1.0, 3.0]]
     """
     basins = as_basin_list(basins, "basin_series")
     out = basin_means(field, basins)  # one selection and one weighted sum: one read for all basins
@@ -117,6 +140,44 @@ def basin_shares(
     Returns a Dataset (basin) with ``area_km2``, ``seasonal_share_1`` (``how`` over
     ``years``), ``share_slope``, ``share_pvalue``, ``n_share_years`` and the per-year
     share ``seasonal_share_per_year`` (basin, year) with the trend's ``share_intercept``.
+
+    Parameters
+    ----------
+    pr : xarray.DataArray
+        Precipitation depth per step.
+    basins : Basin, list of Basin or BasinSet
+    months : sequence of int
+        The season.
+    how : {"ratio_of_sums", "mean_of_ratios"}
+        Over the years: the season's total over the annual total, or the mean yearly share.
+    years : (int, int), optional
+        Year labels to use; default all complete years.
+    year_start : int
+        First month of the year.
+    bundle : xarray.Dataset, optional
+        From :func:`summary_bundle`, to share one pass.
+
+    Returns
+    -------
+    xarray.Dataset
+
+    References
+    ----------
+    Sen, P. K. (1968) Estimates of the regression coefficient based on Kendall's tau.
+    J. Am. Stat. Assoc. 63, 1379-1389. doi:10.1080/01621459.1968.10480934
+
+    Examples
+    --------
+    >>> import numpy as np, pandas as pd, xarray as xr, climwidgets as cw
+    >>> t = pd.date_range("2001-01-01", "2004-12-31", freq="D")  # 3 mm a day in Jul-Aug, else 1
+    >>> pr = cw.open_precip(xr.DataArray(
+    ...     np.where(t.month.isin([7, 8]), 3.0, 1.0)[:, None, None] * np.ones((1, 2, 2)),
+    ...     dims=("time", "lat", "lon"), name="pr", attrs={"units": "mm"},
+    ...     coords={"time": t, "lat": [0.5, 1.5], "lon": [0.5, 1.5]}))
+    >>> square = cw.Basin.from_vertices([(0, 0), (2, 0), (2, 2), (0, 2)], name="square")
+    >>> # by hand: the share is 62 days x 3 mm of 365.25 + 2 x 62 mm a year, 186 / 489.25
+    >>> round(float(basin_shares(pr, [square])["seasonal_share_1"][0]), 4)
+    0.3802
     """
     basins = as_basin_list(basins, "basin_shares")
     series = basin_series(_monthly(pr, bundle), basins).reset_coords("covered_fraction", drop=True)
@@ -168,6 +229,39 @@ def summary_bundle(
 
     Pass it as ``bundle=`` to :func:`basin_table`, :func:`summary_maps` and :func:`what_if`
     so that they share one graph: one ``compute`` of them all reads each chunk once.
+
+    Parameters
+    ----------
+    pr : xarray.DataArray
+        Precipitation depth per step.
+    months : sequence of int
+        The season.
+    baseline : (int, int)
+        The normal period.
+    year_start : int
+        First month of the year (10 for an October water year).
+
+    Returns
+    -------
+    xarray.Dataset
+        Monthly and annual totals, seasonal shares and normals (lazy).
+
+    Examples
+    --------
+    >>> import numpy as np, pandas as pd, xarray as xr, climwidgets as cw
+    >>> t = pd.date_range("2001-01-01", "2004-12-31", freq="D")  # 3 mm a day in Jul-Aug, else 1
+    >>> pr = cw.open_precip(xr.DataArray(
+    ...     np.where(t.month.isin([7, 8]), 3.0, 1.0)[:, None, None] * np.ones((1, 2, 2)),
+    ...     dims=("time", "lat", "lon"), name="pr", attrs={"units": "mm"},
+    ...     coords={"time": t, "lat": [0.5, 1.5], "lon": [0.5, 1.5]}))
+    >>> square = cw.Basin.from_vertices([(0, 0), (2, 0), (2, 2), (0, 2)], name="square")
+    >>> bundle = summary_bundle(pr, baseline=(2001, 2004))
+    >>> table = basin_table(pr, [square], baseline=(2001, 2004), bundle=bundle)
+    >>> maps = summary_maps(None, bundle=bundle)
+    >>> from climwidgets.analyses.run import compute
+    >>> table, maps = compute(table, maps)  # one pass over the data for both
+    >>> float(maps["seasonal_share_map"].mean().round(4))
+    0.3802
     """
     return climatology_bundle(pr, months=tuple(months), baseline=tuple(baseline), year_start=year_start, maxima_days=())
 
@@ -196,6 +290,19 @@ def summary_maps(
         ``seasonal_share_map`` (ratio of the season's and the years' sums, units "1") and,
         when the bundle has normals, ``annual_normal_map`` (the sum of the 12 monthly
         normals, mm; missing where any month has no normal).
+
+    Examples
+    --------
+    >>> import numpy as np, pandas as pd, xarray as xr, climwidgets as cw
+    >>> t = pd.date_range("2001-01-01", "2004-12-31", freq="D")  # 3 mm a day in Jul-Aug, else 1
+    >>> pr = cw.open_precip(xr.DataArray(
+    ...     np.where(t.month.isin([7, 8]), 3.0, 1.0)[:, None, None] * np.ones((1, 2, 2)),
+    ...     dims=("time", "lat", "lon"), name="pr", attrs={"units": "mm"},
+    ...     coords={"time": t, "lat": [0.5, 1.5], "lon": [0.5, 1.5]}))
+    >>> square = cw.Basin.from_vertices([(0, 0), (2, 0), (2, 2), (0, 2)], name="square")
+    >>> maps = summary_maps(pr, baseline=(2001, 2004)).compute()
+    >>> float(maps["annual_normal_map"].mean())
+    489.25
     """
     months, baseline = tuple(months), tuple(baseline)
     if bundle is None:
@@ -243,6 +350,19 @@ def share_map(
     -------
     xarray.DataArray
         The share (units "1") on the grid.
+
+    Examples
+    --------
+    >>> import numpy as np, pandas as pd, xarray as xr, climwidgets as cw
+    >>> t = pd.date_range("2001-01-01", "2004-12-31", freq="D")  # 3 mm a day in Jul-Aug, else 1
+    >>> pr = cw.open_precip(xr.DataArray(
+    ...     np.where(t.month.isin([7, 8]), 3.0, 1.0)[:, None, None] * np.ones((1, 2, 2)),
+    ...     dims=("time", "lat", "lon"), name="pr", attrs={"units": "mm"},
+    ...     coords={"time": t, "lat": [0.5, 1.5], "lon": [0.5, 1.5]}))
+    >>> square = cw.Basin.from_vertices([(0, 0), (2, 0), (2, 2), (0, 2)], name="square")
+    >>> # by hand: the share is 62 days x 3 mm of 365.25 + 2 x 62 mm a year, 186 / 489.25
+    >>> share_map(pr).round(4).values.tolist()
+    [[0.3802, 0.3802], [0.3802, 0.3802]]
     """
     share = seasonal_fraction(pr, months=months, how=how, years=years, year_start=year_start)
     return share.assign_attrs(_share_display(months))
@@ -272,6 +392,19 @@ def field_means(field: xr.DataArray, basins: Any) -> xr.Dataset:
     -------
     xarray.Dataset
         ``area_km2`` and ``mean`` on ``basin``, described for tables.
+
+    Examples
+    --------
+    >>> import numpy as np, pandas as pd, xarray as xr, climwidgets as cw
+    >>> t = pd.date_range("2001-01-01", "2004-12-31", freq="D")  # 3 mm a day in Jul-Aug, else 1
+    >>> pr = cw.open_precip(xr.DataArray(
+    ...     np.where(t.month.isin([7, 8]), 3.0, 1.0)[:, None, None] * np.ones((1, 2, 2)),
+    ...     dims=("time", "lat", "lon"), name="pr", attrs={"units": "mm"},
+    ...     coords={"time": t, "lat": [0.5, 1.5], "lon": [0.5, 1.5]}))
+    >>> square = cw.Basin.from_vertices([(0, 0), (2, 0), (2, 2), (0, 2)], name="square")
+    >>> out = field_means(pr.isel(time=190), [square])
+    >>> round(float(out["mean"][0]), 6), out["mean"].attrs["units"]
+    (3.0, 'mm')
     """
     basins = as_basin_list(basins, "field_means")
     means = basin_series(field, basins).reset_coords(drop=True)
@@ -279,7 +412,33 @@ def field_means(field: xr.DataArray, basins: Any) -> xr.Dataset:
 
 
 def field_means_table(basins: Any, means: xr.DataArray) -> xr.Dataset:
-    """:func:`field_means` from basin means already at hand (``means`` on basin, with units)."""
+    """:func:`field_means` from basin means already at hand (``means`` on basin, with units).
+
+    Parameters
+    ----------
+    basins : list of Basin or BasinSet
+        The basins of ``means``, in its order.
+    means : xarray.DataArray
+        Basin means on ``basin``, with a ``units`` attribute.
+
+    Returns
+    -------
+    xarray.Dataset
+        ``area_km2`` and ``mean`` on ``basin``, described for tables.
+
+    Examples
+    --------
+    >>> import numpy as np, pandas as pd, xarray as xr, climwidgets as cw
+    >>> t = pd.date_range("2001-01-01", "2004-12-31", freq="D")  # 3 mm a day in Jul-Aug, else 1
+    >>> pr = cw.open_precip(xr.DataArray(
+    ...     np.where(t.month.isin([7, 8]), 3.0, 1.0)[:, None, None] * np.ones((1, 2, 2)),
+    ...     dims=("time", "lat", "lon"), name="pr", attrs={"units": "mm"},
+    ...     coords={"time": t, "lat": [0.5, 1.5], "lon": [0.5, 1.5]}))
+    >>> square = cw.Basin.from_vertices([(0, 0), (2, 0), (2, 2), (0, 2)], name="square")
+    >>> means = basin_series(pr.isel(time=0), [square]).assign_attrs(units="mm")
+    >>> float(field_means_table([square], means)["mean"][0])
+    1.0
+    """
     units = means.attrs.get("units", "")
     return xr.Dataset(
         {
@@ -328,6 +487,20 @@ def basin_table(
     - the maps ``seasonal_share_map`` and ``annual_normal_map`` on the grid.
 
     One ``compute`` reads each stored chunk of ``pr`` once.
+
+    Examples
+    --------
+    >>> import numpy as np, pandas as pd, xarray as xr, climwidgets as cw
+    >>> t = pd.date_range("2001-01-01", "2004-12-31", freq="D")  # 3 mm a day in Jul-Aug, else 1
+    >>> pr = cw.open_precip(xr.DataArray(
+    ...     np.where(t.month.isin([7, 8]), 3.0, 1.0)[:, None, None] * np.ones((1, 2, 2)),
+    ...     dims=("time", "lat", "lon"), name="pr", attrs={"units": "mm"},
+    ...     coords={"time": t, "lat": [0.5, 1.5], "lon": [0.5, 1.5]}))
+    >>> square = cw.Basin.from_vertices([(0, 0), (2, 0), (2, 2), (0, 2)], name="square")
+    >>> # by hand: the share is 62 days x 3 mm of 365.25 + 2 x 62 mm a year, 186 / 489.25
+    >>> ds = basin_table(pr, [square], baseline=(2001, 2004)).compute()
+    >>> round(float(ds["seasonal_share_1"][0]), 4), float(ds["annual_mean_mm"][0])
+    (0.3802, 489.25)
     """
     func = "basin_table"
     basins = as_basin_list(basins, func)
@@ -416,6 +589,48 @@ def what_if(
     last)`` year labels) times the basin area is the season's volume per year; the rest
     of the year is unchanged, so the annual volume changes by ``percent`` of it.  Returns
     a lazy Dataset on ``basin`` with the columns of :data:`WHAT_IF_COLUMNS`.
+
+    A planning what-if, not a forecast: defer to adopted local estimates for water supply.
+
+    Parameters
+    ----------
+    pr : xarray.DataArray
+        Precipitation depth per step.
+    basins : Basin, list of Basin or BasinSet
+    months : sequence of int
+        The season that changes.
+    percent : float
+        Its change in percent (-10 for 10 % less); above -100.
+    year_start : int
+        First month of the year.
+    years : (int, int), optional
+        Year labels of the seasons to average.
+    bundle : xarray.Dataset, optional
+        From :func:`summary_bundle`.
+
+    Returns
+    -------
+    xarray.Dataset
+
+    Raises
+    ------
+    ParameterError
+        For a percent that is not a number above -100.
+
+    Examples
+    --------
+    >>> import numpy as np, pandas as pd, xarray as xr, climwidgets as cw
+    >>> t = pd.date_range("2001-01-01", "2004-12-31", freq="D")  # 3 mm a day in Jul-Aug, else 1
+    >>> pr = cw.open_precip(xr.DataArray(
+    ...     np.where(t.month.isin([7, 8]), 3.0, 1.0)[:, None, None] * np.ones((1, 2, 2)),
+    ...     dims=("time", "lat", "lon"), name="pr", attrs={"units": "mm"},
+    ...     coords={"time": t, "lat": [0.5, 1.5], "lon": [0.5, 1.5]}))
+    >>> square = cw.Basin.from_vertices([(0, 0), (2, 0), (2, 2), (0, 2)], name="square")
+    >>> ds = what_if(pr, [square], months=(7, 8), percent=10.0).compute()
+    >>> # by hand: 186 mm over the basin's area, 10 % of it
+    >>> area_m2 = square.area_m2
+    >>> round(float(ds["delta_volume_per_year_m3"][0]) / (0.10 * 0.186 * area_m2), 4)
+    1.0
     """
     func = "scenario_delta"
     basins = as_basin_list(basins, func)
@@ -481,6 +696,35 @@ def basin_summary(
     names): area, annual mean, complete years, seasonal share, annual normal, volume per
     year in m³ and acre-feet, the latest complete year against the normal and the share
     of the basin with data.  ``attrs`` hold the parameters, a note and a history line.
+
+    Parameters
+    ----------
+    pr : xarray.DataArray
+        Precipitation depth per step.
+    basins : Basin, list of Basin or BasinSet
+    months : sequence of int
+        The season.
+    baseline : (int, int)
+        The normal period.
+    year_start : int
+        First month of the year.
+
+    Returns
+    -------
+    pandas.DataFrame
+
+    Examples
+    --------
+    >>> import numpy as np, pandas as pd, xarray as xr, climwidgets as cw
+    >>> t = pd.date_range("2001-01-01", "2004-12-31", freq="D")  # 3 mm a day in Jul-Aug, else 1
+    >>> pr = cw.open_precip(xr.DataArray(
+    ...     np.where(t.month.isin([7, 8]), 3.0, 1.0)[:, None, None] * np.ones((1, 2, 2)),
+    ...     dims=("time", "lat", "lon"), name="pr", attrs={"units": "mm"},
+    ...     coords={"time": t, "lat": [0.5, 1.5], "lon": [0.5, 1.5]}))
+    >>> square = cw.Basin.from_vertices([(0, 0), (2, 0), (2, 2), (0, 2)], name="square")
+    >>> row = basin_summary(pr, [square], baseline=(2001, 2004)).loc["square"]
+    >>> row["annual_mean_mm"], row["n_years"]
+    (np.float64(489.25), np.float64(4.0))
     """
     ds = basin_table(pr, basins, months=months, baseline=baseline, year_start=year_start)
     ds = ds[list(SUMMARY_COLUMNS)].compute()
@@ -499,6 +743,28 @@ def scenario_delta(
     year_start: int = 1,
     years: Sequence[int] | None = None,
 ) -> pd.DataFrame:
-    """:func:`what_if` computed, as a DataFrame (one row per basin, :data:`WHAT_IF_COLUMNS`)."""
+    """:func:`what_if` computed, as a DataFrame (one row per basin, :data:`WHAT_IF_COLUMNS`).
+
+    Parameters
+    ----------
+    pr, basin, months, percent, year_start, years
+        As for :func:`what_if` (``basin``: one basin or several).
+
+    Returns
+    -------
+    pandas.DataFrame
+
+    Examples
+    --------
+    >>> import numpy as np, pandas as pd, xarray as xr, climwidgets as cw
+    >>> t = pd.date_range("2001-01-01", "2004-12-31", freq="D")  # 3 mm a day in Jul-Aug, else 1
+    >>> pr = cw.open_precip(xr.DataArray(
+    ...     np.where(t.month.isin([7, 8]), 3.0, 1.0)[:, None, None] * np.ones((1, 2, 2)),
+    ...     dims=("time", "lat", "lon"), name="pr", attrs={"units": "mm"},
+    ...     coords={"time": t, "lat": [0.5, 1.5], "lon": [0.5, 1.5]}))
+    >>> square = cw.Basin.from_vertices([(0, 0), (2, 0), (2, 2), (0, 2)], name="square")
+    >>> scenario_delta(pr, [square], months=(7, 8), percent=10.0)["n_seasons"].tolist()
+    [4]
+    """
     ds = what_if(pr, basin, months=months, percent=percent, year_start=year_start, years=years).compute()
     return _table(ds, WHAT_IF_COLUMNS, ("months", "percent", "year_start", "note", "history"))
