@@ -93,6 +93,19 @@ def depth_field(
     ----------
     Hosking, J. R. M. (1990) L-moments: analysis and estimation of distributions using linear
     combinations of order statistics. J. R. Stat. Soc. B 52, 105-124.
+
+    Examples
+    --------
+    >>> import numpy as np, pandas as pd, xarray as xr, climwidgets as cw
+    >>> t = pd.date_range("1981-01-01", "2010-12-31", freq="D")  # 30 invented years, 2 x 2 cells
+    >>> rng = np.random.default_rng(42)
+    >>> pr = cw.open_precip(xr.DataArray(
+    ...     rng.gamma(0.5, 8.0, size=(t.size, 2, 2)), dims=("time", "lat", "lon"), name="pr",
+    ...     attrs={"units": "mm"}, coords={"time": t, "lat": [0.5, 1.5], "lon": [0.5, 1.5]}))
+    >>> square = cw.Basin.from_vertices([(0, 0), (2, 0), (2, 2), (0, 2)], name="square")
+    >>> f = depth_field(pr, periods=(10, 100), n_boot=50, duration_days=1).compute()
+    >>> dict(f["estimate"].sizes), bool((f["lower"] <= f["estimate"]).all() and (f["estimate"] <= f["upper"]).all())
+    ({'period': 2, 'lat': 2, 'lon': 2}, True)
     """
     ams = annual_maxima(pr, year_start=year_start, **(duration or {"duration_days": 1}))
     return return_levels(ams, periods=periods, ci=ci, n_boot=n_boot, seed=seed)
@@ -102,6 +115,40 @@ def warmed_field(levels: xr.Dataset, delta_t: float = 0.0, rate: float = 0.07) -
     """The depths of :func:`depth_field` scaled by (1 + rate) ** delta_t (:func:`cw.warming_scaling`).
 
     The scaling is a what-if, not a projection; see :data:`cw.DESIGN_DEPTH_CAUTIONS`.
+
+    Parameters
+    ----------
+    levels : xarray.Dataset
+        From :func:`depth_field`.
+    delta_t : float
+        Warming in kelvin.
+    rate : float
+        Fractional change per kelvin (0.07: about 7 % per K).
+
+    Returns
+    -------
+    xarray.Dataset
+        The same variables, depths scaled.
+
+    References
+    ----------
+    Trenberth, K. E., Dai, A., Rasmussen, R. M. & Parsons, D. B. (2003) The changing
+    character of precipitation. Bull. Amer. Meteor. Soc. 84, 1205-1217 (the about 7 % per
+    kelvin of the Clausius-Clapeyron relation). doi:10.1175/BAMS-84-9-1205
+
+    Examples
+    --------
+    >>> import numpy as np, pandas as pd, xarray as xr, climwidgets as cw
+    >>> t = pd.date_range("1981-01-01", "2010-12-31", freq="D")  # 30 invented years, 2 x 2 cells
+    >>> rng = np.random.default_rng(42)
+    >>> pr = cw.open_precip(xr.DataArray(
+    ...     rng.gamma(0.5, 8.0, size=(t.size, 2, 2)), dims=("time", "lat", "lon"), name="pr",
+    ...     attrs={"units": "mm"}, coords={"time": t, "lat": [0.5, 1.5], "lon": [0.5, 1.5]}))
+    >>> square = cw.Basin.from_vertices([(0, 0), (2, 0), (2, 2), (0, 2)], name="square")
+    >>> f = depth_field(pr, periods=(10,), n_boot=50, duration_days=1)
+    >>> w = warmed_field(f, delta_t=2.0)
+    >>> float((w["estimate"] / f["estimate"]).mean().round(4))  # 1.07 ** 2
+    1.1449
     """
     return warming_scaling(levels, float(delta_t), rate=float(rate))
 
@@ -138,6 +185,20 @@ def areal_design_depths(
     -------
     xr.Dataset with ``areal_estimate_mm``, ``areal_lower_mm``, ``areal_upper_mm`` and
     ``warming_factor`` (1: no warming) on (basin, return_period), ``n_years`` on basin.
+
+    Examples
+    --------
+    >>> import numpy as np, pandas as pd, xarray as xr, climwidgets as cw
+    >>> t = pd.date_range("1981-01-01", "2010-12-31", freq="D")  # 30 invented years, 2 x 2 cells
+    >>> rng = np.random.default_rng(42)
+    >>> pr = cw.open_precip(xr.DataArray(
+    ...     rng.gamma(0.5, 8.0, size=(t.size, 2, 2)), dims=("time", "lat", "lon"), name="pr",
+    ...     attrs={"units": "mm"}, coords={"time": t, "lat": [0.5, 1.5], "lon": [0.5, 1.5]}))
+    >>> square = cw.Basin.from_vertices([(0, 0), (2, 0), (2, 2), (0, 2)], name="square")
+    >>> a = areal_design_depths(pr, [square], periods=(10, 100), n_boot=50, duration_days=1).compute()
+    >>> d = a.sel(basin="square")
+    >>> bool((d["areal_lower_mm"] <= d["areal_estimate_mm"]).all()), int(d["n_years"])
+    (True, 30)
     """
     basins = as_basin_list(basins, "areal_design_depths")
     if series is None:
@@ -234,6 +295,19 @@ def point_design_depths(
     ----------
     Hosking, J. R. M. & Wallis, J. R. (1997) Regional Frequency Analysis: An Approach Based
     on L-Moments. Cambridge University Press. doi:10.1017/CBO9780511529443
+
+    Examples
+    --------
+    >>> import numpy as np, pandas as pd, xarray as xr, climwidgets as cw
+    >>> t = pd.date_range("1981-01-01", "2010-12-31", freq="D")  # 30 invented years, 2 x 2 cells
+    >>> rng = np.random.default_rng(42)
+    >>> pr = cw.open_precip(xr.DataArray(
+    ...     rng.gamma(0.5, 8.0, size=(t.size, 2, 2)), dims=("time", "lat", "lon"), name="pr",
+    ...     attrs={"units": "mm"}, coords={"time": t, "lat": [0.5, 1.5], "lon": [0.5, 1.5]}))
+    >>> square = cw.Basin.from_vertices([(0, 0), (2, 0), (2, 2), (0, 2)], name="square")
+    >>> p = point_design_depths(pr, [square], periods=(10,), n_boot=50, n_sim=50, duration_days=1).compute()
+    >>> sorted(k for k in p.data_vars if k.startswith("point_"))[:2]
+    ['point_at_site_lower_mm', 'point_at_site_mm']
     """
     basins = as_basin_list(basins, "point_design_depths")
     ams = annual_maxima(pr, year_start=year_start, **(duration or {"duration_days": 1}))
@@ -292,7 +366,34 @@ def point_design_depths(
 
 
 def point_depth_table(ds: xr.Dataset, period: Any = None, display: bool = False) -> pd.DataFrame:
-    """The at-site / regional table of :func:`point_design_depths`, per basin (at ``period``) or basin × period."""
+    """The at-site / regional table of :func:`point_design_depths`, per basin (at ``period``) or basin × period.
+
+    Parameters
+    ----------
+    ds : xarray.Dataset
+        From :func:`point_design_depths`, computed.
+    period : float, optional
+        One return period; default all.
+    display : bool
+        For people (True) or for files.
+
+    Returns
+    -------
+    pandas.DataFrame
+
+    Examples
+    --------
+    >>> import numpy as np, pandas as pd, xarray as xr, climwidgets as cw
+    >>> t = pd.date_range("1981-01-01", "2010-12-31", freq="D")  # 30 invented years, 2 x 2 cells
+    >>> rng = np.random.default_rng(42)
+    >>> pr = cw.open_precip(xr.DataArray(
+    ...     rng.gamma(0.5, 8.0, size=(t.size, 2, 2)), dims=("time", "lat", "lon"), name="pr",
+    ...     attrs={"units": "mm"}, coords={"time": t, "lat": [0.5, 1.5], "lon": [0.5, 1.5]}))
+    >>> square = cw.Basin.from_vertices([(0, 0), (2, 0), (2, 2), (0, 2)], name="square")
+    >>> p = point_design_depths(pr, [square], periods=(10,), n_boot=50, n_sim=50, duration_days=1).compute()
+    >>> point_depth_table(p, period=10).columns.tolist()[:2]
+    ['point_at_site_mm', 'point_at_site_lower_mm']
+    """
     columns = (*POINT_COLUMNS, "heterogeneity_h1", "discordant_cells")
     if period is not None:
         return frame(ds.sel(return_period=period), columns=columns, display=display)
@@ -304,6 +405,38 @@ def warmed_depths(ds: xr.Dataset, delta_t: float = 0.0, rate: float = 0.07) -> x
 
     The factor is that of :func:`cw.warming_scaling` ((1 + rate) ** delta_t) and is kept in
     ``warming_factor``; at ``delta_t = 0`` the numbers are unchanged.
+
+    Parameters
+    ----------
+    ds : xarray.Dataset
+        From :func:`areal_design_depths`.
+    delta_t : float
+        Warming in kelvin.
+    rate : float
+        Fractional change per kelvin.
+
+    Returns
+    -------
+    xarray.Dataset
+
+    References
+    ----------
+    Trenberth, K. E., Dai, A., Rasmussen, R. M. & Parsons, D. B. (2003) The changing
+    character of precipitation. Bull. Amer. Meteor. Soc. 84, 1205-1217 (the about 7 % per
+    kelvin of the Clausius-Clapeyron relation). doi:10.1175/BAMS-84-9-1205
+
+    Examples
+    --------
+    >>> import numpy as np, pandas as pd, xarray as xr, climwidgets as cw
+    >>> t = pd.date_range("1981-01-01", "2010-12-31", freq="D")  # 30 invented years, 2 x 2 cells
+    >>> rng = np.random.default_rng(42)
+    >>> pr = cw.open_precip(xr.DataArray(
+    ...     rng.gamma(0.5, 8.0, size=(t.size, 2, 2)), dims=("time", "lat", "lon"), name="pr",
+    ...     attrs={"units": "mm"}, coords={"time": t, "lat": [0.5, 1.5], "lon": [0.5, 1.5]}))
+    >>> square = cw.Basin.from_vertices([(0, 0), (2, 0), (2, 2), (0, 2)], name="square")
+    >>> a = areal_design_depths(pr, [square], periods=(10,), n_boot=50, duration_days=1)
+    >>> warmed_depths(a, delta_t=1.0)["warming_factor"].values.round(4).tolist()
+    [[1.07]]
     """
     out = warming_scaling(ds, float(delta_t), rate=float(rate))
     factor = warming_scaling(xr.DataArray(1.0, attrs={"units": "mm"}), float(delta_t), rate=float(rate))
@@ -315,7 +448,34 @@ def warmed_depths(ds: xr.Dataset, delta_t: float = 0.0, rate: float = 0.07) -> x
 
 
 def depth_table(ds: xr.Dataset, period: Any = None, display: bool = False) -> pd.DataFrame:
-    """The areal-depth table: one row per basin (at ``period``) or per basin and period."""
+    """The areal-depth table: one row per basin (at ``period``) or per basin and period.
+
+    Parameters
+    ----------
+    ds : xarray.Dataset
+        From :func:`areal_design_depths`, computed.
+    period : float, optional
+        One return period; default all, indexed by (basin, return_period).
+    display : bool
+        Headings and scaling for people (True) or names and numbers for files.
+
+    Returns
+    -------
+    pandas.DataFrame
+
+    Examples
+    --------
+    >>> import numpy as np, pandas as pd, xarray as xr, climwidgets as cw
+    >>> t = pd.date_range("1981-01-01", "2010-12-31", freq="D")  # 30 invented years, 2 x 2 cells
+    >>> rng = np.random.default_rng(42)
+    >>> pr = cw.open_precip(xr.DataArray(
+    ...     rng.gamma(0.5, 8.0, size=(t.size, 2, 2)), dims=("time", "lat", "lon"), name="pr",
+    ...     attrs={"units": "mm"}, coords={"time": t, "lat": [0.5, 1.5], "lon": [0.5, 1.5]}))
+    >>> square = cw.Basin.from_vertices([(0, 0), (2, 0), (2, 2), (0, 2)], name="square")
+    >>> a = areal_design_depths(pr, [square], periods=(10, 100), n_boot=50, duration_days=1).compute()
+    >>> depth_table(a, period=100, display=True).columns.tolist()[:2]
+    ['areal depth [mm]', 'lower 90% [mm]']
+    """
     if period is not None:
         one = ds.sel(return_period=period)
         table = frame(one, columns=DEPTH_COLUMNS, display=display)
@@ -340,7 +500,35 @@ def regional_fit(
 
     The one regional analysis behind :func:`point_design_depths` and
     :func:`regional_depth_field`; pass it to both as ``regional=`` to build it once.
-    Parameters as in :func:`point_design_depths`.
+
+    Parameters
+    ----------
+    pr, basins, periods, ci, n_boot, n_sim, year_start, seed, min_years, **duration
+        As in :func:`point_design_depths`.
+
+    Returns
+    -------
+    xarray.Dataset
+        Per region (basin): index flood, L-moment ratios, discordancy, H1 and the regional
+        growth curve with its interval.
+
+    References
+    ----------
+    Hosking, J. R. M. & Wallis, J. R. (1997) Regional Frequency Analysis: An Approach Based
+    on L-Moments. Cambridge University Press. doi:10.1017/CBO9780511529443
+
+    Examples
+    --------
+    >>> import numpy as np, pandas as pd, xarray as xr, climwidgets as cw
+    >>> t = pd.date_range("1981-01-01", "2010-12-31", freq="D")  # 30 invented years, 2 x 2 cells
+    >>> rng = np.random.default_rng(42)
+    >>> pr = cw.open_precip(xr.DataArray(
+    ...     rng.gamma(0.5, 8.0, size=(t.size, 2, 2)), dims=("time", "lat", "lon"), name="pr",
+    ...     attrs={"units": "mm"}, coords={"time": t, "lat": [0.5, 1.5], "lon": [0.5, 1.5]}))
+    >>> square = cw.Basin.from_vertices([(0, 0), (2, 0), (2, 2), (0, 2)], name="square")
+    >>> r = regional_fit(pr, [square], periods=(10,), n_boot=50, n_sim=50, duration_days=1)
+    >>> bool(((0 < r["l_cv"]) & (r["l_cv"] < 1)).all())  # an L-CV lies between 0 and 1
+    True
     """
     basins = as_basin_list(basins, "regional_fit")
     ams = annual_maxima(pr, year_start=year_start, **(duration or {"duration_days": 1}))
@@ -384,6 +572,19 @@ def regional_depth_field(
     ----------
     Hosking, J. R. M. & Wallis, J. R. (1997) Regional Frequency Analysis: An Approach Based
     on L-Moments. Cambridge University Press. doi:10.1017/CBO9780511529443
+
+    Examples
+    --------
+    >>> import numpy as np, pandas as pd, xarray as xr, climwidgets as cw
+    >>> t = pd.date_range("1981-01-01", "2010-12-31", freq="D")  # 30 invented years, 2 x 2 cells
+    >>> rng = np.random.default_rng(42)
+    >>> pr = cw.open_precip(xr.DataArray(
+    ...     rng.gamma(0.5, 8.0, size=(t.size, 2, 2)), dims=("time", "lat", "lon"), name="pr",
+    ...     attrs={"units": "mm"}, coords={"time": t, "lat": [0.5, 1.5], "lon": [0.5, 1.5]}))
+    >>> square = cw.Basin.from_vertices([(0, 0), (2, 0), (2, 2), (0, 2)], name="square")
+    >>> f = regional_depth_field(pr, [square], periods=(10,), n_boot=50, n_sim=50, duration_days=1)
+    >>> dict(f["estimate"].sizes)
+    {'lat': 2, 'lon': 2, 'period': 1}
     """
     ams = annual_maxima(pr, year_start=year_start, **(duration or {"duration_days": 1}))
     if regional is None:
@@ -404,6 +605,39 @@ def warmed_point_depths(ds: xr.Dataset, delta_t: float = 0.0, rate: float = 0.07
     """``ds`` of :func:`point_design_depths` with the depth columns scaled as :func:`warmed_depths` does.
 
     H1 and the cell counts are kept as they are; at ``delta_t = 0`` nothing changes.
+
+    Parameters
+    ----------
+    ds : xarray.Dataset
+        From :func:`point_design_depths`.
+    delta_t : float
+        Warming in kelvin.
+    rate : float
+        Fractional change per kelvin.
+
+    Returns
+    -------
+    xarray.Dataset
+
+    References
+    ----------
+    Trenberth, K. E., Dai, A., Rasmussen, R. M. & Parsons, D. B. (2003) The changing
+    character of precipitation. Bull. Amer. Meteor. Soc. 84, 1205-1217 (the about 7 % per
+    kelvin of the Clausius-Clapeyron relation). doi:10.1175/BAMS-84-9-1205
+
+    Examples
+    --------
+    >>> import numpy as np, pandas as pd, xarray as xr, climwidgets as cw
+    >>> t = pd.date_range("1981-01-01", "2010-12-31", freq="D")  # 30 invented years, 2 x 2 cells
+    >>> rng = np.random.default_rng(42)
+    >>> pr = cw.open_precip(xr.DataArray(
+    ...     rng.gamma(0.5, 8.0, size=(t.size, 2, 2)), dims=("time", "lat", "lon"), name="pr",
+    ...     attrs={"units": "mm"}, coords={"time": t, "lat": [0.5, 1.5], "lon": [0.5, 1.5]}))
+    >>> square = cw.Basin.from_vertices([(0, 0), (2, 0), (2, 2), (0, 2)], name="square")
+    >>> p = point_design_depths(pr, [square], periods=(10,), n_boot=50, n_sim=50, duration_days=1)
+    >>> w = warmed_point_depths(p, delta_t=1.0)
+    >>> float((w["point_regional_mm"] / p["point_regional_mm"]).max().round(4))
+    1.07
     """
     out = warming_scaling(ds, float(delta_t), rate=float(rate))
     for name in ds.data_vars:
