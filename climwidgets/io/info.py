@@ -98,9 +98,9 @@ def describe(
     if a.get("missing_value_heuristics"):
         lines.append(f"missing:      {a['missing_value_heuristics']}")
     if scan:
-        import dask
+        from dask.base import compute as dask_compute
 
-        total, valid, lowest, highest = dask.compute(pr.size, pr.count(), pr.min(), pr.max())  # type: ignore[no-untyped-call]
+        total, valid, lowest, highest = dask_compute(pr.size, pr.count(), pr.min(), pr.max())  # type: ignore[no-untyped-call]
         frac = 1 - int(valid) / total
         lines.append(f"missing data: {frac:.2%} of values; range {float(lowest):.4g}..{float(highest):.4g} mm per step")
     else:

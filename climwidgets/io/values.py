@@ -346,9 +346,9 @@ def check_values(da: xr.DataArray, source: object, name: object) -> None:
     >>> import xarray as xr
     >>> check_values(xr.DataArray([0.0, 1.5], dims="time", coords={"time": [0, 1]}), "pr.nc", "pr")
     """
-    import dask
+    from dask.base import compute as dask_compute
 
-    lowest, valid = dask.compute(da.min(skipna=True), da.count())  # type: ignore[no-untyped-call]
+    lowest, valid = dask_compute(da.min(skipna=True), da.count())  # type: ignore[no-untyped-call]
     if int(valid) == 0:
         raise DataValueError(
             "contains no valid values (all missing)",
