@@ -1,5 +1,9 @@
 """The cluster path gives the same numbers as the threaded scheduler."""
 
+import os
+import pickle
+
+import dask
 import numpy as np
 import pytest
 import xarray as xr
@@ -35,9 +39,20 @@ def test_fused_pass_on_a_cluster_is_identical_to_threads(tmp_path):
     path = _write(tmp_path / "d.nc", years=3, chunks=(1, 4, 5))
     pr = cw.open_precip(path, chunks={"time": 60}, validate=False)
     assert _fused.applicable(pr, "day", (1,)) and _fused._stored_record(pr) is not None
+    lazy = climatology_bundle(pr, baseline=(2001, 2003))
+    # tasks carry the file's name and regions, not daily arrays or open handles: no task of
+    # the optimised graph pickles to more than a few kB (the data is ~4 kB per 60 days here,
+    # so an embedded block would show; 8 kB is a bound with room for dask's own wrapping)
+    (optimised,) = dask.optimize(lazy)
+    sizes = [len(pickle.dumps(task)) for task in dict(optimised.__dask_graph__()).values()]
+    assert max(sizes) < 8000
     threaded = climatology_bundle(pr, baseline=(2001, 2003), compute=True)
-    cw.use_cluster(n_workers=2)
+    client = cw.use_cluster(n_workers=2)
     try:
+        # workers keep glibc's own allocator settings (the trim setting costs CPU per task)
+        assert set(client.run(lambda: __import__("os").environ.get("MALLOC_TRIM_THRESHOLD_")).values()) <= {
+            os.environ.get("MALLOC_TRIM_THRESHOLD_")
+        }
         on_cluster = climatology_bundle(pr, baseline=(2001, 2003), compute=True)
     finally:
         close_cluster()
