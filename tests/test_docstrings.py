@@ -6,8 +6,9 @@ this test checks that they are there, with numpydoc's own parser (numpydoc.docsc
 Scope (issue 20): compute/, geo/, io/, scale, cache, atomic, errors and the
 top-level public API; of analyses/, the modules listed in ``DOCUMENTED`` so far (the
 others are added as their docstrings are completed: meta is not yet).  ``DOCUMENTED``
-lists the modules that meet the rule; ``PENDING`` the ones still to be written.  Move a module from PENDING to DOCUMENTED when its
-docstrings are complete; never add one to PENDING (a new module is documented from the start).
+lists the modules that meet the rule; ``PENDING`` the ones still to be written.  Move a
+module from PENDING to DOCUMENTED when its docstrings are complete; never add one to
+PENDING (a new module is documented from the start).
 """
 
 from __future__ import annotations
