@@ -98,7 +98,28 @@ __all__ = [
 
 @dataclass(frozen=True)
 class Meta:
-    """How one result variable is named and shown (see the module docstring)."""
+    """How one result variable is named and shown (see the module docstring).
+
+    Parameters
+    ----------
+    label : str
+        Plain words, lower case, no units.
+    units : str
+        CF units of the stored numbers.
+    description : str
+        One sentence on what the number is.
+    display_units : str, optional
+        Units the number is shown in; default ``units``.
+    display_scale : float
+        Shown value = stored value × scale.
+    display_format : str
+        Format spec of the shown value.
+
+    Examples
+    --------
+    >>> CATALOGUE["seasonal_share_1"].display_units, CATALOGUE["seasonal_share_1"].display_scale
+    ('%', 100.0)
+    """
 
     label: str
     units: str
@@ -405,7 +426,27 @@ INDEX_CATALOGUE: dict[str, Meta] = {
 
 
 def index_meta(name: str) -> Meta:
-    """The display attributes of an ETCCDI index, ``R<nn>mm`` for any threshold included."""
+    """The display attributes of an ETCCDI index, ``R<nn>mm`` for any threshold included.
+
+    Parameters
+    ----------
+    name : str
+        An ETCCDI index name ("Rx1day", "SDII", "R20mm", "R35mm", ...).
+
+    Returns
+    -------
+    Meta
+
+    References
+    ----------
+    Zhang, X. et al. (2011) Indices for monitoring changes in extremes based on daily
+    temperature and precipitation data. WIREs Clim. Change 2, 851-870. doi:10.1002/wcc.147
+
+    Examples
+    --------
+    >>> index_meta("R20mm").label
+    'R20mm, days with at least 20 mm'
+    """
     import re
 
     if name in INDEX_CATALOGUE:
@@ -455,6 +496,23 @@ def member_view_words(choice: str, n_members: int | None = None) -> dict[str, st
 
     ``choice`` is ``"mean"``, ``"spread"`` or a member label; ``n_members`` adds the
     ensemble size to the description of the summaries.
+
+    Parameters
+    ----------
+    choice : str
+        "mean", "spread" or a member label.
+    n_members : int, optional
+        The ensemble size.
+
+    Returns
+    -------
+    dict
+        ``label``, ``tag`` (for file names) and ``description``.
+
+    Examples
+    --------
+    >>> member_view_words("mean", 5)["tag"]
+    'ensemble-mean'
     """
     if isinstance(choice, str) and choice in MEMBER_VIEWS:
         words = dict(MEMBER_VIEWS[choice])
@@ -471,6 +529,24 @@ def member_view_attrs(attrs: dict[str, Any], choice: str, n_members: int | None 
     Every view records itself in ``ensemble_member``.  A summary also names itself in the
     label of a described variable ("seasonal share, ensemble mean") or in its
     ``long_name``; a member keeps its label (the numbers are that member's own).
+
+    Parameters
+    ----------
+    attrs : dict
+        The variable's attributes.
+    choice : str
+        "mean", "spread" or a member label.
+    n_members : int, optional
+        The ensemble size, for the description.
+
+    Returns
+    -------
+    dict
+
+    Examples
+    --------
+    >>> member_view_attrs({"label": "seasonal share", "units": "1"}, "spread", 5)["label"]
+    'seasonal share, spread between members'
     """
     words = member_view_words(choice, n_members)
     out = dict(attrs)
@@ -485,7 +561,26 @@ def member_view_attrs(attrs: dict[str, Any], choice: str, n_members: int | None 
 
 
 def ensemble_attrs(attrs: dict[str, Any], stat: str, words: str | None = None) -> dict[str, Any]:
-    """The display attributes of one ensemble figure of a described column."""
+    """The display attributes of one ensemble figure of a described column.
+
+    Parameters
+    ----------
+    attrs : dict
+        The described column's attributes.
+    stat : str
+        The ensemble statistic ("mean", "min", "max", ...).
+    words : str, optional
+        Words for the statistic; default those of ``stat``.
+
+    Returns
+    -------
+    dict
+
+    Examples
+    --------
+    >>> ensemble_attrs({"label": "seasonal share", "units": "1"}, "mean")["label"]
+    'seasonal share, ensemble mean'
+    """
     words = ENSEMBLE_STATS[stat] if words is None else words
     out = dict(attrs)
     out["label"] = f"{attrs.get('label', '')}, {words}"
@@ -494,7 +589,28 @@ def ensemble_attrs(attrs: dict[str, Any], stat: str, words: str | None = None) -
 
 
 def describe(da: xr.DataArray, name: str, **overrides: Any) -> xr.DataArray:
-    """``da`` named ``name`` with the display attributes of :data:`CATALOGUE` (and overrides)."""
+    """``da`` named ``name`` with the display attributes of :data:`CATALOGUE` (and overrides).
+
+    Parameters
+    ----------
+    da : xarray.DataArray
+    name : str
+        A key of :data:`CATALOGUE` (the variable's name).
+    **overrides
+        Attributes to set instead of the catalogue's (``label``, ``units`` ...).
+
+    Returns
+    -------
+    xarray.DataArray
+        A new object named ``name``; ``da`` is not changed.
+
+    Examples
+    --------
+    >>> import xarray as xr
+    >>> share = describe(xr.DataArray([0.3, 0.45], dims="basin", coords={"basin": ["a", "b"]}), "seasonal_share_1")
+    >>> share.name, share.attrs["display_units"]
+    ('seasonal_share_1', '%')
+    """
     meta = CATALOGUE.get(name)
     attrs = (
         meta.attrs()
@@ -517,14 +633,51 @@ def describe(da: xr.DataArray, name: str, **overrides: Any) -> xr.DataArray:
 
 
 def column_heading(attrs: dict[str, Any], name: str = "") -> str:
-    """'label [display units]', or the label alone when the number has no units."""
+    """'label [display units]', or the label alone when the number has no units.
+
+    Parameters
+    ----------
+    attrs : dict
+        A described variable's attributes.
+    name : str
+        Used when there is no label.
+
+    Returns
+    -------
+    str
+
+    Examples
+    --------
+    >>> import xarray as xr
+    >>> share = describe(xr.DataArray([0.3, 0.45], dims="basin", coords={"basin": ["a", "b"]}), "seasonal_share_1")
+    >>> column_heading(share.attrs)
+    'seasonal share [%]'
+    """
     label = attrs.get("label", name)
     units = attrs.get("display_units", attrs.get("units", ""))
     return f"{label} [{units}]" if units and units != "1" else str(label)
 
 
 def format_cell(value: object, attrs: dict[str, Any]) -> str:
-    """One shown value as text (the display scale is already applied), '–' when missing."""
+    """One shown value as text (the display scale is already applied), '–' when missing.
+
+    Parameters
+    ----------
+    value : object
+        The shown value.
+    attrs : dict
+        Its column's attributes (``display_format``).
+
+    Returns
+    -------
+    str
+        Never scientific notation; no minus sign on a value that rounds to zero.
+
+    Examples
+    --------
+    >>> format_cell(12345.6, {"display_format": ".4g"}), format_cell(float("nan"), {})
+    ('12,346', '–')
+    """
     if value is None or value is pd.NA:
         return "–"
     if isinstance(value, (str, bytes)):
@@ -546,7 +699,24 @@ def format_cell(value: object, attrs: dict[str, Any]) -> str:
 
 
 def table_variables(ds: xr.Dataset, index: Sequence[Hashable]) -> list[str]:
-    """The variables of ``ds`` that are columns of a table indexed by ``index`` dims."""
+    """The variables of ``ds`` that are columns of a table indexed by ``index`` dims.
+
+    Parameters
+    ----------
+    ds : xarray.Dataset
+    index : sequence of hashable
+
+    Returns
+    -------
+    list of str
+
+    Examples
+    --------
+    >>> import xarray as xr
+    >>> share = describe(xr.DataArray([0.3, 0.45], dims="basin", coords={"basin": ["a", "b"]}), "seasonal_share_1")
+    >>> table_variables(xr.Dataset({"seasonal_share_1": share}), ("basin",))
+    ['seasonal_share_1']
+    """
     index = tuple(index)
     return [str(k) for k, v in ds.data_vars.items() if set(v.dims) == set(index) and "label" in v.attrs]
 
@@ -564,10 +734,26 @@ _SYSTEM_WORDS = {"si": "SI", "metric": "SI", "us": "US", "us customary": "US", "
 def unit_system(units: object, source: str = "units") -> str:
     """``"SI"`` or ``"US"`` for a unit-system choice ("SI", "si", "US", "us", "US customary").
 
+    Parameters
+    ----------
+    units : object
+        What the user chose; None means SI.
+    source : str
+        The parameter's name, for the message.
+
+    Returns
+    -------
+    str
+
     Raises
     ------
     ParameterError
         For anything else, saying what is offered.
+
+    Examples
+    --------
+    >>> unit_system("us customary"), unit_system("si")
+    ('US', 'SI')
     """
     key = str(units).strip().lower() if isinstance(units, str) else None
     if key not in _SYSTEM_WORDS:
@@ -735,6 +921,24 @@ def shown_in_units(table: pd.DataFrame, units: str = "SI") -> pd.DataFrame:
     The widgets keep the table their analysis gave and show it through this, so the units
     menu redraws without computing anything.  Columns without attributes are kept as
     they are.
+
+    Parameters
+    ----------
+    table : pandas.DataFrame
+        A table as shown in SI.
+    units : {"SI", "US"}
+
+    Returns
+    -------
+    pandas.DataFrame
+
+    Examples
+    --------
+    >>> import xarray as xr
+    >>> mean = describe(xr.DataArray([500.0], dims="basin", coords={"basin": ["a"]}), "annual_mean_mm")
+    >>> shown = shown_in_units(frame(xr.Dataset({"annual_mean_mm": mean}), display=True), "US")
+    >>> [(c, round(v, 2)) for c, v in shown.iloc[0].items()]  # 500 mm / 25.4 mm per inch
+    [('mean annual total [in]', 19.69)]
     """
     system = unit_system(units)
     described = table.attrs.get("columns") or {}
@@ -768,6 +972,27 @@ def field_in_units(field: xr.DataArray, units: str = "SI", label: str | None = N
     the SI display units in brackets ("mean annual total [mm]") is given the new ones; a
     label naming other units in brackets leaves the field in SI (its numbers then still
     match its words).
+
+    Parameters
+    ----------
+    field : xarray.DataArray
+        A described field.
+    units : {"SI", "US"}
+    label : str, optional
+        Its label with the SI display units in brackets.
+
+    Returns
+    -------
+    tuple
+        ``(field, label)`` with the unit system's display attributes and words.
+
+    Examples
+    --------
+    >>> import xarray as xr
+    >>> field, label = field_in_units(xr.DataArray([[1.0]], dims=("lat", "lon"), attrs={"units": "mm"}),
+    ...                               "US", "mean annual total [mm]")
+    >>> label, field.attrs["display_units"]
+    ('mean annual total [in]', 'in')
     """
     system = unit_system(units)
     if system == "SI" or _us_conversion(field.attrs.get("units", "")) is None:
@@ -801,6 +1026,31 @@ def frame(
     the result maps each column to the variable's attributes, for formatting.
     ``units="US"`` shows depths, volumes and areas in US customary units (with
     ``display=False``: converted numbers under US names, see :func:`to_units`).
+
+    Parameters
+    ----------
+    ds : xarray.Dataset
+        Described variables (computed).
+    index : sequence of hashable
+        The dims that index the rows.
+    display : bool
+        For people: scaled, under "label [units]"; else names and stored numbers.
+    columns : sequence of str, optional
+        The variables, in order; default every described variable on ``index``.
+    units : {"SI", "US"}
+        The unit system.
+
+    Returns
+    -------
+    pandas.DataFrame
+        ``attrs["columns"]`` holds each column's words and units.
+
+    Examples
+    --------
+    >>> import xarray as xr
+    >>> share = describe(xr.DataArray([0.3, 0.45], dims="basin", coords={"basin": ["a", "b"]}), "seasonal_share_1")
+    >>> frame(xr.Dataset({"seasonal_share_1": share}), display=True)["seasonal share [%]"].tolist()
+    [30.0, 45.0]
     """
     system = unit_system(units)
     index = tuple(index)
@@ -853,6 +1103,25 @@ def display_frame(table: pd.DataFrame, units: str = "SI", **overrides: Any) -> p
     :data:`CATALOGUE`; ``overrides`` maps a column to attribute changes (a label naming
     the season, say).  Columns the catalogue does not know keep their names.  ``units``
     is the unit system shown ("SI" or "US", see :func:`unit_attrs`).
+
+    Parameters
+    ----------
+    table : pandas.DataFrame
+        From :func:`frame` (``display=False``).
+    units : {"SI", "US"}
+    **overrides
+        Attributes per column, ``{name: {"label": ...}}``.
+
+    Returns
+    -------
+    pandas.DataFrame
+
+    Examples
+    --------
+    >>> import xarray as xr
+    >>> share = describe(xr.DataArray([0.3, 0.45], dims="basin", coords={"basin": ["a", "b"]}), "seasonal_share_1")
+    >>> display_frame(frame(xr.Dataset({"seasonal_share_1": share}))).columns.tolist()
+    ['seasonal share [%]']
     """
     system = unit_system(units)
     described = table.attrs.get("columns") or {}
@@ -901,7 +1170,28 @@ def _plain_number(v: object) -> str:
 def people_frame(table: pd.DataFrame, units: str = "SI", **overrides: Any) -> pd.DataFrame:
     """:func:`display_frame` with every cell as text in its display format (for notebooks
     and other tables read by people: no scientific notation, '–' for missing), in the
-    unit system ``units``."""
+    unit system ``units``.
+
+    Parameters
+    ----------
+    table : pandas.DataFrame
+        From :func:`frame` (``display=False``).
+    units : {"SI", "US"}
+    **overrides
+        As for :func:`display_frame`.
+
+    Returns
+    -------
+    pandas.DataFrame
+        Every cell text.
+
+    Examples
+    --------
+    >>> import xarray as xr
+    >>> share = describe(xr.DataArray([0.3, 0.45], dims="basin", coords={"basin": ["a", "b"]}), "seasonal_share_1")
+    >>> people_frame(frame(xr.Dataset({"seasonal_share_1": share})))["seasonal share [%]"].tolist()
+    ['30.0', '45.0']
+    """
     shown = display_frame(table, units=units, **overrides)
     columns = shown.attrs["columns"]
     out = shown.astype(object)
