@@ -67,11 +67,12 @@ class InputRecord:
 
 
 def human_size(n: int) -> str:
+    size: float = n
     for unit in ("bytes", "kB", "MB", "GB", "TB"):
-        if n < 1000 or unit == "TB":
-            return f"{n} {unit}" if unit == "bytes" else f"{n:.1f} {unit}"
-        n /= 1000.0
-    return f"{n} bytes"
+        if size < 1000 or unit == "TB":
+            return f"{size} {unit}" if unit == "bytes" else f"{size:.1f} {unit}"
+        size /= 1000.0
+    return f"{size} bytes"
 
 
 def _sha256(path: Path) -> str:

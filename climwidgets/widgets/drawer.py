@@ -14,6 +14,7 @@ field (``cw.basin_mean``).  ``drawer.basins`` is the list of ``cw.Basin``.
 from __future__ import annotations
 
 import json
+from collections.abc import Callable
 
 import ipywidgets as widgets
 import xarray as xr
@@ -44,8 +45,8 @@ class DrawingTools(widgets.VBox):
     def __init__(self, map_frame: MapFrame, basins=(), report=None):
         self.map = map_frame
         self.basin_set = basins if isinstance(basins, BasinSet) else BasinSet(basins or [])
-        self.vertices = []
-        self._listeners = []
+        self.vertices: list[tuple[float, float]] = []
+        self._listeners: list[Callable[..., object]] = []
         self._report = report or (lambda message: None)
         lay = widgets.Layout(width="auto")
         self.draw = widgets.ToggleButton(
@@ -147,7 +148,7 @@ class DrawingTools(widgets.VBox):
         self.map.set_overlay(self.vertices)
 
     def discard(self):
-        self.vertices = []
+        self.vertices: list[tuple[float, float]] = []
         self.map.set_overlay([])
 
     def _default_name(self):
@@ -172,7 +173,7 @@ class DrawingTools(widgets.VBox):
         except InputError as exc:
             self._report(exc)
             return None
-        self.vertices = []
+        self.vertices: list[tuple[float, float]] = []
         self.name.value = ""
         self.map.set_overlay([])
         self._report(f"Added basin {name}.")
